@@ -1,0 +1,5 @@
+"""``python -m stepper`` runs the command line."""
+
+from stepper.cli.main import entry
+
+entry()

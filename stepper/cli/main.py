@@ -1,0 +1,92 @@
+"""`stepper` entry point: one subcommand per module in :mod:`stepper.cli`.
+
+Each command module defines ``HELP`` (one line), ``add_arguments(parser)`` and
+``run(args) -> int`` and imports nothing heavy at module level (galois, numpy
+kernels and Textual load inside ``run``), so ``stepper --help`` and
+``stepper check`` start fast. Errors from the core arrive as
+:class:`stepper.errors.StepperError` and leave as one line on stderr with the
+error's exit code; nothing here prints a traceback for bad input.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from typing import NoReturn, Sequence
+
+from stepper import __version__
+from stepper.errors import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, StepperError
+
+__all__ = ["main", "COMMANDS"]
+
+# name -> module under stepper.cli (the module's HELP is the summary line)
+COMMANDS: dict[str, str] = {
+    "check": "check_cmd",
+    "info": "info_cmd",
+    "record": "record_cmd",
+    "import": "import_cmd",
+    "export": "export_cmd",
+    "view": "view_cmd",
+    "diff": "diff_cmd",
+    "note": "note_cmd",
+    "report": "report_cmd",
+    "prove": "prove_cmd",
+    "buckets": "buckets_cmd",
+    "plan": "plan_cmd",
+    "demo": "demo_cmd",
+}
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors and exit code 2."""
+
+    def error(self, message: str) -> NoReturn:
+        self.exit(EXIT_INPUT, f"{self.prog}: {message} (see {self.prog} --help)\n")
+
+
+def _build_parser() -> tuple[_Parser, dict[str, object]]:
+    parser = _Parser(
+        prog="stepper",
+        description="Step through sumcheck transcripts: replay the verifier, find the failing "
+        "round and check, trace it to its root cause, compare runs.",
+        epilog="A passing replay is evidence about one run, not a soundness proof of a protocol.",
+    )
+    parser.add_argument("--version", action="version", version=f"stepper {__version__}")
+    subs = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    modules: dict[str, object] = {}
+    for name, module_name in COMMANDS.items():
+        module = importlib.import_module(f"stepper.cli.{module_name}")
+        modules[name] = module
+        sub = subs.add_parser(name, help=module.HELP, description=getattr(module, "DESCRIPTION", module.HELP))
+        module.add_arguments(sub)
+    return parser, modules
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser, modules = _build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_INPUT
+    try:
+        return int(modules[args.command].run(args))  # type: ignore[attr-defined]
+    except StepperError as err:
+        print(f"stepper {args.command}: {err}", file=sys.stderr)
+        return err.exit_code
+    except KeyboardInterrupt:
+        print(f"stepper {args.command}: interrupted", file=sys.stderr)
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:
+        return 0
+    except Exception as err:  # a bug: one line plus a request, exit 70
+        print(
+            f"stepper {args.command}: internal error ({type(err).__name__}: {err}); "
+            "please report it with the input that caused it",
+            file=sys.stderr,
+        )
+        return EXIT_INTERNAL
+
+
+def entry() -> None:
+    sys.exit(main())

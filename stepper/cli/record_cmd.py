@@ -1,0 +1,17 @@
+"""`stepper record`: not built yet (PENDING: an open issue fills this in)."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+HELP = "(record: not built yet)"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+
+
+def run(args: argparse.Namespace) -> int:
+    print("stepper record: not built yet", file=sys.stderr)
+    return 2

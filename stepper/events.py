@@ -1,0 +1,358 @@
+"""Event payloads <-> event records, and the rules of their order.
+
+Both transcript files (msgpack; elements as fixed-width bytes) and event
+streams (JSON lines; elements as ints, decimal or 0x strings, lists) carry
+the same payloads: maps with a ``type`` key. :class:`Sequencer` turns them,
+one at a time, into the records of :mod:`stepper.transcript`, checking what
+a payload may contain and where it may stand:
+
+* ``field`` comes first, once; ``schedule`` may follow it, before any instance;
+* ``batch`` (optional) immediately precedes the ``instance`` it describes;
+* rounds of an instance come in order, each followed by its ``challenge``,
+  at most ``num_vars`` of them; ``final`` comes after the last challenge;
+* ``buckets``, ``note`` and unknown types may stand anywhere after ``field``.
+
+:func:`to_payload` is the inverse: a record as a payload, binary or JSON.
+Caps keep a hostile input from costing unbounded memory.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+from stepper.errors import FieldError, TranscriptError, Where
+from stepper.field import Element, Field, field_from_spec
+from stepper.poly import FORMS, ORDERS
+from stepper.transcript import (
+    BatchDecl,
+    BucketStats,
+    ChallengeMsg,
+    Event,
+    FieldDecl,
+    FinalValue,
+    InstanceStart,
+    Note,
+    RoundMsg,
+    ScheduleDecl,
+    UnknownEvent,
+)
+
+__all__ = ["Sequencer", "to_payload", "MAX_VALUES", "MAX_TEXT", "MAX_NUM_VARS", "MAX_DEGREE"]
+
+MAX_VALUES = 1 << 16  # field elements in one event
+MAX_SIZES = 1 << 22  # bucket sizes in one event
+MAX_TEXT = 1 << 16  # characters in one string
+MAX_NUM_VARS = 64
+MAX_DEGREE = 1 << 12
+MAX_DEPTH = 16  # nesting of unknown payloads and metadata
+
+KNOWN_TYPES = ("field", "schedule", "batch", "instance", "round", "challenge", "final", "buckets", "note")
+
+
+class Sequencer:
+    """Feeds payloads in order; returns one record per payload or raises
+    :class:`TranscriptError` naming the event index, instance and round."""
+
+    def __init__(self, source: Where | None = None) -> None:
+        self.source = source or Where()
+        self.field: Field | None = None
+        self.count = 0  # payloads fed
+        self.instances: list[InstanceStart] = []
+        self.rounds_done = 0  # rounds of the current instance
+        self.awaiting_challenge = False
+        self.final_seen = False
+        self.pending_batch: BatchDecl | None = None
+
+    # ----- position --------------------------------------------------------------
+    @property
+    def current(self) -> InstanceStart | None:
+        return self.instances[-1] if self.instances else None
+
+    def where(self, round_: int | None = None) -> Where:
+        cur = self.current
+        return self.source.but(
+            event=self.count,
+            instance=cur.name if cur else None,
+            round=round_,
+        )
+
+    def _fail(self, message: str, round_: int | None = None) -> TranscriptError:
+        return TranscriptError(message, self.where(round_))
+
+    # ----- feeding ---------------------------------------------------------------
+    def feed(self, payload: Any, where: Where | None = None) -> Event:
+        if where is not None:
+            self.source = where
+        try:
+            return self._feed(payload)
+        finally:
+            self.count += 1
+
+    def _feed(self, payload: Any) -> Event:
+        if not isinstance(payload, Mapping):
+            raise self._fail(f"expected an event map with a `type`, found {type(payload).__name__}")
+        kind = payload.get("type")
+        if not isinstance(kind, str):
+            raise self._fail(f"expected a string `type` in every event, found {_short(kind)}")
+        if self.field is None and kind != "field":
+            if kind in KNOWN_TYPES:
+                raise self._fail(f"expected the `field` event first, found `{_short(kind)}`")
+            return UnknownEvent(kind[:MAX_TEXT], _plain(payload, self, 0))
+        handler = getattr(self, "_on_" + kind, None) if kind in KNOWN_TYPES else None
+        if handler is None:
+            cur = self.current
+            return UnknownEvent(kind[:MAX_TEXT], _plain(payload, self, 0), cur.index if cur else None)
+        return handler(payload)  # type: ignore[no-any-return]
+
+    def _on_field(self, payload: Mapping[str, Any]) -> Event:
+        if self.field is not None:
+            raise self._fail("expected one `field` event, found a second")
+        try:
+            self.field = field_from_spec(dict(payload), self.where())
+        except FieldError as err:
+            raise TranscriptError(err.message, err.where) from None
+        return FieldDecl(self.field)
+
+    def _on_schedule(self, payload: Mapping[str, Any]) -> Event:
+        if self.instances:
+            raise self._fail("expected the `schedule` event before the first instance")
+        name = _text(payload.get("name"), "schedule name", self)
+        label = _text(payload.get("label", ""), "schedule label", self)
+        params = payload.get("params", {})
+        if not isinstance(params, Mapping):
+            raise self._fail("expected schedule `params` as a map")
+        return ScheduleDecl(name, label, _plain(params, self, 0))
+
+    def _on_batch(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
+        coefficient = self._element(payload.get("coefficient"), "batch coefficient")
+        terms = self._elements(payload.get("terms"), "batch terms")
+        sources_raw = payload.get("sources", [])
+        if not isinstance(sources_raw, list) or len(sources_raw) > len(terms) or len(sources_raw) > MAX_VALUES:
+            raise self._fail("expected batch `sources` as a list of at most one string per term")
+        sources = tuple(_text(s, "batch source", self) for s in sources_raw)
+        self.pending_batch = BatchDecl(coefficient, terms, sources)
+        return self.pending_batch
+
+    def _on_instance(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
+        name = _text(payload.get("name", f"instance {len(self.instances)}"), "instance name", self)
+        num_vars = _count(payload.get("num_vars"), "num_vars", 0, MAX_NUM_VARS, self)
+        degree = _count(payload.get("degree"), "degree", 0, MAX_DEGREE, self)
+        claim = self._element(payload.get("claim"), "claim")
+        order = payload.get("order", "low-first")
+        if order not in ORDERS:
+            raise self._fail(f"expected `order` among {', '.join(ORDERS)}, found {_short(order)}")
+        form = payload.get("form", "evals")
+        if form not in FORMS:
+            raise self._fail(f"expected `form` among {', '.join(FORMS)}, found {_short(form)}")
+        start = InstanceStart(len(self.instances), name, num_vars, degree, claim, order, form, self.pending_batch)
+        self.pending_batch = None
+        self.instances.append(start)
+        self.rounds_done = 0
+        self.awaiting_challenge = False
+        self.final_seen = False
+        return start
+
+    def _close_instance(self) -> None:
+        if self.pending_batch is not None:
+            raise self._fail("expected an `instance` event right after `batch`")
+
+    def _on_round(self, payload: Mapping[str, Any]) -> Event:
+        cur = self._need_instance("round")
+        number = self.rounds_done + 1
+        if self.awaiting_challenge:
+            raise self._fail(f"expected the challenge of round {self.rounds_done} before another round", number)
+        if number > cur.num_vars:
+            raise self._fail(f"expected at most num_vars = {cur.num_vars} rounds, found round {number}", number)
+        raw = next((payload[k] for k in ("evals", "values", "coeffs") if k in payload), None)
+        values = self._elements(raw, "round values", number)
+        self.rounds_done = number
+        self.awaiting_challenge = True
+        return RoundMsg(cur.index, number, values)
+
+    def _on_challenge(self, payload: Mapping[str, Any]) -> Event:
+        cur = self._need_instance("challenge")
+        if not self.awaiting_challenge:
+            raise self._fail("expected a round before its challenge, found a challenge with no round pending",
+                             self.rounds_done or None)
+        value = self._element(payload.get("value"), "challenge", self.rounds_done)
+        self.awaiting_challenge = False
+        return ChallengeMsg(cur.index, self.rounds_done, value)
+
+    def _on_final(self, payload: Mapping[str, Any]) -> Event:
+        cur = self._need_instance("final")
+        if self.final_seen:
+            raise self._fail("expected one `final` per instance, found a second")
+        if self.rounds_done != cur.num_vars or self.awaiting_challenge:
+            raise self._fail(
+                f"expected `final` after all {cur.num_vars} rounds and their challenges, "
+                f"found it after {self.rounds_done} rounds"
+            )
+        self.final_seen = True
+        return FinalValue(cur.index, self._element(payload.get("value"), "final value"))
+
+    def _on_buckets(self, payload: Mapping[str, Any]) -> Event:
+        cur = self._need_instance("buckets")
+        round_ = _count(payload.get("round"), "buckets round", 0, MAX_NUM_VARS, self)
+        chunk = _count(payload.get("chunk"), "buckets chunk", 0, 1 << 20, self)
+        count = _count(payload.get("count"), "buckets count", 0, 1 << 62, self)
+        sizes_raw = payload.get("sizes")
+        sizes: tuple[int, ...] | None = None
+        if sizes_raw is not None:
+            if not isinstance(sizes_raw, list) or len(sizes_raw) > MAX_SIZES:
+                raise self._fail(f"expected bucket `sizes` as a list of at most {MAX_SIZES} counts")
+            sizes = tuple(_count(s, "bucket size", 0, 1 << 62, self) for s in sizes_raw)
+        bound = payload.get("bound_log2")
+        remaining = payload.get("remaining")
+        extra = {k: v for k, v in payload.items()
+                 if k not in ("type", "round", "chunk", "count", "sizes", "bound_log2", "remaining")}
+        return BucketStats(
+            cur.index,
+            round_,
+            chunk,
+            count,
+            sizes,
+            None if bound is None else _count(bound, "bound_log2", 0, 1 << 40, self),
+            None if remaining is None else _count(remaining, "remaining", 0, 1 << 62, self),
+            _plain(extra, self, 0),
+        )
+
+    def _on_note(self, payload: Mapping[str, Any]) -> Event:
+        text = _text(payload.get("text"), "note text", self)
+        target = payload.get("instance")
+        if target is None:
+            index = self.current.index if self.current else None
+        elif isinstance(target, str):
+            matches = [s.index for s in self.instances if s.name == target]
+            if not matches:
+                raise self._fail(f"expected a note's `instance` to name an instance seen so far, found {_short(target)}")
+            index = matches[-1]
+        else:
+            index = _count(target, "note instance", 0, max(0, len(self.instances) - 1), self)
+            if not self.instances:
+                raise self._fail("expected a note's `instance` to refer to an instance seen so far")
+        round_raw = payload.get("round")
+        round_ = None if round_raw is None else _count(round_raw, "note round", 0, MAX_NUM_VARS, self)
+        return Note(text, index, round_)
+
+    # ----- helpers -------------------------------------------------------------------
+    def _need_instance(self, kind: str) -> InstanceStart:
+        cur = self.current
+        if cur is None:
+            raise self._fail(f"expected an `instance` event before `{kind}`")
+        return cur
+
+    def _element(self, raw: Any, what: str, round_: int | None = None) -> Element:
+        assert self.field is not None
+        if raw is None:
+            raise self._fail(f"expected a {what}, found none", round_)
+        try:
+            return self.field.parse(raw, self.where(round_))
+        except FieldError as err:
+            raise TranscriptError(f"{what}: {err.message}", err.where) from None
+
+    def _elements(self, raw: Any, what: str, round_: int | None = None) -> tuple[Element, ...]:
+        if isinstance(raw, (bytes, bytearray)) and self.field is not None:
+            raw = _split_blob(bytes(raw), self.field.elem_bytes, what, self, round_)
+        if not isinstance(raw, list):
+            raise self._fail(f"expected {what} as a list, found {_short(raw)}", round_)
+        if len(raw) > MAX_VALUES:
+            raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(raw)}", round_)
+        return tuple(self._element(v, what, round_) for v in raw)
+
+
+def _split_blob(blob: bytes, width: int, what: str, seq: Sequencer, round_: int | None) -> list[bytes]:
+    """A packed run of fixed-width elements (the binary form of a list) as its pieces."""
+    if len(blob) % width:
+        raise seq._fail(f"expected {what} packed as a multiple of {width} bytes, found {len(blob)}", round_)
+    return [blob[i : i + width] for i in range(0, len(blob), width)]
+
+
+def _short(value: object) -> str:
+    text = repr(value)
+    return text if len(text) <= 40 else text[:37] + "..."
+
+
+def _text(value: object, what: str, seq: Sequencer) -> str:
+    if not isinstance(value, str):
+        raise seq._fail(f"expected {what} as a string, found {_short(value)}")
+    if len(value) > MAX_TEXT:
+        raise seq._fail(f"expected {what} of at most {MAX_TEXT} characters, found {len(value)}")
+    return value
+
+
+def _count(value: object, what: str, low: int, high: int, seq: Sequencer) -> int:
+    if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
+        raise seq._fail(f"expected {what} an integer in {low}..{high}, found {_short(value)}")
+    return value
+
+
+def _plain(value: Any, seq: Sequencer, depth: int) -> Any:
+    """A copy of arbitrary payload data, refusing deep nesting and huge strings."""
+    if depth > MAX_DEPTH:
+        raise seq._fail(f"expected payload nesting of at most {MAX_DEPTH} levels")
+    if isinstance(value, Mapping):
+        return {str(k)[:MAX_TEXT]: _plain(v, seq, depth + 1) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v, seq, depth + 1) for v in value]
+    if isinstance(value, str) and len(value) > MAX_TEXT:
+        raise seq._fail(f"expected strings of at most {MAX_TEXT} characters, found {len(value)}")
+    return value
+
+
+def to_payload(event: Event, field: Field | None, binary: bool) -> dict[str, Any]:
+    """The payload of a record: elements as fixed-width bytes (``binary``) or JSON values."""
+
+    def el(e: Element) -> Any:
+        assert field is not None
+        return field.encode(e) if binary else field.to_json(e)
+
+    if isinstance(event, FieldDecl):
+        return {"type": "field", **event.field.spec()}
+    if isinstance(event, ScheduleDecl):
+        out: dict[str, Any] = {"type": "schedule", "name": event.name}
+        if event.label:
+            out["label"] = event.label
+        if event.params:
+            out["params"] = dict(event.params)
+        return out
+    if isinstance(event, BatchDecl):
+        out = {"type": "batch", "coefficient": el(event.coefficient), "terms": [el(t) for t in event.terms]}
+        if event.sources:
+            out["sources"] = list(event.sources)
+        return out
+    if isinstance(event, InstanceStart):
+        out = {"type": "instance", "name": event.name, "num_vars": event.num_vars, "degree": event.degree,
+               "claim": el(event.claim)}
+        if event.order != "low-first":
+            out["order"] = event.order
+        if event.form != "evals":
+            out["form"] = event.form
+        return out
+    if isinstance(event, RoundMsg):
+        return {"type": "round", "evals": [el(v) for v in event.values]}
+    if isinstance(event, ChallengeMsg):
+        return {"type": "challenge", "value": el(event.value)}
+    if isinstance(event, FinalValue):
+        return {"type": "final", "value": el(event.value)}
+    if isinstance(event, BucketStats):
+        out = {"type": "buckets", "round": event.round, "chunk": event.chunk, "count": event.count}
+        if event.sizes is not None:
+            out["sizes"] = list(event.sizes)
+        if event.bound_log2 is not None:
+            out["bound_log2"] = event.bound_log2
+        if event.remaining is not None:
+            out["remaining"] = event.remaining
+        out.update(event.extra)
+        return out
+    if isinstance(event, Note):
+        out = {"type": "note", "text": event.text}
+        if event.instance is not None:
+            out["instance"] = event.instance
+        if event.round is not None:
+            out["round"] = event.round
+        return out
+    if isinstance(event, UnknownEvent):
+        return {**event.payload, "type": event.kind}
+    raise TypeError(f"not an event record: {type(event).__name__}")

@@ -1,0 +1,444 @@
+"""Finite fields: the named prime fields of the trade, any user prime, and
+extensions F_p[X]/(q(X)) by a monic irreducible q.
+
+A :class:`Field` is identified by its modulus p and, for an extension, its
+polynomial q; :func:`get_field` returns the same object for the same field.
+Scalar elements are canonical Python values: an ``int`` in [0, p) for a prime
+field, a ``tuple`` of k such ints (constant term first) for a degree-k
+extension. Vectors are numpy arrays handled by :mod:`stepper.kernels`
+(1-D for a prime field, shape (n, k) for an extension); the ``v*`` methods
+here are the public face of those kernels.
+
+Invariants: every value a Field method returns is canonical; parsing rejects,
+never reduces, a non-canonical input; the byte encoding is fixed width,
+little endian, ``base_bytes`` per base coefficient.
+"""
+
+from __future__ import annotations
+
+import random
+from functools import cached_property
+from typing import TYPE_CHECKING, Any, Union
+
+from stepper.errors import FieldError, Where
+from stepper.numbertheory import is_irreducible, is_probable_prime
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from stepper.kernels import Kernel
+
+__all__ = ["Element", "Field", "get_field", "field_from_spec", "NAMED_PRIMES", "DEFAULT_IRREDUCIBLES"]
+
+Element = Union[int, tuple[int, ...]]
+
+# Moduli with the document that defines each (the tests pin them).
+NAMED_PRIMES: dict[str, int] = {
+    # BN254 (alt_bn128) group order r: EIP-196 / EIP-197 ("curve_order").
+    "bn254": 21888242871839275222246405745257275088548364400416034343698204186575808495617,
+    # BLS12-381 subgroup order r: IETF draft-irtf-cfrg-pairing-friendly-curves, section 4.2.1.
+    "bls12-381": 0x73EDA753299D7D483339D80809A1D80553BDA402FFFE5BFEFFFFFFFF00000001,
+    # The following are common practice, no single defining document.
+    "goldilocks": 2**64 - 2**32 + 1,
+    "babybear": 2**31 - 2**27 + 1,
+    "koalabear": 2**31 - 2**24 + 1,
+    "mersenne31": 2**31 - 1,
+}
+
+# Default extension polynomials, constant term first, monic. Sources (from memory):
+# X^4 - 11 over BabyBear, X^4 - 3 over KoalaBear and X^2 - 7 over Goldilocks are the
+# binomials used by the Plonky3 / Plonky2 code bases. Mersenne31 has no irreducible
+# binomial of degree 4 (4 does not divide p - 1), so we flatten the tower
+# i^2 = -1, u^2 = 2 + i (the Plonky3 complex-extension tower) into u^4 - 4u^2 + 5.
+DEFAULT_IRREDUCIBLES: dict[tuple[str, int], tuple[int, ...]] = {
+    ("babybear", 4): (NAMED_PRIMES["babybear"] - 11, 0, 0, 0, 1),
+    ("koalabear", 4): (NAMED_PRIMES["koalabear"] - 3, 0, 0, 0, 1),
+    ("goldilocks", 2): (NAMED_PRIMES["goldilocks"] - 7, 0, 1),
+    ("mersenne31", 4): (5, 0, NAMED_PRIMES["mersenne31"] - 4, 0, 1),
+}
+
+_CACHE: dict[tuple[int, tuple[int, ...]], Field] = {}
+_NAME_OF_PRIME = {p: name for name, p in NAMED_PRIMES.items()}
+
+
+class Field:
+    """F_p (``irreducible == ()``) or F_p[X]/(q) with q = ``irreducible``."""
+
+    __slots__ = ("p", "irreducible", "degree", "name", "base_bytes", "elem_bytes", "__dict__")
+
+    def __init__(self, p: int, irreducible: tuple[int, ...] = ()) -> None:
+        self.p = p
+        self.irreducible = irreducible
+        self.degree = max(1, len(irreducible) - 1)
+        self.name = _NAME_OF_PRIME.get(p)
+        self.base_bytes = (p.bit_length() + 7) // 8
+        self.elem_bytes = self.base_bytes * self.degree
+
+    # ----- identity -------------------------------------------------------------
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, Field) and (self.p, self.irreducible) == (other.p, other.irreducible)
+
+    def __hash__(self) -> int:
+        return hash((self.p, self.irreducible))
+
+    def __repr__(self) -> str:
+        return f"Field({self.describe()})"
+
+    @property
+    def is_extension(self) -> bool:
+        return self.degree > 1
+
+    @property
+    def order(self) -> int:
+        return self.p**self.degree
+
+    @cached_property
+    def base(self) -> Field:
+        return get_field(self.p)
+
+    def describe(self) -> str:
+        """Human name, e.g. ``babybear^4 [X^4 - 11]`` or ``F_p p=101``."""
+        head = self.name if self.name else f"F_p p={self.p}"
+        if not self.is_extension:
+            return head
+        return f"{head}^{self.degree} [{format_poly(self.irreducible, self.p)}]"
+
+    def spec(self) -> dict[str, Any]:
+        """The `field` event payload (without the type) that names this field."""
+        out: dict[str, Any] = {"name": self.name} if self.name else {"modulus": str(self.p)}
+        if self.is_extension:
+            out["extension_degree"] = self.degree
+            out["irreducible"] = [str(c) for c in self.irreducible]
+        return out
+
+    # ----- scalar arithmetic ------------------------------------------------------
+    @property
+    def zero(self) -> Element:
+        return (0,) * self.degree if self.is_extension else 0
+
+    @property
+    def one(self) -> Element:
+        return (1,) + (0,) * (self.degree - 1) if self.is_extension else 1
+
+    def embed(self, n: int) -> Element:
+        """The image of the integer n (reduced mod p)."""
+        if self.is_extension:
+            return (n % self.p,) + (0,) * (self.degree - 1)
+        return n % self.p
+
+    def lift(self, e: Element) -> Element:
+        """A base-field int embedded here, or an element of this field unchanged."""
+        if self.is_extension and isinstance(e, int):
+            return (e,) + (0,) * (self.degree - 1)
+        return e
+
+    def is_base(self, e: Element) -> bool:
+        return isinstance(e, int) or not any(e[1:])
+
+    def add(self, a: Element, b: Element) -> Element:
+        p = self.p
+        if isinstance(a, int):
+            return (a + b) % p  # type: ignore[operator]
+        return tuple((x + y) % p for x, y in zip(a, b))  # type: ignore[arg-type]
+
+    def sub(self, a: Element, b: Element) -> Element:
+        p = self.p
+        if isinstance(a, int):
+            return (a - b) % p  # type: ignore[operator]
+        return tuple((x - y) % p for x, y in zip(a, b))  # type: ignore[arg-type]
+
+    def neg(self, a: Element) -> Element:
+        p = self.p
+        if isinstance(a, int):
+            return -a % p
+        return tuple(-x % p for x in a)
+
+    def mul(self, a: Element, b: Element) -> Element:
+        p = self.p
+        if isinstance(a, int):
+            if isinstance(b, int):
+                return a * b % p
+            return tuple(a * y % p for y in b)
+        if isinstance(b, int):
+            return tuple(x * b % p for x in a)
+        k = self.degree
+        prod = [0] * (2 * k - 1)
+        for i, x in enumerate(a):
+            if x:
+                for j, y in enumerate(b):
+                    prod[i + j] += x * y
+        q = self.irreducible
+        for top in range(2 * k - 2, k - 1, -1):
+            c = prod[top] % p
+            if c:
+                shift = top - k
+                for i in range(k):
+                    prod[shift + i] -= c * q[i]
+        return tuple(c % p for c in prod[:k])
+
+    def square(self, a: Element) -> Element:
+        return self.mul(a, a)
+
+    def pow(self, a: Element, e: int) -> Element:
+        if e < 0:
+            return self.pow(self.inv(a), -e)
+        if isinstance(a, int):
+            return pow(a, e, self.p)
+        result, base = self.one, a
+        while e:
+            if e & 1:
+                result = self.mul(result, base)
+            base = self.mul(base, base)
+            e >>= 1
+        return result
+
+    def inv(self, a: Element) -> Element:
+        """Multiplicative inverse; raises FieldError for zero."""
+        if self.is_zero(a):
+            raise FieldError("expected a non-zero element to invert, found 0")
+        if isinstance(a, int):
+            return pow(a, -1, self.p)
+        return self.pow(a, self.order - 2)
+
+    def div(self, a: Element, b: Element) -> Element:
+        return self.mul(a, self.inv(b))
+
+    def is_zero(self, a: Element) -> bool:
+        return a == 0 if isinstance(a, int) else not any(a)
+
+    def random(self, rng: random.Random) -> Element:
+        if self.is_extension:
+            return tuple(rng.randrange(self.p) for _ in range(self.degree))
+        return rng.randrange(self.p)
+
+    # ----- parsing, encoding, formatting -----------------------------------------
+    def parse(self, value: object, where: Where | None = None) -> Element:
+        """A canonical element from an int, a decimal or 0x-hex string, fixed-width
+        bytes, or (extension) a list of k base values; a base value is accepted in an
+        extension field as its embedding. Non-canonical values are refused."""
+        if isinstance(value, (bytes, bytearray, memoryview)):
+            return self.decode(bytes(value), where)
+        if isinstance(value, (list, tuple)):
+            if not self.is_extension:
+                raise FieldError(f"expected one element of {self.describe()}, found a list of {len(value)}", where)
+            if len(value) != self.degree:
+                raise FieldError(
+                    f"expected {self.degree} coefficients for an element of {self.describe()}, found {len(value)}",
+                    where,
+                )
+            return tuple(self._parse_base(v, where) for v in value)
+        return self.lift(self._parse_base(value, where))
+
+    def _parse_base(self, value: object, where: Where | None) -> int:
+        if isinstance(value, bool):
+            raise FieldError(f"expected a field element, found the boolean {value!r}", where)
+        if isinstance(value, int):
+            n = value
+        elif isinstance(value, str):
+            text = value.strip()
+            try:
+                if text[:2] in ("0x", "0X"):
+                    n = int(text[2:], 16) if text[2:] else -1
+                elif text.isdigit() or (text[:1] == "-" and text[1:].isdigit()):
+                    n = int(text, 10)
+                else:
+                    raise ValueError
+            except ValueError:
+                raise FieldError(f"expected a decimal or 0x-hex field element, found {_clip(value)!r}", where) from None
+        elif isinstance(value, (bytes, bytearray)):
+            return self.base._decode_base(bytes(value), where)
+        else:
+            raise FieldError(f"expected a field element, found {type(value).__name__} {_clip(repr(value))}", where)
+        if not 0 <= n < self.p:
+            raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {_clip(str(n))}", where)
+        return n
+
+    def encode(self, e: Element) -> bytes:
+        """Fixed-width little-endian bytes: ``elem_bytes`` long."""
+        w = self.base_bytes
+        if isinstance(e, int):
+            if self.is_extension:
+                e = self.lift(e)
+            else:
+                return e.to_bytes(w, "little")
+        return b"".join(c.to_bytes(w, "little") for c in e)  # type: ignore[union-attr]
+
+    def decode(self, data: bytes, where: Where | None = None) -> Element:
+        """Inverse of :meth:`encode`; refuses wrong lengths and non-canonical values."""
+        if len(data) != self.elem_bytes:
+            raise FieldError(
+                f"expected {self.elem_bytes} bytes for an element of {self.describe()}, found {len(data)}", where
+            )
+        if not self.is_extension:
+            return self._decode_base(data, where)
+        w = self.base_bytes
+        return tuple(self._decode_base(data[i : i + w], where) for i in range(0, len(data), w))
+
+    def _decode_base(self, data: bytes, where: Where | None) -> int:
+        n = int.from_bytes(data, "little")
+        if n >= self.p:
+            raise FieldError(f"expected a canonical element below p = {self.p}, found {n}", where)
+        return n
+
+    def fmt(self, e: Element) -> str:
+        """Decimal text: ``42`` or ``[1, 0, 0, 7]``."""
+        if isinstance(e, int):
+            return str(e) if not self.is_extension else self.fmt(self.lift(e))
+        return "[" + ", ".join(str(c) for c in e) + "]"
+
+    def to_json(self, e: Element) -> int | str | list[int | str]:
+        """JSON value per the event-stream contract (strings above 2^53 for portability)."""
+        if isinstance(e, int) and not self.is_extension:
+            return e if e < 2**53 else str(e)
+        return [c if c < 2**53 else str(c) for c in self.lift(e)]  # type: ignore[union-attr]
+
+    # ----- vectors ------------------------------------------------------------------
+    @cached_property
+    def kernel(self) -> Kernel:
+        from stepper.kernels import kernel_for
+
+        return kernel_for(self)
+
+    def vec(self, values: Any) -> np.ndarray:
+        """A vector from canonical elements (ints or k-tuples) or an existing array."""
+        return self.kernel.array(values)
+
+    def vlist(self, a: np.ndarray) -> list[Element]:
+        return self.kernel.to_list(a)
+
+    def vzeros(self, n: int) -> np.ndarray:
+        return self.kernel.zeros(n)
+
+    def vrandom(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        return self.kernel.random(n, rng)
+
+    def vadd(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return self.kernel.add(a, b)
+
+    def vsub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return self.kernel.sub(a, b)
+
+    def vneg(self, a: np.ndarray) -> np.ndarray:
+        return self.kernel.neg(a)
+
+    def vmul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return self.kernel.mul(a, b)
+
+    def vscale(self, a: np.ndarray, s: Element) -> np.ndarray:
+        """Every entry of a times the scalar s."""
+        return self.kernel.scale(a, s)
+
+    def vinv(self, a: np.ndarray) -> np.ndarray:
+        """Batch inverse (Montgomery's trick); raises FieldError on a zero entry."""
+        return self.kernel.inv(a)
+
+    def vsum(self, a: np.ndarray) -> Element:
+        return self.kernel.sum(a)
+
+    def vdot(self, a: np.ndarray, b: np.ndarray) -> Element:
+        return self.kernel.dot(a, b)
+
+    def veval(self, coeffs: list[Element], xs: np.ndarray) -> np.ndarray:
+        """The polynomial sum coeffs[i] X^i evaluated at every entry of xs (Horner)."""
+        return self.kernel.poly_eval(coeffs, xs)
+
+
+def format_poly(coeffs: tuple[int, ...], p: int) -> str:
+    """``X^4 - 11`` style text for a polynomial over F_p (constant first)."""
+    terms: list[str] = []
+    for i in range(len(coeffs) - 1, -1, -1):
+        c = coeffs[i] % p
+        if c == 0:
+            continue
+        neg = c > p // 2
+        mag = p - c if neg else c
+        mono = "" if i == 0 else ("X" if i == 1 else f"X^{i}")
+        body = str(mag) if i == 0 else (mono if mag == 1 else f"{mag}*{mono}")
+        sign = "-" if neg else "+"
+        terms.append(("-" if neg else "") + body if not terms else f" {sign} {body}")
+    return "".join(terms) or "0"
+
+
+def _clip(text: str, limit: int = 60) -> str:
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
+def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
+    """The field F_p, or F_p[X]/(irreducible); checks primality and irreducibility once."""
+    q = tuple(irreducible or ())
+    if len(q) == 2 and q[1] == 1:
+        q = ()  # a degree-1 "extension" is the prime field itself
+    key = (p, q)
+    cached = _CACHE.get(key)
+    if cached is not None:
+        return cached
+    if p not in _NAME_OF_PRIME and not is_probable_prime(p):
+        raise FieldError(f"expected a prime modulus, found {_clip(str(p))}, which is not prime")
+    if q:
+        if q[-1] != 1:
+            raise FieldError(f"expected a monic polynomial (leading coefficient 1), found leading coefficient {q[-1]}")
+        if any(not 0 <= c < p for c in q):
+            raise FieldError(f"expected polynomial coefficients in [0, p) for p = {p}")
+        if not is_irreducible(q, p):
+            raise FieldError(f"expected an irreducible polynomial over F_p, found {format_poly(q, p)} (reducible)")
+    field = Field(p, q)
+    _CACHE[key] = field
+    return field
+
+
+def field_from_spec(spec: dict[str, Any], where: Where | None = None) -> Field:
+    """The field a `field` event names: ``name`` or ``modulus``, optional
+    ``extension_degree`` and ``irreducible`` (constant first, monic)."""
+    name = spec.get("name")
+    modulus = spec.get("modulus")
+    if name is not None:
+        if not isinstance(name, str) or name.lower() not in NAMED_PRIMES:
+            known = ", ".join(NAMED_PRIMES)
+            raise FieldError(f"expected a field name among {known}, found {_clip(repr(name))}", where)
+        name = name.lower()
+        p = NAMED_PRIMES[name]
+        if modulus is not None and _as_int(modulus, "modulus", where) != p:
+            raise FieldError(f"field name {name} and modulus {_clip(str(modulus))} disagree", where)
+    elif modulus is not None:
+        p = _as_int(modulus, "modulus", where)
+        if p < 2 or p.bit_length() > 1024:
+            raise FieldError(f"expected a prime modulus of at most 1024 bits, found {_clip(str(modulus))}", where)
+    else:
+        raise FieldError("expected a field event with `name` or `modulus`, found neither", where)
+    degree = spec.get("extension_degree", 1)
+    if isinstance(degree, bool) or not isinstance(degree, int) or not 1 <= degree <= 16:
+        raise FieldError(f"expected extension_degree an integer in 1..16, found {_clip(repr(degree))}", where)
+    irreducible = spec.get("irreducible")
+    if degree == 1:
+        if irreducible not in (None, [], [0, 1]):
+            raise FieldError("an irreducible polynomial was given for extension_degree 1", where)
+        q: tuple[int, ...] = ()
+    elif irreducible is None:
+        default = DEFAULT_IRREDUCIBLES.get((name or "", degree)) if name else None
+        if default is None:
+            raise FieldError(
+                f"expected an `irreducible` polynomial: no default for degree {degree} over {name or p}", where
+            )
+        q = default
+    else:
+        if not isinstance(irreducible, list) or len(irreducible) != degree + 1:
+            raise FieldError(f"expected `irreducible` as {degree + 1} coefficients, constant first", where)
+        q = tuple(_as_int(c, "irreducible coefficient", where) for c in irreducible)
+    try:
+        return get_field(p, q)
+    except FieldError as err:
+        raise FieldError(err.message, where) from None
+
+
+def _as_int(value: object, what: str, where: Where | None) -> int:
+    if isinstance(value, bool):
+        raise FieldError(f"expected {what} as an integer, found {value!r}", where)
+    if isinstance(value, int):
+        return value
+    if isinstance(value, str):
+        text = value.strip()
+        try:
+            return int(text[2:], 16) if text[:2] in ("0x", "0X") else int(text, 10)
+        except ValueError:
+            pass
+    raise FieldError(f"expected {what} as an integer or decimal/0x string, found {_clip(repr(value))}", where)

@@ -1,0 +1,31 @@
+"""The command-line skeleton: every subcommand is listed, bad usage is one line and exit 2."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+from stepper.cli.main import COMMANDS, main
+
+
+def test_help_lists_every_subcommand(capsys):
+    try:
+        main(["--help"])
+    except SystemExit as stop:
+        assert stop.code == 0
+    out = capsys.readouterr().out
+    for name in COMMANDS:
+        assert name in out
+
+
+def test_unknown_subcommand_is_one_line_and_exit_2():
+    proc = subprocess.run([sys.executable, "-m", "stepper", "frobnicate"], capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert proc.stderr.strip().count("\n") == 0
+    assert "Traceback" not in proc.stderr
+
+
+def test_unknown_flag_is_one_line_and_exit_2():
+    proc = subprocess.run([sys.executable, "-m", "stepper", "--no-such-flag"], capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert proc.stderr.strip().count("\n") == 0
