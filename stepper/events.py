@@ -18,10 +18,12 @@ Caps keep a hostile input from costing unbounded memory.
 
 from __future__ import annotations
 
-from typing import Any, Mapping
+import struct
+from typing import Any, Iterable, Iterator, Mapping
 
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field import Element, Field, field_from_spec
+from stepper.packed import decoder_for, pack_elements, unpack_elements
 from stepper.poly import FORMS, ORDERS
 from stepper.transcript import (
     BatchDecl,
@@ -35,9 +37,11 @@ from stepper.transcript import (
     RoundMsg,
     ScheduleDecl,
     UnknownEvent,
+    CHALLENGE_SETTERS,
+    ROUND_SETTERS,
 )
 
-__all__ = ["Sequencer", "to_payload", "MAX_VALUES", "MAX_TEXT", "MAX_NUM_VARS", "MAX_DEGREE"]
+__all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_TEXT", "MAX_NUM_VARS", "MAX_DEGREE"]
 
 MAX_VALUES = 1 << 16  # field elements in one event
 MAX_SIZES = 1 << 22  # bucket sizes in one event
@@ -62,6 +66,13 @@ class Sequencer:
         self.awaiting_challenge = False
         self.final_seen = False
         self.pending_batch: BatchDecl | None = None
+        self._decode: Any = None  # packed-run decoder of the field, set by the field event
+        self._elem_bytes = 0
+        self._prime_modulus = 0  # p for a prime field, 0 for an extension
+        self._runs: dict[int, Any] | None = None  # struct unpackers by run size (prime fields of 4/8 bytes)
+        self._num_vars = 0  # of the current instance (0 before any)
+        self._index = -1
+        self.stopped_at: UnknownEvent | None = None  # see stream()
 
     # ----- position --------------------------------------------------------------
     @property
@@ -81,12 +92,92 @@ class Sequencer:
 
     # ----- feeding ---------------------------------------------------------------
     def feed(self, payload: Any, where: Where | None = None) -> Event:
+        """The record of one payload (``where`` updates the source location)."""
         if where is not None:
             self.source = where
         try:
             return self._feed(payload)
         finally:
             self.count += 1
+
+    def stream(self, payloads: Iterable[Any], until: str | None = None) -> Iterator[Event]:
+        """The records of many payloads, exactly as :meth:`feed` on each would give,
+        but with the bulk of a transcript (rounds and challenges whose elements are
+        packed, canonical bytes) handled inline: this is the reader's hot loop.
+        Stops after an unknown event of type ``until`` (kept in ``stopped_at``)."""
+        self.stopped_at = None
+        waiting, done, count = self.awaiting_challenge, self.rounds_done, self.count
+        num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
+        width, runs = self._elem_bytes, self._runs
+        from_bytes = int.from_bytes
+        new, round_setters, challenge_setters = object.__new__, ROUND_SETTERS, CHALLENGE_SETTERS
+        set_ri, set_rr, set_rv = round_setters
+        set_ci, set_cr, set_cv = challenge_setters
+        try:
+            for payload in payloads:
+                if payload.__class__ is dict:
+                    kind = payload.get("type")
+                    if kind == "round" and not waiting and done < num_vars:
+                        raw = payload.get("evals")
+                        if raw.__class__ is bytes:
+                            if runs is not None:
+                                unpack = runs.get(len(raw)) or self._run_unpacker(len(raw))
+                                values = unpack(raw) if unpack is not None else None
+                                if values and max(values) >= prime:
+                                    values = None
+                            else:
+                                values = decode(raw)
+                            if values is not None:
+                                done += 1
+                                waiting = True
+                                count += 1
+                                record = new(RoundMsg)
+                                set_ri(record, index)
+                                set_rr(record, done)
+                                set_rv(record, values)
+                                yield record
+                                continue
+                    elif kind == "challenge" and waiting:
+                        raw = payload.get("value")
+                        if raw.__class__ is bytes and len(raw) == width:
+                            if prime:
+                                value = from_bytes(raw, "little")
+                                ok = value < prime
+                            else:
+                                values = decode(raw)
+                                ok = values is not None
+                                value = values[0] if ok else None
+                            if ok:
+                                waiting = False
+                                count += 1
+                                record = new(ChallengeMsg)
+                                set_ci(record, index)
+                                set_cr(record, done)
+                                set_cv(record, value)
+                                yield record
+                                continue
+                self.awaiting_challenge, self.rounds_done, self.count = waiting, done, count
+                try:
+                    record = self.feed(payload)
+                finally:
+                    waiting, done, count = self.awaiting_challenge, self.rounds_done, self.count
+                num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
+                width, runs = self._elem_bytes, self._runs
+                if until is not None and record.__class__ is UnknownEvent and record.kind == until:
+                    self.stopped_at = record
+                    return
+                yield record
+        finally:
+            self.awaiting_challenge, self.rounds_done, self.count = waiting, done, count
+
+    def _run_unpacker(self, size: int) -> Any:
+        """A ``struct`` unpacker for a packed run of ``size`` bytes of a prime field
+        with 4- or 8-byte elements (None if the size is not a whole, capped run)."""
+        assert self._runs is not None
+        width = self._elem_bytes
+        if size % width or size // width > MAX_VALUES:
+            return None
+        return self._runs.setdefault(size, struct.Struct(f"<{size // width}{'I' if width == 4 else 'Q'}").unpack)
 
     def _feed(self, payload: Any) -> Event:
         if not isinstance(payload, Mapping):
@@ -111,6 +202,11 @@ class Sequencer:
             self.field = field_from_spec(dict(payload), self.where())
         except FieldError as err:
             raise TranscriptError(err.message, err.where) from None
+        self._decode = decoder_for(self.field)
+        self._elem_bytes = self.field.elem_bytes
+        self._prime_modulus = 0 if self.field.is_extension else self.field.p
+        if self._prime_modulus and self._elem_bytes in (4, 8):
+            self._runs = {}
         return FieldDecl(self.field)
 
     def _on_schedule(self, payload: Mapping[str, Any]) -> Event:
@@ -135,7 +231,6 @@ class Sequencer:
         return self.pending_batch
 
     def _on_instance(self, payload: Mapping[str, Any]) -> Event:
-        self._close_instance()
         name = _text(payload.get("name", f"instance {len(self.instances)}"), "instance name", self)
         num_vars = _count(payload.get("num_vars"), "num_vars", 0, MAX_NUM_VARS, self)
         degree = _count(payload.get("degree"), "degree", 0, MAX_DEGREE, self)
@@ -149,6 +244,8 @@ class Sequencer:
         start = InstanceStart(len(self.instances), name, num_vars, degree, claim, order, form, self.pending_batch)
         self.pending_batch = None
         self.instances.append(start)
+        self._num_vars = num_vars
+        self._index = start.index
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
@@ -245,6 +342,10 @@ class Sequencer:
 
     def _element(self, raw: Any, what: str, round_: int | None = None) -> Element:
         assert self.field is not None
+        if type(raw) is bytes and len(raw) == self.field.elem_bytes:
+            one = self._decode(raw)
+            if one is not None:
+                return one[0]  # type: ignore[no-any-return]
         if raw is None:
             raise self._fail(f"expected a {what}, found none", round_)
         try:
@@ -254,19 +355,20 @@ class Sequencer:
 
     def _elements(self, raw: Any, what: str, round_: int | None = None) -> tuple[Element, ...]:
         if isinstance(raw, (bytes, bytearray)) and self.field is not None:
-            raw = _split_blob(bytes(raw), self.field.elem_bytes, what, self, round_)
+            values = self._decode(bytes(raw))
+            if values is None:
+                try:
+                    unpack_elements(self.field, bytes(raw), what, self.where(round_))
+                except FieldError as err:
+                    raise TranscriptError(err.message, err.where) from None
+            if len(values) > MAX_VALUES:
+                raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(values)}", round_)
+            return values  # type: ignore[no-any-return]
         if not isinstance(raw, list):
             raise self._fail(f"expected {what} as a list, found {_short(raw)}", round_)
         if len(raw) > MAX_VALUES:
             raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(raw)}", round_)
         return tuple(self._element(v, what, round_) for v in raw)
-
-
-def _split_blob(blob: bytes, width: int, what: str, seq: Sequencer, round_: int | None) -> list[bytes]:
-    """A packed run of fixed-width elements (the binary form of a list) as its pieces."""
-    if len(blob) % width:
-        raise seq._fail(f"expected {what} packed as a multiple of {width} bytes, found {len(blob)}", round_)
-    return [blob[i : i + width] for i in range(0, len(blob), width)]
 
 
 def _short(value: object) -> str:
@@ -288,6 +390,12 @@ def _count(value: object, what: str, low: int, high: int, seq: Sequencer) -> int
     return value
 
 
+def plain_copy(value: Any, where: Where | None = None) -> Any:
+    """A capped copy of free-form data (metadata, unknown payloads): refuses deep
+    nesting and huge strings with a :class:`TranscriptError` at ``where``."""
+    return _plain(value, Sequencer(where), 0)
+
+
 def _plain(value: Any, seq: Sequencer, depth: int) -> Any:
     """A copy of arbitrary payload data, refusing deep nesting and huge strings."""
     if depth > MAX_DEPTH:
@@ -301,12 +409,20 @@ def _plain(value: Any, seq: Sequencer, depth: int) -> Any:
     return value
 
 
-def to_payload(event: Event, field: Field | None, binary: bool) -> dict[str, Any]:
-    """The payload of a record: elements as fixed-width bytes (``binary``) or JSON values."""
+def to_payload(event: Event, field: Field | None, binary: bool, packed: bool = False) -> dict[str, Any]:
+    """The payload of a record: elements as fixed-width bytes (``binary``) or JSON values.
+    With ``packed`` (binary only) a list of elements is one blob of concatenated
+    fixed-width elements, the form transcript files store."""
 
     def el(e: Element) -> Any:
         assert field is not None
         return field.encode(e) if binary else field.to_json(e)
+
+    def els(values: tuple[Element, ...]) -> Any:
+        assert field is not None
+        if binary and packed:
+            return pack_elements(field, values)
+        return [el(v) for v in values]
 
     if isinstance(event, FieldDecl):
         return {"type": "field", **event.field.spec()}
@@ -318,7 +434,7 @@ def to_payload(event: Event, field: Field | None, binary: bool) -> dict[str, Any
             out["params"] = dict(event.params)
         return out
     if isinstance(event, BatchDecl):
-        out = {"type": "batch", "coefficient": el(event.coefficient), "terms": [el(t) for t in event.terms]}
+        out = {"type": "batch", "coefficient": el(event.coefficient), "terms": els(event.terms)}
         if event.sources:
             out["sources"] = list(event.sources)
         return out
@@ -331,7 +447,7 @@ def to_payload(event: Event, field: Field | None, binary: bool) -> dict[str, Any
             out["form"] = event.form
         return out
     if isinstance(event, RoundMsg):
-        return {"type": "round", "evals": [el(v) for v in event.values]}
+        return {"type": "round", "evals": els(event.values)}
     if isinstance(event, ChallengeMsg):
         return {"type": "challenge", "value": el(event.value)}
     if isinstance(event, FinalValue):

@@ -16,7 +16,9 @@ little endian, ``base_bytes`` per base coefficient.
 
 from __future__ import annotations
 
+import operator
 import random
+import re
 from functools import cached_property
 from typing import TYPE_CHECKING, Any, Union
 
@@ -58,6 +60,7 @@ DEFAULT_IRREDUCIBLES: dict[tuple[str, int], tuple[int, ...]] = {
 }
 
 _CACHE: dict[tuple[int, tuple[int, ...]], Field] = {}
+_NUMBER_TEXT = re.compile(r"(?P<sign>-)?(?:0[xX](?P<hex>[0-9a-fA-F]+)|(?P<dec>[0-9]+))", re.ASCII)
 _NAME_OF_PRIME = {p: name for name, p in NAMED_PRIMES.items()}
 
 
@@ -226,42 +229,66 @@ class Field:
                     f"expected {self.degree} coefficients for an element of {self.describe()}, found {len(value)}",
                     where,
                 )
-            return tuple(self._parse_base(v, where) for v in value)
+            coeffs = []
+            for index, item in enumerate(value):
+                try:
+                    coeffs.append(self._parse_base(item, where))
+                except FieldError as err:
+                    raise FieldError(f"coefficient {index} (X^{index}): {err.message}", where) from None
+            return tuple(coeffs)
         return self.lift(self._parse_base(value, where))
 
     def _parse_base(self, value: object, where: Where | None) -> int:
         if isinstance(value, bool):
-            raise FieldError(f"expected a field element, found the boolean {value!r}", where)
-        if isinstance(value, int):
-            n = value
-        elif isinstance(value, str):
-            text = value.strip()
-            try:
-                if text[:2] in ("0x", "0X"):
-                    n = int(text[2:], 16) if text[2:] else -1
-                elif text.isdigit() or (text[:1] == "-" and text[1:].isdigit()):
-                    n = int(text, 10)
-                else:
-                    raise ValueError
-            except ValueError:
-                raise FieldError(f"expected a decimal or 0x-hex field element, found {_clip(value)!r}", where) from None
+            raise FieldError(f"expected an element of {self._short()}, found the boolean {value!r}", where)
+        if isinstance(value, str):
+            n = self._parse_text(value, where)
         elif isinstance(value, (bytes, bytearray)):
             return self.base._decode_base(bytes(value), where)
         else:
-            raise FieldError(f"expected a field element, found {type(value).__name__} {_clip(repr(value))}", where)
+            try:
+                n = operator.index(value)  # int and numpy integers; not float, not bool
+            except TypeError:
+                raise FieldError(
+                    f"expected an element of {self._short()} (an integer, decimal or 0x-hex string), "
+                    f"found {type(value).__name__} {_clip(repr(value))}",
+                    where,
+                ) from None
         if not 0 <= n < self.p:
             raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {_clip(str(n))}", where)
         return n
 
+    def _parse_text(self, value: str, where: Where | None) -> int:
+        """Decimal (optionally signed, so that a negative value gets the canonical
+        message) or 0x-hex digits, ASCII only, surrounding whitespace allowed."""
+        text = value.strip()
+        match = _NUMBER_TEXT.fullmatch(text)
+        if match is None:
+            raise FieldError(
+                f"expected a decimal or 0x-hex element of {self._short()}, found {_clip(repr(value))}", where
+            )
+        sign, hex_digits, dec_digits = match.group("sign"), match.group("hex"), match.group("dec")
+        digits = (hex_digits if hex_digits is not None else dec_digits).lstrip("0") or "0"
+        limit = len(f"{self.p:x}") if hex_digits is not None else len(str(self.p))
+        if len(digits) > limit:
+            raise FieldError(
+                f"expected a canonical element 0 <= v < p = {self.p}, found a number of {len(digits)} digits "
+                f"({_clip(text)})",
+                where,
+            )
+        n = int(digits, 16 if hex_digits is not None else 10)
+        return -n if sign else n
+
+    def _short(self) -> str:
+        return self.base.describe() if self.is_extension else self.describe()
+
     def encode(self, e: Element) -> bytes:
         """Fixed-width little-endian bytes: ``elem_bytes`` long."""
         w = self.base_bytes
-        if isinstance(e, int):
-            if self.is_extension:
-                e = self.lift(e)
-            else:
-                return e.to_bytes(w, "little")
-        return b"".join(c.to_bytes(w, "little") for c in e)  # type: ignore[union-attr]
+        coeffs = (e,) if isinstance(e, int) and not self.is_extension else self.lift(e)
+        if len(coeffs) != self.degree or any(not 0 <= c < self.p for c in coeffs):  # type: ignore[arg-type]
+            raise FieldError(f"expected a canonical element of {self.describe()} to encode, found {_clip(str(e))}")
+        return b"".join(c.to_bytes(w, "little") for c in coeffs)  # type: ignore[union-attr]
 
     def decode(self, data: bytes, where: Where | None = None) -> Element:
         """Inverse of :meth:`encode`; refuses wrong lengths and non-canonical values."""
@@ -300,7 +327,9 @@ class Field:
         return kernel_for(self)
 
     def vec(self, values: Any) -> np.ndarray:
-        """A vector from canonical elements (ints or k-tuples) or an existing array."""
+        """A vector from canonical elements (ints or k-tuples) or an existing array
+        (a 1-D array of base entries is embedded in an extension); every entry is
+        checked, a non-canonical one raises FieldError naming it and p."""
         return self.kernel.array(values)
 
     def vlist(self, a: np.ndarray) -> list[Element]:
@@ -323,6 +352,13 @@ class Field:
 
     def vmul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         return self.kernel.mul(a, b)
+
+    def vmul_base(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """Entrywise a * b for a vector a of this field and a vector b of the base
+        field (1-D): k base products per entry instead of a full extension product."""
+        if not self.is_extension:
+            return self.kernel.mul(a, b)
+        return self.kernel.mul_base(a, b)  # type: ignore[attr-defined, no-any-return]
 
     def vscale(self, a: np.ndarray, s: Element) -> np.ndarray:
         """Every entry of a times the scalar s."""
@@ -365,7 +401,11 @@ def _clip(text: str, limit: int = 60) -> str:
 
 def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
     """The field F_p, or F_p[X]/(irreducible); checks primality and irreducibility once."""
+    if isinstance(p, bool) or not isinstance(p, int):
+        raise FieldError(f"expected an integer modulus, found {type(p).__name__} {_clip(repr(p))}")
     q = tuple(irreducible or ())
+    if any(isinstance(c, bool) or not isinstance(c, int) for c in q):
+        raise FieldError(f"expected integer polynomial coefficients, found {_clip(repr(q))}")
     if len(q) == 2 and q[1] == 1:
         q = ()  # a degree-1 "extension" is the prime field itself
     key = (p, q)
@@ -377,8 +417,9 @@ def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
     if q:
         if q[-1] != 1:
             raise FieldError(f"expected a monic polynomial (leading coefficient 1), found leading coefficient {q[-1]}")
-        if any(not 0 <= c < p for c in q):
-            raise FieldError(f"expected polynomial coefficients in [0, p) for p = {p}")
+        for index, c in enumerate(q):
+            if not 0 <= c < p:
+                raise FieldError(f"expected polynomial coefficients 0 <= c < p = {p}, found {_clip(str(c))} at X^{index}")
         if not is_irreducible(q, p):
             raise FieldError(f"expected an irreducible polynomial over F_p, found {format_poly(q, p)} (reducible)")
     field = Field(p, q)

@@ -200,9 +200,27 @@ def point_from_challenges(challenges: Sequence[Element], order: str) -> tuple[El
 
 
 def mle_eval(field: Field, table: np.ndarray, point: Sequence[Element]) -> Element:
-    """The multilinear extension of ``table`` at (x_1, ..., x_mu), by folding x_1 first."""
-    cur = field.vec(table) if field.is_extension and table.ndim == 1 else table
-    for x in point:
+    """The multilinear extension of ``table`` at (x_1, ..., x_mu), by folding x_1 first.
+
+    A table of base-field entries (1-D) in an extension field is folded by the
+    first coordinate with base-by-extension products, then stays in the extension."""
+    size = len(table)
+    if size != 1 << len(point):
+        raise InputError(
+            f"expected a table of 2^{len(point)} = {1 << len(point)} entries for a point of "
+            f"{len(point)} coordinates, found {size} entries"
+        )
+    cur = table
+    coords = list(point)
+    if field.is_extension and table.ndim == 1:
+        base = field.base
+        if not coords:
+            return field.lift(base.vlist(table)[0])
+        x = coords.pop(0)
+        lo, hi = table[0::2], table[1::2]
+        step = field.vmul_base(field.vec([x]), base.vsub(hi, lo))  # (1, k) broadcast against (n,)
+        cur = field.vadd(field.vec(lo), step)
+    for x in coords:
         lo, hi = cur[0::2], cur[1::2]
         cur = field.vadd(lo, field.vscale(field.vsub(hi, lo), x))
     return field.vlist(cur)[0]

@@ -1,17 +1,70 @@
-"""`stepper note`: not built yet (PENDING: an open issue fills this in)."""
+"""`stepper note FILE [--instance I] [--round K] TEXT`: attach a note to a transcript.
+
+Thin edge over :func:`stepper.store.append_note`: the note is appended after
+the recorded part, whose digest therefore still verifies; ``info``, ``check``,
+``report`` and the app show it. ``--instance`` takes a name or a 0-based
+index; with one instance it may be left out, and with neither flag the note
+is about the whole proof.
+"""
 
 from __future__ import annotations
 
 import argparse
 import sys
+from typing import TYPE_CHECKING
 
-HELP = "(note: not built yet)"
+if TYPE_CHECKING:
+    from stepper.transcript import Transcript
+
+HELP = "append a note to a round, an instance or the whole proof (the recorded digest still verifies)"
+DESCRIPTION = (
+    "Append a note event to a transcript file without touching what was recorded: the digest of the recorded "
+    "part still verifies, and the note shows in `stepper info`, `stepper check`, `stepper report` and the app. "
+    "A note is public text stored in the file; do not paste secrets or witness values into it."
+)
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    parser.add_argument("file", metavar="FILE", help="a stepper transcript (msgpack)")
+    parser.add_argument("text", metavar="TEXT", help="the note (quote it)")
+    parser.add_argument("--round", "-k", type=int, metavar="K", help="round number (1-based; 0 means the claim)")
+    parser.add_argument("--instance", "-i", metavar="I", help="instance name or 0-based index")
 
 
 def run(args: argparse.Namespace) -> int:
-    print("stepper note: not built yet", file=sys.stderr)
-    return 2
+    from stepper.errors import UsageError
+    from stepper.store import append_note, load
+    from stepper.transcript import Note
+
+    text = args.text.strip()
+    if not text:
+        raise UsageError("expected a non-empty note TEXT, found only whitespace")
+    transcript = load(args.file)
+    instance = _instance_index(transcript, args.instance, args.round)
+    append_note(args.file, Note(text, instance, args.round))
+    after = load(args.file)
+    place = "the proof" if instance is None else f"instance '{transcript.instances[instance].name}'"
+    if args.round is not None:
+        place += f", round {args.round}"
+    print(f"{args.file}: note added to {place}; recorded digest {after.digest}")
+    return 0
+
+
+def _instance_index(transcript: Transcript, chosen: str | None, round_: int | None) -> int | None:
+    from stepper.errors import UsageError
+
+    names = [inst.name for inst in transcript.instances]
+    if chosen is None:
+        if round_ is None:
+            return None
+        if len(names) == 1:
+            return 0
+        listed = ", ".join(f"{k}: {n}" for k, n in enumerate(names)) or "none"
+        raise UsageError(f"expected --instance with --round: the file has {len(names)} instances ({listed})")
+    if chosen in names:
+        return names.index(chosen)
+    if chosen.isdigit() and int(chosen) < len(names):
+        return int(chosen)
+    listed = ", ".join(f"{k}: {n}" for k, n in enumerate(names)) or "none"
+    raise UsageError(f"expected --instance to name an instance or give its index, found {chosen!r} "
+                     f"(instances: {listed})")

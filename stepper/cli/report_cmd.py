@@ -1,17 +1,75 @@
-"""`stepper report`: not built yet (PENDING: an open issue fills this in)."""
+"""`stepper report FILE [--witness W] -o OUT.md|OUT.html`: a report to paste or attach.
+
+Thin edge: loads the transcript, replays it (:func:`stepper.verify.replay_transcript`),
+diagnoses it with the witness when one is given (:func:`stepper.rootcause.diagnose`),
+builds the document (:mod:`stepper.report`) and writes Markdown or one
+self-contained HTML page, chosen by the output's suffix or ``--format``.
+The file is written whole or not at all (temporary file, then rename).
+Exit 0 when written, whatever the verdict; 2 when an input cannot be used.
+"""
 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
+import tempfile
+from pathlib import Path
 
-HELP = "(report: not built yet)"
+HELP = "write a shareable report (Markdown or self-contained HTML with charts) of one transcript"
+DESCRIPTION = (
+    "Replay FILE and write a report: summary, per-instance round tables, the first failure with its "
+    "explanation, root cause and probe findings (with --witness), bucket occupancy charts, notes, and what "
+    "the file reveals. The HTML page loads nothing from the network. A passing replay in a report is "
+    "evidence about one run, not a soundness proof."
+)
+
+SUFFIXES = {".md": "md", ".markdown": "md", ".html": "html", ".htm": "html"}
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    parser.add_argument("file", metavar="FILE", help="transcript or JSON-lines event file")
+    parser.add_argument("-o", "--output", metavar="OUT", required=True,
+                        help="where to write: OUT.md or OUT.html ('-' for standard output, with --format)")
+    parser.add_argument("--witness", "-w", metavar="W", help="witness file for the root-cause section")
+    parser.add_argument("--format", choices=("md", "html"), help="override the format implied by OUT's suffix")
 
 
 def run(args: argparse.Namespace) -> int:
-    print("stepper report: not built yet", file=sys.stderr)
-    return 2
+    from stepper.errors import UsageError
+    from stepper.report import build, to_markdown
+    from stepper.report_html import to_html
+    from stepper.store import load
+    from stepper.verify import replay_transcript
+
+    kind = args.format or SUFFIXES.get(Path(args.output).suffix.lower())
+    if kind is None:
+        raise UsageError(f"expected -o to end in .md or .html (or --format md|html), found {args.output!r}")
+    transcript = load(args.file)
+    report = replay_transcript(transcript)
+    diagnosis = None
+    if args.witness:
+        from stepper.rootcause import diagnose
+        from stepper.witness import load_witness
+
+        diagnosis = diagnose(transcript, load_witness(args.witness), report)
+    doc = build(transcript, report, diagnosis, source=args.file)
+    text = to_markdown(doc) if kind == "md" else to_html(doc)
+    if args.output == "-":
+        sys.stdout.write(text)
+        return 0
+    _write_whole(Path(args.output), text)
+    print(f"{args.output}: {kind} report of {args.file} ({report.verdict})", file=sys.stderr)
+    return 0
+
+
+def _write_whole(path: Path, text: str) -> None:
+    from stepper.errors import InputError, Where
+
+    try:
+        handle, temp = tempfile.mkstemp(prefix=".stepper-report-", dir=path.parent if str(path.parent) else ".")
+        with os.fdopen(handle, "w", encoding="utf-8") as out:
+            out.write(text)
+        os.replace(temp, path)
+    except OSError as err:
+        raise InputError(f"could not write the report: {err.strerror or err}", Where(file=str(path))) from None

@@ -1,0 +1,54 @@
+"""A Fiat-Shamir schedule with the classic weak-transform bug, as a `--challenges` plug-in.
+
+It re-derives challenges exactly like stepper's built-in schedule
+(``stepper-sha256/1``) except that an instance's claimed sum is absorbed as zero,
+the way a prover built with ``--fault unbound-claim`` draws them:
+
+    stepper prove --kind generic -o weak.stp --fault unbound-claim
+    stepper check weak.stp --challenges samples/weak_schedule.py:derive
+
+``check`` then accepts every challenge (they match this schedule) and its
+binding probe reports that the claim does not influence the challenges: a
+prover could pick its claim after seeing them. This file only shows the
+plug-in route; it is not a schedule to copy.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Mapping, Sequence
+
+from stepper.fiatshamir import Sha256Schedule
+from stepper.field import field_from_spec
+from stepper.transcript import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+
+
+def derive(history: Sequence[Mapping[str, Any]]) -> Any:
+    """The challenge for the round at the end of ``history`` (plain event maps, ints)."""
+    schedule = Sha256Schedule()
+    field = None
+    index = -1
+    for event in history:
+        kind = event.get("type")
+        if kind == "field":
+            field = field_from_spec(dict(event))
+            schedule.observe(FieldDecl(field))
+        elif kind == "schedule":
+            schedule.observe(ScheduleDecl(event["name"], event.get("label", "")))
+        elif kind == "batch":
+            terms = tuple(_element(field, t) for t in event["terms"])
+            schedule.observe(BatchDecl(_element(field, event["coefficient"]), terms))
+        elif kind == "instance":
+            index += 1
+            schedule.observe(InstanceStart(index, event["name"], event["num_vars"], event["degree"], field.zero,
+                                           event.get("order", "low-first"), event.get("form", "evals")))
+        elif kind == "round":
+            values = event.get("evals", event.get("values", []))
+            schedule.observe(RoundMsg(index, 0, tuple(_element(field, v) for v in values)))
+        elif kind == "challenge":
+            schedule.challenge()  # absorbs the challenge, as the prover's schedule did
+    value = schedule.challenge()
+    return list(value) if isinstance(value, tuple) else value
+
+
+def _element(field: Any, value: Any) -> Any:
+    return tuple(value) if isinstance(value, list) else field.lift(value)

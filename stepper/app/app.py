@@ -1,0 +1,115 @@
+"""The stepper terminal app: one proof, stepped round by round.
+
+:class:`StepperApp` owns the model (what was read and what the replay said),
+the file it came from (for following and notes) and the optional witness
+diagnosis; the screens own presentation. With ``follow`` a timer re-reads the
+file when it grows and the screens repaint; a half-written tail is not an
+event yet, so it waits for the next tick. With ``compare`` the diff engineer's
+compare screen (:mod:`stepper.app.compare_screen`) opens on top, when present.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+from pathlib import Path
+from typing import Any
+
+from textual.app import App
+
+from stepper.app.proof_model import Position, ProofModel
+from stepper.app.proof_screen import ProofScreen
+from stepper.app.source import TranscriptSource
+from stepper.transcript import Note
+
+__all__ = ["StepperApp", "compare_available"]
+
+
+def compare_available() -> bool:
+    """Whether the compare screen module is installed."""
+    return importlib.util.find_spec("stepper.app.compare_screen") is not None
+
+
+class StepperApp(App[int]):
+    """Proof view (summary, strip, rounds, detail) plus the bucket, key and question screens."""
+
+    CSS_PATH = "stepper.tcss"
+    TITLE = "stepper"
+    ENABLE_COMMAND_PALETTE = False
+
+    def __init__(
+        self,
+        model: ProofModel,
+        *,
+        source: TranscriptSource | None = None,
+        follow: bool = False,
+        poll_seconds: float = 0.4,
+        export_dir: str | Path | None = None,
+        compare: str | Path | None = None,
+        diagnosis: Any = None,
+    ) -> None:
+        super().__init__()
+        self.model = model
+        self.source = source
+        self.follow = follow and source is not None
+        self.poll_seconds = poll_seconds
+        self.export_dir = Path(export_dir) if export_dir is not None else Path.cwd()
+        self.compare = compare
+        self.diagnosis = diagnosis
+        self.proof_screen = ProofScreen(model)
+
+    @classmethod
+    def from_file(cls, path: str | Path, *, witness: str | Path | None = None, **options: Any) -> StepperApp:
+        """Read ``path`` now (a file that breaks part-way shows what came before the
+        break and says where it broke) and diagnose against ``witness`` if given."""
+        source = TranscriptSource(path, witness)
+        model = source.open(strict=False)
+        diagnosis = source.diagnose(model) if witness is not None and model.field is not None else None
+        return cls(model, source=source, diagnosis=diagnosis, **options)
+
+    @property
+    def problem(self) -> str | None:
+        return self.source.problem if self.source is not None else None
+
+    def on_mount(self) -> None:
+        self.push_screen(self.proof_screen)
+        if self.follow:
+            self.set_interval(self.poll_seconds, self.poll_file, name="follow")
+        if self.compare is not None:
+            self.open_compare(self.compare)
+
+    def open_compare(self, other: str | Path) -> None:
+        """Push the compare screen for this file against ``other``, or say it is missing."""
+        if not compare_available() or self.source is None:
+            self.notify("comparing needs the compare screen (stepper.app.compare_screen), not installed",
+                        severity="warning")
+            return
+        from stepper.app.compare_screen import CompareScreen  # type: ignore[import-not-found]
+
+        self.push_screen(CompareScreen(self.source.path, Path(other)))
+
+    def poll_file(self) -> int:
+        """Feed whatever the file gained since the last look; repaint if anything did."""
+        if self.source is None:
+            return 0
+        before = self.source.problem
+        arrived = self.source.refresh(self.model)
+        if arrived or self.source.problem != before:
+            self.proof_screen.model_changed()
+        return arrived
+
+    def save_note(self, note: Note) -> None:
+        if self.source is not None:
+            self.source.save_note(self.model, note)
+        else:
+            self.model.add_note(note)
+
+    def export_path(self, suffix: str, position: Position) -> Path:
+        """Where an export of the view at ``position`` goes (never overwriting an older one)."""
+        stem = Path(self.model.source).stem if self.model.source else "proof"
+        base = f"{stem}.i{position[0]}.r{position[1]}"
+        path = self.export_dir / f"{base}.{suffix}"
+        serial = 1
+        while path.exists():
+            serial += 1
+            path = self.export_dir / f"{base}.{serial}.{suffix}"
+        return path

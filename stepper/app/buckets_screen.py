@@ -1,0 +1,103 @@
+"""Bucket occupancy of one instance as three text charts (see :mod:`bucket_charts`).
+
+Keys move between instances; escape or ``o`` returns to the proof. Charts are
+redrawn only when the instance changes.
+"""
+
+from __future__ import annotations
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import VerticalScroll
+from textual.reactive import reactive
+from textual.screen import Screen
+from textual.widgets import Footer, Static
+
+from stepper.app.bucket_charts import ChartRow, against_bound, against_remaining, size_distribution
+from stepper.app.proof_model import ProofModel
+
+__all__ = ["BucketsScreen", "bucket_text"]
+
+_BAR_WIDTH = 36
+
+
+def _chart(title: str, explain: str, rows: list[ChartRow]) -> Text:
+    text = Text()
+    text.append(title + "\n", style="bold #e8e3d3")
+    text.append(explain + "\n", style="#9a9cb0")
+    if not rows:
+        text.append("  nothing sent for this chart\n", style="#8c8fa6")
+    for row in rows:
+        text.append(f"  {row.label} ", style="#7f8fa8")
+        text.append("│", style="#5b6275")
+        text.append(row.bar, style="#e0b45c" if row.over else "#6fb39a")
+        text.append("│ ", style="#5b6275")
+        text.append(row.figure + ("  ▲ above" if row.over else "") + "\n",
+                    style="bold #f0a35e" if row.over else "")
+    return text
+
+
+def bucket_text(model: ProofModel, instance: int) -> Text:
+    """The three charts of one instance as styled text."""
+    if not 0 <= instance < len(model.instances):
+        return Text("no instance yet")
+    view = model.instances[instance]
+    head = Text(f"instance {instance} {view.name}: {len(view.buckets)} bucket events\n\n", style="bold")
+    if not view.buckets:
+        head.append("This instance sent no bucket events (only bucketing provers send them).\n", style="#9a9cb0")
+        return head
+    stats = view.buckets
+    head.append_text(_chart("Buckets in use against the bound",
+                            "count / 2^bound_log2 per round (r) and group (g); ▲ marks a count above the bound",
+                            against_bound(stats, _BAR_WIDTH)))
+    head.append("\n")
+    head.append_text(_chart("Buckets in use against the remaining table",
+                            "count / entries still unbound; near 100% bucketing saves nothing in that round; ▲ marks more buckets than entries",
+                            against_remaining(stats, _BAR_WIDTH)))
+    head.append("\n")
+    head.append_text(_chart("Entries per bucket", "how many buckets hold how many entries (every round)",
+                            size_distribution(stats, _BAR_WIDTH)))
+    return head
+
+
+class BucketsScreen(Screen[None]):
+    """Occupancy charts of one instance at a time."""
+
+    CSS_PATH = "stepper.tcss"
+    BINDINGS = [
+        Binding("greater_than_sign", "hop(1)", "Next instance"),
+        Binding("less_than_sign", "hop(-1)", "Previous instance"),
+        Binding("escape,o", "back", "Back to the proof"),
+        Binding("k,f1", "keys", "Keys"),
+    ]
+
+    instance: reactive[int] = reactive(0, init=False)
+
+    def __init__(self, model: ProofModel, instance: int) -> None:
+        super().__init__()
+        self.model = model
+        self.set_reactive(BucketsScreen.instance, instance)
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="charts-box"):
+            yield Static(id="charts")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one("#charts-box").border_title = "bucket occupancy"
+        self.watch_instance(self.instance)
+
+    def watch_instance(self, instance: int) -> None:
+        self.query_one("#charts", Static).update(bucket_text(self.model, instance))
+
+    def action_hop(self, delta: int) -> None:
+        self.instance = min(max(self.instance + delta, 0), max(0, len(self.model.instances) - 1))
+
+    def action_back(self) -> None:
+        self.dismiss(None)
+
+    def action_keys(self) -> None:
+        from stepper.app.help_screen import HelpScreen
+
+        self.app.push_screen(HelpScreen(self.BINDINGS, "Keys of the bucket charts"))

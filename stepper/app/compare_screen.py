@@ -1,0 +1,228 @@
+"""The compare screen: two runs side by side, the first divergence marked.
+
+Opened by ``stepper view A --compare B`` (or pushed with a ready
+:class:`~stepper.diff.Comparison`). State is one reactive ``pair`` (the index
+of the aligned instance pair on screen); ``watch_pair`` refills both round
+tables. Each table shows the claim, every round (values sent, challenge) and
+the final value of its side; a mark column says what differs on that line
+(``g`` values, ``r`` challenge, ``-`` missing on the other side) and ``>>``
+points at the first divergence. Judging is done by :mod:`stepper.diff`; this
+module only lays it out. A file that cannot be read shows its one-line error.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.reactive import reactive
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static
+
+from stepper.errors import StepperError
+
+if TYPE_CHECKING:
+    from stepper.diff import Comparison, InstancePair
+    from stepper.field import Element, Field
+    from stepper.transcript import InstanceRecord
+
+__all__ = ["CompareScreen", "side_rows"]
+
+COLUMNS = ("", "line", "values sent", "challenge")
+_DIFF_STYLE = "bold #f0a35e"
+_SAME_STYLE = ""
+
+
+def _short(field: Field, value: Element, limit: int = 20) -> str:
+    text = field.fmt(value)
+    return text if len(text) <= limit else f"{text[: limit // 2 - 1]}..{text[-(limit // 2 - 1):]}"
+
+
+def side_rows(c: Comparison, pair: InstancePair, side: str) -> list[tuple[str, str, str, str, bool]]:
+    """Rows (mark, line, values, challenge, differs) of one side of an instance pair:
+    the claim, each round, the final value."""
+    field = c.field_a if side == "a" else c.field_b
+    inst: InstanceRecord | None = pair.a if side == "a" else pair.b
+    other: InstanceRecord | None = pair.b if side == "a" else pair.a
+    d = c.divergence
+    here = d is not None and (d.instance_a, d.instance_b) == (pair.pairing.a, pair.pairing.b)
+    rows: list[tuple[str, str, str, str, bool]] = []
+    if inst is None:
+        return [("-", "instance", "(absent on this side)", "", True)]
+    claim_differs = other is None or field.lift(inst.start.claim) != field.lift(other.start.claim)
+    claim_mark = ">>" if here and d is not None and d.round == 0 else ("c" if claim_differs else "")
+    rows.append((claim_mark, "claim", _short(field, inst.start.claim, 40), "", claim_differs))
+    for rp in pair.rounds:
+        rnd = rp.a if side == "a" else rp.b
+        marks = ("g" if rp.same_values is False else "") + ("r" if rp.same_challenge is False else "")
+        if rp.a is None or rp.b is None:
+            marks = "-"
+        if here and d is not None and d.round == rp.number and d.element in ("value", "challenge", "round"):
+            marks = ">>" + marks
+        if rnd is None:
+            rows.append((marks, f"round {rp.number}", "(not sent)", "", True))
+            continue
+        values = ", ".join(_short(field, v) for v in rnd.values)
+        chal = "(none)" if rnd.challenge is None else _short(field, rnd.challenge)
+        rows.append((marks, f"round {rp.number}", values, chal, bool(marks)))
+    if inst.final is not None or (other is not None and other.final is not None):
+        final_differs = other is None or inst.final is None or other.final is None or (
+            field.lift(inst.final) != field.lift(other.final))
+        mark = ">>" if here and d is not None and d.element == "final" else ("f" if final_differs else "")
+        shown = "(none)" if inst.final is None else _short(field, inst.final, 40)
+        rows.append((mark, "final", shown, "", final_differs))
+    return rows
+
+
+class CompareScreen(Screen[None]):
+    """A and B side by side for one aligned instance pair at a time."""
+
+    CSS_PATH = "compare_screen.tcss"
+    BINDINGS = [
+        Binding("greater_than_sign", "hop(1)", "Next instance"),
+        Binding("less_than_sign", "hop(-1)", "Previous instance"),
+        Binding("exclamation_mark", "divergence", "First divergence"),
+        Binding("escape,backspace", "close", "Back"),
+        Binding("q", "app.quit", "Quit"),
+    ]
+
+    pair: reactive[int] = reactive(0, init=False)
+
+    def __init__(self, path_a: str | Path | None = None, path_b: str | Path | None = None, *,
+                 comparison: Comparison | None = None) -> None:
+        super().__init__()
+        self.path_a = None if path_a is None else Path(path_a)
+        self.path_b = None if path_b is None else Path(path_b)
+        self.comparison = comparison
+        self.problem: str | None = None
+
+    def compose(self) -> ComposeResult:
+        yield Static(id="compare-head")
+        yield Static(id="compare-verdict")
+        with Horizontal(id="compare-sides"):
+            with Vertical(id="side-a"):
+                yield DataTable(id="table-a", cursor_type="row", zebra_stripes=True)
+            with Vertical(id="side-b"):
+                yield DataTable(id="table-b", cursor_type="row", zebra_stripes=True)
+        yield Footer()
+
+    def on_mount(self) -> None:
+        for key in ("a", "b"):
+            self.query_one(f"#table-{key}", DataTable).add_columns(*COLUMNS)
+        if self.comparison is None:
+            self.comparison = self._load()
+        self._head()
+        if self.comparison is not None:
+            self.pair = self._divergent_pair()
+            self._fill(self.pair)
+        self.query_one("#table-a", DataTable).focus()
+
+    def _load(self) -> Comparison | None:
+        from stepper.diff import compare
+        from stepper.store import load
+
+        if self.path_a is None or self.path_b is None:
+            self.problem = "expected two files to compare, found fewer"
+            return None
+        try:
+            return compare(load(self.path_a), load(self.path_b))
+        except StepperError as err:
+            self.problem = str(err)
+            return None
+
+    def _divergent_pair(self) -> int:
+        c = self.comparison
+        if c is None or c.divergence is None:
+            return 0
+        d = c.divergence
+        for k, p in enumerate(c.pairs):
+            if (p.pairing.a, p.pairing.b) == (d.instance_a, d.instance_b):
+                return k
+        return 0
+
+    def _head(self) -> None:
+        head = self.query_one("#compare-head", Static)
+        verdict = self.query_one("#compare-verdict", Static)
+        c = self.comparison
+        if c is None:
+            head.update(Text(f" cannot compare: {self.problem}", style=_DIFF_STYLE))
+            verdict.update("")
+            return
+        a = self.path_a.name if self.path_a else "A"
+        b = self.path_b.name if self.path_b else "B"
+        head.update(f" A {a} ({c.field_a.describe()}, {c.completeness_a})   B {b} "
+                    f"({c.field_b.describe()}, {c.completeness_b})   marks: g values  r challenge  c claim  "
+                    "f final  - one side only  >> first divergence")
+        lines = Text()
+        if c.divergence is None:
+            lines.append("identical", style="bold #6fb39a")
+            lines.append(f": {c.classification.explanation}")
+        else:
+            lines.append(c.classification.kind, style=_DIFF_STYLE)
+            lines.append(f" at {c.divergence.place()}\n{c.classification.explanation}")
+            lines.append(f"\nA {c.divergence.a or '(absent)'}   B {c.divergence.b or '(absent)'}")
+        for remark in c.remarks:
+            lines.append(f"\n{remark}", style="italic")
+        verdict.update(lines)
+
+    def watch_pair(self, index: int) -> None:
+        self._fill(index)
+
+    def _fill(self, index: int) -> None:
+        c = self.comparison
+        if c is None or not c.pairs:
+            return
+        pair = c.pairs[index]
+        for key in ("a", "b"):
+            table = self.query_one(f"#table-{key}", DataTable)
+            table.clear()
+            for mark, line, values, chal, differs in side_rows(c, pair, key):
+                style = _DIFF_STYLE if differs else _SAME_STYLE
+                table.add_row(Text(mark, style=_DIFF_STYLE), line, Text(values, style=style), Text(chal, style=style))
+            which = pair.pairing.a if key == "a" else pair.pairing.b
+            label = "absent" if which is None else f"#{which}"
+            self.query_one(f"#side-{key}").border_title = f"{key.upper()} {label} {pair.pairing.name}"
+        self.call_after_refresh(self._focus_divergence, pair)
+
+    def _focus_divergence(self, pair: InstancePair) -> None:
+        c = self.comparison
+        assert c is not None
+        rows = side_rows(c, pair, "a")
+        target = next((k for k, row in enumerate(rows) if row[0].startswith(">>")), None)
+        if target is None:
+            return
+        for key in ("a", "b"):
+            table = self.query_one(f"#table-{key}", DataTable)
+            if target < table.row_count:
+                table.move_cursor(row=target, animate=False)
+
+    def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        """Keep both sides on the same line."""
+        other = "#table-b" if event.data_table.id == "table-a" else "#table-a"
+        table = self.query_one(other, DataTable)
+        if table.row_count and table.cursor_row != event.cursor_row and event.cursor_row < table.row_count:
+            table.move_cursor(row=event.cursor_row, animate=False)
+
+    def action_hop(self, delta: int) -> None:
+        if self.comparison is not None and self.comparison.pairs:
+            self.pair = (self.pair + delta) % len(self.comparison.pairs)
+
+    def action_divergence(self) -> None:
+        if self.comparison is None or self.comparison.divergence is None:
+            self.notify("the two runs do not diverge")
+            return
+        target = self._divergent_pair()
+        if target != self.pair:
+            self.pair = target
+        else:
+            self._focus_divergence(self.comparison.pairs[target])
+
+    def action_close(self) -> None:
+        if len(self.app.screen_stack) > 1:
+            self.app.pop_screen()
+        else:
+            self.app.exit()

@@ -1,0 +1,412 @@
+"""The app's view of one proof: event records plus the replay's verdicts, as rows.
+
+Pure: no I/O and no Textual. A :class:`ProofModel` is fed event records one at
+a time (when a file opens, and again while a growing file is followed); it
+hands each record to the core replay (:class:`stepper.verify.Replay`), keeps
+the results it returns, and answers what the screens ask: the rows of one
+instance, the status of every round at a glance, the failures in order, a
+value search, and the detail of one round. It never decides on its own whether
+a check passed: every status word comes from the replay.
+
+Invariants: a position is ``(instance, round)`` with the instance 0-based and
+the round 1-based; ``InstanceView.rounds[k - 1]`` is round k as sent and
+``results[k - 1]`` the replay's latest result for it (``None`` until there is
+one); ``failures`` lists failing positions in proof order without repeats.
+"""
+
+from __future__ import annotations
+
+from bisect import bisect_right, insort
+from dataclasses import dataclass, field as dc_field
+from typing import Any, Iterable, Mapping
+
+from stepper.field import Element, Field
+from stepper.transcript import (
+    BatchDecl,
+    BucketStats,
+    ChallengeMsg,
+    Event,
+    FieldDecl,
+    FinalValue,
+    Header,
+    InstanceStart,
+    Note,
+    RoundMsg,
+    ScheduleDecl,
+    Transcript,
+    UnknownEvent,
+    fold_events,
+)
+
+__all__ = ["Position", "StatusMark", "STATUS_MARKS", "InstanceView", "ProofModel", "RoundRow", "shorten"]
+
+Position = tuple[int, int]
+
+
+@dataclass(frozen=True, slots=True)
+class StatusMark:
+    """How a status reads on screen: a word, a symbol of its own shape, a style class."""
+
+    word: str
+    symbol: str
+    tone: str
+
+
+# Shapes differ as well as colours, so a status never rests on colour alone.
+STATUS_MARKS: dict[str, StatusMark] = {
+    "pass": StatusMark("pass", "■", "good"),
+    "fail": StatusMark("fail", "✕", "bad"),
+    "pending": StatusMark("pending", "◌", "wait"),
+    "unchecked": StatusMark("unchecked", "?", "wait"),
+}
+
+
+def mark_of(status: str | None) -> StatusMark:
+    return STATUS_MARKS.get(status or "unchecked", STATUS_MARKS["unchecked"])
+
+
+def shorten(text: str, width: int) -> str:
+    """``text`` cut in the middle with an ellipsis when longer than ``width``."""
+    if len(text) <= width or width < 5:
+        return text
+    head = (width - 1) * 2 // 3
+    return text[:head] + "…" + text[len(text) - (width - 1 - head) :]
+
+
+@dataclass(frozen=True, slots=True)
+class RoundRow:
+    """One line of an instance's round table, every cell already text."""
+
+    round: int
+    claim_in: str
+    sum01: str
+    degree: str
+    challenge: str
+    claim_out: str
+    status: str
+    symbol: str
+    tone: str
+
+    def cells(self) -> tuple[str, ...]:
+        return (str(self.round), self.claim_in, self.sum01, self.degree, self.challenge, self.claim_out,
+                f"{self.symbol} {self.status}")
+
+
+@dataclass(slots=True)
+class InstanceView:
+    """Everything seen so far for one instance (an accumulator, grown by the model)."""
+
+    start: InstanceStart
+    rounds: list[RoundMsg] = dc_field(default_factory=list)
+    challenges: list[Element | None] = dc_field(default_factory=list)
+    results: list[Any] = dc_field(default_factory=list)
+    buckets: list[BucketStats] = dc_field(default_factory=list)
+    notes: list[Note] = dc_field(default_factory=list)
+    unknown: list[UnknownEvent] = dc_field(default_factory=list)
+    final_value: Element | None = None
+    final_result: Any = None
+    batch_result: Any = None
+
+    @property
+    def name(self) -> str:
+        return self.start.name
+
+    def status(self, round_: int) -> str:
+        result = self.results[round_ - 1] if 0 < round_ <= len(self.results) else None
+        if result is None:
+            return "unchecked" if round_ <= len(self.rounds) else "missing"
+        return str(result.status)
+
+    def worst(self) -> str:
+        """``fail`` if any check of the instance failed, else ``pending`` while rounds are
+        missing or unchecked, else ``pass``."""
+        if self.failed_final() or self.failed_batch() or any(
+            r is not None and r.status == "fail" for r in self.results
+        ):
+            return "fail"
+        if len(self.rounds) < self.start.num_vars or any(r is None or r.status != "pass" for r in self.results):
+            return "pending"
+        return "pass"
+
+    def failed_final(self) -> bool:
+        return self.final_result is not None and self.final_result.status == "fail"
+
+    def failed_batch(self) -> bool:
+        return self.batch_result is not None and self.batch_result.status == "fail"
+
+
+class ProofModel:
+    """A proof as the app shows it, grown one event record at a time."""
+
+    def __init__(self, replay_factory: Any = None, header: Header | None = None, source: str = "") -> None:
+        self.header = header or Header()
+        self.source = source
+        self.field: Field | None = None
+        self.schedule: ScheduleDecl | None = None
+        self.instances: list[InstanceView] = []
+        self.proof_notes: list[Note] = []
+        self.unknown: list[UnknownEvent] = []
+        self.failures: list[Position] = []
+        self._failure_set: set[Position] = set()
+        self.completeness = "incomplete"
+        self.digest = "missing"
+        self.events_seen = 0
+        self.generation = 0  # bumps on every change; screens repaint when it moves
+        self._replay_factory = replay_factory
+        self._replay: Any = replay_factory() if replay_factory is not None else None
+        self._records: list[Event] = []  # every record fed, in order (for a mid-stream report, a fold)
+        self._report: Any = None
+        self._report_generation = -1
+        self._closed = False
+
+    # ----- growing ---------------------------------------------------------------------
+    def feed(self, record: Event) -> None:
+        """Take one event record (in file order) and the replay's results for it."""
+        self.events_seen += 1
+        self.generation += 1
+        if isinstance(record, FieldDecl):
+            self.field = record.field
+        elif isinstance(record, ScheduleDecl):
+            self.schedule = record
+        elif isinstance(record, InstanceStart):
+            self.instances.append(InstanceView(record))
+        elif isinstance(record, RoundMsg):
+            view = self.instances[record.instance]
+            view.rounds.append(record)
+            view.challenges.append(None)
+            view.results.append(None)
+        elif isinstance(record, ChallengeMsg):
+            self.instances[record.instance].challenges[record.round - 1] = record.value
+        elif isinstance(record, FinalValue):
+            self.instances[record.instance].final_value = record.value
+        elif isinstance(record, BucketStats):
+            self.instances[record.instance].buckets.append(record)
+        elif isinstance(record, Note):
+            self._add_note(record)
+        elif isinstance(record, UnknownEvent):
+            if record.instance is not None and record.instance < len(self.instances):
+                self.instances[record.instance].unknown.append(record)
+            else:
+                self.unknown.append(record)
+        self._records.append(record)
+        if self._replay is not None and isinstance(record, _CHECKED):
+            for result in self._replay.feed(record):
+                self._take(result)
+
+    def feed_all(self, records: Iterable[Event]) -> None:
+        for record in records:
+            self.feed(record)
+
+    def finish(self, completeness: str, digest: str) -> None:
+        """What the reader learnt once the file was exhausted."""
+        self.completeness = completeness
+        self.digest = digest
+        self.generation += 1
+
+    def add_note(self, note: Note) -> None:
+        """A note made in the app (already saved by the caller)."""
+        self._records.append(note)
+        self._add_note(note)
+        self.generation += 1
+
+    def _add_note(self, note: Note) -> None:
+        if note.instance is not None and note.instance < len(self.instances):
+            self.instances[note.instance].notes.append(note)
+        else:
+            self.proof_notes.append(note)
+
+    def _take(self, result: Any) -> None:
+        self.generation += 1
+        kind = type(result).__name__
+        index = getattr(result, "instance", None)
+        if not isinstance(index, int) or not 0 <= index < len(self.instances):
+            return
+        view = self.instances[index]
+        if kind == "RoundResult":
+            number = int(result.round)
+            while len(view.results) < number:
+                view.results.append(None)
+            view.results[number - 1] = result
+            if result.status == "fail":
+                self._note_failure((index, number))
+        elif kind == "FinalResult":
+            view.final_result = result
+            if result.status == "fail":
+                self._note_failure((index, max(1, len(view.rounds))))
+        elif kind == "BatchResult":
+            view.batch_result = result
+            if result.status == "fail":
+                self._note_failure((index, 1))
+
+    def _note_failure(self, position: Position) -> None:
+        if position not in self._failure_set:
+            self._failure_set.add(position)
+            insort(self.failures, position)
+
+    # ----- questions -------------------------------------------------------------------
+    @property
+    def round_count(self) -> int:
+        return sum(len(v.rounds) for v in self.instances)
+
+    def report(self) -> Any:
+        """The replay's report of everything fed so far. Once the file is complete the
+        live replay closes and reports; before that (a growing or truncated file) a
+        fresh replay of the same records reports, so the live one can go on."""
+        if self._replay is None:
+            return None
+        if self._report is not None and (self._report_generation == self.generation or self._closed):
+            return self._report
+        if self.completeness == "complete":
+            for result in self._replay.finish():
+                self._take(result)
+            self._closed = True
+            self._report = self._replay.report("complete")
+        else:
+            probe = self._replay_factory()
+            for record in self._records:
+                if isinstance(record, _CHECKED):
+                    probe.feed(record)
+            for result in probe.finish():
+                self._take(result)
+            self._report = probe.report(self.completeness)
+        self._report_generation = self.generation
+        return self._report
+
+    def transcript(self) -> Transcript:
+        """The folded transcript of everything fed so far (notes made in the app included)."""
+        return fold_events(self._records, self.header, self.completeness, self.digest)  # type: ignore[arg-type]
+
+    def verdict(self) -> str:
+        report = self.report()
+        return str(report.verdict) if report is not None else "incomplete"
+
+    def rounds_in(self, instance: int) -> int:
+        return len(self.instances[instance].rounds) if 0 <= instance < len(self.instances) else 0
+
+    def rows(self, instance: int, width: int = 14) -> list[RoundRow]:
+        """The round table of one instance (built on demand: only the instance on screen)."""
+        view = self.instances[instance]
+        field = self.field
+        assert field is not None
+        out: list[RoundRow] = []
+        for number, msg in enumerate(view.rounds, start=1):
+            result = view.results[number - 1]
+            challenge = view.challenges[number - 1]
+            if result is None:
+                mark = mark_of(None)
+                out.append(RoundRow(number, "", "", f"{len(msg.values) - 1}/{view.start.degree}",
+                                    _cell(field, challenge, width), "", mark.word, mark.symbol, mark.tone))
+                continue
+            mark = mark_of(result.status)
+            out.append(RoundRow(
+                number,
+                _cell(field, result.claim_in, width),
+                _cell(field, result.sum01, width),
+                f"{result.degree_seen}/{result.degree_bound}",
+                _cell(field, result.challenge if result.challenge is not None else challenge, width),
+                _cell(field, result.claim_out, width),
+                mark.word,
+                mark.symbol,
+                mark.tone,
+            ))
+        return out
+
+    def strip_line(self, instance: int) -> str:
+        """One symbol per round of the instance (blank for rounds not yet sent)."""
+        view = self.instances[instance]
+        symbols = [mark_of(view.status(k)).symbol for k in range(1, len(view.rounds) + 1)]
+        missing = view.start.num_vars - len(view.rounds)
+        return "".join(symbols) + "·" * max(0, missing)
+
+    # ----- moving ----------------------------------------------------------------------
+    def first_failure(self) -> Position | None:
+        return self.failures[0] if self.failures else None
+
+    def next_failure(self, after: Position) -> Position | None:
+        """The first failure after ``after`` in proof order, wrapping to the first."""
+        if not self.failures:
+            return None
+        at = bisect_right(self.failures, after)
+        return self.failures[at] if at < len(self.failures) else self.failures[0]
+
+    def step(self, at: Position, delta: int) -> Position:
+        """``delta`` rounds forward or back across instance borders, clamped to the proof."""
+        instance, round_ = at
+        round_ += delta
+        while round_ > self.rounds_in(instance) and instance + 1 < len(self.instances):
+            round_ -= max(1, self.rounds_in(instance))
+            instance += 1
+        while round_ < 1 and instance > 0:
+            instance -= 1
+            round_ += max(1, self.rounds_in(instance))
+        return instance, max(1, min(round_, max(1, self.rounds_in(instance))))
+
+    def search(self, query: str, after: Position) -> Position | None:
+        """The next round (after ``after``, wrapping) in which ``query`` appears: an
+        element equal to the number typed (decimal or 0x hex) or whose decimal text
+        contains the digits typed; instance names match by substring."""
+        text = query.strip().lower()
+        if not text or self.field is None:
+            return None
+        wanted = _as_number(text)
+        order = [(i, k) for i, v in enumerate(self.instances) for k in range(1, max(1, len(v.rounds)) + 1)]
+        if not order:
+            return None
+        start = bisect_right(order, after)
+        for pos in order[start:] + order[:start]:
+            if self._round_mentions(pos, text, wanted):
+                return pos
+        return None
+
+    def _round_mentions(self, pos: Position, text: str, wanted: int | None) -> bool:
+        field = self.field
+        assert field is not None
+        view = self.instances[pos[0]]
+        if pos[1] == 1 and text in view.name.lower():
+            return True
+        values: list[Element | None] = []
+        if pos[1] <= len(view.rounds):
+            values.extend(view.rounds[pos[1] - 1].values)
+            values.append(view.challenges[pos[1] - 1])
+            result = view.results[pos[1] - 1]
+            if result is not None:
+                values.extend([result.claim_in, result.claim_out, result.recovered_value])
+        if pos[1] == 1:
+            values.append(view.start.claim)
+        if pos[1] == len(view.rounds):
+            values.append(view.final_value)
+        for value in values:
+            if value is None:
+                continue
+            if wanted is not None and _matches_int(field, value, wanted):
+                return True
+            if text.isdigit() and text in field.fmt(value):
+                return True
+        return False
+
+    def notes_at(self, pos: Position) -> list[Note]:
+        view = self.instances[pos[0]]
+        return [n for n in view.notes if n.round == pos[1]]
+
+    def metadata(self) -> Mapping[str, Any]:
+        return self.header.metadata
+
+
+_CHECKED = (FieldDecl, ScheduleDecl, BatchDecl, InstanceStart, RoundMsg, ChallengeMsg, FinalValue)
+
+
+def _cell(field: Field, value: Element | None, width: int) -> str:
+    return "" if value is None else shorten(field.fmt(value), width)
+
+
+def _as_number(text: str) -> int | None:
+    try:
+        return int(text, 16) if text.startswith("0x") else int(text, 10)
+    except ValueError:
+        return None
+
+
+def _matches_int(field: Field, value: Element, wanted: int) -> bool:
+    if isinstance(value, int):
+        return value == wanted
+    return wanted in value

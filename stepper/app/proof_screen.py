@@ -1,0 +1,257 @@
+"""The main screen: summary, status strip, round table and round detail of one proof.
+
+State is one reactive ``position`` (instance 0-based, round 1-based); every
+move sets it and ``watch_position`` updates the three views that depend on it
+(the table moves its cursor or, on an instance change, rebuilds its few rows;
+the strip redraws two lines; the detail pane redraws). Nothing here judges a
+round: statuses and explanations come from the model, which quotes the replay.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.reactive import reactive
+from textual.screen import Screen
+from textual.widgets import Footer, Static
+
+from stepper.app.ask_screen import AskScreen
+from stepper.app.buckets_screen import BucketsScreen
+from stepper.app.export import markdown_report
+from stepper.app.help_screen import HelpScreen
+from stepper.app.proof_model import Position, ProofModel
+from stepper.app.readout import Line, diagnosis_lines, round_lines, summary_lines
+from stepper.app.round_detail import ReadoutPanel
+from stepper.app.round_table import RoundTable
+from stepper.app.status_strip import StatusStrip
+from stepper.errors import StepperError
+from stepper.transcript import Note
+
+if TYPE_CHECKING:
+    from stepper.app.app import StepperApp
+
+__all__ = ["ProofScreen", "parse_round_target"]
+
+
+def parse_round_target(text: str, current_instance: int) -> Position | None:
+    """``N`` (round N of the current instance) or ``I:N`` / ``I/N`` (instance I, round N)."""
+    cleaned = text.strip().replace("/", ":")
+    parts = cleaned.split(":")
+    try:
+        numbers = [int(p) for p in parts]
+    except ValueError:
+        return None
+    if len(numbers) == 1:
+        return current_instance, numbers[0]
+    if len(numbers) == 2:
+        return numbers[0], numbers[1]
+    return None
+
+
+class ProofScreen(Screen[None]):
+    """Summary on top, strip of every round, then table and detail side by side."""
+
+    CSS_PATH = "stepper.tcss"
+    BINDINGS = [
+        Binding("full_stop", "step(1)", "Next round"),
+        Binding("comma", "step(-1)", "Previous round"),
+        Binding("greater_than_sign", "hop(1)", "Next instance"),
+        Binding("less_than_sign", "hop(-1)", "Previous instance"),
+        Binding("exclamation_mark", "first_failure", "First failure"),
+        Binding("x", "next_failure", "Next failure"),
+        Binding("r", "ask_round", "Go to round"),
+        Binding("s", "ask_value", "Seek value"),
+        Binding("a", "ask_note", "Annotate round"),
+        Binding("o", "buckets", "Bucket occupancy"),
+        Binding("e", "export_svg", "Export SVG"),
+        Binding("t", "export_text", "Text report"),
+        Binding("l", "toggle_live", "Stay on newest", show=False),
+        Binding("k,f1", "keys", "Keys"),
+        Binding("q", "app.quit", "Quit"),
+    ]
+
+    position: reactive[Position] = reactive((0, 1), init=False)
+    live: reactive[bool] = reactive(False)
+
+    def __init__(self, model: ProofModel) -> None:
+        super().__init__()
+        self.model = model
+        self.last_message = ""
+
+    @property
+    def stepper(self) -> StepperApp:
+        return self.app  # type: ignore[return-value]
+
+    def compose(self) -> ComposeResult:
+        yield Static(id="where-bar")
+        with VerticalScroll(id="summary-box"):
+            yield ReadoutPanel(id="summary")
+        yield StatusStrip(self.model, id="strip")
+        with Horizontal(id="main-row"):
+            yield RoundTable(self.model, id="rounds")
+            with VerticalScroll(id="detail-box"):
+                yield ReadoutPanel(label_width=14, id="detail")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one("#summary-box").border_title = "proof"
+        self.query_one("#strip").border_title = "every round  ■ pass  ✕ fail  ◌ pending  · not sent"
+        self.query_one("#detail-box").border_title = "round detail"
+        self.model_changed()
+        self._show(self.position)
+        self.query_one(RoundTable).focus()
+
+    # ----- state -------------------------------------------------------------------
+    def model_changed(self) -> None:
+        """Repaint what depends on the whole model (after the file grew or a note)."""
+        lines = summary_lines(self.model)
+        if self.stepper.problem:
+            lines.insert(0, Line("stopped reading", self.stepper.problem, "bad"))
+        self.query_one("#summary", ReadoutPanel).show(lines)
+        self.query_one(StatusStrip).sync()
+        if self.live and self.model.instances:
+            last = len(self.model.instances) - 1
+            self.position = (last, max(1, self.model.rounds_in(last)))
+        self._show(self.position)
+
+    def watch_position(self, position: Position) -> None:
+        self._show(position)
+
+    def _show(self, position: Position) -> None:
+        instance, number = position
+        self.query_one(RoundTable).show(instance, number)
+        self.query_one(StatusStrip).current = position
+        lines = round_lines(self.model, position)
+        lines.extend(diagnosis_lines(self.stepper.diagnosis, position))
+        self.query_one("#detail", ReadoutPanel).show(lines)
+        self.query_one("#where-bar", Static).update(self._where_text(position))
+
+    def _where_text(self, position: Position) -> str:
+        model = self.model
+        verdict = model.verdict()
+        if not model.instances:
+            return f" {model.source}  ·  no instance yet  ·  verdict {verdict}"
+        instance, number = position
+        view = model.instances[instance]
+        live = "  ·  following" if self.stepper.follow else ""
+        return (f" instance {instance + 1}/{len(model.instances)} {view.name}  ·  round {number}/"
+                f"{view.start.num_vars}  ·  verdict {verdict}  ·  failures {len(model.failures)}{live}")
+
+    def go(self, position: Position) -> None:
+        """Move to a position (clamped to what exists)."""
+        if not self.model.instances:
+            return
+        instance = min(max(position[0], 0), len(self.model.instances) - 1)
+        number = min(max(position[1], 1), max(1, self.model.rounds_in(instance)))
+        self.position = (instance, number)
+
+    def say(self, message: str, severity: str = "information") -> None:
+        self.last_message = message
+        self.notify(message, severity=severity)  # type: ignore[arg-type]
+
+    # ----- messages from the widgets --------------------------------------------------
+    def on_round_table_round_chosen(self, message: RoundTable.RoundChosen) -> None:
+        self.go((message.instance, message.round))
+
+    def on_status_strip_picked(self, message: StatusStrip.Picked) -> None:
+        self.go((message.instance, 1))
+
+    # ----- actions -------------------------------------------------------------------
+    def action_step(self, delta: int) -> None:
+        self.go(self.model.step(self.position, delta))
+
+    def action_hop(self, delta: int) -> None:
+        self.go((self.position[0] + delta, 1))
+
+    def action_first_failure(self) -> None:
+        first = self.model.first_failure()
+        if first is None:
+            self.say("no failed check so far")
+        else:
+            self.go(first)
+
+    def action_next_failure(self) -> None:
+        nxt = self.model.next_failure(self.position)
+        if nxt is None:
+            self.say("no failed check so far")
+        else:
+            self.go(nxt)
+
+    def action_ask_round(self) -> None:
+        self.app.push_screen(AskScreen("Go to round", "N, or instance:round (instance 0-based)"), self._goto_answer)
+
+    def _goto_answer(self, answer: str | None) -> None:
+        if not answer:
+            return
+        target = parse_round_target(answer, self.position[0])
+        if target is None or not 0 <= target[0] < len(self.model.instances) or not (
+            1 <= target[1] <= max(1, self.model.rounds_in(target[0]))
+        ):
+            self.say(f"expected a round number that exists (or instance:round), found {answer!r}", "warning")
+            return
+        self.go(target)
+
+    def action_ask_value(self) -> None:
+        self.app.push_screen(AskScreen("Seek value", "decimal or 0x hex; digits also match inside values"),
+                             self._seek_answer)
+
+    def _seek_answer(self, answer: str | None) -> None:
+        if not answer:
+            return
+        found = self.model.search(answer, self.position)
+        if found is None:
+            self.say(f"{answer!r} appears in no round", "warning")
+        else:
+            self.go(found)
+            self.say(f"{answer!r} found in instance {found[0]}, round {found[1]}")
+
+    def action_ask_note(self) -> None:
+        if not self.model.instances:
+            return
+        instance, number = self.position
+        self.app.push_screen(AskScreen(f"Note for instance {instance}, round {number}", "text saved in the file"),
+                             self._note_answer)
+
+    def _note_answer(self, answer: str | None) -> None:
+        if not answer or not answer.strip():
+            return
+        instance, number = self.position
+        note = Note(answer.strip(), instance, number)
+        try:
+            self.stepper.save_note(note)
+        except StepperError as err:
+            self.say(f"note not saved: {err}", "error")
+            return
+        self.model_changed()
+        self.say(f"note saved to round {number} of instance {instance}")
+
+    def action_buckets(self) -> None:
+        self.app.push_screen(BucketsScreen(self.model, self.position[0]))
+
+    def action_export_svg(self) -> None:
+        path = self.stepper.export_path("svg", self.position)
+        self.app.save_screenshot(filename=path.name, path=str(path.parent))
+        self.say(f"screenshot written to {path}")
+
+    def action_export_text(self) -> None:
+        path = self.stepper.export_path("md", self.position)
+        text = markdown_report(self.model, self.position, self.stepper.diagnosis)
+        try:
+            Path(path).write_text(text, encoding="utf-8")
+        except OSError as err:
+            self.say(f"report not written: {path}: {err.strerror or err}", "error")
+            return
+        self.say(f"text report written to {path}")
+
+    def action_toggle_live(self) -> None:
+        self.live = not self.live
+        self.say("staying on the newest round" if self.live else "staying where you are")
+        if self.live:
+            self.model_changed()
+
+    def action_keys(self) -> None:
+        self.app.push_screen(HelpScreen(self.BINDINGS, "Keys of the proof view"))

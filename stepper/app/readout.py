@@ -1,0 +1,202 @@
+"""Readouts: the proof summary and the detail of one round as labelled lines.
+
+Pure (no I/O, no Textual). Each function turns a :class:`ProofModel` (and,
+when a witness was given, a root-cause diagnosis) into :class:`Line` records
+that the screens style by ``tone`` and the text export prints as they are.
+Values appear in full here (the round table shortens them); every verdict,
+expected/found pair and explanation sentence is quoted from the replay.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from stepper.app.proof_model import Position, ProofModel, mark_of
+from stepper.field import Field
+
+__all__ = ["Line", "CAUTION", "summary_lines", "round_lines", "diagnosis_lines"]
+
+CAUTION = (
+    "A passing replay is evidence about this one run, not a soundness proof: "
+    "a wrong protocol or a weak challenge derivation can pass every check here."
+)
+
+
+@dataclass(frozen=True, slots=True)
+class Line:
+    """One labelled line; ``tone`` is one of plain, good, bad, wait, muted, note, head."""
+
+    label: str
+    value: str
+    tone: str = "plain"
+
+    def text(self) -> str:
+        return f"{self.label}: {self.value}" if self.label else self.value
+
+
+def summary_lines(model: ProofModel) -> list[Line]:
+    """What the proof is and how the replay judged it."""
+    field = model.field
+    lines: list[Line] = []
+    if model.source:
+        lines.append(Line("file", model.source))
+    if field is not None:
+        base = field.base
+        lines.append(Line("field", f"{base.describe()} (p = {base.p})"))
+        lines.append(Line("challenge field", field.describe() if field.is_extension else "the same prime field"))
+    else:
+        lines.append(Line("field", "not declared yet", "wait"))
+    if model.schedule is not None:
+        label = f" (label {model.schedule.label!r})" if model.schedule.label else ""
+        lines.append(Line("challenges", f"Fiat-Shamir schedule {model.schedule.name}{label}: re-derived and compared"))
+    else:
+        lines.append(Line("challenges", "taken as recorded (no Fiat-Shamir schedule declared)", "muted"))
+    lines.append(Line("instances", f"{len(model.instances)} with {model.round_count} rounds"))
+    report = model.report()
+    verdict = model.verdict()
+    tone = {"accept": "good", "reject": "bad"}.get(verdict, "wait")
+    lines.append(Line("verdict", verdict, tone))
+    first = _first_failure(report)
+    if first is not None:
+        lines.append(Line("first failure", first, "bad"))
+    soundness = _soundness(report)
+    if soundness:
+        lines.append(Line("soundness bound", soundness))
+    lines.append(Line("transcript", f"{model.completeness}, digest {model.digest}",
+                      "good" if model.digest == "verified" and model.completeness == "complete" else "wait"))
+    for key, value in model.metadata().items():
+        lines.append(Line(f"meta {key}", _plain(value), "muted"))
+    for note in model.proof_notes:
+        lines.append(Line("note", note.text, "note"))
+    for unknown in model.unknown:
+        lines.append(Line("unknown event", f"{unknown.kind} (kept, not checked)", "muted"))
+    lines.append(Line("", getattr(report, "warning", None) or CAUTION, "muted"))
+    return lines
+
+
+def round_lines(model: ProofModel, pos: Position) -> list[Line]:
+    """Everything about one round: values as sent, decoded evaluations, recovered value,
+    challenge recorded vs re-derived, the replay's verdict and its explanation."""
+    field = model.field
+    if field is None or not model.instances:
+        return [Line("", "no instance yet", "wait")]
+    index, number = pos
+    view = model.instances[index]
+    start = view.start
+    fmt = field.fmt
+    lines = [
+        Line("instance", f"{index} {start.name!r}: {start.num_vars} variables, degree {start.degree}, "
+                         f"{start.order}, form {start.form}", "head"),
+    ]
+    if number == 1 or not view.rounds:
+        lines.append(Line("claimed sum", fmt(start.claim)))
+        if start.batch is not None:
+            batch = start.batch
+            lines.append(Line("batched", f"coefficient {fmt(batch.coefficient)} over {len(batch.terms)} terms"))
+        if view.batch_result is not None:
+            lines.extend(_verdict_lines("batch", view.batch_result, field))
+    if not view.rounds:
+        lines.append(Line("rounds", "none sent yet", "wait"))
+        return lines
+    msg = view.rounds[number - 1]
+    result = view.results[number - 1]
+    mark = mark_of(view.status(number))
+    lines.append(Line("round", f"{number} of {start.num_vars}   {mark.symbol} {mark.word}", mark.tone))
+    for i, value in enumerate(msg.values):
+        lines.append(Line(f"sent[{i}]", fmt(value), "muted"))
+    if result is None:
+        challenge = view.challenges[number - 1]
+        lines.append(Line("challenge", fmt(challenge) if challenge is not None else "not sent yet", "wait"))
+        return lines
+    lines.append(Line("claim in", fmt(result.claim_in)))
+    for i, value in enumerate(result.evals):
+        lines.append(Line(f"g({i})", fmt(value)))
+    if result.recovered is not None:
+        lines.append(Line(f"recovered {result.recovered}", fmt(result.recovered_value), "note"))
+    lines.append(Line("g(0)+g(1)", fmt(result.sum01)))
+    lines.append(Line("degree", f"{result.degree_seen} seen, bound {result.degree_bound}"))
+    if result.challenge is not None:
+        lines.append(Line("challenge", fmt(result.challenge)))
+    if result.rederived is not None:
+        same = result.challenge is not None and result.rederived == result.challenge
+        lines.append(Line("re-derived", fmt(result.rederived) + ("  (same)" if same else "  (differs)"),
+                          "good" if same else "bad"))
+    if result.claim_out is not None:
+        lines.append(Line("g(r)", fmt(result.claim_out)))
+    lines.extend(_verdict_lines("round", result, field))
+    if getattr(result, "after_failure", False):
+        lines.append(Line("carried", "checked against the claim carried past an earlier failure of this instance",
+                          "wait"))
+    if number == len(view.rounds):
+        if view.final_value is not None:
+            lines.append(Line("final value", fmt(view.final_value)))
+        if view.final_result is not None:
+            lines.extend(_verdict_lines("final", view.final_result, field))
+    for bucket in view.buckets:
+        if bucket.round == number:
+            bound = f" of 2^{bucket.bound_log2}" if bucket.bound_log2 is not None else ""
+            lines.append(Line(f"buckets chunk {bucket.chunk}", f"{bucket.count}{bound} buckets", "muted"))
+    for note in model.notes_at(pos):
+        lines.append(Line("note", note.text, "note"))
+    return lines
+
+
+def diagnosis_lines(diagnosis: Any, pos: Position | None = None) -> list[Line]:
+    """Root cause and probe findings from a witness diagnosis (``stepper.rootcause``)."""
+    if diagnosis is None:
+        return []
+    lines: list[Line] = []
+    cause = diagnosis.root_cause_json()
+    if cause is None:
+        lines.append(Line("root cause", "the witness agrees with every round sent", "good"))
+    else:
+        where = f"instance {cause.get('instance')}, round {cause.get('round')}, check {cause.get('check')}"
+        here = pos is not None and (cause.get("instance"), cause.get("round")) == pos
+        lines.append(Line("root cause", where + ("  (this round)" if here else ""), "bad"))
+    for sentence in diagnosis.explain():
+        lines.append(Line("", sentence, "note"))
+    for finding in diagnosis.findings_json():
+        text = finding.get("message") or finding.get("text") or _plain(finding)
+        lines.append(Line(f"probe {finding.get('probe', finding.get('kind', ''))}".strip(), str(text), "muted"))
+    return lines
+
+
+def _verdict_lines(what: str, result: Any, field: Field | None) -> list[Line]:
+    mark = mark_of(result.status)
+    show = str if result.check in ("degree", "shape") or field is None else field.fmt
+    lines = [Line(f"{what} check", f"{mark.symbol} {mark.word}" + (f" ({result.check})" if result.check else ""),
+                  mark.tone)]
+    if result.status == "fail":
+        if getattr(result, "expected", None) is not None:
+            lines.append(Line("expected", show(result.expected), "bad"))
+        if getattr(result, "found", None) is not None:
+            lines.append(Line("found", show(result.found), "bad"))
+    if getattr(result, "explanation", None):
+        lines.append(Line("why", str(result.explanation), "bad" if result.status == "fail" else "muted"))
+    return lines
+
+
+def _first_failure(report: Any) -> str | None:
+    first = getattr(report, "first_failure", None)
+    if first is None:
+        return None
+    fmt = report.fmt
+    round_ = "the claim" if first.round == 0 else f"round {first.round}"
+    return (f"instance {first.instance} {first.instance_name!r}, {round_}, check {first.check}: "
+            f"expected {fmt(first.expected)}, found {fmt(first.found)}")
+
+
+def _soundness(report: Any) -> str:
+    if report is None:
+        return ""
+    soundness = getattr(report, "soundness", None)
+    return soundness.describe() if soundness is not None else ""
+
+
+def _plain(value: Any) -> str:
+    if isinstance(value, dict):
+        return ", ".join(f"{k}={_plain(v)}" for k, v in value.items())
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_plain(v) for v in value) + "]"
+    return str(value)

@@ -1,0 +1,96 @@
+"""The status strip: every round of every instance at a glance, one line per instance.
+
+A virtual list: only the lines on screen are drawn (``render_line``), so a proof
+of thousands of instances costs no more to paint than a proof of ten. Each
+round is one symbol of its own shape (see ``STATUS_MARKS``); the instance under
+the cursor is marked with a pointer and its current round is underlined.
+Clicking a line posts :class:`StatusStrip.Picked`.
+"""
+
+from __future__ import annotations
+
+from rich.segment import Segment
+from rich.style import Style
+from textual.geometry import Size
+from textual.message import Message
+from textual.reactive import reactive
+from textual.scroll_view import ScrollView
+from textual.strip import Strip
+
+from stepper.app.proof_model import ProofModel, STATUS_MARKS
+
+__all__ = ["StatusStrip"]
+
+_TONE_STYLE = {
+    "good": Style(color="#6fb39a"),
+    "bad": Style(color="#f0a35e", bold=True),
+    "wait": Style(color="#8c8fa6"),
+}
+_SYMBOL_TONE = {mark.symbol: mark.tone for mark in STATUS_MARKS.values()}
+_NAME_WIDTH = 30
+
+
+class StatusStrip(ScrollView, can_focus=False):
+    """One line per instance: index, name, then a symbol per round."""
+
+    class Picked(Message):
+        """The user clicked the line of an instance."""
+
+        def __init__(self, instance: int) -> None:
+            self.instance = instance
+            super().__init__()
+
+    current: reactive[tuple[int, int]] = reactive((0, 1), repaint=False)
+
+    def __init__(self, model: ProofModel, **kwargs: object) -> None:
+        super().__init__(**kwargs)  # type: ignore[arg-type]
+        self.model = model
+        self._cache: dict[int, tuple[int, Strip]] = {}
+
+    def sync(self) -> None:
+        """Re-measure after the model grew; cached lines are redrawn lazily."""
+        self._cache.clear()
+        widest = max((len(v.rounds) for v in self.model.instances), default=0)
+        self.virtual_size = Size(_NAME_WIDTH + 8 + max(widest, 1), len(self.model.instances))
+        self.refresh()
+
+    def on_mount(self) -> None:
+        self.sync()
+
+    def watch_current(self, old: tuple[int, int], new: tuple[int, int]) -> None:
+        self._cache.pop(old[0], None)
+        self._cache.pop(new[0], None)
+        self.scroll_to(y=max(0, new[0] - self.size.height // 2), animate=False, immediate=True)
+        self.refresh()
+
+    def render_line(self, y: int) -> Strip:
+        index = self.scroll_offset.y + y
+        width = self.size.width
+        if not 0 <= index < len(self.model.instances):
+            return Strip.blank(width)
+        generation = self.model.generation
+        cached = self._cache.get(index)
+        if cached is None or cached[0] != generation:
+            cached = (generation, self._draw(index))
+            self._cache[index] = cached
+        return cached[1].crop(self.scroll_offset.x, self.scroll_offset.x + width).extend_cell_length(width)
+
+    def _draw(self, index: int) -> Strip:
+        view = self.model.instances[index]
+        here = index == self.current[0]
+        head = f"{'▸' if here else ' '}{index:>5} {view.name[:_NAME_WIDTH]:<{_NAME_WIDTH}} "
+        segments = [Segment(head, Style(bold=here))]
+        line = self.model.strip_line(index)
+        for number, symbol in enumerate(line, start=1):
+            style = _TONE_STYLE.get(_SYMBOL_TONE.get(symbol, "wait"), _TONE_STYLE["wait"])
+            if here and number == self.current[1]:
+                style = style + Style(underline=True, reverse=True)
+            segments.append(Segment(symbol, style))
+        return Strip(segments)
+
+    def on_click(self, event: object) -> None:
+        y = getattr(event, "y", None)
+        if isinstance(y, int):
+            index = self.scroll_offset.y + y
+            if 0 <= index < len(self.model.instances):
+                self.post_message(self.Picked(index))

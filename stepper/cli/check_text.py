@@ -1,0 +1,91 @@
+"""Human output of `stepper check`: a compact per-instance table, the first failure
+in a sentence, findings, the soundness summary and the plain warning.
+
+Pure text in, lines out; colour (ANSI) only when the caller says the terminal takes it.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Sequence
+
+if TYPE_CHECKING:
+    from stepper.transcript import Note
+    from stepper.verdict import InstanceSummary, Report
+
+__all__ = ["render"]
+
+_PAINT = {"green": "32", "red": "31", "yellow": "33", "bold": "1", "dim": "2"}
+_VERDICT = {"accept": ("ACCEPTED", "green"), "reject": ("REJECTED", "red"), "incomplete": ("INCOMPLETE", "yellow")}
+_COMPRESSED = ("evals-no-1", "coeffs-no-linear")
+
+
+def _paint(text: str, colour: str, on: bool) -> str:
+    return f"\x1b[{_PAINT[colour]}m{text}\x1b[0m" if on else text
+
+
+def _result(s: InstanceSummary) -> str:
+    if s.failure is not None:
+        where = "the claim" if s.failure.round == 0 else f"round {s.failure.round}"
+        return f"FAILED {s.failure.check} at {where}"
+    if s.status == "incomplete":
+        return f"stops after {s.rounds_passed} of {s.num_vars} rounds"
+    if s.final is None:
+        return "passed; no final value, last claim unchecked"
+    return "passed; final value checked"
+
+
+def _row(s: InstanceSummary, colour: bool) -> str:
+    rounds = f"{s.rounds_passed}/{s.num_vars}"
+    text = f"  {s.index:>4}  {s.name[:28]:<28} {s.num_vars:>4} {s.degree:>4}  {s.form:<16} {rounds:>7}  "
+    result = _result(s)
+    tint = "red" if s.status == "fail" else ("yellow" if s.status == "incomplete" else "green")
+    return text + _paint(result, tint, colour)
+
+
+def render(report: Report, path: str, notes: Sequence[Note], note_count: int, colour: bool,
+           rows: int) -> list[str]:
+    field = report.field.describe() if report.field is not None else "no field"
+    lines = [
+        _paint(f"stepper check {path}", "bold", colour),
+        f"  field {field}; challenges {report.challenges}; file {report.completeness}",
+        "",
+        f"  {'#':>4}  {'instance':<28} {'vars':>4} {'deg':>4}  {'form':<16} {'rounds':>7}  result",
+    ]
+    shown = [s for s in report.instances if s.index < rows or s.status == "fail"]
+    lines += [_row(s, colour) for s in shown]
+    hidden = report.instance_count - len(shown)
+    if hidden > 0:
+        counts = ", ".join(f"{n} {k}" for k, n in report.counts.items() if n)
+        lines.append(f"  ... {hidden} more instance(s) not shown (all instances: {counts}; --rows N shows more)")
+    if any(s.form in _COMPRESSED for s in shown):
+        lines.append("  compressed forms: g(1) or c1 is recovered from the claim, so the local sum check holds "
+                     "by construction; a wrong claim can only surface in a later round or the final check")
+    word, tint = _VERDICT[report.verdict]
+    high = sum(f.severity == "high" for f in report.findings)
+    if high:
+        word += f" (but {high} high-severity finding(s) below)"
+    lines.append("")
+    failure = report.first_failure
+    if failure is not None:
+        where = "its claim" if failure.round == 0 else f"round {failure.round}"
+        lines.append(_paint(word, tint, colour) + f" at instance {failure.instance} '{failure.instance_name}', "
+                     f"{where}, check {failure.check}:")
+        lines.append(f"  {failure.explanation}")
+    elif report.verdict == "incomplete":
+        lines.append(_paint(word, tint, colour) + ": the transcript stops early; every round present passed")
+    else:
+        lines.append(_paint(word, tint, colour) + ": every check of every instance passed")
+    for finding in report.findings:
+        lines.append(_paint(f"finding ({finding.severity}): ", "red" if finding.severity == "high" else "yellow",
+                            colour) + finding.message)
+    if notes:
+        lines.append("")
+        for note in notes:
+            place = "proof" if note.instance is None else f"instance {note.instance}"
+            if note.round is not None:
+                place += f", round {note.round}"
+            lines.append(f"  note ({place}): {note.text}")
+        if note_count > len(notes):
+            lines.append(f"  ... {note_count - len(notes)} more note(s)")
+    lines += ["", f"  {report.soundness.describe()}", _paint(f"  {report.warning}", "dim", colour)]
+    return lines

@@ -1,0 +1,403 @@
+"""Compare two transcripts: align them, find the first divergence, say what kind it is.
+
+Pure: takes two folded :class:`~stepper.transcript.Transcript` values (A and B)
+and returns a :class:`Comparison`; no I/O. Invariants:
+
+* instances align by name (the k-th instance of a name in A with the k-th of
+  that name in B) when the sides share any name, else by position; rounds
+  align by number;
+* the first divergence is the earliest differing element in A's order: the
+  field, the order of instances, an instance's statement (num_vars, degree,
+  order, form), its batch, its claim, then round by round the values sent and
+  the challenge, then the final value, then rounds or instances one side lacks;
+* exactly one :class:`Classification` (a kind from :data:`KINDS`, one sentence)
+  is given; further observations go to ``remarks``;
+* header metadata, notes, bucket statistics and unknown events are annotations,
+  not the proof: they never make two transcripts differ (buckets earn a remark).
+
+The analysis of a divergence lives in :mod:`stepper.divergence`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from stepper.errors import InputError
+from stepper.field import Element, Field
+from stepper.poly import RoundPoly, lagrange_at
+from stepper.transcript import InstanceRecord, Round, Transcript
+
+__all__ = [
+    "KINDS",
+    "SCHEMA_ID",
+    "JSON_SCHEMA",
+    "CAUTION",
+    "Pairing",
+    "RoundPair",
+    "InstancePair",
+    "Divergence",
+    "Classification",
+    "Comparison",
+    "compare",
+    "pair_instances",
+    "same_poly",
+    "decoded_rounds",
+    "value_label",
+]
+
+SCHEMA_ID = "stepper-diff/1"
+
+# kind -> what it means (the JSON `classification.kind` is one of these keys)
+KINDS: dict[str, str] = {
+    "identical": "every compared element agrees",
+    "different-fields": "the two sides declare different fields",
+    "instance-order": "the same instances (or claims) stand in a different order",
+    "claim-order": "a batch combines the same claims in a different order",
+    "statement": "an instance's num_vars or degree differs",
+    "binding-order": "the sides bind the variables in opposite orders",
+    "encoding": "the same polynomials are sent in different forms or lengths",
+    "constant-factor": "one side's values are the other's times a constant (e.g. a Montgomery radix)",
+    "different-claim": "the claimed sums differ",
+    "round-shift": "one side has an extra or missing transcript step",
+    "challenges-reversed": "one side lists the challenges in reverse order",
+    "fiat-shamir-drift": "same polynomials, different challenges",
+    "prover-arithmetic": "different polynomial after identical challenges",
+    "final-value": "every round agrees but the final value differs",
+    "truncated": "one side stops early; everything both sides have agrees",
+    "extra-instance": "one side has an instance the other lacks",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Pairing:
+    """Instance ``a`` of A aligned with instance ``b`` of B (either may be None)."""
+
+    a: int | None
+    b: int | None
+    name: str
+    by: str  # "name" or "position"
+
+
+@dataclass(frozen=True, slots=True)
+class RoundPair:
+    """Round ``number`` on both sides, with each side's decoded evaluations g(0..e)."""
+
+    number: int
+    a: Round | None
+    b: Round | None
+    a_evals: tuple[Element, ...] | None
+    b_evals: tuple[Element, ...] | None
+    same_values: bool | None  # None when a side lacks the round
+    same_challenge: bool | None  # None when a side lacks the challenge
+
+
+@dataclass(frozen=True, slots=True)
+class InstancePair:
+    pairing: Pairing
+    a: InstanceRecord | None
+    b: InstanceRecord | None
+    rounds: tuple[RoundPair, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class Divergence:
+    """The first element that differs. ``round`` is 1-based (0: the instance's
+    statement, batch or claim); ``index`` is the position among the values sent
+    (or batch terms); ``detail`` names it (``g(2)``, ``num_vars``, ``coefficient``)."""
+
+    element: str  # field | instance | statement | batch | claim | value | challenge | final | round
+    instance_a: int | None = None
+    instance_b: int | None = None
+    instance_name: str | None = None
+    round: int | None = None
+    index: int | None = None
+    detail: str | None = None
+    a: str | None = None
+    b: str | None = None
+
+    def place(self) -> str:
+        """Human location: ``instance 'x' (A #0, B #1), round 3, g(1)``."""
+        parts: list[str] = []
+        if self.instance_name is not None:
+            a = "-" if self.instance_a is None else f"#{self.instance_a}"
+            b = "-" if self.instance_b is None else f"#{self.instance_b}"
+            parts.append(f"instance '{self.instance_name}' (A {a}, B {b})")
+        if self.round:
+            parts.append(f"round {self.round}")
+        parts.append(self.detail or self.element)
+        return ", ".join(parts)
+
+
+@dataclass(frozen=True, slots=True)
+class Classification:
+    """What kind of divergence this is. ``factor`` (decimal text) and
+    ``factor_name`` for constant-factor; ``shift`` (+1: B has an extra step,
+    -1: B lacks one) for round-shift; ``side`` ("a"/"b") the side at fault when
+    it can be told (the one that breaks a check or stops early)."""
+
+    kind: str
+    explanation: str
+    factor: str | None = None
+    factor_name: str | None = None
+    shift: int | None = None
+    side: str | None = None
+
+
+CAUTION = (
+    "A diff compares two recorded runs; agreement is not evidence that either run, "
+    "or the protocol, is sound."
+)
+
+
+@dataclass(frozen=True, slots=True)
+class Comparison:
+    field_a: Field
+    field_b: Field
+    completeness_a: str
+    completeness_b: str
+    pairs: tuple[InstancePair, ...]
+    divergence: Divergence | None
+    classification: Classification
+    remarks: tuple[str, ...] = ()
+
+    @property
+    def identical(self) -> bool:
+        return self.divergence is None
+
+    def to_json(self, label_a: str | None = None, label_b: str | None = None) -> dict[str, Any]:
+        """The ``stepper diff --json`` object (schema ``stepper-diff/1``, see DEVELOPERS notes)."""
+
+        def side(field: Field, completeness: str, label: str | None, key: str) -> dict[str, Any]:
+            count = sum(1 for p in self.pairs if getattr(p, key) is not None)
+            return {"file": label, "field": field.describe(), "completeness": completeness, "instances": count}
+
+        d = self.divergence
+        c = self.classification
+        return {
+            "schema": SCHEMA_ID,
+            "identical": self.identical,
+            "a": side(self.field_a, self.completeness_a, label_a, "a"),
+            "b": side(self.field_b, self.completeness_b, label_b, "b"),
+            "alignment": [
+                {"a": p.pairing.a, "b": p.pairing.b, "name": p.pairing.name, "by": p.pairing.by} for p in self.pairs
+            ],
+            "first_divergence": None
+            if d is None
+            else {
+                "element": d.element,
+                "instance_a": d.instance_a,
+                "instance_b": d.instance_b,
+                "instance_name": d.instance_name,
+                "round": d.round,
+                "index": d.index,
+                "detail": d.detail,
+                "a": d.a,
+                "b": d.b,
+            },
+            "classification": {
+                "kind": c.kind,
+                "explanation": c.explanation,
+                "factor": c.factor,
+                "factor_name": c.factor_name,
+                "shift": c.shift,
+                "side": c.side,
+            },
+            "remarks": list(self.remarks),
+            "caution": CAUTION,
+        }
+
+
+def compare(a: Transcript, b: Transcript) -> Comparison:
+    """Align A and B, find the first divergence and classify it."""
+    from stepper.divergence import find_divergence
+
+    if a.field != b.field:
+        pairs: tuple[InstancePair, ...] = tuple(
+            InstancePair(p, _get(a, p.a), _get(b, p.b), ()) for p in pair_instances(a, b)
+        )
+    else:
+        pairs = tuple(_pair_rounds(a.field, p, _get(a, p.a), _get(b, p.b)) for p in pair_instances(a, b))
+    divergence, classification, remarks = find_divergence(a, b, pairs)
+    return Comparison(
+        a.field, b.field, a.completeness, b.completeness, pairs, divergence, classification, tuple(remarks)
+    )
+
+
+def pair_instances(a: Transcript, b: Transcript) -> list[Pairing]:
+    """Alignment of instances: by name when any name is shared, else by position.
+    In A's order; B's unmatched instances follow in B's order."""
+    names_a = [i.name for i in a.instances]
+    names_b = [i.name for i in b.instances]
+    if not set(names_a) & set(names_b):
+        count = max(len(names_a), len(names_b))
+        return [
+            Pairing(
+                k if k < len(names_a) else None,
+                k if k < len(names_b) else None,
+                names_a[k] if k < len(names_a) else names_b[k],
+                "position",
+            )
+            for k in range(count)
+        ]
+    free: dict[str, list[int]] = {}
+    for k, name in enumerate(names_b):
+        free.setdefault(name, []).append(k)
+    out: list[Pairing] = []
+    for k, name in enumerate(names_a):
+        slots = free.get(name)
+        out.append(Pairing(k, slots.pop(0) if slots else None, name, "name"))
+    used = {p.b for p in out}
+    out.extend(Pairing(None, k, name, "name") for k, name in enumerate(names_b) if k not in used)
+    return out
+
+
+def _get(t: Transcript, index: int | None) -> InstanceRecord | None:
+    return None if index is None else t.instances[index]
+
+
+def decoded_rounds(field: Field, inst: InstanceRecord) -> list[tuple[Element, ...] | None]:
+    """g(0..e) of each round, decoding compressed forms with the running claim."""
+    out: list[tuple[Element, ...] | None] = []
+    claim: Element | None = inst.start.claim
+    for r in inst.rounds:
+        if claim is None:
+            out.append(None)
+            continue
+        try:
+            poly = RoundPoly.from_form(field, inst.start.form, r.values, claim)
+        except InputError:
+            out.append(None)
+            claim = None
+            continue
+        out.append(tuple(field.lift(e) for e in poly.evals))
+        claim = None if r.challenge is None else poly.at(field, r.challenge)
+    return out
+
+
+def same_poly(field: Field, ea: tuple[Element, ...], eb: tuple[Element, ...]) -> bool:
+    """Whether two evaluation lists g(0..e), g(0..e') describe the same polynomial."""
+    if len(ea) == len(eb):
+        return ea == eb
+    short, long_ = (ea, eb) if len(ea) < len(eb) else (eb, ea)
+    if not short or tuple(long_[: len(short)]) != tuple(short):
+        return False
+    return all(
+        field.lift(lagrange_at(field, short, field.embed(x))) == long_[x] for x in range(len(short), len(long_))
+    )
+
+
+def _pair_rounds(field: Field, pairing: Pairing, ia: InstanceRecord | None, ib: InstanceRecord | None) -> InstancePair:
+    if ia is None or ib is None:
+        return InstancePair(pairing, ia, ib, ())
+    ea, eb = decoded_rounds(field, ia), decoded_rounds(field, ib)
+    rounds: list[RoundPair] = []
+    for k in range(max(len(ia.rounds), len(ib.rounds))):
+        ra = ia.rounds[k] if k < len(ia.rounds) else None
+        rb = ib.rounds[k] if k < len(ib.rounds) else None
+        xa = ea[k] if ra is not None else None
+        xb = eb[k] if rb is not None else None
+        same_values: bool | None = None
+        same_challenge: bool | None = None
+        if ra is not None and rb is not None:
+            if ia.start.form == ib.start.form:
+                same_values = _lifted(field, ra.values) == _lifted(field, rb.values)
+            else:
+                same_values = xa is not None and xb is not None and same_poly(field, xa, xb)
+            if ra.challenge is not None and rb.challenge is not None:
+                same_challenge = field.lift(ra.challenge) == field.lift(rb.challenge)
+        rounds.append(RoundPair(k + 1, ra, rb, xa, xb, same_values, same_challenge))
+    return InstancePair(pairing, ia, ib, tuple(rounds))
+
+
+def _lifted(field: Field, values: tuple[Element, ...]) -> tuple[Element, ...]:
+    return tuple(field.lift(v) for v in values)
+
+
+def value_label(form: str, j: int) -> str:
+    """The name of the j-th value sent in ``form``: ``g(j)`` or ``c_j``."""
+    if form == "evals":
+        return f"g({j})"
+    if form == "evals-no-1":
+        return "g(0)" if j == 0 else f"g({j + 1})"
+    if form == "coeffs":
+        return f"c{j}"
+    return "c0" if j == 0 else f"c{j + 1}"
+
+
+_NULLABLE_INT = {"type": ["integer", "null"]}
+_NULLABLE_TEXT = {"type": ["string", "null"]}
+
+# JSON Schema (draft 2020-12) of Comparison.to_json(); `stepper diff --schema` prints it.
+JSON_SCHEMA: dict[str, Any] = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema",
+    "$id": SCHEMA_ID,
+    "title": "stepper diff result",
+    "type": "object",
+    "required": ["schema", "identical", "a", "b", "alignment", "first_divergence", "classification", "remarks",
+                 "caution"],
+    "additionalProperties": False,
+    "$defs": {
+        "side": {
+            "type": "object",
+            "required": ["file", "field", "completeness", "instances"],
+            "properties": {
+                "file": _NULLABLE_TEXT,
+                "field": {"type": "string"},
+                "completeness": {"enum": ["complete", "incomplete"]},
+                "instances": {"type": "integer", "minimum": 0},
+            },
+        },
+    },
+    "properties": {
+        "schema": {"const": SCHEMA_ID},
+        "identical": {"type": "boolean"},
+        "a": {"$ref": "#/$defs/side"},
+        "b": {"$ref": "#/$defs/side"},
+        "alignment": {
+            "type": "array",
+            "items": {
+                "type": "object",
+                "required": ["a", "b", "name", "by"],
+                "properties": {"a": _NULLABLE_INT, "b": _NULLABLE_INT, "name": {"type": "string"},
+                               "by": {"enum": ["name", "position"]}},
+            },
+        },
+        "first_divergence": {
+            "oneOf": [
+                {"type": "null"},
+                {
+                    "type": "object",
+                    "required": ["element", "instance_a", "instance_b", "instance_name", "round", "index", "detail",
+                                 "a", "b"],
+                    "properties": {
+                        "element": {"enum": ["field", "instance", "statement", "batch", "claim", "value",
+                                             "challenge", "final", "round"]},
+                        "instance_a": _NULLABLE_INT,
+                        "instance_b": _NULLABLE_INT,
+                        "instance_name": _NULLABLE_TEXT,
+                        "round": {"type": ["integer", "null"], "minimum": 0},
+                        "index": _NULLABLE_INT,
+                        "detail": _NULLABLE_TEXT,
+                        "a": _NULLABLE_TEXT,
+                        "b": _NULLABLE_TEXT,
+                    },
+                },
+            ]
+        },
+        "classification": {
+            "type": "object",
+            "required": ["kind", "explanation", "factor", "factor_name", "shift", "side"],
+            "properties": {
+                "kind": {"enum": list(KINDS)},
+                "explanation": {"type": "string"},
+                "factor": _NULLABLE_TEXT,
+                "factor_name": _NULLABLE_TEXT,
+                "shift": {"enum": [1, -1, None]},
+                "side": {"enum": ["a", "b", None]},
+            },
+        },
+        "remarks": {"type": "array", "items": {"type": "string"}},
+        "caution": {"type": "string"},
+    },
+}

@@ -1,0 +1,137 @@
+"""The built-in Fiat-Shamir challenge schedule ``stepper-sha256/1``.
+
+One object serves both sides: a prover ``observe``s every record it sends and
+asks ``challenge()`` after each round; the verifier replay does the same with
+the records it reads and compares. transcripts/FIAT-SHAMIR.md is the normative
+description; this module is its executable form and the tests pin its bytes.
+
+Rules kept here:
+
+* The state is one running SHA-256 (hashlib). Everything absorbed is a frame
+  ``len(tag) (1 byte) || tag || len(body) (8 bytes LE) || body``; integers in a
+  body are 8-byte little-endian, strings are length-prefixed UTF-8, field
+  elements are the field's canonical fixed-width little-endian bytes.
+* Absorbed, in the order the records arrive: the domain frame (at creation),
+  ``field``, ``schedule`` (name, label), ``batch``, ``instance`` (name, num_vars,
+  degree, order, form, claim), ``round`` (the values in the form sent), and each
+  squeezed challenge. Challenges, finals, buckets, notes and unknown events that
+  are *observed* are not absorbed (a challenge is absorbed by ``challenge()``).
+* A challenge is k independent base samples (k = extension degree); sample s
+  reads L = ceil((bits(p) + 128) / 8) bytes from SHA-256 blocks of
+  ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a little-endian integer
+  and reduces it mod p (wide reduction: bias below 2^-128).
+"""
+
+from __future__ import annotations
+
+import hashlib
+from typing import TYPE_CHECKING
+
+from stepper.errors import InputError
+from stepper.packed import pack_elements
+from stepper.transcript import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+    from stepper.transcript import Event
+
+__all__ = ["SCHEDULE_NAME", "BUILTIN_SCHEDULES", "Sha256Schedule", "frame"]
+
+SCHEDULE_NAME = "stepper-sha256/1"
+BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME,)
+_DOMAIN = SCHEDULE_NAME.encode()
+_SECURITY_BITS = 128
+_ROUND_HEAD = bytes([5]) + b"round"
+
+
+def frame(tag: bytes, body: bytes) -> bytes:
+    """One absorbed item: tag length (1 byte), tag, body length (8 bytes LE), body."""
+    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
+
+
+def _u64(n: int) -> bytes:
+    return n.to_bytes(8, "little")
+
+
+def _text(s: str) -> bytes:
+    raw = s.encode("utf-8")
+    return _u64(len(raw)) + raw
+
+
+class Sha256Schedule:
+    """The ``stepper-sha256/1`` schedule: ``observe(record)`` then ``challenge()``."""
+
+    name = SCHEDULE_NAME
+
+    def __init__(self) -> None:
+        self._state = hashlib.sha256(frame(b"domain", _DOMAIN))
+        self.field: Field | None = None
+        self._wide = 0
+        self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
+        self._challenge_head = b""
+
+    def state_digest(self) -> bytes:
+        """SHA-256 of everything absorbed so far (for test vectors and debugging)."""
+        return self._state.copy().digest()
+
+    def _absorb(self, tag: bytes, body: bytes) -> None:
+        self._state.update(frame(tag, body))
+
+    def _el(self, e: Element) -> bytes:
+        assert self.field is not None
+        return self.field.encode(e)
+
+    def observe(self, record: Event) -> None:
+        """Absorb a record the way the schedule defines (no-op for kinds it skips)."""
+        if isinstance(record, RoundMsg):
+            field = self._need_field("round")
+            body = _u64(len(record.values)) + pack_elements(field, record.values)
+            self._state.update(_ROUND_HEAD + len(body).to_bytes(8, "little") + body)
+        elif isinstance(record, InstanceStart):
+            self._need_field("instance")
+            body = (_text(record.name) + _u64(record.num_vars) + _u64(record.degree) + _text(record.order)
+                    + _text(record.form) + self._el(record.claim))
+            self._absorb(b"instance", body)
+        elif isinstance(record, FieldDecl):
+            self._set_field(record.field)
+        elif isinstance(record, ScheduleDecl):
+            if record.name != SCHEDULE_NAME:
+                raise InputError(f"expected the schedule {SCHEDULE_NAME}, found a declaration of {record.name!r}")
+            self._absorb(b"schedule", _text(record.name) + _text(record.label))
+        elif isinstance(record, BatchDecl):
+            field = self._need_field("batch")
+            body = self._el(record.coefficient) + _u64(len(record.terms)) + pack_elements(field, record.terms)
+            self._absorb(b"batch", body)
+
+    def _set_field(self, field: Field) -> None:
+        w = field.base_bytes
+        q = field.irreducible if field.is_extension else ()
+        body = _u64(w) + field.p.to_bytes(w, "little") + _u64(field.degree) + b"".join(c.to_bytes(w, "little") for c in q)
+        self._absorb(b"field", body)
+        self.field = field
+        self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
+        blocks = -(-self._wide // 32)
+        self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
+                                     for s in range(field.degree))
+        self._challenge_head = frame(b"challenge", b"")[:-8] + _u64(field.elem_bytes)
+
+    def _need_field(self, kind: str) -> Field:
+        if self.field is None:
+            raise InputError(f"expected the field to be observed before `{kind}` in {SCHEDULE_NAME}")
+        return self.field
+
+    def challenge(self) -> Element:
+        """Squeeze the challenge for the round just observed, and absorb it."""
+        field = self._need_field("a challenge")
+        p, wide, state = field.p, self._wide, self._state
+        samples = []
+        for frames in self._squeeze_frames:
+            stream = b""
+            for squeeze in frames:
+                h = state.copy()
+                h.update(squeeze)
+                stream += h.digest()
+            samples.append(int.from_bytes(stream[:wide], "little") % p)
+        value: Element = tuple(samples) if field.is_extension else samples[0]
+        state.update(self._challenge_head + field.encode(value))
+        return value

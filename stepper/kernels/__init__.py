@@ -1,0 +1,46 @@
+"""Vectorised field arithmetic on numpy arrays, one kernel per kind of field.
+
+* :class:`SmallPrimeKernel` for p < 2^32 (uint64 entries);
+* :class:`GoldilocksKernel` for p = 2^64 - 2^32 + 1 (uint64 entries, 32-bit limbs);
+* :class:`ObjectKernel` for every other prime (object arrays of Python ints);
+* :class:`ExtensionKernel` for F_p[X]/(q) (shape (n, k) arrays over a base kernel).
+
+:func:`kernel_for` picks one. Every operation takes and returns canonical
+arrays and never loops in Python over entries; large arrays run through the
+numba loops of :mod:`stepper.kernels.compiled`, imported on first need.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+from stepper.kernels.base import COMPILED_MIN, Kernel, load_compiled
+from stepper.kernels.extension import ExtensionKernel
+from stepper.kernels.prime import GOLDILOCKS, GoldilocksKernel, ObjectKernel, SmallPrimeKernel
+
+if TYPE_CHECKING:
+    from stepper.field import Field
+
+__all__ = [
+    "Kernel",
+    "SmallPrimeKernel",
+    "GoldilocksKernel",
+    "ObjectKernel",
+    "ExtensionKernel",
+    "kernel_for",
+    "load_compiled",
+    "GOLDILOCKS",
+    "COMPILED_MIN",
+]
+
+
+def kernel_for(field: Field, compiled_min: int = COMPILED_MIN) -> Kernel:
+    """The kernel for ``field``; arrays of ``compiled_min`` entries or more use numba."""
+    base: Kernel
+    if field.p < 2**32:
+        base = SmallPrimeKernel(field.base, compiled_min)
+    elif field.p == GOLDILOCKS:
+        base = GoldilocksKernel(field.base, compiled_min)
+    else:
+        base = ObjectKernel(field.base, compiled_min)
+    return ExtensionKernel(field, base, compiled_min) if field.is_extension else base

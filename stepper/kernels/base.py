@@ -1,0 +1,149 @@
+"""The common face of every vector kernel, and the generic algorithms built on
+a kernel's add and mul (batch inversion, Horner evaluation, dot product).
+
+A kernel works on numpy arrays of canonical entries: shape (n,) for a prime
+field, (n, k) for a degree-k extension. Operations broadcast like numpy (a
+scalar held as a 1-entry array times a vector), never mutate their inputs and
+never loop in Python over entries.
+
+Large arrays (``compiled_min`` entries or more) go through the numba loops of
+:mod:`stepper.kernels.compiled`, loaded on first need; small arrays stay on
+numpy so that a short CLI run never waits for numba. Setting the environment
+variable ``STEPPER_KERNELS=numpy`` keeps every array on numpy.
+"""
+
+from __future__ import annotations
+
+import os
+from abc import ABC, abstractmethod
+from types import ModuleType
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from stepper.errors import FieldError
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+
+__all__ = ["Kernel", "COMPILED_MIN", "load_compiled"]
+
+COMPILED_MIN = 1 << 14  # below this numpy wins: numba's first use in a process costs about a second
+
+_compiled: ModuleType | None = None
+_compiled_tried = False
+
+
+def load_compiled() -> ModuleType | None:
+    """The numba loops, or None when numba is missing or switched off."""
+    global _compiled, _compiled_tried
+    if not _compiled_tried:
+        _compiled_tried = True
+        if os.environ.get("STEPPER_KERNELS", "").lower() != "numpy":
+            try:
+                from stepper.kernels import compiled
+            except ImportError:
+                compiled = None  # type: ignore[assignment]
+            _compiled = compiled
+    return _compiled
+
+
+class Kernel(ABC):
+    """Arithmetic on vectors of one field."""
+
+    dtype: Any
+
+    def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
+        self.field = field
+        self.p = field.p
+        self.compiled_min = compiled_min
+
+    # ----- construction and conversion -------------------------------------------
+    @abstractmethod
+    def array(self, values: Any) -> np.ndarray:
+        """A canonical array from elements or an existing array (checked, copied
+        only when the dtype changes); raises FieldError naming the first bad entry."""
+
+    def to_list(self, a: np.ndarray) -> list[Element]:
+        return [int(x) for x in a]
+
+    def zeros(self, n: int) -> np.ndarray:
+        return np.zeros(n, dtype=self.dtype)
+
+    def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        return self.array([int(x) for x in rng.integers(0, self.p, size=n, dtype=np.uint64)])
+
+    def scalar_array(self, s: Element) -> np.ndarray:
+        return self.array([s])
+
+    def _use_compiled(self, a: np.ndarray, b: np.ndarray | None = None) -> ModuleType | None:
+        size = a.shape[0] if b is None else max(a.shape[0] if a.ndim else 1, b.shape[0] if b.ndim else 1)
+        return load_compiled() if size >= self.compiled_min else None
+
+    def _bad_entry(self, arr: np.ndarray, bad: np.ndarray) -> FieldError:
+        index = int(np.flatnonzero(bad.reshape(-1))[0])
+        value = arr.reshape(-1)[index]
+        return FieldError(
+            f"expected canonical entries 0 <= v < p = {self.p}, found {value} at flat index {index} of the array"
+        )
+
+    # ----- arithmetic ---------------------------------------------------------------
+    def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return (a + b) % self.p
+
+    def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return (a + (self.p - b)) % self.p
+
+    def neg(self, a: np.ndarray) -> np.ndarray:
+        return (self.p - a) % self.p
+
+    def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return (a * b) % self.p
+
+    def scale(self, a: np.ndarray, s: Element) -> np.ndarray:
+        return self.mul(a, self.scalar_array(s)[0])
+
+    def sum(self, a: np.ndarray) -> Element:
+        return int(sum(int(x) for x in np.asarray(a, dtype=object))) % self.p if len(a) else 0
+
+    def dot(self, a: np.ndarray, b: np.ndarray) -> Element:
+        return self.sum(self.mul(a, b))
+
+    def inv(self, a: np.ndarray) -> np.ndarray:
+        """Montgomery's batch inversion by a product tree (log-depth numpy passes):
+        one field inversion and about 3n multiplications."""
+        n = len(a)
+        if n == 0:
+            return a.copy()
+        one = self.array([self.field.one])
+        levels = [a]
+        while len(levels[-1]) > 1:
+            cur = levels[-1]
+            if len(cur) % 2:
+                cur = np.concatenate([cur, one])
+            levels.append(self.mul(cur[0::2], cur[1::2]))
+        root = self.to_list(levels[-1])[0]
+        if self.field.is_zero(root):
+            index = self._first_zero(a)
+            raise FieldError(f"expected every entry to be non-zero for batch inversion, found 0 at index {index}")
+        inv = self.array([self.field.inv(root)])
+        for level in reversed(levels[:-1]):
+            cur = level
+            if len(cur) % 2:
+                cur = np.concatenate([cur, one])
+            out = np.empty_like(cur)
+            out[0::2] = self.mul(inv, cur[1::2])
+            out[1::2] = self.mul(inv, cur[0::2])
+            inv = out[: len(level)]
+        return inv
+
+    def _first_zero(self, a: np.ndarray) -> int:
+        zero = a == 0 if a.ndim == 1 else np.all(a == 0, axis=1)
+        return int(np.flatnonzero(zero)[0])
+
+    def poly_eval(self, coeffs: list[Element], xs: np.ndarray) -> np.ndarray:
+        """sum coeffs[i] x^i at every entry x of xs, by Horner's rule."""
+        acc = self.zeros(len(xs))
+        for c in reversed(coeffs):
+            acc = self.add(self.mul(acc, xs), self.scalar_array(c))
+        return acc

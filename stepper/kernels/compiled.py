@@ -1,0 +1,246 @@
+"""Compiled loops (numba) behind the vector kernels, used for large arrays.
+
+This module imports numba at its top, so nothing imports it eagerly: a kernel
+loads it the first time an array reaches its ``compiled_min`` entries. Every
+function is ``njit(cache=True)``: the first run on a machine compiles (about a
+second), later processes load the machine code from numba's cache.
+
+Invariants: inputs are C-contiguous uint64 arrays of canonical entries and the
+``out`` array has the result's shape; every entry written is canonical.
+
+Reduction modulo a prime p < 2^32 avoids the slow integer division: for
+x < 2^40 p, q = trunc(float(x) / p) is within one of floor(x / p) because a
+float64 carries 53 bits, so x - q p lies in [-p, 2p) and one correction step
+makes it canonical. Goldilocks p = 2^64 - 2^32 + 1 reduces a 128-bit product
+with 2^64 = 2^32 - 1 and 2^96 = -1 (mod p).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+__all__ = [
+    "small_mul",
+    "small_ext_mul",
+    "small_binomial_mul",
+    "small_binomial4_mul",
+    "small_add",
+    "small_sub",
+    "gl_add",
+    "gl_sub",
+    "gl_mul",
+    "gl_ext_mul",
+]
+
+_ZERO = np.uint64(0)
+_ONE = np.uint64(1)
+_S32 = np.uint64(32)
+_M32 = np.uint64(0xFFFFFFFF)
+_GL_P = np.uint64(0xFFFFFFFF00000001)
+_GL_EPS = np.uint64(0xFFFFFFFF)  # 2^64 mod p
+
+
+@njit(cache=True, inline="always")
+def _mod_small(x, p, pinv):  # type: ignore[no-untyped-def]
+    """x mod p for a uint64 x < 2^40 p and p < 2^32 (pinv = 1.0 / p)."""
+    q = np.uint64(np.float64(x) * pinv)
+    r = np.int64(x - q * p)
+    ip = np.int64(p)
+    if r < 0:
+        r += ip
+    elif r >= ip:
+        r -= ip
+    return np.uint64(r)
+
+
+@njit(cache=True)
+def small_mul(a, b, p, pinv, out):  # type: ignore[no-untyped-def]
+    """out = a * b mod p, entrywise, for p < 2^32."""
+    ip = np.int64(p)
+    for i in range(a.shape[0]):
+        x = a[i] * b[i]
+        q = np.uint64(np.float64(a[i]) * np.float64(b[i]) * pinv)
+        r = np.int64(x - q * p)
+        if r < 0:
+            r += ip
+        elif r >= ip:
+            r -= ip
+        out[i] = np.uint64(r)
+    return out
+
+
+@njit(cache=True)
+def small_ext_mul(a, b, xk, p, pinv, out):  # type: ignore[no-untyped-def]
+    """out = a * b in F_p[X]/(q), rows of k coefficients, p < 2^32;
+    xk holds X^k mod q (= -q_0, ..., -q_(k-1))."""
+    n, k = a.shape
+    prod = np.zeros(2 * k - 1, dtype=np.uint64)
+    for i in range(n):
+        for t in range(2 * k - 1):
+            prod[t] = _ZERO
+        for j in range(k):
+            aj = a[i, j]
+            if aj == _ZERO:
+                continue
+            for m in range(k):
+                prod[j + m] += _mod_small(aj * b[i, m], p, pinv)
+        for t in range(2 * k - 2, k - 1, -1):
+            c = _mod_small(prod[t], p, pinv)
+            if c == _ZERO:
+                continue
+            for m in range(k):
+                if xk[m] != _ZERO:
+                    prod[t - k + m] += _mod_small(c * xk[m], p, pinv)
+        for m in range(k):
+            out[i, m] = _mod_small(prod[m], p, pinv)
+    return out
+
+
+@njit(cache=True)
+def small_binomial_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
+    """out = a * b in F_p[X]/(X^k - w), rows of k coefficients, p < 2^32:
+    c_t = sum_(j+m=t) a_j b_m + w * sum_(j+m=t+k) a_j b_m."""
+    n, k = a.shape
+    for i in range(n):
+        for t in range(k):
+            low = _ZERO
+            for j in range(t + 1):
+                low += _mod_small(a[i, j] * b[i, t - j], p, pinv)
+            high = _ZERO
+            for j in range(t + 1, k):
+                high += _mod_small(a[i, j] * b[i, t + k - j], p, pinv)
+            wrapped = _mod_small(_mod_small(high, p, pinv) * w, p, pinv)
+            out[i, t] = _mod_small(low + wrapped, p, pinv)
+    return out
+
+
+@njit(cache=True)
+def small_binomial4_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
+    """The k = 4 case of :func:`small_binomial_mul`, unrolled, for p < 2^31:
+    four raw products sum below 4 (p - 1)^2 < 2^64, so each coefficient
+    needs one reduction before and one after the multiplication by w."""
+    for i in range(a.shape[0]):
+        a0, a1, a2, a3 = a[i, 0], a[i, 1], a[i, 2], a[i, 3]
+        b0, b1, b2, b3 = b[i, 0], b[i, 1], b[i, 2], b[i, 3]
+        h0 = _mod_small(a1 * b3 + a2 * b2 + a3 * b1, p, pinv)
+        h1 = _mod_small(a2 * b3 + a3 * b2, p, pinv)
+        h2 = _mod_small(a3 * b3, p, pinv)
+        c0 = _mod_small(a0 * b0, p, pinv) + _mod_small(h0 * w, p, pinv)
+        c1 = _mod_small(a0 * b1 + a1 * b0, p, pinv) + _mod_small(h1 * w, p, pinv)
+        c2 = _mod_small(a0 * b2 + a1 * b1 + a2 * b0, p, pinv) + _mod_small(h2 * w, p, pinv)
+        out[i, 0] = _mod_small(c0, p, pinv)
+        out[i, 1] = _mod_small(c1, p, pinv)
+        out[i, 2] = _mod_small(c2, p, pinv)
+        out[i, 3] = _mod_small(a0 * b3 + a1 * b2 + a2 * b1 + a3 * b0, p, pinv)
+    return out
+
+
+@njit(cache=True)
+def small_add(a, b, p, out):  # type: ignore[no-untyped-def]
+    """out = a + b mod p, entrywise, for p < 2^63."""
+    for i in range(a.shape[0]):
+        s = a[i] + b[i]
+        out[i] = s - p if s >= p else s
+    return out
+
+
+@njit(cache=True)
+def small_sub(a, b, p, out):  # type: ignore[no-untyped-def]
+    """out = a - b mod p, entrywise, for p < 2^63."""
+    for i in range(a.shape[0]):
+        out[i] = a[i] - b[i] if a[i] >= b[i] else a[i] + (p - b[i])
+    return out
+
+
+@njit(cache=True, inline="always")
+def _gl_reduce128(lo, hi):  # type: ignore[no-untyped-def]
+    hh = hi >> _S32
+    hl = hi & _M32
+    t = lo - hh
+    if lo < hh:
+        t -= _GL_EPS
+    u = hl * _GL_EPS
+    r = t + u
+    if r < t:
+        r += _GL_EPS
+    if r >= _GL_P:
+        r -= _GL_P
+    return r
+
+
+@njit(cache=True, inline="always")
+def _gl_mul1(a, b):  # type: ignore[no-untyped-def]
+    a0 = a & _M32
+    a1 = a >> _S32
+    b0 = b & _M32
+    b1 = b >> _S32
+    lo = a0 * b0
+    mid1 = a0 * b1
+    mid = mid1 + a1 * b0
+    mid_carry = _ONE if mid < mid1 else _ZERO
+    lo2 = lo + (mid << _S32)
+    carry = _ONE if lo2 < lo else _ZERO
+    hi = a1 * b1 + (mid >> _S32) + (mid_carry << _S32) + carry
+    return _gl_reduce128(lo2, hi)
+
+
+@njit(cache=True, inline="always")
+def _gl_add1(a, b):  # type: ignore[no-untyped-def]
+    s = a + b
+    if s < a:
+        s += _GL_EPS
+    if s >= _GL_P:
+        s -= _GL_P
+    return s
+
+
+@njit(cache=True, inline="always")
+def _gl_sub1(a, b):  # type: ignore[no-untyped-def]
+    d = a - b
+    if a < b:
+        d += _GL_P
+    return d
+
+
+@njit(cache=True)
+def gl_add(a, b, out):  # type: ignore[no-untyped-def]
+    for i in range(a.shape[0]):
+        out[i] = _gl_add1(a[i], b[i])
+    return out
+
+
+@njit(cache=True)
+def gl_sub(a, b, out):  # type: ignore[no-untyped-def]
+    for i in range(a.shape[0]):
+        out[i] = _gl_sub1(a[i], b[i])
+    return out
+
+
+@njit(cache=True)
+def gl_mul(a, b, out):  # type: ignore[no-untyped-def]
+    for i in range(a.shape[0]):
+        out[i] = _gl_mul1(a[i], b[i])
+    return out
+
+
+@njit(cache=True)
+def gl_ext_mul(a, b, xk, out):  # type: ignore[no-untyped-def]
+    """out = a * b in F_p[X]/(q) over Goldilocks; xk holds X^k mod q."""
+    n, k = a.shape
+    prod = np.zeros(2 * k - 1, dtype=np.uint64)
+    for i in range(n):
+        for t in range(2 * k - 1):
+            prod[t] = _ZERO
+        for j in range(k):
+            aj = a[i, j]
+            for m in range(k):
+                prod[j + m] = _gl_add1(prod[j + m], _gl_mul1(aj, b[i, m]))
+        for t in range(2 * k - 2, k - 1, -1):
+            c = prod[t]
+            for m in range(k):
+                if xk[m] != _ZERO:
+                    prod[t - k + m] = _gl_add1(prod[t - k + m], _gl_mul1(c, xk[m]))
+        for m in range(k):
+            out[i, m] = prod[m]
+    return out

@@ -1,0 +1,233 @@
+"""Vector kernels for prime fields.
+
+* :class:`SmallPrimeKernel` for p < 2^32: uint64 entries; a product of two
+  entries fits in 64 bits, so numpy's ``(a * b) % p`` is exact.
+* :class:`GoldilocksKernel` for p = 2^64 - 2^32 + 1: uint64 entries; the
+  128-bit product is assembled from 32-bit limbs and reduced with
+  2^64 = 2^32 - 1 and 2^96 = -1 (mod p).
+* :class:`ObjectKernel` for every other prime: numpy object arrays of Python
+  ints (exact for any size, about a microsecond per operation).
+
+Additions avoid ``%``: for uint64 entries a + b - p wraps around when
+a + b < p, so min(a + b, a + b - p) is the canonical sum (p < 2^63 here).
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from stepper.errors import FieldError
+from stepper.kernels.base import COMPILED_MIN, Kernel
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+
+__all__ = ["SmallPrimeKernel", "GoldilocksKernel", "ObjectKernel", "GOLDILOCKS", "as_uint64"]
+
+GOLDILOCKS = 2**64 - 2**32 + 1
+
+
+def as_uint64(values: Any, p: int) -> np.ndarray:
+    """A uint64 array of the integers ``values`` (list or array), each checked
+    to be canonical for p < 2^64; raises FieldError naming the first bad entry."""
+    if isinstance(values, np.ndarray):
+        arr = values
+    else:
+        arr = np.array(values if isinstance(values, list) else list(values))
+        if arr.dtype.kind == "f":  # ints >= 2^63 mixed with small ones: numpy picks float64
+            arr = np.array(values if isinstance(values, list) else list(values), dtype=object)
+        if arr.size == 0:
+            return np.zeros(arr.shape, dtype=np.uint64)
+    if arr.dtype.kind == "O":
+        items = arr.reshape(-1).tolist()
+        for index, item in enumerate(items):
+            if isinstance(item, bool) or not isinstance(item, (int, np.integer)) or not 0 <= item < p:
+                raise FieldError(
+                    f"expected canonical integer entries 0 <= v < p = {p}, found {item!r} at flat index {index}"
+                )
+        return np.array(items, dtype=np.uint64).reshape(arr.shape)
+    if arr.dtype.kind not in "iu":
+        raise FieldError(f"expected integer entries for a vector over p = {p}, found numpy dtype {arr.dtype}")
+    if arr.dtype.kind == "i":
+        bad = (arr < 0) | (arr >= p) if p <= np.iinfo(arr.dtype).max else arr < 0
+    else:
+        bad = arr >= p if p <= np.iinfo(arr.dtype).max else np.zeros(arr.shape, dtype=bool)
+    if bad.any():
+        index = int(np.flatnonzero(bad.reshape(-1))[0])
+        raise FieldError(
+            f"expected canonical entries 0 <= v < p = {p}, found {arr.reshape(-1)[index]} at flat index {index}"
+        )
+    return arr if arr.dtype == np.uint64 else arr.astype(np.uint64)
+
+
+def _pair(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, tuple[int, ...]]:
+    """Both operands broadcast to one shape, flattened, C-contiguous uint64."""
+    a, b = np.asarray(a), np.asarray(b)
+    if a.shape != b.shape:
+        a, b = np.broadcast_arrays(a, b)
+    shape = a.shape
+    flat_a = np.ascontiguousarray(a, dtype=np.uint64).reshape(-1)
+    flat_b = np.ascontiguousarray(b, dtype=np.uint64).reshape(-1)
+    return flat_a, flat_b, shape
+
+
+class SmallPrimeKernel(Kernel):
+    dtype = np.uint64
+
+    def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
+        super().__init__(field, compiled_min)
+        self.p64 = np.uint64(field.p)
+        self.pinv = 1.0 / field.p
+
+    def array(self, values: Any) -> np.ndarray:
+        return as_uint64(values, self.p).reshape(-1)
+
+    def to_list(self, a: np.ndarray) -> list[Element]:
+        return a.tolist()  # type: ignore[no-any-return]
+
+    def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        return rng.integers(0, self.p, size=n, dtype=np.uint64)
+
+    def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is not None:
+            fa, fb, shape = _pair(a, b)
+            return compiled.small_add(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        s = np.add(a, b, dtype=np.uint64)
+        return np.minimum(s, s - self.p64, out=s)
+
+    def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is not None:
+            fa, fb, shape = _pair(a, b)
+            return compiled.small_sub(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        d = np.subtract(a, b, dtype=np.uint64)
+        return np.minimum(d, d + self.p64, out=d)
+
+    def neg(self, a: np.ndarray) -> np.ndarray:
+        d = np.subtract(self.p64, a, dtype=np.uint64)
+        return np.minimum(d, d - self.p64, out=d)
+
+    def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is None:
+            prod = np.multiply(a, b, dtype=np.uint64)
+            return np.remainder(prod, self.p64, out=prod)
+        fa, fb, shape = _pair(a, b)
+        return compiled.small_mul(fa, fb, self.p64, self.pinv, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+
+    def sum(self, a: np.ndarray) -> Element:
+        # chunks of 2^31 entries below 2^32 cannot overflow 2^63
+        total = 0
+        for start in range(0, len(a), 1 << 31):
+            total += int(np.sum(a[start : start + (1 << 31)], dtype=np.uint64))
+        return total % self.p
+
+
+class GoldilocksKernel(Kernel):
+    dtype = np.uint64
+
+    def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
+        super().__init__(field, compiled_min)
+        self.p64 = np.uint64(field.p)
+
+    def array(self, values: Any) -> np.ndarray:
+        return as_uint64(values, self.p).reshape(-1)
+
+    def to_list(self, a: np.ndarray) -> list[Element]:
+        return a.tolist()  # type: ignore[no-any-return]
+
+    def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        return rng.integers(0, self.p, size=n, dtype=np.uint64)
+
+    def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is not None:
+            fa, fb, shape = _pair(a, b)
+            return compiled.gl_add(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        s = np.add(a, b, dtype=np.uint64)  # wraps mod 2^64
+        carry = s < a
+        s = s + carry.astype(np.uint64) * np.uint64(0xFFFFFFFF)  # 2^64 = 2^32 - 1 (mod p)
+        return np.where(s >= self.p64, s - self.p64, s)
+
+    def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is not None:
+            fa, fb, shape = _pair(a, b)
+            return compiled.gl_sub(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        d = np.subtract(a, b, dtype=np.uint64)
+        return np.where(np.less(a, b), d + self.p64, d)
+
+    def neg(self, a: np.ndarray) -> np.ndarray:
+        return np.where(a == 0, a, self.p64 - a)
+
+    def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is not None:
+            fa, fb, shape = _pair(a, b)
+            return compiled.gl_mul(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        a, b = np.asarray(a, dtype=np.uint64), np.asarray(b, dtype=np.uint64)
+        m32 = np.uint64(0xFFFFFFFF)
+        s32 = np.uint64(32)
+        a0, a1 = a & m32, a >> s32
+        b0, b1 = b & m32, b >> s32
+        lo = a0 * b0
+        mid1 = a0 * b1
+        mid = mid1 + a1 * b0
+        mid_carry = (mid < mid1).astype(np.uint64)  # worth 2^96
+        lo_new = lo + (mid << s32)
+        carry = (lo_new < lo).astype(np.uint64)
+        hi = a1 * b1 + (mid >> s32) + (mid_carry << s32) + carry
+        return self._reduce128(lo_new, hi)
+
+    def _reduce128(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        """(hi * 2^64 + lo) mod p with hi = hh * 2^32 + hl: lo - hh + hl * (2^32 - 1)."""
+        m32 = np.uint64(0xFFFFFFFF)
+        hh = hi >> np.uint64(32)
+        hl = hi & m32
+        t = lo - hh
+        t = np.where(lo < hh, t - m32, t)  # borrow: subtract 2^64 = add p - 2^64 = -(2^32 - 1)
+        r = t + hl * m32  # hl * m32 < 2^64
+        r = np.where(r < t, r + m32, r)
+        return np.where(r >= self.p64, r - self.p64, r)
+
+    def sum(self, a: np.ndarray) -> Element:
+        total = 0
+        for start in range(0, len(a), 1 << 31):  # limb sums of 2^31 entries stay below 2^63
+            chunk = a[start : start + (1 << 31)]
+            total += int(np.sum(chunk & np.uint64(0xFFFFFFFF), dtype=np.uint64))
+            total += int(np.sum(chunk >> np.uint64(32), dtype=np.uint64)) << 32
+        return total % self.p
+
+
+class ObjectKernel(Kernel):
+    dtype = object
+
+    def array(self, values: Any) -> np.ndarray:
+        items = values.reshape(-1).tolist() if isinstance(values, np.ndarray) else list(values)
+        for index, item in enumerate(items):
+            if isinstance(item, bool) or not isinstance(item, (int, np.integer)) or not 0 <= item < self.p:
+                raise FieldError(
+                    f"expected canonical integer entries 0 <= v < p = {self.p}, found "
+                    f"{str(item)[:60]} at flat index {index}"
+                )
+        out = np.empty(len(items), dtype=object)
+        out[:] = [int(v) for v in items]
+        return out
+
+    def zeros(self, n: int) -> np.ndarray:
+        out = np.empty(n, dtype=object)
+        out[:] = 0
+        return out
+
+    def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        words = (self.p.bit_length() + 64 + 63) // 64
+        raw = rng.integers(0, 2**63, size=(n, words), dtype=np.uint64)
+        out = np.empty(n, dtype=object)
+        out[:] = [int.from_bytes(row.tobytes(), "little") % self.p for row in raw]
+        return out
+
+    def sum(self, a: np.ndarray) -> Element:
+        return int(a.sum()) % self.p if len(a) else 0

@@ -1,0 +1,177 @@
+"""The prover's side of a proof: records sent, challenges drawn.
+
+A :class:`ProofChannel` turns a reference prover's messages into event records
+(:mod:`stepper.transcript`) and hands each to a sink: anything with a
+``write(record)`` method, such as :class:`stepper.store.TranscriptWriter`, the
+in-memory :class:`ListSink`, or :class:`JsonLinesSink` for the event stream of
+``stepper record``. Challenges come from the built-in Fiat-Shamir schedule
+(:class:`stepper.fiatshamir.Sha256Schedule`), declared by a ``schedule`` event,
+which observes exactly what is sent, so ``stepper check`` re-derives every one.
+
+The faults that live on the wire are applied here, in one place: a negated
+claim, a claim left out of the schedule, a Montgomery-scaled or truncated
+round. Statement randomness (the permutation check's point, the zero-check's
+point, the batching coefficient) is drawn by :meth:`ProofChannel.statement_challenges`
+from a separate schedule seeded with the main schedule's state and a digest of
+the statement, a stand-in for commitments this reference prover does not make.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from typing import IO, TYPE_CHECKING, Any, Protocol, Sequence
+
+from stepper.errors import UsageError
+from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.poly import RoundPoly
+from stepper.provers.faults import Fault, montgomery_radix
+from stepper.transcript import (
+    BatchDecl,
+    BucketStats,
+    ChallengeMsg,
+    FieldDecl,
+    FinalValue,
+    InstanceStart,
+    Note,
+    RoundMsg,
+    ScheduleDecl,
+)
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+    from stepper.transcript import Event, Transcript
+
+__all__ = ["EventSink", "ListSink", "JsonLinesSink", "ProofChannel"]
+
+
+class EventSink(Protocol):
+    def write(self, record: Event) -> object: ...
+
+
+class ListSink:
+    """Keeps the records in memory, in order, as a reader would see them: each
+    passes through a :class:`stepper.events.Sequencer` (order rules, batch
+    attached to its instance)."""
+
+    def __init__(self) -> None:
+        from stepper.events import Sequencer
+
+        self.records: list[Event] = []
+        self._seq = Sequencer()
+
+    def write(self, record: Event) -> Event:
+        from stepper.events import to_payload
+
+        sequenced = self._seq.feed(to_payload(record, self._seq.field, binary=False))
+        self.records.append(sequenced)
+        return sequenced
+
+    def transcript(self) -> Transcript:
+        """The folded transcript of the records so far."""
+        from stepper.transcript import fold_events
+
+        return fold_events(self.records)
+
+
+class JsonLinesSink:
+    """Appends one JSON object per record to a text stream (the event-stream contract)."""
+
+    def __init__(self, stream: IO[str]) -> None:
+        self.stream = stream
+        self.field: Field | None = None
+
+    def write(self, record: Event) -> Event:
+        from stepper.events import to_payload
+
+        if isinstance(record, FieldDecl):
+            self.field = record.field
+        self.stream.write(json.dumps(to_payload(record, self.field, binary=False), separators=(",", ":")) + "\n")
+        self.stream.flush()
+        return record
+
+
+class ProofChannel:
+    """Sends one proof's records to ``sink`` and draws its challenges."""
+
+    def __init__(self, field: Field, sink: EventSink, *, label: str = "", fault: Fault | None = None) -> None:
+        self.field = field
+        self.sink = sink
+        self.fault = fault
+        self.schedule = Sha256Schedule()
+        self.instance = -1
+        self.round = 0
+        self.form = "evals"
+        self._emit(FieldDecl(field))
+        self._emit(ScheduleDecl(SCHEDULE_NAME, label))
+
+    def _emit(self, record: Event) -> None:
+        self.schedule.observe(record)
+        self.sink.write(record)
+
+    # ----- statement randomness ---------------------------------------------------------
+    def statement_challenges(self, purpose: str, statement: Sequence[bytes], count: int) -> list[Element]:
+        """``count`` challenges bound to the proof so far and to ``statement`` (bytes)."""
+        digest = hashlib.sha256(self.schedule.state_digest())
+        for part in statement:
+            digest.update(len(part).to_bytes(8, "little"))
+            digest.update(part)
+        side = Sha256Schedule()
+        side.observe(FieldDecl(self.field))
+        side.observe(ScheduleDecl(SCHEDULE_NAME, f"{purpose}:{digest.hexdigest()}"))
+        return [side.challenge() for _ in range(count)]
+
+    # ----- messages -----------------------------------------------------------------------
+    def batch(self, coefficient: Element, terms: Sequence[Element], sources: Sequence[str] = ()) -> None:
+        self._emit(BatchDecl(coefficient, tuple(terms), tuple(sources)))
+
+    def start_instance(self, name: str, num_vars: int, degree: int, claim: Element, *,
+                       order: str = "low-first", form: str = "evals") -> int:
+        """Announce an instance; returns its 0-based index."""
+        f = self.field
+        nxt = self.instance + 1
+        fault = self.fault
+        if fault is not None and fault.instance == nxt and fault.name in ("negate-claim", "unbound-claim") \
+                and f.is_zero(claim):
+            raise UsageError(f"fault {fault.name} needs a non-zero claim; instance {name!r} claims 0")
+        if fault is not None and fault.instance == nxt and fault.name == "negate-claim":
+            claim = f.neg(claim)
+        start = InstanceStart(nxt, name, num_vars, degree, claim, order, form)
+        if fault is not None and fault.instance == nxt and fault.name == "unbound-claim":
+            self.schedule.observe(InstanceStart(nxt, name, num_vars, degree, f.zero, order, form))
+        else:
+            self.schedule.observe(start)
+        self.sink.write(start)
+        self.instance = nxt
+        self.round = 0
+        self.form = form
+        return nxt
+
+    def send_round(self, evals: Sequence[Element]) -> Element:
+        """Send g(0..e) for the next round (in the instance's form); returns the challenge."""
+        f = self.field
+        self.round += 1
+        sent = list(evals)
+        fault = self.fault
+        if fault is not None and fault.hits(self.instance, "montgomery", self.round):
+            radix = montgomery_radix(f)
+            sent = [f.mul(v, radix) for v in sent]
+        if fault is not None and fault.hits(self.instance, "drop-eval", self.round):
+            sent = sent[:-1]
+        poly = RoundPoly(tuple(sent))
+        values = poly.to_form(f, self.form)
+        self._emit(RoundMsg(self.instance, self.round, tuple(values)))
+        challenge = self.schedule.challenge()
+        self.sink.write(ChallengeMsg(self.instance, self.round, challenge))
+        return challenge
+
+    def final(self, value: Element) -> None:
+        self.sink.write(FinalValue(self.instance, value))
+
+    def buckets(self, round_: int, chunk: int, count: int, sizes: Sequence[int] | None, bound_log2: int,
+                remaining: int, **extra: Any) -> None:
+        self.sink.write(BucketStats(self.instance, round_, chunk, count,
+                                    None if sizes is None else tuple(sizes), bound_log2, remaining, extra))
+
+    def note(self, text: str, round_: int | None = None) -> None:
+        self.sink.write(Note(text, self.instance if self.instance >= 0 else None, round_))

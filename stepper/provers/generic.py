@@ -1,0 +1,105 @@
+"""Generic sumcheck over multilinear tables and a `combine` expression, and the
+zero-check built on it.
+
+:func:`prove_sum` proves sum over {0,1}^mu of combine(tables) = claim, the
+claim being the true sum (faults aside), binding variables low-first or
+high-first and sending any round form. :func:`prove_zero` proves that a
+constraint vanishes on the whole hypercube: it draws a point tau and proves
+sum_x eq(tau, x) * C(x) = 0, which a non-vanishing C fails except with
+probability about mu / |F| over tau. Several constraints are mixed with powers
+of a random gamma first (a fixed mix would let two constraints cancel).
+
+The expression is parsed by :mod:`stepper.expr` (the witness grammar), so the
+witness this writes is exactly what ``stepper check --witness`` reads back.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Mapping, Sequence
+
+import numpy as np
+
+from stepper.errors import UsageError
+from stepper.expr import parse
+from stepper.provers.engine import ExprSummand, ProofRun, WitnessInstance, run_tables
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+    from stepper.provers.channel import ProofChannel
+    from stepper.provers.counting import MulCounter
+
+__all__ = ["prove_sum", "prove_zero", "field_tables"]
+
+
+def field_tables(field: Field, tables: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """Tables in the field's vector form (base tables embedded in an extension), of one 2^mu length."""
+    lengths = {len(t) for t in tables.values()}
+    if len(lengths) != 1:
+        raise UsageError(f"expected tables of one length, found lengths {sorted(lengths)}")
+    n = lengths.pop()
+    if n < 2 or n & (n - 1):
+        raise UsageError(f"expected tables of 2^mu entries with mu >= 1, found {n}")
+    return {name: field.vec(t) if field.is_extension and t.ndim == 1 else t for name, t in tables.items()}
+
+
+def prove_sum(channel: ProofChannel, counter: MulCounter, name: str, tables: Mapping[str, np.ndarray],
+              combine: str, *, order: str = "low-first", form: str = "evals") -> ProofRun:
+    """Prove the true sum of ``combine`` over the tables in one instance."""
+    field = counter.field
+    summand = ExprSummand.of(parse(combine))
+    missing = [n for n in summand.names if n not in tables]
+    if missing:
+        raise UsageError(f"expected a table for every name in {combine!r}, found none for {', '.join(missing)}")
+    used = field_tables(field, {n: tables[n] for n in summand.names})
+    counter.phase(f"{name}/setup")
+    claim = field.vsum(summand.evaluate(counter, used))
+    run, _ = run_tables(channel, counter, name, used, summand, claim, order=order, form=form)
+    return ProofRun((run,), (WitnessInstance(name, used, combine, order),), counter.per_phase())
+
+
+def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Mapping[str, np.ndarray],
+               constraints: Sequence[str], *, order: str = "low-first", form: str = "evals") -> ProofRun:
+    """Prove every constraint vanishes on the hypercube: sum_x eq(tau, x) * C(x) = 0."""
+    field = counter.field
+    if not constraints:
+        raise UsageError("expected at least one constraint for a zero-check")
+    if "eq" in tables:
+        raise UsageError("expected no table named 'eq' in a zero-check (the prover adds eq(tau, x) under that name)")
+    used = field_tables(field, dict(tables))
+    num_vars = len(next(iter(used.values()))).bit_length() - 1
+    statement = [name.encode(), *(c.encode() for c in constraints), *(used[n].tobytes() for n in sorted(used))]
+    counter.phase(f"{name}/setup")
+    tau = channel.statement_challenges("zero-check-point", statement, num_vars)
+    eq = counter.eq_table(tau)
+    combine, extra = _mix(channel, counter, constraints, statement, eq)
+    env = {**used, **extra}
+    summand = ExprSummand.of(parse(combine))
+    missing = [n for n in summand.names if n not in env]
+    if missing:
+        raise UsageError(f"expected a table for every name in the constraints, found none for {', '.join(missing)}")
+    env = {n: env[n] for n in summand.names}
+    run, _ = run_tables(channel, counter, name, env, summand, field.zero, order=order, form=form)
+    return ProofRun((run,), (WitnessInstance(name, env, combine, order),), counter.per_phase())
+
+
+def _mix(channel: ProofChannel, counter: MulCounter, constraints: Sequence[str], statement: list[bytes],
+         eq: np.ndarray) -> tuple[str, dict[str, np.ndarray]]:
+    """eq * (C_1 + gamma * C_2 + gamma^2 * C_3 ...): gamma^j as an integer constant in a
+    prime field; over an extension as tables ``eq_mix1``, ``eq_mix2`` ... = gamma^j * eq
+    (so the combine's degree stays 1 + deg C)."""
+    field = counter.field
+    if len(constraints) == 1:
+        return f"eq * ({constraints[0]})", {"eq": eq}
+    gamma = channel.statement_challenges("constraint-mix", statement, 1)[0]
+    power: Element = field.one
+    inner = [f"({constraints[0]})"]
+    outer: list[str] = []
+    extra: dict[str, np.ndarray] = {"eq": eq}
+    for j, c in enumerate(constraints[1:], start=1):
+        power = counter.mul(power, gamma)
+        if field.is_extension:
+            extra[f"eq_mix{j}"] = counter.vscale(eq, power)
+            outer.append(f"eq_mix{j} * ({c})")
+        else:
+            inner.append(f"{power} * ({c})")
+    return " + ".join([f"eq * ({' + '.join(inner)})", *outer]), extra

@@ -1,0 +1,286 @@
+"""Permutation check, grouped form: two sumchecks and a bucketed second layer.
+
+Split the mu bits of sigma^-1 into L groups G_1..G_L of about c = mu/L bits and
+let P_j(y) = prod over i in G_j of e_i(y) (see :mod:`stepper.provers.permcheck`).
+
+* Layer 1 proves g~(alpha) = sum_y f(y) * P_1(y) ... P_L(y), degree L + 1,
+  ending at a point rho; the prover then states v_j = P~_j(rho).
+* A ``batch`` event with coefficient beta combines them: the layer-2 claim is
+  sum_j beta^j v_j = sum_y eq(rho, y) * sum_j beta^j prod_{i in G_j} e~_i(y),
+  degree c + 1.
+* Layer 2, round k: g_k(X) = A_k * eq(rho_k, X) * sum_j beta^j S_j(X) with
+  S_j(X) = sum_z E_k(z) * prod_{i in G_j} e~_i(r_1..r_(k-1), X, z),
+  A_k = prod_{i<k} eq(rho_i, r_i) and E_k(z) = eq(rho_(k+1..mu), z). Bucketed
+  rounds group the z by the group's 2^k * c table bits
+  (:mod:`stepper.provers.bucketing`), add the E_k weights inside a bucket and
+  multiply once per bucket; from the switch-over round on (given, or chosen
+  when buckets stop paying) the prover materialises the bound tables and
+  continues directly. Both ways send identical round polynomials.
+
+Per round and group a ``buckets`` event records the count, entries per
+bucket, the bound 2^(2^k * c) as ``bound_log2`` and the remaining 2^(mu-k).
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Sequence
+
+import numpy as np
+
+from stepper.errors import UsageError
+from stepper.poly import eq_table, mle_eval
+from stepper.provers.bucketing import (
+    MAX_MASK_BITS,
+    GroupBuckets,
+    bit_tables,
+    group_buckets,
+    round_masks,
+    segment_sum,
+    split_groups,
+    subset_sums,
+)
+from stepper.provers.engine import InstanceRun, ProductSummand, ProofRun, WitnessInstance, final_point, run_tables
+from stepper.provers.permcheck import PermStatement, permutation_point, select_table
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+    from stepper.provers.channel import ProofChannel
+    from stepper.provers.counting import MulCounter
+
+__all__ = ["MAX_SWITCH_ROUND", "SIZES_LIMIT", "prove_permutation_grouped", "prove_group_products", "group_tables"]
+
+MAX_SWITCH_ROUND = 5  # rounds 1..4 can be bucketed (see the look-up rule in prove_group_products)
+SIZES_LIMIT = 4096  # buckets events list entries-per-bucket up to this many buckets
+_FOLD_FAULTS = ("flip-order", "stale-challenge", "product-of-sums")
+
+
+def group_tables(counter: MulCounter, bits: Sequence[np.ndarray], alpha: Sequence[Element],
+                 groups: Sequence[Sequence[int]]) -> list[np.ndarray]:
+    """P_j over the hypercube by look-up: 2^c products per group, none per entry."""
+    field = counter.field
+    out = []
+    for group in groups:
+        key = np.zeros(len(bits[0]), dtype=np.int64)
+        for pos, i in enumerate(group):
+            key |= bits[i].astype(np.int64) << pos
+        values = []
+        for code in range(1 << len(group)):
+            acc: Element | None = None
+            for pos, i in enumerate(group):
+                factor = alpha[i] if code >> pos & 1 else field.sub(field.one, alpha[i])
+                acc = factor if acc is None else counter.mul(acc, factor)
+            values.append(acc)
+        out.append(field.vec(values)[key])
+    return out
+
+
+def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statement: PermStatement, groups: int, *,
+                              switch_round: int | None = None, name: str = "permutation",
+                              form: str = "evals") -> ProofRun:
+    """Both layers of the grouped permutation check with ``groups`` = L groups."""
+    field = counter.field
+    mu = statement.num_vars
+    if not 1 <= groups <= mu:
+        raise UsageError(f"expected a group count between 1 and mu = {mu}, found {groups}")
+    fault = channel.fault
+    if fault is not None and fault.instance == 1 and fault.name in _FOLD_FAULTS:
+        raise UsageError(f"fault {fault.name} acts on folded tables; aim it at the first instance of a grouped proof")
+    if switch_round is not None and not 1 <= switch_round <= MAX_SWITCH_ROUND:
+        raise UsageError(f"expected a switch-over round between 1 and {MAX_SWITCH_ROUND} (bucket look-up tables grow "
+                         f"as 2^(2^k)), found {switch_round}")
+    parts = split_groups(mu, groups)
+    counter.phase(f"{name}/setup")
+    alpha = permutation_point(channel, statement, "permutation-point")
+    claim = counter.mle(field.vec(statement.g), alpha)
+    bits = bit_tables(statement.inverse(), mu)
+    products = group_tables(counter, bits, alpha, parts)
+    tables = {"f": field.vec(statement.f), **{f"p{j + 1}": t for j, t in enumerate(products)}}
+    summand = ProductSummand(tuple(tables))
+    run1, folded = run_tables(channel, counter, name, tables, summand, claim, form=form)
+    rho = list(run1.challenges)
+    honest_fold = fault is None or fault.instance != 0 or fault.name not in _FOLD_FAULTS
+    terms = [field.vlist(folded[f"p{j + 1}"])[0] if honest_fold else mle_eval(field, products[j], rho)
+             for j in range(groups)]
+    beta = channel.statement_challenges("batch", [field.encode(v) for v in terms], 1)[0]
+    channel.batch(beta, terms, [f"p{j + 1} at the first instance's point" for j in range(groups)])
+    counter.phase(f"{name}/groups/setup")
+    powers = [field.one]
+    for _ in range(1, groups):
+        powers.append(counter.mul(powers[-1], beta))
+    claim2 = field.zero
+    for pw, v in zip(powers, terms):
+        claim2 = field.add(claim2, counter.mul(pw, v))
+    run2 = prove_group_products(channel, counter, f"{name}/groups", bits, alpha, parts, rho, powers, claim2,
+                                switch_round=switch_round, form=form)
+    witness = (WitnessInstance(name, tables, summand.combine()),
+               _layer2_witness(field, run2.name, bits, alpha, parts, rho, powers))
+    return ProofRun((run1, run2), witness, counter.per_phase())
+
+
+def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, bits: Sequence[np.ndarray],
+                         alpha: Sequence[Element], parts: Sequence[Sequence[int]], rho: Sequence[Element],
+                         powers: Sequence[Element], claim: Element, *, switch_round: int | None = None,
+                         form: str = "evals") -> InstanceRun:
+    """Layer 2: sum_y eq(rho, y) * sum_j powers[j] * prod_{i in G_j} e~_i(y) = claim.
+    Rounds before ``switch_round`` are bucketed (None: while buckets pay off)."""
+    field = counter.field
+    mu = len(rho)
+    widest = max(len(g) for g in parts)
+    degree = widest + 1
+    index = channel.start_instance(name, mu, degree, claim, form=form)
+    counter.phase(f"{name}/round 1")
+    one = field.one
+    low = [field.sub(one, a) for a in alpha]  # e_i where the bit is 0
+    slope = [field.sub(field.add(a, a), one) for a in alpha]  # e_i(1) - e_i(0)
+    weights = counter.eq_table(rho[1:])  # E_1
+    bound_eq = field.vec([one])  # eq(r_1..r_(k-1), b') over b'
+    prefix = one
+    challenges: list[Element] = []
+    round_mults: list[int] = []
+    tables: list[np.ndarray] | None = None
+    for k in range(1, mu + 1):
+        counter.phase(f"{name}/round {k}")
+        before = counter.total
+        half = 1 << (mu - k)
+        sums: list[list[Element]] | None = None
+        width = 1 << (k - 1)
+        # bucket round k only while round k + 1 could still materialise the tables by look-up
+        if tables is None and 2 * width <= MAX_MASK_BITS and (switch_round is None or k < switch_round):
+            subset = subset_sums(field, bound_eq)
+            occupancy = [group_buckets(bits, g, k) for g in parts]
+            bucket_cost = sum(o.count * (len(g) * (len(g) + 2) + 2 * len(g)) for o, g in zip(occupancy, parts))
+            direct_cost = sum(half * (len(g) * (len(g) + 2) + len(g)) for g in parts)
+            paying = switch_round is not None or bucket_cost < direct_cost
+            for j, (o, g) in enumerate(zip(occupancy, parts)):
+                sizes = sorted(o.sizes.tolist(), reverse=True) if o.count <= SIZES_LIMIT else None
+                channel.buckets(k, j, o.count, sizes, (1 << k) * len(g), half, used=paying)
+            if paying:
+                sums = [_bucket_sums(counter, o, g, subset, weights, low, slope, degree, width)
+                        for o, g in zip(occupancy, parts)]
+        if sums is None:
+            if tables is None:
+                tables = _materialise(counter, bits, bound_eq, low, slope, k)
+            sums = [_direct_sums(counter, [tables[i] for i in g], weights, degree) for g in parts]
+        rk = rho[k - 1]
+        eq_x, eq_step = field.sub(one, rk), field.sub(field.add(rk, rk), one)  # eq(rho_k, X) at X = 0, 1, ...
+        evals = []
+        for x in range(degree + 1):
+            total = field.zero
+            for pw, s in zip(powers, sums):
+                total = field.add(total, counter.mul(pw, s[x]))
+            evals.append(counter.mul(prefix, counter.mul(eq_x, total)))
+            eq_x = field.add(eq_x, eq_step)
+        r = channel.send_round(evals)
+        challenges.append(r)
+        twice = counter.mul(rk, r)
+        prefix = counter.mul(prefix, field.add(field.sub(field.sub(one, rk), r), field.add(twice, twice)))
+        if tables is not None:
+            tables = [counter.fold(t, r, "low-first") for t in tables]
+        elif k < mu:
+            high = counter.vscale(bound_eq, r)
+            bound_eq = np.concatenate([field.vsub(bound_eq, high), high])
+        if k < mu:
+            weights = field.vadd(weights[0::2], weights[1::2])
+        round_mults.append(counter.total - before)
+    counter.phase(f"{name}/final")
+    point = final_point(challenges, "low-first", channel)
+    final = _oracle_final(field, bits, alpha, parts, rho, powers, point)
+    channel.final(final)
+    return InstanceRun(name, claim, tuple(challenges), final, tuple(round_mults))
+
+
+def _bucket_sums(counter: MulCounter, occ: GroupBuckets, group: Sequence[int], subset: np.ndarray,
+                 weights: np.ndarray, low: Sequence[Element], slope: Sequence[Element], degree: int,
+                 width: int) -> list[Element]:
+    """S_j(0..degree) from the buckets: eq weights added per bucket, products per bucket."""
+    field = counter.field
+    bucket_weight = segment_sum(field, weights, occ.inverse, occ.count)
+    mask = np.uint64((1 << width) - 1)
+    starts, steps = [], []
+    for pos, i in enumerate(group):
+        row = occ.keys[:, pos]
+        a0 = field.vadd(counter.vscale(subset[(row & mask).astype(np.int64)], slope[i]), _fill(field, low[i], occ.count))
+        a1 = field.vadd(counter.vscale(subset[(row >> np.uint64(width)).astype(np.int64)], slope[i]),
+                        _fill(field, low[i], occ.count))
+        starts.append(a0)
+        steps.append(field.vsub(a1, a0))
+    return _point_sums(counter, starts, steps, bucket_weight, degree)
+
+
+def _direct_sums(counter: MulCounter, tables: Sequence[np.ndarray], weights: np.ndarray, degree: int) -> list[Element]:
+    """S_j(0..degree) entry by entry from the bound tables of the group's bits."""
+    field = counter.field
+    starts = [t[0::2] for t in tables]
+    steps = [field.vsub(t[1::2], t[0::2]) for t in tables]
+    return _point_sums(counter, starts, steps, weights, degree)
+
+
+def _point_sums(counter: MulCounter, starts: list[np.ndarray], steps: list[np.ndarray], weights: np.ndarray,
+                degree: int) -> list[Element]:
+    field = counter.field
+    cur = list(starts)
+    out = []
+    for x in range(degree + 1):
+        if x:
+            cur = [field.vadd(c, s) for c, s in zip(cur, steps)]
+        out.append(field.vsum(counter.vmul(counter.product(cur), weights)))
+    return out
+
+
+def _materialise(counter: MulCounter, bits: Sequence[np.ndarray], bound_eq: np.ndarray, low: Sequence[Element],
+                 slope: Sequence[Element], round_: int) -> list[np.ndarray]:
+    """e~_i(r_1..r_(k-1), t, z) for every bit i, indexed t + 2z, by look-up where that is cheaper."""
+    field = counter.field
+    subset = subset_sums(field, bound_eq)
+    out = []
+    for i, b in enumerate(bits):
+        masks = round_masks(b, round_).reshape(-1).astype(np.int64)
+        if len(subset) <= len(masks):
+            values = field.vadd(counter.vscale(subset, slope[i]), _fill(field, low[i], len(subset)))
+            out.append(values[masks])
+        else:
+            out.append(field.vadd(counter.vscale(subset[masks], slope[i]), _fill(field, low[i], len(masks))))
+    return out
+
+
+def _fill(field: Field, value: Element, n: int) -> np.ndarray:
+    return np.repeat(field.vec([value]), n, axis=0)
+
+
+def _oracle_final(field: Field, bits: Sequence[np.ndarray], alpha: Sequence[Element], parts: Sequence[Sequence[int]],
+                  rho: Sequence[Element], powers: Sequence[Element], point: Sequence[Element]) -> Element:
+    """eq(rho, point) * sum_j powers[j] prod_{i in G_j} e~_i(point): the verifier's value
+    from oracle access to the bits of sigma^-1 (its work, not the prover's: not counted)."""
+    from stepper.poly import eq_eval
+
+    one = field.one
+    total = field.zero
+    for pw, group in zip(powers, parts):
+        acc = pw
+        for i in group:
+            s = mle_eval(field, select_table(field, bits[i], field.zero, one), point)
+            e = field.add(field.sub(one, alpha[i]), field.mul(field.sub(field.add(alpha[i], alpha[i]), one), s))
+            acc = field.mul(acc, e)
+        total = field.add(total, acc)
+    return field.mul(eq_eval(field, rho, point), total)
+
+
+def _layer2_witness(field: Field, name: str, bits: Sequence[np.ndarray], alpha: Sequence[Element],
+                    parts: Sequence[Sequence[int]], rho: Sequence[Element], powers: Sequence[Element]) -> WitnessInstance:
+    """Tables eq, e1..e_mu (and eq_b_j = beta^j * eq over an extension) with their `combine`."""
+    one = field.one
+    eq = eq_table(field, rho)
+    tables: dict[str, np.ndarray] = {"eq": eq}
+    for i, b in enumerate(bits):
+        tables[f"e{i + 1}"] = select_table(field, b, field.sub(one, alpha[i]), alpha[i])
+    inner, outer = [], []
+    for j, (pw, group) in enumerate(zip(powers, parts)):
+        product = " * ".join(f"e{i + 1}" for i in group)
+        if j == 0:
+            inner.append(product)
+        elif field.is_extension:  # beta^j is no integer: scale eq instead
+            tables[f"eq_b{j}"] = field.vscale(eq, pw)
+            outer.append(f"eq_b{j} * {product}")
+        else:
+            inner.append(f"{pw} * {product}")
+    return WitnessInstance(name, tables, " + ".join([f"eq * ({' + '.join(inner)})", *outer]))

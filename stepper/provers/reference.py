@@ -1,0 +1,115 @@
+"""One entry point for every reference prover: a :class:`ProveSpec` in, a proof out.
+
+The CLI (``stepper prove``, ``stepper demo``), transcripts/regenerate.py and the
+samples all build their proofs here, so the same spec always gives the same
+records. Statements come from a seed: random tables for ``generic``,
+``zerocheck``, ``perm-direct`` and ``perm-grouped``; the Brackwater Ferries
+sailing (:mod:`stepper.scenario`) for ``ferries``, whose proof holds the
+boarding permutation check and the deck-slot zero-check. Pure apart from the
+sink the records go to.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from stepper.errors import UsageError
+from stepper.provers.channel import ProofChannel
+from stepper.provers.counting import MulCounter
+from stepper.provers.engine import ProofRun
+from stepper.provers.faults import Fault
+from stepper.provers.generic import prove_sum, prove_zero
+from stepper.provers.grouped import prove_permutation_grouped
+from stepper.provers.permcheck import PermStatement, prove_permutation_direct
+
+if TYPE_CHECKING:
+    from stepper.field import Field
+    from stepper.provers.channel import EventSink
+
+__all__ = ["KINDS", "ProveSpec", "prove", "parse_field", "random_permutation_statement"]
+
+KINDS = ("generic", "zerocheck", "perm-direct", "perm-grouped", "ferries")
+DEFAULT_COMBINE = {"generic": "a * b + c", "zerocheck": "a * b - c"}
+
+
+@dataclass(frozen=True, slots=True)
+class ProveSpec:
+    """What to prove and how. ``groups`` 0 means the direct permutation check
+    (for ``ferries``); ``switch_round`` None means "while buckets pay off"."""
+
+    kind: str
+    num_vars: int = 8
+    seed: int = 1
+    groups: int = 2
+    switch_round: int | None = None
+    fault: Fault | None = None
+    order: str = "low-first"
+    form: str = "evals"
+    combine: str | None = None
+    tamper: str | None = None
+    label: str = ""
+
+    def __post_init__(self) -> None:
+        if self.kind not in KINDS:
+            raise UsageError(f"expected a prover kind among {', '.join(KINDS)}, found {self.kind!r}")
+        if not 1 <= self.num_vars <= 24:
+            raise UsageError(f"expected --num-vars between 1 and 24, found {self.num_vars}")
+
+
+def parse_field(text: str) -> Field:
+    """``babybear``, ``babybear^4``, ``goldilocks^2`` or a prime modulus (decimal or 0x)."""
+    from stepper.errors import FieldError
+    from stepper.field import field_from_spec
+
+    name, _, degree = text.strip().partition("^")
+    spec: dict[str, object] = {"modulus": name} if name[:1].isdigit() else {"name": name}
+    if degree:
+        if not degree.isdigit():
+            raise UsageError(f"expected --field NAME or NAME^K with K an integer, found {text!r}")
+        spec["extension_degree"] = int(degree)
+    try:
+        return field_from_spec(spec)
+    except FieldError as err:
+        raise UsageError(f"--field {text}: {err.message}") from None
+
+
+def random_permutation_statement(field: Field, num_vars: int, seed: int) -> PermStatement:
+    """f random, sigma random, g = f o sigma."""
+    rng = np.random.default_rng(seed)
+    n = 1 << num_vars
+    f = field.base.vrandom(n, rng)
+    sigma = rng.permutation(n)
+    return PermStatement(f, f[sigma], sigma)
+
+
+def prove(spec: ProveSpec, field: Field, sink: EventSink) -> ProofRun:
+    """Run the reference prover ``spec`` names over ``field``, records to ``sink``."""
+    channel = ProofChannel(field, sink, label=spec.label or f"stepper reference prover: {spec.kind}", fault=spec.fault)
+    counter = MulCounter(field)
+    mu = spec.num_vars
+    if spec.kind in ("generic", "zerocheck"):
+        from stepper.expr import parse
+
+        combine = spec.combine or DEFAULT_COMBINE[spec.kind]
+        names = parse(combine).names()
+        rng = np.random.default_rng(spec.seed)
+        tables = {n: field.vrandom(1 << mu, rng) for n in names}
+        if spec.kind == "generic":
+            return prove_sum(channel, counter, "sum", tables, combine, order=spec.order, form=spec.form)
+        if combine == DEFAULT_COMBINE["zerocheck"]:
+            tables["c"] = field.vmul(tables["a"], tables["b"])  # a * b - c vanishes everywhere
+        return prove_zero(channel, counter, "zero", tables, [combine], order=spec.order, form=spec.form)
+    if spec.kind == "ferries":
+        from stepper.provers.ferries import prove_sailing
+
+        return prove_sailing(channel, counter, spec)
+    statement = random_permutation_statement(field, mu, spec.seed)
+    if spec.order != "low-first":
+        raise UsageError("expected --order low-first for the permutation checks (they bind x_1 first)")
+    if spec.kind == "perm-direct":
+        return prove_permutation_direct(channel, counter, statement, form=spec.form)
+    return prove_permutation_grouped(channel, counter, statement, spec.groups, switch_round=spec.switch_round,
+                                     form=spec.form)

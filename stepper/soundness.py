@@ -1,0 +1,98 @@
+"""The sumcheck soundness error of each instance and of the proof.
+
+For one sumcheck instance in v variables whose round polynomials have degree
+at most d, with challenges drawn uniformly from the challenge field F, a false
+claim survives every round with probability at most v * d / |F| (Schwartz-Zippel
+applied once per round, union bound). A proof of several instances is bounded by
+the sum. These are statements about the *protocol as replayed*, assuming
+uniformly random challenges: they say nothing about the Fiat-Shamir transform,
+about how claims are chained, or about whether the summed polynomial is the
+right one. The numbers are exact fractions; ``bits`` is -log2 of the bound.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Any
+
+__all__ = ["InstanceBound", "SoundnessSummary", "instance_bound", "bits_of"]
+
+
+def bits_of(bound: Fraction) -> float | None:
+    """-log2(bound), to 0.1 bit; None for a zero bound (nothing to guess)."""
+    if bound <= 0:
+        return None
+    return round(math.log2(bound.denominator) - math.log2(bound.numerator), 1)
+
+
+@dataclass(frozen=True, slots=True)
+class InstanceBound:
+    """v * d / |F| for one instance."""
+
+    index: int
+    name: str
+    num_vars: int
+    degree: int
+    field_order: int
+
+    @property
+    def bound(self) -> Fraction:
+        return Fraction(self.num_vars * self.degree, self.field_order)
+
+    @property
+    def bits(self) -> float | None:
+        return bits_of(self.bound)
+
+    def describe(self) -> str:
+        bits = self.bits
+        tail = "no rounds, nothing to guess" if bits is None else f"about 2^-{bits}"
+        return f"{self.num_vars} * {self.degree} / |F| ({tail})"
+
+
+def instance_bound(index: int, name: str, num_vars: int, degree: int, field_order: int) -> InstanceBound:
+    return InstanceBound(index, name, num_vars, degree, field_order)
+
+
+@dataclass(frozen=True, slots=True)
+class SoundnessSummary:
+    """The proof's bound (sum over every instance) and the kept per-instance bounds."""
+
+    field_order: int
+    total_rounds_degree: int  # sum over instances of num_vars * degree
+    instance_count: int
+    per_instance: tuple[InstanceBound, ...]
+
+    @property
+    def bound(self) -> Fraction:
+        if self.field_order <= 0:
+            return Fraction(0)
+        return Fraction(self.total_rounds_degree, self.field_order)
+
+    @property
+    def bits(self) -> float | None:
+        return bits_of(self.bound)
+
+    def describe(self) -> str:
+        bits = self.bits
+        if bits is None:
+            return "soundness error 0 (no rounds replayed)"
+        return (f"soundness error of the sumcheck rounds <= sum of v*d/|F| = {self.total_rounds_degree}/|F| "
+                f"~ 2^-{bits} over {self.instance_count} instance(s), if the challenges are uniformly random")
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "rule": "sum over instances of num_vars * degree / |F| (|F| = size of the challenge field)",
+            "field_order": str(self.field_order),
+            "numerator": str(self.total_rounds_degree),
+            "bound": str(self.bound),
+            "bits": self.bits,
+            "instances": [
+                {"index": b.index, "name": b.name, "num_vars": b.num_vars, "degree": b.degree,
+                 "bound": str(b.bound), "bits": b.bits}
+                for b in self.per_instance
+            ],
+            "caveat": "assumes uniformly random challenges; says nothing about the protocol's design "
+                      "or its Fiat-Shamir transform",
+        }

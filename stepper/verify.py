@@ -1,0 +1,427 @@
+"""The verifier replay: one event record in, result values out (no I/O).
+
+:class:`Replay` keeps, per instance with claim c_0 and for rounds k = 1..num_vars:
+
+* ``degree``: at most degree+1 evaluations, counted in full form;
+* ``sum``: g_k(0) + g_k(1) == c_(k-1) (holds by construction in the compressed
+  forms, where g(1) or c1 is recovered from the claim);
+* ``challenge``: the recorded r_k equals the one the schedule re-derives (when a
+  built-in schedule is declared or a plug-in is given); then c_k = g_k(r_k);
+* ``final``: c_mu equals the final value when one is given;
+* ``batch``: a batched claim equals sum_i coefficient^i * terms[i];
+* ``shape``: a round carries at least one value.
+
+Replay goes on after a failure: later rounds are evaluated against the claim
+actually carried and marked ``after_failure``; ``first_failure`` is the first in
+stream order. Memory per instance is constant unless ``keep_rounds`` is set;
+``keep_instances`` caps the kept instance summaries (counts cover every instance).
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Iterable
+
+from stepper.binding import Challenger, History, call_challenger, history_payload, probe_binding
+from stepper.errors import InputError, Where
+from stepper.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
+from stepper.lagrange import evaluate_round
+from stepper.poly import RoundPoly
+from stepper.soundness import InstanceBound, SoundnessSummary
+from stepper.transcript import (
+    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, Transcript,
+)
+from stepper.verdict import (
+    BatchResult, Failure, FinalResult, Finding, InstanceSummary, Report, Result, RoundResult,
+)
+from stepper.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
+from stepper.verify_text import batch_text, final_text, round_text
+
+if TYPE_CHECKING:
+    from stepper.field import Element, Field
+    from stepper.transcript import Event
+
+__all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "FinalResult", "BatchResult",
+           "Report", "Failure", "Finding"]
+
+
+class _Live:
+    """Mutable replay state of the current instance (private)."""
+
+    __slots__ = ("start", "claim", "pending", "seen", "passed", "failure", "final", "batch", "rounds",
+                 "history_start")
+
+    def __init__(self, start: InstanceStart, keep: bool, history_start: int) -> None:
+        self.start = start
+        self.claim: Element = start.claim
+        # (round, evals, recovered, recovered_value, check, expected, found) of the round awaiting its challenge
+        self.pending: tuple[RoundMsg, tuple[Element, ...], str | None, Element | None, str | None, object,
+                            object] | None = None
+        self.seen = 0
+        self.passed = 0
+        self.failure: Failure | None = None
+        self.final: FinalResult | None = None
+        self.batch: BatchResult | None = None
+        self.rounds: list[RoundResult] | None = [] if keep else None
+        self.history_start = history_start
+
+
+class Replay:
+    """Steppable verifier: ``feed(record)`` returns the results it resolved, ``report()`` the verdict.
+
+    ``schedule`` is a declaration to apply as if it followed the field event;
+    ``challenger`` a plug-in (see :mod:`stepper.binding`) that overrides it.
+    ``probe_instances`` is how many instances (from the first) the binding probe covers;
+    with ``emit_passing=False`` (and no ``keep_rounds``) ``feed`` returns only failed or
+    open rounds, which is the fast path for streaming summaries."""
+
+    def __init__(self, field: Field | None = None, schedule: ScheduleDecl | None = None,
+                 challenger: Challenger | None = None, *, keep_rounds: bool = False,
+                 keep_instances: int | None = None, probe_instances: int = 4, emit_passing: bool = True) -> None:
+        self.field = field
+        self.emit_passing = emit_passing or keep_rounds
+        self.keep_rounds = keep_rounds
+        self.keep_instances = keep_instances
+        self.probe_instances = probe_instances
+        self.challenger = challenger
+        self.schedule_decl: ScheduleDecl | None = None
+        self._sched: Sha256Schedule | None = None
+        self._history: list[dict] | None = [] if challenger is not None else None
+        self._field_logged = False
+        self._live: _Live | None = None
+        self._pending_batch: BatchDecl | None = None
+        self._summaries: list[InstanceSummary] = []
+        self._kept_failures = 0
+        self._counts = {"pass": 0, "fail": 0, "incomplete": 0}
+        self._first: Failure | None = None
+        self._findings: list[Finding] = []
+        self._bounds: list[InstanceBound] = []  # of the kept instances only
+        self._rounds_degree = 0
+        self._instances_seen = 0
+        self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
+                          InstanceStart: self._on_instance, FinalValue: self._on_final}
+        self._finished = False
+        if schedule is not None:
+            self._declare(schedule)
+
+    # ----- schedule ---------------------------------------------------------------
+    @property
+    def challenges(self) -> str:
+        """How challenges are checked, in words."""
+        if self.challenger is not None:
+            return "re-derived by the plug-in given with --challenges"
+        if self._sched is not None:
+            return f"re-derived by the built-in schedule {self._sched.name}"
+        if self.schedule_decl is not None:
+            return f"not re-derived: schedule {self.schedule_decl.name!r} is not built in (use --challenges)"
+        return "not re-derived: the transcript declares no schedule"
+
+    def _declare(self, decl: ScheduleDecl) -> None:
+        if self.schedule_decl is not None:
+            if decl != self.schedule_decl:
+                raise InputError(f"expected one schedule, found {self.schedule_decl.name!r} and {decl.name!r}")
+            return
+        self.schedule_decl = decl
+        self._log(decl)
+        if self.challenger is None and decl.name in BUILTIN_SCHEDULES:
+            self._start_builtin()
+
+    def _start_builtin(self) -> None:
+        if self._sched is None and self.field is not None and self.schedule_decl is not None:
+            self._sched = Sha256Schedule()
+            self._sched.observe(FieldDecl(self.field))
+            self._sched.observe(self.schedule_decl)
+
+    def _log(self, record: Event) -> None:
+        """Append a record to the plug-in history (field map first, once)."""
+        if self._history is None or self.field is None:
+            return
+        if not self._field_logged:
+            self._field_logged = True
+            self._history.append(history_payload(FieldDecl(self.field), self.field))  # type: ignore[arg-type]
+            if isinstance(record, FieldDecl):
+                return
+        payload = history_payload(record, self.field)
+        if payload is not None:
+            self._history.append(payload)
+
+    def _absorb(self, record: Event) -> None:
+        if self._sched is not None:
+            self._sched.observe(record)
+        self._log(record)
+
+    # ----- feeding ----------------------------------------------------------------
+    def feed(self, record: Event) -> list[Result]:
+        """Advance by one event record; returns the results this event resolved."""
+        handler = self._dispatch.get(record.__class__)
+        if handler is not None:
+            return handler(record)  # type: ignore[operator]
+        if isinstance(record, BatchDecl):
+            self._pending_batch = record
+            self._absorb(record)
+        elif isinstance(record, FieldDecl):
+            if self.field is not None and record.field != self.field:
+                raise InputError(f"expected one field, found {self.field.describe()} and {record.field.describe()}")
+            self.field = record.field
+            self._log(record)
+            self._start_builtin()
+        elif isinstance(record, ScheduleDecl):
+            self._declare(record)
+        return []
+
+    def _need_field(self) -> Field:
+        if self.field is None:
+            raise InputError("expected a field event before the first instance, found none")
+        return self.field
+
+    def _need_live(self, kind: str, instance: int) -> _Live:
+        live = self._live
+        if live is None or live.start.index != instance:
+            raise InputError(f"expected a `{kind}` event inside the instance it names, found it outside",
+                             Where(instance=instance))
+        return live
+
+    def _on_instance(self, start: InstanceStart) -> list[Result]:
+        field = self._need_field()
+        out = self._close()
+        batch = start.batch or self._pending_batch
+        self._pending_batch = None
+        history_start = len(self._history) if self._history is not None else 0
+        if batch is not None and self._history is not None:
+            history_start -= 1  # the batch map just logged belongs to this instance's statement
+        self._absorb(start)
+        live = _Live(start, self.keep_rounds, history_start)
+        self._live = live
+        self._instances_seen += 1
+        self._rounds_degree += start.num_vars * start.degree
+        if batch is not None:
+            combined = field.zero
+            power = field.one
+            for term in batch.terms:
+                combined = field.add(combined, field.mul(power, field.lift(term)))
+                power = field.mul(power, batch.coefficient)
+            ok = combined == field.lift(start.claim)
+            result = BatchResult(start.index, start.name, batch.coefficient, batch.terms, batch.sources, combined,
+                                 start.claim, "pass" if ok else "fail", None if ok else "batch",
+                                 batch_text(field, start, combined, ok))
+            live.batch = result
+            if not ok:
+                self._fail(live, Failure(start.index, start.name, 0, "batch", combined, start.claim,
+                                         result.explanation))
+            out.append(result)
+        return out
+
+    def _on_round(self, msg: RoundMsg) -> list[Result]:
+        field = self._need_field()
+        live = self._need_live("round", msg.instance)
+        out = self._resolve_pending(None) if live.pending is not None else []
+        start = live.start
+        values = msg.values
+        recovered = recovered_value = None
+        if values and start.form == "evals" and field.degree == 1:
+            evals = values  # the hot path: canonical ints, nothing to decode
+        else:
+            try:
+                poly = RoundPoly.from_form(field, start.form, values, live.claim) if values else None
+            except InputError:
+                poly = None
+            evals = poly.evals if poly is not None else ()
+            if poly is not None:
+                recovered, recovered_value = poly.recovered, poly.recovered_value
+        check: str | None = None
+        expected: object = None
+        found: object = None
+        if not evals:
+            check, expected, found = "shape", 1, 0
+            evals = (field.zero,)
+        elif len(evals) > start.degree + 1:
+            check, expected, found = "degree", start.degree + 1, len(evals)
+        else:
+            g0 = evals[0]
+            total = field.add(g0, evals[1] if len(evals) > 1 else g0)
+            if total != field.lift(live.claim):
+                check, expected, found = "sum", live.claim, total
+        live.pending = (msg, evals, recovered, recovered_value, check, expected, found)
+        if self._sched is not None:
+            self._sched.observe(msg)
+        if self._history is not None:
+            self._log(msg)
+        return out
+
+    def _on_challenge(self, msg: ChallengeMsg) -> list[Result]:
+        live = self._need_live("challenge", msg.instance)
+        if live.pending is None:
+            raise InputError("expected a round before its challenge, found a challenge alone",
+                             Where(instance=live.start.name, round=msg.round))
+        return self._resolve_pending(msg)
+
+    def _rederive(self, live: _Live, round_: int) -> Element | None:
+        field = self.field
+        assert field is not None
+        if self.challenger is not None and self._history is not None:
+            where = Where(instance=live.start.name, round=round_)
+            value = call_challenger(self.challenger, History(self._history), field, where)
+            if live.start.index < self.probe_instances:
+                positions = [len(self._history) - 1]
+                if round_ == 1:
+                    positions = list(range(live.history_start, len(self._history)))
+                for finding in probe_binding(self.challenger, self._history, positions, field,
+                                             live.start.index, live.start.name, round_):
+                    self._note_finding(finding)
+            return value
+        if self._sched is not None:
+            return self._sched.challenge()
+        return None
+
+    def _note_finding(self, finding: Finding) -> None:
+        if not any(f.kind == finding.kind and f.instance == finding.instance for f in self._findings):
+            self._findings.append(finding)
+
+    def _resolve_pending(self, msg: ChallengeMsg | None) -> list[Result]:
+        live = self._live
+        assert live is not None and live.pending is not None and self.field is not None
+        field = self.field
+        round_msg, evals, recovered, recovered_value, check, expected, found = live.pending
+        live.pending = None
+        k = round_msg.round
+        start = live.start
+        challenge = rederived = claim_out = None
+        if msg is not None:
+            challenge = msg.value
+            rederived = self._rederive(live, k)
+            if check is None and rederived is not None and rederived != challenge:
+                check, expected, found = "challenge", rederived, challenge
+            claim_out = evaluate_round(field, evals, challenge, Where(instance=start.name, round=k))
+            if self._history is not None:
+                self._log(msg)
+        after = live.failure is not None
+        live.seen = k
+        if check is None and msg is not None:
+            if not after:
+                live.passed = k
+            if not self.emit_passing:
+                live.claim = claim_out  # type: ignore[assignment]
+                return []
+        result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
+                                    challenge, rederived, claim_out, after)
+        if check is not None:
+            self._fail(live, Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
+                                     result.explanation))
+        if claim_out is not None:
+            live.claim = claim_out
+        if live.rounds is not None:
+            live.rounds.append(result)
+        return [result]
+
+    def _round_result(self, live: _Live, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
+                      recovered_value: Element | None, check: str | None, expected: object, found: object,
+                      challenge: Element | None, rederived: Element | None, claim_out: Element | None,
+                      after: bool) -> RoundResult:
+        field = self.field
+        assert field is not None
+        start, k = live.start, msg.round
+        g0 = evals[0]
+        g1 = evals[1] if len(evals) > 1 else evals[0]
+        status = "fail" if check is not None else ("pass" if challenge is not None else "pending")
+        poly = RoundPoly(tuple(evals), recovered, recovered_value)
+        text = round_text(field, start, k, live.claim, poly, check, expected, found, challenge, rederived,
+                          claim_out, self.challenges)
+        return RoundResult(
+            start.index, start.name, k, start.form, live.claim, msg.values, tuple(evals), recovered,
+            recovered_value, g0, g1, field.add(g0, g1), len(evals) - 1, start.degree, challenge, rederived,
+            claim_out, status, check, expected, found, text, after,  # type: ignore[arg-type]
+        )
+
+    def _on_final(self, msg: FinalValue) -> list[Result]:
+        live = self._need_live("final", msg.instance)
+        field = self._need_field()
+        out = self._resolve_pending(None) if live.pending is not None else []
+        start = live.start
+        reduced = live.claim if live.seen == start.num_vars else None
+        ok = reduced is not None and field.lift(reduced) == field.lift(msg.value)
+        check = None if ok else "final"
+        result = FinalResult(start.index, start.name, start.num_vars, reduced, msg.value,
+                             "pass" if ok else "fail", check, None if ok else msg.value, None if ok else reduced,
+                             final_text(field, start, reduced, msg.value, ok))
+        live.final = result
+        if not ok:
+            self._fail(live, Failure(start.index, start.name, start.num_vars, "final", msg.value, reduced,
+                                     result.explanation))
+        out.append(result)
+        return out
+
+    def _fail(self, live: _Live, failure: Failure) -> None:
+        if live.failure is None:
+            live.failure = failure
+        if self._first is None:
+            self._first = failure
+
+    # ----- closing ----------------------------------------------------------------
+    def _close(self) -> list[Result]:
+        live = self._live
+        if live is None:
+            return []
+        out = self._resolve_pending(None) if live.pending is not None else []
+        start = live.start
+        status = "fail" if live.failure else ("pass" if live.passed == start.num_vars else "incomplete")
+        self._counts[status] += 1
+        keep = self.keep_instances is None or len(self._summaries) < self.keep_instances
+        if not keep and status == "fail" and self._kept_failures < (self.keep_instances or 0):
+            keep = True
+        if keep:
+            self._bounds.append(InstanceBound(start.index, start.name, start.num_vars, start.degree,
+                                              self.field.order if self.field is not None else 0))
+            self._kept_failures += status == "fail"
+            self._summaries.append(InstanceSummary(
+                start.index, start.name, start.num_vars, start.degree, start.order, start.form, start.claim,
+                status, live.seen, live.passed, live.failure, live.final, live.batch,  # type: ignore[arg-type]
+                tuple(live.rounds or ())))
+        self._live = None
+        return out
+
+    def finish(self) -> list[Result]:
+        """Resolve what is still pending (a round without its challenge) and close the last instance."""
+        if self._finished:
+            return []
+        self._finished = True
+        return self._close()
+
+    def report(self, completeness: str = "complete") -> Report:
+        """The verdict so far (finishes the replay); ``completeness`` is what the store says of the file."""
+        self.finish()
+        if self._first is not None:
+            verdict = "reject"
+        elif completeness != "complete" or self._counts["incomplete"]:
+            verdict = "incomplete"
+        else:
+            verdict = "accept"
+        order = self.field.order if self.field is not None else 0
+        soundness = SoundnessSummary(order, self._rounds_degree, self._instances_seen, tuple(self._bounds))
+        return Report(self.field, verdict, self._first, tuple(self._summaries),  # type: ignore[arg-type]
+                      dict(self._counts), soundness, tuple(self._findings), self.challenges, completeness,
+                      PASSING_REPLAY_WARNING)
+
+
+def transcript_events(transcript: Transcript) -> Iterable[Event]:
+    """The records a folded transcript was made of, in stream order (notes and buckets left out)."""
+    yield FieldDecl(transcript.field)
+    if transcript.schedule is not None:
+        yield transcript.schedule
+    for inst in transcript.instances:
+        if inst.start.batch is not None:
+            yield inst.start.batch
+        yield inst.start
+        for rnd in inst.rounds:
+            yield RoundMsg(rnd.instance, rnd.number, rnd.values)
+            if rnd.challenge is not None:
+                yield ChallengeMsg(rnd.instance, rnd.number, rnd.challenge)
+        if inst.final is not None:
+            yield FinalValue(inst.start.index, inst.final)
+
+
+def replay_transcript(transcript: Transcript, challenger: Challenger | None = None, *,
+                      keep_rounds: bool = True) -> Report:
+    """Replay a whole folded transcript with round detail kept."""
+    replay = Replay(transcript.field, challenger=challenger, keep_rounds=keep_rounds)
+    for record in transcript_events(transcript):
+        replay.feed(record)
+    return replay.report(transcript.completeness)

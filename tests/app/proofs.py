@@ -1,0 +1,137 @@
+"""Demo proofs for the app tests: the invented Brackwater Ferries scenario.
+
+For sailing isle-of-quill-0740 the gate scanner's boarding log must be a
+permutation of the booking ledger (instance ``boarding-permutation``, a direct
+product check, and ``boarding-permutation-grouped``, its bucketed form that
+also reports bucket occupancy), and every car-deck slot record must be well
+formed (``deck-slots-zero``, sent in the compressed form ``evals-no-1``).
+
+The round polynomials are computed here in plain Python integers from the
+definition of the sumcheck protocol, g_k(t) = sum over the free variables of
+the summand with x_k = t (Lund, Fortnow, Karloff and Nisan, "Algebraic methods
+for interactive proof systems", 1992; the variable order and folding are
+common practice, no source), independently of stepper.honest and
+stepper.verify. Challenges come from the built-in Fiat-Shamir schedule, which
+the prover side observes exactly as the replay will. The field is BabyBear,
+p = 15 * 2^27 + 1 (common practice, no source). The data values are invented.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, Callable
+
+from stepper.events import Sequencer
+from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+
+P = 15 * 2**27 + 1
+Payload = dict[str, Any]
+Tamper = Callable[[str, int, Payload], Payload]
+
+
+def _round_poly(tables: list[list[int]], degree: int) -> list[int]:
+    evals = []
+    for t in range(degree + 1):
+        total = 0
+        for i in range(0, len(tables[0]), 2):
+            term = 1
+            for table in tables:
+                term = term * (table[i] + t * (table[i + 1] - table[i])) % P
+            total += term
+        evals.append(total % P)
+    return evals
+
+
+def _fold(table: list[int], r: int) -> list[int]:
+    return [(table[i] + r * (table[i + 1] - table[i])) % P for i in range(0, len(table), 2)]
+
+
+def _tables(name: str, mu: int) -> list[list[int]]:
+    n = 1 << mu
+    ledger = [(7 * i * i + 3 * i + 11) % P for i in range(n)]
+    gate = [(5 * i + 2) % P for i in range(n)]
+    slots = [(31 * i + 4) % P for i in range(n)]
+    if name.startswith("deck"):
+        return [slots, gate, ledger]
+    return [ledger, gate]
+
+
+def brackwater_payloads(
+    mu: int = 4,
+    instances: tuple[str, ...] = ("boarding-permutation", "boarding-permutation-grouped", "deck-slots-zero"),
+    tamper: Tamper | None = None,
+    stop_after: int | None = None,
+) -> list[Payload]:
+    """The event payloads of one sailing's proof; ``tamper(instance_name, round, payload)``
+    may rewrite a round payload before it is sent (the prover then derives its next
+    challenge from what it sent, so only the tampered check fails)."""
+    seq = Sequencer()
+    schedule = Sha256Schedule()
+    out: list[Payload] = []
+
+    def emit(payload: Payload) -> None:
+        schedule.observe(seq.feed(payload))
+        out.append(payload)
+
+    emit({"type": "field", "name": "babybear"})
+    emit({"type": "schedule", "name": SCHEDULE_NAME, "label": "brackwater-ferries/isle-of-quill-0740"})
+    for name in instances:
+        tables = _tables(name, mu)
+        degree = len(tables)
+        claim = 0
+        for i in range(1 << mu):
+            term = 1
+            for table in tables:
+                term = term * table[i] % P
+            claim = (claim + term) % P
+        form = "evals-no-1" if name.startswith("deck") else "evals"
+        emit({"type": "instance", "name": name, "num_vars": mu, "degree": degree, "claim": claim, "form": form})
+        for k in range(1, mu + 1):
+            evals = _round_poly(tables, degree)
+            sent = evals if form == "evals" else [evals[0], *evals[2:]]
+            payload: Payload = {"type": "round", "evals": sent}
+            if tamper is not None:
+                payload = tamper(name, k, payload)
+            emit(payload)
+            r = schedule.challenge()
+            emit({"type": "challenge", "value": r})
+            tables = [_fold(t, r) for t in tables]
+            if name.endswith("grouped"):
+                remaining = 1 << (mu - k)
+                sizes = [(3 * k + b) % 4 + 1 for b in range(1 << max(0, mu - k - 1))]
+                emit({"type": "buckets", "round": k, "chunk": 0, "count": len(sizes), "sizes": sizes,
+                      "bound_log2": mu - k, "remaining": remaining})
+        value = 1
+        for t in tables:
+            value = value * t[0] % P
+        emit({"type": "final", "value": value})
+    return out[:stop_after] if stop_after is not None else out
+
+
+def bump_g1(target: str, round_: int) -> Tamper:
+    """A tamper that adds 1 to g(1) of one round (the sum check of that round fails)."""
+
+    def hook(name: str, k: int, payload: Payload) -> Payload:
+        if name == target and k == round_:
+            evals = list(payload["evals"])
+            evals[1] = (evals[1] + 1) % P
+            return {**payload, "evals": evals}
+        return payload
+
+    return hook
+
+
+def write_transcript(path: Path, payloads: list[Payload], *, finish: bool = True,
+                     metadata: dict[str, Any] | None = None) -> Path:
+    """Write the payloads as a stepper transcript (with the end event when ``finish``)."""
+    from stepper.store import TranscriptWriter
+
+    writer = TranscriptWriter(path, metadata=metadata or {"sailing": "isle-of-quill-0740",
+                                                          "created": "2026-01-01T07:40:00Z"})
+    for payload in payloads:
+        writer.write_payload(payload)
+    if finish:
+        writer.finish()
+    else:
+        writer.close()
+    return path

@@ -1,0 +1,177 @@
+"""Pilot tests: every key of the proof view, the bucket charts, the key list, notes, exports."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from stepper.app.app import StepperApp
+from stepper.app.ask_screen import AskScreen
+from stepper.app.buckets_screen import BucketsScreen
+from stepper.app.help_screen import HelpScreen
+from stepper.app.proof_screen import ProofScreen, parse_round_target
+from stepper.app.round_detail import ReadoutPanel
+from stepper.store import load
+
+SIZE = (140, 44)
+
+
+def app_for(path: Path, tmp: Path) -> StepperApp:
+    return StepperApp.from_file(path, export_dir=tmp)
+
+
+def detail_text(app: StepperApp) -> str:
+    return app.proof_screen.query_one("#detail", ReadoutPanel).plain()
+
+
+async def test_step_keys_move_one_round_and_cross_instances(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        screen = app.proof_screen
+        assert screen.position == (0, 1)
+        await pilot.press("full_stop", "full_stop")
+        assert screen.position == (0, 3)
+        await pilot.press("full_stop", "full_stop")
+        assert screen.position == (1, 1)
+        await pilot.press("comma")
+        assert screen.position == (0, 4)
+        assert "round: 4 of 4" in detail_text(app)
+
+
+async def test_instance_keys_hop_to_round_one_of_the_next_or_previous_instance(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("greater_than_sign", "greater_than_sign", "greater_than_sign")
+        assert app.proof_screen.position == (2, 1)  # clamped at the last instance
+        await pilot.press("less_than_sign")
+        assert app.proof_screen.position == (1, 1)
+
+
+async def test_failure_keys_jump_to_the_first_and_then_the_next_failure(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("exclamation_mark")
+        assert app.proof_screen.position == (1, 2)
+        assert "✕ fail (sum)" in detail_text(app)
+        await pilot.press("x")
+        assert app.proof_screen.position == (1, 3)
+        await pilot.press("x")
+        assert app.proof_screen.position == (1, 2)  # wrapped
+
+
+async def test_failure_keys_on_an_honest_proof_say_there_is_none(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("exclamation_mark")
+        assert app.proof_screen.last_message == "no failed check so far"
+        await pilot.press("x")
+        assert app.proof_screen.position == (0, 1)
+
+
+async def test_the_table_cursor_moves_the_detail_pane(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("down", "down")
+        await pilot.pause()
+        assert app.proof_screen.position == (0, 3)
+
+
+async def test_go_to_round_accepts_n_and_instance_colon_round(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("r")
+        assert isinstance(app.screen, AskScreen)
+        await pilot.press("3", "enter")
+        assert app.proof_screen.position == (0, 3)
+        await pilot.press("r", "2", "colon", "4", "enter")
+        assert app.proof_screen.position == (2, 4)
+        await pilot.press("r", "9", "enter")
+        assert app.proof_screen.position == (2, 4)
+        assert "expected a round number that exists" in app.proof_screen.last_message
+        await pilot.press("r", "escape")
+        assert isinstance(app.screen, ProofScreen)
+
+
+async def test_seek_finds_a_value_and_moves_to_its_round(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        challenge = app.model.instances[1].challenges[1]
+        await pilot.press("s", *str(challenge), "enter")
+        assert app.proof_screen.position == (1, 2)
+        await pilot.press("s", "b", "o", "g", "u", "s", "enter")
+        assert "appears in no round" in app.proof_screen.last_message
+
+
+async def test_a_note_is_saved_in_the_file_and_the_digest_still_verifies(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("full_stop", "a", *"gate 3 rescanned", "enter")
+        assert "gate 3 rescanned" in detail_text(app)
+    transcript = load(honest_file)
+    notes = transcript.all_notes()
+    assert [(n.text, n.instance, n.round) for n in notes] == [("gate 3 rescanned", 0, 2)]
+    assert transcript.digest == "verified"
+
+
+async def test_the_bucket_key_opens_charts_that_switch_instance(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("greater_than_sign", "o")
+        assert isinstance(app.screen, BucketsScreen)
+        assert app.screen.instance == 1
+        await pilot.press("greater_than_sign")
+        assert app.screen.instance == 2
+        await pilot.press("k")
+        assert isinstance(app.screen, HelpScreen)
+        await pilot.press("escape", "escape")
+        assert isinstance(app.screen, ProofScreen)
+
+
+async def test_the_key_list_names_every_binding_of_the_proof_view(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("k")
+        assert isinstance(app.screen, HelpScreen)
+        described = {d for _, d in app.screen.entries}
+        assert described == {b.description for b in ProofScreen.BINDINGS}
+        await pilot.press("escape", "f1")
+        assert isinstance(app.screen, HelpScreen)
+        await pilot.press("f1")
+        assert isinstance(app.screen, ProofScreen)
+
+
+async def test_exports_write_an_svg_and_a_markdown_report(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("exclamation_mark", "e", "t")
+    svg = tmp_path / "isle-of-quill-0740.i1.r2.svg"
+    report = tmp_path / "isle-of-quill-0740.i1.r2.md"
+    assert svg.read_text().lstrip().startswith("<svg")
+    text = report.read_text()
+    assert "Where I was looking: instance 1 (boarding-permutation-grouped), round 2" in text
+    assert "evidence about" in text
+
+
+async def test_live_key_keeps_the_cursor_on_the_newest_round(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("l")
+        assert app.proof_screen.live
+        assert app.proof_screen.position == (2, 4)
+        await pilot.press("l")
+        assert not app.proof_screen.live
+
+
+async def test_q_quits(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("q")
+        await pilot.pause()
+    assert app.return_code == 0 or app.return_code is None
+    assert not app.is_running
+
+
+def test_round_targets_parse_as_n_or_instance_colon_round():
+    assert parse_round_target("7", 2) == (2, 7)
+    assert parse_round_target("1:3", 2) == (1, 3)
+    assert parse_round_target("1/3", 0) == (1, 3)
+    assert parse_round_target("x", 0) is None

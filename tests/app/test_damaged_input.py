@@ -1,0 +1,76 @@
+"""Damaged and hostile input: the app opens with a clear message, the CLI exits 2 in one line."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+from proofs import brackwater_payloads, write_transcript
+
+from stepper.app.app import StepperApp
+from stepper.app.round_detail import ReadoutPanel
+
+
+def summary_text(app: StepperApp) -> str:
+    return app.proof_screen.query_one("#summary", ReadoutPanel).plain()
+
+
+def write_lines(path, payloads) -> None:
+    path.write_text("".join(json.dumps(p) + "\n" for p in payloads))
+
+
+async def test_a_hostile_field_opens_with_the_reason_instead_of_crashing(tmp_path):
+    path = tmp_path / "hostile.jsonl"
+    # 2^64 + 1 = 274177 * 67280421310721 is composite (Landry, 1880): not a field.
+    write_lines(path, [{"type": "field", "modulus": str(2**64 + 1)}, {"type": "instance", "name": "x"}])
+    app = StepperApp.from_file(path, export_dir=tmp_path)
+    async with app.run_test(size=(140, 44)) as pilot:
+        await pilot.press("full_stop", "exclamation_mark", "o", "escape")
+        text = summary_text(app)
+        assert "stopped reading" in text and "prime" in text
+        assert app.model.instances == []
+
+
+async def test_a_truncated_tail_shows_every_whole_event_and_says_incomplete(tmp_path):
+    path = write_transcript(tmp_path / "cut.stp", brackwater_payloads(instances=("boarding-permutation",)))
+    data = path.read_bytes()
+    path.write_bytes(data[: len(data) - 60])  # the end event and part of the final are gone
+    app = StepperApp.from_file(path, export_dir=tmp_path)
+    async with app.run_test(size=(140, 44)):
+        assert app.model.completeness == "incomplete"
+        assert app.model.verdict() == "incomplete"
+        assert app.model.round_count == 4
+        assert "incomplete" in summary_text(app)
+
+
+async def test_a_bad_event_part_way_keeps_what_came_before_and_names_the_line(tmp_path):
+    payloads = brackwater_payloads(instances=("boarding-permutation",))
+    payloads[5] = {"type": "round", "evals": [2**40, 1, 2]}  # above the BabyBear modulus
+    path = tmp_path / "bad-round.jsonl"
+    write_lines(path, payloads)
+    app = StepperApp.from_file(path, export_dir=tmp_path)
+    async with app.run_test(size=(140, 44)):
+        text = summary_text(app)
+        assert "line 6" in text
+        assert app.model.round_count == 1
+
+
+def run_view(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "stepper", "view", *args], capture_output=True, text=True,
+                          timeout=60)
+
+
+def test_view_of_an_unreadable_file_exits_2_with_one_line(tmp_path):
+    proc = run_view(str(tmp_path / "missing.stp"))
+    assert proc.returncode == 2
+    assert proc.stderr.count("\n") == 1 and "missing.stp" in proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
+def test_view_of_a_hostile_field_exits_2_with_one_line(tmp_path):
+    path = tmp_path / "hostile.jsonl"
+    write_lines(path, [{"type": "field", "modulus": "4"}])
+    proc = run_view(str(path))
+    assert proc.returncode == 2
+    assert proc.stderr.startswith("stepper view: ") and proc.stderr.count("\n") == 1

@@ -1,0 +1,248 @@
+"""`stepper check`: the check contract of DESIGN.md (exit codes, JSON keys), human output,
+the plug-in route, the witness route and hostile files (never a traceback).
+
+Honest runs come from tests/plain_sumcheck.py (plain integers, independent of stepper);
+the worked example is J. Thaler, "Proofs, Arguments, and Zero-Knowledge", section 4.1
+(from memory).
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings, strategies as st
+
+sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer prover
+
+from plain_sumcheck import BABYBEAR, Plain, instance_payloads, jsonl, product_rounds, thaler_payloads  # noqa: E402
+from stepper.cli.main import main  # noqa: E402
+from stepper.store import TranscriptWriter  # noqa: E402
+
+CHALLENGES = (5, 7, 11)
+
+
+def honest() -> list[dict]:
+    payloads = thaler_payloads(Plain(BABYBEAR), CHALLENGES)
+    payloads.append({"type": "note", "text": "scanner 3 restarted before this sailing", "round": 2})
+    return payloads
+
+
+def write_jsonl(path: Path, payloads: list[dict]) -> Path:
+    path.write_text(jsonl(payloads))
+    return path
+
+
+def write_stp(path: Path, payloads: list[dict], finish: bool = True) -> Path:
+    writer = TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"})
+    for p in payloads:
+        writer.write_payload(p)
+    writer.finish() if finish else writer.close()
+    return path
+
+
+def check(capsys, *argv: str) -> tuple[int, str, str]:
+    code = main(["check", *argv])
+    out = capsys.readouterr()
+    return code, out.out, out.err
+
+
+def test_honest_event_file_is_accepted_with_a_table_and_notes(tmp_path, capsys):
+    code, out, err = check(capsys, str(write_jsonl(tmp_path / "run.jsonl", honest())))
+    assert code == 0 and err == ""
+    assert "boarding-permutation" in out and "ACCEPTED" in out
+    assert "scanner 3 restarted before this sailing" in out
+    assert "proves nothing about the soundness" in out
+    assert "\x1b[" not in out  # no colour when stdout is not a terminal
+
+
+def test_honest_transcript_json_follows_the_contract(tmp_path, capsys):
+    code, out, _ = check(capsys, str(write_stp(tmp_path / "run.stp", honest())), "--json")
+    data = json.loads(out)
+    assert code == 0 and data["verdict"] == "accept" and data["first_failure"] is None
+    assert data["instances"][0]["name"] == "boarding-permutation"
+    assert [(r["round"], r["status"]) for r in data["instances"][0]["rounds"]] == [(1, "pass"), (2, "pass"),
+                                                                                   (3, "pass")]
+    assert data["instances"][0]["rounds"][0]["values"] == ["1", "11", "69", "223"]  # Thaler 4.1, from memory
+    assert data["soundness"]["numerator"] == "9"  # v * d = 3 * 3
+
+
+@pytest.mark.parametrize("mutate, round_, check_name", [
+    (lambda p: p[4]["evals"].__setitem__(1, p[4]["evals"][1] + 1), 2, "sum"),
+    (lambda p: p[4]["evals"].__setitem__(3, p[4]["evals"][3] + 1), 3, "sum"),
+    (lambda p: p[8].__setitem__("value", p[8]["value"] + 1), 3, "final"),
+    (lambda p: p[2]["evals"].append(0), 1, "degree"),
+    (lambda p: p[1].__setitem__("claim", 13), 1, "sum"),
+])
+def test_single_faults_exit_1_with_round_and_check(tmp_path, capsys, mutate, round_, check_name):
+    payloads = honest()
+    mutate(payloads)
+    code, out, _ = check(capsys, str(write_stp(tmp_path / "bad.stp", payloads)), "--json")
+    ff = json.loads(out)["first_failure"]
+    assert code == 1
+    assert (ff["instance"], ff["instance_name"], ff["round"], ff["check"]) == (0, "boarding-permutation", round_,
+                                                                               check_name)
+
+
+def test_human_output_states_the_first_failure_in_words(tmp_path, capsys):
+    payloads = honest()
+    payloads[4]["evals"][0] += 1
+    code, out, _ = check(capsys, str(write_jsonl(tmp_path / "bad.jsonl", payloads)))
+    carried = payloads[4]["evals"][0] - 1 + payloads[4]["evals"][1]
+    assert code == 1 and "REJECTED at instance 0 'boarding-permutation', round 2, check sum" in out
+    assert f"round 2: g(0)+g(1) = {carried + 1}, but round 1 carried the claim g1(r1) = {carried}" in out
+
+
+def test_transcript_that_stops_early_exits_3(tmp_path, capsys):
+    path = write_stp(tmp_path / "cut.stp", honest()[:6], finish=False)
+    code, out, _ = check(capsys, str(path), "--json")
+    assert code == 3 and json.loads(out)["verdict"] == "incomplete"
+    code, out, _ = check(capsys, str(path))
+    assert code == 3 and "INCOMPLETE" in out
+
+
+def test_unfinished_file_with_every_round_present_is_still_incomplete(tmp_path, capsys):
+    code, out, _ = check(capsys, str(write_stp(tmp_path / "nofinish.stp", honest(), finish=False)), "--json")
+    assert code == 3 and json.loads(out)["completeness"] == "incomplete"
+
+
+@pytest.mark.parametrize("content", [
+    '{"type": "field", "name": "no-such-field"}\n',
+    '{"type": "field", "name": "babybear"}\n{"type": "round", "evals": [1, 2]}\n',
+    '{"type": "field", "name": "babybear"}\n{"type": "instance", "name": "x", "num_vars": 1, "degree": 1, '
+    '"claim": 2013265921}\n',
+    "not json at all\n",
+    "",
+])
+def test_unusable_input_is_one_line_and_exit_2(tmp_path, capsys, content):
+    path = tmp_path / "bad.jsonl"
+    path.write_text(content)
+    code, out, err = check(capsys, str(path))
+    assert code == 2 and out == ""
+    assert err.startswith("stepper check: ") and err.count("\n") == 1
+
+
+def test_missing_file_and_bad_flags_exit_2(tmp_path, capsys):
+    assert check(capsys, str(tmp_path / "absent.stp"))[0] == 2
+    path = write_jsonl(tmp_path / "run.jsonl", honest())
+    assert check(capsys, str(path), "--challenges", "no_colon_here")[0] == 2
+    assert check(capsys, str(path), "--challenges", str(tmp_path / "missing.py") + ":derive")[0] == 2
+
+
+FORGETFUL_PLUGIN = '''
+import hashlib
+
+def derive(history):
+    """A port that hashes every message except the claim (the bug under test)."""
+    h = hashlib.sha256()
+    for event in history[1:]:
+        h.update(repr(sorted((k, v) for k, v in event.items() if k != "claim")).encode())
+    return int.from_bytes(h.digest(), "little") % int(history[0]["modulus"])
+'''
+
+
+def _plugin_payloads(derive) -> list[dict]:
+    ar = Plain(BABYBEAR)
+    tables = [[3, 1, 4, 1], [5, 9, 2, 6]]
+    claim = sum(a * b for a, b in zip(*tables)) % BABYBEAR
+    history = [{"type": "field", "modulus": str(BABYBEAR)},
+               {"type": "instance", "name": "deck-slots-zero", "num_vars": 2, "degree": 2, "claim": claim,
+                "order": "low-first", "form": "evals"}]
+
+    def challenge(k, evals):
+        history.append({"type": "round", "evals": evals})
+        r = derive(history)
+        history.append({"type": "challenge", "value": r})
+        return r
+
+    rounds, rs, final = product_rounds(ar, tables, challenge)
+    return [ar.spec(), *instance_payloads(ar, "deck-slots-zero", 2, 2, claim, rounds, rs, final)]
+
+
+def test_plugin_forgetting_the_claim_is_reported_as_a_finding(tmp_path, capsys):
+    plugin = tmp_path / "ferry_channel.py"
+    plugin.write_text(FORGETFUL_PLUGIN)
+    namespace: dict = {}
+    exec(FORGETFUL_PLUGIN, namespace)
+    path = write_jsonl(tmp_path / "run.jsonl", _plugin_payloads(namespace["derive"]))
+    code, out, _ = check(capsys, str(path), "--challenges", f"{plugin}:derive", "--json")
+    data = json.loads(out)
+    assert code == 0 and data["verdict"] == "accept"
+    assert [f["kind"] for f in data["findings"]] == ["unbound-claim"]
+    code, out, _ = check(capsys, str(path), "--challenges", f"{plugin}:derive")
+    assert "the claimed sum is not bound into the challenges" in out
+
+
+def test_witness_adds_the_root_cause(tmp_path, capsys):
+    ar = Plain(BABYBEAR)
+    tables = {"fare": [3, 1, 4, 1], "seat": [5, 9, 2, 6]}
+    rounds, rs, final = product_rounds(ar, list(tables.values()), lambda k, ev: [13, 17][k - 1])
+    rounds[0][2] = (rounds[0][2] + 1) % BABYBEAR  # sum-consistent lie in round 1, visible in round 2
+    payloads = [ar.spec(), *instance_payloads(ar, "deck-slots-zero", 2, 2, 38, rounds, rs, final)]
+    path = write_jsonl(tmp_path / "run.jsonl", payloads)
+    witness = tmp_path / "witness.json"
+    witness.write_text(json.dumps({"instances": [{"name": "deck-slots-zero", "tables": tables,
+                                                  "combine": "fare * seat"}]}))
+    code, out, _ = check(capsys, str(path), "--witness", str(witness), "--json")
+    data = json.loads(out)
+    assert code == 1 and data["first_failure"]["round"] == 2
+    assert data["root_cause"]["round"] == 1 and data["root_cause"]["check"] == "honest-poly"
+    code, out, _ = check(capsys, str(path), "--witness", str(witness))
+    assert "root cause" in out
+
+
+def test_command_line_run_has_no_traceback_and_no_colour_in_a_pipe(tmp_path):
+    payloads = honest()
+    payloads[4]["evals"][0] += 1
+    path = write_stp(tmp_path / "bad.stp", payloads)
+    proc = subprocess.run([sys.executable, "-m", "stepper", "check", str(path)], capture_output=True, text=True)
+    assert proc.returncode == 1 and "Traceback" not in proc.stderr and "\x1b[" not in proc.stdout
+    raw = path.read_bytes()
+    path.write_bytes(raw[:40] + bytes([raw[40] ^ 0xFF]) + raw[41:])
+    proc = subprocess.run([sys.executable, "-m", "stepper", "check", str(path)], capture_output=True, text=True)
+    assert proc.returncode == 2 and proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
+
+
+_STP_BYTES: dict[str, bytes] = {}
+
+
+def _stp_bytes(tmp: Path) -> bytes:
+    if "honest" not in _STP_BYTES:
+        _STP_BYTES["honest"] = write_stp(tmp / "seed.stp", honest()).read_bytes()
+    return _STP_BYTES["honest"]
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(st.data())
+def test_hostile_files_never_crash_the_check(tmp_path, capsys, data):
+    kind = data.draw(st.sampled_from(["stp", "jsonl"]))
+    raw = bytearray(_stp_bytes(tmp_path) if kind == "stp" else jsonl(honest()).encode())
+    for _ in range(data.draw(st.integers(1, 4))):
+        action = data.draw(st.sampled_from(["flip", "cut", "insert"]))
+        pos = data.draw(st.integers(0, max(0, len(raw) - 1)))
+        if action == "flip" and raw:
+            raw[pos] ^= data.draw(st.integers(1, 255))
+        elif action == "cut":
+            del raw[pos:]
+        else:
+            raw[pos:pos] = data.draw(st.binary(min_size=1, max_size=8))
+    path = tmp_path / f"hostile.{kind}"
+    path.write_bytes(bytes(raw))
+    code, out, err = check(capsys, str(path), "--json")
+    assert code in (0, 1, 2, 3), err
+    if code == 2:
+        assert err.count("\n") == 1 and err.startswith("stepper check: ")
+    else:
+        assert json.loads(out)["verdict"] in ("accept", "reject", "incomplete")
+
+
+def test_many_instances_show_a_bounded_table(tmp_path, capsys):
+    payloads = honest()[:-1]
+    body = payloads[1:]
+    many = [payloads[0]] + [copy.deepcopy(p) for _ in range(40) for p in body]
+    code, out, _ = check(capsys, str(write_jsonl(tmp_path / "many.jsonl", many)), "--rows", "5")
+    assert code == 0 and "35 more instance(s) not shown" in out
