@@ -166,7 +166,7 @@ class Comparison:
         return self.divergence is None
 
     def to_json(self, label_a: str | None = None, label_b: str | None = None) -> dict[str, Any]:
-        """The ``stepper diff --json`` object (schema ``stepper-diff/1``, see DEVELOPERS notes)."""
+        """The ``stepper diff --json`` object, described by :data:`JSON_SCHEMA` (``stepper diff --schema``)."""
 
         def side(field: Field, completeness: str, label: str | None, key: str) -> dict[str, Any]:
             count = sum(1 for p in self.pairs if getattr(p, key) is not None)
@@ -212,12 +212,8 @@ def compare(a: Transcript, b: Transcript) -> Comparison:
     """Align A and B, find the first divergence and classify it."""
     from stepper.divergence import find_divergence
 
-    if a.field != b.field:
-        pairs: tuple[InstancePair, ...] = tuple(
-            InstancePair(p, _get(a, p.a), _get(b, p.b), ()) for p in pair_instances(a, b)
-        )
-    else:
-        pairs = tuple(_pair_rounds(a.field, p, _get(a, p.a), _get(b, p.b)) for p in pair_instances(a, b))
+    same_field = a.field == b.field
+    pairs = tuple(_pair_rounds(a.field, p, _get(a, p.a), _get(b, p.b), same_field) for p in pair_instances(a, b))
     divergence, classification, remarks = find_divergence(a, b, pairs)
     return Comparison(
         a.field, b.field, a.completeness, b.completeness, pairs, divergence, classification, tuple(remarks)
@@ -287,9 +283,16 @@ def same_poly(field: Field, ea: tuple[Element, ...], eb: tuple[Element, ...]) ->
     )
 
 
-def _pair_rounds(field: Field, pairing: Pairing, ia: InstanceRecord | None, ib: InstanceRecord | None) -> InstancePair:
+def _pair_rounds(field: Field, pairing: Pairing, ia: InstanceRecord | None, ib: InstanceRecord | None,
+                 comparable: bool) -> InstancePair:
+    """Rounds side by side; over different fields they are listed but neither decoded nor compared."""
     if ia is None or ib is None:
         return InstancePair(pairing, ia, ib, ())
+    if not comparable:
+        rounds = [RoundPair(k + 1, ia.rounds[k] if k < len(ia.rounds) else None,
+                            ib.rounds[k] if k < len(ib.rounds) else None, None, None, None, None)
+                  for k in range(max(len(ia.rounds), len(ib.rounds)))]
+        return InstancePair(pairing, ia, ib, tuple(rounds))
     ea, eb = decoded_rounds(field, ia), decoded_rounds(field, ib)
     rounds: list[RoundPair] = []
     for k in range(max(len(ia.rounds), len(ib.rounds))):

@@ -28,11 +28,10 @@ from stepper.diff import (
 )
 from stepper.field import Element, Field
 from stepper.poly import lagrange_at
+from stepper.radix import constant_ratio, factor_name
 from stepper.transcript import InstanceRecord, Transcript
 
-__all__ = ["find_divergence", "constant_ratio", "factor_name", "RADIX_BITS"]
-
-RADIX_BITS = (16, 32, 64, 128, 192, 256, 320, 384, 448, 512)
+__all__ = ["find_divergence"]
 
 Found = tuple[Divergence | None, Classification, list[str]]
 
@@ -95,8 +94,14 @@ def _instance_order(field: Field, a: Transcript, b: Transcript, pairs: Sequence[
 def _scan(field: Field, pairs: Sequence[InstancePair]) -> Found:
     """The first differing element across aligned pairs, classified."""
     remarks: list[str] = []
+    only_b = sorted((p for p in pairs if p.a is None), key=lambda p: p.pairing.b or 0)
     for pair in pairs:
         ia, ib, p = pair.a, pair.b, pair.pairing
+        earlier = [q for q in only_b if p.b is not None and (q.pairing.b or 0) < p.b]
+        if earlier:  # B has an instance A lacks before this one: that comes first in the stream
+            remarks.append(f"B's '{earlier[0].pairing.name}' stands before '{p.name}', so a later challenge "
+                           "drift may stem from it.")
+            pair, ia, ib, p = earlier[0], None, earlier[0].b, earlier[0].pairing
         if ia is None or ib is None:
             present = "A" if ia is not None else "B"
             div = Divergence("instance", p.a, p.b, p.name, None, None, "instance", *(
@@ -250,6 +255,11 @@ def _round_values(field: Field, pair: InstancePair, rp: RoundPair) -> Found:
     if shift is not None:
         return div, shift, []
     consistency = _consistency(field, pair, rp)
+    if len(va) != len(vb) and (va[: len(vb)] == vb or vb[: len(va)] == va):
+        return div, Classification(
+            "prover-arithmetic", f"Round {rp.number} sends {len(va)} values in A and {len(vb)} in B, and the "
+            "values both send agree: one side drops or adds an evaluation (a degree or loop-bound slip), so the "
+            f"polynomials differ.{consistency[0]}", side=consistency[1]), []
     earlier = ("the claims agree" if rp.number == 1 else "the round 1 challenge is identical" if rp.number == 2
                else f"the challenges of rounds 1..{rp.number - 1} are identical")
     return div, Classification(
@@ -319,42 +329,6 @@ def _groups(field: Field, inst: InstanceRecord) -> list[list[Element]]:
     return [[field.lift(e) for e in g] for g in out]
 
 
-def constant_ratio(field: Field, pairs: Sequence[tuple[Element, Element]]) -> tuple[Element | None, int]:
-    """The constant c != 1 with y = c x for every pair, and how many nonzero pairs back it."""
-    ratio: Element | None = None
-    count = 0
-    for x, y in pairs:
-        if field.is_zero(x) and field.is_zero(y):
-            continue
-        if field.is_zero(x) or field.is_zero(y):
-            return None, 0
-        q = field.div(y, x)
-        if ratio is not None and q != ratio:
-            return None, 0
-        ratio, count = q, count + 1
-    if ratio is None or ratio == field.one:
-        return None, 0
-    return ratio, count
-
-
-def factor_name(field: Field, c: Element) -> str | None:
-    """A name for c when it is a power-of-two radix (or its inverse) or a small integer."""
-    for k in RADIX_BITS:
-        r = field.embed(pow(2, k, field.p))
-        if c == r:
-            return f"2^{k} mod p (a Montgomery radix)"
-        if not field.is_zero(r) and c == field.inv(r):
-            return f"2^-{k} mod p (an inverse Montgomery radix)"
-    for n in range(2, 257):
-        if c == field.embed(n):
-            return f"the integer {n}"
-        if c == field.embed(-n):
-            return f"the integer -{n}"
-    if c == field.embed(-1):
-        return "-1 (a sign flip)"
-    return None
-
-
 def _factor_from(field: Field, pair: InstancePair, start: int) -> Classification | None:
     """Constant factor from stream group ``start`` on: the ratio must hold on the first
     differing group, and on later groups while they differ, with at least two values or a named constant."""
@@ -378,10 +352,13 @@ def _factor_from(field: Field, pair: InstancePair, start: int) -> Classification
         return None
     named = f", which is {name}" if name else ""
     span = "one element" if reach == start else f"{count} values in a row"
-    return Classification(
-        "constant-factor", f"B's values are A's times the constant {field.fmt(ratio)}{named} (checked on "
-        f"{span}): one side keeps elements in another representation (a Montgomery-form mix-up) or scales them.",
-        factor=field.fmt(ratio), factor_name=name)
+    if ratio == field.embed(-1):
+        text = (f"B's values are A's negated (checked on {span}): a sign slip, one side subtracts where the "
+                "other adds.")
+    else:
+        text = (f"B's values are A's times the constant {field.fmt(ratio)}{named} (checked on {span}): one side "
+                "keeps elements in another representation (a Montgomery-form mix-up) or scales them.")
+    return Classification("constant-factor", text, factor=field.fmt(ratio), factor_name=name)
 
 
 def _shift(field: Field, pair: InstancePair, number: int) -> Classification | None:

@@ -163,6 +163,8 @@ class Sequencer:
                     waiting, done, count = self.awaiting_challenge, self.rounds_done, self.count
                 num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
                 width, runs = self._elem_bytes, self._runs
+                if self.pending_batch is not None:  # only `instance` may follow: let feed() judge
+                    num_vars = width = -1
                 if until is not None and record.__class__ is UnknownEvent and record.kind == until:
                     self.stopped_at = record
                     return
@@ -256,6 +258,7 @@ class Sequencer:
             raise self._fail("expected an `instance` event right after `batch`")
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
         cur = self._need_instance("round")
         number = self.rounds_done + 1
         if self.awaiting_challenge:
@@ -269,6 +272,7 @@ class Sequencer:
         return RoundMsg(cur.index, number, values)
 
     def _on_challenge(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
         cur = self._need_instance("challenge")
         if not self.awaiting_challenge:
             raise self._fail("expected a round before its challenge, found a challenge with no round pending",
@@ -278,6 +282,7 @@ class Sequencer:
         return ChallengeMsg(cur.index, self.rounds_done, value)
 
     def _on_final(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
         cur = self._need_instance("final")
         if self.final_seen:
             raise self._fail("expected one `final` per instance, found a second")

@@ -288,7 +288,7 @@ class _VectorArith:
         if a.ndim == b.ndim:
             return (self.base if a.ndim == 1 else self.field).vmul(a, b)
         ext, flat = (a, b) if a.ndim == 2 else (b, a)
-        return self.base.kernel.mul(ext, flat[:, None])
+        return self.field.vmul_base(ext, flat)
 
 
 def _eval(node: Node, env: Mapping[str, np.ndarray], arith: _VectorArith) -> _Value:

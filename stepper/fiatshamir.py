@@ -132,6 +132,8 @@ class Sha256Schedule:
                 h.update(squeeze)
                 stream += h.digest()
             samples.append(int.from_bytes(stream[:wide], "little") % p)
-        value: Element = tuple(samples) if field.is_extension else samples[0]
-        state.update(self._challenge_head + field.encode(value))
-        return value
+        if field.is_extension:
+            state.update(self._challenge_head + field.encode(tuple(samples)))
+            return tuple(samples)
+        state.update(self._challenge_head + samples[0].to_bytes(field.base_bytes, "little"))
+        return samples[0]

@@ -251,11 +251,11 @@ class Field:
             except TypeError:
                 raise FieldError(
                     f"expected an element of {self._short()} (an integer, decimal or 0x-hex string), "
-                    f"found {type(value).__name__} {_clip(repr(value))}",
+                    f"found {type(value).__name__} {clip_text(repr(value))}",
                     where,
                 ) from None
         if not 0 <= n < self.p:
-            raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {_clip(str(n))}", where)
+            raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {clip_text(str(n))}", where)
         return n
 
     def _parse_text(self, value: str, where: Where | None) -> int:
@@ -265,7 +265,7 @@ class Field:
         match = _NUMBER_TEXT.fullmatch(text)
         if match is None:
             raise FieldError(
-                f"expected a decimal or 0x-hex element of {self._short()}, found {_clip(repr(value))}", where
+                f"expected a decimal or 0x-hex element of {self._short()}, found {clip_text(repr(value))}", where
             )
         sign, hex_digits, dec_digits = match.group("sign"), match.group("hex"), match.group("dec")
         digits = (hex_digits if hex_digits is not None else dec_digits).lstrip("0") or "0"
@@ -273,7 +273,7 @@ class Field:
         if len(digits) > limit:
             raise FieldError(
                 f"expected a canonical element 0 <= v < p = {self.p}, found a number of {len(digits)} digits "
-                f"({_clip(text)})",
+                f"({clip_text(text)})",
                 where,
             )
         n = int(digits, 16 if hex_digits is not None else 10)
@@ -287,7 +287,7 @@ class Field:
         w = self.base_bytes
         coeffs = (e,) if isinstance(e, int) and not self.is_extension else self.lift(e)
         if len(coeffs) != self.degree or any(not 0 <= c < self.p for c in coeffs):  # type: ignore[arg-type]
-            raise FieldError(f"expected a canonical element of {self.describe()} to encode, found {_clip(str(e))}")
+            raise FieldError(f"expected a canonical element of {self.describe()} to encode, found {clip_text(str(e))}")
         return b"".join(c.to_bytes(w, "little") for c in coeffs)  # type: ignore[union-attr]
 
     def decode(self, data: bytes, where: Where | None = None) -> Element:
@@ -395,17 +395,18 @@ def format_poly(coeffs: tuple[int, ...], p: int) -> str:
     return "".join(terms) or "0"
 
 
-def _clip(text: str, limit: int = 60) -> str:
+def clip_text(text: str, limit: int = 60) -> str:
+    """text, cut to ``limit`` characters with an ellipsis (for error messages)."""
     return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
     """The field F_p, or F_p[X]/(irreducible); checks primality and irreducibility once."""
     if isinstance(p, bool) or not isinstance(p, int):
-        raise FieldError(f"expected an integer modulus, found {type(p).__name__} {_clip(repr(p))}")
+        raise FieldError(f"expected an integer modulus, found {type(p).__name__} {clip_text(repr(p))}")
     q = tuple(irreducible or ())
     if any(isinstance(c, bool) or not isinstance(c, int) for c in q):
-        raise FieldError(f"expected integer polynomial coefficients, found {_clip(repr(q))}")
+        raise FieldError(f"expected integer polynomial coefficients, found {clip_text(repr(q))}")
     if len(q) == 2 and q[1] == 1:
         q = ()  # a degree-1 "extension" is the prime field itself
     key = (p, q)
@@ -413,13 +414,13 @@ def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
     if cached is not None:
         return cached
     if p not in _NAME_OF_PRIME and not is_probable_prime(p):
-        raise FieldError(f"expected a prime modulus, found {_clip(str(p))}, which is not prime")
+        raise FieldError(f"expected a prime modulus, found {clip_text(str(p))}, which is not prime")
     if q:
         if q[-1] != 1:
             raise FieldError(f"expected a monic polynomial (leading coefficient 1), found leading coefficient {q[-1]}")
         for index, c in enumerate(q):
             if not 0 <= c < p:
-                raise FieldError(f"expected polynomial coefficients 0 <= c < p = {p}, found {_clip(str(c))} at X^{index}")
+                raise FieldError(f"expected polynomial coefficients 0 <= c < p = {p}, found {clip_text(str(c))} at X^{index}")
         if not is_irreducible(q, p):
             raise FieldError(f"expected an irreducible polynomial over F_p, found {format_poly(q, p)} (reducible)")
     field = Field(p, q)
@@ -429,57 +430,8 @@ def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
 
 def field_from_spec(spec: dict[str, Any], where: Where | None = None) -> Field:
     """The field a `field` event names: ``name`` or ``modulus``, optional
-    ``extension_degree`` and ``irreducible`` (constant first, monic)."""
-    name = spec.get("name")
-    modulus = spec.get("modulus")
-    if name is not None:
-        if not isinstance(name, str) or name.lower() not in NAMED_PRIMES:
-            known = ", ".join(NAMED_PRIMES)
-            raise FieldError(f"expected a field name among {known}, found {_clip(repr(name))}", where)
-        name = name.lower()
-        p = NAMED_PRIMES[name]
-        if modulus is not None and _as_int(modulus, "modulus", where) != p:
-            raise FieldError(f"field name {name} and modulus {_clip(str(modulus))} disagree", where)
-    elif modulus is not None:
-        p = _as_int(modulus, "modulus", where)
-        if p < 2 or p.bit_length() > 1024:
-            raise FieldError(f"expected a prime modulus of at most 1024 bits, found {_clip(str(modulus))}", where)
-    else:
-        raise FieldError("expected a field event with `name` or `modulus`, found neither", where)
-    degree = spec.get("extension_degree", 1)
-    if isinstance(degree, bool) or not isinstance(degree, int) or not 1 <= degree <= 16:
-        raise FieldError(f"expected extension_degree an integer in 1..16, found {_clip(repr(degree))}", where)
-    irreducible = spec.get("irreducible")
-    if degree == 1:
-        if irreducible not in (None, [], [0, 1]):
-            raise FieldError("an irreducible polynomial was given for extension_degree 1", where)
-        q: tuple[int, ...] = ()
-    elif irreducible is None:
-        default = DEFAULT_IRREDUCIBLES.get((name or "", degree)) if name else None
-        if default is None:
-            raise FieldError(
-                f"expected an `irreducible` polynomial: no default for degree {degree} over {name or p}", where
-            )
-        q = default
-    else:
-        if not isinstance(irreducible, list) or len(irreducible) != degree + 1:
-            raise FieldError(f"expected `irreducible` as {degree + 1} coefficients, constant first", where)
-        q = tuple(_as_int(c, "irreducible coefficient", where) for c in irreducible)
-    try:
-        return get_field(p, q)
-    except FieldError as err:
-        raise FieldError(err.message, where) from None
+    ``extension_degree`` and ``irreducible`` (constant first, monic); the
+    checks live in :mod:`stepper.fieldspec`."""
+    from stepper.fieldspec import read_field_spec
 
-
-def _as_int(value: object, what: str, where: Where | None) -> int:
-    if isinstance(value, bool):
-        raise FieldError(f"expected {what} as an integer, found {value!r}", where)
-    if isinstance(value, int):
-        return value
-    if isinstance(value, str):
-        text = value.strip()
-        try:
-            return int(text[2:], 16) if text[:2] in ("0x", "0X") else int(text, 10)
-        except ValueError:
-            pass
-    raise FieldError(f"expected {what} as an integer or decimal/0x string, found {_clip(repr(value))}", where)
+    return read_field_spec(spec, where)

@@ -46,10 +46,11 @@ def evaluate_round(field: Field, evals: Sequence[Element], x: Element, where: Wh
         for j in range(d):
             acc = acc * (x - j) % p  # type: ignore[operator]
             prefix[j + 1] = acc
-        total, suffix = 0, 1
-        for i in range(d, -1, -1):
-            total += evals[i] * w[i] % p * prefix[i] * suffix  # type: ignore[operator]
-            suffix = suffix * (x - i) % p  # type: ignore[operator]
+        total = evals[d] * w[d] * prefix[d]  # type: ignore[operator]
+        suffix = 1
+        for i in range(d - 1, -1, -1):
+            suffix = suffix * (x - i - 1) % p  # type: ignore[operator]
+            total += evals[i] * w[i] * prefix[i] * suffix  # type: ignore[operator]
         return total % p
     try:
         return lagrange_at(field, evals, field.lift(x))

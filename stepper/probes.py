@@ -136,26 +136,30 @@ def _tables_after(ctx: ProbeContext, challenges: Sequence[Element], order: str) 
 
 # ----- the probes ---------------------------------------------------------------------------
 def probe_variable_order(ctx: ProbeContext) -> ProbeFinding | None:
-    if ctx.check != "honest-poly" or ctx.start.num_vars < 2:
+    """Rounds 1..k-1 honest, then from round k on the other end of the table is bound."""
+    if ctx.check != "honest-poly" or ctx.start.num_vars - ctx.round < 1:
         return None  # a final value at the other order's point is the reversed-point probe
     other = "high-first" if ctx.start.order == "low-first" else "low-first"
     f = ctx.field
-    points = ctx.start.degree + 1
-    runs = list(honest_rounds(f, ctx.tables, ctx.expr, ctx.challenges, other, points))
+    k = ctx.round
+    tables = _tables_after(ctx, ctx.challenges[: k - 1], ctx.start.order)
+    runs = honest_rounds(f, tables, ctx.expr, ctx.challenges[k - 1:], other, ctx.start.degree + 1)
     rounds = [r for r in runs if isinstance(r, HonestRound)]
-    start = ctx.round - 1
     checked = 0
-    for k in range(start, min(len(ctx.sent_evals), len(rounds))):
-        if first_difference(f, ctx.sent_evals[k], rounds[k].evals) is not None:
+    for offset, run in enumerate(rounds):
+        if k - 1 + offset >= len(ctx.sent_evals):
+            break
+        if first_difference(f, ctx.sent_evals[k - 1 + offset], run.evals) is not None:
             return None
         checked += 1
     if checked == 0:
         return None
+    since = "" if k == 1 else f" from round {k} on"
     return ProbeFinding(
         "variable-order",
-        f"rounds {ctx.round}..{ctx.round + checked - 1} equal an honest prover binding the variables {other} "
+        f"rounds {k}..{k + checked - 1} equal an honest prover binding the variables {other}{since} "
         f"while the instance declares {ctx.start.order}",
-        {"declared": ctx.start.order, "used": other, "rounds_matched": checked},
+        {"declared": ctx.start.order, "used": other, "from_round": k, "rounds_matched": checked},
     )
 
 

@@ -19,11 +19,22 @@ from typing import TYPE_CHECKING, Any, Protocol, Sequence
 from stepper.verdict import PASSING_REPLAY_WARNING
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
+    from stepper.field import Field
     from stepper.transcript import BucketStats, InstanceRecord, Transcript
     from stepper.verdict import InstanceSummary, Report
 
-__all__ = ["Diagnosed", "RoundRow", "BucketRow", "InstanceSection", "ReportDoc", "build", "to_markdown", "short"]
+__all__ = [
+    "Diagnosed",
+    "RoundRow",
+    "BucketRow",
+    "InstanceSection",
+    "ReportDoc",
+    "build",
+    "to_markdown",
+    "bucket_rows",
+    "reveals",
+    "short",
+]
 
 SHORT = 22  # characters of an element shown in a table cell
 
@@ -141,7 +152,7 @@ def build(transcript: Transcript, report: Report, diagnosis: Diagnosed | None = 
     notes = tuple(_note_text(n.text, None, n.round) for n in transcript.notes)
     return ReportDoc(
         title, tuple(summary), report.verdict, PASSING_REPLAY_WARNING, tuple(failure), tuple(root),
-        tuple(root_fields), tuple(findings), sections, notes, _privacy(transcript, diagnosis is not None),
+        tuple(root_fields), tuple(findings), sections, notes, reveals(transcript, diagnosis is not None),
         diagnosis is not None,
     )
 
@@ -220,7 +231,8 @@ def bucket_rows(stats: Sequence[BucketStats]) -> tuple[BucketRow, ...]:
     return tuple(rows)
 
 
-def _privacy(transcript: Transcript, with_witness: bool) -> tuple[str, ...]:
+def reveals(transcript: Transcript, with_witness: bool = False) -> tuple[str, ...]:
+    """What a transcript (and a report made from it) makes public, in plain sentences."""
     lines = [
         "A transcript holds public values only: the field, each instance's statement (name, num_vars, degree, "
         "order, form) and claimed sum, the round polynomials, the challenges, the final values, bucket counts "

@@ -29,11 +29,12 @@ from stepper.errors import UsageError
 if TYPE_CHECKING:
     from stepper.field import Field
 
-__all__ = ["Sailing", "TAMPERS", "DECK_CONSTRAINTS", "build_sailing", "ticket_values", "deck_tables"]
+__all__ = ["SAILINGS", "Sailing", "TAMPERS", "DECK_CONSTRAINTS", "build_sailing", "ticket_values", "deck_tables"]
 
 TAMPERS = ("double-scan", "phantom-car")
 DECK_CONSTRAINTS = ("occupied * occupied - occupied", "length - occupied * length")
-_ROUTES = ("isle-of-quill", "gannet-point", "saltmarsh-quay", "lantern-holm")
+# the timetable: seed s sails SAILINGS[s % 4] (seed 740 is the demo sailing isle-of-quill-0740)
+SAILINGS = ("isle-of-quill-0740", "gannet-point-0915", "saltmarsh-quay-1230", "lantern-holm-1705")
 
 
 @dataclass(frozen=True, slots=True)
@@ -60,8 +61,9 @@ def build_sailing(seed: int, num_vars: int, *, route: str | None = None, departu
     if tamper is not None and tamper not in TAMPERS:
         raise UsageError(f"expected a tamper among {', '.join(TAMPERS)}, found {tamper!r}")
     rng = np.random.default_rng(seed)
-    route = route or _ROUTES[seed % len(_ROUTES)]
-    departure = departure or f"{6 + seed % 12:02d}{(seed * 20) % 60:02d}"
+    default_route, _, default_departure = SAILINGS[seed % len(SAILINGS)].rpartition("-")
+    route = route or default_route
+    departure = departure or default_departure
     name = f"{route}-{departure}"
     n = 1 << num_vars
     prefix = "".join(word[0] for word in route.split("-")).upper()

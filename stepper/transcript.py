@@ -16,7 +16,7 @@ from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Literal, Mapping, Union
 
 from stepper.field import Element, Field
-from stepper.poly import RoundPoly
+from stepper.poly import FORMS, ORDERS, RoundPoly
 
 __all__ = [
     "FORMAT_VERSION",
@@ -40,6 +40,23 @@ __all__ = [
 
 FORMAT_VERSION = 1
 
+
+def _need(ok: bool, record: str, message: str) -> None:
+    """Constructor check: records are canonical once built (see the module docstring)."""
+    if not ok:
+        raise ValueError(f"{record}: expected {message}")
+
+
+def _index(value: object) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool) and value >= 0
+
+
+def _freeze(record: object, name: str) -> None:
+    """Store a list given for a tuple field as a tuple (records are immutable)."""
+    value = getattr(record, name)
+    if isinstance(value, list):
+        object.__setattr__(record, name, tuple(value))
+
 Completeness = Literal["complete", "incomplete"]
 DigestStatus = Literal["verified", "mismatch", "missing", "not-applicable"]
 
@@ -53,12 +70,20 @@ class Header:
     tool_version: str = ""
     metadata: Mapping[str, Any] = dc_field(default_factory=dict)
 
+    def __post_init__(self) -> None:
+        _need(_index(self.format_version), "Header", "a non-negative format_version")
+        _need(isinstance(self.tool_version, str), "Header", "tool_version as a string")
+        _need(isinstance(self.metadata, Mapping), "Header", "metadata as a map")
+
 
 @dataclass(frozen=True, slots=True)
 class FieldDecl:
     """The field of every element that follows (``field`` event)."""
 
     field: Field
+
+    def __post_init__(self) -> None:
+        _need(isinstance(self.field, Field), "FieldDecl", "a Field")
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,6 +96,10 @@ class ScheduleDecl:
     label: str = ""
     params: Mapping[str, Any] = dc_field(default_factory=dict)
 
+    def __post_init__(self) -> None:
+        _need(isinstance(self.name, str) and bool(self.name), "ScheduleDecl", "a non-empty name")
+        _need(isinstance(self.label, str), "ScheduleDecl", "label as a string")
+
 
 @dataclass(frozen=True, slots=True)
 class BatchDecl:
@@ -80,6 +109,12 @@ class BatchDecl:
     coefficient: Element
     terms: tuple[Element, ...]
     sources: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        _freeze(self, "terms")
+        _freeze(self, "sources")
+        _need(isinstance(self.terms, tuple), "BatchDecl", "terms as a tuple of elements")
+        _need(len(self.sources) <= len(self.terms), "BatchDecl", "at most one source per term")
 
 
 @dataclass(frozen=True, slots=True)
@@ -95,6 +130,13 @@ class InstanceStart:
     form: str = "evals"
     batch: BatchDecl | None = None
 
+    def __post_init__(self) -> None:
+        _need(_index(self.index), "InstanceStart", "a non-negative index")
+        _need(isinstance(self.name, str), "InstanceStart", "name as a string")
+        _need(_index(self.num_vars) and _index(self.degree), "InstanceStart", "non-negative num_vars and degree")
+        _need(self.order in ORDERS, "InstanceStart", f"order among {', '.join(ORDERS)}, found {self.order!r}")
+        _need(self.form in FORMS, "InstanceStart", f"form among {', '.join(FORMS)}, found {self.form!r}")
+
 
 @dataclass(frozen=True, slots=True)
 class RoundMsg:
@@ -104,6 +146,12 @@ class RoundMsg:
     round: int
     values: tuple[Element, ...]
 
+    def __post_init__(self) -> None:
+        _freeze(self, "values")
+        _need(_index(self.instance) and _index(self.round) and self.round >= 1, "RoundMsg",
+              "instance >= 0 and round >= 1")
+        _need(isinstance(self.values, tuple), "RoundMsg", "values as a tuple of elements")
+
 
 @dataclass(frozen=True, slots=True)
 class ChallengeMsg:
@@ -112,6 +160,10 @@ class ChallengeMsg:
     instance: int
     round: int
     value: Element
+
+    def __post_init__(self) -> None:
+        _need(_index(self.instance) and _index(self.round) and self.round >= 1, "ChallengeMsg",
+              "instance >= 0 and round >= 1")
 
 
 def _slot_setters(cls: type, names: tuple[str, ...]) -> tuple[Any, ...]:
@@ -132,6 +184,9 @@ class FinalValue:
     instance: int
     value: Element
 
+    def __post_init__(self) -> None:
+        _need(_index(self.instance), "FinalValue", "instance >= 0")
+
 
 @dataclass(frozen=True, slots=True)
 class BucketStats:
@@ -148,6 +203,13 @@ class BucketStats:
     remaining: int | None = None
     extra: Mapping[str, Any] = dc_field(default_factory=dict)
 
+    def __post_init__(self) -> None:
+        _freeze(self, "sizes")
+        _need(all(_index(v) for v in (self.instance, self.round, self.chunk, self.count)), "BucketStats",
+              "non-negative instance, round, chunk and count")
+        _need(self.sizes is None or all(_index(v) for v in self.sizes), "BucketStats",
+              "sizes as non-negative counts")
+
 
 @dataclass(frozen=True, slots=True)
 class Note:
@@ -157,6 +219,11 @@ class Note:
     instance: int | None = None
     round: int | None = None
 
+    def __post_init__(self) -> None:
+        _need(isinstance(self.text, str), "Note", "text as a string")
+        _need(self.instance is None or _index(self.instance), "Note", "instance None or >= 0")
+        _need(self.round is None or _index(self.round), "Note", "round None or >= 0")
+
 
 @dataclass(frozen=True, slots=True)
 class UnknownEvent:
@@ -165,6 +232,9 @@ class UnknownEvent:
     kind: str
     payload: Mapping[str, Any]
     instance: int | None = None
+
+    def __post_init__(self) -> None:
+        _need(isinstance(self.kind, str), "UnknownEvent", "kind as a string")
 
 
 Event = Union[

@@ -204,9 +204,19 @@ class Report:
         }
 
 
+COUNT_CHECKS = ("degree", "shape")  # checks whose expected/found are counts, not field elements
+
+
+def _compared(check: str | None, value: Value, f: Any) -> str | None:
+    if value is None:
+        return None
+    return str(value) if check in COUNT_CHECKS else f(value)
+
+
 def _failure_json(x: Failure, f: Any) -> dict[str, Any]:
     return {"instance": x.instance, "instance_name": x.instance_name, "round": x.round, "check": x.check,
-            "expected": f(x.expected), "found": f(x.found), "explanation": x.explanation}
+            "expected": _compared(x.check, x.expected, f), "found": _compared(x.check, x.found, f),
+            "explanation": x.explanation}
 
 
 def _round_json(r: RoundResult, f: Any) -> dict[str, Any]:
@@ -217,7 +227,8 @@ def _round_json(r: RoundResult, f: Any) -> dict[str, Any]:
         "g0": f(r.g0), "g1": f(r.g1), "sum01": f(r.sum01),
         "degree_seen": r.degree_seen, "degree_bound": r.degree_bound,
         "challenge": f(r.challenge), "rederived": f(r.rederived), "claim_out": f(r.claim_out),
-        "expected": f(r.expected), "found": f(r.found), "explanation": r.explanation,
+        "expected": _compared(r.check, r.expected, f), "found": _compared(r.check, r.found, f),
+        "explanation": r.explanation,
         "after_failure": r.after_failure,
     }
 

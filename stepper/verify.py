@@ -68,13 +68,13 @@ class _Live:
 class Replay:
     """Steppable verifier: ``feed(record)`` returns the results it resolved, ``report()`` the verdict.
 
-    ``schedule`` is a declaration to apply as if it followed the field event;
+    ``schedule`` (a declaration or a schedule name) applies when the stream declares none;
     ``challenger`` a plug-in (see :mod:`stepper.binding`) that overrides it.
     ``probe_instances`` is how many instances (from the first) the binding probe covers;
     with ``emit_passing=False`` (and no ``keep_rounds``) ``feed`` returns only failed or
     open rounds, which is the fast path for streaming summaries."""
 
-    def __init__(self, field: Field | None = None, schedule: ScheduleDecl | None = None,
+    def __init__(self, field: Field | None = None, schedule: ScheduleDecl | str | None = None,
                  challenger: Challenger | None = None, *, keep_rounds: bool = False,
                  keep_instances: int | None = None, probe_instances: int = 4, emit_passing: bool = True) -> None:
         self.field = field
@@ -100,8 +100,7 @@ class Replay:
         self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
                           InstanceStart: self._on_instance, FinalValue: self._on_final}
         self._finished = False
-        if schedule is not None:
-            self._declare(schedule)
+        self._default_schedule = ScheduleDecl(schedule) if isinstance(schedule, str) else schedule
 
     # ----- schedule ---------------------------------------------------------------
     @property
@@ -124,6 +123,10 @@ class Replay:
         self._log(decl)
         if self.challenger is None and decl.name in BUILTIN_SCHEDULES:
             self._start_builtin()
+
+    def _apply_default_schedule(self) -> None:
+        if self.schedule_decl is None and self._default_schedule is not None:
+            self._declare(self._default_schedule)
 
     def _start_builtin(self) -> None:
         if self._sched is None and self.field is not None and self.schedule_decl is not None:
@@ -156,6 +159,7 @@ class Replay:
         if handler is not None:
             return handler(record)  # type: ignore[operator]
         if isinstance(record, BatchDecl):
+            self._apply_default_schedule()
             self._pending_batch = record
             self._absorb(record)
         elif isinstance(record, FieldDecl):
@@ -183,6 +187,7 @@ class Replay:
     def _on_instance(self, start: InstanceStart) -> list[Result]:
         field = self._need_field()
         out = self._close()
+        self._apply_default_schedule()
         batch = start.batch or self._pending_batch
         self._pending_batch = None
         history_start = len(self._history) if self._history is not None else 0
@@ -211,8 +216,12 @@ class Replay:
         return out
 
     def _on_round(self, msg: RoundMsg) -> list[Result]:
-        field = self._need_field()
-        live = self._need_live("round", msg.instance)
+        field = self.field
+        live = self._live
+        if field is None:
+            field = self._need_field()
+        if live is None or live.start.index != msg.instance:
+            live = self._need_live("round", msg.instance)
         out = self._resolve_pending(None) if live.pending is not None else []
         start = live.start
         values = msg.values
@@ -235,6 +244,10 @@ class Replay:
             evals = (field.zero,)
         elif len(evals) > start.degree + 1:
             check, expected, found = "degree", start.degree + 1, len(evals)
+        elif field.degree == 1:
+            total = (evals[0] + evals[1 if len(evals) > 1 else 0]) % field.p  # type: ignore[operator]
+            if total != live.claim:
+                check, expected, found = "sum", live.claim, total
         else:
             g0 = evals[0]
             total = field.add(g0, evals[1] if len(evals) > 1 else g0)
@@ -248,13 +261,17 @@ class Replay:
         return out
 
     def _on_challenge(self, msg: ChallengeMsg) -> list[Result]:
-        live = self._need_live("challenge", msg.instance)
+        live = self._live
+        if live is None or live.start.index != msg.instance:
+            live = self._need_live("challenge", msg.instance)
         if live.pending is None:
             raise InputError("expected a round before its challenge, found a challenge alone",
                              Where(instance=live.start.name, round=msg.round))
         return self._resolve_pending(msg)
 
     def _rederive(self, live: _Live, round_: int) -> Element | None:
+        if self._sched is not None:
+            return self._sched.challenge()
         field = self.field
         assert field is not None
         if self.challenger is not None and self._history is not None:
@@ -268,8 +285,6 @@ class Replay:
                                              live.start.index, live.start.name, round_):
                     self._note_finding(finding)
             return value
-        if self._sched is not None:
-            return self._sched.challenge()
         return None
 
     def _note_finding(self, finding: Finding) -> None:
@@ -290,7 +305,10 @@ class Replay:
             rederived = self._rederive(live, k)
             if check is None and rederived is not None and rederived != challenge:
                 check, expected, found = "challenge", rederived, challenge
-            claim_out = evaluate_round(field, evals, challenge, Where(instance=start.name, round=k))
+            try:
+                claim_out = evaluate_round(field, evals, challenge)
+            except InputError as err:
+                raise InputError(err.message, Where(instance=start.name, round=k)) from None
             if self._history is not None:
                 self._log(msg)
         after = live.failure is not None

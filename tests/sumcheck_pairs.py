@@ -105,7 +105,7 @@ def run_events(
         if batch is not None and index == 0:
             emit(batch)
         if extra_absorb:
-            schedule.observe(RoundMsg(index, 0, (index + 1,)))
+            schedule.observe(RoundMsg(index, 1, (index + 1,)))  # the extra message a port absorbs
         emit({"type": "instance", "name": spec.name, "num_vars": mu, "degree": degree, "claim": claim, **spec.extra})
         tables = [list(t) for t in spec.tables]
         point: list[int] = []

@@ -15,8 +15,6 @@ import sympy
 from hypothesis import given, settings, strategies as st
 
 from stepper.diff import JSON_SCHEMA, KINDS, Comparison, compare
-from stepper.divergence import constant_ratio, factor_name
-from stepper.field import NAMED_PRIMES, get_field
 from stepper.transcript import ChallengeMsg, FinalValue, InstanceStart, Note, RoundMsg
 from sumcheck_pairs import BABYBEAR, Spec, brackwater_specs, fold, run_events, scale_all
 
@@ -113,21 +111,6 @@ def test_any_constant_factor_is_recovered_exactly(factor):
     c = diff_with(tamper=scale_all(factor))
     assert c.classification.kind == "constant-factor"
     assert int(c.classification.factor) == factor
-
-
-def test_bn254_montgomery_radix_is_two_to_the_256():
-    field = get_field(NAMED_PRIMES["bn254"])  # modulus from EIP-197
-    radix = pow(2, 256, field.p)
-    assert factor_name(field, radix) == "2^256 mod p (a Montgomery radix)"
-    assert factor_name(field, 7) == "the integer 7"
-    assert factor_name(field, field.p - 1) == "-1 (a sign flip)"
-
-
-def test_constant_ratio_refuses_mismatched_zeros_and_unit_ratio():
-    field = get_field(BABYBEAR)
-    assert constant_ratio(field, [(0, 5), (2, 4)]) == (None, 0)
-    assert constant_ratio(field, [(3, 3), (4, 4)]) == (None, 0)
-    assert constant_ratio(field, [(0, 0), (2, 6), (5, 15)]) == (3, 2)
 
 
 def _shift_rounds(events, extra: bool):
@@ -266,6 +249,13 @@ def test_an_instance_only_one_side_has_is_extra_instance():
         "extra-instance", "b", "manifest-zero")
 
 
+def test_an_instance_inserted_in_the_middle_is_reported_before_the_instances_after_it():
+    c = compare(A, fold(run_events([SPECS[0], Spec("manifest-zero", [[1, 2], [3, 4]]), SPECS[1]])))
+    assert (c.classification.kind, c.divergence.instance_b, c.divergence.instance_name) == (
+        "extra-instance", 1, "manifest-zero")
+    assert "stands before 'deck-slots-zero'" in c.remarks[0]
+
+
 def test_notes_and_metadata_never_make_runs_differ():
     events = [*A_EVENTS, Note("checked by the harbour office", 0, 1)]
     b = dataclasses.replace(fold(events), header=dataclasses.replace(A.header, metadata={"label": "other"}))
@@ -276,3 +266,57 @@ def test_every_kind_has_a_description_and_the_schema_is_valid():
     jsonschema.Draft202012Validator.check_schema(JSON_SCHEMA)
     assert all(KINDS.values())
     assert set(JSON_SCHEMA["properties"]["classification"]["properties"]["kind"]["enum"]) == set(KINDS)
+
+
+# ----- pairs from the reference provers (stepper.provers), one per named fault -----------------------
+from stepper.provers.channel import ListSink  # noqa: E402
+from stepper.provers.faults import FAULTS, parse_fault  # noqa: E402
+from stepper.provers.reference import ProveSpec, parse_field, prove  # noqa: E402
+
+# fault -> (kind, element, round) of the first divergence against the honest run of the same sailing
+EXPECTED_FAULT_DIFFS = {
+    "flip-order@2": ("prover-arithmetic", "value", 2),
+    "reverse-point": ("final-value", "final", 4),
+    "stale-challenge@2": ("prover-arithmetic", "value", 3),  # round 2's tables fold wrongly; round 3 shows it
+    "montgomery@2": ("constant-factor", "value", 2),
+    "product-of-sums@2": ("prover-arithmetic", "value", 2),
+    "drop-eval@2": ("prover-arithmetic", "value", 2),
+    "negate-claim": ("constant-factor", "claim", 0),
+    "unbound-claim": ("fiat-shamir-drift", "challenge", 1),
+}
+
+
+def reference_run(field_name: str, fault: str | None = None, kind: str = "ferries", mu: int = 4):
+    sink = ListSink()
+    prove(ProveSpec(kind, num_vars=mu, fault=None if fault is None else parse_fault(fault)),
+          parse_field(field_name), sink)
+    return sink.transcript()
+
+
+def test_every_named_fault_has_an_expected_diff():
+    assert {f.split("@")[0] for f in EXPECTED_FAULT_DIFFS} == set(FAULTS)
+
+
+@pytest.mark.parametrize("fault", sorted(EXPECTED_FAULT_DIFFS))
+def test_reference_prover_faults_are_classified(fault):
+    honest = reference_run("babybear")
+    c = compare(honest, reference_run("babybear", fault))
+    d = c.divergence
+    assert (c.classification.kind, d.element, d.round) == EXPECTED_FAULT_DIFFS[fault]
+    assert d.instance_name == "boarding-permutation"
+    assert_valid_json(c)
+
+
+@pytest.mark.parametrize("field_name, bits", [("babybear^4", 32), ("goldilocks", 64), ("bn254", 256)])
+def test_the_montgomery_fault_is_named_by_each_fields_radix(field_name, bits):
+    honest = reference_run(field_name, kind="generic", mu=3)
+    c = compare(honest, reference_run(field_name, "montgomery@1", kind="generic", mu=3))
+    field = parse_field(field_name)
+    assert c.classification.kind == "constant-factor"
+    assert c.classification.factor == field.fmt(field.embed(pow(2, bits, field.p)))  # R = 2^bits mod p by pow
+    assert c.classification.factor_name == f"2^{bits} mod p (a Montgomery radix)"
+
+
+def test_the_negated_claim_is_reported_as_a_sign_slip():
+    c = compare(reference_run("babybear"), reference_run("babybear", "negate-claim"))
+    assert c.classification.factor_name == "-1 (a sign flip)" and "negated" in c.classification.explanation

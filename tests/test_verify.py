@@ -368,3 +368,19 @@ def test_random_honest_runs_pass_and_single_corruptions_fail_where_predicted(dat
     else:
         assert report.verdict == "reject"
         assert (report.first_failure.round, report.first_failure.check) == expect
+
+
+def test_degree_counts_print_as_plain_numbers_in_an_extension_field():
+    ar = Plain(BABYBEAR, 4, 11)
+    payloads = thaler_payloads(ar, [(r, 3, 0, 1) for r in CHALLENGES])
+    payloads[2]["evals"].append([0, 0, 0, 0])
+    ff = run(payloads)[1].to_json()["first_failure"]
+    assert (ff["check"], ff["expected"], ff["found"]) == ("degree", "4", "5")
+
+
+def test_schedule_given_by_name_applies_when_the_stream_declares_none():
+    payloads = [p for p in _scheduled(tamper_round=3) if p["type"] != "schedule"]
+    assert run(payloads)[1].verdict == "accept"  # no schedule: challenges are not re-derived
+    _, report = run(payloads, schedule=SCHEDULE_NAME)
+    assert report.first_failure.check == "challenge"  # re-derived without the label: differs at round 1
+    assert report.first_failure.round == 1

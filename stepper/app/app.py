@@ -10,7 +10,9 @@ compare screen (:mod:`stepper.app.compare_screen`) opens on top, when present.
 
 from __future__ import annotations
 
+import asyncio
 import importlib.util
+import time
 from pathlib import Path
 from typing import Any
 
@@ -21,7 +23,9 @@ from stepper.app.proof_screen import ProofScreen
 from stepper.app.source import TranscriptSource
 from stepper.transcript import Note
 
-__all__ = ["StepperApp", "compare_available"]
+__all__ = ["StepperApp", "compare_available", "READ_SLICE"]
+
+READ_SLICE = 600  # events fed between two chances for the app to handle a key
 
 
 def compare_available() -> bool:
@@ -58,11 +62,18 @@ class StepperApp(App[int]):
         self.proof_screen = ProofScreen(model)
 
     @classmethod
-    def from_file(cls, path: str | Path, *, witness: str | Path | None = None, **options: Any) -> StepperApp:
-        """Read ``path`` now (a file that breaks part-way shows what came before the
-        break and says where it broke) and diagnose against ``witness`` if given."""
+    def from_file(cls, path: str | Path, *, witness: str | Path | None = None, progressive: bool = False,
+                  strict: bool = False, **options: Any) -> StepperApp:
+        """An app on ``path``. A file that breaks part-way shows what came before the
+        break and says where it broke; ``strict`` raises instead when not even the
+        field can be read. ``progressive`` reads only the start now and the rest in
+        slices once the app runs (the first screen paints at once); otherwise the
+        whole file is read and checked first. A witness implies a full first read."""
         source = TranscriptSource(path, witness)
-        model = source.open(strict=False)
+        if progressive and witness is None:
+            model = source.open_start(strict)
+            return cls(model, source=source, **options)
+        model = source.open(strict)
         diagnosis = source.diagnose(model) if witness is not None and model.field is not None else None
         return cls(model, source=source, diagnosis=diagnosis, **options)
 
@@ -72,6 +83,8 @@ class StepperApp(App[int]):
 
     def on_mount(self) -> None:
         self.push_screen(self.proof_screen)
+        if self.model.loading:
+            self.run_worker(self._read_rest(), name="first read", exclusive=True)
         if self.follow:
             self.set_interval(self.poll_seconds, self.poll_file, name="follow")
         if self.compare is not None:
@@ -86,6 +99,18 @@ class StepperApp(App[int]):
         from stepper.app.compare_screen import CompareScreen  # type: ignore[import-not-found]
 
         self.push_screen(CompareScreen(self.source.path, Path(other)))
+
+    async def _read_rest(self) -> None:
+        """Feed the rest of the file in slices, yielding to key presses between them
+        and repainting the summary and strip a few times a second."""
+        assert self.source is not None
+        painted = time.monotonic()
+        while not self.source.pump(self.model, READ_SLICE):
+            if time.monotonic() - painted > 0.3:
+                self.proof_screen.model_changed()
+                painted = time.monotonic()
+            await asyncio.sleep(0)
+        self.proof_screen.model_changed()
 
     def poll_file(self) -> int:
         """Feed whatever the file gained since the last look; repaint if anything did."""

@@ -17,7 +17,6 @@ __all__ = ["AskScreen"]
 class AskScreen(ModalScreen[str | None]):
     """One line of input under a one-line question."""
 
-    CSS_PATH = "stepper.tcss"
     BINDINGS = [Binding("escape", "back_out", "Cancel")]
 
     def __init__(self, question: str, hint: str = "", initial: str = "") -> None:

@@ -64,7 +64,6 @@ def bucket_text(model: ProofModel, instance: int) -> Text:
 class BucketsScreen(Screen[None]):
     """Occupancy charts of one instance at a time."""
 
-    CSS_PATH = "stepper.tcss"
     BINDINGS = [
         Binding("greater_than_sign", "hop(1)", "Next instance"),
         Binding("less_than_sign", "hop(-1)", "Previous instance"),

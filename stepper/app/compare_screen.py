@@ -155,8 +155,8 @@ class CompareScreen(Screen[None]):
         a = self.path_a.name if self.path_a else "A"
         b = self.path_b.name if self.path_b else "B"
         head.update(f" A {a} ({c.field_a.describe()}, {c.completeness_a})   B {b} "
-                    f"({c.field_b.describe()}, {c.completeness_b})   marks: g values  r challenge  c claim  "
-                    "f final  - one side only  >> first divergence")
+                    f"({c.field_b.describe()}, {c.completeness_b})")
+        verdict.border_subtitle = "marks: g values  r challenge  c claim  f final  - one side only  >> first divergence"
         lines = Text()
         if c.divergence is None:
             lines.append("identical", style="bold #6fb39a")
@@ -201,7 +201,9 @@ class CompareScreen(Screen[None]):
                 table.move_cursor(row=target, animate=False)
 
     def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
-        """Keep both sides on the same line."""
+        """Keep both sides on the line the person moved to (only the focused table leads)."""
+        if not event.data_table.has_focus:
+            return
         other = "#table-b" if event.data_table.id == "table-a" else "#table-a"
         table = self.query_one(other, DataTable)
         if table.row_count and table.cursor_row != event.cursor_row and event.cursor_row < table.row_count:

@@ -37,7 +37,6 @@ def key_label(key: str) -> str:
 class HelpScreen(ModalScreen[None]):
     """A modal list of keys; any of escape, k or F1 closes it."""
 
-    CSS_PATH = "stepper.tcss"
     BINDINGS = [Binding("escape,k,f1", "close", "Close")]
 
     def __init__(self, bindings: Iterable[Binding], title: str = "Keys") -> None:

@@ -151,6 +151,7 @@ class ProofModel:
         self.completeness = "incomplete"
         self.digest = "missing"
         self.events_seen = 0
+        self.loading = False  # True while the first read is still feeding events
         self.generation = 0  # bumps on every change; screens repaint when it moves
         self._replay_factory = replay_factory
         self._replay: Any = replay_factory() if replay_factory is not None else None
@@ -252,7 +253,7 @@ class ProofModel:
         """The replay's report of everything fed so far. Once the file is complete the
         live replay closes and reports; before that (a growing or truncated file) a
         fresh replay of the same records reports, so the live one can go on."""
-        if self._replay is None:
+        if self._replay is None or self.loading:
             return None
         if self._report is not None and (self._report_generation == self.generation or self._closed):
             return self._report
@@ -277,6 +278,9 @@ class ProofModel:
         return fold_events(self._records, self.header, self.completeness, self.digest)  # type: ignore[arg-type]
 
     def verdict(self) -> str:
+        """The replay's verdict, or ``checking`` while the first read is under way."""
+        if self.loading:
+            return "checking"
         report = self.report()
         return str(report.verdict) if report is not None else "incomplete"
 

@@ -55,7 +55,6 @@ def parse_round_target(text: str, current_instance: int) -> Position | None:
 class ProofScreen(Screen[None]):
     """Summary on top, strip of every round, then table and detail side by side."""
 
-    CSS_PATH = "stepper.tcss"
     BINDINGS = [
         Binding("full_stop", "step(1)", "Next round"),
         Binding("comma", "step(-1)", "Previous round"),
@@ -108,6 +107,8 @@ class ProofScreen(Screen[None]):
     # ----- state -------------------------------------------------------------------
     def model_changed(self) -> None:
         """Repaint what depends on the whole model (after the file grew or a note)."""
+        if not self.is_mounted:
+            return  # on_mount paints everything once the screen exists
         lines = summary_lines(self.model)
         if self.stepper.problem:
             lines.insert(0, Line("stopped reading", self.stepper.problem, "bad"))

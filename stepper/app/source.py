@@ -1,31 +1,32 @@
-"""The app's I/O edge: read a transcript into a :class:`ProofModel`, follow it as it
-grows, save notes, and run the witness diagnosis.
+"""The app's I/O edge: read a transcript into a :class:`ProofModel` in slices, follow
+it as it grows, save notes, and run the witness diagnosis.
 
 Reading goes through :mod:`stepper.store` (msgpack transcripts and JSON-lines
-event files alike). A file that breaks part-way is not fatal here: the events
-before the break are shown and the break becomes ``problem``, one line that
-says what was expected, what was found and where. Following re-opens the file
-when its size changes and feeds only the events not seen before; a half-written
-tail is simply not an event yet.
+event files alike). ``begin`` opens the file and ``pump`` feeds at most a given
+number of events per call, so the app paints the first instance at once and
+checks the rest between key presses. A file that breaks part-way is not fatal
+here: the events before the break are shown and the break becomes ``problem``,
+one line that says what was expected, what was found and where. Following
+re-opens the file when its size changes and feeds only the events not seen
+before; a half-written tail is simply not an event yet.
 """
 
 from __future__ import annotations
 
 import os
+from functools import partial
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterator
 
 from stepper.app.proof_model import ProofModel
 from stepper.errors import InputError, StepperError
-from stepper.transcript import Header, Note
+from stepper.transcript import Event, Header, Note
 
 __all__ = ["TranscriptSource", "new_model"]
 
 
 def new_model(source: str = "", header: Header | None = None) -> ProofModel:
-    """A model wired to the core replay."""
-    from functools import partial
-
+    """A model wired to the core replay (round detail kept for the report)."""
     from stepper.verify import Replay
 
     return ProofModel(partial(Replay, keep_rounds=True), header, source)
@@ -38,27 +39,94 @@ class TranscriptSource:
         self.path = Path(path)
         self.witness_path = Path(witness) if witness is not None else None
         self.problem: str | None = None
-        self._size = -1
-        self._fed = 0
         self.diagnosis: Any = None
-
-    def open(self, strict: bool = True) -> ProofModel:
-        """A fresh model with every event the file holds now. When not even the field
-        can be read, ``strict`` raises :class:`InputError`; otherwise the model stays
-        empty and ``problem`` says why."""
-        model = new_model(str(self.path))
-        self._fed = 0
         self._size = -1
-        self.problem = None
-        self.refresh(model)
-        if strict and model.field is None and self.problem is not None:
-            raise InputError(self.problem)
-        return model
+        self._fed = 0
+        self._stream: Any = None
+        self._records: Iterator[Event] | None = None
 
-    def refresh(self, model: ProofModel) -> int:
-        """Feed the events written since the last call; returns how many arrived."""
+    # ----- first read, in slices ----------------------------------------------------
+    def begin(self) -> ProofModel:
+        """A fresh, empty model and the file opened for :meth:`pump`."""
         from stepper.store import open_events
 
+        model = new_model(str(self.path))
+        self._fed = 0
+        self.problem = None
+        model.loading = True
+        try:
+            self._size = os.stat(self.path).st_size
+            self._stream = open_events(self.path, best_effort=True)
+            self._records = iter(self._stream)
+            model.header = self._stream.header
+        except StepperError as err:
+            self._fail(model, str(err))
+        except OSError as err:
+            self._fail(model, f"{self.path}: cannot read ({err.strerror or err})")
+        return model
+
+    def pump(self, model: ProofModel, limit: int) -> bool:
+        """Feed up to ``limit`` more events; True once the file is exhausted (or broke)."""
+        records = self._records
+        if records is None:
+            return True
+        try:
+            for _ in range(limit):
+                record = next(records, None)
+                if record is None:
+                    stream = self._stream
+                    self._close()
+                    model.loading = False
+                    model.finish(stream.completeness, stream.digest)
+                    return True
+                model.feed(record)
+                self._fed += 1
+        except StepperError as err:
+            self._fail(model, str(err))
+            return True
+        return False
+
+    def open(self, strict: bool = True) -> ProofModel:
+        """A model with every event the file holds now. When not even the field can be
+        read, ``strict`` raises :class:`InputError`; otherwise ``problem`` says why."""
+        model = self.begin()
+        while not self.pump(model, 1 << 16):
+            pass
+        self.check_usable(model, strict)
+        return model
+
+    def open_start(self, strict: bool = True) -> ProofModel:
+        """A model with the first events read (enough to know the field); the rest is
+        left for :meth:`pump`."""
+        model = self.begin()
+        while model.field is None and not self.pump(model, 8):
+            pass
+        self.check_usable(model, strict)
+        return model
+
+    def check_usable(self, model: ProofModel, strict: bool) -> None:
+        if strict and model.field is None and self.problem is not None:
+            raise InputError(self.problem)
+
+    def _fail(self, model: ProofModel, problem: str) -> None:
+        self.problem = problem
+        self._close()
+        model.loading = False
+        model.finish("incomplete", "missing")
+
+    def _close(self) -> None:
+        if self._stream is not None:
+            self._stream.close()
+        self._stream = None
+        self._records = None
+
+    # ----- following ---------------------------------------------------------------
+    def refresh(self, model: ProofModel) -> int:
+        """Feed the events written since the last look; returns how many arrived."""
+        from stepper.store import open_events
+
+        if model.loading:
+            return 0
         try:
             size = os.stat(self.path).st_size
         except OSError as err:
@@ -70,15 +138,15 @@ class TranscriptSource:
         before = self._fed
         seen = 0
         try:
-            with open_events(self.path) as events:
+            with open_events(self.path, best_effort=True) as events:
                 if model.events_seen == 0:
-                    model.header = getattr(events, "header", None) or model.header
+                    model.header = events.header
                 for record in events:
                     seen += 1
                     if seen > self._fed:
                         model.feed(record)
                         self._fed = seen
-                model.finish(getattr(events, "completeness", "complete"), getattr(events, "digest", "missing"))
+                model.finish(events.completeness, events.digest)
             self.problem = None
         except StepperError as err:
             self.problem = str(err)
@@ -87,6 +155,7 @@ class TranscriptSource:
             self.problem = f"{self.path}: cannot read ({err.strerror or err})"
         return self._fed - before
 
+    # ----- notes and witness -------------------------------------------------------
     def save_note(self, model: ProofModel, note: Note) -> None:
         """Append the note to the file (the recorded part's digest stays intact) and show it."""
         from stepper.store import append_note

@@ -1,17 +1,92 @@
-"""`stepper demo`: not built yet (PENDING: an open issue fills this in)."""
+"""`stepper demo`: write the Brackwater Ferries example proofs and open a failing one.
+
+Writes every :data:`stepper.provers.catalogue.EXAMPLES` transcript and witness
+into a fresh folder (``--dir`` to choose it), says where, and opens the
+terminal app on a failing proof with its witness; ``--no-view`` prints the
+check of an honest and of the failing proof instead. :func:`write_example`
+is also what transcripts/regenerate.py uses.
+"""
 
 from __future__ import annotations
 
 import argparse
-import sys
+import os
+from typing import Any
 
-HELP = "(demo: not built yet)"
+HELP = "build the Brackwater Ferries example proofs in a fresh folder and open a failing one"
+DESCRIPTION = (
+    "Brackwater Ferries (an invented operator) proves, per sailing, that the gate scanner's boarding log "
+    "is a permutation of the booking ledger and that every car-deck slot record is well formed. The demo "
+    "writes honest, tampered and buggy proofs of one sailing to a fresh folder (printed), then opens the "
+    "terminal app on a proof whose prover has a bug, with its witness for the root cause. --no-view prints "
+    "the checks instead. Accepted proofs are evidence about one run, not a soundness proof."
+)
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    parser.add_argument("--dir", metavar="DIR", help="write the examples here (created; default: a new temp folder)")
+    parser.add_argument("--no-view", action="store_true", help="print the checks instead of opening the app")
 
 
 def run(args: argparse.Namespace) -> int:
-    print("stepper demo: not built yet", file=sys.stderr)
-    return 2
+    import tempfile
+
+    from stepper.errors import InputError
+    from stepper.provers.catalogue import DEMO_FAILING, DEMO_HONEST, EXAMPLES
+
+    if args.dir:
+        directory = args.dir
+        try:
+            os.makedirs(directory, exist_ok=True)
+        except OSError as err:
+            raise InputError(f"expected to create the folder {directory}, but {err.strerror.lower()}") from None
+    else:
+        directory = tempfile.mkdtemp(prefix="stepper-demo-")
+    for example in EXAMPLES:
+        write_example(example, directory, reproducible=False)
+    print(f"stepper demo: wrote {len(EXAMPLES)} Brackwater Ferries proofs (sailing isle-of-quill-0740) to {directory}")
+    for example in EXAMPLES:
+        print(f"  {example.stem}.stp  {example.shows}")
+    failing = os.path.join(directory, f"{DEMO_FAILING}.stp")
+    witness = os.path.join(directory, f"{DEMO_FAILING}.witness.json")
+    if not args.no_view and _app_available():
+        from stepper.cli.main import main
+
+        print(f"opening {failing} in the terminal app (quit the app to return)")
+        return main(["view", failing, "--witness", witness])
+    from stepper.cli.main import main
+
+    honest = os.path.join(directory, f"{DEMO_HONEST}.stp")
+    print(f"\n$ stepper check {honest}")
+    main(["check", honest])
+    print(f"\n$ stepper check {failing} --witness {witness}")
+    main(["check", failing, "--witness", witness])
+    print(f"\nnext: stepper view {failing} --witness {witness}")
+    print(f"      stepper buckets {honest}")
+    return 0
+
+
+def _app_available() -> bool:
+    import importlib.util
+
+    return importlib.util.find_spec("stepper.app.app") is not None
+
+
+def write_example(example: Any, directory: str, *, reproducible: bool) -> tuple[str, str]:
+    """Write ``<stem>.stp`` and ``<stem>.witness.json`` into ``directory``; with
+    ``reproducible`` the header's `created` is fixed so the bytes depend only on the example."""
+    from stepper.cli.prove_cmd import metadata, write_witness
+    from stepper.provers.reference import parse_field, prove
+    from stepper.store import TranscriptWriter
+
+    field = parse_field(example.field)
+    meta = metadata(example.spec, example.field)
+    meta["shows"] = example.shows
+    if reproducible:
+        meta["created"] = "fixed for reproducible output (transcripts/regenerate.py)"  # no clock in the bytes
+    path = os.path.join(directory, f"{example.stem}.stp")
+    witness = os.path.join(directory, f"{example.stem}.witness.json")
+    with TranscriptWriter(path, metadata=meta) as writer:
+        proof = prove(example.spec, field, writer)
+    write_witness(witness, field, proof)
+    return path, witness

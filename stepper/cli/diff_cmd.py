@@ -77,9 +77,9 @@ def render(c: Comparison, label_a: str, label_b: str) -> list[str]:
         lines.append(f"kind: {c.classification.kind}")
         lines.append(f"  {c.classification.explanation}")
         pair = next((p for p in c.pairs if (p.pairing.a, p.pairing.b) == (d.instance_a, d.instance_b)), None)
-        if pair is not None and d.round:
+        if pair is not None and d.round is not None:
             lines.extend(_window(c.field_a, pair, d.round))
-    lines.extend(f"note: {r}" for r in c.remarks)
+    lines.extend(f"also: {r}" for r in c.remarks)
     lines.append(CAUTION)
     return lines
 

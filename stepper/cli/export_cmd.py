@@ -1,17 +1,70 @@
-"""`stepper export`: not built yet (PENDING: an open issue fills this in)."""
+"""`stepper export FILE [-o OUT]`: a transcript as JSON lines.
+
+Prints one header line (``{"type": "header", ...}``: format version, writer
+version, metadata) and then one JSON object per event, elements as JSON
+integers (decimal strings above 2^53) or lists of them for an extension
+field: the event-stream form of DESIGN.md, so ``stepper import`` turns it
+back into the same events. Appended notes are exported as ordinary notes.
+Streaming: the transcript is never held in memory.
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
 import sys
+from itertools import chain
+from typing import IO
 
-HELP = "(export: not built yet)"
+HELP = "print a transcript as JSON lines (the event-stream form; `stepper import` reads it back)"
+DESCRIPTION = (
+    "Print FILE as JSON lines: a header line, then one event per line with field elements as integers or "
+    "decimal strings. `stepper import` turns the output back into the same transcript events."
+)
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    parser.add_argument("file", metavar="FILE", help="transcript (or JSON-lines event file)")
+    parser.add_argument("-o", "--output", metavar="OUT", help="write to OUT instead of standard output")
 
 
 def run(args: argparse.Namespace) -> int:
-    print("stepper export: not built yet", file=sys.stderr)
-    return 2
+    from stepper.errors import TranscriptError, Where
+
+    if args.output is None:
+        return _export(args.file, sys.stdout)
+    try:
+        with open(args.output, "w", encoding="utf-8") as out:
+            return _export(args.file, out)
+    except OSError as err:
+        raise TranscriptError(f"could not write the export: {err.strerror or err}", Where(file=args.output)) from None
+
+
+def _export(path: str, out: IO[str]) -> int:
+    from stepper.events import to_payload
+    from stepper.store import open_events
+    from stepper.transcript import FieldDecl
+
+    with open_events(path) as stream:
+        records = iter(stream)
+        first = next(records, None)
+        header = {"type": "header", "format_version": stream.header.format_version,
+                  "tool_version": stream.header.tool_version, "metadata": dict(stream.header.metadata)}
+        write = out.write
+        write(json.dumps(header, default=_jsonable) + "\n")
+        field = None
+        for record in chain([] if first is None else [first], records):
+            if isinstance(record, FieldDecl):
+                field = record.field
+            write(json.dumps(to_payload(record, field, binary=False), default=_jsonable) + "\n")
+    if stream.completeness != "complete":
+        print(f"stepper export: {path} is incomplete (the writer did not finish); exported the events present",
+              file=sys.stderr)
+    return 0
+
+
+def _jsonable(value: object) -> object:
+    """Free-form data from a transcript (unknown events, metadata) as JSON: bytes as hex."""
+    if isinstance(value, (bytes, bytearray)):
+        return "0x" + bytes(value).hex()
+    raise TypeError(f"cannot export a {type(value).__name__}")

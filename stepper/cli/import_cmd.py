@@ -1,17 +1,69 @@
-"""`stepper import`: not built yet (PENDING: an open issue fills this in)."""
+"""`stepper import EVENTS -o OUT`: turn a saved event file into a transcript.
+
+EVENTS is a JSON-lines event file (DESIGN.md, interop contract 1), such as a
+prover wrote to ``STEPPER_EVENTS`` or ``stepper export`` printed; a stepper
+transcript is accepted too (re-sealing it). Every event is validated on the
+way in. A partial last line (a crash mid-write) is dropped and OUT is left
+unsealed ("incomplete"); a malformed line stops the import with one error
+naming its line, and OUT keeps the events before it, unsealed.
+"""
 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 
-HELP = "(import: not built yet)"
+from stepper.errors import TranscriptError, UsageError
+
+HELP = "convert a JSON-lines event file into a transcript (validated, sealed with a digest)"
+DESCRIPTION = (
+    "Read EVENTS (one JSON event per line, as a prover writes for `stepper record`, or the output of "
+    "`stepper export`) and write the transcript OUT. A partial last line is dropped and OUT is marked "
+    "incomplete; a malformed line is an error naming the line."
+)
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    parser.add_argument("events", metavar="EVENTS", help="JSON-lines event file (or a transcript)")
+    parser.add_argument("-o", "--output", required=True, metavar="OUT", help="transcript file to write")
+    parser.add_argument("--label", metavar="TEXT", help="a label stored in the transcript header")
 
 
 def run(args: argparse.Namespace) -> int:
-    print("stepper import: not built yet", file=sys.stderr)
-    return 2
+    from stepper.store import TranscriptWriter, open_events
+
+    if os.path.exists(args.output) and os.path.samefile(args.events, args.output):
+        raise UsageError("expected EVENTS and -o OUT to be different files, found the same file twice")
+    with open_events(args.events) as stream:
+        records = iter(stream)
+        first = next(records, None)  # reading the first event also reads an exported header line
+        meta = dict(stream.header.metadata)
+        meta.setdefault("imported_from", os.path.basename(args.events))
+        if args.label:
+            meta["label"] = args.label
+        writer = TranscriptWriter(args.output, metadata=meta)
+        try:
+            if first is not None:
+                writer.write(first)
+            for record in records:
+                writer.write(record)
+        except TranscriptError as err:
+            writer.close()
+            raise TranscriptError(f"{err.message}; {args.output} keeps the {writer.events} events before it, "
+                                  "marked incomplete", err.where) from None
+        except BaseException:
+            writer.close()
+            raise
+        complete = stream.completeness == "complete"
+        if complete:
+            writer.finish()
+        else:
+            writer.close()
+    if complete:
+        print(f"stepper import: {args.output}: {writer.events} events, sealed", file=sys.stderr)
+    else:
+        where = f"line {stream.truncated_at}" if stream.kind == "events" else f"byte {stream.truncated_at}"
+        cut = f"; the cut-off event at {where} was dropped" if stream.truncated_at is not None else ""
+        print(f"stepper import: {args.output}: {writer.events} events, incomplete{cut}", file=sys.stderr)
+    return 0

@@ -1,17 +1,199 @@
-"""`stepper info`: not built yet (PENDING: an open issue fills this in)."""
+"""`stepper info FILE [--json]`: what a transcript holds, without replaying it.
+
+Streams the file once (best effort, so a corrupt file is still described)
+and prints the format, writer and metadata, the field, the Fiat-Shamir
+schedule, each instance with its rounds present / expected and whether its
+final value is there, whether the file is complete and its digest verified,
+the notes, and what the file reveals. Exit 0 when the file could be read, 2
+when it is corrupt (digest mismatch) or unreadable.
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
 import sys
+from dataclasses import dataclass, field as dc_field
+from typing import Any
 
-HELP = "(info: not built yet)"
+HELP = "describe a transcript: field, instances and rounds present, completeness, digest, metadata, notes"
+DESCRIPTION = (
+    "Describe FILE without replaying it: format and writer, metadata, field, schedule, every instance with "
+    "its rounds present/expected, completeness, digest status, notes. Exit 2 if the digest does not match."
+)
+
+SHOWN = 20
+REVEALS = ("public values only: claims, round polynomials, challenges, final values and annotations; "
+           "a transcript never contains the witness (but free-form notes, metadata and unknown events hold "
+           "whatever the prover put there)")
+CAVEAT = "a passing `stepper check` on this file is evidence about this one run, not a soundness proof"
+
+
+@dataclass
+class _InstanceSummary:
+    name: str
+    num_vars: int
+    degree: int
+    order: str
+    form: str
+    batched: bool
+    rounds: int = 0
+    challenges: int = 0
+    final: bool = False
+    buckets: int = 0
+
+
+@dataclass
+class _Summary:
+    instances: list[_InstanceSummary] = dc_field(default_factory=list)
+    notes: list[Any] = dc_field(default_factory=list)
+    note_count: int = 0
+    unknown: dict[str, int] = dc_field(default_factory=dict)
+    field: Any = None
+    schedule: Any = None
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    parser.add_argument("file", metavar="FILE", help="transcript (or JSON-lines event file)")
+    parser.add_argument("--json", action="store_true", help="print one JSON object")
+    parser.add_argument("--rows", type=int, default=SHOWN, metavar="N",
+                        help=f"instances listed (default {SHOWN}; the totals always cover all)")
 
 
 def run(args: argparse.Namespace) -> int:
-    print("stepper info: not built yet", file=sys.stderr)
-    return 2
+    from stepper.errors import TranscriptError, UsageError, Where
+    from stepper.store import open_events
+
+    if args.rows < 0:
+        raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
+    summary = _Summary()
+    with open_events(args.file, best_effort=True) as stream:
+        for record in stream:
+            _take(summary, record)
+    info = _as_json(args.file, stream, summary)
+    if args.json:
+        print(json.dumps(info, indent=2, default=str))
+    else:
+        print("\n".join(_as_text(info, summary, args.rows)))
+    if stream.digest == "mismatch":
+        raise TranscriptError("expected the digest in the end event to match the recorded bytes, found a "
+                              "mismatch: the file changed after it was written (corrupt)", Where(file=args.file))
+    return 0
+
+
+def _take(summary: _Summary, record: Any) -> None:
+    from stepper.transcript import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
+                                    RoundMsg, ScheduleDecl, UnknownEvent)
+
+    kind = type(record)
+    if kind is RoundMsg:
+        summary.instances[record.instance].rounds += 1
+    elif kind is ChallengeMsg:
+        summary.instances[record.instance].challenges += 1
+    elif kind is InstanceStart:
+        summary.instances.append(_InstanceSummary(record.name, record.num_vars, record.degree, record.order,
+                                                  record.form, record.batch is not None))
+    elif kind is FinalValue:
+        summary.instances[record.instance].final = True
+    elif kind is BucketStats:
+        summary.instances[record.instance].buckets += 1
+    elif kind is Note:
+        summary.note_count += 1
+        if len(summary.notes) < 50:
+            summary.notes.append(record)
+    elif kind is FieldDecl:
+        summary.field = record.field
+    elif kind is ScheduleDecl:
+        summary.schedule = record
+    elif kind is UnknownEvent:
+        summary.unknown[record.kind] = summary.unknown.get(record.kind, 0) + 1
+
+
+def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
+    fld = summary.field
+    return {
+        "file": path,
+        "kind": stream.kind,
+        "format_version": stream.header.format_version,
+        "tool_version": stream.header.tool_version,
+        "metadata": dict(stream.header.metadata),
+        "completeness": stream.completeness,
+        "digest": stream.digest,
+        "truncated_at": stream.truncated_at,
+        "appended_notes": stream.appended,
+        "field": None if fld is None else {"name": fld.describe(), "p": str(fld.p), "degree": fld.degree,
+                                           "element_bytes": fld.elem_bytes},
+        "schedule": None if summary.schedule is None else {"name": summary.schedule.name,
+                                                           "label": summary.schedule.label},
+        "instances": [
+            {"index": i, "name": s.name, "num_vars": s.num_vars, "degree": s.degree, "order": s.order,
+             "form": s.form, "batched": s.batched, "rounds_present": s.rounds, "rounds_expected": s.num_vars,
+             "challenges": s.challenges, "final": s.final, "bucket_reports": s.buckets}
+            for i, s in enumerate(summary.instances)
+        ],
+        "notes": [{"text": n.text, "instance": n.instance, "round": n.round} for n in summary.notes],
+        "note_count": summary.note_count,
+        "unknown_events": summary.unknown,
+        "reveals": REVEALS,
+        "caveat": CAVEAT,
+    }
+
+
+def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
+    lines: list[str] = []
+    if info["kind"] == "transcript":
+        lines.append(f"{info['file']}: stepper transcript, format {info['format_version']}, "
+                     f"written by stepper {info['tool_version'] or '?'}")
+    else:
+        lines.append(f"{info['file']}: JSON-lines event file (not sealed: no digest)")
+    for key, value in info["metadata"].items():
+        text = " ".join(value) if key == "command" and isinstance(value, list) else str(value)
+        lines.append(f"  {key}: {text[:200]}")
+    fld = info["field"]
+    lines.append("field: none (the file stops before its field event)" if fld is None else
+                 f"field: {fld['name']} ({fld['element_bytes']} bytes per element)")
+    if info["schedule"]:
+        label = f" (label {info['schedule']['label']!r})" if info["schedule"]["label"] else ""
+        lines.append(f"challenges: derived by the {info['schedule']['name']} schedule{label}")
+    lines.append(f"state: {_state(info)}")
+    instances = info["instances"]
+    full = sum(1 for s in instances if s["rounds_present"] == s["rounds_expected"])
+    lines.append(f"instances: {len(instances)} ({full} with every round present)")
+    for s in instances[:rows]:
+        extras = [f"order {s['order']}"] if s["order"] != "low-first" else []
+        if s["form"] != "evals":
+            extras.append(f"form {s['form']}")
+        if s["batched"]:
+            extras.append("batched claim")
+        if s["bucket_reports"]:
+            extras.append(f"{s['bucket_reports']} bucket reports")
+        final = "final value" if s["final"] else "no final value"
+        lines.append(f"  {s['index']:>3}  {s['name']}: rounds {s['rounds_present']}/{s['rounds_expected']}, "
+                     f"degree {s['degree']}, {final}" + (f", {', '.join(extras)}" if extras else ""))
+    if len(instances) > rows:
+        lines.append(f"  ... and {len(instances) - rows} more (--rows N to list more)")
+    if info["unknown_events"]:
+        kinds = ", ".join(f"{k} x{n}" for k, n in info["unknown_events"].items())
+        lines.append(f"unknown events kept: {kinds}")
+    lines.append(f"notes: {info['note_count']}" + (f" ({info['appended_notes']} appended after recording)"
+                                                   if info["appended_notes"] else ""))
+    for note in summary.notes:
+        place = "proof" if note.instance is None else f"instance {note.instance}"
+        if note.round is not None:
+            place += f", round {note.round}"
+        lines.append(f"  [{place}] {note.text[:200]}")
+    lines.append(f"reveals: {REVEALS}")
+    lines.append(f"note: {CAVEAT}")
+    return lines
+
+
+def _state(info: dict[str, Any]) -> str:
+    digest = {"verified": "digest verified (the recorded part is intact)",
+              "mismatch": "DIGEST MISMATCH: the file changed after it was written (corrupt)",
+              "missing": "no digest (the writer did not finish)",
+              "not-applicable": "no digest (event files carry none)"}[info["digest"]]
+    state = info["completeness"]
+    if info["truncated_at"] is not None:
+        unit = "line" if info["kind"] == "events" else "byte"
+        state += f", a cut-off last event at {unit} {info['truncated_at']} was dropped"
+    return f"{state}; {digest}"

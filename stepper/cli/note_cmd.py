@@ -10,7 +10,6 @@ is about the whole proof.
 from __future__ import annotations
 
 import argparse
-import sys
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:

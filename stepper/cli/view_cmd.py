@@ -33,7 +33,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
-    from stepper.app.source import TranscriptSource
     from stepper.errors import EXIT_OK, InputError, UsageError
 
     exports = Path(args.exports)
@@ -41,16 +40,12 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError(f"expected --exports to name a directory, found {args.exports!r}")
     if args.compare is not None and not Path(args.compare).is_file():
         raise InputError(f"expected --compare to name a readable file, found {args.compare!r}")
-    source = TranscriptSource(args.file, args.witness)
-    if not args.follow or Path(args.file).exists():
-        model = source.open(strict=True)
-    else:
+    if args.follow and not Path(args.file).exists():
         raise InputError(f"{args.file}: expected a file to follow, found none (start the prover first)")
-    diagnosis = source.diagnose(model) if args.witness else None
 
     from stepper.app.app import StepperApp
 
-    app = StepperApp(model, source=source, follow=args.follow, export_dir=exports, compare=args.compare,
-                     diagnosis=diagnosis)
+    app = StepperApp.from_file(args.file, witness=args.witness, progressive=True, strict=True,
+                               follow=args.follow, export_dir=exports, compare=args.compare)
     app.run()
     return EXIT_OK

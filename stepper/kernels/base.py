@@ -76,8 +76,8 @@ class Kernel(ABC):
     def scalar_array(self, s: Element) -> np.ndarray:
         return self.array([s])
 
-    def _use_compiled(self, a: np.ndarray, b: np.ndarray | None = None) -> ModuleType | None:
-        size = a.shape[0] if b is None else max(a.shape[0] if a.ndim else 1, b.shape[0] if b.ndim else 1)
+    def _use_compiled(self, a: Any, b: Any = None) -> ModuleType | None:
+        size = max(np.shape(a)[0] if np.ndim(a) else 1, np.shape(b)[0] if b is not None and np.ndim(b) else 1)
         return load_compiled() if size >= self.compiled_min else None
 
     def _bad_entry(self, arr: np.ndarray, bad: np.ndarray) -> FieldError:

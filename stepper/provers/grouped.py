@@ -47,11 +47,22 @@ if TYPE_CHECKING:
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 
-__all__ = ["MAX_SWITCH_ROUND", "SIZES_LIMIT", "prove_permutation_grouped", "prove_group_products", "group_tables"]
+__all__ = ["MAX_SWITCH_ROUND", "SIZES_LIMIT", "bucket_products", "direct_products", "prove_permutation_grouped", "prove_group_products", "group_tables"]
 
 MAX_SWITCH_ROUND = 5  # rounds 1..4 can be bucketed (see the look-up rule in prove_group_products)
 SIZES_LIMIT = 4096  # buckets events list entries-per-bucket up to this many buckets
 _FOLD_FAULTS = ("flip-order", "stale-challenge", "product-of-sums")
+
+
+def bucket_products(width: int, widest: int) -> int:
+    """Products per bucket of a group of ``width`` bits in a bucketed round: the two
+    end values of each bit's restricted polynomial, then width per evaluation point."""
+    return 2 * width + (widest + 2) * width
+
+
+def direct_products(width: int, widest: int) -> int:
+    """Products per remaining entry of a group in a direct round (folding not included)."""
+    return (widest + 2) * width
 
 
 def group_tables(counter: MulCounter, bits: Sequence[np.ndarray], alpha: Sequence[Element],
@@ -148,8 +159,8 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
         if tables is None and 2 * width <= MAX_MASK_BITS and (switch_round is None or k < switch_round):
             subset = subset_sums(field, bound_eq)
             occupancy = [group_buckets(bits, g, k) for g in parts]
-            bucket_cost = sum(o.count * (len(g) * (len(g) + 2) + 2 * len(g)) for o, g in zip(occupancy, parts))
-            direct_cost = sum(half * (len(g) * (len(g) + 2) + len(g)) for g in parts)
+            bucket_cost = sum(o.count * bucket_products(len(g), widest) for o, g in zip(occupancy, parts))
+            direct_cost = sum(half * (direct_products(len(g), widest) + len(g)) for g in parts)
             paying = switch_round is not None or bucket_cost < direct_cost
             for j, (o, g) in enumerate(zip(occupancy, parts)):
                 sizes = sorted(o.sizes.tolist(), reverse=True) if o.count <= SIZES_LIMIT else None

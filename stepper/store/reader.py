@@ -235,7 +235,7 @@ class EventStream:
             if seq.stopped_at is not None:
                 self._check_end(seq.stopped_at.payload, seq.count - 1)
                 for payload in self._payloads():
-                    yield self._appended(payload, seq.feed(payload))
+                    yield self._appended(payload)
         except TranscriptError as err:
             raise self._locate(err) from None
         except (ValueError, msgpack.UnpackException) as err:
@@ -275,11 +275,13 @@ class EventStream:
         raise TranscriptError(f"expected {problem}: the file changed after it was written (corrupt)",
                               self.where.but(offset=start, event=events))
 
-    def _appended(self, payload: Any, record: Event) -> Event:
-        if not isinstance(record, Note):
-            kind = payload.get("type") if isinstance(payload, dict) else type(payload).__name__
-            raise TranscriptError(f"expected only `note` events after the end event, found `{kind}`",
-                                  self.where.but(event=self._seq.count - 1))
+    def _appended(self, payload: Any) -> Event:
+        kind = payload.get("type") if isinstance(payload, dict) else type(payload).__name__
+        if kind != "note":
+            raise TranscriptError(f"expected only `note` events after the end event, found `{str(kind)[:40]}`",
+                                  self.where.but(event=self._seq.count))
+        record = self._seq.feed(payload)
+        assert isinstance(record, Note)
         self.appended += 1
         if "instance" not in payload:
             return Note(record.text, None, record.round)

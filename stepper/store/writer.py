@@ -74,6 +74,16 @@ class TranscriptWriter:
         """Events written so far (the end event not counted)."""
         return self._seq.count
 
+    @property
+    def awaiting_challenge(self) -> bool:
+        """Whether the last round written still waits for its challenge."""
+        return self._seq.awaiting_challenge
+
+    @property
+    def field(self) -> object:
+        """The field declared so far (None before the field event)."""
+        return self._seq.field
+
     def _emit(self, data: bytes) -> None:
         self._hasher.update(data)
         try:

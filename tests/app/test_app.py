@@ -23,7 +23,7 @@ def detail_text(app: StepperApp) -> str:
     return app.proof_screen.query_one("#detail", ReadoutPanel).plain()
 
 
-async def test_step_keys_move_one_round_and_cross_instances(honest_file, tmp_path):
+async def test_step_keys_move_one_round_and_instance_keys_hop_to_round_one(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
         screen = app.proof_screen
@@ -35,11 +35,6 @@ async def test_step_keys_move_one_round_and_cross_instances(honest_file, tmp_pat
         await pilot.press("comma")
         assert screen.position == (0, 4)
         assert "round: 4 of 4" in detail_text(app)
-
-
-async def test_instance_keys_hop_to_round_one_of_the_next_or_previous_instance(honest_file, tmp_path):
-    app = app_for(honest_file, tmp_path)
-    async with app.run_test(size=SIZE) as pilot:
         await pilot.press("greater_than_sign", "greater_than_sign", "greater_than_sign")
         assert app.proof_screen.position == (2, 1)  # clamped at the last instance
         await pilot.press("less_than_sign")
@@ -58,24 +53,19 @@ async def test_failure_keys_jump_to_the_first_and_then_the_next_failure(failing_
         assert app.proof_screen.position == (1, 2)  # wrapped
 
 
-async def test_failure_keys_on_an_honest_proof_say_there_is_none(honest_file, tmp_path):
+async def test_failure_keys_on_an_honest_proof_say_there_is_none_and_the_table_cursor_moves(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("exclamation_mark")
         assert app.proof_screen.last_message == "no failed check so far"
         await pilot.press("x")
         assert app.proof_screen.position == (0, 1)
-
-
-async def test_the_table_cursor_moves_the_detail_pane(honest_file, tmp_path):
-    app = app_for(honest_file, tmp_path)
-    async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("down", "down")
+        await pilot.press("down", "down")  # the table's own cursor keys move the detail pane too
         await pilot.pause()
         assert app.proof_screen.position == (0, 3)
 
 
-async def test_go_to_round_accepts_n_and_instance_colon_round(honest_file, tmp_path):
+async def test_go_to_round_takes_n_or_instance_colon_round_and_seek_finds_a_value(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("r")
@@ -89,11 +79,6 @@ async def test_go_to_round_accepts_n_and_instance_colon_round(honest_file, tmp_p
         assert "expected a round number that exists" in app.proof_screen.last_message
         await pilot.press("r", "escape")
         assert isinstance(app.screen, ProofScreen)
-
-
-async def test_seek_finds_a_value_and_moves_to_its_round(honest_file, tmp_path):
-    app = app_for(honest_file, tmp_path)
-    async with app.run_test(size=SIZE) as pilot:
         challenge = app.model.instances[1].challenges[1]
         await pilot.press("s", *str(challenge), "enter")
         assert app.proof_screen.position == (1, 2)
@@ -151,7 +136,7 @@ async def test_exports_write_an_svg_and_a_markdown_report(failing_file, tmp_path
     assert "evidence about" in text
 
 
-async def test_live_key_keeps_the_cursor_on_the_newest_round(honest_file, tmp_path):
+async def test_live_key_keeps_the_cursor_on_the_newest_round_and_q_quits(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("l")
@@ -159,14 +144,8 @@ async def test_live_key_keeps_the_cursor_on_the_newest_round(honest_file, tmp_pa
         assert app.proof_screen.position == (2, 4)
         await pilot.press("l")
         assert not app.proof_screen.live
-
-
-async def test_q_quits(honest_file, tmp_path):
-    app = app_for(honest_file, tmp_path)
-    async with app.run_test(size=SIZE) as pilot:
         await pilot.press("q")
         await pilot.pause()
-    assert app.return_code == 0 or app.return_code is None
     assert not app.is_running
 
 

@@ -50,10 +50,26 @@ def test_the_note_shows_in_check(run_file, capsys):
     assert TEXT in capsys.readouterr().out
 
 
+def test_the_note_shows_in_info_which_also_says_what_the_file_reveals(run_file, capsys):
+    main(["note", str(run_file), "-i", "deck-slots-zero", "-k", "2", TEXT])
+    capsys.readouterr()
+    assert main(["info", str(run_file)]) == 0
+    out = capsys.readouterr().out
+    assert TEXT in out
+    assert "never contains the witness" in out
+
+
 def test_the_note_shows_in_the_apps_model(run_file):
     main(["note", str(run_file), "-i", "deck-slots-zero", "-k", "2", TEXT])
     model = TranscriptSource(run_file).open(strict=True)
     assert [n.text for n in model.notes_at((1, 2))] == [TEXT]
+
+
+def test_an_event_file_cannot_take_a_note(tmp_path, capsys):
+    events = tmp_path / "events.jsonl"
+    events.write_text('{"type": "field", "name": "babybear"}\n', encoding="utf-8")
+    assert main(["note", str(events), "about nothing"]) == 2
+    assert "stepper import" in capsys.readouterr().err
 
 
 @pytest.mark.parametrize("argv, message", [

@@ -1,0 +1,117 @@
+"""Scale of the terminal app, measured through Textual's Pilot, side by side.
+
+Writes two demo transcripts (Brackwater Ferries, invented data): a small one
+(3 instances x 4 rounds) and a large one (default 4000 instances x 25 rounds =
+10^5 rounds), then for each: time from creating the app to its first paint,
+time until every round is checked, and the wall time of single steps (one key
+press each, as the Pilot delivers it, repaint included) and instance hops.
+Prints the figures and the large/small ratios, measured in the same run.
+
+    python bench/app.py [--instances N] [--rounds K] [--steps S]
+"""
+
+from __future__ import annotations
+
+import argparse
+import asyncio
+import random
+import statistics
+import sys
+import tempfile
+import time
+from pathlib import Path
+from typing import Any, Iterator
+
+P = 2**31 - 2**27 + 1  # BabyBear (common practice, no source)
+
+
+def payloads(instances: int, rounds: int, seed: int = 740) -> Iterator[dict[str, Any]]:
+    """A proof whose sum checks all pass: each g has degree 2, g(1) = claim - g(0),
+    and the next claim is g(r) by Lagrange interpolation on 0, 1, 2."""
+    rng = random.Random(seed)
+    half = pow(2, -1, P)
+    yield {"type": "field", "name": "babybear"}
+    for i in range(instances):
+        claim = rng.randrange(P)
+        yield {"type": "instance", "name": f"boarding-permutation-{i}", "num_vars": rounds, "degree": 2,
+               "claim": claim}
+        for _ in range(rounds):
+            g0, g2 = rng.randrange(P), rng.randrange(P)
+            g1 = (claim - g0) % P
+            yield {"type": "round", "evals": [g0, g1, g2]}
+            r = rng.randrange(P)
+            yield {"type": "challenge", "value": r}
+            claim = (g0 * (r - 1) * (r - 2) * half - g1 * r * (r - 2) + g2 * r * (r - 1) * half) % P
+        yield {"type": "final", "value": claim}
+
+
+def write(path: Path, instances: int, rounds: int) -> Path:
+    from stepper.store import TranscriptWriter
+
+    with TranscriptWriter(path, metadata={"sailing": "isle-of-quill-0740"}) as writer:
+        for payload in payloads(instances, rounds):
+            writer.write_payload(payload)
+    return path
+
+
+async def measure(path: Path, steps: int) -> dict[str, float]:
+    from stepper.app.app import StepperApp
+
+    start = time.perf_counter()
+    app = StepperApp.from_file(path, progressive=True, export_dir=path.parent)
+    out: dict[str, float] = {}
+    async with app.run_test(size=(140, 44)) as pilot:
+        await pilot.pause()
+        out["first paint s"] = time.perf_counter() - start
+        during = []
+        while app.model.loading and len(during) < 10:
+            t = time.perf_counter()
+            await pilot.press("full_stop")
+            during.append(time.perf_counter() - t)
+        while app.model.loading:
+            await pilot.pause(0.02)
+        out["all checked s"] = time.perf_counter() - start
+        out["step while reading ms"] = 1000 * max(during) if during else 0.0
+        times = []
+        for _ in range(steps):
+            t = time.perf_counter()
+            await pilot.press("full_stop")
+            times.append(time.perf_counter() - t)
+        hops = []
+        for _ in range(max(4, steps // 10)):
+            t = time.perf_counter()
+            await pilot.press("greater_than_sign")
+            hops.append(time.perf_counter() - t)
+        out["step median ms"] = 1000 * statistics.median(times)
+        out["step max ms"] = 1000 * max(times)
+        out["hop median ms"] = 1000 * statistics.median(hops)
+        out["rounds"] = app.model.round_count
+        out["verdict accept"] = float(app.model.verdict() == "accept")
+    return out
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--instances", type=int, default=4000)
+    parser.add_argument("--rounds", type=int, default=25)
+    parser.add_argument("--steps", type=int, default=60)
+    args = parser.parse_args(argv)
+    with tempfile.TemporaryDirectory() as tmp:
+        t = time.perf_counter()
+        small = write(Path(tmp) / "small.stp", 3, 4)
+        large = write(Path(tmp) / "large.stp", args.instances, args.rounds)
+        print(f"wrote the transcripts in {time.perf_counter() - t:.1f} s "
+              f"({large.stat().st_size / 1e6:.1f} MB for {args.instances * args.rounds} rounds)")
+        results = {"small": asyncio.run(measure(small, args.steps)),
+                   "large": asyncio.run(measure(large, args.steps))}
+    keys = list(results["small"])
+    print(f"{'':24}{'small':>12}{'large':>12}{'large/small':>14}")
+    for key in keys:
+        a, b = results["small"][key], results["large"][key]
+        ratio = f"{b / a:.2f}" if a else "-"
+        print(f"{key:24}{a:12.1f}{b:12.1f}{ratio:>14}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,73 @@
+"""Prove one Brackwater Ferries sailing with stepper's reference provers, recording through the Recorder.
+
+Scenario (invented demo data): for sailing isle-of-quill-0740 the gate scanner's
+boarding log must be a permutation of the booking ledger (grouped permutation
+check with a bucketed second layer), and every car-deck slot record must be
+well formed (zero-check). The reference prover sends event records to any
+object with ``write(record)``; `RecorderSink` below hands each one to the
+matching `stepper.recorder.Recorder` call.
+
+    python samples/prove_sailing.py sailing.stp                 # honest
+    python samples/prove_sailing.py sailing.stp stale-challenge@3   # with a prover bug
+    stepper check sailing.stp
+    stepper buckets sailing.stp
+"""
+
+from __future__ import annotations
+
+import sys
+from typing import Any
+
+from stepper.provers.faults import parse_fault
+from stepper.provers.reference import ProveSpec, parse_field, prove
+from stepper.recorder import Recorder
+from stepper.transcript import (BatchDecl, BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
+                                RoundMsg, ScheduleDecl)
+
+
+class RecorderSink:
+    """The reference prover's records, written through the Recorder's typed calls."""
+
+    def __init__(self, recorder: Recorder) -> None:
+        self.rec = recorder
+
+    def write(self, record: Any) -> Any:
+        rec = self.rec
+        if isinstance(record, FieldDecl):
+            return rec.field(record.field)
+        if isinstance(record, ScheduleDecl):
+            return rec.schedule(record.name, record.label)
+        if isinstance(record, BatchDecl):
+            return rec.batch(record.coefficient, record.terms, record.sources)
+        if isinstance(record, InstanceStart):
+            return rec.instance(record.name, record.num_vars, record.degree, record.claim, order=record.order,
+                                form=record.form)
+        if isinstance(record, RoundMsg):
+            return rec.round(record.values)
+        if isinstance(record, ChallengeMsg):
+            return rec.challenge(record.value)
+        if isinstance(record, FinalValue):
+            return rec.final(record.value)
+        if isinstance(record, BucketStats):
+            return rec.buckets(record.round, record.chunk, record.count, record.sizes, bound_log2=record.bound_log2,
+                               remaining=record.remaining, **dict(record.extra))
+        if isinstance(record, Note):
+            return rec.note(record.text, record.instance, record.round)
+        raise TypeError(f"no Recorder call for {type(record).__name__}")
+
+
+def main(path: str, fault: str | None = None, *, created: str | None = None) -> None:
+    spec = ProveSpec("ferries", num_vars=6, seed=740, groups=3, fault=parse_fault(fault) if fault else None,
+                     label="Brackwater Ferries isle-of-quill-0740 (samples/prove_sailing.py)")
+    metadata = {"sailing": "isle-of-quill-0740", "sample": "samples/prove_sailing.py"}
+    if fault:
+        metadata["fault"] = fault
+    if created is not None:
+        metadata["created"] = created
+    with Recorder(path, metadata=metadata) as recorder:
+        proof = prove(spec, parse_field("babybear"), RecorderSink(recorder))
+    print(f"{path}: {len(proof.instances)} instances, {proof.total_mults} field multiplications")
+
+
+if __name__ == "__main__":
+    main(sys.argv[1] if len(sys.argv) > 1 else "sailing.stp", sys.argv[2] if len(sys.argv) > 2 else None)

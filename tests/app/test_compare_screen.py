@@ -1,0 +1,105 @@
+"""The compare screen: A and B side by side, the first divergence marked, driven with Pilot.
+
+Runs are the app tests' demo proofs (tests/app/proofs.py: plain-integer honest
+prover, built-in schedule); B differs from A by one evaluation.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from proofs import brackwater_payloads, bump_g1, write_transcript
+from stepper.app.app import StepperApp
+from stepper.app.compare_screen import CompareScreen, side_rows
+from stepper.app.proof_screen import ProofScreen
+from stepper.diff import compare
+from stepper.store import load
+from textual.app import App
+from textual.widgets import DataTable, Static
+
+GROUPED = "boarding-permutation-grouped"
+
+
+def pair_of_files(tmp_path: Path, tamper=None) -> tuple[Path, Path]:
+    a = write_transcript(tmp_path / "monday.stp", brackwater_payloads(mu=3))
+    b = write_transcript(tmp_path / "tuesday.stp", brackwater_payloads(mu=3, tamper=tamper))
+    return a, b
+
+
+def cells(table: DataTable, row: int) -> list[str]:
+    return [str(c) for c in table.get_row_at(row)]
+
+
+async def test_view_with_compare_opens_both_sides_at_the_divergence(tmp_path):
+    a, b = pair_of_files(tmp_path, bump_g1(GROUPED, 2))
+    app = StepperApp.from_file(a, compare=b)
+    async with app.run_test(size=(150, 40)) as pilot:
+        await pilot.pause()
+        screen = app.screen
+        assert isinstance(screen, CompareScreen)
+        verdict = str(screen.query_one("#compare-verdict", Static).render())
+        assert f"prover-arithmetic at instance '{GROUPED}' (A #1, B #1), round 2, g(1)" in verdict
+        table_a, table_b = screen.query_one("#table-a", DataTable), screen.query_one("#table-b", DataTable)
+        # claim, rounds 1..3, final on each side; round 2 (row 2) carries the divergence mark
+        assert table_a.row_count == table_b.row_count == 5
+        assert cells(table_a, 2)[0].startswith(">>") and cells(table_b, 2)[0].startswith(">>")
+        assert cells(table_a, 1)[0] == ""  # round 1 agrees
+        assert table_a.cursor_row == table_b.cursor_row == 2
+
+
+async def test_keys_move_between_instances_back_to_the_divergence_and_out(tmp_path):
+    a, b = pair_of_files(tmp_path, bump_g1(GROUPED, 2))
+    app = StepperApp.from_file(a, compare=b)
+    async with app.run_test(size=(150, 40)) as pilot:
+        await pilot.pause()
+        screen = app.screen
+        assert screen.pair == 1
+        await pilot.press("greater_than_sign")
+        assert screen.pair == 2
+        assert str(screen.query_one("#side-a").border_title).endswith("deck-slots-zero")
+        await pilot.press("exclamation_mark")
+        await pilot.pause()
+        assert screen.pair == 1 and screen.query_one("#table-a", DataTable).cursor_row == 2
+        await pilot.press("down")
+        await pilot.pause()
+        assert screen.query_one("#table-b", DataTable).cursor_row == 3  # B follows the line A moved to
+        await pilot.press("escape")
+        assert isinstance(app.screen, ProofScreen)
+
+
+async def test_identical_runs_say_so_and_mark_nothing(tmp_path):
+    a, b = pair_of_files(tmp_path)
+    app = StepperApp.from_file(a, compare=b)
+    async with app.run_test(size=(150, 40)) as pilot:
+        await pilot.pause()
+        screen = app.screen
+        assert str(screen.query_one("#compare-verdict", Static).render()).startswith("identical")
+        table = screen.query_one("#table-a", DataTable)
+        assert all(cells(table, k)[0] == "" for k in range(table.row_count))
+
+
+async def test_an_unreadable_second_file_is_one_line_on_the_screen(tmp_path):
+    a, _ = pair_of_files(tmp_path)
+    junk = tmp_path / "junk.stp"
+    junk.write_bytes(b"not a transcript at all")
+
+    class Host(App[None]):
+        def on_mount(self) -> None:
+            self.push_screen(CompareScreen(a, junk))
+
+    app = Host()
+    async with app.run_test(size=(150, 40)) as pilot:
+        await pilot.pause()
+        head = str(app.screen.query_one("#compare-head", Static).render())
+        assert head.startswith(" cannot compare: ") and str(junk) in head
+
+
+def test_side_rows_mark_rounds_only_one_side_has(tmp_path):
+    a = write_transcript(tmp_path / "full.stp", brackwater_payloads(mu=3, instances=("boarding-permutation",)))
+    b = write_transcript(tmp_path / "cut.stp", brackwater_payloads(mu=3, instances=("boarding-permutation",),
+                                                                   stop_after=7), finish=False)
+    c = compare(load(a), load(b))
+    rows_b = side_rows(c, c.pairs[0], "b")
+    assert [r[1] for r in rows_b] == ["claim", "round 1", "round 2", "round 3", "final"]
+    assert rows_b[3][:3] == (">>-", "round 3", "(not sent)")
+    assert rows_b[4][2] == "(none)" and rows_b[4][4] is True

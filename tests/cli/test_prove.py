@@ -1,0 +1,110 @@
+"""`stepper prove`, `stepper buckets`, `stepper plan` and `stepper demo` from the command line."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from stepper.cli.main import main
+
+
+def _prove(tmp_path, *flags):
+    out = tmp_path / "p.stp"
+    code = main(["prove", "-o", str(out), "--num-vars", "5", *flags])
+    return code, out
+
+
+@pytest.mark.parametrize("kind", ["generic", "zerocheck", "perm-direct", "perm-grouped", "ferries"])
+def test_every_kind_writes_a_transcript_that_check_accepts_with_its_witness(kind, tmp_path, capsys):
+    witness = tmp_path / "w.json"
+    code, out = _prove(tmp_path, "--kind", kind, "--witness-out", str(witness))
+    assert code == 0
+    assert "multiplications" in capsys.readouterr().out
+    assert main(["check", str(out), "--witness", str(witness), "--json"]) == 0
+    report = json.loads(capsys.readouterr().out)
+    assert report["verdict"] == "accept" and report["root_cause"] is None
+
+
+def test_a_fault_is_rejected_and_the_root_cause_names_its_round(tmp_path, capsys):
+    witness = tmp_path / "w.json"
+    code, out = _prove(tmp_path, "--kind", "perm-direct", "--fault", "montgomery@3", "--witness-out", str(witness))
+    assert code == 0
+    capsys.readouterr()
+    assert main(["check", str(out), "--witness", str(witness), "--json"]) == 1
+    report = json.loads(capsys.readouterr().out)
+    assert (report["first_failure"]["round"], report["first_failure"]["check"]) == (3, "sum")
+    assert report["root_cause"]["round"] == 3
+
+
+def test_prove_json_summary_lists_round_multiplications(tmp_path, capsys):
+    code, _ = _prove(tmp_path, "--kind", "perm-grouped", "--groups", "2", "--switch-round", "3", "--json")
+    summary = json.loads(capsys.readouterr().out)
+    assert code == 0
+    assert [i["name"] for i in summary["instances"]] == ["permutation", "permutation/groups"]
+    assert all(len(i["round_mults"]) == 5 for i in summary["instances"])
+    assert summary["multiplications"] > sum(sum(i["round_mults"]) for i in summary["instances"])
+
+
+@pytest.mark.parametrize("flags, message", [
+    (["--fault", "gremlin"], "expected a fault among"),
+    (["--field", "babybear^3"], "babybear^3"),
+    (["--switch-round", "soon"], "--switch-round"),
+    (["--num-vars", "40"], "--num-vars"),
+    (["--kind", "perm-direct", "--order", "high-first"], "low-first"),
+])
+def test_bad_flags_are_one_line_and_exit_2(flags, message, tmp_path):
+    proc = subprocess.run([sys.executable, "-m", "stepper", "prove", "-o", str(tmp_path / "x.stp"), *flags],
+                          capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert message in proc.stderr and proc.stderr.strip().count("\n") == 0
+    assert "Traceback" not in proc.stderr
+
+
+def test_buckets_prints_rows_and_json(tmp_path, capsys):
+    _, out = _prove(tmp_path, "--kind", "perm-grouped", "--groups", "2")
+    capsys.readouterr()
+    assert main(["buckets", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "instance 1 'permutation/groups'" in text and "buckets" in text
+    assert main(["buckets", str(out), "--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)["rows"]
+    assert rows[0]["round"] == 1 and rows[0]["bound_log2"] == 2 * 3
+
+
+def test_buckets_on_a_proof_without_buckets_says_so(tmp_path, capsys):
+    _, out = _prove(tmp_path, "--kind", "generic")
+    capsys.readouterr()
+    assert main(["buckets", str(out)]) == 0
+    assert "no bucket events" in capsys.readouterr().out
+
+
+def test_plan_recommends_a_row_and_reads_a_sigma_file(tmp_path, capsys):
+    assert main(["plan", "--num-vars", "6", "--json"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    assert result["recommended"]["multiplications"] == min(r["multiplications"] for r in result["rows"])
+    assert "not a proof" in result["caution"]
+    sigma = tmp_path / "sigma.json"
+    sigma.write_text(json.dumps(list(range(15, -1, -1))))
+    assert main(["plan", "--sigma", str(sigma)]) == 0
+    assert "recommended: --groups" in capsys.readouterr().out
+
+
+def test_plan_refuses_a_sigma_that_is_not_a_permutation(tmp_path, capsys):
+    sigma = tmp_path / "sigma.json"
+    sigma.write_text("[0, 1, 1, 3]")
+    assert main(["plan", "--sigma", str(sigma)]) == 2
+    err = capsys.readouterr().err
+    assert "sigma.json" in err and "permutation of 0..3" in err
+
+
+def test_demo_without_the_app_writes_the_examples_and_shows_a_failure_and_an_acceptance(tmp_path):
+    proc = subprocess.run([sys.executable, "-m", "stepper", "demo", "--dir", str(tmp_path / "d"), "--no-view"],
+                          capture_output=True, text=True, timeout=60)
+    assert proc.returncode == 0, proc.stderr
+    assert f"to {tmp_path / 'd'}" in proc.stdout
+    assert "ACCEPTED" in proc.stdout and "REJECTED" in proc.stdout
+    assert "challenge-shift" in proc.stdout  # the root-cause probe explains the prover bug
+    assert (tmp_path / "d" / "ferries-stale-challenge.witness.json").exists()

@@ -1,0 +1,226 @@
+"""`stepper record`, `import`, `export` and `info`: any-language recording, crash safety,
+round trips, and one-line errors with exit code 2 for bad input."""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from stepper.cli.main import main
+from stepper.store import load
+
+GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
+
+# A prover in "another language": it only appends JSON lines to $STEPPER_EVENTS.
+# Demo data (invented): Brackwater Ferries, sailing isle-of-quill-0740.
+PROVER = r'''
+import json, os, sys, time
+rounds, mode = int(sys.argv[1]), sys.argv[2]
+with open(os.environ["STEPPER_EVENTS"], "a") as out:
+    def emit(event):
+        out.write(json.dumps(event) + "\n")
+        out.flush()
+    emit({"type": "field", "name": "babybear"})
+    emit({"type": "instance", "name": "boarding-permutation", "num_vars": 8, "degree": 1, "claim": 7})
+    for k in range(rounds):
+        emit({"type": "round", "evals": [3, 4]})
+        emit({"type": "challenge", "value": k + 1})
+    if mode == "hang":
+        out.write('{"type": "round", "ev')  # a line cut short by the kill
+        out.flush()
+        Path = __import__("pathlib").Path
+        Path(sys.argv[3]).write_text(str(os.getpid()))
+        time.sleep(60)
+    if mode == "garbage":
+        out.write("gate 3: scanner jammed\n")
+        out.flush()
+    sys.exit(int(sys.argv[3]) if mode == "exit" else 0)
+'''
+
+
+def stepper(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "stepper", *args], capture_output=True, text=True, cwd=cwd,
+                          timeout=120)
+
+
+@pytest.fixture
+def prover(tmp_path: Path) -> Path:
+    path = tmp_path / "prover.py"
+    path.write_text(PROVER)
+    return path
+
+
+def test_record_seals_a_transcript_when_the_prover_exits_zero(tmp_path, prover):
+    out = tmp_path / "quill.stp"
+    proc = stepper("record", "-o", str(out), "--label", "isle-of-quill-0740", "--",
+                   sys.executable, str(prover), "8", "ok")
+    assert proc.returncode == 0, proc.stderr
+    assert "18 events, complete" in proc.stderr
+    t = load(out)
+    assert (t.completeness, t.digest) == ("complete", "verified")
+    assert [r.challenge for r in t.instances[0].rounds] == list(range(1, 9))
+    assert t.header.metadata["label"] == "isle-of-quill-0740"
+    assert t.header.metadata["command"][-2:] == ["8", "ok"]
+
+
+def test_record_returns_the_prover_status_and_keeps_an_incomplete_transcript(tmp_path, prover):
+    out = tmp_path / "quill.stp"
+    proc = stepper("record", "-o", str(out), "--", sys.executable, str(prover), "3", "exit", "5")
+    assert proc.returncode == 5
+    assert "exited with status 5" in proc.stderr
+    t = load(out)
+    assert (t.completeness, t.digest) == ("incomplete", "missing")
+    assert len(t.instances[0].rounds) == 3
+
+
+def test_prover_killed_with_sigkill_mid_proof_keeps_every_round_before_the_kill(tmp_path, prover):
+    out = tmp_path / "killed.stp"
+    pid_file = tmp_path / "pid"
+    record = subprocess.Popen([sys.executable, "-m", "stepper", "record", "-o", str(out), "--",
+                               sys.executable, str(prover), "5", "hang", str(pid_file)],
+                              stderr=subprocess.PIPE, text=True)
+    deadline = time.monotonic() + 60
+    while not pid_file.exists() or not pid_file.read_text():
+        assert time.monotonic() < deadline, "the prover never started"
+        time.sleep(0.05)
+    while len(load(out).instances[0].rounds if load(out).instances else ()) < 5:
+        assert time.monotonic() < deadline, "rounds did not reach the transcript while the prover ran"
+        time.sleep(0.05)  # the transcript fills while the prover is still running
+    os.kill(int(pid_file.read_text()), signal.SIGKILL)
+    _, err = record.communicate(timeout=60)
+    assert record.returncode == 128 + signal.SIGKILL
+    assert "killed by SIGKILL" in err and "partial last line (line 13) was dropped" in err
+    t = load(out)
+    assert (t.completeness, t.digest) == ("incomplete", "missing")
+    assert [r.challenge for r in t.instances[0].rounds] == [1, 2, 3, 4, 5]
+
+
+def test_record_stops_on_a_line_that_is_not_json_naming_it(tmp_path, prover):
+    out = tmp_path / "garbage.stp"
+    proc = stepper("record", "-o", str(out), "--", sys.executable, str(prover), "2", "garbage")
+    assert proc.returncode == 2
+    line = proc.stderr.strip()
+    assert "\n" not in line and "line 7" in line and "invalid JSON" in line and "keeps the 6 events" in line
+    assert len(load(out).instances[0].rounds) == 2
+
+
+def test_record_without_a_command_or_with_a_missing_program_is_exit_2(tmp_path):
+    proc = stepper("record", "-o", str(tmp_path / "x.stp"))
+    assert proc.returncode == 2 and "expected a command to run" in proc.stderr
+    proc = stepper("record", "-o", str(tmp_path / "x.stp"), "--", "no-such-prover-binary")
+    assert proc.returncode == 2 and "cannot be started" in proc.stderr
+    assert proc.stderr.count("\n") == 1
+    assert not (tmp_path / "x.stp").exists()
+
+
+def write_events(path: Path, lines: list[dict[str, object]], tail: str = "") -> Path:
+    path.write_text("".join(json.dumps(line) + "\n" for line in lines) + tail)
+    return path
+
+
+DECK_EVENTS = [
+    {"type": "field", "name": "goldilocks"},
+    {"type": "instance", "name": "deck-slots-zero", "num_vars": 2, "degree": 3, "claim": "0"},
+    {"type": "round", "evals": [0, 0, str(GOLDILOCKS - 1), "0x05"]},
+    {"type": "challenge", "value": 12345678901234567},
+    {"type": "note", "text": "slot 7 re-measured", "round": 1},
+    {"type": "round", "evals": [0, 0, 1, 2]},
+    {"type": "challenge", "value": 2**63},
+    {"type": "final", "value": 77},
+    {"type": "deck-camera", "frame": 12},
+]
+
+
+def test_import_then_export_gives_back_the_same_events(tmp_path, capsys):
+    events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
+    out = tmp_path / "deck.stp"
+    assert main(["import", str(events), "-o", str(out), "--label", "deck check"]) == 0
+    t = load(out)
+    assert (t.completeness, t.digest) == ("complete", "verified")
+    assert t.instances[0].rounds[0].values == (0, 0, GOLDILOCKS - 1, 5)
+    capsys.readouterr()
+    assert main(["export", str(out)]) == 0
+    lines = [json.loads(line) for line in capsys.readouterr().out.splitlines()]
+    assert lines[0]["type"] == "header" and lines[0]["metadata"]["label"] == "deck check"
+    assert lines[3] == {"type": "round", "evals": [0, 0, str(GOLDILOCKS - 1), 5]}
+    assert lines[-1] == {"type": "deck-camera", "frame": 12}
+    again = tmp_path / "again.jsonl"
+    again.write_text("".join(json.dumps(line) + "\n" for line in lines))
+    second = tmp_path / "again.stp"
+    assert main(["import", str(again), "-o", str(second)]) == 0
+    assert load(second).instances == t.instances
+    assert load(second).header.metadata["label"] == "deck check"
+
+
+def test_import_drops_a_partial_last_line_and_leaves_the_transcript_unsealed(tmp_path, capsys):
+    events = write_events(tmp_path / "cut.jsonl", DECK_EVENTS[:4], tail='{"type": "round", "ev')
+    out = tmp_path / "cut.stp"
+    assert main(["import", str(events), "-o", str(out)]) == 0
+    assert "incomplete; the cut-off event at line 5 was dropped" in capsys.readouterr().err
+    assert load(out).completeness == "incomplete"
+
+
+def test_import_of_a_non_json_line_in_the_middle_is_exit_2_naming_the_line(tmp_path):
+    events = tmp_path / "bad.jsonl"
+    events.write_text(json.dumps(DECK_EVENTS[0]) + "\n" + json.dumps(DECK_EVENTS[1]) + "\n"
+                      + "round 1: 0 0 1 2\n" + json.dumps(DECK_EVENTS[2]) + "\n")
+    proc = stepper("import", str(events), "-o", str(tmp_path / "bad.stp"))
+    assert proc.returncode == 2
+    assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
+    assert "line 3" in proc.stderr and "invalid JSON" in proc.stderr
+
+
+@pytest.mark.parametrize(
+    ("event", "expected"),
+    [
+        ({"type": "field", "name": "ristretto"}, "expected a field name among"),
+        ({"type": "instance", "name": "x", "num_vars": 1, "degree": 1, "claim": str(GOLDILOCKS)},
+         "canonical"),
+        ({"type": "round", "evals": [1, 2]}, "expected an `instance` event before `round`"),
+    ],
+)
+def test_bad_events_are_one_line_and_exit_2(tmp_path, event, expected):
+    lines = [DECK_EVENTS[0], event] if event["type"] != "field" else [event]
+    events = write_events(tmp_path / "e.jsonl", lines)
+    proc = stepper("import", str(events), "-o", str(tmp_path / "e.stp"))
+    assert proc.returncode == 2 and expected in proc.stderr and proc.stderr.count("\n") == 1
+
+
+def test_info_describes_instances_completeness_digest_and_notes(tmp_path, capsys):
+    events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
+    out = tmp_path / "deck.stp"
+    main(["import", str(events), "-o", str(out), "--label", "isle-of-quill-0740"])
+    main(["note", str(out), "--instance", "0", "--round", "2", "camera 4 blurred"])
+    capsys.readouterr()
+    assert main(["info", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "field: goldilocks (8 bytes per element)" in text
+    assert "deck-slots-zero: rounds 2/2, degree 3, final value" in text
+    assert "complete; digest verified" in text
+    assert "notes: 2 (1 appended after recording)" in text and "camera 4 blurred" in text
+    assert "label: isle-of-quill-0740" in text
+    assert "never contains the witness" in text and "not a soundness proof" in text
+    assert main(["info", str(out), "--json"]) == 0
+    info = json.loads(capsys.readouterr().out)
+    assert info["instances"][0]["rounds_present"] == 2 and info["digest"] == "verified"
+    assert info["unknown_events"] == {"deck-camera": 1}
+
+
+def test_info_on_a_corrupt_file_describes_it_and_exits_2(tmp_path, capsys):
+    events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
+    out = tmp_path / "deck.stp"
+    main(["import", str(events), "-o", str(out)])
+    data = bytearray(out.read_bytes())
+    data[data.index(b"deck-slots-zero")] = ord("D")
+    out.write_bytes(bytes(data))
+    capsys.readouterr()
+    assert main(["info", str(out)]) == 2
+    captured = capsys.readouterr()
+    assert "DIGEST MISMATCH" in captured.out and "corrupt" in captured.err

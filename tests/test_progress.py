@@ -1,0 +1,48 @@
+"""The stderr progress bar: silent off a terminal, drawn on one, never swallowing Ctrl-C."""
+
+from __future__ import annotations
+
+import io
+
+import numpy as np
+import pytest
+
+from rootcause_prover import prove
+from stepper.field import NAMED_PRIMES, get_field
+from stepper.progress import terminal_progress, wants_bar
+from stepper.rootcause import diagnose
+
+
+class _Tty(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_no_bar_is_drawn_when_the_stream_is_not_a_terminal() -> None:
+    stream = io.StringIO()
+    assert not wants_bar(stream)
+    with terminal_progress("work", delay=0.0, stream=stream) as update:
+        update(1, 10)
+        update(10, 10)
+    assert stream.getvalue() == ""
+
+
+def test_a_bar_is_drawn_on_a_terminal_once_the_delay_has_passed(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.delenv("TERM", raising=False)
+    stream = _Tty()
+    with terminal_progress("recomputing", delay=0.0, stream=stream) as update:
+        update(3, 10)
+    assert "recomputing" in stream.getvalue()
+
+
+def test_ctrl_c_during_recomputation_reaches_the_caller() -> None:
+    field = get_field(NAMED_PRIMES["goldilocks"])
+    rng = np.random.default_rng(1)
+    transcript, witness = prove(field, {n: field.vrandom(32, rng) for n in ("a", "b")}, "a*b", degree=2)
+
+    def interrupt(done: int, total: int) -> None:
+        raise KeyboardInterrupt
+
+    with pytest.raises(KeyboardInterrupt):
+        with terminal_progress("work", delay=0.0, stream=_Tty()) as update:
+            diagnose(transcript, witness, progress=lambda d, t: (update(d, t), interrupt(d, t)))
