@@ -32,6 +32,7 @@ FIELDS = (
     "koalabear",
     "mersenne31",
     "goldilocks",
+    "2^64-59",
     "bn254",
     "bls12-381",
     "babybear^4",
@@ -61,6 +62,8 @@ def best_ns(run: Callable[[], Any], count: int, repeat: int) -> float:
 
 
 def field_of(label: str) -> Field:
+    if label == "2^64-59":  # a generic 64-bit prime (the largest below 2^64): the Montgomery kernel
+        return get_field(2**64 - 59)
     name, _, degree = label.partition("^")
     q = DEFAULT_IRREDUCIBLES[(name, int(degree))] if degree else None
     return get_field(NAMED_PRIMES[name], q)

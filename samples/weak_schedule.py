@@ -27,6 +27,7 @@ def derive(history: Sequence[Mapping[str, Any]]) -> Any:
     schedule = Sha256Schedule()
     field = None
     index = -1
+    round_ = 0
     for event in history:
         kind = event.get("type")
         if kind == "field":
@@ -39,11 +40,13 @@ def derive(history: Sequence[Mapping[str, Any]]) -> Any:
             schedule.observe(BatchDecl(_element(field, event["coefficient"]), terms))
         elif kind == "instance":
             index += 1
+            round_ = 0
             schedule.observe(InstanceStart(index, event["name"], event["num_vars"], event["degree"], field.zero,
                                            event.get("order", "low-first"), event.get("form", "evals")))
         elif kind == "round":
             values = event.get("evals", event.get("values", []))
-            schedule.observe(RoundMsg(index, 0, tuple(_element(field, v) for v in values)))
+            round_ += 1
+            schedule.observe(RoundMsg(index, round_, tuple(_element(field, v) for v in values)))
         elif kind == "challenge":
             schedule.challenge()  # absorbs the challenge, as the prover's schedule did
     value = schedule.challenge()

@@ -8,7 +8,8 @@ the buckets stop paying and a prover should switch to the direct method.
 
 :func:`occupancy` turns a transcript's :class:`~stepper.transcript.BucketStats`
 into :class:`OccupancyRow` records: count vs ceiling, a summary of entries per
-bucket, whether the prover used the buckets (its ``used`` key, when sent) and
+bucket (from ``sizes``, or the prover's ``sizes_summary`` when it sent no list),
+whether the prover used the buckets (its ``used`` key, when sent) and
 the impossibilities found (a count above the bound or above the remaining
 entries, sizes that do not add up). Pure: no I/O.
 """
@@ -124,16 +125,29 @@ def _problems(stats: BucketStats) -> tuple[str, ...]:
     return tuple(found)
 
 
+def _sent_summary(stats: BucketStats) -> SizeSummary | None:
+    """A prover's own ``sizes_summary`` (sent instead of the list for many buckets), if well formed."""
+    sent = stats.extra.get("sizes_summary")
+    keys = ("smallest", "median", "largest", "singletons")
+    if not isinstance(sent, dict) or not all(isinstance(sent.get(k), int) for k in keys):
+        return None
+    histogram = sent.get("histogram_log2", [])
+    if not isinstance(histogram, list) or not all(isinstance(b, int) for b in histogram):
+        histogram = []
+    return SizeSummary(stats.count, stats.remaining or 0, sent["smallest"], sent["median"], sent["largest"],
+                       sent["singletons"], tuple(histogram))
+
+
 def occupancy(transcript: Transcript) -> list[OccupancyRow]:
     """Every ``buckets`` event of the transcript as a row, by instance, round, chunk."""
     rows = []
     for inst in transcript.instances:
         for stats in inst.buckets:
             used = stats.extra.get("used")
+            sizes = summarise_sizes(stats.sizes) if stats.sizes is not None else _sent_summary(stats)
             rows.append(OccupancyRow(
                 stats.instance, inst.name, stats.round, stats.chunk, stats.count, stats.bound_log2, stats.remaining,
-                used if isinstance(used, bool) else None,
-                None if stats.sizes is None else summarise_sizes(stats.sizes), _problems(stats)))
+                used if isinstance(used, bool) else None, sizes, _problems(stats)))
     rows.sort(key=lambda r: (r.instance, r.round, r.chunk))
     return rows
 

@@ -23,7 +23,8 @@ from typing import Any, Iterable, Iterator, Mapping
 
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field import Element, Field, field_from_spec
-from stepper.packed import decoder_for, pack_elements, unpack_elements
+from stepper.packed import decoder_for, unpack_elements
+from stepper.payloads import to_payload
 from stepper.poly import FORMS, ORDERS
 from stepper.transcript import (
     BatchDecl,
@@ -104,58 +105,65 @@ class Sequencer:
         """The records of many payloads, exactly as :meth:`feed` on each would give,
         but with the bulk of a transcript (rounds and challenges whose elements are
         packed, canonical bytes) handled inline: this is the reader's hot loop.
+        Anything unusual (another type, a JSON list, a bad size or value) falls
+        through to :meth:`feed`, which judges it and names any problem.
         Stops after an unknown event of type ``until`` (kept in ``stopped_at``)."""
         self.stopped_at = None
         waiting, done, count = self.awaiting_challenge, self.rounds_done, self.count
         num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
         width, runs = self._elem_bytes, self._runs
-        from_bytes = int.from_bytes
-        new, round_setters, challenge_setters = object.__new__, ROUND_SETTERS, CHALLENGE_SETTERS
-        set_ri, set_rr, set_rv = round_setters
-        set_ci, set_cr, set_cv = challenge_setters
+        run_size, run_unpack = -1, None  # the last packed-run size seen and its struct unpacker
+        from_bytes, new = int.from_bytes, object.__new__
+        set_ri, set_rr, set_rv = ROUND_SETTERS
+        set_ci, set_cr, set_cv = CHALLENGE_SETTERS
         try:
             for payload in payloads:
-                if payload.__class__ is dict:
-                    kind = payload.get("type")
-                    if kind == "round" and not waiting and done < num_vars:
-                        raw = payload.get("evals")
-                        if raw.__class__ is bytes:
-                            if runs is not None:
-                                unpack = runs.get(len(raw)) or self._run_unpacker(len(raw))
-                                values = unpack(raw) if unpack is not None else None
-                                if values and max(values) >= prime:
-                                    values = None
-                            else:
-                                values = decode(raw)
-                            if values is not None:
-                                done += 1
-                                waiting = True
-                                count += 1
-                                record = new(RoundMsg)
-                                set_ri(record, index)
-                                set_rr(record, done)
-                                set_rv(record, values)
-                                yield record
-                                continue
-                    elif kind == "challenge" and waiting:
-                        raw = payload.get("value")
-                        if raw.__class__ is bytes and len(raw) == width:
-                            if prime:
-                                value = from_bytes(raw, "little")
-                                ok = value < prime
-                            else:
-                                values = decode(raw)
-                                ok = values is not None
-                                value = values[0] if ok else None
-                            if ok:
-                                waiting = False
-                                count += 1
-                                record = new(ChallengeMsg)
-                                set_ci(record, index)
-                                set_cr(record, done)
-                                set_cv(record, value)
-                                yield record
-                                continue
+                try:  # the fast path; a KeyError, TypeError or ValueError just means "not fast"
+                    kind = payload["type"]
+                    if kind == "challenge":
+                        if waiting:
+                            raw = payload["value"]
+                            if raw.__class__ is bytes and len(raw) == width:
+                                if prime:
+                                    value = from_bytes(raw, "little")
+                                    ok = value < prime
+                                else:
+                                    one = decode(raw)
+                                    ok = one is not None
+                                    value = one[0] if ok else None
+                                if ok:
+                                    waiting = False
+                                    count += 1
+                                    record = new(ChallengeMsg)
+                                    set_ci(record, index)
+                                    set_cr(record, done)
+                                    set_cv(record, value)
+                                    yield record
+                                    continue
+                    elif kind == "round":
+                        if not waiting and done < num_vars:
+                            raw = payload["evals"]
+                            if raw.__class__ is bytes:
+                                if runs is not None:
+                                    if len(raw) != run_size:
+                                        run_size, run_unpack = len(raw), self._run_unpacker(len(raw))
+                                    values = run_unpack(raw)  # TypeError when the size is not a whole run
+                                    ok = max(values) < prime  # ValueError when empty
+                                else:
+                                    values = decode(raw)
+                                    ok = values is not None and len(values) <= MAX_VALUES
+                                if ok:
+                                    done += 1
+                                    waiting = True
+                                    count += 1
+                                    record = new(RoundMsg)
+                                    set_ri(record, index)
+                                    set_rr(record, done)
+                                    set_rv(record, values)
+                                    yield record
+                                    continue
+                except (KeyError, TypeError, ValueError):
+                    pass
                 self.awaiting_challenge, self.rounds_done, self.count = waiting, done, count
                 try:
                     record = self.feed(payload)
@@ -412,68 +420,3 @@ def _plain(value: Any, seq: Sequencer, depth: int) -> Any:
     if isinstance(value, str) and len(value) > MAX_TEXT:
         raise seq._fail(f"expected strings of at most {MAX_TEXT} characters, found {len(value)}")
     return value
-
-
-def to_payload(event: Event, field: Field | None, binary: bool, packed: bool = False) -> dict[str, Any]:
-    """The payload of a record: elements as fixed-width bytes (``binary``) or JSON values.
-    With ``packed`` (binary only) a list of elements is one blob of concatenated
-    fixed-width elements, the form transcript files store."""
-
-    def el(e: Element) -> Any:
-        assert field is not None
-        return field.encode(e) if binary else field.to_json(e)
-
-    def els(values: tuple[Element, ...]) -> Any:
-        assert field is not None
-        if binary and packed:
-            return pack_elements(field, values)
-        return [el(v) for v in values]
-
-    if isinstance(event, FieldDecl):
-        return {"type": "field", **event.field.spec()}
-    if isinstance(event, ScheduleDecl):
-        out: dict[str, Any] = {"type": "schedule", "name": event.name}
-        if event.label:
-            out["label"] = event.label
-        if event.params:
-            out["params"] = dict(event.params)
-        return out
-    if isinstance(event, BatchDecl):
-        out = {"type": "batch", "coefficient": el(event.coefficient), "terms": els(event.terms)}
-        if event.sources:
-            out["sources"] = list(event.sources)
-        return out
-    if isinstance(event, InstanceStart):
-        out = {"type": "instance", "name": event.name, "num_vars": event.num_vars, "degree": event.degree,
-               "claim": el(event.claim)}
-        if event.order != "low-first":
-            out["order"] = event.order
-        if event.form != "evals":
-            out["form"] = event.form
-        return out
-    if isinstance(event, RoundMsg):
-        return {"type": "round", "evals": els(event.values)}
-    if isinstance(event, ChallengeMsg):
-        return {"type": "challenge", "value": el(event.value)}
-    if isinstance(event, FinalValue):
-        return {"type": "final", "value": el(event.value)}
-    if isinstance(event, BucketStats):
-        out = {"type": "buckets", "round": event.round, "chunk": event.chunk, "count": event.count}
-        if event.sizes is not None:
-            out["sizes"] = list(event.sizes)
-        if event.bound_log2 is not None:
-            out["bound_log2"] = event.bound_log2
-        if event.remaining is not None:
-            out["remaining"] = event.remaining
-        out.update(event.extra)
-        return out
-    if isinstance(event, Note):
-        out = {"type": "note", "text": event.text}
-        if event.instance is not None:
-            out["instance"] = event.instance
-        if event.round is not None:
-            out["round"] = event.round
-        return out
-    if isinstance(event, UnknownEvent):
-        return {**event.payload, "type": event.kind}
-    raise TypeError(f"not an event record: {type(event).__name__}")

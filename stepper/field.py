@@ -10,8 +10,10 @@ extension. Vectors are numpy arrays handled by :mod:`stepper.kernels`
 here are the public face of those kernels.
 
 Invariants: every value a Field method returns is canonical; parsing rejects,
-never reduces, a non-canonical input; the byte encoding is fixed width,
-little endian, ``base_bytes`` per base coefficient.
+never reduces, a non-canonical input (ASCII decimal or 0x-hex text, ints and
+numpy integers; never bools or floats); the byte encoding is fixed width,
+little endian, ``base_bytes`` per base coefficient. Reading a `field`
+declaration lives in :mod:`stepper.fieldspec`.
 """
 
 from __future__ import annotations
@@ -259,8 +261,8 @@ class Field:
         return n
 
     def _parse_text(self, value: str, where: Where | None) -> int:
-        """Decimal (optionally signed, so that a negative value gets the canonical
-        message) or 0x-hex digits, ASCII only, surrounding whitespace allowed."""
+        """Decimal or 0x-hex digits, ASCII only, surrounding whitespace allowed; a
+        leading minus sign is recognised only to say that negatives are not canonical."""
         text = value.strip()
         match = _NUMBER_TEXT.fullmatch(text)
         if match is None:
@@ -268,6 +270,8 @@ class Field:
                 f"expected a decimal or 0x-hex element of {self._short()}, found {clip_text(repr(value))}", where
             )
         sign, hex_digits, dec_digits = match.group("sign"), match.group("hex"), match.group("dec")
+        if sign:
+            raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {clip_text(text)}", where)
         digits = (hex_digits if hex_digits is not None else dec_digits).lstrip("0") or "0"
         limit = len(f"{self.p:x}") if hex_digits is not None else len(str(self.p))
         if len(digits) > limit:
@@ -276,8 +280,7 @@ class Field:
                 f"({clip_text(text)})",
                 where,
             )
-        n = int(digits, 16 if hex_digits is not None else 10)
-        return -n if sign else n
+        return int(digits, 16 if hex_digits is not None else 10)
 
     def _short(self) -> str:
         return self.base.describe() if self.is_extension else self.describe()

@@ -39,6 +39,9 @@ def decode_line(text: bytes, where: Where) -> Any:
     except UnicodeDecodeError as err:
         raise TranscriptError(f"expected UTF-8 text, found byte {text[err.start]:#04x} at column {err.start + 1}",
                               where) from None
+    except RecursionError:
+        raise TranscriptError("expected JSON nested at most a few hundred levels deep, found deeper nesting",
+                              where) from None
     except ValueError as err:
         reason = getattr(err, "msg", None) or str(err)
         column = getattr(err, "colno", None)
@@ -86,7 +89,7 @@ class LineSplitter:
         self.line = number
         try:
             payload = json.loads(text)
-        except ValueError:
+        except (ValueError, RecursionError):
             self.dropped = number
             return
         yield JsonLine(number, payload)

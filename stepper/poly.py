@@ -13,7 +13,9 @@ In the two compressed forms the local sum check g(0) + g(1) = claim holds by
 construction; only a later round or the final check can expose a wrong claim.
 
 Multilinear tables follow the event-stream contract: index bit j of a table
-entry is the value of variable x_(j+1). A point is (x_1, ..., x_mu).
+entry is the value of variable x_(j+1). A point is (x_1, ..., x_mu); a
+high-first prover's challenges give the point reversed
+(:func:`point_from_challenges`). A table's length must be 2^mu.
 """
 
 from __future__ import annotations
@@ -22,9 +24,9 @@ from dataclasses import dataclass
 from functools import lru_cache
 from typing import TYPE_CHECKING, Literal, Sequence
 
-from stepper.errors import InputError
-
 import numpy as np
+
+from stepper.errors import InputError
 
 if TYPE_CHECKING:
     from stepper.field import Element, Field

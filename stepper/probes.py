@@ -9,10 +9,11 @@ the prover has it (two bugs may coincide on small inputs).
 
 Probes (name: what the faulty prover does):
 
-* ``variable-order``: binds variables in the other order (high-first vs low-first);
+* ``variable-order``: from the first wrong round on, binds the variable at the other
+  end of the table (high-first instead of low-first or back);
 * ``reversed-point``: the final value is taken at the challenge point reversed;
-* ``challenge-shift``: the fold before round k used r_(k+1) or r_(k-1) instead of r_(k-1)'s
-  own round challenge (challenges one round off);
+* ``challenge-shift``: the tables of round k were folded with r_k (one ahead) or
+  r_(k-2) (one behind) instead of r_(k-1): challenges used one round off;
 * ``montgomery``: values leave the prover still multiplied by a Montgomery
   radix R = 2^32, 2^64 or 2^256 mod p;
 * ``product-of-sums``: a product's sum taken as the product of the factors' sums;
@@ -70,7 +71,8 @@ class ProbeContext:
     """What the probes may look at. ``check`` is ``claim`` (round 0), ``honest-poly``
     or ``degree`` (round ``round``) or ``final``; ``sent`` are the values as sent
     in the instance's form (the claim or final value alone for those checks);
-    ``sent_evals`` every round decoded with the verifier's running claim;
+    ``sent_rounds`` every round's values as sent (bugs are compared in the form sent,
+    so a compressed form's recovered value never hides or fakes a match);
     ``honest`` the honest evaluations 0..degree of the round (or the honest
     claim / final value as a 1-tuple)."""
 
@@ -83,7 +85,7 @@ class ProbeContext:
     round: int
     sent: tuple[Element, ...]
     honest: tuple[Element, ...]
-    sent_evals: tuple[tuple[Element, ...], ...] = ()
+    sent_rounds: tuple[tuple[Element, ...], ...] = ()
 
 
 def first_difference(field: Field, a: Sequence[Element], b: Sequence[Element]) -> int | None:
@@ -103,9 +105,15 @@ def _in_form(ctx: ProbeContext, evals: Sequence[Element]) -> tuple[Element, ...]
     return tuple(ctx.field.lift(v) for v in RoundPoly(tuple(evals)).to_form(ctx.field, ctx.start.form))
 
 
-def _same(ctx: ProbeContext, values: Sequence[Element]) -> bool:
+def _same(ctx: ProbeContext, values: Sequence[Element], sent: Sequence[Element] | None = None) -> bool:
     f = ctx.field
-    return len(values) == len(ctx.sent) and all(f.lift(a) == f.lift(b) for a, b in zip(values, ctx.sent))
+    sent = ctx.sent if sent is None else sent
+    return len(values) == len(sent) and all(f.lift(a) == f.lift(b) for a, b in zip(values, sent))
+
+
+def _round_is(ctx: ProbeContext, k: int, evals: Sequence[Element]) -> bool:
+    """Round k as sent equals a prover sending ``evals`` in the instance's form."""
+    return k <= len(ctx.sent_rounds) and _same(ctx, _in_form(ctx, evals), ctx.sent_rounds[k - 1])
 
 
 def _honest_values(ctx: ProbeContext) -> tuple[Element, ...]:
@@ -147,9 +155,9 @@ def probe_variable_order(ctx: ProbeContext) -> ProbeFinding | None:
     rounds = [r for r in runs if isinstance(r, HonestRound)]
     checked = 0
     for offset, run in enumerate(rounds):
-        if k - 1 + offset >= len(ctx.sent_evals):
+        if k + offset > len(ctx.sent_rounds):
             break
-        if first_difference(f, ctx.sent_evals[k - 1 + offset], run.evals) is not None:
+        if not _round_is(ctx, k + offset, run.evals):
             return None
         checked += 1
     if checked == 0:
@@ -194,7 +202,7 @@ def probe_challenge_shift(ctx: ProbeContext) -> ProbeFinding | None:
             continue
         tables = _tables_after(ctx, (*prefix, ctx.challenges[used - 1]), order)
         evals = honest_round(f, tables, ctx.expr, ctx.start.degree + 1, order)
-        if first_difference(f, ctx.sent_evals[k - 1], evals) is None:
+        if _round_is(ctx, k, evals):
             found.append(ProbeFinding(
                 "challenge-shift",
                 f"round {k} equals an honest round whose tables were folded with r_{used} instead of r_{k - 1} "
@@ -243,7 +251,7 @@ def probe_product_of_sums(ctx: ProbeContext) -> ProbeFinding | None:
     points = ctx.start.degree + 1
     sums = table_round_sums(f, tables, names, points, ctx.start.order)
     evals = tuple(ctx.expr.evaluate_scalar(f, {n: s[t] for n, s in sums.items()}) for t in range(points))
-    if first_difference(f, ctx.sent_evals[k - 1], evals) is not None:
+    if not _round_is(ctx, k, evals):
         return None
     return ProbeFinding(
         "product-of-sums", f"round {k} equals g(t) = combine(sum of each table at t): the product of the "

@@ -257,7 +257,8 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance,
     expr = fit.combine
 
     def context(check: str, round_: int, values: tuple[Element, ...], honest: tuple[Element, ...]) -> ProbeContext:
-        return ProbeContext(field, start, fit.tables, expr, challenges, check, round_, values, honest, tuple(sent))
+        return ProbeContext(field, start, fit.tables, expr, challenges, check, round_, values, honest,
+                            tuple(tuple(r.values) for r in inst.rounds))
 
     def cause_of(check: str, round_: int, point: int | None, expected: Element, found: Element,
                  honest: tuple[Element, ...], sent_evals: tuple[Element, ...]) -> RootCause:
@@ -267,7 +268,10 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance,
     if start.num_vars == 0:
         env = {n: _first(field, t) for n, t in fit.tables.items()}
         value = expr.evaluate_scalar(field, env)
-        return _claim_or_final(field, inst, value, value, context, cause_of), None, 0
+        c = _claim_or_final(field, inst, value, value, cause_of)
+        if c is None:
+            return None, None, 0
+        return c, context(c.check, c.round, c.sent, c.honest), 0
     for item in honest_rounds(field, fit.tables, expr, challenges, start.order, start.degree + 1, on_round=advance):
         if isinstance(item, HonestRound):
             if item.round == 1:
@@ -292,13 +296,14 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance,
                 return c, context("degree", k, values, item.evals), rounds
         else:
             value = expr.evaluate_scalar(field, item)
-            c = _claim_or_final(field, inst, None, value, context, cause_of)
+            c = _claim_or_final(field, inst, None, value, cause_of)
             return c, (context("final", start.num_vars, (inst.final,), (value,)) if c else None), rounds
     return None, None, rounds
 
 
 def _claim_or_final(field: Field, inst: InstanceRecord, claim: Element | None, final: Element,
-                    context: Any, cause_of: Any) -> RootCause | None:
+                    cause_of: Callable[..., RootCause]) -> RootCause | None:
+    """The claim (when ``claim`` is given) or else the final value against the honest ones."""
     start = inst.start
     if claim is not None and field.lift(start.claim) != field.lift(claim):
         return cause_of("claim", 0, None, claim, start.claim, (claim,), (start.claim,))

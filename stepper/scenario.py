@@ -58,6 +58,8 @@ def build_sailing(seed: int, num_vars: int, *, route: str | None = None, departu
     """A sailing with 2^num_vars tickets and deck slots, fixed by ``seed``."""
     if not 1 <= num_vars <= 20:
         raise UsageError(f"expected a sailing of 2^1 .. 2^20 tickets, found num_vars = {num_vars}")
+    if seed < 0:
+        raise UsageError(f"expected a non-negative seed, found {seed}")
     if tamper is not None and tamper not in TAMPERS:
         raise UsageError(f"expected a tamper among {', '.join(TAMPERS)}, found {tamper!r}")
     rng = np.random.default_rng(seed)

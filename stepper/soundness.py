@@ -17,7 +17,9 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any
 
-__all__ = ["InstanceBound", "SoundnessSummary", "instance_bound", "bits_of"]
+__all__ = ["InstanceBound", "SoundnessSummary", "instance_bound", "bits_of", "WEAK_BITS"]
+
+WEAK_BITS = 100  # below this the guessing chance is not negligible (common practice, no source)
 
 
 def bits_of(bound: Fraction) -> float | None:
@@ -74,12 +76,25 @@ class SoundnessSummary:
     def bits(self) -> float | None:
         return bits_of(self.bound)
 
+    @property
+    def weak(self) -> bool:
+        """Fewer than WEAK_BITS bits: a cheating prover's chance is not negligible."""
+        bits = self.bits
+        return bits is not None and bits < WEAK_BITS
+
     def describe(self) -> str:
         bits = self.bits
         if bits is None:
             return "soundness error 0 (no rounds replayed)"
         return (f"soundness error of the sumcheck rounds <= sum of v*d/|F| = {self.total_rounds_degree}/|F| "
                 f"~ 2^-{bits} over {self.instance_count} instance(s), if the challenges are uniformly random")
+
+    def caution(self) -> str | None:
+        """A plain warning when the bound is weak, else None."""
+        if not self.weak:
+            return None
+        return (f"WEAK: below {WEAK_BITS} bits, a cheating prover has a real chance of passing the sumcheck "
+                f"rounds (challenges are usually drawn from an extension field for this reason)")
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -88,6 +103,7 @@ class SoundnessSummary:
             "numerator": str(self.total_rounds_degree),
             "bound": str(self.bound),
             "bits": self.bits,
+            "weak": self.weak,
             "instances": [
                 {"index": b.index, "name": b.name, "num_vars": b.num_vars, "degree": b.degree,
                  "bound": str(b.bound), "bits": b.bits}

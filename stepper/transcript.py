@@ -148,8 +148,7 @@ class RoundMsg:
 
     def __post_init__(self) -> None:
         _freeze(self, "values")
-        _need(_index(self.instance) and _index(self.round) and self.round >= 1, "RoundMsg",
-              "instance >= 0 and round >= 1")
+        _need(_index(self.instance) and _index(self.round), "RoundMsg", "instance >= 0 and round >= 0")
         _need(isinstance(self.values, tuple), "RoundMsg", "values as a tuple of elements")
 
 
@@ -162,8 +161,7 @@ class ChallengeMsg:
     value: Element
 
     def __post_init__(self) -> None:
-        _need(_index(self.instance) and _index(self.round) and self.round >= 1, "ChallengeMsg",
-              "instance >= 0 and round >= 1")
+        _need(_index(self.instance) and _index(self.round), "ChallengeMsg", "instance >= 0 and round >= 0")
 
 
 def _slot_setters(cls: type, names: tuple[str, ...]) -> tuple[Any, ...]:

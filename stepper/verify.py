@@ -21,9 +21,9 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Iterable
 
-from stepper.binding import Challenger, History, call_challenger, history_payload, probe_binding
+from stepper.binding import Challenger
+from stepper.challenges import ChallengeSource
 from stepper.errors import InputError, Where
-from stepper.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
 from stepper.lagrange import evaluate_round
 from stepper.poly import RoundPoly
 from stepper.soundness import InstanceBound, SoundnessSummary
@@ -47,10 +47,9 @@ __all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "F
 class _Live:
     """Mutable replay state of the current instance (private)."""
 
-    __slots__ = ("start", "claim", "pending", "seen", "passed", "failure", "final", "batch", "rounds",
-                 "history_start")
+    __slots__ = ("start", "claim", "pending", "seen", "passed", "failure", "final", "batch", "rounds")
 
-    def __init__(self, start: InstanceStart, keep: bool, history_start: int) -> None:
+    def __init__(self, start: InstanceStart, keep: bool) -> None:
         self.start = start
         self.claim: Element = start.claim
         # (round, evals, recovered, recovered_value, check, expected, found) of the round awaiting its challenge
@@ -62,7 +61,6 @@ class _Live:
         self.final: FinalResult | None = None
         self.batch: BatchResult | None = None
         self.rounds: list[RoundResult] | None = [] if keep else None
-        self.history_start = history_start
 
 
 class Replay:
@@ -81,76 +79,27 @@ class Replay:
         self.emit_passing = emit_passing or keep_rounds
         self.keep_rounds = keep_rounds
         self.keep_instances = keep_instances
-        self.probe_instances = probe_instances
         self.challenger = challenger
-        self.schedule_decl: ScheduleDecl | None = None
-        self._sched: Sha256Schedule | None = None
-        self._history: list[dict] | None = [] if challenger is not None else None
-        self._field_logged = False
+        self._source = ChallengeSource(challenger, schedule, probe_instances)
         self._live: _Live | None = None
         self._pending_batch: BatchDecl | None = None
         self._summaries: list[InstanceSummary] = []
         self._kept_failures = 0
         self._counts = {"pass": 0, "fail": 0, "incomplete": 0}
         self._first: Failure | None = None
-        self._findings: list[Finding] = []
         self._bounds: list[InstanceBound] = []  # of the kept instances only
         self._rounds_degree = 0
         self._instances_seen = 0
         self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
                           InstanceStart: self._on_instance, FinalValue: self._on_final}
         self._finished = False
-        self._default_schedule = ScheduleDecl(schedule) if isinstance(schedule, str) else schedule
+        if field is not None:
+            self._source.set_field(field)
 
-    # ----- schedule ---------------------------------------------------------------
     @property
     def challenges(self) -> str:
         """How challenges are checked, in words."""
-        if self.challenger is not None:
-            return "re-derived by the plug-in given with --challenges"
-        if self._sched is not None:
-            return f"re-derived by the built-in schedule {self._sched.name}"
-        if self.schedule_decl is not None:
-            return f"not re-derived: schedule {self.schedule_decl.name!r} is not built in (use --challenges)"
-        return "not re-derived: the transcript declares no schedule"
-
-    def _declare(self, decl: ScheduleDecl) -> None:
-        if self.schedule_decl is not None:
-            if decl != self.schedule_decl:
-                raise InputError(f"expected one schedule, found {self.schedule_decl.name!r} and {decl.name!r}")
-            return
-        self.schedule_decl = decl
-        self._log(decl)
-        if self.challenger is None and decl.name in BUILTIN_SCHEDULES:
-            self._start_builtin()
-
-    def _apply_default_schedule(self) -> None:
-        if self.schedule_decl is None and self._default_schedule is not None:
-            self._declare(self._default_schedule)
-
-    def _start_builtin(self) -> None:
-        if self._sched is None and self.field is not None and self.schedule_decl is not None:
-            self._sched = Sha256Schedule()
-            self._sched.observe(FieldDecl(self.field))
-            self._sched.observe(self.schedule_decl)
-
-    def _log(self, record: Event) -> None:
-        """Append a record to the plug-in history (field map first, once)."""
-        if self._history is None or self.field is None:
-            return
-        if not self._field_logged:
-            self._field_logged = True
-            self._history.append(history_payload(FieldDecl(self.field), self.field))  # type: ignore[arg-type]
-            if isinstance(record, FieldDecl):
-                return
-        payload = history_payload(record, self.field)
-        if payload is not None:
-            self._history.append(payload)
-
-    def _absorb(self, record: Event) -> None:
-        if self._sched is not None:
-            self._sched.observe(record)
-        self._log(record)
+        return self._source.describe()
 
     # ----- feeding ----------------------------------------------------------------
     def feed(self, record: Event) -> list[Result]:
@@ -159,17 +108,14 @@ class Replay:
         if handler is not None:
             return handler(record)  # type: ignore[operator]
         if isinstance(record, BatchDecl):
-            self._apply_default_schedule()
+            self._source.before_statement()
             self._pending_batch = record
-            self._absorb(record)
+            self._source.observe(record)
         elif isinstance(record, FieldDecl):
-            if self.field is not None and record.field != self.field:
-                raise InputError(f"expected one field, found {self.field.describe()} and {record.field.describe()}")
+            self._source.set_field(record.field)
             self.field = record.field
-            self._log(record)
-            self._start_builtin()
         elif isinstance(record, ScheduleDecl):
-            self._declare(record)
+            self._source.declare(record)
         return []
 
     def _need_field(self) -> Field:
@@ -187,14 +133,12 @@ class Replay:
     def _on_instance(self, start: InstanceStart) -> list[Result]:
         field = self._need_field()
         out = self._close()
-        self._apply_default_schedule()
+        self._source.before_statement()
         batch = start.batch or self._pending_batch
         self._pending_batch = None
-        history_start = len(self._history) if self._history is not None else 0
-        if batch is not None and self._history is not None:
-            history_start -= 1  # the batch map just logged belongs to this instance's statement
-        self._absorb(start)
-        live = _Live(start, self.keep_rounds, history_start)
+        self._source.start_instance(has_batch=batch is not None)
+        self._source.observe(start)
+        live = _Live(start, self.keep_rounds)
         self._live = live
         self._instances_seen += 1
         self._rounds_degree += start.num_vars * start.degree
@@ -254,10 +198,7 @@ class Replay:
             if total != field.lift(live.claim):
                 check, expected, found = "sum", live.claim, total
         live.pending = (msg, evals, recovered, recovered_value, check, expected, found)
-        if self._sched is not None:
-            self._sched.observe(msg)
-        if self._history is not None:
-            self._log(msg)
+        self._source.observe(msg)
         return out
 
     def _on_challenge(self, msg: ChallengeMsg) -> list[Result]:
@@ -268,28 +209,6 @@ class Replay:
             raise InputError("expected a round before its challenge, found a challenge alone",
                              Where(instance=live.start.name, round=msg.round))
         return self._resolve_pending(msg)
-
-    def _rederive(self, live: _Live, round_: int) -> Element | None:
-        if self._sched is not None:
-            return self._sched.challenge()
-        field = self.field
-        assert field is not None
-        if self.challenger is not None and self._history is not None:
-            where = Where(instance=live.start.name, round=round_)
-            value = call_challenger(self.challenger, History(self._history), field, where)
-            if live.start.index < self.probe_instances:
-                positions = [len(self._history) - 1]
-                if round_ == 1:
-                    positions = list(range(live.history_start, len(self._history)))
-                for finding in probe_binding(self.challenger, self._history, positions, field,
-                                             live.start.index, live.start.name, round_):
-                    self._note_finding(finding)
-            return value
-        return None
-
-    def _note_finding(self, finding: Finding) -> None:
-        if not any(f.kind == finding.kind and f.instance == finding.instance for f in self._findings):
-            self._findings.append(finding)
 
     def _resolve_pending(self, msg: ChallengeMsg | None) -> list[Result]:
         live = self._live
@@ -302,15 +221,15 @@ class Replay:
         challenge = rederived = claim_out = None
         if msg is not None:
             challenge = msg.value
-            rederived = self._rederive(live, k)
+            rederived = self._source.rederive(start, k)
             if check is None and rederived is not None and rederived != challenge:
                 check, expected, found = "challenge", rederived, challenge
             try:
                 claim_out = evaluate_round(field, evals, challenge)
             except InputError as err:
                 raise InputError(err.message, Where(instance=start.name, round=k)) from None
-            if self._history is not None:
-                self._log(msg)
+            if self.challenger is not None:
+                self._source.observe(msg)
         after = live.failure is not None
         live.seen = k
         if check is None and msg is not None:
@@ -342,7 +261,7 @@ class Replay:
         status = "fail" if check is not None else ("pass" if challenge is not None else "pending")
         poly = RoundPoly(tuple(evals), recovered, recovered_value)
         text = round_text(field, start, k, live.claim, poly, check, expected, found, challenge, rederived,
-                          claim_out, self.challenges)
+                          claim_out, self._source.deriver())
         return RoundResult(
             start.index, start.name, k, start.form, live.claim, msg.values, tuple(evals), recovered,
             recovered_value, g0, g1, field.add(g0, g1), len(evals) - 1, start.degree, challenge, rederived,
@@ -415,7 +334,7 @@ class Replay:
         order = self.field.order if self.field is not None else 0
         soundness = SoundnessSummary(order, self._rounds_degree, self._instances_seen, tuple(self._bounds))
         return Report(self.field, verdict, self._first, tuple(self._summaries),  # type: ignore[arg-type]
-                      dict(self._counts), soundness, tuple(self._findings), self.challenges, completeness,
+                      dict(self._counts), soundness, tuple(self._source.findings), self.challenges, completeness,
                       PASSING_REPLAY_WARNING)
 
 

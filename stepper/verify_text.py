@@ -25,6 +25,7 @@ def carried_claim(k: int) -> str:
 def round_text(field: Field, start: InstanceStart, k: int, claim: Element, poly: RoundPoly, check: str | None,
                expected: object, found: object, challenge: Element | None, rederived: Element | None,
                claim_out: Element | None, challenges: str) -> str:
+    """``challenges`` names what re-derives them, e.g. "the built-in schedule stepper-sha256/1"."""
     f = field.fmt
     if check == "shape":
         return f"round {k}: no values arrived; expected at least one in form {start.form}"
@@ -34,8 +35,8 @@ def round_text(field: Field, start: InstanceStart, k: int, claim: Element, poly:
     if check == "sum":
         return f"round {k}: g(0)+g(1) = {f(found)}, but {carried_claim(k)} = {f(claim)}"  # type: ignore[arg-type]
     if check == "challenge":
-        return (f"round {k}: the recorded challenge r{k} = {f(challenge)}, but the schedule "  # type: ignore[arg-type]
-                f"re-derives {f(rederived)} ({challenges})")  # type: ignore[arg-type]
+        return (f"round {k}: the recorded challenge r{k} = {f(challenge)}, but {challenges} "  # type: ignore[arg-type]
+                f"re-derives {f(rederived)}")  # type: ignore[arg-type]
     if challenge is None:
         return f"round {k}: g(0)+g(1) matches the carried claim; no challenge arrived, so the round stays open"
     if poly.recovered is not None:

@@ -9,7 +9,8 @@ Accepted forms (detected by content, not by file name):
   file, relative to the witness file, holding the entries (large tables).
 * ``.npz`` (a numpy zip): for each instance NAME, a 0-d text array
   ``NAME/combine`` and one integer array ``NAME/TABLE`` per table; instances
-  are taken in the order their combine arrays appear.
+  are taken in the order their combine arrays appear, and a key belongs to the
+  instance with the longest matching name (names may contain ``/``).
 
 Numpy tables are unsigned or non-negative signed integer arrays, shape (n,) or
 (n, k) for an extension; pickled objects are refused. :func:`load_witness`
@@ -132,6 +133,16 @@ def _load_npz(path: Path, where: Where) -> Witness:
             raise WitnessError(
                 "expected an .npz witness with a NAME/combine text array per instance, found none "
                 f"(keys: {', '.join(keys[:8]) or 'none'})", where)
+        # a table belongs to the instance with the longest name prefix (names may contain "/")
+        owner: dict[str, list[str]] = {name: [] for name in names}
+        for key in keys:
+            if key.endswith("/combine") and key[: -len("/combine")] in owner:
+                continue
+            matches = [n for n in names if key.startswith(f"{n}/")]
+            if not matches:
+                raise WitnessError(f"expected every .npz key to be INSTANCE/TABLE of an instance with a combine, "
+                                   f"found {key!r}", where)
+            owner[max(matches, key=len)].append(key)
         instances: list[WitnessInstance] = []
         for name in names:
             iwhere = where.but(instance=name)
@@ -141,11 +152,8 @@ def _load_npz(path: Path, where: Where) -> Witness:
                     f"expected {name}/combine as a 0-d text array, found dtype {combine_arr.dtype} "
                     f"shape {combine_arr.shape}", iwhere)
             combine = _parse_combine(str(combine_arr[()]), iwhere)
-            prefix = f"{name}/"
-            tables = {
-                k[len(prefix):]: _check_numpy(archive[k], k[len(prefix):], iwhere)
-                for k in keys if k.startswith(prefix) and k != f"{name}/combine"
-            }
+            cut = len(name) + 1
+            tables = {k[cut:]: _check_numpy(archive[k], k[cut:], iwhere) for k in owner[name]}
             instances.append(WitnessInstance(name, tables, combine))
     return Witness(tuple(instances), str(path))
 
@@ -214,7 +222,7 @@ def _parse_combine(text: str, where: Where) -> Expr:
     try:
         expr = parse(text)
     except ExpressionError as err:
-        raise ExpressionError(f"{err.message}: {err.pointer()!r}", err.text, err.column, where) from None
+        raise ExpressionError(f"{err.message} {text[:120]!r}", err.text, err.column, where) from None
     if not expr.names():
         raise WitnessError(f"expected a combine expression over at least one table, found {text!r}", where)
     return expr
@@ -280,14 +288,13 @@ def _to_field_array(field: Field, raw: RawTable, table: str, where: Where) -> np
     if isinstance(raw, np.ndarray):
         return _numpy_table(field, raw, table, where)
     values = list(raw)
-    p = field.p
-    if p < 2**64 and all(type(v) is int for v in values):
-        index = next((i for i, v in enumerate(values) if not 0 <= v < p), None)
-        if index is not None:
-            raise WitnessError(
-                f"expected canonical entries 0 <= v < p = {p} in table {table!r}, found {values[index]} at entry {index}",
-                where)
-        return field.base.vec(np.array(values, dtype=np.uint64))
+    if field.p < 2**64 and values:
+        try:
+            arr = np.array(values)  # one vectorised pass when every entry is a machine integer
+        except (ValueError, OverflowError, TypeError):
+            arr = None
+        if arr is not None and arr.dtype.kind in "iu" and arr.ndim == 1:
+            return _numpy_table(field, arr, table, where)
     elements = []
     for i, v in enumerate(values):
         try:

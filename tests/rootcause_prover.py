@@ -39,9 +39,13 @@ def prove(field: Field, tables: Mapping[str, np.ndarray], combine: str, *, degre
     rng = random.Random(seed)
     chal = list(challenges) if challenges is not None else [field.random(rng) for _ in range(mu)]
     kind = fault.kind if fault else ""
-    use_order = ("high-first" if order == "low-first" else "low-first") if kind == "other-order" else order
+    other = "high-first" if order == "low-first" else "low-first"
+
+    def order_of(k: int) -> str:  # "other-order" binds the other end from fault.round on
+        return other if kind == "other-order" and k >= fault.round else order
+
     cur = dict(tables)
-    g1 = honest_round(field, cur, expr, degree + 1, use_order)
+    g1 = honest_round(field, cur, expr, degree + 1, order_of(1))
     claim = field.add(g1[0], g1[1])
     if kind == "negate-claim":
         claim = field.neg(claim)
@@ -53,6 +57,7 @@ def prove(field: Field, tables: Mapping[str, np.ndarray], combine: str, *, degre
     events: list[Any] = [FieldDecl(field), InstanceStart(0, name, mu, degree, claim, order, form)]
     running = claim
     for k in range(1, mu + 1):
+        use_order = order_of(k)
         evals = list(honest_round(field, cur, expr, degree + 1, use_order))
         if fault and fault.round == k:
             evals = _corrupt(field, cur, expr, evals, fault, use_order, degree)
@@ -79,16 +84,21 @@ def prove(field: Field, tables: Mapping[str, np.ndarray], combine: str, *, degre
         if kind == "challenge-behind" and k == fault.round - 1:
             fold_with = chal[k - 2]
         cur = fold(field, cur, fold_with, use_order)
-    point = point_from_challenges(chal, use_order)
+    # the final value from the tables as this prover folded them
+    final = expr.evaluate_scalar(field, {n: _entry(field, t) for n, t in cur.items()})
     if kind == "reversed-final":
-        point = tuple(reversed(point))
-    final = expr.evaluate_scalar(field, tables_at(field, tables, point))
+        point = tuple(reversed(point_from_challenges(chal, order)))
+        final = expr.evaluate_scalar(field, tables_at(field, tables, point))
     if kind == "negate-final":
         final = field.neg(final)
     if with_final:
         events.append(FinalValue(0, final))
     witness = Witness((WitnessInstance(name, dict(tables), expr),), "memory")
     return fold_events(events), witness
+
+
+def _entry(field: Field, arr: np.ndarray) -> Element:
+    return field.lift(int(arr[0])) if arr.ndim == 1 else tuple(int(c) for c in arr[0])
 
 
 def _corrupt(field: Field, cur: Mapping[str, np.ndarray], expr: Any, evals: list[Element], fault: Fault,

@@ -53,3 +53,11 @@ def test_size_summary_bins_by_powers_of_two():
     summary = summarise_sizes([1, 1, 2, 3, 4, 9])
     assert (summary.smallest, summary.median, summary.largest, summary.singletons) == (1, 3, 9, 2)
     assert summary.histogram == (2, 2, 1, 1)  # 1 | 2-3 | 4-7 | 8-15
+
+
+def test_a_sent_size_summary_stands_in_for_a_missing_size_list():
+    summary = {"smallest": 1, "median": 2, "largest": 9, "singletons": 40, "histogram_log2": [40, 50, 9, 1]}
+    stats = BucketStats(0, 2, 0, 100, None, bound_log2=8, remaining=200, extra={"sizes_summary": summary})
+    (row,) = occupancy(_transcript_with(stats))
+    assert (row.sizes.smallest, row.sizes.median, row.sizes.largest, row.sizes.singletons) == (1, 2, 9, 40)
+    assert row.sizes.histogram == (40, 50, 9, 1)

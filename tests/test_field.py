@@ -220,6 +220,7 @@ def test_parse_accepts_ints_decimal_and_hex_strings_with_surrounding_space():
         (None, "found NoneType"),
         (-1, f"0 <= v < p = {BABYBEAR}, found -1"),
         ("-1", f"0 <= v < p = {BABYBEAR}, found -1"),
+        ("-0", f"0 <= v < p = {BABYBEAR}, found -0"),
         (BABYBEAR, f"0 <= v < p = {BABYBEAR}, found {BABYBEAR}"),
         ("9" * 5000, "a number of 5000 digits"),
         ("1 2", "decimal or 0x-hex element of babybear, found '1 2'"),

@@ -24,6 +24,7 @@ from stepper.kernels import (
     Kernel,
     ObjectKernel,
     SmallPrimeKernel,
+    Word64Kernel,
     kernel_for,
 )
 from stepper.kernels import base as kernel_base
@@ -34,6 +35,8 @@ SETTINGS = settings(max_examples=20, deadline=None)
 P32 = 2**32 - 5
 # p = 2^40 - 87 is a prime between 2^32 and 2^64 other than Goldilocks (sympy.isprime confirms).
 P40 = 2**40 - 87
+# p = 2^64 - 59 is the largest prime below 2^64 (from memory; sympy.isprime confirms): sums overflow 2^64.
+P64 = 2**64 - 59
 
 
 def named(name: str, degree: int = 1) -> Field:
@@ -45,6 +48,10 @@ def field_by_label(label: str) -> Field:
         return get_field(P32)
     if label == "p40":
         return get_field(P40)
+    if label == "p64":
+        return get_field(P64)
+    if label == "p40^2":  # X^2 - 7, irreducible (checked by get_field)
+        return get_field(P40, (P40 - 7, 0, 1))
     if label == "p32^2":  # X^2 + 1: -1 is a non-residue as 2^32 - 5 = 3 mod 4 (get_field checks irreducibility)
         return get_field(P32, (1, 0, 1))
     if label == "p32^4":  # X^4 + X + 1, found irreducible by get_field's check (a non-binomial reduction)
@@ -57,7 +64,7 @@ def field_by_label(label: str) -> Field:
     return named(name, int(degree) if degree else 1)
 
 
-PRIME_LABELS = ["babybear", "koalabear", "mersenne31", "goldilocks", "bn254", "bls12-381", "p32", "p40"]
+PRIME_LABELS = ["babybear", "koalabear", "mersenne31", "goldilocks", "bn254", "bls12-381", "p32", "p40", "p64"]
 EXT_LABELS = [
     "babybear^4",
     "koalabear^4",
@@ -67,6 +74,7 @@ EXT_LABELS = [
     "p32^2",
     "p32^4",
     "p32-trinomial^2",
+    "p40^2",
 ]
 
 
@@ -119,7 +127,8 @@ def test_kernel_for_picks_the_kind_of_each_field():
     assert isinstance(kernel_for(named("babybear")), SmallPrimeKernel)
     assert isinstance(kernel_for(get_field(P32)), SmallPrimeKernel)
     assert isinstance(kernel_for(named("goldilocks")), GoldilocksKernel)
-    assert isinstance(kernel_for(get_field(P40)), ObjectKernel)
+    assert isinstance(kernel_for(get_field(P40)), Word64Kernel)
+    assert isinstance(kernel_for(get_field(P64)), Word64Kernel)
     assert isinstance(kernel_for(named("bn254")), ObjectKernel)
     ext = kernel_for(named("goldilocks", 2))
     assert isinstance(ext, ExtensionKernel) and isinstance(ext.base, GoldilocksKernel)
@@ -176,7 +185,9 @@ def from_galois(field: Field, array: Any) -> list[Any]:
     return [int(v) for v in array.tolist()]
 
 
-@pytest.mark.parametrize("label", ["babybear", "goldilocks", "bn254", "babybear^4", "mersenne31^4", "goldilocks^2", "p32^2"])
+@pytest.mark.parametrize(
+    "label", ["babybear", "goldilocks", "p64", "bn254", "babybear^4", "mersenne31^4", "goldilocks^2", "p32^2"]
+)
 @SETTINGS
 @given(data=st.data())
 def test_kernels_match_galois(label, data):
@@ -193,7 +204,7 @@ def test_kernels_match_galois(label, data):
         assert kernel.to_list(kernel.sub(a, b)) == from_galois(field, gx - gy)
 
 
-@pytest.mark.parametrize("label", ["babybear", "goldilocks", "bn254", "babybear^4", "goldilocks^2"])
+@pytest.mark.parametrize("label", ["babybear", "goldilocks", "p40", "p64", "bn254", "babybear^4", "goldilocks^2"])
 def test_compiled_and_numpy_paths_agree_on_a_large_random_vector(label):
     field = field_by_label(label)
     rng = np.random.default_rng(7)
@@ -204,7 +215,7 @@ def test_compiled_and_numpy_paths_agree_on_a_large_random_vector(label):
     assert np.array_equal(small.sub(a, b), large.sub(a, b))
 
 
-@pytest.mark.parametrize("label", ["babybear", "goldilocks", "bn254", "babybear^4", "goldilocks^2", "mersenne31^4"])
+@pytest.mark.parametrize("label", ["babybear", "goldilocks", "p64", "bn254", "babybear^4", "goldilocks^2", "mersenne31^4"])
 def test_batch_inverse_times_the_input_is_one(label):
     field = field_by_label(label)
     rng = np.random.default_rng(3)
@@ -289,7 +300,15 @@ def test_vectors_refuse_non_canonical_or_non_integer_entries():
         ext.vec(np.zeros((2, 3), dtype=np.uint64))
     with pytest.raises(FieldError, match="at index 1"):
         ext.vec([(1, 2, 3, 4), (1, 2)])
+    with pytest.raises(FieldError, match="nested sequences"):
+        field.vec([(1, 2), (3, 4)])
+    with pytest.raises(FieldError, match=r"found \(2, 3\) at flat index 1"):
+        field.vec([1, (2, 3)])
+    with pytest.raises(FieldError, match="dtype <U"):
+        field.vec(["1", "2"])
     assert ext.vlist(ext.vec(np.array([7, 8]))) == [(7, 0, 0, 0), (8, 0, 0, 0)]
+    goldilocks = named("goldilocks")  # numpy alone would turn this mixed list into float64
+    assert goldilocks.vlist(goldilocks.vec([2**64 - 2**32, 1])) == [2**64 - 2**32, 1]
     assert field.vlist(field.vec([])) == []
 
 

@@ -34,9 +34,9 @@ def test_strong_pseudoprimes_are_caught():
 
 
 def test_word_sized_primes_used_in_tests_are_prime_per_sympy():
-    # reference: sympy.isprime (tests/test_kernels.py relies on these two)
-    assert sympy.isprime(2**32 - 5) and sympy.isprime(2**40 - 87)
-    assert is_probable_prime(2**32 - 5) and is_probable_prime(2**40 - 87)
+    # reference: sympy.isprime (tests/test_kernels.py relies on these three)
+    for p in (2**32 - 5, 2**40 - 87, 2**64 - 59):
+        assert sympy.isprime(p) and is_probable_prime(p)
 
 
 _GF = {p: galois.GF(p, compile="python-calculate") for p in (2, 7, 101)}

@@ -26,6 +26,7 @@ COMBINE = "ledger * scans * eq - 2 * ledger"
 CASES = [
     # (fault, field, probe expected, root-cause round, check)
     (Fault("other-order"), BABYBEAR4, "variable-order", 1, "honest-poly"),
+    (Fault("other-order", 3), GOLDILOCKS, "variable-order", 3, "honest-poly"),
     (Fault("reversed-final"), BABYBEAR4, "reversed-point", 4, "final"),
     (Fault("challenge-ahead", 3), GOLDILOCKS2, "challenge-shift", 3, "honest-poly"),
     (Fault("challenge-behind", 3), GOLDILOCKS2, "challenge-shift", 3, "honest-poly"),
@@ -67,7 +68,11 @@ def test_probe_names_the_fault_that_produced_the_transcript(fault, field, probe,
 
 @pytest.mark.parametrize("form", ["evals-no-1", "coeffs", "coeffs-no-linear"])
 def test_probes_work_in_every_round_form(form: str) -> None:
-    for fault, probe in ((Fault("negate-value", 2, 0), "negated"), (Fault("montgomery", 2, 64), "montgomery")):
+    # in the compressed forms the verifier recovers g(1) or c1 from the claim, so a bug is
+    # matched against the values as sent, not against the decoded polynomial
+    for fault, probe in ((Fault("negate-value", 2, 0), "negated"), (Fault("montgomery", 2, 64), "montgomery"),
+                         (Fault("product-of-sums", 1), "product-of-sums"), (Fault("other-order", 2), "variable-order"),
+                         (Fault("challenge-behind", 3), "challenge-shift"), (Fault("drop-point", 2), "point-count")):
         transcript, witness = prove(BABYBEAR4, _tables(BABYBEAR4), COMBINE, degree=3, form=form, fault=fault)
         assert probe in [f["probe"] for f in diagnose(transcript, witness).findings_json()]
 

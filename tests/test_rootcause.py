@@ -165,7 +165,7 @@ def test_progress_reports_reach_the_total_and_never_go_back() -> None:
 
 def _write_case(tmp_path, fault):
     from stepper.store import TranscriptWriter
-    from stepper.transcript import ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg
+    from stepper.transcript import ChallengeMsg, FieldDecl, FinalValue, RoundMsg
 
     tables = _thaler_tables(MERSENNE31)
     transcript, _ = prove(MERSENNE31, tables, THALER, degree=3, fault=fault, name="isle-of-quill-0740")

@@ -82,3 +82,10 @@ def _basis(i: int, x: int, p: int) -> int:
         if j != i:
             num, den = num * (x - j), den * (i - j)
     return num * pow(den, -1, p) % p
+
+
+def test_a_base_field_bound_is_flagged_weak_and_an_extension_bound_is_not():
+    base = replay(thaler_payloads(Plain(BABYBEAR), (5, 7, 11))).soundness
+    ext = replay(thaler_payloads(Plain(BABYBEAR, 4, 11), [(r, 1, 0, 0) for r in (5, 7, 11)])).soundness
+    assert base.weak and "WEAK" in base.caution() and base.to_json()["weak"] is True
+    assert not ext.weak and ext.caution() is None

@@ -366,3 +366,34 @@ def test_last_json_line_without_newline_but_whole_is_kept(tmp_path):
 def test_missing_file_is_one_clear_error(tmp_path):
     with pytest.raises(TranscriptError, match="could not open the file"):
         load(tmp_path / "nope.stp")
+
+
+def test_deeply_nested_input_is_refused_not_a_crash(tmp_path):
+    jsonl = tmp_path / "deep.jsonl"
+    jsonl.write_text('{"type": "field", "name": "babybear"}\n{"type": "note", "text": ' + "[" * 50_000
+                     + "]" * 50_000 + "}\n")
+    with pytest.raises(TranscriptError, match="line 2: expected JSON nested"):
+        load(jsonl)
+    packed = tmp_path / "deep.stp"
+    write_boarding(packed, finish=False)
+    with packed.open("ab") as handle:  # 5000 nested one-element arrays inside an unknown event
+        handle.write(b"\x82\xa4type\xa4gate\xa1v" + b"\x91" * 5000 + b"\xc0")
+    with pytest.raises(TranscriptError, match="malformed bytes|nesting"):
+        load(packed)
+
+
+def test_bare_msgpack_ends_silently_on_a_cut_but_the_reader_reports_it(tmp_path):
+    path = tmp_path / "t.stp"
+    write_golden(path)
+    data = path.read_bytes()
+    cut = data[: data.index(b"\x82\xa4type\xa9challenge") + 5]
+    # The library behaviour that makes our own detection necessary: no error, and
+    # tell() points into the half-read event (msgpack-python 1.x, measured).
+    event_start = len(cut) - 5
+    bare = msgpack.Unpacker(raw=False)
+    bare.feed(cut[len(MAGIC):])
+    assert len(list(bare)) == 5 and len(MAGIC) + bare.tell() > event_start
+    (tmp_path / "cut.stp").write_bytes(cut)
+    with open_events(tmp_path / "cut.stp") as stream:
+        assert len(list(stream)) == 3
+    assert stream.truncated_at == event_start

@@ -26,8 +26,8 @@ BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
 
 
 def test_records_refuse_impossible_positions_and_options():
-    with pytest.raises(ValueError, match="round >= 1"):
-        RoundMsg(0, 0, (1, 2))
+    with pytest.raises(ValueError, match="round >= 0"):
+        RoundMsg(0, -1, (1, 2))
     with pytest.raises(ValueError, match="instance >= 0"):
         ChallengeMsg(-1, 1, 5)
     with pytest.raises(ValueError, match="order among"):

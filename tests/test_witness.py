@@ -148,3 +148,20 @@ def test_npy_table_with_a_non_canonical_entry_names_the_entry(tmp_path: Path) ->
          "tables": {"ledger": "ledger.npy", "scans": "scans.npy"}}]}))
     with pytest.raises(WitnessError, match="at entry 3"):
         fit_witness(load_witness(tmp_path / "w.json"), transcript)
+
+
+def test_npz_instance_names_may_contain_slashes(tmp_path: Path) -> None:
+    path = tmp_path / "w.npz"
+    np.savez(path, **{"permutation/combine": np.array("f*g"), "permutation/f": np.arange(4),
+                      "permutation/g": np.arange(4), "permutation/groups/combine": np.array("e"),
+                      "permutation/groups/e": np.arange(8)})
+    witness = load_witness(path)
+    assert [(i.name, sorted(i.tables)) for i in witness.instances] == [
+        ("permutation", ["f", "g"]), ("permutation/groups", ["e"])]
+
+
+def test_npz_key_outside_every_instance_is_refused(tmp_path: Path) -> None:
+    path = tmp_path / "w.npz"
+    np.savez(path, **{"sailing/combine": np.array("f"), "sailing/f": np.arange(4), "stray": np.arange(4)})
+    with pytest.raises(WitnessError, match="'stray'"):
+        load_witness(path)

@@ -80,6 +80,7 @@ class ProofScreen(Screen[None]):
         super().__init__()
         self.model = model
         self.last_message = ""
+        self._ready = False
 
     @property
     def stepper(self) -> StepperApp:
@@ -100,6 +101,7 @@ class ProofScreen(Screen[None]):
         self.query_one("#summary-box").border_title = "proof"
         self.query_one("#strip").border_title = "every round  ■ pass  ✕ fail  ◌ pending  · not sent"
         self.query_one("#detail-box").border_title = "round detail"
+        self._ready = True
         self.model_changed()
         self._show(self.position)
         self.query_one(RoundTable).focus()
@@ -107,7 +109,7 @@ class ProofScreen(Screen[None]):
     # ----- state -------------------------------------------------------------------
     def model_changed(self) -> None:
         """Repaint what depends on the whole model (after the file grew or a note)."""
-        if not self.is_mounted:
+        if not self._ready:
             return  # on_mount paints everything once the screen exists
         lines = summary_lines(self.model)
         if self.stepper.problem:

@@ -2,7 +2,9 @@
 
 Only the visible instance's rows exist (at most 64, the cap on ``num_vars``),
 so changing instance rebuilds a handful of rows and stepping only moves the
-cursor. Moving the cursor posts :class:`RoundTable.RoundChosen`.
+cursor. A cursor move by the user (keys or mouse on the table) posts
+:class:`RoundTable.RoundChosen`; a move the app asked for through ``show`` does
+not echo back, so the two can never chase each other.
 """
 
 from __future__ import annotations
@@ -35,7 +37,7 @@ class RoundTable(DataTable[object]):
         self.model = model
         self.instance = -1
         self._shown_generation = -1
-        self._target_row = 0  # the row the app last asked for; its echo is not news
+        self._by_user = False  # the next highlight comes from a key or click on the table
 
     def on_mount(self) -> None:
         self.add_columns(*COLUMNS)
@@ -45,9 +47,10 @@ class RoundTable(DataTable[object]):
         put the cursor on ``round_`` without echoing a RoundChosen back."""
         if instance != self.instance or self._shown_generation != self.model.generation:
             self._fill(instance)
-        self._target_row = max(0, round_ - 1)
-        if self.row_count and self.cursor_row != self._target_row:
-            self.move_cursor(row=self._target_row, animate=False)
+        self._by_user = False
+        target = max(0, round_ - 1)
+        if self.row_count and self.cursor_row != target:
+            self.move_cursor(row=target, animate=False)
 
     def _fill(self, instance: int) -> None:
         self.instance = instance
@@ -63,9 +66,39 @@ class RoundTable(DataTable[object]):
             rows.append(cells)
         self.add_rows(rows)
 
+    def _user(self) -> None:
+        self._by_user = True
+
+    def on_mouse_down(self) -> None:
+        self._user()
+
+    def action_cursor_up(self) -> None:
+        self._user()
+        super().action_cursor_up()
+
+    def action_cursor_down(self) -> None:
+        self._user()
+        super().action_cursor_down()
+
+    def action_page_up(self) -> None:
+        self._user()
+        super().action_page_up()
+
+    def action_page_down(self) -> None:
+        self._user()
+        super().action_page_down()
+
+    def action_scroll_top(self) -> None:
+        self._user()
+        super().action_scroll_top()
+
+    def action_scroll_bottom(self) -> None:
+        self._user()
+        super().action_scroll_bottom()
+
     def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
         event.stop()
-        if event.cursor_row == self._target_row:
-            return
-        self._target_row = event.cursor_row
+        if not self._by_user:
+            return  # the echo of a move the app asked for: not news
+        self._by_user = False
         self.post_message(self.RoundChosen(self.instance, event.cursor_row + 1))

@@ -44,6 +44,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--challenges", metavar="MODULE:FUNCTION",
         help="re-derive challenges with your own function (MODULE is a .py path or a dotted module name); "
              "also probes which messages the challenges depend on")
+    parser.add_argument("--detail", action="store_true",
+                        help="under each instance shown, one line per round: sums, recovered values, g(r)")
     parser.add_argument("--rows", type=int, default=TABLE_ROWS, metavar="N",
                         help=f"instances shown in the table (default {TABLE_ROWS}; failures are always shown)")
 
@@ -84,9 +86,9 @@ def run(args: argparse.Namespace) -> int:
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
     challenger = load_challenger(args.challenges) if args.challenges else None
-    detail = bool(args.json or args.witness)
-    replay = Replay(challenger=challenger, keep_rounds=detail, keep_instances=None if detail else args.rows,
-                    emit_passing=detail)
+    detail = bool(args.json or args.witness or args.detail)
+    replay = Replay(challenger=challenger, keep_rounds=detail,
+                    keep_instances=None if args.json or args.witness else args.rows, emit_passing=detail)
     notes: list[Note] = []
     note_count = 0
     events: list[Any] | None = [] if args.witness else None
@@ -124,7 +126,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         from stepper.cli.check_text import render
 
-        lines = render(report, args.file, notes, note_count, _colour(), args.rows)
+        lines = render(report, args.file, notes, note_count, _colour(), args.rows, args.detail)
         if diagnosis is not None:
             lines += ["", "root cause (with the witness):", *("  " + s for s in diagnosis.explain())]
         print("\n".join(lines))

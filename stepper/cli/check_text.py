@@ -43,7 +43,7 @@ def _row(s: InstanceSummary, colour: bool) -> str:
 
 
 def render(report: Report, path: str, notes: Sequence[Note], note_count: int, colour: bool,
-           rows: int) -> list[str]:
+           rows: int, detail: bool = False) -> list[str]:
     field = report.field.describe() if report.field is not None else "no field"
     lines = [
         _paint(f"stepper check {path}", "bold", colour),
@@ -52,7 +52,13 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
         f"  {'#':>4}  {'instance':<28} {'vars':>4} {'deg':>4}  {'form':<16} {'rounds':>7}  result",
     ]
     shown = [s for s in report.instances if s.index < rows or s.status == "fail"]
-    lines += [_row(s, colour) for s in shown]
+    for summary in shown:
+        lines.append(_row(summary, colour))
+        if detail:
+            lines += [f"          {r.explanation}" + (" [after an earlier failure]" if r.after_failure else "")
+                      for r in summary.rounds]
+            if summary.final is not None:
+                lines.append(f"          final: {summary.final.explanation}")
     hidden = report.instance_count - len(shown)
     if hidden > 0:
         counts = ", ".join(f"{n} {k}" for k, n in report.counts.items() if n)
@@ -73,6 +79,8 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
         lines.append(f"  {failure.explanation}")
     elif report.verdict == "incomplete":
         lines.append(_paint(word, tint, colour) + ": the transcript stops early; every round present passed")
+    elif report.instance_count == 0:
+        lines.append(_paint(word, tint, colour) + ": the transcript holds no instance, so nothing was checked")
     else:
         lines.append(_paint(word, tint, colour) + ": every check of every instance passed")
     for finding in report.findings:
@@ -87,5 +95,9 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
             lines.append(f"  note ({place}): {note.text}")
         if note_count > len(notes):
             lines.append(f"  ... {note_count - len(notes)} more note(s)")
-    lines += ["", f"  {report.soundness.describe()}", _paint(f"  {report.warning}", "dim", colour)]
+    lines += ["", f"  {report.soundness.describe()}"]
+    caution = report.soundness.caution()
+    if caution:
+        lines.append(_paint(f"  {caution}", "yellow", colour))
+    lines.append(_paint(f"  {report.warning}", "dim", colour))
     return lines

@@ -45,6 +45,8 @@ def run(args: argparse.Namespace) -> int:
     if sigma is None:
         if args.num_vars is None:
             raise UsageError("expected --num-vars MU or --sigma FILE")
+        if args.seed < 0:
+            raise UsageError(f"expected a non-negative --seed, found {args.seed}")
         if not 1 <= args.num_vars <= 24:
             raise UsageError(f"expected --num-vars between 1 and 24, found {args.num_vars}")
         sigma = np.random.default_rng(args.seed).permutation(1 << args.num_vars)

@@ -11,7 +11,6 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import sys
 from typing import Any
 
 HELP = "run a reference prover (optionally with an injected bug) and write its transcript"
@@ -25,12 +24,16 @@ DESCRIPTION = (
 )
 
 
+# the kinds of stepper.provers.reference.KINDS (kept here so building the parser imports no numpy)
+KINDS = ("generic", "zerocheck", "perm-direct", "perm-grouped", "ferries")
+
+
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     from stepper.provers.faults import FAULTS
-    from stepper.provers.reference import KINDS
 
     parser.add_argument("--kind", choices=KINDS, default="perm-grouped", help="which prover (default perm-grouped)")
-    parser.add_argument("-o", "--output", metavar="OUT", required=True, help="transcript to write (.stp)")
+    parser.add_argument("-o", "--output", metavar="OUT", required=True,
+                        help="transcript to write (.stp); a name ending in .jsonl gets the JSON-lines event stream")
     parser.add_argument("--witness-out", metavar="W", help="also write the witness (JSON) for check --witness")
     parser.add_argument("--num-vars", type=int, default=8, metavar="MU", help="variables: tables of 2^MU (default 8)")
     parser.add_argument("--field", default="babybear", metavar="F",
@@ -58,7 +61,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.errors import UsageError
+    from stepper.errors import StepperError, UsageError
     from stepper.provers.faults import parse_fault
     from stepper.provers.reference import ProveSpec, parse_field, prove
     from stepper.store import TranscriptWriter
@@ -74,8 +77,16 @@ def run(args: argparse.Namespace) -> int:
     groups = args.groups if args.groups is not None else 2
     spec = ProveSpec(args.kind, args.num_vars, args.seed, groups, switch, fault, args.order, args.form,
                      args.combine, args.tamper, args.label)
-    with TranscriptWriter(args.output, metadata=metadata(spec, args.field)) as writer:
-        proof = prove(spec, field, writer)
+    try:
+        if args.output.endswith(".jsonl"):
+            proof = _prove_jsonl(args.output, spec, field)
+        else:
+            with TranscriptWriter(args.output, metadata=metadata(spec, args.field)) as writer:
+                proof = prove(spec, field, writer)
+    except StepperError:
+        if os.path.exists(args.output):
+            os.unlink(args.output)  # a statement refused part-way leaves no half transcript behind
+        raise
     if args.witness_out:
         write_witness(args.witness_out, field, proof)
     summary = summarise(spec, args.field, proof)
@@ -91,6 +102,19 @@ def run(args: argparse.Namespace) -> int:
         if args.witness_out:
             print(f"wrote {args.witness_out}: witness for `stepper check {args.output} --witness {args.witness_out}`")
     return 0
+
+
+def _prove_jsonl(path: str, spec: Any, field: Any) -> Any:
+    """The proof as a JSON-lines event stream (the format `stepper record` and `import` read)."""
+    from stepper.errors import InputError
+    from stepper.provers.channel import JsonLinesSink
+    from stepper.provers.reference import prove
+
+    try:
+        with open(path, "w", encoding="utf-8") as out:
+            return prove(spec, field, JsonLinesSink(out))
+    except OSError as err:
+        raise InputError(f"expected to write the events to {path}, but {err.strerror.lower()}") from None
 
 
 def metadata(spec: Any, field_text: str) -> dict[str, Any]:
@@ -140,6 +164,3 @@ def write_witness(path: str, field: Any, proof: Any) -> None:
     except OSError as err:
         raise InputError(f"expected to write the witness to {path}, but {err.strerror.lower()}") from None
 
-
-if __name__ == "__main__":  # pragma: no cover
-    sys.exit(2)

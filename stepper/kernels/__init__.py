@@ -2,7 +2,8 @@
 
 * :class:`SmallPrimeKernel` for p < 2^32 (uint64 entries);
 * :class:`GoldilocksKernel` for p = 2^64 - 2^32 + 1 (uint64 entries, 32-bit limbs);
-* :class:`ObjectKernel` for every other prime (object arrays of Python ints);
+* :class:`Word64Kernel` for any other prime below 2^64 (uint64 entries, Montgomery);
+* :class:`ObjectKernel` for primes above 2^64 (object arrays of Python ints);
 * :class:`ExtensionKernel` for F_p[X]/(q) (shape (n, k) arrays over a base kernel).
 
 :func:`kernel_for` picks one. Every operation takes and returns canonical
@@ -16,7 +17,7 @@ from typing import TYPE_CHECKING
 
 from stepper.kernels.base import COMPILED_MIN, Kernel, load_compiled
 from stepper.kernels.extension import ExtensionKernel
-from stepper.kernels.prime import GOLDILOCKS, GoldilocksKernel, ObjectKernel, SmallPrimeKernel
+from stepper.kernels.prime import GOLDILOCKS, GoldilocksKernel, ObjectKernel, SmallPrimeKernel, Word64Kernel
 
 if TYPE_CHECKING:
     from stepper.field import Field
@@ -25,6 +26,7 @@ __all__ = [
     "Kernel",
     "SmallPrimeKernel",
     "GoldilocksKernel",
+    "Word64Kernel",
     "ObjectKernel",
     "ExtensionKernel",
     "kernel_for",
@@ -41,6 +43,8 @@ def kernel_for(field: Field, compiled_min: int = COMPILED_MIN) -> Kernel:
         base = SmallPrimeKernel(field.base, compiled_min)
     elif field.p == GOLDILOCKS:
         base = GoldilocksKernel(field.base, compiled_min)
+    elif field.p < 2**64:
+        base = Word64Kernel(field.base, compiled_min)
     else:
         base = ObjectKernel(field.base, compiled_min)
     return ExtensionKernel(field, base, compiled_min) if field.is_extension else base

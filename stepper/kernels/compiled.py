@@ -12,7 +12,8 @@ Reduction modulo a prime p < 2^32 avoids the slow integer division: for
 x < 2^40 p, q = trunc(float(x) / p) is within one of floor(x / p) because a
 float64 carries 53 bits, so x - q p lies in [-p, 2p) and one correction step
 makes it canonical. Goldilocks p = 2^64 - 2^32 + 1 reduces a 128-bit product
-with 2^64 = 2^32 - 1 and 2^96 = -1 (mod p).
+with 2^64 = 2^32 - 1 and 2^96 = -1 (mod p). Any other prime below 2^64 uses
+Montgomery reduction with R = 2^64: REDC(REDC(a b) (R^2 mod p)) = a b mod p.
 """
 
 from __future__ import annotations
@@ -31,6 +32,9 @@ __all__ = [
     "gl_sub",
     "gl_mul",
     "gl_ext_mul",
+    "word_mul",
+    "word_add",
+    "word_sub",
 ]
 
 _ZERO = np.uint64(0)
@@ -243,4 +247,64 @@ def gl_ext_mul(a, b, xk, out):  # type: ignore[no-untyped-def]
                     prod[t - k + m] = _gl_add1(prod[t - k + m], _gl_mul1(c, xk[m]))
         for m in range(k):
             out[i, m] = prod[m]
+    return out
+
+
+@njit(cache=True, inline="always")
+def _mul128(a, b):  # type: ignore[no-untyped-def]
+    """The 128-bit product a * b as (high, low) 64-bit words."""
+    a0 = a & _M32
+    a1 = a >> _S32
+    b0 = b & _M32
+    b1 = b >> _S32
+    lo = a0 * b0
+    mid1 = a0 * b1
+    mid = mid1 + a1 * b0
+    mid_carry = _ONE if mid < mid1 else _ZERO
+    lo2 = lo + (mid << _S32)
+    carry = _ONE if lo2 < lo else _ZERO
+    return a1 * b1 + (mid >> _S32) + (mid_carry << _S32) + carry, lo2
+
+
+@njit(cache=True, inline="always")
+def _redc(hi, lo, p, pneg_inv):  # type: ignore[no-untyped-def]
+    """(hi 2^64 + lo) / 2^64 mod p for hi < p: Montgomery's reduction."""
+    m = lo * pneg_inv  # wraps mod 2^64: m = -lo / p mod 2^64
+    mp_hi, mp_lo = _mul128(m, p)
+    carry = _ONE if lo != _ZERO else _ZERO  # lo + mp_lo = 0 mod 2^64, with a carry unless both are 0
+    t = hi + mp_hi
+    overflow = t < hi
+    t2 = t + carry
+    overflow = overflow or t2 < t
+    if overflow or t2 >= p:
+        t2 -= p
+    return t2
+
+
+@njit(cache=True)
+def word_mul(a, b, p, pneg_inv, r2, out):  # type: ignore[no-untyped-def]
+    """out = a * b mod p for an odd prime p < 2^64 (pneg_inv = -1/p mod 2^64, r2 = 2^128 mod p)."""
+    for i in range(a.shape[0]):
+        hi, lo = _mul128(a[i], b[i])
+        x = _redc(hi, lo, p, pneg_inv)  # a b / R
+        hi, lo = _mul128(x, r2)
+        out[i] = _redc(hi, lo, p, pneg_inv)  # a b / R * R^2 / R = a b
+    return out
+
+
+@njit(cache=True)
+def word_add(a, b, p, out):  # type: ignore[no-untyped-def]
+    """out = a + b mod p for p < 2^64 (the sum may wrap past 2^64)."""
+    for i in range(a.shape[0]):
+        s = a[i] + b[i]
+        out[i] = s - p if (s < a[i] or s >= p) else s
+    return out
+
+
+@njit(cache=True)
+def word_sub(a, b, p, out):  # type: ignore[no-untyped-def]
+    """out = a - b mod p for p < 2^64."""
+    for i in range(a.shape[0]):
+        d = a[i] - b[i]
+        out[i] = d + p if a[i] < b[i] else d
     return out

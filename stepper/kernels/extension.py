@@ -7,7 +7,7 @@ X^k = -(q_0 + q_1 X + ... + q_(k-1) X^(k-1)). For a binomial q = X^k - w (the
 usual choice) that reduction is one multiplication by w per coefficient.
 
 Large arrays over a prime below 2^32 or over Goldilocks use the numba loops;
-everything else (small arrays, big primes) the base kernel's numpy operations.
+everything else (small arrays, other primes) the base kernel's operations.
 """
 
 from __future__ import annotations
@@ -45,7 +45,8 @@ class ExtensionKernel(Kernel):
             top = row[-1]
             row = [0, *row[:-1]]
             row = [(r + top * x) % p for r, x in zip(row, self.xk)]
-        self._xk_array = np.array(self.xk, dtype=np.uint64) if base.dtype is np.uint64 else None
+        compiled_base = isinstance(base, (SmallPrimeKernel, GoldilocksKernel))
+        self._xk_array = np.array(self.xk, dtype=np.uint64) if compiled_base else None
         self._lazy = 4 * (p - 1) ** 2 < 2**64  # four raw products fit in uint64
 
     # ----- construction and conversion -------------------------------------------

@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING, Sequence
 import numpy as np
 
 from stepper.errors import UsageError
-from stepper.poly import eq_table, mle_eval
+from stepper.poly import eq_eval, eq_table, mle_eval
 from stepper.provers.bucketing import (
     MAX_MASK_BITS,
     GroupBuckets,
@@ -138,8 +138,8 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
     mu = len(rho)
     widest = max(len(g) for g in parts)
     degree = widest + 1
-    index = channel.start_instance(name, mu, degree, claim, form=form)
-    counter.phase(f"{name}/round 1")
+    channel.start_instance(name, mu, degree, claim, form=form)
+    counter.phase(f"{name}/setup")
     one = field.one
     low = [field.sub(one, a) for a in alpha]  # e_i where the bit is 0
     slope = [field.sub(field.add(a, a), one) for a in alpha]  # e_i(1) - e_i(0)
@@ -163,8 +163,12 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
             direct_cost = sum(half * (direct_products(len(g), widest) + len(g)) for g in parts)
             paying = switch_round is not None or bucket_cost < direct_cost
             for j, (o, g) in enumerate(zip(occupancy, parts)):
-                sizes = sorted(o.sizes.tolist(), reverse=True) if o.count <= SIZES_LIMIT else None
-                channel.buckets(k, j, o.count, sizes, (1 << k) * len(g), half, used=paying)
+                if o.count <= SIZES_LIMIT:
+                    channel.buckets(k, j, o.count, sorted(o.sizes.tolist(), reverse=True), (1 << k) * len(g), half,
+                                    used=paying)
+                else:
+                    channel.buckets(k, j, o.count, None, (1 << k) * len(g), half, used=paying,
+                                    sizes_summary=_size_summary(o.sizes))
             if paying:
                 sums = [_bucket_sums(counter, o, g, subset, weights, low, slope, degree, width)
                         for o, g in zip(occupancy, parts)]
@@ -254,6 +258,14 @@ def _materialise(counter: MulCounter, bits: Sequence[np.ndarray], bound_eq: np.n
     return out
 
 
+def _size_summary(sizes: np.ndarray) -> dict[str, object]:
+    """Entries per bucket in brief, for rounds with more than SIZES_LIMIT buckets."""
+    ordered = np.sort(sizes)
+    bins = np.bincount(np.floor(np.log2(ordered)).astype(np.int64))
+    return {"smallest": int(ordered[0]), "median": int(ordered[len(ordered) // 2]), "largest": int(ordered[-1]),
+            "singletons": int(np.count_nonzero(ordered == 1)), "histogram_log2": [int(b) for b in bins]}
+
+
 def _fill(field: Field, value: Element, n: int) -> np.ndarray:
     return np.repeat(field.vec([value]), n, axis=0)
 
@@ -262,8 +274,6 @@ def _oracle_final(field: Field, bits: Sequence[np.ndarray], alpha: Sequence[Elem
                   rho: Sequence[Element], powers: Sequence[Element], point: Sequence[Element]) -> Element:
     """eq(rho, point) * sum_j powers[j] prod_{i in G_j} e~_i(point): the verifier's value
     from oracle access to the bits of sigma^-1 (its work, not the prover's: not counted)."""
-    from stepper.poly import eq_eval
-
     one = field.one
     total = field.zero
     for pw, group in zip(powers, parts):

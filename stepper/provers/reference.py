@@ -57,6 +57,26 @@ class ProveSpec:
             raise UsageError(f"expected a prover kind among {', '.join(KINDS)}, found {self.kind!r}")
         if not 1 <= self.num_vars <= 24:
             raise UsageError(f"expected --num-vars between 1 and 24, found {self.num_vars}")
+        if self.seed < 0:
+            raise UsageError(f"expected a non-negative --seed, found {self.seed}")
+        fault = self.fault
+        if fault is not None:
+            count = self.instance_count
+            if fault.instance >= count:
+                raise UsageError(f"expected a fault instance below {count} (a {self.kind} proof has {count} "
+                                 f"instance{'s' if count > 1 else ''}), found {fault.instance}")
+            if fault.round > self.num_vars:
+                raise UsageError(f"expected the fault round at most {self.num_vars} (the number of rounds), "
+                                 f"found {fault.round}")
+
+    @property
+    def instance_count(self) -> int:
+        """Instances in the proof this spec makes."""
+        if self.kind == "perm-grouped":
+            return 2
+        if self.kind == "ferries":
+            return 3 if self.groups else 2
+        return 1
 
 
 def parse_field(text: str) -> Field:

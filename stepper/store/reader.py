@@ -8,7 +8,8 @@ and OS failure becomes one :class:`TranscriptError` naming the file, the byte
 offset (or line), the event index, instance and round.
 
 Truncation: msgpack's ``Unpacker`` ends iteration silently when the data stops
-inside an object, and its ``tell()`` then counts the partly parsed bytes too.
+inside an object, and its ``tell()`` then already points into that object
+(it advances past each finished key and value; measured, see the tests).
 At the end of the file the reader feeds one msgpack ``nil`` byte: a top-level
 ``None`` comes back only when no object was left half-read; anything else means
 the last event was cut off. That event is dropped, the stream is "incomplete"

@@ -6,6 +6,10 @@ element lists packed into one blob), so whatever the writer accepts the reader
 reads back identically. The file is never held in memory; a prover that dies
 leaves a readable prefix (no end event: "incomplete"). ``finish`` appends the
 ``end`` event: the event count and the SHA-256 of every byte before it.
+
+Durability: each event goes to the operating system in one ``write`` as it is
+made, so a prover that crashes or is killed loses nothing written before. The
+writer does not ``fsync``: a machine that loses power may lose the last events.
 """
 
 from __future__ import annotations
@@ -114,10 +118,6 @@ class TranscriptWriter:
             return
         self._emit(self._packer.pack(end_payload(self._seq.count, self._hasher.digest())))
         self._finished = True
-        try:
-            os.fsync(self._file.fileno())
-        except OSError:
-            pass  # not every file system can sync (pipes, some FUSE mounts); the bytes are written
         self.close()
 
     def close(self) -> None:

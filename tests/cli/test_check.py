@@ -117,6 +117,13 @@ def test_unfinished_file_with_every_round_present_is_still_incomplete(tmp_path, 
     '"claim": 2013265921}\n',
     "not json at all\n",
     "",
+    '{"type": "field", "name": "babybear"}\n{"type": "instance", "name": "x", "num_vars": 1000000000, '
+    '"degree": 1, "claim": 0}\n',
+    '{"type": "field", "name": "babybear"}\n{"type": "instance", "name": "x", "num_vars": 1, "degree": 1, '
+    '"claim": 0}\n{"type": "round", "evals": {"g0": 1}}\n',
+    '{"type": "field", "name": "babybear"}\n{"type": "instance", "name": "x", "num_vars": 1, "degree": 1, '
+    '"claim": 0}\n{"type": "challenge", "value": 3}\n',
+    "stepper:sumcheck\n\xff\xff",
 ])
 def test_unusable_input_is_one_line_and_exit_2(tmp_path, capsys, content):
     path = tmp_path / "bad.jsonl"
@@ -124,6 +131,15 @@ def test_unusable_input_is_one_line_and_exit_2(tmp_path, capsys, content):
     code, out, err = check(capsys, str(path))
     assert code == 2 and out == ""
     assert err.startswith("stepper check: ") and err.count("\n") == 1
+
+
+def test_foreign_schedule_is_reported_as_not_re_derived(tmp_path, capsys):
+    payloads = honest()
+    payloads.insert(1, {"type": "schedule", "name": "ferry-office-transcript/3", "label": "gate"})
+    code, out, _ = check(capsys, str(write_jsonl(tmp_path / "run.jsonl", payloads)), "--json")
+    data = json.loads(out)
+    assert code == 0 and data["challenges"].startswith("not re-derived")
+    assert [f["kind"] for f in data["findings"]] == ["challenges-unchecked"]
 
 
 def test_missing_file_and_bad_flags_exit_2(tmp_path, capsys):
@@ -246,3 +262,15 @@ def test_many_instances_show_a_bounded_table(tmp_path, capsys):
     many = [payloads[0]] + [copy.deepcopy(p) for _ in range(40) for p in body]
     code, out, _ = check(capsys, str(write_jsonl(tmp_path / "many.jsonl", many)), "--rows", "5")
     assert code == 0 and "35 more instance(s) not shown" in out
+
+
+def test_detail_shows_recovered_values_of_a_compressed_form(tmp_path, capsys):
+    payloads = honest()
+    payloads[1]["form"] = "evals-no-1"
+    for p in payloads:
+        if p["type"] == "round":
+            p["evals"] = [p["evals"][0], *p["evals"][2:]]
+    code, out, _ = check(capsys, str(write_jsonl(tmp_path / "short.jsonl", payloads)), "--detail")
+    assert code == 0
+    assert "round 1: g(1) = 11 was recovered from the claim, so the local sum check holds by construction" in out
+    assert "final: the reduced claim g3(r3)" in out

@@ -48,17 +48,35 @@ def test_prove_json_summary_lists_round_multiplications(tmp_path, capsys):
     assert summary["multiplications"] > sum(sum(i["round_mults"]) for i in summary["instances"])
 
 
+def test_the_parser_offers_exactly_the_reference_kinds_without_importing_the_provers():
+    from stepper.cli import prove_cmd
+    from stepper.provers.reference import KINDS
+
+    assert prove_cmd.KINDS == KINDS
+    proc = subprocess.run([sys.executable, "-c", "import sys; from stepper.cli.main import _build_parser; "
+                           "_build_parser(); print('stepper.provers.reference' in sys.modules)"],
+                          capture_output=True, text=True)
+    assert proc.stdout.strip() == "False"
+
+
 @pytest.mark.parametrize("flags, message", [
     (["--fault", "gremlin"], "expected a fault among"),
     (["--field", "babybear^3"], "babybear^3"),
     (["--switch-round", "soon"], "--switch-round"),
     (["--num-vars", "40"], "--num-vars"),
     (["--kind", "perm-direct", "--order", "high-first"], "low-first"),
+    (["--kind", "perm-direct", "--fault", "drop-eval@9"], "at most 5"),
+    (["--kind", "perm-grouped", "--fault", "negate-claim", "--fault-instance", "2"], "below 2"),
+    (["--kind", "perm-grouped", "--fault", "stale-challenge@2", "--fault-instance", "1"], "first instance"),
+    (["--kind", "zerocheck", "--combine", "eq * a"], "'eq'"),
+    (["--seed", "-1"], "non-negative"),
 ])
 def test_bad_flags_are_one_line_and_exit_2(flags, message, tmp_path):
-    proc = subprocess.run([sys.executable, "-m", "stepper", "prove", "-o", str(tmp_path / "x.stp"), *flags],
+    out = tmp_path / "x.stp"
+    proc = subprocess.run([sys.executable, "-m", "stepper", "prove", "-o", str(out), "--num-vars", "5", *flags],
                           capture_output=True, text=True)
     assert proc.returncode == 2
+    assert not out.exists()  # nothing half-written is left behind
     assert message in proc.stderr and proc.stderr.strip().count("\n") == 0
     assert "Traceback" not in proc.stderr
 
@@ -108,3 +126,13 @@ def test_demo_without_the_app_writes_the_examples_and_shows_a_failure_and_an_acc
     assert "ACCEPTED" in proc.stdout and "REJECTED" in proc.stdout
     assert "challenge-shift" in proc.stdout  # the root-cause probe explains the prover bug
     assert (tmp_path / "d" / "ferries-stale-challenge.witness.json").exists()
+
+
+def test_an_output_ending_in_jsonl_gets_the_event_stream_that_check_reads(tmp_path, capsys):
+    out = tmp_path / "events.jsonl"
+    assert main(["prove", "--kind", "zerocheck", "--num-vars", "3", "-o", str(out)]) == 0
+    lines = out.read_text().splitlines()
+    assert json.loads(lines[0]) == {"type": "field", "name": "babybear"}
+    assert json.loads(lines[1])["type"] == "schedule"
+    capsys.readouterr()
+    assert main(["check", str(out)]) == 0

@@ -224,3 +224,36 @@ def test_info_on_a_corrupt_file_describes_it_and_exits_2(tmp_path, capsys):
     assert main(["info", str(out)]) == 2
     captured = capsys.readouterr()
     assert "DIGEST MISMATCH" in captured.out and "corrupt" in captured.err
+
+
+def test_check_refuses_a_corrupt_transcript_with_exit_2_in_one_line(tmp_path):
+    events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
+    out = tmp_path / "deck.stp"
+    assert stepper("import", str(events), "-o", str(out)).returncode == 0
+    data = bytearray(out.read_bytes())
+    data[data.index(b"slot 7")] = ord("S")  # a note's text: still valid msgpack, digest now wrong
+    out.write_bytes(bytes(data))
+    proc = stepper("check", str(out))
+    assert proc.returncode == 2
+    assert proc.stderr.count("\n") == 1 and "corrupt" in proc.stderr and "Traceback" not in proc.stderr
+
+
+@pytest.mark.parametrize("content", [b"\x89PNG\r\n\x1a\n\0\0", b"stepper:sumcheck\n\x07\x80", b"stepper:sum"])
+def test_info_and_export_of_unusable_files_are_one_line_and_exit_2(tmp_path, content):
+    path = tmp_path / "bad.stp"
+    path.write_bytes(content)
+    for command in ("info", "export"):
+        proc = stepper(command, str(path))
+        assert proc.returncode == 2, proc.stderr
+        assert proc.stderr.count("\n") == 1 and str(path) in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_export_of_an_incomplete_transcript_prints_the_events_present_and_warns(tmp_path):
+    events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
+    out = tmp_path / "deck.stp"
+    assert stepper("import", str(events), "-o", str(out)).returncode == 0
+    out.write_bytes(out.read_bytes()[:-70])  # the end event and the last event are cut
+    proc = stepper("export", str(out))
+    assert proc.returncode == 0 and "incomplete" in proc.stderr
+    lines = [json.loads(line) for line in proc.stdout.splitlines()]
+    assert lines[-1] == {"type": "final", "value": 77}

@@ -10,7 +10,6 @@ from stepper.field import NAMED_PRIMES, field_from_spec, get_field
 from stepper.provers.bucketing import bit_tables, group_buckets, round_masks, split_groups
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.reference import random_permutation_statement
-from stepper.transcript import RoundMsg
 from stepper.verify import replay_transcript
 from tests.provers.helpers import run_prover
 
