@@ -58,6 +58,9 @@ def field_by_label(label: str) -> Field:
         return get_field(P32, (1, 1, 0, 0, 1))
     if label == "p32-trinomial^2":  # X^2 + X + 1 is irreducible when p = 2 mod 3 (2^32 - 5 = 2 mod 3)
         return get_field(P32, (1, 1, 1))
+    if label == "babybear-dense^4":  # X^4 - 7X^3 + 5X^2 - 3X + 3: irreducible (get_field checks), every X^4 term non-zero
+        bb = NAMED_PRIMES["babybear"]
+        return get_field(bb, (3, bb - 3, 5, bb - 7, 1))
     if label == "babybear^3":  # X^3 - 2, irreducible over BabyBear (checked by get_field)
         return get_field(NAMED_PRIMES["babybear"], (NAMED_PRIMES["babybear"] - 2, 0, 0, 1))
     name, _, degree = label.partition("^")
@@ -71,6 +74,7 @@ EXT_LABELS = [
     "mersenne31^4",
     "goldilocks^2",
     "babybear^3",
+    "babybear-dense^4",
     "p32^2",
     "p32^4",
     "p32-trinomial^2",

@@ -26,6 +26,7 @@ __all__ = [
     "small_ext_mul",
     "small_binomial_mul",
     "small_binomial4_mul",
+    "small_ext4_mul",
     "small_add",
     "small_sub",
     "gl_add",
@@ -137,6 +138,37 @@ def small_binomial4_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
         out[i, 1] = _mod_small(c1, p, pinv)
         out[i, 2] = _mod_small(c2, p, pinv)
         out[i, 3] = _mod_small(a0 * b3 + a1 * b2 + a2 * b1 + a3 * b0, p, pinv)
+    return out
+
+
+@njit(cache=True)
+def small_ext4_mul(a, b, xk, p, pinv, out):  # type: ignore[no-untyped-def]
+    """The k = 4 case of :func:`small_ext_mul`, unrolled, for p < 2^31 (raw
+    sums of four products fit in 64 bits); X^6, X^5, X^4 are folded down in turn
+    with X^4 = xk_0 + xk_1 X + xk_2 X^2 + xk_3 X^3."""
+    x0, x1, x2, x3 = xk[0], xk[1], xk[2], xk[3]
+    for i in range(a.shape[0]):
+        a0, a1, a2, a3 = a[i, 0], a[i, 1], a[i, 2], a[i, 3]
+        b0, b1, b2, b3 = b[i, 0], b[i, 1], b[i, 2], b[i, 3]
+        r0 = _mod_small(a0 * b0, p, pinv)
+        r1 = _mod_small(a0 * b1 + a1 * b0, p, pinv)
+        r2 = _mod_small(a0 * b2 + a1 * b1 + a2 * b0, p, pinv)
+        r3 = _mod_small(a0 * b3 + a1 * b2 + a2 * b1 + a3 * b0, p, pinv)
+        r4 = _mod_small(a1 * b3 + a2 * b2 + a3 * b1, p, pinv)
+        r5 = _mod_small(a2 * b3 + a3 * b2, p, pinv)
+        r6 = _mod_small(a3 * b3, p, pinv)
+        r2 += _mod_small(r6 * x0, p, pinv)
+        r3 += _mod_small(r6 * x1, p, pinv)
+        r4 += _mod_small(r6 * x2, p, pinv)
+        r5 = _mod_small(r5 + _mod_small(r6 * x3, p, pinv), p, pinv)
+        r1 += _mod_small(r5 * x0, p, pinv)
+        r2 += _mod_small(r5 * x1, p, pinv)
+        r3 += _mod_small(r5 * x2, p, pinv)
+        r4 = _mod_small(r4 + _mod_small(r5 * x3, p, pinv), p, pinv)
+        out[i, 0] = _mod_small(r0 + _mod_small(r4 * x0, p, pinv), p, pinv)
+        out[i, 1] = _mod_small(r1 + _mod_small(r4 * x1, p, pinv), p, pinv)
+        out[i, 2] = _mod_small(r2 + _mod_small(r4 * x2, p, pinv), p, pinv)
+        out[i, 3] = _mod_small(r3 + _mod_small(r4 * x3, p, pinv), p, pinv)
     return out
 
 

@@ -115,6 +115,8 @@ class ExtensionKernel(Kernel):
             if self.k == 4 and self._lazy:
                 return compiled.small_binomial4_mul(fa, fb, w, base.p64, base.pinv, out)  # type: ignore[no-any-return]
             return compiled.small_binomial_mul(fa, fb, w, base.p64, base.pinv, out)  # type: ignore[no-any-return]
+        if self.k == 4 and self._lazy:
+            return compiled.small_ext4_mul(fa, fb, self._xk_array, base.p64, base.pinv, out)  # type: ignore[no-any-return]
         return compiled.small_ext_mul(fa, fb, self._xk_array, base.p64, base.pinv, out)  # type: ignore[no-any-return]
 
     def _mul_numpy(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
