@@ -38,8 +38,8 @@ from stepper.transcript import (
     RoundMsg,
     ScheduleDecl,
     UnknownEvent,
-    CHALLENGE_SETTERS,
-    ROUND_SETTERS,
+    ChallengeMsgDraft,
+    RoundMsgDraft,
 )
 
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_TEXT", "MAX_NUM_VARS", "MAX_DEGREE"]
@@ -113,9 +113,8 @@ class Sequencer:
         num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
         width, runs = self._elem_bytes, self._runs
         run_size, run_unpack = -1, None  # the last packed-run size seen and its struct unpacker
-        from_bytes, new = int.from_bytes, object.__new__
-        set_ri, set_rr, set_rv = ROUND_SETTERS
-        set_ci, set_cr, set_cv = CHALLENGE_SETTERS
+        from_bytes = int.from_bytes
+        round_cls, challenge_cls = RoundMsg, ChallengeMsg
         try:
             for payload in payloads:
                 try:  # the fast path; a KeyError, TypeError or ValueError just means "not fast"
@@ -134,10 +133,9 @@ class Sequencer:
                                 if ok:
                                     waiting = False
                                     count += 1
-                                    record = new(ChallengeMsg)
-                                    set_ci(record, index)
-                                    set_cr(record, done)
-                                    set_cv(record, value)
+                                    record = ChallengeMsgDraft()
+                                    record.instance, record.round, record.value = index, done, value
+                                    record.__class__ = challenge_cls  # see RoundMsgDraft
                                     yield record
                                     continue
                     elif kind == "round":
@@ -156,10 +154,9 @@ class Sequencer:
                                     done += 1
                                     waiting = True
                                     count += 1
-                                    record = new(RoundMsg)
-                                    set_ri(record, index)
-                                    set_rr(record, done)
-                                    set_rv(record, values)
+                                    record = RoundMsgDraft()
+                                    record.instance, record.round, record.values = index, done, values
+                                    record.__class__ = round_cls  # see RoundMsgDraft
                                     yield record
                                     continue
                 except (KeyError, TypeError, ValueError):
@@ -362,9 +359,9 @@ class Sequencer:
         if raw is None:
             raise self._fail(f"expected a {what}, found none", round_)
         try:
-            return self.field.parse(raw, self.where(round_))
-        except FieldError as err:
-            raise TranscriptError(f"{what}: {err.message}", err.where) from None
+            return self.field.parse(raw)
+        except FieldError as err:  # the location is built only when it is needed
+            raise TranscriptError(f"{what}: {err.message}", self.where(round_)) from None
 
     def _elements(self, raw: Any, what: str, round_: int | None = None) -> tuple[Element, ...]:
         if isinstance(raw, (bytes, bytearray)) and self.field is not None:

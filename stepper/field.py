@@ -423,7 +423,9 @@ def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
             raise FieldError(f"expected a monic polynomial (leading coefficient 1), found leading coefficient {q[-1]}")
         for index, c in enumerate(q):
             if not 0 <= c < p:
-                raise FieldError(f"expected polynomial coefficients 0 <= c < p = {p}, found {clip_text(str(c))} at X^{index}")
+                raise FieldError(
+                    f"expected polynomial coefficients 0 <= c < p = {p}, found {clip_text(str(c))} at X^{index}"
+                )
         if not is_irreducible(q, p):
             raise FieldError(f"expected an irreducible polynomial over F_p, found {format_poly(q, p)} (reducible)")
     field = Field(p, q)

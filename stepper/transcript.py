@@ -36,6 +36,8 @@ __all__ = [
     "InstanceRecord",
     "Transcript",
     "fold_events",
+    "RoundMsgDraft",
+    "ChallengeMsgDraft",
 ]
 
 FORMAT_VERSION = 1
@@ -164,15 +166,23 @@ class ChallengeMsg:
         _need(_index(self.instance) and _index(self.round), "ChallengeMsg", "instance >= 0 and round >= 0")
 
 
-def _slot_setters(cls: type, names: tuple[str, ...]) -> tuple[Any, ...]:
-    return tuple(cls.__dict__[name].__set__ for name in names)
+class RoundMsgDraft:
+    """A blank with the slots of :class:`RoundMsg`, for the reader's hot loop.
+
+    A frozen dataclass ``__init__`` sets each field through ``object.__setattr__``,
+    which costs about as much as decoding the event. The Sequencer, once it has
+    checked the values, fills a draft with plain attribute stores and then sets
+    its ``__class__`` to :class:`RoundMsg` (CPython allows that between classes of
+    identical layout). The result is an ordinary, frozen RoundMsg: same type,
+    equality, hash and immutability."""
+
+    __slots__ = RoundMsg.__slots__  # type: ignore[attr-defined]
 
 
-# The reader's hot loop builds RoundMsg and ChallengeMsg from values the
-# Sequencer has already checked through these slot setters, skipping the
-# dataclass __init__ (about twice as fast); the records are the same.
-ROUND_SETTERS = _slot_setters(RoundMsg, ("instance", "round", "values"))
-CHALLENGE_SETTERS = _slot_setters(ChallengeMsg, ("instance", "round", "value"))
+class ChallengeMsgDraft:
+    """The same for :class:`ChallengeMsg` (see :class:`RoundMsgDraft`)."""
+
+    __slots__ = ChallengeMsg.__slots__  # type: ignore[attr-defined]
 
 
 @dataclass(frozen=True, slots=True)

@@ -13,8 +13,10 @@ def test_names_moduli_and_extensions_are_read():
     bb = NAMED_PRIMES["babybear"]
     assert read_field_spec({"name": "BabyBear"}) is get_field(bb)
     assert read_field_spec({"modulus": "0x65"}) is get_field(101)
-    assert read_field_spec({"modulus": 101, "extension_degree": 2, "irreducible": [2, 0, 1]}) is get_field(101, (2, 0, 1))
-    assert read_field_spec({"name": "babybear", "extension_degree": 4}) is get_field(bb, DEFAULT_IRREDUCIBLES["babybear", 4])
+    declared = {"modulus": 101, "extension_degree": 2, "irreducible": [2, 0, 1]}
+    assert read_field_spec(declared) is get_field(101, (2, 0, 1))
+    bb4 = get_field(bb, DEFAULT_IRREDUCIBLES["babybear", 4])
+    assert read_field_spec({"name": "babybear", "extension_degree": 4}) is bb4
     assert field_from_spec({"name": "babybear", "modulus": str(bb)}) is get_field(bb)
 
 

@@ -221,7 +221,12 @@ def test_mle_refuses_a_table_of_the_wrong_size():
 
 
 @SETTINGS
-@given(data=st.data(), field=st.sampled_from([BABYBEAR, BB4, GL2]), mu=st.integers(0, 5), order=st.sampled_from(["low-first", "high-first"]))
+@given(
+    data=st.data(),
+    field=st.sampled_from([BABYBEAR, BB4, GL2]),
+    mu=st.integers(0, 5),
+    order=st.sampled_from(["low-first", "high-first"]),
+)
 def test_eq_table_sums_to_one_and_matches_eq_eval(data, field, mu, order):
     challenges = data.draw(st.lists(element(field), min_size=mu, max_size=mu))
     point = point_from_challenges(challenges, order)

@@ -8,16 +8,16 @@ import pytest
 
 from stepper.field import get_field
 from stepper.transcript import (
-    CHALLENGE_SETTERS,
-    ROUND_SETTERS,
     BucketStats,
     ChallengeMsg,
+    ChallengeMsgDraft,
     FieldDecl,
     FinalValue,
     Header,
     InstanceStart,
     Note,
     RoundMsg,
+    RoundMsgDraft,
     UnknownEvent,
     fold_events,
 )
@@ -50,15 +50,18 @@ def test_records_are_frozen_and_store_lists_as_tuples():
     assert BucketStats(0, 1, 0, 2, [1, 1]).sizes == (1, 1)  # type: ignore[arg-type]
 
 
-def test_fast_built_records_equal_and_hash_like_constructed_ones():
-    fast = object.__new__(RoundMsg)
-    for setter, value in zip(ROUND_SETTERS, (0, 2, (7, 8))):
-        setter(fast, value)
+def test_drafted_records_are_ordinary_frozen_records():
+    fast = RoundMsgDraft()
+    fast.instance, fast.round, fast.values = 0, 2, (7, 8)
+    fast.__class__ = RoundMsg
+    assert type(fast) is RoundMsg
     assert fast == RoundMsg(0, 2, (7, 8)) and hash(fast) == hash(RoundMsg(0, 2, (7, 8)))
-    fast_c = object.__new__(ChallengeMsg)
-    for setter, value in zip(CHALLENGE_SETTERS, (0, 2, 9)):
-        setter(fast_c, value)
-    assert fast_c == ChallengeMsg(0, 2, 9)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        fast.round = 3  # type: ignore[misc]
+    fast_c = ChallengeMsgDraft()
+    fast_c.instance, fast_c.round, fast_c.value = 0, 2, 9
+    fast_c.__class__ = ChallengeMsg
+    assert fast_c == ChallengeMsg(0, 2, 9) and repr(fast_c) == "ChallengeMsg(instance=0, round=2, value=9)"
 
 
 def test_fold_gathers_rounds_challenges_finals_notes_and_unknown_events():

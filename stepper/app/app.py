@@ -26,6 +26,7 @@ from stepper.transcript import Note
 __all__ = ["StepperApp", "compare_available", "READ_SLICE"]
 
 READ_SLICE = 600  # events fed between two chances for the app to handle a key
+REPAINT_SECONDS = 1.0  # summary and strip repaint this often during the first read
 
 
 def compare_available() -> bool:
@@ -94,7 +95,7 @@ class StepperApp(App[int]):
         """Push the compare screen for this file against ``other``, or say it is missing."""
         if not compare_available() or self.source is None:
             self.notify("comparing needs the compare screen (stepper.app.compare_screen), not installed",
-                        severity="warning")
+                        severity="warning", markup=False)
             return
         from stepper.app.compare_screen import CompareScreen  # type: ignore[import-not-found]
 
@@ -106,7 +107,7 @@ class StepperApp(App[int]):
         assert self.source is not None
         painted = time.monotonic()
         while not self.source.pump(self.model, READ_SLICE):
-            if time.monotonic() - painted > 0.3:
+            if time.monotonic() - painted > REPAINT_SECONDS:
                 self.proof_screen.model_changed()
                 painted = time.monotonic()
             await asyncio.sleep(0)

@@ -5,6 +5,7 @@ Dismisses with the typed text, or ``None`` when the user backs out with escape.
 
 from __future__ import annotations
 
+from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
@@ -27,7 +28,7 @@ class AskScreen(ModalScreen[str | None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="ask-box"):
-            yield Label(self.question, id="ask-question")
+            yield Label(Text(self.question), id="ask-question")
             yield Input(value=self.initial, placeholder=self.hint, id="ask-input")
 
     def on_mount(self) -> None:

@@ -17,6 +17,7 @@ the block characters, so rows line up in any monospace terminal.
 
 from __future__ import annotations
 
+import math
 from collections import Counter
 from dataclasses import dataclass
 from typing import Sequence
@@ -60,16 +61,16 @@ def _ordered(stats: Sequence[BucketStats]) -> list[BucketStats]:
 
 
 def against_bound(stats: Sequence[BucketStats], width: int = 32) -> list[ChartRow]:
-    """Buckets in use per round and chunk as a share of 2^bound_log2."""
+    """Buckets in use per round and chunk as a share of 2^bound_log2 (a hostile
+    bound_log2 of 2^40 costs nothing: the share is computed in floating point)."""
     rows = []
     for s in _ordered(stats):
         if s.bound_log2 is None:
             rows.append(ChartRow(_label(s), " " * width, f"{s.count} (no bound sent)"))
             continue
-        bound = 1 << s.bound_log2
-        share = s.count / bound
-        rows.append(ChartRow(_label(s), bar(share, width), f"{s.count} / 2^{s.bound_log2} = {share:.1%}",
-                             s.count > bound))
+        share = math.ldexp(s.count, -s.bound_log2) if s.bound_log2 < 2000 else 0.0  # never 2^huge as an int
+        above = s.count > 0 and (s.count - 1).bit_length() > s.bound_log2  # count > 2^bound_log2
+        rows.append(ChartRow(_label(s), bar(share, width), f"{s.count} / 2^{s.bound_log2} = {share:.1%}", above))
     return rows
 
 
@@ -95,13 +96,15 @@ def size_distribution(stats: Sequence[BucketStats], width: int = 32, max_rows: i
     if not counts:
         return []
     low, high = min(counts), max(counts)
-    span = high - low + 1
-    step = max(1, -(-span // max_rows))
+    step = max(1, -(-(high - low + 1) // max_rows))
+    tally = [0] * (-(-(high - low + 1) // step))
+    for size, buckets in counts.items():  # by distinct size: cost never depends on the sizes' magnitude
+        tally[(size - low) // step] += buckets
     groups: list[tuple[str, int]] = []
-    for start in range(low, high + 1, step):
+    for index, n in enumerate(tally):
+        start = low + index * step
         stop = min(high, start + step - 1)
-        label = f"{start}" if start == stop else f"{start}-{stop}"
-        groups.append((label, sum(counts.get(v, 0) for v in range(start, stop + 1))))
+        groups.append((f"{start}" if start == stop else f"{start}-{stop}", n))
     most = max(n for _, n in groups) or 1
     pad = max(len(label) for label, _ in groups)
     return [ChartRow(f"{label:>{pad}} entries", bar(n / most, width), f"{n} buckets") for label, n in groups]

@@ -58,7 +58,29 @@ def bucket_text(model: ProofModel, instance: int) -> Text:
     head.append("\n")
     head.append_text(_chart("Entries per bucket", "how many buckets hold how many entries (every round)",
                             size_distribution(stats, _BAR_WIDTH)))
+    head.append("\n")
+    head.append_text(_analysis(model, instance))
     return head
+
+
+def _analysis(model: ProofModel, instance: int) -> Text:
+    """The occupancy analysis of :mod:`stepper.buckets` for one instance, as text."""
+    from stepper.buckets import occupancy
+    from stepper.transcript import InstanceRecord, Transcript
+
+    view = model.instances[instance]
+    assert model.field is not None
+    single = Transcript(model.header, model.field, (InstanceRecord(view.start, buckets=tuple(view.buckets)),))
+    text = Text("What the occupancy says\n", style="bold #e8e3d3")
+    text.append("fill = count / min(bound, remaining); entries per bucket = remaining / count\n", style="#9a9cb0")
+    for row in occupancy(single):
+        fill = "-" if row.fill is None else f"{row.fill:.0%}"
+        per = "-" if row.savings is None else f"{row.savings:.1f}"
+        used = "" if row.used is None else ("  used" if row.used else "  not used")
+        text.append(f"  r{row.round:>2} g{row.chunk:<3} fill {fill:>5}  entries per bucket {per:>6}{used}\n")
+        for problem in row.problems:
+            text.append(f"      ▲ {problem}\n", style="bold #f0a35e")
+    return text
 
 
 class BucketsScreen(Screen[None]):

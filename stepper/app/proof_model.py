@@ -106,6 +106,7 @@ class InstanceView:
     final_value: Element | None = None
     final_result: Any = None
     batch_result: Any = None
+    version: int = 0  # bumps whenever anything shown for this instance changes
 
     @property
     def name(self) -> str:
@@ -173,15 +174,22 @@ class ProofModel:
             self.instances.append(InstanceView(record))
         elif isinstance(record, RoundMsg):
             view = self.instances[record.instance]
+            view.version += 1
             view.rounds.append(record)
             view.challenges.append(None)
             view.results.append(None)
         elif isinstance(record, ChallengeMsg):
-            self.instances[record.instance].challenges[record.round - 1] = record.value
+            view = self.instances[record.instance]
+            view.challenges[record.round - 1] = record.value
+            view.version += 1
         elif isinstance(record, FinalValue):
-            self.instances[record.instance].final_value = record.value
+            view = self.instances[record.instance]
+            view.final_value = record.value
+            view.version += 1
         elif isinstance(record, BucketStats):
-            self.instances[record.instance].buckets.append(record)
+            view = self.instances[record.instance]
+            view.buckets.append(record)
+            view.version += 1
         elif isinstance(record, Note):
             self._add_note(record)
         elif isinstance(record, UnknownEvent):
@@ -213,6 +221,7 @@ class ProofModel:
     def _add_note(self, note: Note) -> None:
         if note.instance is not None and note.instance < len(self.instances):
             self.instances[note.instance].notes.append(note)
+            self.instances[note.instance].version += 1
         else:
             self.proof_notes.append(note)
 
@@ -223,6 +232,7 @@ class ProofModel:
         if not isinstance(index, int) or not 0 <= index < len(self.instances):
             return
         view = self.instances[index]
+        view.version += 1
         if kind == "RoundResult":
             number = int(result.round)
             while len(view.results) < number:
@@ -283,6 +293,10 @@ class ProofModel:
             return "checking"
         report = self.report()
         return str(report.verdict) if report is not None else "incomplete"
+
+    def version_of(self, instance: int) -> int:
+        """The change counter of one instance (-1 when it does not exist)."""
+        return self.instances[instance].version if 0 <= instance < len(self.instances) else -1
 
     def rounds_in(self, instance: int) -> int:
         return len(self.instances[instance].rounds) if 0 <= instance < len(self.instances) else 0

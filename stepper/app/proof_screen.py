@@ -12,6 +12,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
@@ -81,6 +82,7 @@ class ProofScreen(Screen[None]):
         self.model = model
         self.last_message = ""
         self._ready = False
+        self._shown: tuple[Position, int] | None = None  # position and instance version on screen
 
     @property
     def stepper(self) -> StepperApp:
@@ -119,7 +121,10 @@ class ProofScreen(Screen[None]):
         if self.live and self.model.instances:
             last = len(self.model.instances) - 1
             self.position = (last, max(1, self.model.rounds_in(last)))
-        self._show(self.position)
+        if self._shown != (self.position, self.model.version_of(self.position[0])):
+            self._show(self.position)
+        else:
+            self._update_where(self.position)
 
     def watch_position(self, position: Position) -> None:
         self._show(position)
@@ -131,7 +136,11 @@ class ProofScreen(Screen[None]):
         lines = round_lines(self.model, position)
         lines.extend(diagnosis_lines(self.stepper.diagnosis, position))
         self.query_one("#detail", ReadoutPanel).show(lines)
-        self.query_one("#where-bar", Static).update(self._where_text(position))
+        self._update_where(position)
+        self._shown = (position, self.model.version_of(instance))
+
+    def _update_where(self, position: Position) -> None:
+        self.query_one("#where-bar", Static).update(Text(self._where_text(position)), layout=False)
 
     def _where_text(self, position: Position) -> str:
         model = self.model
@@ -154,7 +163,7 @@ class ProofScreen(Screen[None]):
 
     def say(self, message: str, severity: str = "information") -> None:
         self.last_message = message
-        self.notify(message, severity=severity)  # type: ignore[arg-type]
+        self.notify(message, severity=severity, markup=False)  # type: ignore[arg-type]
 
     # ----- messages from the widgets --------------------------------------------------
     def on_round_table_round_chosen(self, message: RoundTable.RoundChosen) -> None:

@@ -36,7 +36,7 @@ class RoundTable(DataTable[object]):
         super().__init__(cursor_type="row", zebra_stripes=True, **kwargs)  # type: ignore[arg-type]
         self.model = model
         self.instance = -1
-        self._shown_generation = -1
+        self._shown_version = -1
         self._by_user = False  # the next highlight comes from a key or click on the table
 
     def on_mount(self) -> None:
@@ -45,7 +45,7 @@ class RoundTable(DataTable[object]):
     def show(self, instance: int, round_: int) -> None:
         """Show ``instance`` (rebuilding rows only when it or the model changed) and
         put the cursor on ``round_`` without echoing a RoundChosen back."""
-        if instance != self.instance or self._shown_generation != self.model.generation:
+        if instance != self.instance or self._shown_version != self.model.version_of(instance):
             self._fill(instance)
         self._by_user = False
         target = max(0, round_ - 1)
@@ -54,7 +54,7 @@ class RoundTable(DataTable[object]):
 
     def _fill(self, instance: int) -> None:
         self.instance = instance
-        self._shown_generation = self.model.generation
+        self._shown_version = self.model.version_of(instance)
         self.clear()
         if not 0 <= instance < len(self.model.instances):
             return

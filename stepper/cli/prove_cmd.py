@@ -82,7 +82,7 @@ def run(args: argparse.Namespace) -> int:
             proof = _prove_jsonl(args.output, spec, field)
         else:
             with TranscriptWriter(args.output, metadata=metadata(spec, args.field)) as writer:
-                proof = prove(spec, field, writer)
+                proof = prove(spec, field, writer, witness=bool(args.witness_out))
     except StepperError:
         if os.path.exists(args.output):
             os.unlink(args.output)  # a statement refused part-way leaves no half transcript behind

@@ -42,7 +42,7 @@ def load_compiled() -> ModuleType | None:
         if os.environ.get("STEPPER_KERNELS", "").lower() != "numpy":
             try:
                 from stepper.kernels import compiled
-            except ImportError:
+            except (ImportError, OSError):  # numba missing or unusable here: numpy does everything
                 compiled = None  # type: ignore[assignment]
             _compiled = compiled
     return _compiled
@@ -79,13 +79,6 @@ class Kernel(ABC):
     def _use_compiled(self, a: Any, b: Any = None) -> ModuleType | None:
         size = max(np.shape(a)[0] if np.ndim(a) else 1, np.shape(b)[0] if b is not None and np.ndim(b) else 1)
         return load_compiled() if size >= self.compiled_min else None
-
-    def _bad_entry(self, arr: np.ndarray, bad: np.ndarray) -> FieldError:
-        index = int(np.flatnonzero(bad.reshape(-1))[0])
-        value = arr.reshape(-1)[index]
-        return FieldError(
-            f"expected canonical entries 0 <= v < p = {self.p}, found {value} at flat index {index} of the array"
-        )
 
     # ----- arithmetic ---------------------------------------------------------------
     def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:

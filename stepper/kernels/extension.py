@@ -116,7 +116,9 @@ class ExtensionKernel(Kernel):
                 return compiled.small_binomial4_mul(fa, fb, w, base.p64, base.pinv, out)  # type: ignore[no-any-return]
             return compiled.small_binomial_mul(fa, fb, w, base.p64, base.pinv, out)  # type: ignore[no-any-return]
         if self.k == 4 and self._lazy:
-            return compiled.small_ext4_mul(fa, fb, self._xk_array, base.p64, base.pinv, out)  # type: ignore[no-any-return]
+            return compiled.small_ext4_mul(  # type: ignore[no-any-return]
+                fa, fb, self._xk_array, base.p64, base.pinv, out
+            )
         return compiled.small_ext_mul(fa, fb, self._xk_array, base.p64, base.pinv, out)  # type: ignore[no-any-return]
 
     def _mul_numpy(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -145,6 +147,3 @@ class ExtensionKernel(Kernel):
 
     def sum(self, a: np.ndarray) -> Element:
         return tuple(self.base.sum(a[:, i]) for i in range(self.k))  # type: ignore[misc]
-
-    def _first_zero(self, a: np.ndarray) -> int:
-        return int(np.flatnonzero(np.all(a == 0, axis=1))[0])

@@ -110,7 +110,7 @@ class SmallPrimeKernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             return compiled.small_add(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        s = np.add(a, b, dtype=np.uint64)
+        s = np.add(a, b, dtype=np.uint64, casting="unsafe")
         return np.minimum(s, s - self.p64, out=s)
 
     def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -118,20 +118,21 @@ class SmallPrimeKernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             return compiled.small_sub(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        d = np.subtract(a, b, dtype=np.uint64)
+        d = np.subtract(a, b, dtype=np.uint64, casting="unsafe")
         return np.minimum(d, d + self.p64, out=d)
 
     def neg(self, a: np.ndarray) -> np.ndarray:
-        d = np.subtract(self.p64, a, dtype=np.uint64)
+        d = np.subtract(self.p64, a, dtype=np.uint64, casting="unsafe")
         return np.minimum(d, d - self.p64, out=d)
 
     def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         compiled = self._use_compiled(a, b)
         if compiled is None:
-            prod = np.multiply(a, b, dtype=np.uint64)
+            prod = np.multiply(a, b, dtype=np.uint64, casting="unsafe")
             return np.remainder(prod, self.p64, out=prod)
         fa, fb, shape = _pair(a, b)
-        return compiled.small_mul(fa, fb, self.p64, self.pinv, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        out = np.empty_like(fa)
+        return compiled.small_mul(fa, fb, self.p64, self.pinv, out).reshape(shape)  # type: ignore[no-any-return]
 
     def sum(self, a: np.ndarray) -> Element:
         # chunks of 2^31 entries below 2^32 cannot overflow 2^63
@@ -162,7 +163,7 @@ class GoldilocksKernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             return compiled.gl_add(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        s = np.add(a, b, dtype=np.uint64)  # wraps mod 2^64
+        s = np.add(a, b, dtype=np.uint64, casting="unsafe")  # wraps mod 2^64
         carry = s < a
         s = s + carry.astype(np.uint64) * np.uint64(0xFFFFFFFF)  # 2^64 = 2^32 - 1 (mod p)
         return np.where(s >= self.p64, s - self.p64, s)
@@ -172,7 +173,7 @@ class GoldilocksKernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             return compiled.gl_sub(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        d = np.subtract(a, b, dtype=np.uint64)
+        d = np.subtract(a, b, dtype=np.uint64, casting="unsafe")
         return np.where(np.less(a, b), d + self.p64, d)
 
     def neg(self, a: np.ndarray) -> np.ndarray:
@@ -244,7 +245,7 @@ class Word64Kernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             return compiled.word_add(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        s = np.add(a, b, dtype=np.uint64)  # wraps mod 2^64 when a + b >= 2^64
+        s = np.add(a, b, dtype=np.uint64, casting="unsafe")  # wraps mod 2^64 when a + b >= 2^64
         return np.where((s < a) | (s >= self.p64), s - self.p64, s)
 
     def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -252,7 +253,7 @@ class Word64Kernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             return compiled.word_sub(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        d = np.subtract(a, b, dtype=np.uint64)
+        d = np.subtract(a, b, dtype=np.uint64, casting="unsafe")
         return np.where(np.less(a, b), d + self.p64, d)
 
     def neg(self, a: np.ndarray) -> np.ndarray:
@@ -263,7 +264,8 @@ class Word64Kernel(Kernel):
         if compiled is not None:
             fa, fb, shape = _pair(a, b)
             out = np.empty_like(fa)
-            return compiled.word_mul(fa, fb, self.p64, self.pneg_inv, self.r2, out).reshape(shape)  # type: ignore[no-any-return]
+            compiled.word_mul(fa, fb, self.p64, self.pneg_inv, self.r2, out)
+            return out.reshape(shape)
         prod = np.multiply(np.asarray(a).astype(object), np.asarray(b).astype(object)) % self.p
         return np.asarray(prod, dtype=object).astype(np.uint64)
 

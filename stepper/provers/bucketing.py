@@ -66,9 +66,11 @@ def round_masks(bits: np.ndarray, round_: int) -> np.ndarray:
     {0,1}^(k-1), bit j of the mask being b' = j (x_1 lowest)."""
     n = len(bits)
     width = 1 << (round_ - 1)
-    rows = bits.reshape(n // (2 * width), 2, width).astype(np.uint64)
-    weights = np.left_shift(np.uint64(1), np.arange(width, dtype=np.uint64))
-    return (rows * weights).sum(axis=2, dtype=np.uint64)
+    rows = bits.reshape(n // (2 * width), 2, width)
+    mask = rows[:, :, 0].astype(np.uint64)
+    for b in range(1, width):  # one pass per bit position: n / width entries each
+        mask |= rows[:, :, b].astype(np.uint64) << np.uint64(b)
+    return mask
 
 
 def group_buckets(bits: Sequence[np.ndarray], group: Sequence[int], round_: int) -> GroupBuckets:

@@ -87,8 +87,9 @@ def group_tables(counter: MulCounter, bits: Sequence[np.ndarray], alpha: Sequenc
 
 def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statement: PermStatement, groups: int, *,
                               switch_round: int | None = None, name: str = "permutation",
-                              form: str = "evals") -> ProofRun:
-    """Both layers of the grouped permutation check with ``groups`` = L groups."""
+                              form: str = "evals", witness: bool = True) -> ProofRun:
+    """Both layers of the grouped permutation check with ``groups`` = L groups; the
+    second layer's witness tables (mu + 1 of them) are built only when ``witness``."""
     field = counter.field
     mu = statement.num_vars
     if not 1 <= groups <= mu:
@@ -123,9 +124,9 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
         claim2 = field.add(claim2, counter.mul(pw, v))
     run2 = prove_group_products(channel, counter, f"{name}/groups", bits, alpha, parts, rho, powers, claim2,
                                 switch_round=switch_round, form=form)
-    witness = (WitnessInstance(name, tables, summand.combine()),
-               _layer2_witness(field, run2.name, bits, alpha, parts, rho, powers))
-    return ProofRun((run1, run2), witness, counter.per_phase())
+    kept = (WitnessInstance(name, tables, summand.combine()),
+            _layer2_witness(field, run2.name, bits, alpha, parts, rho, powers)) if witness else ()
+    return ProofRun((run1, run2), kept, counter.per_phase())
 
 
 def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, bits: Sequence[np.ndarray],
@@ -199,7 +200,12 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
         round_mults.append(counter.total - before)
     counter.phase(f"{name}/final")
     point = final_point(challenges, "low-first", channel)
-    final = _oracle_final(field, bits, alpha, parts, rho, powers, point)
+    if tables is not None and list(point) == challenges:  # the folded tables hold e~_i(r): no oracle needed
+        bound = [field.vlist(t)[0] for t in tables]
+    else:  # ask the oracle for the bits of sigma^-1 (the verifier's work, not counted)
+        bound = [field.add(low[i], field.mul(slope[i], mle_eval(field, select_table(field, b, field.zero, one),
+                                                                   point))) for i, b in enumerate(bits)]
+    final = _final_value(field, bound, parts, rho, powers, point)
     channel.final(final)
     return InstanceRun(name, claim, tuple(challenges), final, tuple(round_mults))
 
@@ -270,18 +276,15 @@ def _fill(field: Field, value: Element, n: int) -> np.ndarray:
     return np.repeat(field.vec([value]), n, axis=0)
 
 
-def _oracle_final(field: Field, bits: Sequence[np.ndarray], alpha: Sequence[Element], parts: Sequence[Sequence[int]],
-                  rho: Sequence[Element], powers: Sequence[Element], point: Sequence[Element]) -> Element:
-    """eq(rho, point) * sum_j powers[j] prod_{i in G_j} e~_i(point): the verifier's value
-    from oracle access to the bits of sigma^-1 (its work, not the prover's: not counted)."""
-    one = field.one
+def _final_value(field: Field, bound: Sequence[Element], parts: Sequence[Sequence[int]], rho: Sequence[Element],
+                 powers: Sequence[Element], point: Sequence[Element]) -> Element:
+    """eq(rho, point) * sum_j powers[j] prod_{i in G_j} e~_i(point), given e~_i(point) in ``bound``:
+    the value a verifier with oracle access to the bits of sigma^-1 computes (not counted)."""
     total = field.zero
     for pw, group in zip(powers, parts):
         acc = pw
         for i in group:
-            s = mle_eval(field, select_table(field, bits[i], field.zero, one), point)
-            e = field.add(field.sub(one, alpha[i]), field.mul(field.sub(field.add(alpha[i], alpha[i]), one), s))
-            acc = field.mul(acc, e)
+            acc = field.mul(acc, bound[i])
         total = field.add(total, acc)
     return field.mul(eq_eval(field, rho, point), total)
 

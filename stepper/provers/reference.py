@@ -105,8 +105,9 @@ def random_permutation_statement(field: Field, num_vars: int, seed: int) -> Perm
     return PermStatement(f, f[sigma], sigma)
 
 
-def prove(spec: ProveSpec, field: Field, sink: EventSink) -> ProofRun:
-    """Run the reference prover ``spec`` names over ``field``, records to ``sink``."""
+def prove(spec: ProveSpec, field: Field, sink: EventSink, *, witness: bool = True) -> ProofRun:
+    """Run the reference prover ``spec`` names over ``field``, records to ``sink``
+    (``witness`` False spares the grouped prover its second-layer witness tables)."""
     channel = ProofChannel(field, sink, label=spec.label or f"stepper reference prover: {spec.kind}", fault=spec.fault)
     counter = MulCounter(field)
     mu = spec.num_vars
@@ -132,4 +133,4 @@ def prove(spec: ProveSpec, field: Field, sink: EventSink) -> ProofRun:
     if spec.kind == "perm-direct":
         return prove_permutation_direct(channel, counter, statement, form=spec.form)
     return prove_permutation_grouped(channel, counter, statement, spec.groups, switch_round=spec.switch_round,
-                                     form=spec.form)
+                                     form=spec.form, witness=witness)

@@ -96,11 +96,14 @@ def brackwater_payloads(
             r = schedule.challenge()
             emit({"type": "challenge", "value": r})
             tables = [_fold(t, r) for t in tables]
-            if name.endswith("grouped"):
+            if name.endswith("grouped"):  # one group of c = 1 bit: bound 2^(2^k * c)
                 remaining = 1 << (mu - k)
-                sizes = [(3 * k + b) % 4 + 1 for b in range(1 << max(0, mu - k - 1))]
-                emit({"type": "buckets", "round": k, "chunk": 0, "count": len(sizes), "sizes": sizes,
-                      "bound_log2": mu - k, "remaining": remaining})
+                count = max(1, remaining // 2)
+                sizes = [2] * count if remaining > 1 else [1]
+                if count >= 2:
+                    sizes[0], sizes[-1] = 1, 3
+                emit({"type": "buckets", "round": k, "chunk": 0, "count": count, "sizes": sizes,
+                      "bound_log2": 2**k, "remaining": remaining})
         value = 1
         for t in tables:
             value = value * t[0] % P
@@ -134,4 +137,19 @@ def write_transcript(path: Path, payloads: list[Payload], *, finish: bool = True
         writer.finish()
     else:
         writer.close()
+    return path
+
+
+def write_witness(path: Path, mu: int = 4,
+                  instances: tuple[str, ...] = ("boarding-permutation", "boarding-permutation-grouped",
+                                                "deck-slots-zero")) -> Path:
+    """The tables behind :func:`brackwater_payloads` as a witness file (DESIGN.md format)."""
+    import json
+
+    entries = []
+    for name in instances:
+        tables = _tables(name, mu)
+        names = ["slots", "gate", "ledger"] if name.startswith("deck") else ["ledger", "gate"]
+        entries.append({"name": name, "tables": dict(zip(names, tables)), "combine": " * ".join(names)})
+    path.write_text(json.dumps({"instances": entries}))
     return path

@@ -154,3 +154,25 @@ def test_round_targets_parse_as_n_or_instance_colon_round():
     assert parse_round_target("1:3", 2) == (1, 3)
     assert parse_round_target("1/3", 0) == (1, 3)
     assert parse_round_target("x", 0) is None
+
+
+async def test_with_a_witness_the_failing_round_shows_its_root_cause(failing_file, tmp_path):
+    from proofs import write_witness
+
+    witness = write_witness(tmp_path / "isle-of-quill-0740.witness.json")
+    app = StepperApp.from_file(failing_file, witness=witness, export_dir=tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("exclamation_mark")
+        text = detail_text(app)
+        assert "root cause: instance 1, round 2, check honest-poly  (this round)" in text
+
+
+async def test_compare_opens_the_compare_screen_on_top(honest_file, failing_file, tmp_path):
+    from stepper.app.compare_screen import CompareScreen
+
+    app = StepperApp.from_file(honest_file, compare=failing_file, export_dir=tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        assert isinstance(app.screen, CompareScreen)
+        await pilot.press("escape")
+        assert isinstance(app.screen, ProofScreen)

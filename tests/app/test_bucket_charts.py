@@ -36,3 +36,17 @@ def test_the_size_distribution_counts_buckets_per_size():
     figures = {row.label.split()[0]: row.figure for row in rows}
     assert figures["1"] == "2 buckets" and figures["2"] == "3 buckets" and figures["5"] == "1 buckets"
     assert figures["3"] == "0 buckets"
+
+
+def test_a_huge_bound_exponent_is_drawn_as_an_empty_bar_without_building_the_power():
+    stats = [BucketStats(0, 1, 0, 3, None, 1 << 40, 8), BucketStats(0, 2, 0, 5, None, 2, 8)]
+    rows = against_bound(stats, 8)
+    assert rows[0].bar == " " * 8 and not rows[0].over
+    assert rows[1].over  # 5 > 2^2
+
+
+def test_sizes_spread_over_huge_values_are_grouped_into_at_most_max_rows_ranges():
+    stats = [BucketStats(0, 1, 0, 3, (1, 2**60, 2**61))]
+    rows = size_distribution(stats, 8, max_rows=6)
+    assert len(rows) <= 6
+    assert sum(int(row.figure.split()[0]) for row in rows) == 3

@@ -74,3 +74,14 @@ def test_view_of_a_hostile_field_exits_2_with_one_line(tmp_path):
     proc = run_view(str(path))
     assert proc.returncode == 2
     assert proc.stderr.startswith("stepper view: ") and proc.stderr.count("\n") == 1
+
+
+async def test_names_that_look_like_markup_are_shown_literally(tmp_path):
+    payloads = brackwater_payloads(instances=("boarding-permutation",))
+    payloads[2] = {**payloads[2], "name": "[bold]quill[/] [link=x]"}
+    path = tmp_path / "markup.jsonl"
+    write_lines(path, payloads[:3])  # no rounds: the name is all there is to show
+    app = StepperApp.from_file(path, export_dir=tmp_path)
+    async with app.run_test(size=(140, 44)) as pilot:
+        await pilot.press("full_stop", "greater_than_sign")
+        assert "[bold]quill[/] [link=x]" in str(app.proof_screen.query_one("#where-bar").render())

@@ -86,6 +86,12 @@ def test_unbound_claim_changes_the_built_in_challenges_and_the_weak_plug_in_is_f
     assert any(f.kind == "unbound-claim" for f in weak.findings)
 
 
+@pytest.mark.parametrize("k", [2, 3])
+def test_switching_the_binding_order_part_way_is_rejected(k):
+    _, transcript, _ = _perm_proof(BABYBEAR, Fault("flip-order", k))
+    assert replay_transcript(transcript).verdict == "reject"
+
+
 def test_montgomery_radix_is_the_usual_word_size_power_of_two():
     # common practice, no source: R = 2^32 for 31-bit primes, 2^64 for Goldilocks
     assert montgomery_radix(BABYBEAR) == pow(2, 32, BABYBEAR.p)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import sympy
+from hypothesis import given, settings, strategies as st
 
 from stepper.field import NAMED_PRIMES, field_from_spec, get_field
 from stepper.provers.bucketing import bit_tables, group_buckets, round_masks, split_groups
@@ -118,3 +119,17 @@ def test_group_counts_outside_one_to_mu_and_late_switch_rounds_are_usage_errors(
         _grouped(BABYBEAR, 4, 5, None)
     with pytest.raises(UsageError, match="switch-over round"):
         _grouped(BABYBEAR, 4, 2, 6)
+
+
+@settings(max_examples=10, deadline=None)
+@given(mu=st.integers(2, 9), groups=st.integers(1, 9), seed=st.integers(0, 10_000))
+def test_bucket_counts_never_exceed_either_bound_on_random_permutations(mu, groups, seed):
+    # round k: count <= min(2^(2^k c), 2^(mu - k)) (derived here); sizes add up to the remaining entries
+    groups = min(groups, mu)
+    statement = random_permutation_statement(BABYBEAR, mu, seed)
+    bits = bit_tables(statement.inverse(), mu)
+    for group in split_groups(mu, groups):
+        for k in range(1, min(mu, 4) + 1):
+            occupancy = group_buckets(bits, group, k)
+            assert occupancy.count <= min(2 ** ((1 << k) * len(group)), 1 << (mu - k))
+            assert int(occupancy.sizes.sum()) == 1 << (mu - k)
