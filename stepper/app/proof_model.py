@@ -38,7 +38,7 @@ from stepper.transcript import (
     fold_events,
 )
 
-__all__ = ["Position", "StatusMark", "STATUS_MARKS", "InstanceView", "ProofModel", "RoundRow", "shorten"]
+__all__ = ["Position", "StatusMark", "STATUS_MARKS", "InstanceView", "ProofModel", "RoundRow", "mark_of", "shorten"]
 
 Position = tuple[int, int]
 
@@ -360,47 +360,11 @@ class ProofModel:
         return instance, max(1, min(round_, max(1, self.rounds_in(instance))))
 
     def search(self, query: str, after: Position) -> Position | None:
-        """The next round (after ``after``, wrapping) in which ``query`` appears: an
-        element equal to the number typed (decimal or 0x hex) or whose decimal text
-        contains the digits typed; instance names match by substring."""
-        text = query.strip().lower()
-        if not text or self.field is None:
-            return None
-        wanted = _as_number(text)
-        order = [(i, k) for i, v in enumerate(self.instances) for k in range(1, max(1, len(v.rounds)) + 1)]
-        if not order:
-            return None
-        start = bisect_right(order, after)
-        for pos in order[start:] + order[:start]:
-            if self._round_mentions(pos, text, wanted):
-                return pos
-        return None
+        """The next round after ``after`` (wrapping) that mentions ``query``; see
+        :func:`stepper.app.value_search.find_value`."""
+        from stepper.app.value_search import find_value
 
-    def _round_mentions(self, pos: Position, text: str, wanted: int | None) -> bool:
-        field = self.field
-        assert field is not None
-        view = self.instances[pos[0]]
-        if pos[1] == 1 and text in view.name.lower():
-            return True
-        values: list[Element | None] = []
-        if pos[1] <= len(view.rounds):
-            values.extend(view.rounds[pos[1] - 1].values)
-            values.append(view.challenges[pos[1] - 1])
-            result = view.results[pos[1] - 1]
-            if result is not None:
-                values.extend([result.claim_in, result.claim_out, result.recovered_value])
-        if pos[1] == 1:
-            values.append(view.start.claim)
-        if pos[1] == len(view.rounds):
-            values.append(view.final_value)
-        for value in values:
-            if value is None:
-                continue
-            if wanted is not None and _matches_int(field, value, wanted):
-                return True
-            if text.isdigit() and text in field.fmt(value):
-                return True
-        return False
+        return find_value(self, query, after)
 
     def notes_at(self, pos: Position) -> list[Note]:
         view = self.instances[pos[0]]
@@ -415,16 +379,3 @@ _CHECKED = (FieldDecl, ScheduleDecl, BatchDecl, InstanceStart, RoundMsg, Challen
 
 def _cell(field: Field, value: Element | None, width: int) -> str:
     return "" if value is None else shorten(field.fmt(value), width)
-
-
-def _as_number(text: str) -> int | None:
-    try:
-        return int(text, 16) if text.startswith("0x") else int(text, 10)
-    except ValueError:
-        return None
-
-
-def _matches_int(field: Field, value: Element, wanted: int) -> bool:
-    if isinstance(value, int):
-        return value == wanted
-    return wanted in value

@@ -47,13 +47,16 @@ def summary_lines(model: ProofModel) -> list[Line]:
         lines.append(Line("challenge field", field.describe() if field.is_extension else "the same prime field"))
     else:
         lines.append(Line("field", "not declared yet", "wait"))
-    if model.schedule is not None:
-        label = f" (label {model.schedule.label!r})" if model.schedule.label else ""
-        lines.append(Line("challenges", f"Fiat-Shamir schedule {model.schedule.name}{label}: re-derived and compared"))
-    else:
-        lines.append(Line("challenges", "taken as recorded (no Fiat-Shamir schedule declared)", "muted"))
-    lines.append(Line("instances", f"{len(model.instances)} with {model.round_count} rounds"))
     report = model.report()
+    if model.schedule is not None:
+        label = f", label {model.schedule.label!r}" if model.schedule.label else ""
+        lines.append(Line("schedule", f"Fiat-Shamir {model.schedule.name}{label}"))
+    how = getattr(report, "challenges", None)
+    if how:
+        lines.append(Line("challenges", str(how), "plain" if how.startswith("re-derived") else "wait"))
+    elif model.schedule is None:
+        lines.append(Line("challenges", "taken as recorded (no Fiat-Shamir schedule declared)", "wait"))
+    lines.append(Line("instances", f"{len(model.instances)} with {model.round_count} rounds"))
     verdict = model.verdict()
     tone = {"accept": "good", "reject": "bad"}.get(verdict, "wait")
     lines.append(Line("verdict", verdict, tone))
@@ -63,6 +66,10 @@ def summary_lines(model: ProofModel) -> list[Line]:
     soundness = _soundness(report)
     if soundness:
         lines.append(Line("soundness bound", soundness))
+    for finding in getattr(report, "findings", ()):
+        where = "" if finding.instance is None else f" (instance {finding.instance}, round {finding.round})"
+        lines.append(Line(f"finding {finding.severity}", f"{finding.kind}: {finding.message}{where}",
+                          "bad" if finding.severity == "high" else "wait"))
     lines.append(Line("transcript", f"{model.completeness}, digest {model.digest}",
                       "good" if model.digest == "verified" and model.completeness == "complete" else "wait"))
     for key, value in model.metadata().items():
@@ -96,6 +103,8 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
             lines.append(Line("batched", f"coefficient {fmt(batch.coefficient)} over {len(batch.terms)} terms"))
         if view.batch_result is not None:
             lines.extend(_verdict_lines("batch", view.batch_result, field))
+        for unknown in view.unknown:
+            lines.append(Line("unknown event", f"{unknown.kind} (kept, not checked)", "muted"))
     if not view.rounds:
         lines.append(Line("rounds", "none sent yet", "wait"))
         return lines
