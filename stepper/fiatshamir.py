@@ -25,7 +25,9 @@ Rules kept here:
 from __future__ import annotations
 
 import hashlib
-from typing import TYPE_CHECKING
+import struct
+from functools import partial
+from typing import TYPE_CHECKING, Callable
 
 from stepper.errors import InputError
 from stepper.packed import pack_elements
@@ -69,6 +71,7 @@ class Sha256Schedule:
         self._wide = 0
         self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
         self._challenge_head = b""
+        self._round_packers: dict[int, tuple[bytes, Callable[[tuple[Element, ...]], bytes]]] = {}
 
     def state_digest(self) -> bytes:
         """SHA-256 of everything absorbed so far (for test vectors and debugging)."""
@@ -83,25 +86,48 @@ class Sha256Schedule:
 
     def observe(self, record: Event) -> None:
         """Absorb a record the way the schedule defines (no-op for kinds it skips)."""
-        if isinstance(record, RoundMsg):
-            field = self._need_field("round")
-            body = _u64(len(record.values)) + pack_elements(field, record.values)
-            self._state.update(_ROUND_HEAD + len(body).to_bytes(8, "little") + body)
-        elif isinstance(record, InstanceStart):
+        cls = record.__class__
+        if cls is RoundMsg:
+            self._need_field("round")
+            self._state.update(self._round_frame(record.values))  # type: ignore[union-attr]
+        elif cls is InstanceStart:
             self._need_field("instance")
-            body = (_text(record.name) + _u64(record.num_vars) + _u64(record.degree) + _text(record.order)
-                    + _text(record.form) + self._el(record.claim))
+            body = (_text(record.name) + _u64(record.num_vars) + _u64(record.degree)  # type: ignore[union-attr]
+                    + _text(record.order) + _text(record.form) + self._el(record.claim))  # type: ignore[union-attr]
             self._absorb(b"instance", body)
-        elif isinstance(record, FieldDecl):
-            self._set_field(record.field)
-        elif isinstance(record, ScheduleDecl):
-            if record.name != SCHEDULE_NAME:
-                raise InputError(f"expected the schedule {SCHEDULE_NAME}, found a declaration of {record.name!r}")
-            self._absorb(b"schedule", _text(record.name) + _text(record.label))
-        elif isinstance(record, BatchDecl):
+        elif cls is FieldDecl:
+            self._set_field(record.field)  # type: ignore[union-attr]
+        elif cls is ScheduleDecl:
+            if record.name != SCHEDULE_NAME:  # type: ignore[union-attr]
+                raise InputError(f"expected the schedule {SCHEDULE_NAME}, found a declaration of "
+                                 f"{record.name!r}")  # type: ignore[union-attr]
+            self._absorb(b"schedule", _text(record.name) + _text(record.label))  # type: ignore[union-attr]
+        elif cls is BatchDecl:
             field = self._need_field("batch")
-            body = self._el(record.coefficient) + _u64(len(record.terms)) + pack_elements(field, record.terms)
+            body = (self._el(record.coefficient) + _u64(len(record.terms))  # type: ignore[union-attr]
+                    + pack_elements(field, record.terms))  # type: ignore[union-attr]
             self._absorb(b"batch", body)
+
+    def _round_frame(self, values: tuple[Element, ...]) -> bytes:
+        """``frame("round", u64(n) || packed values)``; head and packer cached per n."""
+        try:
+            head, pack = self._round_packers[len(values)]
+        except KeyError:
+            head, pack = self._round_packer(len(values))
+        return head + pack(values)
+
+    def _round_packer(self, n: int) -> tuple[bytes, Callable[[tuple[Element, ...]], bytes]]:
+        field = self.field
+        assert field is not None
+        head = _ROUND_HEAD + _u64(8 + n * field.elem_bytes) + _u64(n)
+        if not field.is_extension and field.base_bytes in (4, 8):
+            packer = struct.Struct(f"<{n}{'I' if field.base_bytes == 4 else 'Q'}").pack
+            pack: Callable[[tuple[Element, ...]], bytes] = lambda values: packer(*values)
+        else:
+            pack = partial(pack_elements, field)
+        if len(self._round_packers) < 64:
+            self._round_packers[n] = (head, pack)
+        return head, pack
 
     def _set_field(self, field: Field) -> None:
         w = field.base_bytes
@@ -109,6 +135,7 @@ class Sha256Schedule:
         body = _u64(w) + field.p.to_bytes(w, "little") + _u64(field.degree) + b"".join(c.to_bytes(w, "little") for c in q)
         self._absorb(b"field", body)
         self.field = field
+        self._round_packers.clear()
         self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
         blocks = -(-self._wide // 32)
         self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
@@ -137,3 +164,19 @@ class Sha256Schedule:
             return tuple(samples)
         state.update(self._challenge_head + samples[0].to_bytes(field.base_bytes, "little"))
         return samples[0]
+
+    def round_challenge(self, values: tuple[Element, ...]) -> Element:
+        """``observe`` of a round with these values, then ``challenge()``: the same
+        state and result, in one step (the verifier's and the prover's hot path)."""
+        field = self._need_field("round")
+        frame_bytes = self._round_frame(values)
+        if field.is_extension or len(self._squeeze_frames[0]) != 1:
+            self._state.update(frame_bytes)
+            return self.challenge()
+        state = self._state
+        state.update(frame_bytes)
+        h = state.copy()
+        h.update(self._squeeze_frames[0][0])
+        sample = int.from_bytes(h.digest()[: self._wide], "little") % field.p
+        state.update(self._challenge_head + sample.to_bytes(field.base_bytes, "little"))
+        return sample

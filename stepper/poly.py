@@ -24,11 +24,11 @@ from dataclasses import dataclass
 from functools import lru_cache
 from typing import TYPE_CHECKING, Literal, Sequence
 
-import numpy as np
-
 from stepper.errors import InputError
 
 if TYPE_CHECKING:
+    import numpy as np
+
     from stepper.field import Element, Field
 
 __all__ = [
@@ -230,6 +230,8 @@ def mle_eval(field: Field, table: np.ndarray, point: Sequence[Element]) -> Eleme
 
 def eq_table(field: Field, point: Sequence[Element]) -> np.ndarray:
     """eq(point, b) for every b in {0,1}^mu, entry i having x_(j+1) = bit j of i."""
+    import numpy as np  # lazily: `stepper check` never needs it
+
     table = field.vec([field.one])
     for x in point:
         high = field.vscale(table, x)  # x_j = 1 half

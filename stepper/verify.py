@@ -19,12 +19,12 @@ stream order. Memory per instance is constant unless ``keep_rounds`` is set;
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Iterable
+from typing import TYPE_CHECKING, Callable, Iterable, Sequence
 
 from stepper.binding import Challenger
 from stepper.challenges import ChallengeSource
 from stepper.errors import InputError, Where
-from stepper.lagrange import evaluate_round
+from stepper.lagrange import evaluate_round, round_evaluator
 from stepper.poly import RoundPoly
 from stepper.soundness import InstanceBound, SoundnessSummary
 from stepper.transcript import (
@@ -42,6 +42,9 @@ if TYPE_CHECKING:
 
 __all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "FinalResult", "BatchResult",
            "Report", "Failure", "Finding"]
+
+
+_UNKNOWN = object()  # marks "not re-derived yet" in Replay._resolve_pending
 
 
 class _Live:
@@ -117,6 +120,74 @@ class Replay:
         elif isinstance(record, ScheduleDecl):
             self._source.declare(record)
         return []
+
+    def feed_all(self, records: Iterable[Event], on_other: Callable[[Event], object] | None = None) -> None:
+        """``feed`` every record, discarding the returned results (for summaries and
+        reports, not per-round output); ``on_other`` sees each record that is not a
+        round or challenge. A round and its challenge that pass the degree, sum and
+        challenge checks in a prime field, form ``evals``, built-in or no schedule,
+        take an inline path with the same effect; everything else goes through ``feed``."""
+        feed = self.feed
+        if self.keep_rounds:
+            for record in records:
+                feed(record)
+                if on_other is not None and record.__class__ not in (RoundMsg, ChallengeMsg):
+                    on_other(record)
+            return
+        round_cls, challenge_cls = RoundMsg, ChallengeMsg
+        held: RoundMsg | None = None  # a round waiting for its challenge to take the inline path
+        live, index, limit, p, squeeze = self._inline_setup()
+        evaluators: dict[int, Callable[[Sequence[int], int], int]] = {}
+        for record in records:
+            cls = record.__class__
+            if cls is challenge_cls and held is not None:
+                round_msg, held = held, None
+                values = round_msg.values  # type: ignore[union-attr]
+                n = len(values)
+                if (record.instance == index and 0 < n <= limit  # type: ignore[union-attr]
+                        and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):  # type: ignore[union-attr]
+                    challenge = record.value  # type: ignore[union-attr]
+                    rederived = squeeze(values) if squeeze is not None else None
+                    if rederived is None or rederived == challenge:
+                        evaluate = evaluators.get(n) or evaluators.setdefault(n, round_evaluator(p, n - 1))
+                        live.claim = evaluate(values, challenge)  # type: ignore[union-attr]
+                        live.seen = k = round_msg.round  # type: ignore[union-attr]
+                        if live.failure is None:  # type: ignore[union-attr]
+                            live.passed = k  # type: ignore[union-attr]
+                        continue
+                    live.pending = (round_msg, values, None, None, None, None, None)  # type: ignore[union-attr]
+                    self._resolve_pending(record, rederived)  # type: ignore[arg-type]
+                    continue
+                feed(round_msg)  # type: ignore[arg-type]
+                feed(record)
+                continue
+            if held is not None:
+                feed(held)
+                held = None
+            if cls is round_cls:
+                if live is not None and live.pending is None and record.instance == index:  # type: ignore[union-attr]
+                    held = record  # type: ignore[assignment]
+                else:
+                    feed(record)
+                continue
+            feed(record)
+            if cls is not challenge_cls:
+                if on_other is not None:
+                    on_other(record)
+                live, index, limit, p, squeeze = self._inline_setup()
+        if held is not None:
+            feed(held)
+
+    def _inline_setup(self) -> tuple[_Live | None, int, int, int, Callable[[tuple[int, ...]], int] | None]:
+        """What ``feed_all``'s inline path needs for the current instance, or ``live`` None when it
+        does not apply: the instance index, the most values a round may carry, p, and the fused
+        round-then-challenge step of the built-in schedule (None when nothing re-derives)."""
+        live, field, source = self._live, self.field, self._source
+        if (live is None or field is None or field.degree != 1 or live.start.form != "evals"
+                or self.challenger is not None):
+            return None, -1, 0, 1, None
+        squeeze = source.schedule.round_challenge if source.schedule is not None else None
+        return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
 
     def _need_field(self) -> Field:
         if self.field is None:
@@ -210,7 +281,9 @@ class Replay:
                              Where(instance=live.start.name, round=msg.round))
         return self._resolve_pending(msg)
 
-    def _resolve_pending(self, msg: ChallengeMsg | None) -> list[Result]:
+    def _resolve_pending(self, msg: ChallengeMsg | None, known: object = _UNKNOWN) -> list[Result]:
+        """Resolve the pending round with its challenge (``known``: the challenge the
+        schedule already re-derived for it, by ``feed_all``)."""
         live = self._live
         assert live is not None and live.pending is not None and self.field is not None
         field = self.field
@@ -221,7 +294,7 @@ class Replay:
         challenge = rederived = claim_out = None
         if msg is not None:
             challenge = msg.value
-            rederived = self._source.rederive(start, k)
+            rederived = self._source.rederive(start, k) if known is _UNKNOWN else known
             if check is None and rederived is not None and rederived != challenge:
                 check, expected, found = "challenge", rederived, challenge
             try:

@@ -157,3 +157,34 @@ def test_foreign_schedule_declaration_and_missing_field_are_refused():
     s.observe(FieldDecl(get_field(P)))
     with pytest.raises(InputError):
         s.observe(ScheduleDecl("someone-elses/2"))
+
+
+def test_fused_round_challenge_reproduces_the_pinned_vectors():
+    # The same hand-built vectors as above, reached through the one-step hot path.
+    s = Sha256Schedule()
+    s.observe(FieldDecl(get_field(P)))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
+    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+    assert s.round_challenge(ROUND1) == R1
+    assert s.state_digest().hex() == DIGESTS["challenge 1"]
+    assert s.round_challenge(ROUND2) == R2
+    assert s.state_digest().hex() == DIGESTS["challenge 2"]
+
+
+@pytest.mark.parametrize("spec", [("goldilocks", None), ("bn254", None), ("babybear", 4), ("mersenne31", None)])
+def test_fused_round_challenge_equals_observe_then_challenge(spec):
+    name, ext_degree = spec
+    p = NAMED_PRIMES[name]
+    field = get_field(p, (p - 11, 0, 0, 0, 1)) if ext_degree else get_field(p)
+    two, one = Sha256Schedule(), Sha256Schedule()
+    for s in (two, one):
+        s.observe(FieldDecl(field))
+        s.observe(ScheduleDecl(SCHEDULE_NAME, "isle-of-quill-0740"))
+        s.observe(InstanceStart(0, "deck-slots-zero", 3, 2, field.zero))
+    values = (field.embed(5), field.embed(p - 5), field.embed(12345))
+    for _ in range(3):
+        two.observe(RoundMsg(0, 1, values))
+        r = two.challenge()
+        assert one.round_challenge(values) == r
+        assert one.state_digest() == two.state_digest()
+        values = (field.embed(7), r, field.embed(1)) if not ext_degree else (field.embed(7), r, r)

@@ -153,6 +153,7 @@ class ProofModel:
         self.digest = "missing"
         self.events_seen = 0
         self.loading = False  # True while the first read is still feeding events
+        self.final = False  # no checked event can follow (see finish)
         self.generation = 0  # bumps on every change; screens repaint when it moves
         self._replay_factory = replay_factory
         self._replay: Any = replay_factory() if replay_factory is not None else None
@@ -206,10 +207,13 @@ class ProofModel:
         for record in records:
             self.feed(record)
 
-    def finish(self, completeness: str, digest: str) -> None:
-        """What the reader learnt once the file was exhausted."""
+    def finish(self, completeness: str, digest: str, final: bool | None = None) -> None:
+        """What the reader learnt once the file was exhausted. ``final`` says no more
+        checked events can follow (a transcript's end event was read); it defaults to
+        ``completeness == "complete"``. Only then does the live replay close."""
         self.completeness = completeness
         self.digest = digest
+        self.final = completeness == "complete" if final is None else final
         self.generation += 1
 
     def add_note(self, note: Note) -> None:
@@ -260,14 +264,14 @@ class ProofModel:
         return sum(len(v.rounds) for v in self.instances)
 
     def report(self) -> Any:
-        """The replay's report of everything fed so far. Once the file is complete the
-        live replay closes and reports; before that (a growing or truncated file) a
-        fresh replay of the same records reports, so the live one can go on."""
+        """The replay's report of everything fed so far. Once the file is final the live replay closes and reports; before that
+        (a growing, truncated or JSON-lines file) a fresh replay of the same
+        records reports, so the live one can go on."""
         if self._replay is None or self.loading:
             return None
         if self._report is not None and (self._report_generation == self.generation or self._closed):
             return self._report
-        if self.completeness == "complete":
+        if self.final:
             for result in self._replay.finish():
                 self._take(result)
             self._closed = True

@@ -25,7 +25,7 @@ from stepper.app.buckets_screen import BucketsScreen
 from stepper.app.export import markdown_report
 from stepper.app.help_screen import HelpScreen
 from stepper.app.proof_model import Position, ProofModel
-from stepper.app.readout import Line, diagnosis_lines, round_lines, summary_lines
+from stepper.app.readout import SHORT_CAUTION, Line, diagnosis_lines, round_lines, summary_lines
 from stepper.app.round_detail import ReadoutPanel
 from stepper.app.round_table import RoundTable
 from stepper.app.status_strip import StatusStrip
@@ -90,6 +90,7 @@ class ProofScreen(Screen[None]):
 
     def compose(self) -> ComposeResult:
         yield Static(id="where-bar")
+        yield Static(SHORT_CAUTION, id="caution")
         with VerticalScroll(id="summary-box"):
             yield ReadoutPanel(id="summary")
         yield StatusStrip(self.model, id="strip")

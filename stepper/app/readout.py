@@ -15,12 +15,15 @@ from typing import Any
 from stepper.app.proof_model import Position, ProofModel, mark_of
 from stepper.field import Field
 
-__all__ = ["Line", "CAUTION", "summary_lines", "round_lines", "diagnosis_lines"]
+__all__ = ["Line", "CAUTION", "SHORT_CAUTION", "summary_lines", "round_lines", "diagnosis_lines"]
 
 CAUTION = (
     "A passing replay is evidence about this one run, not a soundness proof: "
     "a wrong protocol or a weak challenge derivation can pass every check here."
 )
+
+# Always on screen, under the position bar.
+SHORT_CAUTION = "A passing replay is evidence about this one run, not a soundness proof of the protocol."
 
 
 @dataclass(frozen=True, slots=True)
@@ -36,9 +39,16 @@ class Line:
 
 
 def summary_lines(model: ProofModel) -> list[Line]:
-    """What the proof is and how the replay judged it."""
+    """What the proof is and how the replay judged it, the verdict first."""
     field = model.field
-    lines: list[Line] = []
+    report = model.report()
+    verdict = model.verdict()
+    lines = [Line("verdict", verdict, {"accept": "good", "reject": "bad"}.get(verdict, "wait"))]
+    first = _first_failure(report)
+    if first is not None:
+        lines.append(Line("first failure", first, "bad"))
+    lines.append(Line("transcript", f"{model.completeness}, digest {model.digest}",
+                      "good" if model.digest == "verified" and model.completeness == "complete" else "wait"))
     if model.source:
         lines.append(Line("file", model.source))
     if field is not None:
@@ -47,7 +57,6 @@ def summary_lines(model: ProofModel) -> list[Line]:
         lines.append(Line("challenge field", field.describe() if field.is_extension else "the same prime field"))
     else:
         lines.append(Line("field", "not declared yet", "wait"))
-    report = model.report()
     if model.schedule is not None:
         label = f", label {model.schedule.label!r}" if model.schedule.label else ""
         lines.append(Line("schedule", f"Fiat-Shamir {model.schedule.name}{label}"))
@@ -57,12 +66,6 @@ def summary_lines(model: ProofModel) -> list[Line]:
     elif model.schedule is None:
         lines.append(Line("challenges", "taken as recorded (no Fiat-Shamir schedule declared)", "wait"))
     lines.append(Line("instances", f"{len(model.instances)} with {model.round_count} rounds"))
-    verdict = model.verdict()
-    tone = {"accept": "good", "reject": "bad"}.get(verdict, "wait")
-    lines.append(Line("verdict", verdict, tone))
-    first = _first_failure(report)
-    if first is not None:
-        lines.append(Line("first failure", first, "bad"))
     soundness = _soundness(report)
     if soundness:
         lines.append(Line("soundness bound", soundness))
@@ -70,8 +73,6 @@ def summary_lines(model: ProofModel) -> list[Line]:
         where = "" if finding.instance is None else f" (instance {finding.instance}, round {finding.round})"
         lines.append(Line(f"finding {finding.severity}", f"{finding.kind}: {finding.message}{where}",
                           "bad" if finding.severity == "high" else "wait"))
-    lines.append(Line("transcript", f"{model.completeness}, digest {model.digest}",
-                      "good" if model.digest == "verified" and model.completeness == "complete" else "wait"))
     for key, value in model.metadata().items():
         lines.append(Line(f"meta {key}", _plain(value), "muted"))
     for note in model.proof_notes:

@@ -51,7 +51,7 @@ class ReadoutPanel(Static):
 
     def show(self, lines: Sequence[Line]) -> None:
         self.lines = list(lines)
-        self.update(render_lines(self.lines, self.label_width))
+        self.update(render_lines(self.lines, self.label_width), layout=False)
 
     def plain(self) -> str:
         """The panel's text without styles (what a test or an export reads)."""

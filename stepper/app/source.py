@@ -77,7 +77,7 @@ class TranscriptSource:
                     stream = self._stream
                     self._close()
                     model.loading = False
-                    model.finish(stream.completeness, stream.digest)
+                    model.finish(stream.completeness, stream.digest, _final(stream))
                     return True
                 model.feed(record)
                 self._fed += 1
@@ -112,7 +112,7 @@ class TranscriptSource:
         self.problem = problem
         self._close()
         model.loading = False
-        model.finish("incomplete", "missing")
+        model.finish("incomplete", "missing", final=False)
 
     def _close(self) -> None:
         if self._stream is not None:
@@ -146,7 +146,7 @@ class TranscriptSource:
                     if seen > self._fed:
                         model.feed(record)
                         self._fed = seen
-                model.finish(events.completeness, events.digest)
+                model.finish(events.completeness, events.digest, _final(events))
             self.problem = None
         except StepperError as err:
             self.problem = str(err)
@@ -179,3 +179,9 @@ class TranscriptSource:
         witness = load_witness(self.witness_path)
         self.diagnosis = diagnose(load(self.path), witness, model.report())
         return self.diagnosis
+
+
+def _final(stream: Any) -> bool:
+    """No checked event can follow: a transcript whose end event was read. A JSON-lines
+    event file has no end marker, so a prover may always append to it."""
+    return bool(stream.kind == "transcript" and stream.completeness == "complete")

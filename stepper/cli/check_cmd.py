@@ -91,16 +91,23 @@ def run(args: argparse.Namespace) -> int:
                     keep_instances=None if args.json or args.witness else args.rows, emit_passing=detail)
     notes: list[Note] = []
     note_count = 0
+
+    def keep_note(record: object) -> None:
+        nonlocal note_count
+        if isinstance(record, Note):
+            note_count += 1
+            if len(notes) < 50:
+                notes.append(record)
+
     events: list[Any] | None = [] if args.witness else None
     with open_events(args.file) as stream:
-        for record in stream:
-            if isinstance(record, Note):
-                note_count += 1
-                if len(notes) < 50:
-                    notes.append(record)
-            if events is not None:
+        if events is None:
+            replay.feed_all(stream, on_other=keep_note)
+        else:
+            for record in stream:
+                keep_note(record)
                 events.append(record)
-            replay.feed(record)
+                replay.feed(record)
         completeness = stream.completeness
         header, digest = stream.header, stream.digest
     report = replay.report(completeness)

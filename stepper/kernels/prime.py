@@ -305,5 +305,11 @@ class ObjectKernel(Kernel):
         out[:] = [int.from_bytes(row.tobytes(), "little") % self.p for row in raw]
         return out
 
+    def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        prod = np.multiply(a, b)
+        if isinstance(prod, np.ndarray) and prod.dtype == object:
+            return np.remainder(prod, self.p, out=prod)  # reuses the product's array
+        return prod % self.p  # type: ignore[no-any-return]
+
     def sum(self, a: np.ndarray) -> Element:
         return int(a.sum()) % self.p if len(a) else 0

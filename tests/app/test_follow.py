@@ -64,3 +64,24 @@ async def test_live_mode_follows_the_newest_round_as_it_arrives(tmp_path):
             await pilot.pause(0.05)
         assert app.proof_screen.position == (0, 3)
     writer.close()
+
+
+async def test_a_json_lines_event_file_can_be_followed_past_a_moment_it_looked_whole(tmp_path):
+    import json
+
+    path = tmp_path / "isle-of-quill-0740.events.jsonl"
+    payloads = brackwater_payloads(instances=("boarding-permutation",))
+    lines = [json.dumps(p) + "\n" for p in payloads]
+    path.write_text("".join(lines[:5]))  # whole lines only: the reader calls it complete
+    app = StepperApp.from_file(path, follow=True, poll_seconds=0.05, export_dir=tmp_path)
+    async with app.run_test(size=(140, 44)) as pilot:
+        assert app.model.verdict() == "incomplete"  # the instance still lacks rounds
+        with path.open("a") as handle:
+            handle.write("".join(lines[5:]))
+        deadline = time.monotonic() + 60
+        while app.model.round_count < 4 and time.monotonic() < deadline:
+            await pilot.pause(0.05)
+        await pilot.pause(0.1)
+        assert app.model.strip_line(0) == "■■■■"
+        assert app.model.verdict() == "accept"
+        assert app.proof_screen.stepper.problem is None
