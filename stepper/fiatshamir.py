@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import hashlib
 import struct
-from functools import partial
 from typing import TYPE_CHECKING, Callable
 
 from stepper.errors import InputError
@@ -71,7 +70,7 @@ class Sha256Schedule:
         self._wide = 0
         self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
         self._challenge_head = b""
-        self._round_packers: dict[int, tuple[bytes, Callable[[tuple[Element, ...]], bytes]]] = {}
+        self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
 
     def state_digest(self) -> bytes:
         """SHA-256 of everything absorbed so far (for test vectors and debugging)."""
@@ -110,21 +109,17 @@ class Sha256Schedule:
 
     def _round_frame(self, values: tuple[Element, ...]) -> bytes:
         """``frame("round", u64(n) || packed values)``; head and packer cached per n."""
-        try:
-            head, pack = self._round_packers[len(values)]
-        except KeyError:
-            head, pack = self._round_packer(len(values))
-        return head + pack(values)
+        head, pack = self._round_packers.get(len(values)) or self._round_packer(len(values))
+        return head + (pack(*values) if pack is not None else pack_elements(self.field, values))  # type: ignore[arg-type]
 
-    def _round_packer(self, n: int) -> tuple[bytes, Callable[[tuple[Element, ...]], bytes]]:
+    def _round_packer(self, n: int) -> tuple[bytes, Callable[..., bytes] | None]:
+        """The frame head for n values and a ``struct`` packer (None: use :func:`pack_elements`)."""
         field = self.field
         assert field is not None
         head = _ROUND_HEAD + _u64(8 + n * field.elem_bytes) + _u64(n)
+        pack = None
         if not field.is_extension and field.base_bytes in (4, 8):
-            packer = struct.Struct(f"<{n}{'I' if field.base_bytes == 4 else 'Q'}").pack
-            pack: Callable[[tuple[Element, ...]], bytes] = lambda values: packer(*values)
-        else:
-            pack = partial(pack_elements, field)
+            pack = struct.Struct(f"<{n}{'I' if field.base_bytes == 4 else 'Q'}").pack
         if len(self._round_packers) < 64:
             self._round_packers[n] = (head, pack)
         return head, pack
@@ -167,16 +162,30 @@ class Sha256Schedule:
 
     def round_challenge(self, values: tuple[Element, ...]) -> Element:
         """``observe`` of a round with these values, then ``challenge()``: the same
-        state and result, in one step (the verifier's and the prover's hot path)."""
+        state and result, in one step (see :meth:`round_stepper` for the hot path)."""
+        return self.round_stepper()(values)
+
+    def round_stepper(self) -> Callable[[tuple[Element, ...]], Element]:
+        """A function doing :meth:`round_challenge` with everything it needs bound once:
+        the verifier's and the prover's hot path (a prime field squeezed in one block)."""
         field = self._need_field("round")
-        frame_bytes = self._round_frame(values)
         if field.is_extension or len(self._squeeze_frames[0]) != 1:
-            self._state.update(frame_bytes)
-            return self.challenge()
-        state = self._state
-        state.update(frame_bytes)
-        h = state.copy()
-        h.update(self._squeeze_frames[0][0])
-        sample = int.from_bytes(h.digest()[: self._wide], "little") % field.p
-        state.update(self._challenge_head + sample.to_bytes(field.base_bytes, "little"))
-        return sample
+            def general(values: tuple[Element, ...]) -> Element:
+                self._state.update(self._round_frame(values))
+                return self.challenge()
+
+            return general
+        update, copy, packers = self._state.update, self._state.copy, self._round_packers
+        squeeze, wide, p, width = self._squeeze_frames[0][0], self._wide, field.p, field.base_bytes
+        challenge_head, from_bytes, round_packer = self._challenge_head, int.from_bytes, self._round_packer
+
+        def prime(values: tuple[Element, ...]) -> Element:
+            head, pack = packers.get(len(values)) or round_packer(len(values))
+            update(head + (pack(*values) if pack is not None else pack_elements(field, values)))
+            h = copy()
+            h.update(squeeze)
+            sample = from_bytes(h.digest()[:wide], "little") % p
+            update(challenge_head + sample.to_bytes(width, "little"))
+            return sample  # type: ignore[no-any-return]
+
+        return prime

@@ -186,7 +186,7 @@ class Replay:
         if (live is None or field is None or field.degree != 1 or live.start.form != "evals"
                 or self.challenger is not None):
             return None, -1, 0, 1, None
-        squeeze = source.schedule.round_challenge if source.schedule is not None else None
+        squeeze = source.schedule.round_stepper() if source.schedule is not None else None
         return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
 
     def _need_field(self) -> Field:

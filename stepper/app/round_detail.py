@@ -52,6 +52,11 @@ class ReadoutPanel(Static):
     def show(self, lines: Sequence[Line]) -> None:
         self.lines = list(lines)
         self.update(render_lines(self.lines, self.label_width), layout=False)
+        # Re-lay out only when the wrapped text needs another height: stepping between
+        # rounds of one instance then repaints just this panel.
+        width = self.content_region.width
+        if width and self.get_content_height(self.size, self.app.size, width) != self.content_region.height:
+            self.refresh(layout=True)
 
     def plain(self) -> str:
         """The panel's text without styles (what a test or an export reads)."""
