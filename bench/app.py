@@ -4,7 +4,8 @@ Writes two demo transcripts (Brackwater Ferries, invented data): a small one
 (3 instances x 4 rounds) and a large one (default 4000 instances x 25 rounds =
 10^5 rounds), then for each: time from creating the app to its first paint,
 time until every round is checked, and the wall time of single steps (one key
-press each, as the Pilot delivers it, repaint included) and instance hops.
+press each, as the Pilot delivers it, repaint included) and instance hops,
+next to a key bound to nothing (what the Pilot itself costs per press).
 Prints the figures and the large/small ratios, measured in the same run.
 
     python bench/app.py [--instances N] [--rounds K] [--steps S]
@@ -75,6 +76,11 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
             await pilot.press("full_stop" if (i // 10) % 2 == 0 else "comma")
             times.append(time.perf_counter() - t)
             cpu.append(time.process_time() - c)
+        idle = []
+        for _ in range(max(10, steps // 3)):  # a key bound to nothing: the Pilot's own cost
+            t = time.perf_counter()
+            await pilot.press("z")
+            idle.append(time.perf_counter() - t)
         hops = []
         for i in range(max(4, steps // 10)):
             t = time.perf_counter()
@@ -83,6 +89,8 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
         out["step median ms"] = 1000 * statistics.median(times)
         out["step max ms"] = 1000 * max(times)
         out["step cpu median ms"] = 1000 * statistics.median(cpu)
+        out["unbound key median ms"] = 1000 * statistics.median(idle)
+        out["step - unbound ms"] = out["step median ms"] - out["unbound key median ms"]
         out["hop median ms"] = 1000 * statistics.median(hops)
         out["rounds"] = app.model.round_count
         out["verdict accept"] = float(app.model.verdict() == "accept")

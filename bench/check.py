@@ -7,6 +7,11 @@ too). Then, side by side in one run, best of ``--repeat``:
 
 * decode: iterate every msgpack object of the file with ``msgpack.Unpacker``;
 * reading: iterate the records with ``stepper.store.open_events`` (validation included);
+* hashing: only the SHA-256 calls the schedule makes per round (absorb the round,
+  copy, squeeze, digest, absorb the challenge) on bytes prepared beforehand: the
+  floor of re-deriving challenges with hashlib from Python;
+* replay: ``open_events`` + ``Replay.feed_all`` in this process (what ``check`` does
+  between start-up and printing);
 * check:  the whole ``stepper check FILE`` command in a fresh process (reading,
   replay, re-derivation, human output to /dev/null), start-up measured apart.
 
@@ -14,13 +19,14 @@ It prints the ratio check/decode (target <= 3x) and the peak resident memory of
 the check process for a tenth of the instances and for all of them: in the
 default (human) output it must not grow with the number of instances.
 
-    python3 bench/check.py                       # about a minute
+    python3 bench/check.py                       # about a minute and a half
     python3 bench/check.py --instances 2000 --repeat 1
 """
 
 from __future__ import annotations
 
 import argparse
+import hashlib
 import os
 import random
 import subprocess
@@ -104,11 +110,34 @@ def stream_only(path: Path) -> None:
             pass
 
 
+def replay_in_process(path: Path) -> None:
+    from stepper.verify import Replay
+
+    replay = Replay(keep_instances=20, emit_passing=False)
+    with open_events(path) as stream:
+        replay.feed_all(stream)
+        completeness = stream.completeness
+    assert replay.report(completeness).verdict == "accept"
+
+
+def hashing_floor(rounds: int) -> None:
+    """The schedule's hashlib calls for ``rounds`` rounds, nothing else."""
+    state = hashlib.sha256(b"stepper-sha256/1")
+    update, copy = state.update, state.copy
+    round_frame, squeeze, challenge = bytes(6 + 8 + 8 + 8 * (DEGREE + 1)), bytes(8 + 16 + 8), bytes(10 + 8 + 8)
+    for _ in range(rounds):
+        update(round_frame)
+        h = copy()
+        h.update(squeeze)
+        h.digest()
+        update(challenge)
+
+
 def parse_args() -> argparse.Namespace:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--instances", type=int, default=10_000)
     parser.add_argument("--rounds", type=int, default=24)
-    parser.add_argument("--repeat", type=int, default=1)
+    parser.add_argument("--repeat", type=int, default=3, help="best of N (fresh-process check: best of N too)")
     return parser.parse_args()
 
 
@@ -124,17 +153,21 @@ def main_bench() -> None:
         objects = bare_decode(large)
         decode = best(lambda: bare_decode(large), args.repeat)
         reading = best(lambda: stream_only(large), args.repeat)
+        hashing = best(lambda: hashing_floor(args.instances * args.rounds), args.repeat)
+        replay = best(lambda: replay_in_process(large), args.repeat)
         check, rss_large = min(run_check(large) for _ in range(args.repeat))
         _, rss_small = run_check(small)
-        start = startup()
+        start = min(startup() for _ in range(args.repeat))
         print(f"bare msgpack decode:            {decode:.3f} s ({objects} objects)")
         print(f"stepper.store reading alone:    {reading:.3f} s ({reading / decode:.1f}x decode)")
+        print(f"SHA-256 calls alone (floor):    {hashing:.3f} s ({hashing / decode:.1f}x decode)")
+        print(f"reading + replay, in process:   {replay:.3f} s ({replay / decode:.1f}x decode; replay itself "
+              f"{(replay - reading) / decode:.1f}x)")
         print(f"stepper check (fresh process):  {check:.3f} s, of which {start:.2f} s interpreter + imports")
         print(f"ratio check/decode:             {check / decode:.1f}x; without start-up "
               f"{(check - start) / decode:.1f}x (target <= 3x)")
         print(f"peak resident memory of check:  {rss_small:.1f} MB for {max(1, args.instances // 10)} instances, "
               f"{rss_large:.1f} MB for {args.instances} (ratio {rss_large / rss_small:.2f})")
-
 
 if __name__ == "__main__":
     main_bench()

@@ -70,6 +70,7 @@ class Sha256Schedule:
         self._wide = 0
         self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
         self._challenge_head = b""
+        self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
         self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
 
     def state_digest(self) -> bytes:
@@ -80,8 +81,11 @@ class Sha256Schedule:
         self._state.update(frame(tag, body))
 
     def _el(self, e: Element) -> bytes:
-        assert self.field is not None
-        return self.field.encode(e)
+        field = self.field
+        assert field is not None
+        if e.__class__ is int and field.degree == 1 and 0 <= e < field.p:  # type: ignore[operator]
+            return e.to_bytes(field.base_bytes, "little")  # type: ignore[union-attr]
+        return field.encode(e)
 
     def observe(self, record: Event) -> None:
         """Absorb a record the way the schedule defines (no-op for kinds it skips)."""
@@ -169,11 +173,14 @@ class Sha256Schedule:
         """A function doing :meth:`round_challenge` with everything it needs bound once:
         the verifier's and the prover's hot path (a prime field squeezed in one block)."""
         field = self._need_field("round")
+        if self._stepper is not None and self._stepper[0] is field:
+            return self._stepper[1]
         if field.is_extension or len(self._squeeze_frames[0]) != 1:
             def general(values: tuple[Element, ...]) -> Element:
                 self._state.update(self._round_frame(values))
                 return self.challenge()
 
+            self._stepper = (field, general)
             return general
         update, copy, packers = self._state.update, self._state.copy, self._round_packers
         squeeze, wide, p, width = self._squeeze_frames[0][0], self._wide, field.p, field.base_bytes
@@ -188,4 +195,5 @@ class Sha256Schedule:
             update(challenge_head + sample.to_bytes(width, "little"))
             return sample  # type: ignore[no-any-return]
 
+        self._stepper = (field, prime)
         return prime

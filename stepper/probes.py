@@ -9,8 +9,9 @@ the prover has it (two bugs may coincide on small inputs).
 
 Probes (name: what the faulty prover does):
 
-* ``variable-order``: from the first wrong round on, binds the variable at the other
-  end of the table (high-first instead of low-first or back);
+* ``variable-order``: from round s <= the first wrong round k on, binds the variable at
+  the other end of the table (high-first instead of low-first or back); s < k (the first
+  switched rounds coincide with the declared order's) is searched when nothing else fits;
 * ``reversed-point``: the final value is taken at the challenge point reversed;
 * ``challenge-shift``: the tables of round k were folded with r_k (one ahead) or
   r_(k-2) (one behind) instead of r_(k-1): challenges used one round off;
@@ -144,31 +145,71 @@ def _tables_after(ctx: ProbeContext, challenges: Sequence[Element], order: str) 
 
 # ----- the probes ---------------------------------------------------------------------------
 def probe_variable_order(ctx: ProbeContext) -> ProbeFinding | None:
-    """Rounds 1..k-1 honest, then from round k on the other end of the table is bound."""
-    if ctx.check != "honest-poly" or ctx.start.num_vars - ctx.round < 1:
+    """Rounds 1..k-1 bound in the declared order, rounds k.. at the other end of the table."""
+    if ctx.check != "honest-poly" or ctx.start.num_vars < 2:
         return None  # a final value at the other order's point is the reversed-point probe
-    other = "high-first" if ctx.start.order == "low-first" else "low-first"
-    f = ctx.field
     k = ctx.round
-    tables = _tables_after(ctx, ctx.challenges[: k - 1], ctx.start.order)
-    runs = honest_rounds(f, tables, ctx.expr, ctx.challenges[k - 1:], other, ctx.start.degree + 1)
-    rounds = [r for r in runs if isinstance(r, HonestRound)]
-    checked = 0
-    for offset, run in enumerate(rounds):
-        if k + offset > len(ctx.sent_rounds):
-            break
-        if not _round_is(ctx, k + offset, run.evals):
-            return None
-        checked += 1
-    if checked == 0:
+    matched = _switched_rounds_matched(ctx, _tables_after(ctx, ctx.challenges[: k - 1], ctx.start.order), k)
+    return None if matched is None else _variable_order_finding(ctx, k, matched)
+
+
+def probe_earlier_order_switch(ctx: ProbeContext) -> ProbeFinding | None:
+    """The switch of :func:`probe_variable_order` at a round s < k whose switched
+    rounds s..k-1 happen to equal the declared order's (tables with a symmetry
+    between the two variables). Tries s = 1..k-1, folding the declared prefix
+    once: at most one more pass over the tables, so :func:`run_probes` runs it
+    only when no other probe explains the round."""
+    if ctx.check != "honest-poly" or ctx.start.num_vars < 2:
         return None
-    since = "" if k == 1 else f" from round {k} on"
+    tables = _tables_after(ctx, (), ctx.start.order)
+    for switch in range(1, ctx.round):
+        matched = _switched_rounds_matched(ctx, tables, switch)
+        if matched is not None:
+            return _variable_order_finding(ctx, switch, matched)
+        tables = fold(ctx.field, tables, ctx.challenges[switch - 1], ctx.start.order)
+    return None
+
+
+def _variable_order_finding(ctx: ProbeContext, switch: int, matched: int) -> ProbeFinding:
+    k = ctx.round
+    other = _other_order(ctx.start.order)
+    since = "" if switch == 1 else f" from round {switch} on"
+    hidden = "" if switch == k else (
+        f"; {_span(switch, k - 1)} of the switched prover happen to equal the declared order's, so the switch "
+        f"first shows in round {k}")
     return ProbeFinding(
         "variable-order",
-        f"rounds {k}..{k + checked - 1} equal an honest prover binding the variables {other}{since} "
-        f"while the instance declares {ctx.start.order}",
-        {"declared": ctx.start.order, "used": other, "from_round": k, "rounds_matched": checked},
+        f"{_span(switch, switch + matched - 1)} equal an honest prover binding the variables {other}{since} "
+        f"while the instance declares {ctx.start.order}{hidden}",
+        {"declared": ctx.start.order, "used": other, "from_round": switch, "first_wrong_round": k,
+         "rounds_matched": matched},
     )
+
+
+def _span(first: int, last: int) -> str:
+    return f"round {first}" if first == last else f"rounds {first}..{last}"
+
+
+def _other_order(order: str) -> str:
+    return "high-first" if order == "low-first" else "low-first"
+
+
+def _switched_rounds_matched(ctx: ProbeContext, tables: Mapping[str, np.ndarray], switch: int) -> int | None:
+    """``tables`` folded by rounds 1..switch-1 in the declared order: the number of sent
+    rounds from ``switch`` on that equal honest rounds bound in the other order (reaching
+    past the first wrong round), or None at the first mismatch. O(n d / 2^(switch-1))."""
+    if switch > len(ctx.sent_rounds) or len(next(iter(tables.values()))) < 2:
+        return None
+    runs = honest_rounds(ctx.field, tables, ctx.expr, ctx.challenges[switch - 1:], _other_order(ctx.start.order),
+                         ctx.start.degree + 1)
+    checked = 0
+    for run in runs:
+        if not isinstance(run, HonestRound) or switch + checked > len(ctx.sent_rounds):
+            break
+        if not _round_is(ctx, switch + checked, run.evals):
+            return None
+        checked += 1
+    return checked if switch + checked > ctx.round else None
 
 
 def probe_reversed_point(ctx: ProbeContext) -> ProbeFinding | None:
@@ -353,10 +394,10 @@ PROBES: dict[str, Callable[[ProbeContext], ProbeFinding | None]] = {
 
 
 def run_probes(ctx: ProbeContext) -> tuple[ProbeFinding, ...]:
-    """Every probe that explains the evidence exactly, tagged with the instance and round."""
-    out: list[ProbeFinding] = []
-    for probe in PROBES.values():
-        found = probe(ctx)
-        if found is not None:
-            out.append(ProbeFinding(found.probe, found.message, found.evidence, ctx.start.index, ctx.round))
-    return tuple(out)
+    """Every probe that explains the evidence exactly, tagged with the instance and round;
+    when none does, the costlier search for a binding-order switch before the round."""
+    found_all = [probe(ctx) for probe in PROBES.values()]
+    if not any(found_all):
+        found_all.append(probe_earlier_order_switch(ctx))
+    return tuple(ProbeFinding(f.probe, f.message, f.evidence, ctx.start.index, ctx.round)
+                 for f in found_all if f is not None)

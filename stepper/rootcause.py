@@ -186,6 +186,14 @@ class Diagnosis:
             why = "the first round was made to sum to the wrong claim, which moved the error into later rounds"
         elif cause.check == "final":
             why = "the final value is only checked at the end"
+        elif ff.check == "final" and cause.form in COMPRESSED_FORMS:
+            why = (f"in the compressed form {cause.form} each round's left-out value is recovered from the claim "
+                   "carried into it, so every sum check holds by construction and only the final check could "
+                   "expose the wrong round")
+        elif ff.check == "final":
+            why = (f"every round from {cause.round} on summed to the claim carried into it (the prover stayed "
+                   "consistent with its own tables as it had folded them), so only the final check against the "
+                   "tables' value at the challenge point could expose it")
         else:
             why = (f"the wrong round {cause.round} polynomial still satisfied g(0) + g(1) = claim, so only its "
                    f"value at the challenge, carried into the next round's claim, could expose it")

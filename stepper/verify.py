@@ -15,6 +15,12 @@ Replay goes on after a failure: later rounds are evaluated against the claim
 actually carried and marked ``after_failure``; ``first_failure`` is the first in
 stream order. Memory per instance is constant unless ``keep_rounds`` is set;
 ``keep_instances`` caps the kept instance summaries (counts cover every instance).
+
+``feed_all`` is the streaming fast path (``stepper check`` without ``--json``):
+a round and its challenge that pass in a prime field are settled inline (the
+schedule's fused :meth:`~stepper.fiatshamir.Sha256Schedule.round_stepper`,
+:func:`~stepper.lagrange.round_evaluator`, no result record); anything else, and
+any failure, goes through ``feed``, so the report is exactly the same.
 """
 
 from __future__ import annotations
@@ -138,45 +144,43 @@ class Replay:
         held: RoundMsg | None = None  # a round waiting for its challenge to take the inline path
         live, index, limit, p, squeeze = self._inline_setup()
         evaluators: dict[int, Callable[[Sequence[int], int], int]] = {}
-        for record in records:
-            cls = record.__class__
-            if cls is challenge_cls and held is not None:
-                round_msg, held = held, None
-                values = round_msg.values  # type: ignore[union-attr]
-                n = len(values)
-                if (record.instance == index and 0 < n <= limit  # type: ignore[union-attr]
-                        and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):  # type: ignore[union-attr]
-                    challenge = record.value  # type: ignore[union-attr]
-                    rederived = squeeze(values) if squeeze is not None else None
-                    if rederived is None or rederived == challenge:
-                        evaluate = evaluators.get(n) or evaluators.setdefault(n, round_evaluator(p, n - 1))
-                        live.claim = evaluate(values, challenge)  # type: ignore[union-attr]
-                        live.seen = k = round_msg.round  # type: ignore[union-attr]
-                        if live.failure is None:  # type: ignore[union-attr]
-                            live.passed = k  # type: ignore[union-attr]
+        try:
+            for record in records:
+                cls = record.__class__
+                if cls is round_cls:
+                    if held is None and live is not None and record.instance == index and live.pending is None:
+                        held = record  # type: ignore[assignment]
                         continue
-                    live.pending = (round_msg, values, None, None, None, None, None)  # type: ignore[union-attr]
-                    self._resolve_pending(record, rederived)  # type: ignore[arg-type]
-                    continue
-                feed(round_msg)  # type: ignore[arg-type]
+                elif cls is challenge_cls and held is not None:
+                    round_msg, held = held, None
+                    values = round_msg.values
+                    n = len(values)
+                    if (0 < n <= limit and record.instance == index  # type: ignore[union-attr]
+                            and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):  # type: ignore[union-attr]
+                        challenge = record.value  # type: ignore[union-attr]
+                        rederived = squeeze(values) if squeeze is not None else challenge
+                        if rederived == challenge:
+                            evaluate = evaluators.get(n) or evaluators.setdefault(n, round_evaluator(p, n - 1))
+                            live.claim = evaluate(values, challenge)  # type: ignore[union-attr]
+                            live.seen = k = round_msg.round
+                            if live.failure is None:  # type: ignore[union-attr]
+                                live.passed = k  # type: ignore[union-attr]
+                        else:  # the schedule has absorbed the round already: resolve with what it derived
+                            live.pending = (round_msg, values, None, None, None, None, None)  # type: ignore[union-attr]
+                            self._resolve_pending(record, rederived)  # type: ignore[arg-type]
+                        continue
+                    feed(round_msg)
+                if held is not None:
+                    round_msg, held = held, None
+                    feed(round_msg)
                 feed(record)
-                continue
+                if cls is not round_cls and cls is not challenge_cls:
+                    if on_other is not None:
+                        on_other(record)
+                    live, index, limit, p, squeeze = self._inline_setup()
+        finally:
             if held is not None:
                 feed(held)
-                held = None
-            if cls is round_cls:
-                if live is not None and live.pending is None and record.instance == index:  # type: ignore[union-attr]
-                    held = record  # type: ignore[assignment]
-                else:
-                    feed(record)
-                continue
-            feed(record)
-            if cls is not challenge_cls:
-                if on_other is not None:
-                    on_other(record)
-                live, index, limit, p, squeeze = self._inline_setup()
-        if held is not None:
-            feed(held)
 
     def _inline_setup(self) -> tuple[_Live | None, int, int, int, Callable[[tuple[int, ...]], int] | None]:
         """What ``feed_all``'s inline path needs for the current instance, or ``live`` None when it

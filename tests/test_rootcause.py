@@ -207,3 +207,25 @@ def test_check_command_turns_a_misfit_witness_into_one_line_and_exit_2(tmp_path,
     assert main(["check", str(path), "--witness", str(witness)]) == 2
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1 and "expected ')'" in err and "witness.json" in err
+
+
+@pytest.mark.parametrize("form", ["evals", "evals-no-1"])
+def test_a_lie_seen_only_at_the_final_check_is_explained_by_why_the_sum_checks_held(form) -> None:
+    # A prover that switches its binding order at round 2 stays consistent with its own folded tables,
+    # so every sum check holds (common practice, no source): only the final check can see it.
+    from stepper.provers.channel import ListSink
+    from stepper.provers.engine import witness_payload
+    from stepper.provers.faults import parse_fault
+    from stepper.provers.reference import ProveSpec, prove as reference_prove
+    from stepper.witness import witness_from_map
+
+    spec = ProveSpec("perm-direct", num_vars=4, seed=2, fault=parse_fault("flip-order@2"), form=form)
+    sink = ListSink()
+    run = reference_prove(spec, GOLDILOCKS, sink)
+    transcript = sink.transcript()
+    diagnosis = diagnose(transcript, witness_from_map(witness_payload(GOLDILOCKS, run.witness)))
+    assert (diagnosis.first_failure.round, diagnosis.first_failure.check) == (4, "final")
+    assert diagnosis.root_cause_json()["round"] == 2
+    gap = diagnosis.explain()[1]
+    assert "2 round(s) later" in gap and "only the final check" in gap
+    assert ("recovered from the claim" in gap) == (form == "evals-no-1")

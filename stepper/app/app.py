@@ -117,9 +117,9 @@ class StepperApp(App[int]):
         """Feed whatever the file gained since the last look; repaint if anything did."""
         if self.source is None:
             return 0
-        before = self.source.problem
+        before = (self.source.problem, self.model.generation)
         arrived = self.source.refresh(self.model)
-        if arrived or self.source.problem != before:
+        if (self.source.problem, self.model.generation) != before:  # events, an end event, or a break
             self.proof_screen.model_changed()
         return arrived
 

@@ -39,9 +39,11 @@ class HelpScreen(ModalScreen[None]):
 
     BINDINGS = [Binding("escape,k,f1", "close", "Close")]
 
-    def __init__(self, bindings: Iterable[Binding], title: str = "Keys") -> None:
+    def __init__(self, bindings: Iterable[Binding], title: str = "Keys",
+                 extra: Iterable[tuple[str, str]] = ()) -> None:
         super().__init__()
         self.entries = [(key_label(b.key), b.description) for b in bindings if b.description]
+        self.entries.extend(extra)
         self.title_text = title
 
     def compose(self) -> ComposeResult:

@@ -88,8 +88,9 @@ class RoundRow:
     tone: str
 
     def cells(self) -> tuple[str, ...]:
-        return (str(self.round), self.claim_in, self.sum01, self.degree, self.challenge, self.claim_out,
-                f"{self.symbol} {self.status}")
+        """Round, status (word and symbol), then the values: the status never scrolls away."""
+        return (str(self.round), f"{self.symbol} {self.status}", self.claim_in, self.sum01, self.degree,
+                self.challenge, self.claim_out)
 
 
 @dataclass(slots=True)
@@ -334,11 +335,13 @@ class ProofModel:
         return out
 
     def strip_line(self, instance: int) -> str:
-        """One symbol per round of the instance (blank for rounds not yet sent)."""
+        """One symbol per round of the instance (``·`` for rounds not yet sent), then
+        ``┆`` and the final check's symbol once a final value was checked."""
         view = self.instances[instance]
         symbols = [mark_of(view.status(k)).symbol for k in range(1, len(view.rounds) + 1)]
         missing = view.start.num_vars - len(view.rounds)
-        return "".join(symbols) + "·" * max(0, missing)
+        final = "" if view.final_result is None else "┆" + mark_of(view.final_result.status).symbol
+        return "".join(symbols) + "·" * max(0, missing) + final
 
     # ----- moving ----------------------------------------------------------------------
     def first_failure(self) -> Position | None:

@@ -38,6 +38,14 @@ if TYPE_CHECKING:
 __all__ = ["ProofScreen", "parse_round_target"]
 
 
+# The round table's own keys (Textual's DataTable), listed on the key screen too.
+TABLE_KEYS = (
+    ("up or down", "Previous or next row of the round table"),
+    ("pageup or pagedown", "A page of rows up or down"),
+    ("click", "A row of the table, or an instance's line in the strip"),
+)
+
+
 def parse_round_target(text: str, current_instance: int) -> Position | None:
     """``N`` (round N of the current instance) or ``I:N`` / ``I/N`` (instance I, round N)."""
     cleaned = text.strip().replace("/", ":")
@@ -102,7 +110,7 @@ class ProofScreen(Screen[None]):
 
     def on_mount(self) -> None:
         self.query_one("#summary-box").border_title = "proof"
-        self.query_one("#strip").border_title = "every round  ■ pass  ✕ fail  ◌ pending  · not sent"
+        self.query_one("#strip").border_title = "every round  ■ pass  ✕ fail  ◌ pending  · not sent  ┆ then the final check"
         self.query_one("#detail-box").border_title = "round detail"
         self._ready = True
         self.model_changed()
@@ -267,4 +275,4 @@ class ProofScreen(Screen[None]):
             self.model_changed()
 
     def action_keys(self) -> None:
-        self.app.push_screen(HelpScreen(self.BINDINGS, "Keys of the proof view"))
+        self.app.push_screen(HelpScreen(self.BINDINGS, "Keys of the proof view", TABLE_KEYS))

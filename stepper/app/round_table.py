@@ -17,7 +17,7 @@ from stepper.app.proof_model import ProofModel
 
 __all__ = ["RoundTable", "COLUMNS"]
 
-COLUMNS = ("round", "claim in", "g(0)+g(1)", "deg/bound", "challenge", "g(r)", "status")
+COLUMNS = ("round", "status", "claim in", "g(0)+g(1)", "deg/bound", "challenge", "g(r)")
 _TONE_STYLE = {"good": "#6fb39a", "bad": "bold #f0a35e", "wait": "#8c8fa6"}
 
 
@@ -58,13 +58,22 @@ class RoundTable(DataTable[object]):
         self.clear()
         if not 0 <= instance < len(self.model.instances):
             return
-        width = max(8, (self.size.width or 100) // 7 - 1)
+        # five value columns share what round, status, degree, cell padding and border leave
+        width = max(8, ((self.size.width or 88) - 37) // 5)
         rows = []
         for row in self.model.rows(instance, width):
             cells: list[object] = list(row.cells())
-            cells[-1] = Text(cells[-1], style=_TONE_STYLE.get(row.tone, ""))  # type: ignore[arg-type]
+            cells[1] = Text(cells[1], style=_TONE_STYLE.get(row.tone, ""))  # type: ignore[arg-type]
             rows.append(cells)
         self.add_rows(rows)
+
+    def on_resize(self) -> None:
+        """Cells are cut to the width available: rebuild the rows for the new width."""
+        if self.instance >= 0:
+            row = self.cursor_row
+            self._fill(self.instance)
+            if self.row_count:
+                self.move_cursor(row=min(row, self.row_count - 1), animate=False)
 
     def _user(self) -> None:
         self._by_user = True

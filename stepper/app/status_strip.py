@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from rich.segment import Segment
 from rich.style import Style
+from textual import events
 from textual.geometry import Size
 from textual.message import Message
 from textual.reactive import reactive
@@ -27,6 +28,7 @@ _TONE_STYLE = {
     "wait": Style(color="#8c8fa6"),
 }
 _SYMBOL_TONE = {mark.symbol: mark.tone for mark in STATUS_MARKS.values()}
+_SYMBOL_TONE["┆"] = "wait"
 _NAME_WIDTH = 30
 
 
@@ -51,7 +53,7 @@ class StatusStrip(ScrollView, can_focus=False):
         """Re-measure after the model grew; cached lines are redrawn lazily."""
         self._cache.clear()
         widest = max((len(v.rounds) for v in self.model.instances), default=0)
-        self.virtual_size = Size(_NAME_WIDTH + 8 + max(widest, 1), len(self.model.instances))
+        self.virtual_size = Size(_NAME_WIDTH + 10 + max(widest, 1), len(self.model.instances))
         self.refresh()
 
     def on_mount(self) -> None:
@@ -88,9 +90,9 @@ class StatusStrip(ScrollView, can_focus=False):
             segments.append(Segment(symbol, style))
         return Strip(segments)
 
-    def on_click(self, event: object) -> None:
-        y = getattr(event, "y", None)
-        if isinstance(y, int):
-            index = self.scroll_offset.y + y
+    def on_click(self, event: events.Click) -> None:
+        offset = event.get_content_offset(self)  # None on the border
+        if offset is not None:
+            index = self.scroll_offset.y + offset.y
             if 0 <= index < len(self.model.instances):
                 self.post_message(self.Picked(index))

@@ -8,7 +8,7 @@ from stepper.app.app import StepperApp
 from stepper.app.ask_screen import AskScreen
 from stepper.app.buckets_screen import BucketsScreen
 from stepper.app.help_screen import HelpScreen
-from stepper.app.proof_screen import ProofScreen, parse_round_target
+from stepper.app.proof_screen import TABLE_KEYS, ProofScreen, parse_round_target
 from stepper.app.round_detail import ReadoutPanel
 from stepper.store import load
 
@@ -35,6 +35,10 @@ async def test_step_keys_move_one_round_and_instance_keys_hop_to_round_one(hones
         await pilot.press("comma")
         assert screen.position == (0, 4)
         assert "round: 4 of 4" in detail_text(app)
+        await pilot.pause()
+        panel = app.proof_screen.query_one("#detail", ReadoutPanel)
+        width = panel.content_region.width
+        assert panel.content_region.height == panel.get_content_height(panel.size, app.size, width)
         await pilot.press("greater_than_sign", "greater_than_sign", "greater_than_sign")
         assert app.proof_screen.position == (2, 1)  # clamped at the last instance
         await pilot.press("less_than_sign")
@@ -117,7 +121,7 @@ async def test_the_key_list_names_every_binding_of_the_proof_view(honest_file, t
         await pilot.press("k")
         assert isinstance(app.screen, HelpScreen)
         described = {d for _, d in app.screen.entries}
-        assert described == {b.description for b in ProofScreen.BINDINGS}
+        assert described == {b.description for b in ProofScreen.BINDINGS} | {d for _, d in TABLE_KEYS}
         await pilot.press("escape", "f1")
         assert isinstance(app.screen, HelpScreen)
         await pilot.press("f1")
@@ -176,3 +180,10 @@ async def test_compare_opens_the_compare_screen_on_top(honest_file, failing_file
         assert isinstance(app.screen, CompareScreen)
         await pilot.press("escape")
         assert isinstance(app.screen, ProofScreen)
+
+
+async def test_clicking_an_instance_line_in_the_strip_opens_that_instance(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.click("#strip", offset=(10, 3))  # the border's top line, then instances 0, 1, 2
+        assert app.proof_screen.position == (2, 1)

@@ -85,3 +85,13 @@ async def test_names_that_look_like_markup_are_shown_literally(tmp_path):
     async with app.run_test(size=(140, 44)) as pilot:
         await pilot.press("full_stop", "greater_than_sign")
         assert "[bold]quill[/] [link=x]" in str(app.proof_screen.query_one("#where-bar").render())
+
+
+def test_view_with_an_unreadable_witness_exits_2_with_one_line(tmp_path):
+    path = write_transcript(tmp_path / "isle-of-quill-0740.stp", brackwater_payloads(instances=("deck-slots-zero",)))
+    witness = tmp_path / "witness.json"
+    witness.write_text("{not json")
+    proc = run_view(str(path), "--witness", str(witness))
+    assert proc.returncode == 2
+    assert proc.stderr.startswith("stepper view: ") and proc.stderr.count("\n") == 1
+    assert "witness.json" in proc.stderr

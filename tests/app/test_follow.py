@@ -38,7 +38,7 @@ async def test_rounds_appear_and_are_checked_while_the_prover_writes(tmp_path):
             while app.model.completeness != "complete" and time.monotonic() < deadline:
                 await pilot.pause(0.05)
             assert app.model.round_count == 8
-            assert [app.model.strip_line(i) for i in range(2)] == ["■■■■", "■■■■"]
+            assert [app.model.strip_line(i) for i in range(2)] == ["■■■■┆■", "■■■■┆■"]
             assert app.model.verdict() == "accept"
             assert app.model.digest == "verified"
             assert "verdict accept" in str(app.proof_screen.query_one("#where-bar").render())
@@ -82,6 +82,6 @@ async def test_a_json_lines_event_file_can_be_followed_past_a_moment_it_looked_w
         while app.model.round_count < 4 and time.monotonic() < deadline:
             await pilot.pause(0.05)
         await pilot.pause(0.1)
-        assert app.model.strip_line(0) == "■■■■"
+        assert app.model.strip_line(0) == "■■■■┆■"
         assert app.model.verdict() == "accept"
         assert app.proof_screen.stepper.problem is None

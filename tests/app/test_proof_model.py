@@ -25,7 +25,7 @@ def test_an_honest_proof_is_accepted_and_every_round_passes():
     model = model_of(brackwater_payloads())
     assert model.verdict() == "accept"
     assert model.failures == []
-    assert [model.strip_line(i) for i in range(3)] == ["■■■■"] * 3
+    assert [model.strip_line(i) for i in range(3)] == ["■■■■┆■"] * 3
 
 
 def test_a_bumped_g1_fails_the_sum_check_of_that_round_first():
@@ -92,7 +92,7 @@ def test_a_growing_stream_is_checked_as_it_arrives_and_the_report_does_not_stop_
         model.feed(seq.feed(payload))
     model.finish("complete", "verified")
     assert model.verdict() == "accept"
-    assert model.strip_line(0) == "■■■■"
+    assert model.strip_line(0) == "■■■■┆■"
 
 
 def test_rows_of_a_round_without_its_challenge_say_unchecked_not_pass():
@@ -100,3 +100,14 @@ def test_rows_of_a_round_without_its_challenge_say_unchecked_not_pass():
     model = model_of(payloads[:6], complete=False)  # round 2 sent, its challenge not yet
     assert model.rows(0)[1].status in ("unchecked", "pending")
     assert model.strip_line(0)[2:] == "··"
+
+
+def test_a_wrong_final_value_is_marked_after_the_rounds_and_is_a_failure_at_the_last_round():
+    # The final check compares the last reduced claim with the oracle's value
+    # (DESIGN.md check contract; common practice, no source).
+    payloads = brackwater_payloads(instances=("boarding-permutation",))
+    payloads[-1] = {**payloads[-1], "value": (payloads[-1]["value"] + 1) % P}
+    model = model_of(payloads)
+    assert model.strip_line(0) == "■■■■┆✕"
+    assert model.first_failure() == (0, 4)
+    assert model.verdict() == "reject"

@@ -18,14 +18,29 @@ from tests.provers.helpers import run_prover
 BABYBEAR = get_field(NAMED_PRIMES["babybear"])
 GOLDILOCKS = get_field(NAMED_PRIMES["goldilocks"])
 
-# fault -> (verifier's failing round and check for mu = 5, probe that names it)
+# fault -> (verifier's failing round and check for mu = 5, probe that names it). Where the verifier
+# notices follows from the sumcheck checks (common practice, no source): a scaled or wrong round K
+# breaks g(0) + g(1) = claim at K; a dropped last evaluation keeps g(0), g(1), so the wrong g(r) shows
+# at K + 1 (or at the final check after the last round); a challenge used one round late changes
+# round K + 1; after a switch of binding order every sum still holds (the sum over the remaining
+# variables does not depend on the order), so only the final check can see it.
 EXPECTED = {
     "flip-order@1": (None, "variable-order"),
+    "flip-order@2": ((5, "final"), "variable-order"),
+    "flip-order@4": ((5, "final"), "variable-order"),
     "reverse-point": ((5, "final"), "reversed-point"),
+    "stale-challenge@2": ((3, "sum"), "challenge-shift"),
     "stale-challenge@3": ((4, "sum"), "challenge-shift"),
+    "stale-challenge@4": ((5, "sum"), "challenge-shift"),
+    "montgomery@1": ((1, "sum"), "montgomery"),
     "montgomery@2": ((2, "sum"), "montgomery"),
+    "montgomery@5": ((5, "sum"), "montgomery"),
+    "product-of-sums@1": ((1, "sum"), "product-of-sums"),
     "product-of-sums@2": ((2, "sum"), "product-of-sums"),
+    "product-of-sums@4": ((4, "sum"), "product-of-sums"),
     "drop-eval@2": ((3, "sum"), "point-count"),
+    "drop-eval@4": ((5, "sum"), "point-count"),
+    "drop-eval@5": ((5, "final"), "point-count"),
     "negate-claim": ((1, "sum"), "negated"),
 }
 
@@ -63,6 +78,20 @@ def test_each_fault_is_named_by_the_matching_root_cause_probe(text, tmp_path):
     diagnosis = diagnose(transcript, load_witness(str(path)), replay_transcript(transcript))
     probes = {finding["probe"] for finding in diagnosis.findings_json()}
     assert EXPECTED[text][1] in probes, diagnosis.findings_json()
+    cause = diagnosis.root_cause_json()
+    assert (cause["round"], cause["check"]) == _first_wrong_message(text)
+
+
+def _first_wrong_message(text):
+    """Where the witness must blame the prover: round K for a fault at round K, except a
+    challenge used one round late, which first changes round K + 1; the claim is round 0 and
+    the final value belongs to the last round (mu = 5)."""
+    name, _, at = text.partition("@")
+    if name == "negate-claim":
+        return (0, "claim")
+    if name == "reverse-point":
+        return (5, "final")
+    return (int(at) + (name == "stale-challenge"), "honest-poly")
 
 
 def test_unbound_claim_changes_the_built_in_challenges_and_the_weak_plug_in_is_flagged():
