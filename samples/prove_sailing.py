@@ -18,6 +18,7 @@ from __future__ import annotations
 import sys
 from typing import Any
 
+from stepper.errors import StepperError
 from stepper.provers.faults import parse_fault
 from stepper.provers.reference import ProveSpec, parse_field, prove
 from stepper.recorder import Recorder
@@ -70,4 +71,11 @@ def main(path: str, fault: str | None = None, *, created: str | None = None) -> 
 
 
 if __name__ == "__main__":
-    main(sys.argv[1] if len(sys.argv) > 1 else "sailing.stp", sys.argv[2] if len(sys.argv) > 2 else None)
+    if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
+        print(__doc__)
+        sys.exit(0)
+    try:
+        main(sys.argv[1] if len(sys.argv) > 1 else "sailing.stp", sys.argv[2] if len(sys.argv) > 2 else None)
+    except StepperError as err:  # a bad fault name or output path: one line, exit 2
+        print(f"prove_sailing: {err}", file=sys.stderr)
+        sys.exit(2)

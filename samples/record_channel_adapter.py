@@ -93,4 +93,7 @@ def main(path: str) -> None:
 
 
 if __name__ == "__main__":
+    if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
+        print(__doc__)
+        sys.exit(0)
     main(sys.argv[1] if len(sys.argv) > 1 else "deck-slots.stp")

@@ -76,4 +76,7 @@ def prove(path: str) -> None:
 
 
 if __name__ == "__main__":
+    if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
+        print(__doc__)
+        sys.exit(0)
     prove(sys.argv[1] if len(sys.argv) > 1 else "isle-of-quill-0740.stp")

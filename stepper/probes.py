@@ -21,12 +21,9 @@ Probes (name: what the faulty prover does):
 * ``point-count``: one evaluation point dropped (degree bound one too low),
   duplicated, or one too many sent (degree bound one too high);
 * ``negated``: the claim, the final value, one evaluation or every evaluation negated;
-* ``not-reduced``: a value computed as v + p in a 32- or 64-bit word that
-  wrapped, i.e. sent = (v + p) mod 2^w as integers, coefficient by coefficient.
-  A value v + p that did not wrap is >= p and cannot be in a canonical transcript:
-  the loader rejects it (naming the event) before any probe runs, so only the
-  wrapped form is observable here. It can occur only when p > 2^(w-1), e.g. Goldilocks with
-  w = 64; for 31-bit fields in 32-bit words the sum never wraps.
+* ``not-reduced``: sent = (v + p) mod 2^w for a 32- or 64-bit word, coefficient by
+  coefficient (an unwrapped v + p >= p is rejected by the loader before any probe
+  runs); possible only when p > 2^(w-1), e.g. Goldilocks with w = 64.
 
 Pure: no I/O; the only heavy work is re-folding the witness tables.
 """
@@ -75,7 +72,8 @@ class ProbeContext:
     ``sent_rounds`` every round's values as sent (bugs are compared in the form sent,
     so a compressed form's recovered value never hides or fakes a match);
     ``honest`` the honest evaluations 0..degree of the round (or the honest
-    claim / final value as a 1-tuple)."""
+    claim / final value as a 1-tuple). ``folded`` caches round ``round``'s starting
+    tables (folded by r_1..r_(k-1) in the declared order) for the probes of one run."""
 
     field: Field
     start: InstanceStart
@@ -87,6 +85,7 @@ class ProbeContext:
     sent: tuple[Element, ...]
     honest: tuple[Element, ...]
     sent_rounds: tuple[tuple[Element, ...], ...] = ()
+    folded: dict[int, dict[str, np.ndarray]] = dc_field(default_factory=dict, compare=False, repr=False)
 
 
 def first_difference(field: Field, a: Sequence[Element], b: Sequence[Element]) -> int | None:
@@ -143,13 +142,21 @@ def _tables_after(ctx: ProbeContext, challenges: Sequence[Element], order: str) 
     return dict(cur)
 
 
+def _tables_of_round(ctx: ProbeContext) -> dict[str, np.ndarray]:
+    """The tables an honest prover starts round ``ctx.round`` with, folded once per context."""
+    k = ctx.round
+    if k not in ctx.folded:
+        ctx.folded[k] = _tables_after(ctx, ctx.challenges[: k - 1], ctx.start.order)
+    return ctx.folded[k]
+
+
 # ----- the probes ---------------------------------------------------------------------------
 def probe_variable_order(ctx: ProbeContext) -> ProbeFinding | None:
     """Rounds 1..k-1 bound in the declared order, rounds k.. at the other end of the table."""
     if ctx.check != "honest-poly" or ctx.start.num_vars < 2:
         return None  # a final value at the other order's point is the reversed-point probe
     k = ctx.round
-    matched = _switched_rounds_matched(ctx, _tables_after(ctx, ctx.challenges[: k - 1], ctx.start.order), k)
+    matched = _switched_rounds_matched(ctx, _tables_of_round(ctx), k)
     return None if matched is None else _variable_order_finding(ctx, k, matched)
 
 
@@ -236,12 +243,12 @@ def probe_challenge_shift(ctx: ProbeContext) -> ProbeFinding | None:
     f = ctx.field
     k = ctx.round
     order = ctx.start.order
-    prefix = ctx.challenges[: k - 2]
+    before = _tables_after(ctx, ctx.challenges[: k - 2], order)
     found: list[ProbeFinding] = []
     for shift, used in ((+1, k), (-1, k - 2)):
         if not 1 <= used <= len(ctx.challenges):
             continue
-        tables = _tables_after(ctx, (*prefix, ctx.challenges[used - 1]), order)
+        tables = fold(f, before, ctx.challenges[used - 1], order)
         evals = honest_round(f, tables, ctx.expr, ctx.start.degree + 1, order)
         if _round_is(ctx, k, evals):
             found.append(ProbeFinding(
@@ -288,7 +295,7 @@ def probe_product_of_sums(ctx: ProbeContext) -> ProbeFinding | None:
             "product-of-sums", "the claimed sum equals the combine applied to each table's own sum "
             "(sum f * sum g instead of sum f*g)", {"value": f.fmt(value)})
     k = ctx.round
-    tables = _tables_after(ctx, ctx.challenges[: k - 1], ctx.start.order)
+    tables = _tables_of_round(ctx)
     points = ctx.start.degree + 1
     sums = table_round_sums(f, tables, names, points, ctx.start.order)
     evals = tuple(ctx.expr.evaluate_scalar(f, {n: s[t] for n, s in sums.items()}) for t in range(points))
@@ -394,10 +401,13 @@ PROBES: dict[str, Callable[[ProbeContext], ProbeFinding | None]] = {
 
 
 def run_probes(ctx: ProbeContext) -> tuple[ProbeFinding, ...]:
-    """Every probe that explains the evidence exactly, tagged with the instance and round;
-    when none does, the costlier search for a binding-order switch before the round."""
-    found_all = [probe(ctx) for probe in PROBES.values()]
-    if not any(found_all):
-        found_all.append(probe_earlier_order_switch(ctx))
+    """Every probe that explains the evidence exactly (in :data:`PROBES` order), tagged;
+    when none does, the costlier search for an earlier binding-order switch. challenge-shift
+    runs first so its folded tables are freed before the others share round k's tables."""
+    found = {name: PROBES[name](ctx) for name in sorted(PROBES, key=lambda name: name != "challenge-shift")}
+    ctx.folded.clear()
+    results = [found[name] for name in PROBES]
+    if not any(results):
+        results.append(probe_earlier_order_switch(ctx))
     return tuple(ProbeFinding(f.probe, f.message, f.evidence, ctx.start.index, ctx.round)
-                 for f in found_all if f is not None)
+                 for f in results if f is not None)

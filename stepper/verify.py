@@ -25,7 +25,7 @@ any failure, goes through ``feed``, so the report is exactly the same.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Callable, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Iterable
 
 from stepper.binding import Challenger
 from stepper.challenges import ChallengeSource
@@ -141,33 +141,36 @@ class Replay:
                     on_other(record)
             return
         round_cls, challenge_cls = RoundMsg, ChallengeMsg
-        held: RoundMsg | None = None  # a round waiting for its challenge to take the inline path
+        held: Any = None  # a round waiting for its challenge to take the inline path
+        live: Any  # the instance's _Live while the inline path applies, else None
         live, index, limit, p, squeeze = self._inline_setup()
-        evaluators: dict[int, Callable[[Sequence[int], int], int]] = {}
+        items: Iterable[Any] = records
+        last_n, evaluate = -1, round_evaluator(2, 0)  # g(r) for rounds of last_n values
         try:
-            for record in records:
+            for record in items:
                 cls = record.__class__
                 if cls is round_cls:
                     if held is None and live is not None and record.instance == index and live.pending is None:
-                        held = record  # type: ignore[assignment]
+                        held = record
                         continue
                 elif cls is challenge_cls and held is not None:
                     round_msg, held = held, None
                     values = round_msg.values
                     n = len(values)
-                    if (0 < n <= limit and record.instance == index  # type: ignore[union-attr]
-                            and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):  # type: ignore[union-attr]
-                        challenge = record.value  # type: ignore[union-attr]
+                    if (0 < n <= limit and record.instance == index
+                            and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):
+                        challenge = record.value
                         rederived = squeeze(values) if squeeze is not None else challenge
                         if rederived == challenge:
-                            evaluate = evaluators.get(n) or evaluators.setdefault(n, round_evaluator(p, n - 1))
-                            live.claim = evaluate(values, challenge)  # type: ignore[union-attr]
+                            if n != last_n:
+                                last_n, evaluate = n, round_evaluator(p, n - 1)
+                            live.claim = evaluate(values, challenge)
                             live.seen = k = round_msg.round
-                            if live.failure is None:  # type: ignore[union-attr]
-                                live.passed = k  # type: ignore[union-attr]
-                        else:  # the schedule has absorbed the round already: resolve with what it derived
-                            live.pending = (round_msg, values, None, None, None, None, None)  # type: ignore[union-attr]
-                            self._resolve_pending(record, rederived)  # type: ignore[arg-type]
+                            if live.failure is None:
+                                live.passed = k
+                        else:  # the schedule has absorbed the round: resolve with the challenge it derived
+                            live.pending = (round_msg, values, None, None, None, None, None)
+                            self._resolve_pending(record, rederived)
                         continue
                     feed(round_msg)
                 if held is not None:
@@ -178,6 +181,7 @@ class Replay:
                     if on_other is not None:
                         on_other(record)
                     live, index, limit, p, squeeze = self._inline_setup()
+                    last_n = -1
         finally:
             if held is not None:
                 feed(held)

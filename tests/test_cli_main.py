@@ -29,3 +29,12 @@ def test_unknown_flag_is_one_line_and_exit_2():
     proc = subprocess.run([sys.executable, "-m", "stepper", "--no-such-flag"], capture_output=True, text=True)
     assert proc.returncode == 2
     assert proc.stderr.strip().count("\n") == 0
+
+
+def test_an_unknown_flag_after_a_subcommand_names_that_subcommand(capsys):
+    try:
+        main(["info", "some.stp", "--no-such-flag"])
+    except SystemExit as stop:
+        assert stop.code == 2
+    err = capsys.readouterr().err
+    assert err == "stepper info: unrecognized arguments: --no-such-flag (see stepper info --help)\n"

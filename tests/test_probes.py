@@ -123,8 +123,7 @@ def test_first_difference_extends_the_shorter_polynomial_by_interpolation() -> N
 # the round the witness must blame first, and the probe that must name it. The expected rounds follow
 # from the sumcheck rules (common practice, no source): a wrong round K is the root cause at K, except
 # stale-challenge@K, which folds the tables after round K with r_(K-1), so round K + 1 is the first
-# wrong one. Fields: BabyBear p = 15 * 2^27 + 1 and Goldilocks p = 2^64 - 2^32 + 1 (from memory),
-# BN254 scalar field (stepper.field.NAMED_PRIMES).
+# wrong one. Fields, forms, orders and prover kinds vary so that each probe is met in several settings.
 REFERENCE_CASES = [
     # (fault, kind, field, form, order, root-cause round, probe)
     ("flip-order@1", "generic", "babybear^4", "evals", "low-first", 1, "variable-order"),

@@ -113,8 +113,10 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
     result = view.results[number - 1]
     mark = mark_of(view.status(number))
     lines.append(Line("round", f"{number} of {start.num_vars}   {mark.symbol} {mark.word}", mark.tone))
-    for i, value in enumerate(msg.values):
-        lines.append(Line(f"sent[{i}]", fmt(value), "muted"))
+    if start.form != "evals" or result is None:
+        # In the plain form the values sent are g(0), g(1), ... and are listed once below.
+        for i, value in enumerate(msg.values):
+            lines.append(Line(f"sent[{i}]", fmt(value), "muted"))
     if result is None:
         challenge = view.challenges[number - 1]
         lines.append(Line("challenge", fmt(challenge) if challenge is not None else "not sent yet", "wait"))

@@ -1,8 +1,9 @@
 """Seeking a value in a proof: which round mentions the number a person typed.
 
 Pure (no I/O, no Textual). A round mentions a value when it appears among what
-was sent (round values, challenge, final value), what the replay carried
-(claim in, g(r), a recovered value), or the instance's claimed sum (round 1).
+was sent (round values, challenge, final value), what the replay computed
+(claim in, decoded evaluations, g(0)+g(1), g(r), a recovered value, the
+re-derived challenge), or the instance's claimed sum (round 1).
 A typed number matches an element equal to it (decimal or ``0x`` hex; for an
 extension element, any coefficient equal to it); typed digits also match
 inside an element's decimal text; other text matches instance names.
@@ -47,7 +48,9 @@ def _mentions(model: ProofModel, field: Field, pos: Position, text: str, wanted:
         values.append(view.challenges[pos[1] - 1])
         result = view.results[pos[1] - 1]
         if result is not None:
-            values.extend([result.claim_in, result.claim_out, result.recovered_value])
+            values.extend([result.claim_in, result.claim_out, result.recovered_value, result.sum01,
+                           result.rederived])
+            values.extend(result.evals)
     if pos[1] == 1:
         values.append(view.start.claim)
     if pos[1] == len(view.rounds):

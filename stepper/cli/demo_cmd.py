@@ -40,6 +40,7 @@ def run(args: argparse.Namespace) -> int:
             os.makedirs(directory, exist_ok=True)
         except OSError as err:
             raise InputError(f"expected to create the folder {directory}, but {err.strerror.lower()}") from None
+        _refuse_to_overwrite(directory, EXAMPLES)
     else:
         directory = tempfile.mkdtemp(prefix="stepper-demo-")
     for example in EXAMPLES:
@@ -64,6 +65,19 @@ def run(args: argparse.Namespace) -> int:
     print(f"\nnext: stepper view {failing} --witness {witness}")
     print(f"      stepper buckets {honest}")
     return 0
+
+
+def _refuse_to_overwrite(directory: str, examples: Any) -> None:
+    """A folder that holds only demo outputs (an earlier demo run) is rewritten;
+    in any other folder an existing file with a demo output's name is refused."""
+    from stepper.errors import UsageError
+
+    ours = {f"{e.stem}{suffix}" for e in examples for suffix in (".stp", ".witness.json")}
+    present = set(os.listdir(directory))
+    clashes = sorted(present & ours)
+    if clashes and not present <= ours:
+        raise UsageError(f"expected --dir {directory} to be empty or an earlier demo folder, found other files "
+                         f"and {clashes[0]}, which the demo would overwrite")
 
 
 def _app_available() -> bool:

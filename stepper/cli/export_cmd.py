@@ -5,13 +5,16 @@ version, metadata) and then one JSON object per event, elements as JSON
 integers (decimal strings above 2^53) or lists of them for an extension
 field: the event-stream form of DESIGN.md, so ``stepper import`` turns it
 back into the same events. Appended notes are exported as ordinary notes.
-Streaming: the transcript is never held in memory.
+Streaming: the transcript is never held in memory. With ``-o OUT`` the lines
+go to a file beside OUT that replaces it only once the export succeeded, so an
+unusable FILE never costs an existing OUT its contents.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from itertools import chain
 from typing import IO
@@ -29,15 +32,24 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.errors import TranscriptError, Where
+    from stepper.errors import TranscriptError, UsageError, Where
 
     if args.output is None:
         return _export(args.file, sys.stdout)
+    if os.path.exists(args.output) and os.path.exists(args.file) and os.path.samefile(args.file, args.output):
+        raise UsageError("expected FILE and -o OUT to be different files, found the same file twice")
+    # written beside OUT and renamed at the end, so an unusable FILE leaves an existing OUT as it was
+    partial = f"{args.output}.partial-{os.getpid()}"
     try:
-        with open(args.output, "w", encoding="utf-8") as out:
-            return _export(args.file, out)
+        with open(partial, "w", encoding="utf-8") as out:
+            code = _export(args.file, out)
+        os.replace(partial, args.output)
     except OSError as err:
         raise TranscriptError(f"could not write the export: {err.strerror or err}", Where(file=args.output)) from None
+    finally:
+        if os.path.exists(partial):
+            os.unlink(partial)
+    return code
 
 
 def _export(path: str, out: IO[str]) -> int:

@@ -65,7 +65,10 @@ def _build_parser() -> tuple[_Parser, dict[str, object]]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser, modules = _build_parser()
-    args = parser.parse_args(argv)
+    args, unknown = parser.parse_known_args(argv)
+    if unknown:  # name the subcommand whose help lists the flags it takes
+        where = "stepper" if args.command is None else f"stepper {args.command}"
+        parser.exit(EXIT_INPUT, f"{where}: unrecognized arguments: {' '.join(unknown)} (see {where} --help)\n")
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT

@@ -38,6 +38,8 @@ def run(args: argparse.Namespace) -> int:
     text = args.text.strip()
     if not text:
         raise UsageError("expected a non-empty note TEXT, found only whitespace")
+    if args.round is not None and args.round < 0:
+        raise UsageError(f"expected --round to be 0 (the claim) or a round number 1, 2, ..., found {args.round}")
     transcript = load(args.file)
     instance = _instance_index(transcript, args.instance, args.round)
     append_note(args.file, Note(text, instance, args.round))

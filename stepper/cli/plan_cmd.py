@@ -53,7 +53,7 @@ def run(args: argparse.Namespace) -> int:
     mu = len(sigma).bit_length() - 1
     if args.num_vars is not None and args.num_vars != mu:
         raise UsageError(f"expected --num-vars {args.num_vars} to match the sigma file's 2^{mu} entries")
-    groups = _int_list(args.groups) if args.groups else None
+    groups = _int_list(args.groups) if args.groups is not None else None
     field = parse_field(args.field)
     inverse = np.empty_like(sigma)
     inverse[sigma] = np.arange(len(sigma))
@@ -106,9 +106,12 @@ def _int_list(text: str) -> list[int]:
     from stepper.errors import UsageError
 
     try:
-        return [int(part) for part in text.split(",") if part.strip()]
+        counts = [int(part) for part in text.split(",") if part.strip()]
     except ValueError:
-        raise UsageError(f"expected --groups as comma-separated integers, found {text!r}") from None
+        counts = []
+    if not counts:
+        raise UsageError(f"expected --groups as comma-separated integers, found {text!r}")
+    return counts
 
 
 def _load_sigma(path: str) -> Any:

@@ -9,9 +9,10 @@ multiplications. Heavy imports happen inside :func:`run`.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import os
-from typing import Any
+from typing import IO, Any, Iterator
 
 HELP = "run a reference prover (optionally with an injected bug) and write its transcript"
 DESCRIPTION = (
@@ -61,11 +62,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.errors import StepperError, UsageError
+    from stepper.errors import UsageError
+    from stepper.provers.channel import JsonLinesSink
     from stepper.provers.faults import parse_fault
     from stepper.provers.reference import ProveSpec, parse_field, prove
     from stepper.store import TranscriptWriter
 
+    _refuse_options_the_kind_ignores(args)
     field = parse_field(args.field)
     fault = parse_fault(args.fault, args.fault_instance) if args.fault else None
     if args.switch_round == "auto":
@@ -77,18 +80,17 @@ def run(args: argparse.Namespace) -> int:
     groups = args.groups if args.groups is not None else 2
     spec = ProveSpec(args.kind, args.num_vars, args.seed, groups, switch, fault, args.order, args.form,
                      args.combine, args.tamper, args.label)
-    try:
-        if args.output.endswith(".jsonl"):
-            proof = _prove_jsonl(args.output, spec, field)
-        else:
-            with TranscriptWriter(args.output, metadata=metadata(spec, args.field)) as writer:
-                proof = prove(spec, field, writer, witness=bool(args.witness_out))
-    except StepperError:
-        if os.path.exists(args.output):
-            os.unlink(args.output)  # a statement refused part-way leaves no half transcript behind
-        raise
+    if args.output.endswith(".jsonl"):
+        out = _create_text(args.output, "events")
+        with _removed_on_refusal(args.output), out:
+            proof = prove(spec, field, JsonLinesSink(out))
+    else:
+        writer = TranscriptWriter(args.output, metadata=metadata(spec, args.field))
+        with _removed_on_refusal(args.output), writer:
+            proof = prove(spec, field, writer, witness=bool(args.witness_out))
     if args.witness_out:
-        write_witness(args.witness_out, field, proof)
+        with _removed_on_refusal(args.output):  # an unwritable witness path leaves no orphan transcript
+            write_witness(args.witness_out, field, proof)
     summary = summarise(spec, args.field, proof)
     if args.json:
         print(json.dumps({"output": args.output, "witness": args.witness_out, **summary}, indent=2))
@@ -104,17 +106,47 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _prove_jsonl(path: str, spec: Any, field: Any) -> Any:
-    """The proof as a JSON-lines event stream (the format `stepper record` and `import` read)."""
+# option -> the kinds it applies to; giving it to another kind is a usage error, not silently ignored
+_OPTION_KINDS: dict[str, tuple[str, ...]] = {
+    "groups": ("perm-grouped", "ferries"),
+    "switch_round": ("perm-grouped", "ferries"),
+    "combine": ("generic", "zerocheck"),
+    "tamper": ("ferries",),
+}
+_OPTION_UNSET: dict[str, object] = {"groups": None, "switch_round": "auto", "combine": None, "tamper": None}
+
+
+def _refuse_options_the_kind_ignores(args: argparse.Namespace) -> None:
+    from stepper.errors import UsageError
+
+    for option, kinds in _OPTION_KINDS.items():
+        if args.kind not in kinds and getattr(args, option) != _OPTION_UNSET[option]:
+            flag = "--" + option.replace("_", "-")
+            raise UsageError(f"expected {flag} only with --kind {' or '.join(kinds)}, found it with --kind {args.kind}")
+
+
+def _create_text(path: str, what: str) -> IO[str]:
+    """Open ``path`` for writing; an OS refusal is an input error naming the path."""
     from stepper.errors import InputError
-    from stepper.provers.channel import JsonLinesSink
-    from stepper.provers.reference import prove
 
     try:
-        with open(path, "w", encoding="utf-8") as out:
-            return prove(spec, field, JsonLinesSink(out))
+        return open(path, "w", encoding="utf-8")
     except OSError as err:
-        raise InputError(f"expected to write the events to {path}, but {err.strerror.lower()}") from None
+        raise InputError(f"expected to write the {what} to {path}, but {(err.strerror or str(err)).lower()}") from None
+
+
+@contextlib.contextmanager
+def _removed_on_refusal(path: str) -> Iterator[None]:
+    """A statement refused part-way leaves no half-written output behind. Only
+    files this run created are removed: entered after the output was opened."""
+    from stepper.errors import StepperError
+
+    try:
+        yield
+    except StepperError:
+        if os.path.isfile(path):
+            os.unlink(path)
+        raise
 
 
 def metadata(spec: Any, field_text: str) -> dict[str, Any]:
@@ -154,13 +186,9 @@ def summarise(spec: Any, field_text: str, proof: Any) -> dict[str, Any]:
 
 
 def write_witness(path: str, field: Any, proof: Any) -> None:
-    from stepper.errors import InputError
     from stepper.provers.engine import witness_payload
 
-    try:
-        with open(path, "w", encoding="utf-8") as out:
-            json.dump(witness_payload(field, proof.witness), out, separators=(",", ":"))
-            out.write("\n")
-    except OSError as err:
-        raise InputError(f"expected to write the witness to {path}, but {err.strerror.lower()}") from None
+    with _create_text(path, "witness") as out:
+        json.dump(witness_payload(field, proof.witness), out, separators=(",", ":"))
+        out.write("\n")
 

@@ -65,16 +65,19 @@ def run(args: argparse.Namespace) -> int:
             open(events_path, "wb").close()
         except OSError as err:
             raise UsageError(f"expected a writable --events path, found {events_path}: {err.strerror}") from None
-        writer = TranscriptWriter(args.output, metadata=meta)
         splitter = LineSplitter(Where(file=events_path), 64 << 20)
         env = dict(os.environ, STEPPER_EVENTS=events_path)
-        try:
+        try:  # started before OUT is created, so a program that cannot start leaves an existing OUT alone
             child = subprocess.Popen(command, env=env)
         except OSError as err:
-            writer.close()
-            os.unlink(args.output)
             raise UsageError(f"expected a program to run, found {command[0]!r} cannot be started: "
                              f"{err.strerror or err}") from None
+        try:
+            writer = TranscriptWriter(args.output, metadata=meta)
+        except TranscriptError:
+            child.kill()
+            child.wait()
+            raise
         follower = _Follower(writer, splitter, events_path)
         try:
             returncode = follower.follow(child)

@@ -70,6 +70,9 @@ def _write_whole(path: Path, text: str) -> None:
         handle, temp = tempfile.mkstemp(prefix=".stepper-report-", dir=path.parent if str(path.parent) else ".")
         with os.fdopen(handle, "w", encoding="utf-8") as out:
             out.write(text)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(temp, 0o666 & ~umask)
         os.replace(temp, path)
     except OSError as err:
         raise InputError(f"could not write the report: {err.strerror or err}", Where(file=str(path))) from None

@@ -57,8 +57,8 @@ class ProveSpec:
             raise UsageError(f"expected a prover kind among {', '.join(KINDS)}, found {self.kind!r}")
         if not 1 <= self.num_vars <= 24:
             raise UsageError(f"expected --num-vars between 1 and 24, found {self.num_vars}")
-        if self.seed < 0:
-            raise UsageError(f"expected a non-negative --seed, found {self.seed}")
+        if not 0 <= self.seed < 1 << 63:
+            raise UsageError(f"expected a non-negative --seed below 2^63, found {self.seed}")
         fault = self.fault
         if fault is not None:
             count = self.instance_count
@@ -84,9 +84,9 @@ def parse_field(text: str) -> Field:
     from stepper.errors import FieldError
     from stepper.field import field_from_spec
 
-    name, _, degree = text.strip().partition("^")
+    name, caret, degree = text.strip().partition("^")
     spec: dict[str, object] = {"modulus": name} if name[:1].isdigit() else {"name": name}
-    if degree:
+    if caret:
         if not degree.isdigit():
             raise UsageError(f"expected --field NAME or NAME^K with K an integer, found {text!r}")
         spec["extension_degree"] = int(degree)

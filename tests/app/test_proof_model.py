@@ -79,6 +79,14 @@ def test_search_finds_a_challenge_by_its_decimal_value_and_by_hex():
     assert model.search("no such thing", (0, 1)) is None
 
 
+def test_search_finds_the_wrong_sum_a_failing_round_shows_in_its_table_row():
+    # A person copies g(0)+g(1) from the table of a failing round; that sum is computed by
+    # the replay, not sent, and must still lead back to its round.
+    model = model_of(brackwater_payloads(tamper=bump_g1("boarding-permutation-grouped", 2)))
+    wrong_sum = model.rows(1)[1].sum01
+    assert model.search(str(wrong_sum), (0, 1)) == (1, 2)
+
+
 def test_a_growing_stream_is_checked_as_it_arrives_and_the_report_does_not_stop_it():
     payloads = brackwater_payloads(instances=("boarding-permutation",))
     seq = Sequencer()

@@ -77,6 +77,7 @@ def test_an_event_file_cannot_take_a_note(tmp_path, capsys):
     (["-i", "ferry-manifest", "-k", "1", TEXT], "expected --instance to name an instance"),
     (["-i", "0", "-k", "9", TEXT], "expected a note's round among 0..3"),
     (["-i", "0", "   "], "expected a non-empty note TEXT"),
+    (["-i", "0", "-k", "-1", TEXT], "expected --round to be 0 (the claim) or a round number"),
 ])
 def test_bad_notes_are_refused_with_one_line_and_exit_2(run_file, capsys, argv, message):
     before = run_file.read_bytes()

@@ -136,3 +136,45 @@ def test_an_output_ending_in_jsonl_gets_the_event_stream_that_check_reads(tmp_pa
     assert json.loads(lines[1])["type"] == "schedule"
     capsys.readouterr()
     assert main(["check", str(out)]) == 0
+
+
+@pytest.mark.parametrize("flags, message", [
+    (["--seed", str(10**30)], "below 2^63"),  # too big for the header's metadata
+    (["--field", "babybear^"], "NAME^K"),
+    (["--kind", "generic", "--tamper", "double-scan"], "--tamper only with --kind ferries"),
+    (["--kind", "perm-direct", "--groups", "3"], "--groups only with"),
+    (["--kind", "generic", "--switch-round", "2"], "--switch-round only with"),
+    (["--kind", "ferries", "--combine", "a * b"], "--combine only with"),
+])
+def test_flags_the_kind_cannot_use_and_out_of_range_values_are_refused(flags, message, tmp_path, capsys):
+    code, out = _prove(tmp_path, *flags)
+    err = capsys.readouterr().err
+    assert code == 2 and message in err and err.count("\n") == 1
+    assert not out.exists()
+
+
+def test_an_output_or_witness_path_that_is_a_folder_is_exit_2_and_removes_nothing(tmp_path, capsys):
+    folder = tmp_path / "already-here"
+    folder.mkdir()
+    assert main(["prove", "--num-vars", "3", "-o", str(folder)]) == 2
+    assert main(["prove", "--num-vars", "3", "-o", str(tmp_path / "f.jsonl"), "--witness-out", str(folder)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 2 and "internal error" not in err
+    assert folder.is_dir()
+    assert not (tmp_path / "f.jsonl").exists()  # no transcript orphaned without its witness
+
+
+def test_plan_refuses_an_empty_group_list(capsys):
+    for groups in ("", ","):
+        assert main(["plan", "--num-vars", "4", "--groups", groups]) == 2
+    assert capsys.readouterr().err.count("expected --groups as comma-separated integers") == 2
+
+
+def test_demo_refuses_a_folder_whose_files_it_would_overwrite(tmp_path, capsys):
+    folder = tmp_path / "mine"
+    folder.mkdir()
+    (folder / "ledger.csv").write_text("booking ledger\n")
+    (folder / "ferries-honest.stp").write_bytes(b"my own transcript")
+    assert main(["demo", "--dir", str(folder), "--no-view"]) == 2
+    assert "ferries-honest.stp" in capsys.readouterr().err
+    assert (folder / "ferries-honest.stp").read_bytes() == b"my own transcript"
