@@ -21,7 +21,7 @@ default (human) output it must not grow with the number of instances. Times are
 CPU seconds (user + system; a child's from ``wait4``), which a shared machine
 disturbs far less than wall time; the check's wall time is printed beside it.
 
-    python3 bench/check.py                       # about a minute and a half
+    python3 bench/check.py                       # about a minute
     python3 bench/check.py --instances 2000 --repeat 1
 """
 

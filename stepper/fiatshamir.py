@@ -20,6 +20,10 @@ Rules kept here:
   reads L = ceil((bits(p) + 128) / 8) bytes from SHA-256 blocks of
   ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a little-endian integer
   and reduces it mod p (wide reduction: bias below 2^-128).
+
+``round_challenge`` / ``round_stepper`` do "observe a round, then challenge()" in
+one step with the frame heads and ``struct`` packers cached: the same bytes, for
+the replay's and provers' hot loops.
 """
 
 from __future__ import annotations

@@ -21,7 +21,10 @@ from typing import Any, Iterator
 
 from stepper.errors import TranscriptError, Where
 
-__all__ = ["LineSplitter", "JsonLine", "decode_line"]
+__all__ = ["LineSplitter", "JsonLine", "decode_line", "refuse_reserved"]
+
+# types of the transcript file itself: a prover's event stream may not carry them
+RESERVED_TYPES = frozenset({"end"})
 
 
 @dataclass(frozen=True, slots=True)
@@ -30,6 +33,15 @@ class JsonLine:
 
     line: int
     payload: Any
+
+
+def refuse_reserved(kind: object, where: Where) -> None:
+    """Refuse an event of a reserved type: the end event (with the digest) is
+    written only by the transcript writer when it seals the file; copied from a
+    stream it would make the file read as corrupt."""
+    if kind in RESERVED_TYPES:
+        raise TranscriptError(f"expected an event-stream type, found `{kind}`, which only the transcript writer "
+                              "writes when it seals the file", where)
 
 
 def decode_line(text: bytes, where: Where) -> Any:

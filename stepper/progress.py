@@ -4,15 +4,23 @@
 core (e.g. :func:`stepper.rootcause.diagnose`). It draws a bar only when stderr
 is a terminal (never into pipes, files or JSON consumers) and only after the work
 has run for ``delay`` seconds, so quick runs print nothing. ``rich`` comes with
-Textual and is imported lazily, only when a bar is drawn. Ctrl-C is not caught
-here: KeyboardInterrupt leaves the ``with`` block (the bar is removed) and reaches
-the CLI entry point, which prints one line and exits 130.
+Textual and is imported lazily, only when a bar is drawn.
+
+Ctrl-C is never swallowed. While the block runs in the main thread, a first
+Ctrl-C is held until the next callback (between rounds), which raises
+KeyboardInterrupt there: an interrupt delivered inside a compiled field kernel
+would otherwise surface as a SystemError from the kernel. If no callback comes,
+the interrupt is raised when the block ends; a second Ctrl-C interrupts at once.
+KeyboardInterrupt leaves the block (the bar is removed) and reaches the CLI entry
+point, which prints one line and exits 130.
 """
 
 from __future__ import annotations
 
 import os
+import signal
 import sys
+import threading
 import time
 from contextlib import contextmanager
 from typing import Any, Callable, Iterator, TextIO
@@ -33,10 +41,23 @@ def wants_bar(stream: TextIO | None = None) -> bool:
 
 @contextmanager
 def terminal_progress(label: str, *, delay: float = 0.5, stream: TextIO | None = None) -> Iterator[ProgressCallback]:
-    """A callback drawing ``label`` with a bar on a terminal stderr; a no-op elsewhere."""
-    if not wants_bar(stream):
-        yield _ignore
-        return
+    """A callback drawing ``label`` with a bar on a terminal stderr; a no-op elsewhere.
+    Either way the callback is where a held Ctrl-C is raised (see the module docstring)."""
+    with _held_interrupt() as check_interrupt:
+        if not wants_bar(stream):
+            yield lambda done, total: check_interrupt()
+            return
+        with _bar(label, delay, stream) as draw:
+
+            def update(done: int, total: int) -> None:
+                check_interrupt()
+                draw(done, total)
+
+            yield update
+
+
+@contextmanager
+def _bar(label: str, delay: float, stream: TextIO | None) -> Iterator[ProgressCallback]:
     started = time.monotonic()
     state: dict[str, Any] = {"bar": None, "task": None}
 
@@ -61,5 +82,27 @@ def terminal_progress(label: str, *, delay: float = 0.5, stream: TextIO | None =
             state["bar"].stop()
 
 
-def _ignore(done: int, total: int) -> None:
-    """The callback when no bar is drawn."""
+@contextmanager
+def _held_interrupt() -> Iterator[Callable[[], None]]:
+    """Hold a first SIGINT until the returned check is called (or the block ends)."""
+    if threading.current_thread() is not threading.main_thread() \
+            or signal.getsignal(signal.SIGINT) is not signal.default_int_handler:
+        yield lambda: None  # not ours to manage: a thread, or a caller with its own handler
+        return
+    pending: list[bool] = []
+
+    def hold(signum: int, frame: object) -> None:
+        if pending:
+            raise KeyboardInterrupt  # a second Ctrl-C: the person insists
+        pending.append(True)
+
+    def check() -> None:
+        if pending:
+            raise KeyboardInterrupt
+
+    signal.signal(signal.SIGINT, hold)
+    try:
+        yield check
+    finally:
+        signal.signal(signal.SIGINT, signal.default_int_handler)
+    check()

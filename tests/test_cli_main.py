@@ -38,3 +38,19 @@ def test_an_unknown_flag_after_a_subcommand_names_that_subcommand(capsys):
         assert stop.code == 2
     err = capsys.readouterr().err
     assert err == "stepper info: unrecognized arguments: --no-such-flag (see stepper info --help)\n"
+
+
+def test_ctrl_c_inside_a_compiled_kernel_is_an_interruption_not_an_internal_error(monkeypatch, capsys):
+    # A compiled kernel hit by SIGINT returns with the KeyboardInterrupt set, and CPython raises
+    # SystemError from it (its __cause__); that is the person's Ctrl-C, exit 130.
+    import stepper.cli.info_cmd as info_cmd
+
+    def run(args):
+        try:
+            raise KeyboardInterrupt
+        except KeyboardInterrupt as stop:
+            raise SystemError("kernel returned a result with an exception set") from stop
+
+    monkeypatch.setattr(info_cmd, "run", run)
+    assert main(["info", "some.stp"]) == 130
+    assert capsys.readouterr().err == "stepper info: interrupted\n"

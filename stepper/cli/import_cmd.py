@@ -13,8 +13,9 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+from itertools import chain
 
-from stepper.errors import TranscriptError, UsageError
+from stepper.errors import TranscriptError, UsageError, Where
 
 HELP = "convert a JSON-lines event file into a transcript (validated, sealed with a digest)"
 DESCRIPTION = (
@@ -31,7 +32,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from stepper.jsonl import refuse_reserved
     from stepper.store import TranscriptWriter, open_events
+    from stepper.transcript import UnknownEvent
 
     if os.path.exists(args.output) and os.path.samefile(args.events, args.output):
         raise UsageError("expected EVENTS and -o OUT to be different files, found the same file twice")
@@ -44,9 +47,9 @@ def run(args: argparse.Namespace) -> int:
             meta["label"] = args.label
         writer = TranscriptWriter(args.output, metadata=meta)
         try:
-            if first is not None:
-                writer.write(first)
-            for record in records:
+            for record in chain([] if first is None else [first], records):
+                if isinstance(record, UnknownEvent):
+                    refuse_reserved(record.kind, Where(file=args.events, event=writer.events))
                 writer.write(record)
         except TranscriptError as err:
             writer.close()

@@ -83,6 +83,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:
         return 0
     except Exception as err:  # a bug: one line plus a request, exit 70
+        if isinstance(err.__cause__, KeyboardInterrupt):  # Ctrl-C inside a compiled kernel
+            print(f"stepper {args.command}: interrupted", file=sys.stderr)
+            return EXIT_INTERRUPTED
         print(
             f"stepper {args.command}: internal error ({type(err).__name__}: {err}); "
             "please report it with the input that caused it",

@@ -138,6 +138,8 @@ class _Follower:
         return got
 
     def _take(self, lines: Any) -> None:
+        from stepper.jsonl import refuse_reserved
+
         try:
             for item in lines:
                 if self.first and item.line == 1 and isinstance(item.payload, dict) \
@@ -145,6 +147,8 @@ class _Follower:
                     continue  # an exported header line: its metadata is the prover's, the header is ours
                 self.first = False
                 try:
+                    if isinstance(item.payload, dict):
+                        refuse_reserved(item.payload.get("type"), Where(file=self.path))
                     self.writer.write_payload(item.payload)
                 except TranscriptError as err:
                     raise TranscriptError(err.message, err.where.but(line=item.line)) from None

@@ -131,6 +131,23 @@ def test_record_without_a_command_or_with_a_missing_program_is_exit_2(tmp_path):
     assert not (tmp_path / "x.stp").exists()
 
 
+def test_a_program_that_cannot_start_leaves_an_existing_transcript_alone(tmp_path, capsys):
+    kept = tmp_path / "yesterday.stp"
+    kept.write_bytes(b"yesterday's recorded rounds")
+    assert main(["record", "-o", str(kept), "--", str(tmp_path / "no-such-prover")]) == 2
+    assert "cannot be started" in capsys.readouterr().err
+    assert kept.read_bytes() == b"yesterday's recorded rounds"
+
+
+def test_an_output_that_is_a_folder_is_exit_2_and_the_prover_does_not_run_on(tmp_path, capsys):
+    marker = tmp_path / "ran-to-the-end"
+    code = main(["record", "-o", str(tmp_path), "--", sys.executable, "-c",
+                 f"import time, pathlib; time.sleep(1); pathlib.Path({str(marker)!r}).touch()"])
+    assert code == 2 and "could not create the transcript" in capsys.readouterr().err
+    time.sleep(1.5)
+    assert not marker.exists()
+
+
 def write_events(path: Path, lines: list[dict[str, object]], tail: str = "") -> Path:
     path.write_text("".join(json.dumps(line) + "\n" for line in lines) + tail)
     return path
@@ -268,3 +285,21 @@ def test_export_of_an_incomplete_transcript_prints_the_events_present_and_warns(
     assert proc.returncode == 0 and "incomplete" in proc.stderr
     lines = [json.loads(line) for line in proc.stdout.splitlines()]
     assert lines[-1] == {"type": "final", "value": 77}
+
+
+def test_an_end_event_inside_an_event_stream_is_refused_so_the_transcript_stays_readable(tmp_path, capsys):
+    # `end` is the transcript file's own sealing event (transcripts/FORMAT.md); copied
+    # from a stream it used to be written mid-file and the result read as corrupt.
+    events = write_events(tmp_path / "events.jsonl", [DECK_EVENTS[0], {"type": "end", "events": 1, "sha256": "00"},
+                                                     DECK_EVENTS[1]])
+    out = tmp_path / "out.stp"
+    assert main(["import", str(events), "-o", str(out)]) == 2
+    assert "found `end`" in capsys.readouterr().err
+    with open_events(out) as stream:
+        assert len(list(stream)) == 1
+    assert stream.completeness == "incomplete"
+    recorded = tmp_path / "recorded.stp"
+    assert main(["record", "-o", str(recorded), "--", sys.executable, "-c",
+                 f"import os; open(os.environ['STEPPER_EVENTS'], 'a').write(open({str(events)!r}).read())"]) == 2
+    assert "line 2" in capsys.readouterr().err
+    assert len(load(recorded).instances) == 0
