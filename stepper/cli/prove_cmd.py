@@ -43,7 +43,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--groups", type=int, default=None, metavar="L",
                         help="perm-grouped/ferries: number of bit groups L (default 2; ferries 0 = direct)")
     parser.add_argument("--switch-round", default="auto", metavar="K",
-                        help="perm-grouped: first round of the direct method in layer 2, 1..5, or auto "
+                        help="perm-grouped/ferries: first round of the direct method in layer 2, 1..5, or auto "
                              "(switch when buckets stop paying; default)")
     parser.add_argument("--seed", type=int, default=1, help="seed of the data (default 1)")
     fault_names = ", ".join(f"{n}@K" if takes else n for n, (takes, _) in FAULTS.items())
