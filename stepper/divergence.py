@@ -351,7 +351,7 @@ def _factor_from(field: Field, pair: InstancePair, start: int) -> Classification
     if count < 2 and name is None:
         return None
     named = f", which is {name}" if name else ""
-    span = "one element" if reach == start else f"{count} values in a row"
+    span = "one element" if count == 1 else f"{count} values" + (" in a row" if reach > start else "")
     if ratio == field.embed(-1):
         text = (f"B's values are A's negated (checked on {span}): a sign slip, one side subtracts where the "
                 "other adds.")

@@ -21,7 +21,7 @@ from typing import Any, Iterator
 
 from stepper.errors import TranscriptError, Where
 
-__all__ = ["LineSplitter", "JsonLine", "decode_line", "refuse_reserved"]
+__all__ = ["LineSplitter", "JsonLine", "decode_line", "refuse_reserved", "oversized_integer"]
 
 # types of the transcript file itself: a prover's event stream may not carry them
 RESERVED_TYPES = frozenset({"end"})
@@ -42,6 +42,12 @@ def refuse_reserved(kind: object, where: Where) -> None:
     if kind in RESERVED_TYPES:
         raise TranscriptError(f"expected an event-stream type, found `{kind}`, which only the transcript writer "
                               "writes when it seals the file", where)
+
+
+def oversized_integer(where: Where) -> TranscriptError:
+    """The error for a free-form integer (unknown event, extra key) that msgpack cannot store."""
+    return TranscriptError("expected free-form integers between -2^63 and 2^64 - 1 (what msgpack stores), found a "
+                           "larger one; send it as a decimal string", where)
 
 
 def decode_line(text: bytes, where: Where) -> Any:

@@ -22,8 +22,9 @@ import os
 from types import TracebackType
 from typing import Any, Callable, Iterable, Mapping, Sequence
 
-from stepper.errors import UsageError
+from stepper.errors import UsageError, Where
 from stepper.field import Field
+from stepper.jsonl import oversized_integer
 from stepper.store import TranscriptWriter
 from stepper.transcript import (
     BatchDecl,
@@ -85,7 +86,10 @@ class Recorder:
         return self._writer.awaiting_challenge
 
     def _write(self, payload: dict[str, Any]) -> Event:
-        return self._writer.write_payload(payload)
+        try:
+            return self._writer.write_payload(payload)
+        except OverflowError:  # a free-form integer (extra bucket key, schedule parameter) past msgpack's range
+            raise oversized_integer(Where(file=self.path, event=self.events - 1)) from None
 
     # ----- one method per event type -------------------------------------------------
     def field(self, field: Field | str | int, extension_degree: int = 1,

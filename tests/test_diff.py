@@ -8,6 +8,7 @@ are computed with Python's pow and sympy (a reference library), not by stepper.
 from __future__ import annotations
 
 import dataclasses
+import re
 
 import jsonschema
 import pytest
@@ -315,6 +316,8 @@ def test_the_montgomery_fault_is_named_by_each_fields_radix(field_name, bits):
     assert c.classification.kind == "constant-factor"
     assert c.classification.factor == field.fmt(field.embed(pow(2, bits, field.p)))  # R = 2^bits mod p by pow
     assert c.classification.factor_name == f"2^{bits} mod p (a Montgomery radix)"
+    # every value of the scaled round backs the ratio, and the sentence counts them
+    assert re.search(r"checked on [2-9] values\)", c.classification.explanation)
 
 
 def test_the_negated_claim_is_reported_as_a_sign_slip():

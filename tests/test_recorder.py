@@ -177,3 +177,13 @@ def test_records_returned_match_the_records_read_back(tmp_path):
     with open_events(path) as stream:
         read = list(stream)[1:]
     assert read == written
+
+
+def test_an_extra_integer_past_msgpack_range_is_a_transcript_error_not_an_overflow(tmp_path):
+    # msgpack integers stop at 2^64 (msgpack specification, "int format family")
+    path = tmp_path / "deck.stp"
+    with pytest.raises(TranscriptError, match="as a decimal string"):
+        with Recorder(path, field="babybear") as rec:
+            rec.instance("deck-slots-zero", 2, 2, 0)
+            rec.buckets(1, 0, 1, camera_frame=2**70)
+    assert len(load(path).instances) == 1

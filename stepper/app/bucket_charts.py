@@ -107,4 +107,5 @@ def size_distribution(stats: Sequence[BucketStats], width: int = 32, max_rows: i
         groups.append((f"{start}" if start == stop else f"{start}-{stop}", n))
     most = max(n for _, n in groups) or 1
     pad = max(len(label) for label, _ in groups)
-    return [ChartRow(f"{label:>{pad}} entries", bar(n / most, width), f"{n} buckets") for label, n in groups]
+    return [ChartRow(f"{label:>{pad}} {'entry' if label == '1' else 'entries'}", bar(n / most, width),
+                     f"{n} {'bucket' if n == 1 else 'buckets'}") for label, n in groups]

@@ -232,6 +232,7 @@ class ProofScreen(Screen[None]):
 
     def action_ask_note(self) -> None:
         if not self.model.instances:
+            self.say("no instance to attach a note to yet: a note belongs to a round of an instance")
             return
         instance, number = self.position
         self.app.push_screen(AskScreen(f"Note for instance {instance}, round {number}", "text saved in the file"),

@@ -2,9 +2,9 @@
 
 Writes every :data:`stepper.provers.catalogue.EXAMPLES` transcript and witness
 into a fresh folder (``--dir`` to choose it), says where, and opens the
-terminal app on a failing proof with its witness; ``--no-view`` prints the
-check of an honest and of the failing proof instead. :func:`write_example`
-is also what transcripts/regenerate.py uses.
+terminal app on a failing proof with its witness; ``--no-view`` (or input or
+output that is not a terminal) prints the check of an honest and of the failing
+proof instead. :func:`write_example` is also what transcripts/regenerate.py uses.
 """
 
 from __future__ import annotations
@@ -19,7 +19,8 @@ DESCRIPTION = (
     "is a permutation of the booking ledger and that every car-deck slot record is well formed. The demo "
     "writes honest, tampered and buggy proofs of one sailing to a fresh folder (printed), then opens the "
     "terminal app on a proof whose prover has a bug, with its witness for the root cause. --no-view prints "
-    "the checks instead. Accepted proofs are evidence about one run, not a soundness proof."
+    "the checks instead, as it does when input or output is not a terminal. Accepted proofs are evidence "
+    "about one run, not a soundness proof."
 )
 
 
@@ -50,12 +51,13 @@ def run(args: argparse.Namespace) -> int:
         print(f"  {example.stem}.stp  {example.shows}")
     failing = os.path.join(directory, f"{DEMO_FAILING}.stp")
     witness = os.path.join(directory, f"{DEMO_FAILING}.witness.json")
-    if not args.no_view and _app_available():
-        from stepper.cli.main import main
-
-        print(f"opening {failing} in the terminal app (quit the app to return)")
-        return main(["view", failing, "--witness", witness])
     from stepper.cli.main import main
+
+    if not args.no_view and _app_available():
+        if _on_a_terminal():
+            print(f"opening {failing} in the terminal app (quit the app to return)")
+            return main(["view", failing, "--witness", witness])
+        print("not on a terminal (input or output redirected): printing the checks instead of opening the app")
 
     honest = os.path.join(directory, f"{DEMO_HONEST}.stp")
     print(f"\n$ stepper check {honest}")
@@ -78,6 +80,13 @@ def _refuse_to_overwrite(directory: str, examples: Any) -> None:
     if clashes and not present <= ours:
         raise UsageError(f"expected --dir {directory} to be empty or an earlier demo folder, found other files "
                          f"and {clashes[0]}, which the demo would overwrite")
+
+
+def _on_a_terminal() -> bool:
+    """The app needs a terminal on both ends; piped or in CI it would hang drawing into a file."""
+    import sys
+
+    return sys.stdin.isatty() and sys.stdout.isatty()
 
 
 def _app_available() -> bool:

@@ -32,7 +32,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.jsonl import refuse_reserved
+    from stepper.jsonl import oversized_integer, refuse_reserved
     from stepper.store import TranscriptWriter, open_events
     from stepper.transcript import UnknownEvent
 
@@ -46,14 +46,19 @@ def run(args: argparse.Namespace) -> int:
         if args.label:
             meta["label"] = args.label
         writer = TranscriptWriter(args.output, metadata=meta)
+        written = 0  # counted here: the writer also counts an event its packing then refused
         try:
             for record in chain([] if first is None else [first], records):
                 if isinstance(record, UnknownEvent):
-                    refuse_reserved(record.kind, Where(file=args.events, event=writer.events))
-                writer.write(record)
+                    refuse_reserved(record.kind, Where(file=args.events, event=written))
+                try:
+                    writer.write(record)
+                except OverflowError:
+                    raise oversized_integer(Where(file=args.events, event=written)) from None
+                written += 1
         except TranscriptError as err:
             writer.close()
-            raise TranscriptError(f"{err.message}; {args.output} keeps the {writer.events} events before it, "
+            raise TranscriptError(f"{err.message}; {args.output} keeps the {written} events before it, "
                                   "marked incomplete", err.where) from None
         except BaseException:
             writer.close()

@@ -95,7 +95,7 @@ def run(args: argparse.Namespace) -> int:
     shown = _status_text(returncode)
     if problem is not None:
         raise TranscriptError(
-            f"{problem.message}; {args.output} keeps the {writer.events} events before it, marked incomplete "
+            f"{problem.message}; {args.output} keeps the {follower.written} events before it, marked incomplete "
             f"({' '.join(command[:1])} {shown})", problem.where)
     state = "complete" if sealed else "incomplete"
     dropped = f"; the partial last line (line {splitter.dropped}) was dropped" if splitter.dropped is not None else ""
@@ -113,6 +113,7 @@ class _Follower:
         self.path = path
         self.problem: TranscriptError | None = None
         self.first = True
+        self.written = 0  # counted here: the writer also counts an event its packing then refused
 
     def follow(self, child: subprocess.Popen[bytes]) -> int:
         with open(self.path, "rb") as source:
@@ -138,7 +139,7 @@ class _Follower:
         return got
 
     def _take(self, lines: Any) -> None:
-        from stepper.jsonl import refuse_reserved
+        from stepper.jsonl import oversized_integer, refuse_reserved
 
         try:
             for item in lines:
@@ -150,6 +151,9 @@ class _Follower:
                     if isinstance(item.payload, dict):
                         refuse_reserved(item.payload.get("type"), Where(file=self.path))
                     self.writer.write_payload(item.payload)
+                    self.written += 1
+                except OverflowError:
+                    raise oversized_integer(Where(file=self.path, line=item.line)) from None
                 except TranscriptError as err:
                     raise TranscriptError(err.message, err.where.but(line=item.line)) from None
         except TranscriptError as err:

@@ -43,9 +43,14 @@ def run(args: argparse.Namespace) -> int:
     if args.follow and not Path(args.file).exists():
         raise InputError(f"{args.file}: expected a file to follow, found none (start the prover first)")
 
+    import sys
+
     from stepper.app.app import StepperApp
 
     app = StepperApp.from_file(args.file, witness=args.witness, progressive=True, strict=True,
                                follow=args.follow, export_dir=exports, compare=args.compare)
+    if not (sys.stdin.isatty() and sys.stdout.isatty()):  # the app would draw into a pipe and wait forever
+        raise UsageError("expected a terminal on standard input and output, found a redirect or pipe "
+                         "(use `stepper check` for text output)")
     app.run()
     return EXIT_OK

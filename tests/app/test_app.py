@@ -187,3 +187,26 @@ async def test_clicking_an_instance_line_in_the_strip_opens_that_instance(honest
     async with app.run_test(size=SIZE) as pilot:
         await pilot.click("#strip", offset=(10, 3))  # the border's top line, then instances 0, 1, 2
         assert app.proof_screen.position == (2, 1)
+
+
+async def test_annotating_before_any_instance_says_why_nothing_was_saved(tmp_path):
+    events = tmp_path / "isle-of-quill-0740.jsonl"
+    events.write_text('{"type": "field", "name": "babybear"}\n', encoding="utf-8")
+    app = app_for(events, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("a")
+        assert not isinstance(app.screen, AskScreen)
+        assert app.proof_screen.last_message.startswith("no instance to attach a note to yet")
+    assert events.read_text(encoding="utf-8") == '{"type": "field", "name": "babybear"}\n'
+
+
+async def test_a_note_on_a_json_lines_file_is_refused_on_screen_and_the_file_is_untouched(tmp_path):
+    events = tmp_path / "isle-of-quill-0740.jsonl"
+    text = ('{"type": "field", "name": "babybear"}\n'
+            '{"type": "instance", "name": "boarding-permutation", "num_vars": 2, "degree": 2, "claim": 5}\n')
+    events.write_text(text, encoding="utf-8")
+    app = app_for(events, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("a", *"gate 3", "enter")
+        assert app.proof_screen.last_message.startswith("note not saved: ")
+    assert events.read_text(encoding="utf-8") == text

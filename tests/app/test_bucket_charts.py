@@ -34,8 +34,9 @@ def test_the_size_distribution_counts_buckets_per_size():
     stats = [BucketStats(0, 1, 0, 4, (1, 1, 2, 5)), BucketStats(0, 2, 0, 2, (2, 2))]
     rows = size_distribution(stats, 10)
     figures = {row.label.split()[0]: row.figure for row in rows}
-    assert figures["1"] == "2 buckets" and figures["2"] == "3 buckets" and figures["5"] == "1 buckets"
+    assert figures["1"] == "2 buckets" and figures["2"] == "3 buckets" and figures["5"] == "1 bucket"
     assert figures["3"] == "0 buckets"
+    assert [row.label.split()[1] for row in rows][:2] == ["entry", "entries"]
 
 
 def test_a_huge_bound_exponent_is_drawn_as_an_empty_bar_without_building_the_power():

@@ -95,3 +95,10 @@ def test_view_with_an_unreadable_witness_exits_2_with_one_line(tmp_path):
     assert proc.returncode == 2
     assert proc.stderr.startswith("stepper view: ") and proc.stderr.count("\n") == 1
     assert "witness.json" in proc.stderr
+
+
+def test_view_off_a_terminal_exits_2_with_one_line_instead_of_drawing_into_a_pipe(tmp_path):
+    path = write_transcript(tmp_path / "isle-of-quill-0740.stp", brackwater_payloads(instances=("deck-slots-zero",)))
+    proc = run_view(str(path))  # captured output: not a terminal
+    assert proc.returncode == 2
+    assert proc.stderr.startswith("stepper view: expected a terminal") and proc.stderr.count("\n") == 1

@@ -153,7 +153,7 @@ def test_flags_the_kind_cannot_use_and_out_of_range_values_are_refused(flags, me
     assert not out.exists()
 
 
-def test_an_output_or_witness_path_that_is_a_folder_is_exit_2_and_removes_nothing(tmp_path, capsys):
+def test_an_output_or_witness_path_that_is_a_folder_is_exit_2_and_leaves_the_folder_and_no_orphan(tmp_path, capsys):
     folder = tmp_path / "already-here"
     folder.mkdir()
     assert main(["prove", "--num-vars", "3", "-o", str(folder)]) == 2
@@ -178,3 +178,11 @@ def test_demo_refuses_a_folder_whose_files_it_would_overwrite(tmp_path, capsys):
     assert main(["demo", "--dir", str(folder), "--no-view"]) == 2
     assert "ferries-honest.stp" in capsys.readouterr().err
     assert (folder / "ferries-honest.stp").read_bytes() == b"my own transcript"
+
+
+def test_demo_off_a_terminal_prints_the_checks_instead_of_starting_the_app(tmp_path, capsys):
+    # under pytest neither standard input nor captured output is a terminal
+    assert main(["demo", "--dir", str(tmp_path / "d")]) == 0
+    out = capsys.readouterr().out
+    assert "not on a terminal" in out
+    assert "ACCEPTED" in out and "REJECTED" in out

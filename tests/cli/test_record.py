@@ -303,3 +303,20 @@ def test_an_end_event_inside_an_event_stream_is_refused_so_the_transcript_stays_
                  f"import os; open(os.environ['STEPPER_EVENTS'], 'a').write(open({str(events)!r}).read())"]) == 2
     assert "line 2" in capsys.readouterr().err
     assert len(load(recorded).instances) == 0
+
+
+def test_a_free_form_integer_msgpack_cannot_store_is_exit_2_and_keeps_the_events_before(tmp_path, capsys):
+    # msgpack integers stop at 2^64 (msgpack specification, "int format family"); an unknown
+    # event carrying a larger one used to end import and record with an internal error
+    events = write_events(tmp_path / "events.jsonl", [DECK_EVENTS[0], {"type": "deck-camera", "frame": 2**70}])
+    out = tmp_path / "out.stp"
+    assert main(["import", str(events), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "internal error" not in err and "as a decimal string" in err and "keeps the 1 events" in err
+    assert len(list(open_events(out))) == 1
+    recorded = tmp_path / "recorded.stp"
+    assert main(["record", "-o", str(recorded), "--", sys.executable, "-c",
+                 f"import os; open(os.environ['STEPPER_EVENTS'], 'a').write(open({str(events)!r}).read())"]) == 2
+    err = capsys.readouterr().err
+    assert "line 2" in err and "keeps the 1 events" in err
+    assert len(list(open_events(recorded))) == 1

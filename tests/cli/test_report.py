@@ -83,3 +83,16 @@ def test_a_witness_that_does_not_fit_is_exit_2_and_writes_nothing(failing, tmp_p
     assert main(["report", str(failing), "--witness", str(witness), "-o", str(out)]) == 2
     assert capsys.readouterr().err.count("\n") == 1
     assert not out.exists()
+
+
+def test_the_written_report_gets_ordinary_file_permissions_not_the_private_mode_of_a_temp_file(failing, tmp_path):
+    # The report is for sharing: the temporary file it is written through must not leave it 0600.
+    import os
+
+    umask = os.umask(0o022)
+    try:
+        out = tmp_path / "report.md"
+        assert main(["report", str(failing), "-o", str(out)]) == 0
+    finally:
+        os.umask(umask)
+    assert out.stat().st_mode & 0o777 == 0o644
