@@ -81,6 +81,7 @@ class Diagnosis:
     checked: tuple[str, ...]
     unchecked: tuple[str, ...]
     rounds_checked: int
+    by_position: tuple[tuple[str, str], ...] = ()  # (witness name, transcript name) matched by position
 
     def root_cause_json(self) -> dict[str, Any] | None:
         """The DESIGN.md ``root_cause`` object, plus where the verifier noticed."""
@@ -135,6 +136,9 @@ class Diagnosis:
                 lines.append("No known bug class (probes: variable order, reversed point, challenge shift, "
                              "Montgomery form, product of sums, point count, negation, reduction) reproduces "
                              "the sent values exactly.")
+        for wname, tname in self.by_position:
+            lines.append(f"Witness instance '{wname}' names no transcript instance; it was matched by position "
+                         f"to '{tname}': make sure that is the instance you meant.")
         if self.unchecked:
             names = ", ".join(f"'{n}'" for n in self.unchecked[:5])
             more = f" and {len(self.unchecked) - 5} more" if len(self.unchecked) > 5 else ""
@@ -161,8 +165,12 @@ class Diagnosis:
         if cause.check == "degree":
             return f"The prover first went wrong in {where}, round {cause.round}: the honest polynomial, but sent " \
                    f"with {found} values where the degree allows {exp}."
-        return f"The prover first went wrong in {where}, round {cause.round}: its round polynomial differs from " \
-               f"the honest one at point {cause.point} (honest g({cause.point}) = {exp}, sent {found})."
+        head = f"The prover first went wrong in {where}, round {cause.round}: its round polynomial differs from " \
+               f"the honest one at point {cause.point}"
+        if cause.point is not None and cause.point >= len(cause.sent):
+            return f"{head} (honest g({cause.point}) = {exp}; the sent polynomial, given by {len(cause.sent)} " \
+                   f"evaluation(s), extends to {found} there)."
+        return f"{head} (honest g({cause.point}) = {exp}, sent {found})."
 
     def _gap_sentences(self, cause: RootCause) -> list[str]:
         ff = self.first_failure
@@ -237,7 +245,10 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
             findings = run_probes(ctx) if ctx is not None else ()
             break
     unchecked = tuple(i.name for j, i in enumerate(transcript.instances) if j not in fitted)
-    return Diagnosis(field, cause, findings, report.first_failure, tuple(checked), unchecked, rounds_checked)
+    by_position = tuple((fit.witness_name, fit.name) for fit in fitted.values()
+                        if fit.witness_name and fit.witness_name != fit.name)
+    return Diagnosis(field, cause, findings, report.first_failure, tuple(checked), unchecked, rounds_checked,
+                     by_position)
 
 
 def _sent_polys(field: Field, inst: InstanceRecord) -> list[tuple[Element, ...]]:

@@ -72,6 +72,7 @@ class FittedInstance:
     name: str
     tables: Mapping[str, np.ndarray]
     combine: Expr
+    witness_name: str = ""  # the witness instance's own name (differs when matched by position)
 
 
 # ----- loading (I/O edge) --------------------------------------------------------------
@@ -279,7 +280,7 @@ def _fit_one(field: Field, inst: InstanceRecord, winst: WitnessInstance, where: 
                 f"expected table {tname!r} with 2^{start.num_vars} = {n} entries (num_vars {start.num_vars}), "
                 f"found {len(arr)}", where)
         tables[tname] = arr
-    return FittedInstance(start.index, start.name, tables, expr)
+    return FittedInstance(start.index, start.name, tables, expr, winst.name)
 
 
 def _to_field_array(field: Field, raw: RawTable, table: str, where: Where) -> np.ndarray:

@@ -124,7 +124,12 @@ def test_witness_instances_are_matched_by_name_before_position() -> None:
     only = Witness((WitnessInstance("deck-slots-zero", good, parse("a*b")),), "memory")
     assert diagnose(t1, only).root_cause is None
     by_position = Witness((WitnessInstance("renamed", good, parse("a*b")),), "memory")
-    assert diagnose(t1, by_position).root_cause is None
+    matched = diagnose(t1, by_position)
+    assert matched.root_cause is None
+    # a match by position is said out loud, since the names disagree
+    assert matched.by_position == (("renamed", "deck-slots-zero"),)
+    assert any("'renamed'" in line and "by position" in line for line in matched.explain())
+    assert diagnose(t1, only).by_position == ()
 
 
 def test_witness_that_does_not_fit_is_a_witness_error_naming_the_table_and_sizes() -> None:
@@ -229,3 +234,14 @@ def test_a_lie_seen_only_at_the_final_check_is_explained_by_why_the_sum_checks_h
     gap = diagnosis.explain()[1]
     assert "2 round(s) later" in gap and "only the final check" in gap
     assert ("recovered from the claim" in gap) == (form == "evals-no-1")
+
+
+def test_a_dropped_point_is_described_as_the_sent_polynomial_extended_not_as_a_sent_value() -> None:
+    # the differing point lies beyond the values sent, so no value was "sent" there
+    rng = np.random.default_rng(11)
+    tables = {n: GOLDILOCKS.vrandom(8, rng) for n in ("a", "b", "c")}
+    transcript, witness = prove(GOLDILOCKS, tables, "a*b*c", degree=3, fault=Fault("drop-point", 2))
+    diagnosis = diagnose(transcript, witness)
+    cause = diagnosis.root_cause
+    assert cause is not None and cause.point is not None and cause.point >= len(cause.sent)
+    assert "extends to" in diagnosis.explain()[0] and "sent " not in diagnosis.explain()[0].split("(")[-1]
