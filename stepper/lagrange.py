@@ -14,7 +14,7 @@ from functools import lru_cache
 from typing import TYPE_CHECKING, Callable, Sequence
 
 from stepper.errors import InputError, Where
-from stepper.poly import lagrange_at
+from stepper.poly import lagrange_at, lagrange_weights
 
 if TYPE_CHECKING:
     from stepper.field import Element, Field
@@ -24,17 +24,7 @@ __all__ = ["weights", "round_evaluator", "evaluate_round"]
 PrimeEvaluator = Callable[[Sequence[int], int], int]
 
 
-@lru_cache(maxsize=64)
-def weights(p: int, d: int) -> tuple[int, ...]:
-    """Barycentric weights 1 / prod_(j != i) (i - j) mod p for the nodes 0..d."""
-    out = []
-    for i in range(d + 1):
-        den = 1
-        for j in range(d + 1):
-            if j != i:
-                den = den * (i - j) % p
-        out.append(pow(den, -1, p))
-    return tuple(out)
+weights = lagrange_weights  # barycentric weights for the nodes 0..d, shared with stepper.poly
 
 
 @lru_cache(maxsize=64)

@@ -37,6 +37,7 @@ __all__ = [
     "Form",
     "Order",
     "RoundPoly",
+    "lagrange_weights",
     "lagrange_at",
     "interpolate",
     "coeffs_to_evals",
@@ -54,7 +55,7 @@ ORDERS: tuple[str, ...] = ("low-first", "high-first")
 
 
 @lru_cache(maxsize=256)
-def _lagrange_weights(p: int, d: int) -> tuple[int, ...]:
+def lagrange_weights(p: int, d: int) -> tuple[int, ...]:
     """w_i = 1 / prod_{j != i} (i - j) mod p for the nodes 0..d (needs d < p)."""
     weights = []
     for i in range(d + 1):
@@ -77,7 +78,7 @@ def lagrange_at(field: Field, evals: Sequence[Element], x: Element) -> Element:
         return field.lift(evals[field.lift(x)[0]])  # type: ignore[index]
     if d >= field.p:
         raise InputError(f"expected fewer than p = {field.p} evaluation points, found {d + 1}")
-    weights = _lagrange_weights(field.p, d)
+    weights = lagrange_weights(field.p, d)
     diffs = [field.sub(x, field.embed(j)) for j in range(d + 1)]
     prefix = [field.one] * (d + 2)
     for j in range(d + 1):
@@ -109,7 +110,7 @@ def interpolate(field: Field, evals: Sequence[Element]) -> tuple[Element, ...]:
     """Coefficients (constant first) of the polynomial through (i, evals[i]), i = 0..d."""
     d = len(evals) - 1
     coeffs: list[Element] = [field.zero] * (d + 1)
-    weights = _lagrange_weights(field.p, d) if d >= 0 else ()
+    weights = lagrange_weights(field.p, d) if d >= 0 else ()
     for i in range(d + 1):
         # basis_i(X) = w_i * prod_{j != i} (X - j): expand the product
         basis: list[Element] = [field.one]
