@@ -397,3 +397,34 @@ def test_bare_msgpack_ends_silently_on_a_cut_but_the_reader_reports_it(tmp_path)
     with open_events(tmp_path / "cut.stp") as stream:
         assert len(list(stream)) == 3
     assert stream.truncated_at == event_start
+
+
+def test_writer_refuses_an_end_event_and_stops_cleanly_after_an_unstorable_integer(tmp_path):
+    # an `end` event copied from elsewhere would make the file read as corrupt; a free-form
+    # integer beyond msgpack's range must not leave a wrong event count to be sealed
+    from stepper.errors import TranscriptError
+    from stepper.store import TranscriptWriter, open_events
+
+    path = tmp_path / "unstorable.stp"
+    writer = TranscriptWriter(path)
+    writer.write_payload({"type": "field", "name": "babybear"})
+    with pytest.raises(TranscriptError, match="`end`"):
+        writer.write_payload({"type": "end", "events": 1})
+    with pytest.raises(TranscriptError, match="msgpack"):
+        writer.write_payload({"type": "harbour-log", "tonnage": 2**70})
+    with pytest.raises(TranscriptError, match="could not be stored"):
+        writer.write_payload({"type": "note", "text": "after the failure"})
+    with pytest.raises(TranscriptError, match="unsealed"):
+        writer.finish()
+    with open_events(path) as events:
+        kinds = [type(e).__name__ for e in events]
+    assert kinds == ["FieldDecl"]
+    assert events.completeness == "incomplete"
+
+
+def test_writer_metadata_with_an_oversized_integer_is_an_input_error(tmp_path):
+    from stepper.errors import TranscriptError
+    from stepper.store import TranscriptWriter
+
+    with pytest.raises(TranscriptError, match="metadata"):
+        TranscriptWriter(tmp_path / "meta.stp", metadata={"tickets": 2**70})

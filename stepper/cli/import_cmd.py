@@ -58,7 +58,7 @@ def run(args: argparse.Namespace) -> int:
                 written += 1
         except TranscriptError as err:
             writer.close()
-            raise TranscriptError(f"{err.message}; {args.output} keeps the {written} events before it, "
+            raise TranscriptError(f"{err.message}; {args.output} keeps the {written} event{'' if written == 1 else 's'} before it, "
                                   "marked incomplete", err.where) from None
         except BaseException:
             writer.close()

@@ -95,7 +95,7 @@ def run(args: argparse.Namespace) -> int:
     shown = _status_text(returncode)
     if problem is not None:
         raise TranscriptError(
-            f"{problem.message}; {args.output} keeps the {follower.written} events before it, marked incomplete "
+            f"{problem.message}; {args.output} keeps the {follower.written} event{'' if follower.written == 1 else 's'} before it, marked incomplete "
             f"({' '.join(command[:1])} {shown})", problem.where)
     state = "complete" if sealed else "incomplete"
     dropped = f"; the partial last line (line {splitter.dropped}) was dropped" if splitter.dropped is not None else ""

@@ -63,10 +63,12 @@ class TranscriptWriter:
         self._hasher = hashlib.sha256()
         self._packer = msgpack.Packer(use_bin_type=True)
         self._finished = False
+        self._broken: str | None = None  # why the writer stopped accepting events, if it did
         try:
             head = header_bytes(meta, tool_version)
-        except (TypeError, ValueError) as err:
-            raise TranscriptError(f"expected metadata of strings, numbers, lists and maps, found {err}") from None
+        except (TypeError, ValueError, OverflowError) as err:
+            raise TranscriptError(f"expected metadata of strings, numbers (integers within -2^63 .. 2^64 - 1), "
+                                  f"lists and maps, found {err}", Where(file=self.path)) from None
         try:
             self._file: BinaryIO = open(self.path, "wb", buffering=0)
         except OSError as err:
@@ -107,15 +109,33 @@ class TranscriptWriter:
         the file's canonical binary form; returns the record."""
         if self._finished:
             raise TranscriptError("expected no events after finish(), found one", Where(file=self.path))
+        if self._broken is not None:
+            raise TranscriptError(self._broken, Where(file=self.path, event=self._seq.count))
+        if isinstance(payload, Mapping) and payload.get("type") == "end":
+            raise TranscriptError("expected an event type other than `end`, which only the writer writes when it "
+                                  "seals the file", Where(file=self.path, event=self._seq.count))
         record = self._seq.feed(payload)
         field = self._seq.field
-        self._emit(self._packer.pack(to_payload(record, field, binary=True, packed=True)))
+        try:
+            data = self._packer.pack(to_payload(record, field, binary=True, packed=True))
+        except (OverflowError, TypeError, ValueError) as err:
+            # the Sequencer has already counted this event: stop here, so a wrong count is never sealed
+            self._broken = (f"expected no more events after event {self._seq.count - 1}, which could not be stored "
+                            f"({err}); the file keeps the events before it and reads as incomplete")
+            raise TranscriptError(
+                "expected free-form integers between -2^63 and 2^64 - 1 (what msgpack stores), found a value "
+                f"msgpack cannot store ({err}); send it as a decimal string",
+                Where(file=self.path, event=self._seq.count - 1)) from None
+        self._emit(data)
         return record
 
     def finish(self) -> None:
         """Append the end event (event count and SHA-256 of every byte so far) and close."""
         if self._finished:
             return
+        if self._broken is not None:
+            self.close()
+            raise TranscriptError(f"the transcript was left unsealed: {self._broken}", Where(file=self.path))
         self._emit(self._packer.pack(end_payload(self._seq.count, self._hasher.digest())))
         self._finished = True
         self.close()
