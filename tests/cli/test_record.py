@@ -312,11 +312,11 @@ def test_a_free_form_integer_msgpack_cannot_store_is_exit_2_and_keeps_the_events
     out = tmp_path / "out.stp"
     assert main(["import", str(events), "-o", str(out)]) == 2
     err = capsys.readouterr().err
-    assert "internal error" not in err and "as a decimal string" in err and "keeps the 1 events" in err
+    assert "internal error" not in err and "as a decimal string" in err and "keeps the 1 event before it" in err
     assert len(list(open_events(out))) == 1
     recorded = tmp_path / "recorded.stp"
     assert main(["record", "-o", str(recorded), "--", sys.executable, "-c",
                  f"import os; open(os.environ['STEPPER_EVENTS'], 'a').write(open({str(events)!r}).read())"]) == 2
     err = capsys.readouterr().err
-    assert "line 2" in err and "keeps the 1 events" in err
+    assert "line 2" in err and "keeps the 1 event before it" in err
     assert len(list(open_events(recorded))) == 1
