@@ -15,7 +15,8 @@ and returns a :class:`Comparison`; no I/O. Invariants:
 * header metadata, notes, bucket statistics and unknown events are annotations,
   not the proof: they never make two transcripts differ (buckets earn a remark).
 
-The analysis of a divergence lives in :mod:`stepper.divergence`.
+The analysis of a divergence lives in :mod:`stepper.divergence`; the kinds, the
+caution and the JSON schema of the result in :mod:`stepper.diff_schema`.
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from stepper.diff_schema import CAUTION, JSON_SCHEMA, KINDS, SCHEMA_ID
 from stepper.errors import InputError
 from stepper.field import Element, Field
 from stepper.poly import RoundPoly, lagrange_at
@@ -45,29 +47,6 @@ __all__ = [
     "decoded_rounds",
     "value_label",
 ]
-
-SCHEMA_ID = "stepper-diff/1"
-
-# kind -> what it means (the JSON `classification.kind` is one of these keys)
-KINDS: dict[str, str] = {
-    "identical": "every compared element agrees",
-    "different-fields": "the two sides declare different fields",
-    "instance-order": "the same instances (or claims) stand in a different order",
-    "claim-order": "a batch combines the same claims in a different order",
-    "statement": "an instance's num_vars or degree differs",
-    "binding-order": "the sides bind the variables in opposite orders",
-    "encoding": "the same polynomials are sent in different forms or lengths",
-    "constant-factor": "one side's values are the other's times a constant (e.g. a Montgomery radix)",
-    "different-claim": "the claimed sums differ",
-    "round-shift": "one side has an extra or missing transcript step",
-    "challenges-reversed": "one side lists the challenges in reverse order",
-    "fiat-shamir-drift": "same polynomials, different challenges",
-    "prover-arithmetic": "different polynomial after identical challenges",
-    "final-value": "every round agrees but the final value differs",
-    "truncated": "one side stops early; everything both sides have agrees",
-    "extra-instance": "one side has an instance the other lacks",
-}
-
 
 @dataclass(frozen=True, slots=True)
 class Pairing:
@@ -142,12 +121,6 @@ class Classification:
     factor_name: str | None = None
     shift: int | None = None
     side: str | None = None
-
-
-CAUTION = (
-    "A diff compares two recorded runs; agreement is not evidence that either run, "
-    "or the protocol, is sound."
-)
 
 
 @dataclass(frozen=True, slots=True)
@@ -326,81 +299,3 @@ def value_label(form: str, j: int) -> str:
     if form == "coeffs":
         return f"c{j}"
     return "c0" if j == 0 else f"c{j + 1}"
-
-
-_NULLABLE_INT = {"type": ["integer", "null"]}
-_NULLABLE_TEXT = {"type": ["string", "null"]}
-
-# JSON Schema (draft 2020-12) of Comparison.to_json(); `stepper diff --schema` prints it.
-JSON_SCHEMA: dict[str, Any] = {
-    "$schema": "https://json-schema.org/draft/2020-12/schema",
-    "$id": SCHEMA_ID,
-    "title": "stepper diff result",
-    "type": "object",
-    "required": ["schema", "identical", "a", "b", "alignment", "first_divergence", "classification", "remarks",
-                 "caution"],
-    "additionalProperties": False,
-    "$defs": {
-        "side": {
-            "type": "object",
-            "required": ["file", "field", "completeness", "instances"],
-            "properties": {
-                "file": _NULLABLE_TEXT,
-                "field": {"type": "string"},
-                "completeness": {"enum": ["complete", "incomplete"]},
-                "instances": {"type": "integer", "minimum": 0},
-            },
-        },
-    },
-    "properties": {
-        "schema": {"const": SCHEMA_ID},
-        "identical": {"type": "boolean"},
-        "a": {"$ref": "#/$defs/side"},
-        "b": {"$ref": "#/$defs/side"},
-        "alignment": {
-            "type": "array",
-            "items": {
-                "type": "object",
-                "required": ["a", "b", "name", "by"],
-                "properties": {"a": _NULLABLE_INT, "b": _NULLABLE_INT, "name": {"type": "string"},
-                               "by": {"enum": ["name", "position"]}},
-            },
-        },
-        "first_divergence": {
-            "oneOf": [
-                {"type": "null"},
-                {
-                    "type": "object",
-                    "required": ["element", "instance_a", "instance_b", "instance_name", "round", "index", "detail",
-                                 "a", "b"],
-                    "properties": {
-                        "element": {"enum": ["field", "instance", "statement", "batch", "claim", "value",
-                                             "challenge", "final", "round"]},
-                        "instance_a": _NULLABLE_INT,
-                        "instance_b": _NULLABLE_INT,
-                        "instance_name": _NULLABLE_TEXT,
-                        "round": {"type": ["integer", "null"], "minimum": 0},
-                        "index": _NULLABLE_INT,
-                        "detail": _NULLABLE_TEXT,
-                        "a": _NULLABLE_TEXT,
-                        "b": _NULLABLE_TEXT,
-                    },
-                },
-            ]
-        },
-        "classification": {
-            "type": "object",
-            "required": ["kind", "explanation", "factor", "factor_name", "shift", "side"],
-            "properties": {
-                "kind": {"enum": list(KINDS)},
-                "explanation": {"type": "string"},
-                "factor": _NULLABLE_TEXT,
-                "factor_name": _NULLABLE_TEXT,
-                "shift": {"enum": [1, -1, None]},
-                "side": {"enum": ["a", "b", None]},
-            },
-        },
-        "remarks": {"type": "array", "items": {"type": "string"}},
-        "caution": {"type": "string"},
-    },
-}

@@ -14,7 +14,8 @@
 Replay goes on after a failure: later rounds are evaluated against the claim
 actually carried and marked ``after_failure``; ``first_failure`` is the first in
 stream order. Memory per instance is constant unless ``keep_rounds`` is set;
-``keep_instances`` caps the kept instance summaries (counts cover every instance).
+``keep_instances`` caps the kept instance summaries (counts cover every instance);
+that bookkeeping lives in :mod:`stepper.instance_ledger`.
 
 ``feed_all`` is the streaming fast path (``stepper check`` without ``--json``):
 a round and its challenge that pass in a prime field are settled inline (the
@@ -31,14 +32,12 @@ from stepper.binding import Challenger
 from stepper.challenges import ChallengeSource
 from stepper.errors import InputError, Where
 from stepper.lagrange import evaluate_round, round_evaluator
+from stepper.instance_ledger import InstanceLedger, LiveInstance, combine_batch
 from stepper.poly import RoundPoly
-from stepper.soundness import InstanceBound, SoundnessSummary
 from stepper.transcript import (
     BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, Transcript,
 )
-from stepper.verdict import (
-    BatchResult, Failure, FinalResult, Finding, InstanceSummary, Report, Result, RoundResult,
-)
+from stepper.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
 from stepper.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify_text import batch_text, final_text, round_text
 
@@ -51,25 +50,6 @@ __all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "F
 
 
 _UNKNOWN = object()  # marks "not re-derived yet" in Replay._resolve_pending
-
-
-class _Live:
-    """Mutable replay state of the current instance (private)."""
-
-    __slots__ = ("start", "claim", "pending", "seen", "passed", "failure", "final", "batch", "rounds")
-
-    def __init__(self, start: InstanceStart, keep: bool) -> None:
-        self.start = start
-        self.claim: Element = start.claim
-        # (round, evals, recovered, recovered_value, check, expected, found) of the round awaiting its challenge
-        self.pending: tuple[RoundMsg, tuple[Element, ...], str | None, Element | None, str | None, object,
-                            object] | None = None
-        self.seen = 0
-        self.passed = 0
-        self.failure: Failure | None = None
-        self.final: FinalResult | None = None
-        self.batch: BatchResult | None = None
-        self.rounds: list[RoundResult] | None = [] if keep else None
 
 
 class Replay:
@@ -90,15 +70,9 @@ class Replay:
         self.keep_instances = keep_instances
         self.challenger = challenger
         self._source = ChallengeSource(challenger, schedule, probe_instances)
-        self._live: _Live | None = None
+        self._live: LiveInstance | None = None
         self._pending_batch: BatchDecl | None = None
-        self._summaries: list[InstanceSummary] = []
-        self._kept_failures = 0
-        self._counts = {"pass": 0, "fail": 0, "incomplete": 0}
-        self._first: Failure | None = None
-        self._bounds: list[InstanceBound] = []  # of the kept instances only
-        self._rounds_degree = 0
-        self._instances_seen = 0
+        self._ledger = InstanceLedger(keep_instances)
         self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
                           InstanceStart: self._on_instance, FinalValue: self._on_final}
         self._finished = False
@@ -142,7 +116,7 @@ class Replay:
             return
         round_cls, challenge_cls = RoundMsg, ChallengeMsg
         held: Any = None  # a round waiting for its challenge to take the inline path
-        live: Any  # the instance's _Live while the inline path applies, else None
+        live: Any  # the instance's LiveInstance while the inline path applies, else None
         live, index, limit, p, squeeze = self._inline_setup()
         items: Iterable[Any] = records
         last_n, evaluate = -1, round_evaluator(2, 0)  # g(r) for rounds of last_n values
@@ -186,7 +160,7 @@ class Replay:
             if held is not None:
                 feed(held)
 
-    def _inline_setup(self) -> tuple[_Live | None, int, int, int, Callable[[tuple[int, ...]], int] | None]:
+    def _inline_setup(self) -> tuple[LiveInstance | None, int, int, int, Callable[[tuple[int, ...]], int] | None]:
         """What ``feed_all``'s inline path needs for the current instance, or ``live`` None when it
         does not apply: the instance index, the most values a round may carry, p, and the fused
         round-then-challenge step of the built-in schedule (None when nothing re-derives)."""
@@ -202,7 +176,7 @@ class Replay:
             raise InputError("expected a field event before the first instance, found none")
         return self.field
 
-    def _need_live(self, kind: str, instance: int) -> _Live:
+    def _need_live(self, kind: str, instance: int) -> LiveInstance:
         live = self._live
         if live is None or live.start.index != instance:
             raise InputError(f"expected a `{kind}` event inside the instance it names, found it outside",
@@ -217,24 +191,19 @@ class Replay:
         self._pending_batch = None
         self._source.start_instance(has_batch=batch is not None)
         self._source.observe(start)
-        live = _Live(start, self.keep_rounds)
+        live = LiveInstance(start, self.keep_rounds)
         self._live = live
-        self._instances_seen += 1
-        self._rounds_degree += start.num_vars * start.degree
+        self._ledger.opened(start)
         if batch is not None:
-            combined = field.zero
-            power = field.one
-            for term in batch.terms:
-                combined = field.add(combined, field.mul(power, field.lift(term)))
-                power = field.mul(power, batch.coefficient)
+            combined = combine_batch(field, batch)
             ok = combined == field.lift(start.claim)
             result = BatchResult(start.index, start.name, batch.coefficient, batch.terms, batch.sources, combined,
                                  start.claim, "pass" if ok else "fail", None if ok else "batch",
                                  batch_text(field, start, combined, ok))
             live.batch = result
             if not ok:
-                self._fail(live, Failure(start.index, start.name, 0, "batch", combined, start.claim,
-                                         result.explanation))
+                self._ledger.fail(live, Failure(start.index, start.name, 0, "batch", combined, start.claim,
+                                                result.explanation))
             out.append(result)
         return out
 
@@ -322,15 +291,16 @@ class Replay:
         result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
                                     challenge, rederived, claim_out, after)
         if check is not None:
-            self._fail(live, Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
-                                     result.explanation))
+            failure = Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
+                              result.explanation)
+            self._ledger.fail(live, failure)
         if claim_out is not None:
             live.claim = claim_out
         if live.rounds is not None:
             live.rounds.append(result)
         return [result]
 
-    def _round_result(self, live: _Live, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
+    def _round_result(self, live: LiveInstance, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
                       recovered_value: Element | None, check: str | None, expected: object, found: object,
                       challenge: Element | None, rederived: Element | None, claim_out: Element | None,
                       after: bool) -> RoundResult:
@@ -362,16 +332,10 @@ class Replay:
                              final_text(field, start, reduced, msg.value, ok))
         live.final = result
         if not ok:
-            self._fail(live, Failure(start.index, start.name, start.num_vars, "final", msg.value, reduced,
-                                     result.explanation))
+            self._ledger.fail(live, Failure(start.index, start.name, start.num_vars, "final", msg.value, reduced,
+                                            result.explanation))
         out.append(result)
         return out
-
-    def _fail(self, live: _Live, failure: Failure) -> None:
-        if live.failure is None:
-            live.failure = failure
-        if self._first is None:
-            self._first = failure
 
     # ----- closing ----------------------------------------------------------------
     def _close(self) -> list[Result]:
@@ -379,20 +343,7 @@ class Replay:
         if live is None:
             return []
         out = self._resolve_pending(None) if live.pending is not None else []
-        start = live.start
-        status = "fail" if live.failure else ("pass" if live.passed == start.num_vars else "incomplete")
-        self._counts[status] += 1
-        keep = self.keep_instances is None or len(self._summaries) < self.keep_instances
-        if not keep and status == "fail" and self._kept_failures < (self.keep_instances or 0):
-            keep = True
-        if keep:
-            self._bounds.append(InstanceBound(start.index, start.name, start.num_vars, start.degree,
-                                              self.field.order if self.field is not None else 0))
-            self._kept_failures += status == "fail"
-            self._summaries.append(InstanceSummary(
-                start.index, start.name, start.num_vars, start.degree, start.order, start.form, start.claim,
-                status, live.seen, live.passed, live.failure, live.final, live.batch,  # type: ignore[arg-type]
-                tuple(live.rounds or ())))
+        self._ledger.close(live, self.field)
         self._live = None
         return out
 
@@ -406,17 +357,10 @@ class Replay:
     def report(self, completeness: str = "complete") -> Report:
         """The verdict so far (finishes the replay); ``completeness`` is what the store says of the file."""
         self.finish()
-        if self._first is not None:
-            verdict = "reject"
-        elif completeness != "complete" or self._counts["incomplete"]:
-            verdict = "incomplete"
-        else:
-            verdict = "accept"
-        order = self.field.order if self.field is not None else 0
-        soundness = SoundnessSummary(order, self._rounds_degree, self._instances_seen, tuple(self._bounds))
-        return Report(self.field, verdict, self._first, tuple(self._summaries),  # type: ignore[arg-type]
-                      dict(self._counts), soundness, tuple(self._source.findings), self.challenges, completeness,
-                      PASSING_REPLAY_WARNING)
+        ledger = self._ledger
+        return Report(self.field, ledger.verdict(completeness), ledger.first,  # type: ignore[arg-type]
+                      tuple(ledger.summaries), dict(ledger.counts), ledger.soundness(self.field),
+                      tuple(self._source.findings), self.challenges, completeness, PASSING_REPLAY_WARNING)
 
 
 def transcript_events(transcript: Transcript) -> Iterable[Event]:

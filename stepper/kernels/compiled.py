@@ -30,7 +30,6 @@ __all__ = [
     "small_add",
     "small_sub",
     "gl_add",
-    "gl_sub",
     "gl_mul",
     "gl_ext_mul",
     "word_mul",
@@ -47,7 +46,7 @@ _GL_EPS = np.uint64(0xFFFFFFFF)  # 2^64 mod p
 
 
 @njit(cache=True, inline="always")
-def _mod_small(x, p, pinv):  # type: ignore[no-untyped-def]
+def _mod_small(x: np.uint64, p: np.uint64, pinv: float) -> np.uint64:
     """x mod p for a uint64 x < 2^40 p and p < 2^32 (pinv = 1.0 / p)."""
     q = np.uint64(np.float64(x) * pinv)
     r = np.int64(x - q * p)
@@ -60,7 +59,7 @@ def _mod_small(x, p, pinv):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_mul(a, b, p, pinv, out):  # type: ignore[no-untyped-def]
+def small_mul(a: np.ndarray, b: np.ndarray, p: np.uint64, pinv: float, out: np.ndarray) -> np.ndarray:
     """out = a * b mod p, entrywise, for p < 2^32."""
     ip = np.int64(p)
     for i in range(a.shape[0]):
@@ -76,7 +75,9 @@ def small_mul(a, b, p, pinv, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_ext_mul(a, b, xk, p, pinv, out):  # type: ignore[no-untyped-def]
+def small_ext_mul(
+    a: np.ndarray, b: np.ndarray, xk: np.ndarray, p: np.uint64, pinv: float, out: np.ndarray,
+) -> np.ndarray:
     """out = a * b in F_p[X]/(q), rows of k coefficients, p < 2^32;
     xk holds X^k mod q (= -q_0, ..., -q_(k-1))."""
     n, k = a.shape
@@ -103,7 +104,9 @@ def small_ext_mul(a, b, xk, p, pinv, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_binomial_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
+def small_binomial_mul(
+    a: np.ndarray, b: np.ndarray, w: np.uint64, p: np.uint64, pinv: float, out: np.ndarray,
+) -> np.ndarray:
     """out = a * b in F_p[X]/(X^k - w), rows of k coefficients, p < 2^32:
     c_t = sum_(j+m=t) a_j b_m + w * sum_(j+m=t+k) a_j b_m."""
     n, k = a.shape
@@ -121,7 +124,9 @@ def small_binomial_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_binomial4_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
+def small_binomial4_mul(
+    a: np.ndarray, b: np.ndarray, w: np.uint64, p: np.uint64, pinv: float, out: np.ndarray,
+) -> np.ndarray:
     """The k = 4 case of :func:`small_binomial_mul`, unrolled, for p < 2^31:
     four raw products sum below 4 (p - 1)^2 < 2^64, so each coefficient
     needs one reduction before and one after the multiplication by w."""
@@ -142,7 +147,9 @@ def small_binomial4_mul(a, b, w, p, pinv, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_ext4_mul(a, b, xk, p, pinv, out):  # type: ignore[no-untyped-def]
+def small_ext4_mul(
+    a: np.ndarray, b: np.ndarray, xk: np.ndarray, p: np.uint64, pinv: float, out: np.ndarray,
+) -> np.ndarray:
     """The k = 4 case of :func:`small_ext_mul`, unrolled, for p < 2^31 (raw
     sums of four products fit in 64 bits); X^6, X^5, X^4 are folded down in turn
     with X^4 = xk_0 + xk_1 X + xk_2 X^2 + xk_3 X^3."""
@@ -173,7 +180,7 @@ def small_ext4_mul(a, b, xk, p, pinv, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_add(a, b, p, out):  # type: ignore[no-untyped-def]
+def small_add(a: np.ndarray, b: np.ndarray, p: np.uint64, out: np.ndarray) -> np.ndarray:
     """out = a + b mod p, entrywise, for p < 2^63."""
     for i in range(a.shape[0]):
         s = a[i] + b[i]
@@ -182,7 +189,7 @@ def small_add(a, b, p, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def small_sub(a, b, p, out):  # type: ignore[no-untyped-def]
+def small_sub(a: np.ndarray, b: np.ndarray, p: np.uint64, out: np.ndarray) -> np.ndarray:
     """out = a - b mod p, entrywise, for p < 2^63."""
     for i in range(a.shape[0]):
         out[i] = a[i] - b[i] if a[i] >= b[i] else a[i] + (p - b[i])
@@ -190,7 +197,7 @@ def small_sub(a, b, p, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True, inline="always")
-def _gl_reduce128(lo, hi):  # type: ignore[no-untyped-def]
+def _gl_reduce128(lo: np.uint64, hi: np.uint64) -> np.uint64:
     hh = hi >> _S32
     hl = hi & _M32
     t = lo - hh
@@ -206,7 +213,7 @@ def _gl_reduce128(lo, hi):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True, inline="always")
-def _gl_mul1(a, b):  # type: ignore[no-untyped-def]
+def _gl_mul1(a: np.uint64, b: np.uint64) -> np.uint64:
     a0 = a & _M32
     a1 = a >> _S32
     b0 = b & _M32
@@ -222,7 +229,7 @@ def _gl_mul1(a, b):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True, inline="always")
-def _gl_add1(a, b):  # type: ignore[no-untyped-def]
+def _gl_add1(a: np.uint64, b: np.uint64) -> np.uint64:
     s = a + b
     if s < a:
         s += _GL_EPS
@@ -231,37 +238,22 @@ def _gl_add1(a, b):  # type: ignore[no-untyped-def]
     return s
 
 
-@njit(cache=True, inline="always")
-def _gl_sub1(a, b):  # type: ignore[no-untyped-def]
-    d = a - b
-    if a < b:
-        d += _GL_P
-    return d
-
-
 @njit(cache=True)
-def gl_add(a, b, out):  # type: ignore[no-untyped-def]
+def gl_add(a: np.ndarray, b: np.ndarray, out: np.ndarray) -> np.ndarray:
     for i in range(a.shape[0]):
         out[i] = _gl_add1(a[i], b[i])
     return out
 
 
 @njit(cache=True)
-def gl_sub(a, b, out):  # type: ignore[no-untyped-def]
-    for i in range(a.shape[0]):
-        out[i] = _gl_sub1(a[i], b[i])
-    return out
-
-
-@njit(cache=True)
-def gl_mul(a, b, out):  # type: ignore[no-untyped-def]
+def gl_mul(a: np.ndarray, b: np.ndarray, out: np.ndarray) -> np.ndarray:
     for i in range(a.shape[0]):
         out[i] = _gl_mul1(a[i], b[i])
     return out
 
 
 @njit(cache=True)
-def gl_ext_mul(a, b, xk, out):  # type: ignore[no-untyped-def]
+def gl_ext_mul(a: np.ndarray, b: np.ndarray, xk: np.ndarray, out: np.ndarray) -> np.ndarray:
     """out = a * b in F_p[X]/(q) over Goldilocks; xk holds X^k mod q."""
     n, k = a.shape
     prod = np.zeros(2 * k - 1, dtype=np.uint64)
@@ -283,7 +275,7 @@ def gl_ext_mul(a, b, xk, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True, inline="always")
-def _mul128(a, b):  # type: ignore[no-untyped-def]
+def _mul128(a: np.uint64, b: np.uint64) -> tuple[np.uint64, np.uint64]:
     """The 128-bit product a * b as (high, low) 64-bit words."""
     a0 = a & _M32
     a1 = a >> _S32
@@ -299,7 +291,7 @@ def _mul128(a, b):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True, inline="always")
-def _redc(hi, lo, p, pneg_inv):  # type: ignore[no-untyped-def]
+def _redc(hi: np.uint64, lo: np.uint64, p: np.uint64, pneg_inv: np.uint64) -> np.uint64:
     """(hi 2^64 + lo) / 2^64 mod p for hi < p: Montgomery's reduction."""
     m = lo * pneg_inv  # wraps mod 2^64: m = -lo / p mod 2^64
     mp_hi, mp_lo = _mul128(m, p)
@@ -314,7 +306,9 @@ def _redc(hi, lo, p, pneg_inv):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def word_mul(a, b, p, pneg_inv, r2, out):  # type: ignore[no-untyped-def]
+def word_mul(
+    a: np.ndarray, b: np.ndarray, p: np.uint64, pneg_inv: np.uint64, r2: np.uint64, out: np.ndarray,
+) -> np.ndarray:
     """out = a * b mod p for an odd prime p < 2^64 (pneg_inv = -1/p mod 2^64, r2 = 2^128 mod p)."""
     for i in range(a.shape[0]):
         hi, lo = _mul128(a[i], b[i])
@@ -325,7 +319,7 @@ def word_mul(a, b, p, pneg_inv, r2, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def word_add(a, b, p, out):  # type: ignore[no-untyped-def]
+def word_add(a: np.ndarray, b: np.ndarray, p: np.uint64, out: np.ndarray) -> np.ndarray:
     """out = a + b mod p for p < 2^64 (the sum may wrap past 2^64)."""
     for i in range(a.shape[0]):
         s = a[i] + b[i]
@@ -334,8 +328,8 @@ def word_add(a, b, p, out):  # type: ignore[no-untyped-def]
 
 
 @njit(cache=True)
-def word_sub(a, b, p, out):  # type: ignore[no-untyped-def]
-    """out = a - b mod p for p < 2^64."""
+def word_sub(a: np.ndarray, b: np.ndarray, p: np.uint64, out: np.ndarray) -> np.ndarray:
+    """out = a - b mod p for p < 2^64 (Goldilocks included)."""
     for i in range(a.shape[0]):
         d = a[i] - b[i]
         out[i] = d + p if a[i] < b[i] else d

@@ -10,6 +10,10 @@
 * :class:`ObjectKernel` for primes above 2^64: numpy object arrays of Python
   ints (exact for any size, about a microsecond per operation).
 
+The three uint64 kernels share :class:`Uint64Kernel` (checked arrays, lists,
+random draws); the two for p > 2^32 share :class:`WideKernel` (subtraction,
+negation and the limb-wise sum, which do not depend on the shape of p).
+
 Additions avoid ``%``: for uint64 entries and p < 2^63, a + b - p wraps
 around when a + b < p, so min(a + b, a + b - p) is the canonical sum.
 """
@@ -26,7 +30,8 @@ from stepper.kernels.base import COMPILED_MIN, Kernel
 if TYPE_CHECKING:
     from stepper.field import Element, Field
 
-__all__ = ["SmallPrimeKernel", "GoldilocksKernel", "Word64Kernel", "ObjectKernel", "GOLDILOCKS", "as_uint64"]
+__all__ = ["Uint64Kernel", "WideKernel", "SmallPrimeKernel", "GoldilocksKernel", "Word64Kernel", "ObjectKernel",
+           "GOLDILOCKS", "as_uint64"]
 
 GOLDILOCKS = 2**64 - 2**32 + 1
 
@@ -88,13 +93,14 @@ def _pair(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, tuple[i
     return flat_a, flat_b, shape
 
 
-class SmallPrimeKernel(Kernel):
+class Uint64Kernel(Kernel):
+    """What every prime below 2^64 shares: uint64 entries, checked arrays, lists, random draws."""
+
     dtype = np.uint64
 
     def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
         super().__init__(field, compiled_min)
         self.p64 = np.uint64(field.p)
-        self.pinv = 1.0 / field.p
 
     def array(self, values: Any) -> np.ndarray:
         return as_uint64(values, self.p).reshape(-1)
@@ -104,6 +110,36 @@ class SmallPrimeKernel(Kernel):
 
     def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
         return rng.integers(0, self.p, size=n, dtype=np.uint64)
+
+
+class WideKernel(Uint64Kernel):
+    """What the primes 2^32 < p < 2^64 share: subtraction, negation and the limb-wise
+    sum (a sum of entries may pass 2^64); multiplication depends on the shape of p."""
+
+    def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        compiled = self._use_compiled(a, b)
+        if compiled is not None:
+            fa, fb, shape = _pair(a, b)
+            return compiled.word_sub(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
+        d = np.subtract(a, b, dtype=np.uint64, casting="unsafe")
+        return np.where(np.less(a, b), d + self.p64, d)
+
+    def neg(self, a: np.ndarray) -> np.ndarray:
+        return np.where(a == 0, a, self.p64 - a)
+
+    def sum(self, a: np.ndarray) -> Element:
+        total = 0
+        for start in range(0, len(a), 1 << 31):  # limb sums of 2^31 entries stay below 2^63
+            chunk = a[start : start + (1 << 31)]
+            total += int(np.sum(chunk & np.uint64(0xFFFFFFFF), dtype=np.uint64))
+            total += int(np.sum(chunk >> np.uint64(32), dtype=np.uint64)) << 32
+        return total % self.p
+
+
+class SmallPrimeKernel(Uint64Kernel):
+    def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
+        super().__init__(field, compiled_min)
+        self.pinv = 1.0 / field.p
 
     def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         compiled = self._use_compiled(a, b)
@@ -142,22 +178,7 @@ class SmallPrimeKernel(Kernel):
         return total % self.p
 
 
-class GoldilocksKernel(Kernel):
-    dtype = np.uint64
-
-    def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
-        super().__init__(field, compiled_min)
-        self.p64 = np.uint64(field.p)
-
-    def array(self, values: Any) -> np.ndarray:
-        return as_uint64(values, self.p).reshape(-1)
-
-    def to_list(self, a: np.ndarray) -> list[Element]:
-        return a.tolist()  # type: ignore[no-any-return]
-
-    def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
-        return rng.integers(0, self.p, size=n, dtype=np.uint64)
-
+class GoldilocksKernel(WideKernel):
     def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         compiled = self._use_compiled(a, b)
         if compiled is not None:
@@ -167,17 +188,6 @@ class GoldilocksKernel(Kernel):
         carry = s < a
         s = s + carry.astype(np.uint64) * np.uint64(0xFFFFFFFF)  # 2^64 = 2^32 - 1 (mod p)
         return np.where(s >= self.p64, s - self.p64, s)
-
-    def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        compiled = self._use_compiled(a, b)
-        if compiled is not None:
-            fa, fb, shape = _pair(a, b)
-            return compiled.gl_sub(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        d = np.subtract(a, b, dtype=np.uint64, casting="unsafe")
-        return np.where(np.less(a, b), d + self.p64, d)
-
-    def neg(self, a: np.ndarray) -> np.ndarray:
-        return np.where(a == 0, a, self.p64 - a)
 
     def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         compiled = self._use_compiled(a, b)
@@ -209,36 +219,16 @@ class GoldilocksKernel(Kernel):
         r = np.where(r < t, r + m32, r)
         return np.where(r >= self.p64, r - self.p64, r)
 
-    def sum(self, a: np.ndarray) -> Element:
-        total = 0
-        for start in range(0, len(a), 1 << 31):  # limb sums of 2^31 entries stay below 2^63
-            chunk = a[start : start + (1 << 31)]
-            total += int(np.sum(chunk & np.uint64(0xFFFFFFFF), dtype=np.uint64))
-            total += int(np.sum(chunk >> np.uint64(32), dtype=np.uint64)) << 32
-        return total % self.p
 
-
-class Word64Kernel(Kernel):
+class Word64Kernel(WideKernel):
     """Any other prime 2^32 < p < 2^64: uint64 entries. Small arrays multiply
     through Python ints (exact, about 0.3 us per entry); large ones through the
     compiled Montgomery loop. Sums may pass 2^64, so additions watch the carry."""
 
-    dtype = np.uint64
-
     def __init__(self, field: Field, compiled_min: int = COMPILED_MIN) -> None:
         super().__init__(field, compiled_min)
-        self.p64 = np.uint64(field.p)
         self.pneg_inv = np.uint64((-pow(field.p, -1, 2**64)) % 2**64)
         self.r2 = np.uint64(2**128 % field.p)
-
-    def array(self, values: Any) -> np.ndarray:
-        return as_uint64(values, self.p).reshape(-1)
-
-    def to_list(self, a: np.ndarray) -> list[Element]:
-        return a.tolist()  # type: ignore[no-any-return]
-
-    def random(self, n: int, rng: np.random.Generator) -> np.ndarray:
-        return rng.integers(0, self.p, size=n, dtype=np.uint64)
 
     def add(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         compiled = self._use_compiled(a, b)
@@ -247,17 +237,6 @@ class Word64Kernel(Kernel):
             return compiled.word_add(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
         s = np.add(a, b, dtype=np.uint64, casting="unsafe")  # wraps mod 2^64 when a + b >= 2^64
         return np.where((s < a) | (s >= self.p64), s - self.p64, s)
-
-    def sub(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        compiled = self._use_compiled(a, b)
-        if compiled is not None:
-            fa, fb, shape = _pair(a, b)
-            return compiled.word_sub(fa, fb, self.p64, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
-        d = np.subtract(a, b, dtype=np.uint64, casting="unsafe")
-        return np.where(np.less(a, b), d + self.p64, d)
-
-    def neg(self, a: np.ndarray) -> np.ndarray:
-        return np.where(a == 0, a, self.p64 - a)
 
     def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         compiled = self._use_compiled(a, b)
@@ -268,14 +247,6 @@ class Word64Kernel(Kernel):
             return out.reshape(shape)
         prod = np.multiply(np.asarray(a).astype(object), np.asarray(b).astype(object)) % self.p
         return np.asarray(prod, dtype=object).astype(np.uint64)
-
-    def sum(self, a: np.ndarray) -> Element:
-        total = 0
-        for start in range(0, len(a), 1 << 31):  # limb sums of 2^31 entries stay below 2^63
-            chunk = a[start : start + (1 << 31)]
-            total += int(np.sum(chunk & np.uint64(0xFFFFFFFF), dtype=np.uint64))
-            total += int(np.sum(chunk >> np.uint64(32), dtype=np.uint64)) << 32
-        return total % self.p
 
 
 class ObjectKernel(Kernel):
