@@ -19,7 +19,7 @@ Caps keep a hostile input from costing unbounded memory.
 from __future__ import annotations
 
 import struct
-from typing import Any, Iterable, Iterator, Mapping
+from typing import Any, Callable, Iterable, Iterator, Mapping
 
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field import Element, Field, field_from_spec
@@ -71,6 +71,7 @@ class Sequencer:
         self._elem_bytes = 0
         self._prime_modulus = 0  # p for a prime field, 0 for an extension
         self._runs: dict[int, Any] | None = None  # struct unpackers by run size (prime fields of 4/8 bytes)
+        self._high_ones: bytes | None = None  # see _on_field
         self._num_vars = 0  # of the current instance (0 before any)
         self._index = -1
         self.stopped_at: UnknownEvent | None = None  # see stream()
@@ -101,81 +102,109 @@ class Sequencer:
         finally:
             self.count += 1
 
-    def stream(self, payloads: Iterable[Any], until: str | None = None) -> Iterator[Event]:
+    def stream(self, payloads: Iterable[Any], until: str | None = None, *,
+               refill: Callable[[], bool] | None = None,
+               on_error: Callable[[Exception], Exception] | None = None) -> Iterator[Event]:
         """The records of many payloads, exactly as :meth:`feed` on each would give,
         but with the bulk of a transcript (rounds and challenges whose elements are
         packed, canonical bytes) handled inline: this is the reader's hot loop.
         Anything unusual (another type, a JSON list, a bad size or value) falls
         through to :meth:`feed`, which judges it and names any problem.
-        Stops after an unknown event of type ``until`` (kept in ``stopped_at``)."""
+        Stops after an unknown event of type ``until`` (kept in ``stopped_at``).
+
+        ``refill``, when given, is called each time ``payloads`` runs dry; while it
+        returns True, iteration of ``payloads`` resumes (a msgpack ``Unpacker`` fed
+        another chunk). ``on_error`` maps an exception escaping the loop (a failing
+        payload source, a :class:`TranscriptError`) to the one raised instead (itself
+        to re-raise it unchanged). With
+        both, a reader needs no generator of its own around this one, which saves a
+        frame switch per event."""
         self.stopped_at = None
-        waiting, done, count = self.awaiting_challenge, self.rounds_done, self.count
+        # The count is not kept per event: fast events are only rounds and challenges, which
+        # alternate, so since the last sync there were 2 * rounds + (waiting then - waiting now).
+        waiting, done = self.awaiting_challenge, self.rounds_done
+        base_count, base_done, base_waiting = self.count, done, waiting
         num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
-        width, runs = self._elem_bytes, self._runs
+        width, runs, high_ones = self._elem_bytes, self._runs, self._high_ones
         run_size, run_unpack = -1, None  # the last packed-run size seen and its struct unpacker
         from_bytes = int.from_bytes
         round_cls, challenge_cls = RoundMsg, ChallengeMsg
         try:
-            for payload in payloads:
-                try:  # the fast path; a KeyError, TypeError or ValueError just means "not fast"
-                    kind = payload["type"]
-                    if kind == "challenge":
-                        if waiting:
-                            raw = payload["value"]
-                            if raw.__class__ is bytes and len(raw) == width:
-                                if prime:
-                                    value = from_bytes(raw, "little")
-                                    ok = value < prime
-                                else:
-                                    one = decode(raw)
-                                    ok = one is not None
-                                    value = one[0] if ok else None
-                                if ok:
-                                    waiting = False
-                                    count += 1
-                                    record = ChallengeMsgDraft()
-                                    record.instance, record.round, record.value = index, done, value
-                                    record.__class__ = challenge_cls  # see RoundMsgDraft
-                                    yield record
-                                    continue
-                    elif kind == "round":
-                        if not waiting and done < num_vars:
-                            raw = payload["evals"]
-                            if raw.__class__ is bytes:
-                                if runs is not None:
-                                    if len(raw) != run_size:
-                                        run_size, run_unpack = len(raw), self._run_unpacker(len(raw))
-                                    values = run_unpack(raw)  # TypeError when the size is not a whole run
-                                    ok = max(values) < prime  # ValueError when empty
-                                else:
-                                    values = decode(raw)
-                                    ok = values is not None and len(values) <= MAX_VALUES
-                                if ok:
-                                    done += 1
-                                    waiting = True
-                                    count += 1
-                                    record = RoundMsgDraft()
-                                    record.instance, record.round, record.values = index, done, values
-                                    record.__class__ = round_cls  # see RoundMsgDraft
-                                    yield record
-                                    continue
-                except (KeyError, TypeError, ValueError):
-                    pass
-                self.awaiting_challenge, self.rounds_done, self.count = waiting, done, count
-                try:
-                    record = self.feed(payload)
-                finally:
-                    waiting, done, count = self.awaiting_challenge, self.rounds_done, self.count
-                num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
-                width, runs = self._elem_bytes, self._runs
-                if self.pending_batch is not None:  # only `instance` may follow: let feed() judge
-                    num_vars = width = -1
-                if until is not None and record.__class__ is UnknownEvent and record.kind == until:
-                    self.stopped_at = record
+            while True:
+                for payload in payloads:
+                    try:  # the fast path; a KeyError, TypeError or ValueError just means "not fast"
+                        kind = payload["type"]
+                        if kind == "challenge":
+                            if waiting:
+                                raw = payload["value"]
+                                if raw.__class__ is bytes and len(raw) == width:
+                                    if prime:
+                                        value = from_bytes(raw, "little")
+                                        ok = value < prime
+                                    else:
+                                        one = decode(raw)
+                                        ok = one is not None
+                                        value = one[0] if ok else None
+                                    if ok:
+                                        waiting = False
+                                        record = ChallengeMsgDraft()
+                                        record.instance, record.round, record.value = index, done, value
+                                        record.__class__ = challenge_cls  # see RoundMsgDraft
+                                        yield record
+                                        continue
+                        elif kind == "round":
+                            if not waiting and done < num_vars:
+                                raw = payload["evals"]
+                                if raw.__class__ is bytes:
+                                    if runs is not None:
+                                        if len(raw) != run_size:
+                                            run_size, run_unpack = len(raw), self._run_unpacker(len(raw))
+                                        values = run_unpack(raw)  # TypeError when the size is not a whole run
+                                        # canonical: no element's top bytes are all 0xff (one C search; `in` would first
+                                        # try the needle as an int and clear a TypeError), else max()
+                                        ok = (high_ones is not None and raw.find(high_ones) < 0) or max(values) < prime
+                                    else:
+                                        values = decode(raw)
+                                        ok = values is not None and len(values) <= MAX_VALUES
+                                    if ok:
+                                        done += 1
+                                        waiting = True
+                                        record = RoundMsgDraft()
+                                        record.instance, record.round, record.values = index, done, values
+                                        record.__class__ = round_cls  # see RoundMsgDraft
+                                        yield record
+                                        continue
+                    except (KeyError, TypeError, ValueError):
+                        pass
+                    self.awaiting_challenge, self.rounds_done, self.count = (
+                        waiting, done, base_count + 2 * (done - base_done) + base_waiting - waiting)
+                    try:
+                        record = self.feed(payload)
+                    finally:
+                        waiting, done = self.awaiting_challenge, self.rounds_done
+                        base_count, base_done, base_waiting = self.count, done, waiting
+                    num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
+                    width, runs, high_ones = self._elem_bytes, self._runs, self._high_ones
+                    if self.pending_batch is not None:  # only `instance` may follow: let feed() judge
+                        num_vars = width = -1
+                    if until is not None and record.__class__ is UnknownEvent and record.kind == until:
+                        self.stopped_at = record
+                        return
+                    yield record
+                if refill is None or not refill():
                     return
-                yield record
+        except Exception as err:
+            if on_error is None:
+                raise
+            self.awaiting_challenge, self.rounds_done, self.count = (
+                waiting, done, base_count + 2 * (done - base_done) + base_waiting - waiting)
+            mapped = on_error(err)
+            if mapped is err:
+                raise
+            raise mapped from None
         finally:
-            self.awaiting_challenge, self.rounds_done, self.count = waiting, done, count
+            self.awaiting_challenge, self.rounds_done, self.count = (
+                waiting, done, base_count + 2 * (done - base_done) + base_waiting - waiting)
 
     def _run_unpacker(self, size: int) -> Any:
         """A ``struct`` unpacker for a packed run of ``size`` bytes of a prime field
@@ -214,6 +243,11 @@ class Sequencer:
         self._prime_modulus = 0 if self.field.is_extension else self.field.p
         if self._prime_modulus and self._elem_bytes in (4, 8):
             self._runs = {}
+            # A value >= p below 256**width shares p's leading 0xff bytes (if p has any: Goldilocks has
+            # four), so a packed run without that byte string anywhere is canonical; with it, max() decides.
+            top = self._prime_modulus.to_bytes(self._elem_bytes, "big")
+            ones = len(top) - len(top.lstrip(b"\xff"))
+            self._high_ones = b"\xff" * ones if ones else None
         return FieldDecl(self.field)
 
     def _on_schedule(self, payload: Mapping[str, Any]) -> Event:

@@ -195,3 +195,109 @@ def test_stream_stops_at_the_named_unknown_type_and_keeps_it():
     assert records == [RoundMsg(0, 1, (1, 2, 3))]
     assert seq.stopped_at is not None and seq.stopped_at.kind == "end"
     assert next(payloads) == {"type": "note", "text": "after"}
+
+
+class ChunkedSource:
+    """An iterator that runs dry at the end of each chunk until refilled (like an Unpacker fed chunk by chunk)."""
+
+    def __init__(self, chunks: list[list[dict[str, object]]]) -> None:
+        self.chunks = list(chunks)
+        self.current: list[dict[str, object]] = []
+        self.refills = 0
+
+    def __iter__(self) -> ChunkedSource:
+        return self
+
+    def __next__(self) -> dict[str, object]:
+        if not self.current:
+            raise StopIteration
+        return self.current.pop(0)
+
+    def refill(self) -> bool:
+        if not self.chunks:
+            return False
+        self.refills += 1
+        self.current = self.chunks.pop(0)
+        return True
+
+
+def packed_round(*values: int) -> dict[str, object]:
+    return {"type": "round", "evals": struct.pack(f"<{len(values)}Q", *values)}
+
+
+def packed_challenge(value: int) -> dict[str, object]:
+    return {"type": "challenge", "value": struct.pack("<Q", value)}
+
+
+def test_stream_with_refill_carries_its_state_across_chunk_boundaries():
+    payloads = [packed_round(1, 2, 3), packed_challenge(5), packed_round(4, 5, 6), packed_challenge(7),
+                {"type": "note", "text": "deck 2 scanned"}, packed_round(7, 8, 9)]
+    chunks = [payloads[:1], [], payloads[1:4], payloads[4:]]  # a boundary between a round and its challenge
+    source = ChunkedSource(chunks)
+    seq = started(num_vars=4)
+    streamed = list(seq.stream(source, refill=source.refill))
+    fed = started(num_vars=4)
+    assert streamed == [fed.feed(p) for p in payloads]
+    assert [r.round for r in streamed if isinstance(r, RoundMsg)] == [1, 2, 3]
+    assert source.refills == 4 and seq.count == fed.count and seq.awaiting_challenge
+
+
+def test_stream_without_refill_stops_when_the_source_runs_dry():
+    source = ChunkedSource([[packed_round(1, 2, 3)], [packed_challenge(5)]])
+    source.refill()
+    seq = started(num_vars=4)
+    assert len(list(seq.stream(source))) == 1
+    assert source.chunks  # the second chunk was never asked for
+
+
+def test_stream_on_error_replaces_a_transcript_error_after_syncing_the_count():
+    seen: list[int] = []
+
+    def on_error(err: Exception) -> Exception:
+        seen.append(seq.count)
+        return ValueError(f"mapped: {err}")
+
+    seq = started(num_vars=1)
+    payloads = [packed_round(1, 2, 3), packed_challenge(5), packed_round(4, 5, 6)]  # a second round of 1 variable
+    with pytest.raises(ValueError, match="mapped: .*at most num_vars = 1 rounds"):
+        list(seq.stream(iter(payloads), on_error=on_error))
+    assert seen == [seq.count] and seq.count == started(num_vars=1).count + 3
+
+
+def test_stream_on_error_maps_a_failing_source_and_can_leave_an_error_unchanged():
+    def failing():
+        yield packed_round(1, 2, 3)
+        raise OSError("disk gone")
+
+    seq = started(num_vars=4)
+    with pytest.raises(TranscriptError, match="source failed: disk gone"):
+        list(seq.stream(failing(), on_error=lambda err: TranscriptError(f"source failed: {err}")))
+    kept = KeyError("left alone")
+    seq = started(num_vars=4)
+
+    def unchanged():
+        yield packed_round(1, 2, 3)
+        raise kept
+
+    with pytest.raises(KeyError) as info:
+        list(seq.stream(unchanged(), on_error=lambda err: err))
+    assert info.value is kept
+
+
+@pytest.mark.parametrize("value", [GOLDILOCKS - 1, 2**64 - 2**32, 0xFFFFFFFF, 2**32 * 0xFFFFFFFF - 1])
+def test_stream_accepts_canonical_goldilocks_values_whose_bytes_hold_the_ones_run(value):
+    # Goldilocks p = 2^64 - 2^32 + 1 (common practice, no source): values in [2^64 - 2^32, p) are
+    # canonical yet their four top bytes are 0xff, the byte string the fast canonical check looks for.
+    seq = started(num_vars=2)
+    assert list(seq.stream(iter([packed_round(1, value, 2)]))) == [RoundMsg(0, 1, (1, value, 2))]
+
+
+@pytest.mark.parametrize("value", [GOLDILOCKS, 2**64 - 1])
+def test_stream_refuses_non_canonical_goldilocks_values_like_feed(value):
+    messages = []
+    for use_stream in (True, False):
+        seq = started(num_vars=2)
+        with pytest.raises(TranscriptError) as info:
+            list(seq.stream(iter([packed_round(value, 0, 0)]))) if use_stream else seq.feed(packed_round(value, 0, 0))
+        messages.append(str(info.value))
+    assert messages[0] == messages[1] and "element 0" in messages[0]

@@ -25,6 +25,7 @@ minus its (shortest-form) packed size.
 from __future__ import annotations
 
 import hashlib
+import itertools
 import os
 from dataclasses import dataclass
 from types import TracebackType
@@ -227,25 +228,35 @@ class EventStream:
                 return
 
     def _events(self) -> Iterator[Event]:
+        """The hot loop (:meth:`Sequencer.stream`, refilling chunk by chunk), then the
+        end event's checks; chained in C so no generator of ours sits between the
+        consumer and the hot loop."""
+        body = self._seq.stream(self._msgpack, until="end", refill=self._refill, on_error=self._translate)
+        return itertools.chain(body, self._tail())
+
+    def _tail(self) -> Iterator[Event]:
         seq = self._seq
         try:
-            while True:  # one stream per chunk: the hot loop iterates the unpacker itself
-                yield from seq.stream(self._msgpack, until="end")
-                if seq.stopped_at is not None or not self._refill():
-                    break
             if seq.stopped_at is not None:
                 self._check_end(seq.stopped_at.payload, seq.count - 1)
                 for payload in self._payloads():
                     yield self._appended(payload)
-        except TranscriptError as err:
-            raise self._locate(err) from None
-        except (ValueError, msgpack.UnpackException) as err:
-            raise self._locate(TranscriptError(f"expected a msgpack event map, found malformed bytes ({err})",
-                                               self.where.but(event=seq.count))) from None
+        except (TranscriptError, ValueError, msgpack.UnpackException) as err:
+            raise self._translate(err) from None
         if self._cut_off():
             self.truncated_at = self._offset_of_event(seq.count)
         if seq.stopped_at is None:
             self.completeness = "incomplete"
+
+    def _translate(self, err: Exception) -> Exception:
+        """The error to raise for one escaping the event loop: located, and msgpack's
+        own failures as a :class:`TranscriptError` (anything else unchanged)."""
+        if isinstance(err, TranscriptError):
+            return self._locate(err)
+        if isinstance(err, (ValueError, msgpack.UnpackException)):
+            return self._locate(TranscriptError(f"expected a msgpack event map, found malformed bytes ({err})",
+                                                self.where.but(event=self._seq.count)))
+        return err
 
     def _check_end(self, payload: Any, events: int) -> None:
         size = len(msgpack.packb(payload, use_bin_type=True))
