@@ -214,18 +214,8 @@ def _gl_reduce128(lo: np.uint64, hi: np.uint64) -> np.uint64:
 
 @njit(cache=True, inline="always")
 def _gl_mul1(a: np.uint64, b: np.uint64) -> np.uint64:
-    a0 = a & _M32
-    a1 = a >> _S32
-    b0 = b & _M32
-    b1 = b >> _S32
-    lo = a0 * b0
-    mid1 = a0 * b1
-    mid = mid1 + a1 * b0
-    mid_carry = _ONE if mid < mid1 else _ZERO
-    lo2 = lo + (mid << _S32)
-    carry = _ONE if lo2 < lo else _ZERO
-    hi = a1 * b1 + (mid >> _S32) + (mid_carry << _S32) + carry
-    return _gl_reduce128(lo2, hi)
+    hi, lo = _mul128(a, b)
+    return _gl_reduce128(lo, hi)
 
 
 @njit(cache=True, inline="always")
