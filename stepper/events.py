@@ -21,6 +21,7 @@ from __future__ import annotations
 import struct
 from typing import Any, Callable, Iterable, Iterator, Mapping
 
+from stepper.elements import clip_text
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field import Element, Field, field_from_spec
 from stepper.packed import decoder_for, unpack_elements
@@ -416,8 +417,7 @@ class Sequencer:
 
 
 def _short(value: object) -> str:
-    text = repr(value)
-    return text if len(text) <= 40 else text[:37] + "..."
+    return clip_text(repr(value), 40)
 
 
 def _text(value: object, what: str, seq: Sequencer) -> str:
