@@ -10,8 +10,10 @@ too). Then, side by side in one run, best of ``--repeat``:
 * hashing: only the SHA-256 calls the schedule makes per round (absorb the round,
   copy, squeeze, digest, absorb the challenge) on bytes prepared beforehand: the
   floor of re-deriving challenges with hashlib from Python;
-* replay: ``open_events`` + ``Replay.feed_all`` in this process (what ``check`` does
-  between start-up and printing);
+* replay: ``open_events`` + ``Replay.feed_all`` in this process: the event-by-event
+  replay, which ``check`` falls back to when the sweep gives up (a failing check);
+* sweep: ``stepper.store.sweep`` in this process (what ``check`` does between start-up
+  and printing when the file passes);
 * check:  the whole ``stepper check FILE`` command in a fresh process (reading,
   replay, re-derivation, human output to /dev/null), start-up measured apart.
 
@@ -97,7 +99,8 @@ def run_check(path: Path) -> tuple[float, float, float]:
 
 def startup() -> float:
     """CPU seconds of a Python process that only imports what `stepper check` imports."""
-    _, cpu, _, code = _child([sys.executable, "-c", "import stepper.cli.main, stepper.store, stepper.verify"])
+    _, cpu, _, code = _child([sys.executable, "-c", "import stepper.cli.main, stepper.store.sweep, stepper.verify, "
+                              "stepper.roundblock"])
     assert code == 0
     return cpu
 
@@ -126,6 +129,15 @@ def replay_in_process(path: Path) -> None:
         replay.feed_all(stream)
         completeness = stream.completeness
     assert replay.report(completeness).verdict == "accept"
+
+
+def sweep_in_process(path: Path) -> None:
+    from stepper.store.sweep import sweep
+    from stepper.verify import Replay
+
+    replay = Replay(keep_instances=20, emit_passing=False)
+    assert sweep(path, replay) is not None, "the sweep should take the whole bench transcript"
+    assert replay.report().verdict == "accept"
 
 
 def hashing_floor(rounds: int) -> None:
@@ -163,6 +175,7 @@ def main_bench() -> None:
         reading = best(lambda: stream_only(large), args.repeat)
         hashing = best(lambda: hashing_floor(args.instances * args.rounds), args.repeat)
         replay = best(lambda: replay_in_process(large), args.repeat)
+        swept = best(lambda: sweep_in_process(large), args.repeat)
         check, wall, rss_large = min(run_check(large) for _ in range(args.repeat))
         rss_small = run_check(small)[2]
         start = min(startup() for _ in range(args.repeat))
@@ -172,6 +185,7 @@ def main_bench() -> None:
         print(f"SHA-256 calls alone (floor):    {hashing:.3f} s ({hashing / decode:.1f}x decode)")
         print(f"reading + replay, in process:   {replay:.3f} s ({replay / decode:.1f}x decode; replay itself "
               f"{(replay - reading) / decode:.1f}x)")
+        print(f"sweep, in process:              {swept:.3f} s ({swept / decode:.1f}x decode)")
         print(f"stepper check (fresh process):  {check:.3f} s (wall {wall:.3f} s), of which {start:.2f} s "
               f"interpreter + imports")
         print(f"ratio check/decode:             {check / decode:.1f}x; without start-up "

@@ -207,6 +207,15 @@ class Sequencer:
             self.awaiting_challenge, self.rounds_done, self.count = (
                 waiting, done, base_count + 2 * (done - base_done) + base_waiting - waiting)
 
+    def account_run(self, rounds: int) -> None:
+        """Count the ``rounds`` rounds, their challenges and the final of the current instance
+        as fed: a caller that read and will check them in bulk (stepper.store.sweep)."""
+        cur = self.current
+        if cur is None or rounds != cur.num_vars or self.rounds_done or self.awaiting_challenge or self.final_seen:
+            raise ValueError(f"expected a fresh instance of {rounds} rounds to account for in bulk")
+        self.rounds_done, self.final_seen = rounds, True
+        self.count += 2 * rounds + 1
+
     def _run_unpacker(self, size: int) -> Any:
         """A ``struct`` unpacker for a packed run of ``size`` bytes of a prime field
         with 4- or 8-byte elements (None if the size is not a whole, capped run)."""
@@ -217,7 +226,7 @@ class Sequencer:
         return self._runs.setdefault(size, struct.Struct(f"<{size // width}{'I' if width == 4 else 'Q'}").unpack)
 
     def _feed(self, payload: Any) -> Event:
-        if not isinstance(payload, Mapping):
+        if payload.__class__ is not dict and not isinstance(payload, Mapping):  # typing's check is slow
             raise self._fail(f"expected an event map with a `type`, found {type(payload).__name__}")
         kind = payload.get("type")
         if not isinstance(kind, str):
@@ -273,7 +282,8 @@ class Sequencer:
         return self.pending_batch
 
     def _on_instance(self, payload: Mapping[str, Any]) -> Event:
-        name = _text(payload.get("name", f"instance {len(self.instances)}"), "instance name", self)
+        name = payload.get("name", self)  # the default name is formatted only when there is no name
+        name = f"instance {len(self.instances)}" if name is self else _text(name, "instance name", self)
         num_vars = _count(payload.get("num_vars"), "num_vars", 0, MAX_NUM_VARS, self)
         degree = _count(payload.get("degree"), "degree", 0, MAX_DEGREE, self)
         claim = self._element(payload.get("claim"), "claim")

@@ -47,6 +47,7 @@ BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME,)
 _DOMAIN = SCHEDULE_NAME.encode()
 _SECURITY_BITS = 128
 _ROUND_HEAD = bytes([5]) + b"round"
+_PAIR = struct.Struct("<QQ")  # two u64 of a frame body
 
 
 def frame(tag: bytes, body: bytes) -> bytes:
@@ -76,6 +77,12 @@ class Sha256Schedule:
         self._challenge_head = b""
         self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
         self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
+        self._shapes: dict[tuple[str, str], bytes] = {}  # _text(order) + _text(form), by (order, form)
+
+    @property
+    def wide_bytes(self) -> int:
+        """Bytes of squeezed output reduced mod p for one base sample (0 before the field)."""
+        return self._wide
 
     def state_digest(self) -> bytes:
         """SHA-256 of everything absorbed so far (for test vectors and debugging)."""
@@ -99,8 +106,13 @@ class Sha256Schedule:
             self._state.update(self._round_frame(record.values))  # type: ignore[union-attr]
         elif cls is InstanceStart:
             self._need_field("instance")
-            body = (_text(record.name) + _u64(record.num_vars) + _u64(record.degree)  # type: ignore[union-attr]
-                    + _text(record.order) + _text(record.form) + self._el(record.claim))  # type: ignore[union-attr]
+            name = record.name.encode("utf-8")  # type: ignore[union-attr]
+            shape = self._shapes.get((record.order, record.form))  # type: ignore[union-attr]
+            if shape is None:
+                shape = self._shapes[(record.order, record.form)] = (  # type: ignore[union-attr]
+                    _text(record.order) + _text(record.form))  # type: ignore[union-attr]
+            body = (len(name).to_bytes(8, "little") + name + _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
+                    + shape + self._el(record.claim))  # type: ignore[union-attr]
             self._absorb(b"instance", body)
         elif cls is FieldDecl:
             self._set_field(record.field)  # type: ignore[union-attr]
@@ -167,6 +179,41 @@ class Sha256Schedule:
             return tuple(samples)
         state.update(self._challenge_head + samples[0].to_bytes(field.base_bytes, "little"))
         return samples[0]
+
+    def row_heads(self, n: int) -> tuple[bytes, bytes]:
+        """The bytes absorbed before the packed values of a round of ``n`` values, and
+        before a packed challenge: with the packed bytes after them, a round's and a
+        challenge's frames (for :meth:`absorb_rows`)."""
+        self._need_field("round")
+        head, _ = self._round_packers.get(n) or self._round_packer(n)
+        return head, self._challenge_head
+
+    def absorb_rows(self, rows: memoryview, first: int, count: int, round_len: int, stride: int,
+                    digests: list[bytes]) -> None:
+        """Observe ``count`` rounds and absorb their challenges, squeezing after each round:
+        the same state as ``observe(round)`` then ``challenge()`` per round, when every
+        challenge is the one squeezed. ``rows`` holds rows of ``stride`` bytes; row ``first + i``
+        is round i's frame (``round_len`` bytes) followed by its challenge's frame (heads from
+        :meth:`row_heads`). The digest squeezed for each round is appended to ``digests``
+        (its wide reduction is the challenge); the caller compares them with the rows'
+        challenges, and the state is that of the schedule only if all are equal.
+        Prime fields squeezed in one block only (Goldilocks and every prime below 2^64)."""
+        field = self._need_field("round")
+        if field.is_extension or len(self._squeeze_frames[0]) != 1:
+            raise ValueError(f"expected a prime field squeezed in one block, found {field.describe()}")
+        update, copy, squeeze, add = self._state.update, self._state.copy, self._squeeze_frames[0][0], digests.append
+        pos = first * stride
+        update(rows[pos:pos + round_len])
+        for _ in range(count - 1):
+            h = copy()
+            h.update(squeeze)
+            add(h.digest())
+            update(rows[pos + round_len:pos + round_len + stride])
+            pos += stride
+        h = copy()
+        h.update(squeeze)
+        add(h.digest())
+        update(rows[pos + round_len:pos + stride])
 
     def round_challenge(self, values: tuple[Element, ...]) -> Element:
         """``observe`` of a round with these values, then ``challenge()``: the same

@@ -76,6 +76,15 @@ class InstanceLedger:
         self._instances_seen += 1
         self._rounds_degree += start.num_vars * start.degree
 
+    def keeps_passing(self) -> bool:
+        """Whether the next instance to close would keep its summary if it passed."""
+        return self.keep_instances is None or len(self.summaries) < self.keep_instances
+
+    def passed_unkept(self, start: InstanceStart) -> None:
+        """Open and close a passing instance whose summary is not kept (``keeps_passing`` is False)."""
+        self.opened(start)
+        self.counts["pass"] += 1
+
     def fail(self, live: LiveInstance, failure: Failure) -> None:
         """Record a failure: the instance's first, and the replay's first in stream order."""
         if live.failure is None:

@@ -136,8 +136,10 @@ class InstanceStart:
         _need(_index(self.index), "InstanceStart", "a non-negative index")
         _need(isinstance(self.name, str), "InstanceStart", "name as a string")
         _need(_index(self.num_vars) and _index(self.degree), "InstanceStart", "non-negative num_vars and degree")
-        _need(self.order in ORDERS, "InstanceStart", f"order among {', '.join(ORDERS)}, found {self.order!r}")
-        _need(self.form in FORMS, "InstanceStart", f"form among {', '.join(FORMS)}, found {self.form!r}")
+        if self.order not in ORDERS:  # the messages are built only when needed: instances are many
+            _need(False, "InstanceStart", f"order among {', '.join(ORDERS)}, found {self.order!r}")
+        if self.form not in FORMS:
+            _need(False, "InstanceStart", f"form among {', '.join(FORMS)}, found {self.form!r}")
 
 
 @dataclass(frozen=True, slots=True)

@@ -42,6 +42,7 @@ from stepper.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify_text import batch_text, final_text, round_text
 
 if TYPE_CHECKING:
+    from stepper.fiatshamir import Sha256Schedule
     from stepper.field import Element, Field
     from stepper.transcript import Event
 
@@ -170,6 +171,36 @@ class Replay:
             return None, -1, 0, 1, None
         squeeze = source.schedule.round_stepper() if source.schedule is not None else None
         return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
+
+    def settle(self, start: InstanceStart, final: Element) -> None:
+        """Account for an instance checked in bulk and found passing (:mod:`stepper.roundblock`):
+        every round passed the degree, sum and challenge checks and ``final`` equals the
+        reduced claim. The effect is that of feeding its instance, rounds, challenges and
+        final, except that the schedule absorbs only the statement here: the caller absorbs
+        the rounds and challenges (:meth:`~stepper.fiatshamir.Sha256Schedule.absorb_rows`)
+        right after, and replays event by event instead if the block turns out not to pass."""
+        if (self.field is None or self.challenger is not None or self.emit_passing or start.batch is not None
+                or self._pending_batch is not None):
+            raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
+                             "an instance in bulk")
+        self._close()
+        self._source.before_statement()
+        self._source.start_instance(has_batch=False)
+        self._source.observe(start)
+        ledger = self._ledger
+        if not ledger.keeps_passing():
+            ledger.passed_unkept(start)
+            return
+        live = LiveInstance(start, False)
+        self._live = live
+        ledger.opened(start)
+        live.claim, live.seen, live.passed = final, start.num_vars, start.num_vars
+        self._on_final(FinalValue(start.index, final))
+
+    @property
+    def schedule(self) -> Sha256Schedule | None:
+        """The built-in schedule re-deriving challenges, if any (None with a plug-in or no schedule)."""
+        return self._source.schedule
 
     def _need_field(self) -> Field:
         if self.field is None:

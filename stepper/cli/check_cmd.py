@@ -87,8 +87,12 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
     challenger = load_challenger(args.challenges) if args.challenges else None
     detail = bool(args.json or args.witness or args.detail)
-    replay = Replay(challenger=challenger, keep_rounds=detail,
-                    keep_instances=None if args.json or args.witness else args.rows, emit_passing=detail)
+
+    def new_replay() -> Replay:
+        return Replay(challenger=challenger, keep_rounds=detail,
+                      keep_instances=None if args.json or args.witness else args.rows, emit_passing=detail)
+
+    replay = new_replay()
     notes: list[Note] = []
     note_count = 0
 
@@ -99,17 +103,27 @@ def run(args: argparse.Namespace) -> int:
             if len(notes) < 50:
                 notes.append(record)
 
+    swept = None
+    if not detail and challenger is None:
+        from stepper.store.sweep import sweep
+
+        swept = sweep(args.file, replay, keep_note)
+        if swept is None:  # the sweep gave up: replay event by event, which names what it found
+            replay, notes, note_count = new_replay(), [], 0
     events: list[Any] | None = [] if args.witness else None
-    with open_events(args.file) as stream:
-        if events is None:
-            replay.feed_all(stream, on_other=keep_note)
-        else:
-            for record in stream:
-                keep_note(record)
-                events.append(record)
-                replay.feed(record)
-        completeness = stream.completeness
-        header, digest = stream.header, stream.digest
+    if swept is not None:
+        completeness, header, digest = swept.completeness, swept.header, swept.digest
+    else:
+        with open_events(args.file) as stream:
+            if events is None:
+                replay.feed_all(stream, on_other=keep_note)
+            else:
+                for record in stream:
+                    keep_note(record)
+                    events.append(record)
+                    replay.feed(record)
+            completeness = stream.completeness
+            header, digest = stream.header, stream.digest
     report = replay.report(completeness)
     diagnosis = None
     if args.witness:

@@ -39,7 +39,7 @@ from stepper.jsonl import LineSplitter
 from stepper.store.writer import END_MAX_BYTES, MAGIC, oserror
 from stepper.transcript import FORMAT_VERSION, Completeness, DigestStatus, Event, Header, InstanceStart, Note
 
-__all__ = ["ReadLimits", "EventStream"]
+__all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -52,6 +52,69 @@ class ReadLimits:
     max_total_bytes: int = 1 << 40
     max_items: int = MAX_SIZES  # entries of one msgpack array or map
     chunk_bytes: int = 1 << 20  # bytes read at a time
+
+
+def make_unpacker(limits: ReadLimits, source: Any = None) -> msgpack.Unpacker:
+    """A msgpack ``Unpacker`` refusing what ``limits`` refuse (feed mode when ``source`` is None)."""
+    return msgpack.Unpacker(
+        source,
+        raw=False,
+        max_buffer_size=limits.max_event_bytes + limits.chunk_bytes,
+        max_bin_len=limits.max_event_bytes,
+        max_str_len=4 * MAX_TEXT,
+        max_array_len=limits.max_items,
+        max_map_len=limits.max_items,
+        max_ext_len=0,
+    )
+
+
+def appended_note(seq: Sequencer, payload: Any) -> Note:
+    """The record of an event after the end event: a note (about no instance unless it names one)."""
+    kind = payload.get("type") if isinstance(payload, dict) else type(payload).__name__
+    if kind != "note":
+        raise TranscriptError(f"expected only `note` events after the end event, found `{str(kind)[:40]}`",
+                              seq.source.but(event=seq.count))
+    record = seq.feed(payload)
+    assert isinstance(record, Note)
+    if "instance" not in payload:
+        return Note(record.text, None, record.round)
+    return record
+
+
+class HeldBackDigest:
+    """SHA-256 of a file's bytes from offset 0, hashed as reading advances but held
+    back: ``add(chunk, safe)`` keeps the chunk and hashes only what lies before
+    offset ``safe``, so that bytes of an end event not yet recognised are never hashed."""
+
+    def __init__(self, first: bytes) -> None:
+        self._pending = [first]  # bytes read but not yet hashed, from offset _start
+        self._start = 0
+        self._hasher = hashlib.sha256()
+
+    def add(self, chunk: bytes, safe: int) -> None:
+        self._hash_upto(safe)
+        self._pending.append(chunk)
+
+    def digest_upto(self, offset: int) -> bytes:
+        """The SHA-256 of bytes 0..offset (all read)."""
+        self._hash_upto(offset)
+        return self._hasher.digest()
+
+    def drop(self) -> None:
+        """Forget the bytes held back (reading goes on past the end event)."""
+        self._pending = []
+
+    def _hash_upto(self, offset: int) -> None:
+        pending = self._pending
+        while pending and offset > self._start:
+            chunk = pending[0]
+            take = min(len(chunk), offset - self._start)
+            self._hasher.update(memoryview(chunk)[:take])
+            if take == len(chunk):
+                pending.pop(0)
+            else:
+                pending[0] = chunk[take:]
+            self._start += take
 
 
 class EventStream:
@@ -136,24 +199,12 @@ class EventStream:
 
     # ----- msgpack transcripts ---------------------------------------------------
     def _unpacker(self, source: Any = None) -> msgpack.Unpacker:
-        lim = self.limits
-        return msgpack.Unpacker(
-            source,
-            raw=False,
-            max_buffer_size=lim.max_event_bytes + lim.chunk_bytes,
-            max_bin_len=lim.max_event_bytes,
-            max_str_len=4 * MAX_TEXT,
-            max_array_len=lim.max_items,
-            max_map_len=lim.max_items,
-            max_ext_len=0,
-        )
+        return make_unpacker(self.limits, source)
 
     def _transcript(self, first: bytes) -> Iterator[Event]:
         self._msgpack = self._unpacker()
         self._total = len(first)
-        self._pending = [first]  # bytes read but not yet hashed, from offset _pending_start
-        self._pending_start = 0
-        self._hasher = hashlib.sha256()
+        self._hash = HeldBackDigest(first)
         self._feed(first[len(MAGIC):])
         version = self._object("format version")
         if isinstance(version, bool) or not isinstance(version, int) or version < 1:
@@ -165,7 +216,7 @@ class EventStream:
                 f"{version}: a newer stepper wrote this file; upgrade stepper to read it",
                 self.where.but(offset=len(MAGIC)))
         start = self._offset()
-        self.header = _header(self._object("header map"), version, self.where.but(offset=start))
+        self.header = read_header(self._object("header map"), version, self.where.but(offset=start))
         return self._events()
 
     def _offset(self) -> int:
@@ -179,18 +230,6 @@ class EventStream:
             raise TranscriptError(f"expected events of at most {self.limits.max_event_bytes} bytes, "
                                   "found a larger one", self.where.but(offset=self._offset())) from None
 
-    def _hash_upto(self, offset: int) -> None:
-        pending = self._pending
-        while pending and offset > self._pending_start:
-            chunk = pending[0]
-            take = min(len(chunk), offset - self._pending_start)
-            self._hasher.update(memoryview(chunk)[:take])
-            if take == len(chunk):
-                pending.pop(0)
-            else:
-                pending[0] = chunk[take:]
-            self._pending_start += take
-
     def _refill(self) -> bool:
         """Feed the next chunk; False at the end of the file."""
         chunk = self._read()
@@ -201,8 +240,7 @@ class EventStream:
             raise TranscriptError(f"expected a file of at most {self.limits.max_total_bytes} bytes, found more",
                                   self.where.but(offset=self.limits.max_total_bytes))
         if self.digest == "missing":
-            self._hash_upto(self._offset() - END_MAX_BYTES)
-            self._pending.append(chunk)
+            self._hash.add(chunk, self._offset() - END_MAX_BYTES)
         self._feed(chunk)
         return True
 
@@ -265,12 +303,8 @@ class EventStream:
         self.completeness = "complete"
         recorded = payload.get("sha256")
         count = payload.get("events")
-        if size <= END_MAX_BYTES:
-            self._hash_upto(start)
-            digest = self._hasher.digest()
-        else:
-            digest = b""
-        self._pending = []
+        digest = self._hash.digest_upto(start) if size <= END_MAX_BYTES else b""
+        self._hash.drop()
         if recorded == digest and count == events:
             self.digest = "verified"
             return
@@ -288,16 +322,8 @@ class EventStream:
                               self.where.but(offset=start, event=events))
 
     def _appended(self, payload: Any) -> Event:
-        kind = payload.get("type") if isinstance(payload, dict) else type(payload).__name__
-        if kind != "note":
-            raise TranscriptError(f"expected only `note` events after the end event, found `{str(kind)[:40]}`",
-                                  self.where.but(event=self._seq.count))
-        record = self._seq.feed(payload)
-        assert isinstance(record, Note)
         self.appended += 1
-        if "instance" not in payload:
-            return Note(record.text, None, record.round)
-        return record
+        return appended_note(self._seq, payload)
 
     def _cut_off(self) -> bool:
         """Whether the unpacker holds a half-read object (see the module docstring)."""
@@ -350,12 +376,13 @@ class EventStream:
     def _json_event(self, line: int, payload: Any) -> Iterator[Event]:
         where = self.where.but(line=line)
         if line == 1 and isinstance(payload, dict) and payload.get("type") == "header":
-            self.header = _header(payload, payload.get("format_version", FORMAT_VERSION), where)
+            self.header = read_header(payload, payload.get("format_version", FORMAT_VERSION), where)
             return
         yield self._seq.feed(payload, where)
 
 
-def _header(raw: Any, version: Any, where: Where) -> Header:
+def read_header(raw: Any, version: Any, where: Where) -> Header:
+    """The header record of a transcript's header map (``version`` read before it)."""
     if not isinstance(raw, dict):
         raise TranscriptError(f"expected the header as a map, found {type(raw).__name__}", where)
     if isinstance(version, bool) or not isinstance(version, int) or not 1 <= version <= FORMAT_VERSION:

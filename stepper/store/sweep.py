@@ -1,0 +1,343 @@
+"""The whole-file replay of ``stepper check``: rounds read and checked by the block.
+
+On a large transcript, :class:`~stepper.store.reader.EventStream` plus
+:meth:`~stepper.verify.Replay.feed_all` spend their time turning every round and
+challenge into a record and checking it alone. :func:`sweep` reads the same
+file but takes the rounds, challenges and final of an instance, when they
+follow its ``instance`` event laid out exactly as
+:class:`~stepper.store.writer.TranscriptWriter` packs them, as one run of
+bytes without decoding them, and checks runs by the block: Fiat-Shamir with
+:meth:`~stepper.fiatshamir.Sha256Schedule.absorb_rows`, the sums, challenges
+and finals with :func:`stepper.roundblock.block_passes`. Every other event goes
+through the same :class:`~stepper.events.Sequencer` and
+:meth:`~stepper.verify.Replay.feed` as the reader would take it.
+
+It either ends with the replay in exactly the state the event-by-event path
+would reach (same report, byte for byte), or gives up and returns None, and
+the caller replays the file event by event from the start, which then names
+what is wrong. It gives up on any failing check, any run laid out otherwise
+(another producer's key order, annotations between rounds), any file that is
+not complete with a verified digest, and any error. So a rejected or damaged
+file costs the partial sweep on top of the usual replay; an accepted one costs
+about a third of it (``python3 bench/check.py``). ``STEPPER_SWEEP=off`` turns
+the sweep off.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Callable, Iterator
+
+import msgpack
+
+from stepper.errors import Where
+from stepper.events import Sequencer
+from stepper.store.reader import HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header
+from stepper.store.writer import END_MAX_BYTES, MAGIC
+from stepper.transcript import FORMAT_VERSION, BucketStats, Header, InstanceStart, Note, UnknownEvent
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from stepper.field import Field
+    from stepper.kernels import Kernel
+    from stepper.verify import Replay
+
+__all__ = ["Swept", "sweep", "BLOCK_ROUNDS"]
+
+BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cache
+_ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
+
+
+@dataclass(frozen=True, slots=True)
+class Swept:
+    """What the store says of a file the sweep read to the end: always complete and verified."""
+
+    header: Header
+    appended: int
+    completeness: str = "complete"
+    digest: str = "verified"
+
+
+class _GiveUp(Exception):
+    """The sweep does not apply here: replay event by event instead."""
+
+
+@dataclass(frozen=True, slots=True)
+class _Layout:
+    """Bytes of one round event, one challenge event and one final event as the writer packs them."""
+
+    values: int
+    width: int
+    round_prefix: bytes
+    challenge_prefix: bytes
+    final_prefix: bytes
+
+    @property
+    def round_len(self) -> int:
+        return len(self.round_prefix) + self.values * self.width
+
+    @property
+    def stride(self) -> int:
+        return self.round_len + len(self.challenge_prefix) + self.width
+
+    @property
+    def final_len(self) -> int:
+        return len(self.final_prefix) + self.width
+
+
+def _layout(values: int, width: int) -> _Layout:
+    def prefix(payload: dict[str, Any], size: int) -> bytes:
+        return msgpack.packb(payload, use_bin_type=True)[:-size]
+
+    return _Layout(values, width, prefix({"type": "round", "evals": bytes(values * width)}, values * width),
+                   prefix({"type": "challenge", "value": bytes(width)}, width),
+                   prefix({"type": "final", "value": bytes(width)}, width))
+
+
+def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note], object] | None = None,
+          limits: ReadLimits | None = None) -> Swept | None:
+    """Replay the whole transcript at ``path`` into ``replay`` (a summary replay: no round
+    detail, no plug-in), or None when the sweep gives up (``replay`` is then spent: make
+    a new one). ``on_note`` sees every note, in stream order."""
+    if os.environ.get("STEPPER_SWEEP", "").lower() in ("0", "off", "no", "false"):
+        return None
+    try:
+        with open(path, "rb") as handle:
+            return _Sweeper(handle, str(path), replay, on_note, limits or ReadLimits()).run()
+    except Exception:  # noqa: BLE001 - any problem at all: the event-by-event replay judges and names it
+        return None
+
+
+class _Sweeper:
+    def __init__(self, handle: Any, path: str, replay: Replay, on_note: Callable[[Note], object] | None,
+                 limits: ReadLimits) -> None:
+        self.handle = handle
+        self.limits = limits
+        self.replay = replay
+        self.on_note = on_note
+        self.seq = Sequencer(Where(file=path))
+        self.unpacker = make_unpacker(limits)
+        self.digest: HeldBackDigest | None = None
+        self.total = 0
+        self.field: Field | None = None
+        self.kernel: Kernel | None = None
+        self.layout: _Layout | None = None
+        self.runs: list[tuple[InstanceStart, bytes]] = []  # instance and its rounds, challenges and final
+        self.rows = 0  # rounds in self.runs
+
+    # ----- reading --------------------------------------------------------------------
+    def _offset(self) -> int:
+        return len(MAGIC) + self.unpacker.tell()
+
+    def _refill(self) -> bool:
+        chunk = self.handle.read(self.limits.chunk_bytes)
+        if not chunk:
+            return False
+        self.total += len(chunk)
+        if self.total > self.limits.max_total_bytes or self.digest is None:
+            raise _GiveUp("file too large")
+        self.digest.add(chunk, self._offset() - END_MAX_BYTES)
+        self.unpacker.feed(chunk)
+        return True
+
+    def _payloads(self) -> Iterator[Any]:
+        unpacker = self.unpacker
+        while True:
+            yield from unpacker
+            if not self._refill():
+                return
+
+    def _take(self, size: int) -> bytes:
+        data = self.unpacker.read_bytes(size)
+        while len(data) < size:
+            if not self._refill():
+                raise _GiveUp("the file ends inside a run")
+            data += self.unpacker.read_bytes(size - len(data))
+        return data
+
+    # ----- the file -------------------------------------------------------------------
+    def run(self) -> Swept:
+        first = self.handle.read(self.limits.chunk_bytes)
+        if not first.startswith(MAGIC):
+            raise _GiveUp("not a transcript")
+        self.total = len(first)
+        self.digest = HeldBackDigest(first)
+        self.unpacker.feed(first[len(MAGIC):])
+        payloads = self._payloads()
+        version = next(payloads)
+        if version.__class__ is not int or not 1 <= version <= FORMAT_VERSION:
+            raise _GiveUp("format version")
+        header = read_header(next(payloads), version, self.seq.source)
+        end = self._events(payloads)
+        self._flush()
+        size = len(msgpack.packb(end, use_bin_type=True))
+        start = self._offset() - size
+        if size > END_MAX_BYTES or end.get("sha256") != self.digest.digest_upto(start) \
+                or end.get("events") != self.seq.count - 1:
+            raise _GiveUp("digest")
+        self.digest.drop()
+        appended = 0
+        for payload in payloads:
+            note = appended_note(self.seq, payload)
+            appended += 1
+            if self.on_note is not None:
+                self.on_note(note)
+        self.unpacker.feed(b"\xc0")  # cut off? see stepper.store.reader
+        if self.unpacker.unpack() is not None:
+            raise _GiveUp("truncated")
+        return Swept(header, appended)
+
+    def _events(self, payloads: Iterator[Any]) -> dict[str, Any]:
+        """Every event up to the end event (returned), runs taken and checked by the block."""
+        seq, replay, instance_cls = self.seq, self.replay, InstanceStart
+        passive = (Note, BucketStats, UnknownEvent)
+        for payload in payloads:
+            record = seq.feed(payload)
+            cls = record.__class__
+            if cls is instance_cls and self._runnable(record):  # type: ignore[arg-type]
+                self._take_run(record)  # type: ignore[arg-type]
+                continue
+            if cls in passive:
+                if cls is UnknownEvent and record.kind == "end":  # type: ignore[union-attr]
+                    return payload  # type: ignore[no-any-return]
+                if cls is Note and self.on_note is not None:
+                    self.on_note(record)  # type: ignore[arg-type]
+                continue
+            self._flush()
+            replay.feed(record)
+            if self.field is None and seq.field is not None:
+                self._set_field(seq.field)
+        raise _GiveUp("no end event")
+
+    def _set_field(self, field: Field) -> None:
+        from stepper.kernels.base import steady_heap
+        from stepper.roundblock import block_kernel, supports
+
+        self.field = field
+        if supports(field, 1):
+            self.kernel = block_kernel(field)
+            steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
+
+    def _runnable(self, start: InstanceStart) -> bool:
+        return (self.kernel is not None and start.form == "evals" and start.batch is None and start.num_vars > 0
+                and self.replay.challenger is None)
+
+    def _take_run(self, start: InstanceStart) -> None:
+        """Read an instance's rounds, challenges and final as bytes (they must follow it directly)."""
+        from stepper.roundblock import supports
+
+        field = self.field
+        assert field is not None
+        width = field.elem_bytes
+        head = self._take(len(_ROUND_KEYS) + 2)
+        if not head.startswith(_ROUND_KEYS):
+            raise _GiveUp("another event after the instance")
+        marker, size = head[-2], head[-1]
+        if marker == 0xC5:
+            head += self._take(1)
+            size = int.from_bytes(head[-2:], "big")
+        elif marker != 0xC4:
+            raise _GiveUp("round values not packed in one blob")
+        values = size // width
+        if size % width or not supports(field, values) or values > start.degree + 1:
+            raise _GiveUp("round size")  # a degree overflow included: the replay names it
+        layout = self.layout
+        if layout is None or layout.values != values or layout.width != width:
+            self._flush()
+            layout = self.layout = _layout(values, width)
+        if len(head) != len(layout.round_prefix):
+            raise _GiveUp("round header")
+        run = head + self._take(start.num_vars * layout.stride - len(head) + layout.final_len)
+        if not run.startswith(layout.final_prefix, len(run) - layout.final_len):
+            raise _GiveUp("no final after the rounds")
+        self.seq.account_run(start.num_vars)
+        self.runs.append((start, run))
+        self.rows += start.num_vars
+        if self.rows >= BLOCK_ROUNDS or self.rows * layout.stride >= self.limits.chunk_bytes * 8:
+            self._flush()
+
+    # ----- checking a block -----------------------------------------------------------
+    def _flush(self) -> None:
+        """Check the runs read so far and settle them into the replay, or give up."""
+        if not self.runs:
+            return
+        import numpy as np
+
+        from stepper.roundblock import block_passes, reduce_wide
+
+        runs, layout, kernel = self.runs, self.layout, self.kernel
+        assert layout is not None and kernel is not None
+        self.runs, self.rows = [], 0
+        stride, width, values = layout.stride, layout.width, layout.values
+        rounds = [start.num_vars for start, _ in runs]
+        body = [run[:n * stride] for (_, run), n in zip(runs, rounds)]
+        rows = np.frombuffer(b"".join(body), dtype=np.uint8).reshape(-1, stride)
+        round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
+        if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
+                and np.array_equal(rows[:, layout.round_len:challenge_at],
+                                   _bytes_row(layout.challenge_prefix, len(rows)))):
+            raise _GiveUp("events laid out otherwise")
+        evals = _little_endian(rows[:, round_at:layout.round_len], width).reshape(len(rows), values)
+        challenges = _little_endian(rows[:, challenge_at:], width)
+        finals = _little_endian(np.frombuffer(b"".join(run[-width:] for _, run in runs), dtype=np.uint8)
+                                .reshape(-1, width), width)
+        claims = np.array([start.claim for start, _ in runs], dtype=np.uint64)
+        starts = np.zeros(len(runs), dtype=np.int64)
+        np.cumsum(rounds[:-1], out=starts[1:])
+        final_values = finals.tolist()
+        replay, rederived = self.replay, None
+        view: memoryview | None = None
+        digests: list[bytes] = []
+        round_len = frame_len = 0
+        for (start, _), final, first in zip(runs, final_values, starts.tolist()):
+            replay.settle(start, final)
+            schedule = replay.schedule  # the first settle may start the default schedule
+            if schedule is not None:
+                if view is None:
+                    frames, round_len = _frames(schedule.row_heads(values), rows, layout)
+                    view, frame_len = memoryview(frames.reshape(-1)), frames.shape[1]
+                schedule.absorb_rows(view, first, start.num_vars, round_len, frame_len, digests)
+        if digests:
+            if len(digests) != len(rows) or schedule is None:
+                raise _GiveUp("challenges re-derived for only part of the block")
+            squeezed = np.frombuffer(b"".join(digests), dtype=np.uint8).reshape(-1, 32)
+            rederived = reduce_wide(kernel, squeezed, schedule.wide_bytes)
+        if not block_passes(kernel, evals, challenges, starts, claims, finals, rederived):
+            raise _GiveUp("a check fails in this block")
+
+
+def _bytes_row(data: bytes, count: int) -> np.ndarray:
+    import numpy as np
+
+    return np.broadcast_to(np.frombuffer(data, dtype=np.uint8), (count, len(data)))
+
+
+def _little_endian(cells: np.ndarray, width: int) -> np.ndarray:
+    """Rows of packed little-endian ``width``-byte elements as a flat uint64 array."""
+    import numpy as np
+
+    count = cells.shape[0] * (cells.shape[1] // width)
+    if width == 8:
+        return np.ascontiguousarray(cells).view("<u8").reshape(count).astype(np.uint64)
+    if width == 4:
+        return np.ascontiguousarray(cells).view("<u4").reshape(count).astype(np.uint64)
+    padded = np.zeros((count, 8), dtype=np.uint8)
+    padded[:, :width] = cells.reshape(count, width)
+    return padded.view("<u8").reshape(count).astype(np.uint64)
+
+
+def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: _Layout) -> tuple[np.ndarray, int]:
+    """Per round, the schedule's round frame then its challenge frame, built from the packed
+    bytes (one row each), and the length of the round frame."""
+    import numpy as np
+
+    round_head, challenge_head = heads
+    round_len = len(round_head) + layout.values * layout.width
+    frames = np.empty((len(rows), round_len + len(challenge_head) + layout.width), dtype=np.uint8)
+    frames[:, :len(round_head)] = np.frombuffer(round_head, dtype=np.uint8)
+    frames[:, len(round_head):round_len] = rows[:, len(layout.round_prefix):layout.round_len]
+    frames[:, round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
+    frames[:, round_len + len(challenge_head):] = rows[:, layout.stride - layout.width:]
+    return frames, round_len
