@@ -40,6 +40,7 @@ from stepper.transcript import (
     ScheduleDecl,
     UnknownEvent,
     ChallengeMsgDraft,
+    InstanceStartDraft,
     RoundMsgDraft,
 )
 
@@ -284,8 +285,11 @@ class Sequencer:
     def _on_instance(self, payload: Mapping[str, Any]) -> Event:
         name = payload.get("name", self)  # the default name is formatted only when there is no name
         name = f"instance {len(self.instances)}" if name is self else _text(name, "instance name", self)
-        num_vars = _count(payload.get("num_vars"), "num_vars", 0, MAX_NUM_VARS, self)
-        degree = _count(payload.get("degree"), "degree", 0, MAX_DEGREE, self)
+        num_vars, degree = payload.get("num_vars"), payload.get("degree")
+        if num_vars.__class__ is not int or not 0 <= num_vars <= MAX_NUM_VARS:  # type: ignore[operator]
+            num_vars = _count(num_vars, "num_vars", 0, MAX_NUM_VARS, self)
+        if degree.__class__ is not int or not 0 <= degree <= MAX_DEGREE:  # type: ignore[operator]
+            degree = _count(degree, "degree", 0, MAX_DEGREE, self)
         claim = self._element(payload.get("claim"), "claim")
         order = payload.get("order", "low-first")
         if order not in ORDERS:
@@ -293,7 +297,11 @@ class Sequencer:
         form = payload.get("form", "evals")
         if form not in FORMS:
             raise self._fail(f"expected `form` among {', '.join(FORMS)}, found {_short(form)}")
-        start = InstanceStart(len(self.instances), name, num_vars, degree, claim, order, form, self.pending_batch)
+        start = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
+        start.index, start.name, start.num_vars, start.degree, start.claim = (
+            len(self.instances), name, num_vars, degree, claim)
+        start.order, start.form, start.batch = order, form, self.pending_batch
+        start.__class__ = InstanceStart
         self.pending_batch = None
         self.instances.append(start)
         self._num_vars = num_vars
@@ -397,7 +405,11 @@ class Sequencer:
 
     def _element(self, raw: Any, what: str, round_: int | None = None) -> Element:
         assert self.field is not None
-        if type(raw) is bytes and len(raw) == self.field.elem_bytes:
+        if raw.__class__ is bytes and len(raw) == self._elem_bytes:
+            if self._prime_modulus:  # a prime field: the bytes are the value, little-endian
+                value = int.from_bytes(raw, "little")
+                if value < self._prime_modulus:
+                    return value
             one = self._decode(raw)
             if one is not None:
                 return one[0]  # type: ignore[no-any-return]

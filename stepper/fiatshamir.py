@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import hashlib
 import struct
+from operator import itemgetter
 from typing import TYPE_CHECKING, Callable
 
 from stepper.errors import InputError
@@ -48,6 +49,7 @@ _DOMAIN = SCHEDULE_NAME.encode()
 _SECURITY_BITS = 128
 _ROUND_HEAD = bytes([5]) + b"round"
 _PAIR = struct.Struct("<QQ")  # two u64 of a frame body
+_INSTANCE_HEAD = bytes([8]) + b"instance"
 
 
 def frame(tag: bytes, body: bytes) -> bytes:
@@ -77,7 +79,8 @@ class Sha256Schedule:
         self._challenge_head = b""
         self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
         self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
-        self._shapes: dict[tuple[str, str], bytes] = {}  # _text(order) + _text(form), by (order, form)
+        self._shapes: dict[tuple[str, str], bytes] = {}
+        self._row_cuts: dict[tuple[int, int, int], Callable[[memoryview], tuple[memoryview, ...]]] = {}  # _text(order) + _text(form), by (order, form)
 
     @property
     def wide_bytes(self) -> int:
@@ -113,7 +116,7 @@ class Sha256Schedule:
                     _text(record.order) + _text(record.form))  # type: ignore[union-attr]
             body = (len(name).to_bytes(8, "little") + name + _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
                     + shape + self._el(record.claim))  # type: ignore[union-attr]
-            self._absorb(b"instance", body)
+            self._state.update(_INSTANCE_HEAD + len(body).to_bytes(8, "little") + body)  # frame("instance", body)
         elif cls is FieldDecl:
             self._set_field(record.field)  # type: ignore[union-attr]
         elif cls is ScheduleDecl:
@@ -201,19 +204,22 @@ class Sha256Schedule:
         field = self._need_field("round")
         if field.is_extension or len(self._squeeze_frames[0]) != 1:
             raise ValueError(f"expected a prime field squeezed in one block, found {field.describe()}")
+        key = (count, round_len, stride)
+        cut = self._row_cuts.get(key)
+        if cut is None:  # one C call slices a run into its absorbed pieces: round 1, then (challenge k, round k+1)...
+            cut = itemgetter(slice(0, round_len),
+                             *(slice(round_len + k * stride, round_len + (k + 1) * stride) for k in range(count - 1)),
+                             slice(round_len + (count - 1) * stride, count * stride))
+            if len(self._row_cuts) < 256:
+                self._row_cuts[key] = cut
+        pieces = cut(rows[first * stride:(first + count) * stride])
         update, copy, squeeze, add = self._state.update, self._state.copy, self._squeeze_frames[0][0], digests.append
-        pos = first * stride
-        update(rows[pos:pos + round_len])
-        for _ in range(count - 1):
+        update(pieces[0])
+        for piece in pieces[1:]:
             h = copy()
             h.update(squeeze)
             add(h.digest())
-            update(rows[pos + round_len:pos + round_len + stride])
-            pos += stride
-        h = copy()
-        h.update(squeeze)
-        add(h.digest())
-        update(rows[pos + round_len:pos + stride])
+            update(piece)
 
     def round_challenge(self, values: tuple[Element, ...]) -> Element:
         """``observe`` of a round with these values, then ``challenge()``: the same

@@ -105,9 +105,9 @@ def run(args: argparse.Namespace) -> int:
 
     swept = None
     if not detail and challenger is None:
-        from stepper.store.sweep import sweep
+        from stepper.store.sweep import SMALL_FILE_BYTES, sweep
 
-        swept = sweep(args.file, replay, keep_note)
+        swept = sweep(args.file, replay, keep_note, min_bytes=SMALL_FILE_BYTES)
         if swept is None:  # the sweep gave up: replay event by event, which names what it found
             replay, notes, note_count = new_replay(), [], 0
     events: list[Any] | None = [] if args.witness else None

@@ -60,12 +60,18 @@ def _instance_index(transcript: Transcript, chosen: str | None, round_: int | No
             return None
         if len(names) == 1:
             return 0
-        listed = ", ".join(f"{k}: {n}" for k, n in enumerate(names)) or "none"
+        listed = _listed(names)
         raise UsageError(f"expected --instance with --round: the file has {len(names)} instances ({listed})")
     if chosen in names:
         return names.index(chosen)
     if chosen.isdigit() and int(chosen) < len(names):
         return int(chosen)
-    listed = ", ".join(f"{k}: {n}" for k, n in enumerate(names)) or "none"
+    listed = _listed(names)
     raise UsageError(f"expected --instance to name an instance or give its index, found {chosen!r} "
                      f"(instances: {listed})")
+
+
+def _listed(names: list[str], shown: int = 8) -> str:
+    """The first instances as "index: name", and how many more: one readable line for any proof."""
+    listed = ", ".join(f"{k}: {n}" for k, n in enumerate(names[:shown])) or "none"
+    return listed + (f", ... {len(names) - shown} more" if len(names) > shown else "")

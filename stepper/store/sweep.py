@@ -19,8 +19,10 @@ what is wrong. It gives up on any failing check, any run laid out otherwise
 (another producer's key order, annotations between rounds), any file that is
 not complete with a verified digest, and any error. So a rejected or damaged
 file costs the partial sweep on top of the usual replay; an accepted one costs
-about a third of it (``python3 bench/check.py``). ``STEPPER_SWEEP=off`` turns
-the sweep off.
+about a quarter of it (``python3 bench/check.py``). Files under
+``SMALL_FILE_BYTES`` are left to the event-by-event replay, which there costs
+less than importing numpy. ``STEPPER_SWEEP=off`` turns the sweep off,
+``STEPPER_SWEEP=on`` applies it to files of any size (tests).
 """
 
 from __future__ import annotations
@@ -44,9 +46,10 @@ if TYPE_CHECKING:
     from stepper.kernels import Kernel
     from stepper.verify import Replay
 
-__all__ = ["Swept", "sweep", "BLOCK_ROUNDS"]
+__all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
 
 BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cache
+SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
 _ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
 
 
@@ -66,44 +69,44 @@ class _GiveUp(Exception):
 
 @dataclass(frozen=True, slots=True)
 class _Layout:
-    """Bytes of one round event, one challenge event and one final event as the writer packs them."""
+    """Bytes of one round event, one challenge event and one final event as the writer packs them
+    (prefixes before the packed values; lengths precomputed: they are read per instance)."""
 
     values: int
     width: int
     round_prefix: bytes
     challenge_prefix: bytes
     final_prefix: bytes
-
-    @property
-    def round_len(self) -> int:
-        return len(self.round_prefix) + self.values * self.width
-
-    @property
-    def stride(self) -> int:
-        return self.round_len + len(self.challenge_prefix) + self.width
-
-    @property
-    def final_len(self) -> int:
-        return len(self.final_prefix) + self.width
+    round_len: int  # prefix and values of a round event
+    stride: int  # a round event and its challenge event
+    final_len: int
 
 
 def _layout(values: int, width: int) -> _Layout:
     def prefix(payload: dict[str, Any], size: int) -> bytes:
         return msgpack.packb(payload, use_bin_type=True)[:-size]
 
-    return _Layout(values, width, prefix({"type": "round", "evals": bytes(values * width)}, values * width),
-                   prefix({"type": "challenge", "value": bytes(width)}, width),
-                   prefix({"type": "final", "value": bytes(width)}, width))
+    round_prefix = prefix({"type": "round", "evals": bytes(values * width)}, values * width)
+    challenge_prefix = prefix({"type": "challenge", "value": bytes(width)}, width)
+    final_prefix = prefix({"type": "final", "value": bytes(width)}, width)
+    round_len = len(round_prefix) + values * width
+    return _Layout(values, width, round_prefix, challenge_prefix, final_prefix, round_len,
+                   round_len + len(challenge_prefix) + width, len(final_prefix) + width)
 
 
 def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note], object] | None = None,
-          limits: ReadLimits | None = None) -> Swept | None:
+          limits: ReadLimits | None = None, *, min_bytes: int = 0) -> Swept | None:
     """Replay the whole transcript at ``path`` into ``replay`` (a summary replay: no round
     detail, no plug-in), or None when the sweep gives up (``replay`` is then spent: make
-    a new one). ``on_note`` sees every note, in stream order."""
-    if os.environ.get("STEPPER_SWEEP", "").lower() in ("0", "off", "no", "false"):
+    a new one). ``on_note`` sees every note, in stream order. Files smaller than
+    ``min_bytes`` are declined (``stepper check`` passes ``SMALL_FILE_BYTES``) unless
+    ``STEPPER_SWEEP=on``; ``STEPPER_SWEEP=off`` declines every file."""
+    setting = os.environ.get("STEPPER_SWEEP", "").lower()
+    if setting in ("0", "off", "no", "false"):
         return None
     try:
+        if setting not in ("1", "on", "yes", "true") and os.stat(path).st_size < min_bytes:
+            return None
         with open(path, "rb") as handle:
             return _Sweeper(handle, str(path), replay, on_note, limits or ReadLimits()).run()
     except Exception:  # noqa: BLE001 - any problem at all: the event-by-event replay judges and names it
@@ -124,7 +127,7 @@ class _Sweeper:
         self.field: Field | None = None
         self.kernel: Kernel | None = None
         self.layout: _Layout | None = None
-        self.runs: list[tuple[InstanceStart, bytes]] = []  # instance and its rounds, challenges and final
+        self.runs: list[tuple[InstanceStart, bytes, bytes]] = []  # instance, first bytes, the rest up to its final
         self.rows = 0  # rounds in self.runs
 
     # ----- reading --------------------------------------------------------------------
@@ -226,37 +229,44 @@ class _Sweeper:
 
     def _take_run(self, start: InstanceStart) -> None:
         """Read an instance's rounds, challenges and final as bytes (they must follow it directly)."""
+        layout = self.layout
+        head = self._take(len(layout.round_prefix) if layout is not None else len(_ROUND_KEYS) + 2)
+        if layout is None or head != layout.round_prefix:
+            head, layout = self._new_layout(head)
+        if layout.values > start.degree + 1:
+            raise _GiveUp("more values than the degree allows")  # the replay names the degree failure
+        rest = self._take(start.num_vars * layout.stride + layout.final_len - len(head))
+        if not rest.startswith(layout.final_prefix, len(rest) - layout.final_len):
+            raise _GiveUp("no final after the rounds")
+        self.seq.account_run(start.num_vars)
+        self.runs.append((start, head, rest))
+        self.rows += start.num_vars
+        if self.rows >= BLOCK_ROUNDS or self.rows * layout.stride >= self.limits.chunk_bytes * 8:
+            self._flush()
+
+    def _new_layout(self, head: bytes) -> tuple[bytes, _Layout]:
+        """The layout a run's first bytes announce (checking the runs of the old one first)."""
         from stepper.roundblock import supports
 
         field = self.field
         assert field is not None
-        width = field.elem_bytes
-        head = self._take(len(_ROUND_KEYS) + 2)
         if not head.startswith(_ROUND_KEYS):
             raise _GiveUp("another event after the instance")
-        marker, size = head[-2], head[-1]
+        marker, size = head[len(_ROUND_KEYS)], head[len(_ROUND_KEYS) + 1]
         if marker == 0xC5:
-            head += self._take(1)
-            size = int.from_bytes(head[-2:], "big")
+            head += self._take(len(_ROUND_KEYS) + 3 - len(head))
+            size = int.from_bytes(head[len(_ROUND_KEYS) + 1:len(_ROUND_KEYS) + 3], "big")
         elif marker != 0xC4:
             raise _GiveUp("round values not packed in one blob")
-        values = size // width
-        if size % width or not supports(field, values) or values > start.degree + 1:
-            raise _GiveUp("round size")  # a degree overflow included: the replay names it
-        layout = self.layout
-        if layout is None or layout.values != values or layout.width != width:
-            self._flush()
-            layout = self.layout = _layout(values, width)
-        if len(head) != len(layout.round_prefix):
+        values = size // field.elem_bytes
+        if size % field.elem_bytes or not supports(field, values):
+            raise _GiveUp("round size")
+        layout = _layout(values, field.elem_bytes)
+        if not head.startswith(layout.round_prefix):
             raise _GiveUp("round header")
-        run = head + self._take(start.num_vars * layout.stride - len(head) + layout.final_len)
-        if not run.startswith(layout.final_prefix, len(run) - layout.final_len):
-            raise _GiveUp("no final after the rounds")
-        self.seq.account_run(start.num_vars)
-        self.runs.append((start, run))
-        self.rows += start.num_vars
-        if self.rows >= BLOCK_ROUNDS or self.rows * layout.stride >= self.limits.chunk_bytes * 8:
-            self._flush()
+        self._flush()
+        self.layout = layout
+        return head, layout
 
     # ----- checking a block -----------------------------------------------------------
     def _flush(self) -> None:
@@ -271,9 +281,10 @@ class _Sweeper:
         assert layout is not None and kernel is not None
         self.runs, self.rows = [], 0
         stride, width, values = layout.stride, layout.width, layout.values
-        rounds = [start.num_vars for start, _ in runs]
-        body = [run[:n * stride] for (_, run), n in zip(runs, rounds)]
-        rows = np.frombuffer(b"".join(body), dtype=np.uint8).reshape(-1, stride)
+        rounds = [start.num_vars for start, _, _ in runs]
+        final_len = layout.final_len
+        rows = np.frombuffer(b"".join([part for _, head, rest in runs for part in (head, rest[:-final_len])]),
+                             dtype=np.uint8).reshape(-1, stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
         if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
                 and np.array_equal(rows[:, layout.round_len:challenge_at],
@@ -281,9 +292,9 @@ class _Sweeper:
             raise _GiveUp("events laid out otherwise")
         evals = _little_endian(rows[:, round_at:layout.round_len], width).reshape(len(rows), values)
         challenges = _little_endian(rows[:, challenge_at:], width)
-        finals = _little_endian(np.frombuffer(b"".join(run[-width:] for _, run in runs), dtype=np.uint8)
+        finals = _little_endian(np.frombuffer(b"".join([rest[-width:] for _, _, rest in runs]), dtype=np.uint8)
                                 .reshape(-1, width), width)
-        claims = np.array([start.claim for start, _ in runs], dtype=np.uint64)
+        claims = np.array([start.claim for start, _, _ in runs], dtype=np.uint64)
         starts = np.zeros(len(runs), dtype=np.int64)
         np.cumsum(rounds[:-1], out=starts[1:])
         final_values = finals.tolist()
@@ -291,7 +302,7 @@ class _Sweeper:
         view: memoryview | None = None
         digests: list[bytes] = []
         round_len = frame_len = 0
-        for (start, _), final, first in zip(runs, final_values, starts.tolist()):
+        for (start, _, _), final, first in zip(runs, final_values, starts.tolist()):
             replay.settle(start, final)
             schedule = replay.schedule  # the first settle may start the default schedule
             if schedule is not None:
