@@ -29,7 +29,7 @@ import itertools
 import os
 from dataclasses import dataclass
 from types import TracebackType
-from typing import Any, BinaryIO, Iterator
+from typing import Any, BinaryIO, Callable, Iterator
 
 import msgpack
 
@@ -39,7 +39,8 @@ from stepper.jsonl import LineSplitter
 from stepper.store.writer import END_MAX_BYTES, MAGIC, oserror
 from stepper.transcript import FORMAT_VERSION, Completeness, DigestStatus, Event, Header, InstanceStart, Note
 
-__all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note"]
+__all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note",
+           "unpacked"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -66,6 +67,15 @@ def make_unpacker(limits: ReadLimits, source: Any = None) -> msgpack.Unpacker:
         max_map_len=limits.max_items,
         max_ext_len=0,
     )
+
+
+def unpacked(unpacker: msgpack.Unpacker, refill: Callable[[], bool]) -> Iterator[Any]:
+    """Every object of a feed-mode ``unpacker``, calling ``refill`` (which feeds it) when it runs dry
+    until ``refill`` returns False."""
+    while True:
+        yield from unpacker
+        if not refill():
+            return
 
 
 def appended_note(seq: Sequencer, payload: Any) -> Note:
@@ -259,11 +269,7 @@ class EventStream:
                                       self.where.but(offset=start)) from None
 
     def _payloads(self) -> Iterator[Any]:
-        unpacker = self._msgpack
-        while True:
-            yield from unpacker
-            if not self._refill():
-                return
+        return unpacked(self._msgpack, self._refill)
 
     def _events(self) -> Iterator[Event]:
         """The hot loop (:meth:`Sequencer.stream`, refilling chunk by chunk), then the

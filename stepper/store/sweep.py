@@ -35,7 +35,9 @@ import msgpack
 
 from stepper.errors import Where
 from stepper.events import Sequencer
-from stepper.store.reader import HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header
+from stepper.store.reader import (
+    HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
+)
 from stepper.store.writer import END_MAX_BYTES, MAGIC
 from stepper.transcript import FORMAT_VERSION, BucketStats, Header, InstanceStart, Note, UnknownEvent
 
@@ -146,11 +148,7 @@ class _Sweeper:
         return True
 
     def _payloads(self) -> Iterator[Any]:
-        unpacker = self.unpacker
-        while True:
-            yield from unpacker
-            if not self._refill():
-                return
+        return unpacked(self.unpacker, self._refill)
 
     def _take(self, size: int) -> bytes:
         data = self.unpacker.read_bytes(size)
