@@ -15,14 +15,20 @@ through the same :class:`~stepper.events.Sequencer` and
 It either ends with the replay in exactly the state the event-by-event path
 would reach (same report, byte for byte), or gives up and returns None, and
 the caller replays the file event by event from the start, which then names
-what is wrong. It gives up on any failing check, any run laid out otherwise
-(another producer's key order, annotations between rounds), any file that is
-not complete with a verified digest, and any error. So a rejected or damaged
-file costs the partial sweep on top of the usual replay; an accepted one costs
-about a quarter of it (``python3 bench/check.py``). Files under
-``SMALL_FILE_BYTES`` are left to the event-by-event replay, which there costs
-less than importing numpy. ``STEPPER_SWEEP=off`` turns the sweep off,
-``STEPPER_SWEEP=on`` applies it to files of any size (tests).
+what is wrong. It gives up on any failing check in the runs it takes, any run
+laid out otherwise (another producer's key order, annotations between rounds),
+a field it cannot check by the block (an extension, a prime above 2^32 other
+than Goldilocks), more than ``LOOSE_ROUNDS`` rounds outside runs, any file that
+is not complete with a verified digest, and any error. Instances it does not
+take as runs (compressed forms, batched claims, no rounds) go through
+``Replay.feed``, which judges them as the event-by-event path does, failures
+included. A rejected or damaged file costs the partial sweep on top of the usual
+replay; an accepted one about a quarter of it (``python3 bench/check.py``). Runs
+of different round sizes are grouped per size within a block, and settled and
+hashed in stream order. Files under ``SMALL_FILE_BYTES`` are left to the
+event-by-event replay, which there costs less than importing numpy.
+``STEPPER_SWEEP=off`` turns the sweep off, ``STEPPER_SWEEP=on`` applies it to
+files of any size (tests).
 """
 
 from __future__ import annotations
@@ -39,11 +45,12 @@ from stepper.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.store.writer import END_MAX_BYTES, MAGIC
-from stepper.transcript import FORMAT_VERSION, BucketStats, Header, InstanceStart, Note, UnknownEvent
+from stepper.transcript import FORMAT_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent
 
 if TYPE_CHECKING:
     import numpy as np
 
+    from stepper.fiatshamir import Sha256Schedule
     from stepper.field import Field
     from stepper.kernels import Kernel
     from stepper.verify import Replay
@@ -51,6 +58,7 @@ if TYPE_CHECKING:
 __all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
 
 BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cache
+LOOSE_ROUNDS = 1 << 12  # rounds outside runs before the sweep leaves the file to the usual replay
 SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
 _ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
 
@@ -128,9 +136,12 @@ class _Sweeper:
         self.total = 0
         self.field: Field | None = None
         self.kernel: Kernel | None = None
-        self.layout: _Layout | None = None
-        self.runs: list[tuple[InstanceStart, bytes, bytes]] = []  # instance, first bytes, the rest up to its final
+        self.layout: _Layout | None = None  # of the last run read
+        self.layouts: dict[int, _Layout] = {}  # by values per round
+        self.runs: list[tuple[InstanceStart, bytes, bytes, _Layout]] = []  # instance, first bytes, rest, layout
         self.rows = 0  # rounds in self.runs
+        self.pending_bytes = 0  # bytes of rounds in self.runs
+        self.loose_rounds = 0  # rounds fed one by one (instances not taken as runs)
 
     # ----- reading --------------------------------------------------------------------
     def _offset(self) -> int:
@@ -208,7 +219,11 @@ class _Sweeper:
                 continue
             self._flush()
             replay.feed(record)
-            if self.field is None and seq.field is not None:
+            if cls is RoundMsg:
+                self.loose_rounds += 1
+                if self.loose_rounds > LOOSE_ROUNDS:  # mostly not runs: the event-by-event replay is faster
+                    raise _GiveUp("too many rounds outside runs")
+            elif self.field is None and seq.field is not None:
                 self._set_field(seq.field)
         raise _GiveUp("no end event")
 
@@ -216,14 +231,14 @@ class _Sweeper:
         from stepper.kernels.base import steady_heap
         from stepper.roundblock import block_kernel, supports
 
+        if not supports(field, 1) or self.replay.challenger is not None:
+            raise _GiveUp("no runs in this field")  # every event one by one: the usual replay does that faster
         self.field = field
-        if supports(field, 1):
-            self.kernel = block_kernel(field)
-            steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
+        self.kernel = block_kernel(field)
+        steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
 
     def _runnable(self, start: InstanceStart) -> bool:
-        return (self.kernel is not None and start.form == "evals" and start.batch is None and start.num_vars > 0
-                and self.replay.challenger is None)
+        return self.kernel is not None and start.form == "evals" and start.batch is None and start.num_vars > 0
 
     def _take_run(self, start: InstanceStart) -> None:
         """Read an instance's rounds, challenges and final as bytes (they must follow it directly)."""
@@ -237,13 +252,14 @@ class _Sweeper:
         if not rest.startswith(layout.final_prefix, len(rest) - layout.final_len):
             raise _GiveUp("no final after the rounds")
         self.seq.account_run(start.num_vars)
-        self.runs.append((start, head, rest))
+        self.runs.append((start, head, rest, layout))
         self.rows += start.num_vars
-        if self.rows >= BLOCK_ROUNDS or self.rows * layout.stride >= self.limits.chunk_bytes * 8:
+        self.pending_bytes += start.num_vars * layout.stride
+        if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
             self._flush()
 
     def _new_layout(self, head: bytes) -> tuple[bytes, _Layout]:
-        """The layout a run's first bytes announce (checking the runs of the old one first)."""
+        """The layout a run's first bytes announce."""
         from stepper.roundblock import supports
 
         field = self.field
@@ -259,62 +275,99 @@ class _Sweeper:
         values = size // field.elem_bytes
         if size % field.elem_bytes or not supports(field, values):
             raise _GiveUp("round size")
-        layout = _layout(values, field.elem_bytes)
+        layout = self.layouts.get(values)
+        if layout is None:
+            if len(self.layouts) >= 64:
+                raise _GiveUp("too many round sizes")
+            layout = self.layouts[values] = _layout(values, field.elem_bytes)
         if not head.startswith(layout.round_prefix):
             raise _GiveUp("round header")
-        self._flush()
         self.layout = layout
         return head, layout
 
     # ----- checking a block -----------------------------------------------------------
     def _flush(self) -> None:
-        """Check the runs read so far and settle them into the replay, or give up."""
+        """Check the runs read so far and settle them into the replay, or give up. Runs are
+        grouped by layout (one array per round size) but settled and hashed in stream order."""
         if not self.runs:
             return
+        from stepper.roundblock import block_passes
+
+        runs, kernel = self.runs, self.kernel
+        assert kernel is not None
+        self.runs, self.rows, self.pending_bytes = [], 0, 0
+        members: dict[_Layout, list[tuple[InstanceStart, bytes, bytes, _Layout]]] = {}
+        for run in runs:
+            members.setdefault(run[3], []).append(run)
+        blocks = {layout: _Block(layout, group) for layout, group in members.items()}
+        replay = self.replay
+        for start, _, _, layout in runs:
+            block = blocks[layout]
+            replay.settle(start, block.next_final())
+            schedule = replay.schedule  # the first settle may start the default schedule
+            if schedule is not None:
+                block.absorb(schedule, start.num_vars)
+        for block in blocks.values():
+            rederived = block.rederived(kernel, replay.schedule)
+            if not block_passes(kernel, block.evals, block.challenges, block.starts, block.claims, block.finals,
+                                rederived):
+                raise _GiveUp("a check fails in this block")
+
+
+class _Block:
+    """The runs of one layout in a flush, as arrays (rows of packed bytes, decoded values),
+    and the Fiat-Shamir digests squeezed for them so far."""
+
+    def __init__(self, layout: _Layout, runs: list[tuple[InstanceStart, bytes, bytes, _Layout]]) -> None:
         import numpy as np
 
-        from stepper.roundblock import block_passes, reduce_wide
-
-        runs, layout, kernel = self.runs, self.layout, self.kernel
-        assert layout is not None and kernel is not None
-        self.runs, self.rows = [], 0
-        stride, width, values = layout.stride, layout.width, layout.values
-        rounds = [start.num_vars for start, _, _ in runs]
-        final_len = layout.final_len
-        rows = np.frombuffer(b"".join([part for _, head, rest in runs for part in (head, rest[:-final_len])]),
-                             dtype=np.uint8).reshape(-1, stride)
+        self.layout = layout
+        final_len, width = layout.final_len, layout.width
+        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs for part in (head, rest[:-final_len])]),
+                             dtype=np.uint8).reshape(-1, layout.stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
         if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
                 and np.array_equal(rows[:, layout.round_len:challenge_at],
                                    _bytes_row(layout.challenge_prefix, len(rows)))):
             raise _GiveUp("events laid out otherwise")
-        evals = _little_endian(rows[:, round_at:layout.round_len], width).reshape(len(rows), values)
-        challenges = _little_endian(rows[:, challenge_at:], width)
-        finals = _little_endian(np.frombuffer(b"".join([rest[-width:] for _, _, rest in runs]), dtype=np.uint8)
-                                .reshape(-1, width), width)
-        claims = np.array([start.claim for start, _, _ in runs], dtype=np.uint64)
-        starts = np.zeros(len(runs), dtype=np.int64)
-        np.cumsum(rounds[:-1], out=starts[1:])
-        final_values = finals.tolist()
-        replay, rederived = self.replay, None
-        view: memoryview | None = None
-        digests: list[bytes] = []
-        round_len = frame_len = 0
-        for (start, _, _), final, first in zip(runs, final_values, starts.tolist()):
-            replay.settle(start, final)
-            schedule = replay.schedule  # the first settle may start the default schedule
-            if schedule is not None:
-                if view is None:
-                    frames, round_len = _frames(schedule.row_heads(values), rows, layout)
-                    view, frame_len = memoryview(frames.reshape(-1)), frames.shape[1]
-                schedule.absorb_rows(view, first, start.num_vars, round_len, frame_len, digests)
-        if digests:
-            if len(digests) != len(rows) or schedule is None:
-                raise _GiveUp("challenges re-derived for only part of the block")
-            squeezed = np.frombuffer(b"".join(digests), dtype=np.uint8).reshape(-1, 32)
-            rederived = reduce_wide(kernel, squeezed, schedule.wide_bytes)
-        if not block_passes(kernel, evals, challenges, starts, claims, finals, rederived):
-            raise _GiveUp("a check fails in this block")
+        self.rows = rows
+        self.evals = _little_endian(rows[:, round_at:layout.round_len], width).reshape(len(rows), layout.values)
+        self.challenges = _little_endian(rows[:, challenge_at:], width)
+        self.finals = _little_endian(np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
+                                                   dtype=np.uint8).reshape(-1, width), width)
+        self.claims = np.array([start.claim for start, _, _, _ in runs], dtype=np.uint64)
+        self.starts = np.zeros(len(runs), dtype=np.int64)
+        np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
+        self._finals = iter(self.finals.tolist())
+        self._firsts = iter(self.starts.tolist())
+        self._view: memoryview | None = None
+        self._round_len = self._frame_len = 0
+        self.digests: list[bytes] = []
+
+    def next_final(self) -> int:
+        """The final value of the next run of this block, in stream order."""
+        return next(self._finals)  # type: ignore[no-any-return]
+
+    def absorb(self, schedule: Sha256Schedule, rounds: int) -> None:
+        """Run the schedule over the next run of this block (its statement already absorbed)."""
+        if self._view is None:
+            frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
+            self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]
+        schedule.absorb_rows(self._view, next(self._firsts), rounds, self._round_len, self._frame_len,
+                             self.digests)
+
+    def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
+        """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
+        import numpy as np
+
+        from stepper.roundblock import reduce_wide
+
+        if not self.digests and schedule is None:
+            return None
+        if schedule is None or len(self.digests) != len(self.rows):
+            raise _GiveUp("challenges re-derived for only part of the block")
+        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(-1, 32)
+        return reduce_wide(kernel, squeezed, schedule.wide_bytes)
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:
