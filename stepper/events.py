@@ -21,10 +21,12 @@ from __future__ import annotations
 import struct
 from typing import Any, Callable, Iterable, Iterator, Mapping
 
-from stepper.elements import clip_text
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field import Element, Field, field_from_spec
 from stepper.packed import decoder_for, unpack_elements
+from stepper.payload_rules import (
+    MAX_DEGREE, MAX_NUM_VARS, MAX_SIZES, MAX_TEXT, MAX_VALUES, checked_count, checked_text, plain, short,
+)
 from stepper.payloads import to_payload
 from stepper.poly import FORMS, ORDERS
 from stepper.transcript import (
@@ -44,14 +46,8 @@ from stepper.transcript import (
     RoundMsgDraft,
 )
 
-__all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_TEXT", "MAX_NUM_VARS", "MAX_DEGREE"]
-
-MAX_VALUES = 1 << 16  # field elements in one event
-MAX_SIZES = 1 << 22  # bucket sizes in one event
-MAX_TEXT = 1 << 16  # characters in one string
-MAX_NUM_VARS = 64
-MAX_DEGREE = 1 << 12
-MAX_DEPTH = 16  # nesting of unknown payloads and metadata
+__all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
+           "MAX_DEGREE"]
 
 KNOWN_TYPES = ("field", "schedule", "batch", "instance", "round", "challenge", "final", "buckets", "note")
 
@@ -231,15 +227,15 @@ class Sequencer:
             raise self._fail(f"expected an event map with a `type`, found {type(payload).__name__}")
         kind = payload.get("type")
         if not isinstance(kind, str):
-            raise self._fail(f"expected a string `type` in every event, found {_short(kind)}")
+            raise self._fail(f"expected a string `type` in every event, found {short(kind)}")
         if self.field is None and kind != "field":
             if kind in KNOWN_TYPES:
-                raise self._fail(f"expected the `field` event first, found `{_short(kind)}`")
-            return UnknownEvent(kind[:MAX_TEXT], _plain(payload, self, 0))
+                raise self._fail(f"expected the `field` event first, found `{short(kind)}`")
+            return UnknownEvent(kind[:MAX_TEXT], plain(payload, self._fail))
         handler = getattr(self, "_on_" + kind, None) if kind in KNOWN_TYPES else None
         if handler is None:
             cur = self.current
-            return UnknownEvent(kind[:MAX_TEXT], _plain(payload, self, 0), cur.index if cur else None)
+            return UnknownEvent(kind[:MAX_TEXT], plain(payload, self._fail), cur.index if cur else None)
         return handler(payload)  # type: ignore[no-any-return]
 
     def _on_field(self, payload: Mapping[str, Any]) -> Event:
@@ -264,12 +260,12 @@ class Sequencer:
     def _on_schedule(self, payload: Mapping[str, Any]) -> Event:
         if self.instances:
             raise self._fail("expected the `schedule` event before the first instance")
-        name = _text(payload.get("name"), "schedule name", self)
-        label = _text(payload.get("label", ""), "schedule label", self)
+        name = checked_text(payload.get("name"), "schedule name", self._fail)
+        label = checked_text(payload.get("label", ""), "schedule label", self._fail)
         params = payload.get("params", {})
         if not isinstance(params, Mapping):
             raise self._fail("expected schedule `params` as a map")
-        return ScheduleDecl(name, label, _plain(params, self, 0))
+        return ScheduleDecl(name, label, plain(params, self._fail))
 
     def _on_batch(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()
@@ -278,25 +274,25 @@ class Sequencer:
         sources_raw = payload.get("sources", [])
         if not isinstance(sources_raw, list) or len(sources_raw) > len(terms) or len(sources_raw) > MAX_VALUES:
             raise self._fail("expected batch `sources` as a list of at most one string per term")
-        sources = tuple(_text(s, "batch source", self) for s in sources_raw)
+        sources = tuple(checked_text(s, "batch source", self._fail) for s in sources_raw)
         self.pending_batch = BatchDecl(coefficient, terms, sources)
         return self.pending_batch
 
     def _on_instance(self, payload: Mapping[str, Any]) -> Event:
         name = payload.get("name", self)  # the default name is formatted only when there is no name
-        name = f"instance {len(self.instances)}" if name is self else _text(name, "instance name", self)
+        name = f"instance {len(self.instances)}" if name is self else checked_text(name, "instance name", self._fail)
         num_vars, degree = payload.get("num_vars"), payload.get("degree")
         if num_vars.__class__ is not int or not 0 <= num_vars <= MAX_NUM_VARS:  # type: ignore[operator]
-            num_vars = _count(num_vars, "num_vars", 0, MAX_NUM_VARS, self)
+            num_vars = checked_count(num_vars, "num_vars", 0, MAX_NUM_VARS, self._fail)
         if degree.__class__ is not int or not 0 <= degree <= MAX_DEGREE:  # type: ignore[operator]
-            degree = _count(degree, "degree", 0, MAX_DEGREE, self)
+            degree = checked_count(degree, "degree", 0, MAX_DEGREE, self._fail)
         claim = self._element(payload.get("claim"), "claim")
         order = payload.get("order", "low-first")
         if order not in ORDERS:
-            raise self._fail(f"expected `order` among {', '.join(ORDERS)}, found {_short(order)}")
+            raise self._fail(f"expected `order` among {', '.join(ORDERS)}, found {short(order)}")
         form = payload.get("form", "evals")
         if form not in FORMS:
-            raise self._fail(f"expected `form` among {', '.join(FORMS)}, found {_short(form)}")
+            raise self._fail(f"expected `form` among {', '.join(FORMS)}, found {short(form)}")
         start = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
             len(self.instances), name, num_vars, degree, claim)
@@ -354,15 +350,15 @@ class Sequencer:
 
     def _on_buckets(self, payload: Mapping[str, Any]) -> Event:
         cur = self._need_instance("buckets")
-        round_ = _count(payload.get("round"), "buckets round", 0, MAX_NUM_VARS, self)
-        chunk = _count(payload.get("chunk"), "buckets chunk", 0, 1 << 20, self)
-        count = _count(payload.get("count"), "buckets count", 0, 1 << 62, self)
+        round_ = checked_count(payload.get("round"), "buckets round", 0, MAX_NUM_VARS, self._fail)
+        chunk = checked_count(payload.get("chunk"), "buckets chunk", 0, 1 << 20, self._fail)
+        count = checked_count(payload.get("count"), "buckets count", 0, 1 << 62, self._fail)
         sizes_raw = payload.get("sizes")
         sizes: tuple[int, ...] | None = None
         if sizes_raw is not None:
             if not isinstance(sizes_raw, list) or len(sizes_raw) > MAX_SIZES:
                 raise self._fail(f"expected bucket `sizes` as a list of at most {MAX_SIZES} counts")
-            sizes = tuple(_count(s, "bucket size", 0, 1 << 62, self) for s in sizes_raw)
+            sizes = tuple(checked_count(s, "bucket size", 0, 1 << 62, self._fail) for s in sizes_raw)
         bound = payload.get("bound_log2")
         remaining = payload.get("remaining")
         extra = {k: v for k, v in payload.items()
@@ -373,27 +369,27 @@ class Sequencer:
             chunk,
             count,
             sizes,
-            None if bound is None else _count(bound, "bound_log2", 0, 1 << 40, self),
-            None if remaining is None else _count(remaining, "remaining", 0, 1 << 62, self),
-            _plain(extra, self, 0),
+            None if bound is None else checked_count(bound, "bound_log2", 0, 1 << 40, self._fail),
+            None if remaining is None else checked_count(remaining, "remaining", 0, 1 << 62, self._fail),
+            plain(extra, self._fail),
         )
 
     def _on_note(self, payload: Mapping[str, Any]) -> Event:
-        text = _text(payload.get("text"), "note text", self)
+        text = checked_text(payload.get("text"), "note text", self._fail)
         target = payload.get("instance")
         if target is None:
             index = self.current.index if self.current else None
         elif isinstance(target, str):
             matches = [s.index for s in self.instances if s.name == target]
             if not matches:
-                raise self._fail(f"expected a note's `instance` to name an instance seen so far, found {_short(target)}")
+                raise self._fail(f"expected a note's `instance` to name an instance seen so far, found {short(target)}")
             index = matches[-1]
         else:
-            index = _count(target, "note instance", 0, max(0, len(self.instances) - 1), self)
+            index = checked_count(target, "note instance", 0, max(0, len(self.instances) - 1), self._fail)
             if not self.instances:
                 raise self._fail("expected a note's `instance` to refer to an instance seen so far")
         round_raw = payload.get("round")
-        round_ = None if round_raw is None else _count(round_raw, "note round", 0, MAX_NUM_VARS, self)
+        round_ = None if round_raw is None else checked_count(round_raw, "note round", 0, MAX_NUM_VARS, self._fail)
         return Note(text, index, round_)
 
     # ----- helpers -------------------------------------------------------------------
@@ -432,44 +428,13 @@ class Sequencer:
                 raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(values)}", round_)
             return values  # type: ignore[no-any-return]
         if not isinstance(raw, list):
-            raise self._fail(f"expected {what} as a list, found {_short(raw)}", round_)
+            raise self._fail(f"expected {what} as a list, found {short(raw)}", round_)
         if len(raw) > MAX_VALUES:
             raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(raw)}", round_)
         return tuple(self._element(v, what, round_) for v in raw)
 
 
-def _short(value: object) -> str:
-    return clip_text(repr(value), 40)
-
-
-def _text(value: object, what: str, seq: Sequencer) -> str:
-    if not isinstance(value, str):
-        raise seq._fail(f"expected {what} as a string, found {_short(value)}")
-    if len(value) > MAX_TEXT:
-        raise seq._fail(f"expected {what} of at most {MAX_TEXT} characters, found {len(value)}")
-    return value
-
-
-def _count(value: object, what: str, low: int, high: int, seq: Sequencer) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
-        raise seq._fail(f"expected {what} an integer in {low}..{high}, found {_short(value)}")
-    return value
-
-
 def plain_copy(value: Any, where: Where | None = None) -> Any:
     """A capped copy of free-form data (metadata, unknown payloads): refuses deep
     nesting and huge strings with a :class:`TranscriptError` at ``where``."""
-    return _plain(value, Sequencer(where), 0)
-
-
-def _plain(value: Any, seq: Sequencer, depth: int) -> Any:
-    """A copy of arbitrary payload data, refusing deep nesting and huge strings."""
-    if depth > MAX_DEPTH:
-        raise seq._fail(f"expected payload nesting of at most {MAX_DEPTH} levels")
-    if isinstance(value, Mapping):
-        return {str(k)[:MAX_TEXT]: _plain(v, seq, depth + 1) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v, seq, depth + 1) for v in value]
-    if isinstance(value, str) and len(value) > MAX_TEXT:
-        raise seq._fail(f"expected strings of at most {MAX_TEXT} characters, found {len(value)}")
-    return value
+    return plain(value, Sequencer(where)._fail)

@@ -79,8 +79,9 @@ class Sha256Schedule:
         self._challenge_head = b""
         self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
         self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
-        self._shapes: dict[tuple[str, str], bytes] = {}
-        self._row_cuts: dict[tuple[int, int, int], Callable[[memoryview], tuple[memoryview, ...]]] = {}  # _text(order) + _text(form), by (order, form)
+        self._shapes: dict[tuple[str, str], bytes] = {}  # _text(order) + _text(form), by (order, form)
+        # itemgetters cutting a run of rows into its absorbed pieces, by (rounds, round frame, row length)
+        self._row_cuts: dict[tuple[int, int, int], Callable[[memoryview], tuple[memoryview, ...]]] = {}
 
     @property
     def wide_bytes(self) -> int:
@@ -114,8 +115,8 @@ class Sha256Schedule:
             if shape is None:
                 shape = self._shapes[(record.order, record.form)] = (  # type: ignore[union-attr]
                     _text(record.order) + _text(record.form))  # type: ignore[union-attr]
-            body = (len(name).to_bytes(8, "little") + name + _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
-                    + shape + self._el(record.claim))  # type: ignore[union-attr]
+            counts = _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
+            body = len(name).to_bytes(8, "little") + name + counts + shape + self._el(record.claim)  # type: ignore[union-attr]
             self._state.update(_INSTANCE_HEAD + len(body).to_bytes(8, "little") + body)  # frame("instance", body)
         elif cls is FieldDecl:
             self._set_field(record.field)  # type: ignore[union-attr]
