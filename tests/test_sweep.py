@@ -605,3 +605,21 @@ def test_sweep_returns_none_on_event_files_directories_and_missing_files(tmp_pat
     for path in (tmp_path, tmp_path / "absent.stp", empty):
         code, out, err, _ = check_both(capsys, monkeypatch, path)
         assert code == 2 and out == "" and err.startswith("stepper check: ")
+
+
+def test_a_file_without_an_end_event_is_declined_before_it_is_read(tmp_path, monkeypatch):
+    # An unfinished transcript (a prover still writing it) would be read in full and then given up;
+    # the sweep looks at the file's last megabyte for an end event first.
+    written = write_transcript(tmp_path / "whole.stp", Knobs(instances=6))
+    data = written.path.read_bytes()
+    cut = tmp_path / "cut.stp"
+    cut.write_bytes(data[: len(data) - 80])  # the end event and some of the last final go
+    assert end_payload(0, b"")["type"] == "end"
+
+    runs: list[object] = []
+    monkeypatch.setattr(sweep_module._Sweeper, "run", lambda self: runs.append(self))  # the sweep swallows errors
+    assert sweep(cut, Replay(keep_instances=20, emit_passing=False)) is None
+    assert runs == [], "the sweep started reading a file that has no end event"
+    monkeypatch.undo()
+    assert event_by_event(cut, 20)[0].verdict == "incomplete"
+    assert swept_report(written.path, 20) is not None  # the whole file is still taken

@@ -26,7 +26,8 @@ included. A rejected or damaged file costs the partial sweep on top of the usual
 replay; an accepted one about a quarter of it (``python3 bench/check.py``). Runs
 of different round sizes are grouped per size within a block, and settled and
 hashed in stream order. Files under ``SMALL_FILE_BYTES`` are left to the
-event-by-event replay, which there costs less than importing numpy.
+event-by-event replay, which there costs less than importing numpy, and so are
+files with no end event in their last megabyte (still being written).
 ``STEPPER_SWEEP=off`` turns the sweep off, ``STEPPER_SWEEP=on`` applies it to
 files of any size (tests).
 """
@@ -61,6 +62,8 @@ BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cac
 LOOSE_ROUNDS = 1 << 12  # rounds outside runs before the sweep leaves the file to the usual replay
 SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
 _ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
+# the first bytes of an end event as the writer packs it (writer.end_payload): a map of 3, "type": "end", "events"
+_END_KEYS = b"\x83" + b"".join(msgpack.packb(word) for word in ("type", "end", "events"))
 
 
 @dataclass(frozen=True, slots=True)
@@ -118,9 +121,23 @@ def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note]
         if setting not in ("1", "on", "yes", "true") and os.stat(path).st_size < min_bytes:
             return None
         with open(path, "rb") as handle:
+            if not _sealed(handle):
+                return None  # incomplete (still being written?): the sweep would read it all, then give up
             return _Sweeper(handle, str(path), replay, on_note, limits or ReadLimits()).run()
     except Exception:  # noqa: BLE001 - any problem at all: the event-by-event replay judges and names it
         return None
+
+
+def _sealed(handle: Any, tail: int = 1 << 20) -> bool:
+    """Whether the last ``tail`` bytes hold the start of an end event as the writer packs it
+    (a cheap look before a sweep; the sweep itself checks the end event in full). Notes
+    appended after the end event that fill more than ``tail`` bytes make this say no: the
+    event-by-event replay then reads the file, as it would anyway."""
+    size = handle.seek(0, os.SEEK_END)
+    handle.seek(max(0, size - tail))
+    found = _END_KEYS in handle.read(tail)
+    handle.seek(0)
+    return found
 
 
 class _Sweeper:
