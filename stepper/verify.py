@@ -183,10 +183,7 @@ class Replay:
                 or self._pending_batch is not None):
             raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
                              "an instance in bulk")
-        self._close()
-        self._source.before_statement()
-        self._source.start_instance(has_batch=False)
-        self._source.observe(start)
+        self._open_statement(start, False)
         ledger = self._ledger
         if not ledger.keeps_passing():
             ledger.passed_unkept(start)
@@ -202,6 +199,15 @@ class Replay:
         """The built-in schedule re-deriving challenges, if any (None with a plug-in or no schedule)."""
         return self._source.schedule
 
+    def _open_statement(self, start: InstanceStart, has_batch: bool) -> list[Result]:
+        """Close the previous instance (its pending results) and let the challenge source see
+        the new statement: the default schedule if none was declared, then the statement absorbed."""
+        out = self._close()
+        self._source.before_statement()
+        self._source.start_instance(has_batch=has_batch)
+        self._source.observe(start)
+        return out
+
     def _need_field(self) -> Field:
         if self.field is None:
             raise InputError("expected a field event before the first instance, found none")
@@ -216,12 +222,9 @@ class Replay:
 
     def _on_instance(self, start: InstanceStart) -> list[Result]:
         field = self._need_field()
-        out = self._close()
-        self._source.before_statement()
         batch = start.batch or self._pending_batch
         self._pending_batch = None
-        self._source.start_instance(has_batch=batch is not None)
-        self._source.observe(start)
+        out = self._open_statement(start, batch is not None)
         live = LiveInstance(start, self.keep_rounds)
         self._live = live
         self._ledger.opened(start)

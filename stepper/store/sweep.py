@@ -169,8 +169,9 @@ class _Sweeper:
         if not chunk:
             return False
         self.total += len(chunk)
-        if self.total > self.limits.max_total_bytes or self.digest is None:
+        if self.total > self.limits.max_total_bytes:
             raise _GiveUp("file too large")
+        assert self.digest is not None  # set by run() before anything is read
         self.digest.add(chunk, self._offset() - END_MAX_BYTES)
         self.unpacker.feed(chunk)
         return True
