@@ -2,10 +2,11 @@
 
 :class:`StepperApp` owns the model (what was read and what the replay said),
 the file it came from (for following and notes) and the optional witness
-diagnosis; the screens own presentation. With ``follow`` a timer re-reads the
-file when it grows and the screens repaint; a half-written tail is not an
-event yet, so it waits for the next tick. With ``compare`` the diff engineer's
-compare screen (:mod:`stepper.app.compare_screen`) opens on top, when present.
+diagnosis; the screens own presentation. With ``follow`` a timer reads what the
+file gained since the last look (only the appended bytes) and the screens
+repaint; a half-written tail is not an event yet, so it waits for the next tick.
+With ``compare`` the compare screen (:mod:`stepper.app.compare_screen`) opens on
+top, when present.
 """
 
 from __future__ import annotations
@@ -70,7 +71,7 @@ class StepperApp(App[int]):
         field can be read. ``progressive`` reads only the start now and the rest in
         slices once the app runs (the first screen paints at once); otherwise the
         whole file is read and checked first. A witness implies a full first read."""
-        source = TranscriptSource(path, witness)
+        source = TranscriptSource(path, witness, follow=bool(options.get("follow", False)))
         if progressive and witness is None:
             model = source.open_start(strict)
             return cls(model, source=source, **options)
@@ -90,6 +91,10 @@ class StepperApp(App[int]):
             self.set_interval(self.poll_seconds, self.poll_file, name="follow")
         if self.compare is not None:
             self.open_compare(self.compare)
+
+    def on_unmount(self) -> None:
+        if self.source is not None and not self.model.loading:
+            self.source.close()  # the file kept open for following
 
     def open_compare(self, other: str | Path) -> None:
         """Push the compare screen for this file against ``other``, or say it is missing."""

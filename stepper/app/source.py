@@ -6,9 +6,15 @@ event files alike). ``begin`` opens the file and ``pump`` feeds at most a given
 number of events per call, so the app paints the first instance at once and
 checks the rest between key presses. A file that breaks part-way is not fatal
 here: the events before the break are shown and the break becomes ``problem``,
-one line that says what was expected, what was found and where. Following
-re-opens the file when its size changes and feeds only the events not seen
-before; a half-written tail is simply not an event yet.
+one line that says what was expected, what was found and where.
+
+Following (``follow=True``) keeps the file open after the first read, as a
+:class:`stepper.store.follow.FollowedStream`: each time the file grows, only the
+appended bytes are read and their complete events fed (a half-written tail is
+simply not an event yet). Only when the path names another file, or a file
+shorter than what was read (rewritten from scratch), or the last read broke,
+is the file read again from byte 0, feeding the events beyond those already fed.
+Notes saved from the app are not fed a second time when the stream reaches them.
 """
 
 from __future__ import annotations
@@ -35,15 +41,18 @@ def new_model(source: str = "", header: Header | None = None) -> ProofModel:
 class TranscriptSource:
     """One transcript file (and optionally a witness) feeding one model."""
 
-    def __init__(self, path: str | Path, witness: str | Path | None = None) -> None:
+    def __init__(self, path: str | Path, witness: str | Path | None = None, *, follow: bool = False) -> None:
         self.path = Path(path)
         self.witness_path = Path(witness) if witness is not None else None
+        self.follow = follow
         self.problem: str | None = None
         self.diagnosis: Any = None
         self._size = -1
         self._fed = 0
         self._stream: Any = None
         self._records: Iterator[Event] | None = None
+        self._own_notes: list[Note] = []  # saved here, not yet met again by the followed stream
+        self._skip = 0  # records of the followed stream still to pass over (fed from an earlier read)
 
     # ----- first read, in slices ----------------------------------------------------
     def begin(self) -> ProofModel:
@@ -56,7 +65,7 @@ class TranscriptSource:
         model.loading = True
         try:
             self._size = os.stat(self.path).st_size
-            self._stream = open_events(self.path, best_effort=True)
+            self._stream = self._open_stream() if self.follow else open_events(self.path, best_effort=True)
             self._records = iter(self._stream)
             model.header = self._stream.header
         except StepperError as err:
@@ -75,10 +84,16 @@ class TranscriptSource:
                 record = next(records, None)
                 if record is None:
                     stream = self._stream
-                    self._close()
+                    if self.follow:
+                        self._records = None  # the stream stays open for `refresh`
+                    else:
+                        self._close()
                     model.loading = False
                     model.finish(stream.completeness, stream.digest, _final(stream))
                     return True
+                if self._own_notes and record == self._own_notes[0]:
+                    self._own_notes.pop(0)  # saved from the app while reading: already shown
+                    continue
                 model.feed(record)
                 self._fed += 1
         except StepperError as err:
@@ -114,46 +129,77 @@ class TranscriptSource:
         model.loading = False
         model.finish("incomplete", "missing", final=False)
 
+    def close(self) -> None:
+        """Let go of the file kept open for following (a later :meth:`refresh` reads it from byte 0)."""
+        self._close()
+
     def _close(self) -> None:
         if self._stream is not None:
             self._stream.close()
         self._stream = None
         self._records = None
+        self._own_notes.clear()
+        self._skip = 0
+
+    def _open_stream(self) -> Any:
+        from stepper.store.follow import FollowedStream
+
+        return FollowedStream(self.path, best_effort=True)
 
     # ----- following ---------------------------------------------------------------
     def refresh(self, model: ProofModel) -> int:
         """Feed the events written since the last look; returns how many arrived."""
-        from stepper.store import open_events
-
         if model.loading:
             return 0
         try:
-            size = os.stat(self.path).st_size
+            now = os.stat(self.path)
         except OSError as err:
             self.problem = f"{self.path}: cannot read ({err.strerror or err})"
             return 0
-        if size == self._size:
+        if now.st_size == self._size:
             return 0
-        self._size = size
+        self._size = now.st_size
         before = self._fed
-        seen = 0
         try:
-            with open_events(self.path, best_effort=True) as events:
-                if model.events_seen == 0:
-                    model.header = events.header
-                for record in events:
-                    seen += 1
-                    if seen > self._fed:
-                        model.feed(record)
-                        self._fed = seen
-                model.finish(events.completeness, events.digest, _final(events))
+            stream = self._stream
+            if stream is not None and stream.continues(now):
+                self._feed_new(model, stream.more())
+            else:
+                self._reread(model)
+            stream = self._stream
+            model.finish(stream.completeness, stream.digest, _final(stream))
             self.problem = None
         except StepperError as err:
+            self._close()
             self.problem = str(err)
             model.generation += 1
         except OSError as err:
+            self._close()
             self.problem = f"{self.path}: cannot read ({err.strerror or err})"
         return self._fed - before
+
+    def _feed_new(self, model: ProofModel, records: Iterator[Event]) -> None:
+        """Feed the records not fed before: after a read from byte 0 the first ``_skip``
+        were; a note saved here is met again in the file."""
+        own = self._own_notes
+        for record in records:
+            if self._skip:
+                self._skip -= 1
+            elif own and record == own[0]:
+                own.pop(0)
+            else:
+                model.feed(record)
+                self._fed += 1
+
+    def _reread(self, model: ProofModel) -> None:
+        """Read the file again from byte 0, feeding the events beyond those already fed, and
+        keep it open for the next look."""
+        self._close()
+        self._stream = stream = self._open_stream()
+        if model.events_seen == 0:
+            model.header = stream.header
+        self._skip = self._fed
+        self._feed_new(model, stream)
 
     # ----- notes and witness -------------------------------------------------------
     def save_note(self, model: ProofModel, note: Note) -> None:
@@ -162,6 +208,8 @@ class TranscriptSource:
 
         append_note(self.path, note)
         self._fed += 1
+        if self._stream is not None:
+            self._own_notes.append(note)
         try:
             self._size = os.stat(self.path).st_size
         except OSError:
