@@ -64,7 +64,7 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
     l0, l1, l2 = limbs[:, 0], limbs[:, 1], limbs[:, 2]
     # Goldilocks: 2^128 = -2^32 (mod p), so the value is (l1 * 2^64 + l0) - l2 * 2^32, and
     # l2 * 2^32 = (l2 >> 32) * 2^64 + (l2 mod 2^32) * 2^32: two 128-bit reductions, no multiply.
-    reduce128 = kernel._reduce128  # type: ignore[attr-defined]
+    reduce128 = kernel.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
     m32, s32 = np.uint64(0xFFFFFFFF), np.uint64(32)
     return kernel.sub(reduce128(l0, l1), reduce128((l2 & m32) << s32, l2 >> s32))
 

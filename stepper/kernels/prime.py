@@ -207,9 +207,9 @@ class GoldilocksKernel(WideKernel):
         lo_new = lo + (mid << s32)
         carry = (lo_new < lo).astype(np.uint64)
         hi = a1 * b1 + (mid >> s32) + (mid_carry << s32) + carry
-        return self._reduce128(lo_new, hi)
+        return self.reduce128(lo_new, hi)
 
-    def _reduce128(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    def reduce128(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
         """(hi * 2^64 + lo) mod p with hi = hh * 2^32 + hl: lo - hh + hl * (2^32 - 1)."""
         m32 = np.uint64(0xFFFFFFFF)
         hh = hi >> np.uint64(32)
