@@ -47,7 +47,7 @@ def payloads(instances: int, rounds: int, seed: int = 740) -> Iterator[dict[str,
 
 
 def write(path: Path, instances: int, rounds: int) -> Path:
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.store import TranscriptWriter
 
     with TranscriptWriter(path, metadata={"sailing": "isle-of-quill-0740"}) as writer:
         for payload in payloads(instances, rounds):

@@ -7,13 +7,13 @@ too). Then, side by side in one run, in ``--repeat`` interleaved rounds (best of
 
 * decode: iterate every msgpack object of the file with ``msgpack.Unpacker``, in
   this process, and in a fresh process (interpreter, ``import msgpack``, decode);
-* reading: iterate the records with ``stepper.store.open_events`` (validation included);
+* reading: iterate the records with ``stepper.transcript.store.open_events`` (validation included);
 * hashing: only the SHA-256 calls the schedule makes per round (absorb the round,
   copy, squeeze, digest, absorb the challenge) on bytes prepared beforehand: the
   floor of re-deriving challenges with hashlib from Python;
 * replay: ``open_events`` + ``Replay.feed_all`` in this process: the event-by-event
   replay, which ``check`` falls back to when the sweep gives up (a failing check);
-* sweep: ``stepper.store.sweep`` in this process (what ``check`` does between start-up
+* sweep: ``stepper.verify.sweep`` in this process (what ``check`` does between start-up
   and printing when the file passes);
 * check: the whole ``stepper check FILE`` command in a fresh process (reading,
   replay, re-derivation, human output to /dev/null), start-up measured apart.
@@ -44,12 +44,12 @@ from pathlib import Path
 
 import msgpack
 
-from stepper.field import NAMED_PRIMES, get_field
-from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
-from stepper.lagrange import evaluate_round
-from stepper.store import TranscriptWriter, open_events
-from stepper.store.writer import MAGIC
-from stepper.packed import pack_elements
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.field.lagrange import evaluate_round
+from stepper.transcript.store import TranscriptWriter, open_events
+from stepper.transcript.store.writer import MAGIC
+from stepper.transcript.packed import pack_elements
 
 DEGREE = 3
 
@@ -111,8 +111,8 @@ def run_check(path: Path) -> tuple[float, float, float]:
 
 def startup() -> float:
     """CPU seconds of a Python process that only imports what `stepper check` imports."""
-    _, cpu, _, code = _child([sys.executable, "-c", "import stepper.cli.main, stepper.store.sweep, stepper.verify, "
-                              "stepper.roundblock"])
+    _, cpu, _, code = _child([sys.executable, "-c", "import stepper.cli.main, stepper.verify.sweep, stepper.verify.replay, "
+                              "stepper.verify.roundblock"])
     assert code == 0
     return cpu
 
@@ -131,7 +131,7 @@ def stream_only(path: Path) -> None:
 
 
 def replay_in_process(path: Path) -> None:
-    from stepper.verify import Replay
+    from stepper.verify.replay import Replay
 
     replay = Replay(keep_instances=20, emit_passing=False)
     with open_events(path) as stream:
@@ -141,8 +141,8 @@ def replay_in_process(path: Path) -> None:
 
 
 def sweep_in_process(path: Path) -> None:
-    from stepper.store.sweep import sweep
-    from stepper.verify import Replay
+    from stepper.verify.sweep import sweep
+    from stepper.verify.replay import Replay
 
     replay = Replay(keep_instances=20, emit_passing=False)
     assert sweep(path, replay) is not None, "the sweep should take the whole bench transcript"
@@ -213,7 +213,7 @@ def main_bench() -> None:
         rss_small = run_check(small)[2]
         print(f"CPU seconds (user + system), best of {args.repeat} interleaved rounds")
         print(f"bare msgpack decode:            {decode:.3f} s ({objects} objects)")
-        print(f"stepper.store reading alone:    {t['reading']:.3f} s ({t['reading'] / decode:.1f}x decode)")
+        print(f"stepper.transcript.store reading alone:    {t['reading']:.3f} s ({t['reading'] / decode:.1f}x decode)")
         print(f"SHA-256 calls alone (floor):    {t['hashing']:.3f} s ({t['hashing'] / decode:.1f}x decode)")
         print(f"event-by-event replay:          {t['replay']:.3f} s ({t['replay'] / decode:.1f}x decode; what check "
               "does when the sweep gives up)")

@@ -26,7 +26,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from stepper.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, Field, get_field
+from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, Field, get_field
 
 FIELDS = (
     "babybear",

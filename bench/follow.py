@@ -31,7 +31,7 @@ Poll = Callable[[], int]
 
 def full_reread_poll(path: Path, model: Any, fed: list[int]) -> int:
     """The poll as ``TranscriptSource.refresh`` did it before following was incremental."""
-    from stepper.store import open_events
+    from stepper.transcript.store import open_events
 
     before, seen = fed[0], 0
     with open_events(path, best_effort=True) as events:
@@ -46,7 +46,7 @@ def full_reread_poll(path: Path, model: Any, fed: list[int]) -> int:
 
 def read_all(path: Path) -> int:
     """Reading alone, the old way: every event from byte 0."""
-    from stepper.store import open_events
+    from stepper.transcript.store import open_events
 
     with open_events(path, best_effort=True) as events:
         return sum(1 for _ in events)
@@ -60,8 +60,8 @@ def cpu(poll: Poll) -> tuple[float, int]:
 
 def main(argv: list[str] | None = None) -> int:
     from stepper.app.source import TranscriptSource
-    from stepper.store import TranscriptWriter
-    from stepper.store.follow import FollowedStream
+    from stepper.transcript.store import TranscriptWriter
+    from stepper.transcript.store.follow import FollowedStream
 
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--instances", type=int, default=4000)

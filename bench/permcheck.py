@@ -49,7 +49,7 @@ def main() -> None:
     parser.add_argument("--field", default="babybear")
     parser.add_argument("--seed", type=int, default=1)
     args = parser.parse_args()
-    from stepper.kernels.base import COMPILED_MIN
+    from stepper.field.kernels.base import COMPILED_MIN
 
     # warm up imports and the numba kernels (compiled the first time an array reaches
     # COMPILED_MIN entries) outside the timings; without it the first such mu pays the compile

@@ -28,9 +28,9 @@ FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--proxy-server=127.0.0.
 
 def demo_transcript(path: Path) -> Path:
     """A two-instance run with challenges from the built-in schedule; round 2 of the first is off by one."""
-    from stepper.events import Sequencer
-    from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.events import Sequencer
+    from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+    from stepper.transcript.store import TranscriptWriter
 
     p = 2**31 - 2**27 + 1  # BabyBear, common practice
     seq, schedule = Sequencer(), Sha256Schedule()
@@ -84,10 +84,10 @@ def main() -> int:
     if not Path(CHROMIUM).exists():
         print(f"skipped: {CHROMIUM} is absent (apt-get install chromium to run this check)")
         return 0
-    from stepper.report import build
-    from stepper.report_html import to_html
-    from stepper.store import load
-    from stepper.verify import replay_transcript
+    from stepper.share.report import build
+    from stepper.share.report_html import to_html
+    from stepper.transcript.store import load
+    from stepper.verify.replay import replay_transcript
 
     out = Path(args.out or tempfile.mkdtemp(prefix="stepper-render-"))
     out.mkdir(parents=True, exist_ok=True)

@@ -3,7 +3,7 @@
 For each field and size, builds an honest transcript of one degree-3 instance
 (combine ``ledger * scans * eq`` over three random base-field tables of 2^mu
 entries; challenges in the extension when one is named), then times
-:func:`stepper.rootcause.diagnose` (every round recomputed by folding, plus the
+:func:`stepper.diagnose.rootcause.diagnose` (every round recomputed by folding, plus the
 claim and final checks), and, in the same run, the bare kernels doing the same
 multiplications on arrays of the same shapes: per round on m remaining entries,
 (d + 1) points x (d - 1) products on m/2 entries, and 3 folds of m/2 entries
@@ -29,14 +29,14 @@ from typing import Callable
 
 import numpy as np
 
-from stepper.expr import parse
-from stepper.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, Field, get_field
-from stepper.honest import HonestRound, honest_rounds
-from stepper.poly import RoundPoly
-from stepper.rootcause import diagnose
-from stepper.transcript import ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, fold_events
-from stepper.verify import replay_transcript
-from stepper.witness import Witness, WitnessInstance
+from stepper.field.expr import parse
+from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, Field, get_field
+from stepper.diagnose.honest import HonestRound, honest_rounds
+from stepper.field.poly import RoundPoly
+from stepper.diagnose.rootcause import diagnose
+from stepper.transcript.model import ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, fold_events
+from stepper.verify.replay import replay_transcript
+from stepper.diagnose.witness import Witness, WitnessInstance
 
 COMBINE = "ledger * scans * eq"
 DEGREE = 3

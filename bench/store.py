@@ -3,14 +3,14 @@
 1. Reading: ``--rounds`` (default 10^6) rounds of degree 3 over Goldilocks, each
    followed by its challenge, in instances of 64 variables. Best of ``--repeat`` (default 5)
    CPU times of (a) iterating every object with a bare ``msgpack.Unpacker`` over
-   the file and (b) iterating every record with ``stepper.store.open_events``
+   the file and (b) iterating every record with ``stepper.transcript.store.open_events``
    (validation, canonical checks, digest). Target: (b) / (a) <= 3.
    The file is built with msgpack directly in the writer's exact layout (the
    writer validates every event and would dominate the set-up time); the reader
    verifying the digest shows the layout is the real one.
 2. Recording: a zero-check prover sum_x eq(z, x) * b(x) * (1 - b(x)) over 2^``--log-size``
    (default 20) Goldilocks entries, numpy kernels, low bit first, run with a
-   :class:`stepper.recorder.Recorder` writing every round and challenge and with
+   :class:`stepper.transcript.recorder.Recorder` writing every round and challenge and with
    the same calls going to a sink that drops them, alternated. The overhead is
    the median time spent inside the Recorder (opening, every call, sealing) over
    the best prover time (the worst run is printed too); the end-to-end difference
@@ -32,10 +32,10 @@ from typing import Any
 import msgpack
 import numpy as np
 
-from stepper.field import NAMED_PRIMES, get_field
-from stepper.recorder import Recorder
-from stepper.store import header_bytes, open_events
-from stepper.store.writer import end_payload
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.transcript.recorder import Recorder
+from stepper.transcript.store import header_bytes, open_events
+from stepper.transcript.store.writer import end_payload
 
 P = NAMED_PRIMES["goldilocks"]
 NUM_VARS = 64

@@ -5,7 +5,7 @@ boarding log must be a permutation of the booking ledger (grouped permutation
 check with a bucketed second layer), and every car-deck slot record must be
 well formed (zero-check). The reference prover sends event records to any
 object with ``write(record)``; `RecorderSink` below hands each one to the
-matching `stepper.recorder.Recorder` call.
+matching `stepper.transcript.recorder.Recorder` call.
 
     python samples/prove_sailing.py sailing.stp                 # honest
     python samples/prove_sailing.py sailing.stp stale-challenge@3   # with a prover bug
@@ -21,8 +21,8 @@ from typing import Any
 from stepper.errors import StepperError
 from stepper.provers.faults import parse_fault
 from stepper.provers.reference import ProveSpec, parse_field, prove
-from stepper.recorder import Recorder
-from stepper.transcript import (BatchDecl, BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
+from stepper.transcript.recorder import Recorder
+from stepper.transcript.model import (BatchDecl, BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
                                 RoundMsg, ScheduleDecl)
 
 

@@ -9,7 +9,7 @@ with a zero-check: sum_x eq(z, x) * b(x) * (1 - b(x)) = 0 for a random z
 `DeckProver` and `DeckChannel` below stand for code you already have: the
 prover calls `channel.absorb_poly(evals)` for each round polynomial and
 `channel.squeeze()` for each challenge, with a channel of its own design.
-`stepper.recorder.tap` wraps those two methods on the channel object, so the
+`stepper.transcript.recorder.tap` wraps those two methods on the channel object, so the
 prover runs unchanged while every round and challenge lands in the transcript:
 
     python samples/record_channel_adapter.py deck.stp
@@ -25,7 +25,7 @@ from __future__ import annotations
 import hashlib
 import sys
 
-from stepper.recorder import Recorder, tap
+from stepper.transcript.recorder import Recorder, tap
 
 P = 2**64 - 2**32 + 1  # Goldilocks
 NUM_VARS = 3

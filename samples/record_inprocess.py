@@ -24,9 +24,9 @@ import sys
 
 import numpy as np
 
-from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
-from stepper.field import get_field
-from stepper.recorder import Recorder
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.field.field import get_field
+from stepper.transcript.recorder import Recorder
 
 NUM_VARS = 4  # 16 tickets: small enough to read the transcript by eye
 GOLDILOCKS = get_field(2**64 - 2**32 + 1)

@@ -17,9 +17,9 @@ from __future__ import annotations
 
 from typing import Any, Mapping, Sequence
 
-from stepper.fiatshamir import Sha256Schedule
-from stepper.field import field_from_spec
-from stepper.transcript import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+from stepper.verify.fiatshamir import Sha256Schedule
+from stepper.field.spec import field_from_spec
+from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
 
 
 def derive(history: Sequence[Mapping[str, Any]]) -> Any:

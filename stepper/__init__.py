@@ -2,7 +2,7 @@
 
 The public face is small on purpose; most users drive stepper from the
 command line (``stepper --help``). Library users record with
-:class:`stepper.recorder.Recorder` and replay with :mod:`stepper.verify`.
+:class:`stepper.transcript.recorder.Recorder` and replay with :mod:`stepper.verify.replay`.
 """
 
 from __future__ import annotations

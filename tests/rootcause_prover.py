@@ -1,4 +1,4 @@
-"""A small sumcheck prover with one injectable fault, built on stepper.honest, for the
+"""A small sumcheck prover with one injectable fault, built on stepper.diagnose.honest, for the
 root-cause and probe tests. Challenges are drawn up front (no Fiat-Shamir): the tests
 care about what the prover sends, not how the challenges were derived."""
 
@@ -10,14 +10,14 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from stepper.expr import parse
-from stepper.field import Element, Field
-from stepper.honest import fold, honest_round, tables_at
-from stepper.poly import RoundPoly, lagrange_at, point_from_challenges
-from stepper.transcript import (
+from stepper.field.expr import parse
+from stepper.field.field import Element, Field
+from stepper.diagnose.honest import fold, honest_round, tables_at
+from stepper.field.poly import RoundPoly, lagrange_at, point_from_challenges
+from stepper.transcript.model import (
     ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, Transcript, fold_events,
 )
-from stepper.witness import Witness, WitnessInstance
+from stepper.diagnose.witness import Witness, WitnessInstance
 
 
 @dataclass(frozen=True)
@@ -116,7 +116,7 @@ def _corrupt(field: Field, cur: Mapping[str, np.ndarray], expr: Any, evals: list
         j = fault.arg
         return (evals[: j + 1] + evals[j:])[: len(evals)]
     if kind == "product-of-sums":
-        from stepper.honest import table_round_sums
+        from stepper.diagnose.honest import table_round_sums
 
         sums = table_round_sums(field, cur, expr.names(), degree + 1, order)
         return [expr.evaluate_scalar(field, {n: s[t] for n, s in sums.items()}) for t in range(degree + 1)]

@@ -2,10 +2,10 @@
 
 A run proves sum_{x in {0,1}^mu} prod_t T_t(x) for a few tables over a prime
 field, low-first, with challenges from the built-in Fiat-Shamir schedule
-(stepper.fiatshamir.Sha256Schedule): every payload goes through
-stepper.events.Sequencer, so the records are exactly what a file would give.
+(stepper.verify.fiatshamir.Sha256Schedule): every payload goes through
+stepper.transcript.events.Sequencer, so the records are exactly what a file would give.
 The round polynomials are computed here in plain Python integers, independently
-of stepper.honest, from the definition g_k(t) = sum over the free variables of
+of stepper.diagnose.honest, from the definition g_k(t) = sum over the free variables of
 the product with x_k = t (common practice, no source).
 
 Hooks make the broken twins: ``tamper(payload)`` rewrites a payload before it
@@ -18,9 +18,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field as dc_field
 from typing import Any, Callable
 
-from stepper.events import Sequencer
-from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
-from stepper.transcript import Event, FieldDecl, RoundMsg, Transcript, fold_events
+from stepper.transcript.events import Sequencer
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.transcript.model import Event, FieldDecl, RoundMsg, Transcript, fold_events
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source (p = 15 * 2^27 + 1)
 
@@ -173,7 +173,7 @@ def witness_map(specs: list[Spec]) -> dict[str, Any]:
 
 def save(path: Any, events: list[Event], *, finish: bool = True, metadata: dict[str, Any] | None = None) -> Any:
     """Write the records as a stepper transcript (without the end event unless ``finish``)."""
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.store import TranscriptWriter
 
     writer = TranscriptWriter(path, metadata=metadata or {"label": "isle-of-quill-0740"})
     for record in events:

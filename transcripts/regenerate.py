@@ -68,8 +68,8 @@ def _sample(name: str):
 
 def regenerate_samples(out: str) -> list[str]:
     """Run the sample scripts into ``out``; returns the file names."""
-    from stepper.recorder import Recorder, tap
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.recorder import Recorder, tap
+    from stepper.transcript.store import TranscriptWriter
 
     os.makedirs(out, exist_ok=True)
     sailing = _sample("prove_sailing")

@@ -22,7 +22,7 @@ from textual.app import App
 from stepper.app.proof_model import Position, ProofModel
 from stepper.app.proof_screen import ProofScreen
 from stepper.app.source import TranscriptSource
-from stepper.transcript import Note
+from stepper.transcript.model import Note
 
 __all__ = ["StepperApp", "compare_available", "READ_SLICE"]
 

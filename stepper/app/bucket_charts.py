@@ -22,7 +22,7 @@ from collections import Counter
 from dataclasses import dataclass
 from typing import Sequence
 
-from stepper.transcript import BucketStats
+from stepper.transcript.model import BucketStats
 
 __all__ = ["ChartRow", "bar", "against_bound", "against_remaining", "size_distribution"]
 

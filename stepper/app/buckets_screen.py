@@ -64,9 +64,9 @@ def bucket_text(model: ProofModel, instance: int) -> Text:
 
 
 def _analysis(model: ProofModel, instance: int) -> Text:
-    """The occupancy analysis of :mod:`stepper.buckets` for one instance, as text."""
-    from stepper.buckets import occupancy
-    from stepper.transcript import InstanceRecord, Transcript
+    """The occupancy analysis of :mod:`stepper.provers.buckets` for one instance, as text."""
+    from stepper.provers.buckets import occupancy
+    from stepper.transcript.model import InstanceRecord, Transcript
 
     view = model.instances[instance]
     assert model.field is not None

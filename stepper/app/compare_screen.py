@@ -1,12 +1,12 @@
 """The compare screen: two runs side by side, the first divergence marked.
 
 Opened by ``stepper view A --compare B`` (or pushed with a ready
-:class:`~stepper.diff.Comparison`). State is one reactive ``pair`` (the index
+:class:`~stepper.compare.diff.Comparison`). State is one reactive ``pair`` (the index
 of the aligned instance pair on screen); ``watch_pair`` refills both round
 tables. Each table shows the claim, every round (values sent, challenge) and
 the final value of its side; a mark column says what differs on that line
 (``g`` values, ``r`` challenge, ``-`` missing on the other side) and ``>>``
-points at the first divergence. Judging is done by :mod:`stepper.diff`; this
+points at the first divergence. Judging is done by :mod:`stepper.compare.diff`; this
 module only lays it out. A file that cannot be read shows its one-line error.
 """
 
@@ -26,9 +26,9 @@ from textual.widgets import DataTable, Footer, Static
 from stepper.errors import StepperError
 
 if TYPE_CHECKING:
-    from stepper.diff import Comparison, InstancePair
-    from stepper.field import Element, Field
-    from stepper.transcript import InstanceRecord
+    from stepper.compare.diff import Comparison, InstancePair
+    from stepper.field.field import Element, Field
+    from stepper.transcript.model import InstanceRecord
 
 __all__ = ["CompareScreen", "side_rows"]
 
@@ -122,8 +122,8 @@ class CompareScreen(Screen[None]):
         self.query_one("#table-a", DataTable).focus()
 
     def _load(self) -> Comparison | None:
-        from stepper.diff import compare
-        from stepper.store import load
+        from stepper.compare.diff import compare
+        from stepper.transcript.store import load
 
         if self.path_a is None or self.path_b is None:
             self.problem = "expected two files to compare, found fewer"

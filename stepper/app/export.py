@@ -1,7 +1,7 @@
 """The text report a person hands to a teammate: markdown.
 
 Pure: returns text; the screen writes it. The proof-level part is the shared
-report (:func:`stepper.report.build` / :func:`stepper.report.to_markdown`, the
+report (:func:`stepper.share.report.build` / :func:`stepper.share.report.to_markdown`, the
 same document `stepper report` writes); below it comes the round under the
 cursor, in full, so the reader sees exactly what the sender was looking at.
 """
@@ -27,7 +27,7 @@ def _table(lines: list[Line]) -> list[str]:
 def _proof_section(model: ProofModel, diagnosis: Any) -> list[str]:
     report = model.report()
     if report is not None and model.field is not None:
-        from stepper.report import build, to_markdown
+        from stepper.share.report import build, to_markdown
 
         return [to_markdown(build(model.transcript(), report, diagnosis, model.source)).rstrip(), ""]
     return ["## Proof", "", *_table(summary_lines(model)), ""]

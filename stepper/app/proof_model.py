@@ -2,7 +2,7 @@
 
 Pure: no I/O and no Textual. A :class:`ProofModel` is fed event records one at
 a time (when a file opens, and again while a growing file is followed); it
-hands each record to the core replay (:class:`stepper.verify.Replay`), keeps
+hands each record to the core replay (:class:`stepper.verify.replay.Replay`), keeps
 the results it returns, and answers what the screens ask: the rows of one
 instance, the status of every round at a glance, the failures in order, a
 value search, and the detail of one round. It never decides on its own whether
@@ -20,8 +20,8 @@ from bisect import bisect_right, insort
 from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Mapping
 
-from stepper.field import Element, Field
-from stepper.transcript import (
+from stepper.field.field import Element, Field
+from stepper.transcript.model import (
     BatchDecl,
     BucketStats,
     ChallengeMsg,
@@ -365,13 +365,6 @@ class ProofModel:
             instance -= 1
             round_ += max(1, self.rounds_in(instance))
         return instance, max(1, min(round_, max(1, self.rounds_in(instance))))
-
-    def search(self, query: str, after: Position) -> Position | None:
-        """The next round after ``after`` (wrapping) that mentions ``query``; see
-        :func:`stepper.app.value_search.find_value`."""
-        from stepper.app.value_search import find_value
-
-        return find_value(self, query, after)
 
     def notes_at(self, pos: Position) -> list[Note]:
         view = self.instances[pos[0]]

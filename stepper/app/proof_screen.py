@@ -10,7 +10,7 @@ round: statuses and explanations come from the model, which quotes the replay.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import Any, Protocol
 
 from rich.text import Text
 from textual.app import ComposeResult
@@ -29,13 +29,25 @@ from stepper.app.readout import SHORT_CAUTION, Line, diagnosis_lines, round_line
 from stepper.app.round_detail import ReadoutPanel
 from stepper.app.round_table import RoundTable
 from stepper.app.status_strip import StatusStrip
+from stepper.app.value_search import find_value
 from stepper.errors import StepperError
-from stepper.transcript import Note
+from stepper.transcript.model import Note
 
-if TYPE_CHECKING:
-    from stepper.app.app import StepperApp
+__all__ = ["ProofScreen", "ProofHost", "parse_round_target"]
 
-__all__ = ["ProofScreen", "parse_round_target"]
+
+class ProofHost(Protocol):
+    """What the proof screen asks of the app that shows it (:class:`stepper.app.app.StepperApp`)."""
+
+    follow: bool
+    diagnosis: Any
+
+    @property
+    def problem(self) -> str | None: ...
+
+    def save_note(self, note: Note) -> None: ...
+
+    def export_path(self, suffix: str, position: Position) -> Path: ...
 
 
 # The round table's own keys (Textual's DataTable), listed on the key screen too.
@@ -93,7 +105,7 @@ class ProofScreen(Screen[None]):
         self._shown: tuple[Position, int] | None = None  # position and instance version on screen
 
     @property
-    def stepper(self) -> StepperApp:
+    def stepper(self) -> ProofHost:
         return self.app  # type: ignore[return-value]
 
     def compose(self) -> ComposeResult:
@@ -223,7 +235,7 @@ class ProofScreen(Screen[None]):
     def _seek_answer(self, answer: str | None) -> None:
         if not answer:
             return
-        found = self.model.search(answer, self.position)
+        found = find_value(self.model, answer, self.position)
         if found is None:
             self.say(f"{answer!r} appears in no round", "warning")
         else:

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from stepper.app.proof_model import Position, ProofModel, mark_of
-from stepper.field import Field
+from stepper.field.field import Field
 
 __all__ = ["Line", "CAUTION", "SHORT_CAUTION", "summary_lines", "round_lines", "diagnosis_lines"]
 
@@ -155,7 +155,7 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
 
 
 def diagnosis_lines(diagnosis: Any, pos: Position | None = None) -> list[Line]:
-    """Root cause and probe findings from a witness diagnosis (``stepper.rootcause``)."""
+    """Root cause and probe findings from a witness diagnosis (``stepper.diagnose.rootcause``)."""
     if diagnosis is None:
         return []
     lines: list[Line] = []

@@ -1,7 +1,7 @@
 """The app's I/O edge: read a transcript into a :class:`ProofModel` in slices, follow
 it as it grows, save notes, and run the witness diagnosis.
 
-Reading goes through :mod:`stepper.store` (msgpack transcripts and JSON-lines
+Reading goes through :mod:`stepper.transcript.store` (msgpack transcripts and JSON-lines
 event files alike). ``begin`` opens the file and ``pump`` feeds at most a given
 number of events per call, so the app paints the first instance at once and
 checks the rest between key presses. A file that breaks part-way is not fatal
@@ -9,7 +9,7 @@ here: the events before the break are shown and the break becomes ``problem``,
 one line that says what was expected, what was found and where.
 
 Following (``follow=True``) keeps the file open after the first read, as a
-:class:`stepper.store.follow.FollowedStream`: each time the file grows, only the
+:class:`stepper.transcript.store.follow.FollowedStream`: each time the file grows, only the
 appended bytes are read and their complete events fed (a half-written tail is
 simply not an event yet). Only when the path names another file, or a file
 shorter than what was read (rewritten from scratch), or the last read broke,
@@ -26,14 +26,14 @@ from typing import Any, Iterator
 
 from stepper.app.proof_model import ProofModel
 from stepper.errors import InputError, StepperError
-from stepper.transcript import Event, Header, Note
+from stepper.transcript.model import Event, Header, Note
 
 __all__ = ["TranscriptSource", "new_model"]
 
 
 def new_model(source: str = "", header: Header | None = None) -> ProofModel:
     """A model wired to the core replay (round detail kept for the report)."""
-    from stepper.verify import Replay
+    from stepper.verify.replay import Replay
 
     return ProofModel(partial(Replay, keep_rounds=True), header, source)
 
@@ -57,7 +57,7 @@ class TranscriptSource:
     # ----- first read, in slices ----------------------------------------------------
     def begin(self) -> ProofModel:
         """A fresh, empty model and the file opened for :meth:`pump`."""
-        from stepper.store import open_events
+        from stepper.transcript.store import open_events
 
         model = new_model(str(self.path))
         self._fed = 0
@@ -142,7 +142,7 @@ class TranscriptSource:
         self._skip = 0
 
     def _open_stream(self) -> Any:
-        from stepper.store.follow import FollowedStream
+        from stepper.transcript.store.follow import FollowedStream
 
         return FollowedStream(self.path, best_effort=True)
 
@@ -204,7 +204,7 @@ class TranscriptSource:
     # ----- notes and witness -------------------------------------------------------
     def save_note(self, model: ProofModel, note: Note) -> None:
         """Append the note to the file (the recorded part's digest stays intact) and show it."""
-        from stepper.store import append_note
+        from stepper.transcript.store import append_note
 
         append_note(self.path, note)
         self._fed += 1
@@ -220,9 +220,9 @@ class TranscriptSource:
         """Root cause against the witness, if one was given (None otherwise)."""
         if self.witness_path is None:
             return None
-        from stepper.rootcause import diagnose
-        from stepper.store import load
-        from stepper.witness import load_witness
+        from stepper.diagnose.rootcause import diagnose
+        from stepper.transcript.store import load
+        from stepper.diagnose.witness import load_witness
 
         witness = load_witness(self.witness_path)
         self.diagnosis = diagnose(load(self.path), witness, model.report())

@@ -14,7 +14,7 @@ from __future__ import annotations
 from bisect import bisect_right
 from typing import TYPE_CHECKING
 
-from stepper.field import Element, Field
+from stepper.field.field import Element, Field
 
 if TYPE_CHECKING:
     from stepper.app.proof_model import Position, ProofModel

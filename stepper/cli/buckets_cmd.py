@@ -1,6 +1,6 @@
 """`stepper buckets FILE`: bucket occupancy per instance, round and group.
 
-Thin edge over :mod:`stepper.buckets`: loads the transcript, prints a table
+Thin edge over :mod:`stepper.provers.buckets`: loads the transcript, prints a table
 (count vs the bound 2^(2^k c) vs the remaining entries, fill, entries per
 bucket) or ``--json``. Exit 0 with or without bucket events; 1 when a count
 is impossible (above its bound or the remaining entries), which means the
@@ -27,8 +27,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.buckets import occupancy, occupancy_json
-    from stepper.store import load
+    from stepper.provers.buckets import occupancy, occupancy_json
+    from stepper.transcript.store import load
 
     rows = occupancy(load(args.file))
     problems = sum(len(r.problems) for r in rows)

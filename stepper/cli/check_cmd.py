@@ -1,9 +1,9 @@
 """`stepper check FILE`: replay the verifier over a transcript or event file.
 
-Thin edge over :mod:`stepper.verify`: reads events with :func:`stepper.store.open_events`
+Thin edge over :mod:`stepper.verify.replay`: reads events with :func:`stepper.transcript.store.open_events`
 (streaming; per-round detail is kept only for ``--json`` or ``--witness``), imports a
 ``--challenges`` plug-in only when that flag is given, asks
-:mod:`stepper.rootcause` only when ``--witness`` is given, and prints either the JSON
+:mod:`stepper.diagnose.rootcause` only when ``--witness`` is given, and prints either the JSON
 object of the check contract or a compact table. Exit codes: 0 accept, 1 reject,
 2 unusable input, 3 incomplete with every present round passing.
 """
@@ -22,8 +22,8 @@ from typing import TYPE_CHECKING, Any, Callable
 from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, UsageError
 
 if TYPE_CHECKING:
-    from stepper.transcript import Note
-    from stepper.verdict import Report
+    from stepper.transcript.model import Note
+    from stepper.verify.verdict import Report
 
 HELP = "replay the verifier: which instance, which round, which check, and why"
 DESCRIPTION = (
@@ -79,9 +79,9 @@ def load_challenger(spec: str) -> Callable[..., Any]:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.store import open_events
-    from stepper.transcript import Note, fold_events
-    from stepper.verify import Replay
+    from stepper.transcript.store import open_events
+    from stepper.transcript.model import Note, fold_events
+    from stepper.verify.replay import Replay
 
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
@@ -105,7 +105,7 @@ def run(args: argparse.Namespace) -> int:
 
     swept = None
     if not detail and challenger is None:
-        from stepper.store.sweep import SMALL_FILE_BYTES, sweep
+        from stepper.verify.sweep import SMALL_FILE_BYTES, sweep
 
         swept = sweep(args.file, replay, keep_note, min_bytes=SMALL_FILE_BYTES)
         if swept is None:  # the sweep gave up: replay event by event, which names what it found
@@ -127,11 +127,11 @@ def run(args: argparse.Namespace) -> int:
     report = replay.report(completeness)
     diagnosis = None
     if args.witness:
-        from stepper.rootcause import diagnose
-        from stepper.witness import load_witness
+        from stepper.diagnose.rootcause import diagnose
+        from stepper.diagnose.witness import load_witness
 
         transcript = fold_events(events or [], header, completeness, digest)  # type: ignore[arg-type]
-        from stepper.progress import terminal_progress
+        from stepper.cli.progress import terminal_progress
 
         witness = load_witness(args.witness)
         with terminal_progress("root cause: recomputing rounds") as progress:

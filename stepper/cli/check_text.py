@@ -9,8 +9,8 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Sequence
 
 if TYPE_CHECKING:
-    from stepper.transcript import Note
-    from stepper.verdict import InstanceSummary, Report
+    from stepper.transcript.model import Note
+    from stepper.verify.verdict import InstanceSummary, Report
 
 __all__ = ["render"]
 

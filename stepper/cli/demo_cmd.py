@@ -100,7 +100,7 @@ def write_example(example: Any, directory: str, *, reproducible: bool) -> tuple[
     ``reproducible`` the header's `created` is fixed so the bytes depend only on the example."""
     from stepper.cli.prove_cmd import metadata, write_witness
     from stepper.provers.reference import parse_field, prove
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.store import TranscriptWriter
 
     field = parse_field(example.field)
     meta = metadata(example.spec, example.field)

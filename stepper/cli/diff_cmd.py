@@ -1,6 +1,6 @@
 """`stepper diff A B [--json]`: the first divergence between two runs, and its kind.
 
-Thin edge over :func:`stepper.diff.compare`: loads both files (transcripts or
+Thin edge over :func:`stepper.compare.diff.compare`: loads both files (transcripts or
 JSON-lines event files, complete or not), prints either a short explanation
 with the divergence shown side by side, or the ``stepper-diff/1`` JSON object.
 Exit 0 when identical, 1 when they differ, 2 when an input cannot be used.
@@ -14,8 +14,8 @@ import sys
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from stepper.diff import Comparison, InstancePair
-    from stepper.field import Element, Field
+    from stepper.compare.diff import Comparison, InstancePair
+    from stepper.field.field import Element, Field
 
 HELP = "compare two runs: first divergence and its kind (Fiat-Shamir drift, prover arithmetic, ...)"
 DESCRIPTION = (
@@ -38,9 +38,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.diff import JSON_SCHEMA, compare
+    from stepper.compare.diff import JSON_SCHEMA, compare
     from stepper.errors import UsageError
-    from stepper.store import load
+    from stepper.transcript.store import load
 
     if args.schema:
         json.dump(JSON_SCHEMA, sys.stdout, indent=2)
@@ -60,7 +60,7 @@ def run(args: argparse.Namespace) -> int:
 
 def render(c: Comparison, label_a: str, label_b: str) -> list[str]:
     """The human report: both sides, the divergence, its kind, the rounds around it."""
-    from stepper.diff import CAUTION
+    from stepper.compare.diff import CAUTION
 
     def side(key: str, label: str, field: Field, completeness: str) -> str:
         count = sum(1 for p in c.pairs if getattr(p.pairing, key) is not None)

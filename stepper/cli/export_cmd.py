@@ -53,9 +53,9 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _export(path: str, out: IO[str]) -> int:
-    from stepper.events import to_payload
-    from stepper.store import open_events
-    from stepper.transcript import FieldDecl
+    from stepper.transcript.events import to_payload
+    from stepper.transcript.store import open_events
+    from stepper.transcript.model import FieldDecl
 
     with open_events(path) as stream:
         records = iter(stream)

@@ -32,9 +32,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.jsonl import oversized_integer, refuse_reserved
-    from stepper.store import TranscriptWriter, open_events
-    from stepper.transcript import UnknownEvent
+    from stepper.transcript.jsonl import oversized_integer, refuse_reserved
+    from stepper.transcript.store import TranscriptWriter, open_events
+    from stepper.transcript.model import UnknownEvent
 
     if os.path.exists(args.output) and os.path.samefile(args.events, args.output):
         raise UsageError("expected EVENTS and -o OUT to be different files, found the same file twice")

@@ -61,7 +61,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from stepper.errors import TranscriptError, UsageError, Where
-    from stepper.store import open_events
+    from stepper.transcript.store import open_events
 
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
@@ -81,7 +81,7 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _take(summary: _Summary, record: Any) -> None:
-    from stepper.transcript import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
+    from stepper.transcript.model import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
                                     RoundMsg, ScheduleDecl, UnknownEvent)
 
     kind = type(record)

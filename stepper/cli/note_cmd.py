@@ -1,6 +1,6 @@
 """`stepper note FILE [--instance I] [--round K] TEXT`: attach a note to a transcript.
 
-Thin edge over :func:`stepper.store.append_note`: the note is appended after
+Thin edge over :func:`stepper.transcript.store.append_note`: the note is appended after
 the recorded part, whose digest therefore still verifies; ``info``, ``check``,
 ``report`` and the app show it. ``--instance`` takes a name or a 0-based
 index; with one instance it may be left out, and with neither flag the note
@@ -13,7 +13,7 @@ import argparse
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from stepper.transcript import Transcript
+    from stepper.transcript.model import Transcript
 
 HELP = "append a note to a round, an instance or the whole proof (the recorded digest still verifies)"
 DESCRIPTION = (
@@ -32,8 +32,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from stepper.errors import UsageError
-    from stepper.store import append_note, load
-    from stepper.transcript import Note
+    from stepper.transcript.store import append_note, load
+    from stepper.transcript.model import Note
 
     text = args.text.strip()
     if not text:

@@ -1,6 +1,6 @@
 """`stepper plan`: pick the group count and switch-over round of the grouped permutation check.
 
-Thin edge over :mod:`stepper.planner`: reads sigma from a file (a JSON list of
+Thin edge over :mod:`stepper.provers.planner`: reads sigma from a file (a JSON list of
 0..n-1, or a .npy array) or draws one from --seed, runs the planner and prints
 one row per group count (its best switch-over round; ``--all`` for every one)
 or ``--json``.
@@ -38,7 +38,7 @@ def run(args: argparse.Namespace) -> int:
     import numpy as np
 
     from stepper.errors import UsageError
-    from stepper.planner import plan
+    from stepper.provers.planner import plan
     from stepper.provers.reference import parse_field
 
     sigma = _load_sigma(args.sigma) if args.sigma else None

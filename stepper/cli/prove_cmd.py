@@ -1,7 +1,7 @@
 """`stepper prove`: run a reference prover and write its transcript (and witness).
 
 Thin edge over :mod:`stepper.provers.reference`: parses the flags into a
-:class:`ProveSpec`, streams the records into a :class:`stepper.store.TranscriptWriter`,
+:class:`ProveSpec`, streams the records into a :class:`stepper.transcript.store.TranscriptWriter`,
 writes the witness as JSON, and prints one line per instance with its
 multiplications. Heavy imports happen inside :func:`run`.
 """
@@ -66,7 +66,7 @@ def run(args: argparse.Namespace) -> int:
     from stepper.provers.channel import JsonLinesSink
     from stepper.provers.faults import parse_fault
     from stepper.provers.reference import ProveSpec, parse_field, prove
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.store import TranscriptWriter
 
     _refuse_options_the_kind_ignores(args)
     field = parse_field(args.field)

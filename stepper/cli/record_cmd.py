@@ -46,8 +46,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.jsonl import LineSplitter
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.jsonl import LineSplitter
+    from stepper.transcript.store import TranscriptWriter
 
     command = list(args.prover_command)
     if command[:1] == ["--"]:
@@ -139,7 +139,7 @@ class _Follower:
         return got
 
     def _take(self, lines: Any) -> None:
-        from stepper.jsonl import oversized_integer, refuse_reserved
+        from stepper.transcript.jsonl import oversized_integer, refuse_reserved
 
         try:
             for item in lines:

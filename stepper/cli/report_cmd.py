@@ -1,8 +1,8 @@
 """`stepper report FILE [--witness W] -o OUT.md|OUT.html`: a report to paste or attach.
 
-Thin edge: loads the transcript, replays it (:func:`stepper.verify.replay_transcript`),
-diagnoses it with the witness when one is given (:func:`stepper.rootcause.diagnose`),
-builds the document (:mod:`stepper.report`) and writes Markdown or one
+Thin edge: loads the transcript, replays it (:func:`stepper.verify.replay.replay_transcript`),
+diagnoses it with the witness when one is given (:func:`stepper.diagnose.rootcause.diagnose`),
+builds the document (:mod:`stepper.share.report`) and writes Markdown or one
 self-contained HTML page, chosen by the output's suffix or ``--format``.
 The file is written whole or not at all (temporary file, then rename).
 Exit 0 when written, whatever the verdict; 2 when an input cannot be used.
@@ -37,10 +37,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from stepper.errors import UsageError
-    from stepper.report import build, to_markdown
-    from stepper.report_html import to_html
-    from stepper.store import load
-    from stepper.verify import replay_transcript
+    from stepper.share.report import build, to_markdown
+    from stepper.share.report_html import to_html
+    from stepper.transcript.store import load
+    from stepper.verify.replay import replay_transcript
 
     kind = args.format or SUFFIXES.get(Path(args.output).suffix.lower())
     if kind is None:
@@ -49,8 +49,8 @@ def run(args: argparse.Namespace) -> int:
     report = replay_transcript(transcript)
     diagnosis = None
     if args.witness:
-        from stepper.rootcause import diagnose
-        from stepper.witness import load_witness
+        from stepper.diagnose.rootcause import diagnose
+        from stepper.diagnose.witness import load_witness
 
         diagnosis = diagnose(transcript, load_witness(args.witness), report)
     doc = build(transcript, report, diagnosis, source=args.file)

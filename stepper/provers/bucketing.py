@@ -22,7 +22,7 @@ from typing import TYPE_CHECKING, Sequence
 import numpy as np
 
 if TYPE_CHECKING:
-    from stepper.field import Field
+    from stepper.field.field import Field
 
 __all__ = ["MAX_MASK_BITS", "GroupBuckets", "bit_tables", "round_masks", "group_buckets", "segment_sum",
            "subset_sums", "split_groups"]

@@ -1,11 +1,11 @@
 """The prover's side of a proof: records sent, challenges drawn.
 
 A :class:`ProofChannel` turns a reference prover's messages into event records
-(:mod:`stepper.transcript`) and hands each to a sink: anything with a
-``write(record)`` method, such as :class:`stepper.store.TranscriptWriter`, the
+(:mod:`stepper.transcript.model`) and hands each to a sink: anything with a
+``write(record)`` method, such as :class:`stepper.transcript.store.TranscriptWriter`, the
 in-memory :class:`ListSink`, or :class:`JsonLinesSink` for the event stream of
 ``stepper record``. Challenges come from the built-in Fiat-Shamir schedule
-(:class:`stepper.fiatshamir.Sha256Schedule`), declared by a ``schedule`` event,
+(:class:`stepper.verify.fiatshamir.Sha256Schedule`), declared by a ``schedule`` event,
 which observes exactly what is sent, so ``stepper check`` re-derives every one.
 
 The faults that live on the wire are applied here, in one place: a negated
@@ -23,10 +23,10 @@ import json
 from typing import IO, TYPE_CHECKING, Any, Protocol, Sequence
 
 from stepper.errors import UsageError
-from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
-from stepper.poly import RoundPoly
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.field.poly import RoundPoly
 from stepper.provers.faults import Fault, montgomery_radix
-from stepper.transcript import (
+from stepper.transcript.model import (
     BatchDecl,
     BucketStats,
     ChallengeMsg,
@@ -39,8 +39,8 @@ from stepper.transcript import (
 )
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
-    from stepper.transcript import Event, Transcript
+    from stepper.field.field import Element, Field
+    from stepper.transcript.model import Event, Transcript
 
 __all__ = ["EventSink", "ListSink", "JsonLinesSink", "ProofChannel"]
 
@@ -51,17 +51,17 @@ class EventSink(Protocol):
 
 class ListSink:
     """Keeps the records in memory, in order, as a reader would see them: each
-    passes through a :class:`stepper.events.Sequencer` (order rules, batch
+    passes through a :class:`stepper.transcript.events.Sequencer` (order rules, batch
     attached to its instance)."""
 
     def __init__(self) -> None:
-        from stepper.events import Sequencer
+        from stepper.transcript.events import Sequencer
 
         self.records: list[Event] = []
         self._seq = Sequencer()
 
     def write(self, record: Event) -> Event:
-        from stepper.events import to_payload
+        from stepper.transcript.events import to_payload
 
         sequenced = self._seq.feed(to_payload(record, self._seq.field, binary=False))
         self.records.append(sequenced)
@@ -69,7 +69,7 @@ class ListSink:
 
     def transcript(self) -> Transcript:
         """The folded transcript of the records so far."""
-        from stepper.transcript import fold_events
+        from stepper.transcript.model import fold_events
 
         return fold_events(self.records)
 
@@ -82,7 +82,7 @@ class JsonLinesSink:
         self.field: Field | None = None
 
     def write(self, record: Event) -> Event:
-        from stepper.events import to_payload
+        from stepper.transcript.events import to_payload
 
         if isinstance(record, FieldDecl):
             self.field = record.field

@@ -1,6 +1,6 @@
 """Field multiplications counted where they happen.
 
-A :class:`MulCounter` wraps a :class:`~stepper.field.Field` and performs the
+A :class:`MulCounter` wraps a :class:`~stepper.field.field.Field` and performs the
 vector and scalar products the reference provers need, adding the number of
 base-or-extension field products each call really does to the tally of the
 current phase (a round of an instance, or set-up work). Additions,
@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Sequence
 import numpy as np
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
+    from stepper.field.field import Element, Field
 
 __all__ = ["MulCounter"]
 

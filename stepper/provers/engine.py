@@ -21,12 +21,12 @@ from typing import TYPE_CHECKING, Any, Mapping, Protocol, Sequence
 
 import numpy as np
 
-from stepper.poly import mle_eval, point_from_challenges
+from stepper.field.poly import mle_eval, point_from_challenges
 from stepper.provers.counting import MulCounter, halves
 
 if TYPE_CHECKING:
-    from stepper.expr import Expr
-    from stepper.field import Element, Field
+    from stepper.field.expr import Expr
+    from stepper.field.field import Element, Field
     from stepper.provers.channel import ProofChannel
 
 __all__ = [
@@ -103,7 +103,7 @@ class ExprSummand:
 def _products(node: Any) -> int:
     """Products the evaluator performs per entry: one per `*` node whose operands
     are not both constants (constant folding is free)."""
-    from stepper.expr import Add, Const, Mul, Neg, Sub
+    from stepper.field.expr import Add, Const, Mul, Neg, Sub
 
     if isinstance(node, Const) or not isinstance(node, (Add, Sub, Mul, Neg)):
         return 0
@@ -116,7 +116,7 @@ def _products(node: Any) -> int:
 
 
 def _constant(node: Any) -> bool:
-    from stepper.expr import Const, Neg, Table
+    from stepper.field.expr import Const, Neg, Table
 
     if isinstance(node, Const):
         return True

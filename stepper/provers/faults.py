@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING
 from stepper.errors import UsageError
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
+    from stepper.field.field import Element, Field
 
 __all__ = ["Fault", "FAULTS", "parse_fault", "montgomery_radix"]
 

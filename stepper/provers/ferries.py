@@ -17,12 +17,11 @@ from stepper.provers.engine import ProofRun
 from stepper.provers.generic import prove_zero
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
-from stepper.scenario import DECK_CONSTRAINTS, build_sailing, deck_tables, ticket_values
+from stepper.provers.scenario import DECK_CONSTRAINTS, build_sailing, deck_tables, ticket_values
 
 if TYPE_CHECKING:
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
-    from stepper.provers.reference import ProveSpec
 
 __all__ = ["prove_sailing", "PERMUTATION", "DECK"]
 
@@ -30,18 +29,20 @@ PERMUTATION = "boarding-permutation"
 DECK = "deck-slots-zero"
 
 
-def prove_sailing(channel: ProofChannel, counter: MulCounter, spec: ProveSpec) -> ProofRun:
-    """Both statements of the sailing ``spec.seed`` builds (route from the seed)."""
+def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_vars: int, groups: int,
+                  switch_round: int | None = None, tamper: str | None = None, form: str = "evals") -> ProofRun:
+    """Both statements of the sailing ``seed`` builds (route from the seed); ``groups`` 0
+    proves the permutation directly."""
     field = counter.field
-    sailing = build_sailing(spec.seed, spec.num_vars, tamper=spec.tamper)
+    sailing = build_sailing(seed, num_vars, tamper=tamper)
     channel.note(f"Brackwater Ferries sailing {sailing.name}: {len(sailing.tickets)} tickets, "
                  f"{sum(sailing.occupied)} cars on deck")
     statement = PermStatement(ticket_values(field, sailing.tickets), ticket_values(field, sailing.boarding),
                               np.array(sailing.scan_of, dtype=np.int64))
-    if spec.groups:
-        perm = prove_permutation_grouped(channel, counter, statement, spec.groups, switch_round=spec.switch_round,
-                                         name=PERMUTATION, form=spec.form)
+    if groups:
+        perm = prove_permutation_grouped(channel, counter, statement, groups, switch_round=switch_round,
+                                         name=PERMUTATION, form=form)
     else:
-        perm = prove_permutation_direct(channel, counter, statement, name=PERMUTATION, form=spec.form)
-    deck = prove_zero(channel, counter, DECK, deck_tables(field, sailing), list(DECK_CONSTRAINTS), form=spec.form)
+        perm = prove_permutation_direct(channel, counter, statement, name=PERMUTATION, form=form)
+    deck = prove_zero(channel, counter, DECK, deck_tables(field, sailing), list(DECK_CONSTRAINTS), form=form)
     return ProofRun(perm.instances + deck.instances, perm.witness + deck.witness, counter.per_phase())

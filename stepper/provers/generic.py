@@ -9,7 +9,7 @@ sum_x eq(tau, x) * C(x) = 0, which a non-vanishing C fails except with
 probability about mu / |F| over tau. Several constraints are mixed with powers
 of a random gamma first (a fixed mix would let two constraints cancel).
 
-The expression is parsed by :mod:`stepper.expr` (the witness grammar), so the
+The expression is parsed by :mod:`stepper.field.expr` (the witness grammar), so the
 witness this writes is exactly what ``stepper check --witness`` reads back.
 """
 
@@ -20,11 +20,11 @@ from typing import TYPE_CHECKING, Mapping, Sequence
 import numpy as np
 
 from stepper.errors import UsageError
-from stepper.expr import parse
+from stepper.field.expr import parse
 from stepper.provers.engine import ExprSummand, ProofRun, WitnessInstance, run_tables
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
+    from stepper.field.field import Element, Field
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 

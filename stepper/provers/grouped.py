@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING, Sequence
 import numpy as np
 
 from stepper.errors import UsageError
-from stepper.poly import eq_eval, eq_table, mle_eval
+from stepper.field.poly import eq_eval, eq_table, mle_eval
 from stepper.provers.bucketing import (
     MAX_MASK_BITS,
     GroupBuckets,
@@ -43,7 +43,7 @@ from stepper.provers.engine import InstanceRun, ProductSummand, ProofRun, Witnes
 from stepper.provers.permcheck import PermStatement, permutation_point, select_table
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
+    from stepper.field.field import Element, Field
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 

@@ -27,7 +27,7 @@ from stepper.provers.bucketing import bit_tables
 from stepper.provers.engine import ProductSummand, ProofRun, WitnessInstance, run_tables
 
 if TYPE_CHECKING:
-    from stepper.field import Element, Field
+    from stepper.field.field import Element, Field
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 

@@ -4,7 +4,7 @@ The CLI (``stepper prove``, ``stepper demo``), transcripts/regenerate.py and the
 samples all build their proofs here, so the same spec always gives the same
 records. Statements come from a seed: random tables for ``generic``,
 ``zerocheck``, ``perm-direct`` and ``perm-grouped``; the Brackwater Ferries
-sailing (:mod:`stepper.scenario`) for ``ferries``, whose proof holds the
+sailing (:mod:`stepper.provers.scenario`) for ``ferries``, whose proof holds the
 boarding permutation check and the deck-slot zero-check. Pure apart from the
 sink the records go to.
 """
@@ -26,7 +26,7 @@ from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
 
 if TYPE_CHECKING:
-    from stepper.field import Field
+    from stepper.field.field import Field
     from stepper.provers.channel import EventSink
 
 __all__ = ["KINDS", "ProveSpec", "prove", "parse_field", "random_permutation_statement"]
@@ -82,7 +82,7 @@ class ProveSpec:
 def parse_field(text: str) -> Field:
     """``babybear``, ``babybear^4``, ``goldilocks^2`` or a prime modulus (decimal or 0x)."""
     from stepper.errors import FieldError
-    from stepper.field import field_from_spec
+    from stepper.field.spec import field_from_spec
 
     name, caret, degree = text.strip().partition("^")
     spec: dict[str, object] = {"modulus": name} if name[:1].isdigit() else {"name": name}
@@ -112,7 +112,7 @@ def prove(spec: ProveSpec, field: Field, sink: EventSink, *, witness: bool = Tru
     counter = MulCounter(field)
     mu = spec.num_vars
     if spec.kind in ("generic", "zerocheck"):
-        from stepper.expr import parse
+        from stepper.field.expr import parse
 
         combine = spec.combine or DEFAULT_COMBINE[spec.kind]
         names = parse(combine).names()
@@ -126,7 +126,8 @@ def prove(spec: ProveSpec, field: Field, sink: EventSink, *, witness: bool = Tru
     if spec.kind == "ferries":
         from stepper.provers.ferries import prove_sailing
 
-        return prove_sailing(channel, counter, spec)
+        return prove_sailing(channel, counter, seed=spec.seed, num_vars=spec.num_vars, groups=spec.groups,
+                             switch_round=spec.switch_round, tamper=spec.tamper, form=spec.form)
     statement = random_permutation_statement(field, mu, spec.seed)
     if spec.order != "low-first":
         raise UsageError("expected --order low-first for the permutation checks (they bind x_1 first)")

@@ -10,8 +10,8 @@ The round polynomials are computed here in plain Python integers from the
 definition of the sumcheck protocol, g_k(t) = sum over the free variables of
 the summand with x_k = t (Lund, Fortnow, Karloff and Nisan, "Algebraic methods
 for interactive proof systems", 1992; the variable order and folding are
-common practice, no source), independently of stepper.honest and
-stepper.verify. Challenges come from the built-in Fiat-Shamir schedule, which
+common practice, no source), independently of stepper.diagnose.honest and
+stepper.verify.replay. Challenges come from the built-in Fiat-Shamir schedule, which
 the prover side observes exactly as the replay will. The field is BabyBear,
 p = 15 * 2^27 + 1 (common practice, no source). The data values are invented.
 """
@@ -21,8 +21,8 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Callable
 
-from stepper.events import Sequencer
-from stepper.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.transcript.events import Sequencer
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
 
 P = 15 * 2**27 + 1
 Payload = dict[str, Any]
@@ -127,7 +127,7 @@ def bump_g1(target: str, round_: int) -> Tamper:
 def write_transcript(path: Path, payloads: list[Payload], *, finish: bool = True,
                      metadata: dict[str, Any] | None = None) -> Path:
     """Write the payloads as a stepper transcript (with the end event when ``finish``)."""
-    from stepper.store import TranscriptWriter
+    from stepper.transcript.store import TranscriptWriter
 
     writer = TranscriptWriter(path, metadata=metadata or {"sailing": "isle-of-quill-0740",
                                                           "created": "2026-01-01T07:40:00Z"})

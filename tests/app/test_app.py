@@ -10,7 +10,7 @@ from stepper.app.buckets_screen import BucketsScreen
 from stepper.app.help_screen import HelpScreen
 from stepper.app.proof_screen import TABLE_KEYS, ProofScreen, parse_round_target
 from stepper.app.round_detail import ReadoutPanel
-from stepper.store import load
+from stepper.transcript.store import load
 
 SIZE = (140, 44)
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from hypothesis import given, settings, strategies as st
 
 from stepper.app.bucket_charts import against_bound, against_remaining, bar, size_distribution
-from stepper.transcript import BucketStats
+from stepper.transcript.model import BucketStats
 
 
 @settings(max_examples=50, deadline=None)

@@ -12,8 +12,8 @@ from proofs import brackwater_payloads, bump_g1, write_transcript
 from stepper.app.app import StepperApp
 from stepper.app.compare_screen import CompareScreen, side_rows
 from stepper.app.proof_screen import ProofScreen
-from stepper.diff import compare
-from stepper.store import load
+from stepper.compare.diff import compare
+from stepper.transcript.store import load
 from textual.app import App
 from textual.widgets import DataTable, Static
 

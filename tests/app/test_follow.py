@@ -8,7 +8,7 @@ import time
 from proofs import brackwater_payloads, write_transcript
 
 from stepper.app.app import StepperApp
-from stepper.store import TranscriptWriter
+from stepper.transcript.store import TranscriptWriter
 
 
 async def test_rounds_appear_and_are_checked_while_the_prover_writes(tmp_path):
@@ -89,8 +89,8 @@ async def test_a_json_lines_event_file_can_be_followed_past_a_moment_it_looked_w
 
 def _counting_reads(monkeypatch) -> dict[str, int]:
     """Count the bytes followed streams read and how many streams are opened."""
-    from stepper.store.follow import FollowedStream
-    from stepper.store.reader import EventStream
+    from stepper.transcript.store.follow import FollowedStream
+    from stepper.transcript.store.reader import EventStream
 
     counts = {"bytes": 0, "opened": 0}
 
@@ -179,8 +179,8 @@ def test_a_transcript_rewritten_from_scratch_is_read_again_from_byte_0(tmp_path,
 
 def test_a_note_saved_while_following_is_shown_once_and_notes_from_elsewhere_arrive(tmp_path):
     from stepper.app.source import TranscriptSource
-    from stepper.store import append_note
-    from stepper.transcript import Note
+    from stepper.transcript.store import append_note
+    from stepper.transcript.model import Note
 
     path = write_transcript(tmp_path / "isle-of-quill-0740.stp",
                             brackwater_payloads(instances=("boarding-permutation",)))

@@ -8,8 +8,9 @@ from hypothesis import given, settings, strategies as st
 from proofs import P, brackwater_payloads, bump_g1
 
 from stepper.app.proof_model import ProofModel
-from stepper.events import Sequencer
-from stepper.verify import Replay
+from stepper.app.value_search import find_value
+from stepper.transcript.events import Sequencer
+from stepper.verify.replay import Replay
 
 
 def model_of(payloads: list[dict], complete: bool = True) -> ProofModel:
@@ -74,9 +75,9 @@ def test_search_finds_a_challenge_by_its_decimal_value_and_by_hex():
     model = model_of(brackwater_payloads())
     challenge = model.instances[2].challenges[2]
     assert isinstance(challenge, int)
-    assert model.search(str(challenge), (0, 1)) == (2, 3)
-    assert model.search(hex(challenge), (0, 1)) == (2, 3)
-    assert model.search("no such thing", (0, 1)) is None
+    assert find_value(model, str(challenge), (0, 1)) == (2, 3)
+    assert find_value(model, hex(challenge), (0, 1)) == (2, 3)
+    assert find_value(model, "no such thing", (0, 1)) is None
 
 
 def test_search_finds_the_wrong_sum_a_failing_round_shows_in_its_table_row():
@@ -84,7 +85,7 @@ def test_search_finds_the_wrong_sum_a_failing_round_shows_in_its_table_row():
     # the replay, not sent, and must still lead back to its round.
     model = model_of(brackwater_payloads(tamper=bump_g1("boarding-permutation-grouped", 2)))
     wrong_sum = model.rows(1)[1].sum01
-    assert model.search(str(wrong_sum), (0, 1)) == (1, 2)
+    assert find_value(model, str(wrong_sum), (0, 1)) == (1, 2)
 
 
 def test_a_growing_stream_is_checked_as_it_arrives_and_the_report_does_not_stop_it():

@@ -21,7 +21,7 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer p
 
 from plain_sumcheck import BABYBEAR, Plain, instance_payloads, jsonl, product_rounds, thaler_payloads  # noqa: E402
 from stepper.cli.main import main  # noqa: E402
-from stepper.store import TranscriptWriter  # noqa: E402
+from stepper.transcript.store import TranscriptWriter  # noqa: E402
 
 CHALLENGES = (5, 7, 11)
 

@@ -16,7 +16,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared test provers
 
 from stepper.cli.main import main  # noqa: E402
-from stepper.diff import JSON_SCHEMA  # noqa: E402
+from stepper.compare.diff import JSON_SCHEMA  # noqa: E402
 from sumcheck_pairs import BABYBEAR, brackwater_specs, run_events, save, scale_all  # noqa: E402
 
 

@@ -13,8 +13,8 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared test provers
 
 from stepper.app.source import TranscriptSource  # noqa: E402
 from stepper.cli.main import main  # noqa: E402
-from stepper.store import load  # noqa: E402
-from stepper.transcript import Note  # noqa: E402
+from stepper.transcript.store import load  # noqa: E402
+from stepper.transcript.model import Note  # noqa: E402
 from sumcheck_pairs import brackwater_specs, run_events, save  # noqa: E402
 
 TEXT = "gate 3 scanner read ticket 0740-118 twice"

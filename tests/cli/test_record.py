@@ -15,8 +15,8 @@ import pytest
 
 from stepper.cli.main import main
 from stepper.errors import TranscriptError
-from stepper.store import load, open_events
-from stepper.transcript import RoundMsg
+from stepper.transcript.store import load, open_events
+from stepper.transcript.model import RoundMsg
 
 GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
 

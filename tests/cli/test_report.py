@@ -14,8 +14,8 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared test provers
 
 from stepper.cli.main import main  # noqa: E402
-from stepper.store import load  # noqa: E402
-from stepper.verify import replay_transcript  # noqa: E402
+from stepper.transcript.store import load  # noqa: E402
+from stepper.verify.replay import replay_transcript  # noqa: E402
 from sumcheck_pairs import BABYBEAR, brackwater_specs, run_events, save, witness_map  # noqa: E402
 
 

@@ -4,12 +4,12 @@ from __future__ import annotations
 
 from typing import Callable
 
-from stepper.field import Field
+from stepper.field.field import Field
 from stepper.provers.channel import ListSink, ProofChannel
 from stepper.provers.counting import MulCounter
 from stepper.provers.engine import ProofRun
 from stepper.provers.faults import Fault
-from stepper.transcript import Transcript
+from stepper.transcript.model import Transcript
 
 
 def run_prover(field: Field, body: Callable[[ProofChannel, MulCounter], ProofRun], fault: Fault | None = None

@@ -8,8 +8,8 @@ from pathlib import Path
 import pytest
 
 from stepper.provers.catalogue import EXAMPLES
-from stepper.store import load
-from stepper.verify import replay_transcript
+from stepper.transcript.store import load
+from stepper.verify.replay import replay_transcript
 
 ROOT = Path(__file__).resolve().parents[2]
 SAVED = ROOT / "transcripts" / "ferries"

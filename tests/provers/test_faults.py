@@ -7,12 +7,12 @@ from pathlib import Path
 import pytest
 
 from stepper.errors import UsageError
-from stepper.field import NAMED_PRIMES, get_field
+from stepper.field.field import NAMED_PRIMES, get_field
 from stepper.provers.faults import FAULTS, Fault, montgomery_radix, parse_fault
 from stepper.provers.generic import prove_sum
 from stepper.provers.permcheck import prove_permutation_direct
 from stepper.provers.reference import random_permutation_statement
-from stepper.verify import replay_transcript
+from stepper.verify.replay import replay_transcript
 from tests.provers.helpers import run_prover
 
 BABYBEAR = get_field(NAMED_PRIMES["babybear"])
@@ -69,8 +69,8 @@ def test_each_fault_is_named_by_the_matching_root_cause_probe(text, tmp_path):
     import json
 
     from stepper.provers.engine import witness_payload
-    from stepper.rootcause import diagnose
-    from stepper.witness import load_witness
+    from stepper.diagnose.rootcause import diagnose
+    from stepper.diagnose.witness import load_witness
 
     run, transcript, _ = _perm_proof(BABYBEAR, parse_fault(text))
     path = tmp_path / "witness.json"

@@ -9,11 +9,12 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from stepper.errors import UsageError
-from stepper.field import NAMED_PRIMES, field_from_spec, get_field
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.field.spec import field_from_spec
 from stepper.provers.engine import ExprSummand
 from stepper.provers.generic import prove_sum, prove_zero
-from stepper.expr import parse
-from stepper.verify import replay_transcript
+from stepper.field.expr import parse
+from stepper.verify.replay import replay_transcript
 from tests.provers.helpers import run_prover
 
 BABYBEAR = get_field(NAMED_PRIMES["babybear"])

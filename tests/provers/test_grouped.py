@@ -7,11 +7,12 @@ import pytest
 import sympy
 from hypothesis import given, settings, strategies as st
 
-from stepper.field import NAMED_PRIMES, field_from_spec, get_field
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.field.spec import field_from_spec
 from stepper.provers.bucketing import bit_tables, group_buckets, round_masks, split_groups
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.reference import random_permutation_statement
-from stepper.verify import replay_transcript
+from stepper.verify.replay import replay_transcript
 from tests.provers.helpers import run_prover
 
 BABYBEAR = get_field(NAMED_PRIMES["babybear"])

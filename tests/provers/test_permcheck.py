@@ -6,10 +6,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from stepper.field import NAMED_PRIMES, field_from_spec, get_field
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.field.spec import field_from_spec
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
 from stepper.provers.reference import random_permutation_statement
-from stepper.verify import replay_transcript
+from stepper.verify.replay import replay_transcript
 from tests.provers.helpers import plain_mle, run_prover
 
 BABYBEAR = get_field(NAMED_PRIMES["babybear"])

@@ -1,0 +1,330 @@
+"""Witness files: the prover's multilinear tables and `combine` expression per instance.
+
+Accepted forms (detected by content, not by file name):
+
+* JSON or msgpack: ``{"instances": [{"name": ..., "tables": {NAME: [...]}, "combine": EXPR}]}``
+  per DESIGN.md. Table entries are field elements (int, decimal or 0x string, a
+  list of k values for an extension element; msgpack may also use fixed-width
+  little-endian bytes). A table may instead be a string: the path of a ``.npy``
+  file, relative to the witness file, holding the entries (large tables).
+* ``.npz`` (a numpy zip): for each instance NAME, a 0-d text array
+  ``NAME/combine`` and one integer array ``NAME/TABLE`` per table; instances
+  are taken in the order their combine arrays appear, and a key belongs to the
+  instance with the longest matching name (names may contain ``/``).
+
+Numpy tables are unsigned or non-negative signed integer arrays, shape (n,) or
+(n, k) for an extension; pickled objects are refused. :func:`load_witness`
+does the I/O and keeps entries raw (the field is not known yet);
+:func:`fit_witness` is pure: it matches witness instances to transcript
+instances (by name, else by position) and returns canonical field arrays, or
+raises :class:`WitnessError` saying what was expected, what was found, where.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Mapping, Sequence, Union
+
+import numpy as np
+
+from stepper.errors import ExpressionError, FieldError, WitnessError, Where
+from stepper.field.expr import Expr, parse
+
+if TYPE_CHECKING:
+    from stepper.field.field import Field
+    from stepper.transcript.model import InstanceRecord, Transcript
+
+__all__ = ["Witness", "WitnessInstance", "FittedInstance", "load_witness", "witness_from_map", "fit_witness"]
+
+MAX_WITNESS_BYTES = 1 << 33  # 8 GiB of JSON/msgpack text is surely not a witness
+MAX_INSTANCES = 1 << 16
+
+RawTable = Union[np.ndarray, Sequence[Any]]
+
+
+@dataclass(frozen=True, slots=True)
+class WitnessInstance:
+    """One instance as written: its name, raw tables and combine expression."""
+
+    name: str
+    tables: Mapping[str, RawTable]
+    combine: Expr
+
+
+@dataclass(frozen=True, slots=True)
+class Witness:
+    """Every instance of a witness file, in file order; ``source`` names the file."""
+
+    instances: tuple[WitnessInstance, ...]
+    source: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class FittedInstance:
+    """A witness instance checked against transcript instance ``index``: tables as
+    canonical field vectors (1-D base, or (n, k) extension) of length 2^num_vars."""
+
+    index: int
+    name: str
+    tables: Mapping[str, np.ndarray]
+    combine: Expr
+    witness_name: str = ""  # the witness instance's own name (differs when matched by position)
+
+
+# ----- loading (I/O edge) --------------------------------------------------------------
+def load_witness(path: str | os.PathLike[str]) -> Witness:
+    """Read a witness file in any accepted form; raises :class:`WitnessError`."""
+    path = Path(path)
+    where = Where(file=str(path))
+    try:
+        size = path.stat().st_size
+        if size > MAX_WITNESS_BYTES:
+            raise WitnessError(f"expected a witness file of at most {MAX_WITNESS_BYTES} bytes, found {size}", where)
+        with path.open("rb") as handle:
+            head = handle.read(8)
+    except OSError as err:
+        raise WitnessError(f"expected a readable witness file, found {err.strerror or err}", where) from None
+    if head.startswith(b"PK"):
+        return _load_npz(path, where)
+    if head.startswith(b"\x93NUMPY"):
+        raise WitnessError(
+            "expected a JSON, msgpack or .npz witness, found a single .npy array "
+            "(name it from a JSON witness: \"tables\": {\"NAME\": \"file.npy\"})", where)
+    try:
+        data = path.read_bytes()
+    except OSError as err:
+        raise WitnessError(f"expected a readable witness file, found {err.strerror or err}", where) from None
+    stripped = data.lstrip()
+    if stripped[:1] in (b"{", b"["):
+        try:
+            raw = json.loads(data.decode("utf-8"))
+        except UnicodeDecodeError as err:
+            raise WitnessError(f"expected UTF-8 JSON, found an invalid byte at byte {err.start}", where) from None
+        except json.JSONDecodeError as err:
+            raise WitnessError(f"expected JSON, found {err.msg}", where.but(line=err.lineno, offset=err.pos)) from None
+    else:
+        raw = _unpack_msgpack(data, where)
+    return witness_from_map(raw, where, base_dir=path.parent)
+
+
+def _unpack_msgpack(data: bytes, where: Where) -> Any:
+    import msgpack
+
+    try:
+        return msgpack.unpackb(data, raw=False, strict_map_key=True, max_bin_len=len(data), max_array_len=len(data))
+    except msgpack.ExtraData as err:
+        raise WitnessError(f"expected one msgpack map, found {len(err.extra)} extra bytes after it", where) from None
+    except (ValueError, msgpack.UnpackException, TypeError) as err:
+        raise WitnessError(f"expected a JSON or msgpack witness, found undecodable data ({err})", where) from None
+
+
+def _load_npz(path: Path, where: Where) -> Witness:
+    try:
+        archive = np.load(path, allow_pickle=False)
+    except (OSError, ValueError, zipfile.BadZipFile) as err:
+        raise WitnessError(f"expected a readable .npz archive, found {err}", where) from None
+    with archive:
+        keys = list(archive.files)
+        names = [k[: -len("/combine")] for k in keys if k.endswith("/combine")]
+        if not names:
+            raise WitnessError(
+                "expected an .npz witness with a NAME/combine text array per instance, found none "
+                f"(keys: {', '.join(keys[:8]) or 'none'})", where)
+        # a table belongs to the instance with the longest name prefix (names may contain "/")
+        owner: dict[str, list[str]] = {name: [] for name in names}
+        for key in keys:
+            if key.endswith("/combine") and key[: -len("/combine")] in owner:
+                continue
+            matches = [n for n in names if key.startswith(f"{n}/")]
+            if not matches:
+                raise WitnessError(f"expected every .npz key to be INSTANCE/TABLE of an instance with a combine, "
+                                   f"found {key!r}", where)
+            owner[max(matches, key=len)].append(key)
+        instances: list[WitnessInstance] = []
+        for name in names:
+            iwhere = where.but(instance=name)
+            combine_arr = archive[f"{name}/combine"]
+            if combine_arr.dtype.kind != "U" or combine_arr.ndim != 0:
+                raise WitnessError(
+                    f"expected {name}/combine as a 0-d text array, found dtype {combine_arr.dtype} "
+                    f"shape {combine_arr.shape}", iwhere)
+            combine = _parse_combine(str(combine_arr[()]), iwhere)
+            cut = len(name) + 1
+            tables = {k[cut:]: _check_numpy(archive[k], k[cut:], iwhere) for k in owner[name]}
+            instances.append(WitnessInstance(name, tables, combine))
+    return Witness(tuple(instances), str(path))
+
+
+def _load_npy(base_dir: Path | None, ref: str, table: str, where: Where) -> np.ndarray:
+    target = Path(ref) if base_dir is None or Path(ref).is_absolute() else base_dir / ref
+    try:
+        arr = np.load(target, allow_pickle=False, mmap_mode="r")
+    except (OSError, ValueError) as err:
+        raise WitnessError(f"expected table {table!r} in the .npy file {str(target)!r}, found {err}", where) from None
+    return _check_numpy(arr, table, where)
+
+
+def _check_numpy(arr: np.ndarray, table: str, where: Where) -> np.ndarray:
+    if arr.dtype.kind not in "ui" or arr.ndim not in (1, 2):
+        raise WitnessError(
+            f"expected table {table!r} as a 1-D or 2-D integer array, found dtype {arr.dtype} shape {arr.shape}", where)
+    return arr
+
+
+# ----- the witness map (pure) -------------------------------------------------------------
+def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None = None) -> Witness:
+    """A :class:`Witness` from the decoded JSON/msgpack map; ``base_dir`` resolves
+    ``.npy`` table references (None forbids them)."""
+    where = where or Where()
+    if not isinstance(raw, dict) or "instances" not in raw:
+        found = f"a map with keys {', '.join(map(str, list(raw)[:6]))}" if isinstance(raw, dict) else type(raw).__name__
+        raise WitnessError(f"expected a map with an \"instances\" list, found {found}", where)
+    items = raw["instances"]
+    if not isinstance(items, list) or not items:
+        raise WitnessError("expected \"instances\" to be a non-empty list", where)
+    if len(items) > MAX_INSTANCES:
+        raise WitnessError(f"expected at most {MAX_INSTANCES} witness instances, found {len(items)}", where)
+    out: list[WitnessInstance] = []
+    for i, item in enumerate(items):
+        iwhere = where.but(instance=i)
+        if not isinstance(item, dict):
+            raise WitnessError(f"expected witness instance {i} to be a map, found {type(item).__name__}", iwhere)
+        name = item.get("name", str(i))
+        if not isinstance(name, str):
+            raise WitnessError(f"expected a text \"name\", found {type(name).__name__}", iwhere)
+        iwhere = where.but(instance=name)
+        tables = item.get("tables")
+        if not isinstance(tables, dict) or not tables:
+            raise WitnessError("expected \"tables\" to be a non-empty map of NAME -> entries", iwhere)
+        combine = item.get("combine")
+        if not isinstance(combine, str):
+            raise WitnessError(f"expected \"combine\" as text, found {type(combine).__name__}", iwhere)
+        parsed: dict[str, RawTable] = {}
+        for tname, entries in tables.items():
+            if isinstance(entries, str):
+                if base_dir is None:
+                    raise WitnessError(f"expected table {tname!r} as a list of elements, found text", iwhere)
+                parsed[tname] = _load_npy(base_dir, entries, tname, iwhere)
+            elif isinstance(entries, list):
+                parsed[tname] = entries
+            else:
+                raise WitnessError(
+                    f"expected table {tname!r} as a list of elements or a .npy path, found {type(entries).__name__}",
+                    iwhere)
+        out.append(WitnessInstance(name, parsed, _parse_combine(combine, iwhere)))
+    return Witness(tuple(out), where.file or "")
+
+
+def _parse_combine(text: str, where: Where) -> Expr:
+    try:
+        expr = parse(text)
+    except ExpressionError as err:
+        raise ExpressionError(f"{err.message} {text[:120]!r}", err.text, err.column, where) from None
+    if not expr.names():
+        raise WitnessError(f"expected a combine expression over at least one table, found {text!r}", where)
+    return expr
+
+
+# ----- fitting the witness to a transcript (pure) -------------------------------------------
+def fit_witness(witness: Witness, transcript: Transcript) -> dict[int, FittedInstance]:
+    """Transcript instance index -> its witness, matched by name (first unclaimed
+    instance of that name), else by position; instances without a witness are absent."""
+    claimed: dict[int, WitnessInstance] = {}
+    by_name: dict[str, list[int]] = {}
+    for inst in transcript.instances:
+        by_name.setdefault(inst.name, []).append(inst.start.index)
+    unmatched: list[tuple[int, WitnessInstance]] = []
+    for pos, winst in enumerate(witness.instances):
+        free = [i for i in by_name.get(winst.name, []) if i not in claimed]
+        if free:
+            claimed[free[0]] = winst
+        else:
+            unmatched.append((pos, winst))
+    for pos, winst in unmatched:
+        if pos < len(transcript.instances) and pos not in claimed:
+            claimed[pos] = winst
+        else:
+            names = ", ".join(repr(i.name) for i in transcript.instances[:8]) or "none"
+            raise WitnessError(
+                f"expected witness instance {winst.name!r} to match a transcript instance by name or position, "
+                f"found no free one (transcript instances: {names})", Where(file=witness.source or None))
+    field = transcript.field
+    return {
+        index: _fit_one(field, transcript.instances[index], winst, Where(file=witness.source or None, instance=winst.name))
+        for index, winst in sorted(claimed.items())
+    }
+
+
+def _fit_one(field: Field, inst: InstanceRecord, winst: WitnessInstance, where: Where) -> FittedInstance:
+    start = inst.start
+    expr = winst.combine
+    missing = [n for n in expr.names() if n not in winst.tables]
+    if missing:
+        have = ", ".join(sorted(winst.tables)) or "none"
+        raise WitnessError(f"expected tables named in combine {expr.text!r}; missing {', '.join(missing)} "
+                           f"(tables given: {have})", where)
+    if expr.degree() > start.degree:
+        raise WitnessError(
+            f"expected a combine of degree at most the instance's degree {start.degree}, "
+            f"found {expr.text!r} of degree {expr.degree()}", where)
+    n = 1 << start.num_vars
+    tables: dict[str, np.ndarray] = {}
+    for tname in expr.names():
+        arr = _to_field_array(field, winst.tables[tname], tname, where)
+        if len(arr) != n:
+            raise WitnessError(
+                f"expected table {tname!r} with 2^{start.num_vars} = {n} entries (num_vars {start.num_vars}), "
+                f"found {len(arr)}", where)
+        tables[tname] = arr
+    return FittedInstance(start.index, start.name, tables, expr, winst.name)
+
+
+def _to_field_array(field: Field, raw: RawTable, table: str, where: Where) -> np.ndarray:
+    """Canonical field vector: 1-D base-field array when every entry is a base
+    element, else an (n, k) extension array."""
+    if isinstance(raw, np.ndarray):
+        return _numpy_table(field, raw, table, where)
+    values = list(raw)
+    if field.p < 2**64 and values:
+        try:
+            arr = np.array(values)  # one vectorised pass when every entry is a machine integer
+        except (ValueError, OverflowError, TypeError):
+            arr = None
+        if arr is not None and arr.dtype.kind in "iu" and arr.ndim == 1:
+            return _numpy_table(field, arr, table, where)
+    elements = []
+    for i, v in enumerate(values):
+        try:
+            elements.append(field.parse(v))
+        except FieldError as err:
+            raise WitnessError(f"table {table!r} entry {i}: {err.message}", where) from None
+    if field.is_extension and any(not field.is_base(e) for e in elements):
+        return field.vec(elements)
+    return field.base.vec([e if isinstance(e, int) else e[0] for e in elements])
+
+
+def _numpy_table(field: Field, arr: np.ndarray, table: str, where: Where) -> np.ndarray:
+    k = field.degree
+    if arr.ndim == 2 and (not field.is_extension or arr.shape[1] != k):
+        raise WitnessError(
+            f"expected table {table!r} as shape (n,) or (n, {k}) over {field.describe()}, found shape {arr.shape}",
+            where)
+    p = field.p
+    bad = arr < 0
+    if p < 2**64:
+        bad = bad | (arr.astype(np.uint64) >= np.uint64(p))
+    if bool(np.any(bad)):
+        index = int(np.argwhere(bad)[0][0])
+        raise WitnessError(
+            f"expected canonical entries 0 <= v < p = {p} in table {table!r}, found {arr[index]} at entry {index}",
+            where)
+    if p >= 2**64:  # object arrays of Python ints for the big fields
+        if arr.ndim == 1:
+            return field.base.vec([int(v) for v in arr])
+        return field.vec([tuple(int(c) for c in row) for row in arr])
+    out = np.ascontiguousarray(arr, dtype=np.uint64)
+    return out if out.ndim == 1 else field.vec(out)

@@ -1,0 +1,1 @@
+"""Documents for a teammate: the Markdown and self-contained HTML reports."""

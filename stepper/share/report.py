@@ -1,0 +1,304 @@
+"""A shareable report of one transcript: its document model and its Markdown form.
+
+Pure: :func:`build` turns a :class:`~stepper.transcript.model.Transcript`, its replay
+:class:`~stepper.verify.verdict.Report` and, optionally, a witness diagnosis into a
+:class:`ReportDoc` of ready-formatted text; :func:`to_markdown` renders it and
+:mod:`stepper.share.report_html` renders the same document as one self-contained
+HTML page. Invariants: the document holds only what the transcript and the
+replay already hold (public values) plus, when a witness was given, the
+diagnosis, and it says so in its privacy section; every report carries the
+caution that a passing replay is evidence about one run, not a soundness
+proof; long field elements are shortened in tables, never in the failure.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Protocol, Sequence
+
+from stepper.verify.verdict import PASSING_REPLAY_WARNING
+
+if TYPE_CHECKING:
+    from stepper.field.field import Field
+    from stepper.transcript.model import BucketStats, InstanceRecord, Transcript
+    from stepper.verify.verdict import InstanceSummary, Report
+
+__all__ = [
+    "Diagnosed",
+    "RoundRow",
+    "BucketRow",
+    "InstanceSection",
+    "ReportDoc",
+    "build",
+    "to_markdown",
+    "bucket_rows",
+    "reveals",
+    "short",
+]
+
+SHORT = 22  # characters of an element shown in a table cell
+
+
+class Diagnosed(Protocol):
+    """What the report needs from :func:`stepper.diagnose.rootcause.diagnose`'s result."""
+
+    def root_cause_json(self) -> dict[str, Any] | None: ...
+    def findings_json(self) -> list[dict[str, Any]]: ...
+    def explain(self) -> list[str]: ...
+
+
+@dataclass(frozen=True, slots=True)
+class RoundRow:
+    number: int
+    status: str
+    values: str
+    sum01: str
+    claim_in: str
+    challenge: str
+    explanation: str  # the replay's sentence (always kept for a failing round)
+
+
+@dataclass(frozen=True, slots=True)
+class BucketRow:
+    """Bucket occupancy of one round, summed over chunks."""
+
+    round: int
+    buckets: int
+    largest: int | None
+    entries: int | None
+    bound_log2: int | None
+
+
+@dataclass(frozen=True, slots=True)
+class InstanceSection:
+    index: int
+    name: str
+    statement: str
+    status: str
+    rows: tuple[RoundRow, ...]
+    closing: tuple[str, ...]  # batch and final checks, one sentence each
+    buckets: tuple[BucketRow, ...]
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class ReportDoc:
+    title: str
+    summary: tuple[tuple[str, str], ...]
+    verdict: str
+    caution: str
+    failure: tuple[tuple[str, str], ...]  # empty when every check passed
+    root_cause: tuple[str, ...]  # sentences; empty without a witness
+    root_cause_fields: tuple[tuple[str, str], ...]
+    findings: tuple[str, ...]  # replay findings and witness probe findings
+    instances: tuple[InstanceSection, ...]
+    notes: tuple[str, ...]  # proof-level notes
+    privacy: tuple[str, ...]
+    with_witness: bool
+
+
+def short(text: str, limit: int = SHORT) -> str:
+    """Middle-shortened text: ``1234567...7654321``."""
+    if len(text) <= limit:
+        return text
+    half = (limit - 3) // 2
+    return f"{text[:half]}...{text[-half:]}"
+
+
+def build(transcript: Transcript, report: Report, diagnosis: Diagnosed | None = None, source: str = "") -> ReportDoc:
+    """The report of one transcript, its replay and (optionally) a witness diagnosis."""
+    field = transcript.field
+    meta = dict(transcript.header.metadata)
+    title = f"stepper report: {meta.get('label') or source or 'transcript'}"
+    summary: list[tuple[str, str]] = [
+        ("verdict", _VERDICT_TEXT.get(report.verdict, report.verdict)),
+        ("file", source or "(not given)"),
+        ("field", field.describe()),
+        ("instances", str(len(transcript.instances))),
+        ("recording", f"{transcript.completeness}; digest {transcript.digest}"),
+        ("challenges", report.challenges),
+        ("soundness bound", report.soundness.describe()),
+    ]
+    if transcript.schedule is not None:
+        summary.append(("schedule", f"{transcript.schedule.name} label '{transcript.schedule.label}'"))
+    summary.extend((f"metadata {k}", _plain(v)) for k, v in sorted(meta.items()))
+    failure: list[tuple[str, str]] = []
+    first = report.first_failure
+    if first is not None:
+        failure = [
+            ("instance", f"#{first.instance} '{first.instance_name}'"),
+            ("round", str(first.round)),
+            ("check", first.check),
+            ("expected", report.fmt(first.expected) or "-"),
+            ("found", report.fmt(first.found) or "-"),
+            ("explanation", first.explanation),
+        ]
+    findings = [f"[{f.severity}] {f.message}" + _at(f.instance, f.round, transcript) for f in report.findings]
+    root: list[str] = []
+    root_fields: list[tuple[str, str]] = []
+    if diagnosis is not None:
+        root = list(diagnosis.explain())
+        cause = diagnosis.root_cause_json()
+        if cause is None:
+            root.insert(0, "The witness reproduces every round the prover sent: no root cause to report.")
+        else:
+            root_fields = [(str(k), _plain(v)) for k, v in cause.items() if k != "explanation" and v is not None]
+        for probe in diagnosis.findings_json():
+            name = probe.get("probe") or probe.get("kind") or "probe"
+            findings.append(f"[probe {name}] {probe.get('message') or _plain(probe)}"
+                            + _at(probe.get("instance"), probe.get("round"), transcript))
+    summaries = {s.index: s for s in report.instances}
+    sections = tuple(_section(field, inst, summaries.get(inst.start.index)) for inst in transcript.instances)
+    notes = tuple(_note_text(n.text, None, n.round) for n in transcript.notes)
+    return ReportDoc(
+        title, tuple(summary), report.verdict, PASSING_REPLAY_WARNING, tuple(failure), tuple(root),
+        tuple(root_fields), tuple(findings), sections, notes, reveals(transcript, diagnosis is not None),
+        diagnosis is not None,
+    )
+
+
+_VERDICT_TEXT = {
+    "accept": "accepted: every check of every instance passed",
+    "reject": "rejected: a verifier check failed",
+    "incomplete": "incomplete: the transcript stops early; every round present passed",
+}
+
+
+def _plain(value: object) -> str:
+    """Metadata or JSON values as one line of text."""
+    if isinstance(value, dict):
+        return ", ".join(f"{k} {_plain(v)}" for k, v in value.items() if v is not None)
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_plain(v) for v in value) + "]"
+    return str(value)
+
+
+def _at(instance: int | None, round_: int | None, transcript: Transcript) -> str:
+    if instance is None:
+        return ""
+    name = transcript.instances[instance].name if 0 <= instance < len(transcript.instances) else str(instance)
+    return f" (instance '{name}'" + (f", round {round_})" if round_ is not None else ")")
+
+
+def _note_text(text: str, instance: str | None, round_: int | None) -> str:
+    where = "proof" if instance is None else f"instance '{instance}'"
+    if round_ is not None:
+        where += f", round {round_}"
+    return f"{where}: {text}"
+
+
+def _section(field: Field, inst: InstanceRecord, summary: InstanceSummary | None) -> InstanceSection:
+    fmt = field.fmt
+    s = inst.start
+    statement = (f"num_vars {s.num_vars}, degree {s.degree}, {s.order}, form {s.form}, "
+                 f"claim {short(fmt(s.claim), 40)}")
+    results = {r.round: r for r in summary.rounds} if summary is not None else {}
+    rows = []
+    for rnd in inst.rounds:
+        res = results.get(rnd.number)
+        values = ", ".join(short(fmt(v)) for v in rnd.values)
+        challenge = "-" if rnd.challenge is None else short(fmt(rnd.challenge))
+        if res is None:
+            rows.append(RoundRow(rnd.number, "not replayed", values, "-", "-", challenge, ""))
+            continue
+        rows.append(RoundRow(rnd.number, res.status, values, short(fmt(res.sum01)), short(fmt(res.claim_in)),
+                             challenge, res.explanation))
+    closing: list[str] = []
+    if summary is not None and summary.batch is not None:
+        closing.append(f"batch {summary.batch.status}: {summary.batch.explanation}")
+    if summary is not None and summary.final is not None:
+        closing.append(f"final {summary.final.status}: {summary.final.explanation}")
+    elif inst.final is None:
+        closing.append("no final value was sent, so the last reduced claim is not checked against an oracle")
+    status = summary.status if summary is not None else "not replayed"
+    notes = tuple(_note_text(n.text, inst.name, n.round) for n in inst.notes)
+    return InstanceSection(s.index, inst.name, statement, status, tuple(rows), tuple(closing),
+                           bucket_rows(inst.buckets), notes)
+
+
+def bucket_rows(stats: Sequence[BucketStats]) -> tuple[BucketRow, ...]:
+    """Per round: buckets in use, the largest bucket and entries (when sizes were sent), the bound."""
+    by_round: dict[int, list[BucketStats]] = {}
+    for b in stats:
+        by_round.setdefault(b.round, []).append(b)
+    rows = []
+    for number in sorted(by_round):
+        group = by_round[number]
+        sizes = [s for b in group if b.sizes is not None for s in b.sizes]
+        bounds = [b.bound_log2 for b in group if b.bound_log2 is not None]
+        rows.append(BucketRow(number, sum(b.count for b in group), max(sizes) if sizes else None,
+                              sum(sizes) if sizes else None, max(bounds) if bounds else None))
+    return tuple(rows)
+
+
+def reveals(transcript: Transcript, with_witness: bool = False) -> tuple[str, ...]:
+    """What a transcript (and a report made from it) makes public, in plain sentences."""
+    lines = [
+        "A transcript holds public values only: the field, each instance's statement (name, num_vars, degree, "
+        "order, form) and claimed sum, the round polynomials, the challenges, the final values, bucket counts "
+        "and sizes, notes and the recording metadata. It never holds the witness tables.",
+        "Everything in this report is derived from those public values and the verifier replay.",
+    ]
+    if transcript.header.metadata:
+        keys = ", ".join(sorted(transcript.header.metadata))
+        lines.append(f"The recording metadata ({keys}) is copied into the summary; check it before sharing.")
+    if with_witness:
+        lines.append(
+            "This report was made with a witness: the root-cause section shows values computed from it (honest "
+            "round evaluations at one round). Share it only where the witness may be seen."
+        )
+    return tuple(lines)
+
+
+def to_markdown(doc: ReportDoc) -> str:
+    """The report as GitHub-flavoured Markdown (tables, text bar charts)."""
+    out = [f"# {_md(doc.title)}", "", f"> **Caution.** {_md(doc.caution)}", "", "## Summary", ""]
+    out += ["| | |", "|---|---|"] + [f"| {_md(k)} | {_md(v)} |" for k, v in doc.summary]
+    out += ["", "## First failure", ""]
+    if doc.failure:
+        out += [f"- **{_md(k)}**: {_md(v)}" for k, v in doc.failure]
+    else:
+        out.append("None: every check present passed." if doc.verdict != "reject" else "-")
+    if doc.with_witness:
+        out += ["", "## Root cause (with the witness)", ""]
+        out += [f"- **{_md(k)}**: {_md(v)}" for k, v in doc.root_cause_fields]
+        out += [f"- {_md(s)}" for s in doc.root_cause]
+    out += ["", "## Findings", ""]
+    out += [f"- {_md(f)}" for f in doc.findings] or ["None."]
+    for sec in doc.instances:
+        out += ["", f"## Instance {sec.index}: {_md(sec.name)} ({_md(sec.status)})", "", _md(sec.statement), ""]
+        out += ["| round | status | values sent | g(0)+g(1) | claim in | challenge |",
+                "|---:|---|---|---|---|---|"]
+        for r in sec.rows:
+            out.append(f"| {r.number} | {r.status} | {_md(r.values)} | {r.sum01} | {r.claim_in} | {r.challenge} |")
+        for r in sec.rows:
+            if r.status == "fail":
+                out.append(f"\n**Round {r.number} fails:** {_md(r.explanation)}")
+        out += [""] + [f"- {_md(c)}" for c in sec.closing]
+        if sec.buckets:
+            out += ["", "### Bucket occupancy", "", "```"] + _text_chart(sec.buckets) + ["```"]
+        if sec.notes:
+            out += ["", "### Notes", ""] + [f"- {_md(n)}" for n in sec.notes]
+    if doc.notes:
+        out += ["", "## Notes on the proof", ""] + [f"- {_md(n)}" for n in doc.notes]
+    out += ["", "## What this file reveals", ""] + [f"- {_md(p)}" for p in doc.privacy]
+    return "\n".join(out) + "\n"
+
+
+def _text_chart(rows: Sequence[BucketRow], width: int = 40) -> list[str]:
+    top = max((r.buckets for r in rows), default=0) or 1
+    lines = ["round  buckets  largest  bound"]
+    for r in rows:
+        bar = "#" * max(1 if r.buckets else 0, round(width * r.buckets / top))
+        largest = "-" if r.largest is None else str(r.largest)
+        bound = "-" if r.bound_log2 is None else f"2^{r.bound_log2}"
+        lines.append(f"{r.round:>5}  {r.buckets:>7}  {largest:>7}  {bound:>5}  {bar}")
+    return lines
+
+
+def _md(text: str) -> str:
+    """Text safe inside Markdown tables and lists (pipes and markup escaped, one line)."""
+    text = text.replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
+    for ch in "*`[]<>":
+        text = text.replace(ch, "\\" + ch)
+    return text

@@ -1,0 +1,157 @@
+"""The transcript writer: append-only, one unbuffered write per event.
+
+Every event is validated through a :class:`Sequencer` before a byte is written
+and stored in its canonical binary form (elements fixed-width little endian,
+element lists packed into one blob), so whatever the writer accepts the reader
+reads back identically. The file is never held in memory; a prover that dies
+leaves a readable prefix (no end event: "incomplete"). ``finish`` appends the
+``end`` event: the event count and the SHA-256 of every byte before it.
+
+Durability: each event goes to the operating system in one ``write`` as it is
+made, so a prover that crashes or is killed loses nothing written before. The
+writer does not ``fsync``: a machine that loses power may lose the last events.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import os
+from types import TracebackType
+from typing import Any, BinaryIO, Mapping
+
+import msgpack
+
+from stepper import __version__
+from stepper.errors import TranscriptError, Where
+from stepper.transcript.events import Sequencer, to_payload
+from stepper.transcript.model import FORMAT_VERSION, Event, Header
+
+__all__ = ["MAGIC", "END_MAX_BYTES", "TranscriptWriter", "header_bytes", "end_payload", "oserror"]
+
+MAGIC = b"stepper:sumcheck\n"
+END_MAX_BYTES = 256  # an end event is about 60 bytes; readers refuse larger ones
+
+
+def end_payload(events: int, digest: bytes) -> dict[str, Any]:
+    """The end event: keys in this order, packed in msgpack's shortest form."""
+    return {"type": "end", "events": events, "sha256": digest}
+
+
+def oserror(err: OSError, path: str, doing: str) -> TranscriptError:
+    return TranscriptError(f"could not {doing}: {err.strerror or err}", Where(file=path))
+
+
+def header_bytes(metadata: Mapping[str, Any], tool_version: str = __version__) -> bytes:
+    """Magic, version and header map: the first bytes of every transcript."""
+    header = {"tool": "stepper", "tool_version": tool_version, "metadata": dict(metadata)}
+    return MAGIC + msgpack.packb(FORMAT_VERSION) + msgpack.packb(header, use_bin_type=True)
+
+
+class TranscriptWriter:
+    """Writes a transcript event by event; ``finish`` (or a clean ``with`` exit)
+    appends the end event. An exception inside the ``with`` leaves the file
+    without an end event: readable, and read back as "incomplete"."""
+
+    def __init__(self, path: str | os.PathLike[str], *, metadata: Mapping[str, Any] | None = None,
+                 tool_version: str = __version__) -> None:
+        self.path = str(path)
+        meta = dict(metadata or {})
+        meta.setdefault("created", _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"))
+        self.header = Header(FORMAT_VERSION, tool_version, meta)
+        self._seq = Sequencer(Where(file=self.path))
+        self._hasher = hashlib.sha256()
+        self._packer = msgpack.Packer(use_bin_type=True)
+        self._finished = False
+        self._broken: str | None = None  # why the writer stopped accepting events, if it did
+        try:
+            head = header_bytes(meta, tool_version)
+        except (TypeError, ValueError, OverflowError) as err:
+            raise TranscriptError(f"expected metadata of strings, numbers (integers within -2^63 .. 2^64 - 1), "
+                                  f"lists and maps, found {err}", Where(file=self.path)) from None
+        try:
+            self._file: BinaryIO = open(self.path, "wb", buffering=0)
+        except OSError as err:
+            raise oserror(err, self.path, "create the transcript") from None
+        self._emit(head)
+
+    @property
+    def events(self) -> int:
+        """Events written so far (the end event not counted)."""
+        return self._seq.count
+
+    @property
+    def awaiting_challenge(self) -> bool:
+        """Whether the last round written still waits for its challenge."""
+        return self._seq.awaiting_challenge
+
+    @property
+    def field(self) -> object:
+        """The field declared so far (None before the field event)."""
+        return self._seq.field
+
+    def _emit(self, data: bytes) -> None:
+        self._hasher.update(data)
+        try:
+            self._file.write(data)
+        except OSError as err:
+            raise oserror(err, self.path, "write the transcript") from None
+
+    def write(self, record: Event) -> Event:
+        """Validate and append one event record; returns the record as sequenced."""
+        if self._finished:
+            raise TranscriptError("expected no events after finish(), found one", Where(file=self.path))
+        field = self._seq.field
+        return self.write_payload(to_payload(record, field, binary=field is not None, packed=True))
+
+    def write_payload(self, payload: Mapping[str, Any]) -> Event:
+        """Validate an event payload (JSON or binary values) and append it in
+        the file's canonical binary form; returns the record."""
+        if self._finished:
+            raise TranscriptError("expected no events after finish(), found one", Where(file=self.path))
+        if self._broken is not None:
+            raise TranscriptError(self._broken, Where(file=self.path, event=self._seq.count))
+        if isinstance(payload, Mapping) and payload.get("type") == "end":
+            raise TranscriptError("expected an event type other than `end`, which only the writer writes when it "
+                                  "seals the file", Where(file=self.path, event=self._seq.count))
+        record = self._seq.feed(payload)
+        field = self._seq.field
+        try:
+            data = self._packer.pack(to_payload(record, field, binary=True, packed=True))
+        except (OverflowError, TypeError, ValueError) as err:
+            # the Sequencer has already counted this event: stop here, so a wrong count is never sealed
+            self._broken = (f"expected no more events after event {self._seq.count - 1}, which could not be stored "
+                            f"({err}); the file keeps the events before it and reads as incomplete")
+            raise TranscriptError(
+                "expected free-form integers between -2^63 and 2^64 - 1 (what msgpack stores), found a value "
+                f"msgpack cannot store ({err}); send it as a decimal string",
+                Where(file=self.path, event=self._seq.count - 1)) from None
+        self._emit(data)
+        return record
+
+    def finish(self) -> None:
+        """Append the end event (event count and SHA-256 of every byte so far) and close."""
+        if self._finished:
+            return
+        if self._broken is not None:
+            self.close()
+            raise TranscriptError(f"the transcript was left unsealed: {self._broken}", Where(file=self.path))
+        self._emit(self._packer.pack(end_payload(self._seq.count, self._hasher.digest())))
+        self._finished = True
+        self.close()
+
+    def close(self) -> None:
+        """Close without an end event (the file then reads as incomplete)."""
+        self._finished = True
+        self._file.close()
+
+    def __enter__(self) -> TranscriptWriter:
+        return self
+
+    def __exit__(self, kind: type[BaseException] | None, err: BaseException | None, tb: TracebackType | None) -> None:
+        if kind is None:
+            self.finish()
+        else:
+            self.close()
+
+

@@ -1,0 +1,187 @@
+"""The plug-in challenge route and its binding probe (pure: no imports of user code here).
+
+A plug-in is a Python callable ``derive(history) -> challenge``. ``history`` is a
+read-only sequence of plain event maps, oldest first, exactly as the event
+stream would carry them but with elements as Python ints (a list of ints,
+constant first, in an extension field): the ``field`` map (with ``modulus``
+always present), then ``schedule``, ``batch``, ``instance``, ``round`` and
+``challenge`` maps of the whole proof so far. It is called once per round, right
+after that round's ``round`` map, and returns the challenge as an int, a
+decimal/0x string, or a list of base values.
+
+The binding probe perturbs one earlier message at a time (the claim, each
+statement field, each batch value, each value of the round just sent) and calls
+the plug-in again: a message that does not change the *next* challenge is not
+bound by the Fiat-Shamir transform, and the prover may choose it after seeing
+the challenge. An unbound claim is the weak Fiat-Shamir class of bug.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Sequence
+
+from stepper.errors import InputError, Where
+from stepper.field.poly import FORMS, ORDERS
+from stepper.transcript.model import BatchDecl, ChallengeMsg, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+from stepper.verify.verdict import Finding
+
+if TYPE_CHECKING:
+    from stepper.field.field import Element, Field
+    from stepper.transcript.model import Event
+
+__all__ = ["Challenger", "History", "history_payload", "call_challenger", "probe_binding"]
+
+Challenger = Callable[[Sequence[Mapping[str, Any]]], Any]
+
+
+class History(Sequence[Mapping[str, Any]]):
+    """A read-only view of the first ``length`` maps of a growing list."""
+
+    __slots__ = ("_items", "_length")
+
+    def __init__(self, items: list[dict[str, Any]], length: int | None = None) -> None:
+        self._items = items
+        self._length = len(items) if length is None else length
+
+    def __len__(self) -> int:
+        return self._length
+
+    def __getitem__(self, index: Any) -> Any:
+        if isinstance(index, slice):
+            return [self._items[i] for i in range(*index.indices(self._length))]
+        if index < 0:
+            index += self._length
+        if not 0 <= index < self._length:
+            raise IndexError("history index out of range")
+        return self._items[index]
+
+    def __iter__(self) -> Iterator[Mapping[str, Any]]:
+        return (self._items[i] for i in range(self._length))
+
+
+def _plain(e: Element) -> Any:
+    return list(e) if isinstance(e, tuple) else e
+
+
+def history_payload(record: Event, field: Field) -> dict[str, Any] | None:
+    """The map a plug-in sees for a record, or None for records it does not see."""
+    if isinstance(record, RoundMsg):
+        return {"type": "round", "evals": [_plain(v) for v in record.values]}
+    if isinstance(record, ChallengeMsg):
+        return {"type": "challenge", "value": _plain(record.value)}
+    if isinstance(record, InstanceStart):
+        return {"type": "instance", "name": record.name, "num_vars": record.num_vars, "degree": record.degree,
+                "claim": _plain(record.claim), "order": record.order, "form": record.form}
+    if isinstance(record, BatchDecl):
+        return {"type": "batch", "coefficient": _plain(record.coefficient),
+                "terms": [_plain(t) for t in record.terms], "sources": list(record.sources)}
+    if isinstance(record, FieldDecl):
+        return {"type": "field", **record.field.spec(), "modulus": str(record.field.p)}
+    if isinstance(record, ScheduleDecl):
+        return {"type": "schedule", "name": record.name, "label": record.label, "params": dict(record.params)}
+    return None
+
+
+def call_challenger(challenger: Challenger, history: Sequence[Mapping[str, Any]], field: Field,
+                    where: Where) -> Element:
+    """The plug-in's challenge, parsed as an element of ``field``; its errors become InputError."""
+    try:
+        raw = challenger(history)
+    except Exception as err:  # user code: any failure is the plug-in's, reported as input
+        raise InputError(f"expected the challenge plug-in to return a challenge, but it raised "
+                         f"{type(err).__name__}: {err}", where) from None
+    try:
+        return field.parse(raw, where)
+    except InputError as err:
+        raise InputError(f"challenge plug-in returned an unusable value: {err.message}", where) from None
+
+
+def _bump(value: Any, p: int) -> Any:
+    """A different element of the same shape (constant coefficient + 1)."""
+    if isinstance(value, list):
+        return [(value[0] + 1) % p, *value[1:]]
+    return (value + 1) % p
+
+
+def _variants(payload: dict[str, Any], p: int) -> Iterator[tuple[str, dict[str, Any]]]:
+    """(what, perturbed copy) for every message field a challenge should depend on."""
+    kind = payload["type"]
+    if kind == "instance":
+        yield "claim", {**payload, "claim": _bump(payload["claim"], p)}
+        yield "name", {**payload, "name": payload["name"] + "~"}
+        yield "num_vars", {**payload, "num_vars": payload["num_vars"] + 1}
+        yield "degree", {**payload, "degree": payload["degree"] + 1}
+        yield "order", {**payload, "order": ORDERS[1 - ORDERS.index(payload["order"])]}
+        yield "form", {**payload, "form": FORMS[(FORMS.index(payload["form"]) + 1) % len(FORMS)]}
+    elif kind == "batch":
+        yield "batch coefficient", {**payload, "coefficient": _bump(payload["coefficient"], p)}
+        for i, term in enumerate(payload["terms"]):
+            terms = list(payload["terms"])
+            terms[i] = _bump(term, p)
+            yield f"batch term {i}", {**payload, "terms": terms}
+    elif kind == "round":
+        for i, value in enumerate(payload["evals"]):
+            evals = list(payload["evals"])
+            evals[i] = _bump(value, p)
+            yield f"value {i}", {**payload, "evals": evals}
+
+
+def _challenge_or_none(challenger: Challenger, history: list[dict[str, Any]]) -> Any:
+    try:
+        return challenger(History(history))
+    except Exception:  # a plug-in that refuses a perturbed history has noticed it: bound
+        return None
+
+
+def probe_binding(
+    challenger: Challenger,
+    history: list[dict[str, Any]],
+    positions: Sequence[int],
+    field: Field,
+    instance: int,
+    instance_name: str,
+    round_: int,
+) -> list[Finding]:
+    """Perturb each message at ``positions`` of ``history`` (which ends with the round
+    just sent) and report those that leave the plug-in's next challenge unchanged."""
+    baseline = _challenge_or_none(challenger, history)
+    if baseline is None:
+        return []
+    findings: list[Finding] = []
+    for pos in positions:
+        payload = history[pos]
+        unbound = []
+        for what, variant in _variants(payload, field.p):
+            trial = list(history)
+            trial[pos] = variant
+            again = _challenge_or_none(challenger, trial)
+            if again is not None and again == baseline:
+                unbound.append(what)
+        if unbound:
+            findings.append(_finding(payload["type"], unbound, instance, instance_name, round_))
+    return findings
+
+
+def _finding(kind: str, unbound: list[str], instance: int, name: str, round_: int) -> Finding:
+    listed = ", ".join(unbound)
+    if kind == "instance" and "claim" in unbound:
+        others = ", ".join(u for u in unbound if u != "claim")
+        return Finding(
+            "unbound-claim", "high",
+            f"the claimed sum is not bound into the challenges: changing the claim of instance '{name}' "
+            f"leaves the challenge of round {round_} unchanged (weak Fiat-Shamir: a prover can pick a false "
+            f"claim after seeing the challenges)" + (f"; statement fields also unbound: {others}" if others else ""),
+            instance, round_)
+    if kind == "instance":
+        return Finding("unbound-statement", "medium",
+                       f"statement fields of instance '{name}' ({listed}) do not change the challenge of "
+                       f"round {round_}: two different statements share one challenge sequence", instance, round_)
+    if kind == "batch":
+        return Finding("unbound-batch", "high",
+                       f"the batch declaration before instance '{name}' ({listed}) does not change the "
+                       f"challenge of round {round_}: the batched claim can be chosen after the challenges",
+                       instance, round_)
+    return Finding("unbound-round", "high",
+                   f"round {round_} of instance '{name}': the sent {listed} do(es) not change the challenge "
+                   f"of that round, so the prover can choose the round polynomial after seeing it",
+                   instance, round_)

@@ -1,0 +1,257 @@
+"""The built-in Fiat-Shamir challenge schedule ``stepper-sha256/1``.
+
+One object serves both sides: a prover ``observe``s every record it sends and
+asks ``challenge()`` after each round; the verifier replay does the same with
+the records it reads and compares. transcripts/FIAT-SHAMIR.md is the normative
+description; this module is its executable form and the tests pin its bytes.
+
+Rules kept here:
+
+* The state is one running SHA-256 (hashlib). Everything absorbed is a frame
+  ``len(tag) (1 byte) || tag || len(body) (8 bytes LE) || body``; integers in a
+  body are 8-byte little-endian, strings are length-prefixed UTF-8, field
+  elements are the field's canonical fixed-width little-endian bytes.
+* Absorbed, in the order the records arrive: the domain frame (at creation),
+  ``field``, ``schedule`` (name, label), ``batch``, ``instance`` (name, num_vars,
+  degree, order, form, claim), ``round`` (the values in the form sent), and each
+  squeezed challenge. Challenges, finals, buckets, notes and unknown events that
+  are *observed* are not absorbed (a challenge is absorbed by ``challenge()``).
+* A challenge is k independent base samples (k = extension degree); sample s
+  reads L = ceil((bits(p) + 128) / 8) bytes from SHA-256 blocks of
+  ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a little-endian integer
+  and reduces it mod p (wide reduction: bias below 2^-128).
+
+``round_challenge`` / ``round_stepper`` do "observe a round, then challenge()" in
+one step with the frame heads and ``struct`` packers cached: the same bytes, for
+the replay's and provers' hot loops.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import struct
+from operator import itemgetter
+from typing import TYPE_CHECKING, Callable
+
+from stepper.errors import InputError
+from stepper.transcript.packed import pack_elements
+from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+
+if TYPE_CHECKING:
+    from stepper.field.field import Element, Field
+    from stepper.transcript.model import Event
+
+__all__ = ["SCHEDULE_NAME", "BUILTIN_SCHEDULES", "Sha256Schedule", "frame"]
+
+SCHEDULE_NAME = "stepper-sha256/1"
+BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME,)
+_DOMAIN = SCHEDULE_NAME.encode()
+_SECURITY_BITS = 128
+_ROUND_HEAD = bytes([5]) + b"round"
+_PAIR = struct.Struct("<QQ")  # two u64 of a frame body
+_INSTANCE_HEAD = bytes([8]) + b"instance"
+
+
+def frame(tag: bytes, body: bytes) -> bytes:
+    """One absorbed item: tag length (1 byte), tag, body length (8 bytes LE), body."""
+    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
+
+
+def _u64(n: int) -> bytes:
+    return n.to_bytes(8, "little")
+
+
+def _text(s: str) -> bytes:
+    raw = s.encode("utf-8")
+    return _u64(len(raw)) + raw
+
+
+class Sha256Schedule:
+    """The ``stepper-sha256/1`` schedule: ``observe(record)`` then ``challenge()``."""
+
+    name = SCHEDULE_NAME
+
+    def __init__(self) -> None:
+        self._state = hashlib.sha256(frame(b"domain", _DOMAIN))
+        self.field: Field | None = None
+        self._wide = 0
+        self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
+        self._challenge_head = b""
+        self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
+        self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
+        self._shapes: dict[tuple[str, str], bytes] = {}  # _text(order) + _text(form), by (order, form)
+        # itemgetters cutting a run of rows into its absorbed pieces, by (rounds, round frame, row length)
+        self._row_cuts: dict[tuple[int, int, int], Callable[[memoryview], tuple[memoryview, ...]]] = {}
+
+    @property
+    def wide_bytes(self) -> int:
+        """Bytes of squeezed output reduced mod p for one base sample (0 before the field)."""
+        return self._wide
+
+    def state_digest(self) -> bytes:
+        """SHA-256 of everything absorbed so far (for test vectors and debugging)."""
+        return self._state.copy().digest()
+
+    def _absorb(self, tag: bytes, body: bytes) -> None:
+        self._state.update(frame(tag, body))
+
+    def _el(self, e: Element) -> bytes:
+        field = self.field
+        assert field is not None
+        if e.__class__ is int and field.degree == 1 and 0 <= e < field.p:  # type: ignore[operator]
+            return e.to_bytes(field.base_bytes, "little")  # type: ignore[union-attr]
+        return field.encode(e)
+
+    def observe(self, record: Event) -> None:
+        """Absorb a record the way the schedule defines (no-op for kinds it skips)."""
+        cls = record.__class__
+        if cls is RoundMsg:
+            self._need_field("round")
+            self._state.update(self._round_frame(record.values))  # type: ignore[union-attr]
+        elif cls is InstanceStart:
+            self._need_field("instance")
+            name = record.name.encode("utf-8")  # type: ignore[union-attr]
+            shape = self._shapes.get((record.order, record.form))  # type: ignore[union-attr]
+            if shape is None:
+                shape = self._shapes[(record.order, record.form)] = (  # type: ignore[union-attr]
+                    _text(record.order) + _text(record.form))  # type: ignore[union-attr]
+            counts = _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
+            body = len(name).to_bytes(8, "little") + name + counts + shape + self._el(record.claim)  # type: ignore[union-attr]
+            self._state.update(_INSTANCE_HEAD + len(body).to_bytes(8, "little") + body)  # frame("instance", body)
+        elif cls is FieldDecl:
+            self._set_field(record.field)  # type: ignore[union-attr]
+        elif cls is ScheduleDecl:
+            if record.name != SCHEDULE_NAME:  # type: ignore[union-attr]
+                raise InputError(f"expected the schedule {SCHEDULE_NAME}, found a declaration of "
+                                 f"{record.name!r}")  # type: ignore[union-attr]
+            self._absorb(b"schedule", _text(record.name) + _text(record.label))  # type: ignore[union-attr]
+        elif cls is BatchDecl:
+            field = self._need_field("batch")
+            body = (self._el(record.coefficient) + _u64(len(record.terms))  # type: ignore[union-attr]
+                    + pack_elements(field, record.terms))  # type: ignore[union-attr]
+            self._absorb(b"batch", body)
+
+    def _round_frame(self, values: tuple[Element, ...]) -> bytes:
+        """``frame("round", u64(n) || packed values)``; head and packer cached per n."""
+        head, pack = self._round_packers.get(len(values)) or self._round_packer(len(values))
+        return head + (pack(*values) if pack is not None else pack_elements(self.field, values))  # type: ignore[arg-type]
+
+    def _round_packer(self, n: int) -> tuple[bytes, Callable[..., bytes] | None]:
+        """The frame head for n values and a ``struct`` packer (None: use :func:`pack_elements`)."""
+        field = self.field
+        assert field is not None
+        head = _ROUND_HEAD + _u64(8 + n * field.elem_bytes) + _u64(n)
+        pack = None
+        if not field.is_extension and field.base_bytes in (4, 8):
+            pack = struct.Struct(f"<{n}{'I' if field.base_bytes == 4 else 'Q'}").pack
+        if len(self._round_packers) < 64:
+            self._round_packers[n] = (head, pack)
+        return head, pack
+
+    def _set_field(self, field: Field) -> None:
+        w = field.base_bytes
+        q = field.irreducible if field.is_extension else ()
+        body = _u64(w) + field.p.to_bytes(w, "little") + _u64(field.degree) + b"".join(c.to_bytes(w, "little") for c in q)
+        self._absorb(b"field", body)
+        self.field = field
+        self._round_packers.clear()
+        self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
+        blocks = -(-self._wide // 32)
+        self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
+                                     for s in range(field.degree))
+        self._challenge_head = frame(b"challenge", b"")[:-8] + _u64(field.elem_bytes)
+
+    def _need_field(self, kind: str) -> Field:
+        if self.field is None:
+            raise InputError(f"expected the field to be observed before `{kind}` in {SCHEDULE_NAME}")
+        return self.field
+
+    def challenge(self) -> Element:
+        """Squeeze the challenge for the round just observed, and absorb it."""
+        field = self._need_field("a challenge")
+        p, wide, state = field.p, self._wide, self._state
+        samples = []
+        for frames in self._squeeze_frames:
+            stream = b""
+            for squeeze in frames:
+                h = state.copy()
+                h.update(squeeze)
+                stream += h.digest()
+            samples.append(int.from_bytes(stream[:wide], "little") % p)
+        if field.is_extension:
+            state.update(self._challenge_head + field.encode(tuple(samples)))
+            return tuple(samples)
+        state.update(self._challenge_head + samples[0].to_bytes(field.base_bytes, "little"))
+        return samples[0]
+
+    def row_heads(self, n: int) -> tuple[bytes, bytes]:
+        """The bytes absorbed before the packed values of a round of ``n`` values, and
+        before a packed challenge: with the packed bytes after them, a round's and a
+        challenge's frames (for :meth:`absorb_rows`)."""
+        self._need_field("round")
+        head, _ = self._round_packers.get(n) or self._round_packer(n)
+        return head, self._challenge_head
+
+    def absorb_rows(self, rows: memoryview, first: int, count: int, round_len: int, stride: int,
+                    digests: list[bytes]) -> None:
+        """Observe ``count`` rounds and absorb their challenges, squeezing after each round:
+        the same state as ``observe(round)`` then ``challenge()`` per round, when every
+        challenge is the one squeezed. ``rows`` holds rows of ``stride`` bytes; row ``first + i``
+        is round i's frame (``round_len`` bytes) followed by its challenge's frame (heads from
+        :meth:`row_heads`). The digest squeezed for each round is appended to ``digests``
+        (its wide reduction is the challenge); the caller compares them with the rows'
+        challenges, and the state is that of the schedule only if all are equal.
+        Prime fields squeezed in one block only (Goldilocks and every prime below 2^64)."""
+        field = self._need_field("round")
+        if field.is_extension or len(self._squeeze_frames[0]) != 1:
+            raise ValueError(f"expected a prime field squeezed in one block, found {field.describe()}")
+        key = (count, round_len, stride)
+        cut = self._row_cuts.get(key)
+        if cut is None:  # one C call slices a run into its absorbed pieces: round 1, then (challenge k, round k+1)...
+            cut = itemgetter(slice(0, round_len),
+                             *(slice(round_len + k * stride, round_len + (k + 1) * stride) for k in range(count - 1)),
+                             slice(round_len + (count - 1) * stride, count * stride))
+            if len(self._row_cuts) < 256:
+                self._row_cuts[key] = cut
+        pieces = cut(rows[first * stride:(first + count) * stride])
+        update, copy, squeeze, add = self._state.update, self._state.copy, self._squeeze_frames[0][0], digests.append
+        update(pieces[0])
+        for piece in pieces[1:]:
+            h = copy()
+            h.update(squeeze)
+            add(h.digest())
+            update(piece)
+
+    def round_challenge(self, values: tuple[Element, ...]) -> Element:
+        """``observe`` of a round with these values, then ``challenge()``: the same
+        state and result, in one step (see :meth:`round_stepper` for the hot path)."""
+        return self.round_stepper()(values)
+
+    def round_stepper(self) -> Callable[[tuple[Element, ...]], Element]:
+        """A function doing :meth:`round_challenge` with everything it needs bound once:
+        the verifier's and the prover's hot path (a prime field squeezed in one block)."""
+        field = self._need_field("round")
+        if self._stepper is not None and self._stepper[0] is field:
+            return self._stepper[1]
+        if field.is_extension or len(self._squeeze_frames[0]) != 1:
+            def general(values: tuple[Element, ...]) -> Element:
+                self._state.update(self._round_frame(values))
+                return self.challenge()
+
+            self._stepper = (field, general)
+            return general
+        update, copy, packers = self._state.update, self._state.copy, self._round_packers
+        squeeze, wide, p, width = self._squeeze_frames[0][0], self._wide, field.p, field.base_bytes
+        challenge_head, from_bytes, round_packer = self._challenge_head, int.from_bytes, self._round_packer
+
+        def prime(values: tuple[Element, ...]) -> Element:
+            head, pack = packers.get(len(values)) or round_packer(len(values))
+            update(head + (pack(*values) if pack is not None else pack_elements(field, values)))
+            h = copy()
+            h.update(squeeze)
+            sample = from_bytes(h.digest()[:wide], "little") % p
+            update(challenge_head + sample.to_bytes(width, "little"))
+            return sample  # type: ignore[no-any-return]
+
+        self._stepper = (field, prime)
+        return prime

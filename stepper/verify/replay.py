@@ -1,0 +1,423 @@
+"""The verifier replay: one event record in, result values out (no I/O).
+
+:class:`Replay` keeps, per instance with claim c_0 and for rounds k = 1..num_vars:
+
+* ``degree``: at most degree+1 evaluations, counted in full form;
+* ``sum``: g_k(0) + g_k(1) == c_(k-1) (holds by construction in the compressed
+  forms, where g(1) or c1 is recovered from the claim);
+* ``challenge``: the recorded r_k equals the one the schedule re-derives (when a
+  built-in schedule is declared or a plug-in is given); then c_k = g_k(r_k);
+* ``final``: c_mu equals the final value when one is given;
+* ``batch``: a batched claim equals sum_i coefficient^i * terms[i];
+* ``shape``: a round carries at least one value.
+
+Replay goes on after a failure: later rounds are evaluated against the claim
+actually carried and marked ``after_failure``; ``first_failure`` is the first in
+stream order. Memory per instance is constant unless ``keep_rounds`` is set;
+``keep_instances`` caps the kept instance summaries (counts cover every instance);
+that bookkeeping lives in :mod:`stepper.verify.ledger`.
+
+``feed_all`` is the streaming fast path (``stepper check`` without ``--json``):
+a round and its challenge that pass in a prime field are settled inline (the
+schedule's fused :meth:`~stepper.verify.fiatshamir.Sha256Schedule.round_stepper`,
+:func:`~stepper.field.lagrange.round_evaluator`, no result record); anything else, and
+any failure, goes through ``feed``, so the report is exactly the same.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any, Callable, Iterable
+
+from stepper.verify.binding import Challenger
+from stepper.verify.challenges import ChallengeSource
+from stepper.errors import InputError, Where
+from stepper.field.lagrange import evaluate_round, round_evaluator
+from stepper.verify.ledger import InstanceLedger, LiveInstance, combine_batch
+from stepper.field.poly import RoundPoly
+from stepper.transcript.model import (
+    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, Transcript,
+)
+from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
+from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
+from stepper.verify.text import batch_text, final_text, round_text
+
+if TYPE_CHECKING:
+    from stepper.verify.fiatshamir import Sha256Schedule
+    from stepper.field.field import Element, Field
+    from stepper.transcript.model import Event
+
+__all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "FinalResult", "BatchResult",
+           "Report", "Failure", "Finding"]
+
+
+_UNKNOWN = object()  # marks "not re-derived yet" in Replay._resolve_pending
+
+
+class Replay:
+    """Steppable verifier: ``feed(record)`` returns the results it resolved, ``report()`` the verdict.
+
+    ``schedule`` (a declaration or a schedule name) applies when the stream declares none;
+    ``challenger`` a plug-in (see :mod:`stepper.verify.binding`) that overrides it.
+    ``probe_instances`` is how many instances (from the first) the binding probe covers;
+    with ``emit_passing=False`` (and no ``keep_rounds``) ``feed`` returns only failed or
+    open rounds, which is the fast path for streaming summaries."""
+
+    def __init__(self, field: Field | None = None, schedule: ScheduleDecl | str | None = None,
+                 challenger: Challenger | None = None, *, keep_rounds: bool = False,
+                 keep_instances: int | None = None, probe_instances: int = 4, emit_passing: bool = True) -> None:
+        self.field = field
+        self.emit_passing = emit_passing or keep_rounds
+        self.keep_rounds = keep_rounds
+        self.keep_instances = keep_instances
+        self.challenger = challenger
+        self._source = ChallengeSource(challenger, schedule, probe_instances)
+        self._live: LiveInstance | None = None
+        self._pending_batch: BatchDecl | None = None
+        self._ledger = InstanceLedger(keep_instances)
+        self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
+                          InstanceStart: self._on_instance, FinalValue: self._on_final}
+        self._finished = False
+        if field is not None:
+            self._source.set_field(field)
+
+    @property
+    def challenges(self) -> str:
+        """How challenges are checked, in words."""
+        return self._source.describe()
+
+    # ----- feeding ----------------------------------------------------------------
+    def feed(self, record: Event) -> list[Result]:
+        """Advance by one event record; returns the results this event resolved."""
+        handler = self._dispatch.get(record.__class__)
+        if handler is not None:
+            return handler(record)  # type: ignore[operator]
+        if isinstance(record, BatchDecl):
+            self._source.before_statement()
+            self._pending_batch = record
+            self._source.observe(record)
+        elif isinstance(record, FieldDecl):
+            self._source.set_field(record.field)
+            self.field = record.field
+        elif isinstance(record, ScheduleDecl):
+            self._source.declare(record)
+        return []
+
+    def feed_all(self, records: Iterable[Event], on_other: Callable[[Event], object] | None = None) -> None:
+        """``feed`` every record, discarding the returned results (for summaries and
+        reports, not per-round output); ``on_other`` sees each record that is not a
+        round or challenge. A round and its challenge that pass the degree, sum and
+        challenge checks in a prime field, form ``evals``, built-in or no schedule,
+        take an inline path with the same effect; everything else goes through ``feed``."""
+        feed = self.feed
+        if self.keep_rounds:
+            for record in records:
+                feed(record)
+                if on_other is not None and record.__class__ not in (RoundMsg, ChallengeMsg):
+                    on_other(record)
+            return
+        round_cls, challenge_cls = RoundMsg, ChallengeMsg
+        held: Any = None  # a round waiting for its challenge to take the inline path
+        live: Any  # the instance's LiveInstance while the inline path applies, else None
+        live, index, limit, p, squeeze = self._inline_setup()
+        items: Iterable[Any] = records
+        last_n, evaluate = -1, round_evaluator(2, 0)  # g(r) for rounds of last_n values
+        try:
+            for record in items:
+                cls = record.__class__
+                if cls is round_cls:
+                    if held is None and live is not None and record.instance == index and live.pending is None:
+                        held = record
+                        continue
+                elif cls is challenge_cls and held is not None:
+                    round_msg, held = held, None
+                    values = round_msg.values
+                    n = len(values)
+                    if (0 < n <= limit and record.instance == index
+                            and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):
+                        challenge = record.value
+                        rederived = squeeze(values) if squeeze is not None else challenge
+                        if rederived == challenge:
+                            if n != last_n:
+                                last_n, evaluate = n, round_evaluator(p, n - 1)
+                            live.claim = evaluate(values, challenge)
+                            live.seen = k = round_msg.round
+                            if live.failure is None:
+                                live.passed = k
+                        else:  # the schedule has absorbed the round: resolve with the challenge it derived
+                            live.pending = (round_msg, values, None, None, None, None, None)
+                            self._resolve_pending(record, rederived)
+                        continue
+                    feed(round_msg)
+                if held is not None:
+                    round_msg, held = held, None
+                    feed(round_msg)
+                feed(record)
+                if cls is not round_cls and cls is not challenge_cls:
+                    if on_other is not None:
+                        on_other(record)
+                    live, index, limit, p, squeeze = self._inline_setup()
+                    last_n = -1
+        finally:
+            if held is not None:
+                feed(held)
+
+    def _inline_setup(self) -> tuple[LiveInstance | None, int, int, int, Callable[[tuple[int, ...]], int] | None]:
+        """What ``feed_all``'s inline path needs for the current instance, or ``live`` None when it
+        does not apply: the instance index, the most values a round may carry, p, and the fused
+        round-then-challenge step of the built-in schedule (None when nothing re-derives)."""
+        live, field, source = self._live, self.field, self._source
+        if (live is None or field is None or field.degree != 1 or live.start.form != "evals"
+                or self.challenger is not None):
+            return None, -1, 0, 1, None
+        squeeze = source.schedule.round_stepper() if source.schedule is not None else None
+        return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
+
+    def settle(self, start: InstanceStart, final: Element) -> None:
+        """Account for an instance checked in bulk and found passing (:mod:`stepper.verify.roundblock`):
+        every round passed the degree, sum and challenge checks and ``final`` equals the
+        reduced claim. The effect is that of feeding its instance, rounds, challenges and
+        final, except that the schedule absorbs only the statement here: the caller absorbs
+        the rounds and challenges (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`)
+        right after, and replays event by event instead if the block turns out not to pass."""
+        if (self.field is None or self.challenger is not None or self.emit_passing or start.batch is not None
+                or self._pending_batch is not None):
+            raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
+                             "an instance in bulk")
+        self._open_statement(start, False)
+        ledger = self._ledger
+        if not ledger.keeps_passing():
+            ledger.passed_unkept(start)
+            return
+        live = LiveInstance(start, False)
+        self._live = live
+        ledger.opened(start)
+        live.claim, live.seen, live.passed = final, start.num_vars, start.num_vars
+        self._on_final(FinalValue(start.index, final))
+
+    @property
+    def schedule(self) -> Sha256Schedule | None:
+        """The built-in schedule re-deriving challenges, if any (None with a plug-in or no schedule)."""
+        return self._source.schedule
+
+    def _open_statement(self, start: InstanceStart, has_batch: bool) -> list[Result]:
+        """Close the previous instance (its pending results) and let the challenge source see
+        the new statement: the default schedule if none was declared, then the statement absorbed."""
+        out = self._close()
+        self._source.before_statement()
+        self._source.start_instance(has_batch=has_batch)
+        self._source.observe(start)
+        return out
+
+    def _need_field(self) -> Field:
+        if self.field is None:
+            raise InputError("expected a field event before the first instance, found none")
+        return self.field
+
+    def _need_live(self, kind: str, instance: int) -> LiveInstance:
+        live = self._live
+        if live is None or live.start.index != instance:
+            raise InputError(f"expected a `{kind}` event inside the instance it names, found it outside",
+                             Where(instance=instance))
+        return live
+
+    def _on_instance(self, start: InstanceStart) -> list[Result]:
+        field = self._need_field()
+        batch = start.batch or self._pending_batch
+        self._pending_batch = None
+        out = self._open_statement(start, batch is not None)
+        live = LiveInstance(start, self.keep_rounds)
+        self._live = live
+        self._ledger.opened(start)
+        if batch is not None:
+            combined = combine_batch(field, batch)
+            ok = combined == field.lift(start.claim)
+            result = BatchResult(start.index, start.name, batch.coefficient, batch.terms, batch.sources, combined,
+                                 start.claim, "pass" if ok else "fail", None if ok else "batch",
+                                 batch_text(field, start, combined, ok))
+            live.batch = result
+            if not ok:
+                self._ledger.fail(live, Failure(start.index, start.name, 0, "batch", combined, start.claim,
+                                                result.explanation))
+            out.append(result)
+        return out
+
+    def _on_round(self, msg: RoundMsg) -> list[Result]:
+        field = self.field
+        live = self._live
+        if field is None:
+            field = self._need_field()
+        if live is None or live.start.index != msg.instance:
+            live = self._need_live("round", msg.instance)
+        out = self._resolve_pending(None) if live.pending is not None else []
+        start = live.start
+        values = msg.values
+        recovered = recovered_value = None
+        if values and start.form == "evals" and field.degree == 1:
+            evals = values  # the hot path: canonical ints, nothing to decode
+        else:
+            try:
+                poly = RoundPoly.from_form(field, start.form, values, live.claim) if values else None
+            except InputError:
+                poly = None
+            evals = poly.evals if poly is not None else ()
+            if poly is not None:
+                recovered, recovered_value = poly.recovered, poly.recovered_value
+        check: str | None = None
+        expected: object = None
+        found: object = None
+        if not evals:
+            check, expected, found = "shape", 1, 0
+            evals = (field.zero,)
+        elif len(evals) > start.degree + 1:
+            check, expected, found = "degree", start.degree + 1, len(evals)
+        elif field.degree == 1:
+            total = (evals[0] + evals[1 if len(evals) > 1 else 0]) % field.p  # type: ignore[operator]
+            if total != live.claim:
+                check, expected, found = "sum", live.claim, total
+        else:
+            g0 = evals[0]
+            total = field.add(g0, evals[1] if len(evals) > 1 else g0)
+            if total != field.lift(live.claim):
+                check, expected, found = "sum", live.claim, total
+        live.pending = (msg, evals, recovered, recovered_value, check, expected, found)
+        self._source.observe(msg)
+        return out
+
+    def _on_challenge(self, msg: ChallengeMsg) -> list[Result]:
+        live = self._live
+        if live is None or live.start.index != msg.instance:
+            live = self._need_live("challenge", msg.instance)
+        if live.pending is None:
+            raise InputError("expected a round before its challenge, found a challenge alone",
+                             Where(instance=live.start.name, round=msg.round))
+        return self._resolve_pending(msg)
+
+    def _resolve_pending(self, msg: ChallengeMsg | None, known: object = _UNKNOWN) -> list[Result]:
+        """Resolve the pending round with its challenge (``known``: the challenge the
+        schedule already re-derived for it, by ``feed_all``)."""
+        live = self._live
+        assert live is not None and live.pending is not None and self.field is not None
+        field = self.field
+        round_msg, evals, recovered, recovered_value, check, expected, found = live.pending
+        live.pending = None
+        k = round_msg.round
+        start = live.start
+        challenge = rederived = claim_out = None
+        if msg is not None:
+            challenge = msg.value
+            rederived = self._source.rederive(start, k) if known is _UNKNOWN else known
+            if check is None and rederived is not None and rederived != challenge:
+                check, expected, found = "challenge", rederived, challenge
+            try:
+                claim_out = evaluate_round(field, evals, challenge)
+            except InputError as err:
+                raise InputError(err.message, Where(instance=start.name, round=k)) from None
+            if self.challenger is not None:
+                self._source.observe(msg)
+        after = live.failure is not None
+        live.seen = k
+        if check is None and msg is not None:
+            if not after:
+                live.passed = k
+            if not self.emit_passing:
+                live.claim = claim_out  # type: ignore[assignment]
+                return []
+        result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
+                                    challenge, rederived, claim_out, after)
+        if check is not None:
+            failure = Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
+                              result.explanation)
+            self._ledger.fail(live, failure)
+        if claim_out is not None:
+            live.claim = claim_out
+        if live.rounds is not None:
+            live.rounds.append(result)
+        return [result]
+
+    def _round_result(self, live: LiveInstance, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
+                      recovered_value: Element | None, check: str | None, expected: object, found: object,
+                      challenge: Element | None, rederived: Element | None, claim_out: Element | None,
+                      after: bool) -> RoundResult:
+        field = self.field
+        assert field is not None
+        start, k = live.start, msg.round
+        g0 = evals[0]
+        g1 = evals[1] if len(evals) > 1 else evals[0]
+        status = "fail" if check is not None else ("pass" if challenge is not None else "pending")
+        poly = RoundPoly(tuple(evals), recovered, recovered_value)
+        text = round_text(field, start, k, live.claim, poly, check, expected, found, challenge, rederived,
+                          claim_out, self._source.deriver())
+        return RoundResult(
+            start.index, start.name, k, start.form, live.claim, msg.values, tuple(evals), recovered,
+            recovered_value, g0, g1, field.add(g0, g1), len(evals) - 1, start.degree, challenge, rederived,
+            claim_out, status, check, expected, found, text, after,  # type: ignore[arg-type]
+        )
+
+    def _on_final(self, msg: FinalValue) -> list[Result]:
+        live = self._need_live("final", msg.instance)
+        field = self._need_field()
+        out = self._resolve_pending(None) if live.pending is not None else []
+        start = live.start
+        reduced = live.claim if live.seen == start.num_vars else None
+        ok = reduced is not None and field.lift(reduced) == field.lift(msg.value)
+        check = None if ok else "final"
+        result = FinalResult(start.index, start.name, start.num_vars, reduced, msg.value,
+                             "pass" if ok else "fail", check, None if ok else msg.value, None if ok else reduced,
+                             final_text(field, start, reduced, msg.value, ok))
+        live.final = result
+        if not ok:
+            self._ledger.fail(live, Failure(start.index, start.name, start.num_vars, "final", msg.value, reduced,
+                                            result.explanation))
+        out.append(result)
+        return out
+
+    # ----- closing ----------------------------------------------------------------
+    def _close(self) -> list[Result]:
+        live = self._live
+        if live is None:
+            return []
+        out = self._resolve_pending(None) if live.pending is not None else []
+        self._ledger.close(live, self.field)
+        self._live = None
+        return out
+
+    def finish(self) -> list[Result]:
+        """Resolve what is still pending (a round without its challenge) and close the last instance."""
+        if self._finished:
+            return []
+        self._finished = True
+        return self._close()
+
+    def report(self, completeness: str = "complete") -> Report:
+        """The verdict so far (finishes the replay); ``completeness`` is what the store says of the file."""
+        self.finish()
+        ledger = self._ledger
+        return Report(self.field, ledger.verdict(completeness), ledger.first,  # type: ignore[arg-type]
+                      tuple(ledger.summaries), dict(ledger.counts), ledger.soundness(self.field),
+                      tuple(self._source.findings), self.challenges, completeness, PASSING_REPLAY_WARNING)
+
+
+def transcript_events(transcript: Transcript) -> Iterable[Event]:
+    """The records a folded transcript was made of, in stream order (notes and buckets left out)."""
+    yield FieldDecl(transcript.field)
+    if transcript.schedule is not None:
+        yield transcript.schedule
+    for inst in transcript.instances:
+        if inst.start.batch is not None:
+            yield inst.start.batch
+        yield inst.start
+        for rnd in inst.rounds:
+            yield RoundMsg(rnd.instance, rnd.number, rnd.values)
+            if rnd.challenge is not None:
+                yield ChallengeMsg(rnd.instance, rnd.number, rnd.challenge)
+        if inst.final is not None:
+            yield FinalValue(inst.start.index, inst.final)
+
+
+def replay_transcript(transcript: Transcript, challenger: Challenger | None = None, *,
+                      keep_rounds: bool = True) -> Report:
+    """Replay a whole folded transcript with round detail kept."""
+    replay = Replay(transcript.field, challenger=challenger, keep_rounds=keep_rounds)
+    for record in transcript_events(transcript):
+        replay.feed(record)
+    return replay.report(transcript.completeness)

@@ -1,0 +1,423 @@
+"""The whole-file replay of ``stepper check``: rounds read and checked by the block.
+
+On a large transcript, :class:`~stepper.transcript.store.reader.EventStream` plus
+:meth:`~stepper.verify.replay.Replay.feed_all` spend their time turning every round and
+challenge into a record and checking it alone. :func:`sweep` reads the same
+file but takes the rounds, challenges and final of an instance, when they
+follow its ``instance`` event laid out exactly as
+:class:`~stepper.transcript.store.writer.TranscriptWriter` packs them, as one run of
+bytes without decoding them, and checks runs by the block: Fiat-Shamir with
+:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`, the sums, challenges
+and finals with :func:`stepper.verify.roundblock.block_passes`. Every other event goes
+through the same :class:`~stepper.transcript.events.Sequencer` and
+:meth:`~stepper.verify.replay.Replay.feed` as the reader would take it.
+
+It either ends with the replay in exactly the state the event-by-event path
+would reach (same report, byte for byte), or gives up and returns None, and
+the caller replays the file event by event from the start, which then names
+what is wrong. It gives up on any failing check in the runs it takes, any run
+laid out otherwise (another producer's key order, annotations between rounds),
+a field it cannot check by the block (an extension, a prime above 2^32 other
+than Goldilocks), more than ``LOOSE_ROUNDS`` rounds outside runs, any file that
+is not complete with a verified digest, and any error. Instances it does not
+take as runs (compressed forms, batched claims, no rounds) go through
+``Replay.feed``, which judges them as the event-by-event path does, failures
+included. A rejected or damaged file costs the partial sweep on top of the usual
+replay; an accepted one about a quarter of it (``python3 bench/check.py``). Runs
+of different round sizes are grouped per size within a block, and settled and
+hashed in stream order. Files under ``SMALL_FILE_BYTES`` are left to the
+event-by-event replay, which there costs less than importing numpy, and so are
+files with no end event in their last megabyte (still being written).
+``STEPPER_SWEEP=off`` turns the sweep off, ``STEPPER_SWEEP=on`` applies it to
+files of any size (tests).
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Callable, Iterator
+
+import msgpack
+
+from stepper.errors import Where
+from stepper.transcript.events import Sequencer
+from stepper.transcript.store.reader import (
+    HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
+)
+from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
+from stepper.transcript.model import FORMAT_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from stepper.verify.fiatshamir import Sha256Schedule
+    from stepper.field.field import Field
+    from stepper.field.kernels import Kernel
+    from stepper.verify.replay import Replay
+
+__all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
+
+BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cache
+LOOSE_ROUNDS = 1 << 12  # rounds outside runs before the sweep leaves the file to the usual replay
+SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
+_ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
+# the first bytes of an end event as the writer packs it (writer.end_payload): a map of 3, "type": "end", "events"
+_END_KEYS = b"\x83" + b"".join(msgpack.packb(word) for word in ("type", "end", "events"))
+
+
+@dataclass(frozen=True, slots=True)
+class Swept:
+    """What the store says of a file the sweep read to the end: always complete and verified."""
+
+    header: Header
+    appended: int
+    completeness: str = "complete"
+    digest: str = "verified"
+
+
+class _GiveUp(Exception):
+    """The sweep does not apply here: replay event by event instead."""
+
+
+@dataclass(frozen=True, slots=True)
+class _Layout:
+    """Bytes of one round event, one challenge event and one final event as the writer packs them
+    (prefixes before the packed values; lengths precomputed: they are read per instance)."""
+
+    values: int
+    width: int
+    round_prefix: bytes
+    challenge_prefix: bytes
+    final_prefix: bytes
+    round_len: int  # prefix and values of a round event
+    stride: int  # a round event and its challenge event
+    final_len: int
+
+
+def _layout(values: int, width: int) -> _Layout:
+    def prefix(payload: dict[str, Any], size: int) -> bytes:
+        return msgpack.packb(payload, use_bin_type=True)[:-size]
+
+    round_prefix = prefix({"type": "round", "evals": bytes(values * width)}, values * width)
+    challenge_prefix = prefix({"type": "challenge", "value": bytes(width)}, width)
+    final_prefix = prefix({"type": "final", "value": bytes(width)}, width)
+    round_len = len(round_prefix) + values * width
+    return _Layout(values, width, round_prefix, challenge_prefix, final_prefix, round_len,
+                   round_len + len(challenge_prefix) + width, len(final_prefix) + width)
+
+
+def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note], object] | None = None,
+          limits: ReadLimits | None = None, *, min_bytes: int = 0) -> Swept | None:
+    """Replay the whole transcript at ``path`` into ``replay`` (a summary replay: no round
+    detail, no plug-in), or None when the sweep gives up (``replay`` is then spent: make
+    a new one). ``on_note`` sees every note, in stream order. Files smaller than
+    ``min_bytes`` are declined (``stepper check`` passes ``SMALL_FILE_BYTES``) unless
+    ``STEPPER_SWEEP=on``; ``STEPPER_SWEEP=off`` declines every file."""
+    setting = os.environ.get("STEPPER_SWEEP", "").lower()
+    if setting in ("0", "off", "no", "false"):
+        return None
+    try:
+        if setting not in ("1", "on", "yes", "true") and os.stat(path).st_size < min_bytes:
+            return None
+        with open(path, "rb") as handle:
+            if not _sealed(handle):
+                return None  # incomplete (still being written?): the sweep would read it all, then give up
+            return _Sweeper(handle, str(path), replay, on_note, limits or ReadLimits()).run()
+    except Exception:  # noqa: BLE001 - any problem at all: the event-by-event replay judges and names it
+        return None
+
+
+def _sealed(handle: Any, tail: int = 1 << 20) -> bool:
+    """Whether the last ``tail`` bytes hold the start of an end event as the writer packs it
+    (a cheap look before a sweep; the sweep itself checks the end event in full). Notes
+    appended after the end event that fill more than ``tail`` bytes make this say no: the
+    event-by-event replay then reads the file, as it would anyway."""
+    size = handle.seek(0, os.SEEK_END)
+    handle.seek(max(0, size - tail))
+    found = _END_KEYS in handle.read(tail)
+    handle.seek(0)
+    return found
+
+
+class _Sweeper:
+    def __init__(self, handle: Any, path: str, replay: Replay, on_note: Callable[[Note], object] | None,
+                 limits: ReadLimits) -> None:
+        self.handle = handle
+        self.limits = limits
+        self.replay = replay
+        self.on_note = on_note
+        self.seq = Sequencer(Where(file=path))
+        self.unpacker = make_unpacker(limits)
+        self.digest: HeldBackDigest | None = None
+        self.total = 0
+        self.field: Field | None = None
+        self.kernel: Kernel | None = None
+        self.layout: _Layout | None = None  # of the last run read
+        self.layouts: dict[int, _Layout] = {}  # by values per round
+        self.runs: list[tuple[InstanceStart, bytes, bytes, _Layout]] = []  # instance, first bytes, rest, layout
+        self.rows = 0  # rounds in self.runs
+        self.pending_bytes = 0  # bytes of rounds in self.runs
+        self.loose_rounds = 0  # rounds fed one by one (instances not taken as runs)
+
+    # ----- reading --------------------------------------------------------------------
+    def _offset(self) -> int:
+        return len(MAGIC) + self.unpacker.tell()
+
+    def _refill(self) -> bool:
+        chunk = self.handle.read(self.limits.chunk_bytes)
+        if not chunk:
+            return False
+        self.total += len(chunk)
+        if self.total > self.limits.max_total_bytes:
+            raise _GiveUp("file too large")
+        assert self.digest is not None  # set by run() before anything is read
+        self.digest.add(chunk, self._offset() - END_MAX_BYTES)
+        self.unpacker.feed(chunk)
+        return True
+
+    def _payloads(self) -> Iterator[Any]:
+        return unpacked(self.unpacker, self._refill)
+
+    def _take(self, size: int) -> bytes:
+        data = self.unpacker.read_bytes(size)
+        while len(data) < size:
+            if not self._refill():
+                raise _GiveUp("the file ends inside a run")
+            data += self.unpacker.read_bytes(size - len(data))
+        return data
+
+    # ----- the file -------------------------------------------------------------------
+    def run(self) -> Swept:
+        first = self.handle.read(self.limits.chunk_bytes)
+        if not first.startswith(MAGIC):
+            raise _GiveUp("not a transcript")
+        self.total = len(first)
+        self.digest = HeldBackDigest(first)
+        self.unpacker.feed(first[len(MAGIC):])
+        payloads = self._payloads()
+        version = next(payloads)
+        if version.__class__ is not int or not 1 <= version <= FORMAT_VERSION:
+            raise _GiveUp("format version")
+        header = read_header(next(payloads), version, self.seq.source)
+        end = self._events(payloads)
+        self._flush()
+        size = len(msgpack.packb(end, use_bin_type=True))
+        start = self._offset() - size
+        if size > END_MAX_BYTES or end.get("sha256") != self.digest.digest_upto(start) \
+                or end.get("events") != self.seq.count - 1:
+            raise _GiveUp("digest")
+        self.digest.drop()
+        appended = 0
+        for payload in payloads:
+            note = appended_note(self.seq, payload)
+            appended += 1
+            if self.on_note is not None:
+                self.on_note(note)
+        self.unpacker.feed(b"\xc0")  # cut off? see stepper.transcript.store.reader
+        if self.unpacker.unpack() is not None:
+            raise _GiveUp("truncated")
+        return Swept(header, appended)
+
+    def _events(self, payloads: Iterator[Any]) -> dict[str, Any]:
+        """Every event up to the end event (returned), runs taken and checked by the block."""
+        seq, replay, instance_cls = self.seq, self.replay, InstanceStart
+        passive = (Note, BucketStats, UnknownEvent)
+        for payload in payloads:
+            record = seq.feed(payload)
+            cls = record.__class__
+            if cls is instance_cls and self._runnable(record):  # type: ignore[arg-type]
+                self._take_run(record)  # type: ignore[arg-type]
+                continue
+            if cls in passive:
+                if cls is UnknownEvent and record.kind == "end":  # type: ignore[union-attr]
+                    return payload  # type: ignore[no-any-return]
+                if cls is Note and self.on_note is not None:
+                    self.on_note(record)  # type: ignore[arg-type]
+                continue
+            self._flush()
+            replay.feed(record)
+            if cls is RoundMsg:
+                self.loose_rounds += 1
+                if self.loose_rounds > LOOSE_ROUNDS:  # mostly not runs: the event-by-event replay is faster
+                    raise _GiveUp("too many rounds outside runs")
+            elif self.field is None and seq.field is not None:
+                self._set_field(seq.field)
+        raise _GiveUp("no end event")
+
+    def _set_field(self, field: Field) -> None:
+        from stepper.field.kernels.base import steady_heap
+        from stepper.verify.roundblock import block_kernel, supports
+
+        if not supports(field, 1) or self.replay.challenger is not None:
+            raise _GiveUp("no runs in this field")  # every event one by one: the usual replay does that faster
+        self.field = field
+        self.kernel = block_kernel(field)
+        steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
+
+    def _runnable(self, start: InstanceStart) -> bool:
+        return self.kernel is not None and start.form == "evals" and start.batch is None and start.num_vars > 0
+
+    def _take_run(self, start: InstanceStart) -> None:
+        """Read an instance's rounds, challenges and final as bytes (they must follow it directly)."""
+        layout = self.layout
+        head = self._take(len(layout.round_prefix) if layout is not None else len(_ROUND_KEYS) + 2)
+        if layout is None or head != layout.round_prefix:
+            head, layout = self._new_layout(head)
+        if layout.values > start.degree + 1:
+            raise _GiveUp("more values than the degree allows")  # the replay names the degree failure
+        rest = self._take(start.num_vars * layout.stride + layout.final_len - len(head))
+        if not rest.startswith(layout.final_prefix, len(rest) - layout.final_len):
+            raise _GiveUp("no final after the rounds")
+        self.seq.account_run(start.num_vars)
+        self.runs.append((start, head, rest, layout))
+        self.rows += start.num_vars
+        self.pending_bytes += start.num_vars * layout.stride
+        if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
+            self._flush()
+
+    def _new_layout(self, head: bytes) -> tuple[bytes, _Layout]:
+        """The layout a run's first bytes announce."""
+        from stepper.verify.roundblock import supports
+
+        field = self.field
+        assert field is not None
+        if not head.startswith(_ROUND_KEYS):
+            raise _GiveUp("another event after the instance")
+        marker, size = head[len(_ROUND_KEYS)], head[len(_ROUND_KEYS) + 1]
+        if marker == 0xC5:
+            head += self._take(len(_ROUND_KEYS) + 3 - len(head))
+            size = int.from_bytes(head[len(_ROUND_KEYS) + 1:len(_ROUND_KEYS) + 3], "big")
+        elif marker != 0xC4:
+            raise _GiveUp("round values not packed in one blob")
+        values = size // field.elem_bytes
+        if size % field.elem_bytes or not supports(field, values):
+            raise _GiveUp("round size")
+        layout = self.layouts.get(values)
+        if layout is None:
+            if len(self.layouts) >= 64:
+                raise _GiveUp("too many round sizes")
+            layout = self.layouts[values] = _layout(values, field.elem_bytes)
+        if not head.startswith(layout.round_prefix):
+            raise _GiveUp("round header")
+        self.layout = layout
+        return head, layout
+
+    # ----- checking a block -----------------------------------------------------------
+    def _flush(self) -> None:
+        """Check the runs read so far and settle them into the replay, or give up. Runs are
+        grouped by layout (one array per round size) but settled and hashed in stream order."""
+        if not self.runs:
+            return
+        from stepper.verify.roundblock import block_passes
+
+        runs, kernel = self.runs, self.kernel
+        assert kernel is not None
+        self.runs, self.rows, self.pending_bytes = [], 0, 0
+        members: dict[_Layout, list[tuple[InstanceStart, bytes, bytes, _Layout]]] = {}
+        for run in runs:
+            members.setdefault(run[3], []).append(run)
+        blocks = {layout: _Block(layout, group) for layout, group in members.items()}
+        replay = self.replay
+        for start, _, _, layout in runs:
+            block = blocks[layout]
+            replay.settle(start, block.next_final())
+            schedule = replay.schedule  # the first settle may start the default schedule
+            if schedule is not None:
+                block.absorb(schedule, start.num_vars)
+        for block in blocks.values():
+            rederived = block.rederived(kernel, replay.schedule)
+            if not block_passes(kernel, block.evals, block.challenges, block.starts, block.claims, block.finals,
+                                rederived):
+                raise _GiveUp("a check fails in this block")
+
+
+class _Block:
+    """The runs of one layout in a flush, as arrays (rows of packed bytes, decoded values),
+    and the Fiat-Shamir digests squeezed for them so far."""
+
+    def __init__(self, layout: _Layout, runs: list[tuple[InstanceStart, bytes, bytes, _Layout]]) -> None:
+        import numpy as np
+
+        self.layout = layout
+        final_len, width = layout.final_len, layout.width
+        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs for part in (head, rest[:-final_len])]),
+                             dtype=np.uint8).reshape(-1, layout.stride)
+        round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
+        if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
+                and np.array_equal(rows[:, layout.round_len:challenge_at],
+                                   _bytes_row(layout.challenge_prefix, len(rows)))):
+            raise _GiveUp("events laid out otherwise")
+        self.rows = rows
+        self.evals = _little_endian(rows[:, round_at:layout.round_len], width).reshape(len(rows), layout.values)
+        self.challenges = _little_endian(rows[:, challenge_at:], width)
+        self.finals = _little_endian(np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
+                                                   dtype=np.uint8).reshape(-1, width), width)
+        self.claims = np.array([start.claim for start, _, _, _ in runs], dtype=np.uint64)
+        self.starts = np.zeros(len(runs), dtype=np.int64)
+        np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
+        self._finals = iter(self.finals.tolist())
+        self._firsts = iter(self.starts.tolist())
+        self._view: memoryview | None = None
+        self._round_len = self._frame_len = 0
+        self.digests: list[bytes] = []
+
+    def next_final(self) -> int:
+        """The final value of the next run of this block, in stream order."""
+        return next(self._finals)  # type: ignore[no-any-return]
+
+    def absorb(self, schedule: Sha256Schedule, rounds: int) -> None:
+        """Run the schedule over the next run of this block (its statement already absorbed)."""
+        if self._view is None:
+            frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
+            self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]
+        schedule.absorb_rows(self._view, next(self._firsts), rounds, self._round_len, self._frame_len,
+                             self.digests)
+
+    def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
+        """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
+        import numpy as np
+
+        from stepper.verify.roundblock import reduce_wide
+
+        if not self.digests and schedule is None:
+            return None
+        if schedule is None or len(self.digests) != len(self.rows):
+            raise _GiveUp("challenges re-derived for only part of the block")
+        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(-1, 32)
+        return reduce_wide(kernel, squeezed, schedule.wide_bytes)
+
+
+def _bytes_row(data: bytes, count: int) -> np.ndarray:
+    import numpy as np
+
+    return np.broadcast_to(np.frombuffer(data, dtype=np.uint8), (count, len(data)))
+
+
+def _little_endian(cells: np.ndarray, width: int) -> np.ndarray:
+    """Rows of packed little-endian ``width``-byte elements as a flat uint64 array."""
+    import numpy as np
+
+    count = cells.shape[0] * (cells.shape[1] // width)
+    if width == 8:
+        return np.ascontiguousarray(cells).view("<u8").reshape(count).astype(np.uint64)
+    if width == 4:
+        return np.ascontiguousarray(cells).view("<u4").reshape(count).astype(np.uint64)
+    padded = np.zeros((count, 8), dtype=np.uint8)
+    padded[:, :width] = cells.reshape(count, width)
+    return padded.view("<u8").reshape(count).astype(np.uint64)
+
+
+def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: _Layout) -> tuple[np.ndarray, int]:
+    """Per round, the schedule's round frame then its challenge frame, built from the packed
+    bytes (one row each), and the length of the round frame."""
+    import numpy as np
+
+    round_head, challenge_head = heads
+    round_len = len(round_head) + layout.values * layout.width
+    frames = np.empty((len(rows), round_len + len(challenge_head) + layout.width), dtype=np.uint8)
+    frames[:, :len(round_head)] = np.frombuffer(round_head, dtype=np.uint8)
+    frames[:, len(round_head):round_len] = rows[:, len(layout.round_prefix):layout.round_len]
+    frames[:, round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
+    frames[:, round_len + len(challenge_head):] = rows[:, layout.stride - layout.width:]
+    return frames, round_len

@@ -1,0 +1,254 @@
+"""What a verifier replay returns: per-round, final and batch results, the
+proof-level :class:`Report`, and its JSON form (DESIGN.md, check contract).
+
+Every record is frozen and holds canonical field elements; JSON turns each
+element into a decimal string (``"42"``; an extension element as its
+coefficients, constant first: ``"[1, 0, 0, 7]"``). A rejected proof is an
+ordinary :class:`Report` with verdict ``reject``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Literal, Union
+
+if TYPE_CHECKING:
+    from stepper.field.field import Element, Field
+    from stepper.verify.soundness import SoundnessSummary
+
+__all__ = [
+    "Status",
+    "Verdict",
+    "RoundResult",
+    "FinalResult",
+    "BatchResult",
+    "Result",
+    "Failure",
+    "Finding",
+    "InstanceSummary",
+    "Report",
+    "PASSING_REPLAY_WARNING",
+]
+
+Status = Literal["pass", "fail", "pending"]
+Verdict = Literal["accept", "reject", "incomplete"]
+Value = Union[int, tuple[int, ...], None]
+
+PASSING_REPLAY_WARNING = (
+    "A passing replay is evidence about this one run only: it proves nothing about "
+    "the soundness of the protocol's design, its Fiat-Shamir transform, or other inputs."
+)
+
+
+@dataclass(frozen=True, slots=True)
+class RoundResult:
+    """One replayed round. ``claim_in`` is c_(k-1) as carried by the replay;
+    ``evals`` are g(0..e) decoded from ``values`` (as sent); ``recovered`` names the
+    value a compressed form left out (``g(1)`` or ``c1``). ``expected``/``found``
+    describe the failed ``check`` (for ``degree``: evaluation counts).
+    ``after_failure`` marks rounds evaluated relative to a claim carried past an
+    earlier failure of the same instance."""
+
+    instance: int
+    instance_name: str
+    round: int
+    form: str
+    claim_in: Element
+    values: tuple[Element, ...]
+    evals: tuple[Element, ...]
+    recovered: str | None
+    recovered_value: Element | None
+    g0: Element
+    g1: Element
+    sum01: Element
+    degree_seen: int
+    degree_bound: int
+    challenge: Element | None
+    rederived: Element | None
+    claim_out: Element | None
+    status: Status
+    check: str | None = None
+    expected: Value = None
+    found: Value = None
+    explanation: str = ""
+    after_failure: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class FinalResult:
+    """The final check of one instance: ``reduced`` is c_mu, ``value`` the final value sent."""
+
+    instance: int
+    instance_name: str
+    round: int
+    reduced: Element | None
+    value: Element
+    status: Status
+    check: str | None = None
+    expected: Value = None
+    found: Value = None
+    explanation: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class BatchResult:
+    """The batch check of one instance: claim == sum_i coefficient^i * terms[i]."""
+
+    instance: int
+    instance_name: str
+    coefficient: Element
+    terms: tuple[Element, ...]
+    sources: tuple[str, ...]
+    combined: Element
+    claim: Element
+    status: Status
+    check: str | None = None
+    explanation: str = ""
+
+
+Result = Union[RoundResult, FinalResult, BatchResult]
+
+
+@dataclass(frozen=True, slots=True)
+class Failure:
+    """The first failed check of the proof (``round`` 0 for claim-level checks such as ``batch``)."""
+
+    instance: int
+    instance_name: str
+    round: int
+    check: str
+    expected: Value
+    found: Value
+    explanation: str
+
+
+@dataclass(frozen=True, slots=True)
+class Finding:
+    """Something a person should know that is not a failed check (e.g. a weak
+    Fiat-Shamir binding). ``severity`` is ``high``, ``medium`` or ``info``."""
+
+    kind: str
+    severity: str
+    message: str
+    instance: int | None = None
+    round: int | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        return {"kind": self.kind, "severity": self.severity, "message": self.message,
+                "instance": self.instance, "round": self.round}
+
+
+@dataclass(frozen=True, slots=True)
+class InstanceSummary:
+    """One instance after replay; ``rounds`` is empty unless the replay kept round detail."""
+
+    index: int
+    name: str
+    num_vars: int
+    degree: int
+    order: str
+    form: str
+    claim: Element
+    status: Literal["pass", "fail", "incomplete"]
+    rounds_seen: int
+    rounds_passed: int
+    failure: Failure | None
+    final: FinalResult | None
+    batch: BatchResult | None
+    rounds: tuple[RoundResult, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Report:
+    """The replay of a whole proof. ``instances`` holds the kept summaries (all of
+    them unless the replay was told to keep fewer); ``counts`` counts every instance
+    by status; ``challenges`` says how challenges were checked."""
+
+    field: Field | None
+    verdict: Verdict
+    first_failure: Failure | None
+    instances: tuple[InstanceSummary, ...]
+    counts: dict[str, int]
+    soundness: SoundnessSummary
+    findings: tuple[Finding, ...]
+    challenges: str
+    completeness: str
+    warning: str = PASSING_REPLAY_WARNING
+
+    @property
+    def instance_count(self) -> int:
+        return sum(self.counts.values())
+
+    def fmt(self, value: Value) -> str | None:
+        """Decimal text of an element or count (None stays None)."""
+        if value is None:
+            return None
+        if self.field is None:
+            return str(value)
+        return self.field.fmt(value)
+
+    def to_json(self) -> dict[str, Any]:
+        """The DESIGN.md check-contract object, plus stepper's extra keys."""
+        f = self.fmt
+        return {
+            "verdict": self.verdict,
+            "first_failure": None if self.first_failure is None else _failure_json(self.first_failure, f),
+            "instances": [_instance_json(s, f) for s in self.instances],
+            "field": None if self.field is None else self.field.describe(),
+            "completeness": self.completeness,
+            "challenges": self.challenges,
+            "counts": dict(self.counts),
+            "soundness": self.soundness.to_json(),
+            "findings": [x.to_json() for x in self.findings],
+            "warning": self.warning,
+        }
+
+
+COUNT_CHECKS = ("degree", "shape")  # checks whose expected/found are counts, not field elements
+
+
+def _compared(check: str | None, value: Value, f: Any) -> str | None:
+    if value is None:
+        return None
+    return str(value) if check in COUNT_CHECKS else f(value)
+
+
+def _failure_json(x: Failure, f: Any) -> dict[str, Any]:
+    return {"instance": x.instance, "instance_name": x.instance_name, "round": x.round, "check": x.check,
+            "expected": _compared(x.check, x.expected, f), "found": _compared(x.check, x.found, f),
+            "explanation": x.explanation}
+
+
+def _round_json(r: RoundResult, f: Any) -> dict[str, Any]:
+    return {
+        "round": r.round, "status": r.status, "check": r.check,
+        "claim_in": f(r.claim_in), "values": [f(v) for v in r.values], "evals": [f(v) for v in r.evals],
+        "recovered": r.recovered, "recovered_value": f(r.recovered_value),
+        "g0": f(r.g0), "g1": f(r.g1), "sum01": f(r.sum01),
+        "degree_seen": r.degree_seen, "degree_bound": r.degree_bound,
+        "challenge": f(r.challenge), "rederived": f(r.rederived), "claim_out": f(r.claim_out),
+        "expected": _compared(r.check, r.expected, f), "found": _compared(r.check, r.found, f),
+        "explanation": r.explanation,
+        "after_failure": r.after_failure,
+    }
+
+
+def _instance_json(s: InstanceSummary, f: Any) -> dict[str, Any]:
+    out: dict[str, Any] = {
+        "index": s.index, "name": s.name, "num_vars": s.num_vars, "degree": s.degree, "order": s.order,
+        "form": s.form, "claim": f(s.claim), "status": s.status, "rounds_seen": s.rounds_seen,
+        "rounds_passed": s.rounds_passed,
+        "failure": None if s.failure is None else _failure_json(s.failure, f),
+        "rounds": [_round_json(r, f) for r in s.rounds],
+        "final": None,
+        "batch": None,
+    }
+    if s.final is not None:
+        out["final"] = {"round": s.final.round, "status": s.final.status, "reduced": f(s.final.reduced),
+                        "value": f(s.final.value), "explanation": s.final.explanation}
+    if s.batch is not None:
+        b = s.batch
+        out["batch"] = {"status": b.status, "coefficient": f(b.coefficient), "terms": [f(t) for t in b.terms],
+                        "sources": list(b.sources), "combined": f(b.combined), "claim": f(b.claim),
+                        "explanation": b.explanation}
+    return out

@@ -1,0 +1,167 @@
+"""Witness files: JSON, msgpack, .npz and JSON with .npy tables; fitting them to a transcript;
+one clear WitnessError (exit code 2) for every way a witness can fail to fit."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import msgpack
+import numpy as np
+import pytest
+
+from rootcause_prover import prove
+from stepper.errors import EXIT_INPUT, ExpressionError, WitnessError
+from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
+from stepper.diagnose.witness import fit_witness, load_witness, witness_from_map
+
+BABYBEAR = NAMED_PRIMES["babybear"]
+FIELD = get_field(BABYBEAR)
+EXT = get_field(BABYBEAR, DEFAULT_IRREDUCIBLES[("babybear", 4)])
+
+
+def _transcript(field=FIELD, mu: int = 2):
+    rng = np.random.default_rng(1)
+    tables = {n: field.base.vrandom(1 << mu, rng) for n in ("ledger", "scans")}
+    transcript, _ = prove(field, tables, "ledger*scans", degree=2, name="boarding-permutation")
+    return transcript, tables
+
+
+def _map(tables, combine="ledger*scans", name="boarding-permutation"):
+    return {"instances": [{"name": name, "combine": combine,
+                           "tables": {k: [int(x) for x in v] for k, v in tables.items()}}]}
+
+
+def test_json_witness_loads_and_fits(tmp_path: Path) -> None:
+    transcript, tables = _transcript()
+    path = tmp_path / "w.json"
+    path.write_text(json.dumps(_map(tables)))
+    fitted = fit_witness(load_witness(path), transcript)
+    assert list(fitted) == [0]
+    assert np.array_equal(fitted[0].tables["ledger"], tables["ledger"])
+    assert fitted[0].combine.names() == ("ledger", "scans")
+
+
+def test_msgpack_witness_accepts_fixed_width_byte_elements(tmp_path: Path) -> None:
+    transcript, tables = _transcript()
+    raw = _map(tables)
+    raw["instances"][0]["tables"]["ledger"] = [int(x).to_bytes(4, "little") for x in tables["ledger"]]
+    path = tmp_path / "w.msgpack"
+    path.write_bytes(msgpack.packb(raw))
+    fitted = fit_witness(load_witness(path), transcript)
+    assert np.array_equal(fitted[0].tables["ledger"], tables["ledger"])
+
+
+def test_npz_witness_names_instances_by_their_combine_arrays(tmp_path: Path) -> None:
+    transcript, tables = _transcript()
+    path = tmp_path / "w.npz"
+    np.savez(path, **{"boarding-permutation/combine": np.array("ledger*scans"),
+                      **{f"boarding-permutation/{k}": v for k, v in tables.items()}})
+    witness = load_witness(path)
+    assert [i.name for i in witness.instances] == ["boarding-permutation"]
+    assert fit_witness(witness, transcript)[0].tables["scans"].tolist() == tables["scans"].tolist()
+
+
+def test_json_witness_may_name_npy_files_relative_to_itself(tmp_path: Path) -> None:
+    transcript, tables = _transcript()
+    for k, v in tables.items():
+        np.save(tmp_path / f"{k}.npy", v.astype(np.uint32))
+    raw = {"instances": [{"name": "boarding-permutation", "combine": "ledger*scans",
+                          "tables": {"ledger": "ledger.npy", "scans": "scans.npy"}}]}
+    (tmp_path / "w.json").write_text(json.dumps(raw))
+    fitted = fit_witness(load_witness(tmp_path / "w.json"), transcript)
+    assert fitted[0].tables["ledger"].dtype == np.uint64
+    assert fitted[0].tables["ledger"].tolist() == tables["ledger"].tolist()
+
+
+def test_extension_entries_become_an_extension_table() -> None:
+    transcript, tables = _transcript(EXT)
+    raw = _map(tables)
+    raw["instances"][0]["tables"]["scans"] = [[int(x), 1, 0, 0] for x in tables["scans"]]
+    fitted = fit_witness(witness_from_map(raw), transcript)
+    assert fitted[0].tables["scans"].shape == (4, 4)
+    assert fitted[0].tables["ledger"].ndim == 1
+
+
+@pytest.mark.parametrize(
+    ("mutate", "pattern"),
+    [
+        (lambda m: m["instances"][0]["tables"]["ledger"].append(1), r"2\^2 = 4 entries \(num_vars 2\), found 5"),
+        (lambda m: m["instances"][0].__setitem__("combine", "ledger*cars"), "missing cars"),
+        (lambda m: m["instances"][0].__setitem__("combine", "ledger*scans*scans"), "degree at most"),
+        (lambda m: m["instances"][0]["tables"]["ledger"].__setitem__(2, BABYBEAR), "found 2013265921 at entry 2"),
+        (lambda m: m["instances"][0]["tables"]["ledger"].__setitem__(1, "seven"), "table 'ledger' entry 1"),
+        (lambda m: m["instances"][0].pop("combine"), "\"combine\" as text"),
+        (lambda m: m.pop("instances"), "\"instances\" list"),
+        (lambda m: m["instances"][0].__setitem__("combine", "ledger * (scans"), "expected '\\)'"),
+        (lambda m: m["instances"][0].__setitem__("combine", "7"), "at least one table"),
+    ],
+)
+def test_a_witness_that_does_not_fit_says_what_and_where(mutate, pattern: str) -> None:
+    transcript, tables = _transcript()
+    raw = _map(tables)
+    mutate(raw)
+    with pytest.raises(WitnessError, match=pattern) as info:
+        fit_witness(witness_from_map(raw), transcript)
+    assert info.value.exit_code == EXIT_INPUT
+
+
+def test_a_bad_combine_error_carries_the_column_and_the_instance() -> None:
+    _, tables = _transcript()
+    with pytest.raises(ExpressionError) as info:
+        witness_from_map(_map(tables, combine="ledger $ scans"))
+    assert info.value.column == 7
+    assert "boarding-permutation" in str(info.value)
+
+
+def test_malformed_json_is_reported_with_its_line(tmp_path: Path) -> None:
+    path = tmp_path / "w.json"
+    path.write_text('{"instances": [\n  {"name": 1,,}]}')
+    with pytest.raises(WitnessError, match="line 2"):
+        load_witness(path)
+
+
+def test_unusable_files_are_witness_errors(tmp_path: Path) -> None:
+    with pytest.raises(WitnessError, match="readable"):
+        load_witness(tmp_path / "missing.json")
+    np.save(tmp_path / "alone.npy", np.arange(4))
+    with pytest.raises(WitnessError, match="single .npy"):
+        load_witness(tmp_path / "alone.npy")
+    np.save(tmp_path / "objects.npy", np.array([1, "x"], dtype=object), allow_pickle=True)
+    (tmp_path / "w.json").write_text(json.dumps(
+        {"instances": [{"name": "x", "combine": "t", "tables": {"t": "objects.npy"}}]}))
+    with pytest.raises(WitnessError, match="objects.npy"):
+        load_witness(tmp_path / "w.json")
+    (tmp_path / "junk.bin").write_bytes(b"\xc1\xc1\xc1")
+    with pytest.raises(WitnessError, match="undecodable"):
+        load_witness(tmp_path / "junk.bin")
+
+
+def test_npy_table_with_a_non_canonical_entry_names_the_entry(tmp_path: Path) -> None:
+    transcript, tables = _transcript()
+    bad = tables["ledger"].copy()
+    bad[3] = BABYBEAR + 5
+    np.save(tmp_path / "ledger.npy", bad)
+    np.save(tmp_path / "scans.npy", tables["scans"])
+    (tmp_path / "w.json").write_text(json.dumps({"instances": [
+        {"name": "boarding-permutation", "combine": "ledger*scans",
+         "tables": {"ledger": "ledger.npy", "scans": "scans.npy"}}]}))
+    with pytest.raises(WitnessError, match="at entry 3"):
+        fit_witness(load_witness(tmp_path / "w.json"), transcript)
+
+
+def test_npz_instance_names_may_contain_slashes(tmp_path: Path) -> None:
+    path = tmp_path / "w.npz"
+    np.savez(path, **{"permutation/combine": np.array("f*g"), "permutation/f": np.arange(4),
+                      "permutation/g": np.arange(4), "permutation/groups/combine": np.array("e"),
+                      "permutation/groups/e": np.arange(8)})
+    witness = load_witness(path)
+    assert [(i.name, sorted(i.tables)) for i in witness.instances] == [
+        ("permutation", ["f", "g"]), ("permutation/groups", ["e"])]
+
+
+def test_npz_key_outside_every_instance_is_refused(tmp_path: Path) -> None:
+    path = tmp_path / "w.npz"
+    np.savez(path, **{"sailing/combine": np.array("f"), "sailing/f": np.arange(4), "stray": np.arange(4)})
+    with pytest.raises(WitnessError, match="'stray'"):
+        load_witness(path)

@@ -1,0 +1,146 @@
+"""stepper.share.report and stepper.share.report_html: what a shared report holds and that the page is self-contained.
+
+The HTML is checked with the standard library's html.parser (a reference
+parser, not stepper's own code); runs come from tests/sumcheck_pairs.py.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from html.parser import HTMLParser
+
+from stepper.share.report import build, bucket_rows, short, to_markdown
+from stepper.share.report_html import bucket_chart, to_html
+from stepper.diagnose.rootcause import diagnose
+from stepper.transcript.model import BucketStats, Header, Note
+from stepper.verify.replay import replay_transcript
+from stepper.diagnose.witness import witness_from_map
+from sumcheck_pairs import BABYBEAR, brackwater_specs, fold, run_events, witness_map
+
+VOID = {"meta", "br", "img", "hr", "input", "link"}
+
+
+def _off_by_one_at_round_2(payload):
+    if payload["type"] == "round" and payload["evals"][0] == FAULTY_G0:
+        payload["evals"][2] = (payload["evals"][2] + 1) % BABYBEAR
+    return payload
+
+
+HONEST_EVENTS = run_events(brackwater_specs())
+FAULTY_G0 = next(e.values[0] for e in HONEST_EVENTS if type(e).__name__ == "RoundMsg" and e.round == 2)
+FAULTY_EVENTS = run_events(brackwater_specs(), tamper=_off_by_one_at_round_2)
+BUCKETS = tuple(BucketStats(0, k, 0, 1 << (4 - k), tuple(range(1, (1 << (4 - k)) + 1)), 6, 8) for k in (1, 2, 3))
+
+
+def faulty_transcript(metadata: dict | None = None):
+    t = fold([*FAULTY_EVENTS, *BUCKETS, Note("gate 3 rescanned", 0, 2), Note("sailing delayed", None, None)])
+    return dataclasses.replace(t, header=Header(metadata=metadata or {"label": "isle-of-quill-0740"}))
+
+
+class Page(HTMLParser):
+    """Collects tags, attributes and text, and checks that tags nest properly."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.stack: list[str] = []
+        self.tags: list[tuple[str, dict]] = []
+        self.text: list[str] = []
+        self.errors: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+        if tag not in VOID:
+            self.stack.append(tag)
+
+    def handle_endtag(self, tag):
+        if not self.stack or self.stack[-1] != tag:
+            self.errors.append(f"</{tag}> closes {self.stack[-1] if self.stack else 'nothing'}")
+        else:
+            self.stack.pop()
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+def parse(html: str) -> Page:
+    page = Page()
+    page.feed(html)
+    page.close()
+    return page
+
+
+def test_the_html_report_is_well_formed_and_loads_nothing_from_elsewhere():
+    t = faulty_transcript()
+    page = parse(to_html(build(t, replay_transcript(t), source="isle.stp")))
+    assert page.errors == [] and page.stack == []
+    names = [tag for tag, _ in page.tags]
+    assert "script" not in names and "link" not in names and "img" not in names and "iframe" not in names
+    for _, attrs in page.tags:
+        for key in ("src", "href"):
+            assert key not in attrs or attrs[key].startswith("#")
+    assert names.count("svg") == 1  # one bucket chart, for the one instance that reported buckets
+
+
+def test_the_report_carries_the_failing_rounds_explanation_in_both_forms():
+    t = faulty_transcript()
+    report = replay_transcript(t)
+    first = report.first_failure
+    assert (first.instance, first.round, first.check) == (0, 3, "sum")
+    doc = build(t, report, source="isle.stp")
+    text = " ".join(parse(to_html(doc)).text)
+    assert first.explanation in text
+    assert first.explanation in to_markdown(doc).replace("\\", "")
+
+
+def test_the_report_always_says_a_passing_replay_is_not_a_soundness_proof_and_what_the_file_reveals():
+    t = fold(HONEST_EVENTS)
+    report = replay_transcript(t)
+    assert report.verdict == "accept"
+    doc = build(t, report)
+    for rendered in (" ".join(parse(to_html(doc)).text), to_markdown(doc).replace("\\", "")):
+        assert "evidence about this one run only" in rendered
+        assert "never holds the witness" in rendered
+        assert "None: every check present passed." in rendered
+
+
+def test_notes_of_rounds_and_of_the_proof_appear():
+    t = faulty_transcript()
+    md = to_markdown(build(t, replay_transcript(t)))
+    assert "instance 'boarding-permutation', round 2: gate 3 rescanned" in md
+    assert "proof: sailing delayed" in md
+
+
+def test_text_from_the_file_is_escaped_not_executed():
+    t = faulty_transcript({"label": "<script>alert(1)</script>"})
+    html = to_html(build(t, replay_transcript(t)))
+    page = parse(html)
+    assert "script" not in [tag for tag, _ in page.tags]
+    assert "<script>alert(1)</script>" in " ".join(page.text)  # shown as text
+
+
+def test_with_a_witness_the_report_shows_the_root_cause_and_warns_that_it_reveals_witness_values():
+    t = faulty_transcript()
+    report = replay_transcript(t)
+    diagnosis = diagnose(t, witness_from_map(witness_map(brackwater_specs())), report)
+    doc = build(t, report, diagnosis)
+    fields = dict(doc.root_cause_fields)
+    assert (fields["round"], fields["check"], fields["point"]) == ("2", "honest-poly", "2")
+    md = to_markdown(doc)
+    assert "Root cause (with the witness)" in md
+    assert "made with a witness" in md
+    assert diagnosis.explain()[0] in " ".join(parse(to_html(doc)).text)
+
+
+def test_bucket_rows_sum_chunks_per_round_and_the_chart_marks_every_round():
+    stats = [BucketStats(0, 1, 0, 3, (1, 2, 5), 4), BucketStats(0, 1, 1, 2, (7, 1), 4), BucketStats(0, 2, 0, 1, None)]
+    rows = bucket_rows(stats)
+    assert [(r.round, r.buckets, r.largest, r.entries, r.bound_log2) for r in rows] == [
+        (1, 5, 7, 16, 4), (2, 1, None, None, None)]
+    svg = parse(bucket_chart(rows, "boarding-permutation"))
+    assert [tag for tag, _ in svg.tags].count("rect") == 2
+    assert [tag for tag, _ in svg.tags].count("circle") == 1  # round 2 sent no sizes
+
+
+def test_long_elements_are_shortened_in_the_middle():
+    assert short("1234567890" * 5, 13) == "12345...67890"
+    assert short("42") == "42"

@@ -1,0 +1,303 @@
+"""The Sequencer: payloads to records, the order rules, packed element runs, and the
+reader's inline fast path giving exactly what feeding one payload at a time gives."""
+
+from __future__ import annotations
+
+import random
+import struct
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from stepper.errors import TranscriptError
+from stepper.transcript.events import MAX_VALUES, Sequencer, to_payload
+from stepper.field.field import get_field
+from stepper.transcript.packed import pack_elements, unpack_elements
+from stepper.transcript.model import (
+    BatchDecl,
+    BucketStats,
+    ChallengeMsg,
+    FieldDecl,
+    FinalValue,
+    InstanceStart,
+    Note,
+    RoundMsg,
+    ScheduleDecl,
+    UnknownEvent,
+)
+
+GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
+BABYBEAR = 15 * 2**27 + 1  # common practice, no source (= 2^31 - 2^27 + 1)
+BN254_R = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 curve order
+
+
+def started(name: str = "goldilocks", num_vars: int = 3, degree: int = 2) -> Sequencer:
+    seq = Sequencer()
+    seq.feed({"type": "field", "name": name})
+    seq.feed({"type": "instance", "name": "boarding-permutation", "num_vars": num_vars, "degree": degree,
+              "claim": 1})
+    return seq
+
+
+def test_packed_run_decodes_like_int_from_bytes_for_every_width():
+    rng = random.Random(7)
+    for p in (BABYBEAR, GOLDILOCKS, BN254_R):
+        field = get_field(p)
+        values = [rng.randrange(p) for _ in range(9)]
+        blob = pack_elements(field, values)
+        width = (p.bit_length() + 7) // 8
+        # Reference: Python's own little-endian integer decoding, slice by slice.
+        expected = tuple(int.from_bytes(blob[i:i + width], "little") for i in range(0, len(blob), width))
+        assert expected == tuple(values)
+        assert unpack_elements(field, blob, "test") == expected
+
+
+def test_packed_run_names_the_first_non_canonical_element():
+    field = get_field(GOLDILOCKS)
+    blob = struct.pack("<3Q", 1, GOLDILOCKS, 2)
+    with pytest.raises(Exception, match="element 1"):
+        unpack_elements(field, blob, "round values")
+    with pytest.raises(Exception, match="multiple of 8 bytes"):
+        unpack_elements(field, blob[:-1], "round values")
+
+
+def test_round_values_accept_packed_bytes_separate_bytes_and_json_forms_alike():
+    forms = [
+        struct.pack("<3Q", 5, 6, GOLDILOCKS - 1),
+        [struct.pack("<Q", v) for v in (5, 6, GOLDILOCKS - 1)],
+        [5, "6", hex(GOLDILOCKS - 1)],
+    ]
+    got = [started().feed({"type": "round", "evals": raw}) for raw in forms]
+    assert got == [RoundMsg(0, 1, (5, 6, GOLDILOCKS - 1))] * 3
+
+
+@pytest.mark.parametrize(
+    ("payloads", "message"),
+    [
+        ([{"type": "round", "evals": [1]}], "field` event first"),
+        ([{"type": "field", "name": "babybear"}, {"type": "field", "name": "babybear"}], "second"),
+        ([{"type": "field", "name": "babybear"}, {"type": "challenge", "value": 1}], "`instance` event before"),
+        ([{"type": "field", "name": "babybear"}, {"type": "batch", "coefficient": 2, "terms": [1]},
+          {"type": "round", "evals": [1]}], "`instance` event right after `batch`"),
+    ],
+)
+def test_order_rules_are_enforced_with_the_event_index(payloads, message):
+    seq = Sequencer()
+    with pytest.raises(TranscriptError, match=message) as caught:
+        for payload in payloads:
+            seq.feed(payload)
+    assert caught.value.where.event == len(payloads) - 1
+
+
+def test_rounds_challenges_and_final_must_alternate_and_stop_at_num_vars():
+    seq = started(num_vars=1)
+    with pytest.raises(TranscriptError, match="round before its challenge"):
+        seq.feed({"type": "challenge", "value": 1})
+    seq.feed({"type": "round", "evals": [0, 1, 2]})
+    with pytest.raises(TranscriptError, match="challenge of round 1 before another round"):
+        seq.feed({"type": "round", "evals": [0, 1, 2]})
+    with pytest.raises(TranscriptError, match="after all 1 rounds"):
+        seq.feed({"type": "final", "value": 3})
+    seq.feed({"type": "challenge", "value": 4})
+    with pytest.raises(TranscriptError, match="at most num_vars = 1 rounds") as caught:
+        seq.feed({"type": "round", "evals": [0, 1, 2]})
+    assert caught.value.where.instance == "boarding-permutation" and caught.value.where.round == 2
+    assert seq.feed({"type": "final", "value": 3}) == FinalValue(0, 3)
+
+
+def test_more_elements_than_the_cap_are_refused():
+    seq = started()
+    with pytest.raises(TranscriptError, match=f"at most {MAX_VALUES}"):
+        seq.feed({"type": "round", "evals": bytes(8 * (MAX_VALUES + 1))})
+
+
+def test_unknown_types_are_kept_before_and_after_the_field():
+    seq = Sequencer()
+    assert seq.feed({"type": "gate-log", "gate": 3}) == UnknownEvent("gate-log", {"type": "gate-log", "gate": 3})
+    seq.feed({"type": "field", "name": "babybear"})
+    assert seq.feed({"type": "weather", "wind": "SW 5"}).kind == "weather"
+
+
+def test_to_payload_inverts_feed_for_every_event_kind_binary_packed_and_json():
+    field = get_field(GOLDILOCKS)
+    records = [
+        FieldDecl(field),
+        ScheduleDecl("stepper-sha256/1", "brackwater-ferries", {"rounds": 2}),
+        BatchDecl(3, (1, 2), ("ledger", "boarding")),
+        InstanceStart(0, "boarding-permutation", 2, 2, 7, "high-first", "evals-no-1",
+                      BatchDecl(3, (1, 2), ("ledger", "boarding"))),
+        BucketStats(0, 1, 0, 4, (1, 0, 2, 1), 2, 2, {"gate": "B"}),
+        RoundMsg(0, 1, (1, GOLDILOCKS - 1)),
+        ChallengeMsg(0, 1, 2**63),
+        Note("gate B", 0, 1),
+        RoundMsg(0, 2, (5, 6)),
+        ChallengeMsg(0, 2, 9),
+        FinalValue(0, 11),
+        UnknownEvent("weather", {"type": "weather", "wind": "SW"}, 0),
+    ]
+    for binary, packed in ((True, True), (True, False), (False, False)):
+        seq = Sequencer()
+        current = None
+        for record in records:
+            payload = to_payload(record, current, binary, packed)
+            assert seq.feed(payload) == record
+            if isinstance(record, FieldDecl):
+                current = record.field
+
+
+payload_kinds = st.sampled_from(["round", "challenge", "round-bad", "challenge-bad", "note", "final", "list-round"])
+
+
+@settings(max_examples=80, deadline=None)
+@given(kinds=st.lists(payload_kinds, max_size=14), seed=st.integers(0, 2**32))
+def test_stream_gives_exactly_what_feeding_one_at_a_time_gives(kinds, seed):
+    rng = random.Random(seed)
+
+    def payload(kind: str) -> dict[str, object]:
+        if kind == "round":
+            return {"type": "round", "evals": struct.pack("<3Q", *(rng.randrange(GOLDILOCKS) for _ in range(3)))}
+        if kind == "round-bad":
+            return {"type": "round", "evals": struct.pack("<3Q", 0, GOLDILOCKS + rng.randrange(99), 0)}
+        if kind == "list-round":
+            return {"type": "round", "evals": [1, 2, 3]}
+        if kind == "challenge":
+            return {"type": "challenge", "value": struct.pack("<Q", rng.randrange(GOLDILOCKS))}
+        if kind == "challenge-bad":
+            return {"type": "challenge", "value": b"\xff" * 8}
+        if kind == "final":
+            return {"type": "final", "value": 1}
+        return {"type": "note", "text": "scan"}
+
+    payloads = [payload(kind) for kind in kinds]
+
+    def run(use_stream: bool) -> tuple[list[object], str | None, int]:
+        seq = started(num_vars=4)
+        out: list[object] = []
+        try:
+            if use_stream:
+                out.extend(seq.stream(iter(payloads)))
+            else:
+                for p in payloads:
+                    out.append(seq.feed(p))
+        except TranscriptError as err:
+            return out, str(err), seq.count
+        return out, None, seq.count
+
+    assert run(True) == run(False)
+
+
+def test_stream_stops_at_the_named_unknown_type_and_keeps_it():
+    seq = started()
+    payloads = iter([{"type": "round", "evals": [1, 2, 3]}, {"type": "end", "events": 3}, {"type": "note",
+                                                                                          "text": "after"}])
+    records = list(seq.stream(payloads, until="end"))
+    assert records == [RoundMsg(0, 1, (1, 2, 3))]
+    assert seq.stopped_at is not None and seq.stopped_at.kind == "end"
+    assert next(payloads) == {"type": "note", "text": "after"}
+
+
+class ChunkedSource:
+    """An iterator that runs dry at the end of each chunk until refilled (like an Unpacker fed chunk by chunk)."""
+
+    def __init__(self, chunks: list[list[dict[str, object]]]) -> None:
+        self.chunks = list(chunks)
+        self.current: list[dict[str, object]] = []
+        self.refills = 0
+
+    def __iter__(self) -> ChunkedSource:
+        return self
+
+    def __next__(self) -> dict[str, object]:
+        if not self.current:
+            raise StopIteration
+        return self.current.pop(0)
+
+    def refill(self) -> bool:
+        if not self.chunks:
+            return False
+        self.refills += 1
+        self.current = self.chunks.pop(0)
+        return True
+
+
+def packed_round(*values: int) -> dict[str, object]:
+    return {"type": "round", "evals": struct.pack(f"<{len(values)}Q", *values)}
+
+
+def packed_challenge(value: int) -> dict[str, object]:
+    return {"type": "challenge", "value": struct.pack("<Q", value)}
+
+
+def test_stream_with_refill_carries_its_state_across_chunk_boundaries():
+    payloads = [packed_round(1, 2, 3), packed_challenge(5), packed_round(4, 5, 6), packed_challenge(7),
+                {"type": "note", "text": "deck 2 scanned"}, packed_round(7, 8, 9)]
+    chunks = [payloads[:1], [], payloads[1:4], payloads[4:]]  # a boundary between a round and its challenge
+    source = ChunkedSource(chunks)
+    seq = started(num_vars=4)
+    streamed = list(seq.stream(source, refill=source.refill))
+    fed = started(num_vars=4)
+    assert streamed == [fed.feed(p) for p in payloads]
+    assert [r.round for r in streamed if isinstance(r, RoundMsg)] == [1, 2, 3]
+    assert source.refills == 4 and seq.count == fed.count and seq.awaiting_challenge
+
+
+def test_stream_without_refill_stops_when_the_source_runs_dry():
+    source = ChunkedSource([[packed_round(1, 2, 3)], [packed_challenge(5)]])
+    source.refill()
+    seq = started(num_vars=4)
+    assert len(list(seq.stream(source))) == 1
+    assert source.chunks  # the second chunk was never asked for
+
+
+def test_stream_on_error_replaces_a_transcript_error_after_syncing_the_count():
+    seen: list[int] = []
+
+    def on_error(err: Exception) -> Exception:
+        seen.append(seq.count)
+        return ValueError(f"mapped: {err}")
+
+    seq = started(num_vars=1)
+    payloads = [packed_round(1, 2, 3), packed_challenge(5), packed_round(4, 5, 6)]  # a second round of 1 variable
+    with pytest.raises(ValueError, match="mapped: .*at most num_vars = 1 rounds"):
+        list(seq.stream(iter(payloads), on_error=on_error))
+    assert seen == [seq.count] and seq.count == started(num_vars=1).count + 3
+
+
+def test_stream_on_error_maps_a_failing_source_and_can_leave_an_error_unchanged():
+    def failing():
+        yield packed_round(1, 2, 3)
+        raise OSError("disk gone")
+
+    seq = started(num_vars=4)
+    with pytest.raises(TranscriptError, match="source failed: disk gone"):
+        list(seq.stream(failing(), on_error=lambda err: TranscriptError(f"source failed: {err}")))
+    kept = KeyError("left alone")
+    seq = started(num_vars=4)
+
+    def unchanged():
+        yield packed_round(1, 2, 3)
+        raise kept
+
+    with pytest.raises(KeyError) as info:
+        list(seq.stream(unchanged(), on_error=lambda err: err))
+    assert info.value is kept
+
+
+@pytest.mark.parametrize("value", [GOLDILOCKS - 1, 2**64 - 2**32, 0xFFFFFFFF, 2**32 * 0xFFFFFFFF - 1])
+def test_stream_accepts_canonical_goldilocks_values_whose_bytes_hold_the_ones_run(value):
+    # Goldilocks p = 2^64 - 2^32 + 1 (common practice, no source): values in [2^64 - 2^32, p) are
+    # canonical yet their four top bytes are 0xff, the byte string the fast canonical check looks for.
+    seq = started(num_vars=2)
+    assert list(seq.stream(iter([packed_round(1, value, 2)]))) == [RoundMsg(0, 1, (1, value, 2))]
+
+
+@pytest.mark.parametrize("value", [GOLDILOCKS, 2**64 - 1])
+def test_stream_refuses_non_canonical_goldilocks_values_like_feed(value):
+    messages = []
+    for use_stream in (True, False):
+        seq = started(num_vars=2)
+        with pytest.raises(TranscriptError) as info:
+            list(seq.stream(iter([packed_round(value, 0, 0)]))) if use_stream else seq.feed(packed_round(value, 0, 0))
+        messages.append(str(info.value))
+    assert messages[0] == messages[1] and "element 0" in messages[0]

@@ -1,0 +1,190 @@
+"""The built-in schedule stepper-sha256/1 matches its written description byte for byte.
+
+The bytes below are built by hand from transcripts/FIAT-SHAMIR.md and hashed with
+hashlib directly, so the test checks the document, not the module against itself.
+Framing and wide reduction are common practice, no source; SHA-256 is FIPS 180-4.
+"""
+
+from __future__ import annotations
+
+import hashlib
+
+import pytest
+
+from stepper.errors import InputError
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.transcript.model import ChallengeMsg, FieldDecl, InstanceStart, Note, RoundMsg, ScheduleDecl
+
+P = NAMED_PRIMES["babybear"]  # 2^31 - 2^27 + 1, common practice, no source
+LABEL = "brackwater-ferries/isle-of-quill-0740"
+
+# Pinned vectors (also printed in transcripts/FIAT-SHAMIR.md).
+DIGESTS = {
+    "creation": "4357b4a4788d0a51bb7153c0310113c0d1ad76db4a142afe1435c3b248c39f28",
+    "field": "361805b9d4b44754e1d82547f54e791d2e39bc6de4e41e9f6bb64b97f613a598",
+    "schedule": "4b5b4ca81f60cdcc3c28ae2cbe680fa9940b8e92f5810ddd01bf22f7482a967a",
+    "instance": "42a241d0bb6f284f822ac8977775128ead0b268349a080b068341b5c43baca22",
+    "round 1": "af92cc581b736cf9ea1b16275802072b8c6de4a63892709a835be6be9d41c4aa",
+    "challenge 1": "8b71f5ec12e0da4575334a33533d5bdc3ef44510577c0a4456ab5a8e9206b510",
+    "round 2": "118a6dd05552af8ba96311f087905df3b5685b4a836ac1b94df2329ee059900c",
+    "challenge 2": "44cc77cbc299ec9a8ed44e0a06679f60d1338953528a158d6ccc01cb6b82e512",
+}
+R1, R2 = 1351902924, 772119923
+ROUND1 = (23, 15, P - 33)
+ROUND2 = (147755819, 1631890498, 1161113110)
+
+
+def frame(tag: bytes, body: bytes) -> bytes:
+    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
+
+
+def u64(n: int) -> bytes:
+    return n.to_bytes(8, "little")
+
+
+def text(s: str) -> bytes:
+    return u64(len(s.encode())) + s.encode()
+
+
+def el(v: int) -> bytes:
+    return v.to_bytes(4, "little")
+
+
+def squeeze(state: "hashlib._Hash", p: int, sample: int = 0) -> int:
+    wide = (p.bit_length() + 128 + 7) // 8
+    stream = b""
+    for j in range(-(-wide // 32)):
+        h = state.copy()
+        h.update(frame(b"squeeze", u64(sample) + u64(j)))
+        stream += h.digest()
+    return int.from_bytes(stream[:wide], "little") % p
+
+
+def test_hand_built_bytes_give_the_documented_digests_and_challenges():
+    state = hashlib.sha256(frame(b"domain", b"stepper-sha256/1"))
+    assert state.copy().hexdigest() == DIGESTS["creation"]
+    state.update(frame(b"field", u64(4) + el(P) + u64(1)))
+    assert state.copy().hexdigest() == DIGESTS["field"]
+    state.update(frame(b"schedule", text(SCHEDULE_NAME) + text(LABEL)))
+    assert state.copy().hexdigest() == DIGESTS["schedule"]
+    state.update(frame(b"instance", text("boarding-permutation") + u64(2) + u64(2) + text("low-first")
+                       + text("evals") + el(38)))
+    assert state.copy().hexdigest() == DIGESTS["instance"]
+    for k, (values, r) in enumerate([(ROUND1, R1), (ROUND2, R2)], start=1):
+        state.update(frame(b"round", u64(3) + b"".join(el(v) for v in values)))
+        assert state.copy().hexdigest() == DIGESTS[f"round {k}"]
+        assert squeeze(state, P) == r
+        state.update(frame(b"challenge", el(r)))
+        assert state.copy().hexdigest() == DIGESTS[f"challenge {k}"]
+
+
+def test_schedule_object_reproduces_the_pinned_vectors():
+    field = get_field(P)
+    s = Sha256Schedule()
+    assert s.state_digest().hex() == DIGESTS["creation"]
+    s.observe(FieldDecl(field))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
+    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+    assert s.state_digest().hex() == DIGESTS["instance"]
+    s.observe(RoundMsg(0, 1, ROUND1))
+    assert s.challenge() == R1
+    s.observe(ChallengeMsg(0, 1, R1))  # observing a challenge absorbs nothing
+    s.observe(Note("kept out of the hash"))
+    assert s.state_digest().hex() == DIGESTS["challenge 1"]
+    s.observe(RoundMsg(0, 2, ROUND2))
+    assert s.challenge() == R2
+    assert s.state_digest().hex() == DIGESTS["challenge 2"]
+
+
+def test_pinned_rounds_are_the_honest_rounds_of_the_documented_tables():
+    # g(X) = sum over the other variable of f~ * h~, tables f = [3,1,4,1], h = [5,9,2,6] (our example).
+    f, h = [3, 1, 4, 1], [5, 9, 2, 6]
+    assert sum(a * b for a, b in zip(f, h)) == 38
+    for values, r in [(ROUND1, R1), (ROUND2, R2)]:
+        evals = []
+        for x in range(3):
+            evals.append(sum((f[2 * i] + x * (f[2 * i + 1] - f[2 * i])) * (h[2 * i] + x * (h[2 * i + 1] - h[2 * i]))
+                             for i in range(len(f) // 2)) % P)
+        assert tuple(evals) == values
+        f = [(f[2 * i] + r * (f[2 * i + 1] - f[2 * i])) % P for i in range(len(f) // 2)]
+        h = [(h[2 * i] + r * (h[2 * i + 1] - h[2 * i])) % P for i in range(len(h) // 2)]
+    assert f[0] * h[0] % P == 360423787
+
+
+def _one_round(field, label: str, claim) -> Sha256Schedule:
+    s = Sha256Schedule()
+    s.observe(FieldDecl(field))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, label))
+    s.observe(InstanceStart(0, "deck-slots-zero", 1, 1, claim))
+    s.observe(RoundMsg(0, 1, (field.zero, field.zero)))
+    return s
+
+
+def test_extension_challenge_is_four_independent_base_samples():
+    ext = get_field(P, (P - 11, 0, 0, 0, 1))
+    s = _one_round(ext, "x", ext.zero)
+    state = s._state.copy()
+    expected = tuple(squeeze(state, P, sample) for sample in range(4))
+    assert expected == (1064097139, 1867985932, 1796095574, 1294121639)
+    assert s.challenge() == expected
+
+
+def test_bn254_challenge_uses_two_hash_blocks():
+    bn = get_field(NAMED_PRIMES["bn254"])
+    s = _one_round(bn, "", 0)
+    assert (bn.p.bit_length() + 128 + 7) // 8 == 48
+    assert s.challenge() == 1014743571561303838409839392032128321833661795442976132419882476512372186109
+
+
+def test_claim_label_and_values_all_change_the_challenge():
+    field = get_field(P)
+    base = _one_round(field, "a", 0).challenge()
+    assert _one_round(field, "b", 0).challenge() != base
+    assert _one_round(field, "a", 1).challenge() != base
+    s = Sha256Schedule()
+    s.observe(FieldDecl(field))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, "a"))
+    s.observe(InstanceStart(0, "deck-slots-zero", 1, 1, 0))
+    s.observe(RoundMsg(0, 1, (0, 1)))
+    assert s.challenge() != base
+
+
+def test_foreign_schedule_declaration_and_missing_field_are_refused():
+    s = Sha256Schedule()
+    with pytest.raises(InputError):
+        s.observe(RoundMsg(0, 1, (0, 0)))
+    s.observe(FieldDecl(get_field(P)))
+    with pytest.raises(InputError):
+        s.observe(ScheduleDecl("someone-elses/2"))
+
+
+def test_fused_round_challenge_reproduces_the_pinned_vectors():
+    # The same hand-built vectors as above, reached through the one-step hot path.
+    s = Sha256Schedule()
+    s.observe(FieldDecl(get_field(P)))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
+    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+    assert s.round_challenge(ROUND1) == R1
+    assert s.state_digest().hex() == DIGESTS["challenge 1"]
+    assert s.round_challenge(ROUND2) == R2
+    assert s.state_digest().hex() == DIGESTS["challenge 2"]
+
+
+@pytest.mark.parametrize("spec", [("goldilocks", None), ("bn254", None), ("babybear", 4), ("mersenne31", None)])
+def test_fused_round_challenge_equals_observe_then_challenge(spec):
+    name, ext_degree = spec
+    p = NAMED_PRIMES[name]
+    field = get_field(p, (p - 11, 0, 0, 0, 1)) if ext_degree else get_field(p)
+    two, one = Sha256Schedule(), Sha256Schedule()
+    for s in (two, one):
+        s.observe(FieldDecl(field))
+        s.observe(ScheduleDecl(SCHEDULE_NAME, "isle-of-quill-0740"))
+        s.observe(InstanceStart(0, "deck-slots-zero", 3, 2, field.zero))
+    values = (field.embed(5), field.embed(p - 5), field.embed(12345))
+    for _ in range(3):
+        two.observe(RoundMsg(0, 1, values))
+        r = two.challenge()
+        assert one.round_challenge(values) == r
+        assert one.state_digest() == two.state_digest()
+        values = (field.embed(7), r, field.embed(1)) if not ext_degree else (field.embed(7), r, r)

@@ -1,0 +1,625 @@
+"""stepper.verify.sweep and its use by `stepper check`: the block sweep gives the same answer as
+the event-by-event replay, takes the regular honest transcripts, and gives up on everything else.
+
+The independent side is a sumcheck prover written here with plain integers (tests/plain_sumcheck.py
+arithmetic): each round polynomial is drawn as coefficients c0..ce with g(0)+g(1) = 2 c0 + c1 + ... + ce
+equal to the carried claim, sent in the instance's form, and the next claim is g(r) by Horner's rule
+(common practice, no source). Challenges come from the built-in schedule (transcripts/FIAT-SHAMIR.md,
+observed record by record as a prover would), or are random when no schedule or a foreign one is declared.
+Moduli: Goldilocks 2^64 - 2^32 + 1, BabyBear 2^31 - 2^27 + 1, KoalaBear 2^31 - 2^24 + 1 (common practice,
+no source), 65521 and 2^64 - 59 (largest primes below 2^16 and 2^64, from memory; sympy.isprime checks them
+in tests/verify/test_roundblock.py), 97, the BN254 scalar field (EIP-197, from memory); the quartic extension of
+BabyBear by X^4 - 11 (from memory; stepper's field constructor checks irreducibility).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import random
+import sys
+from dataclasses import dataclass, field as dataclass_field
+from pathlib import Path
+
+import msgpack
+import pytest
+from hypothesis import HealthCheck, event, given, settings, strategies as st
+
+sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer arithmetic
+
+from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
+from stepper.cli.check_text import render  # noqa: E402
+from stepper.cli.main import main  # noqa: E402
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule  # noqa: E402
+import stepper.verify.sweep as sweep_module  # noqa: E402
+from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
+from stepper.transcript.store.reader import ReadLimits  # noqa: E402
+from stepper.verify.sweep import sweep  # noqa: E402
+from stepper.transcript.store.writer import MAGIC, end_payload  # noqa: E402
+from stepper.transcript.model import Note  # noqa: E402
+from stepper.verify.replay import Replay, Report  # noqa: E402
+
+REPO = Path(__file__).parents[2]
+GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
+BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
+KOALABEAR = 2**31 - 2**24 + 1  # common practice, no source
+
+# name -> (arithmetic, field event, whether the sweep checks its rounds by the block)
+FIELDS = {
+    "goldilocks": (Plain(GOLDILOCKS), {"type": "field", "name": "goldilocks"}, True),
+    "babybear": (Plain(BABYBEAR), {"type": "field", "name": "babybear"}, True),
+    "koalabear": (Plain(KOALABEAR), {"type": "field", "name": "koalabear"}, True),
+    "p97": (Plain(97), {"type": "field", "modulus": 97}, True),
+    "p65521": (Plain(65521), {"type": "field", "modulus": 65521}, True),
+    "p64": (Plain(2**64 - 59), {"type": "field", "modulus": str(2**64 - 59)}, False),
+    "babybear^4": (Plain(BABYBEAR, 4, 11), Plain(BABYBEAR, 4, 11).spec(), False),
+    "bn254": (Plain(BN254), {"type": "field", "name": "bn254"}, False),
+}
+FORMS = ("evals", "evals-no-1", "coeffs", "coeffs-no-linear")
+FAULTS = ("eval", "challenge", "final", "claim", "degree", "truncate", "flip", "noncanonical")
+FILE_FAULTS = ("truncate", "flip", "noncanonical")
+
+
+# ----- the independent prover ------------------------------------------------------------
+
+
+@dataclass
+class Knobs:
+    """What a generated transcript may contain (each feature hits some instances when on)."""
+
+    field: str = "goldilocks"
+    schedule: str = "builtin"  # or "none", "foreign"
+    instances: int = 6
+    max_vars: int = 6
+    max_degree: int = 3
+    degrees: tuple[int, ...] = ()  # when given, instance i has degree degrees[i % len(degrees)]
+    fewer: bool = False  # rounds with fewer evaluations than degree + 1
+    compressed: bool = False  # forms other than evals
+    batch: bool = False
+    extras: bool = False  # notes and buckets before and between instances
+    between_rounds: bool = False  # notes between rounds (the sweep must give up on such a run)
+    no_final: bool = False
+    ragged: bool = False  # an instance whose rounds carry different numbers of values
+    appended: int = 0  # notes appended after the end event
+    fault: str | None = None
+    seed: int = 0
+
+
+@dataclass
+class Written:
+    path: Path
+    regular: bool  # every instance is one run the sweep takes (and no file fault)
+    sealed: int = 0  # bytes up to the end of the end event
+    damaged: int | None = None  # offset of a truncation or flipped byte
+    offsets: list[tuple[str, int, int]] = dataclass_field(default_factory=list)  # (kind, start, end) per event
+
+
+def element(ar: Plain, rng: random.Random) -> Elem:
+    return rng.randrange(ar.p) if ar.k == 1 else tuple(rng.randrange(ar.p) for _ in range(ar.k))
+
+
+def horner(ar: Plain, coeffs: list[Elem], x: Elem) -> Elem:
+    acc = ar.const(0)
+    for c in reversed(coeffs):
+        acc = ar.add(ar.mul(acc, x), c)
+    return acc
+
+
+def round_poly(ar: Plain, rng: random.Random, claim: Elem, e: int) -> list[Elem]:
+    """Coefficients c0..ce of a random g with g(0) + g(1) = claim."""
+    if e == 0:
+        return [ar.mul(claim, ar.const(pow(2, -1, ar.p)))]
+    coeffs = [element(ar, rng) for _ in range(e + 1)]
+    rest = ar.mul(ar.const(2), coeffs[0])
+    for c in coeffs[2:]:
+        rest = ar.add(rest, c)
+    coeffs[1] = ar.sub(claim, rest)
+    return coeffs
+
+
+def sent_values(ar: Plain, form: str, coeffs: list[Elem]) -> list[Elem]:
+    """What a round of this form carries (transcripts/FORMAT.md)."""
+    e = len(coeffs) - 1
+    if form == "evals":
+        return [horner(ar, coeffs, ar.const(x)) for x in range(e + 1)]
+    if form == "evals-no-1":
+        return [horner(ar, coeffs, ar.const(x)) for x in (0, *range(2, e + 1))]
+    if form == "coeffs":
+        return list(coeffs)
+    return [coeffs[0], *coeffs[2:]]
+
+
+def bump(ar: Plain, value: Elem) -> Elem:
+    return ar.add(value, ar.const(1))
+
+
+def write_transcript(path: Path, knobs: Knobs) -> Written:
+    """Write a transcript per ``knobs`` with TranscriptWriter; returns where each event lies."""
+    ar, field_event, block_field = FIELDS[knobs.field]
+    rng = random.Random(knobs.seed)
+    schedule = Sha256Schedule() if knobs.schedule == "builtin" else None
+    writer = TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"})
+    offsets: list[tuple[str, int, int]] = []
+    regular = block_field and knobs.fault not in FILE_FAULTS and knobs.fault != "degree"
+    fault_instance = rng.randrange(knobs.instances)
+    any_ragged = False
+
+    def put(payload: dict) -> None:
+        before = path.stat().st_size
+        record = writer.write_payload(payload)
+        offsets.append((payload["type"], before, path.stat().st_size))
+        if schedule is not None:
+            schedule.observe(record)
+
+    def extra(where: str) -> None:
+        if rng.random() < 0.5:
+            put({"type": "note", "text": f"gate scanner note {where}", **({"round": 1} if rng.random() < .3 else {})})
+        elif writer.events > 1 and any(kind == "instance" for kind, _, _ in offsets):
+            put({"type": "buckets", "round": 1, "chunk": rng.randrange(4), "count": 3, "sizes": [2, 0, 1]})
+        else:
+            put({"type": "ferry-office-tally", "cars": rng.randrange(90)})  # an unknown event type
+
+    put(field_event)
+    if knobs.schedule == "builtin":
+        put({"type": "schedule", "name": SCHEDULE_NAME, "label": "brackwater-ferries"})
+    elif knobs.schedule == "foreign":
+        put({"type": "schedule", "name": "ferry-office-transcript/3", "label": "gate"})
+    for i in range(knobs.instances):
+        faulty = knobs.fault if i == fault_instance else None
+        if knobs.extras and rng.random() < 0.3:
+            extra(f"before instance {i}")
+        num_vars = rng.randint(1, knobs.max_vars)
+        degree = knobs.degrees[i % len(knobs.degrees)] if knobs.degrees else rng.randint(1, knobs.max_degree)
+        form = rng.choice(FORMS[1:]) if knobs.compressed and rng.random() < 0.4 else "evals"
+        e = rng.randint(0 if form in ("evals", "coeffs") else 1, degree) if knobs.fewer else degree
+        ragged = knobs.ragged and num_vars > 1 and (rng.random() < 0.3 or not any_ragged)
+        any_ragged = any_ragged or ragged
+        final = not (knobs.no_final and rng.random() < 0.3) or faulty == "final"
+        claim = element(ar, rng)
+        batched = knobs.batch and rng.random() < 0.3
+        if batched:
+            coefficient, terms = element(ar, rng), [element(ar, rng) for _ in range(rng.randint(1, 3))]
+            claim, power = ar.const(0), ar.const(1)
+            for term in terms:
+                claim, power = ar.add(claim, ar.mul(power, term)), ar.mul(power, coefficient)
+            put({"type": "batch", "coefficient": ar.json(coefficient), "terms": [ar.json(t) for t in terms]})
+        put({"type": "instance", "name": f"boarding-permutation-{i}", "num_vars": num_vars, "degree": degree,
+             "claim": ar.json(bump(ar, claim) if faulty == "claim" else claim), "form": form,
+             "order": rng.choice(["low-first", "high-first"])})
+        regular = regular and form == "evals" and not batched and final and not ragged
+        fault_round = rng.randint(1, num_vars)
+        for k in range(1, num_vars + 1):
+            if knobs.between_rounds and rng.random() < 0.15:
+                extra(f"in instance {i} before round {k}")
+                regular = False
+            size = (degree if k % 2 else int(form not in ("evals", "coeffs"))) if ragged else e
+            coeffs = round_poly(ar, rng, claim, size)
+            values = sent_values(ar, form, coeffs)
+            if faulty == "eval" and k == fault_round:
+                j = rng.randrange(len(values))
+                values[j] = bump(ar, values[j])
+            if faulty == "degree" and k == fault_round:
+                values = values + [element(ar, rng)] * (degree + 2 - len(values))
+            put({"type": "round", "evals": [ar.json(v) for v in values]})
+            r = schedule.challenge() if schedule is not None else element(ar, rng)
+            put({"type": "challenge", "value": ar.json(bump(ar, r) if faulty == "challenge" and k == fault_round
+                                                       else r)})
+            claim = horner(ar, coeffs, r)
+        if final:
+            put({"type": "final", "value": ar.json(bump(ar, claim) if faulty == "final" else claim)})
+    writer.close()
+    body = path.read_bytes()
+    path.write_bytes(body + seal(body, writer.events))
+    sealed, damaged = path.stat().st_size, None
+    for n in range(knobs.appended):
+        append_note(path, Note(f"dock office remark {n}", rng.randrange(knobs.instances), None))
+    if knobs.fault == "noncanonical":  # a value >= p in the sealed part, sealed again over it
+        raw = bytearray(body)
+        _, _, end = rng.choice([o for o in offsets if o[0] in ("round", "challenge", "final")])
+        width = (ar.p.bit_length() + 7) // 8
+        cell = int.from_bytes(raw[end - width:end], "little")
+        raw[end - width:end] = min(cell + ar.p, 256**width - 1).to_bytes(width, "little")  # same residue if it fits
+        path.write_bytes(bytes(raw) + seal(bytes(raw), writer.events) + path.read_bytes()[sealed:])
+    if knobs.fault == "truncate":
+        data = path.read_bytes()
+        damaged = rng.randrange(len(MAGIC), len(data))
+        path.write_bytes(data[:damaged])
+    elif knobs.fault == "flip":
+        data = bytearray(path.read_bytes())
+        damaged = rng.randrange(len(data))
+        data[damaged] ^= 1 << rng.randrange(8)
+        path.write_bytes(bytes(data))
+    return Written(path, regular, sealed, damaged, offsets)
+
+
+def seal(body: bytes, events: int) -> bytes:
+    """The end event TranscriptWriter.finish appends (transcripts/FORMAT.md): count and SHA-256."""
+    return msgpack.packb(end_payload(events, hashlib.sha256(body).digest()), use_bin_type=True)
+
+
+def test_seal_gives_a_complete_verified_transcript(tmp_path):
+    written = write_transcript(tmp_path / "sealed.stp", Knobs(instances=2, appended=1))
+    with open_events(written.path) as stream:
+        records = list(stream)
+    assert (stream.completeness, stream.digest, stream.appended) == ("complete", "verified", 1)
+    assert len(records) == len(written.offsets) + 1  # every event written, and the appended note
+
+
+# ----- running both ways ------------------------------------------------------------------
+
+
+class SweepSpy:
+    """Wraps stepper.verify.sweep.sweep (what `stepper check` calls) and keeps what it returned."""
+
+    def __init__(self, monkeypatch: pytest.MonkeyPatch) -> None:
+        self.results: list[object] = []
+
+        def spy(*args: object, **kwargs: object) -> object:
+            result = sweep(*args, **kwargs)
+            self.results.append(result)
+            return result
+
+        monkeypatch.setattr(sweep_module, "sweep", spy)
+
+
+def check_both(capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch, path: Path,
+               *flags: str) -> tuple[int, str, str, object]:
+    """`stepper check` with the sweep on (for files of any size) and off: asserts identical
+    stdout, stderr and exit code; returns them and what the sweep returned."""
+    spy = SweepSpy(monkeypatch)
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
+    code_on = main(["check", str(path), *flags])
+    on = capsys.readouterr()
+    monkeypatch.setenv("STEPPER_SWEEP", "off")
+    code_off = main(["check", str(path), *flags])
+    off = capsys.readouterr()
+    monkeypatch.delenv("STEPPER_SWEEP")
+    assert (code_on, on.out, on.err) == (code_off, off.out, off.err)
+    assert code_on in (0, 1, 2, 3) and on.err.count("\n") <= 1
+    assert spy.results[-1] is None  # STEPPER_SWEEP=off turns it off
+    return code_on, on.out, on.err, spy.results[0] if len(spy.results) == 2 else None
+
+
+# ----- 2. the shipped transcripts and generated ones: same output, sweep on or off ---------
+
+SHIPPED = sorted((REPO / "transcripts").glob("*/*.stp"))
+
+
+@pytest.mark.parametrize("path", SHIPPED, ids=[p.name for p in SHIPPED])
+@pytest.mark.parametrize("rows", ["20", "0", "1", "5"])
+def test_shipped_transcripts_check_the_same_with_the_sweep_on_or_off(capsys, monkeypatch, path, rows):
+    code, out, _, swept = check_both(capsys, monkeypatch, path, "--rows", rows)
+    assert out.startswith(f"stepper check {path}")
+    if swept is not None:  # never on an incomplete or corrupt file
+        assert code in (0, 1)
+
+
+def test_the_sweep_takes_the_honest_shipped_transcripts(capsys, monkeypatch):
+    ferries = REPO / "transcripts" / "ferries"
+    for name in ("ferries-honest.stp", "ferries-direct.stp"):
+        _, _, _, swept = check_both(capsys, monkeypatch, ferries / name)
+        assert swept is not None, name
+
+
+RARE = st.sampled_from([False, False, False, True])  # so that many transcripts stay regular
+
+
+@settings(max_examples=80, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@given(knobs=st.builds(
+    Knobs,
+    field=st.sampled_from(sorted(FIELDS)),
+    schedule=st.sampled_from(["builtin", "builtin", "none", "foreign"]),
+    instances=st.integers(1, 30), max_vars=st.integers(1, 8), max_degree=st.integers(1, 4),
+    fewer=st.booleans(), compressed=RARE, batch=RARE, extras=st.booleans(), between_rounds=RARE, no_final=RARE,
+    ragged=RARE, appended=st.integers(0, 2), fault=st.sampled_from((None,) * len(FAULTS) + FAULTS),
+    seed=st.integers(0, 2**32)),
+    rows=st.sampled_from(["0", "1", "5", "20"]))
+def test_generated_transcripts_check_the_same_with_the_sweep_on_or_off(tmp_path, capsys, monkeypatch, knobs, rows):
+    written = write_transcript(tmp_path / "generated.stp", knobs)
+    code, _, _, swept = check_both(capsys, monkeypatch, written.path, "--rows", rows)
+    event(f"exit {code}, {'regular' if written.regular else 'irregular'}, {'swept' if swept else 'gave up'}")
+    if swept is not None:  # it gives up on incomplete and corrupt files, and on failing runs
+        assert code in (0, 1)
+    if knobs.fault == "noncanonical" or (written.damaged is not None and written.damaged < written.sealed):
+        assert swept is None  # damage inside the sealed part (appended notes are outside the digest)
+    if written.regular:  # every instance one run: taken exactly when the proof passes
+        assert (swept is not None) == (code == 0)
+
+
+# ----- 3. the sweep is not vacuous, and gives up on every fault ---------------------------
+
+
+def event_by_event(path: Path, keep: int) -> tuple[Report, list[Note]]:
+    replay = Replay(keep_instances=keep, emit_passing=False)
+    notes: list[Note] = []
+    with open_events(path) as stream:
+        replay.feed_all(stream, on_other=lambda r: notes.append(r) if isinstance(r, Note) else None)
+        completeness = stream.completeness
+    return replay.report(completeness), notes
+
+
+def swept_report(path: Path, keep: int, limits: ReadLimits | None = None) -> tuple[Report, list[Note]] | None:
+    replay = Replay(keep_instances=keep, emit_passing=False)
+    notes: list[Note] = []
+    result = sweep(path, replay, notes.append, limits)
+    if result is None:
+        return None
+    assert (result.completeness, result.digest) == ("complete", "verified")
+    return replay.report(result.completeness), notes
+
+
+def assert_same_report(path: Path, keep: int, limits: ReadLimits | None = None) -> None:
+    got = swept_report(path, keep, limits)
+    assert got is not None, "the sweep gave up on a regular honest transcript"
+    (report, notes), (expected, expected_notes) = got, event_by_event(path, keep)
+    assert report.verdict == "accept"
+    assert report.to_json() == expected.to_json()
+    assert (report.instances, report.counts, report.soundness) == (expected.instances, expected.counts,
+                                                                   expected.soundness)
+    assert notes == expected_notes
+    assert render(report, str(path), notes, len(notes), False, keep) == \
+        render(expected, str(path), expected_notes, len(expected_notes), False, keep)
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear"])
+@pytest.mark.parametrize("schedule", ["builtin", "none"])
+def test_sweep_takes_a_regular_honest_transcript_and_reports_as_the_replay(tmp_path, field, schedule):
+    knobs = Knobs(field=field, schedule=schedule, instances=12, max_vars=8, max_degree=4, extras=True, appended=2,
+                  seed=11)
+    written = write_transcript(tmp_path / "regular.stp", knobs)
+    assert written.regular
+    assert_same_report(written.path, 20)
+
+
+def test_sweep_takes_rounds_of_fewer_evaluations_and_several_layouts(tmp_path):
+    knobs = Knobs(field="koalabear", instances=20, max_degree=4, fewer=True, seed=5)
+    written = write_transcript(tmp_path / "fewer.stp", knobs)
+    assert_same_report(written.path, 20)
+
+
+def test_sweep_takes_long_rounds_packed_as_bin16_between_short_ones(tmp_path):
+    # degree up to 80 over Goldilocks: rounds of more than 255 bytes of values (msgpack bin 16)
+    knobs = Knobs(field="goldilocks", instances=12, max_vars=4, max_degree=80, fewer=True, seed=16)
+    written = write_transcript(tmp_path / "long.stp", knobs)
+    sizes = [end - start for kind, start, end in written.offsets if kind == "round"]
+    assert max(sizes) > 270 and min(sizes) < 250
+    assert_same_report(written.path, 20)
+
+
+def test_sweep_keeps_the_schedule_state_across_blocks_and_chunks(tmp_path, monkeypatch):
+    # blocks of 5 rounds and 97-byte reads: runs split across blocks and across refills
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 5)
+    written = write_transcript(tmp_path / "blocks.stp", Knobs(instances=15, max_vars=8, extras=True, seed=3))
+    assert_same_report(written.path, 20, ReadLimits(chunk_bytes=97))
+    assert_same_report(written.path, 3, ReadLimits(chunk_bytes=4096))
+
+
+def test_fifty_instances_keeping_two_give_the_same_summaries_counts_and_soundness(tmp_path):
+    knobs = Knobs(field="goldilocks", instances=50, max_vars=5, max_degree=3, seed=50)
+    written = write_transcript(tmp_path / "fifty.stp", knobs)
+    assert_same_report(written.path, 2)
+    report, _ = swept_report(written.path, 2)
+    assert len(report.instances) == 2 and report.counts["pass"] == 50
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear"])
+@pytest.mark.parametrize("fault", FAULTS)
+def test_sweep_gives_up_on_every_fault(tmp_path, capsys, monkeypatch, field, fault):
+    for seed in range(3):
+        knobs = Knobs(field=field, instances=8, max_vars=6, max_degree=3, fault=fault, seed=seed)
+        written = write_transcript(tmp_path / f"{fault}.stp", knobs)
+        assert swept_report(written.path, 20) is None, (fault, seed)
+        code, _, _, swept = check_both(capsys, monkeypatch, written.path)
+        assert swept is None and code != 0
+
+
+def test_sweep_gives_up_on_notes_between_rounds_and_on_missing_finals(tmp_path):
+    for name, knobs in [("between", Knobs(instances=6, between_rounds=True, seed=2)),
+                        ("nofinal", Knobs(instances=6, no_final=True, seed=4)),
+                        ("ragged", Knobs(instances=6, max_degree=4, ragged=True, seed=6))]:
+        written = write_transcript(tmp_path / f"{name}.stp", knobs)
+        assert not written.regular, name
+        assert swept_report(written.path, 20) is None, name
+
+
+def test_an_unfinished_transcript_is_left_to_the_replay(tmp_path):
+    written = write_transcript(tmp_path / "open.stp", Knobs(instances=3, seed=8))
+    data = written.path.read_bytes()
+    written.path.write_bytes(data[:len(data) - len(_last_object(data))])  # the end event removed
+    assert swept_report(written.path, 20) is None
+
+
+def _last_object(data: bytes) -> bytes:
+    unpacker = msgpack.Unpacker(raw=False)
+    unpacker.feed(data[len(MAGIC):])
+    return msgpack.packb(list(unpacker)[-1], use_bin_type=True)
+
+
+def test_sweep_is_off_when_the_environment_says_so(tmp_path, monkeypatch):
+    written = write_transcript(tmp_path / "off.stp", Knobs(instances=2))
+    monkeypatch.setenv("STEPPER_SWEEP", "off")
+    assert swept_report(written.path, 20) is None
+    monkeypatch.delenv("STEPPER_SWEEP")
+    assert swept_report(written.path, 20) is not None
+
+
+def test_files_below_min_bytes_are_left_to_the_replay_unless_the_environment_says_on(tmp_path, monkeypatch):
+    written = write_transcript(tmp_path / "small.stp", Knobs(instances=2))
+    size = written.path.stat().st_size
+    monkeypatch.delenv("STEPPER_SWEEP", raising=False)
+    assert sweep(written.path, Replay(keep_instances=20, emit_passing=False), min_bytes=size + 1) is None
+    assert sweep(written.path, Replay(keep_instances=20, emit_passing=False), min_bytes=size) is not None
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
+    assert sweep(written.path, Replay(keep_instances=20, emit_passing=False), min_bytes=size + 1) is not None
+
+
+@pytest.mark.parametrize("field", ["babybear^4", "p64", "bn254"])
+def test_sweep_declines_fields_it_cannot_check_by_the_block(tmp_path, field):
+    written = write_transcript(tmp_path / "other.stp", Knobs(field=field, instances=3, seed=21))
+    assert event_by_event(written.path, 20)[0].verdict == "accept"
+    assert swept_report(written.path, 20) is None
+
+
+def test_instances_alternating_two_degrees_are_checked_in_few_blocks(tmp_path, monkeypatch):
+    import stepper.verify.roundblock as roundblock
+
+    calls = []
+    real = roundblock.block_passes
+
+    def counting(*args: object) -> bool:
+        calls.append(1)
+        return real(*args)
+
+    monkeypatch.setattr(roundblock, "block_passes", counting)
+    written = write_transcript(tmp_path / "mixed.stp", Knobs(instances=100, max_vars=4, degrees=(3, 2), seed=22))
+    assert_same_report(written.path, 20)
+    assert len(calls) <= 4
+
+
+def test_a_failure_in_an_instance_not_taken_as_a_run_is_judged_by_the_same_replay(tmp_path):
+    # Compressed forms and batched claims are fed event by event inside the sweep: a failure there
+    # is the replay's own result, so the report must equal the event-by-event one, verdict included.
+    for seed in range(4):
+        knobs = Knobs(field="goldilocks", instances=8, compressed=True, batch=True, fault="eval", seed=seed)
+        written = write_transcript(tmp_path / "compressed.stp", knobs)
+        expected, expected_notes = event_by_event(written.path, 20)
+        got = swept_report(written.path, 20)
+        if got is not None:
+            report, notes = got
+            assert report.to_json() == expected.to_json() and notes == expected_notes
+            assert render(report, "f", notes, len(notes), False, 20) == \
+                render(expected, "f", expected_notes, len(expected_notes), False, 20)
+
+
+# ----- 4. hostile files ------------------------------------------------------------------
+
+
+def event_spans(data: bytes) -> list[tuple[str, int, int]]:
+    """(type, start, end) of every event of a well-formed transcript (end event included)."""
+    unpacker = msgpack.Unpacker(raw=False)
+    unpacker.feed(data[len(MAGIC):])
+    unpacker.unpack(), unpacker.unpack()
+    spans, start = [], len(MAGIC) + unpacker.tell()
+    for payload in unpacker:
+        end = len(MAGIC) + unpacker.tell()
+        spans.append((payload["type"], start, end))
+        start = end
+    return spans
+
+
+def instance_runs(spans: list[tuple[str, int, int]]) -> list[tuple[int, int]]:
+    """Byte ranges of each instance with its rounds, challenges and final."""
+    runs = []
+    for kind, start, end in spans:
+        if kind == "instance":
+            runs.append([start, end])
+        elif kind in ("round", "challenge", "final") and runs:
+            runs[-1][1] = end
+    return [(a, b) for a, b in runs]
+
+
+def mutate(rng: random.Random, data: bytes) -> tuple[bytes, bool]:
+    """One hostile change; True when the result should be resealed (a valid digest over it)."""
+    spans = event_spans(data)
+    runs = instance_runs(spans)
+    action = rng.choice(["truncate", "flip", "duplicate", "swap", "length", "junk"])
+    raw = bytearray(data)
+    if action == "truncate":
+        return bytes(raw[:rng.randrange(len(raw))]), False
+    if action == "flip":
+        raw[rng.randrange(len(raw))] ^= rng.randrange(1, 256)
+        return bytes(raw), rng.random() < 0.5
+    if action == "duplicate":
+        a, b = rng.choice(runs)
+        return bytes(raw[:b] + raw[a:b] + raw[b:]), True
+    if action == "swap":
+        (a, b), (c, d) = sorted(rng.sample(runs, 2))
+        return bytes(raw[:a] + raw[c:d] + raw[b:c] + raw[a:b] + raw[d:]), True
+    if action == "length":
+        kind, start, end = rng.choice([s for s in spans if s[0] in ("round", "challenge", "final")])
+        at = bytes(raw[start:end]).rfind(b"\xc4")  # bin8 marker: its length byte follows
+        raw[start + at + 1] = (raw[start + at + 1] + rng.choice([-8, -1, 1, 8])) % 256
+        return bytes(raw), rng.random() < 0.7
+    at = rng.choice([s[1] for s in spans])
+    junk = rng.choice([rng.randbytes(rng.randint(1, 12)), msgpack.packb({"type": "note", "text": "junk"}),
+                       msgpack.packb({"type": "round", "evals": b"\x01" * 8}), b"\xc0"])
+    return bytes(raw[:at] + junk + raw[at:]), rng.random() < 0.7
+
+
+def resealed(data: bytes) -> bytes:
+    """The events before the (last) end event, sealed again with a digest over them."""
+    spans = event_spans(data)
+    if spans[-1][0] == "end":
+        body, events = data[:spans[-1][1]], len(spans) - 1
+    else:
+        body, events = data[:spans[-1][2]], len(spans)
+    return body + seal(body, events)
+
+
+@pytest.mark.parametrize("schedule", ["builtin", "none"])
+def test_hostile_mutations_never_crash_and_check_the_same_either_way(tmp_path, capsys, monkeypatch, schedule):
+    written = write_transcript(tmp_path / "seed.stp", Knobs(field="goldilocks", schedule=schedule, instances=10,
+                                                            max_vars=5, max_degree=3, seed=9))
+    base = written.path.read_bytes()
+    rng = random.Random(f"hostile-{schedule}")
+    path = tmp_path / "hostile.stp"
+    outcomes: dict[int, int] = {}
+    for _ in range(150):
+        data, reseal = mutate(rng, base)
+        if reseal:
+            try:
+                data = resealed(data)
+            except (ValueError, KeyError, TypeError, IndexError, msgpack.UnpackException):
+                pass  # not parseable as events any more: keep it as it is
+        path.write_bytes(data)
+        code, out, err, swept = check_both(capsys, monkeypatch, path)
+        if code == 2:
+            assert out == "" and err.startswith("stepper check: ") and err.count("\n") == 1
+        if swept is not None:
+            assert code == 0
+        outcomes[code] = outcomes.get(code, 0) + 1
+    assert set(outcomes) >= {0, 1, 2, 3} if schedule == "none" else set(outcomes) >= {1, 2, 3}, outcomes
+
+
+def test_duplicated_and_swapped_runs_without_a_schedule_are_still_swept(tmp_path):
+    # with no schedule every instance stands alone: reordered, resealed runs are an honest proof
+    written = write_transcript(tmp_path / "seed.stp", Knobs(schedule="none", instances=4, seed=12))
+    data = written.path.read_bytes()
+    (a, b), (c, d) = instance_runs(event_spans(data))[:2]
+    path = tmp_path / "reordered.stp"
+    path.write_bytes(resealed(data[:a] + data[c:d] + data[b:c] + data[a:b] + data[a:b] + data[d:]))
+    assert_same_report(path, 20)
+
+
+def test_sweep_returns_none_on_event_files_directories_and_missing_files(tmp_path, capsys, monkeypatch):
+    jsonl = tmp_path / "events.jsonl"
+    jsonl.write_text('{"type": "field", "name": "babybear"}\n{"type": "instance", "name": "deck-slots-zero", '
+                     '"num_vars": 1, "degree": 1, "claim": 4}\n{"type": "round", "evals": [1, 3]}\n'
+                     '{"type": "challenge", "value": 2}\n{"type": "final", "value": 5}\n')
+    empty = tmp_path / "empty.stp"
+    empty.write_bytes(b"")
+    for path in (jsonl, tmp_path, tmp_path / "absent.stp", empty):
+        assert sweep(path, Replay(keep_instances=20, emit_passing=False)) is None
+    code, out, _, swept = check_both(capsys, monkeypatch, jsonl)
+    assert (code, swept) == (0, None) and "ACCEPTED" in out
+    for path in (tmp_path, tmp_path / "absent.stp", empty):
+        code, out, err, _ = check_both(capsys, monkeypatch, path)
+        assert code == 2 and out == "" and err.startswith("stepper check: ")
+
+
+def test_a_file_without_an_end_event_is_declined_before_it_is_read(tmp_path, monkeypatch):
+    # An unfinished transcript (a prover still writing it) would be read in full and then given up;
+    # the sweep looks at the file's last megabyte for an end event first.
+    written = write_transcript(tmp_path / "whole.stp", Knobs(instances=6))
+    data = written.path.read_bytes()
+    cut = tmp_path / "cut.stp"
+    cut.write_bytes(data[: len(data) - 80])  # the end event and some of the last final go
+    assert end_payload(0, b"")["type"] == "end"
+
+    runs: list[object] = []
+    monkeypatch.setattr(sweep_module._Sweeper, "run", lambda self: runs.append(self))  # the sweep swallows errors
+    assert sweep(cut, Replay(keep_instances=20, emit_passing=False)) is None
+    assert runs == [], "the sweep started reading a file that has no end event"
+    monkeypatch.undo()
+    assert event_by_event(cut, 20)[0].verdict == "incomplete"
+    assert swept_report(written.path, 20) is not None  # the whole file is still taken
