@@ -38,10 +38,43 @@ if TYPE_CHECKING:
     from stepper.field.field import Field
     from stepper.transcript.model import InstanceRecord, Transcript
 
-__all__ = ["Witness", "WitnessInstance", "FittedInstance", "load_witness", "witness_from_map", "fit_witness"]
+__all__ = ["Witness", "WitnessInstance", "WitnessLimits", "FittedInstance", "load_witness", "witness_from_map",
+           "fit_witness", "json_depth"]
 
-MAX_WITNESS_BYTES = 1 << 33  # 8 GiB of JSON/msgpack text is surely not a witness
 MAX_INSTANCES = 1 << 16
+
+
+@dataclass(frozen=True, slots=True)
+class WitnessLimits:
+    """Bounds checked before a witness is decoded or converted, so that a hostile file costs
+    neither unbounded memory nor a crashed interpreter. Each can be raised by the environment
+    variable named in ``ENV`` (read by :meth:`from_environment`)."""
+
+    max_bytes: int = 1 << 30  # JSON/msgpack text; big tables belong in .npy files
+    max_depth: int = 32  # nesting of lists and maps; a witness needs 6
+    max_entries: int = 1 << 32  # entries of one table, declared (.npy header) or actual
+
+    ENV = {"max_bytes": "STEPPER_WITNESS_MAX_BYTES", "max_depth": "STEPPER_WITNESS_MAX_DEPTH",
+           "max_entries": "STEPPER_WITNESS_MAX_ENTRIES"}
+
+    @classmethod
+    def from_environment(cls, environ: Mapping[str, str] | None = None) -> WitnessLimits:
+        environ = os.environ if environ is None else environ
+        values: dict[str, int] = {}
+        for name, var in cls.ENV.items():
+            text = environ.get(var)
+            if text is None:
+                continue
+            if not text.strip().isdigit() or int(text) < 1:
+                raise WitnessError(f"expected {var} to be a positive whole number, found {text[:40]!r}")
+            values[name] = int(text)
+        return cls(**values)
+
+    def refuse(self, what: str, name: str, found: object, where: Where) -> WitnessError:
+        """The error for a witness past the limit ``name`` (``what`` holds ``{limit}``), saying how to raise it."""
+        limit = getattr(self, name)
+        return WitnessError(f"expected {what.format(limit=limit)}, found {found} (a limit; raise it with "
+                            f"{self.ENV[name]}=N if the witness is genuine)", where)
 
 RawTable = Union[np.ndarray, Sequence[Any]]
 
@@ -76,20 +109,22 @@ class FittedInstance:
 
 
 # ----- loading (I/O edge) --------------------------------------------------------------
-def load_witness(path: str | os.PathLike[str]) -> Witness:
-    """Read a witness file in any accepted form; raises :class:`WitnessError`."""
+def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = None) -> Witness:
+    """Read a witness file in any accepted form; raises :class:`WitnessError`, also for a
+    file past ``limits`` (default: :meth:`WitnessLimits.from_environment`)."""
     path = Path(path)
     where = Where(file=str(path))
+    limits = limits or WitnessLimits.from_environment()
     try:
         size = path.stat().st_size
-        if size > MAX_WITNESS_BYTES:
-            raise WitnessError(f"expected a witness file of at most {MAX_WITNESS_BYTES} bytes, found {size}", where)
         with path.open("rb") as handle:
             head = handle.read(8)
     except OSError as err:
         raise WitnessError(f"expected a readable witness file, found {err.strerror or err}", where) from None
     if head.startswith(b"PK"):
-        return _load_npz(path, where)
+        return _load_npz(path, where, limits)
+    if size > limits.max_bytes:
+        raise limits.refuse("a JSON or msgpack witness of at most {limit} bytes", "max_bytes", size, where)
     if head.startswith(b"\x93NUMPY"):
         raise WitnessError(
             "expected a JSON, msgpack or .npz witness, found a single .npy array "
@@ -100,29 +135,71 @@ def load_witness(path: str | os.PathLike[str]) -> Witness:
         raise WitnessError(f"expected a readable witness file, found {err.strerror or err}", where) from None
     stripped = data.lstrip()
     if stripped[:1] in (b"{", b"["):
+        depth = json_depth(data)
+        if depth > limits.max_depth:
+            raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", f"{depth} levels", where)
         try:
             raw = json.loads(data.decode("utf-8"))
         except UnicodeDecodeError as err:
             raise WitnessError(f"expected UTF-8 JSON, found an invalid byte at byte {err.start}", where) from None
         except json.JSONDecodeError as err:
             raise WitnessError(f"expected JSON, found {err.msg}", where.but(line=err.lineno, offset=err.pos)) from None
+        except RecursionError:  # json_depth counts what the decoder nests; kept as a second guard
+            raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", "more levels than Python can decode",
+                                where) from None
     else:
-        raw = _unpack_msgpack(data, where)
-    return witness_from_map(raw, where, base_dir=path.parent)
+        raw = _unpack_msgpack(data, where, limits)
+    return witness_from_map(raw, where, base_dir=path.parent, limits=limits)
 
 
-def _unpack_msgpack(data: bytes, where: Where) -> Any:
+def json_depth(data: bytes) -> int:
+    """How deeply the lists and maps of a JSON text nest (brackets inside strings not
+    counted), found with numpy in a few passes over the bytes and no recursion."""
+    # drop escaped backslashes, then escaped quotes: every quote left opens or closes a string
+    plain = data.replace(b"\\\\", b"").replace(b'\\"', b"")
+    raw = np.frombuffer(plain, dtype=np.uint8)
+    if raw.size == 0:
+        return 0
+    quotes = np.cumsum(raw == ord('"'), dtype=np.int64)
+    outside = (quotes & 1) == 0
+    step = np.zeros(raw.size, dtype=np.int8)
+    step[(raw == ord("[")) | (raw == ord("{"))] = 1
+    step[(raw == ord("]")) | (raw == ord("}"))] = -1
+    step[~outside] = 0
+    return int(np.cumsum(step, dtype=np.int64).max(initial=0))
+
+
+def _unpack_msgpack(data: bytes, where: Where, limits: WitnessLimits) -> Any:
     import msgpack
 
     try:
-        return msgpack.unpackb(data, raw=False, strict_map_key=True, max_bin_len=len(data), max_array_len=len(data))
+        raw = msgpack.unpackb(data, raw=False, strict_map_key=True, max_bin_len=len(data),
+                              max_array_len=len(data))
     except msgpack.ExtraData as err:
         raise WitnessError(f"expected one msgpack map, found {len(err.extra)} extra bytes after it", where) from None
     except (ValueError, msgpack.UnpackException, TypeError) as err:
         raise WitnessError(f"expected a JSON or msgpack witness, found undecodable data ({err})", where) from None
+    depth = _nesting(raw, limits.max_depth)
+    if depth > limits.max_depth:
+        raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", f"more than {limits.max_depth} levels", where)
+    return raw
 
 
-def _load_npz(path: Path, where: Where) -> Witness:
+def _nesting(raw: Any, stop: int) -> int:
+    """How deeply ``raw`` nests lists and maps, walked level by level without recursion;
+    stops counting one level past ``stop``."""
+    level = [raw] if isinstance(raw, (dict, list)) else []
+    depth = 0
+    while level:
+        depth += 1
+        if depth > stop:
+            break
+        level = [c for item in level for c in (item.values() if isinstance(item, dict) else item)
+                 if isinstance(c, (dict, list))]
+    return depth
+
+
+def _load_npz(path: Path, where: Where, limits: WitnessLimits) -> Witness:
     try:
         archive = np.load(path, allow_pickle=False)
     except (OSError, ValueError, zipfile.BadZipFile) as err:
@@ -154,17 +231,42 @@ def _load_npz(path: Path, where: Where) -> Witness:
                     f"shape {combine_arr.shape}", iwhere)
             combine = _parse_combine(str(combine_arr[()]), iwhere)
             cut = len(name) + 1
-            tables = {k[cut:]: _check_numpy(archive[k], k[cut:], iwhere) for k in owner[name]}
+            tables = {k[cut:]: _check_numpy(_npz_table(archive, k, limits, iwhere), k[cut:], iwhere)
+                      for k in owner[name]}
             instances.append(WitnessInstance(name, tables, combine))
     return Witness(tuple(instances), str(path))
 
 
-def _load_npy(base_dir: Path | None, ref: str, table: str, where: Where) -> np.ndarray:
+def _npz_table(archive: Any, key: str, limits: WitnessLimits, where: Where) -> np.ndarray:
+    """One array of an .npz, its declared shape checked against the limit before it is read."""
+    try:
+        with archive.zip.open(f"{key}.npy") as member:
+            version = np.lib.format.read_magic(member)
+            read = np.lib.format.read_array_header_1_0 if version == (1, 0) else np.lib.format.read_array_header_2_0
+            shape, _, _ = read(member)
+    except (KeyError, OSError, ValueError, zipfile.BadZipFile) as err:
+        raise WitnessError(f"expected a readable array {key!r} in the .npz archive, found {err}", where) from None
+    _check_declared(shape, key, limits, where)
+    try:
+        return archive[key]
+    except (OSError, ValueError, zipfile.BadZipFile) as err:
+        raise WitnessError(f"expected a readable array {key!r} in the .npz archive, found {err}", where) from None
+
+
+def _check_declared(shape: tuple[int, ...], table: str, limits: WitnessLimits, where: Where) -> None:
+    entries = shape[0] if shape else 1
+    if entries > limits.max_entries:
+        raise limits.refuse(f"table {table!r} with at most {{limit}} entries", "max_entries",
+                            f"{entries} declared in its header", where)
+
+
+def _load_npy(base_dir: Path | None, ref: str, table: str, where: Where, limits: WitnessLimits) -> np.ndarray:
     target = Path(ref) if base_dir is None or Path(ref).is_absolute() else base_dir / ref
     try:
         arr = np.load(target, allow_pickle=False, mmap_mode="r")
     except (OSError, ValueError) as err:
         raise WitnessError(f"expected table {table!r} in the .npy file {str(target)!r}, found {err}", where) from None
+    _check_declared(arr.shape, table, limits, where)
     return _check_numpy(arr, table, where)
 
 
@@ -176,10 +278,12 @@ def _check_numpy(arr: np.ndarray, table: str, where: Where) -> np.ndarray:
 
 
 # ----- the witness map (pure) -------------------------------------------------------------
-def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None = None) -> Witness:
+def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None = None,
+                     limits: WitnessLimits | None = None) -> Witness:
     """A :class:`Witness` from the decoded JSON/msgpack map; ``base_dir`` resolves
     ``.npy`` table references (None forbids them)."""
     where = where or Where()
+    limits = limits or WitnessLimits()
     if not isinstance(raw, dict) or "instances" not in raw:
         found = f"a map with keys {', '.join(map(str, list(raw)[:6]))}" if isinstance(raw, dict) else type(raw).__name__
         raise WitnessError(f"expected a map with an \"instances\" list, found {found}", where)
@@ -208,8 +312,11 @@ def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None
             if isinstance(entries, str):
                 if base_dir is None:
                     raise WitnessError(f"expected table {tname!r} as a list of elements, found text", iwhere)
-                parsed[tname] = _load_npy(base_dir, entries, tname, iwhere)
+                parsed[tname] = _load_npy(base_dir, entries, tname, iwhere, limits)
             elif isinstance(entries, list):
+                if len(entries) > limits.max_entries:
+                    raise limits.refuse(f"table {tname!r} with at most {{limit}} entries", "max_entries",
+                                        len(entries), iwhere)
                 parsed[tname] = entries
             else:
                 raise WitnessError(
@@ -274,6 +381,10 @@ def _fit_one(field: Field, inst: InstanceRecord, winst: WitnessInstance, where: 
     n = 1 << start.num_vars
     tables: dict[str, np.ndarray] = {}
     for tname in expr.names():
+        if len(winst.tables[tname]) != n:  # before any conversion allocates
+            raise WitnessError(
+                f"expected table {tname!r} with 2^{start.num_vars} = {n} entries (num_vars {start.num_vars}), "
+                f"found {len(winst.tables[tname])}", where)
         arr = _to_field_array(field, winst.tables[tname], tname, where)
         if len(arr) != n:
             raise WitnessError(

@@ -274,3 +274,13 @@ def test_detail_shows_recovered_values_of_a_compressed_form(tmp_path, capsys):
     assert code == 0
     assert "round 1: g(1) = 11 was recovered from the claim, so the local sum check holds by construction" in out
     assert "final: the reduced claim g3(r3)" in out
+
+
+def test_a_witness_of_one_hundred_thousand_nested_brackets_exits_2_not_70(tmp_path, capsys):
+    # it used to end in "internal error (RecursionError ...)" with exit 70
+    transcript = write_stp(tmp_path / "run.stp", honest())
+    witness = tmp_path / "deep.json"
+    witness.write_text("[" * 100_000)
+    assert main(["check", str(transcript), "--witness", str(witness)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "STEPPER_WITNESS_MAX_DEPTH" in err[0] and "internal error" not in err[0]

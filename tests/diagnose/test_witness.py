@@ -165,3 +165,94 @@ def test_npz_key_outside_every_instance_is_refused(tmp_path: Path) -> None:
     np.savez(path, **{"sailing/combine": np.array("f"), "sailing/f": np.arange(4), "stray": np.arange(4)})
     with pytest.raises(WitnessError, match="'stray'"):
         load_witness(path)
+
+
+# ----- bounds checked before anything is decoded or allocated ---------------------------------------
+from stepper.diagnose.witness import WitnessLimits, json_depth  # noqa: E402
+
+
+def _nested(depth: int) -> str:
+    """A witness map whose first table entry sits inside ``depth`` levels of lists and maps in all."""
+    inner = "[" * (depth - 4) + "1" + "]" * (depth - 4)
+    return '{"instances": [{"name": "a", "combine": "t", "tables": {"t": ' + inner + "}}]}"
+
+
+def test_json_depth_counts_brackets_outside_strings_only() -> None:
+    # JSON string escaping per RFC 8259 section 7: \" and \\ inside a string are not delimiters
+    assert json_depth(b'{"a": [1, {"b": []}]}') == 4
+    assert json_depth(b'{"a": "[[[[{{{{", "b": "\\"[[", "c": "\\\\", "d": [[]]}') == 3
+    assert json_depth(b"1") == 0
+    assert json_depth(b"[" * 100_000) == 100_000
+
+
+def test_one_hundred_thousand_nested_brackets_is_a_clean_input_error(tmp_path: Path) -> None:
+    # before the limit, json.loads recursed until RecursionError and the CLI exited 70
+    path = tmp_path / "w.json"
+    path.write_text("[" * 100_000)
+    with pytest.raises(WitnessError, match=r"nested at most 32 deep, found 100000 levels.*STEPPER_WITNESS_MAX_DEPTH") as err:
+        load_witness(path)
+    assert err.value.exit_code == EXIT_INPUT
+
+
+@pytest.mark.parametrize("form", ["json", "msgpack"])
+def test_nesting_at_the_limit_loads_and_one_past_it_is_refused(tmp_path: Path, form: str) -> None:
+    limits = WitnessLimits(max_depth=8)
+    for depth, ok in ((8, True), (9, False)):
+        raw = _nested(depth)
+        assert json_depth(raw.encode()) == depth
+        path = tmp_path / f"w{depth}.{form}"
+        path.write_bytes(raw.encode() if form == "json" else msgpack.packb(json.loads(raw)))
+        if ok:
+            assert load_witness(path, limits).instances[0].name == "a"
+        else:
+            with pytest.raises(WitnessError, match="nested at most 8 deep"):
+                load_witness(path, limits)
+
+
+def test_total_bytes_at_the_limit_load_and_one_past_are_refused_before_reading(tmp_path: Path) -> None:
+    _, tables = _transcript()
+    text = json.dumps(_map(tables)).encode()
+    path = tmp_path / "w.json"
+    path.write_bytes(text)
+    assert load_witness(path, WitnessLimits(max_bytes=len(text))).instances
+    with pytest.raises(WitnessError, match=f"at most {len(text) - 1} bytes, found {len(text)}.*STEPPER_WITNESS_MAX_BYTES"):
+        load_witness(path, WitnessLimits(max_bytes=len(text) - 1))
+
+
+def test_table_entries_at_the_limit_load_and_one_past_are_refused(tmp_path: Path) -> None:
+    _, tables = _transcript()  # 4 entries per table
+    path = tmp_path / "w.json"
+    path.write_text(json.dumps(_map(tables)))
+    assert load_witness(path, WitnessLimits(max_entries=4)).instances
+    with pytest.raises(WitnessError, match="at most 3 entries, found 4.*STEPPER_WITNESS_MAX_ENTRIES"):
+        load_witness(path, WitnessLimits(max_entries=3))
+
+
+@pytest.mark.parametrize("form", ["npy", "npz"])
+def test_declared_table_size_is_refused_from_the_array_header_before_reading(tmp_path: Path, form: str) -> None:
+    big = np.zeros(8, dtype=np.uint32)
+    if form == "npy":
+        np.save(tmp_path / "t.npy", big)
+        path = tmp_path / "w.json"
+        path.write_text(json.dumps({"instances": [{"name": "a", "combine": "t", "tables": {"t": "t.npy"}}]}))
+    else:
+        path = tmp_path / "w.npz"
+        np.savez(path, **{"a/combine": np.array("t"), "a/t": big})
+    assert load_witness(path, WitnessLimits(max_entries=8)).instances
+    with pytest.raises(WitnessError, match="at most 7 entries, found 8 declared in its header"):
+        load_witness(path, WitnessLimits(max_entries=7))
+
+
+def test_a_table_of_the_wrong_length_is_refused_before_conversion() -> None:
+    transcript, tables = _transcript()
+    raw = _map(tables)
+    raw["instances"][0]["tables"]["ledger"] = ["not an element"] * 5  # conversion would fail on the text
+    with pytest.raises(WitnessError, match=r"2\^2 = 4 entries .* found 5"):
+        fit_witness(witness_from_map(raw), transcript)
+
+
+def test_limits_come_from_the_environment_and_bad_values_are_refused() -> None:
+    assert WitnessLimits.from_environment({"STEPPER_WITNESS_MAX_DEPTH": "64"}).max_depth == 64
+    assert WitnessLimits.from_environment({}) == WitnessLimits()
+    with pytest.raises(WitnessError, match="STEPPER_WITNESS_MAX_BYTES to be a positive whole number"):
+        WitnessLimits.from_environment({"STEPPER_WITNESS_MAX_BYTES": "-1"})
