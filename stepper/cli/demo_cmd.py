@@ -1,7 +1,8 @@
 """`stepper demo`: write the Brackwater Ferries example proofs and open a failing one.
 
 Writes every :data:`stepper.provers.catalogue.EXAMPLES` transcript and witness
-into a fresh folder (``--dir`` to choose it), says where, and opens the
+into a fresh folder (``--dir`` to choose it; files there that differ from the demo's
+are never replaced without ``--force``), says where, and opens the
 terminal app on a failing proof with its witness; ``--no-view`` (or input or
 output that is not a terminal) prints the check of an honest and of the failing
 proof instead. :func:`write_example` is also what transcripts/regenerate.py uses.
@@ -27,6 +28,8 @@ DESCRIPTION = (
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--dir", metavar="DIR", help="write the examples here (created; default: a new temp folder)")
     parser.add_argument("--no-view", action="store_true", help="print the checks instead of opening the app")
+    parser.add_argument("--force", action="store_true",
+                        help="replace files in DIR that differ from what the demo writes (notes added to them are lost)")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -41,11 +44,9 @@ def run(args: argparse.Namespace) -> int:
             os.makedirs(directory, exist_ok=True)
         except OSError as err:
             raise InputError(f"expected to create the folder {directory}, but {err.strerror.lower()}") from None
-        _refuse_to_overwrite(directory, EXAMPLES)
     else:
         directory = tempfile.mkdtemp(prefix="stepper-demo-")
-    for example in EXAMPLES:
-        write_example(example, directory, reproducible=False)
+    _write_examples(directory, EXAMPLES, force=args.force)
     print(f"stepper demo: wrote {len(EXAMPLES)} Brackwater Ferries proofs (sailing isle-of-quill-0740) to {directory}")
     for example in EXAMPLES:
         print(f"  {example.stem}.stp  {example.shows}")
@@ -69,17 +70,41 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _refuse_to_overwrite(directory: str, examples: Any) -> None:
-    """A folder that holds only demo outputs (an earlier demo run) is rewritten;
-    in any other folder an existing file with a demo output's name is refused."""
-    from stepper.errors import UsageError
+def _write_examples(directory: str, examples: Any, *, force: bool) -> None:
+    """Write every example into a scratch folder inside ``directory``, then move each file into
+    place. A file already there that differs from the demo's (notes added to it, the user's own
+    file of that name) is refused before anything is moved, unless ``force``; identical ones are
+    left alone. Each move is a rename, so a file is never half-written."""
+    import filecmp
+    import shutil
+    import tempfile
 
-    ours = {f"{e.stem}{suffix}" for e in examples for suffix in (".stp", ".witness.json")}
-    present = set(os.listdir(directory))
-    clashes = sorted(present & ours)
-    if clashes and not present <= ours:
-        raise UsageError(f"expected --dir {directory} to be empty or an earlier demo folder, found other files "
-                         f"and {clashes[0]}, which the demo would overwrite")
+    from stepper.errors import InputError
+    from stepper.transcript.store.output import OutputExists
+
+    try:
+        scratch = tempfile.mkdtemp(prefix=".stepper-demo-", dir=directory)
+    except OSError as err:
+        raise InputError(f"expected to write into the folder {directory}, but {(err.strerror or str(err)).lower()}") \
+            from None
+    try:
+        made = [name for example in examples
+                for name in map(os.path.basename, write_example(example, scratch, reproducible=True))]
+        differing = [name for name in made if os.path.lexists(os.path.join(directory, name))
+                     and not (os.path.isfile(os.path.join(directory, name))
+                              and filecmp.cmp(os.path.join(scratch, name), os.path.join(directory, name),
+                                              shallow=False))]
+        if differing and not force:
+            more = f" (and {len(differing) - 1} more)" if len(differing) > 1 else ""
+            raise OutputExists(f"expected --dir {directory} to hold no file the demo would change, found "
+                               f"{os.path.join(directory, differing[0])}{more} differs from the demo's (notes added?); "
+                               "nothing was written (add --force to replace them, or choose another --dir)")
+        for name in made:
+            os.replace(os.path.join(scratch, name), os.path.join(directory, name))
+    except OSError as err:
+        raise InputError(f"could not write the demo into {directory}: {(err.strerror or str(err)).lower()}") from None
+    finally:
+        shutil.rmtree(scratch, ignore_errors=True)
 
 
 def _on_a_terminal() -> bool:

@@ -2,7 +2,9 @@
 
 Thin edge over :func:`stepper.transcript.store.append_note`: the note is appended after
 the recorded part, whose digest therefore still verifies; ``info``, ``check``,
-``report`` and the app show it. ``--instance`` takes a name or a 0-based
+``report`` and the app show it. While another process records into the file (it
+holds the file's lock) the note waits in ``FILE.pending-notes`` and is folded in
+when the recording ends. ``--instance`` takes a name or a 0-based
 index; with one instance it may be left out, and with neither flag the note
 is about the whole proof.
 """
@@ -42,11 +44,16 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError(f"expected --round to be 0 (the claim) or a round number 1, 2, ..., found {args.round}")
     transcript = load(args.file)
     instance = _instance_index(transcript, args.instance, args.round)
-    append_note(args.file, Note(text, instance, args.round))
-    after = load(args.file)
+    kept = append_note(args.file, Note(text, instance, args.round))
     place = "the proof" if instance is None else f"instance '{transcript.instances[instance].name}'"
     if args.round is not None:
         place += f", round {args.round}"
+    if kept is not None:
+        print(f"{args.file}: note on {place} kept in {kept}: another process is writing the file (it holds its "
+              "lock); the note shows in info, check, export, report and the app, and is folded into the file "
+              "when the recording ends")
+        return 0
+    after = load(args.file)
     print(f"{args.file}: note added to {place}; recorded digest {after.digest}")
     return 0
 

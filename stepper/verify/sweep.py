@@ -41,6 +41,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator
 import msgpack
 
 from stepper.errors import Where
+from stepper.transcript.store.pending import pending_path
 from stepper.transcript.events import Sequencer
 from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
@@ -120,6 +121,8 @@ def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note]
     try:
         if setting not in ("1", "on", "yes", "true") and os.stat(path).st_size < min_bytes:
             return None
+        if os.path.exists(pending_path(path)):
+            return None  # notes wait beside the file (a recording holds it): the reader shows them in order
         with open(path, "rb") as handle:
             if not _sealed(handle):
                 return None  # incomplete (still being written?): the sweep would read it all, then give up

@@ -186,3 +186,28 @@ def test_demo_off_a_terminal_prints_the_checks_instead_of_starting_the_app(tmp_p
     out = capsys.readouterr().out
     assert "not on a terminal" in out
     assert "ACCEPTED" in out and "REJECTED" in out
+
+
+def test_demo_run_again_keeps_a_note_the_user_added_and_names_the_file(tmp_path, capsys):
+    # it used to rewrite the whole folder of an earlier demo, silently dropping the note
+    folder = tmp_path / "d"
+    assert main(["demo", "--dir", str(folder), "--no-view"]) == 0
+    honest = folder / "ferries-honest.stp"
+    assert main(["note", str(honest), "checked with the harbour master"]) == 0
+    noted = honest.read_bytes()
+    capsys.readouterr()
+    assert main(["demo", "--dir", str(folder), "--no-view"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "ferries-honest.stp" in err and "--force" in err
+    assert honest.read_bytes() == noted
+    assert main(["demo", "--dir", str(folder), "--no-view", "--force"]) == 0
+    assert honest.read_bytes() != noted  # replaced only when asked
+
+
+def test_demo_run_again_on_its_own_unchanged_folder_succeeds_and_leaves_other_files(tmp_path):
+    folder = tmp_path / "d"
+    assert main(["demo", "--dir", str(folder), "--no-view"]) == 0
+    (folder / "ledger.csv").write_text("booking ledger\n")
+    before = {p.name: p.read_bytes() for p in folder.iterdir()}
+    assert main(["demo", "--dir", str(folder), "--no-view"]) == 0
+    assert {p.name: p.read_bytes() for p in folder.iterdir()} == before  # the demo's bytes do not depend on the clock

@@ -22,6 +22,7 @@ import msgpack
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import MAX_TEXT
 from stepper.transcript.store.reader import EventStream, ReadLimits
+from stepper.transcript.store.pending import add_pending, lock_within, take_pending, unlock
 from stepper.transcript.store.writer import MAGIC, TranscriptWriter, header_bytes, oserror
 from stepper.transcript.model import Note, Transcript, fold_events
 
@@ -57,17 +58,49 @@ def load(path: str | os.PathLike[str], *, best_effort: bool = False,
             raise err.at(file=stream.path) from None
 
 
-def append_note(path: str | os.PathLike[str], note: Note) -> None:
+def append_note(path: str | os.PathLike[str], note: Note, *, wait: float = 2.0) -> str | None:
     """Add a note after the end event of a transcript file. The recorded part
-    (and so its digest) is untouched; readers report appended notes apart."""
+    (and so its digest) is untouched; readers report appended notes apart.
+
+    The note is written into the file only under the file's lock. While a writer
+    holds it (a recording in progress) the note goes to the pending-notes file
+    beside it instead, shown by readers and folded in when the recording ends:
+    returns that file's name then, None when the note went into the file."""
     where = Where(file=str(path))
+    try:
+        handle = os.fdopen(os.open(path, os.O_WRONLY | os.O_APPEND), "ab")
+    except OSError as err:
+        raise oserror(err, str(path), "open the transcript to add a note") from None
+    with handle:
+        if not lock_within(handle, wait):  # a writer holds it: keep the note beside the file
+            payload = _note_payload(path, note, where, recording=True)
+            return add_pending(path, payload)
+        try:
+            payload = _note_payload(path, note, where, recording=False)
+            try:
+                with take_pending(path) as waiting:  # notes left by a writer that was killed
+                    for earlier in waiting:
+                        handle.write(msgpack.packb(earlier, use_bin_type=True))
+                handle.write(msgpack.packb(payload, use_bin_type=True))
+                handle.flush()
+                os.fsync(handle.fileno())
+            except OSError as err:
+                raise oserror(err, str(path), "append to the transcript") from None
+        finally:
+            unlock(handle)
+    return None
+
+
+def _note_payload(path: str | os.PathLike[str], note: Note, where: Where, *, recording: bool) -> dict[str, Any]:
+    """The note event for ``note``, checked against the file as it stands (a recording's
+    instances so far)."""
     with open_events(path) as stream:
         if stream.kind != "transcript":
             raise TranscriptError("expected a stepper transcript to annotate, found a JSON-lines event file "
                                   "(convert it first with `stepper import`)", where)
         for _ in stream:
             pass
-        if stream.truncated_at is not None:
+        if stream.truncated_at is not None and not recording:
             raise TranscriptError("expected a file that ends after a whole event, found a partial event; "
                                   "refusing to append after it", where.but(offset=stream.truncated_at))
         instances = list(stream.instances)
@@ -84,11 +117,4 @@ def append_note(path: str | os.PathLike[str], note: Note) -> None:
                                   f"found {note.round}", where.but(instance=instances[note.instance].name))
     if note.round is not None:
         payload["round"] = note.round
-    data = msgpack.packb(payload, use_bin_type=True)
-    try:
-        with open(path, "ab") as handle:
-            handle.write(data)
-            handle.flush()
-            os.fsync(handle.fileno())
-    except OSError as err:
-        raise oserror(err, str(path), "append to the transcript") from None
+    return payload

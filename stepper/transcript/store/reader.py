@@ -36,6 +36,7 @@ import msgpack
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import MAX_SIZES, MAX_TEXT, Sequencer, plain_copy
 from stepper.transcript.jsonl import LineSplitter
+from stepper.transcript.store.pending import read_pending
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC, oserror
 from stepper.transcript.model import FORMAT_VERSION, Completeness, DigestStatus, Event, Header, InstanceStart, Note
 
@@ -131,7 +132,8 @@ class EventStream:
     """The records of a transcript or event file, one at a time (iterate once).
 
     ``header`` is known on opening; ``completeness``, ``digest``, ``appended``
-    (notes added after the end event) and ``truncated_at`` (byte offset, or line
+    (notes added after the end event), ``pending`` (notes made while a writer held
+    the file, read from the pending-notes file beside it, after the file's events) and ``truncated_at`` (byte offset, or line
     number for an event file, of a cut-off last event that was dropped) are
     final once the stream is exhausted."""
 
@@ -146,6 +148,7 @@ class EventStream:
         self.completeness: Completeness = "incomplete"
         self.digest: DigestStatus = "missing"
         self.appended = 0
+        self.pending = 0  # of the notes read, those from the pending-notes file beside it
         self.truncated_at: int | None = None
         self._seq = Sequencer(self.where)
         try:
@@ -291,6 +294,9 @@ class EventStream:
             self.truncated_at = self._offset_of_event(seq.count)
         if seq.stopped_at is None:
             self.completeness = "incomplete"
+        for payload in read_pending(self.path):  # notes made while a writer held the file
+            self.pending += 1
+            yield self._appended(payload) if seq.stopped_at is not None else seq.feed(payload)
 
     def _translate(self, err: Exception) -> Exception:
         """The error to raise for one escaping the event loop: located, and msgpack's

@@ -9,7 +9,16 @@ leaves a readable prefix (no end event: "incomplete"). ``finish`` appends the
 
 Durability: each event goes to the operating system in one ``write`` as it is
 made, so a prover that crashes or is killed loses nothing written before. The
-writer does not ``fsync``: a machine that loses power may lose the last events.
+writer does not ``fsync`` each event: a machine that loses power may lose the last
+events.
+
+Two ways to write. *Live* (the default; recording): the file is written in place so
+that others can follow it, and the writer holds an exclusive advisory lock on it
+until it closes; notes made meanwhile wait beside it and are folded in when it closes
+(:mod:`stepper.transcript.store.pending`). *Atomic* (``atomic=True``; import, prove,
+demo): the events go to a temporary file beside the destination, renamed into place
+when the writer closes (:mod:`stepper.transcript.store.output`). Either way an existing
+file is refused unless ``replace`` is true.
 """
 
 from __future__ import annotations
@@ -26,6 +35,8 @@ from stepper import __version__
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import Sequencer, to_payload
 from stepper.transcript.model import FORMAT_VERSION, Event, Header
+from stepper.transcript.store.output import OutputExists, publish, refuse_existing, temp_beside, write_failed
+from stepper.transcript.store.pending import take_pending, try_lock
 
 __all__ = ["MAGIC", "END_MAX_BYTES", "TranscriptWriter", "header_bytes", "end_payload", "oserror"]
 
@@ -50,12 +61,16 @@ def header_bytes(metadata: Mapping[str, Any], tool_version: str = __version__) -
 
 class TranscriptWriter:
     """Writes a transcript event by event; ``finish`` (or a clean ``with`` exit)
-    appends the end event. An exception inside the ``with`` leaves the file
-    without an end event: readable, and read back as "incomplete"."""
+    appends the end event. An exception inside the ``with`` leaves a live file
+    without an end event (readable, and read back as "incomplete") and an atomic
+    one unwritten."""
 
     def __init__(self, path: str | os.PathLike[str], *, metadata: Mapping[str, Any] | None = None,
-                 tool_version: str = __version__) -> None:
+                 tool_version: str = __version__, atomic: bool = False, replace: bool = True) -> None:
         self.path = str(path)
+        self.atomic = atomic
+        self._replace = replace
+        self._temp: str | None = None
         meta = dict(metadata or {})
         meta.setdefault("created", _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"))
         self.header = Header(FORMAT_VERSION, tool_version, meta)
@@ -69,11 +84,36 @@ class TranscriptWriter:
         except (TypeError, ValueError, OverflowError) as err:
             raise TranscriptError(f"expected metadata of strings, numbers (integers within -2^63 .. 2^64 - 1), "
                                   f"lists and maps, found {err}", Where(file=self.path)) from None
+        self._file: BinaryIO = self._open_temp() if atomic else self._open_live()
+        self._emit(head)
+
+    def _open_temp(self) -> BinaryIO:
+        refuse_existing(self.path, self._replace)
         try:
-            self._file: BinaryIO = open(self.path, "wb", buffering=0)
+            handle, self._temp = temp_beside(self.path)
         except OSError as err:
             raise oserror(err, self.path, "create the transcript") from None
-        self._emit(head)
+        return handle  # type: ignore[return-value]
+
+    def _open_live(self) -> BinaryIO:
+        flags = os.O_WRONLY | os.O_CREAT | (0 if self._replace else os.O_EXCL)
+        try:
+            handle = os.fdopen(os.open(self.path, flags, 0o666), "wb", buffering=0)
+        except FileExistsError:
+            refuse_existing(self.path, False)
+            raise
+        except OSError as err:
+            raise oserror(err, self.path, "create the transcript") from None
+        if not try_lock(handle):  # truncating now would destroy another writer's recording
+            handle.close()
+            raise TranscriptError("expected a file no other process is writing, found another writer holds its "
+                                  "lock (a recording in progress?); it was left as it was", Where(file=self.path))
+        try:
+            handle.truncate(0)
+        except OSError as err:
+            handle.close()
+            raise oserror(err, self.path, "create the transcript") from None
+        return handle
 
     @property
     def events(self) -> int:
@@ -141,9 +181,53 @@ class TranscriptWriter:
         self.close()
 
     def close(self) -> None:
-        """Close without an end event (the file then reads as incomplete)."""
+        """Close; without a ``finish`` first the file has no end event and reads as incomplete.
+        Live: notes made while the file was being written are folded in, then the lock is
+        released. Atomic: the file is renamed into place."""
+        self._finished = True
+        if self._file.closed:
+            return
+        if self._temp is None:
+            try:
+                self._fold_pending()
+            finally:
+                self._file.close()  # releases the lock
+            return
+        temp, self._temp = self._temp, None
+        try:
+            os.fsync(self._file.fileno())
+            self._file.close()
+            publish(temp, self.path, self._replace)
+        except OutputExists:
+            raise
+        except OSError as err:
+            self._file.close()
+            raise write_failed(err, self.path, "the transcript") from None
+
+    def discard(self) -> None:
+        """Atomic: close and remove the unfinished file (the destination is left as it was).
+        Live: the same as :meth:`close` (what was recorded stays)."""
+        if self._temp is None:
+            self.close()
+            return
         self._finished = True
         self._file.close()
+        temp, self._temp = self._temp, None
+        try:
+            os.unlink(temp)
+        except OSError:
+            pass
+
+    def _fold_pending(self) -> None:
+        """Append the notes made while this writer held the file (it still holds the lock)."""
+        try:
+            with take_pending(self.path) as notes:
+                for payload in notes:
+                    self._file.write(self._packer.pack(payload))
+                if notes:
+                    os.fsync(self._file.fileno())
+        except (OSError, TranscriptError):
+            pass  # the pending-notes file stays; readers still show its notes, and the next note folds them
 
     def __enter__(self) -> TranscriptWriter:
         return self
@@ -151,6 +235,8 @@ class TranscriptWriter:
     def __exit__(self, kind: type[BaseException] | None, err: BaseException | None, tb: TracebackType | None) -> None:
         if kind is None:
             self.finish()
+        elif self.atomic:
+            self.discard()  # an exception means no output: the destination stays as it was
         else:
             self.close()
 
