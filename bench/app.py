@@ -105,8 +105,8 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     with tempfile.TemporaryDirectory() as tmp:
         t = time.perf_counter()
-        small = write(Path(tmp) / "small.stp", 3, 4)
-        large = write(Path(tmp) / "large.stp", args.instances, args.rounds)
+        small = write(Path(tmp) / "small.sumtr", 3, 4)
+        large = write(Path(tmp) / "large.sumtr", args.instances, args.rounds)
         print(f"wrote the transcripts in {time.perf_counter() - t:.1f} s "
               f"({large.stat().st_size / 1e6:.1f} MB for {args.instances * args.rounds} rounds)")
         results = {"small": asyncio.run(measure(small, args.steps)),

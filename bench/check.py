@@ -182,7 +182,7 @@ def decode_process(path: Path) -> float:
 def main_bench() -> None:
     args = parse_args()
     with tempfile.TemporaryDirectory() as tmp:
-        small, large = Path(tmp) / "small.stp", Path(tmp) / "large.stp"
+        small, large = Path(tmp) / "small.sumtr", Path(tmp) / "large.sumtr"
         t0 = time.perf_counter()
         write_transcript(large, args.instances, args.rounds)
         write_transcript(small, max(1, args.instances // 10), args.rounds)

@@ -72,7 +72,7 @@ def main(argv: list[str] | None = None) -> int:
     per_instance = 2 * args.rounds + 2  # instance, rounds, challenges, final
     head = 1 + args.instances * per_instance
     with tempfile.TemporaryDirectory() as tmp:
-        path = Path(tmp) / "isle-of-quill-0740.stp"
+        path = Path(tmp) / "isle-of-quill-0740.sumtr"
         writer = TranscriptWriter(path, metadata={"sailing": "isle-of-quill-0740"})
         for payload in proof[:head]:
             writer.write_payload(payload)

@@ -37,8 +37,8 @@ def _run(argv: list[str]) -> str:
 def snapshot(dest: Path) -> int:
     """Write one output file per (command, input) into ``dest``; returns how many."""
     dest.mkdir(parents=True, exist_ok=False)
-    files = sorted(p for p in (ROOT / "transcripts").rglob("*") if p.suffix in {".stp", ".stpr"})
-    honest = ROOT / "transcripts" / "ferries" / "ferries-honest.stp"
+    files = sorted(p for p in (ROOT / "transcripts").rglob("*") if p.suffix in {".sumtr"})
+    honest = ROOT / "transcripts" / "ferries" / "ferries-honest.sumtr"
     count = 0
     with tempfile.TemporaryDirectory() as scratch:
         for path in files:

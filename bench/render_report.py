@@ -91,7 +91,7 @@ def main() -> int:
 
     out = Path(args.out or tempfile.mkdtemp(prefix="stepper-render-"))
     out.mkdir(parents=True, exist_ok=True)
-    source = Path(args.transcript) if args.transcript else demo_transcript(out / "isle-of-quill-0740.stp")
+    source = Path(args.transcript) if args.transcript else demo_transcript(out / "isle-of-quill-0740.sumtr")
     transcript = load(source)
     report = replay_transcript(transcript)
     html_path = out / "report.html"

@@ -163,7 +163,7 @@ def main() -> None:
     args = parser.parse_args()
 
     with tempfile.TemporaryDirectory(prefix="stepper-bench-") as scratch:
-        path = os.path.join(scratch, "rounds.stp")
+        path = os.path.join(scratch, "rounds.sumtr")
         events = build_transcript(path, args.rounds)
         size = os.path.getsize(path)
         bare, ours = [], []
@@ -185,7 +185,7 @@ def main() -> None:
             zero_check(DropSink(), args.log_size)
             plain.append(time.perf_counter() - start)
             start = time.perf_counter()
-            timed = TimedRecorder(os.path.join(scratch, f"zero-{k}.stp"))
+            timed = TimedRecorder(os.path.join(scratch, f"zero-{k}.sumtr"))
             zero_check(timed, args.log_size)
             timed.finish()
             recorded.append(time.perf_counter() - start)

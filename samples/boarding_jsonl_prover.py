@@ -8,9 +8,9 @@ plain Python integers over BabyBear and nothing from stepper: it appends one
 JSON object per event to the file named by $STEPPER_EVENTS, as a prover in
 any language would.
 
-    stepper record -o boarding.stp -- python samples/boarding_jsonl_prover.py
-    stepper record -o boarding-bug.stp -- python samples/boarding_jsonl_prover.py --bug
-    stepper check boarding-bug.stp
+    stepper record -o boarding.sumtr -- python samples/boarding_jsonl_prover.py
+    stepper record -o boarding-bug.sumtr -- python samples/boarding_jsonl_prover.py --bug
+    stepper check boarding-bug.sumtr
 
 With --bug the prover shifts value between g(0) and g(1) of round 2: the sum
 still checks in round 2 and the lie surfaces in round 3. Its challenges come

@@ -7,10 +7,10 @@ well formed (zero-check). The reference prover sends event records to any
 object with ``write(record)``; `RecorderSink` below hands each one to the
 matching `stepper.transcript.recorder.Recorder` call.
 
-    python samples/prove_sailing.py sailing.stp                 # honest
-    python samples/prove_sailing.py sailing.stp stale-challenge@3   # with a prover bug
-    stepper check sailing.stp
-    stepper buckets sailing.stp
+    python samples/prove_sailing.py sailing.sumtr                 # honest
+    python samples/prove_sailing.py sailing.sumtr stale-challenge@3   # with a prover bug
+    stepper check sailing.sumtr
+    stepper buckets sailing.sumtr
 """
 
 from __future__ import annotations
@@ -75,7 +75,7 @@ if __name__ == "__main__":
         print(__doc__)
         sys.exit(0)
     try:
-        main(sys.argv[1] if len(sys.argv) > 1 else "sailing.stp", sys.argv[2] if len(sys.argv) > 2 else None)
+        main(sys.argv[1] if len(sys.argv) > 1 else "sailing.sumtr", sys.argv[2] if len(sys.argv) > 2 else None)
     except StepperError as err:  # a bad fault name or output path: one line, exit 2
         print(f"prove_sailing: {err}", file=sys.stderr)
         sys.exit(2)

@@ -12,8 +12,8 @@ prover calls `channel.absorb_poly(evals)` for each round polynomial and
 `stepper.transcript.recorder.tap` wraps those two methods on the channel object, so the
 prover runs unchanged while every round and challenge lands in the transcript:
 
-    python samples/record_channel_adapter.py deck.stp
-    stepper check deck.stp
+    python samples/record_channel_adapter.py deck.sumtr
+    stepper check deck.sumtr
 
 The channel's challenges are not stepper's built-in schedule, so `check`
 verifies sums, degrees and the final value but does not re-derive the
@@ -96,4 +96,4 @@ if __name__ == "__main__":
     if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
         print(__doc__)
         sys.exit(0)
-    main(sys.argv[1] if len(sys.argv) > 1 else "deck-slots.stp")
+    main(sys.argv[1] if len(sys.argv) > 1 else "deck-slots.sumtr")

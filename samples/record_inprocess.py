@@ -11,9 +11,9 @@ a permutation). This script proves that sum with a degree-2 sumcheck over
 Goldilocks, binding the low index bit first, draws every challenge from
 stepper's built-in Fiat-Shamir schedule, and records each message as it is sent:
 
-    python samples/record_inprocess.py quill.stp
-    stepper info quill.stp
-    stepper check quill.stp
+    python samples/record_inprocess.py quill.sumtr
+    stepper info quill.sumtr
+    stepper check quill.sumtr
 
 A passing check is evidence about this one run, not a soundness proof.
 """
@@ -79,4 +79,4 @@ if __name__ == "__main__":
     if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
         print(__doc__)
         sys.exit(0)
-    prove(sys.argv[1] if len(sys.argv) > 1 else "isle-of-quill-0740.stp")
+    prove(sys.argv[1] if len(sys.argv) > 1 else "isle-of-quill-0740.sumtr")

@@ -4,8 +4,8 @@ It re-derives challenges exactly like stepper's built-in schedule
 (``stepper-sha256/1``) except that an instance's claimed sum is absorbed as zero,
 the way a prover built with ``--fault unbound-claim`` draws them:
 
-    stepper prove --kind generic -o weak.stp --fault unbound-claim
-    stepper check weak.stp --challenges samples/weak_schedule.py:derive
+    stepper prove --kind generic -o weak.sumtr --fault unbound-claim
+    stepper check weak.sumtr --challenges samples/weak_schedule.py:derive
 
 ``check`` then accepts every challenge (they match this schedule) and its
 binding probe reports that the claim does not influence the challenges: a

@@ -47,12 +47,12 @@ def regenerate_examples(out: str) -> list[str]:
     names = []
     lines = ["# Brackwater Ferries example proofs", "",
              "Written by `python transcripts/regenerate.py` (do not edit by hand). Sailing isle-of-quill-0740;",
-             "check one with `stepper check FILE.stp --witness FILE.witness.json`.", "",
+             "check one with `stepper check FILE.sumtr --witness FILE.witness.json`.", "",
              "| transcript | what it shows |", "|---|---|"]
     for example in EXAMPLES:
         path, witness = write_example(example, out, reproducible=True)
         names += [os.path.basename(path), os.path.basename(witness)]
-        lines.append(f"| `{example.stem}.stp` | {example.shows} |")
+        lines.append(f"| `{example.stem}.sumtr` | {example.shows} |")
     with open(os.path.join(out, "INDEX.md"), "w", encoding="utf-8") as index:
         index.write("\n".join(lines) + "\n")
     names.append("INDEX.md")
@@ -73,14 +73,14 @@ def regenerate_samples(out: str) -> list[str]:
 
     os.makedirs(out, exist_ok=True)
     sailing = _sample("prove_sailing")
-    sailing.main(os.path.join(out, "sailing-recorder.stp"), created=FIXED_CREATED)
-    sailing.main(os.path.join(out, "sailing-recorder-bug.stp"), "stale-challenge@3", created=FIXED_CREATED)
+    sailing.main(os.path.join(out, "sailing-recorder.sumtr"), created=FIXED_CREATED)
+    sailing.main(os.path.join(out, "sailing-recorder-bug.sumtr"), "stale-challenge@3", created=FIXED_CREATED)
 
     adapter = _sample("record_channel_adapter")
     prover = adapter.DeckProver([1, 0, 1, 1, 0, 0, 1, 0], z=[11, 22, 33])
     channel = adapter.DeckChannel(b"brackwater-ferries/deck")
     meta = {"sailing": "isle-of-quill-0740", "created": FIXED_CREATED}
-    with Recorder(os.path.join(out, "deck-channel-adapter.stp"), field="goldilocks", metadata=meta) as rec:
+    with Recorder(os.path.join(out, "deck-channel-adapter.sumtr"), field="goldilocks", metadata=meta) as rec:
         rec.instance("deck-slots-zero", adapter.NUM_VARS, 3, prover.claim())
         with tap(channel, rec, send="absorb_poly", draw="squeeze"):
             final = prover.run(channel)
@@ -93,7 +93,7 @@ def regenerate_samples(out: str) -> list[str]:
             boarding.main(events, bool(flags))
             meta = {"command": ["python", "samples/boarding_jsonl_prover.py", *flags],
                     "recorded_by": "stepper record", "created": FIXED_CREATED}
-            with TranscriptWriter(os.path.join(out, f"{stem}.stp"), metadata=meta) as writer, \
+            with TranscriptWriter(os.path.join(out, f"{stem}.sumtr"), metadata=meta) as writer, \
                     open(events, encoding="utf-8") as lines:
                 for line in lines:
                     writer.write_payload(json.loads(line))

@@ -22,7 +22,7 @@ DESCRIPTION = (
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", metavar="FILE", help="transcript (.stp) or JSON-lines event file")
+    parser.add_argument("file", metavar="FILE", help="transcript (.sumtr) or JSON-lines event file")
     parser.add_argument("--json", action="store_true", help="print the rows as one JSON object")
 
 

@@ -37,7 +37,7 @@ TABLE_ROWS = 20
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", metavar="FILE", help="transcript (.stp, msgpack) or JSON-lines event file")
+    parser.add_argument("file", metavar="FILE", help="transcript (.sumtr, msgpack) or JSON-lines event file")
     parser.add_argument("--json", action="store_true", help="print one JSON object (the check contract)")
     parser.add_argument("--witness", metavar="W", help="witness file (JSON or msgpack): find the root cause")
     parser.add_argument(

@@ -49,8 +49,8 @@ def run(args: argparse.Namespace) -> int:
     _write_examples(directory, EXAMPLES, force=args.force)
     print(f"stepper demo: wrote {len(EXAMPLES)} Brackwater Ferries proofs (sailing isle-of-quill-0740) to {directory}")
     for example in EXAMPLES:
-        print(f"  {example.stem}.stp  {example.shows}")
-    failing = os.path.join(directory, f"{DEMO_FAILING}.stp")
+        print(f"  {example.stem}.sumtr  {example.shows}")
+    failing = os.path.join(directory, f"{DEMO_FAILING}.sumtr")
     witness = os.path.join(directory, f"{DEMO_FAILING}.witness.json")
     from stepper.cli.main import main
 
@@ -60,7 +60,7 @@ def run(args: argparse.Namespace) -> int:
             return main(["view", failing, "--witness", witness])
         print("not on a terminal (input or output redirected): printing the checks instead of opening the app")
 
-    honest = os.path.join(directory, f"{DEMO_HONEST}.stp")
+    honest = os.path.join(directory, f"{DEMO_HONEST}.sumtr")
     print(f"\n$ stepper check {honest}")
     main(["check", honest])
     print(f"\n$ stepper check {failing} --witness {witness}")
@@ -121,7 +121,7 @@ def _app_available() -> bool:
 
 
 def write_example(example: Any, directory: str, *, reproducible: bool) -> tuple[str, str]:
-    """Write ``<stem>.stp`` and ``<stem>.witness.json`` into ``directory``; with
+    """Write ``<stem>.sumtr`` and ``<stem>.witness.json`` into ``directory``; with
     ``reproducible`` the header's `created` is fixed so the bytes depend only on the example."""
     from stepper.cli.prove_cmd import metadata, write_witness
     from stepper.provers.reference import parse_field, prove
@@ -132,7 +132,7 @@ def write_example(example: Any, directory: str, *, reproducible: bool) -> tuple[
     meta["shows"] = example.shows
     if reproducible:
         meta["created"] = "fixed for reproducible output (transcripts/regenerate.py)"  # no clock in the bytes
-    path = os.path.join(directory, f"{example.stem}.stp")
+    path = os.path.join(directory, f"{example.stem}.sumtr")
     witness = os.path.join(directory, f"{example.stem}.witness.json")
     with TranscriptWriter(path, metadata=meta) as writer:
         proof = prove(example.spec, field, writer)

@@ -34,7 +34,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
     parser.add_argument("--kind", choices=KINDS, default="perm-grouped", help="which prover (default perm-grouped)")
     parser.add_argument("-o", "--output", metavar="OUT", required=True,
-                        help="transcript to write (.stp); a name ending in .jsonl gets the JSON-lines event stream")
+                        help="transcript to write (.sumtr); a name ending in .jsonl gets the JSON-lines event stream")
     parser.add_argument("--witness-out", metavar="W", help="also write the witness (JSON) for check --witness")
     parser.add_argument("--num-vars", type=int, default=8, metavar="MU", help="variables: tables of 2^MU (default 8)")
     parser.add_argument("--field", default="babybear", metavar="F",

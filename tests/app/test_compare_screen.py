@@ -21,8 +21,8 @@ GROUPED = "boarding-permutation-grouped"
 
 
 def pair_of_files(tmp_path: Path, tamper=None) -> tuple[Path, Path]:
-    a = write_transcript(tmp_path / "monday.stp", brackwater_payloads(mu=3))
-    b = write_transcript(tmp_path / "tuesday.stp", brackwater_payloads(mu=3, tamper=tamper))
+    a = write_transcript(tmp_path / "monday.sumtr", brackwater_payloads(mu=3))
+    b = write_transcript(tmp_path / "tuesday.sumtr", brackwater_payloads(mu=3, tamper=tamper))
     return a, b
 
 
@@ -80,7 +80,7 @@ async def test_identical_runs_say_so_and_mark_nothing(tmp_path):
 
 async def test_an_unreadable_second_file_is_one_line_on_the_screen(tmp_path):
     a, _ = pair_of_files(tmp_path)
-    junk = tmp_path / "junk.stp"
+    junk = tmp_path / "junk.sumtr"
     junk.write_bytes(b"not a transcript at all")
 
     class Host(App[None]):
@@ -95,8 +95,8 @@ async def test_an_unreadable_second_file_is_one_line_on_the_screen(tmp_path):
 
 
 def test_side_rows_mark_rounds_only_one_side_has(tmp_path):
-    a = write_transcript(tmp_path / "full.stp", brackwater_payloads(mu=3, instances=("boarding-permutation",)))
-    b = write_transcript(tmp_path / "cut.stp", brackwater_payloads(mu=3, instances=("boarding-permutation",),
+    a = write_transcript(tmp_path / "full.sumtr", brackwater_payloads(mu=3, instances=("boarding-permutation",)))
+    b = write_transcript(tmp_path / "cut.sumtr", brackwater_payloads(mu=3, instances=("boarding-permutation",),
                                                                    stop_after=7), finish=False)
     c = compare(load(a), load(b))
     rows_b = side_rows(c, c.pairs[0], "b")

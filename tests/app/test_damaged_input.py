@@ -33,7 +33,7 @@ async def test_a_hostile_field_opens_with_the_reason_instead_of_crashing(tmp_pat
 
 
 async def test_a_truncated_tail_shows_every_whole_event_and_says_incomplete(tmp_path):
-    path = write_transcript(tmp_path / "cut.stp", brackwater_payloads(instances=("boarding-permutation",)))
+    path = write_transcript(tmp_path / "cut.sumtr", brackwater_payloads(instances=("boarding-permutation",)))
     data = path.read_bytes()
     path.write_bytes(data[: len(data) - 60])  # the end event and part of the final are gone
     app = StepperApp.from_file(path, export_dir=tmp_path)
@@ -62,9 +62,9 @@ def run_view(*args: str) -> subprocess.CompletedProcess[str]:
 
 
 def test_view_of_an_unreadable_file_exits_2_with_one_line(tmp_path):
-    proc = run_view(str(tmp_path / "missing.stp"))
+    proc = run_view(str(tmp_path / "missing.sumtr"))
     assert proc.returncode == 2
-    assert proc.stderr.count("\n") == 1 and "missing.stp" in proc.stderr
+    assert proc.stderr.count("\n") == 1 and "missing.sumtr" in proc.stderr
     assert "Traceback" not in proc.stderr
 
 
@@ -88,7 +88,7 @@ async def test_names_that_look_like_markup_are_shown_literally(tmp_path):
 
 
 def test_view_with_an_unreadable_witness_exits_2_with_one_line(tmp_path):
-    path = write_transcript(tmp_path / "isle-of-quill-0740.stp", brackwater_payloads(instances=("deck-slots-zero",)))
+    path = write_transcript(tmp_path / "isle-of-quill-0740.sumtr", brackwater_payloads(instances=("deck-slots-zero",)))
     witness = tmp_path / "witness.json"
     witness.write_text("{not json")
     proc = run_view(str(path), "--witness", str(witness))
@@ -98,7 +98,7 @@ def test_view_with_an_unreadable_witness_exits_2_with_one_line(tmp_path):
 
 
 def test_view_off_a_terminal_exits_2_with_one_line_instead_of_drawing_into_a_pipe(tmp_path):
-    path = write_transcript(tmp_path / "isle-of-quill-0740.stp", brackwater_payloads(instances=("deck-slots-zero",)))
+    path = write_transcript(tmp_path / "isle-of-quill-0740.sumtr", brackwater_payloads(instances=("deck-slots-zero",)))
     proc = run_view(str(path))  # captured output: not a terminal
     assert proc.returncode == 2
     assert proc.stderr.startswith("stepper view: expected a terminal") and proc.stderr.count("\n") == 1

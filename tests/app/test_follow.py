@@ -12,7 +12,7 @@ from stepper.transcript.store import TranscriptWriter
 
 
 async def test_rounds_appear_and_are_checked_while_the_prover_writes(tmp_path):
-    path = tmp_path / "isle-of-quill-0740.stp"
+    path = tmp_path / "isle-of-quill-0740.sumtr"
     payloads = brackwater_payloads(instances=("boarding-permutation", "deck-slots-zero"))
     writer = TranscriptWriter(path, metadata={"sailing": "isle-of-quill-0740"})
     for payload in payloads[:3]:  # field, schedule, first instance: nothing to check yet
@@ -48,7 +48,7 @@ async def test_rounds_appear_and_are_checked_while_the_prover_writes(tmp_path):
 
 
 async def test_live_mode_follows_the_newest_round_as_it_arrives(tmp_path):
-    path = tmp_path / "isle-of-quill-0740.stp"
+    path = tmp_path / "isle-of-quill-0740.sumtr"
     payloads = brackwater_payloads(instances=("boarding-permutation",))
     writer = TranscriptWriter(path)
     for payload in payloads[:5]:
@@ -118,7 +118,7 @@ def _fresh_model(path):
 def test_each_look_reads_only_the_bytes_appended_since_the_last_one(tmp_path, monkeypatch):
     from stepper.app.source import TranscriptSource
 
-    path = tmp_path / "isle-of-quill-0740.stp"
+    path = tmp_path / "isle-of-quill-0740.sumtr"
     payloads = brackwater_payloads(instances=("boarding-permutation", "deck-slots-zero"))
     writer = TranscriptWriter(path, metadata={"sailing": "isle-of-quill-0740"})
     for payload in payloads[:4]:
@@ -153,7 +153,7 @@ def test_each_look_reads_only_the_bytes_appended_since_the_last_one(tmp_path, mo
 def test_a_transcript_rewritten_from_scratch_is_read_again_from_byte_0(tmp_path, monkeypatch):
     from stepper.app.source import TranscriptSource
 
-    path = tmp_path / "isle-of-quill-0740.stp"
+    path = tmp_path / "isle-of-quill-0740.sumtr"
     payloads = brackwater_payloads(instances=("boarding-permutation",))
     writer = TranscriptWriter(path)
     for payload in payloads[:7]:
@@ -182,7 +182,7 @@ def test_a_note_saved_while_following_is_shown_once_and_notes_from_elsewhere_arr
     from stepper.transcript.store import append_note
     from stepper.transcript.model import Note
 
-    path = write_transcript(tmp_path / "isle-of-quill-0740.stp",
+    path = write_transcript(tmp_path / "isle-of-quill-0740.sumtr",
                             brackwater_payloads(instances=("boarding-permutation",)))
     source = TranscriptSource(path, follow=True)
     model = source.open()
@@ -200,7 +200,7 @@ def test_a_followed_file_that_breaks_says_where_and_recovers_when_rewritten(tmp_
 
     from stepper.app.source import TranscriptSource
 
-    path = tmp_path / "isle-of-quill-0740.stp"
+    path = tmp_path / "isle-of-quill-0740.sumtr"
     payloads = brackwater_payloads(instances=("boarding-permutation",))
     writer = TranscriptWriter(path)
     for payload in payloads[:5]:

@@ -14,7 +14,7 @@ from stepper.verify.replay import Replay
 
 
 def model_of(payloads: list[dict], complete: bool = True) -> ProofModel:
-    model = ProofModel(partial(Replay, keep_rounds=True), source="isle-of-quill-0740.stp")
+    model = ProofModel(partial(Replay, keep_rounds=True), source="isle-of-quill-0740.sumtr")
     seq = Sequencer()
     for payload in payloads:
         model.feed(seq.feed(payload))

@@ -16,7 +16,7 @@ SIZE = (140, 44)
 
 def fixed_app(path: Path, tmp: Path) -> StepperApp:
     app = StepperApp.from_file(path, export_dir=tmp)
-    app.model.source = "isle-of-quill-0740.stp"
+    app.model.source = "isle-of-quill-0740.sumtr"
     return app
 
 

@@ -37,7 +37,7 @@ def write_jsonl(path: Path, payloads: list[dict]) -> Path:
     return path
 
 
-def write_stp(path: Path, payloads: list[dict], finish: bool = True) -> Path:
+def write_sumtr(path: Path, payloads: list[dict], finish: bool = True) -> Path:
     writer = TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"})
     for p in payloads:
         writer.write_payload(p)
@@ -61,7 +61,7 @@ def test_honest_event_file_is_accepted_with_a_table_and_notes(tmp_path, capsys):
 
 
 def test_honest_transcript_json_follows_the_contract(tmp_path, capsys):
-    code, out, _ = check(capsys, str(write_stp(tmp_path / "run.stp", honest())), "--json")
+    code, out, _ = check(capsys, str(write_sumtr(tmp_path / "run.sumtr", honest())), "--json")
     data = json.loads(out)
     assert code == 0 and data["verdict"] == "accept" and data["first_failure"] is None
     assert data["instances"][0]["name"] == "boarding-permutation"
@@ -69,6 +69,13 @@ def test_honest_transcript_json_follows_the_contract(tmp_path, capsys):
                                                                                    (3, "pass")]
     assert data["instances"][0]["rounds"][0]["values"] == ["1", "11", "69", "223"]  # Thaler 4.1, from memory
     assert data["soundness"]["numerator"] == "9"  # v * d = 3 * 3
+
+
+@pytest.mark.parametrize("name", ["run.stp", "run.bin", "run"])
+def test_the_format_is_recognised_by_content_not_by_the_file_name(tmp_path, capsys, name):
+    # Transcripts are named .sumtr; files kept under the earlier .stp name, or any name, still open.
+    code, out, err = check(capsys, str(write_sumtr(tmp_path / name, honest())), "--json")
+    assert code == 0 and err == "" and json.loads(out)["verdict"] == "accept"
 
 
 @pytest.mark.parametrize("mutate, round_, check_name", [
@@ -81,7 +88,7 @@ def test_honest_transcript_json_follows_the_contract(tmp_path, capsys):
 def test_single_faults_exit_1_with_round_and_check(tmp_path, capsys, mutate, round_, check_name):
     payloads = honest()
     mutate(payloads)
-    code, out, _ = check(capsys, str(write_stp(tmp_path / "bad.stp", payloads)), "--json")
+    code, out, _ = check(capsys, str(write_sumtr(tmp_path / "bad.sumtr", payloads)), "--json")
     ff = json.loads(out)["first_failure"]
     assert code == 1
     assert (ff["instance"], ff["instance_name"], ff["round"], ff["check"]) == (0, "boarding-permutation", round_,
@@ -98,7 +105,7 @@ def test_human_output_states_the_first_failure_in_words(tmp_path, capsys):
 
 
 def test_transcript_that_stops_early_exits_3(tmp_path, capsys):
-    path = write_stp(tmp_path / "cut.stp", honest()[:6], finish=False)
+    path = write_sumtr(tmp_path / "cut.sumtr", honest()[:6], finish=False)
     code, out, _ = check(capsys, str(path), "--json")
     assert code == 3 and json.loads(out)["verdict"] == "incomplete"
     code, out, _ = check(capsys, str(path))
@@ -106,7 +113,7 @@ def test_transcript_that_stops_early_exits_3(tmp_path, capsys):
 
 
 def test_unfinished_file_with_every_round_present_is_still_incomplete(tmp_path, capsys):
-    code, out, _ = check(capsys, str(write_stp(tmp_path / "nofinish.stp", honest(), finish=False)), "--json")
+    code, out, _ = check(capsys, str(write_sumtr(tmp_path / "nofinish.sumtr", honest(), finish=False)), "--json")
     assert code == 3 and json.loads(out)["completeness"] == "incomplete"
 
 
@@ -143,7 +150,7 @@ def test_foreign_schedule_is_reported_as_not_re_derived(tmp_path, capsys):
 
 
 def test_missing_file_and_bad_flags_exit_2(tmp_path, capsys):
-    assert check(capsys, str(tmp_path / "absent.stp"))[0] == 2
+    assert check(capsys, str(tmp_path / "absent.sumtr"))[0] == 2
     path = write_jsonl(tmp_path / "run.jsonl", honest())
     assert check(capsys, str(path), "--challenges", "no_colon_here")[0] == 2
     assert check(capsys, str(path), "--challenges", str(tmp_path / "missing.py") + ":derive")[0] == 2
@@ -214,7 +221,7 @@ def test_witness_adds_the_root_cause(tmp_path, capsys):
 def test_command_line_run_has_no_traceback_and_no_colour_in_a_pipe(tmp_path):
     payloads = honest()
     payloads[4]["evals"][0] += 1
-    path = write_stp(tmp_path / "bad.stp", payloads)
+    path = write_sumtr(tmp_path / "bad.sumtr", payloads)
     proc = subprocess.run([sys.executable, "-m", "stepper", "check", str(path)], capture_output=True, text=True)
     assert proc.returncode == 1 and "Traceback" not in proc.stderr and "\x1b[" not in proc.stdout
     raw = path.read_bytes()
@@ -223,20 +230,20 @@ def test_command_line_run_has_no_traceback_and_no_colour_in_a_pipe(tmp_path):
     assert proc.returncode == 2 and proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
 
 
-_STP_BYTES: dict[str, bytes] = {}
+_SUMTR_BYTES: dict[str, bytes] = {}
 
 
-def _stp_bytes(tmp: Path) -> bytes:
-    if "honest" not in _STP_BYTES:
-        _STP_BYTES["honest"] = write_stp(tmp / "seed.stp", honest()).read_bytes()
-    return _STP_BYTES["honest"]
+def _sumtr_bytes(tmp: Path) -> bytes:
+    if "honest" not in _SUMTR_BYTES:
+        _SUMTR_BYTES["honest"] = write_sumtr(tmp / "seed.sumtr", honest()).read_bytes()
+    return _SUMTR_BYTES["honest"]
 
 
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(st.data())
 def test_hostile_files_never_crash_the_check(tmp_path, capsys, data):
-    kind = data.draw(st.sampled_from(["stp", "jsonl"]))
-    raw = bytearray(_stp_bytes(tmp_path) if kind == "stp" else jsonl(honest()).encode())
+    kind = data.draw(st.sampled_from(["sumtr", "jsonl"]))
+    raw = bytearray(_sumtr_bytes(tmp_path) if kind == "sumtr" else jsonl(honest()).encode())
     for _ in range(data.draw(st.integers(1, 4))):
         action = data.draw(st.sampled_from(["flip", "cut", "insert"]))
         pos = data.draw(st.integers(0, max(0, len(raw) - 1)))

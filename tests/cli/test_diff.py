@@ -25,11 +25,11 @@ def runs(tmp_path: Path) -> dict[str, Path]:
     specs = brackwater_specs()
     honest = run_events(specs)
     return {
-        "a": save(tmp_path / "a.stp", honest),
-        "same": save(tmp_path / "same.stp", honest),
-        "port": save(tmp_path / "port.stp", run_events(specs, extra_absorb=True)),
-        "monty": save(tmp_path / "monty.stp", run_events(specs, tamper=scale_all(pow(2, 32, BABYBEAR)))),
-        "cut": save(tmp_path / "cut.stp", honest[:7], finish=False),
+        "a": save(tmp_path / "a.sumtr", honest),
+        "same": save(tmp_path / "same.sumtr", honest),
+        "port": save(tmp_path / "port.sumtr", run_events(specs, extra_absorb=True)),
+        "monty": save(tmp_path / "monty.sumtr", run_events(specs, tamper=scale_all(pow(2, 32, BABYBEAR)))),
+        "cut": save(tmp_path / "cut.sumtr", honest[:7], finish=False),
     }
 
 
@@ -71,9 +71,9 @@ def test_the_schema_flag_prints_the_schema(capsys):
 
 
 def test_bad_input_is_one_line_and_exit_2(runs, tmp_path):
-    junk = tmp_path / "junk.stp"
+    junk = tmp_path / "junk.sumtr"
     junk.write_bytes(b"\x00\x01 not a transcript")
-    for argv in ([str(runs["a"]), str(tmp_path / "missing.stp")], [str(runs["a"]), str(junk)], [str(runs["a"])]):
+    for argv in ([str(runs["a"]), str(tmp_path / "missing.sumtr")], [str(runs["a"]), str(junk)], [str(runs["a"])]):
         proc = subprocess.run([sys.executable, "-m", "stepper", "diff", *argv], capture_output=True, text=True)
         assert proc.returncode == 2
         assert proc.stderr.startswith("stepper diff: ") and proc.stderr.count("\n") == 1

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from stepper.cli.main import main
 
-HONEST = Path(__file__).resolve().parents[2] / "transcripts" / "ferries" / "ferries-honest.stp"
+HONEST = Path(__file__).resolve().parents[2] / "transcripts" / "ferries" / "ferries-honest.sumtr"
 
 
 def test_export_of_random_bytes_leaves_an_existing_output_untouched(tmp_path, capsys):
@@ -23,7 +23,7 @@ def test_export_of_random_bytes_leaves_an_existing_output_untouched(tmp_path, ca
 
 
 def test_export_onto_its_own_input_is_refused_and_the_transcript_survives(tmp_path, capsys):
-    copy = tmp_path / "run.stp"
+    copy = tmp_path / "run.sumtr"
     shutil.copyfile(HONEST, copy)
     assert main(["export", str(copy), "-o", str(copy)]) == 2
     assert "different files" in capsys.readouterr().err
@@ -34,7 +34,7 @@ def test_export_to_a_file_round_trips_through_import(tmp_path, capsys):
     out = tmp_path / "events.jsonl"
     assert main(["export", str(HONEST), "-o", str(out)]) == 0
     assert json.loads(out.read_text().splitlines()[0])["type"] == "header"
-    back = tmp_path / "back.stp"
+    back = tmp_path / "back.sumtr"
     assert main(["import", str(out), "-o", str(back)]) == 0
     assert main(["export", str(back)]) == 0
     capsys.readouterr()

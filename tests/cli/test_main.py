@@ -33,7 +33,7 @@ def test_unknown_flag_is_one_line_and_exit_2():
 
 def test_an_unknown_flag_after_a_subcommand_names_that_subcommand(capsys):
     try:
-        main(["info", "some.stp", "--no-such-flag"])
+        main(["info", "some.sumtr", "--no-such-flag"])
     except SystemExit as stop:
         assert stop.code == 2
     err = capsys.readouterr().err
@@ -52,5 +52,5 @@ def test_ctrl_c_inside_a_compiled_kernel_is_an_interruption_not_an_internal_erro
             raise SystemError("kernel returned a result with an exception set") from stop
 
     monkeypatch.setattr(info_cmd, "run", run)
-    assert main(["info", "some.stp"]) == 130
+    assert main(["info", "some.sumtr"]) == 130
     assert capsys.readouterr().err == "stepper info: interrupted\n"

@@ -22,7 +22,7 @@ TEXT = "gate 3 scanner read ticket 0740-118 twice"
 
 @pytest.fixture
 def run_file(tmp_path: Path) -> Path:
-    return save(tmp_path / "isle-of-quill-0740.stp", run_events(brackwater_specs()))
+    return save(tmp_path / "isle-of-quill-0740.sumtr", run_events(brackwater_specs()))
 
 
 def test_a_note_round_trips_and_the_recorded_digest_still_verifies(run_file, capsys):

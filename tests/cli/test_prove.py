@@ -12,7 +12,7 @@ from stepper.cli.main import main
 
 
 def _prove(tmp_path, *flags):
-    out = tmp_path / "p.stp"
+    out = tmp_path / "p.sumtr"
     code = main(["prove", "-o", str(out), "--num-vars", "5", *flags])
     return code, out
 
@@ -72,7 +72,7 @@ def test_the_parser_offers_exactly_the_reference_kinds_without_importing_the_pro
     (["--seed", "-1"], "non-negative"),
 ])
 def test_bad_flags_are_one_line_and_exit_2(flags, message, tmp_path):
-    out = tmp_path / "x.stp"
+    out = tmp_path / "x.sumtr"
     proc = subprocess.run([sys.executable, "-m", "stepper", "prove", "-o", str(out), "--num-vars", "5", *flags],
                           capture_output=True, text=True)
     assert proc.returncode == 2
@@ -174,10 +174,10 @@ def test_demo_refuses_a_folder_whose_files_it_would_overwrite(tmp_path, capsys):
     folder = tmp_path / "mine"
     folder.mkdir()
     (folder / "ledger.csv").write_text("booking ledger\n")
-    (folder / "ferries-honest.stp").write_bytes(b"my own transcript")
+    (folder / "ferries-honest.sumtr").write_bytes(b"my own transcript")
     assert main(["demo", "--dir", str(folder), "--no-view"]) == 2
-    assert "ferries-honest.stp" in capsys.readouterr().err
-    assert (folder / "ferries-honest.stp").read_bytes() == b"my own transcript"
+    assert "ferries-honest.sumtr" in capsys.readouterr().err
+    assert (folder / "ferries-honest.sumtr").read_bytes() == b"my own transcript"
 
 
 def test_demo_off_a_terminal_prints_the_checks_instead_of_starting_the_app(tmp_path, capsys):

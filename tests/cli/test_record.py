@@ -69,7 +69,7 @@ def prover(tmp_path: Path) -> Path:
 
 
 def test_record_seals_a_transcript_when_the_prover_exits_zero(tmp_path, prover):
-    out = tmp_path / "quill.stp"
+    out = tmp_path / "quill.sumtr"
     proc = stepper("record", "-o", str(out), "--label", "isle-of-quill-0740", "--",
                    sys.executable, str(prover), "8", "ok")
     assert proc.returncode == 0, proc.stderr
@@ -82,7 +82,7 @@ def test_record_seals_a_transcript_when_the_prover_exits_zero(tmp_path, prover):
 
 
 def test_record_returns_the_prover_status_and_keeps_an_incomplete_transcript(tmp_path, prover):
-    out = tmp_path / "quill.stp"
+    out = tmp_path / "quill.sumtr"
     proc = stepper("record", "-o", str(out), "--", sys.executable, str(prover), "3", "exit", "5")
     assert proc.returncode == 5
     assert "exited with status 5" in proc.stderr
@@ -92,7 +92,7 @@ def test_record_returns_the_prover_status_and_keeps_an_incomplete_transcript(tmp
 
 
 def test_prover_killed_with_sigkill_mid_proof_keeps_every_round_before_the_kill(tmp_path, prover):
-    out = tmp_path / "killed.stp"
+    out = tmp_path / "killed.sumtr"
     pid_file = tmp_path / "pid"
     record = subprocess.Popen([sys.executable, "-m", "stepper", "record", "-o", str(out), "--",
                                sys.executable, str(prover), "5", "hang", str(pid_file)],
@@ -114,7 +114,7 @@ def test_prover_killed_with_sigkill_mid_proof_keeps_every_round_before_the_kill(
 
 
 def test_record_stops_on_a_line_that_is_not_json_naming_it(tmp_path, prover):
-    out = tmp_path / "garbage.stp"
+    out = tmp_path / "garbage.sumtr"
     proc = stepper("record", "-o", str(out), "--", sys.executable, str(prover), "2", "garbage")
     assert proc.returncode == 2
     line = proc.stderr.strip()
@@ -123,16 +123,16 @@ def test_record_stops_on_a_line_that_is_not_json_naming_it(tmp_path, prover):
 
 
 def test_record_without_a_command_or_with_a_missing_program_is_exit_2(tmp_path):
-    proc = stepper("record", "-o", str(tmp_path / "x.stp"))
+    proc = stepper("record", "-o", str(tmp_path / "x.sumtr"))
     assert proc.returncode == 2 and "expected a command to run" in proc.stderr
-    proc = stepper("record", "-o", str(tmp_path / "x.stp"), "--", "no-such-prover-binary")
+    proc = stepper("record", "-o", str(tmp_path / "x.sumtr"), "--", "no-such-prover-binary")
     assert proc.returncode == 2 and "cannot be started" in proc.stderr
     assert proc.stderr.count("\n") == 1
-    assert not (tmp_path / "x.stp").exists()
+    assert not (tmp_path / "x.sumtr").exists()
 
 
 def test_a_program_that_cannot_start_leaves_an_existing_transcript_alone(tmp_path, capsys):
-    kept = tmp_path / "yesterday.stp"
+    kept = tmp_path / "yesterday.sumtr"
     kept.write_bytes(b"yesterday's recorded rounds")
     assert main(["record", "-o", str(kept), "--", str(tmp_path / "no-such-prover")]) == 2
     assert "cannot be started" in capsys.readouterr().err
@@ -168,7 +168,7 @@ DECK_EVENTS = [
 
 def test_import_then_export_gives_back_the_same_events(tmp_path, capsys):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
-    out = tmp_path / "deck.stp"
+    out = tmp_path / "deck.sumtr"
     assert main(["import", str(events), "-o", str(out), "--label", "deck check"]) == 0
     t = load(out)
     assert (t.completeness, t.digest) == ("complete", "verified")
@@ -181,7 +181,7 @@ def test_import_then_export_gives_back_the_same_events(tmp_path, capsys):
     assert lines[-1] == {"type": "deck-camera", "frame": 12}
     again = tmp_path / "again.jsonl"
     again.write_text("".join(json.dumps(line) + "\n" for line in lines))
-    second = tmp_path / "again.stp"
+    second = tmp_path / "again.sumtr"
     assert main(["import", str(again), "-o", str(second)]) == 0
     assert load(second).instances == t.instances
     assert load(second).header.metadata["label"] == "deck check"
@@ -189,7 +189,7 @@ def test_import_then_export_gives_back_the_same_events(tmp_path, capsys):
 
 def test_import_drops_a_partial_last_line_and_leaves_the_transcript_unsealed(tmp_path, capsys):
     events = write_events(tmp_path / "cut.jsonl", DECK_EVENTS[:4], tail='{"type": "round", "ev')
-    out = tmp_path / "cut.stp"
+    out = tmp_path / "cut.sumtr"
     assert main(["import", str(events), "-o", str(out)]) == 0
     assert "incomplete; the cut-off event at line 5 was dropped" in capsys.readouterr().err
     assert load(out).completeness == "incomplete"
@@ -199,7 +199,7 @@ def test_import_of_a_non_json_line_in_the_middle_is_exit_2_naming_the_line(tmp_p
     events = tmp_path / "bad.jsonl"
     events.write_text(json.dumps(DECK_EVENTS[0]) + "\n" + json.dumps(DECK_EVENTS[1]) + "\n"
                       + "round 1: 0 0 1 2\n" + json.dumps(DECK_EVENTS[2]) + "\n")
-    proc = stepper("import", str(events), "-o", str(tmp_path / "bad.stp"))
+    proc = stepper("import", str(events), "-o", str(tmp_path / "bad.sumtr"))
     assert proc.returncode == 2
     assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
     assert "line 3" in proc.stderr and "invalid JSON" in proc.stderr
@@ -217,13 +217,13 @@ def test_import_of_a_non_json_line_in_the_middle_is_exit_2_naming_the_line(tmp_p
 def test_bad_events_are_one_line_and_exit_2(tmp_path, event, expected):
     lines = [DECK_EVENTS[0], event] if event["type"] != "field" else [event]
     events = write_events(tmp_path / "e.jsonl", lines)
-    proc = stepper("import", str(events), "-o", str(tmp_path / "e.stp"))
+    proc = stepper("import", str(events), "-o", str(tmp_path / "e.sumtr"))
     assert proc.returncode == 2 and expected in proc.stderr and proc.stderr.count("\n") == 1
 
 
 def test_info_describes_instances_completeness_digest_and_notes(tmp_path, capsys):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
-    out = tmp_path / "deck.stp"
+    out = tmp_path / "deck.sumtr"
     main(["import", str(events), "-o", str(out), "--label", "isle-of-quill-0740"])
     main(["note", str(out), "--instance", "0", "--round", "2", "camera 4 blurred"])
     capsys.readouterr()
@@ -243,7 +243,7 @@ def test_info_describes_instances_completeness_digest_and_notes(tmp_path, capsys
 
 def test_info_on_a_corrupt_file_describes_it_and_exits_2(tmp_path, capsys):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
-    out = tmp_path / "deck.stp"
+    out = tmp_path / "deck.sumtr"
     main(["import", str(events), "-o", str(out)])
     data = bytearray(out.read_bytes())
     data[data.index(b"deck-slots-zero")] = ord("D")
@@ -256,7 +256,7 @@ def test_info_on_a_corrupt_file_describes_it_and_exits_2(tmp_path, capsys):
 
 def test_check_refuses_a_corrupt_transcript_with_exit_2_in_one_line(tmp_path):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
-    out = tmp_path / "deck.stp"
+    out = tmp_path / "deck.sumtr"
     assert stepper("import", str(events), "-o", str(out)).returncode == 0
     data = bytearray(out.read_bytes())
     data[data.index(b"slot 7")] = ord("S")  # a note's text: still valid msgpack, digest now wrong
@@ -268,7 +268,7 @@ def test_check_refuses_a_corrupt_transcript_with_exit_2_in_one_line(tmp_path):
 
 @pytest.mark.parametrize("content", [b"\x89PNG\r\n\x1a\n\0\0", b"stepper:sumcheck\n\x07\x80", b"stepper:sum"])
 def test_info_and_export_of_unusable_files_are_one_line_and_exit_2(tmp_path, content):
-    path = tmp_path / "bad.stp"
+    path = tmp_path / "bad.sumtr"
     path.write_bytes(content)
     for command in ("info", "export"):
         proc = stepper(command, str(path))
@@ -278,7 +278,7 @@ def test_info_and_export_of_unusable_files_are_one_line_and_exit_2(tmp_path, con
 
 def test_export_of_an_incomplete_transcript_prints_the_events_present_and_warns(tmp_path):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
-    out = tmp_path / "deck.stp"
+    out = tmp_path / "deck.sumtr"
     assert stepper("import", str(events), "-o", str(out)).returncode == 0
     out.write_bytes(out.read_bytes()[:-70])  # the end event and the last event are cut
     proc = stepper("export", str(out))
@@ -292,13 +292,13 @@ def test_an_end_event_inside_an_event_stream_is_refused_so_the_transcript_stays_
     # from a stream it used to be written mid-file and the result read as corrupt.
     events = write_events(tmp_path / "events.jsonl", [DECK_EVENTS[0], {"type": "end", "events": 1, "sha256": "00"},
                                                      DECK_EVENTS[1]])
-    out = tmp_path / "out.stp"
+    out = tmp_path / "out.sumtr"
     assert main(["import", str(events), "-o", str(out)]) == 2
     assert "found `end`" in capsys.readouterr().err
     with open_events(out) as stream:
         assert len(list(stream)) == 1
     assert stream.completeness == "incomplete"
-    recorded = tmp_path / "recorded.stp"
+    recorded = tmp_path / "recorded.sumtr"
     assert main(["record", "-o", str(recorded), "--", sys.executable, "-c",
                  f"import os; open(os.environ['STEPPER_EVENTS'], 'a').write(open({str(events)!r}).read())"]) == 2
     assert "line 2" in capsys.readouterr().err
@@ -309,12 +309,12 @@ def test_a_free_form_integer_msgpack_cannot_store_is_exit_2_and_keeps_the_events
     # msgpack integers stop at 2^64 (msgpack specification, "int format family"); an unknown
     # event carrying a larger one used to end import and record with an internal error
     events = write_events(tmp_path / "events.jsonl", [DECK_EVENTS[0], {"type": "deck-camera", "frame": 2**70}])
-    out = tmp_path / "out.stp"
+    out = tmp_path / "out.sumtr"
     assert main(["import", str(events), "-o", str(out)]) == 2
     err = capsys.readouterr().err
     assert "internal error" not in err and "as a decimal string" in err and "keeps the 1 event before it" in err
     assert len(list(open_events(out))) == 1
-    recorded = tmp_path / "recorded.stp"
+    recorded = tmp_path / "recorded.sumtr"
     assert main(["record", "-o", str(recorded), "--", sys.executable, "-c",
                  f"import os; open(os.environ['STEPPER_EVENTS'], 'a').write(open({str(events)!r}).read())"]) == 2
     err = capsys.readouterr().err

@@ -29,7 +29,7 @@ def bump_round_2(payload):
 @pytest.fixture
 def failing(tmp_path: Path) -> Path:
     bump_round_2.count = 0
-    return save(tmp_path / "isle-of-quill-0740.stp", run_events(brackwater_specs(), tamper=bump_round_2))
+    return save(tmp_path / "isle-of-quill-0740.sumtr", run_events(brackwater_specs(), tamper=bump_round_2))
 
 
 class Text(HTMLParser):

@@ -42,7 +42,7 @@ def nth_round(n: int, change):  # a tamper hook acting on the n-th round payload
 
 
 def assert_valid_json(c: Comparison) -> None:
-    jsonschema.validate(c.to_json("a.stp", "b.stp"), JSON_SCHEMA)
+    jsonschema.validate(c.to_json("a.sumtr", "b.sumtr"), JSON_SCHEMA)
 
 
 def test_identical_runs_have_no_divergence():

@@ -210,7 +210,7 @@ def test_check_command_names_a_binding_order_switch_at_round_3(tmp_path, capsys)
 
     from stepper.cli.main import main
 
-    out, witness = tmp_path / "sailing.stp", tmp_path / "witness.json"
+    out, witness = tmp_path / "sailing.sumtr", tmp_path / "witness.json"
     assert main(["prove", "--kind", "ferries", "--num-vars", "5", "--fault", "flip-order@3", "-o", str(out),
                  "--witness-out", str(witness)]) == 0
     capsys.readouterr()

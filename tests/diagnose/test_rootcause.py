@@ -174,7 +174,7 @@ def _write_case(tmp_path, fault):
 
     tables = _thaler_tables(MERSENNE31)
     transcript, _ = prove(MERSENNE31, tables, THALER, degree=3, fault=fault, name="isle-of-quill-0740")
-    path = tmp_path / "run.stp"
+    path = tmp_path / "run.sumtr"
     inst = transcript.instances[0]
     with TranscriptWriter(path) as writer:
         writer.write(FieldDecl(MERSENNE31))

@@ -35,15 +35,15 @@ def test_saved_examples_match_a_fresh_regeneration_byte_for_byte(tmp_path):
 @pytest.mark.parametrize("stem", ["sailing-recorder", "deck-channel-adapter", "boarding-jsonl",
                                   "sailing-recorder-bug", "boarding-jsonl-bug"])
 def test_sample_outputs_pass_unless_they_carry_a_bug(stem):
-    report = replay_transcript(load(str(SAMPLES / f"{stem}.stp")))
+    report = replay_transcript(load(str(SAMPLES / f"{stem}.sumtr")))
     assert report.verdict == ("reject" if stem.endswith("-bug") else "accept")
 
 
 @pytest.mark.parametrize("example", EXAMPLES, ids=lambda e: e.stem)
 def test_each_saved_example_gets_the_verdict_its_description_promises(example):
-    transcript = load(str(SAVED / f"{example.stem}.stp"))
+    transcript = load(str(SAVED / f"{example.stem}.sumtr"))
     report = replay_transcript(transcript)
     honest = example.spec.fault is None and example.spec.tamper is None
     assert report.verdict == ("accept" if honest else "reject")
     assert all(len(inst.start.name) for inst in transcript.instances)
-    assert (SAVED / f"{example.stem}.stp").stat().st_size < 8192  # small enough to read by eye
+    assert (SAVED / f"{example.stem}.sumtr").stat().st_size < 8192  # small enough to read by eye

@@ -71,7 +71,7 @@ def parse(html: str) -> Page:
 
 def test_the_html_report_is_well_formed_and_loads_nothing_from_elsewhere():
     t = faulty_transcript()
-    page = parse(to_html(build(t, replay_transcript(t), source="isle.stp")))
+    page = parse(to_html(build(t, replay_transcript(t), source="isle.sumtr")))
     assert page.errors == [] and page.stack == []
     names = [tag for tag, _ in page.tags]
     assert "script" not in names and "link" not in names and "img" not in names and "iframe" not in names
@@ -86,7 +86,7 @@ def test_the_report_carries_the_failing_rounds_explanation_in_both_forms():
     report = replay_transcript(t)
     first = report.first_failure
     assert (first.instance, first.round, first.check) == (0, 3, "sum")
-    doc = build(t, report, source="isle.stp")
+    doc = build(t, report, source="isle.sumtr")
     text = " ".join(parse(to_html(doc)).text)
     assert first.explanation in text
     assert first.explanation in to_markdown(doc).replace("\\", "")

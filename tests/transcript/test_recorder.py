@@ -17,7 +17,7 @@ BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
 
 
 def test_every_call_is_on_disk_before_the_next(tmp_path):
-    path = tmp_path / "live.stp"
+    path = tmp_path / "live.sumtr"
     rec = Recorder(path, field="goldilocks", metadata={"sailing": "isle-of-quill-0740"})
     rec.instance("boarding-permutation", 2, 2, 5)
     rec.round([1, 4, 9])
@@ -31,7 +31,7 @@ def test_every_call_is_on_disk_before_the_next(tmp_path):
 
 
 def test_clean_exit_seals_and_an_exception_leaves_a_readable_prefix(tmp_path):
-    sealed = tmp_path / "sealed.stp"
+    sealed = tmp_path / "sealed.sumtr"
     with Recorder(sealed, field="babybear") as rec:
         rec.instance("deck-slots-zero", 1, 1, 7)
         rec.round([3, 4])
@@ -41,7 +41,7 @@ def test_clean_exit_seals_and_an_exception_leaves_a_readable_prefix(tmp_path):
     assert (t.completeness, t.digest) == ("complete", "verified")
     assert t.instances[0].final == 8
 
-    broken = tmp_path / "broken.stp"
+    broken = tmp_path / "broken.sumtr"
     with pytest.raises(RuntimeError):
         with Recorder(broken, field="babybear") as rec:
             rec.instance("deck-slots-zero", 2, 1, 7)
@@ -53,14 +53,14 @@ def test_clean_exit_seals_and_an_exception_leaves_a_readable_prefix(tmp_path):
 
 
 def test_values_from_numpy_arrays_and_extension_tuples(tmp_path):
-    path = tmp_path / "ext.stp"
+    path = tmp_path / "ext.sumtr"
     with Recorder(path, field="babybear") as rec:
         rec.instance("boarding-permutation", 1, 1, 7)
         rec.round(np.array([3, 4], dtype=np.uint64))
         rec.challenge(5)
     assert load(path).instances[0].rounds[0].values == (3, 4)
 
-    path = tmp_path / "ext4.stp"
+    path = tmp_path / "ext4.sumtr"
     with Recorder(path, metadata={"label": "quartic"}) as rec:
         rec.field("babybear", extension_degree=4)
         rec.instance("boarding-permutation", 1, 1, (7, 0, 0, 0))
@@ -73,7 +73,7 @@ def test_values_from_numpy_arrays_and_extension_tuples(tmp_path):
 
 
 def test_bad_calls_raise_and_leave_what_was_written(tmp_path):
-    path = tmp_path / "bad.stp"
+    path = tmp_path / "bad.sumtr"
     rec = Recorder(path, field="goldilocks")
     rec.instance("boarding-permutation", 1, 2, 0)
     with pytest.raises(TranscriptError, match="canonical"):
@@ -88,7 +88,7 @@ def test_bad_calls_raise_and_leave_what_was_written(tmp_path):
 
 
 def test_buckets_schedule_batch_and_notes_are_recorded(tmp_path):
-    path = tmp_path / "all.stp"
+    path = tmp_path / "all.sumtr"
     with Recorder(path, field="goldilocks") as rec:
         rec.schedule("stepper-sha256/1", label="brackwater-ferries")
         rec.batch(3, [1, 2], sources=["ledger", "boarding"])
@@ -122,7 +122,7 @@ class ToyChannel:
 
 
 def test_tap_records_rounds_and_challenges_without_changing_the_prover(tmp_path):
-    path = tmp_path / "tap.stp"
+    path = tmp_path / "tap.sumtr"
     plain = ToyChannel()
     drawn_plain = []
     for k in range(3):
@@ -146,7 +146,7 @@ def test_tap_records_rounds_and_challenges_without_changing_the_prover(tmp_path)
 
 
 def test_tap_keeps_a_draw_outside_a_round_as_a_note(tmp_path):
-    path = tmp_path / "tap.stp"
+    path = tmp_path / "tap.sumtr"
     channel = ToyChannel()
     with Recorder(path, field="goldilocks") as rec:
         rec.instance("deck-slots-zero", 1, 1, 1)
@@ -162,13 +162,13 @@ def test_tap_keeps_a_draw_outside_a_round_as_a_note(tmp_path):
 
 
 def test_tap_names_a_method_the_channel_lacks(tmp_path):
-    with Recorder(tmp_path / "x.stp", field="goldilocks") as rec:
+    with Recorder(tmp_path / "x.sumtr", field="goldilocks") as rec:
         with pytest.raises(UsageError, match="method 'absorb'"):
             tap(ToyChannel(), rec, send="absorb", draw="draw")
 
 
 def test_records_returned_match_the_records_read_back(tmp_path):
-    path = tmp_path / "same.stp"
+    path = tmp_path / "same.sumtr"
     written = []
     with Recorder(path, field="goldilocks") as rec:
         written.append(rec.instance("boarding-permutation", 1, 2, 10))
@@ -181,7 +181,7 @@ def test_records_returned_match_the_records_read_back(tmp_path):
 
 def test_an_extra_integer_past_msgpack_range_is_a_transcript_error_not_an_overflow(tmp_path):
     # msgpack integers stop at 2^64 (msgpack specification, "int format family")
-    path = tmp_path / "deck.stp"
+    path = tmp_path / "deck.sumtr"
     with pytest.raises(TranscriptError, match="as a decimal string"):
         with Recorder(path, field="babybear") as rec:
             rec.instance("deck-slots-zero", 2, 2, 0)

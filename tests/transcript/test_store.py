@@ -67,7 +67,7 @@ def write_boarding(path: Path, rounds: int = 3, finish: bool = True) -> None:
 
 
 def test_writer_produces_the_documented_bytes_exactly(tmp_path):
-    path = tmp_path / "golden.stp"
+    path = tmp_path / "golden.sumtr"
     write_golden(path)
     data = path.read_bytes()
     assert data[:-32].hex() == GOLDEN_HEX
@@ -76,7 +76,7 @@ def test_writer_produces_the_documented_bytes_exactly(tmp_path):
 
 
 def test_end_event_digest_is_sha256_of_every_byte_before_it(tmp_path):
-    path = tmp_path / "golden.stp"
+    path = tmp_path / "golden.sumtr"
     write_golden(path)
     data = path.read_bytes()
     end_start = data.rindex(b"\x83\xa4type\xa3end")
@@ -85,7 +85,7 @@ def test_end_event_digest_is_sha256_of_every_byte_before_it(tmp_path):
 
 
 def test_golden_bytes_decode_with_plain_msgpack_to_the_documented_events(tmp_path):
-    path = tmp_path / "golden.stp"
+    path = tmp_path / "golden.sumtr"
     write_golden(path)
     data = path.read_bytes()
     assert data.startswith(MAGIC) and MAGIC == b"stepper:sumcheck\n"
@@ -99,7 +99,7 @@ def test_golden_bytes_decode_with_plain_msgpack_to_the_documented_events(tmp_pat
 
 
 def test_reader_returns_the_records_written_complete_and_verified(tmp_path):
-    path = tmp_path / "golden.stp"
+    path = tmp_path / "golden.sumtr"
     write_golden(path)
     with open_events(path) as stream:
         records = list(stream)
@@ -115,11 +115,11 @@ def test_reader_returns_the_records_written_complete_and_verified(tmp_path):
 
 
 def test_truncation_at_every_byte_gives_a_clean_prefix_or_a_clear_error(tmp_path):
-    source = tmp_path / "full.stp"
+    source = tmp_path / "full.sumtr"
     write_golden(source)
     data = source.read_bytes()
     header_end = data.index(b"\x82\xa4type\xa5field")
-    cut = tmp_path / "cut.stp"
+    cut = tmp_path / "cut.sumtr"
     for size in range(len(data)):
         cut.write_bytes(data[:size])
         if size < header_end:
@@ -138,11 +138,11 @@ def test_truncation_at_every_byte_gives_a_clean_prefix_or_a_clear_error(tmp_path
 
 
 def test_a_cut_off_event_is_dropped_and_its_offset_reported(tmp_path):
-    source = tmp_path / "full.stp"
+    source = tmp_path / "full.sumtr"
     write_golden(source)
     data = source.read_bytes()
     round_start = data.index(b"\x82\xa4type\xa5round")
-    cut = tmp_path / "cut.stp"
+    cut = tmp_path / "cut.sumtr"
     cut.write_bytes(data[: round_start + 7])
     with open_events(cut) as stream:
         records = list(stream)
@@ -151,7 +151,7 @@ def test_a_cut_off_event_is_dropped_and_its_offset_reported(tmp_path):
 
 
 def test_a_prefix_ending_between_events_is_incomplete_without_a_cut(tmp_path):
-    path = tmp_path / "open.stp"
+    path = tmp_path / "open.sumtr"
     write_boarding(path, rounds=3, finish=False)
     transcript = load(path)
     assert transcript.completeness == "incomplete" and transcript.digest == "missing"
@@ -162,7 +162,7 @@ def test_a_prefix_ending_between_events_is_incomplete_without_a_cut(tmp_path):
 
 
 def test_a_changed_byte_in_the_recorded_part_is_corrupt(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_golden(path)
     data = bytearray(path.read_bytes())
     data[data.index(b"isle")] = ord("j")  # metadata text changes, still valid msgpack
@@ -175,7 +175,7 @@ def test_a_changed_byte_in_the_recorded_part_is_corrupt(tmp_path):
 
 
 def test_digest_verifies_when_events_straddle_small_read_chunks(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path, rounds=20)
     for chunk in (17, 18, 19, 31, 64, 100, 333):
         with open_events(path, limits=ReadLimits(chunk_bytes=chunk)) as stream:
@@ -184,7 +184,7 @@ def test_digest_verifies_when_events_straddle_small_read_chunks(tmp_path):
 
 
 def test_appended_note_keeps_the_recorded_digest_and_is_reported_apart(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path)
     append_note(path, Note("gate 3 scanner restarted here", 0, 2))
     append_note(path, Note("whole sailing re-run on Tuesday"))
@@ -200,14 +200,14 @@ def test_appended_note_keeps_the_recorded_digest_and_is_reported_apart(tmp_path)
 
 
 def test_append_note_refuses_an_instance_that_is_not_there(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path)
     with pytest.raises(TranscriptError, match="instance among 0..0"):
         append_note(path, Note("nope", 3))
 
 
 def test_only_notes_may_follow_the_end_event(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path)
     with path.open("ab") as handle:
         handle.write(msgpack.packb({"type": "round", "evals": b"\0" * 32}))
@@ -223,7 +223,7 @@ def test_wrong_magic_is_refused_with_what_was_expected(tmp_path):
 
 
 def test_future_version_is_refused_naming_the_version_read(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_golden(path)
     data = bytearray(path.read_bytes())
     data[len(MAGIC)] = 2
@@ -233,7 +233,7 @@ def test_future_version_is_refused_naming_the_version_read(tmp_path):
 
 
 def test_length_field_claiming_a_billion_elements_is_refused_at_its_offset(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path, finish=False)
     offset = path.stat().st_size
     with path.open("ab") as handle:  # a map whose `evals` array header claims 10^9 entries
@@ -245,7 +245,7 @@ def test_length_field_claiming_a_billion_elements_is_refused_at_its_offset(tmp_p
 
 
 def test_bin_claiming_four_gigabytes_costs_no_memory_and_is_refused_or_dropped(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path, finish=False)
     claim = b"\x82\xa4type\xa5round\xa5evals\xc6\xff\xff\xff\xf0"
     with path.open("ab") as handle:
@@ -259,7 +259,7 @@ def test_bin_claiming_four_gigabytes_costs_no_memory_and_is_refused_or_dropped(t
 
 
 def test_non_canonical_element_is_refused_naming_instance_and_round(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path, rounds=3, finish=False)
     data = path.read_bytes()
     bad = struct.pack("<Q", GOLDILOCKS)  # p itself: not canonical
@@ -279,7 +279,7 @@ def test_unknown_field_name_is_refused(tmp_path):
 
 
 def test_event_over_the_size_cap_is_refused(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_boarding(path, finish=False)
     with path.open("ab") as handle:
         handle.write(msgpack.packb({"type": "note", "text": "x" * 5000}))
@@ -290,10 +290,10 @@ def test_event_over_the_size_cap_is_refused(tmp_path):
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(data=st.data())
 def test_random_byte_flips_and_insertions_give_records_or_one_clear_error(tmp_path, data):
-    path = tmp_path / "fuzz.stp"
+    path = tmp_path / "fuzz.sumtr"
     if not path.exists():
         write_golden(path)
-    original = (tmp_path / "fuzz.stp").read_bytes()
+    original = (tmp_path / "fuzz.sumtr").read_bytes()
     mutated = bytearray(original)
     for _ in range(data.draw(st.integers(1, 4))):
         position = data.draw(st.integers(0, len(mutated)))
@@ -301,7 +301,7 @@ def test_random_byte_flips_and_insertions_give_records_or_one_clear_error(tmp_pa
             mutated[position] ^= data.draw(st.integers(1, 255))
         else:
             mutated[position:position] = bytes([data.draw(st.integers(0, 255))])
-    target = tmp_path / "mutated.stp"
+    target = tmp_path / "mutated.sumtr"
     target.write_bytes(bytes(mutated))
     try:
         with open_events(target) as stream:
@@ -365,7 +365,7 @@ def test_last_json_line_without_newline_but_whole_is_kept(tmp_path):
 
 def test_missing_file_is_one_clear_error(tmp_path):
     with pytest.raises(TranscriptError, match="could not open the file"):
-        load(tmp_path / "nope.stp")
+        load(tmp_path / "nope.sumtr")
 
 
 def test_deeply_nested_input_is_refused_not_a_crash(tmp_path):
@@ -374,7 +374,7 @@ def test_deeply_nested_input_is_refused_not_a_crash(tmp_path):
                      + "]" * 50_000 + "}\n")
     with pytest.raises(TranscriptError, match="line 2: expected JSON nested"):
         load(jsonl)
-    packed = tmp_path / "deep.stp"
+    packed = tmp_path / "deep.sumtr"
     write_boarding(packed, finish=False)
     with packed.open("ab") as handle:  # 5000 nested one-element arrays inside an unknown event
         handle.write(b"\x82\xa4type\xa4gate\xa1v" + b"\x91" * 5000 + b"\xc0")
@@ -383,7 +383,7 @@ def test_deeply_nested_input_is_refused_not_a_crash(tmp_path):
 
 
 def test_bare_msgpack_ends_silently_on_a_cut_but_the_reader_reports_it(tmp_path):
-    path = tmp_path / "t.stp"
+    path = tmp_path / "t.sumtr"
     write_golden(path)
     data = path.read_bytes()
     cut = data[: data.index(b"\x82\xa4type\xa9challenge") + 5]
@@ -393,8 +393,8 @@ def test_bare_msgpack_ends_silently_on_a_cut_but_the_reader_reports_it(tmp_path)
     bare = msgpack.Unpacker(raw=False)
     bare.feed(cut[len(MAGIC):])
     assert len(list(bare)) == 5 and len(MAGIC) + bare.tell() > event_start
-    (tmp_path / "cut.stp").write_bytes(cut)
-    with open_events(tmp_path / "cut.stp") as stream:
+    (tmp_path / "cut.sumtr").write_bytes(cut)
+    with open_events(tmp_path / "cut.sumtr") as stream:
         assert len(list(stream)) == 3
     assert stream.truncated_at == event_start
 
@@ -405,7 +405,7 @@ def test_writer_refuses_an_end_event_and_stops_cleanly_after_an_unstorable_integ
     from stepper.errors import TranscriptError
     from stepper.transcript.store import TranscriptWriter, open_events
 
-    path = tmp_path / "unstorable.stp"
+    path = tmp_path / "unstorable.sumtr"
     writer = TranscriptWriter(path)
     writer.write_payload({"type": "field", "name": "babybear"})
     with pytest.raises(TranscriptError, match="`end`"):
@@ -427,4 +427,4 @@ def test_writer_metadata_with_an_oversized_integer_is_an_input_error(tmp_path):
     from stepper.transcript.store import TranscriptWriter
 
     with pytest.raises(TranscriptError, match="metadata"):
-        TranscriptWriter(tmp_path / "meta.stp", metadata={"tickets": 2**70})
+        TranscriptWriter(tmp_path / "meta.sumtr", metadata={"tickets": 2**70})

@@ -237,7 +237,7 @@ def seal(body: bytes, events: int) -> bytes:
 
 
 def test_seal_gives_a_complete_verified_transcript(tmp_path):
-    written = write_transcript(tmp_path / "sealed.stp", Knobs(instances=2, appended=1))
+    written = write_transcript(tmp_path / "sealed.sumtr", Knobs(instances=2, appended=1))
     with open_events(written.path) as stream:
         records = list(stream)
     assert (stream.completeness, stream.digest, stream.appended) == ("complete", "verified", 1)
@@ -281,7 +281,7 @@ def check_both(capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPat
 
 # ----- 2. the shipped transcripts and generated ones: same output, sweep on or off ---------
 
-SHIPPED = sorted((REPO / "transcripts").glob("*/*.stp"))
+SHIPPED = sorted((REPO / "transcripts").glob("*/*.sumtr"))
 
 
 @pytest.mark.parametrize("path", SHIPPED, ids=[p.name for p in SHIPPED])
@@ -295,7 +295,7 @@ def test_shipped_transcripts_check_the_same_with_the_sweep_on_or_off(capsys, mon
 
 def test_the_sweep_takes_the_honest_shipped_transcripts(capsys, monkeypatch):
     ferries = REPO / "transcripts" / "ferries"
-    for name in ("ferries-honest.stp", "ferries-direct.stp"):
+    for name in ("ferries-honest.sumtr", "ferries-direct.sumtr"):
         _, _, _, swept = check_both(capsys, monkeypatch, ferries / name)
         assert swept is not None, name
 
@@ -315,7 +315,7 @@ RARE = st.sampled_from([False, False, False, True])  # so that many transcripts 
     seed=st.integers(0, 2**32)),
     rows=st.sampled_from(["0", "1", "5", "20"]))
 def test_generated_transcripts_check_the_same_with_the_sweep_on_or_off(tmp_path, capsys, monkeypatch, knobs, rows):
-    written = write_transcript(tmp_path / "generated.stp", knobs)
+    written = write_transcript(tmp_path / "generated.sumtr", knobs)
     code, _, _, swept = check_both(capsys, monkeypatch, written.path, "--rows", rows)
     event(f"exit {code}, {'regular' if written.regular else 'irregular'}, {'swept' if swept else 'gave up'}")
     if swept is not None:  # it gives up on incomplete and corrupt files, and on failing runs
@@ -366,21 +366,21 @@ def assert_same_report(path: Path, keep: int, limits: ReadLimits | None = None) 
 def test_sweep_takes_a_regular_honest_transcript_and_reports_as_the_replay(tmp_path, field, schedule):
     knobs = Knobs(field=field, schedule=schedule, instances=12, max_vars=8, max_degree=4, extras=True, appended=2,
                   seed=11)
-    written = write_transcript(tmp_path / "regular.stp", knobs)
+    written = write_transcript(tmp_path / "regular.sumtr", knobs)
     assert written.regular
     assert_same_report(written.path, 20)
 
 
 def test_sweep_takes_rounds_of_fewer_evaluations_and_several_layouts(tmp_path):
     knobs = Knobs(field="koalabear", instances=20, max_degree=4, fewer=True, seed=5)
-    written = write_transcript(tmp_path / "fewer.stp", knobs)
+    written = write_transcript(tmp_path / "fewer.sumtr", knobs)
     assert_same_report(written.path, 20)
 
 
 def test_sweep_takes_long_rounds_packed_as_bin16_between_short_ones(tmp_path):
     # degree up to 80 over Goldilocks: rounds of more than 255 bytes of values (msgpack bin 16)
     knobs = Knobs(field="goldilocks", instances=12, max_vars=4, max_degree=80, fewer=True, seed=16)
-    written = write_transcript(tmp_path / "long.stp", knobs)
+    written = write_transcript(tmp_path / "long.sumtr", knobs)
     sizes = [end - start for kind, start, end in written.offsets if kind == "round"]
     assert max(sizes) > 270 and min(sizes) < 250
     assert_same_report(written.path, 20)
@@ -389,14 +389,14 @@ def test_sweep_takes_long_rounds_packed_as_bin16_between_short_ones(tmp_path):
 def test_sweep_keeps_the_schedule_state_across_blocks_and_chunks(tmp_path, monkeypatch):
     # blocks of 5 rounds and 97-byte reads: runs split across blocks and across refills
     monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 5)
-    written = write_transcript(tmp_path / "blocks.stp", Knobs(instances=15, max_vars=8, extras=True, seed=3))
+    written = write_transcript(tmp_path / "blocks.sumtr", Knobs(instances=15, max_vars=8, extras=True, seed=3))
     assert_same_report(written.path, 20, ReadLimits(chunk_bytes=97))
     assert_same_report(written.path, 3, ReadLimits(chunk_bytes=4096))
 
 
 def test_fifty_instances_keeping_two_give_the_same_summaries_counts_and_soundness(tmp_path):
     knobs = Knobs(field="goldilocks", instances=50, max_vars=5, max_degree=3, seed=50)
-    written = write_transcript(tmp_path / "fifty.stp", knobs)
+    written = write_transcript(tmp_path / "fifty.sumtr", knobs)
     assert_same_report(written.path, 2)
     report, _ = swept_report(written.path, 2)
     assert len(report.instances) == 2 and report.counts["pass"] == 50
@@ -407,7 +407,7 @@ def test_fifty_instances_keeping_two_give_the_same_summaries_counts_and_soundnes
 def test_sweep_gives_up_on_every_fault(tmp_path, capsys, monkeypatch, field, fault):
     for seed in range(3):
         knobs = Knobs(field=field, instances=8, max_vars=6, max_degree=3, fault=fault, seed=seed)
-        written = write_transcript(tmp_path / f"{fault}.stp", knobs)
+        written = write_transcript(tmp_path / f"{fault}.sumtr", knobs)
         assert swept_report(written.path, 20) is None, (fault, seed)
         code, _, _, swept = check_both(capsys, monkeypatch, written.path)
         assert swept is None and code != 0
@@ -417,13 +417,13 @@ def test_sweep_gives_up_on_notes_between_rounds_and_on_missing_finals(tmp_path):
     for name, knobs in [("between", Knobs(instances=6, between_rounds=True, seed=2)),
                         ("nofinal", Knobs(instances=6, no_final=True, seed=4)),
                         ("ragged", Knobs(instances=6, max_degree=4, ragged=True, seed=6))]:
-        written = write_transcript(tmp_path / f"{name}.stp", knobs)
+        written = write_transcript(tmp_path / f"{name}.sumtr", knobs)
         assert not written.regular, name
         assert swept_report(written.path, 20) is None, name
 
 
 def test_an_unfinished_transcript_is_left_to_the_replay(tmp_path):
-    written = write_transcript(tmp_path / "open.stp", Knobs(instances=3, seed=8))
+    written = write_transcript(tmp_path / "open.sumtr", Knobs(instances=3, seed=8))
     data = written.path.read_bytes()
     written.path.write_bytes(data[:len(data) - len(_last_object(data))])  # the end event removed
     assert swept_report(written.path, 20) is None
@@ -436,7 +436,7 @@ def _last_object(data: bytes) -> bytes:
 
 
 def test_sweep_is_off_when_the_environment_says_so(tmp_path, monkeypatch):
-    written = write_transcript(tmp_path / "off.stp", Knobs(instances=2))
+    written = write_transcript(tmp_path / "off.sumtr", Knobs(instances=2))
     monkeypatch.setenv("STEPPER_SWEEP", "off")
     assert swept_report(written.path, 20) is None
     monkeypatch.delenv("STEPPER_SWEEP")
@@ -444,7 +444,7 @@ def test_sweep_is_off_when_the_environment_says_so(tmp_path, monkeypatch):
 
 
 def test_files_below_min_bytes_are_left_to_the_replay_unless_the_environment_says_on(tmp_path, monkeypatch):
-    written = write_transcript(tmp_path / "small.stp", Knobs(instances=2))
+    written = write_transcript(tmp_path / "small.sumtr", Knobs(instances=2))
     size = written.path.stat().st_size
     monkeypatch.delenv("STEPPER_SWEEP", raising=False)
     assert sweep(written.path, Replay(keep_instances=20, emit_passing=False), min_bytes=size + 1) is None
@@ -455,7 +455,7 @@ def test_files_below_min_bytes_are_left_to_the_replay_unless_the_environment_say
 
 @pytest.mark.parametrize("field", ["babybear^4", "p64", "bn254"])
 def test_sweep_declines_fields_it_cannot_check_by_the_block(tmp_path, field):
-    written = write_transcript(tmp_path / "other.stp", Knobs(field=field, instances=3, seed=21))
+    written = write_transcript(tmp_path / "other.sumtr", Knobs(field=field, instances=3, seed=21))
     assert event_by_event(written.path, 20)[0].verdict == "accept"
     assert swept_report(written.path, 20) is None
 
@@ -471,7 +471,7 @@ def test_instances_alternating_two_degrees_are_checked_in_few_blocks(tmp_path, m
         return real(*args)
 
     monkeypatch.setattr(roundblock, "block_passes", counting)
-    written = write_transcript(tmp_path / "mixed.stp", Knobs(instances=100, max_vars=4, degrees=(3, 2), seed=22))
+    written = write_transcript(tmp_path / "mixed.sumtr", Knobs(instances=100, max_vars=4, degrees=(3, 2), seed=22))
     assert_same_report(written.path, 20)
     assert len(calls) <= 4
 
@@ -481,7 +481,7 @@ def test_a_failure_in_an_instance_not_taken_as_a_run_is_judged_by_the_same_repla
     # is the replay's own result, so the report must equal the event-by-event one, verdict included.
     for seed in range(4):
         knobs = Knobs(field="goldilocks", instances=8, compressed=True, batch=True, fault="eval", seed=seed)
-        written = write_transcript(tmp_path / "compressed.stp", knobs)
+        written = write_transcript(tmp_path / "compressed.sumtr", knobs)
         expected, expected_notes = event_by_event(written.path, 20)
         got = swept_report(written.path, 20)
         if got is not None:
@@ -558,11 +558,11 @@ def resealed(data: bytes) -> bytes:
 
 @pytest.mark.parametrize("schedule", ["builtin", "none"])
 def test_hostile_mutations_never_crash_and_check_the_same_either_way(tmp_path, capsys, monkeypatch, schedule):
-    written = write_transcript(tmp_path / "seed.stp", Knobs(field="goldilocks", schedule=schedule, instances=10,
+    written = write_transcript(tmp_path / "seed.sumtr", Knobs(field="goldilocks", schedule=schedule, instances=10,
                                                             max_vars=5, max_degree=3, seed=9))
     base = written.path.read_bytes()
     rng = random.Random(f"hostile-{schedule}")
-    path = tmp_path / "hostile.stp"
+    path = tmp_path / "hostile.sumtr"
     outcomes: dict[int, int] = {}
     for _ in range(150):
         data, reseal = mutate(rng, base)
@@ -583,10 +583,10 @@ def test_hostile_mutations_never_crash_and_check_the_same_either_way(tmp_path, c
 
 def test_duplicated_and_swapped_runs_without_a_schedule_are_still_swept(tmp_path):
     # with no schedule every instance stands alone: reordered, resealed runs are an honest proof
-    written = write_transcript(tmp_path / "seed.stp", Knobs(schedule="none", instances=4, seed=12))
+    written = write_transcript(tmp_path / "seed.sumtr", Knobs(schedule="none", instances=4, seed=12))
     data = written.path.read_bytes()
     (a, b), (c, d) = instance_runs(event_spans(data))[:2]
-    path = tmp_path / "reordered.stp"
+    path = tmp_path / "reordered.sumtr"
     path.write_bytes(resealed(data[:a] + data[c:d] + data[b:c] + data[a:b] + data[a:b] + data[d:]))
     assert_same_report(path, 20)
 
@@ -596,13 +596,13 @@ def test_sweep_returns_none_on_event_files_directories_and_missing_files(tmp_pat
     jsonl.write_text('{"type": "field", "name": "babybear"}\n{"type": "instance", "name": "deck-slots-zero", '
                      '"num_vars": 1, "degree": 1, "claim": 4}\n{"type": "round", "evals": [1, 3]}\n'
                      '{"type": "challenge", "value": 2}\n{"type": "final", "value": 5}\n')
-    empty = tmp_path / "empty.stp"
+    empty = tmp_path / "empty.sumtr"
     empty.write_bytes(b"")
-    for path in (jsonl, tmp_path, tmp_path / "absent.stp", empty):
+    for path in (jsonl, tmp_path, tmp_path / "absent.sumtr", empty):
         assert sweep(path, Replay(keep_instances=20, emit_passing=False)) is None
     code, out, _, swept = check_both(capsys, monkeypatch, jsonl)
     assert (code, swept) == (0, None) and "ACCEPTED" in out
-    for path in (tmp_path, tmp_path / "absent.stp", empty):
+    for path in (tmp_path, tmp_path / "absent.sumtr", empty):
         code, out, err, _ = check_both(capsys, monkeypatch, path)
         assert code == 2 and out == "" and err.startswith("stepper check: ")
 
@@ -610,9 +610,9 @@ def test_sweep_returns_none_on_event_files_directories_and_missing_files(tmp_pat
 def test_a_file_without_an_end_event_is_declined_before_it_is_read(tmp_path, monkeypatch):
     # An unfinished transcript (a prover still writing it) would be read in full and then given up;
     # the sweep looks at the file's last megabyte for an end event first.
-    written = write_transcript(tmp_path / "whole.stp", Knobs(instances=6))
+    written = write_transcript(tmp_path / "whole.sumtr", Knobs(instances=6))
     data = written.path.read_bytes()
-    cut = tmp_path / "cut.stp"
+    cut = tmp_path / "cut.sumtr"
     cut.write_bytes(data[: len(data) - 80])  # the end event and some of the last final go
     assert end_payload(0, b"")["type"] == "end"
 

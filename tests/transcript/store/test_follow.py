@@ -69,10 +69,10 @@ def grow(path: Path, data: bytes, cuts: list[int], chunk_bytes: int = 1 << 20) -
 
 @pytest.mark.parametrize("chunk_bytes", [17, 31, 1 << 20])  # events straddling reads, or one read per step
 def test_a_transcript_grown_in_steps_yields_each_event_once_and_ends_verified(tmp_path, chunk_bytes):
-    data, ends = finished_transcript(tmp_path / "whole.stp")
+    data, ends = finished_transcript(tmp_path / "whole.sumtr")
     cuts = [ends[0], ends[2] + 3, ends[2] + 5, ends[5], ends[-2] - 7, ends[-2], ends[-1]]  # cuts inside events
-    stream, batches = grow(tmp_path / "live.stp", data, cuts, chunk_bytes)
-    records, completeness, digest = fresh(tmp_path / "whole.stp")
+    stream, batches = grow(tmp_path / "live.sumtr", data, cuts, chunk_bytes)
+    records, completeness, digest = fresh(tmp_path / "whole.sumtr")
     assert [len(b) for b in batches] == [0, 2, 0, 3, len(records) - 6, 0, 1]
     assert [r for batch in batches for r in batch] == records
     assert (stream.completeness, stream.digest, stream.truncated_at) == (completeness, digest, None) == (
@@ -84,22 +84,22 @@ def test_a_transcript_grown_in_steps_yields_each_event_once_and_ends_verified(tm
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(st.data())
 def test_every_prefix_read_while_following_holds_exactly_the_whole_events_in_it(tmp_path, data):
-    whole, ends = finished_transcript(tmp_path / "whole.stp", rounds=3, notes=2)
+    whole, ends = finished_transcript(tmp_path / "whole.sumtr", rounds=3, notes=2)
     inner = data.draw(st.lists(st.integers(ends[0], len(whole)), max_size=8).map(sorted))
     cuts = [ends[0], *inner, len(whole)]
-    stream, batches = grow(tmp_path / "live.stp", whole, cuts)
+    stream, batches = grow(tmp_path / "live.sumtr", whole, cuts)
     seen: list = []
     for cut, batch in zip(cuts, batches):
         seen.extend(batch)
-        (tmp_path / "prefix.stp").write_bytes(whole[:cut])
-        assert seen == fresh(tmp_path / "prefix.stp")[0]  # a plain read drops a cut-off last event
+        (tmp_path / "prefix.sumtr").write_bytes(whole[:cut])
+        assert seen == fresh(tmp_path / "prefix.sumtr")[0]  # a plain read drops a cut-off last event
     assert (stream.completeness, stream.digest) == ("complete", "verified")
     stream.close()
 
 
 def test_a_half_written_tail_is_not_an_event_yet_and_not_reported_cut_off(tmp_path):
-    data, ends = finished_transcript(tmp_path / "whole.stp")
-    path = tmp_path / "live.stp"
+    data, ends = finished_transcript(tmp_path / "whole.sumtr")
+    path = tmp_path / "live.sumtr"
     path.write_bytes(data[:ends[3] + 4])
     with open_events(path) as plain:
         list(plain)
@@ -111,21 +111,21 @@ def test_a_half_written_tail_is_not_an_event_yet_and_not_reported_cut_off(tmp_pa
 
 
 def test_the_digest_equals_sha256_of_the_recorded_bytes_when_the_end_event_arrives_in_pieces(tmp_path):
-    data, ends = finished_transcript(tmp_path / "whole.stp", notes=0)
+    data, ends = finished_transcript(tmp_path / "whole.sumtr", notes=0)
     end_start = ends[-2]
     # SHA-256 per FIPS 180-4 through hashlib, independent of the reader's held-back hashing
     recorded = hashlib.sha256(data[:end_start]).digest()
     assert data.endswith(recorded)
-    stream, batches = grow(tmp_path / "live.stp", data, [end_start - 1, end_start + 10, end_start + 40, len(data)])
+    stream, batches = grow(tmp_path / "live.sumtr", data, [end_start - 1, end_start + 10, end_start + 40, len(data)])
     assert stream.digest == "verified" and batches[-1] == []
     stream.close()
 
 
 def test_a_changed_recorded_byte_is_corrupt_when_the_end_event_arrives(tmp_path):
-    data, ends = finished_transcript(tmp_path / "whole.stp", notes=0)
+    data, ends = finished_transcript(tmp_path / "whole.sumtr", notes=0)
     broken = bytearray(data)
     broken[ends[2] - 1] ^= 0x01  # inside the first round's packed evaluations
-    path = tmp_path / "live.stp"
+    path = tmp_path / "live.sumtr"
     path.write_bytes(bytes(broken[:ends[-2]]))
     with FollowedStream(path) as stream:
         list(stream)
@@ -137,8 +137,8 @@ def test_a_changed_recorded_byte_is_corrupt_when_the_end_event_arrives(tmp_path)
 
 
 def test_after_the_end_event_only_appended_notes_arrive(tmp_path):
-    data, ends = finished_transcript(tmp_path / "whole.stp", notes=0)
-    path = tmp_path / "live.stp"
+    data, ends = finished_transcript(tmp_path / "whole.sumtr", notes=0)
+    path = tmp_path / "live.sumtr"
     path.write_bytes(data)
     with FollowedStream(path) as stream:
         list(stream)
@@ -154,8 +154,8 @@ def test_after_the_end_event_only_appended_notes_arrive(tmp_path):
 
 
 def test_more_before_the_stream_ran_dry_is_refused(tmp_path):
-    data, _ = finished_transcript(tmp_path / "whole.stp")
-    with FollowedStream(tmp_path / "whole.stp") as stream:
+    data, _ = finished_transcript(tmp_path / "whole.sumtr")
+    with FollowedStream(tmp_path / "whole.sumtr") as stream:
         next(iter(stream))
         with pytest.raises(InternalError):
             stream.more()
@@ -200,8 +200,8 @@ def test_a_json_lines_file_that_looked_whole_can_grow_further(tmp_path):
 
 
 def test_continues_is_false_once_the_file_is_replaced_or_shorter_than_read(tmp_path):
-    data, ends = finished_transcript(tmp_path / "whole.stp")
-    path = tmp_path / "live.stp"
+    data, ends = finished_transcript(tmp_path / "whole.sumtr")
+    path = tmp_path / "live.sumtr"
     path.write_bytes(data[:ends[4]])
     with FollowedStream(path) as stream:
         list(stream)
@@ -212,6 +212,6 @@ def test_continues_is_false_once_the_file_is_replaced_or_shorter_than_read(tmp_p
         with path.open("r+b") as handle:
             handle.truncate(ends[2])
         assert not stream.continues(os.stat(path))
-        (tmp_path / "next.stp").write_bytes(data)
-        os.replace(tmp_path / "next.stp", path)
+        (tmp_path / "next.sumtr").write_bytes(data)
+        os.replace(tmp_path / "next.sumtr", path)
         assert not stream.continues(os.stat(path))
