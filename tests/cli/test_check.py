@@ -285,7 +285,7 @@ def test_detail_shows_recovered_values_of_a_compressed_form(tmp_path, capsys):
 
 def test_a_witness_of_one_hundred_thousand_nested_brackets_exits_2_not_70(tmp_path, capsys):
     # it used to end in "internal error (RecursionError ...)" with exit 70
-    transcript = write_stp(tmp_path / "run.stp", honest())
+    transcript = write_sumtr(tmp_path / "run.sumtr", honest())
     witness = tmp_path / "deep.json"
     witness.write_text("[" * 100_000)
     assert main(["check", str(transcript), "--witness", str(witness)]) == 2

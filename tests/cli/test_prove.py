@@ -192,13 +192,13 @@ def test_demo_run_again_keeps_a_note_the_user_added_and_names_the_file(tmp_path,
     # it used to rewrite the whole folder of an earlier demo, silently dropping the note
     folder = tmp_path / "d"
     assert main(["demo", "--dir", str(folder), "--no-view"]) == 0
-    honest = folder / "ferries-honest.stp"
+    honest = folder / "ferries-honest.sumtr"
     assert main(["note", str(honest), "checked with the harbour master"]) == 0
     noted = honest.read_bytes()
     capsys.readouterr()
     assert main(["demo", "--dir", str(folder), "--no-view"]) == 2
     err = capsys.readouterr().err
-    assert err.count("\n") == 1 and "ferries-honest.stp" in err and "--force" in err
+    assert err.count("\n") == 1 and "ferries-honest.sumtr" in err and "--force" in err
     assert honest.read_bytes() == noted
     assert main(["demo", "--dir", str(folder), "--no-view", "--force"]) == 0
     assert honest.read_bytes() != noted  # replaced only when asked

@@ -40,7 +40,7 @@ def _half_written(path: Path) -> TranscriptWriter:
 
 def test_a_note_made_while_a_writer_holds_the_file_waits_beside_it_and_is_folded_in_at_the_end(tmp_path, capsys):
     # before the lock, the note was appended into the file and the writer's next event overwrote it
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     writer = _half_written(path)
     assert main(["note", str(path), "gate 3 rescanned ticket 118"]) == 0
     assert "kept in" in capsys.readouterr().out
@@ -57,7 +57,7 @@ def test_a_note_made_while_a_writer_holds_the_file_waits_beside_it_and_is_folded
 
 
 def test_a_writer_that_closes_unsealed_still_folds_the_waiting_notes(tmp_path):
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     writer = _half_written(path)
     assert append_note(path, Note("prover crashed soon after", None, None)) == pending_path(path)
     writer.close()
@@ -66,7 +66,7 @@ def test_a_writer_that_closes_unsealed_still_folds_the_waiting_notes(tmp_path):
 
 
 def test_a_second_writer_is_refused_and_the_first_recording_is_untouched(tmp_path):
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     writer = _half_written(path)
     before = path.read_bytes()
     with pytest.raises(TranscriptError, match="another writer holds its lock"):
@@ -76,7 +76,7 @@ def test_a_second_writer_is_refused_and_the_first_recording_is_untouched(tmp_pat
 
 
 def test_a_live_writer_refuses_an_existing_file_unless_asked_to_replace_it(tmp_path):
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     path.write_bytes(b"the user's own file")
     with pytest.raises(OutputExists, match="--force"):
         TranscriptWriter(path, replace=False)
@@ -98,7 +98,7 @@ _RECORDER = textwrap.dedent("""
 
 
 def test_notes_survive_a_recorder_killed_with_sigkill_and_the_next_note_folds_them(tmp_path):
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     child = subprocess.Popen([sys.executable, "-c", _RECORDER.format(tests=str(ROOT / "tests")), str(path)],
                              stdout=subprocess.PIPE, cwd=ROOT, text=True)
     try:
@@ -114,7 +114,7 @@ def test_notes_survive_a_recorder_killed_with_sigkill_and_the_next_note_folds_th
 
 
 def test_two_processes_adding_notes_at_once_both_land(tmp_path):
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     with TranscriptWriter(path) as writer:
         for payload in PAYLOADS:
             writer.write_payload(payload)
@@ -129,7 +129,7 @@ def test_two_processes_adding_notes_at_once_both_land(tmp_path):
 
 
 def test_a_note_waiting_on_a_busy_note_takes_its_turn(tmp_path):
-    path = tmp_path / "quill.stp"
+    path = tmp_path / "quill.sumtr"
     with TranscriptWriter(path) as writer:
         for payload in PAYLOADS:
             writer.write_payload(payload)
