@@ -194,11 +194,13 @@ def round_evals(counter: MulCounter, tables: Mapping[str, np.ndarray], summand: 
 
 def run_tables(channel: ProofChannel, counter: MulCounter, name: str, tables: dict[str, np.ndarray],
                summand: Summand, claim: Element, *, order: str = "low-first", form: str = "evals",
-               label: str | None = None) -> tuple[InstanceRun, dict[str, np.ndarray]]:
+               label: str | None = None, glue: Mapping[str, Any] | None = None
+               ) -> tuple[InstanceRun, dict[str, np.ndarray]]:
     """Prove one instance over ``tables``; returns its run and the tables as
-    folded to one entry each (their values at the challenge point)."""
+    folded to one entry each (their values at the challenge point). ``glue``
+    holds the instance's ``claim_expr`` / ``final_expr`` when it has them."""
     num_vars = len(next(iter(tables.values()))).bit_length() - 1
-    index = channel.start_instance(name, num_vars, summand.degree, claim, order=order, form=form)
+    index = channel.start_instance(name, num_vars, summand.degree, claim, order=order, form=form, **(glue or {}))
     fault = channel.fault
     tag = label or name
     challenges: list[Element] = []

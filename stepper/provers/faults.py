@@ -20,6 +20,20 @@ a worked example of that bug:
 * ``unbound-claim``     the Fiat-Shamir schedule absorbs the claim as zero, so
                         the challenges do not depend on the claimed sum.
 
+Glue faults (between sumchecks; see :mod:`stepper.provers.openings`,
+:mod:`stepper.provers.gkr` and :mod:`stepper.provers.eqfactored`):
+
+* ``open-reversed``     the instance's openings taken at its challenge point read
+                        backwards;
+* ``open-other-point``  the openings taken at an earlier instance's challenge point;
+* ``open-wrong-table``  the first opening carries the second opened table's value;
+* ``stale-coefficient`` a GKR layer's claim built with the previous layer's
+                        squeezed coefficient (instance >= 1);
+* ``drop-eq@K``         eq-factored round K sent divided by the eq factor the
+                        verifier multiplies back (K >= 2);
+* ``double-eq@K``       eq-factored round K sent already multiplied by it (K >= 2);
+* ``final-without-eq``  the instance's final_expr written without its eq term.
+
 Everything here is pure; parsing errors are :class:`UsageError` lines.
 """
 
@@ -33,7 +47,7 @@ from stepper.errors import UsageError
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
 
-__all__ = ["Fault", "FAULTS", "parse_fault", "montgomery_radix"]
+__all__ = ["Fault", "FAULTS", "GLUE_FAULT_KINDS", "parse_fault", "montgomery_radix"]
 
 # name -> (takes a round?, one-line description)
 FAULTS: dict[str, tuple[bool, str]] = {
@@ -45,6 +59,24 @@ FAULTS: dict[str, tuple[bool, str]] = {
     "drop-eval": (True, "omit round K's last evaluation"),
     "negate-claim": (False, "claim the negated sum"),
     "unbound-claim": (False, "leave the claim out of the Fiat-Shamir schedule (absorbed as zero)"),
+    "open-reversed": (False, "take the instance's openings at its challenge point read backwards"),
+    "open-other-point": (False, "take the instance's openings at an earlier instance's challenge point"),
+    "open-wrong-table": (False, "send the second opened table's value as the first opening"),
+    "stale-coefficient": (False, "build a GKR layer's claim with the previous layer's coefficient"),
+    "drop-eq": (True, "send eq-factored round K divided by the eq factor of the rounds before it"),
+    "double-eq": (True, "send eq-factored round K multiplied by the eq factor of the rounds before it"),
+    "final-without-eq": (False, "write the instance's final_expr without its eq term"),
+}
+
+# glue fault -> the prover kinds that can make it (a fault no prover of a kind makes is refused)
+GLUE_FAULT_KINDS: dict[str, tuple[str, ...]] = {
+    "open-reversed": ("gkr-product", "zerocheck-eq"),
+    "open-other-point": (),
+    "open-wrong-table": ("gkr-product", "zerocheck-eq"),
+    "stale-coefficient": ("gkr-product",),
+    "drop-eq": ("zerocheck-eq",),
+    "double-eq": ("zerocheck-eq",),
+    "final-without-eq": ("gkr-product", "zerocheck-eq"),
 }
 
 
@@ -64,6 +96,8 @@ class Fault:
             raise UsageError(f"expected a fault round >= 1, found {self.round}")
         if self.name == "stale-challenge" and self.round < 2:
             raise UsageError("expected stale-challenge@K with K >= 2 (round 1 has no earlier challenge)")
+        if self.name in ("drop-eq", "double-eq") and self.round < 2:
+            raise UsageError(f"expected {self.name}@K with K >= 2 (round 1 has no eq factor before it)")
 
     def hits(self, instance: int, name: str, round_: int | None = None) -> bool:
         """Does this fault act on ``instance`` (and at ``round_``, if given)?"""
@@ -87,7 +121,7 @@ def parse_fault(text: str, instance: int = 0) -> Fault:
         raise UsageError(f"expected a fault among {', '.join(FAULTS)}, found {name!r}")
     takes_round = FAULTS[name][0]
     if not at:
-        return Fault(name, 2 if name == "stale-challenge" else 1, instance)
+        return Fault(name, 2 if name in ("stale-challenge", "drop-eq", "double-eq") else 1, instance)
     if not takes_round:
         raise UsageError(f"expected no @ROUND for fault {name}, found {text!r}")
     if not at.isdigit():

@@ -28,7 +28,7 @@ if TYPE_CHECKING:
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 
-__all__ = ["prove_sum", "prove_zero", "field_tables"]
+__all__ = ["prove_sum", "prove_zero", "field_tables", "mix_constraints", "mix_witness", "renamed"]
 
 
 def field_tables(field: Field, tables: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
@@ -71,7 +71,8 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
     counter.phase(f"{name}/setup")
     tau = channel.statement_challenges("zero-check-point", statement, num_vars)
     eq = counter.eq_table(tau)
-    combine, extra = _mix(channel, counter, constraints, statement, eq)
+    weights, _ = mix_constraints(channel, counter, constraints, statement)
+    combine, extra = mix_witness(counter, constraints, weights, eq)
     env = {**used, **extra}
     summand = ExprSummand.of(parse(combine))
     missing = [n for n in summand.names if n not in env]
@@ -82,7 +83,40 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
     return ProofRun((run,), (WitnessInstance(name, env, combine, order),), counter.per_phase())
 
 
-def _mix(channel: ProofChannel, counter: MulCounter, constraints: Sequence[str], statement: list[bytes],
+def mix_constraints(channel: ProofChannel, counter: MulCounter, constraints: Sequence[str],
+                    statement: list[bytes]) -> tuple[list[Element], Element | None]:
+    """The weights 1, gamma, gamma^2 ... of the constraints and gamma (None for one
+    constraint): a fixed mix would let two constraints cancel."""
+    field = counter.field
+    if len(constraints) == 1:
+        return [field.one], None
+    gamma = channel.statement_challenges("constraint-mix", statement, 1)[0]
+    weights = [field.one]
+    for _ in constraints[1:]:
+        weights.append(counter.mul(weights[-1], gamma))
+    return weights, gamma
+
+
+def renamed(constraints: Sequence[str], prefix: str, names: Sequence[str], gamma_name: str) -> str:
+    """C_1 + gamma * C_2 + gamma^2 * C_3 ... as expression text over the openings
+    (each table name given the prefix the openings carry)."""
+    import re
+
+    wanted = set(names)
+
+    def swap(match: re.Match[str]) -> str:
+        word = match.group(0)
+        return prefix + word if word in wanted else word
+
+    parts = [f"({re.sub(r'[A-Za-z_][A-Za-z0-9_.]*', swap, c)})" for c in constraints]
+    terms = [parts[0]]
+    for j, part in enumerate(parts[1:], start=1):
+        power = gamma_name if j == 1 else f"{gamma_name}^{j}"
+        terms.append(f"{power} * {part}")
+    return " + ".join(terms)
+
+
+def mix_witness(counter: MulCounter, constraints: Sequence[str], weights: Sequence[Element],
          eq: np.ndarray) -> tuple[str, dict[str, np.ndarray]]:
     """eq * (C_1 + gamma * C_2 + gamma^2 * C_3 ...): gamma^j as an integer constant in a
     prime field; over an extension as tables ``eq_mix1``, ``eq_mix2`` ... = gamma^j * eq
@@ -90,13 +124,10 @@ def _mix(channel: ProofChannel, counter: MulCounter, constraints: Sequence[str],
     field = counter.field
     if len(constraints) == 1:
         return f"eq * ({constraints[0]})", {"eq": eq}
-    gamma = channel.statement_challenges("constraint-mix", statement, 1)[0]
-    power: Element = field.one
     inner = [f"({constraints[0]})"]
     outer: list[str] = []
     extra: dict[str, np.ndarray] = {"eq": eq}
-    for j, c in enumerate(constraints[1:], start=1):
-        power = counter.mul(power, gamma)
+    for j, (c, power) in enumerate(zip(constraints[1:], weights[1:]), start=1):
         if field.is_extension:
             extra[f"eq_mix{j}"] = counter.vscale(eq, power)
             outer.append(f"eq_mix{j} * ({c})")

@@ -20,7 +20,7 @@ from stepper.errors import UsageError
 from stepper.provers.channel import ProofChannel
 from stepper.provers.counting import MulCounter
 from stepper.provers.engine import ProofRun
-from stepper.provers.faults import Fault
+from stepper.provers.faults import GLUE_FAULT_KINDS, Fault
 from stepper.provers.generic import prove_sum, prove_zero
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
@@ -60,6 +60,10 @@ class ProveSpec:
         if not 0 <= self.seed < 1 << 63:
             raise UsageError(f"expected a non-negative --seed below 2^63, found {self.seed}")
         fault = self.fault
+        if fault is not None and fault.name in GLUE_FAULT_KINDS and self.kind not in GLUE_FAULT_KINDS[fault.name]:
+            kinds = ", ".join(GLUE_FAULT_KINDS[fault.name]) or "no kind yet"
+            raise UsageError(f"expected fault {fault.name} with a prover kind that makes it ({kinds}), "
+                             f"found --kind {self.kind}")
         if fault is not None:
             count = self.instance_count
             if fault.instance >= count:
