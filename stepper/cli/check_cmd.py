@@ -85,7 +85,11 @@ def run(args: argparse.Namespace) -> int:
 
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
-    challenger = load_challenger(args.challenges) if args.challenges else None
+    challenger = None
+    if args.challenges:
+        from stepper.verify.challenges import GuardedPlugin
+
+        challenger = GuardedPlugin(load_challenger(args.challenges), label=args.challenges)
     detail = bool(args.json or args.witness or args.detail)
 
     def new_replay() -> Replay:

@@ -88,7 +88,7 @@ class ElementCodec:
                     where,
                 ) from None
         if not 0 <= n < self.p:
-            raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {clip_text(str(n))}", where)
+            raise FieldError(f"expected a canonical element 0 <= v < p = {self.p}, found {clip_int(n)}", where)
         return n
 
     def _parse_text(self, value: str, where: Where | None) -> int:
@@ -168,6 +168,14 @@ def format_poly(coeffs: tuple[int, ...], p: int) -> str:
         sign = "-" if neg else "+"
         terms.append(("-" if neg else "") + body if not terms else f" {sign} {body}")
     return "".join(terms) or "0"
+
+
+def clip_int(n: int, limit: int = 60) -> str:
+    """An integer for an error message: its digits, or its size when it has too many to print
+    (Python refuses to print integers of more than 4300 digits)."""
+    if n.bit_length() > 4 * limit:
+        return f"{'a negative' if n < 0 else 'an'} integer of {n.bit_length()} bits"
+    return clip_text(str(n), limit)
 
 
 def clip_text(text: str, limit: int = 60) -> str:

@@ -262,6 +262,8 @@ class Sequencer:
         if self.instances:
             raise self._fail("expected the `schedule` event before the first instance")
         name = checked_text(payload.get("name"), "schedule name", self._fail)
+        if not name:
+            raise self._fail("expected a non-empty schedule `name`, found an empty one")
         label = checked_text(payload.get("label", ""), "schedule label", self._fail)
         params = payload.get("params", {})
         if not isinstance(params, Mapping):

@@ -21,6 +21,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Sequence
 
 from stepper.errors import InputError, Where
+from stepper.field.elements import clip_text
 from stepper.field.poly import FORMS, ORDERS
 from stepper.transcript.model import BatchDecl, ChallengeMsg, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
 from stepper.verify.verdict import Finding
@@ -82,18 +83,38 @@ def history_payload(record: Event, field: Field) -> dict[str, Any] | None:
     return None
 
 
+class PluginFailure(InputError):
+    """The challenge plug-in raised, ran past its time limit, or answered with something unusable
+    (exit 2). The binding probe lets it through instead of reading it as "bound"."""
+
+
+def plugin_name(challenger: Challenger) -> str:
+    """How messages name a plug-in: the MODULE:FUNCTION the user typed, when known."""
+    label = getattr(challenger, "label", None)
+    if isinstance(label, str):
+        return label
+    return f"{getattr(challenger, '__module__', '?')}:{getattr(challenger, '__qualname__', type(challenger).__name__)}"
+
+
 def call_challenger(challenger: Challenger, history: Sequence[Mapping[str, Any]], field: Field,
                     where: Where) -> Element:
-    """The plug-in's challenge, parsed as an element of ``field``; its errors become InputError."""
+    """The plug-in's challenge, parsed as an element of ``field``; its errors become
+    :class:`PluginFailure` naming the plug-in, the instance and the round."""
+    name = plugin_name(challenger)
     try:
         raw = challenger(history)
+    except PluginFailure as err:
+        raise PluginFailure(err.message, where) from None
     except Exception as err:  # user code: any failure is the plug-in's, reported as input
-        raise InputError(f"expected the challenge plug-in to return a challenge, but it raised "
-                         f"{type(err).__name__}: {err}", where) from None
+        raise PluginFailure(f"expected the challenge plug-in {name} to return a challenge, but it raised "
+                            f"{type(err).__name__}: {clip_text(str(err))}", where) from None
     try:
         return field.parse(raw, where)
     except InputError as err:
-        raise InputError(f"challenge plug-in returned an unusable value: {err.message}", where) from None
+        raise PluginFailure(f"challenge plug-in {name} returned an unusable value: {err.message}", where) from None
+    except (RecursionError, ValueError, TypeError, OverflowError, MemoryError) as err:
+        raise PluginFailure(f"challenge plug-in {name} returned an unusable value "
+                            f"({type(err).__name__}: {clip_text(str(err))})", where) from None
 
 
 def _bump(value: Any, p: int) -> Any:
@@ -129,6 +150,8 @@ def _variants(payload: dict[str, Any], p: int) -> Iterator[tuple[str, dict[str, 
 def _challenge_or_none(challenger: Challenger, history: list[dict[str, Any]]) -> Any:
     try:
         return challenger(History(history))
+    except PluginFailure:  # ran past its time limit or could not be run: not a verdict about binding
+        raise
     except Exception:  # a plug-in that refuses a perturbed history has noticed it: bound
         return None
 

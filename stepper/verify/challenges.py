@@ -10,10 +10,16 @@ for the built-in schedule; the plug-in history grows with the proof.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+import os
+import signal
+import threading
+import time
+from typing import TYPE_CHECKING, Any, Callable
 
-from stepper.verify.binding import Challenger, History, call_challenger, history_payload, probe_binding
+from stepper.verify.binding import (Challenger, History, PluginFailure, call_challenger, history_payload,
+                                    plugin_name, probe_binding)
 from stepper.errors import InputError, Where
+from stepper.field.elements import clip_text
 from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
 from stepper.transcript.model import FieldDecl, ScheduleDecl
 from stepper.verify.verdict import Finding
@@ -22,7 +28,74 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event, InstanceStart
 
-__all__ = ["ChallengeSource"]
+__all__ = ["ChallengeSource", "GuardedPlugin", "PLUGIN_SECONDS_ENV", "DEFAULT_PLUGIN_SECONDS"]
+
+PLUGIN_SECONDS_ENV = "STEPPER_CHALLENGES_SECONDS"
+DEFAULT_PLUGIN_SECONDS = 10.0
+
+
+class _Expired(BaseException):
+    """The plug-in's time is up (a BaseException, so that a plug-in's ``except Exception`` cannot swallow it)."""
+
+
+class GuardedPlugin:
+    """A challenge plug-in run under guard: each call has a time limit (``STEPPER_CHALLENGES_SECONDS``,
+    default 10 s; enforced with SIGALRM, so only on the main thread of a POSIX process), and anything
+    it raises other than Ctrl-C (``SystemExit`` included) becomes one :class:`PluginFailure` naming it.
+    Its answer is parsed by the caller; nothing in a transcript or witness ever chooses what runs here."""
+
+    def __init__(self, func: Callable[[Any], Any], label: str | None = None, seconds: float | None = None) -> None:
+        self.func = func
+        self.label = label or plugin_name(func)
+        self.seconds = seconds if seconds is not None else _seconds_from_environment()
+
+    def __call__(self, history: Any) -> Any:
+        timed = (self.seconds > 0 and hasattr(signal, "setitimer")
+                 and threading.current_thread() is threading.main_thread())
+        if not timed:
+            return self._run(history)
+        started = time.monotonic()
+        previous_handler = signal.signal(signal.SIGALRM, _expire)
+        outer, _ = signal.setitimer(signal.ITIMER_REAL, self.seconds)
+        try:
+            return self._run(history)
+        finally:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+            signal.signal(signal.SIGALRM, previous_handler)
+            if outer:  # someone else's timer was running: give it back what is left of it
+                signal.setitimer(signal.ITIMER_REAL, max(outer - (time.monotonic() - started), 0.001))
+
+    def _run(self, history: Any) -> Any:
+        try:
+            return self.func(history)
+        except _Expired:
+            raise PluginFailure(f"expected the challenge plug-in {self.label} to answer within {self.seconds:g} s, "
+                                f"found it still running (a limit; raise it with {PLUGIN_SECONDS_ENV}=N)") from None
+        except (KeyboardInterrupt, PluginFailure):
+            raise
+        except Exception:
+            raise  # call_challenger names it, with the instance and round
+        except BaseException as err:  # SystemExit, GeneratorExit ...: the plug-in's, never a reason to stop stepper
+            raise PluginFailure(f"expected the challenge plug-in {self.label} to return a challenge, but it raised "
+                                f"{type(err).__name__}: {clip_text(str(err))}") from None
+
+
+def _expire(signum: int, frame: Any) -> None:
+    raise _Expired()
+
+
+def _seconds_from_environment() -> float:
+    text = os.environ.get(PLUGIN_SECONDS_ENV)
+    if text is None:
+        return DEFAULT_PLUGIN_SECONDS
+    try:
+        value = float(text)
+    except ValueError:
+        value = -1.0
+    if not value >= 0 or value == float("inf"):
+        raise InputError(f"expected {PLUGIN_SECONDS_ENV} to be a number of seconds (0: no limit), "
+                         f"found {text[:40]!r}")
+    return value
 
 
 class ChallengeSource:
@@ -30,6 +103,8 @@ class ChallengeSource:
 
     def __init__(self, challenger: Challenger | None, default: ScheduleDecl | str | None,
                  probe_instances: int) -> None:
+        if challenger is not None and not isinstance(challenger, GuardedPlugin):
+            challenger = GuardedPlugin(challenger)
         self.challenger = challenger
         self.default = ScheduleDecl(default) if isinstance(default, str) else default
         self.probe_instances = probe_instances
