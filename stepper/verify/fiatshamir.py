@@ -198,13 +198,13 @@ class Sha256Schedule:
         the same state as ``observe(round)`` then ``challenge()`` per round, when every
         challenge is the one squeezed. ``rows`` holds rows of ``stride`` bytes; row ``first + i``
         is round i's frame (``round_len`` bytes) followed by its challenge's frame (heads from
-        :meth:`row_heads`). The digest squeezed for each round is appended to ``digests``
-        (its wide reduction is the challenge); the caller compares them with the rows'
-        challenges, and the state is that of the schedule only if all are equal.
-        Prime fields squeezed in one block only (Goldilocks and every prime below 2^64)."""
-        field = self._need_field("round")
-        if field.is_extension or len(self._squeeze_frames[0]) != 1:
-            raise ValueError(f"expected a prime field squeezed in one block, found {field.describe()}")
+        :meth:`row_heads`). The digests squeezed for each round are appended to ``digests``:
+        :attr:`squeezes_per_challenge` of them, sample by sample and block by block within a
+        sample (the wide reduction of a sample's blocks is that challenge coefficient); the
+        caller compares them with the rows' challenges, and the state is that of the schedule
+        only if all are equal. Any field: k samples for a degree-k extension, several blocks
+        per sample for primes of more than 128 bits."""
+        self._need_field("round")
         key = (count, round_len, stride)
         cut = self._row_cuts.get(key)
         if cut is None:  # one C call slices a run into its absorbed pieces: round 1, then (challenge k, round k+1)...
@@ -214,13 +214,28 @@ class Sha256Schedule:
             if len(self._row_cuts) < 256:
                 self._row_cuts[key] = cut
         pieces = cut(rows[first * stride:(first + count) * stride])
-        update, copy, squeeze, add = self._state.update, self._state.copy, self._squeeze_frames[0][0], digests.append
+        update, copy, add = self._state.update, self._state.copy, digests.append
+        squeezes = [squeeze for frames in self._squeeze_frames for squeeze in frames]
         update(pieces[0])
+        if len(squeezes) == 1:
+            squeeze = squeezes[0]
+            for piece in pieces[1:]:
+                h = copy()
+                h.update(squeeze)
+                add(h.digest())
+                update(piece)
+            return
         for piece in pieces[1:]:
-            h = copy()
-            h.update(squeeze)
-            add(h.digest())
+            for squeeze in squeezes:
+                h = copy()
+                h.update(squeeze)
+                add(h.digest())
             update(piece)
+
+    @property
+    def squeezes_per_challenge(self) -> int:
+        """SHA-256 digests squeezed for one challenge: blocks per sample times the extension degree."""
+        return sum(len(frames) for frames in self._squeeze_frames)
 
     def round_challenge(self, values: tuple[Element, ...]) -> Element:
         """``observe`` of a round with these values, then ``challenge()``: the same

@@ -2,10 +2,10 @@
 
 :class:`stepper.verify.replay.Replay` checks one round at a time and names what fails.
 Most transcripts fail nowhere, and for them this module asks one question of a
-whole block of consecutive instances over one prime field whose rounds all carry
-the same number m of evaluations g(0..m-1): *does every check pass?*
+whole block of consecutive instances over one field whose rounds all carry the
+same number m of evaluations g(0..m-1): *does every check pass?*
 
-* every value is canonical (below p);
+* every value is canonical (below p; every coefficient, in an extension);
 * sum: g_k(0) + g_k(1) equals the claim carried in (the instance's claim for
   k = 1, g_(k-1)(r_(k-1)) after), with g(1) = g(0) when m = 1;
 * challenge: each recorded r_k equals the re-derived one (when there is one);
@@ -15,9 +15,15 @@ The answer is yes or no. On no the caller replays event by event, which names
 the instance, round and check; this module never explains. Degree bounds and
 the instance rules are the caller's (they are per instance, not per round).
 
-g(r) is evaluated in Newton's forward-difference form, g(r) = sum_k c_k r(r-1)...(r-k+1)
-with c_k = (Delta^k g)(0) / k!, by Horner's rule: m - 1 subtraction passes, m - 2
-multiplications by a constant and m - 1 by (r - j); no inverse per round.
+Every field works here, each on its numpy kernel (:func:`block_kernel`): uint64
+entries for primes below 2^64, object arrays of Python ints above (BN254,
+BLS12-381: one C-level pass per operation, faster than 16-bit limbs in numpy,
+``python3 bench/fields.py``), rows of k coefficients for an extension.
+
+g(r) is evaluated for a whole column of rounds at once in Newton's forward-difference
+form, g(r) = sum_k c_k r(r-1)...(r-k+1) with c_k = (Delta^k g)(0) / k!, by Horner's
+rule: m - 1 subtraction passes, m - 2 multiplications by a base-field constant (the
+1/k!, constants of the degree) and m - 1 by (r - j); no inverse per round.
 """
 
 from __future__ import annotations
@@ -26,51 +32,80 @@ from math import factorial
 
 import numpy as np
 
-from stepper.field.kernels import GOLDILOCKS, Kernel, kernel_for
+from stepper.field.kernels import GOLDILOCKS, ExtensionKernel, Kernel, kernel_for
 from stepper.field.field import Field
+from stepper.verify.cells import below_p, words_to_ints
 
 __all__ = ["block_kernel", "supports", "reduce_wide", "evaluate_at", "block_passes"]
 
 _NEVER_COMPILED = 1 << 62  # numba's import costs more than a whole block on numpy
+MAX_VALUES = 1 << 12  # evaluations per round checked by the block
 
 
 def supports(field: Field, values: int) -> bool:
     """Whether blocks of this field with ``values`` evaluations per round can be checked here:
-    a prime field below 2^32 or Goldilocks (numpy kernels with no Python objects), and
-    fewer evaluations than p (k! must be invertible for k < m)."""
-    return not field.is_extension and (field.p < 2**32 or field.p == GOLDILOCKS) and 0 < values <= min(field.p, 1 << 12)
+    fewer evaluations than p (k! must be invertible for k < m) and at most ``MAX_VALUES``."""
+    return 0 < values <= min(field.p, MAX_VALUES)
 
 
 def block_kernel(field: Field) -> Kernel:
-    """The numpy-only kernel of a supported field."""
+    """The numpy-only kernel of a field."""
     return kernel_for(field, _NEVER_COMPILED)
 
 
+def _base(kernel: Kernel) -> Kernel:
+    return kernel.base if isinstance(kernel, ExtensionKernel) else kernel
+
+
 def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
-    """Each row's first ``wide`` bytes (``wide`` <= 24) as a little-endian integer, mod p:
-    the wide reduction of the built-in schedule, for a whole block of squeezed digests
-    (shape (n, 32), uint8). 32-bit limbs below 2^32, 64-bit limbs for Goldilocks."""
-    p = kernel.p
-    head = np.zeros((digests.shape[0], 24), dtype=np.uint8)
-    head[:, :wide] = digests[:, :wide]
-    if p < 2**32:
-        limbs = head.view("<u4").astype(np.uint64)
-        p64, s32 = np.uint64(p), np.uint64(32)
-        acc = limbs[:, 5] % p64
-        for i in range(4, -1, -1):
-            acc = ((acc << s32) | limbs[:, i]) % p64
-        return acc  # type: ignore[no-any-return]
-    limbs = head.view("<u8")
-    l0, l1, l2 = limbs[:, 0], limbs[:, 1], limbs[:, 2]
-    # Goldilocks: 2^128 = -2^32 (mod p), so the value is (l1 * 2^64 + l0) - l2 * 2^32, and
-    # l2 * 2^32 = (l2 >> 32) * 2^64 + (l2 mod 2^32) * 2^32: two 128-bit reductions, no multiply.
-    reduce128 = kernel.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
-    m32, s32 = np.uint64(0xFFFFFFFF), np.uint64(32)
-    return kernel.sub(reduce128(l0, l1), reduce128((l2 & m32) << s32, l2 >> s32))
+    """Each row's first ``wide`` bytes as a little-endian integer, mod p: the wide reduction
+    of the built-in schedule, for a whole block of squeezed samples (shape (n, >= wide),
+    uint8), as base-field entries of ``kernel`` (its base kernel for an extension).
+    32-bit limbs below 2^32 and 64-bit limbs for Goldilocks (``wide`` <= 24); Python ints
+    in an object array otherwise."""
+    base = _base(kernel)
+    p = base.p
+    if wide <= 24 and (p < 2**32 or p == GOLDILOCKS):
+        head = np.zeros((digests.shape[0], 24), dtype=np.uint8)
+        head[:, :wide] = digests[:, :wide]
+        if p < 2**32:
+            limbs = head.view("<u4").astype(np.uint64)
+            p64, s32 = np.uint64(p), np.uint64(32)
+            acc = limbs[:, 5] % p64
+            for i in range(4, -1, -1):
+                acc = ((acc << s32) | limbs[:, i]) % p64
+            return acc  # type: ignore[no-any-return]
+        limbs = head.view("<u8")
+        l0, l1, l2 = limbs[:, 0], limbs[:, 1], limbs[:, 2]
+        # Goldilocks: 2^128 = -2^32 (mod p), so the value is (l1 * 2^64 + l0) - l2 * 2^32, and
+        # l2 * 2^32 = (l2 >> 32) * 2^64 + (l2 mod 2^32) * 2^32: two 128-bit reductions, no multiply.
+        reduce128 = base.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
+        m32, s32 = np.uint64(0xFFFFFFFF), np.uint64(32)
+        return base.sub(reduce128(l0, l1), reduce128((l2 & m32) << s32, l2 >> s32))
+    values = np.remainder(words_to_ints(np.ascontiguousarray(digests[:, :wide])), p)
+    return values if base.dtype is object else values.astype(np.uint64)
+
+
+def _times_constant(kernel: Kernel, a: np.ndarray, c: int) -> np.ndarray:
+    """a times the base-field constant c (every coefficient, in an extension)."""
+    base = _base(kernel)
+    return base.mul(a, c if base.dtype is object else np.uint64(c))
+
+
+def _minus_constant(kernel: Kernel, a: np.ndarray, c: int) -> np.ndarray:
+    """a - c for the base-field constant c (the constant coefficient, in an extension)."""
+    base = _base(kernel)
+    const = base.array([c])
+    if a.ndim == 1:
+        return base.sub(a, const)
+    out = a.copy()
+    out[:, 0] = base.sub(a[:, 0], const)
+    return out
 
 
 def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
-    """g_i(points[i]) for each row i of ``evals`` = g_i(0..m-1) (canonical uint64; m <= p)."""
+    """g_i(points[i]) for each row i of ``evals`` = g_i(0..m-1) (canonical; m <= p). Shapes:
+    (n, m) and (n,) over a prime field, (n, m, k) and (n, k) over a degree-k extension."""
     m = evals.shape[1]
     p = kernel.p
     deltas = [evals[:, 0]]
@@ -78,11 +113,11 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
     for _ in range(1, m):
         layer = [kernel.sub(layer[i + 1], layer[i]) for i in range(len(layer) - 1)]
         deltas.append(layer[0])
-    coefficients = [deltas[k] if k < 2 else kernel.mul(deltas[k], kernel.array([pow(factorial(k), -1, p)]))
+    coefficients = [deltas[k] if k < 2 else _times_constant(kernel, deltas[k], pow(factorial(k), -1, p))
                     for k in range(m)]
     acc = coefficients[m - 1]
     for k in range(m - 1, 0, -1):
-        shifted = kernel.sub(points, kernel.array([k - 1])) if k > 1 else points
+        shifted = _minus_constant(kernel, points, k - 1) if k > 1 else points
         acc = kernel.add(coefficients[k - 1], kernel.mul(acc, shifted))
     return acc
 
@@ -91,19 +126,20 @@ def block_passes(kernel: Kernel, evals: np.ndarray, challenges: np.ndarray, star
                  claims: np.ndarray, finals: np.ndarray, rederived: np.ndarray | None) -> bool:
     """Whether every check above passes for a block of instances.
 
-    ``evals`` (n, m) and ``challenges`` (n,) hold the rounds of all instances in stream order;
-    ``starts`` the row of each instance's first round (ascending, the first 0); ``claims``
-    and ``finals`` one value per instance; ``rederived`` the re-derived challenges or None."""
-    p64 = np.uint64(kernel.p)
-    n, m = evals.shape
+    ``evals`` (n, m) and ``challenges`` (n,) hold the rounds of all instances in stream order
+    (with a trailing axis of k coefficients over an extension); ``starts`` the row of each
+    instance's first round (ascending, the first 0); ``claims`` and ``finals`` one value per
+    instance; ``rederived`` the re-derived challenges or None."""
+    n, m = evals.shape[:2]
     if n == 0 or len(starts) == 0 or starts[0] != 0:
         return False
-    if evals.max() >= p64 or challenges.max() >= p64 or finals.max() >= p64 or claims.max() >= p64:
+    if not (below_p(kernel, evals) and below_p(kernel, challenges) and below_p(kernel, finals)
+            and below_p(kernel, claims)):
         return False
     if rederived is not None and not np.array_equal(rederived, challenges):
         return False
     carried = evaluate_at(kernel, evals, challenges)
-    claim_in = np.empty(n, dtype=np.uint64)
+    claim_in = np.empty_like(carried)
     claim_in[1:] = carried[:-1]
     claim_in[starts] = claims
     sums = kernel.add(evals[:, 0], evals[:, 1 if m > 1 else 0])

@@ -17,8 +17,8 @@ would reach (same report, byte for byte), or gives up and returns None, and
 the caller replays the file event by event from the start, which then names
 what is wrong. It gives up on any failing check in the runs it takes, any run
 laid out otherwise (another producer's key order, annotations between rounds),
-a field it cannot check by the block (an extension, a prime above 2^32 other
-than Goldilocks), more than ``LOOSE_ROUNDS`` rounds outside runs, any file that
+rounds of more evaluations than the field allows by the block (m > p or m > 2^12),
+more than ``LOOSE_ROUNDS`` rounds outside runs, any file that
 is not complete with a verified digest, and any error. Instances it does not
 take as runs (compressed forms, batched claims, no rounds) go through
 ``Replay.feed``, which judges them as the event-by-event path does, failures
@@ -320,7 +320,7 @@ class _Sweeper:
         members: dict[_Layout, list[tuple[InstanceStart, bytes, bytes, _Layout]]] = {}
         for run in runs:
             members.setdefault(run[3], []).append(run)
-        blocks = {layout: _Block(layout, group) for layout, group in members.items()}
+        blocks = {layout: _Block(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
         for start, _, _, layout in runs:
             block = blocks[layout]
@@ -339,8 +339,11 @@ class _Block:
     """The runs of one layout in a flush, as arrays (rows of packed bytes, decoded values),
     and the Fiat-Shamir digests squeezed for them so far."""
 
-    def __init__(self, layout: _Layout, runs: list[tuple[InstanceStart, bytes, bytes, _Layout]]) -> None:
+    def __init__(self, layout: _Layout, runs: list[tuple[InstanceStart, bytes, bytes, _Layout]],
+                 kernel: Kernel) -> None:
         import numpy as np
+
+        from stepper.verify.cells import decode_cells
 
         self.layout = layout
         final_len, width = layout.final_len, layout.width
@@ -352,14 +355,15 @@ class _Block:
                                    _bytes_row(layout.challenge_prefix, len(rows)))):
             raise _GiveUp("events laid out otherwise")
         self.rows = rows
-        self.evals = _little_endian(rows[:, round_at:layout.round_len], width).reshape(len(rows), layout.values)
-        self.challenges = _little_endian(rows[:, challenge_at:], width)
-        self.finals = _little_endian(np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
-                                                   dtype=np.uint8).reshape(-1, width), width)
-        self.claims = np.array([start.claim for start, _, _, _ in runs], dtype=np.uint64)
+        evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
+        self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
+        self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
+        self.finals = decode_cells(kernel, np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
+                                                         dtype=np.uint8), width)
+        self.claims = kernel.array([start.claim for start, _, _, _ in runs])
         self.starts = np.zeros(len(runs), dtype=np.int64)
         np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
-        self._finals = iter(self.finals.tolist())
+        self._finals = iter(kernel.to_list(self.finals))
         self._firsts = iter(self.starts.tolist())
         self._view: memoryview | None = None
         self._round_len = self._frame_len = 0
@@ -385,30 +389,19 @@ class _Block:
 
         if not self.digests and schedule is None:
             return None
-        if schedule is None or len(self.digests) != len(self.rows):
+        per = schedule.squeezes_per_challenge if schedule is not None else 0
+        if schedule is None or len(self.digests) != len(self.rows) * per:
             raise _GiveUp("challenges re-derived for only part of the block")
-        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(-1, 32)
-        return reduce_wide(kernel, squeezed, schedule.wide_bytes)
+        samples = self.challenges.shape[1] if self.challenges.ndim == 2 else 1
+        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(len(self.rows) * samples, -1)
+        reduced = reduce_wide(kernel, squeezed, schedule.wide_bytes)
+        return reduced.reshape(self.challenges.shape)
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:
     import numpy as np
 
     return np.broadcast_to(np.frombuffer(data, dtype=np.uint8), (count, len(data)))
-
-
-def _little_endian(cells: np.ndarray, width: int) -> np.ndarray:
-    """Rows of packed little-endian ``width``-byte elements as a flat uint64 array."""
-    import numpy as np
-
-    count = cells.shape[0] * (cells.shape[1] // width)
-    if width == 8:
-        return np.ascontiguousarray(cells).view("<u8").reshape(count).astype(np.uint64)
-    if width == 4:
-        return np.ascontiguousarray(cells).view("<u4").reshape(count).astype(np.uint64)
-    padded = np.zeros((count, 8), dtype=np.uint8)
-    padded[:, :width] = cells.reshape(count, width)
-    return padded.view("<u8").reshape(count).astype(np.uint64)
 
 
 def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: _Layout) -> tuple[np.ndarray, int]:

@@ -5,7 +5,9 @@
 * ``reduce_wide`` against plain Python integers: ``int.from_bytes(row[:wide], "little") % p``;
 * ``block_passes`` against an honest prover written here with plain integers (random round
   polynomials with g(0)+g(1) = claim, g(r) carried forward: common practice, no source),
-  and every single-element corruption of its blocks.
+  and every single-element corruption of its blocks;
+* the same over extensions (galois.GF(p^k) with the irreducible given) and over BN254,
+  BLS12-381 and 64-bit primes (plain Python integers, tests/plain_sumcheck.py).
 
 Moduli: BabyBear 2^31 - 2^27 + 1, KoalaBear 2^31 - 2^24 + 1, Goldilocks 2^64 - 2^32 + 1
 (common practice, no source; tests/field/test_field.py pins the same values), 65521 (the largest
@@ -15,7 +17,9 @@ prime below 2^16, from memory; checked with sympy.isprime below) and the small p
 from __future__ import annotations
 
 import random
+import sys
 from fractions import Fraction
+from pathlib import Path
 
 import galois
 import numpy as np
@@ -23,8 +27,11 @@ import pytest
 import sympy
 from hypothesis import given, settings, strategies as st
 
-from stepper.field.field import get_field
-from stepper.verify.roundblock import block_kernel, block_passes, evaluate_at, reduce_wide, supports
+sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer arithmetic
+
+from plain_sumcheck import Plain, lagrange  # noqa: E402
+from stepper.field.field import get_field  # noqa: E402
+from stepper.verify.roundblock import block_kernel, block_passes, evaluate_at, reduce_wide, supports  # noqa: E402
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
 KOALABEAR = 2**31 - 2**24 + 1  # common practice, no source
@@ -294,10 +301,181 @@ def test_an_empty_block_or_bad_starts_do_not_pass():
                             u64(block.finals), None)
 
 
-def test_supports_prime_fields_below_2_32_and_goldilocks_only():
+def test_supports_every_field_with_fewer_evaluations_than_p():
     assert supports(get_field(GOLDILOCKS), 4) and supports(get_field(BABYBEAR), 4) and supports(get_field(97), 97)
     assert not supports(get_field(97), 98)  # m > p: the nodes 0..m-1 are not distinct mod p
     assert not supports(get_field(7), 0)
-    assert not supports(get_field(2**64 - 59), 2)  # a 64-bit prime other than Goldilocks (sympy: prime)
+    assert supports(get_field(2**64 - 59), 2)  # a 64-bit prime other than Goldilocks (sympy: prime)
     assert sympy.isprime(2**64 - 59)
-    assert not supports(get_field(BABYBEAR, (BABYBEAR - 11, 0, 0, 0, 1)), 2)  # babybear^4, X^4 - 11
+    assert supports(get_field(BABYBEAR, (BABYBEAR - 11, 0, 0, 0, 1)), 2)  # babybear^4, X^4 - 11
+    assert supports(get_field(BN254), 4) and not supports(get_field(BN254), (1 << 12) + 1)
+
+
+# ----- extensions and primes above 2^64 ---------------------------------------------------
+# galois.GF(p**k, irreducible_poly=q) is the reference for extension arithmetic; an element's
+# integer there is its coefficients read as base-p digits, highest degree first (galois docs,
+# "Array representation"). Plain Python integers are the reference for the big primes.
+
+BN254 = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 curve order
+BLS12_381 = 0x73EDA753299D7D483339D80809A1D80553BDA402FFFE5BFEFFFFFFFF00000001  # IETF pairing-friendly-curves 4.2.1
+MERSENNE31 = 2**31 - 1  # common practice, no source
+EXTENSIONS = {  # constant term first, monic (stepper.field.field.DEFAULT_IRREDUCIBLES; from memory)
+    "babybear^4": (BABYBEAR, (BABYBEAR - 11, 0, 0, 0, 1)),
+    "koalabear^4": (KOALABEAR, (KOALABEAR - 3, 0, 0, 0, 1)),
+    "mersenne31^4": (MERSENNE31, (5, 0, MERSENNE31 - 4, 0, 1)),  # u^4 - 4u^2 + 5: not a binomial
+    "goldilocks^2": (GOLDILOCKS, (GOLDILOCKS - 7, 0, 1)),
+    "p97^3": (97, (92, 0, 0, 1)),  # X^3 - 5: 5 is not a cube mod 97 (5^32 = 35 mod 97)
+    "p7^2+": (7, (3, 1, 1)),  # X^2 + X + 3 over F_7: no root mod 7 (checked below)
+}
+
+
+def gf_ext(p: int, q: tuple[int, ...]) -> type:
+    key = (p, q)
+    if key not in _GF:
+        _GF[key] = galois.GF(p ** (len(q) - 1), irreducible_poly=galois.Poly(list(reversed(q)), field=gf(p)),
+                             compile="python-calculate", verify=False)
+    return _GF[key]
+
+
+def to_galois(p: int, coeffs: list[int]) -> int:
+    return sum(c * p**i for i, c in enumerate(coeffs))
+
+
+def from_galois(p: int, k: int, value: int) -> list[int]:
+    return [(value // p**i) % p for i in range(k)]
+
+
+def test_the_small_test_extensions_are_irreducible_per_galois():
+    for name, (p, q) in EXTENSIONS.items():
+        assert galois.Poly(list(reversed(q)), field=gf(p)).is_irreducible(), name
+
+
+@pytest.mark.parametrize("name", sorted(EXTENSIONS))
+@pytest.mark.parametrize("degree", [0, 1, 2, 3, 5])
+def test_evaluate_at_over_extensions_equals_galois_lagrange_interpolation(name, degree):
+    p, q = EXTENSIONS[name]
+    k, m = len(q) - 1, degree + 1
+    if m > p:
+        pytest.skip("m <= p only")
+    field = get_field(p, q)
+    ext = gf_ext(p, q)
+    rng = random.Random(f"{name}-{degree}")
+    rows = [[[rng.randrange(p) for _ in range(k)] for _ in range(m)] for _ in range(5)]
+    rows.append([[p - 1] * k] * m)
+    points = [[rng.randrange(p) for _ in range(k)] for _ in range(5)] + [[p - 1] * k]
+    got = evaluate_at(block_kernel(field), u64(rows), u64(points)).tolist()
+    nodes = ext([to_galois(p, [j] + [0] * (k - 1)) for j in range(m)])
+    for row, x, value in zip(rows, points, got):
+        poly = galois.lagrange_poly(nodes, ext([to_galois(p, c) for c in row]))
+        assert value == from_galois(p, k, int(poly(ext(to_galois(p, x)))))
+
+
+@pytest.mark.parametrize("p", [BN254, BLS12_381, 2**64 - 59])
+@pytest.mark.parametrize("degree", [0, 1, 3, 4])
+def test_evaluate_at_over_wide_primes_equals_the_textbook_formula(p, degree):
+    m = degree + 1
+    rng = random.Random(f"{p}-{degree}")
+    rows = [[rng.randrange(p) for _ in range(m)] for _ in range(6)] + [[p - 1] * m]
+    points = [rng.randrange(p) for _ in range(6)] + [p - 1]
+    k = block_kernel(get_field(p))
+    as_array = (lambda v: np.array(v, dtype=object)) if p > 2**64 else u64
+    got = [int(v) for v in evaluate_at(k, as_array(rows), as_array(points)).tolist()]
+    assert got == [lagrange_at(p, row, x) for row, x in zip(rows, points)]
+
+
+@pytest.mark.parametrize("p", [BN254, BLS12_381, 2**64 - 59, 2**61 - 1])
+def test_reduce_wide_over_wide_primes_equals_python_integers(p):
+    # 2^61 - 1 is a Mersenne prime (common practice, no source)
+    rng = random.Random(p)
+    wide = (p.bit_length() + 128 + 7) // 8  # transcripts/FIAT-SHAMIR.md: ceil((bits(p) + 128) / 8)
+    rows = [bytes(64), b"\xff" * 64] + [rng.randbytes(64) for _ in range(40)]
+    block = np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), 64)
+    got = [int(v) for v in reduce_wide(block_kernel(get_field(p)), block, wide).tolist()]
+    assert got == [int.from_bytes(row[:wide], "little") % p for row in rows]
+
+
+class ExtBlock:
+    """Instances of an honest prover over a binomial extension or a wide prime (tests/plain_sumcheck.py
+    arithmetic, its textbook Lagrange formula), as block_passes takes them."""
+
+    def __init__(self, ar, m: int, num_vars: list[int], seed: object) -> None:
+        rng = random.Random(str(seed))
+        self.ar, self.m = ar, m
+        draw = (lambda: rng.randrange(ar.p)) if ar.k == 1 else (lambda: tuple(rng.randrange(ar.p) for _ in range(ar.k)))
+        self.evals, self.challenges, self.starts, self.claims, self.finals = [], [], [], [], []
+        for n in num_vars:
+            self.starts.append(len(self.evals))
+            claim = draw()
+            self.claims.append(claim)
+            for _ in range(n):
+                g0 = draw()
+                g = [g0, ar.sub(claim, g0)] + [draw() for _ in range(m - 2)]
+                r = draw()
+                self.evals.append(g)
+                self.challenges.append(r)
+                claim = lagrange(ar, g, r)
+            self.finals.append(claim)
+
+    def array(self, values):
+        if self.ar.p > 2**64:
+            out = np.empty(len(values), dtype=object)
+            out[:] = values
+            return out
+        return np.array(values, dtype=np.uint64)
+
+    def passes(self, **replace) -> bool:
+        parts = {"evals": self.evals, "challenges": self.challenges, "claims": self.claims,
+                 "finals": self.finals, "rederived": self.challenges, **replace}
+        ar = self.ar
+        field = get_field(ar.p, ((-ar.w) % ar.p,) + (0,) * (ar.k - 1) + (1,)) if ar.k > 1 else get_field(ar.p)
+        evals = parts["evals"]
+        if self.ar.p > 2**64:
+            flat = self.array([v for row in evals for v in row]).reshape(len(evals), self.m)
+        else:
+            flat = np.array(evals, dtype=np.uint64)
+        return block_passes(block_kernel(field), flat, self.array(parts["challenges"]), np.array(self.starts),
+                            self.array(parts["claims"]), self.array(parts["finals"]), self.array(parts["rederived"]))
+
+
+def _bump(ar, value):
+    return ar.add(value, ar.const(1))
+
+
+WIDE_CASES = {"babybear^4": Plain(BABYBEAR, 4, 11), "goldilocks^2": Plain(GOLDILOCKS, 2, 7),
+              "p97^3": Plain(97, 3, 5), "bn254": Plain(BN254), "bls12-381": Plain(BLS12_381),
+              "p64": Plain(2**64 - 59)}
+
+
+@pytest.mark.parametrize("name", sorted(WIDE_CASES))
+@pytest.mark.parametrize("m", [2, 4])
+def test_honest_wide_blocks_pass_and_every_single_change_fails(name, m):
+    block = ExtBlock(WIDE_CASES[name], m, [3, 1, 2], (name, m))
+    assert block.passes()
+    ar = block.ar
+    for i in range(len(block.evals)):
+        for j in range(m):
+            evals = [row[:] for row in block.evals]
+            evals[i][j] = _bump(ar, evals[i][j])
+            assert not block.passes(evals=evals), (i, j)
+        changed = block.challenges[:]
+        changed[i] = _bump(ar, changed[i])
+        assert not block.passes(challenges=changed), i
+        assert not block.passes(rederived=changed), i
+    for i in range(len(block.claims)):
+        finals, claims = block.finals[:], block.claims[:]
+        finals[i], claims[i] = _bump(ar, finals[i]), _bump(ar, claims[i])
+        assert not block.passes(finals=finals), i
+        assert not block.passes(claims=claims), i
+
+
+@pytest.mark.parametrize("name", ["bn254", "babybear^4"])
+def test_a_wide_value_at_or_above_p_fails(name):
+    ar = WIDE_CASES[name]
+    block = ExtBlock(ar, 3, [2, 2], (name, "canonical"))
+    raised = (lambda v: v + ar.p) if ar.k == 1 else (lambda v: (v[0] + ar.p, *v[1:]))
+    evals = [row[:] for row in block.evals]
+    evals[1][2] = raised(evals[1][2])
+    assert not block.passes(evals=evals)
+    finals = block.finals[:]
+    finals[0] = raised(finals[0])
+    assert not block.passes(finals=finals)

@@ -1,0 +1,62 @@
+"""Packed field elements as kernel arrays: the bytes a transcript holds, decoded by the block (no I/O).
+
+The store packs an element as ``elem_bytes`` little-endian bytes: one base coefficient of
+``base_bytes`` bytes for a prime field, k of them (constant term first) for a degree-k
+extension. :func:`decode_cells` turns rows of such cells (a uint8 array) into the array a
+:class:`~stepper.field.kernels.Kernel` works on: uint64 entries for primes below 2^64
+(assembled from 4- or 8-byte words, or zero-padded), Python ints in an object array for
+larger primes (assembled from 64-bit words with object shifts, one numpy pass per word),
+and shape (n, k) for an extension. :func:`below_p` says whether every entry is canonical.
+No Python loop runs over the entries.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from stepper.field.kernels import ExtensionKernel, Kernel
+
+__all__ = ["decode_cells", "below_p", "words_to_ints"]
+
+
+def decode_cells(kernel: Kernel, cells: np.ndarray, width: int) -> np.ndarray:
+    """The elements packed in ``cells`` (uint8, rows of whole ``width``-byte elements), in row
+    order: shape (count,) for a prime field, (count, k) for an extension (not checked canonical)."""
+    if isinstance(kernel, ExtensionKernel):
+        k = kernel.k
+        return decode_cells(kernel.base, cells, width // k).reshape(-1, k)
+    count = cells.size // width
+    flat = np.ascontiguousarray(cells).reshape(count, width)
+    if kernel.dtype is not object:
+        if width == 8:
+            return flat.view("<u8").reshape(count).astype(np.uint64)
+        if width == 4:
+            return flat.view("<u4").reshape(count).astype(np.uint64)
+        padded = np.zeros((count, 8), dtype=np.uint8)
+        padded[:, :width] = flat
+        return padded.view("<u8").reshape(count).astype(np.uint64)
+    return words_to_ints(flat)
+
+
+def words_to_ints(flat: np.ndarray) -> np.ndarray:
+    """Rows of little-endian bytes (uint8, shape (n, w)) as an object array of Python ints."""
+    count, width = flat.shape
+    words = -(-width // 8)
+    padded = np.zeros((count, words * 8), dtype=np.uint8)
+    padded[:, :width] = flat
+    limbs = padded.view("<u8")
+    acc = limbs[:, words - 1].astype(object)
+    for i in range(words - 2, -1, -1):
+        acc = np.bitwise_or(np.left_shift(acc, 64), limbs[:, i].astype(object))
+    out = np.empty(count, dtype=object)
+    out[:] = acc
+    return out
+
+
+def below_p(kernel: Kernel, values: np.ndarray) -> bool:
+    """Whether every entry (of any shape) is below p."""
+    if values.size == 0:
+        return True
+    if values.dtype == object:
+        return bool(np.less(values, kernel.p).all())
+    return bool(values.max() < np.uint64(kernel.p))
