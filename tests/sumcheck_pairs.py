@@ -158,7 +158,7 @@ def field_of(events: list[Event]) -> Any:
 
 
 def witness_map(specs: list[Spec]) -> dict[str, Any]:
-    """The witness file content (DESIGN.md check contract) of the runs above: tables t0, t1, ... and their product."""
+    """The witness file content (transcripts/EVENTS.md check contract) of the runs above: tables t0, t1, ... and their product."""
     return {
         "instances": [
             {

@@ -3,7 +3,7 @@
 Prints one header line (``{"type": "header", ...}``: format version, writer
 version, metadata) and then one JSON object per event, elements as JSON
 integers (decimal strings above 2^53) or lists of them for an extension
-field: the event-stream form of DESIGN.md, so ``stepper import`` turns it
+field: the event-stream form of transcripts/EVENTS.md, so ``stepper import`` turns it
 back into the same events. Appended notes are exported as ordinary notes.
 Streaming: the transcript is never held in memory. With ``-o OUT`` the lines
 go to a file beside OUT that replaces it only once the export succeeded, so an

@@ -1,6 +1,6 @@
 """`stepper import EVENTS -o OUT`: turn a saved event file into a transcript.
 
-EVENTS is a JSON-lines event file (DESIGN.md, interop contract 1), such as a
+EVENTS is a JSON-lines event file (transcripts/EVENTS.md), such as a
 prover wrote to ``STEPPER_EVENTS`` or ``stepper export`` printed; a stepper
 transcript is accepted too (re-sealing it). Every event is validated on the
 way in. A partial last line (a crash mid-write) is dropped and OUT is left

@@ -55,7 +55,7 @@ def _build_parser(only: str | None = None) -> tuple[_Parser, dict[str, object]]:
         "round and check, trace it to its root cause, compare runs.",
         epilog="A passing replay is evidence about one run, not a soundness proof of a protocol.",
     )
-    parser.add_argument("--version", action="version", version=f"stepper {__version__}")
+    parser.add_argument("--version", action="version", version=f"stepper {__version__} (sumcheck-stepper)")
     subs = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     modules: dict[str, object] = {}
     for name, module_name in COMMANDS.items():

@@ -1,6 +1,6 @@
 """`stepper record -o OUT [--label TEXT] -- CMD [ARGS...]`: record any prover.
 
-The interop contract of DESIGN.md: CMD runs with ``STEPPER_EVENTS`` naming a
+The interop contract of transcripts/EVENTS.md: CMD runs with ``STEPPER_EVENTS`` naming a
 file; the prover appends one JSON event per line to it. This module follows
 that file while CMD runs and writes each complete line into the transcript at
 OUT as it arrives (validated, flushed), so a crash loses nothing already

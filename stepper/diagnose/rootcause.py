@@ -84,7 +84,7 @@ class Diagnosis:
     by_position: tuple[tuple[str, str], ...] = ()  # (witness name, transcript name) matched by position
 
     def root_cause_json(self) -> dict[str, Any] | None:
-        """The DESIGN.md ``root_cause`` object, plus where the verifier noticed."""
+        """The transcripts/EVENTS.md ``root_cause`` object, plus where the verifier noticed."""
         cause = self.root_cause
         if cause is None:
             return None

@@ -3,7 +3,7 @@
 Accepted forms (detected by content, not by file name):
 
 * JSON or msgpack: ``{"instances": [{"name": ..., "tables": {NAME: [...]}, "combine": EXPR}]}``
-  per DESIGN.md. Table entries are field elements (int, decimal or 0x string, a
+  per transcripts/EVENTS.md. Table entries are field elements (int, decimal or 0x string, a
   list of k values for an extension element; msgpack may also use fixed-width
   little-endian bytes). A table may instead be a string: the path of a ``.npy``
   file, relative to the witness file, holding the entries (large tables).

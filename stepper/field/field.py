@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING, Any
 
 from stepper.field.elements import Element, ElementCodec, clip_text, format_poly
 from stepper.errors import FieldError, Where
-from stepper.field.numbertheory import is_irreducible, is_probable_prime
+from stepper.field.admit import is_irreducible, is_prime
 
 if TYPE_CHECKING:
     import numpy as np
@@ -58,6 +58,7 @@ DEFAULT_IRREDUCIBLES: dict[tuple[str, int], tuple[int, ...]] = {
     ("mersenne31", 4): (5, 0, NAMED_PRIMES["mersenne31"] - 4, 0, 1),
 }
 
+_DEFAULT_FIELDS = frozenset((NAMED_PRIMES[name], q) for (name, _), q in DEFAULT_IRREDUCIBLES.items())
 _CACHE: dict[tuple[int, tuple[int, ...]], Field] = {}
 _NAME_OF_PRIME = {p: name for name, p in NAMED_PRIMES.items()}
 
@@ -273,7 +274,11 @@ class Field(ElementCodec):
 
 
 def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
-    """The field F_p, or F_p[X]/(irreducible); checks primality and irreducibility once."""
+    """The field F_p, or F_p[X]/(irreducible); checks primality and irreducibility once.
+
+    A named prime and its default extension polynomial are taken as they are (the tests pin
+    them against their defining documents and galois); any other modulus or polynomial is
+    checked by :mod:`stepper.field.admit`, which loads galois."""
     if isinstance(p, bool) or not isinstance(p, int):
         raise FieldError(f"expected an integer modulus, found {type(p).__name__} {clip_text(repr(p))}")
     q = tuple(irreducible or ())
@@ -285,7 +290,7 @@ def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
     cached = _CACHE.get(key)
     if cached is not None:
         return cached
-    if p not in _NAME_OF_PRIME and not is_probable_prime(p):
+    if p not in _NAME_OF_PRIME and not is_prime(p):
         raise FieldError(f"expected a prime modulus, found {clip_text(str(p))}, which is not prime")
     if q:
         if q[-1] != 1:
@@ -295,8 +300,8 @@ def get_field(p: int, irreducible: tuple[int, ...] | None = None) -> Field:
                 raise FieldError(
                     f"expected polynomial coefficients 0 <= c < p = {p}, found {clip_text(str(c))} at X^{index}"
                 )
-        if not is_irreducible(q, p):
-            raise FieldError(f"expected an irreducible polynomial over F_p, found {format_poly(q, p)} (reducible)")
+        if (p, q) not in _DEFAULT_FIELDS and not is_irreducible(q, p):
+            raise FieldError(f"expected an irreducible polynomial over F_p, found {format_poly(q, p)} with p = {clip_text(str(p))}, which is reducible")
     field = Field(p, q)
     _CACHE[key] = field
     return field

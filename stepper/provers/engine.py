@@ -141,7 +141,7 @@ class InstanceRun:
 
 @dataclass(frozen=True, slots=True)
 class WitnessInstance:
-    """One instance's witness (DESIGN.md witness format): tables and `combine`."""
+    """One instance's witness (transcripts/EVENTS.md witness format): tables and `combine`."""
 
     name: str
     tables: Mapping[str, np.ndarray]
@@ -236,7 +236,7 @@ def run_tables(channel: ProofChannel, counter: MulCounter, name: str, tables: di
 
 
 def witness_payload(field: Field, witness: Sequence[WitnessInstance]) -> dict[str, Any]:
-    """The DESIGN.md witness document: ``{"instances": [{name, tables, combine}]}``."""
+    """The transcripts/EVENTS.md witness document: ``{"instances": [{name, tables, combine}]}``."""
     out = []
     for inst in witness:
         tables = {n: [field.to_json(v) for v in field.vlist(t)] for n, t in inst.tables.items()}

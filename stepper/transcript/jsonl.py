@@ -1,4 +1,4 @@
-"""The JSON-lines side of the event stream (DESIGN.md, interop contract 1).
+"""The JSON-lines side of the event stream (transcripts/EVENTS.md).
 
 :class:`LineSplitter` takes bytes as they arrive (a file read in chunks, or a
 file a running prover is still appending to) and hands out one decoded JSON

@@ -1,7 +1,7 @@
 """The in-memory transcript: event records and the proof they add up to.
 
 A transcript is a sequence of events (the vocabulary of the event stream in
-DESIGN.md plus stepper's own ``schedule`` and ``batch``). Each event record is
+transcripts/EVENTS.md plus stepper's own ``schedule`` and ``batch``). Each event record is
 a frozen, slotted dataclass whose constructor leaves it canonical: elements
 are reduced field values, counts are checked, positions (instance index,
 round number) are filled in by :class:`stepper.transcript.events.Sequencer`, never by

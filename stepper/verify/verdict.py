@@ -1,5 +1,5 @@
 """What a verifier replay returns: per-round, final and batch results, the
-proof-level :class:`Report`, and its JSON form (DESIGN.md, check contract).
+proof-level :class:`Report`, and its JSON form (transcripts/EVENTS.md, check contract).
 
 Every record is frozen and holds canonical field elements; JSON turns each
 element into a decimal string (``"42"``; an extension element as its
@@ -188,7 +188,7 @@ class Report:
         return self.field.fmt(value)
 
     def to_json(self) -> dict[str, Any]:
-        """The DESIGN.md check-contract object, plus stepper's extra keys."""
+        """The check-contract object of transcripts/EVENTS.md, plus stepper's extra keys."""
         f = self.fmt
         return {
             "verdict": self.verdict,

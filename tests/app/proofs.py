@@ -143,7 +143,7 @@ def write_transcript(path: Path, payloads: list[Payload], *, finish: bool = True
 def write_witness(path: Path, mu: int = 4,
                   instances: tuple[str, ...] = ("boarding-permutation", "boarding-permutation-grouped",
                                                 "deck-slots-zero")) -> Path:
-    """The tables behind :func:`brackwater_payloads` as a witness file (DESIGN.md format)."""
+    """The tables behind :func:`brackwater_payloads` as a witness file (transcripts/EVENTS.md format)."""
     import json
 
     entries = []

@@ -113,7 +113,7 @@ def test_rows_of_a_round_without_its_challenge_say_unchecked_not_pass():
 
 def test_a_wrong_final_value_is_marked_after_the_rounds_and_is_a_failure_at_the_last_round():
     # The final check compares the last reduced claim with the oracle's value
-    # (DESIGN.md check contract; common practice, no source).
+    # (transcripts/EVENTS.md check contract; common practice, no source).
     payloads = brackwater_payloads(instances=("boarding-permutation",))
     payloads[-1] = {**payloads[-1], "value": (payloads[-1]["value"] + 1) % P}
     model = model_of(payloads)

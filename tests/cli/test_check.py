@@ -1,4 +1,4 @@
-"""`stepper check`: the check contract of DESIGN.md (exit codes, JSON keys), human output,
+"""`stepper check`: the check contract of transcripts/EVENTS.md (exit codes, JSON keys), human output,
 the plug-in route, the witness route and hostile files (never a traceback).
 
 Honest runs come from tests/plain_sumcheck.py (plain integers, independent of stepper);
