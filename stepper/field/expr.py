@@ -1,16 +1,32 @@
 """The `combine` expression of a witness: parsing and evaluation.
 
-Grammar (ordinary arithmetic over table names, no functions, no division)::
+Grammar (ordinary arithmetic over names, integer powers, no division)::
 
     expr   := term (("+" | "-") term)*
     term   := unary ("*" unary)*
-    unary  := "-" unary | atom
-    atom   := INTEGER | NAME | "(" expr ")"
+    unary  := "-" unary | power
+    power  := atom ("^" INTEGER)?
+    atom   := INTEGER | NAME | NAME "[" INTEGER "]" | "(" expr ")"
+            | "eq" "(" point ")" | "eq" "(" point "," point ")" | "final" "(" NAME ")"
+    point  := NAME | "point" "(" NAME ")"
     NAME   := [A-Za-z_][A-Za-z0-9_.]*
+
+A witness ``combine`` uses the arithmetic only (names are tables). The glue
+expressions of a transcript (``claim_expr``, ``final_expr``) also use the rest:
+``NAME[i]`` is component i (0-based) of a list value, ``eq(a, b)`` is
+prod_j (a_j b_j + (1 - a_j)(1 - b_j)), ``eq(a)`` is eq(a, the instance's own
+challenge point), ``point(NAME)`` the challenge point of the earlier instance
+NAME in variable order x_1..x_mu, ``final(NAME)`` that instance's final value;
+they are evaluated at single elements through a :class:`GlueScope`.
 
 :func:`parse` builds a small tree of frozen nodes (never ``eval``); a text that
 does not fit raises :class:`stepper.errors.ExpressionError` whose ``column``
-points at the offending character. Invariants: a tree is immutable, its
+points at the offending character. The text is at most ``MAX_EXPR_LENGTH``
+characters and parentheses, signs and calls nest at most ``_MAX_DEPTH`` deep; a
+long chain of ``+`` or ``*`` becomes a balanced tree, so no walk over a tree
+recurses deeper than about ``_MAX_DEPTH`` times the logarithm of the length.
+``^`` takes an integer exponent below 2^``MAX_EXPONENT_BITS`` and is evaluated by
+repeated squaring. Invariants: a tree is immutable, its
 ``degree()`` is the total degree of the polynomial it spells in the table
 values (an upper bound on the per-variable degree of the summed polynomial,
 each table being multilinear), and :meth:`Expr.evaluate` is vectorised:
@@ -23,7 +39,7 @@ and products of base by extension cost k base products, not k^2.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field as dc_field
 from typing import TYPE_CHECKING, Mapping, Union
 
 import numpy as np
@@ -33,10 +49,13 @@ from stepper.errors import ExpressionError
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
 
-__all__ = ["Expr", "Const", "Table", "Neg", "Add", "Sub", "Mul", "parse", "MAX_EXPR_LENGTH"]
+__all__ = ["Expr", "Const", "Table", "Neg", "Add", "Sub", "Mul", "Pow", "Index", "Eq", "PointOf", "FinalOf",
+           "GlueScope", "References", "parse", "MAX_EXPR_LENGTH", "MAX_EXPONENT_BITS"]
 
 MAX_EXPR_LENGTH = 4096
-_MAX_DEPTH = 200
+MAX_EXPONENT_BITS = 256
+_MAX_DEPTH = 64
+_LEFT_DEEP = 16  # chains up to this many operands keep the plain left-to-right tree
 
 
 @dataclass(frozen=True, slots=True)
@@ -48,7 +67,8 @@ class Const:
 
 @dataclass(frozen=True, slots=True)
 class Table:
-    """The multilinear extension of the named table."""
+    """The named value: a table's multilinear extension in a combine, a named
+    element (or a list, where a point is wanted) in a glue expression."""
 
     name: str
 
@@ -76,12 +96,80 @@ class Mul:
     right: Expr
 
 
-Node = Union[Const, Table, Neg, Add, Sub, Mul]
+@dataclass(frozen=True, slots=True)
+class Pow:
+    """``base ^ exponent`` with a non-negative integer exponent."""
+
+    base: Expr
+    exponent: int
+
+
+@dataclass(frozen=True, slots=True)
+class Index:
+    """Component ``index`` (0-based) of the list value ``name``."""
+
+    name: str
+    index: int
+
+
+@dataclass(frozen=True, slots=True)
+class PointOf:
+    """The challenge point of the earlier instance ``name`` (x_1..x_mu)."""
+
+    name: str
+
+
+@dataclass(frozen=True, slots=True)
+class FinalOf:
+    """The final value of the earlier instance ``name``."""
+
+    name: str
+
+
+@dataclass(frozen=True, slots=True)
+class Eq:
+    """eq(left, right); ``right`` None means the instance's own challenge point.
+    Each side is a :class:`Table` naming a list value or a :class:`PointOf`."""
+
+    left: Union[Table, PointOf]
+    right: Union[Table, PointOf, None] = None
+
+
+Node = Union[Const, Table, Neg, Add, Sub, Mul, Pow, Index, Eq, PointOf, FinalOf]
+
+
+@dataclass(frozen=True, slots=True)
+class References:
+    """What a glue expression needs: named values (as elements, as lists), instances
+    whose point or final it reads, and whether it uses its own instance's point."""
+
+    scalars: tuple[str, ...] = ()
+    lists: tuple[str, ...] = ()
+    points: tuple[str, ...] = ()
+    finals: tuple[str, ...] = ()
+    own_point: bool = False
+
+    @property
+    def values(self) -> tuple[str, ...]:
+        """Every named value, scalar or list, in order of first appearance."""
+        return tuple(dict.fromkeys((*self.scalars, *self.lists)))
+
+
+@dataclass(frozen=True, slots=True)
+class GlueScope:
+    """What a glue expression may read: named values (an element or a tuple of
+    elements), earlier instances' points and finals by instance name, and the
+    instance's own point (None where it is not known, as in a claim)."""
+
+    values: Mapping[str, object] = dc_field(default_factory=dict)
+    points: Mapping[str, tuple] = dc_field(default_factory=dict)  # type: ignore[type-arg]
+    finals: Mapping[str, object] = dc_field(default_factory=dict)
+    own_point: tuple | None = None  # type: ignore[type-arg]
 
 
 @dataclass(frozen=True, slots=True)
 class Expr:
-    """A parsed `combine` expression: its source text and its tree."""
+    """A parsed expression: its source text and its tree."""
 
     text: str
     root: Node
@@ -91,10 +179,54 @@ class Expr:
         return _degree(self.root)
 
     def names(self) -> tuple[str, ...]:
-        """Table names in order of first appearance."""
+        """Table (value) names in order of first appearance."""
         seen: dict[str, None] = {}
         _collect(self.root, seen)
         return tuple(seen)
+
+    def is_arithmetic(self) -> bool:
+        """Only constants, names, + - * and ^ (what a witness combine may use)."""
+        refs = self.references()
+        return not (refs.lists or refs.points or refs.finals or refs.own_point)
+
+    def references(self) -> References:
+        scalars: dict[str, None] = {}
+        lists: dict[str, None] = {}
+        points: dict[str, None] = {}
+        finals: dict[str, None] = {}
+        own = [False]
+
+        def side(node: object) -> None:
+            if isinstance(node, Table):
+                lists.setdefault(node.name)
+            elif isinstance(node, PointOf):
+                points.setdefault(node.name)
+
+        def walk(node: Node) -> None:
+            if isinstance(node, Table):
+                scalars.setdefault(node.name)
+            elif isinstance(node, Index):
+                lists.setdefault(node.name)
+            elif isinstance(node, FinalOf):
+                finals.setdefault(node.name)
+            elif isinstance(node, PointOf):
+                points.setdefault(node.name)
+            elif isinstance(node, Eq):
+                side(node.left)
+                if node.right is None:
+                    own[0] = True
+                else:
+                    side(node.right)
+            elif isinstance(node, Neg):
+                walk(node.operand)
+            elif isinstance(node, Pow):
+                walk(node.base)
+            elif isinstance(node, (Add, Sub, Mul)):
+                walk(node.left)
+                walk(node.right)
+
+        walk(self.root)
+        return References(tuple(scalars), tuple(lists), tuple(points), tuple(finals), own[0])
 
     def evaluate(self, field: Field, env: Mapping[str, np.ndarray]) -> np.ndarray:
         """The expression entry by entry over equally long table arrays; the result
@@ -104,40 +236,70 @@ class Expr:
 
     def evaluate_scalar(self, field: Field, env: Mapping[str, Element]) -> Element:
         """The expression at single field elements (e.g. the tables' values at a point)."""
-        return _eval_scalar(self.root, field, env)
+        return _Scalar(field, GlueScope(env), self.text).eval(self.root)
+
+    def evaluate_glue(self, field: Field, scope: GlueScope) -> Element:
+        """A glue expression at single elements; a value of the wrong kind (a list
+        where an element is wanted, an index past the end, points of different
+        lengths) raises :class:`ExpressionError` naming it."""
+        return _Scalar(field, scope, self.text).eval(self.root)
 
     def __str__(self) -> str:
         return self.text
 
 
 # ----- parsing --------------------------------------------------------------------------
-def parse(text: str) -> Expr:
+def parse(text: str, what: str = "combine expression") -> Expr:
     """The tree of ``text``; raises :class:`ExpressionError` pointing at the first
-    character that does not fit the grammar."""
+    character that does not fit the grammar (``what`` names the text in messages)."""
     if not isinstance(text, str):
-        raise ExpressionError(f"expected the combine expression as text, found {type(text).__name__}", "", 0)
+        raise ExpressionError(f"expected the {what} as text, found {type(text).__name__}", "", 0)
     if len(text) > MAX_EXPR_LENGTH:
         raise ExpressionError(
-            f"expected a combine expression of at most {MAX_EXPR_LENGTH} characters, found {len(text)}",
+            f"expected a {what} of at most {MAX_EXPR_LENGTH} characters, found {len(text)}",
             text[:80],
             0,
         )
-    parser = _Parser(text)
+    parser = _Parser(text, what)
     root = parser.expr(0)
     parser.skip_space()
     if parser.pos < len(text):
-        parser.fail(f"expected an operator (+, -, *) or the end, found {text[parser.pos]!r}")
+        parser.fail(f"expected an operator (+, -, *, ^) or the end, found {text[parser.pos]!r}")
     return Expr(text, root)
 
 
+def _balanced(items: list[tuple[bool, Node]], product: bool) -> Node:
+    """A balanced tree over a chain of signed terms (or factors): depth log2 of the length."""
+    while len(items) > 1:
+        nxt: list[tuple[bool, Node]] = []
+        for i in range(0, len(items) - 1, 2):
+            (pa, a), (pb, b) = items[i], items[i + 1]
+            if product:
+                nxt.append((True, Mul(a, b)))
+            elif pa and pb:
+                nxt.append((True, Add(a, b)))
+            elif pa:
+                nxt.append((True, Sub(a, b)))
+            elif pb:
+                nxt.append((True, Sub(b, a)))
+            else:
+                nxt.append((False, Add(a, b)))
+        if len(items) % 2:
+            nxt.append(items[-1])
+        items = nxt
+    positive, node = items[0]
+    return node if positive else Neg(node)
+
+
 class _Parser:
-    def __init__(self, text: str) -> None:
+    def __init__(self, text: str, what: str) -> None:
         self.text = text
+        self.what = what
         self.pos = 0
 
     def fail(self, message: str, column: int | None = None) -> None:
         col = self.pos if column is None else column
-        raise ExpressionError(f"{message} at column {col + 1} of the combine expression", self.text, col)
+        raise ExpressionError(f"{message} at column {col + 1} of the {self.what}", self.text, col)
 
     def skip_space(self) -> None:
         while self.pos < len(self.text) and self.text[self.pos] in " \t\r\n":
@@ -148,36 +310,102 @@ class _Parser:
         return self.text[self.pos] if self.pos < len(self.text) else ""
 
     def expr(self, depth: int) -> Node:
-        node = self.term(depth)
+        items: list[tuple[bool, Node]] = [(True, self.term(depth))]
         while self.peek() in ("+", "-"):
             op = self.text[self.pos]
             self.pos += 1
-            right = self.term(depth)
-            node = Add(node, right) if op == "+" else Sub(node, right)
+            items.append((op == "+", self.term(depth)))
+        if len(items) > _LEFT_DEEP:
+            return _balanced(items, product=False)
+        node = items[0][1]
+        for positive, right in items[1:]:
+            node = Add(node, right) if positive else Sub(node, right)
         return node
 
     def term(self, depth: int) -> Node:
-        node = self.unary(depth)
+        factors = [self.unary(depth)]
         while self.peek() == "*":
             self.pos += 1
             if self.peek() == "*":
-                self.fail("expected a table name, a number or '(' after '*' ('**' is not supported; repeat the factor)")
-            node = Mul(node, self.unary(depth))
+                self.fail("expected a name, a number or '(' after '*' ('**' is not supported; write '^')")
+            factors.append(self.unary(depth))
+        if len(factors) > _LEFT_DEEP:
+            return _balanced([(True, f) for f in factors], product=True)
+        node = factors[0]
+        for right in factors[1:]:
+            node = Mul(node, right)
         return node
 
     def unary(self, depth: int) -> Node:
         if depth > _MAX_DEPTH:
-            self.fail(f"expected at most {_MAX_DEPTH} nested parentheses or signs, found more")
+            self.fail(f"expected at most {_MAX_DEPTH} nested parentheses, signs or calls, found more")
         if self.peek() == "-":
             self.pos += 1
             return Neg(self.unary(depth + 1))
-        return self.atom(depth)
+        return self.power(depth)
+
+    def power(self, depth: int) -> Node:
+        node = self.atom(depth)
+        if self.peek() != "^":
+            return node
+        self.pos += 1
+        self.skip_space()
+        start = self.pos
+        exponent = self.integer("an integer exponent after '^'")
+        if exponent.bit_length() > MAX_EXPONENT_BITS:
+            self.fail(f"expected an exponent below 2^{MAX_EXPONENT_BITS}, found one of {exponent.bit_length()} "
+                      f"bits", start)
+        if self.peek() == "^":
+            self.fail("expected one '^' per factor (write (a^b)^c with parentheses)")
+        return Pow(node, exponent)
+
+    def integer(self, wanted: str) -> int:
+        start = self.pos
+        while self.pos < len(self.text) and self.text[self.pos].isascii() and self.text[self.pos].isdigit():
+            self.pos += 1
+        if self.pos == start:
+            found = repr(self.text[self.pos]) if self.pos < len(self.text) else "the end"
+            self.fail(f"expected {wanted}, found {found}")
+        if self.pos < len(self.text) and (self.text[self.pos].isalpha() or self.text[self.pos] == "_"):
+            self.fail(f"expected an operator after the number {self.text[start:self.pos]}, "
+                      f"found {self.text[self.pos]!r}")
+        return int(self.text[start:self.pos])
+
+    def name(self, wanted: str) -> str:
+        self.skip_space()
+        start = self.pos
+        ch = self.text[self.pos] if self.pos < len(self.text) else ""
+        if not (ch.isascii() and (ch.isalpha() or ch == "_")):
+            self.fail(f"expected {wanted}, found {repr(ch) if ch else 'the end'}")
+        while self.pos < len(self.text) and (
+            self.text[self.pos].isascii() and (self.text[self.pos].isalnum() or self.text[self.pos] in "_.")
+        ):
+            self.pos += 1
+        return self.text[start:self.pos]
+
+    def expect(self, ch: str, after: str) -> None:
+        if self.peek() != ch:
+            found = repr(self.text[self.pos]) if self.pos < len(self.text) else "the end"
+            self.fail(f"expected {ch!r} {after}, found {found}")
+        self.pos += 1
+
+    def point(self) -> Union[Table, PointOf]:
+        start = self.pos
+        name = self.name("a point: a list value's name or point(NAME)")
+        if name == "point" and self.peek() == "(":
+            self.pos += 1
+            inner = self.name("an instance name inside point(...)")
+            self.expect(")", "to close point(")
+            return PointOf(inner)
+        if self.peek() == "(":
+            self.fail(f"expected a point: a list value's name or point(NAME), found a call of {name!r}", start)
+        return Table(name)
 
     def atom(self, depth: int) -> Node:
         ch = self.peek()
         start = self.pos
         if ch == "":
-            self.fail("expected a table name, a number or '(', found the end of the expression")
+            self.fail("expected a name, a number or '(', found the end of the expression")
         if ch == "(":
             self.pos += 1
             node = self.expr(depth + 1)
@@ -186,42 +414,65 @@ class _Parser:
                 self.fail(f"expected ')' to close the '(' at column {start + 1}, found {found}")
             self.pos += 1
             return node
-        if ch.isdigit():
-            while self.pos < len(self.text) and self.text[self.pos].isdigit():
-                self.pos += 1
-            if self.pos < len(self.text) and (self.text[self.pos].isalpha() or self.text[self.pos] == "_"):
-                self.fail(f"expected an operator after the number {self.text[start:self.pos]}, found {self.text[self.pos]!r}")
-            return Const(int(self.text[start : self.pos]))
+        if ch.isascii() and ch.isdigit():
+            return Const(self.integer("a number"))
         if ch.isascii() and (ch.isalpha() or ch == "_"):
-            while self.pos < len(self.text) and (
-                self.text[self.pos].isascii() and (self.text[self.pos].isalnum() or self.text[self.pos] in "_.")
-            ):
+            name = self.name("a name")
+            nxt = self.peek()
+            if nxt == "(":
+                if name not in ("eq", "point", "final"):
+                    self.fail(f"expected an operator after {name!r}, found '(' (the only calls are eq(...), "
+                              "final(...) and, inside eq, point(...))")
                 self.pos += 1
-            return Table(self.text[start : self.pos])
+                if name == "final":
+                    node: Node = FinalOf(self.name("an instance name inside final(...)"))
+                elif name == "point":
+                    self.fail("expected point(NAME) only inside eq(...), where a point is wanted", start)
+                    raise AssertionError("unreachable")
+                else:
+                    left = self.point()
+                    right = None
+                    if self.peek() == ",":
+                        self.pos += 1
+                        right = self.point()
+                    node = Eq(left, right)
+                self.expect(")", f"to close the {name}( at column {start + 1}")
+                return node
+            if nxt == "[":
+                self.pos += 1
+                self.skip_space()
+                index = self.integer("a component index (0, 1, ...) inside [...]")
+                self.expect("]", f"to close the [ after {name}")
+                return Index(name, index)
+            return Table(name)
         if ch == "/":
-            self.fail("expected +, - or *; division is not part of a combine expression, found '/'")
-        self.fail(f"expected a table name, a number or '(', found {ch!r}")
+            self.fail("expected +, - or *; division is not part of an expression, found '/'")
+        self.fail(f"expected a name, a number or '(', found {ch!r}")
         raise AssertionError("unreachable")  # fail() always raises
 
 
 # ----- tree walks -----------------------------------------------------------------------
 def _degree(node: Node) -> int:
-    if isinstance(node, Const):
+    if isinstance(node, (Const, Eq, PointOf, FinalOf)):
         return 0
-    if isinstance(node, Table):
+    if isinstance(node, (Table, Index)):
         return 1
     if isinstance(node, Neg):
         return _degree(node.operand)
+    if isinstance(node, Pow):
+        return _degree(node.base) * node.exponent
     if isinstance(node, Mul):
         return _degree(node.left) + _degree(node.right)
     return max(_degree(node.left), _degree(node.right))
 
 
 def _collect(node: Node, seen: dict[str, None]) -> None:
-    if isinstance(node, Table):
+    if isinstance(node, (Table, Index)):
         seen.setdefault(node.name)
     elif isinstance(node, Neg):
         _collect(node.operand, seen)
+    elif isinstance(node, Pow):
+        _collect(node.base, seen)
     elif isinstance(node, (Add, Sub, Mul)):
         _collect(node.left, seen)
         _collect(node.right, seen)
@@ -290,6 +541,20 @@ class _VectorArith:
         ext, flat = (a, b) if a.ndim == 2 else (b, a)
         return self.field.vmul_base(ext, flat)
 
+    def power(self, a: _Value, e: int) -> _Value:
+        """a^e by repeated squaring: about 2 log2(e) vector products."""
+        if isinstance(a, int):
+            return pow(a, e, self.p)
+        result: _Value = 1
+        base: _Value = a
+        while e:
+            if e & 1:
+                result = self.mul(result, base)
+            e >>= 1
+            if e:
+                base = self.mul(base, base)
+        return result
+
 
 def _eval(node: Node, env: Mapping[str, np.ndarray], arith: _VectorArith) -> _Value:
     if isinstance(node, Const):
@@ -298,6 +563,11 @@ def _eval(node: Node, env: Mapping[str, np.ndarray], arith: _VectorArith) -> _Va
         return env[node.name]
     if isinstance(node, Neg):
         return arith.neg(_eval(node.operand, env, arith))
+    if isinstance(node, Pow):
+        return arith.power(_eval(node.base, env, arith), node.exponent)
+    if isinstance(node, (Index, Eq, PointOf, FinalOf)):
+        raise ExpressionError("expected only + - * ^, numbers and table names in a combine expression, found "
+                              f"{type(node).__name__.lower()}(...), which only a transcript's glue may use", "", 0)
     left = _eval(node.left, env, arith)
     right = _eval(node.right, env, arith)
     if isinstance(node, Add):
@@ -307,17 +577,84 @@ def _eval(node: Node, env: Mapping[str, np.ndarray], arith: _VectorArith) -> _Va
     return arith.mul(left, right)
 
 
-def _eval_scalar(node: Node, field: Field, env: Mapping[str, Element]) -> Element:
-    if isinstance(node, Const):
-        return field.embed(node.value)
-    if isinstance(node, Table):
-        return field.lift(env[node.name])
-    if isinstance(node, Neg):
-        return field.neg(_eval_scalar(node.operand, field, env))
-    left = _eval_scalar(node.left, field, env)
-    right = _eval_scalar(node.right, field, env)
-    if isinstance(node, Add):
-        return field.add(left, right)
-    if isinstance(node, Sub):
-        return field.sub(left, right)
-    return field.mul(left, right)
+class _Scalar:
+    """Evaluation at single elements (a combine at a point, or a glue expression)."""
+
+    def __init__(self, field: Field, scope: GlueScope, text: str) -> None:
+        self.field = field
+        self.scope = scope
+        self.text = text
+
+    def fail(self, message: str) -> ExpressionError:
+        return ExpressionError(f"{message} in {self.text!r}"[:300], self.text, 0)
+
+    def value(self, name: str) -> object:
+        try:
+            return self.scope.values[name]
+        except KeyError:
+            raise self.fail(f"expected a value named {name!r}, found none") from None
+
+    def element(self, name: str) -> Element:
+        v = self.value(name)
+        if isinstance(v, list):
+            raise self.fail(f"expected {name!r} to be one element, found a list of {len(v)}")
+        return self.field.lift(v)  # type: ignore[arg-type]
+
+    def points(self, node: Union[Table, PointOf, None]) -> tuple:  # type: ignore[type-arg]
+        if node is None:
+            if self.scope.own_point is None:
+                raise self.fail("expected eq(a) only where the instance's challenge point is known (final_expr); "
+                                "use eq(a, b)")
+            return self.scope.own_point
+        if isinstance(node, PointOf):
+            try:
+                return self.scope.points[node.name]
+            except KeyError:
+                raise self.fail(f"expected an earlier, complete instance named {node.name!r}, found none") from None
+        v = self.value(node.name)
+        if not isinstance(v, list):
+            raise self.fail(f"expected {node.name!r} to be a list (a point), found one element")
+        return tuple(v)
+
+    def eval(self, node: Node) -> Element:
+        f = self.field
+        if isinstance(node, Const):
+            return f.embed(node.value)
+        if isinstance(node, Table):
+            return self.element(node.name)
+        if isinstance(node, Index):
+            v = self.value(node.name)
+            if not isinstance(v, list):
+                raise self.fail(f"expected {node.name!r} to be a list, found one element")
+            if node.index >= len(v):
+                raise self.fail(f"expected an index below {len(v)} into {node.name!r}, found {node.index}")
+            return f.lift(v[node.index])
+        if isinstance(node, FinalOf):
+            try:
+                return f.lift(self.scope.finals[node.name])  # type: ignore[arg-type]
+            except KeyError:
+                raise self.fail(f"expected an earlier, complete instance named {node.name!r}, found none") from None
+        if isinstance(node, PointOf):
+            raise self.fail(f"expected point({node.name}) only inside eq(...)")
+        if isinstance(node, Eq):
+            a, b = self.points(node.left), self.points(node.right)
+            if len(a) != len(b):
+                raise self.fail(f"expected points of one length in eq(...), found lengths {len(a)} and {len(b)}")
+            one = f.one
+            acc = one
+            for x, y in zip(a, b):
+                x, y = f.lift(x), f.lift(y)
+                term = f.add(f.mul(x, y), f.mul(f.sub(one, x), f.sub(one, y)))
+                acc = f.mul(acc, term)
+            return acc
+        if isinstance(node, Neg):
+            return f.neg(self.eval(node.operand))
+        if isinstance(node, Pow):
+            return f.pow(self.eval(node.base), node.exponent)
+        left = self.eval(node.left)
+        right = self.eval(node.right)
+        if isinstance(node, Add):
+            return f.add(left, right)
+        if isinstance(node, Sub):
+            return f.sub(left, right)
+        return f.mul(left, right)

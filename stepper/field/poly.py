@@ -33,6 +33,8 @@ if TYPE_CHECKING:
 
 __all__ = [
     "FORMS",
+    "ROUND_FORMS",
+    "EQ_FACTORED",
     "ORDERS",
     "Form",
     "Order",
@@ -51,6 +53,10 @@ __all__ = [
 Form = Literal["evals", "evals-no-1", "coeffs", "coeffs-no-linear"]
 Order = Literal["low-first", "high-first"]
 FORMS: tuple[str, ...] = ("evals", "evals-no-1", "coeffs", "coeffs-no-linear")
+# eq-factored: q(0), ..., q(d-1) with g(X) = (eq prefix) * eq(w_k, X) * q(X); only the replay, which knows w
+# and the earlier challenges, can rebuild g (stepper.verify.glue). Elsewhere the values read as q's evaluations.
+EQ_FACTORED = "eq-factored"
+ROUND_FORMS: tuple[str, ...] = FORMS + (EQ_FACTORED,)
 ORDERS: tuple[str, ...] = ("low-first", "high-first")
 
 
@@ -165,7 +171,7 @@ class RoundPoly:
     def from_form(cls, field: Field, form: str, values: Sequence[Element], claim: Element) -> RoundPoly:
         """Decode what a prover sent in ``form``, using the claim for compressed forms."""
         vals = [field.lift(v) for v in values]
-        if form == "evals":
+        if form == "evals" or form == EQ_FACTORED:
             return cls(tuple(vals))
         if form == "coeffs":
             return cls(coeffs_to_evals(field, vals))
@@ -184,7 +190,7 @@ class RoundPoly:
 
     def to_form(self, field: Field, form: str) -> tuple[Element, ...]:
         """The values a prover sends for this polynomial in ``form``."""
-        if form == "evals":
+        if form == "evals" or form == EQ_FACTORED:
             return self.evals
         if form == "evals-no-1":
             return (self.evals[0], *self.evals[2:])

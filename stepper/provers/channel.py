@@ -33,9 +33,12 @@ from stepper.transcript.model import (
     FieldDecl,
     FinalValue,
     InstanceStart,
+    NamedValue,
     Note,
+    Opening,
     RoundMsg,
     ScheduleDecl,
+    Squeeze,
 )
 
 if TYPE_CHECKING:
@@ -125,9 +128,33 @@ class ProofChannel:
     def batch(self, coefficient: Element, terms: Sequence[Element], sources: Sequence[str] = ()) -> None:
         self._emit(BatchDecl(coefficient, tuple(terms), tuple(sources)))
 
+    def value(self, name: str, v: Element | Sequence[Element]) -> None:
+        """Announce a named public value (a list is a point); absorbed by the schedule.
+        In an extension field an element is a tuple, so a point is a list of tuples."""
+        listed = isinstance(v, list) or (isinstance(v, tuple) and not self._is_element(v))
+        self._emit(NamedValue(name, tuple(v) if listed else v, listed, self._here()))  # type: ignore[arg-type]
+
+    def squeeze(self, name: str, count: int | None = None) -> Element | tuple[Element, ...]:
+        """Draw named verifier randomness from the schedule: one element, or ``count`` of them."""
+        drawn = self.schedule.squeeze(name, count)
+        self.sink.write(Squeeze(name, drawn, count is not None, self._here()))
+        return drawn
+
+    def opening(self, name: str, v: Element, table: str | None = None) -> None:
+        """The claimed value of ``table`` (default ``name``) at the current instance's point."""
+        self._emit(Opening(name, v, table or name, self.instance))
+
+    def _here(self) -> int | None:
+        return self.instance if self.instance >= 0 else None
+
+    def _is_element(self, v: tuple[Any, ...]) -> bool:
+        return self.field.is_extension and len(v) == self.field.degree and all(isinstance(c, int) for c in v)
+
     def start_instance(self, name: str, num_vars: int, degree: int, claim: Element, *,
-                       order: str = "low-first", form: str = "evals") -> int:
-        """Announce an instance; returns its 0-based index."""
+                       order: str = "low-first", form: str = "evals", claim_expr: str | None = None,
+                       final_expr: str | None = None, eq_point: Sequence[Element] | str | None = None) -> int:
+        """Announce an instance; returns its 0-based index. ``claim_expr``/``final_expr``
+        tie it to the glue; ``eq_point`` goes with form eq-factored."""
         f = self.field
         nxt = self.instance + 1
         fault = self.fault
@@ -136,7 +163,8 @@ class ProofChannel:
             raise UsageError(f"fault {fault.name} needs a non-zero claim; instance {name!r} claims 0")
         if fault is not None and fault.instance == nxt and fault.name == "negate-claim":
             claim = f.neg(claim)
-        start = InstanceStart(nxt, name, num_vars, degree, claim, order, form)
+        point = eq_point if eq_point is None or isinstance(eq_point, str) else tuple(eq_point)
+        start = InstanceStart(nxt, name, num_vars, degree, claim, order, form, None, claim_expr, final_expr, point)
         if fault is not None and fault.instance == nxt and fault.name == "unbound-claim":
             self.schedule.observe(InstanceStart(nxt, name, num_vars, degree, f.zero, order, form))
         else:

@@ -10,7 +10,14 @@ a payload may contain and where it may stand:
 * ``batch`` (optional) immediately precedes the ``instance`` it describes;
 * rounds of an instance come in order, each followed by its ``challenge``,
   at most ``num_vars`` of them; ``final`` comes after the last challenge;
-* ``buckets``, ``note`` and unknown types may stand anywhere after ``field``.
+* ``buckets``, ``note`` and unknown types may stand anywhere after ``field``;
+* the glue (``value``, ``squeeze``, ``opening``) stands between instances: a
+  value or squeeze anywhere after ``field`` outside a round, an opening after the
+  last challenge of the instance it opens at; each has a name unique in the proof.
+  An instance's ``claim_expr`` and ``eq_point`` may name only glue sent before it,
+  its ``final_expr`` also glue sent after its rounds, before the next instance;
+  ``point(NAME)`` and ``final(NAME)`` name earlier instances. Files of format
+  version 1 predate the glue: there these types stay unknown events.
 
 :func:`to_payload` is the inverse: a record as a payload, binary or JSON.
 Caps keep a hostile input from costing unbounded memory.
@@ -29,8 +36,15 @@ from stepper.transcript.payload_rules import (
     MAX_DEGREE, MAX_NUM_VARS, MAX_SIZES, MAX_TEXT, MAX_VALUES, checked_count, checked_text, plain, short,
 )
 from stepper.transcript.payloads import to_payload
-from stepper.field.poly import FORMS, ORDERS
+from stepper.field.expr import Expr, parse as parse_expr
+from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
+from stepper.errors import ExpressionError
 from stepper.transcript.model import (
+    GLUE_NAME,
+    NamedValue,
+    Opening,
+    Squeeze,
+    is_glue_name,
     BatchDecl,
     BucketStats,
     ChallengeMsg,
@@ -50,7 +64,9 @@ from stepper.transcript.model import (
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
            "MAX_DEGREE"]
 
-KNOWN_TYPES = ("field", "schedule", "batch", "instance", "round", "challenge", "final", "buckets", "note")
+KNOWN_TYPES = ("field", "schedule", "batch", "instance", "round", "challenge", "final", "buckets", "note",
+               "value", "squeeze", "opening")
+GLUE_TYPES = ("value", "squeeze", "opening")
 
 
 class Sequencer:
@@ -74,6 +90,9 @@ class Sequencer:
         self._num_vars = 0  # of the current instance (0 before any)
         self._index = -1
         self.stopped_at: UnknownEvent | None = None  # see stream()
+        self.glue = True  # whether value/squeeze/opening are known (False for format version 1 files)
+        self.defined: dict[str, int | None] = {}  # glue name -> list length (None for one element)
+        self._late: tuple[InstanceStart, tuple[str, ...]] | None = None  # final_expr names still to come
 
     # ----- position --------------------------------------------------------------
     @property
@@ -234,6 +253,8 @@ class Sequencer:
                 raise self._fail(f"expected the `field` event first, found `{short(kind)}`")
             return UnknownEvent(kind[:MAX_TEXT], plain(payload, self._fail))
         handler = getattr(self, "_on_" + kind, None) if kind in KNOWN_TYPES else None
+        if handler is not None and not self.glue and kind in GLUE_TYPES:
+            handler = None
         if handler is None:
             cur = self.current
             return UnknownEvent(kind[:MAX_TEXT], plain(payload, self._fail), cur.index if cur else None)
@@ -294,12 +315,20 @@ class Sequencer:
         if order not in ORDERS:
             raise self._fail(f"expected `order` among {', '.join(ORDERS)}, found {short(order)}")
         form = payload.get("form", "evals")
-        if form not in FORMS:
-            raise self._fail(f"expected `form` among {', '.join(FORMS)}, found {short(form)}")
+        if form not in ROUND_FORMS or (form == EQ_FACTORED and not self.glue):
+            forms = ROUND_FORMS if self.glue else ROUND_FORMS[:-1]
+            raise self._fail(f"expected `form` among {', '.join(forms)}, found {short(form)}")
+        if self._late is not None:
+            self._settle_late()
+        claim_expr = final_expr = eq_point = None
+        if self.glue and ("claim_expr" in payload or "final_expr" in payload or "eq_point" in payload
+                          or form == EQ_FACTORED):
+            claim_expr, final_expr, eq_point = self._instance_glue(payload, name, num_vars, degree, form)
         start = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
             len(self.instances), name, num_vars, degree, claim)
         start.order, start.form, start.batch = order, form, self.pending_batch
+        start.claim_expr, start.final_expr, start.eq_point = claim_expr, final_expr, eq_point
         start.__class__ = InstanceStart
         self.pending_batch = None
         self.instances.append(start)
@@ -308,7 +337,149 @@ class Sequencer:
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
+        if final_expr is not None:
+            refs = parse_expr(final_expr).references()
+            late = tuple(n for n in refs.values if n not in self.defined)
+            self._late = (start, late) if late else None
         return start
+
+    # ----- the glue -----------------------------------------------------------------
+    def _instance_glue(self, payload: Mapping[str, Any], name: str, num_vars: int, degree: int,
+                       form: str) -> tuple[str | None, str | None, tuple[Element, ...] | str | None]:
+        """The checked ``claim_expr``, ``final_expr`` and ``eq_point`` of an instance event."""
+        exprs: list[str | None] = []
+        for key in ("claim_expr", "final_expr"):
+            raw = payload.get(key)
+            if raw is None:
+                exprs.append(None)
+                continue
+            text = checked_text(raw, key, self._fail)
+            try:
+                expr = parse_expr(text, f"{key} of instance {name!r}")
+            except ExpressionError as err:
+                raise self._fail(err.message) from None
+            self._check_refs(expr, key, name)
+            exprs.append(text)
+        eq_raw = payload.get("eq_point")
+        eq_point: tuple[Element, ...] | str | None = None
+        if form == EQ_FACTORED:
+            if degree < 1:
+                raise self._fail(f"expected degree >= 1 for the eq-factored instance {name!r}, found {degree}")
+            if eq_raw is None:
+                raise self._fail(f"expected `eq_point` with form eq-factored in instance {name!r}, found none")
+            if isinstance(eq_raw, str):
+                if eq_raw not in self.defined:
+                    raise self._fail(f"instance {name!r}: eq_point names {short(eq_raw)}, which no earlier value or "
+                                     "squeeze defines")
+                length = self.defined[eq_raw]
+                if length is None:
+                    raise self._fail(f"instance {name!r}: eq_point names {eq_raw!r}, one element; expected a list "
+                                     f"of num_vars = {num_vars}")
+                eq_point = eq_raw
+            else:
+                eq_point = self._elements(eq_raw, "eq_point")
+                length = len(eq_point)
+            if length != num_vars:
+                raise self._fail(f"instance {name!r}: expected eq_point of num_vars = {num_vars} elements, "
+                                 f"found {length}")
+        elif eq_raw is not None:
+            raise self._fail(f"expected `eq_point` only with form eq-factored, found it with form {form!r} in "
+                             f"instance {name!r}")
+        return exprs[0], exprs[1], eq_point
+
+    def _check_refs(self, expr: Expr, key: str, name: str) -> None:
+        refs = expr.references()
+        earlier = {s.name for s in self.instances}
+        for inst in (*refs.points, *refs.finals):
+            if inst not in earlier:
+                raise self._fail(f"instance {name!r}: {key} names the instance {inst!r}, which is not an earlier "
+                                 "instance")
+        if key == "claim_expr":
+            if refs.own_point:
+                raise self._fail(f"instance {name!r}: claim_expr uses eq(a) with the instance's own point, which is "
+                                 "not known before its rounds; write eq(a, b)")
+            for value in refs.values:
+                if value not in self.defined:
+                    raise self._fail(f"instance {name!r}: claim_expr names {value!r}, which no earlier value, "
+                                     "squeeze or opening defines")
+        for value in refs.lists:
+            if self.defined.get(value, 0) is None:
+                raise self._fail(f"instance {name!r}: {key} uses {value!r} as a list, found one element")
+        for value in refs.scalars:
+            if self.defined.get(value) is not None:
+                raise self._fail(f"instance {name!r}: {key} uses {value!r} as one element, found a list of "
+                                 f"{self.defined[value]}")
+
+    def _settle_late(self) -> None:
+        """At the next instance: the previous instance's final_expr names must all have come."""
+        assert self._late is not None
+        start, late = self._late
+        self._late = None
+        missing = [n for n in late if n not in self.defined]
+        if missing:
+            raise TranscriptError(
+                f"instance {start.name!r}: final_expr names {missing[0]!r}, which nothing before the next instance "
+                "defines", self.source.but(event=self.count, instance=start.name))
+
+    def _glue_name(self, payload: Mapping[str, Any], kind: str) -> str:
+        name = payload.get("name")
+        if not is_glue_name(name):
+            raise self._fail(f"expected a {kind} `name` of {GLUE_NAME}, found {short(name)}")
+        if name in self.defined:
+            raise self._fail(f"expected glue names unique in the proof, found a second {short(name)}")
+        if self.awaiting_challenge:
+            raise self._fail(f"expected the challenge of round {self.rounds_done} before a {kind}",
+                             self.rounds_done)
+        return name  # type: ignore[no-any-return]
+
+    def _glue_value(self, raw: Any, what: str) -> tuple[Any, bool]:
+        """One element or a list of them: (value, listed)."""
+        assert self.field is not None
+        if raw.__class__ is list:
+            if self.field.is_extension and len(raw) == self.field.degree and all(
+                    isinstance(v, (int, str)) for v in raw):
+                return self._element(raw, what), False  # k scalars: one extension element
+            return self._elements(raw, what), True
+        return self._element(raw, what), False
+
+    def _on_value(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
+        name = self._glue_name(payload, "value")
+        value, listed = self._glue_value(payload.get("value"), f"value {name!r}")
+        self.defined[name] = len(value) if listed else None
+        cur = self.current
+        return NamedValue(name, value, listed, cur.index if cur else None)
+
+    def _on_squeeze(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
+        name = self._glue_name(payload, "squeeze")
+        value, listed = self._glue_value(payload.get("value"), f"squeeze {name!r}")
+        self.defined[name] = len(value) if listed else None
+        cur = self.current
+        return Squeeze(name, value, listed, cur.index if cur else None)
+
+    def _on_opening(self, payload: Mapping[str, Any]) -> Event:
+        self._close_instance()
+        cur = self._need_instance("opening")
+        name = self._glue_name(payload, "opening")
+        if self.rounds_done != cur.num_vars:
+            raise self._fail(f"expected an opening after all {cur.num_vars} rounds of instance {cur.name!r} "
+                             f"(its challenge point), found it after {self.rounds_done}")
+        table = payload.get("table", name)
+        if not is_glue_name(table):
+            raise self._fail(f"expected an opening's `table` of {GLUE_NAME}, found {short(table)}")
+        value = self._element(payload.get("value"), f"opening {name!r}")
+        self.defined[name] = None
+        return Opening(name, value, table, cur.index)
+
+    def finish_glue(self) -> str | None:
+        """At the end of the stream: the first final_expr name that never came, as
+        ``instance NAME: final_expr names X`` (the proof is incomplete), or None."""
+        if self._late is None:
+            return None
+        start, late = self._late
+        missing = [n for n in late if n not in self.defined]
+        return f"instance {start.name!r}: final_expr names {missing[0]!r}, never sent" if missing else None
 
     def _close_instance(self) -> None:
         if self.pending_batch is not None:

@@ -1,7 +1,8 @@
 """The in-memory transcript: event records and the proof they add up to.
 
 A transcript is a sequence of events (the vocabulary of the event stream in
-transcripts/EVENTS.md plus stepper's own ``schedule`` and ``batch``). Each event record is
+transcripts/EVENTS.md plus stepper's own ``schedule`` and ``batch``; the glue between
+instances: ``value``, ``squeeze`` and ``opening``). Each event record is
 a frozen, slotted dataclass whose constructor leaves it canonical: elements
 are reduced field values, counts are checked, positions (instance index,
 round number) are filled in by :class:`stepper.transcript.events.Sequencer`, never by
@@ -16,10 +17,12 @@ from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Literal, Mapping, Union
 
 from stepper.field.field import Element, Field
-from stepper.field.poly import FORMS, ORDERS, RoundPoly
+from stepper.field.poly import ORDERS, ROUND_FORMS, RoundPoly
 
 __all__ = [
     "FORMAT_VERSION",
+    "GLUE_VERSION",
+    "PLAIN_VERSION",
     "Header",
     "FieldDecl",
     "ScheduleDecl",
@@ -31,6 +34,11 @@ __all__ = [
     "BucketStats",
     "Note",
     "UnknownEvent",
+    "NamedValue",
+    "Squeeze",
+    "Opening",
+    "GLUE_NAME",
+    "is_glue_name",
     "Event",
     "Round",
     "InstanceRecord",
@@ -41,7 +49,17 @@ __all__ = [
     "InstanceStartDraft",
 ]
 
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2  # the newest version read; 2: the glue events value, squeeze, opening, the glue instance keys
+GLUE_VERSION = 2  # the first format version whose readers know the glue events
+PLAIN_VERSION = 1  # what the writer declares for a file without glue (see stepper.transcript.store.writer)
+GLUE_NAME = "letters, digits, '_' and '.', starting with a letter or '_', at most 128 characters"
+_NAME_CHARS = frozenset("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789_.")
+
+
+def is_glue_name(name: object) -> bool:
+    """Whether ``name`` may name a value, squeeze or opening (see ``GLUE_NAME``)."""
+    return (isinstance(name, str) and 0 < len(name) <= 128 and (name[0].isascii() and (name[0].isalpha()
+            or name[0] == "_")) and all(c in _NAME_CHARS for c in name))
 
 
 def _need(ok: bool, record: str, message: str) -> None:
@@ -69,7 +87,7 @@ class Header:
     """What the file says about itself: format version, writer, free metadata
     (``label``, ``command``, ``created`` ... ; strings, numbers, lists, maps)."""
 
-    format_version: int = FORMAT_VERSION
+    format_version: int = PLAIN_VERSION
     tool_version: str = ""
     metadata: Mapping[str, Any] = dc_field(default_factory=dict)
 
@@ -132,15 +150,21 @@ class InstanceStart:
     order: str = "low-first"
     form: str = "evals"
     batch: BatchDecl | None = None
+    claim_expr: str | None = None  # the claim must equal it (check `link`)
+    final_expr: str | None = None  # the reduced claim after the last round must equal it (check `evaluation`)
+    eq_point: tuple[Element, ...] | str | None = None  # form eq-factored: the point w, or the name of a list value
 
     def __post_init__(self) -> None:
+        _freeze(self, "eq_point")
         _need(_index(self.index), "InstanceStart", "a non-negative index")
         _need(isinstance(self.name, str), "InstanceStart", "name as a string")
         _need(_index(self.num_vars) and _index(self.degree), "InstanceStart", "non-negative num_vars and degree")
         if self.order not in ORDERS:  # the messages are built only when needed: instances are many
             _need(False, "InstanceStart", f"order among {', '.join(ORDERS)}, found {self.order!r}")
-        if self.form not in FORMS:
-            _need(False, "InstanceStart", f"form among {', '.join(FORMS)}, found {self.form!r}")
+        if self.form not in ROUND_FORMS:
+            _need(False, "InstanceStart", f"form among {', '.join(ROUND_FORMS)}, found {self.form!r}")
+        if (self.form == "eq-factored") != (self.eq_point is not None):
+            _need(False, "InstanceStart", "eq_point exactly when the form is eq-factored")
 
 
 @dataclass(frozen=True, slots=True)
@@ -255,8 +279,69 @@ class UnknownEvent:
         _need(isinstance(self.kind, str), "UnknownEvent", "kind as a string")
 
 
+@dataclass(frozen=True, slots=True)
+class NamedValue:
+    """A named public value of the statement (``value`` event): one element, or a
+    tuple of elements when ``listed`` (a point). ``instance`` is the instance it
+    follows (None before the first)."""
+
+    name: str
+    value: Any
+    listed: bool = False
+    instance: int | None = None
+
+    def __post_init__(self) -> None:
+        _freeze(self, "value")
+        _need(is_glue_name(self.name), "NamedValue", f"a name of {GLUE_NAME}, found {self.name!r}"[:200])
+        _need(not self.listed or isinstance(self.value, tuple), "NamedValue", "a tuple of elements when listed")
+        _need(self.instance is None or _index(self.instance), "NamedValue", "instance None or >= 0")
+
+    def items(self) -> tuple[Element, ...]:
+        """The elements: the list, or the one element alone."""
+        return self.value if self.listed else (self.value,)  # type: ignore[no-any-return]
+
+
+@dataclass(frozen=True, slots=True)
+class Squeeze:
+    """Named verifier randomness drawn outside the rounds (``squeeze`` event): a
+    coefficient or a point; the built-in schedule re-derives it."""
+
+    name: str
+    value: Any
+    listed: bool = False
+    instance: int | None = None
+
+    def __post_init__(self) -> None:
+        _freeze(self, "value")
+        _need(is_glue_name(self.name), "Squeeze", f"a name of {GLUE_NAME}, found {self.name!r}"[:200])
+        _need(not self.listed or isinstance(self.value, tuple), "Squeeze", "a tuple of elements when listed")
+        _need(self.instance is None or _index(self.instance), "Squeeze", "instance None or >= 0")
+
+    def items(self) -> tuple[Element, ...]:
+        return self.value if self.listed else (self.value,)  # type: ignore[no-any-return]
+
+
+@dataclass(frozen=True, slots=True)
+class Opening:
+    """The prover's claimed value of the multilinear extension of witness table
+    ``table`` at the challenge point of instance ``instance`` (``opening`` event)."""
+
+    name: str
+    value: Element
+    table: str
+    instance: int
+
+    def __post_init__(self) -> None:
+        _need(is_glue_name(self.name), "Opening", f"a name of {GLUE_NAME}, found {self.name!r}"[:200])
+        _need(isinstance(self.table, str) and bool(self.table), "Opening", "a table name")
+        _need(_index(self.instance), "Opening", "instance >= 0")
+
+
+Glue = Union[NamedValue, Squeeze, Opening]
+
 Event = Union[
-    FieldDecl, ScheduleDecl, BatchDecl, InstanceStart, RoundMsg, ChallengeMsg, FinalValue, BucketStats, Note, UnknownEvent
+    FieldDecl, ScheduleDecl, BatchDecl, InstanceStart, RoundMsg, ChallengeMsg, FinalValue, BucketStats, Note,
+    UnknownEvent, NamedValue, Squeeze, Opening
 ]
 
 
@@ -281,10 +366,15 @@ class InstanceRecord:
     buckets: tuple[BucketStats, ...] = ()
     notes: tuple[Note, ...] = ()
     unknown: tuple[UnknownEvent, ...] = ()
+    glue: tuple[Glue, ...] = ()  # values, squeezes and openings that follow this instance, in order
 
     @property
     def name(self) -> str:
         return self.start.name
+
+    @property
+    def openings(self) -> tuple[Opening, ...]:
+        return tuple(g for g in self.glue if isinstance(g, Opening))
 
     @property
     def complete(self) -> bool:
@@ -307,6 +397,7 @@ class Transcript:
     unknown: tuple[UnknownEvent, ...] = ()
     completeness: Completeness = "complete"
     digest: DigestStatus = "not-applicable"
+    glue: tuple[Glue, ...] = ()  # values and squeezes sent before the first instance
 
     @property
     def complete(self) -> bool:
@@ -331,6 +422,8 @@ def fold_events(
     buckets: list[list[BucketStats]] = []
     inst_notes: list[list[Note]] = []
     inst_unknown: list[list[UnknownEvent]] = []
+    inst_glue: list[list[Glue]] = []
+    glue: list[Glue] = []
     notes: list[Note] = []
     unknown: list[UnknownEvent] = []
     for ev in events:
@@ -345,6 +438,9 @@ def fold_events(
             buckets.append([])
             inst_notes.append([])
             inst_unknown.append([])
+            inst_glue.append([])
+        elif isinstance(ev, (NamedValue, Squeeze, Opening)):
+            (inst_glue[ev.instance] if ev.instance is not None else glue).append(ev)
         elif isinstance(ev, RoundMsg):
             rounds[ev.instance].append(Round(ev.instance, ev.round, ev.values))
         elif isinstance(ev, ChallengeMsg):
@@ -363,9 +459,10 @@ def fold_events(
 
         raise TranscriptError("expected a field event before anything else, found none")
     instances = tuple(
-        InstanceRecord(s, tuple(r), f, tuple(b), tuple(n), tuple(u))
-        for s, r, f, b, n, u in zip(starts, rounds, finals, buckets, inst_notes, inst_unknown)
+        InstanceRecord(s, tuple(r), f, tuple(b), tuple(n), tuple(u), tuple(g))
+        for s, r, f, b, n, u, g in zip(starts, rounds, finals, buckets, inst_notes, inst_unknown, inst_glue)
     )
     return Transcript(
-        header or Header(), field, instances, schedule, tuple(notes), tuple(unknown), completeness, digest
+        header or Header(), field, instances, schedule, tuple(notes), tuple(unknown), completeness, digest,
+        tuple(glue)
     )

@@ -22,7 +22,10 @@ from stepper.transcript.model import (
     FieldDecl,
     FinalValue,
     InstanceStart,
+    NamedValue,
     Note,
+    Opening,
+    Squeeze,
     RoundMsg,
     ScheduleDecl,
     UnknownEvent,
@@ -67,6 +70,22 @@ def to_payload(event: Event, field: Field | None, binary: bool, packed: bool = F
             out["order"] = event.order
         if event.form != "evals":
             out["form"] = event.form
+        if event.claim_expr is not None:
+            out["claim_expr"] = event.claim_expr
+        if event.final_expr is not None:
+            out["final_expr"] = event.final_expr
+        if event.eq_point is not None:
+            out["eq_point"] = event.eq_point if isinstance(event.eq_point, str) else [el(v) for v in event.eq_point]
+        return out
+    if isinstance(event, (NamedValue, Squeeze)):
+        kind = "value" if isinstance(event, NamedValue) else "squeeze"
+        # a list is always a list of elements (never packed): one element and a list of one stay apart
+        return {"type": kind, "name": event.name,
+                "value": [el(v) for v in event.value] if event.listed else el(event.value)}
+    if isinstance(event, Opening):
+        out = {"type": "opening", "name": event.name, "value": el(event.value)}
+        if event.table != event.name:
+            out["table"] = event.table
         return out
     if isinstance(event, RoundMsg):
         return {"type": "round", "evals": els(event.values)}

@@ -34,9 +34,12 @@ from stepper.transcript.model import (
     FieldDecl,
     FinalValue,
     InstanceStart,
+    NamedValue,
     Note,
+    Opening,
     RoundMsg,
     ScheduleDecl,
+    Squeeze,
 )
 
 __all__ = ["Recorder", "Tap", "tap"]
@@ -52,6 +55,15 @@ def _element(value: Any) -> Any:
     if tolist is not None:  # numpy scalars and arrays, galois elements
         return _element(tolist())
     return int(value)
+
+
+def _glue_value(value: Any) -> Any:
+    """A value or squeeze as the payload wants it: a list stays a list of elements, so
+    in an extension field each element of a point must itself be a list or tuple."""
+    tolist = getattr(value, "tolist", None)
+    if tolist is not None:
+        value = tolist()
+    return _element(value)
 
 
 def _elements(values: Any) -> list[Any]:
@@ -120,10 +132,34 @@ class Recorder:
         return self._write(payload)  # type: ignore[return-value]
 
     def instance(self, name: str, num_vars: int, degree: int, claim: Any, *, order: str = "low-first",
-                 form: str = "evals") -> InstanceStart:
-        """Start a sumcheck instance."""
-        return self._write({"type": "instance", "name": name, "num_vars": int(num_vars), "degree": int(degree),
-                            "claim": _element(claim), "order": order, "form": form})  # type: ignore[return-value]
+                 form: str = "evals", claim_expr: str | None = None, final_expr: str | None = None,
+                 eq_point: Any = None) -> InstanceStart:
+        """Start a sumcheck instance; ``claim_expr`` / ``final_expr`` tie it to the glue,
+        ``eq_point`` (a list, or the name of a list value or squeeze) goes with form eq-factored."""
+        payload: dict[str, Any] = {"type": "instance", "name": name, "num_vars": int(num_vars),
+                                   "degree": int(degree), "claim": _element(claim), "order": order, "form": form}
+        if claim_expr is not None:
+            payload["claim_expr"] = claim_expr
+        if final_expr is not None:
+            payload["final_expr"] = final_expr
+        if eq_point is not None:
+            payload["eq_point"] = eq_point if isinstance(eq_point, str) else _elements(eq_point)
+        return self._write(payload)  # type: ignore[return-value]
+
+    def value(self, name: str, v: Any) -> NamedValue:
+        """A named public value: one element, or a list of them (a point)."""
+        return self._write({"type": "value", "name": name, "value": _glue_value(v)})  # type: ignore[return-value]
+
+    def squeeze(self, name: str, v: Any) -> Squeeze:
+        """Named verifier randomness drawn outside the rounds: one element or a list."""
+        return self._write({"type": "squeeze", "name": name, "value": _glue_value(v)})  # type: ignore[return-value]
+
+    def opening(self, name: str, v: Any, table: str | None = None) -> Opening:
+        """The claimed value of table ``table`` (default ``name``) at the last instance's point."""
+        payload: dict[str, Any] = {"type": "opening", "name": name, "value": _element(v)}
+        if table is not None:
+            payload["table"] = table
+        return self._write(payload)  # type: ignore[return-value]
 
     def round(self, values: Any) -> RoundMsg:
         """The round polynomial as sent, in the instance's form (g(0), g(1), ... by default)."""
@@ -188,6 +224,7 @@ class Tap:
         self.sent = 0
         self.drawn = 0
         self.off_round_draws = 0
+        self.glue = 0  # values, squeezes and openings recorded
         self._saved: list[tuple[str, bool, Any]] = []  # (name, was an instance attribute, old value)
 
     def _wrap(self, name: str, make: Callable[[Callable[..., Any]], Callable[..., Any]]) -> None:
@@ -219,7 +256,8 @@ class Tap:
 
 
 def tap(channel: Any, recorder: Recorder, *, send: str | Sequence[str], draw: str | Sequence[str],
-        values: Callable[..., Any] | None = None, challenge: Callable[[Any], Any] | None = None) -> Tap:
+        values: Callable[..., Any] | None = None, challenge: Callable[[Any], Any] | None = None,
+        value: str | None = None, squeeze: str | None = None, opening: str | None = None) -> Tap:
     """Record the rounds and challenges that pass through ``channel``.
 
     ``send`` names the method(s) the prover calls with a round polynomial;
@@ -229,7 +267,13 @@ def tap(channel: Any, recorder: Recorder, *, send: str | Sequence[str], draw: st
     (default: the result itself). A draw made while no round waits for its
     challenge (a batching coefficient, say) is not a round challenge: it is kept
     as a note, so nothing is lost. Start the instance with ``recorder.instance``
-    before the prover runs."""
+    before the prover runs.
+
+    The glue passes through the same way: ``value``, ``squeeze`` and ``opening``
+    name the channel's methods called as ``(name, v)`` (``opening`` also with an
+    optional ``table``) that announce a public value, return a squeezed value, and
+    send an opening; each call is recorded with the recorder's method of that name
+    (a squeeze records what the method returned)."""
     pick = values or (lambda *args, **kwargs: args[0])
     convert = challenge or (lambda result: result)
     hooks = Tap(channel, recorder)
@@ -255,6 +299,25 @@ def tap(channel: Any, recorder: Recorder, *, send: str | Sequence[str], draw: st
             return result
         return drawn
 
+    def make_glue(kind: str) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
+        def make(original: Callable[..., Any]) -> Callable[..., Any]:
+            def passed(name: str, *args: Any, **kwargs: Any) -> Any:
+                result = original(name, *args, **kwargs)
+                if kind == "squeeze":
+                    recorder.squeeze(name, result)
+                elif kind == "value":
+                    recorder.value(name, args[0] if args else kwargs["v"])
+                else:
+                    table = args[1] if len(args) > 1 else kwargs.get("table")
+                    recorder.opening(name, args[0] if args else kwargs["v"], table)
+                hooks.glue += 1
+                return result
+            return passed
+        return make
+
+    for kind, method in (("value", value), ("squeeze", squeeze), ("opening", opening)):
+        if method is not None:
+            hooks._wrap(method, make_glue(kind))
     for name in [send] if isinstance(send, str) else send:
         hooks._wrap(name, make_send)
     for name in [draw] if isinstance(draw, str) else draw:

@@ -13,9 +13,14 @@ Rules kept here:
   elements are the field's canonical fixed-width little-endian bytes.
 * Absorbed, in the order the records arrive: the domain frame (at creation),
   ``field``, ``schedule`` (name, label), ``batch``, ``instance`` (name, num_vars,
-  degree, order, form, claim), ``round`` (the values in the form sent), and each
-  squeezed challenge. Challenges, finals, buckets, notes and unknown events that
-  are *observed* are not absorbed (a challenge is absorbed by ``challenge()``).
+  degree, order, form, claim), ``round`` (the values in the form sent), each
+  squeezed challenge, and the glue: ``value`` (name, whether a list, count,
+  elements) and ``opening`` (name, table, element). Challenges, squeezes, finals,
+  buckets, notes and unknown events that are *observed* are not absorbed (a
+  challenge is absorbed by ``challenge()``; a squeeze by ``squeeze()``, which
+  absorbs a ``draw`` frame (name, whether a list, count) and then draws that many
+  challenges in a row). An instance's glue keys are not absorbed: to bind a
+  point, send it as a ``value``.
 * A challenge is k independent base samples (k = extension degree); sample s
   reads L = ceil((bits(p) + 128) / 8) bytes from SHA-256 blocks of
   ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a little-endian integer
@@ -35,7 +40,7 @@ from typing import TYPE_CHECKING, Callable
 
 from stepper.errors import InputError
 from stepper.transcript.packed import pack_elements
-from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
@@ -130,6 +135,25 @@ class Sha256Schedule:
             body = (self._el(record.coefficient) + _u64(len(record.terms))  # type: ignore[union-attr]
                     + pack_elements(field, record.terms))  # type: ignore[union-attr]
             self._absorb(b"batch", body)
+        elif cls is NamedValue:
+            field = self._need_field("value")
+            items = record.items()  # type: ignore[union-attr]
+            self._absorb(b"value", _text(record.name) + _u64(int(record.listed)) + _u64(len(items))  # type: ignore[union-attr]
+                         + pack_elements(field, items))
+        elif cls is Opening:
+            self._need_field("opening")
+            self._absorb(b"opening", _text(record.name) + _text(record.table)  # type: ignore[union-attr]
+                         + self._el(record.value))  # type: ignore[union-attr]
+
+    def squeeze(self, name: str, count: int | None = None) -> Element | tuple[Element, ...]:
+        """Derive the squeeze ``name``: one element (``count`` None) or a tuple of
+        ``count``. Absorbs frame("draw", name || u64(listed) || u64(n)), then draws n
+        challenges as :meth:`challenge` does (each absorbed)."""
+        self._need_field("a squeeze")
+        n = 1 if count is None else count
+        self._absorb(b"draw", _text(name) + _u64(int(count is not None)) + _u64(n))
+        values = tuple(self.challenge() for _ in range(n))
+        return values[0] if count is None else values
 
     def _round_frame(self, values: tuple[Element, ...]) -> bytes:
         """``frame("round", u64(n) || packed values)``; head and packer cached per n."""

@@ -47,7 +47,10 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
-from stepper.transcript.model import FORMAT_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent
+from stepper.transcript.model import (
+    FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, NamedValue, Note, Opening, RoundMsg, Squeeze,
+    UnknownEvent,
+)
 
 if TYPE_CHECKING:
     import numpy as np
@@ -202,6 +205,7 @@ class _Sweeper:
         version = next(payloads)
         if version.__class__ is not int or not 1 <= version <= FORMAT_VERSION:
             raise _GiveUp("format version")
+        self.seq.glue = version >= GLUE_VERSION
         header = read_header(next(payloads), version, self.seq.source)
         end = self._events(payloads)
         self._flush()
@@ -226,9 +230,13 @@ class _Sweeper:
         """Every event up to the end event (returned), runs taken and checked by the block."""
         seq, replay, instance_cls = self.seq, self.replay, InstanceStart
         passive = (Note, BucketStats, UnknownEvent)
+        glue = (NamedValue, Squeeze, Opening)
         for payload in payloads:
             record = seq.feed(payload)
             cls = record.__class__
+            if cls in glue or (cls is instance_cls and (record.claim_expr is not None  # type: ignore[union-attr]
+                               or record.final_expr is not None or record.eq_point is not None)):  # type: ignore[union-attr]
+                raise _GiveUp("glue between instances")  # the event-by-event replay checks it
             if cls is instance_cls and self._runnable(record):  # type: ignore[arg-type]
                 self._take_run(record)  # type: ignore[arg-type]
                 continue

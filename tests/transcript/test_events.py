@@ -301,3 +301,135 @@ def test_stream_refuses_non_canonical_goldilocks_values_like_feed(value):
             list(seq.stream(iter([packed_round(value, 0, 0)]))) if use_stream else seq.feed(packed_round(value, 0, 0))
         messages.append(str(info.value))
     assert messages[0] == messages[1] and "element 0" in messages[0]
+
+
+# ----- the glue: value, squeeze, opening and the instance keys ----------------------------------------------------
+def glued(name: str = "goldilocks") -> Sequencer:
+    seq = Sequencer()
+    seq.feed({"type": "field", "name": name})
+    return seq
+
+
+def test_glue_events_become_records_with_names_lists_and_the_instance_they_follow():
+    from stepper.transcript.model import NamedValue, Opening, Squeeze
+
+    seq = glued()
+    tau = seq.feed({"type": "value", "name": "tau", "value": [3, "0x5"]})
+    assert tau == NamedValue("tau", (3, 5), True, None)
+    one = seq.feed({"type": "value", "name": "fare.total", "value": "12"})
+    assert one == NamedValue("fare.total", 12, False, None)
+    seq.feed({"type": "instance", "name": "zc", "num_vars": 1, "degree": 2, "claim": 0,
+              "final_expr": "a * b_at_r"})
+    seq.feed({"type": "round", "evals": [0, 0, 0]})
+    seq.feed({"type": "challenge", "value": 9})
+    a = seq.feed({"type": "opening", "name": "a", "value": 4})
+    b = seq.feed({"type": "opening", "name": "b_at_r", "table": "b", "value": 5})
+    alpha = seq.feed({"type": "squeeze", "name": "alpha", "value": 7})
+    assert a == Opening("a", 4, "a", 0) and b == Opening("b_at_r", 5, "b", 0)
+    assert alpha == Squeeze("alpha", 7, False, 0)
+
+
+def test_an_extension_value_of_k_scalars_is_one_element_and_a_list_of_lists_is_a_point():
+    from stepper.field.field import DEFAULT_IRREDUCIBLES
+
+    seq = Sequencer()
+    seq.feed({"type": "field", "name": "babybear", "extension_degree": 4})
+    one = seq.feed({"type": "value", "name": "c", "value": [1, 2, 3, 4]})
+    point = seq.feed({"type": "value", "name": "w", "value": [[1, 2, 3, 4], [0, 0, 0, 1]]})
+    assert one.listed is False and one.value == (1, 2, 3, 4)
+    assert point.listed is True and point.value == ((1, 2, 3, 4), (0, 0, 0, 1))
+    assert DEFAULT_IRREDUCIBLES[("babybear", 4)]  # the field above is the default quartic extension
+
+
+@pytest.mark.parametrize(("payloads", "message"), [
+    ([{"type": "value", "name": "9lives", "value": 1}], "name"),
+    ([{"type": "value", "name": "a b", "value": 1}], "name"),
+    ([{"type": "value", "name": "x", "value": 1}, {"type": "squeeze", "name": "x", "value": 2}], "unique"),
+    ([{"type": "opening", "name": "a", "value": 1}], "instance"),
+    ([{"type": "instance", "name": "i", "num_vars": 2, "degree": 1, "claim": 0},
+      {"type": "round", "evals": [0, 0]}, {"type": "challenge", "value": 1},
+      {"type": "opening", "name": "a", "value": 1}], "after all 2 rounds"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0},
+      {"type": "round", "evals": [0, 0]}, {"type": "value", "name": "v", "value": 1}], "challenge of round 1"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "claim_expr": "alpha * 2"}],
+     "instance 'i': claim_expr names 'alpha'"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "claim_expr": "eq(tau)"}],
+     "own point"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "claim_expr": "final(h)"}],
+     "instance 'i': claim_expr names the instance 'h'"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "claim_expr": "2 +* 3"}],
+     "column 4 of the claim_expr of instance 'i'"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "final_expr": "a"},
+      {"type": "round", "evals": [0, 0]}, {"type": "challenge", "value": 1},
+      {"type": "instance", "name": "j", "num_vars": 1, "degree": 1, "claim": 0}],
+     "instance 'i': final_expr names 'a', which nothing before the next instance"),
+    ([{"type": "instance", "name": "i", "num_vars": 2, "degree": 2, "claim": 0, "form": "eq-factored"}],
+     "eq_point"),
+    ([{"type": "instance", "name": "i", "num_vars": 2, "degree": 2, "claim": 0, "form": "eq-factored",
+       "eq_point": [1]}], "num_vars = 2"),
+    ([{"type": "instance", "name": "i", "num_vars": 2, "degree": 2, "claim": 0, "form": "eq-factored",
+       "eq_point": "tau"}], "eq_point names 'tau'"),
+    ([{"type": "value", "name": "tau", "value": 1},
+      {"type": "instance", "name": "i", "num_vars": 1, "degree": 2, "claim": 0, "form": "eq-factored",
+       "eq_point": "tau"}], "one element"),
+    ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 2, "claim": 0, "eq_point": [1]}],
+     "only with form eq-factored"),
+])
+def test_glue_that_breaks_the_rules_is_refused_with_one_line_naming_it(payloads, message):
+    seq = glued()
+    with pytest.raises(TranscriptError, match=message) as info:
+        for payload in payloads:
+            seq.feed(payload)
+    assert "\n" not in str(info.value)
+
+
+def test_final_expr_may_wait_for_openings_after_its_rounds_and_an_eq_point_may_name_a_squeeze():
+    seq = glued()
+    seq.feed({"type": "squeeze", "name": "w", "value": [1, 2]})
+    start = seq.feed({"type": "instance", "name": "zc", "num_vars": 2, "degree": 2, "claim": 0,
+                      "form": "eq-factored", "eq_point": "w", "final_expr": "eq(w) * a^2"})
+    assert start.eq_point == "w" and start.final_expr == "eq(w) * a^2"
+    for r in (1, 2):
+        seq.feed({"type": "round", "evals": [0, 0]})
+        seq.feed({"type": "challenge", "value": r})
+    assert seq.finish_glue() == "instance 'zc': final_expr names 'a', never sent"
+    seq.feed({"type": "opening", "name": "a", "value": 3})
+    assert seq.finish_glue() is None
+    nxt = seq.feed({"type": "instance", "name": "next", "num_vars": 1, "degree": 1, "claim": 0,
+                    "claim_expr": "a + eq(point(zc), w) * final(zc)"})
+    assert nxt.claim_expr == "a + eq(point(zc), w) * final(zc)"
+
+
+def test_glue_types_are_unknown_events_in_a_version_1_file():
+    seq = glued()
+    seq.glue = False
+    record = seq.feed({"type": "value", "name": "tau", "value": 1})
+    assert isinstance(record, UnknownEvent) and record.kind == "value"
+    with pytest.raises(TranscriptError, match="form"):
+        seq.feed({"type": "instance", "name": "i", "num_vars": 1, "degree": 2, "claim": 0, "form": "eq-factored",
+                  "eq_point": [1]})
+
+
+@pytest.mark.parametrize("binary", [False, True])
+def test_to_payload_inverts_feed_for_the_glue(binary):
+    field_ext = None
+    for name, degree in (("goldilocks", 1), ("babybear", 4)):
+        spec = {"type": "field", "name": name, **({"extension_degree": degree} if degree > 1 else {})}
+        src = Sequencer()
+        decl = src.feed(spec)
+        field_ext = decl.field
+        one = field_ext.embed(3) if degree > 1 else 3
+        payloads = [
+            {"type": "value", "name": "tau", "value": [field_ext.to_json(one), field_ext.to_json(field_ext.one)]},
+            {"type": "squeeze", "name": "alpha", "value": field_ext.to_json(one)},
+            {"type": "squeeze", "name": "pt", "value": [field_ext.to_json(one)]},
+            {"type": "instance", "name": "zc", "num_vars": 1, "degree": 2, "claim": 0, "form": "eq-factored",
+             "eq_point": [field_ext.to_json(one)], "claim_expr": "alpha - alpha", "final_expr": "eq(tau) * a"},
+            {"type": "round", "evals": [0, 0]}, {"type": "challenge", "value": 1},
+            {"type": "opening", "name": "a", "table": "fares", "value": 5},
+        ]
+        records = [src.feed(p) for p in payloads]
+        again = Sequencer()
+        again.feed(spec)
+        for record in records:
+            assert again.feed(to_payload(record, field_ext, binary=binary, packed=binary)) == record

@@ -187,3 +187,60 @@ def test_an_extra_integer_past_msgpack_range_is_a_transcript_error_not_an_overfl
             rec.instance("deck-slots-zero", 2, 2, 0)
             rec.buckets(1, 0, 1, camera_frame=2**70)
     assert len(load(path).instances) == 1
+
+
+def test_the_glue_calls_write_values_squeezes_openings_and_the_instance_keys(tmp_path):
+    from stepper.transcript.model import NamedValue, Opening, Squeeze
+
+    path = tmp_path / "glue.stp"
+    with Recorder(path, field="goldilocks") as rec:
+        rec.value("tau", np.array([1, 2], dtype=np.uint64))
+        rec.squeeze("alpha", 7)
+        rec.instance("zc", 1, 2, 0, final_expr="a * alpha",
+                     claim_expr="alpha - 7")
+        rec.round([0, 0, 0])
+        rec.challenge(3)
+        rec.opening("a", 5)
+        rec.opening("b.at.r", 6, table="b")
+    t = load(path)
+    assert t.header.format_version == 2
+    assert t.glue == (NamedValue("tau", (1, 2), True, None), Squeeze("alpha", 7, False, None))
+    inst = t.instances[0]
+    assert inst.start.final_expr == "a * alpha" and inst.start.claim_expr == "alpha - 7"
+    assert inst.openings == (Opening("a", 5, "a", 0), Opening("b.at.r", 6, "b", 0))
+
+
+def test_tap_passes_the_channels_glue_calls_through(tmp_path):
+    class Channel:
+        def __init__(self):
+            self.seen = []
+
+        def publish(self, name, v):
+            self.seen.append(name)
+
+        def coin(self, name, count=None):
+            return 11
+
+        def reveal(self, name, v, table=None):
+            self.seen.append(name)
+
+        def send(self, evals):
+            pass
+
+        def draw(self):
+            return 4
+
+    path = tmp_path / "tapped.stp"
+    channel = Channel()
+    with Recorder(path, field="goldilocks") as rec:
+        with tap(channel, rec, send="send", draw="draw", value="publish", squeeze="coin", opening="reveal") as hooks:
+            channel.publish("tau", [5])
+            assert channel.coin("beta") == 11
+            rec.instance("zc", 1, 1, 0)
+            channel.send([0, 0])
+            channel.draw()
+            channel.reveal("a", 9, table="fares")
+        assert hooks.glue == 3
+    t = load(path)
+    assert [g.name for g in t.glue] == ["tau", "beta"] and t.glue[1].value == 11
+    assert t.instances[0].openings[0].table == "fares" and channel.seen == ["tau", "a"]

@@ -226,9 +226,9 @@ def test_future_version_is_refused_naming_the_version_read(tmp_path):
     path = tmp_path / "t.sumtr"
     write_golden(path)
     data = bytearray(path.read_bytes())
-    data[len(MAGIC)] = 2
+    data[len(MAGIC)] = 3
     path.write_bytes(bytes(data))
-    with pytest.raises(TranscriptError, match="expected format version 1 .* found version 2"):
+    with pytest.raises(TranscriptError, match="expected format version 2 .* found version 3"):
         load(path)
 
 
@@ -428,3 +428,28 @@ def test_writer_metadata_with_an_oversized_integer_is_an_input_error(tmp_path):
 
     with pytest.raises(TranscriptError, match="metadata"):
         TranscriptWriter(tmp_path / "meta.sumtr", metadata={"tickets": 2**70})
+
+
+@pytest.mark.parametrize("atomic", [False, True])
+def test_a_file_without_glue_keeps_version_1_and_the_first_glue_event_turns_it_into_version_2(tmp_path, atomic):
+    plain_path, glue_path = tmp_path / "plain.sumtr", tmp_path / "glue.sumtr"
+    write_golden(plain_path)
+    assert plain_path.read_bytes()[len(MAGIC)] == 1  # the worked example above: version 1, unchanged
+    meta = {"label": "isle-of-quill-0740", "created": "2026-11-30T07:40:00Z"}
+    with TranscriptWriter(glue_path, metadata=meta, tool_version="0.1.0", atomic=atomic) as out:
+        out.write_payload({"type": "field", "name": "babybear"})
+        out.write_payload({"type": "instance", "name": "deck-slots", "num_vars": 1, "degree": 1, "claim": 7})
+        out.write_payload({"type": "round", "evals": [3, 4]})
+        out.write_payload({"type": "challenge", "value": 5})
+        out.write_payload({"type": "opening", "name": "slots", "value": 8})
+    data = glue_path.read_bytes()
+    assert data[len(MAGIC)] == 2
+    # the end event's digest covers the rewritten byte: hashlib's SHA-256 (FIPS 180-4) over the bytes before it
+    unpacker = msgpack.Unpacker(raw=False)
+    unpacker.feed(data[len(MAGIC):])
+    end = list(unpacker)[-1]
+    end_bytes = msgpack.packb(end, use_bin_type=True)
+    assert end["sha256"] == hashlib.sha256(data[:len(data) - len(end_bytes)]).digest()
+    t = load(glue_path)
+    assert t.header.format_version == 2 and t.digest == "verified"
+    assert t.instances[0].openings[0].value == 8

@@ -38,7 +38,7 @@ from stepper.transcript.events import MAX_SIZES, MAX_TEXT, Sequencer, plain_copy
 from stepper.transcript.jsonl import LineSplitter
 from stepper.transcript.store.pending import read_pending
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC, oserror
-from stepper.transcript.model import FORMAT_VERSION, Completeness, DigestStatus, Event, Header, InstanceStart, Note
+from stepper.transcript.model import FORMAT_VERSION, GLUE_VERSION, Completeness, DigestStatus, Event, Header, InstanceStart, Note
 
 __all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note",
            "unpacked"]
@@ -229,6 +229,7 @@ class EventStream:
                 f"{version}: a newer stepper wrote this file; upgrade stepper to read it",
                 self.where.but(offset=len(MAGIC)))
         start = self._offset()
+        self._seq.glue = version >= GLUE_VERSION  # version 1 files predate the glue events: unknown there
         self.header = read_header(self._object("header map"), version, self.where.but(offset=start))
         return self._events()
 

@@ -34,7 +34,9 @@ import msgpack
 from stepper import __version__
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import Sequencer, to_payload
-from stepper.transcript.model import FORMAT_VERSION, Event, Header
+from stepper.transcript.model import (
+    GLUE_VERSION, PLAIN_VERSION, Event, Header, InstanceStart, NamedValue, Opening, Squeeze,
+)
 from stepper.transcript.store.output import OutputExists, publish, refuse_existing, temp_beside, write_failed
 from stepper.transcript.store.pending import take_pending, try_lock
 
@@ -53,10 +55,20 @@ def oserror(err: OSError, path: str, doing: str) -> TranscriptError:
     return TranscriptError(f"could not {doing}: {err.strerror or err}", Where(file=path))
 
 
-def header_bytes(metadata: Mapping[str, Any], tool_version: str = __version__) -> bytes:
+def header_bytes(metadata: Mapping[str, Any], tool_version: str = __version__,
+                 version: int = PLAIN_VERSION) -> bytes:
     """Magic, version and header map: the first bytes of every transcript."""
     header = {"tool": "stepper", "tool_version": tool_version, "metadata": dict(metadata)}
-    return MAGIC + msgpack.packb(FORMAT_VERSION) + msgpack.packb(header, use_bin_type=True)
+    return MAGIC + msgpack.packb(version) + msgpack.packb(header, use_bin_type=True)
+
+
+def _uses_glue(record: Event) -> bool:
+    """Whether a record needs format version 2 (the glue of contract 3)."""
+    cls = record.__class__
+    if cls is InstanceStart:
+        return (record.claim_expr is not None or record.final_expr is not None  # type: ignore[union-attr]
+                or record.eq_point is not None)  # type: ignore[union-attr]
+    return cls is NamedValue or cls is Squeeze or cls is Opening
 
 
 class TranscriptWriter:
@@ -73,7 +85,7 @@ class TranscriptWriter:
         self._temp: str | None = None
         meta = dict(metadata or {})
         meta.setdefault("created", _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"))
-        self.header = Header(FORMAT_VERSION, tool_version, meta)
+        self.header = Header(PLAIN_VERSION, tool_version, meta)
         self._seq = Sequencer(Where(file=self.path))
         self._hasher = hashlib.sha256()
         self._packer = msgpack.Packer(use_bin_type=True)
@@ -96,7 +108,7 @@ class TranscriptWriter:
         return handle  # type: ignore[return-value]
 
     def _open_live(self) -> BinaryIO:
-        flags = os.O_WRONLY | os.O_CREAT | (0 if self._replace else os.O_EXCL)
+        flags = os.O_RDWR | os.O_CREAT | (0 if self._replace else os.O_EXCL)  # read: see _declare_glue
         try:
             handle = os.fdopen(os.open(self.path, flags, 0o666), "wb", buffering=0)
         except FileExistsError:
@@ -155,6 +167,8 @@ class TranscriptWriter:
             raise TranscriptError("expected an event type other than `end`, which only the writer writes when it "
                                   "seals the file", Where(file=self.path, event=self._seq.count))
         record = self._seq.feed(payload)
+        if self.header.format_version < GLUE_VERSION and _uses_glue(record):
+            self._declare_glue()
         field = self._seq.field
         try:
             data = self._packer.pack(to_payload(record, field, binary=True, packed=True))
@@ -168,6 +182,27 @@ class TranscriptWriter:
                 Where(file=self.path, event=self._seq.count - 1)) from None
         self._emit(data)
         return record
+
+    def _declare_glue(self) -> None:
+        """Change the version byte to 2 (the file holds glue from here on) and hash the bytes
+        written so far again, once; the byte follows the magic line (both versions are
+        one-byte msgpack integers)."""
+        try:
+            fd = self._file.fileno()
+            size = os.fstat(fd).st_size
+            os.pwrite(fd, bytes([GLUE_VERSION]), len(MAGIC))
+            hasher = hashlib.sha256()
+            offset = 0
+            while offset < size:
+                chunk = os.pread(fd, min(1 << 20, size - offset), offset)
+                if not chunk:
+                    break
+                hasher.update(chunk)
+                offset += len(chunk)
+        except OSError as err:
+            raise oserror(err, self.path, "mark the transcript as format version 2") from None
+        self._hasher = hasher
+        self.header = Header(GLUE_VERSION, self.header.tool_version, self.header.metadata)
 
     def finish(self) -> None:
         """Append the end event (event count and SHA-256 of every byte so far) and close."""
