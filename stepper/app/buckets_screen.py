@@ -1,6 +1,6 @@
 """Bucket occupancy of one instance as three text charts (see :mod:`bucket_charts`).
 
-Keys move between instances; escape or ``o`` returns to the proof. Charts are
+Keys move between instances; escape or ``b`` returns to the proof. Charts are
 redrawn only when the instance changes.
 """
 
@@ -8,13 +8,15 @@ from __future__ import annotations
 
 from rich.text import Text
 from textual.app import ComposeResult
-from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.reactive import reactive
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from stepper.app.bucket_charts import ChartRow, against_bound, against_remaining, size_distribution
+from stepper.app.help_screen import HelpScreen, KeyHint
+from stepper.app.keymap import bindings
+from stepper.app.palette import tone
 from stepper.app.proof_model import ProofModel
 
 __all__ = ["BucketsScreen", "bucket_text"]
@@ -24,17 +26,17 @@ _BAR_WIDTH = 36
 
 def _chart(title: str, explain: str, rows: list[ChartRow]) -> Text:
     text = Text()
-    text.append(title + "\n", style="bold #e8e3d3")
-    text.append(explain + "\n", style="#9a9cb0")
+    text.append(title + "\n", style=tone("head"))
+    text.append(explain + "\n", style=tone("muted"))
     if not rows:
-        text.append("  nothing sent for this chart\n", style="#8c8fa6")
+        text.append("  nothing sent for this chart\n", style=tone("wait"))
     for row in rows:
-        text.append(f"  {row.label} ", style="#7f8fa8")
-        text.append("│", style="#5b6275")
-        text.append(row.bar, style="#e0b45c" if row.over else "#6fb39a")
-        text.append("│ ", style="#5b6275")
+        text.append(f"  {row.label} ", style=tone("label"))
+        text.append("│", style=tone("frame"))
+        text.append(row.bar, style=tone("bad") if row.over else tone("good"))
+        text.append("│ ", style=tone("frame"))
         text.append(row.figure + ("  ▲ above" if row.over else "") + "\n",
-                    style="bold #f0a35e" if row.over else "")
+                    style=tone("bad") if row.over else "")
     return text
 
 
@@ -45,7 +47,7 @@ def bucket_text(model: ProofModel, instance: int) -> Text:
     view = model.instances[instance]
     head = Text(f"instance {instance} {view.name}: {len(view.buckets)} bucket events\n\n", style="bold")
     if not view.buckets:
-        head.append("This instance sent no bucket events (only bucketing provers send them).\n", style="#9a9cb0")
+        head.append("This instance sent no bucket events (only bucketing provers send them).\n", style=tone("muted"))
         return head
     stats = view.buckets
     head.append_text(_chart("Buckets in use against the bound",
@@ -71,27 +73,22 @@ def _analysis(model: ProofModel, instance: int) -> Text:
     view = model.instances[instance]
     assert model.field is not None
     single = Transcript(model.header, model.field, (InstanceRecord(view.start, buckets=tuple(view.buckets)),))
-    text = Text("What the occupancy says\n", style="bold #e8e3d3")
-    text.append("fill = count / min(bound, remaining); entries per bucket = remaining / count\n", style="#9a9cb0")
+    text = Text("What the occupancy says\n", style=tone("head"))
+    text.append("fill = count / min(bound, remaining); entries per bucket = remaining / count\n", style=tone("muted"))
     for row in occupancy(single):
         fill = "-" if row.fill is None else f"{row.fill:.0%}"
         per = "-" if row.savings is None else f"{row.savings:.1f}"
         used = "" if row.used is None else ("  used" if row.used else "  not used")
         text.append(f"  r{row.round:>2} g{row.chunk:<3} fill {fill:>5}  entries per bucket {per:>6}{used}\n")
         for problem in row.problems:
-            text.append(f"      ▲ {problem}\n", style="bold #f0a35e")
+            text.append(f"      ▲ {problem}\n", style=tone("bad"))
     return text
 
 
 class BucketsScreen(Screen[None]):
     """Occupancy charts of one instance at a time."""
 
-    BINDINGS = [
-        Binding("greater_than_sign", "hop(1)", "Next instance"),
-        Binding("less_than_sign", "hop(-1)", "Previous instance"),
-        Binding("escape,o", "back", "Back to the proof"),
-        Binding("k,f1", "keys", "Keys"),
-    ]
+    BINDINGS = bindings("buckets")
 
     instance: reactive[int] = reactive(0, init=False)
 
@@ -103,7 +100,7 @@ class BucketsScreen(Screen[None]):
     def compose(self) -> ComposeResult:
         with VerticalScroll(id="charts-box"):
             yield Static(id="charts")
-        yield Footer()
+        yield KeyHint("buckets")
 
     def on_mount(self) -> None:
         self.query_one("#charts-box").border_title = "bucket occupancy"
@@ -119,6 +116,4 @@ class BucketsScreen(Screen[None]):
         self.dismiss(None)
 
     def action_keys(self) -> None:
-        from stepper.app.help_screen import HelpScreen
-
-        self.app.push_screen(HelpScreen(self.BINDINGS, "Keys of the bucket charts"))
+        self.app.push_screen(HelpScreen("buckets", "Keys of the bucket charts"))

@@ -17,13 +17,16 @@ from typing import TYPE_CHECKING
 
 from rich.text import Text
 from textual.app import ComposeResult
-from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.reactive import reactive
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
+from stepper.app.help_screen import HelpScreen, KeyHint
+from stepper.app.keymap import bindings
+from stepper.app.palette import tone
 from stepper.errors import StepperError
+from stepper.field.display import ELIDE_LEGEND, elide
 
 if TYPE_CHECKING:
     from stepper.compare.diff import Comparison, InstancePair
@@ -33,18 +36,20 @@ if TYPE_CHECKING:
 __all__ = ["CompareScreen", "side_rows"]
 
 COLUMNS = ("", "line", "values sent", "challenge")
-_DIFF_STYLE = "bold #f0a35e"
+_DIFF_STYLE = tone("bad")
 _SAME_STYLE = ""
 
 
 def _short(field: Field, value: Element, limit: int = 20) -> str:
-    text = field.fmt(value)
-    return text if len(text) <= limit else f"{text[: limit // 2 - 1]}..{text[-(limit // 2 - 1):]}"
+    return elide(field.fmt(value), limit)
 
 
-def side_rows(c: Comparison, pair: InstancePair, side: str) -> list[tuple[str, str, str, str, bool]]:
+def side_rows(c: Comparison, pair: InstancePair, side: str, width: int = 60) -> list[tuple[str, str, str, str, bool]]:
     """Rows (mark, line, values, challenge, differs) of one side of an instance pair:
-    the claim, each round, the final value."""
+    the claim, each round, the final value. ``width`` is what the values and the
+    challenge may take together; a value that does not fit is visibly shortened."""
+    values_width = max(10, width * 2 // 3)
+    chal_width = max(8, width - values_width - 2)
     field = c.field_a if side == "a" else c.field_b
     inst: InstanceRecord | None = pair.a if side == "a" else pair.b
     other: InstanceRecord | None = pair.b if side == "a" else pair.a
@@ -55,7 +60,7 @@ def side_rows(c: Comparison, pair: InstancePair, side: str) -> list[tuple[str, s
         return [("-", "instance", "(absent on this side)", "", True)]
     claim_differs = other is None or field.lift(inst.start.claim) != field.lift(other.start.claim)
     claim_mark = ">>" if here and d is not None and d.round == 0 else ("c" if claim_differs else "")
-    rows.append((claim_mark, "claim", _short(field, inst.start.claim, 40), "", claim_differs))
+    rows.append((claim_mark, "claim", _short(field, inst.start.claim, values_width), "", claim_differs))
     for rp in pair.rounds:
         rnd = rp.a if side == "a" else rp.b
         marks = ("g" if rp.same_values is False else "") + ("r" if rp.same_challenge is False else "")
@@ -66,29 +71,27 @@ def side_rows(c: Comparison, pair: InstancePair, side: str) -> list[tuple[str, s
         if rnd is None:
             rows.append((marks, f"round {rp.number}", "(not sent)", "", True))
             continue
-        values = ", ".join(_short(field, v) for v in rnd.values)
-        chal = "(none)" if rnd.challenge is None else _short(field, rnd.challenge)
+        each = max(6, (values_width - 2 * (len(rnd.values) - 1)) // max(1, len(rnd.values)))
+        values = ", ".join(_short(field, v, each) for v in rnd.values)
+        chal = "(none)" if rnd.challenge is None else _short(field, rnd.challenge, chal_width)
         rows.append((marks, f"round {rp.number}", values, chal, bool(marks)))
     if inst.final is not None or (other is not None and other.final is not None):
         final_differs = other is None or inst.final is None or other.final is None or (
             field.lift(inst.final) != field.lift(other.final))
         mark = ">>" if here and d is not None and d.element == "final" else ("f" if final_differs else "")
-        shown = "(none)" if inst.final is None else _short(field, inst.final, 40)
+        shown = "(none)" if inst.final is None else _short(field, inst.final, values_width)
         rows.append((mark, "final", shown, "", final_differs))
     return rows
+
+
+class SideTable(DataTable[object], inherit_bindings=False):
+    """One side's rows; no keys of its own (the screen's key map moves both sides)."""
 
 
 class CompareScreen(Screen[None]):
     """A and B side by side for one aligned instance pair at a time."""
 
-    CSS_PATH = "compare_screen.tcss"
-    BINDINGS = [
-        Binding("greater_than_sign", "hop(1)", "Next instance"),
-        Binding("less_than_sign", "hop(-1)", "Previous instance"),
-        Binding("exclamation_mark", "divergence", "First divergence"),
-        Binding("escape,backspace", "close", "Back"),
-        Binding("q", "app.quit", "Quit"),
-    ]
+    BINDINGS = bindings("compare")
 
     pair: reactive[int] = reactive(0, init=False)
 
@@ -105,10 +108,10 @@ class CompareScreen(Screen[None]):
         yield Static(id="compare-verdict")
         with Horizontal(id="compare-sides"):
             with Vertical(id="side-a"):
-                yield DataTable(id="table-a", cursor_type="row", zebra_stripes=True)
+                yield SideTable(id="table-a", cursor_type="row", zebra_stripes=True)
             with Vertical(id="side-b"):
-                yield DataTable(id="table-b", cursor_type="row", zebra_stripes=True)
-        yield Footer()
+                yield SideTable(id="table-b", cursor_type="row", zebra_stripes=True)
+        yield KeyHint("compare")
 
     def on_mount(self) -> None:
         for key in ("a", "b"):
@@ -157,9 +160,10 @@ class CompareScreen(Screen[None]):
         head.update(f" A {a} ({c.field_a.describe()}, {c.completeness_a})   B {b} "
                     f"({c.field_b.describe()}, {c.completeness_b})")
         verdict.border_subtitle = "marks: g values  r challenge  c claim  f final  - one side only  >> first divergence"
+        self.query_one("#side-b").border_subtitle = ELIDE_LEGEND
         lines = Text()
         if c.divergence is None:
-            lines.append("identical", style="bold #6fb39a")
+            lines.append("identical", style="bold " + tone("good"))
             lines.append(f": {c.classification.explanation}")
         else:
             lines.append(c.classification.kind, style=_DIFF_STYLE)
@@ -180,7 +184,7 @@ class CompareScreen(Screen[None]):
         for key in ("a", "b"):
             table = self.query_one(f"#table-{key}", DataTable)
             table.clear()
-            for mark, line, values, chal, differs in side_rows(c, pair, key):
+            for mark, line, values, chal, differs in side_rows(c, pair, key, self._value_width()):
                 style = _DIFF_STYLE if differs else _SAME_STYLE
                 table.add_row(Text(mark, style=_DIFF_STYLE), line, Text(values, style=style), Text(chal, style=style))
             which = pair.pairing.a if key == "a" else pair.pairing.b
@@ -188,10 +192,15 @@ class CompareScreen(Screen[None]):
             self.query_one(f"#side-{key}").border_title = f"{key.upper()} {label} {pair.pairing.name}"
         self.call_after_refresh(self._focus_divergence, pair)
 
+    def _value_width(self) -> int:
+        """What a side's values and challenge may take: half the screen less the border,
+        the mark and line columns and the cell padding."""
+        return max(18, (self.size.width or 160) // 2 - 24)
+
     def _focus_divergence(self, pair: InstancePair) -> None:
         c = self.comparison
         assert c is not None
-        rows = side_rows(c, pair, "a")
+        rows = side_rows(c, pair, "a", self._value_width())
         target = next((k for k, row in enumerate(rows) if row[0].startswith(">>")), None)
         if target is None:
             return
@@ -223,7 +232,24 @@ class CompareScreen(Screen[None]):
         else:
             self._focus_divergence(self.comparison.pairs[target])
 
-    def action_close(self) -> None:
+    def action_step(self, delta: int) -> None:
+        """Move both sides one line down or up (the rows are the claim, the rounds, the final value)."""
+        table = self.query_one("#table-a", DataTable)
+        if table.row_count:
+            table.move_cursor(row=min(max(table.cursor_row + delta, 0), table.row_count - 1), animate=False)
+            other = self.query_one("#table-b", DataTable)
+            if table.cursor_row < other.row_count:
+                other.move_cursor(row=table.cursor_row, animate=False)
+
+    def action_keys(self) -> None:
+        self.app.push_screen(HelpScreen("compare", "Keys of the comparison"))
+
+    def on_resize(self) -> None:
+        self.set_class(self.size.height < 34, "short")
+        if self.comparison is not None and self.comparison.pairs and self.is_mounted:
+            self._fill(self.pair)  # the value columns follow the width
+
+    def action_back(self) -> None:
         if len(self.app.screen_stack) > 1:
             self.app.pop_screen()
         else:

@@ -1,6 +1,7 @@
-"""The key list: every binding of the screen underneath, with what it does.
+"""The keys panel and the one-line key hint, both drawn from the key map.
 
-Built from the bindings themselves, so the list can never fall behind the keys.
+Rows come from :mod:`stepper.app.keymap`, the table the screens take their
+bindings from, so the panel can never list a key the screen does not have.
 """
 
 from __future__ import annotations
@@ -8,51 +9,45 @@ from __future__ import annotations
 from typing import Iterable
 
 from textual.app import ComposeResult
-from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-__all__ = ["HelpScreen", "key_label"]
+from stepper.app.keymap import bindings, footer_hint, panel_rows
 
-_KEY_NAMES = {
-    "full_stop": ".",
-    "comma": ",",
-    "greater_than_sign": ">",
-    "less_than_sign": "<",
-    "exclamation_mark": "!",
-    "question_mark": "?",
-    "plus": "+",
-    "minus": "-",
-    "f1": "F1",
-    "escape": "esc",
-}
+__all__ = ["HelpScreen", "KeyHint"]
 
 
-def key_label(key: str) -> str:
-    """How a key name reads on screen (``full_stop`` -> ``.``)."""
-    return " or ".join(_KEY_NAMES.get(k.strip(), k.strip()) for k in key.split(","))
+class KeyHint(Static):
+    """One line under a screen with its main keys, cut at a whole entry to the width."""
+
+    def __init__(self, screen: str) -> None:
+        super().__init__(footer_hint(screen), classes="key-hint", markup=False)
+        self.screen_name = screen
+
+    def on_resize(self) -> None:
+        self.update(footer_hint(self.screen_name, max(20, self.size.width)))
 
 
 class HelpScreen(ModalScreen[None]):
-    """A modal list of keys; any of escape, k or F1 closes it."""
+    """A modal list of the keys of ``screen``; escape, k or F1 closes it."""
 
-    BINDINGS = [Binding("escape,k,f1", "close", "Close")]
+    BINDINGS = bindings("keys")
 
-    def __init__(self, bindings: Iterable[Binding], title: str = "Keys",
-                 extra: Iterable[tuple[str, str]] = ()) -> None:
+    def __init__(self, screen: str, title: str = "Keys", extra: Iterable[tuple[str, str]] = ()) -> None:
         super().__init__()
-        self.entries = [(key_label(b.key), b.description) for b in bindings if b.description]
+        self.screen_name = screen
+        self.entries = panel_rows(screen)
         self.entries.extend(extra)
         self.title_text = title
 
     def compose(self) -> ComposeResult:
         width = max((len(k) for k, _ in self.entries), default=4)
-        body = "\n".join(f"  {k:>{width}}   {d}" for k, d in self.entries)
+        body = "\n".join(f" {k:>{width}}  {d}" for k, d in self.entries)
         with VerticalScroll(id="help-box"):
-            yield Static(self.title_text, id="help-title")
-            yield Static(body, id="help-body")
-            yield Static("escape, k or F1 closes this list", id="help-foot")
+            yield Static(self.title_text, id="help-title", markup=False)
+            yield Static(body, id="help-body", markup=False)
+            yield Static("Esc, k or F1 closes this list", id="help-foot", markup=False)
 
-    def action_close(self) -> None:
+    def action_back(self) -> None:
         self.dismiss(None)

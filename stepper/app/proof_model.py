@@ -16,10 +16,11 @@ one); ``failures`` lists failing positions in proof order without repeats.
 
 from __future__ import annotations
 
-from bisect import bisect_right, insort
+from bisect import bisect_left, bisect_right, insort
 from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Mapping
 
+from stepper.field.display import elide
 from stepper.field.field import Element, Field
 from stepper.transcript.model import (
     BatchDecl,
@@ -38,7 +39,7 @@ from stepper.transcript.model import (
     fold_events,
 )
 
-__all__ = ["Position", "StatusMark", "STATUS_MARKS", "InstanceView", "ProofModel", "RoundRow", "mark_of", "shorten"]
+__all__ = ["Position", "StatusMark", "STATUS_MARKS", "verdict_status", "InstanceView", "ProofModel", "RoundRow", "mark_of", "shorten"]
 
 Position = tuple[int, int]
 
@@ -57,8 +58,13 @@ STATUS_MARKS: dict[str, StatusMark] = {
     "pass": StatusMark("pass", "■", "good"),
     "fail": StatusMark("fail", "✕", "bad"),
     "pending": StatusMark("pending", "◌", "wait"),
-    "unchecked": StatusMark("unchecked", "?", "wait"),
+    "unchecked": StatusMark("unchecked", "?", "unchecked"),
 }
+
+
+def verdict_status(verdict: str) -> str:
+    """The round status a proof verdict reads as (accept: pass, reject: fail, else incomplete)."""
+    return {"accept": "pass", "reject": "fail"}.get(verdict, "pending")
 
 
 def mark_of(status: str | None) -> StatusMark:
@@ -66,11 +72,8 @@ def mark_of(status: str | None) -> StatusMark:
 
 
 def shorten(text: str, width: int) -> str:
-    """``text`` cut in the middle with an ellipsis when longer than ``width``."""
-    if len(text) <= width or width < 5:
-        return text
-    head = (width - 1) * 2 // 3
-    return text[:head] + "…" + text[len(text) - (width - 1 - head) :]
+    """``text`` visibly shortened to about ``width`` (:func:`stepper.field.display.elide`)."""
+    return elide(text, width)
 
 
 @dataclass(frozen=True, slots=True)
@@ -354,6 +357,13 @@ class ProofModel:
         at = bisect_right(self.failures, after)
         return self.failures[at] if at < len(self.failures) else self.failures[0]
 
+    def previous_failure(self, before: Position) -> Position | None:
+        """The last failure before ``before`` (wrapping to the last one), or None."""
+        if not self.failures:
+            return None
+        at = bisect_left(self.failures, before)
+        return self.failures[at - 1] if at > 0 else self.failures[-1]
+
     def step(self, at: Position, delta: int) -> Position:
         """``delta`` rounds forward or back across instance borders, clamped to the proof."""
         instance, round_ = at
@@ -365,6 +375,13 @@ class ProofModel:
             instance -= 1
             round_ += max(1, self.rounds_in(instance))
         return instance, max(1, min(round_, max(1, self.rounds_in(instance))))
+
+    def place(self, pos: Position) -> str:
+        """How a position reads for people: ``instance #0 'name', round 3`` (instance as in
+        the JSON, 0-based; rounds 1-based, as everywhere)."""
+        instance, number = pos
+        name = self.instances[instance].name if 0 <= instance < len(self.instances) else "?"
+        return f"instance #{instance} {name!r}, round {number}"
 
     def notes_at(self, pos: Position) -> list[Note]:
         view = self.instances[pos[0]]

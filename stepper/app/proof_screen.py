@@ -14,23 +14,24 @@ from typing import Any, Protocol
 
 from rich.text import Text
 from textual.app import ComposeResult
-from textual.binding import Binding
-from textual.containers import Horizontal, VerticalScroll
+from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.reactive import reactive
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from stepper.app.ask_screen import AskScreen
 from stepper.app.buckets_screen import BucketsScreen
 from stepper.app.export import markdown_report
-from stepper.app.help_screen import HelpScreen
-from stepper.app.proof_model import Position, ProofModel
-from stepper.app.readout import SHORT_CAUTION, Line, diagnosis_lines, round_lines, summary_lines
+from stepper.app.help_screen import HelpScreen, KeyHint
+from stepper.app.keymap import bindings
+from stepper.app.proof_model import Position, ProofModel, mark_of, verdict_status
+from stepper.app.readout import SHORT_CAUTION, Line, diagnosis_lines, round_lines, statement_lines, summary_lines
 from stepper.app.round_detail import ReadoutPanel
 from stepper.app.round_table import RoundTable
 from stepper.app.status_strip import StatusStrip
 from stepper.app.value_search import find_value
 from stepper.errors import StepperError
+from stepper.field.display import ELIDE_LEGEND
 from stepper.transcript.model import Note
 
 __all__ = ["ProofScreen", "ProofHost", "parse_round_target"]
@@ -50,17 +51,13 @@ class ProofHost(Protocol):
     def export_path(self, suffix: str, position: Position) -> Path: ...
 
 
-# The round table's own keys (Textual's DataTable), listed on the key screen too.
-TABLE_KEYS = (
-    ("up or down", "Previous or next row of the round table"),
-    ("pageup or pagedown", "A page of rows up or down"),
-    ("click", "A row of the table, or an instance's line in the strip"),
-)
+# The mouse, listed on the keys panel after the key map's rows.
+MOUSE = (("click", "a row of the round table, or an instance's line in the strip"),)
 
 
 def parse_round_target(text: str, current_instance: int) -> Position | None:
-    """``N`` (round N of the current instance) or ``I:N`` / ``I/N`` (instance I, round N)."""
-    cleaned = text.strip().replace("/", ":")
+    """``N`` (round N of the current instance) or ``#I:N`` / ``I:N`` / ``I/N`` (instance #I, round N)."""
+    cleaned = text.strip().removeprefix("#").replace("/", ":")
     parts = cleaned.split(":")
     try:
         numbers = [int(p) for p in parts]
@@ -76,23 +73,7 @@ def parse_round_target(text: str, current_instance: int) -> Position | None:
 class ProofScreen(Screen[None]):
     """Summary on top, strip of every round, then table and detail side by side."""
 
-    BINDINGS = [
-        Binding("full_stop", "step(1)", "Next round"),
-        Binding("comma", "step(-1)", "Previous round"),
-        Binding("greater_than_sign", "hop(1)", "Next instance"),
-        Binding("less_than_sign", "hop(-1)", "Previous instance"),
-        Binding("exclamation_mark", "first_failure", "First failure"),
-        Binding("x", "next_failure", "Next failure"),
-        Binding("r", "ask_round", "Go to round"),
-        Binding("s", "ask_value", "Seek value"),
-        Binding("a", "ask_note", "Annotate round"),
-        Binding("o", "buckets", "Bucket occupancy"),
-        Binding("e", "export_svg", "Export SVG"),
-        Binding("t", "export_text", "Text report"),
-        Binding("l", "toggle_live", "Stay on newest", show=False),
-        Binding("k,f1", "keys", "Keys"),
-        Binding("q", "app.quit", "Quit"),
-    ]
+    BINDINGS = bindings("proof")
 
     position: reactive[Position] = reactive((0, 1), init=False)
     live: reactive[bool] = reactive(False)
@@ -109,21 +90,30 @@ class ProofScreen(Screen[None]):
         return self.app  # type: ignore[return-value]
 
     def compose(self) -> ComposeResult:
+        # Read top to bottom as the work goes: where you are, the round being checked
+        # (table and detail: its polynomial and the claim it carries), the instance's
+        # statement and final lines, every instance at a glance, the whole proof.
         yield Static(id="where-bar")
         yield Static(SHORT_CAUTION, id="caution")
+        with Horizontal(id="work-row"):
+            yield RoundTable(self.model, id="rounds")
+            with Vertical(id="side-column"):
+                with VerticalScroll(id="detail-box"):
+                    yield ReadoutPanel(label_width=14, id="detail")
+                with VerticalScroll(id="statement-box"):
+                    yield ReadoutPanel(label_width=14, id="statement")
+        yield StatusStrip(self.model, id="strip")
         with VerticalScroll(id="summary-box"):
             yield ReadoutPanel(id="summary")
-        yield StatusStrip(self.model, id="strip")
-        with Horizontal(id="main-row"):
-            yield RoundTable(self.model, id="rounds")
-            with VerticalScroll(id="detail-box"):
-                yield ReadoutPanel(label_width=14, id="detail")
-        yield Footer()
+        yield KeyHint("proof")
 
     def on_mount(self) -> None:
-        self.query_one("#summary-box").border_title = "proof"
-        self.query_one("#strip").border_title = "every round  ■ pass  ✕ fail  ◌ pending  · not sent  ┆ then the final check"
-        self.query_one("#detail-box").border_title = "round detail"
+        self.query_one("#rounds").border_title = "rounds"
+        self.query_one("#rounds").border_subtitle = ELIDE_LEGEND
+        self.query_one("#detail-box").border_title = "round under check"
+        self.query_one("#statement-box").border_title = "statement · final check"
+        self.query_one("#strip").border_title = "instances  ■ pass ✕ fail ◌ pending ? unchecked · not sent ┆ final"
+        self.query_one("#summary-box").border_title = "whole proof"
         self._ready = True
         self.model_changed()
         self._show(self.position)
@@ -157,6 +147,7 @@ class ProofScreen(Screen[None]):
         lines = round_lines(self.model, position)
         lines.extend(diagnosis_lines(self.stepper.diagnosis, position))
         self.query_one("#detail", ReadoutPanel).show(lines)
+        self.query_one("#statement", ReadoutPanel).show(statement_lines(self.model, instance))
         self._update_where(position)
         self._shown = (position, self.model.version_of(instance))
 
@@ -164,15 +155,25 @@ class ProofScreen(Screen[None]):
         self.query_one("#where-bar", Static).update(Text(self._where_text(position)), layout=False)
 
     def _where_text(self, position: Position) -> str:
+        """The proof-wide state and where you are, fitted to the screen's width (the
+        least needed parts go first; a cut name ends in an ellipsis)."""
         model = self.model
         verdict = model.verdict()
+        head = f" {mark_of(verdict_status(verdict)).symbol} verdict {verdict}"
         if not model.instances:
-            return f" {model.source}  ·  no instance yet  ·  verdict {verdict}"
+            return f"{head}  ·  no instance yet  ·  {model.source}"
         instance, number = position
         view = model.instances[instance]
-        live = "  ·  following" if self.stepper.follow else ""
-        return (f" instance {instance + 1}/{len(model.instances)} {view.name}  ·  round {number}/"
-                f"{view.start.num_vars}  ·  verdict {verdict}  ·  failures {len(model.failures)}{live}")
+        width = max(40, self.size.width or 80)
+        tail = f"  ·  round {number} of {view.start.num_vars}  ·  failures {len(model.failures)}"
+        extras = [f"  ·  {len(model.instances)} instances"] + (["  ·  following"] if self.stepper.follow else [])
+        name = f"  ·  instance #{instance} {view.name}"
+        while extras and len(head + name + tail + "".join(extras)) > width:
+            extras.pop(0)
+        room = width - len(head + tail + "".join(extras))
+        if len(name) > room:
+            name = name[: max(12, room - 1)] + "…"
+        return head + name + tail + "".join(extras)
 
     def go(self, position: Position) -> None:
         """Move to a position (clamped to what exists)."""
@@ -200,22 +201,31 @@ class ProofScreen(Screen[None]):
     def action_hop(self, delta: int) -> None:
         self.go((self.position[0] + delta, 1))
 
-    def action_first_failure(self) -> None:
-        first = self.model.first_failure()
-        if first is None:
-            self.say("no failed check so far")
-        else:
-            self.go(first)
+    def action_edge(self, last: int) -> None:
+        instance = self.position[0]
+        self.go((instance, self.model.rounds_in(instance) if last and self.model.instances else 1))
 
-    def action_next_failure(self) -> None:
-        nxt = self.model.next_failure(self.position)
-        if nxt is None:
+    def action_failure(self, delta: int) -> None:
+        found = (self.model.next_failure(self.position) if delta > 0
+                 else self.model.previous_failure(self.position))
+        if found is None:
             self.say("no failed check so far")
         else:
-            self.go(nxt)
+            self.go(found)
+
+    def action_opening(self) -> None:
+        if not self.model.instances:
+            self.say("no instance yet")
+            return
+        instance = self.position[0]
+        self.go((instance, self.model.rounds_in(instance)))
+        view = self.model.instances[instance]
+        if view.final_value is None:
+            self.say(f"instance {instance} {view.name!r} has not sent its final value yet")
 
     def action_ask_round(self) -> None:
-        self.app.push_screen(AskScreen("Go to round", "N, or instance:round (instance 0-based)"), self._goto_answer)
+        self.app.push_screen(AskScreen("Go to round", "N, or #I:N (instance #I as in the strip, round N)"),
+                             self._goto_answer)
 
     def _goto_answer(self, answer: str | None) -> None:
         if not answer:
@@ -224,7 +234,7 @@ class ProofScreen(Screen[None]):
         if target is None or not 0 <= target[0] < len(self.model.instances) or not (
             1 <= target[1] <= max(1, self.model.rounds_in(target[0]))
         ):
-            self.say(f"expected a round number that exists (or instance:round), found {answer!r}", "warning")
+            self.say(f"expected a round number that exists (or #instance:round), found {answer!r}", "warning")
             return
         self.go(target)
 
@@ -240,14 +250,14 @@ class ProofScreen(Screen[None]):
             self.say(f"{answer!r} appears in no round", "warning")
         else:
             self.go(found)
-            self.say(f"{answer!r} found in instance {found[0]}, round {found[1]}")
+            self.say(f"{answer!r} found in {self.model.place(found)}")
 
     def action_ask_note(self) -> None:
         if not self.model.instances:
             self.say("no instance to attach a note to yet: a note belongs to a round of an instance")
             return
         instance, number = self.position
-        self.app.push_screen(AskScreen(f"Note for instance {instance}, round {number}", "text saved in the file"),
+        self.app.push_screen(AskScreen(f"Note on {self.model.place((instance, number))}", "text kept with the file"),
                              self._note_answer)
 
     def _note_answer(self, answer: str | None) -> None:
@@ -261,25 +271,32 @@ class ProofScreen(Screen[None]):
             self.say(f"note not saved: {err}", "error")
             return
         self.model_changed()
-        self.say(f"note saved to round {number} of instance {instance}")
+        self.say(f"note saved on {self.model.place((instance, number))}")
 
     def action_buckets(self) -> None:
         self.app.push_screen(BucketsScreen(self.model, self.position[0]))
 
-    def action_export_svg(self) -> None:
+    def action_picture(self) -> None:
         path = self.stepper.export_path("svg", self.position)
         self.app.save_screenshot(filename=path.name, path=str(path.parent))
-        self.say(f"screenshot written to {path}")
+        self.say(f"picture written to {path}")
 
-    def action_export_text(self) -> None:
+    def action_write_up(self) -> None:
         path = self.stepper.export_path("md", self.position)
         text = markdown_report(self.model, self.position, self.stepper.diagnosis)
         try:
             Path(path).write_text(text, encoding="utf-8")
         except OSError as err:
-            self.say(f"report not written: {path}: {err.strerror or err}", "error")
+            self.say(f"write-up not written: {path}: {err.strerror or err}", "error")
             return
-        self.say(f"text report written to {path}")
+        self.say(f"write-up written to {path}")
+
+    def action_copy(self) -> None:
+        """Put the round's readout on the clipboard with every value whole (never a table's cut form)."""
+        text = self.query_one("#detail", ReadoutPanel).plain()
+        self.app.copy_to_clipboard(text)
+        self.say(f"copied {self.model.place(self.position) if self.model.instances else 'the readout'} "
+                 f"({len(text)} characters, values whole)")
 
     def action_toggle_live(self) -> None:
         self.live = not self.live
@@ -288,4 +305,9 @@ class ProofScreen(Screen[None]):
             self.model_changed()
 
     def action_keys(self) -> None:
-        self.app.push_screen(HelpScreen(self.BINDINGS, "Keys of the proof view", TABLE_KEYS))
+        self.app.push_screen(HelpScreen("proof", "Keys of the proof view", MOUSE))
+
+    def on_resize(self) -> None:
+        self.set_class(self.size.height < 34, "short")
+        if self._ready:
+            self._update_where(self.position)

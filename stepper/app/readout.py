@@ -15,7 +15,7 @@ from typing import Any
 from stepper.app.proof_model import Position, ProofModel, mark_of
 from stepper.field.field import Field
 
-__all__ = ["Line", "CAUTION", "SHORT_CAUTION", "summary_lines", "round_lines", "diagnosis_lines"]
+__all__ = ["Line", "CAUTION", "SHORT_CAUTION", "summary_lines", "statement_lines", "round_lines", "diagnosis_lines"]
 
 CAUTION = (
     "A passing replay is evidence about this one run, not a soundness proof: "
@@ -23,7 +23,7 @@ CAUTION = (
 )
 
 # Always on screen, under the position bar.
-SHORT_CAUTION = "A passing replay is evidence about this one run, not a soundness proof of the protocol."
+SHORT_CAUTION = "A passing replay is evidence about this one run, not a soundness proof."
 
 
 @dataclass(frozen=True, slots=True)
@@ -70,7 +70,7 @@ def summary_lines(model: ProofModel) -> list[Line]:
     if soundness:
         lines.append(Line("soundness bound", soundness))
     for finding in getattr(report, "findings", ()):
-        where = "" if finding.instance is None else f" (instance {finding.instance}, round {finding.round})"
+        where = "" if finding.instance is None else f" (instance #{finding.instance}, round {finding.round})"
         lines.append(Line(f"finding {finding.severity}", f"{finding.kind}: {finding.message}{where}",
                           "bad" if finding.severity == "high" else "wait"))
     for key, value in model.metadata().items():
@@ -80,6 +80,38 @@ def summary_lines(model: ProofModel) -> list[Line]:
     for unknown in model.unknown:
         lines.append(Line("unknown event", f"{unknown.kind} (kept, not checked)", "muted"))
     lines.append(Line("", getattr(report, "warning", None) or CAUTION, "muted"))
+    return lines
+
+
+def statement_lines(model: ProofModel, index: int) -> list[Line]:
+    """What one instance states and how it ends: its claimed sum and shape, how many
+    rounds arrived, the final value and the final check (the instance's glue to the
+    rest of the proof), its batch and any event stepper keeps without checking."""
+    field = model.field
+    if field is None or not 0 <= index < len(model.instances):
+        return [Line("", "no instance yet", "wait")]
+    view = model.instances[index]
+    start = view.start
+    fmt = field.fmt
+    sent = len(view.rounds)
+    lines = [
+        Line("instance", f"#{index} {start.name!r}", "head"),
+        Line("claimed sum", fmt(start.claim)),
+        Line("shape", f"{start.num_vars} variables, degree {start.degree}, {start.order}, form {start.form}"),
+        Line("rounds", f"{sent} of {start.num_vars} sent" + ("" if sent == start.num_vars else ", stops early"),
+             "plain" if sent == start.num_vars else "wait"),
+    ]
+    if start.batch is not None:
+        lines.append(Line("batched", f"coefficient {fmt(start.batch.coefficient)} over {len(start.batch.terms)} "
+                                     "terms"))
+    if view.batch_result is not None:
+        lines.extend(_verdict_lines("batch", view.batch_result, field))
+    lines.append(Line("final value", "not sent yet" if view.final_value is None else fmt(view.final_value),
+                      "wait" if view.final_value is None else "plain"))
+    if view.final_result is not None:
+        lines.extend(_verdict_lines("final", view.final_result, field))
+    for unknown in view.unknown:
+        lines.append(Line("kept event", f"{unknown.kind} (kept, not checked)", "muted"))
     return lines
 
 
@@ -94,7 +126,7 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
     start = view.start
     fmt = field.fmt
     lines = [
-        Line("instance", f"{index} {start.name!r}: {start.num_vars} variables, degree {start.degree}, "
+        Line("instance", f"#{index} {start.name!r}: {start.num_vars} variables, degree {start.degree}, "
                          f"{start.order}, form {start.form}", "head"),
     ]
     if number == 1 or not view.rounds:
@@ -163,7 +195,7 @@ def diagnosis_lines(diagnosis: Any, pos: Position | None = None) -> list[Line]:
     if cause is None:
         lines.append(Line("root cause", "the witness agrees with every round sent", "good"))
     else:
-        where = f"instance {cause.get('instance')}, round {cause.get('round')}, check {cause.get('check')}"
+        where = f"instance #{cause.get('instance')}, round {cause.get('round')}, check {cause.get('check')}"
         here = pos is not None and (cause.get("instance"), cause.get("round")) == pos
         lines.append(Line("root cause", where + ("  (this round)" if here else ""), "bad"))
     for sentence in diagnosis.explain():
@@ -195,7 +227,7 @@ def _first_failure(report: Any) -> str | None:
         return None
     fmt = report.fmt
     round_ = "the claim" if first.round == 0 else f"round {first.round}"
-    return (f"instance {first.instance} {first.instance_name!r}, {round_}, check {first.check}: "
+    return (f"instance #{first.instance} {first.instance_name!r}, {round_}, check {first.check}: "
             f"expected {fmt(first.expected)}, found {fmt(first.found)}")
 
 

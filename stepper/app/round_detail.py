@@ -11,19 +11,12 @@ from typing import Sequence
 from rich.text import Text
 from textual.widgets import Static
 
+from stepper.app.palette import TONES, tone
 from stepper.app.readout import Line
 
 __all__ = ["ReadoutPanel", "render_lines", "TONE_STYLES"]
 
-TONE_STYLES = {
-    "plain": "",
-    "good": "#6fb39a",
-    "bad": "bold #f0a35e",
-    "wait": "#8c8fa6",
-    "muted": "#9a9cb0",
-    "note": "italic #c9a8e0",
-    "head": "bold #e8e3d3",
-}
+TONE_STYLES = TONES
 
 
 def render_lines(lines: Sequence[Line], label_width: int = 16) -> Text:
@@ -34,7 +27,7 @@ def render_lines(lines: Sequence[Line], label_width: int = 16) -> Text:
             text.append("\n")
         style = TONE_STYLES.get(line.tone, "")
         if line.label:
-            text.append(f"{line.label:<{label_width}} ", style="#7f8fa8")
+            text.append(f"{line.label:<{label_width}} ", style=tone("label"))
             text.append(line.value, style=style)
         else:
             text.append(line.value, style=style)

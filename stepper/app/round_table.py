@@ -13,16 +13,17 @@ from rich.text import Text
 from textual.message import Message
 from textual.widgets import DataTable
 
+from stepper.app.palette import tone
 from stepper.app.proof_model import ProofModel
 
 __all__ = ["RoundTable", "COLUMNS"]
 
 COLUMNS = ("round", "status", "claim in", "g(0)+g(1)", "deg/bound", "challenge", "g(r)")
-_TONE_STYLE = {"good": "#6fb39a", "bad": "bold #f0a35e", "wait": "#8c8fa6"}
 
 
-class RoundTable(DataTable[object]):
-    """Rounds of one instance; the cursor row is the round in the detail pane."""
+class RoundTable(DataTable[object], inherit_bindings=False):
+    """Rounds of one instance; the cursor row is the round in the detail pane. The
+    table has no keys of its own: the screen's key map moves it (arrows included)."""
 
     class RoundChosen(Message):
         """The cursor now rests on ``round`` of the shown instance."""
@@ -63,7 +64,7 @@ class RoundTable(DataTable[object]):
         rows = []
         for row in self.model.rows(instance, width):
             cells: list[object] = list(row.cells())
-            cells[1] = Text(cells[1], style=_TONE_STYLE.get(row.tone, ""))  # type: ignore[arg-type]
+            cells[1] = Text(cells[1], style=tone(row.tone))  # type: ignore[arg-type]
             rows.append(cells)
         self.add_rows(rows)
 
@@ -80,30 +81,6 @@ class RoundTable(DataTable[object]):
 
     def on_mouse_down(self) -> None:
         self._user()
-
-    def action_cursor_up(self) -> None:
-        self._user()
-        super().action_cursor_up()
-
-    def action_cursor_down(self) -> None:
-        self._user()
-        super().action_cursor_down()
-
-    def action_page_up(self) -> None:
-        self._user()
-        super().action_page_up()
-
-    def action_page_down(self) -> None:
-        self._user()
-        super().action_page_down()
-
-    def action_scroll_top(self) -> None:
-        self._user()
-        super().action_scroll_top()
-
-    def action_scroll_bottom(self) -> None:
-        self._user()
-        super().action_scroll_bottom()
 
     def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
         event.stop()

@@ -18,15 +18,12 @@ from textual.reactive import reactive
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
+from stepper.app.palette import tone
 from stepper.app.proof_model import ProofModel, STATUS_MARKS
 
 __all__ = ["StatusStrip"]
 
-_TONE_STYLE = {
-    "good": Style(color="#6fb39a"),
-    "bad": Style(color="#f0a35e", bold=True),
-    "wait": Style(color="#8c8fa6"),
-}
+_TONE_STYLE = {name: Style.parse(tone(name)) for name in ("good", "bad", "wait", "unchecked")}
 _SYMBOL_TONE = {mark.symbol: mark.tone for mark in STATUS_MARKS.values()}
 _SYMBOL_TONE["┆"] = "wait"
 _NAME_WIDTH = 30

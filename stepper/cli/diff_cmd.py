@@ -100,5 +100,6 @@ def _window(field: Field, pair: InstancePair, number: int) -> list[str]:
 
 
 def _short(field: Field, value: Element) -> str:
-    text = field.fmt(value)
-    return text if len(text) <= 24 else f"{text[:10]}...{text[-10:]}"
+    from stepper.field.display import elide
+
+    return elide(field.fmt(value), 24)

@@ -8,7 +8,8 @@ from stepper.app.app import StepperApp
 from stepper.app.ask_screen import AskScreen
 from stepper.app.buckets_screen import BucketsScreen
 from stepper.app.help_screen import HelpScreen
-from stepper.app.proof_screen import TABLE_KEYS, ProofScreen, parse_round_target
+from stepper.app.keymap import KEYS
+from stepper.app.proof_screen import MOUSE, ProofScreen, parse_round_target
 from stepper.app.round_detail import ReadoutPanel
 from stepper.transcript.store import load
 
@@ -28,43 +29,43 @@ async def test_step_keys_move_one_round_and_instance_keys_hop_to_round_one(hones
     async with app.run_test(size=SIZE) as pilot:
         screen = app.proof_screen
         assert screen.position == (0, 1)
-        await pilot.press("full_stop", "full_stop")
+        await pilot.press("r", "r")
         assert screen.position == (0, 3)
-        await pilot.press("full_stop", "full_stop")
+        await pilot.press("r", "r")
         assert screen.position == (1, 1)
-        await pilot.press("comma")
+        await pilot.press("R")
         assert screen.position == (0, 4)
         assert "round: 4 of 4" in detail_text(app)
         await pilot.pause()
         panel = app.proof_screen.query_one("#detail", ReadoutPanel)
         width = panel.content_region.width
         assert panel.content_region.height == panel.get_content_height(panel.size, app.size, width)
-        await pilot.press("greater_than_sign", "greater_than_sign", "greater_than_sign")
+        await pilot.press("i", "i", "i")
         assert app.proof_screen.position == (2, 1)  # clamped at the last instance
-        await pilot.press("less_than_sign")
+        await pilot.press("I")
         assert app.proof_screen.position == (1, 1)
 
 
 async def test_failure_keys_jump_to_the_first_and_then_the_next_failure(failing_file, tmp_path):
     app = app_for(failing_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("exclamation_mark")
+        await pilot.press("f")
         assert app.proof_screen.position == (1, 2)
         assert "✕ fail (sum)" in detail_text(app)
-        await pilot.press("x")
+        await pilot.press("f")
         assert app.proof_screen.position == (1, 3)
-        await pilot.press("x")
+        await pilot.press("f")
         assert app.proof_screen.position == (1, 2)  # wrapped
 
 
 async def test_failure_keys_on_an_honest_proof_say_there_is_none_and_the_table_cursor_moves(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("exclamation_mark")
+        await pilot.press("f")
         assert app.proof_screen.last_message == "no failed check so far"
-        await pilot.press("x")
+        await pilot.press("f")
         assert app.proof_screen.position == (0, 1)
-        await pilot.press("down", "down")  # the table's own cursor keys move the detail pane too
+        await pilot.press("down", "down")  # the arrows step through rounds like r
         await pilot.pause()
         assert app.proof_screen.position == (0, 3)
 
@@ -72,16 +73,16 @@ async def test_failure_keys_on_an_honest_proof_say_there_is_none_and_the_table_c
 async def test_go_to_round_takes_n_or_instance_colon_round_and_seek_finds_a_value(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("r")
+        await pilot.press("g")
         assert isinstance(app.screen, AskScreen)
         await pilot.press("3", "enter")
         assert app.proof_screen.position == (0, 3)
-        await pilot.press("r", "2", "colon", "4", "enter")
+        await pilot.press("g", "2", "colon", "4", "enter")
         assert app.proof_screen.position == (2, 4)
-        await pilot.press("r", "9", "enter")
+        await pilot.press("g", "9", "enter")
         assert app.proof_screen.position == (2, 4)
         assert "expected a round number that exists" in app.proof_screen.last_message
-        await pilot.press("r", "escape")
+        await pilot.press("g", "escape")
         assert isinstance(app.screen, ProofScreen)
         challenge = app.model.instances[1].challenges[1]
         await pilot.press("s", *str(challenge), "enter")
@@ -93,7 +94,7 @@ async def test_go_to_round_takes_n_or_instance_colon_round_and_seek_finds_a_valu
 async def test_a_note_is_saved_in_the_file_and_the_digest_still_verifies(honest_file, tmp_path):
     app = app_for(honest_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("full_stop", "a", *"gate 3 rescanned", "enter")
+        await pilot.press("r", "n", *"gate 3 rescanned", "enter")
         assert "gate 3 rescanned" in detail_text(app)
     transcript = load(honest_file)
     notes = transcript.all_notes()
@@ -104,10 +105,10 @@ async def test_a_note_is_saved_in_the_file_and_the_digest_still_verifies(honest_
 async def test_the_bucket_key_opens_charts_that_switch_instance(failing_file, tmp_path):
     app = app_for(failing_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("greater_than_sign", "o")
+        await pilot.press("i", "b")
         assert isinstance(app.screen, BucketsScreen)
         assert app.screen.instance == 1
-        await pilot.press("greater_than_sign")
+        await pilot.press("i")
         assert app.screen.instance == 2
         await pilot.press("k")
         assert isinstance(app.screen, HelpScreen)
@@ -121,7 +122,7 @@ async def test_the_key_list_names_every_binding_of_the_proof_view(honest_file, t
         await pilot.press("k")
         assert isinstance(app.screen, HelpScreen)
         described = {d for _, d in app.screen.entries}
-        assert described == {b.description for b in ProofScreen.BINDINGS} | {d for _, d in TABLE_KEYS}
+        assert described == {k.words for k in KEYS if "proof" in k.screens} | {d for _, d in MOUSE}
         await pilot.press("escape", "f1")
         assert isinstance(app.screen, HelpScreen)
         await pilot.press("f1")
@@ -131,7 +132,7 @@ async def test_the_key_list_names_every_binding_of_the_proof_view(honest_file, t
 async def test_exports_write_an_svg_and_a_markdown_report(failing_file, tmp_path):
     app = app_for(failing_file, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("exclamation_mark", "e", "t")
+        await pilot.press("f", "p", "w")
     svg = tmp_path / "isle-of-quill-0740.i1.r2.svg"
     report = tmp_path / "isle-of-quill-0740.i1.r2.md"
     assert svg.read_text().lstrip().startswith("<svg")
@@ -157,6 +158,7 @@ def test_round_targets_parse_as_n_or_instance_colon_round():
     assert parse_round_target("7", 2) == (2, 7)
     assert parse_round_target("1:3", 2) == (1, 3)
     assert parse_round_target("1/3", 0) == (1, 3)
+    assert parse_round_target("#1:3", 0) == (1, 3)
     assert parse_round_target("x", 0) is None
 
 
@@ -166,9 +168,9 @@ async def test_with_a_witness_the_failing_round_shows_its_root_cause(failing_fil
     witness = write_witness(tmp_path / "isle-of-quill-0740.witness.json")
     app = StepperApp.from_file(failing_file, witness=witness, export_dir=tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("exclamation_mark")
+        await pilot.press("f")
         text = detail_text(app)
-        assert "root cause: instance 1, round 2, check honest-poly  (this round)" in text
+        assert "root cause: instance #1, round 2, check honest-poly  (this round)" in text
 
 
 async def test_compare_opens_the_compare_screen_on_top(honest_file, failing_file, tmp_path):
@@ -194,7 +196,7 @@ async def test_annotating_before_any_instance_says_why_nothing_was_saved(tmp_pat
     events.write_text('{"type": "field", "name": "babybear"}\n', encoding="utf-8")
     app = app_for(events, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("a")
+        await pilot.press("n")
         assert not isinstance(app.screen, AskScreen)
         assert app.proof_screen.last_message.startswith("no instance to attach a note to yet")
     assert events.read_text(encoding="utf-8") == '{"type": "field", "name": "babybear"}\n'
@@ -207,6 +209,6 @@ async def test_a_note_on_a_json_lines_file_is_refused_on_screen_and_the_file_is_
     events.write_text(text, encoding="utf-8")
     app = app_for(events, tmp_path)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("a", *"gate 3", "enter")
+        await pilot.press("n", *"gate 3", "enter")
         assert app.proof_screen.last_message.startswith("note not saved: ")
     assert events.read_text(encoding="utf-8") == text

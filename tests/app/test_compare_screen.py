@@ -54,10 +54,10 @@ async def test_keys_move_between_instances_back_to_the_divergence_and_out(tmp_pa
         await pilot.pause()
         screen = app.screen
         assert screen.pair == 1
-        await pilot.press("greater_than_sign")
+        await pilot.press("i")
         assert screen.pair == 2
         assert str(screen.query_one("#side-a").border_title).endswith("deck-slots-zero")
-        await pilot.press("exclamation_mark")
+        await pilot.press("d")
         await pilot.pause()
         assert screen.pair == 1 and screen.query_one("#table-a", DataTable).cursor_row == 2
         await pilot.press("down")

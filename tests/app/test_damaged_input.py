@@ -26,7 +26,7 @@ async def test_a_hostile_field_opens_with_the_reason_instead_of_crashing(tmp_pat
     write_lines(path, [{"type": "field", "modulus": str(2**64 + 1)}, {"type": "instance", "name": "x"}])
     app = StepperApp.from_file(path, export_dir=tmp_path)
     async with app.run_test(size=(140, 44)) as pilot:
-        await pilot.press("full_stop", "exclamation_mark", "o", "escape")
+        await pilot.press("r", "f", "b", "escape")
         text = summary_text(app)
         assert "stopped reading" in text and "prime" in text
         assert app.model.instances == []
@@ -83,7 +83,7 @@ async def test_names_that_look_like_markup_are_shown_literally(tmp_path):
     write_lines(path, payloads[:3])  # no rounds: the name is all there is to show
     app = StepperApp.from_file(path, export_dir=tmp_path)
     async with app.run_test(size=(140, 44)) as pilot:
-        await pilot.press("full_stop", "greater_than_sign")
+        await pilot.press("r", "i")
         assert "[bold]quill[/] [link=x]" in str(app.proof_screen.query_one("#where-bar").render())
 
 
