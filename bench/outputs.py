@@ -49,8 +49,8 @@ def snapshot(dest: Path) -> int:
                 "info": ["info", str(path)],
                 "export": ["export", str(path)],
                 "buckets": ["buckets", str(path), "--json"],
-                "diff": ["diff", str(honest), str(path)],
-                "report": ["report", str(path), "-o", str(Path(scratch) / f"{tag}.md")],
+                "diff": ["compare", str(honest), str(path)],
+                "report": ["writeup", str(path), "-o", str(Path(scratch) / f"{tag}.md")],
             }
             witness = path.with_suffix(".witness.json")
             if witness.exists():

@@ -42,7 +42,7 @@ def test_every_module_lives_in_a_package_of_the_order_or_at_the_root_with_the_er
     assert loose == ["stepper.__main__"]
 
 
-@pytest.mark.parametrize("command", ["check_cmd", "view_cmd", "prove_cmd", "diff_cmd"])
+@pytest.mark.parametrize("command", ["check_cmd", "view_cmd", "prove_cmd", "compare_cmd"])
 def test_a_command_reaches_a_kernel_without_climbing_back_up_the_pipeline(command: str) -> None:
     # stepper.cli.main imports each command's module by name (importlib), so the chain starts there
     _, inner, _ = read_imports(PACKAGE)

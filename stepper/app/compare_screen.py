@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING
 
 from rich.text import Text
 from textual.app import ComposeResult
+from textual.markup import escape
 from textual.containers import Horizontal, Vertical
 from textual.reactive import reactive
 from textual.screen import Screen
@@ -160,7 +161,7 @@ class CompareScreen(Screen[None]):
         head.update(f" A {a} ({c.field_a.describe()}, {c.completeness_a})   B {b} "
                     f"({c.field_b.describe()}, {c.completeness_b})")
         verdict.border_subtitle = "marks: g values  r challenge  c claim  f final  - one side only  >> first divergence"
-        self.query_one("#side-b").border_subtitle = ELIDE_LEGEND
+        self.query_one("#side-b").border_subtitle = escape(ELIDE_LEGEND)
         lines = Text()
         if c.divergence is None:
             lines.append("identical", style="bold " + tone("good"))
@@ -195,7 +196,8 @@ class CompareScreen(Screen[None]):
     def _value_width(self) -> int:
         """What a side's values and challenge may take: half the screen less the border,
         the mark and line columns and the cell padding."""
-        return max(18, (self.size.width or 160) // 2 - 24)
+        width = self.size.width or 160
+        return max(18, (width if width < 120 else width // 2) - 24)
 
     def _focus_divergence(self, pair: InstancePair) -> None:
         c = self.comparison
@@ -246,6 +248,7 @@ class CompareScreen(Screen[None]):
 
     def on_resize(self) -> None:
         self.set_class(self.size.height < 34, "short")
+        self.set_class(self.size.width < 120, "narrow")
         if self.comparison is not None and self.comparison.pairs and self.is_mounted:
             self._fill(self.pair)  # the value columns follow the width
 

@@ -1,8 +1,8 @@
-"""The text report a person hands to a teammate: markdown.
+"""The write-up a person hands to a teammate: markdown.
 
 Pure: returns text; the screen writes it. The proof-level part is the shared
 report (:func:`stepper.share.report.build` / :func:`stepper.share.report.to_markdown`, the
-same document `stepper report` writes); below it comes the round under the
+same document `stepper writeup` writes); below it comes the round under the
 cursor, in full, so the reader sees exactly what the sender was looking at.
 """
 

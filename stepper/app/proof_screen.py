@@ -14,6 +14,7 @@ from typing import Any, Protocol
 
 from rich.text import Text
 from textual.app import ComposeResult
+from textual.markup import escape
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.reactive import reactive
 from textual.screen import Screen
@@ -109,7 +110,7 @@ class ProofScreen(Screen[None]):
 
     def on_mount(self) -> None:
         self.query_one("#rounds").border_title = "rounds"
-        self.query_one("#rounds").border_subtitle = ELIDE_LEGEND
+        self.query_one("#rounds").border_subtitle = escape(ELIDE_LEGEND)
         self.query_one("#detail-box").border_title = "round under check"
         self.query_one("#statement-box").border_title = "statement · final check"
         self.query_one("#strip").border_title = "instances  ■ pass ✕ fail ◌ pending ? unchecked · not sent ┆ final"

@@ -16,9 +16,14 @@ from textual.widgets import DataTable
 from stepper.app.palette import tone
 from stepper.app.proof_model import ProofModel
 
-__all__ = ["RoundTable", "COLUMNS"]
+__all__ = ["RoundTable", "COLUMNS", "NARROW_COLUMNS"]
 
 COLUMNS = ("round", "status", "claim in", "g(0)+g(1)", "deg/bound", "challenge", "g(r)")
+# Under 70 columns the table keeps what tells rounds apart; the claim carried in and
+# g(r) (each equal to a neighbour's g(0)+g(1) when the round passes) and the degree are
+# in the round panel beside it.
+NARROW_COLUMNS = ("round", "status", "g(0)+g(1)", "challenge")
+_NARROW_BELOW = 70
 
 
 class RoundTable(DataTable[object], inherit_bindings=False):
@@ -41,7 +46,18 @@ class RoundTable(DataTable[object], inherit_bindings=False):
         self._by_user = False  # the next highlight comes from a key or click on the table
 
     def on_mount(self) -> None:
-        self.add_columns(*COLUMNS)
+        self.columns_shown: tuple[str, ...] = ()
+        self._set_columns()
+
+    def _set_columns(self) -> bool:
+        """Choose the columns for the width; True when they changed (rows then rebuilt)."""
+        wanted = NARROW_COLUMNS if (self.size.width or 100) < _NARROW_BELOW else COLUMNS
+        if wanted == self.columns_shown:
+            return False
+        self.clear(columns=True)
+        self.add_columns(*wanted)
+        self.columns_shown = wanted
+        return True
 
     def show(self, instance: int, round_: int) -> None:
         """Show ``instance`` (rebuilding rows only when it or the model changed) and
@@ -59,17 +75,21 @@ class RoundTable(DataTable[object], inherit_bindings=False):
         self.clear()
         if not 0 <= instance < len(self.model.instances):
             return
-        # five value columns share what round, status, degree, cell padding and border leave
-        width = max(8, ((self.size.width or 88) - 37) // 5)
+        # the value columns share what round, status, degree, cell padding and border leave
+        narrow = self.columns_shown == NARROW_COLUMNS
+        width = max(8, ((self.size.width or 88) - (21 if narrow else 37)) // (2 if narrow else 5))
         rows = []
         for row in self.model.rows(instance, width):
             cells: list[object] = list(row.cells())
             cells[1] = Text(cells[1], style=tone(row.tone))  # type: ignore[arg-type]
+            if narrow:
+                cells = [cells[0], cells[1], cells[3], cells[5]]
             rows.append(cells)
         self.add_rows(rows)
 
     def on_resize(self) -> None:
         """Cells are cut to the width available: rebuild the rows for the new width."""
+        self._set_columns()
         if self.instance >= 0:
             row = self.cursor_row
             self._fill(self.instance)

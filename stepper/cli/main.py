@@ -19,7 +19,7 @@ from typing import NoReturn, Sequence
 from stepper import __version__
 from stepper.errors import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, StepperError
 
-__all__ = ["main", "COMMANDS"]
+__all__ = ["main", "COMMANDS", "RETIRED"]
 
 # name -> module under stepper.cli (the module's HELP is the summary line)
 COMMANDS: dict[str, str] = {
@@ -29,14 +29,19 @@ COMMANDS: dict[str, str] = {
     "import": "import_cmd",
     "export": "export_cmd",
     "view": "view_cmd",
-    "diff": "diff_cmd",
+    "compare": "compare_cmd",
     "note": "note_cmd",
-    "report": "report_cmd",
+    "writeup": "writeup_cmd",
     "prove": "prove_cmd",
     "buckets": "buckets_cmd",
     "plan": "plan_cmd",
     "demo": "demo_cmd",
 }
+
+
+# Earlier command names, kept for one release: they run the new command after one
+# line on stderr, and are listed nowhere (not in --help).
+RETIRED: dict[str, str] = {"report": "writeup", "diff": "compare"}
 
 
 class _Parser(argparse.ArgumentParser):
@@ -70,6 +75,11 @@ def _build_parser(only: str | None = None) -> tuple[_Parser, dict[str, object]]:
 
 def main(argv: Sequence[str] | None = None) -> int:
     words = list(sys.argv[1:] if argv is None else argv)
+    if words and words[0] in RETIRED:
+        new = RETIRED[words[0]]
+        print(f"stepper: `stepper {words[0]}` is now `stepper {new}`; the old name goes in the next release",
+              file=sys.stderr)
+        words[0] = new
     parser, modules = _build_parser(words[0] if words and words[0] in COMMANDS else None)
     args, unknown = parser.parse_known_args(words)
     if unknown:  # name the subcommand whose help lists the flags it takes

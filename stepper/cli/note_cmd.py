@@ -20,7 +20,7 @@ if TYPE_CHECKING:
 HELP = "append a note to a round, an instance or the whole proof (the recorded digest still verifies)"
 DESCRIPTION = (
     "Append a note event to a transcript file without touching what was recorded: the digest of the recorded "
-    "part still verifies, and the note shows in `stepper info`, `stepper check`, `stepper report` and the app. "
+    "part still verifies, and the note shows in `stepper info`, `stepper check`, `stepper writeup` and the app. "
     "A note is public text stored in the file; do not paste secrets or witness values into it."
 )
 

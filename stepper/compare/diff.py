@@ -77,7 +77,7 @@ class Comparison:
         return self.divergence is None
 
     def to_json(self, label_a: str | None = None, label_b: str | None = None) -> dict[str, Any]:
-        """The ``stepper diff --json`` object, described by :data:`JSON_SCHEMA` (``stepper diff --schema``)."""
+        """The ``stepper compare --json`` object, described by :data:`JSON_SCHEMA` (``stepper compare --schema``)."""
 
         def side(field: Field, completeness: str, label: str | None, key: str) -> dict[str, Any]:
             count = sum(1 for p in self.pairs if getattr(p, key) is not None)

@@ -1,4 +1,4 @@
-"""The vocabulary of ``stepper diff`` results: divergence kinds, the caution and the JSON schema.
+"""The vocabulary of ``stepper compare`` results: divergence kinds, the caution and the JSON schema.
 
 Pure data, no I/O. Invariants: every ``classification.kind`` that
 :func:`stepper.compare.diff.compare` gives is a key of :data:`KINDS`; :data:`JSON_SCHEMA`
@@ -43,11 +43,11 @@ CAUTION = (
 _NULLABLE_INT = {"type": ["integer", "null"]}
 _NULLABLE_TEXT = {"type": ["string", "null"]}
 
-# JSON Schema (draft 2020-12) of Comparison.to_json(); `stepper diff --schema` prints it.
+# JSON Schema (draft 2020-12) of Comparison.to_json(); `stepper compare --schema` prints it.
 JSON_SCHEMA: dict[str, Any] = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",
     "$id": SCHEMA_ID,
-    "title": "stepper diff result",
+    "title": "stepper compare result",
     "type": "object",
     "required": ["schema", "identical", "a", "b", "alignment", "first_divergence", "classification", "remarks",
                  "caution"],

@@ -109,7 +109,7 @@ def build(transcript: Transcript, report: Report, diagnosis: Diagnosed | None = 
     """The report of one transcript, its replay and (optionally) a witness diagnosis."""
     field = transcript.field
     meta = dict(transcript.header.metadata)
-    title = f"stepper report: {meta.get('label') or source or 'transcript'}"
+    title = f"stepper write-up: {meta.get('label') or source or 'transcript'}"
     summary: list[tuple[str, str]] = [
         ("verdict", _VERDICT_TEXT.get(report.verdict, report.verdict)),
         ("file", source or "(not given)"),

@@ -212,3 +212,39 @@ async def test_a_note_on_a_json_lines_file_is_refused_on_screen_and_the_file_is_
         await pilot.press("n", *"gate 3", "enter")
         assert app.proof_screen.last_message.startswith("note not saved: ")
     assert events.read_text(encoding="utf-8") == text
+
+
+def test_table_cells_too_long_for_their_column_are_marked_with_their_length(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    row = app.model.rows(1, 8)[1]  # round 2: g(0)+g(1) = 1953667903 has ten digits
+    assert row.sum01 == "19…3[10]"
+
+
+async def test_copy_puts_the_round_with_every_value_whole_on_the_clipboard(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f", "c")
+        assert "1953667903" in app.clipboard and "…" not in app.clipboard
+        assert "1953667903" in detail_text(app)
+        assert app.proof_screen.last_message.startswith("copied instance #1 'boarding-permutation-grouped', round 2")
+
+
+async def test_instances_read_as_hash_index_and_rounds_from_one_on_every_panel(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    async with app.run_test(size=(160, 48)) as pilot:
+        await pilot.press("f")
+        where = str(app.proof_screen.query_one("#where-bar").render())
+        assert "instance #1 boarding-permutation-grouped" in where and "round 2 of 4" in where
+        assert "instance: #1 'boarding-permutation-grouped'" in detail_text(app)
+        summary = app.proof_screen.query_one("#summary", ReadoutPanel).plain()
+        assert "instance #1 'boarding-permutation-grouped', round 2" in summary
+        await pilot.press("g", "#", "0", "colon", "3", "enter")
+        assert app.proof_screen.position == (0, 3)
+
+
+async def test_the_position_line_fits_80_columns(failing_file, tmp_path):
+    app = app_for(failing_file, tmp_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("f")
+        where = str(app.proof_screen.query_one("#where-bar").render())
+        assert len(where) <= 80 and "round 2 of 4" in where and "…" in where

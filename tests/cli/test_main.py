@@ -4,6 +4,9 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
+
+import pytest
 
 from stepper.cli.main import COMMANDS, main
 
@@ -54,3 +57,24 @@ def test_ctrl_c_inside_a_compiled_kernel_is_an_interruption_not_an_internal_erro
     monkeypatch.setattr(info_cmd, "run", run)
     assert main(["info", "some.sumtr"]) == 130
     assert capsys.readouterr().err == "stepper info: interrupted\n"
+
+
+
+HONEST = Path(__file__).parents[2] / "transcripts" / "ferries" / "ferries-honest.sumtr"
+
+
+@pytest.mark.parametrize("old, new", [("report", "writeup"), ("diff", "compare")])
+def test_retired_command_names_still_run_the_new_command_after_one_line_on_stderr(tmp_path, capsys, old, new):
+    out = tmp_path / "w.md"
+    argv = [old, str(HONEST), "-o", str(out)] if old == "report" else [old, str(HONEST), str(HONEST)]
+    assert main(argv) == 0
+    err = capsys.readouterr().err.splitlines()
+    assert err[0] == f"stepper: `stepper {old}` is now `stepper {new}`; the old name goes in the next release"
+    assert out.exists() == (old == "report")
+
+
+def test_retired_command_names_are_not_listed_in_the_help(capsys):
+    with pytest.raises(SystemExit):
+        main(["--help"])
+    listed = {line.split()[0] for line in capsys.readouterr().out.splitlines() if line.startswith("    ")}
+    assert {"writeup", "compare"} <= listed and not {"report", "diff"} & listed

@@ -1,4 +1,4 @@
-"""`stepper report`: Markdown and HTML files from a transcript, with and without a witness.
+"""`stepper writeup`: Markdown and HTML files from a transcript, with and without a witness.
 Runs from tests/sumcheck_pairs.py; HTML checked with the standard library's html.parser.
 """
 
@@ -47,7 +47,7 @@ class Text(HTMLParser):
 
 def test_html_report_holds_the_failing_rounds_explanation(failing, tmp_path, capsys):
     out = tmp_path / "report.html"
-    assert main(["report", str(failing), "-o", str(out)]) == 0
+    assert main(["writeup", str(failing), "-o", str(out)]) == 0
     parser = Text()
     parser.feed(out.read_text(encoding="utf-8"))
     explanation = replay_transcript(load(failing)).first_failure.explanation
@@ -61,7 +61,7 @@ def test_markdown_report_with_a_witness_has_the_root_cause(failing, tmp_path):
     witness = tmp_path / "witness.json"
     witness.write_text(json.dumps(witness_map(brackwater_specs())), encoding="utf-8")
     out = tmp_path / "report.md"
-    assert main(["report", str(failing), "--witness", str(witness), "-o", str(out)]) == 0
+    assert main(["writeup", str(failing), "--witness", str(witness), "-o", str(out)]) == 0
     md = out.read_text(encoding="utf-8")
     assert "## Root cause (with the witness)" in md
     assert "- **round**: 2" in md and "- **check**: honest-poly" in md
@@ -69,9 +69,9 @@ def test_markdown_report_with_a_witness_has_the_root_cause(failing, tmp_path):
 
 
 def test_standard_output_needs_a_format(failing, capsys):
-    assert main(["report", str(failing), "-o", "-", "--format", "md"]) == 0
-    assert capsys.readouterr().out.startswith("# stepper report: isle-of-quill-0740")
-    assert main(["report", str(failing), "-o", "-"]) == 2
+    assert main(["writeup", str(failing), "-o", "-", "--format", "md"]) == 0
+    assert capsys.readouterr().out.startswith("# stepper write-up: isle-of-quill-0740")
+    assert main(["writeup", str(failing), "-o", "-"]) == 2
     assert "expected -o to end in .md or .html" in capsys.readouterr().err
 
 
@@ -80,7 +80,7 @@ def test_a_witness_that_does_not_fit_is_exit_2_and_writes_nothing(failing, tmp_p
     witness.write_text(json.dumps({"instances": [{"name": "boarding-permutation", "tables": {"t0": [1, 2]},
                                                   "combine": "t0"}]}), encoding="utf-8")
     out = tmp_path / "report.html"
-    assert main(["report", str(failing), "--witness", str(witness), "-o", str(out)]) == 2
+    assert main(["writeup", str(failing), "--witness", str(witness), "-o", str(out)]) == 2
     assert capsys.readouterr().err.count("\n") == 1
     assert not out.exists()
 
@@ -92,7 +92,7 @@ def test_the_written_report_gets_ordinary_file_permissions_not_the_private_mode_
     umask = os.umask(0o022)
     try:
         out = tmp_path / "report.md"
-        assert main(["report", str(failing), "-o", str(out)]) == 0
+        assert main(["writeup", str(failing), "-o", str(out)]) == 0
     finally:
         os.umask(umask)
     assert out.stat().st_mode & 0o777 == 0o644

@@ -1,4 +1,4 @@
-"""`stepper diff`: exit codes, human output and the JSON schema, on files written by the store.
+"""`stepper compare`: exit codes, human output and the JSON schema, on files written by the store.
 
 Runs come from tests/sumcheck_pairs.py (plain-integer honest prover, built-in schedule).
 """
@@ -34,7 +34,7 @@ def runs(tmp_path: Path) -> dict[str, Path]:
 
 
 def run(capsys, *argv: str) -> tuple[int, str, str]:
-    code = main(["diff", *argv])
+    code = main(["compare", *argv])
     out = capsys.readouterr()
     return code, out.out, out.err
 
@@ -74,7 +74,7 @@ def test_bad_input_is_one_line_and_exit_2(runs, tmp_path):
     junk = tmp_path / "junk.sumtr"
     junk.write_bytes(b"\x00\x01 not a transcript")
     for argv in ([str(runs["a"]), str(tmp_path / "missing.sumtr")], [str(runs["a"]), str(junk)], [str(runs["a"])]):
-        proc = subprocess.run([sys.executable, "-m", "stepper", "diff", *argv], capture_output=True, text=True)
+        proc = subprocess.run([sys.executable, "-m", "stepper", "compare", *argv], capture_output=True, text=True)
         assert proc.returncode == 2
-        assert proc.stderr.startswith("stepper diff: ") and proc.stderr.count("\n") == 1
+        assert proc.stderr.startswith("stepper compare: ") and proc.stderr.count("\n") == 1
         assert "Traceback" not in proc.stderr

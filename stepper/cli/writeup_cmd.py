@@ -1,4 +1,4 @@
-"""`stepper report FILE [--witness W] -o OUT.md|OUT.html`: a report to paste or attach.
+"""`stepper writeup FILE [--witness W] -o OUT.md|OUT.html`: a write-up to paste or attach.
 
 Thin edge: loads the transcript, replays it (:func:`stepper.verify.replay.replay_transcript`),
 diagnoses it with the witness when one is given (:func:`stepper.diagnose.rootcause.diagnose`),
@@ -16,11 +16,11 @@ import sys
 import tempfile
 from pathlib import Path
 
-HELP = "write a shareable report (Markdown or self-contained HTML with charts) of one transcript"
+HELP = "write a shareable write-up (Markdown, or self-contained HTML with charts) of one transcript"
 DESCRIPTION = (
-    "Replay FILE and write a report: summary, per-instance round tables, the first failure with its "
+    "Replay FILE and write a write-up: summary, per-instance round tables, the first failure with its "
     "explanation, root cause and probe findings (with --witness), bucket occupancy charts, notes, and what "
-    "the file reveals. The HTML page loads nothing from the network. A passing replay in a report is "
+    "the file reveals. The HTML page loads nothing from the network. A passing replay in a write-up is "
     "evidence about one run, not a soundness proof."
 )
 
@@ -59,7 +59,7 @@ def run(args: argparse.Namespace) -> int:
         sys.stdout.write(text)
         return 0
     _write_whole(Path(args.output), text)
-    print(f"{args.output}: {kind} report of {args.file} ({report.verdict})", file=sys.stderr)
+    print(f"{args.output}: {kind} write-up of {args.file} ({report.verdict})", file=sys.stderr)
     return 0
 
 
@@ -67,7 +67,7 @@ def _write_whole(path: Path, text: str) -> None:
     from stepper.errors import InputError, Where
 
     try:
-        handle, temp = tempfile.mkstemp(prefix=".stepper-report-", dir=path.parent if str(path.parent) else ".")
+        handle, temp = tempfile.mkstemp(prefix=".stepper-writeup-", dir=path.parent if str(path.parent) else ".")
         with os.fdopen(handle, "w", encoding="utf-8") as out:
             out.write(text)
         umask = os.umask(0)
@@ -75,4 +75,4 @@ def _write_whole(path: Path, text: str) -> None:
         os.chmod(temp, 0o666 & ~umask)
         os.replace(temp, path)
     except OSError as err:
-        raise InputError(f"could not write the report: {err.strerror or err}", Where(file=str(path))) from None
+        raise InputError(f"could not write the write-up: {err.strerror or err}", Where(file=str(path))) from None

@@ -1,4 +1,4 @@
-"""`stepper diff A B [--json]`: the first divergence between two runs, and its kind.
+"""`stepper compare A B [--json]`: the first divergence between two runs, and its kind.
 
 Thin edge over :func:`stepper.compare.diff.compare`: loads both files (transcripts or
 JSON-lines event files, complete or not), prints either a short explanation
