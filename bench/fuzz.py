@@ -69,10 +69,10 @@ TRANSCRIPT_TARGETS: dict[str, list[str]] = {
     "info --json": ["info", "--json", "{T}"],
     "export": ["export", "{T}"],
     "export -o": ["export", "{T}", "-o", "{O}.jsonl"],
-    "diff": ["diff", "{S}", "{T}"],
-    "diff --json": ["diff", "--json", "{T}", "{S}"],
-    "report": ["report", "{T}", "-o", "{O}.md"],
-    "report --witness html": ["report", "{T}", "--witness", "{W}", "-o", "{O}.html"],
+    "diff": ["compare", "{S}", "{T}"],
+    "diff --json": ["compare", "--json", "{T}", "{S}"],
+    "report": ["writeup", "{T}", "-o", "{O}.md"],
+    "report --witness html": ["writeup", "{T}", "--witness", "{W}", "-o", "{O}.html"],
     "import": ["import", "{T}", "-o", "{O}.stp"],
     "note": ["note", "{T}", "--round", "1", "--instance", "0", "a note from the fuzz harness"],
     "buckets": ["buckets", "{T}"],
@@ -81,7 +81,7 @@ TRANSCRIPT_TARGETS: dict[str, list[str]] = {
 WITNESS_TARGETS: dict[str, list[str]] = {
     "check --witness": ["check", "{S}", "--witness", "{W}"],
     "check --json --witness": ["check", "--json", "{S}", "--witness", "{W}"],
-    "report --witness": ["report", "{S}", "--witness", "{W}", "-o", "{O}.md"],
+    "report --witness": ["writeup", "{S}", "--witness", "{W}", "-o", "{O}.md"],
 }
 PLUGIN_TARGETS: dict[str, list[str]] = {
     "check --challenges": ["check", "{S}", "--challenges", "{P}:derive"],
