@@ -36,6 +36,7 @@ COMMANDS: dict[str, str] = {
     "buckets": "buckets_cmd",
     "plan": "plan_cmd",
     "demo": "demo_cmd",
+    "schema": "schema_cmd",
 }
 
 

@@ -21,6 +21,7 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer p
 
 from plain_sumcheck import BABYBEAR, Plain, instance_payloads, jsonl, product_rounds, thaler_payloads  # noqa: E402
 from stepper.cli.main import main  # noqa: E402
+from json_contracts import conforming  # noqa: E402
 from stepper.transcript.store import TranscriptWriter  # noqa: E402
 
 CHALLENGES = (5, 7, 11)
@@ -62,7 +63,7 @@ def test_honest_event_file_is_accepted_with_a_table_and_notes(tmp_path, capsys):
 
 def test_honest_transcript_json_follows_the_contract(tmp_path, capsys):
     code, out, _ = check(capsys, str(write_sumtr(tmp_path / "run.sumtr", honest())), "--json")
-    data = json.loads(out)
+    data = conforming(out, "check")
     assert code == 0 and data["verdict"] == "accept" and data["first_failure"] is None
     assert data["instances"][0]["name"] == "boarding-permutation"
     assert [(r["round"], r["status"]) for r in data["instances"][0]["rounds"]] == [(1, "pass"), (2, "pass"),
@@ -75,7 +76,7 @@ def test_honest_transcript_json_follows_the_contract(tmp_path, capsys):
 def test_the_format_is_recognised_by_content_not_by_the_file_name(tmp_path, capsys, name):
     # Transcripts are named .sumtr; files kept under the earlier .stp name, or any name, still open.
     code, out, err = check(capsys, str(write_sumtr(tmp_path / name, honest())), "--json")
-    assert code == 0 and err == "" and json.loads(out)["verdict"] == "accept"
+    assert code == 0 and err == "" and conforming(out, "check")["verdict"] == "accept"
 
 
 @pytest.mark.parametrize("mutate, round_, check_name", [
@@ -89,7 +90,7 @@ def test_single_faults_exit_1_with_round_and_check(tmp_path, capsys, mutate, rou
     payloads = honest()
     mutate(payloads)
     code, out, _ = check(capsys, str(write_sumtr(tmp_path / "bad.sumtr", payloads)), "--json")
-    ff = json.loads(out)["first_failure"]
+    ff = conforming(out, "check")["first_failure"]
     assert code == 1
     assert (ff["instance"], ff["instance_name"], ff["round"], ff["check"]) == (0, "boarding-permutation", round_,
                                                                                check_name)
@@ -107,14 +108,14 @@ def test_human_output_states_the_first_failure_in_words(tmp_path, capsys):
 def test_transcript_that_stops_early_exits_3(tmp_path, capsys):
     path = write_sumtr(tmp_path / "cut.sumtr", honest()[:6], finish=False)
     code, out, _ = check(capsys, str(path), "--json")
-    assert code == 3 and json.loads(out)["verdict"] == "incomplete"
+    assert code == 3 and conforming(out, "check")["verdict"] == "incomplete"
     code, out, _ = check(capsys, str(path))
     assert code == 3 and "INCOMPLETE" in out
 
 
 def test_unfinished_file_with_every_round_present_is_still_incomplete(tmp_path, capsys):
     code, out, _ = check(capsys, str(write_sumtr(tmp_path / "nofinish.sumtr", honest(), finish=False)), "--json")
-    assert code == 3 and json.loads(out)["completeness"] == "incomplete"
+    assert code == 3 and conforming(out, "check")["completeness"] == "incomplete"
 
 
 @pytest.mark.parametrize("content", [
@@ -144,7 +145,7 @@ def test_foreign_schedule_is_reported_as_not_re_derived(tmp_path, capsys):
     payloads = honest()
     payloads.insert(1, {"type": "schedule", "name": "ferry-office-transcript/3", "label": "gate"})
     code, out, _ = check(capsys, str(write_jsonl(tmp_path / "run.jsonl", payloads)), "--json")
-    data = json.loads(out)
+    data = conforming(out, "check")
     assert code == 0 and data["challenges"].startswith("not re-derived")
     assert [f["kind"] for f in data["findings"]] == ["challenges-unchecked"]
 
@@ -193,7 +194,7 @@ def test_plugin_forgetting_the_claim_is_reported_as_a_finding(tmp_path, capsys):
     exec(FORGETFUL_PLUGIN, namespace)
     path = write_jsonl(tmp_path / "run.jsonl", _plugin_payloads(namespace["derive"]))
     code, out, _ = check(capsys, str(path), "--challenges", f"{plugin}:derive", "--json")
-    data = json.loads(out)
+    data = conforming(out, "check")
     assert code == 0 and data["verdict"] == "accept"
     assert [f["kind"] for f in data["findings"]] == ["unbound-claim"]
     code, out, _ = check(capsys, str(path), "--challenges", f"{plugin}:derive")
@@ -211,7 +212,7 @@ def test_witness_adds_the_root_cause(tmp_path, capsys):
     witness.write_text(json.dumps({"instances": [{"name": "deck-slots-zero", "tables": tables,
                                                   "combine": "fare * seat"}]}))
     code, out, _ = check(capsys, str(path), "--witness", str(witness), "--json")
-    data = json.loads(out)
+    data = conforming(out, "check")
     assert code == 1 and data["first_failure"]["round"] == 2
     assert data["root_cause"]["round"] == 1 and data["root_cause"]["check"] == "honest-poly"
     code, out, _ = check(capsys, str(path), "--witness", str(witness))
@@ -260,7 +261,7 @@ def test_hostile_files_never_crash_the_check(tmp_path, capsys, data):
     if code == 2:
         assert err.count("\n") == 1 and err.startswith("stepper check: ")
     else:
-        assert json.loads(out)["verdict"] in ("accept", "reject", "incomplete")
+        assert conforming(out, "check")["verdict"] in ("accept", "reject", "incomplete")
 
 
 def test_many_instances_show_a_bounded_table(tmp_path, capsys):

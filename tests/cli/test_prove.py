@@ -9,6 +9,7 @@ import sys
 import pytest
 
 from stepper.cli.main import main
+from json_contracts import conforming, conforming_lines
 
 
 def _prove(tmp_path, *flags):
@@ -24,7 +25,7 @@ def test_every_kind_writes_a_transcript_that_check_accepts_with_its_witness(kind
     assert code == 0
     assert "multiplications" in capsys.readouterr().out
     assert main(["check", str(out), "--witness", str(witness), "--json"]) == 0
-    report = json.loads(capsys.readouterr().out)
+    report = conforming(capsys.readouterr().out, "check")
     assert report["verdict"] == "accept" and report["root_cause"] is None
 
 
@@ -34,7 +35,7 @@ def test_a_fault_is_rejected_and_the_root_cause_names_its_round(tmp_path, capsys
     assert code == 0
     capsys.readouterr()
     assert main(["check", str(out), "--witness", str(witness), "--json"]) == 1
-    report = json.loads(capsys.readouterr().out)
+    report = conforming(capsys.readouterr().out, "check")
     assert (report["first_failure"]["round"], report["first_failure"]["check"]) == (3, "sum")
     assert report["root_cause"]["round"] == 3
 
@@ -132,8 +133,8 @@ def test_an_output_ending_in_jsonl_gets_the_event_stream_that_check_reads(tmp_pa
     out = tmp_path / "events.jsonl"
     assert main(["prove", "--kind", "zerocheck", "--num-vars", "3", "-o", str(out)]) == 0
     lines = out.read_text().splitlines()
-    assert json.loads(lines[0]) == {"type": "field", "name": "babybear"}
-    assert json.loads(lines[1])["type"] == "schedule"
+    assert conforming(lines[0], "event") == {"type": "field", "name": "babybear"}
+    assert conforming(lines[1], "event")["type"] == "schedule"
     capsys.readouterr()
     assert main(["check", str(out)]) == 0
 

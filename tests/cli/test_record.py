@@ -14,6 +14,7 @@ from pathlib import Path
 import pytest
 
 from stepper.cli.main import main
+from json_contracts import conforming, conforming_lines
 from stepper.errors import TranscriptError
 from stepper.transcript.store import load, open_events
 from stepper.transcript.model import RoundMsg
@@ -175,7 +176,7 @@ def test_import_then_export_gives_back_the_same_events(tmp_path, capsys):
     assert t.instances[0].rounds[0].values == (0, 0, GOLDILOCKS - 1, 5)
     capsys.readouterr()
     assert main(["export", str(out)]) == 0
-    lines = [json.loads(line) for line in capsys.readouterr().out.splitlines()]
+    lines = conforming_lines(capsys.readouterr().out)
     assert lines[0]["type"] == "header" and lines[0]["metadata"]["label"] == "deck check"
     assert lines[3] == {"type": "round", "evals": [0, 0, str(GOLDILOCKS - 1), 5]}
     assert lines[-1] == {"type": "deck-camera", "frame": 12}
@@ -236,7 +237,7 @@ def test_info_describes_instances_completeness_digest_and_notes(tmp_path, capsys
     assert "label: isle-of-quill-0740" in text
     assert "never contains the witness" in text and "not a soundness proof" in text
     assert main(["info", str(out), "--json"]) == 0
-    info = json.loads(capsys.readouterr().out)
+    info = conforming(capsys.readouterr().out, "info")
     assert info["instances"][0]["rounds_present"] == 2 and info["digest"] == "verified"
     assert info["unknown_events"] == {"deck-camera": 1}
 
@@ -283,7 +284,7 @@ def test_export_of_an_incomplete_transcript_prints_the_events_present_and_warns(
     out.write_bytes(out.read_bytes()[:-70])  # the end event and the last event are cut
     proc = stepper("export", str(out))
     assert proc.returncode == 0 and "incomplete" in proc.stderr
-    lines = [json.loads(line) for line in proc.stdout.splitlines()]
+    lines = conforming_lines(proc.stdout)
     assert lines[-1] == {"type": "final", "value": 77}
 
 

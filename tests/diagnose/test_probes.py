@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
+from json_contracts import conforming
 from rootcause_prover import Fault, prove
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
 from stepper.diagnose.probes import first_difference
@@ -215,7 +216,7 @@ def test_check_command_names_a_binding_order_switch_at_round_3(tmp_path, capsys)
                  "--witness-out", str(witness)]) == 0
     capsys.readouterr()
     assert main(["check", str(out), "--witness", str(witness), "--json"]) == 1
-    report = json.loads(capsys.readouterr().out)
+    report = conforming(capsys.readouterr().out, "check")
     cause = report["root_cause"]
     assert (cause["instance_name"], cause["round"], cause["probes"]) == ("boarding-permutation", 3, ["variable-order"])
     # every sum check holds after the switch; only the final check can see it, two rounds later

@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
+from json_contracts import conforming
 from rootcause_prover import Fault, prove
 from stepper.errors import WitnessError
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
@@ -195,7 +196,7 @@ def test_check_command_reports_the_root_cause_in_json_and_text(tmp_path, capsys)
 
     path, witness = _write_case(tmp_path, Fault("sum-consistent", 2, 7))
     assert main(["check", str(path), "--json", "--witness", str(witness)]) == 1
-    out = json.loads(capsys.readouterr().out)
+    out = conforming(capsys.readouterr().out, "check")
     assert out["first_failure"]["round"] == 3
     assert (out["root_cause"]["round"], out["root_cause"]["check"], out["root_cause"]["point"]) == (2, "honest-poly", 2)
     assert main(["check", str(path), "--witness", str(witness)]) == 1
