@@ -7,7 +7,7 @@ Inputs (bench/fuzz_inputs.py): transcripts (bytes flipped, cut, slices repeated 
 changed with the digest recomputed), JSON-lines event streams, witness files (JSON and msgpack;
 values, nesting, combine expressions), and the answers of a `--challenges` plug-in (raising,
 hanging, wrong types, huge values). Each input goes to a few of the commands that read it: check
-(with and without --json and --witness), info, export, diff, report, import, note, buckets, and the
+(with and without --json and --witness), info, export, compare, writeup, import, note, buckets, and the
 app's loader (headless). A run fails on an exception escaping `stepper.cli.main.main`, an
 "internal error" exit (70), a command running past the time limit, an exit code outside the
 documented set (0, 1, 2, 3; 130 only when the plug-in itself raises KeyboardInterrupt) or a traceback
@@ -69,11 +69,11 @@ TRANSCRIPT_TARGETS: dict[str, list[str]] = {
     "info --json": ["info", "--json", "{T}"],
     "export": ["export", "{T}"],
     "export -o": ["export", "{T}", "-o", "{O}.jsonl"],
-    "diff": ["compare", "{S}", "{T}"],
-    "diff --json": ["compare", "--json", "{T}", "{S}"],
-    "report": ["writeup", "{T}", "-o", "{O}.md"],
-    "report --witness html": ["writeup", "{T}", "--witness", "{W}", "-o", "{O}.html"],
-    "import": ["import", "{T}", "-o", "{O}.stp"],
+    "compare": ["compare", "{S}", "{T}"],
+    "compare --json": ["compare", "--json", "{T}", "{S}"],
+    "writeup": ["writeup", "{T}", "-o", "{O}.md"],
+    "writeup --witness html": ["writeup", "{T}", "--witness", "{W}", "-o", "{O}.html"],
+    "import": ["import", "{T}", "-o", "{O}.sumtr"],
     "note": ["note", "{T}", "--round", "1", "--instance", "0", "a note from the fuzz harness"],
     "buckets": ["buckets", "{T}"],
     "app loader": [],
@@ -81,7 +81,7 @@ TRANSCRIPT_TARGETS: dict[str, list[str]] = {
 WITNESS_TARGETS: dict[str, list[str]] = {
     "check --witness": ["check", "{S}", "--witness", "{W}"],
     "check --json --witness": ["check", "--json", "{S}", "--witness", "{W}"],
-    "report --witness": ["writeup", "{S}", "--witness", "{W}", "-o", "{O}.md"],
+    "writeup --witness": ["writeup", "{S}", "--witness", "{W}", "-o", "{O}.md"],
 }
 PLUGIN_TARGETS: dict[str, list[str]] = {
     "check --challenges": ["check", "{S}", "--challenges", "{P}:derive"],
@@ -93,7 +93,7 @@ ALL_TARGETS = {**TRANSCRIPT_TARGETS, **{f"{k} (witness input)": v for k, v in WI
 
 def lay_out(folder: Path, files: dict[str, bytes], kind: str) -> dict[str, str]:
     """Write a case's files into ``folder``; role -> path for the argv templates."""
-    names = {"T": "input.jsonl" if kind == "jsonl" else "input.stp", "S": "seed.stp", "W": "witness.json",
+    names = {"T": "input.jsonl" if kind == "jsonl" else "input.sumtr", "S": "seed.sumtr", "W": "witness.json",
              "P": "plug.py", "A": "answer.json"}
     paths = {}
     for role, data in files.items():
@@ -201,7 +201,7 @@ def save_failure(corpus: Path, case: inputs.Case, target: str, problem: str) -> 
 def replay_saved(folder: Path, timeout: float = 20.0) -> str | None:
     """Run a corpus case again (in a scratch copy, so outputs never land in the corpus)."""
     case = json.loads((folder / "case.json").read_text())
-    roles = {"input.stp": "T", "input.jsonl": "T", "seed.stp": "S", "witness.json": "W", "plug.py": "P",
+    roles = {"input.sumtr": "T", "input.jsonl": "T", "seed.sumtr": "S", "witness.json": "W", "plug.py": "P",
              "answer.json": "A"}
     files = {roles[p.name]: p.read_bytes() for p in folder.iterdir() if p.name in roles}
     with tempfile.TemporaryDirectory(prefix="stepper-fuzz-replay-") as scratch:

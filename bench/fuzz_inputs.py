@@ -75,7 +75,7 @@ def build_seeds() -> list[Seed]:
             field_ = parse_field(field_text)
             spec = ProveSpec(kind, mu, 7 + i, 2, None, parse_fault(fault) if fault else None, "low-first", form,
                              None, None, f"fuzz seed {i}")
-            path = os.path.join(scratch, f"seed{i}.stp")
+            path = os.path.join(scratch, f"seed{i}.sumtr")
             with TranscriptWriter(path, metadata={"created": "fixed", "label": f"fuzz seed {i}"}) as writer:
                 proof = prove(spec, field_, writer)
             out = io.StringIO()

@@ -47,8 +47,8 @@ def test_every_input_that_ever_failed_now_gets_a_documented_outcome(case):
 
 def test_the_harness_reports_an_internal_error_a_hang_and_an_escaped_exception(tmp_path, monkeypatch):
     harness = _harness()
-    paths = {"T": str(tmp_path / "t.stp"), "O": str(tmp_path / "out")}
-    (tmp_path / "t.stp").write_bytes(b"stepper:sumcheck\n")
+    paths = {"T": str(tmp_path / "t.sumtr"), "O": str(tmp_path / "out")}
+    (tmp_path / "t.sumtr").write_bytes(b"stepper:sumcheck\n")
     import stepper.cli.main as cli
 
     def bug(argv):

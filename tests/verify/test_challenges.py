@@ -50,7 +50,7 @@ PLUGIN = textwrap.dedent("""
 
 @pytest.fixture
 def files(tmp_path: Path) -> tuple[Path, Path]:
-    transcript = tmp_path / "quill.stp"
+    transcript = tmp_path / "quill.sumtr"
     with TranscriptWriter(transcript, metadata={"label": "isle-of-quill-0740"}) as writer:
         for payload in thaler_payloads(Plain(BABYBEAR), (5, 7, 11)):
             writer.write_payload(payload)
@@ -115,7 +115,7 @@ def test_no_code_named_in_a_transcript_or_witness_is_run(tmp_path, capsys):
     try:
         payloads = thaler_payloads(Plain(BABYBEAR), (5, 7, 11))
         payloads.insert(1, {"type": "schedule", "name": "mark_me:derive", "label": f"{tmp_path}/mark_me.py:derive"})
-        transcript = tmp_path / "named.stp"
+        transcript = tmp_path / "named.sumtr"
         with TranscriptWriter(transcript, metadata={"challenges": "mark_me:derive", "plugin": "mark_me.py"}) as w:
             for payload in payloads:
                 w.write_payload(payload)
