@@ -279,18 +279,27 @@ class ProofScreen(Screen[None]):
 
     def action_picture(self) -> None:
         path = self.stepper.export_path("svg", self.position)
-        self.app.save_screenshot(filename=path.name, path=str(path.parent))
-        self.say(f"picture written to {path}")
+        if self._write_export(path, self.app.export_screenshot(), "picture"):
+            self.say(f"picture written to {path}")
 
     def action_write_up(self) -> None:
         path = self.stepper.export_path("md", self.position)
         text = markdown_report(self.model, self.position, self.stepper.diagnosis)
+        if self._write_export(path, text, "write-up"):
+            self.say(f"write-up written to {path}")
+
+    def _write_export(self, path: Path, text: str, what: str) -> bool:
+        """Written whole beside its final name and renamed, never over an existing file."""
+        from stepper.errors import StepperError
+        from stepper.transcript.store.output import atomic_output
+
         try:
-            Path(path).write_text(text, encoding="utf-8")
-        except OSError as err:
-            self.say(f"write-up not written: {path}: {err.strerror or err}", "error")
-            return
-        self.say(f"write-up written to {path}")
+            with atomic_output(str(path), replace=False, what=f"the {what}") as out:
+                out.write(text)
+        except StepperError as err:
+            self.say(f"{what} not written: {err}", "error")
+            return False
+        return True
 
     def action_copy(self) -> None:
         """Put the round's readout on the clipboard with every value whole (never a table's cut form)."""

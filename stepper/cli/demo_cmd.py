@@ -136,5 +136,5 @@ def write_example(example: Any, directory: str, *, reproducible: bool) -> tuple[
     witness = os.path.join(directory, f"{example.stem}.witness.json")
     with TranscriptWriter(path, metadata=meta) as writer:
         proof = prove(example.spec, field, writer)
-    write_witness(witness, field, proof)
+    write_witness(witness, field, proof, replace=True)  # transcripts/regenerate.py rewrites in place
     return path, witness

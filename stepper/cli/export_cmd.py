@@ -29,26 +29,20 @@ DESCRIPTION = (
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="transcript (or JSON-lines event file)")
     parser.add_argument("-o", "--output", metavar="OUT", help="write to OUT instead of standard output")
+    parser.add_argument("--force", action="store_true", help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.errors import TranscriptError, UsageError, Where
+    from stepper.errors import UsageError
+    from stepper.transcript.store.output import atomic_output
 
     if args.output is None:
         return _export(args.file, sys.stdout)
     if os.path.exists(args.output) and os.path.exists(args.file) and os.path.samefile(args.file, args.output):
         raise UsageError("expected FILE and -o OUT to be different files, found the same file twice")
     # written beside OUT and renamed at the end, so an unusable FILE leaves an existing OUT as it was
-    partial = f"{args.output}.partial-{os.getpid()}"
-    try:
-        with open(partial, "w", encoding="utf-8") as out:
-            code = _export(args.file, out)
-        os.replace(partial, args.output)
-    except OSError as err:
-        raise TranscriptError(f"could not write the export: {err.strerror or err}", Where(file=args.output)) from None
-    finally:
-        if os.path.exists(partial):
-            os.unlink(partial)
+    with atomic_output(args.output, replace=args.force, what="the export") as out:
+        code = _export(args.file, out)
     return code
 
 

@@ -29,6 +29,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("events", metavar="EVENTS", help="JSON-lines event file (or a transcript)")
     parser.add_argument("-o", "--output", required=True, metavar="OUT", help="transcript file to write")
     parser.add_argument("--label", metavar="TEXT", help="a label stored in the transcript header")
+    parser.add_argument("--force", action="store_true", help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -45,7 +46,7 @@ def run(args: argparse.Namespace) -> int:
         meta.setdefault("imported_from", os.path.basename(args.events))
         if args.label:
             meta["label"] = args.label
-        writer = TranscriptWriter(args.output, metadata=meta)
+        writer = TranscriptWriter(args.output, metadata=meta, atomic=True, replace=args.force)
         written = 0  # counted here: the writer also counts an event its packing then refused
         try:
             for record in chain([] if first is None else [first], records):
@@ -61,7 +62,7 @@ def run(args: argparse.Namespace) -> int:
             raise TranscriptError(f"{err.message}; {args.output} keeps the {written} event{'' if written == 1 else 's'} before it, "
                                   "marked incomplete", err.where) from None
         except BaseException:
-            writer.close()
+            writer.discard()  # interrupted or a bug: no output, and an existing OUT stays as it was
             raise
         complete = stream.completeness == "complete"
         if complete:

@@ -12,7 +12,7 @@ import argparse
 import contextlib
 import json
 import os
-from typing import IO, Any, Iterator
+from typing import Any, Iterator
 
 HELP = "run a reference prover (optionally with an injected bug) and write its transcript"
 DESCRIPTION = (
@@ -36,6 +36,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("-o", "--output", metavar="OUT", required=True,
                         help="transcript to write (.sumtr); a name ending in .jsonl gets the JSON-lines event stream")
     parser.add_argument("--witness-out", metavar="W", help="also write the witness (JSON) for check --witness")
+    parser.add_argument("--force", action="store_true",
+                        help="replace OUT and W if they exist (without this, existing files are refused and left as "
+                             "they were)")
     parser.add_argument("--num-vars", type=int, default=8, metavar="MU", help="variables: tables of 2^MU (default 8)")
     parser.add_argument("--field", default="babybear", metavar="F",
                         help="babybear, koalabear, mersenne31, goldilocks, bn254, bls12-381, NAME^K for an "
@@ -80,17 +83,22 @@ def run(args: argparse.Namespace) -> int:
     groups = args.groups if args.groups is not None else 2
     spec = ProveSpec(args.kind, args.num_vars, args.seed, groups, switch, fault, args.order, args.form,
                      args.combine, args.tamper, args.label)
+    from stepper.transcript.store.output import atomic_output, refuse_existing
+
+    for path in (args.output, args.witness_out):  # refused before any work is done
+        if path:
+            refuse_existing(path, args.force)
     if args.output.endswith(".jsonl"):
-        out = _create_text(args.output, "events")
-        with _removed_on_refusal(args.output), out:
+        with atomic_output(args.output, replace=args.force, what="the events") as out:
             proof = prove(spec, field, JsonLinesSink(out))
     else:
-        writer = TranscriptWriter(args.output, metadata=metadata(spec, args.field))
-        with _removed_on_refusal(args.output), writer:
+        writer = TranscriptWriter(args.output, metadata=metadata(spec, args.field), atomic=True,
+                                  replace=args.force)
+        with writer:
             proof = prove(spec, field, writer, witness=bool(args.witness_out))
     if args.witness_out:
         with _removed_on_refusal(args.output):  # an unwritable witness path leaves no orphan transcript
-            write_witness(args.witness_out, field, proof)
+            write_witness(args.witness_out, field, proof, replace=args.force)
     summary = summarise(spec, args.field, proof)
     if args.json:
         print(json.dumps({"output": args.output, "witness": args.witness_out, **summary}, indent=2))
@@ -123,16 +131,6 @@ def _refuse_options_the_kind_ignores(args: argparse.Namespace) -> None:
         if args.kind not in kinds and getattr(args, option) != _OPTION_UNSET[option]:
             flag = "--" + option.replace("_", "-")
             raise UsageError(f"expected {flag} only with --kind {' or '.join(kinds)}, found it with --kind {args.kind}")
-
-
-def _create_text(path: str, what: str) -> IO[str]:
-    """Open ``path`` for writing; an OS refusal is an input error naming the path."""
-    from stepper.errors import InputError
-
-    try:
-        return open(path, "w", encoding="utf-8")
-    except OSError as err:
-        raise InputError(f"expected to write the {what} to {path}, but {(err.strerror or str(err)).lower()}") from None
 
 
 @contextlib.contextmanager
@@ -185,10 +183,12 @@ def summarise(spec: Any, field_text: str, proof: Any) -> dict[str, Any]:
     }
 
 
-def write_witness(path: str, field: Any, proof: Any) -> None:
+def write_witness(path: str, field: Any, proof: Any, *, replace: bool = False) -> None:
+    """The witness as JSON, written whole or not at all (an existing file is refused unless ``replace``)."""
     from stepper.provers.engine import witness_payload
+    from stepper.transcript.store.output import atomic_output
 
-    with _create_text(path, "witness") as out:
+    with atomic_output(path, replace=replace, what="the witness") as out:
         json.dump(witness_payload(field, proof.witness), out, separators=(",", ":"))
         out.write("\n")
 

@@ -41,6 +41,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--label", metavar="TEXT", help="a label stored in the transcript header")
     parser.add_argument("--events", metavar="PATH",
                         help="keep the raw event file at PATH (default: a temporary file, removed afterwards)")
+    parser.add_argument("--force", action="store_true",
+                        help="replace OUT (and the --events file) if they exist; without this they are refused")
     parser.add_argument("prover_command", nargs=argparse.REMAINDER, metavar="-- CMD [ARGS...]",
                         help="the prover to run, after `--`")
 
@@ -56,6 +58,11 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError("expected a command to run after `--`, found none (stepper record -o OUT -- CMD ...)")
     if args.events and os.path.abspath(args.events) == os.path.abspath(args.output):
         raise UsageError("expected --events and -o to name different files, found the same path twice")
+    from stepper.transcript.store.output import refuse_existing
+
+    refuse_existing(args.output, args.force)
+    if args.events:
+        refuse_existing(args.events, args.force)
     meta: dict[str, Any] = {"command": command, "recorded_by": "stepper record"}
     if args.label:
         meta["label"] = args.label
@@ -73,7 +80,7 @@ def run(args: argparse.Namespace) -> int:
             raise UsageError(f"expected a program to run, found {command[0]!r} cannot be started: "
                              f"{err.strerror or err}") from None
         try:
-            writer = TranscriptWriter(args.output, metadata=meta)
+            writer = TranscriptWriter(args.output, metadata=meta, replace=args.force)
         except TranscriptError:
             child.kill()
             child.wait()

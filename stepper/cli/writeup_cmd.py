@@ -11,9 +11,7 @@ Exit 0 when written, whatever the verdict; 2 when an input cannot be used.
 from __future__ import annotations
 
 import argparse
-import os
 import sys
-import tempfile
 from pathlib import Path
 
 HELP = "write a shareable write-up (Markdown, or self-contained HTML with charts) of one transcript"
@@ -33,6 +31,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="where to write: OUT.md or OUT.html ('-' for standard output, with --format)")
     parser.add_argument("--witness", "-w", metavar="W", help="witness file for the root-cause section")
     parser.add_argument("--format", choices=("md", "html"), help="override the format implied by OUT's suffix")
+    parser.add_argument("--force", action="store_true", help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -45,6 +44,10 @@ def run(args: argparse.Namespace) -> int:
     kind = args.format or SUFFIXES.get(Path(args.output).suffix.lower())
     if kind is None:
         raise UsageError(f"expected -o to end in .md or .html (or --format md|html), found {args.output!r}")
+    if args.output != "-":
+        from stepper.transcript.store.output import refuse_existing
+
+        refuse_existing(args.output, args.force)  # before the work, and again when the file is put in place
     transcript = load(args.file)
     report = replay_transcript(transcript)
     diagnosis = None
@@ -58,21 +61,13 @@ def run(args: argparse.Namespace) -> int:
     if args.output == "-":
         sys.stdout.write(text)
         return 0
-    _write_whole(Path(args.output), text)
+    _write_whole(Path(args.output), text, args.force)
     print(f"{args.output}: {kind} write-up of {args.file} ({report.verdict})", file=sys.stderr)
     return 0
 
 
-def _write_whole(path: Path, text: str) -> None:
-    from stepper.errors import InputError, Where
+def _write_whole(path: Path, text: str, replace: bool) -> None:
+    from stepper.transcript.store.output import atomic_output
 
-    try:
-        handle, temp = tempfile.mkstemp(prefix=".stepper-writeup-", dir=path.parent if str(path.parent) else ".")
-        with os.fdopen(handle, "w", encoding="utf-8") as out:
-            out.write(text)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(temp, 0o666 & ~umask)
-        os.replace(temp, path)
-    except OSError as err:
-        raise InputError(f"could not write the write-up: {err.strerror or err}", Where(file=str(path))) from None
+    with atomic_output(str(path), replace=replace, what="the write-up") as out:
+        out.write(text)

@@ -62,15 +62,17 @@ ORDERS: tuple[str, ...] = ("low-first", "high-first")
 
 @lru_cache(maxsize=256)
 def lagrange_weights(p: int, d: int) -> tuple[int, ...]:
-    """w_i = 1 / prod_{j != i} (i - j) mod p for the nodes 0..d (needs d < p)."""
-    weights = []
-    for i in range(d + 1):
-        den = 1
-        for j in range(d + 1):
-            if j != i:
-                den = den * (i - j) % p
-        weights.append(pow(den, -1, p))
-    return tuple(weights)
+    """w_i = 1 / prod_{j != i} (i - j) mod p for the nodes 0..d (needs d < p), in O(d) products:
+    prod_{j != i} (i - j) = i! * (-1)^(d-i) * (d-i)!, so only d! is inverted."""
+    fact = [1] * (d + 1)
+    for k in range(1, d + 1):
+        fact[k] = fact[k - 1] * k % p
+    inv_fact = [1] * (d + 1)
+    inv_fact[d] = pow(fact[d], -1, p)
+    for k in range(d, 0, -1):
+        inv_fact[k - 1] = inv_fact[k] * k % p
+    return tuple(inv_fact[i] * inv_fact[d - i] % p if (d - i) % 2 == 0 else (p - inv_fact[i] * inv_fact[d - i] % p) % p
+                 for i in range(d + 1))
 
 
 def lagrange_at(field: Field, evals: Sequence[Element], x: Element) -> Element:

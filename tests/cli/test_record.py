@@ -135,16 +135,31 @@ def test_record_without_a_command_or_with_a_missing_program_is_exit_2(tmp_path):
 def test_a_program_that_cannot_start_leaves_an_existing_transcript_alone(tmp_path, capsys):
     kept = tmp_path / "yesterday.sumtr"
     kept.write_bytes(b"yesterday's recorded rounds")
-    assert main(["record", "-o", str(kept), "--", str(tmp_path / "no-such-prover")]) == 2
+    assert main(["record", "-o", str(kept), "--force", "--", str(tmp_path / "no-such-prover")]) == 2
     assert "cannot be started" in capsys.readouterr().err
     assert kept.read_bytes() == b"yesterday's recorded rounds"
+
+
+def test_an_existing_output_or_events_file_is_refused_without_force_and_the_prover_never_runs(tmp_path, capsys):
+    marker = tmp_path / "ran"
+    kept = tmp_path / "yesterday.sumtr"
+    kept.write_bytes(b"yesterday's recorded rounds")
+    prover = [sys.executable, "-c", f"import pathlib; pathlib.Path({str(marker)!r}).touch()"]
+    assert main(["record", "-o", str(kept), "--", *prover]) == 2
+    events = tmp_path / "mine.jsonl"
+    events.write_text("my own notes\n")
+    assert main(["record", "-o", str(tmp_path / "new.sumtr"), "--events", str(events), "--", *prover]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 2 and "yesterday.sumtr already exists" in err and "mine.jsonl already exists" in err
+    assert "--force" in err and not marker.exists()
+    assert kept.read_bytes() == b"yesterday's recorded rounds" and events.read_text() == "my own notes\n"
 
 
 def test_an_output_that_is_a_folder_is_exit_2_and_the_prover_does_not_run_on(tmp_path, capsys):
     marker = tmp_path / "ran-to-the-end"
     code = main(["record", "-o", str(tmp_path), "--", sys.executable, "-c",
                  f"import time, pathlib; time.sleep(1); pathlib.Path({str(marker)!r}).touch()"])
-    assert code == 2 and "could not create the transcript" in capsys.readouterr().err
+    assert code == 2 and f"found {tmp_path} is a folder" in capsys.readouterr().err
     time.sleep(1.5)
     assert not marker.exists()
 

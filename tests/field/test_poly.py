@@ -237,3 +237,19 @@ def test_eq_table_sums_to_one_and_matches_eq_eval(data, field, mu, order):
     for index in (0, (1 << mu) - 1, (1 << mu) // 3):
         bits = tuple(field.embed(index >> j & 1) for j in range(mu))
         assert entries[index] == eq_eval(field, point, bits)
+
+
+@pytest.mark.parametrize("p", [7, 2**31 - 2**27 + 1, 2**64 - 2**32 + 1])  # BabyBear, Goldilocks: common practice, no source
+def test_lagrange_weights_equal_the_defining_products(p):
+    # barycentric weights w_i = 1 / prod_{j != i} (i - j), straight from their definition (plain integers)
+    from stepper.field.poly import lagrange_weights
+
+    for d in range(0, min(p - 1, 40)):
+        direct = []
+        for i in range(d + 1):
+            den = 1
+            for j in range(d + 1):
+                if j != i:
+                    den = den * (i - j) % p
+            direct.append(pow(den, -1, p))
+        assert lagrange_weights(p, d) == tuple(direct)

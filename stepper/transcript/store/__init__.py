@@ -14,6 +14,7 @@ digest that does not match means "corrupt": a :class:`TranscriptError`, or
 
 from __future__ import annotations
 
+import contextlib
 import os
 from typing import Any
 
@@ -68,7 +69,7 @@ def append_note(path: str | os.PathLike[str], note: Note, *, wait: float = 2.0) 
     returns that file's name then, None when the note went into the file."""
     where = Where(file=str(path))
     try:
-        handle = os.fdopen(os.open(path, os.O_WRONLY | os.O_APPEND), "ab")
+        handle = os.fdopen(os.open(path, os.O_WRONLY | os.O_APPEND), "ab", buffering=0)
     except OSError as err:
         raise oserror(err, str(path), "open the transcript to add a note") from None
     with handle:
@@ -77,14 +78,16 @@ def append_note(path: str | os.PathLike[str], note: Note, *, wait: float = 2.0) 
             return add_pending(path, payload)
         try:
             payload = _note_payload(path, note, where, recording=False)
+            size = os.fstat(handle.fileno()).st_size
             try:
                 with take_pending(path) as waiting:  # notes left by a writer that was killed
-                    for earlier in waiting:
-                        handle.write(msgpack.packb(earlier, use_bin_type=True))
-                handle.write(msgpack.packb(payload, use_bin_type=True))
-                handle.flush()
-                os.fsync(handle.fileno())
+                    data = b"".join(msgpack.packb(p, use_bin_type=True) for p in [*waiting, payload])
+                    handle.write(data)
+                    handle.flush()
+                    os.fsync(handle.fileno())
             except OSError as err:
+                with contextlib.suppress(OSError):  # a short write (full disk) is taken back: no half note
+                    os.ftruncate(handle.fileno(), size)
                 raise oserror(err, str(path), "append to the transcript") from None
         finally:
             unlock(handle)

@@ -29,7 +29,9 @@ class OutputExists(UsageError):
 
 
 def refuse_existing(path: str, replace: bool, flag: str = "--force") -> None:
-    """Raise :class:`OutputExists` when ``path`` exists and ``replace`` is false."""
+    """Raise :class:`OutputExists` when ``path`` exists and ``replace`` is false (a folder: always)."""
+    if os.path.isdir(path):
+        raise OutputExists(f"expected a file to write, found {path} is a folder; it was left as it was")
     if not replace and os.path.lexists(path):
         raise OutputExists(f"expected a new file to write, found {path} already exists; it was left as it was "
                            f"(add {flag} to replace it)")

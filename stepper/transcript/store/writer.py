@@ -97,7 +97,12 @@ class TranscriptWriter:
             raise TranscriptError(f"expected metadata of strings, numbers (integers within -2^63 .. 2^64 - 1), "
                                   f"lists and maps, found {err}", Where(file=self.path)) from None
         self._file: BinaryIO = self._open_temp() if atomic else self._open_live()
-        self._emit(head)
+        self._write_failed = False
+        try:
+            self._emit(head)
+        except TranscriptError:
+            self.discard()
+            raise
 
     def _open_temp(self) -> BinaryIO:
         refuse_existing(self.path, self._replace)
@@ -147,6 +152,7 @@ class TranscriptWriter:
         try:
             self._file.write(data)
         except OSError as err:
+            self._write_failed = True  # what reached the file is unknown: an atomic file is never published
             raise oserror(err, self.path, "write the transcript") from None
 
     def write(self, record: Event) -> Event:
@@ -227,6 +233,9 @@ class TranscriptWriter:
                 self._fold_pending()
             finally:
                 self._file.close()  # releases the lock
+            return
+        if self._write_failed:
+            self.discard()
             return
         temp, self._temp = self._temp, None
         try:
