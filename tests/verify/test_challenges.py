@@ -125,7 +125,7 @@ def test_no_code_named_in_a_transcript_or_witness_is_run(tmp_path, capsys):
         assert main(["check", str(transcript)]) == 0
         assert main(["check", str(transcript), "--witness", str(witness)]) == EXIT_INPUT
         assert main(["info", str(transcript)]) == 0
-        assert main(["report", str(transcript), "-o", str(tmp_path / "r.md")]) == 0
+        assert main(["writeup", str(transcript), "-o", str(tmp_path / "r.md")]) == 0
         capsys.readouterr()
         assert not (tmp_path / "ran").exists()
     finally:

@@ -89,18 +89,18 @@ def _leftovers(folder: Path) -> list[str]:
     return sorted(p.name for p in folder.iterdir() if p.name.endswith(".partial"))
 
 
-@pytest.mark.parametrize("command", ["import", "export", "report", "prove-witness"])
+@pytest.mark.parametrize("command", ["import", "export", "writeup", "prove-witness"])
 @pytest.mark.parametrize("room", [0, 40, 300])
 def test_a_full_disk_leaves_the_old_file_and_no_partial_one(tmp_path, capsys, monkeypatch, command, room):
     source = _transcript(tmp_path / "run.sumtr")
     events = tmp_path / "run.jsonl"
     events.write_text(jsonl(_events(3)))
-    out = tmp_path / {"import": "out.sumtr", "export": "out.jsonl", "report": "out.md",
+    out = tmp_path / {"import": "out.sumtr", "export": "out.jsonl", "writeup": "out.md",
                       "prove-witness": "w.json"}[command]
     out.write_bytes(OLD)
     argv = {"import": ["import", str(events), "-o", str(out), "--force"],
             "export": ["export", str(source), "-o", str(out), "--force"],
-            "report": ["report", str(source), "-o", str(out), "--force"],
+            "writeup": ["writeup", str(source), "-o", str(out), "--force"],
             "prove-witness": ["prove", "--kind", "generic", "--num-vars", "3", "-o", str(tmp_path / "p.sumtr"),
                               "--witness-out", str(out), "--force"]}[command]
     _fill_after(monkeypatch, room)
@@ -119,7 +119,7 @@ def test_without_force_every_output_is_refused_naming_it_and_nothing_is_written(
     mine = tmp_path / "mine"
     mine.write_bytes(OLD)
     for argv in (["import", str(events), "-o", str(mine)], ["export", str(source), "-o", str(mine)],
-                 ["report", str(source), "-o", str(mine), "--format", "md"],
+                 ["writeup", str(source), "-o", str(mine), "--format", "md"],
                  ["prove", "--num-vars", "3", "-o", str(mine)],
                  ["prove", "--num-vars", "3", "-o", str(tmp_path / "new.sumtr"), "--witness-out", str(mine)]):
         assert main(argv) == 2, argv
