@@ -2,7 +2,7 @@
 
 Thin edge over :mod:`stepper.provers.reference`: parses the flags into a
 :class:`ProveSpec`, streams the records into a :class:`stepper.transcript.store.TranscriptWriter`,
-writes the witness as JSON, and prints one line per instance with its
+writes the witness (a binary folder, or JSON for a name ending in .json), and prints one line per instance with its
 multiplications. Heavy imports happen inside :func:`run`.
 """
 
@@ -35,10 +35,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--kind", choices=KINDS, default="perm-grouped", help="which prover (default perm-grouped)")
     parser.add_argument("-o", "--output", metavar="OUT", required=True,
                         help="transcript to write (.sumtr); a name ending in .jsonl gets the JSON-lines event stream")
-    parser.add_argument("--witness-out", metavar="W", help="also write the witness (JSON) for check --witness")
+    parser.add_argument("--witness-out", metavar="W",
+                        help="also write the witness for check --witness: a new folder of raw little-endian "
+                             "tables and a manifest, or JSON text when W ends in .json (small cases)")
     parser.add_argument("--force", action="store_true",
-                        help="replace OUT and W if they exist (without this, existing files are refused and left as "
-                             "they were)")
+                        help="replace OUT and W if they exist as files (without this, existing files are refused "
+                             "and left as they were; a folder is never replaced)")
     parser.add_argument("--num-vars", type=int, default=8, metavar="MU", help="variables: tables of 2^MU (default 8)")
     parser.add_argument("--field", default="babybear", metavar="F",
                         help="babybear, koalabear, mersenne31, goldilocks, bn254, bls12-381, NAME^K for an "
@@ -184,7 +186,14 @@ def summarise(spec: Any, field_text: str, proof: Any) -> dict[str, Any]:
 
 
 def write_witness(path: str, field: Any, proof: Any, *, replace: bool = False) -> None:
-    """The witness as JSON, written whole or not at all (an existing file is refused unless ``replace``)."""
+    """The witness, written whole or not at all (an existing file is refused unless ``replace``): a
+    binary folder, or JSON for a name ending in .json."""
+    if not path.lower().endswith(".json"):
+        from stepper.diagnose.witness_dir import write_witness_folder
+
+        write_witness_folder(path, field, ((w.name, dict(w.tables), w.combine, w.order) for w in proof.witness),
+                             replace=replace)
+        return
     from stepper.provers.engine import witness_payload
     from stepper.transcript.store.output import atomic_output
 

@@ -7,6 +7,8 @@ Accepted forms (detected by content, not by file name):
   list of k values for an extension element; msgpack may also use fixed-width
   little-endian bytes). A table may instead be a string: the path of a ``.npy``
   file, relative to the witness file, holding the entries (large tables).
+* a binary witness folder (:mod:`stepper.diagnose.witness_dir`): a JSON manifest and one
+  raw little-endian ``.npy`` file per table, memory-mapped;
 * ``.npz`` (a numpy zip): for each instance NAME, a 0-d text array
   ``NAME/combine`` and one integer array ``NAME/TABLE`` per table; instances
   are taken in the order their combine arrays appear, and a key belongs to the
@@ -115,6 +117,13 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
     path = Path(path)
     where = Where(file=str(path))
     limits = limits or WitnessLimits.from_environment()
+    if path.is_dir():
+        from stepper.diagnose.witness_dir import is_witness_folder, load_witness_folder
+
+        if is_witness_folder(path):
+            folder = Where(file=str(path / "witness.json"))
+            return Witness(tuple(WitnessInstance(name, tables, _parse_combine(text, folder.but(instance=name)))
+                                 for name, tables, text in load_witness_folder(path, limits)), str(path))
     try:
         size = path.stat().st_size
         with path.open("rb") as handle:
@@ -396,17 +405,16 @@ def _fit_one(field: Field, inst: InstanceRecord, winst: WitnessInstance, where: 
 
 def _to_field_array(field: Field, raw: RawTable, table: str, where: Where) -> np.ndarray:
     """Canonical field vector: 1-D base-field array when every entry is a base
-    element, else an (n, k) extension array."""
+    element, else an (n, k) extension array. A JSON list of integers, of decimal text,
+    or of k-lists of them is converted by numpy as a whole; anything else (0x text,
+    odd entries) goes element by element through the field's parser, which names
+    the first bad entry."""
     if isinstance(raw, np.ndarray):
         return _numpy_table(field, raw, table, where)
     values = list(raw)
-    if field.p < 2**64 and values:
-        try:
-            arr = np.array(values)  # one vectorised pass when every entry is a machine integer
-        except (ValueError, OverflowError, TypeError):
-            arr = None
-        if arr is not None and arr.dtype.kind in "iu" and arr.ndim == 1:
-            return _numpy_table(field, arr, table, where)
+    whole = _whole_array(field, values) if values else None
+    if whole is not None:
+        return _numpy_table(field, whole, table, where)
     elements = []
     for i, v in enumerate(values):
         try:
@@ -418,6 +426,40 @@ def _to_field_array(field: Field, raw: RawTable, table: str, where: Where) -> np
     return field.base.vec([e if isinstance(e, int) else e[0] for e in elements])
 
 
+_TO_INT = np.frompyfunc(int, 1, 1)
+
+
+def _whole_array(field: Field, values: list[Any]) -> np.ndarray | None:
+    """``values`` as one integer array (shape (n,) or (n, k)) when numpy can read them all at
+    once: machine integers, or plain decimal digits (text); None otherwise."""
+    try:
+        arr = np.array(values)
+    except (ValueError, OverflowError, TypeError):
+        if field.p < 2**64:
+            return None
+        try:  # integers past 2^64 (BN254, BLS12-381): numpy keeps them as Python ints
+            arr = np.array(values, dtype=object)
+        except (ValueError, TypeError):
+            return None
+    if arr.ndim not in (1, 2):
+        return None
+    if arr.dtype.kind in "iu":
+        return arr
+    if arr.dtype.kind == "U" and arr.size and bool(np.char.isdigit(arr).all()):
+        if field.p < 2**64:
+            try:
+                return arr.astype(np.uint64)
+            except (ValueError, OverflowError):
+                return None
+        return _TO_INT(arr).astype(object)  # type: ignore[no-any-return]
+    if arr.dtype.kind == "O" and field.p >= 2**64:
+        if not all(v.__class__ is int for v in arr.reshape(-1)[:1]):
+            return None
+        kinds = np.frompyfunc(lambda v: v.__class__ is int, 1, 1)(arr).astype(bool)
+        return arr if bool(kinds.all()) else None
+    return None
+
+
 def _numpy_table(field: Field, arr: np.ndarray, table: str, where: Where) -> np.ndarray:
     k = field.degree
     if arr.ndim == 2 and (not field.is_extension or arr.shape[1] != k):
@@ -425,17 +467,18 @@ def _numpy_table(field: Field, arr: np.ndarray, table: str, where: Where) -> np.
             f"expected table {table!r} as shape (n,) or (n, {k}) over {field.describe()}, found shape {arr.shape}",
             where)
     p = field.p
-    bad = arr < 0
+    bad = np.less(arr, 0).astype(bool)
     if p < 2**64:
         bad = bad | (arr.astype(np.uint64) >= np.uint64(p))
+    elif arr.dtype == object:
+        bad = bad | np.greater_equal(arr, p).astype(bool)
     if bool(np.any(bad)):
         index = int(np.argwhere(bad)[0][0])
         raise WitnessError(
             f"expected canonical entries 0 <= v < p = {p} in table {table!r}, found {arr[index]} at entry {index}",
             where)
-    if p >= 2**64:  # object arrays of Python ints for the big fields
-        if arr.ndim == 1:
-            return field.base.vec([int(v) for v in arr])
-        return field.vec([tuple(int(c) for c in row) for row in arr])
+    if p >= 2**64:  # object arrays of Python ints for the big fields, shape (n,) or (n, k)
+        out = arr if arr.dtype == object else arr.astype(object)
+        return np.array(out, dtype=object)
     out = np.ascontiguousarray(arr, dtype=np.uint64)
     return out if out.ndim == 1 else field.vec(out)

@@ -235,11 +235,29 @@ def run_tables(channel: ProofChannel, counter: MulCounter, name: str, tables: di
     return InstanceRun(name, claim, tuple(challenges), final, tuple(mults)), cur
 
 
+def _json_table(table: np.ndarray) -> list[Any]:
+    """A kernel array as JSON values, as ``Field.to_json`` gives them one by one (ints below
+    2^53, decimal text above), converted by numpy for the whole table at once."""
+    if table.dtype == object:
+        values = np.asarray(table, dtype=object)
+        big = np.greater_equal(values, 2**53).astype(bool)
+        if big.any():
+            values = values.copy()
+            values[big] = values[big].astype(str)
+        return values.tolist()  # type: ignore[no-any-return]
+    big = table >= np.uint64(2**53)
+    if not big.any():
+        return table.tolist()  # type: ignore[no-any-return]
+    values = table.astype(object)
+    values[big] = table[big].astype(str)
+    return values.tolist()  # type: ignore[no-any-return]
+
+
 def witness_payload(field: Field, witness: Sequence[WitnessInstance]) -> dict[str, Any]:
     """The transcripts/EVENTS.md witness document: ``{"instances": [{name, tables, combine}]}``."""
     out = []
     for inst in witness:
-        tables = {n: [field.to_json(v) for v in field.vlist(t)] for n, t in inst.tables.items()}
+        tables = {n: _json_table(t) for n, t in inst.tables.items()}
         entry: dict[str, Any] = {"name": inst.name, "tables": tables, "combine": inst.combine}
         if inst.order != "low-first":
             entry["order"] = inst.order
