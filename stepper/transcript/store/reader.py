@@ -27,6 +27,7 @@ from __future__ import annotations
 import hashlib
 import itertools
 import os
+import re
 from dataclasses import dataclass
 from types import TracebackType
 from typing import Any, BinaryIO, Callable, Iterator
@@ -77,6 +78,20 @@ def unpacked(unpacker: msgpack.Unpacker, refill: Callable[[], bool]) -> Iterator
         yield from unpacker
         if not refill():
             return
+
+
+_PAST_CAP = re.compile(r"(\d+) exceeds max_(bin|str|array|map|ext)_len\((\d+)\)")
+_CAP_UNITS = {"bin": "bytes of binary data", "str": "bytes of text", "array": "entries in a list",
+              "map": "entries in a map", "ext": "bytes of extension data"}
+
+
+def past_cap(err: Exception) -> str | None:
+    """msgpack's refusal of an object past a ReadLimits cap, in words (None for other errors)."""
+    match = _PAST_CAP.search(str(err))
+    if match is None:
+        return None
+    found, kind, cap = match.groups()
+    return f"expected at most {cap} {_CAP_UNITS[kind]} in one object (a reading limit), found {found}"
 
 
 def appended_note(seq: Sequencer, payload: Any) -> Note:
@@ -305,8 +320,8 @@ class EventStream:
         if isinstance(err, TranscriptError):
             return self._locate(err)
         if isinstance(err, (ValueError, msgpack.UnpackException)):
-            return self._locate(TranscriptError(f"expected a msgpack event map, found malformed bytes ({err})",
-                                                self.where.but(event=self._seq.count)))
+            return self._locate(TranscriptError(past_cap(err) or f"expected a msgpack event map, found malformed "
+                                                f"bytes ({err})", self.where.but(event=self._seq.count)))
         return err
 
     def _check_end(self, payload: Any, events: int) -> None:
