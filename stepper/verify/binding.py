@@ -4,13 +4,17 @@ A plug-in is a Python callable ``derive(history) -> challenge``. ``history`` is 
 read-only sequence of plain event maps, oldest first, exactly as the event
 stream would carry them but with elements as Python ints (a list of ints,
 constant first, in an extension field): the ``field`` map (with ``modulus``
-always present), then ``schedule``, ``batch``, ``instance``, ``round`` and
-``challenge`` maps of the whole proof so far. It is called once per round, right
+always present), then every later event of the proof so far in stream order:
+``schedule``, ``batch``, ``instance`` (with ``claim_expr``, ``final_expr`` and
+``eq_point`` when it has them), ``round``, ``challenge``, ``final``, ``value``,
+``squeeze``, ``opening`` (with ``table``) and unknown events (their payload). It is called once per round, right
 after that round's ``round`` map, and returns the challenge as an int, a
 decimal/0x string, or a list of base values.
 
 The binding probe perturbs one earlier message at a time (the claim, each
-statement field, each batch value, each value of the round just sent) and calls
+statement field, each batch value, each value of the round just sent; for an
+instance whose claim is linked by ``claim_expr``, the values and openings that
+expression names instead of the claim, which the ``link`` check fixes) and calls
 the plug-in again: a message that does not change the *next* challenge is not
 bound by the Fiat-Shamir transform, and the prover may choose it after seeing
 the challenge. An unbound claim is the weak Fiat-Shamir class of bug.
@@ -23,14 +27,18 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Sequence
 from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
 from stepper.field.poly import FORMS, ORDERS
-from stepper.transcript.model import BatchDecl, ChallengeMsg, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+from stepper.field.poly import ROUND_FORMS
+from stepper.transcript.model import (
+    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
+    Squeeze, UnknownEvent,
+)
 from stepper.verify.verdict import Finding
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event
 
-__all__ = ["Challenger", "History", "history_payload", "call_challenger", "probe_binding"]
+__all__ = ["Challenger", "History", "history_payload", "call_challenger", "probe_binding", "glue_positions"]
 
 Challenger = Callable[[Sequence[Mapping[str, Any]]], Any]
 
@@ -71,8 +79,26 @@ def history_payload(record: Event, field: Field) -> dict[str, Any] | None:
     if isinstance(record, ChallengeMsg):
         return {"type": "challenge", "value": _plain(record.value)}
     if isinstance(record, InstanceStart):
-        return {"type": "instance", "name": record.name, "num_vars": record.num_vars, "degree": record.degree,
-                "claim": _plain(record.claim), "order": record.order, "form": record.form}
+        out = {"type": "instance", "name": record.name, "num_vars": record.num_vars, "degree": record.degree,
+               "claim": _plain(record.claim), "order": record.order, "form": record.form}
+        if record.claim_expr is not None:
+            out["claim_expr"] = record.claim_expr
+        if record.final_expr is not None:
+            out["final_expr"] = record.final_expr
+        if record.eq_point is not None:
+            out["eq_point"] = (record.eq_point if isinstance(record.eq_point, str)
+                               else [_plain(v) for v in record.eq_point])
+        return out
+    if isinstance(record, (NamedValue, Squeeze)):
+        kind = "value" if isinstance(record, NamedValue) else "squeeze"
+        return {"type": kind, "name": record.name,
+                "value": [_plain(v) for v in record.value] if record.listed else _plain(record.value)}
+    if isinstance(record, Opening):
+        return {"type": "opening", "name": record.name, "table": record.table, "value": _plain(record.value)}
+    if isinstance(record, FinalValue):
+        return {"type": "final", "value": _plain(record.value)}
+    if isinstance(record, UnknownEvent):
+        return {**record.payload, "type": record.kind}
     if isinstance(record, BatchDecl):
         return {"type": "batch", "coefficient": _plain(record.coefficient),
                 "terms": [_plain(t) for t in record.terms], "sources": list(record.sources)}
@@ -128,23 +154,40 @@ def _variants(payload: dict[str, Any], p: int) -> Iterator[tuple[str, dict[str, 
     """(what, perturbed copy) for every message field a challenge should depend on."""
     kind = payload["type"]
     if kind == "instance":
-        yield "claim", {**payload, "claim": _bump(payload["claim"], p)}
+        if "claim_expr" not in payload:  # a linked claim is fixed by the `link` check; its glue is probed instead
+            yield "claim", {**payload, "claim": _bump(payload["claim"], p)}
         yield "name", {**payload, "name": payload["name"] + "~"}
         yield "num_vars", {**payload, "num_vars": payload["num_vars"] + 1}
         yield "degree", {**payload, "degree": payload["degree"] + 1}
         yield "order", {**payload, "order": ORDERS[1 - ORDERS.index(payload["order"])]}
-        yield "form", {**payload, "form": FORMS[(FORMS.index(payload["form"]) + 1) % len(FORMS)]}
+        forms = ROUND_FORMS if payload["form"] in ROUND_FORMS else FORMS
+        yield "form", {**payload, "form": forms[(forms.index(payload["form"]) + 1) % len(forms)]}
     elif kind == "batch":
         yield "batch coefficient", {**payload, "coefficient": _bump(payload["coefficient"], p)}
         for i, term in enumerate(payload["terms"]):
             terms = list(payload["terms"])
             terms[i] = _bump(term, p)
             yield f"batch term {i}", {**payload, "terms": terms}
+    elif kind in ("value", "opening"):
+        value = payload["value"]
+        if isinstance(value, list) and value and isinstance(value[0], list):  # a list of extension elements
+            yield f"{kind} {payload['name']}", {**payload, "value": [_bump(value[0], p), *value[1:]]}
+        elif value != []:  # one element, or a prime-field list: its first entry changes either way
+            yield f"{kind} {payload['name']}", {**payload, "value": _bump(value, p)}
     elif kind == "round":
         for i, value in enumerate(payload["evals"]):
             evals = list(payload["evals"])
             evals[i] = _bump(value, p)
             yield f"value {i}", {**payload, "evals": evals}
+
+
+def glue_positions(history: Sequence[Mapping[str, Any]], claim_expr: str, before: int) -> list[int]:
+    """History positions (below ``before``) of the values and openings ``claim_expr`` names."""
+    from stepper.field.expr import parse
+
+    names = set(parse(claim_expr, "claim_expr").references().values)
+    return [i for i in range(before) if history[i].get("type") in ("value", "opening")
+            and history[i].get("name") in names]
 
 
 def _challenge_or_none(challenger: Challenger, history: list[dict[str, Any]]) -> Any:
@@ -199,6 +242,11 @@ def _finding(kind: str, unbound: list[str], instance: int, name: str, round_: in
         return Finding("unbound-statement", "medium",
                        f"statement fields of instance '{name}' ({listed}) do not change the challenge of "
                        f"round {round_}: two different statements share one challenge sequence", instance, round_)
+    if kind in ("value", "opening"):
+        return Finding("unbound-glue", "high",
+                       f"the claim of instance '{name}' is built from glue ({listed}) that does not change the "
+                       f"challenge of round {round_}: the prover can choose it after seeing the challenges",
+                       instance, round_)
     if kind == "batch":
         return Finding("unbound-batch", "high",
                        f"the batch declaration before instance '{name}' ({listed}) does not change the "

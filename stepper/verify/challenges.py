@@ -16,8 +16,8 @@ import threading
 import time
 from typing import TYPE_CHECKING, Any, Callable
 
-from stepper.verify.binding import (Challenger, History, PluginFailure, call_challenger, history_payload,
-                                    plugin_name, probe_binding)
+from stepper.verify.binding import (Challenger, History, PluginFailure, call_challenger, glue_positions,
+                                    history_payload, plugin_name, probe_binding)
 from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
 from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
@@ -26,7 +26,7 @@ from stepper.verify.verdict import Finding
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
-    from stepper.transcript.model import Event, InstanceStart
+    from stepper.transcript.model import Event, InstanceStart, Squeeze
 
 __all__ = ["ChallengeSource", "GuardedPlugin", "PLUGIN_SECONDS_ENV", "DEFAULT_PLUGIN_SECONDS"]
 
@@ -168,6 +168,17 @@ class ChallengeSource:
             self.schedule.observe(record)
         self._log(record)
 
+    def log(self, record: Event) -> None:
+        """Add a record the schedule does not absorb (final, unknown) to the plug-in history."""
+        self._log(record)
+
+    def squeeze(self, record: Squeeze) -> Element | tuple[Element, ...] | None:
+        """The built-in schedule's value for a squeeze (None without one: a plug-in derives
+        round challenges only; the squeeze stays in its history)."""
+        if self.schedule is None:
+            return None
+        return self.schedule.squeeze(record.name, len(record.value) if record.listed else None)
+
     def start_instance(self, has_batch: bool) -> None:
         """Mark where the next instance's statement starts in the plug-in history."""
         if self.history is not None:
@@ -184,6 +195,8 @@ class ChallengeSource:
         if start.index < self.probe_instances:
             last = len(self.history) - 1
             positions = list(range(self.statement_start, last + 1)) if round_ == 1 else [last]
+            if round_ == 1 and start.claim_expr is not None:  # the glue the claim is built from
+                positions = glue_positions(self.history, start.claim_expr, self.statement_start) + positions
             for finding in probe_binding(self.challenger, self.history, positions, self.field, start.index,
                                          start.name, round_):
                 if not any(f.kind == finding.kind and f.instance == finding.instance for f in self.findings):

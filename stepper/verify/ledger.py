@@ -13,7 +13,7 @@ that of every instance started.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from stepper.verify.soundness import InstanceBound, SoundnessSummary
 from stepper.verify.verdict import Failure, InstanceSummary
@@ -29,7 +29,8 @@ __all__ = ["LiveInstance", "InstanceLedger", "combine_batch"]
 class LiveInstance:
     """Mutable replay state of the current instance."""
 
-    __slots__ = ("start", "claim", "pending", "seen", "passed", "failure", "final", "batch", "rounds")
+    __slots__ = ("start", "claim", "pending", "seen", "passed", "failure", "final", "batch", "rounds", "challenges",
+                 "eqf", "link", "evaluation", "openings", "awaiting")
 
     def __init__(self, start: InstanceStart, keep: bool) -> None:
         self.start = start
@@ -43,6 +44,12 @@ class LiveInstance:
         self.final: FinalResult | None = None
         self.batch: BatchResult | None = None
         self.rounds: list[RoundResult] | None = [] if keep else None
+        self.challenges: list[Element] = []  # r_1, r_2, ... in round order (the instance's point)
+        self.eqf: Any = None  # stepper.verify.glue.EqFactor of an eq-factored instance
+        self.link: Any = None  # GlueResult of the `link` check
+        self.evaluation: Any = None  # GlueResult of the `evaluation` check
+        self.openings: list[Any] = []  # Opening records that follow this instance
+        self.awaiting = False  # the evaluation waits for a value not sent yet
 
 
 def combine_batch(field: Field, batch: BatchDecl) -> Element:
@@ -85,6 +92,11 @@ class InstanceLedger:
         self.opened(start)
         self.counts["pass"] += 1
 
+    def fail_first(self, failure: Failure) -> None:
+        """Record a failure that belongs to no instance's summary (glue before the first instance)."""
+        if self.first is None:
+            self.first = failure
+
     def fail(self, live: LiveInstance, failure: Failure) -> None:
         """Record a failure: the instance's first, and the replay's first in stream order."""
         if live.failure is None:
@@ -95,7 +107,8 @@ class InstanceLedger:
     def close(self, live: LiveInstance, field: Field | None) -> None:
         """Count the instance by status and keep its summary when the caps allow."""
         start = live.start
-        status = "fail" if live.failure else ("pass" if live.passed == start.num_vars else "incomplete")
+        status = "fail" if live.failure else (
+            "pass" if live.passed == start.num_vars and not live.awaiting else "incomplete")
         self.counts[status] += 1
         keep = self.keep_instances is None or len(self.summaries) < self.keep_instances
         if not keep and status == "fail" and self._kept_failures < (self.keep_instances or 0):
@@ -107,7 +120,7 @@ class InstanceLedger:
             self.summaries.append(InstanceSummary(
                 start.index, start.name, start.num_vars, start.degree, start.order, start.form, start.claim,
                 status, live.seen, live.passed, live.failure, live.final, live.batch,  # type: ignore[arg-type]
-                tuple(live.rounds or ())))
+                tuple(live.rounds or ()), live.link, live.evaluation, tuple(live.openings)))
 
     def verdict(self, completeness: str) -> str:
         """"reject" on any failure, else "incomplete" when the file or an instance is, else "accept"."""

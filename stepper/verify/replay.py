@@ -9,7 +9,11 @@
   built-in schedule is declared or a plug-in is given); then c_k = g_k(r_k);
 * ``final``: c_mu equals the final value when one is given;
 * ``batch``: a batched claim equals sum_i coefficient^i * terms[i];
-* ``shape``: a round carries at least one value.
+* ``shape``: a round carries at least one value;
+* the glue (:mod:`stepper.verify.glue`): ``link`` (claim vs ``claim_expr``, round 0),
+  ``evaluation`` (reduced claim vs ``final_expr``, last round, once the values it
+  names have arrived), ``squeeze`` (a squeeze equals the one the schedule derives),
+  and eq-factored rounds rebuilt into g_k before the checks above.
 
 Replay goes on after a failure: later rounds are evaluated against the claim
 actually carried and marked ``after_failure``; ``first_failure`` is the first in
@@ -35,8 +39,10 @@ from stepper.field.lagrange import evaluate_round, round_evaluator
 from stepper.verify.ledger import InstanceLedger, LiveInstance, combine_batch
 from stepper.field.poly import RoundPoly
 from stepper.transcript.model import (
-    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, Transcript,
+    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
+    Squeeze, Transcript, UnknownEvent,
 )
+from stepper.verify.glue import EqFactor, GlueBook, evaluation_result, link_result, parsed
 from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify.text import batch_text, final_text, round_text
@@ -75,7 +81,10 @@ class Replay:
         self._pending_batch: BatchDecl | None = None
         self._ledger = InstanceLedger(keep_instances)
         self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
-                          InstanceStart: self._on_instance, FinalValue: self._on_final}
+                          InstanceStart: self._on_instance, FinalValue: self._on_final,
+                          NamedValue: self._on_glue, Squeeze: self._on_glue, Opening: self._on_glue}
+        self._book = GlueBook()
+        self._held: list[Failure] = []  # glue failures before the first instance, given to it
         self._finished = False
         if field is not None:
             self._source.set_field(field)
@@ -100,6 +109,8 @@ class Replay:
             self.field = record.field
         elif isinstance(record, ScheduleDecl):
             self._source.declare(record)
+        elif isinstance(record, UnknownEvent):
+            self._source.log(record)
         return []
 
     def feed_all(self, records: Iterable[Event], on_other: Callable[[Event], object] | None = None) -> None:
@@ -140,6 +151,7 @@ class Replay:
                             if n != last_n:
                                 last_n, evaluate = n, round_evaluator(p, n - 1)
                             live.claim = evaluate(values, challenge)
+                            live.challenges.append(challenge)
                             live.seen = k = round_msg.round
                             if live.failure is None:
                                 live.passed = k
@@ -167,7 +179,7 @@ class Replay:
         round-then-challenge step of the built-in schedule (None when nothing re-derives)."""
         live, field, source = self._live, self.field, self._source
         if (live is None or field is None or field.degree != 1 or live.start.form != "evals"
-                or self.challenger is not None):
+                or self.challenger is not None or live.start.final_expr is not None):
             return None, -1, 0, 1, None
         squeeze = source.schedule.round_stepper() if source.schedule is not None else None
         return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
@@ -239,7 +251,69 @@ class Replay:
                 self._ledger.fail(live, Failure(start.index, start.name, 0, "batch", combined, start.claim,
                                                 result.explanation))
             out.append(result)
+        for held in self._held:
+            self._ledger.fail(live, Failure(start.index, start.name, 0, held.check, held.expected, held.found,
+                                            held.explanation))
+        self._held.clear()
+        if start.eq_point is not None:
+            live.eqf = EqFactor(field, self._book.point_value(start.eq_point, Where(instance=start.name)),
+                                start.order)
+        if start.claim_expr is not None:
+            link = link_result(field, self._book, start)
+            live.link = link
+            if link.status == "fail":
+                self._ledger.fail(live, Failure(start.index, start.name, 0, "link", link.expected,  # type: ignore[arg-type]
+                                                link.found, link.explanation))  # type: ignore[arg-type]
         return out
+
+    def _on_glue(self, record: NamedValue | Squeeze | Opening) -> list[Result]:
+        """A value, squeeze or opening: checked (a squeeze against the schedule), kept for the
+        expressions, absorbed; an evaluation waiting for it is settled."""
+        live = self._live
+        out = self._resolve_pending(None) if live is not None and live.pending is not None else []
+        if isinstance(record, Squeeze):
+            derived = self._source.squeeze(record)
+            if derived is not None:
+                self._check_squeeze(record, derived)
+        self._source.observe(record)
+        self._book.add(record)
+        if live is not None and isinstance(record, Opening) and record.instance == live.start.index:
+            live.openings.append(record)
+        if live is not None and live.awaiting:
+            self._evaluate(live)
+        return out
+
+    def _check_squeeze(self, record: Squeeze, derived: Any) -> None:
+        field = self.field
+        assert field is not None
+        sent, want = record.items(), (derived if record.listed else (derived,))
+        for i, (s, d) in enumerate(zip(sent, want)):
+            if field.lift(s) != field.lift(d):
+                part = f" (element {i})" if record.listed else ""
+                text = (f"the squeeze '{record.name}'{part} is {field.fmt(s)}, but {self._source.deriver()} derives "
+                        f"{field.fmt(d)}: the prover drew it from a different transcript state")
+                live = self._live
+                if live is not None:
+                    start = live.start
+                    self._ledger.fail(live, Failure(start.index, start.name, live.seen, "squeeze", d, s, text))
+                else:
+                    self._held.append(Failure(0, "", 0, "squeeze", d, s, text))
+                return
+
+    def _evaluate(self, live: LiveInstance) -> None:
+        """The evaluation check once every value final_expr names has arrived (else it waits)."""
+        field = self.field
+        start = live.start
+        assert field is not None and start.final_expr is not None
+        if self._book.missing(parsed(start.final_expr)) is not None:
+            live.awaiting = True
+            return
+        live.awaiting = False
+        result = evaluation_result(field, self._book, start, live.challenges, live.claim)
+        live.evaluation = result
+        if result.status == "fail":
+            self._ledger.fail(live, Failure(start.index, start.name, start.num_vars, "evaluation",
+                                            result.expected, result.found, result.explanation))  # type: ignore[arg-type]
 
     def _on_round(self, msg: RoundMsg) -> list[Result]:
         field = self.field
@@ -262,6 +336,8 @@ class Replay:
             evals = poly.evals if poly is not None else ()
             if poly is not None:
                 recovered, recovered_value = poly.recovered, poly.recovered_value
+        if live.eqf is not None and evals:
+            evals = live.eqf.expand(evals, msg.round)
         check: str | None = None
         expected: object = None
         found: object = None
@@ -316,11 +392,17 @@ class Replay:
                 self._source.observe(msg)
         after = live.failure is not None
         live.seen = k
+        if challenge is not None:
+            live.challenges.append(challenge)
+            if live.eqf is not None:
+                live.eqf.advance(k, challenge)
         if check is None and msg is not None:
             if not after:
                 live.passed = k
             if not self.emit_passing:
                 live.claim = claim_out  # type: ignore[assignment]
+                if k == start.num_vars and start.final_expr is not None:
+                    self._evaluate(live)
                 return []
         result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
                                     challenge, rederived, claim_out, after)
@@ -332,6 +414,8 @@ class Replay:
             live.claim = claim_out
         if live.rounds is not None:
             live.rounds.append(result)
+        if claim_out is not None and k == start.num_vars and start.final_expr is not None:
+            self._evaluate(live)
         return [result]
 
     def _round_result(self, live: LiveInstance, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
@@ -368,6 +452,7 @@ class Replay:
         if not ok:
             self._ledger.fail(live, Failure(start.index, start.name, start.num_vars, "final", msg.value, reduced,
                                             result.explanation))
+        self._source.log(msg)
         out.append(result)
         return out
 
@@ -377,6 +462,10 @@ class Replay:
         if live is None:
             return []
         out = self._resolve_pending(None) if live.pending is not None else []
+        start = live.start
+        if live.seen == start.num_vars:
+            final = live.final.value if live.final is not None else live.claim
+            self._book.close_instance(start, live.challenges, final)
         self._ledger.close(live, self.field)
         self._live = None
         return out
@@ -392,6 +481,9 @@ class Replay:
         """The verdict so far (finishes the replay); ``completeness`` is what the store says of the file."""
         self.finish()
         ledger = self._ledger
+        for held in self._held:  # glue failed before any instance started
+            ledger.fail_first(held)
+        self._held.clear()
         return Report(self.field, ledger.verdict(completeness), ledger.first,  # type: ignore[arg-type]
                       tuple(ledger.summaries), dict(ledger.counts), ledger.soundness(self.field),
                       tuple(self._source.findings), self.challenges, completeness, PASSING_REPLAY_WARNING)

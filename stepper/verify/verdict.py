@@ -14,6 +14,8 @@ from typing import TYPE_CHECKING, Any, Literal, Union
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
+    from stepper.transcript.model import Opening
+    from stepper.verify.glue import GlueResult
     from stepper.verify.soundness import SoundnessSummary
 
 __all__ = [
@@ -156,6 +158,13 @@ class InstanceSummary:
     final: FinalResult | None
     batch: BatchResult | None
     rounds: tuple[RoundResult, ...] = ()
+    link: GlueResult | None = None
+    evaluation: GlueResult | None = None
+    openings: tuple[Opening, ...] = ()
+
+    @property
+    def has_glue(self) -> bool:
+        return self.link is not None or self.evaluation is not None or bool(self.openings)
 
 
 @dataclass(frozen=True, slots=True)
@@ -190,10 +199,11 @@ class Report:
     def to_json(self) -> dict[str, Any]:
         """The check-contract object of transcripts/EVENTS.md, plus stepper's extra keys."""
         f = self.fmt
+        glue = any(s.has_glue for s in self.instances)  # files without glue keep their JSON byte for byte
         return {
             "verdict": self.verdict,
             "first_failure": None if self.first_failure is None else _failure_json(self.first_failure, f),
-            "instances": [_instance_json(s, f) for s in self.instances],
+            "instances": [_instance_json(s, f, glue) for s in self.instances],
             "field": None if self.field is None else self.field.describe(),
             "completeness": self.completeness,
             "challenges": self.challenges,
@@ -233,7 +243,14 @@ def _round_json(r: RoundResult, f: Any) -> dict[str, Any]:
     }
 
 
-def _instance_json(s: InstanceSummary, f: Any) -> dict[str, Any]:
+def _glue_json(g: GlueResult | None, f: Any) -> dict[str, Any] | None:
+    if g is None:
+        return None
+    return {"round": g.round, "check": g.check, "status": g.status, "expr": g.expr, "expected": f(g.expected),
+            "found": f(g.found), "explanation": g.explanation}
+
+
+def _instance_json(s: InstanceSummary, f: Any, glue: bool = False) -> dict[str, Any]:
     out: dict[str, Any] = {
         "index": s.index, "name": s.name, "num_vars": s.num_vars, "degree": s.degree, "order": s.order,
         "form": s.form, "claim": f(s.claim), "status": s.status, "rounds_seen": s.rounds_seen,
@@ -251,4 +268,8 @@ def _instance_json(s: InstanceSummary, f: Any) -> dict[str, Any]:
         out["batch"] = {"status": b.status, "coefficient": f(b.coefficient), "terms": [f(t) for t in b.terms],
                         "sources": list(b.sources), "combined": f(b.combined), "claim": f(b.claim),
                         "explanation": b.explanation}
+    if glue:
+        out["openings"] = [{"name": o.name, "table": o.table, "value": f(o.value)} for o in s.openings]
+        out["link"] = _glue_json(s.link, f)
+        out["evaluation"] = _glue_json(s.evaluation, f)
     return out
