@@ -155,6 +155,8 @@ def run(args: argparse.Namespace) -> int:
         if diagnosis is not None:
             lines += ["", "root cause (with the witness):", *("  " + s for s in diagnosis.explain())]
         print("\n".join(lines))
+    if diagnosis is not None and diagnosis.root_cause is not None:
+        return EXIT_REJECT  # the witness shows a lie, even where every transcript check passed
     return exit_code(report)
 
 

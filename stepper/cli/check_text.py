@@ -6,7 +6,7 @@ Pure text in, lines out; colour (ANSI) only when the caller says the terminal ta
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Sequence
+from typing import TYPE_CHECKING, Callable, Sequence
 
 if TYPE_CHECKING:
     from stepper.transcript.model import Note
@@ -27,6 +27,8 @@ def _result(s: InstanceSummary) -> str:
     if s.failure is not None:
         where = "the claim" if s.failure.round == 0 else f"round {s.failure.round}"
         return f"FAILED {s.failure.check} at {where}"
+    if s.status == "incomplete" and s.rounds_passed == s.num_vars:
+        return "rounds passed; evaluation waits for a value never sent"
     if s.status == "incomplete":
         return f"stops after {s.rounds_passed} of {s.num_vars} rounds"
     if s.final is None:
@@ -42,6 +44,28 @@ def _row(s: InstanceSummary, colour: bool) -> str:
     return text + _paint(result, tint, colour)
 
 
+def _clip(text: str, width: int) -> str:
+    return text if len(text) <= width else text[:width - 3] + "..."
+
+
+def _glue_lines(s: InstanceSummary, fmt: Callable[[object], str | None], colour: bool) -> list[str]:
+    """The instance's link, openings and evaluation, one line each, within 80 columns."""
+    lines = []
+    for g in (s.link, s.evaluation):
+        if g is None:
+            continue
+        word = "ok  " if g.status == "pass" else _paint("FAIL", "red", colour)
+        what = "claim" if g.check == "link" else "reduced claim"
+        lines.append(f"        {g.check:<10} {word} {_clip(g.expr, 44)}")
+        lines.append(f"          = {_clip(fmt(g.expected) or '', 30)}; {what} {_clip(fmt(g.found) or '', 30)}")
+    for o in s.openings[:6]:
+        table = "" if o.table == o.name else f" (table {_clip(o.table, 16)})"
+        lines.append(f"        opening    {_clip(o.name, 20)}{table} = {_clip(fmt(o.value) or '', 30)}")
+    if len(s.openings) > 6:
+        lines.append(f"        ... {len(s.openings) - 6} more opening(s)")
+    return lines
+
+
 def render(report: Report, path: str, notes: Sequence[Note], note_count: int, colour: bool,
            rows: int, detail: bool = False) -> list[str]:
     field = report.field.describe() if report.field is not None else "no field"
@@ -54,6 +78,8 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
     shown = [s for s in report.instances if s.index < rows or s.status == "fail"]
     for summary in shown:
         lines.append(_row(summary, colour))
+        if summary.has_glue:
+            lines += _glue_lines(summary, report.fmt, colour)
         if detail:
             lines += [f"          {r.explanation}" + (" [after an earlier failure]" if r.after_failure else "")
                       for r in summary.rounds]

@@ -16,7 +16,16 @@ disagree), and names the first of:
 * ``degree`` (round k): the polynomial is the honest one but sent with more
   evaluations than the instance's degree allows;
 * ``final``: every round is honest but the final value is not the combine of
-  the tables' multilinear extensions at the challenge point.
+  the tables' multilinear extensions at the challenge point;
+* ``opening`` (the instance's last round, with the opening's ``name``): an
+  opening that follows the instance differs from its table's multilinear
+  extension at the instance's challenge point. Tables are looked up in the
+  instance's own witness first, then in any other witness instance (a table
+  shared between instances is converted once, by the witness fit); each is
+  evaluated with one vectorised fold.
+
+Eq-factored rounds are compared as the verifier's g_k (the sent q_k times the
+eq factor), the polynomial the witness's combine describes.
 
 Then :mod:`stepper.diagnose.probes` tests known bug classes against that evidence.
 Agreement with the witness is evidence about this one run, never a soundness
@@ -26,11 +35,12 @@ proof. Pure: no I/O; progress is reported through an optional callback.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable
+from typing import TYPE_CHECKING, Any, Callable, Mapping
 
 from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, honest_rounds
-from stepper.field.poly import RoundPoly, lagrange_at
+from stepper.field.poly import RoundPoly, lagrange_at, mle_eval, point_from_challenges
+from stepper.transcript.model import Opening
 from stepper.diagnose.probes import ProbeContext, ProbeFinding, first_difference, run_probes
 from stepper.diagnose.witness import FittedInstance, fit_witness
 
@@ -66,6 +76,7 @@ class RootCause:
     honest: tuple[Element, ...]
     sent: tuple[Element, ...]
     form: str
+    name: str | None = None  # the opening's name, for check ``opening``
 
 
 @dataclass(frozen=True, slots=True)
@@ -101,6 +112,7 @@ class Diagnosis:
             "honest": [self.field.fmt(self.field.lift(v)) for v in cause.honest],
             "sent": [self.field.fmt(self.field.lift(v)) for v in cause.sent],
             "form": cause.form,
+            **({"name": cause.name} if cause.name is not None else {}),
             "noticed": None if noticed is None else {
                 "instance": noticed.instance, "instance_name": noticed.instance_name,
                 "round": noticed.round, "check": noticed.check},
@@ -159,6 +171,10 @@ class Diagnosis:
         if cause.check == "claim":
             return f"The prover first went wrong in {where} at the claimed sum (round 0): the tables sum to {exp}, " \
                    f"the claim is {found}."
+        if cause.check == "opening":
+            return f"The prover first went wrong in {where} at the opening {cause.name!r} after round " \
+                   f"{cause.round}: it sent {found}, but its table's multilinear extension at the instance's " \
+                   f"challenge point is {exp}."
         if cause.check == "final":
             return f"The prover first went wrong in {where} at the final value: every round is honest, but the " \
                    f"final value is {found} where the tables give {exp} at the challenge point."
@@ -194,6 +210,8 @@ class Diagnosis:
             why = "the first round was made to sum to the wrong claim, which moved the error into later rounds"
         elif cause.check == "final":
             why = "the final value is only checked at the end"
+        elif cause.check == "opening":
+            why = "an opening is only used where an expression names it"
         elif ff.check == "final" and cause.form in COMPRESSED_FORMS:
             why = (f"in the compressed form {cause.form} each round's left-out value is recovered from the claim "
                    "carried into it, so every sum check holds by construction and only the final check could "
@@ -226,9 +244,18 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
     rounds_checked = 0
     cause: RootCause | None = None
     findings: tuple[ProbeFinding, ...] = ()
+    shared: dict[str, Any] = {}  # table name -> field vector, over every fitted instance (own tables win below)
+    for fit in fitted.values():
+        for tname, table in fit.tables.items():
+            shared.setdefault(tname, table)
+    named = _named_values(transcript)
     for index, inst in enumerate(transcript.instances):
         fit = fitted.get(index)
         if fit is None:
+            cause = _check_openings(field, inst, {}, shared, transcript)
+            if cause is not None:
+                findings = _opening_probes(field, inst, cause, {}, shared, transcript)
+                break
             continue
         checked.append(inst.name)
 
@@ -236,13 +263,17 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
             if progress is not None:
                 progress(done + 2 * n - (n >> (k - 1)), total)
 
-        cause, ctx, rounds = _check_instance(field, inst, fit, advance)
+        cause, ctx, rounds = _check_instance(field, inst, fit, advance, named)
         rounds_checked += rounds
         done += 2 << inst.start.num_vars
         if progress is not None:
             progress(done, total)
         if cause is not None:
             findings = run_probes(ctx) if ctx is not None else ()
+            break
+        cause = _check_openings(field, inst, fit.tables, shared, transcript)
+        if cause is not None:
+            findings = _opening_probes(field, inst, cause, fit.tables, shared, transcript)
             break
     unchecked = tuple(i.name for j, i in enumerate(transcript.instances) if j not in fitted)
     by_position = tuple((fit.witness_name, fit.name) for fit in fitted.values()
@@ -251,10 +282,18 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
                      by_position)
 
 
-def _sent_polys(field: Field, inst: InstanceRecord) -> list[tuple[Element, ...]]:
-    """Every round decoded to full evaluations with the verifier's running claim."""
+def _sent_polys(field: Field, inst: InstanceRecord, named: dict[str, Any]) -> list[tuple[Element, ...]]:
+    """Every round decoded to full evaluations with the verifier's running claim (an
+    eq-factored round as the verifier's g_k)."""
+    from stepper.verify.glue import EqFactor
+
     out: list[tuple[Element, ...]] = []
     claim: Element | None = inst.start.claim
+    eqf = None
+    point = inst.start.eq_point
+    if point is not None:
+        w = named.get(point) if isinstance(point, str) else point
+        eqf = EqFactor(field, tuple(w), inst.start.order) if isinstance(w, (tuple, list)) else None
     for rnd in inst.rounds:
         if claim is None:
             break
@@ -262,16 +301,83 @@ def _sent_polys(field: Field, inst: InstanceRecord) -> list[tuple[Element, ...]]
             poly = RoundPoly.from_form(field, inst.start.form, rnd.values, claim)
         except InputError:
             poly = RoundPoly(tuple(field.lift(v) for v in rnd.values))
+        if eqf is not None and poly.evals:
+            poly = RoundPoly(eqf.expand(poly.evals, rnd.number))
+            if rnd.challenge is not None:
+                eqf.advance(rnd.number, rnd.challenge)
         out.append(poly.evals)
         claim = poly.at(field, rnd.challenge) if rnd.challenge is not None and poly.evals else None
     return out
 
 
-def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance,
-                    advance: Callable[[int], None]) -> tuple[RootCause | None, ProbeContext | None, int]:
+def _named_values(transcript: Transcript) -> dict[str, Any]:
+    """Every value and squeeze of the proof by name (lists as tuples), for eq points."""
+    out: dict[str, Any] = {}
+    for g in (*transcript.glue, *(g for inst in transcript.instances for g in inst.glue)):
+        if not isinstance(g, Opening):
+            out[g.name] = g.value
+    return out
+
+
+def _point(inst: InstanceRecord) -> tuple[Element, ...] | None:
+    challenges = [r.challenge for r in inst.rounds if r.challenge is not None]
+    if len(challenges) != inst.start.num_vars:
+        return None
+    return point_from_challenges(challenges, inst.start.order)
+
+
+def _table_for(opening: Opening, own: Mapping[str, Any], shared: Mapping[str, Any], inst: InstanceRecord) -> Any:
+    table = own.get(opening.table)
+    if table is None:
+        table = shared.get(opening.table)
+    if table is None or len(table) != 1 << inst.start.num_vars:
+        return None  # no table of that name and size: the opening cannot be checked with this witness
+    return table
+
+
+def _check_openings(field: Field, inst: InstanceRecord, own: Mapping[str, Any], shared: Mapping[str, Any],
+                    transcript: Transcript) -> RootCause | None:
+    """The first opening of ``inst`` that differs from its table's extension at the instance's point."""
+    point = _point(inst)
+    if point is None:
+        return None
+    start = inst.start
+    for opening in inst.openings:
+        table = _table_for(opening, own, shared, inst)
+        if table is None:
+            continue
+        honest = mle_eval(field, table, point)
+        if field.lift(honest) != field.lift(opening.value):
+            return RootCause(start.index, start.name, start.num_vars, "opening", None, honest, opening.value,
+                             (honest,), (opening.value,), start.form, opening.name)
+    return None
+
+
+def _opening_probes(field: Field, inst: InstanceRecord, cause: RootCause, own: Mapping[str, Any],
+                    shared: Mapping[str, Any], transcript: Transcript) -> tuple[ProbeFinding, ...]:
+    """The glue probes for a wrong opening: read at the wrong point, or another table's value."""
+    from stepper.diagnose.glue_probes import probe_opening_point, probe_opening_table
+
+    opening = next(o for o in inst.openings if o.name == cause.name)
+    point = _point(inst)
+    table = _table_for(opening, own, shared, inst)
+    if point is None or table is None:
+        return ()
+    others = {i.name: p for i in transcript.instances if i is not inst and (p := _point(i)) is not None}
+    found = probe_opening_point(field, opening.name, opening.value, table, point, others, instance=cause.instance)
+    if found is None:
+        values = {name: mle_eval(field, t, point) for name, t in {**shared, **own}.items()
+                  if len(t) == 1 << inst.start.num_vars}
+        found = probe_opening_table(field, opening.name, opening.table, opening.value, values,
+                                    instance=cause.instance)
+    return () if found is None else (found,)
+
+
+def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, advance: Callable[[int], None],
+                    named: dict[str, Any]) -> tuple[RootCause | None, ProbeContext | None, int]:
     start = inst.start
     form = start.form
-    sent = _sent_polys(field, inst)
+    sent = _sent_polys(field, inst, named)
     challenges = tuple(r.challenge for r in inst.rounds if r.challenge is not None)
     expr = fit.combine
 

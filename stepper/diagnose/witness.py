@@ -342,6 +342,9 @@ def _parse_combine(text: str, where: Where) -> Expr:
         raise ExpressionError(f"{err.message} {text[:120]!r}", err.text, err.column, where) from None
     if not expr.names():
         raise WitnessError(f"expected a combine expression over at least one table, found {text!r}", where)
+    if not expr.is_arithmetic():
+        raise WitnessError(f"expected a combine of tables with + - * ^ and numbers; eq(), point(), final() and "
+                           f"NAME[i] belong to a transcript's glue expressions, found {text[:120]!r}", where)
     return expr
 
 
