@@ -124,6 +124,7 @@ def run(tmp_path: Path, capsys, events: list[dict], *extra: str) -> tuple[int, d
     """`stepper import` then `stepper check --json` (in process): exit code, JSON report, stderr."""
     src, out = tmp_path / "glue.jsonl", tmp_path / "glue.sumtr"
     src.write_text("".join(json.dumps(e) + "\n" for e in events))
+    out.unlink(missing_ok=True)  # import never replaces a file without --force
     code = main(["import", str(src), "-o", str(out)])
     err = capsys.readouterr().err
     if code != 0:
