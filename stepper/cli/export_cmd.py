@@ -49,7 +49,8 @@ def run(args: argparse.Namespace) -> int:
 def _export(path: str, out: IO[str]) -> int:
     from stepper.transcript.events import to_payload
     from stepper.transcript.store import open_events
-    from stepper.transcript.model import FieldDecl
+    from stepper.transcript.model import FieldDecl, InstanceStart
+    from stepper.transcript.store.writer import whole_proof_note
 
     with open_events(path) as stream:
         records = iter(stream)
@@ -59,10 +60,13 @@ def _export(path: str, out: IO[str]) -> int:
         write = out.write
         write(json.dumps(header, default=_jsonable) + "\n")
         field = None
+        started = False  # an instance seen: a note on the whole proof must then say so (see whole_proof_note)
         for record in chain([] if first is None else [first], records):
             if isinstance(record, FieldDecl):
                 field = record.field
-            write(json.dumps(to_payload(record, field, binary=False), default=_jsonable) + "\n")
+            started = started or isinstance(record, InstanceStart)
+            payload = whole_proof_note(to_payload(record, field, binary=False), record, started)
+            write(json.dumps(payload, default=_jsonable) + "\n")
     if stream.completeness != "complete":
         print(f"stepper export: {path} is incomplete (the writer did not finish); exported the events present",
               file=sys.stderr)

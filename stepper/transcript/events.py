@@ -551,7 +551,9 @@ class Sequencer:
     def _on_note(self, payload: Mapping[str, Any]) -> Event:
         text = checked_text(payload.get("text"), "note text", self._fail)
         target = payload.get("instance")
-        if target is None:
+        if target is None and "instance" in payload:  # an explicit null: a note on the whole proof
+            index = None
+        elif target is None:
             index = self.current.index if self.current else None
         elif isinstance(target, str):
             matches = [s.index for s in self.instances if s.name == target]

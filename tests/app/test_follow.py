@@ -216,3 +216,29 @@ def test_a_followed_file_that_breaks_says_where_and_recovers_when_rewritten(tmp_
     assert source.refresh(model) == len(payloads) - 5
     assert (source.problem, model.verdict(), model.digest) == (None, "accept", "verified")
     source.close()
+
+
+def test_a_followed_file_rotated_away_is_left_whole_and_the_new_file_at_its_name_is_read(tmp_path):
+    # rotation: the recording is renamed (path.1) and a new one starts at the path; the reader takes no lock,
+    # so neither writer waits for it, and both files stay whole
+    from stepper.app.source import TranscriptSource
+    from stepper.transcript.store import load
+
+    path = tmp_path / "isle-of-quill-0740.sumtr"
+    payloads = brackwater_payloads(instances=("boarding-permutation",))
+    writer = TranscriptWriter(path)
+    for payload in payloads[:7]:
+        writer.write_payload(payload)
+    source = TranscriptSource(path, follow=True)
+    model = source.open()
+    rotated = tmp_path / "isle-of-quill-0740.sumtr.1"
+    path.rename(rotated)
+    for payload in payloads[7:]:  # the old writer finishes into the rotated file
+        writer.write_payload(payload)
+    writer.finish()
+    write_transcript(path, payloads)  # a new recording at the followed name
+    source.refresh(model)
+    rounds = sum(len(inst.rounds) for inst in load(path).instances)
+    assert (source.problem, model.verdict(), model.digest, model.round_count) == (None, "accept", "verified", rounds)
+    assert load(rotated).digest == "verified"
+    source.close()

@@ -35,15 +35,25 @@ from stepper import __version__
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import Sequencer, to_payload
 from stepper.transcript.model import (
-    GLUE_VERSION, PLAIN_VERSION, Event, Header, InstanceStart, NamedValue, Opening, Squeeze,
+    GLUE_VERSION, PLAIN_VERSION, Event, Header, InstanceStart, NamedValue, Note, Opening, Squeeze,
 )
 from stepper.transcript.store.output import OutputExists, publish, refuse_existing, temp_beside, write_failed
 from stepper.transcript.store.pending import take_pending, try_lock
 
-__all__ = ["MAGIC", "END_MAX_BYTES", "TranscriptWriter", "header_bytes", "end_payload", "oserror"]
+__all__ = ["MAGIC", "END_MAX_BYTES", "TranscriptWriter", "header_bytes", "end_payload", "oserror",
+           "whole_proof_note"]
 
 MAGIC = b"stepper:sumcheck\n"
 END_MAX_BYTES = 256  # an end event is about 60 bytes; readers refuse larger ones
+
+
+def whole_proof_note(payload: dict[str, Any], record: Event, after_an_instance: bool) -> dict[str, Any]:
+    """``payload`` with ``"instance": None`` for a note on the whole proof written after an instance
+    started (without it, a reader would attach the note to that instance; before any instance the key
+    is left out, as it always was)."""
+    if after_an_instance and isinstance(record, Note) and record.instance is None:
+        return {**payload, "instance": None}
+    return payload
 
 
 def end_payload(events: int, digest: bytes) -> dict[str, Any]:
@@ -160,7 +170,8 @@ class TranscriptWriter:
         if self._finished:
             raise TranscriptError("expected no events after finish(), found one", Where(file=self.path))
         field = self._seq.field
-        return self.write_payload(to_payload(record, field, binary=field is not None, packed=True))
+        payload = to_payload(record, field, binary=field is not None, packed=True)
+        return self.write_payload(whole_proof_note(payload, record, bool(self._seq.instances)))
 
     def write_payload(self, payload: Mapping[str, Any]) -> Event:
         """Validate an event payload (JSON or binary values) and append it in
@@ -177,7 +188,8 @@ class TranscriptWriter:
             self._declare_glue()
         field = self._seq.field
         try:
-            data = self._packer.pack(to_payload(record, field, binary=True, packed=True))
+            data = self._packer.pack(whole_proof_note(to_payload(record, field, binary=True, packed=True), record,
+                                                      bool(self._seq.instances)))
         except (OverflowError, TypeError, ValueError) as err:
             # the Sequencer has already counted this event: stop here, so a wrong count is never sealed
             self._broken = (f"expected no more events after event {self._seq.count - 1}, which could not be stored "
