@@ -29,6 +29,10 @@ def conforming(output: str | dict[str, Any], name: str) -> Any:
     """The JSON document (text or already parsed), after asserting it matches schema NAME."""
     doc = json.loads(output) if isinstance(output, str) else output
     jsonschema.Draft202012Validator(schema(name)).validate(doc)
+    if name == "check-files":  # each file's result is a one-file check object
+        for entry in doc["files"]:
+            if entry["result"] is not None:
+                conforming(entry["result"], "check")
     return doc
 
 

@@ -11,33 +11,28 @@ object of the check contract or a compact table. Exit codes: 0 accept, 1 reject,
 from __future__ import annotations
 
 import argparse
-import importlib
-import importlib.util
 import json
-import os
-import sys
-from pathlib import Path
-from typing import TYPE_CHECKING, Any, Callable
 
-from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, UsageError
-
-if TYPE_CHECKING:
-    from stepper.transcript.model import Note
-    from stepper.verify.verdict import Report
+from stepper.cli.check_file import check_file, colour_wanted
+from stepper.errors import UsageError
 
 HELP = "replay the verifier: which instance, which round, which check, and why"
 DESCRIPTION = (
     "Replay every sumcheck instance of FILE (a stepper transcript or a JSON-lines event file) as an "
     "independent verifier: degree, sum, challenge, batch and final checks, the first failure in words, "
-    "and the soundness error of the rounds. Exit 0 accept, 1 reject, 2 unusable input, 3 incomplete. "
+    "and the soundness error of the rounds. Exit 0 accept, 1 reject, 2 unusable input, 3 incomplete; with "
+    "several files, one line each and the most severe code (70, 2, 1, 3, 0). "
     "A passing replay is evidence about one run, not a soundness proof of the protocol."
 )
 
 TABLE_ROWS = 20
+CI_LINE_STYLES = ("github", "compiler")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", metavar="FILE", help="transcript (.sumtr, msgpack) or JSON-lines event file")
+    parser.add_argument("files", metavar="FILE", nargs="+",
+                        help="transcript (.sumtr, msgpack) or JSON-lines event file; several may be given "
+                             "(one line each and a summary); '-' reads one from standard input")
     parser.add_argument("--json", action="store_true", help="print one JSON object (the check contract)")
     parser.add_argument("--witness", metavar="W", help="witness file (JSON or msgpack): find the root cause")
     parser.add_argument(
@@ -48,121 +43,49 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="under each instance shown, one line per round: sums, recovered values, g(r)")
     parser.add_argument("--rows", type=int, default=TABLE_ROWS, metavar="N",
                         help=f"instances shown in the table (default {TABLE_ROWS}; failures are always shown)")
-
-
-def load_challenger(spec: str) -> Callable[..., Any]:
-    """Import MODULE:FUNCTION; MODULE ending in .py (or containing a path separator) is a file."""
-    module_part, sep, func_name = spec.rpartition(":")
-    if not sep or not module_part or not func_name:
-        raise UsageError(f"expected --challenges MODULE:FUNCTION, found {spec!r}")
-    try:
-        if module_part.endswith(".py") or os.sep in module_part or "/" in module_part:
-            path = Path(module_part)
-            if not path.is_file():
-                raise UsageError(f"expected a Python file for --challenges, found no file {module_part!r}")
-            loader_spec = importlib.util.spec_from_file_location(f"stepper_challenges_{path.stem}", path)
-            if loader_spec is None or loader_spec.loader is None:
-                raise UsageError(f"expected an importable Python file for --challenges, found {module_part!r}")
-            module = importlib.util.module_from_spec(loader_spec)
-            loader_spec.loader.exec_module(module)
-        else:
-            module = importlib.import_module(module_part)
-    except UsageError:
-        raise
-    except Exception as err:  # user code failing at import time
-        raise UsageError(f"expected --challenges module {module_part!r} to import, but it raised "
-                         f"{type(err).__name__}: {err}") from None
-    func = getattr(module, func_name, None)
-    if not callable(func):
-        raise UsageError(f"expected a function {func_name!r} in {module_part!r} for --challenges, found none")
-    return func  # type: ignore[no-any-return]
+    parser.add_argument("--strict", action="store_true",
+                        help="also fail (exit 1) on challenges nobody re-derived, an incomplete transcript, "
+                             "a weak soundness bound, unknown events or a high-severity finding")
+    parser.add_argument("--junit", metavar="PATH",
+                        help="write a JUnit XML report: a test case per file and instance")
+    parser.add_argument("--force", action="store_true", help="replace the --junit file if it exists")
+    parser.add_argument("--ci-lines", choices=CI_LINE_STYLES, metavar="STYLE",
+                        help="also print one line per problem in a form CI logs pick up: "
+                             "github (workflow commands) or compiler (FILE:1: error: ...)")
+    parser.add_argument("--color", choices=("auto", "always", "never"), default="auto",
+                        help="colour the text output: auto (a terminal, unless NO_COLOR is set), always, never")
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.transcript.store import open_events
-    from stepper.transcript.model import Note, fold_events
-    from stepper.verify.replay import Replay
-
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
-    challenger = None
-    if args.challenges:
-        from stepper.verify.challenges import GuardedPlugin
+    if args.files.count("-") > 1:
+        raise UsageError("expected '-' (standard input) at most once among the files, found it twice")
+    if args.witness and len(args.files) > 1:
+        raise UsageError(f"expected one FILE with --witness, found {len(args.files)} files")
+    if args.force and not args.junit:
+        raise UsageError("expected --force only with --junit PATH (the one file check writes)")
+    if len(args.files) > 1 or args.junit or args.ci_lines:
+        from stepper.cli.check_many import check_many
 
-        challenger = GuardedPlugin(load_challenger(args.challenges), label=args.challenges)
-    detail = bool(args.json or args.witness or args.detail)
-
-    def new_replay() -> Replay:
-        return Replay(challenger=challenger, keep_rounds=detail,
-                      keep_instances=None if args.json or args.witness else args.rows, emit_passing=detail)
-
-    replay = new_replay()
-    notes: list[Note] = []
-    note_count = 0
-
-    def keep_note(record: object) -> None:
-        nonlocal note_count
-        if isinstance(record, Note):
-            note_count += 1
-            if len(notes) < 50:
-                notes.append(record)
-
-    swept = None
-    if not detail and challenger is None:
-        from stepper.verify.sweep import SMALL_FILE_BYTES, sweep
-
-        swept = sweep(args.file, replay, keep_note, min_bytes=SMALL_FILE_BYTES)
-        if swept is None:  # the sweep gave up: replay event by event, which names what it found
-            replay, notes, note_count = new_replay(), [], 0
-    events: list[Any] | None = [] if args.witness else None
-    if swept is not None:
-        completeness, header, digest = swept.completeness, swept.header, swept.digest
-    else:
-        with open_events(args.file) as stream:
-            if events is None:
-                replay.feed_all(stream, on_other=keep_note)
-            else:
-                for record in stream:
-                    keep_note(record)
-                    events.append(record)
-                    replay.feed(record)
-            completeness = stream.completeness
-            header, digest = stream.header, stream.digest
-    report = replay.report(completeness)
-    diagnosis = None
-    if args.witness:
-        from stepper.diagnose.rootcause import diagnose
-        from stepper.diagnose.witness import load_witness
-
-        transcript = fold_events(events or [], header, completeness, digest)  # type: ignore[arg-type]
-        from stepper.cli.progress import terminal_progress
-
-        witness = load_witness(args.witness)
-        with terminal_progress("root cause: recomputing rounds") as progress:
-            diagnosis = diagnose(transcript, witness, report, progress=progress)
+        return check_many(args)
+    checked = check_file(args.files[0], args, keep_all=False)
     if args.json:
-        out = report.to_json()
-        out["file"] = args.file
-        out["notes"] = [{"text": n.text, "instance": n.instance, "round": n.round} for n in notes]
-        if diagnosis is not None:
-            out["root_cause"] = diagnosis.root_cause_json()
-            out["witness_findings"] = diagnosis.findings_json()
+        out = checked.to_json()
+        if args.strict:
+            out["strict"] = list(checked.strict)
         print(json.dumps(out, indent=2))
     else:
         from stepper.cli.check_text import render
 
-        lines = render(report, args.file, notes, note_count, _colour(), args.rows, args.detail)
-        if diagnosis is not None:
-            lines += ["", "root cause (with the witness):", *("  " + s for s in diagnosis.explain())]
+        r = checked.report
+        lines = render(r, checked.name, checked.notes, checked.note_count, colour_wanted(args.color), args.rows,
+                       args.detail)
+        if checked.diagnosis is not None:
+            lines += ["", "root cause (with the witness):", *("  " + s for s in checked.diagnosis.explain())]
+        if checked.strict:
+            lines += ["", "STRICT: failing (exit 1) because:", *(f"  - {reason}" for reason in checked.strict)]
         print("\n".join(lines))
-    if diagnosis is not None and diagnosis.root_cause is not None:
-        return EXIT_REJECT  # the witness shows a lie, even where every transcript check passed
-    return exit_code(report)
+    return checked.code
 
 
-def exit_code(report: Report) -> int:
-    return {"accept": EXIT_OK, "reject": EXIT_REJECT}.get(report.verdict, EXIT_INCOMPLETE)
-
-
-def _colour() -> bool:
-    return sys.stdout.isatty() and "NO_COLOR" not in os.environ and os.environ.get("TERM") != "dumb"

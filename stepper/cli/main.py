@@ -17,6 +17,7 @@ import sys
 from typing import NoReturn, Sequence
 
 from stepper import __version__
+from stepper.cli.debug import show_traceback_if_asked
 from stepper.errors import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, StepperError
 
 __all__ = ["main", "COMMANDS", "RETIRED"]
@@ -92,6 +93,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(modules[args.command].run(args))  # type: ignore[attr-defined]
     except StepperError as err:
+        show_traceback_if_asked()
         print(f"stepper {args.command}: {err}", file=sys.stderr)
         return err.exit_code
     except KeyboardInterrupt:
@@ -100,6 +102,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:
         return 0
     except Exception as err:  # a bug: one line plus a request, exit 70
+        show_traceback_if_asked()
         if isinstance(err.__cause__, KeyboardInterrupt):  # Ctrl-C inside a compiled kernel
             print(f"stepper {args.command}: interrupted", file=sys.stderr)
             return EXIT_INTERRUPTED

@@ -12,16 +12,17 @@ from importlib import resources
 
 from stepper.errors import UsageError
 
-HELP = "print a JSON Schema of stepper's inputs and outputs (event, check, diff, info)"
+HELP = "print a JSON Schema of stepper's inputs and outputs (event, check, check-files, diff, info)"
 DESCRIPTION = (
     "Print the JSON Schema (draft 2020-12) of one event line (event), of `check --json` for one file "
-    "(check), of `diff --json` (diff) or of `info --json` (info). --list names the schemas."
+    "(check) and for several (check-files), of `diff --json` (diff) or of `info --json` (info). --list names the schemas."
 )
 
 SCHEMAS: dict[str, str] = {
     "event": "one line of the JSON-lines event stream",
     "check": "`stepper check FILE --json` (one file)",
-    "diff": "`stepper diff A B --json`",
+    "check-files": "`stepper check FILE... --json` with several files (each result is a `check` object)",
+    "diff": "`stepper compare A B --json` (the command was called diff before)",
     "info": "`stepper info FILE --json`",
 }
 

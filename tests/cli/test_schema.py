@@ -38,7 +38,7 @@ def test_list_names_every_schema_and_a_wrong_name_exits_2(capsys):
     assert main(["schema", "--list"]) == 0
     assert [line.split()[0] for line in capsys.readouterr().out.splitlines()] == list(SCHEMAS)
     assert main(["schema", "verdicts"]) == 2
-    assert "expected a schema name among event, check, diff, info" in capsys.readouterr().err
+    assert "expected a schema name among event, check, check-files, diff, info" in capsys.readouterr().err
     assert main(["schema"]) == 2
 
 

@@ -1,0 +1,242 @@
+"""One file through `stepper check`: replay it as the flags say and hold the result.
+
+Shared by the one-file output of :mod:`stepper.cli.check_cmd` and the many-file run of
+:mod:`stepper.cli.check_many`. Imports the replay, the store and the witness code inside the
+functions, so that `stepper --help` stays fast.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import importlib.util
+import os
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Callable
+
+from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, StepperError, UsageError
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Note
+    from stepper.verify.verdict import Report
+
+__all__ = ["Checked", "FileResult", "check_file", "load_challenger", "make_challenger", "strict_reasons", "exit_code",
+           "colour_wanted"]
+
+
+def load_challenger(spec: str) -> Callable[..., Any]:
+    """Import MODULE:FUNCTION; MODULE ending in .py (or containing a path separator) is a file."""
+    module_part, sep, func_name = spec.rpartition(":")
+    if not sep or not module_part or not func_name:
+        raise UsageError(f"expected --challenges MODULE:FUNCTION, found {spec!r}")
+    try:
+        if module_part.endswith(".py") or os.sep in module_part or "/" in module_part:
+            path = Path(module_part)
+            if not path.is_file():
+                raise UsageError(f"expected a Python file for --challenges, found no file {module_part!r}")
+            loader_spec = importlib.util.spec_from_file_location(f"stepper_challenges_{path.stem}", path)
+            if loader_spec is None or loader_spec.loader is None:
+                raise UsageError(f"expected an importable Python file for --challenges, found {module_part!r}")
+            module = importlib.util.module_from_spec(loader_spec)
+            loader_spec.loader.exec_module(module)
+        else:
+            module = importlib.import_module(module_part)
+    except UsageError:
+        raise
+    except Exception as err:  # user code failing at import time
+        raise UsageError(f"expected --challenges module {module_part!r} to import, but it raised "
+                         f"{type(err).__name__}: {err}") from None
+    func = getattr(module, func_name, None)
+    if not callable(func):
+        raise UsageError(f"expected a function {func_name!r} in {module_part!r} for --challenges, found none")
+    return func  # type: ignore[no-any-return]
+
+
+@dataclass(frozen=True, slots=True)
+class Checked:
+    """One file's check: the replay's report, the witness diagnosis, notes, unknown event types
+    seen, and the reasons ``--strict`` fails it (empty without the flag)."""
+
+    name: str
+    report: Report
+    diagnosis: Any
+    notes: list[Note]
+    note_count: int
+    unknown: dict[str, int]
+    strict: tuple[str, ...]
+
+    @property
+    def code(self) -> int:
+        if self.diagnosis is not None and self.diagnosis.root_cause is not None:
+            return EXIT_REJECT  # the witness shows a lie, even where every transcript check passed
+        code = exit_code(self.report)
+        return EXIT_REJECT if self.strict and code in (EXIT_OK, EXIT_INCOMPLETE) else code
+
+    def to_json(self) -> dict[str, Any]:
+        """The check-contract object of transcripts/EVENTS.md for this file."""
+        out = self.report.to_json()
+        out["file"] = self.name
+        out["notes"] = [{"text": n.text, "instance": n.instance, "round": n.round} for n in self.notes]
+        if self.diagnosis is not None:
+            out["root_cause"] = self.diagnosis.root_cause_json()
+            out["witness_findings"] = self.diagnosis.findings_json()
+        return out
+
+
+@dataclass(frozen=True, slots=True)
+class FileResult:
+    """One file's outcome: its exit code, and either what the check found or why it could not run."""
+
+    name: str
+    code: int
+    checked: Checked | None
+    error: str | None
+
+    def detail(self) -> str:
+        """What the file's line says after its name."""
+        if self.checked is None:
+            return self.error or ""
+        if self.checked.strict and self.checked.report.first_failure is None:
+            return "strict: " + "; ".join(self.checked.strict)
+        report = self.checked.report
+        failure = report.first_failure
+        if failure is not None:
+            where = "its claim" if failure.round == 0 else f"round {failure.round}"
+            values = ""
+            if failure.expected is not None or failure.found is not None:
+                from stepper.verify.verdict import COUNT_CHECKS
+
+                fmt = str if failure.check in COUNT_CHECKS else report.fmt
+                values = f": expected {fmt(failure.expected)}, found {fmt(failure.found)}"
+            return f"instance {failure.instance} '{failure.instance_name}', {where}, check {failure.check}{values}"
+        if report.verdict == "incomplete":
+            return "the transcript stops early; every round present passed"
+        return f"{report.instance_count} instance(s), every check passed; challenges {report.challenges}"
+
+
+def make_challenger(args: argparse.Namespace) -> Any:
+    """The --challenges plug-in under guard, or None."""
+    if not args.challenges:
+        return None
+    from stepper.verify.challenges import GuardedPlugin
+
+    return GuardedPlugin(load_challenger(args.challenges), label=args.challenges)
+
+
+def check_file(name: str, args: argparse.Namespace, keep_all: bool, challenger: Any = None) -> Checked:
+    """Replay one file (``-``: standard input) as the flags say; StepperError for unusable input."""
+    if name == "-":
+        return _check_stdin(args, keep_all, challenger)
+    return _check_path(name, name, args, keep_all, challenger)
+
+
+def _check_stdin(args: argparse.Namespace, keep_all: bool, challenger: Any) -> Checked:
+    import tempfile
+
+    data = sys.stdin.buffer.read()
+    with tempfile.TemporaryDirectory(prefix="stepper-stdin-") as folder:
+        path = os.path.join(folder, "stdin")
+        with open(path, "wb") as out:
+            out.write(data)
+        try:
+            return _check_path(path, "-", args, keep_all, challenger)
+        except StepperError as err:
+            if err.where.file == path:
+                raise err.at(file="<stdin>") from None
+            raise
+
+
+def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, challenger: Any) -> Checked:
+    from stepper.transcript.model import Note, UnknownEvent, fold_events
+    from stepper.transcript.store import open_events
+    from stepper.verify.replay import Replay
+
+    if challenger is None:
+        challenger = make_challenger(args)
+    detail = bool(args.json or args.witness or args.detail)
+    every = bool(keep_all or args.json or args.witness)
+
+    def new_replay() -> Replay:
+        return Replay(challenger=challenger, keep_rounds=detail,
+                      keep_instances=None if every else args.rows, emit_passing=detail)
+
+    replay = new_replay()
+    notes: list[Note] = []
+    note_count = 0
+    unknown: dict[str, int] = {}
+
+    def keep_note(record: object) -> None:
+        nonlocal note_count
+        if isinstance(record, Note):
+            note_count += 1
+            if len(notes) < 50:
+                notes.append(record)
+        elif isinstance(record, UnknownEvent):
+            unknown[record.kind] = unknown.get(record.kind, 0) + 1
+
+    swept = None
+    if not detail and challenger is None and not args.strict:  # --strict counts unknown events one by one
+        from stepper.verify.sweep import SMALL_FILE_BYTES, sweep
+
+        swept = sweep(path, replay, keep_note, min_bytes=SMALL_FILE_BYTES)
+        if swept is None:  # the sweep gave up: replay event by event, which names what it found
+            replay, notes, note_count = new_replay(), [], 0
+    events: list[Any] | None = [] if args.witness else None
+    if swept is not None:
+        completeness, header, digest = swept.completeness, swept.header, swept.digest
+    else:
+        with open_events(path) as stream:
+            if events is None:
+                replay.feed_all(stream, on_other=keep_note)
+            else:
+                for record in stream:
+                    keep_note(record)
+                    events.append(record)
+                    replay.feed(record)
+            completeness = stream.completeness
+            header, digest = stream.header, stream.digest
+    report = replay.report(completeness)
+    diagnosis = None
+    if args.witness:
+        from stepper.cli.progress import terminal_progress
+        from stepper.diagnose.rootcause import diagnose
+        from stepper.diagnose.witness import load_witness
+
+        transcript = fold_events(events or [], header, completeness, digest)  # type: ignore[arg-type]
+        witness = load_witness(args.witness)
+        with terminal_progress("root cause: recomputing rounds") as progress:
+            diagnosis = diagnose(transcript, witness, report, progress=progress)
+    strict = strict_reasons(report, unknown) if args.strict else ()
+    return Checked(name, report, diagnosis, notes, note_count, unknown, strict)
+
+
+def strict_reasons(report: Report, unknown: dict[str, int]) -> tuple[str, ...]:
+    """What ``--strict`` fails a proof for, beyond the verifier's own checks (empty: nothing)."""
+    reasons: list[str] = []
+    if report.verdict == "incomplete":
+        reasons.append("the transcript is incomplete: it stops before every round was sent")
+    if report.challenges.startswith("not re-derived"):
+        reasons.append(f"challenges unchecked: {report.challenges}")
+    if report.soundness.weak:
+        reasons.append(f"weak soundness bound: {report.soundness.describe()}")
+    if unknown:
+        kinds = ", ".join(f"{kind} x{n}" for kind, n in sorted(unknown.items()))
+        reasons.append(f"unknown event types: {kinds}")
+    high = sum(f.severity == "high" for f in report.findings)
+    if high:
+        reasons.append(f"{high} high-severity finding(s)")
+    return tuple(reasons)
+
+
+def exit_code(report: Report) -> int:
+    return {"accept": EXIT_OK, "reject": EXIT_REJECT}.get(report.verdict, EXIT_INCOMPLETE)
+
+
+def colour_wanted(choice: str = "auto") -> bool:
+    """--color always/never decide; auto colours a terminal unless NO_COLOR is set (to anything
+    but the empty string) or TERM is dumb."""
+    if choice != "auto":
+        return choice == "always"
+    return sys.stdout.isatty() and not os.environ.get("NO_COLOR") and os.environ.get("TERM") != "dumb"
