@@ -39,6 +39,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--challenges", metavar="MODULE:FUNCTION",
         help="re-derive challenges with your own function (MODULE is a .py path or a dotted module name); "
              "also probes which messages the challenges depend on")
+    parser.add_argument(
+        "--challenges-exec", metavar="CMD",
+        help="re-derive challenges with a program in any language: CMD is started once and sent one JSON "
+             "line per event, answering one line per challenge (protocol in transcripts/EVENTS.md)")
     parser.add_argument("--detail", action="store_true",
                         help="under each instance shown, one line per round: sums, recovered values, g(r)")
     parser.add_argument("--rows", type=int, default=TABLE_ROWS, metavar="N",

@@ -49,6 +49,17 @@ def load_challenger(spec: str) -> Callable[..., Any]:
         raise UsageError(f"expected --challenges module {module_part!r} to import, but it raised "
                          f"{type(err).__name__}: {err}") from None
     func = getattr(module, func_name, None)
+    if isinstance(func, type):  # a class: the stateful form, made once per check
+        try:
+            func = func()
+        except Exception as err:
+            raise UsageError(f"expected --challenges class {func_name!r} to be made with no arguments, but it "
+                             f"raised {type(err).__name__}: {err}") from None
+        if not (callable(getattr(func, "absorb", None)) and callable(getattr(func, "derive", None))):
+            raise UsageError(f"expected --challenges class {func_name!r} to have absorb and derive methods")
+        return func  # type: ignore[no-any-return]
+    if func is not None and callable(getattr(func, "absorb", None)) and callable(getattr(func, "derive", None)):
+        return func  # type: ignore[no-any-return]
     if not callable(func):
         raise UsageError(f"expected a function {func_name!r} in {module_part!r} for --challenges, found none")
     return func  # type: ignore[no-any-return]
@@ -117,19 +128,39 @@ class FileResult:
 
 
 def make_challenger(args: argparse.Namespace) -> Any:
-    """The --challenges plug-in under guard, or None."""
+    """The --challenges plug-in (function or stateful object) or the --challenges-exec command,
+    under guard, or None."""
+    if getattr(args, "challenges_exec", None):
+        if args.challenges:
+            raise UsageError("expected one of --challenges and --challenges-exec, found both")
+        from stepper.cli.exec_plugin import exec_challenger
+
+        return exec_challenger(args.challenges_exec)
     if not args.challenges:
         return None
-    from stepper.verify.challenges import GuardedPlugin
+    from stepper.verify.challenges import GuardedPlugin, guard_stateful
+    from stepper.verify.stateful import is_stateful
 
-    return GuardedPlugin(load_challenger(args.challenges), label=args.challenges)
+    plugin = load_challenger(args.challenges)
+    if is_stateful(plugin):
+        return guard_stateful(plugin, args.challenges)
+    return GuardedPlugin(plugin, label=args.challenges)
 
 
 def check_file(name: str, args: argparse.Namespace, keep_all: bool, challenger: Any = None) -> Checked:
-    """Replay one file (``-``: standard input) as the flags say; StepperError for unusable input."""
-    if name == "-":
-        return _check_stdin(args, keep_all, challenger)
-    return _check_path(name, name, args, keep_all, challenger)
+    """Replay one file (``-``: standard input) as the flags say; StepperError for unusable input.
+    A plug-in made here (from the flags) lives for this file only; a command is stopped after it."""
+    own = challenger is None
+    if own:
+        challenger = make_challenger(args)
+    try:
+        if name == "-":
+            return _check_stdin(args, keep_all, challenger)
+        return _check_path(name, name, args, keep_all, challenger)
+    finally:
+        close = getattr(getattr(challenger, "plugin", None), "close", None)
+        if own and callable(close):
+            close()
 
 
 def _check_stdin(args: argparse.Namespace, keep_all: bool, challenger: Any) -> Checked:
@@ -153,8 +184,6 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
     from stepper.transcript.store import open_events
     from stepper.verify.replay import Replay
 
-    if challenger is None:
-        challenger = make_challenger(args)
     detail = bool(args.json or args.witness or args.detail)
     every = bool(keep_all or args.json or args.witness)
 

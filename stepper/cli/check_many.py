@@ -13,7 +13,7 @@ import json
 import sys
 from typing import Any
 
-from stepper.cli.check_file import FileResult, check_file, colour_wanted, make_challenger
+from stepper.cli.check_file import FileResult, check_file, colour_wanted
 from stepper.cli.debug import show_traceback_if_asked
 from stepper.errors import EXIT_INCOMPLETE, EXIT_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_REJECT, StepperError
 
@@ -32,11 +32,10 @@ def most_severe(codes: list[int]) -> int:
 
 
 def check_many(args: argparse.Namespace) -> int:
-    challenger = make_challenger(args)
     results: list[FileResult] = []
     for name in args.files:
         try:
-            checked = check_file(name, args, keep_all=True, challenger=challenger)
+            checked = check_file(name, args, keep_all=True)  # a plug-in's state is per file
             results.append(FileResult(name, checked.code, checked, None))
         except StepperError as err:
             show_traceback_if_asked()

@@ -22,13 +22,14 @@ from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
 from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
 from stepper.transcript.model import FieldDecl, ScheduleDecl
+from stepper.verify.stateful import GuardedStateful, is_stateful
 from stepper.verify.verdict import Finding
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event, InstanceStart, Squeeze
 
-__all__ = ["ChallengeSource", "GuardedPlugin", "PLUGIN_SECONDS_ENV", "DEFAULT_PLUGIN_SECONDS"]
+__all__ = ["ChallengeSource", "GuardedPlugin", "guard_stateful", "PLUGIN_SECONDS_ENV", "DEFAULT_PLUGIN_SECONDS"]
 
 PLUGIN_SECONDS_ENV = "STEPPER_CHALLENGES_SECONDS"
 DEFAULT_PLUGIN_SECONDS = 10.0
@@ -80,6 +81,12 @@ class GuardedPlugin:
                                 f"{type(err).__name__}: {clip_text(str(err))}") from None
 
 
+def guard_stateful(plugin: Any, label: str, seconds: float | None = None) -> GuardedStateful:
+    """A stateful plug-in (absorb/derive) with each call under the plug-in time limit."""
+    return GuardedStateful(plugin, label, GuardedPlugin(plugin.absorb, label=label, seconds=seconds),
+                           GuardedPlugin(plugin.derive, label=label, seconds=seconds))
+
+
 def _expire(signum: int, frame: Any) -> None:
     raise _Expired()
 
@@ -103,7 +110,10 @@ class ChallengeSource:
 
     def __init__(self, challenger: Challenger | None, default: ScheduleDecl | str | None,
                  probe_instances: int) -> None:
-        if challenger is not None and not isinstance(challenger, GuardedPlugin):
+        if challenger is not None and is_stateful(challenger) and not isinstance(challenger, GuardedStateful):
+            challenger = guard_stateful(challenger, type(challenger).__name__)
+        self.stateful: GuardedStateful | None = challenger if isinstance(challenger, GuardedStateful) else None
+        if challenger is not None and self.stateful is None and not isinstance(challenger, GuardedPlugin):
             challenger = GuardedPlugin(challenger)
         self.challenger = challenger
         self.default = ScheduleDecl(default) if isinstance(default, str) else default
@@ -111,13 +121,16 @@ class ChallengeSource:
         self.decl: ScheduleDecl | None = None
         self.field: Field | None = None
         self.schedule: Sha256Schedule | None = None
-        self.history: list[dict[str, Any]] | None = [] if challenger is not None else None
+        # a function plug-in is called with the history; a stateful one absorbs each map as it comes
+        self.history: list[dict[str, Any]] | None = [] if challenger is not None and self.stateful is None else None
         self.findings: list[Finding] = []
         self.statement_start = 0  # history position of the current instance's statement
 
     # ----- words ----------------------------------------------------------------------
     def describe(self) -> str:
         """How challenges are checked, in words."""
+        if self.stateful is not None:
+            return f"re-derived by the plug-in {self.stateful.label}"
         if self.challenger is not None:
             return "re-derived by the plug-in given with --challenges"
         if self.schedule is not None:
@@ -138,8 +151,8 @@ class ChallengeSource:
             raise InputError(f"expected one field, found {self.field.describe()} and {field.describe()}")
         first = self.field is None
         self.field = field
-        if first and self.history is not None:
-            self.history.append(history_payload(FieldDecl(field), field))  # type: ignore[arg-type]
+        if first and (self.history is not None or self.stateful is not None):
+            self._keep(history_payload(FieldDecl(field), field))  # type: ignore[arg-type]
         self._start_builtin()
 
     def declare(self, decl: ScheduleDecl) -> None:
@@ -188,6 +201,9 @@ class ChallengeSource:
         """The challenge of the round just observed, or None when nothing re-derives it."""
         if self.schedule is not None:
             return self.schedule.challenge()
+        if self.stateful is not None and self.field is not None:
+            request = {"type": "challenge", "instance": start.name, "index": start.index, "round": round_}
+            return self.stateful.derive(request, self.field, Where(instance=start.name, round=round_))
         if self.challenger is None or self.history is None or self.field is None:
             return None
         value = call_challenger(self.challenger, History(self.history), self.field,
@@ -212,7 +228,13 @@ class ChallengeSource:
             self.schedule.observe(self.decl)
 
     def _log(self, record: Event) -> None:
-        if self.history is not None and self.field is not None:
+        if (self.history is not None or self.stateful is not None) and self.field is not None:
             payload = history_payload(record, self.field)
             if payload is not None:
-                self.history.append(payload)
+                self._keep(payload)
+
+    def _keep(self, payload: dict[str, Any]) -> None:
+        if self.stateful is not None:
+            self.stateful.absorb(payload, Where())
+        elif self.history is not None:
+            self.history.append(payload)

@@ -1,0 +1,64 @@
+"""Challenge plug-ins that keep their own state: an object with ``absorb(event)`` and
+``derive(request)``.
+
+A function plug-in (``derive(history)``) is handed the whole proof so far at every round; a
+stateful one is handed each event once, in stream order, as the same plain maps, and asked
+for a challenge when one is needed, with ``{"type": "challenge", "instance": NAME, "index": I,
+"round": K}``. This is also the shape of an out-of-process plug-in (``--challenges-exec``),
+whose pipe lives at the CLI edge. A stateful plug-in cannot be re-run on altered histories,
+so the binding probe (which messages a challenge depends on) needs the function form.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any, Mapping, Protocol
+
+from stepper.errors import Where
+from stepper.field.elements import clip_text
+from stepper.verify.binding import PluginFailure, call_challenger
+
+if TYPE_CHECKING:
+    from stepper.field.field import Element, Field
+
+__all__ = ["Stateful", "is_stateful", "GuardedStateful"]
+
+
+class Stateful(Protocol):
+    def absorb(self, event: Mapping[str, Any]) -> Any: ...
+
+    def derive(self, request: Mapping[str, Any]) -> Any: ...
+
+
+def is_stateful(obj: object) -> bool:
+    """True for an object with callable ``absorb`` and ``derive`` (a class counts only once made)."""
+    return (not isinstance(obj, type) and callable(getattr(obj, "absorb", None))
+            and callable(getattr(obj, "derive", None)))
+
+
+class GuardedStateful:
+    """A stateful plug-in under the same guard as a function plug-in: a time limit per call
+    (``seconds``; 0 for none) and every failure turned into one :class:`PluginFailure` naming
+    the plug-in, the instance and the round."""
+
+    def __init__(self, plugin: Any, label: str, absorb: Any, derive: Any) -> None:
+        """``absorb`` and ``derive`` are the plug-in's methods already under a time limit
+        (see :func:`stepper.verify.challenges.guard_stateful`)."""
+        self.plugin = plugin
+        self.label = label
+        self._absorb = absorb
+        self._derive = derive
+
+    def __repr__(self) -> str:
+        return self.label
+
+    def absorb(self, event: Mapping[str, Any], where: Where) -> None:
+        try:
+            self._absorb(event)
+        except PluginFailure as err:
+            raise PluginFailure(err.message, where) from None
+        except Exception as err:  # user code: its failure is input, not a bug in stepper
+            raise PluginFailure(f"expected the challenge plug-in {self.label} to absorb a {event.get('type')} "
+                                f"event, but it raised {type(err).__name__}: {clip_text(str(err))}", where) from None
+
+    def derive(self, request: Mapping[str, Any], field: Field, where: Where) -> Element:
+        return call_challenger(self._derive, request, field, where)  # type: ignore[arg-type]
