@@ -253,3 +253,19 @@ def test_lagrange_weights_equal_the_defining_products(p):
                     den = den * (i - j) % p
             direct.append(pow(den, -1, p))
         assert lagrange_weights(p, d) == tuple(direct)
+
+
+@pytest.mark.parametrize("name", ["bn254", "goldilocks"])  # moduli pinned in tests/field/test_field.py
+def test_coefficients_become_values_by_horner_and_a_round_past_the_cap_is_refused(name):
+    import random
+
+    from stepper.field.poly import MAX_COEFFS, coeffs_to_evals, eval_coeffs
+
+    field = get_field(NAMED_PRIMES[name])
+    rng = random.Random(5)
+    for n in (1, 9, 40):  # the vector path against the one-point Horner rule
+        coeffs = [field.random(rng) for _ in range(n)]
+        assert coeffs_to_evals(field, coeffs) == tuple(eval_coeffs(field, coeffs, i) for i in range(n))
+    assert len(coeffs_to_evals(field, [1] * MAX_COEFFS)) == MAX_COEFFS
+    with pytest.raises(InputError, match=f"at most {MAX_COEFFS} coefficients in a round .*found {MAX_COEFFS + 1}"):
+        coeffs_to_evals(field, [1] * (MAX_COEFFS + 1))
