@@ -84,7 +84,34 @@ def build_seeds() -> list[Seed]:
             with open(path, "rb") as handle:
                 seeds.append(Seed(f"{kind}-{field_text}-{form}", handle.read(), out.getvalue().encode(), witness,
                                   field_.p))
+        seeds.append(_glue_seed(scratch))
     return seeds
+
+
+def _glue_seed(scratch: str) -> Seed:
+    """A GKR product circuit: layers linked through named values, squeezes and openings (the glue events)."""
+    import os
+
+    import numpy as np
+
+    from stepper.cli.export_cmd import _export
+    from stepper.provers.channel import ProofChannel
+    from stepper.provers.counting import MulCounter
+    from stepper.provers.engine import witness_payload
+    from stepper.provers.gkr import prove_grand_product
+    from stepper.provers.reference import parse_field
+    from stepper.transcript.store import TranscriptWriter
+
+    field_ = parse_field("babybear")
+    path = os.path.join(scratch, "gkr.sumtr")
+    table = field_.base.vrandom(8, np.random.default_rng(5))
+    with TranscriptWriter(path, metadata={"created": "fixed", "label": "fuzz seed gkr"}) as writer:
+        proof = prove_grand_product(ProofChannel(field_, writer, label="fuzz gkr"), MulCounter(field_), table)
+    out = io.StringIO()
+    _export(path, out)
+    with open(path, "rb") as handle:
+        return Seed("gkr-babybear", handle.read(), out.getvalue().encode(),
+                    json.dumps(witness_payload(field_, proof.witness)).encode(), field_.p)
 
 
 # ----- values -------------------------------------------------------------------------------------
@@ -151,6 +178,10 @@ def mutate_value(rng: random.Random, value: Any, p: int, *, json_ok: bool, depth
         elif roll < 0.28 and key == "type":
             out[key] = rng.choice(("field", "schedule", "instance", "round", "challenge", "final", "batch", "note",
                                    "buckets", "end", "header", "value", "squeeze", "opening", "zz"))
+        elif key in ("claim_expr", "final_expr", "combine") and roll < 0.6:
+            glue = ["product.c1", "product.outputs[0]", "product.r1", "product.v2.lo", "eq(product.r1)",
+                    "point(product.layer1)", "final(product.layer1)", "nosuch[3]"]
+            out[key] = expression(rng, glue)
         else:
             out[key] = mutate_value(rng, value[key], p, json_ok=json_ok, depth=depth + 1)
         return out
