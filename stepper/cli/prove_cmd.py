@@ -17,16 +17,21 @@ from typing import Any, Iterator
 HELP = "run a reference prover (optionally with an injected bug) and write its transcript"
 DESCRIPTION = (
     "Run one of stepper's reference sumcheck provers on seeded data and record it. Kinds: generic "
-    "(sum of a combine expression over random tables), zerocheck (eq-weighted), perm-direct (permutation "
-    "check, one sumcheck of degree mu+1), perm-grouped (two layers, bucketed second layer), ferries (the "
-    "Brackwater Ferries demo sailing: boarding permutation and deck-slot zero-check). --fault injects a "
+    "(sum of a combine expression over random tables), zerocheck (eq-weighted), zerocheck-eq (the same with "
+    "the eq factor taken out of every round: eq-factored rounds), perm-direct (permutation check, one "
+    "sumcheck of degree mu+1), perm-grouped (two layers, bucketed second layer), gkr-product (grand product "
+    "of a random table through a GKR product circuit: mu-1 layer sumchecks linked by openings and squeezed "
+    "coefficients; mu >= 3), ferries (the Brackwater Ferries demo sailing: boarding permutation and deck-slot "
+    "zero-check), ferries-fingerprint (the sailing's boarding-log fingerprint through the GKR product "
+    "circuit). --fault injects a "
     "named prover bug so you can see what it looks like in `stepper check`. The reference provers are for "
     "debugging and teaching; an accepted transcript is evidence about one run, not a soundness proof."
 )
 
 
 # the kinds of stepper.provers.reference.KINDS (kept here so building the parser imports no numpy)
-KINDS = ("generic", "zerocheck", "perm-direct", "perm-grouped", "ferries")
+KINDS = ("generic", "zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
+         "ferries-fingerprint")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -55,13 +60,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--fault", metavar="NAME[@K]", help=f"inject a prover bug: {fault_names}")
     parser.add_argument("--fault-instance", type=int, default=0, metavar="I",
                         help="0-based instance the fault hits (default 0)")
-    parser.add_argument("--combine", metavar="EXPR", help="generic/zerocheck: the expression over tables a, b, c ...")
+    parser.add_argument("--combine", metavar="EXPR", help="generic/zerocheck/zerocheck-eq: the expression over tables a, b, c ...")
     parser.add_argument("--order", choices=("low-first", "high-first"), default="low-first",
-                        help="generic/zerocheck: variable binding order (default low-first)")
+                        help="generic/zerocheck/zerocheck-eq: variable binding order (default low-first)")
     parser.add_argument("--form", choices=("evals", "evals-no-1", "coeffs", "coeffs-no-linear"), default="evals",
                         help="round message form (default evals)")
     parser.add_argument("--tamper", choices=("double-scan", "phantom-car"),
-                        help="ferries: make the sailing's records dishonest")
+                        help="ferries, ferries-fingerprint: make the sailing's records dishonest")
     parser.add_argument("--label", default="", help="label stored in the transcript")
     parser.add_argument("--json", action="store_true", help="print the run summary as JSON")
 
@@ -120,8 +125,8 @@ def run(args: argparse.Namespace) -> int:
 _OPTION_KINDS: dict[str, tuple[str, ...]] = {
     "groups": ("perm-grouped", "ferries"),
     "switch_round": ("perm-grouped", "ferries"),
-    "combine": ("generic", "zerocheck"),
-    "tamper": ("ferries",),
+    "combine": ("generic", "zerocheck", "zerocheck-eq"),
+    "tamper": ("ferries", "ferries-fingerprint"),
 }
 _OPTION_UNSET: dict[str, object] = {"groups": None, "switch_round": "auto", "combine": None, "tamper": None}
 

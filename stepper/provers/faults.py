@@ -70,13 +70,13 @@ FAULTS: dict[str, tuple[bool, str]] = {
 
 # glue fault -> the prover kinds that can make it (a fault no prover of a kind makes is refused)
 GLUE_FAULT_KINDS: dict[str, tuple[str, ...]] = {
-    "open-reversed": ("gkr-product", "zerocheck-eq"),
+    "open-reversed": ("gkr-product", "zerocheck-eq", "ferries-fingerprint"),
     "open-other-point": (),
-    "open-wrong-table": ("gkr-product", "zerocheck-eq"),
-    "stale-coefficient": ("gkr-product",),
+    "open-wrong-table": ("gkr-product", "zerocheck-eq", "ferries-fingerprint"),
+    "stale-coefficient": ("gkr-product", "ferries-fingerprint"),
     "drop-eq": ("zerocheck-eq",),
     "double-eq": ("zerocheck-eq",),
-    "final-without-eq": ("gkr-product", "zerocheck-eq"),
+    "final-without-eq": ("gkr-product", "zerocheck-eq", "ferries-fingerprint"),
 }
 
 

@@ -23,10 +23,11 @@ if TYPE_CHECKING:
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 
-__all__ = ["prove_sailing", "PERMUTATION", "DECK"]
+__all__ = ["prove_sailing", "prove_fingerprint", "PERMUTATION", "DECK", "FINGERPRINT"]
 
 PERMUTATION = "boarding-permutation"
 DECK = "deck-slots-zero"
+FINGERPRINT = "manifest"
 
 
 def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_vars: int, groups: int,
@@ -46,3 +47,22 @@ def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_
         perm = prove_permutation_direct(channel, counter, statement, name=PERMUTATION, form=form)
     deck = prove_zero(channel, counter, DECK, deck_tables(field, sailing), list(DECK_CONSTRAINTS), form=form)
     return ProofRun(perm.instances + deck.instances, perm.witness + deck.witness, counter.per_phase())
+
+
+def prove_fingerprint(channel: ProofChannel, counter: MulCounter, *, seed: int, num_vars: int,
+                      tamper: str | None = None, form: str = "evals") -> ProofRun:
+    """The boarding log's fingerprint prod_x (z - g(x)) for a point z drawn after the log
+    is fixed, proved by the GKR product circuit (layers ``manifest.layer1`` ...). Two logs
+    holding the same tickets in any order have the same fingerprint; the port office
+    compares it with the booking ledger's."""
+    from stepper.provers.gkr import prove_grand_product
+
+    field = counter.field
+    sailing = build_sailing(seed, num_vars, tamper=tamper)
+    boarding = ticket_values(field, sailing.boarding)
+    z = channel.statement_challenges("manifest-fingerprint", [boarding.tobytes()], 1)[0]
+    channel.note(f"Brackwater Ferries sailing {sailing.name}: boarding-log fingerprint over "
+                 f"{len(sailing.boarding)} scans, z - ticket multiplied up the manifest circuit")
+    channel.value(f"{FINGERPRINT}.z", z)
+    factors = field.vsub(field.vec([z] * len(boarding)), field.vec(boarding))
+    return prove_grand_product(channel, counter, factors, name=FINGERPRINT, form=form)

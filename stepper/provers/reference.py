@@ -31,8 +31,9 @@ if TYPE_CHECKING:
 
 __all__ = ["KINDS", "ProveSpec", "prove", "parse_field", "random_permutation_statement"]
 
-KINDS = ("generic", "zerocheck", "perm-direct", "perm-grouped", "ferries")
-DEFAULT_COMBINE = {"generic": "a * b + c", "zerocheck": "a * b - c"}
+KINDS = ("generic", "zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
+         "ferries-fingerprint")
+DEFAULT_COMBINE = {"generic": "a * b + c", "zerocheck": "a * b - c", "zerocheck-eq": "a * b - c"}
 
 
 @dataclass(frozen=True, slots=True)
@@ -80,6 +81,8 @@ class ProveSpec:
             return 2
         if self.kind == "ferries":
             return 3 if self.groups else 2
+        if self.kind in ("gkr-product", "ferries-fingerprint"):
+            return max(self.num_vars - 1, 1)
         return 1
 
 
@@ -115,7 +118,7 @@ def prove(spec: ProveSpec, field: Field, sink: EventSink, *, witness: bool = Tru
     channel = ProofChannel(field, sink, label=spec.label or f"stepper reference prover: {spec.kind}", fault=spec.fault)
     counter = MulCounter(field)
     mu = spec.num_vars
-    if spec.kind in ("generic", "zerocheck"):
+    if spec.kind in ("generic", "zerocheck", "zerocheck-eq"):
         from stepper.field.expr import parse
 
         combine = spec.combine or DEFAULT_COMBINE[spec.kind]
@@ -126,7 +129,26 @@ def prove(spec: ProveSpec, field: Field, sink: EventSink, *, witness: bool = Tru
             return prove_sum(channel, counter, "sum", tables, combine, order=spec.order, form=spec.form)
         if combine == DEFAULT_COMBINE["zerocheck"]:
             tables["c"] = field.vmul(tables["a"], tables["b"])  # a * b - c vanishes everywhere
-        return prove_zero(channel, counter, "zero", tables, [combine], order=spec.order, form=spec.form)
+        if spec.kind == "zerocheck":
+            return prove_zero(channel, counter, "zero", tables, [combine], order=spec.order, form=spec.form)
+        from stepper.provers.eqfactored import prove_zero_factored
+
+        if spec.form != "evals":
+            raise UsageError(f"expected no --form with --kind zerocheck-eq (its rounds are eq-factored), "
+                             f"found --form {spec.form}")
+        return prove_zero_factored(channel, counter, "zero", tables, [combine], order=spec.order)
+    if spec.kind in ("gkr-product", "ferries-fingerprint"):
+        if spec.order != "low-first":
+            raise UsageError("expected --order low-first for the GKR product circuit (its layers bind x_1 first)")
+        if spec.kind == "ferries-fingerprint":
+            from stepper.provers.ferries import prove_fingerprint
+
+            return prove_fingerprint(channel, counter, seed=spec.seed, num_vars=mu, tamper=spec.tamper,
+                                     form=spec.form)
+        from stepper.provers.gkr import prove_grand_product
+
+        table = field.base.vrandom(1 << mu, np.random.default_rng(spec.seed))
+        return prove_grand_product(channel, counter, table, form=spec.form)
     if spec.kind == "ferries":
         from stepper.provers.ferries import prove_sailing
 
