@@ -4,7 +4,11 @@ Instances, in order: ``boarding-permutation`` (and, grouped,
 ``boarding-permutation/groups``), then ``deck-slots-zero``. The booking
 ledger is f, the boarding log g, and the scanner's order the permutation the
 operator claims; a ``double-scan`` sailing makes that claim false and the
-proof fails at its first round. Pure apart from the channel's sink.
+proof fails at its first round. The direct permutation check and the deck
+zero-check send their glue (points as values, openings, ``final_expr``).
+:func:`prove_fingerprint` is the sailing's second kind of proof: the boarding
+log's fingerprint through the GKR product circuit, its layers linked by
+``claim_expr``. Pure apart from the channel's sink.
 """
 
 from __future__ import annotations
@@ -45,7 +49,9 @@ def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_
                                          name=PERMUTATION, form=form)
     else:
         perm = prove_permutation_direct(channel, counter, statement, name=PERMUTATION, form=form)
-    deck = prove_zero(channel, counter, DECK, deck_tables(field, sailing), list(DECK_CONSTRAINTS), form=form)
+    earlier = [run.challenges for run in perm.instances]
+    deck = prove_zero(channel, counter, DECK, deck_tables(field, sailing), list(DECK_CONSTRAINTS), form=form,
+                      earlier_points=earlier)
     return ProofRun(perm.instances + deck.instances, perm.witness + deck.witness, counter.per_phase())
 
 

@@ -21,7 +21,9 @@ import numpy as np
 
 from stepper.errors import UsageError
 from stepper.field.expr import parse
+from stepper.field.poly import point_from_challenges
 from stepper.provers.engine import ExprSummand, ProofRun, WitnessInstance, run_tables
+from stepper.provers.openings import send_openings
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
@@ -58,8 +60,13 @@ def prove_sum(channel: ProofChannel, counter: MulCounter, name: str, tables: Map
 
 
 def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Mapping[str, np.ndarray],
-               constraints: Sequence[str], *, order: str = "low-first", form: str = "evals") -> ProofRun:
-    """Prove every constraint vanishes on the hypercube: sum_x eq(tau, x) * C(x) = 0."""
+               constraints: Sequence[str], *, order: str = "low-first", form: str = "evals", prefix: str = "",
+               earlier_points: Sequence[Sequence[Element]] = ()) -> ProofRun:
+    """Prove every constraint vanishes on the hypercube: sum_x eq(tau, x) * C(x) = 0.
+
+    Glue sent: the point as the ``value`` ``<prefix>tau`` (and the mixing
+    coefficient as ``<prefix>gamma``) before the instance, the constraint tables'
+    openings after it, and ``final_expr`` = eq(tau) * C over those openings."""
     field = counter.field
     if not constraints:
         raise UsageError("expected at least one constraint for a zero-check")
@@ -71,7 +78,7 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
     counter.phase(f"{name}/setup")
     tau = channel.statement_challenges("zero-check-point", statement, num_vars)
     eq = counter.eq_table(tau)
-    weights, _ = mix_constraints(channel, counter, constraints, statement)
+    weights, gamma = mix_constraints(channel, counter, constraints, statement)
     combine, extra = mix_witness(counter, constraints, weights, eq)
     env = {**used, **extra}
     summand = ExprSummand.of(parse(combine))
@@ -79,7 +86,19 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
     if missing:
         raise UsageError(f"expected a table for every name in the constraints, found none for {', '.join(missing)}")
     env = {n: env[n] for n in summand.names}
-    run, _ = run_tables(channel, counter, name, env, summand, field.zero, order=order, form=form)
+    opened = tuple(n for n in summand.names if n in used)
+    tau_name, gamma_name = f"{prefix}tau", f"{prefix}gamma"
+    channel.value(tau_name, list(tau))
+    if gamma is not None:
+        channel.value(gamma_name, gamma)
+    inner = renamed(constraints, prefix, opened, gamma_name)
+    fault = channel.fault
+    without_eq = fault is not None and fault.name == "final-without-eq" and fault.instance == channel.instance + 1
+    glue = {"final_expr": inner if without_eq else f"eq({tau_name}) * ({inner})"}
+    run, folded = run_tables(channel, counter, name, env, summand, field.zero, order=order, form=form, glue=glue)
+    point = point_from_challenges(run.challenges, order)
+    ends = {n: field.vlist(folded[n])[0] for n in opened}
+    send_openings(channel, {n: used[n] for n in opened}, ends, point, prefix=prefix, earlier_points=earlier_points)
     return ProofRun((run,), (WitnessInstance(name, env, combine, order),), counter.per_phase())
 
 

@@ -25,6 +25,7 @@ import numpy as np
 from stepper.errors import InputError
 from stepper.provers.bucketing import bit_tables
 from stepper.provers.engine import ProductSummand, ProofRun, WitnessInstance, run_tables
+from stepper.provers.openings import send_openings
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
@@ -76,8 +77,13 @@ def select_table(field: Field, bits: np.ndarray, when0: Element, when1: Element)
 
 
 def prove_permutation_direct(channel: ProofChannel, counter: MulCounter, statement: PermStatement, *,
-                             name: str = "permutation", form: str = "evals") -> ProofRun:
-    """Prove g~(alpha) = sum_y f(y) * prod_i e_i(y) in one sumcheck of degree mu + 1."""
+                             name: str = "permutation", form: str = "evals", prefix: str = "") -> ProofRun:
+    """Prove g~(alpha) = sum_y f(y) * prod_i e_i(y) in one sumcheck of degree mu + 1.
+
+    Glue sent: alpha as the ``value`` ``<prefix>alpha`` before the instance; after
+    it the openings of f and of the bit tables s_i of sigma^-1, and ``final_expr``
+    f * prod_i ((1 - alpha_i) + (2 alpha_i - 1) * s_i) over them (what a verifier
+    with oracle access to f and the bits computes)."""
     field = counter.field
     mu = statement.num_vars
     counter.phase(f"{name}/setup")
@@ -85,9 +91,21 @@ def prove_permutation_direct(channel: ProofChannel, counter: MulCounter, stateme
     claim = counter.mle(field.vec(statement.g), alpha)
     bits = bit_tables(statement.inverse(), mu)
     tables: dict[str, np.ndarray] = {"f": field.vec(statement.f)}
+    committed: dict[str, np.ndarray] = {"f": tables["f"]}
     for i in range(mu):
         tables[f"e{i + 1}"] = select_table(field, bits[i], field.sub(field.one, alpha[i]), alpha[i])
+        committed[f"s{i + 1}"] = field.vec(bits[i].astype(np.int64))
     summand = ProductSummand(tuple(tables))
-    run, _ = run_tables(channel, counter, name, tables, summand, claim, form=form)
-    witness = WitnessInstance(name, tables, summand.combine())
+    alpha_name = f"{prefix}alpha"
+    channel.value(alpha_name, list(alpha))
+    factors = [f"{prefix}f", *(f"(1 - {alpha_name}[{i}] + (2 * {alpha_name}[{i}] - 1) * {prefix}s{i + 1})"
+                               for i in range(mu))]
+    run, folded = run_tables(channel, counter, name, tables, summand, claim, form=form,
+                             glue={"final_expr": " * ".join(factors)})
+    counter.phase(f"{name}/openings")
+    ends = {"f": field.vlist(folded["f"])[0]}
+    for i in range(mu):
+        ends[f"s{i + 1}"] = counter.mle(committed[f"s{i + 1}"], run.challenges)
+    send_openings(channel, committed, ends, run.challenges, prefix=prefix)
+    witness = WitnessInstance(name, {**tables, **committed}, summand.combine())
     return ProofRun((run,), (witness,), counter.per_phase())
