@@ -17,7 +17,9 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from stepper.errors import UsageError
 from stepper.provers.engine import ProofRun
+from stepper.provers.faults import GLUE_FAULT_KINDS
 from stepper.provers.generic import prove_zero
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
@@ -39,6 +41,13 @@ def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_
     """Both statements of the sailing ``seed`` builds (route from the seed); ``groups`` 0
     proves the permutation directly."""
     field = counter.field
+    fault = channel.fault
+    deck_index = 2 if groups else 1
+    if fault is not None and fault.name in GLUE_FAULT_KINDS and fault.instance != deck_index and (
+            groups or fault.name not in ("open-reversed", "open-wrong-table")):
+        raise UsageError(f"expected fault {fault.name} aimed at the deck zero-check (--fault-instance {deck_index})"
+                         + ("" if groups else " or, for an opening fault, the permutation (0)")
+                         + f", found instance {fault.instance}")
     sailing = build_sailing(seed, num_vars, tamper=tamper)
     channel.note(f"Brackwater Ferries sailing {sailing.name}: {len(sailing.tickets)} tickets, "
                  f"{sum(sailing.occupied)} cars on deck")

@@ -52,6 +52,9 @@ def opened_values(channel: ProofChannel, tables: Mapping[str, np.ndarray], folde
         out[names[0]] = out[names[1]]
         return out
     if fault.name == "open-reversed":
+        if len(point) < 2:
+            raise UsageError(f"fault open-reversed needs a point of two or more variables; instance "
+                             f"{channel.instance} has {len(point)}")
         at = tuple(reversed(tuple(point)))
     else:
         same = [tuple(p) for p in earlier_points if len(p) == len(point)]
