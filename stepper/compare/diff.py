@@ -9,7 +9,10 @@ and returns a :class:`Comparison`; no I/O. Invariants:
 * the first divergence is the earliest differing element in A's order: the
   field, the order of instances, an instance's statement (num_vars, degree,
   order, form), its batch, its claim, then round by round the values sent and
-  the challenge, then the final value, then rounds or instances one side lacks;
+  the challenge, then the final value, then the glue after it (values, squeezes,
+  openings), then rounds or instances one side lacks; glue before the first
+  instance comes first, and an instance's claim_expr / final_expr / eq_point
+  belong to its statement;
 * exactly one :class:`Classification` (a kind from :data:`KINDS`, one sentence)
   is given; further observations go to ``remarks``;
 * header metadata, notes, bucket statistics and unknown events are annotations,

@@ -9,7 +9,8 @@ different challenges (Fiat-Shamir drift) or a different polynomial after
 identical challenges (prover arithmetic). Each test needs evidence from the
 data (a constant factor must hold on at least two values or be a named
 radix; a shift must line up at least one further round) so that a random
-difference is never dressed up as a pattern.
+difference is never dressed up as a pattern. Glue (values, squeezes, openings,
+links) is compared by :mod:`stepper.compare.glue_divergence`.
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ from stepper.compare.alignment import (
     same_poly,
     value_label,
 )
+from stepper.compare.glue_divergence import claim_link, glue_divergence, link_keys_divergence
 from stepper.field.field import Element, Field
 from stepper.field.poly import lagrange_at
 from stepper.diagnose.radix import constant_ratio, factor_name
@@ -47,6 +49,9 @@ def find_divergence(a: Transcript, b: Transcript, pairs: Sequence[InstancePair])
     field = a.field
     if a.schedule != b.schedule:
         remarks.append(f"The schedule declarations differ: A {_schedule(a)}, B {_schedule(b)}.")
+    before = glue_divergence(field, a.glue, b.glue, where="before the first instance")
+    if before is not None:
+        return before[0], before[1], remarks + before[2]
     order = _instance_order(field, a, b, pairs)
     if order is not None:
         inner = _scan(field, pairs)
@@ -131,6 +136,10 @@ def _scan_instance(field: Field, pair: InstancePair) -> Found | None:
         va, vb = getattr(sa, key), getattr(sb, key)
         if va != vb:
             return _statement(field, pair, key, va, vb)
+    where = (pair.pairing.a, pair.pairing.b, pair.pairing.name)
+    linked = link_keys_divergence(field, ia, ib, where)
+    if linked is not None:
+        return linked
     if sa.batch is not None and sb.batch is not None:
         found = _batch(field, pair)
         if found is not None:
@@ -140,7 +149,7 @@ def _scan_instance(field: Field, pair: InstancePair) -> Found | None:
         factor = _factor_from(field, pair, start=0)
         if factor is not None:
             return div, factor, []
-        return div, Classification(
+        return div, claim_link(ia) or Classification(
             "different-claim",
             "The claimed sums differ while everything before agrees: the two runs summed different "
             "tables (witness or inputs) or computed the claim differently."), []
@@ -166,7 +175,8 @@ def _scan_instance(field: Field, pair: InstancePair) -> Found | None:
                    None if ia.final is None else field.fmt(ia.final), None if ib.final is None else field.fmt(ib.final))
         return div, Classification(
             "truncated", f"{side.upper()} has no final value; every round both sides hold agrees.", side=side), []
-    return None
+    return glue_divergence(field, ia.glue, ib.glue, where=f"after instance '{pair.pairing.name}'", instance=where,
+                           round_=sa.num_vars)
 
 
 def _statement(field: Field, pair: InstancePair, key: str, va: object, vb: object) -> Found:

@@ -33,6 +33,10 @@ KINDS: dict[str, str] = {
     "final-value": "every round agrees but the final value differs",
     "truncated": "one side stops early; everything both sides have agrees",
     "extra-instance": "one side has an instance the other lacks",
+    "different-opening": "every round agrees but an opening (a table's value at the instance's point) differs",
+    "squeeze-drift": "a squeezed value differs while everything before it agrees",
+    "different-value": "a named public value differs",
+    "link": "an instance's claim_expr, final_expr or eq_point differs, or its claim while the glue it links agrees",
 }
 
 CAUTION = (
@@ -87,7 +91,7 @@ JSON_SCHEMA: dict[str, Any] = {
                                  "a", "b"],
                     "properties": {
                         "element": {"enum": ["field", "instance", "statement", "batch", "claim", "value",
-                                             "challenge", "final", "round"]},
+                                             "challenge", "final", "round", "squeeze", "opening"]},
                         "instance_a": _NULLABLE_INT,
                         "instance_b": _NULLABLE_INT,
                         "instance_name": _NULLABLE_TEXT,
