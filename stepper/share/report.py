@@ -34,6 +34,8 @@ __all__ = [
     "bucket_rows",
     "reveals",
     "short",
+    "glue_lines",
+    "link_lines",
 ]
 
 SHORT = 22  # characters of an element shown in a table cell
@@ -79,6 +81,7 @@ class InstanceSection:
     closing: tuple[str, ...]  # batch and final checks, one sentence each
     buckets: tuple[BucketRow, ...]
     notes: tuple[str, ...]
+    glue: tuple[str, ...] = ()  # links, evaluations, then the openings, values and squeezes after the instance
 
 
 @dataclass(frozen=True, slots=True)
@@ -95,6 +98,7 @@ class ReportDoc:
     notes: tuple[str, ...]  # proof-level notes
     privacy: tuple[str, ...]
     with_witness: bool
+    glue: tuple[str, ...] = ()  # values and squeezes sent before the first instance
 
 
 def short(text: str, limit: int = SHORT) -> str:
@@ -153,7 +157,7 @@ def build(transcript: Transcript, report: Report, diagnosis: Diagnosed | None = 
     return ReportDoc(
         title, tuple(summary), report.verdict, PASSING_REPLAY_WARNING, tuple(failure), tuple(root),
         tuple(root_fields), tuple(findings), sections, notes, reveals(transcript, diagnosis is not None),
-        diagnosis is not None,
+        diagnosis is not None, glue_lines(field, transcript.glue),
     )
 
 
@@ -212,8 +216,39 @@ def _section(field: Field, inst: InstanceRecord, summary: InstanceSummary | None
         closing.append("no final value was sent, so the last reduced claim is not checked against an oracle")
     status = summary.status if summary is not None else "not replayed"
     notes = tuple(_note_text(n.text, inst.name, n.round) for n in inst.notes)
+    glue = (*link_lines(field, inst), *glue_lines(field, inst.glue))
     return InstanceSection(s.index, inst.name, statement, status, tuple(rows), tuple(closing),
-                           bucket_rows(inst.buckets), notes)
+                           bucket_rows(inst.buckets), notes, glue)
+
+
+def glue_lines(field: Field, glue: Sequence[Any]) -> tuple[str, ...]:
+    """One line per value, squeeze or opening, in stream order (lists shortened per element)."""
+    lines = []
+    for event in glue:
+        kind = type(event).__name__
+        if kind == "Opening":
+            table = "" if event.table == event.name else f" (table {event.table})"
+            lines.append(f"opening {event.name}{table} = {short(field.fmt(event.value), 40)}")
+            continue
+        items = [short(field.fmt(v)) for v in event.items()]
+        shown = f"[{', '.join(items)}]" if event.listed else items[0]
+        lines.append(f"{'squeeze' if kind == 'Squeeze' else 'value'} {event.name} = {shown}")
+    return tuple(lines)
+
+
+def link_lines(field: Field, inst: InstanceRecord) -> tuple[str, ...]:
+    """The instance's glue keys as sent: its eq point, claim_expr and final_expr."""
+    s = inst.start
+    lines = []
+    if s.eq_point is not None:
+        point = s.eq_point if isinstance(s.eq_point, str) else "[" + ", ".join(
+            short(field.fmt(v)) for v in s.eq_point) + "]"
+        lines.append(f"eq_point {point}: rounds sent eq-factored")
+    if s.claim_expr is not None:
+        lines.append(f"claim_expr {s.claim_expr}")
+    if s.final_expr is not None:
+        lines.append(f"final_expr {s.final_expr}")
+    return tuple(lines)
 
 
 def bucket_rows(stats: Sequence[BucketStats]) -> tuple[BucketRow, ...]:
@@ -235,8 +270,9 @@ def reveals(transcript: Transcript, with_witness: bool = False) -> tuple[str, ..
     """What a transcript (and a report made from it) makes public, in plain sentences."""
     lines = [
         "A transcript holds public values only: the field, each instance's statement (name, num_vars, degree, "
-        "order, form) and claimed sum, the round polynomials, the challenges, the final values, bucket counts "
-        "and sizes, notes and the recording metadata. It never holds the witness tables.",
+        "order, form) and claimed sum, the round polynomials, the challenges, the final values, the named "
+        "values, squeezes and openings (a table's claimed value at one point), bucket counts and sizes, notes "
+        "and the recording metadata. It never holds the witness tables.",
         "Everything in this report is derived from those public values and the verifier replay.",
     ]
     if transcript.header.metadata:
@@ -254,6 +290,8 @@ def to_markdown(doc: ReportDoc) -> str:
     """The report as GitHub-flavoured Markdown (tables, text bar charts)."""
     out = [f"# {_md(doc.title)}", "", f"> **Caution.** {_md(doc.caution)}", "", "## Summary", ""]
     out += ["| | |", "|---|---|"] + [f"| {_md(k)} | {_md(v)} |" for k, v in doc.summary]
+    if doc.glue:
+        out += ["", "## Values and squeezes before the first instance", ""] + [f"- {_md(g)}" for g in doc.glue]
     out += ["", "## First failure", ""]
     if doc.failure:
         out += [f"- **{_md(k)}**: {_md(v)}" for k, v in doc.failure]
@@ -275,6 +313,8 @@ def to_markdown(doc: ReportDoc) -> str:
             if r.status == "fail":
                 out.append(f"\n**Round {r.number} fails:** {_md(r.explanation)}")
         out += [""] + [f"- {_md(c)}" for c in sec.closing]
+        if sec.glue:
+            out += ["", "### Glue", ""] + [f"- {_md(g)}" for g in sec.glue]
         if sec.buckets:
             out += ["", "### Bucket occupancy", "", "```"] + _text_chart(sec.buckets) + ["```"]
         if sec.notes:

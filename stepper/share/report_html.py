@@ -43,6 +43,10 @@ def to_html(doc: ReportDoc) -> str:
         f'<p class="caution"><strong>Caution.</strong> {e(doc.caution)}</p>',
         '<h2 id="summary">Summary</h2>',
         _pairs(doc.summary, first_class=f"verdict-{doc.verdict}"),
+    ]
+    if doc.glue:
+        parts += ['<h2 id="glue">Values and squeezes before the first instance</h2>', _list(doc.glue)]
+    parts += [
         '<h2 id="first-failure">First failure</h2>',
         _pairs(doc.failure) if doc.failure else "<p>None: every check present passed.</p>",
     ]
@@ -90,6 +94,8 @@ def _instance(sec: InstanceSection) -> str:
         )
     out.append("</table>")
     out.append(_list(sec.closing))
+    if sec.glue:
+        out += [f"<h3>Glue of {e(sec.name)}</h3>", _list(sec.glue)]
     if sec.buckets:
         out += [f"<h3>Bucket occupancy of {e(sec.name)}</h3>", bucket_chart(sec.buckets, sec.name)]
     if sec.notes:
