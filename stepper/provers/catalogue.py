@@ -29,8 +29,9 @@ class Example:
 
 
 def _ferries(stem: str, shows: str, *, groups: int = 2, fault: str | None = None, tamper: str | None = None,
-             num_vars: int = 6, form: str = "evals") -> Example:
-    spec = ProveSpec("ferries", num_vars, DEMO_SEED, groups, None, parse_fault(fault) if fault else None,
+             num_vars: int = 6, form: str = "evals", kind: str = "ferries", fault_instance: int = 0) -> Example:
+    spec = ProveSpec(kind, num_vars, DEMO_SEED, groups, None,
+                     parse_fault(fault, fault_instance) if fault else None,
                      "low-first", form, None, tamper, f"Brackwater Ferries {stem}")
     return Example(stem, spec, "babybear", shows)
 
@@ -64,6 +65,15 @@ EXAMPLES: tuple[Example, ...] = (
     _ferries("bug-unbound-claim", "Fiat-Shamir bug: the claim is not absorbed (check with "
              "--challenges samples/weak_schedule.py:derive to see the binding probe)",
              groups=0, num_vars=5, fault="unbound-claim"),
+    _ferries("ferries-fingerprint", "the boarding log's fingerprint multiplied up the manifest circuit, each "
+             "layer's claim linked to the layer below: accepted", kind="ferries-fingerprint", groups=0,
+             num_vars=4),
+    _ferries("glue-wrong-opening", "glue bug: the deck-slot proof opens the vehicle-length column where the "
+             "occupancy column was due (evaluation fails; the witness names the opening)",
+             groups=0, num_vars=5, fault="open-wrong-table", fault_instance=1),
+    _ferries("glue-broken-link", "glue bug: layer 2 of the manifest circuit builds its claim with layer 1's "
+             "coefficient (the link check fails at round 0)", kind="ferries-fingerprint", groups=0, num_vars=4,
+             fault="stale-coefficient", fault_instance=1),
 )
 
 DEMO_FAILING = "ferries-stale-challenge"
