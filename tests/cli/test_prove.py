@@ -212,3 +212,52 @@ def test_demo_run_again_on_its_own_unchanged_folder_succeeds_and_leaves_other_fi
     before = {p.name: p.read_bytes() for p in folder.iterdir()}
     assert main(["demo", "--dir", str(folder), "--no-view"]) == 0
     assert {p.name: p.read_bytes() for p in folder.iterdir()} == before  # the demo's bytes do not depend on the clock
+
+
+@pytest.mark.parametrize("kind, num_vars", [("zerocheck-eq", "4"), ("gkr-product", "4"), ("ferries-fingerprint", "4")])
+def test_the_glue_kinds_write_transcripts_that_check_accepts_with_their_witness(kind, num_vars, tmp_path, capsys):
+    witness = tmp_path / "w.json"
+    out = tmp_path / "p.sumtr"
+    assert main(["prove", "-o", str(out), "--num-vars", num_vars, "--kind", kind, "--witness-out", str(witness)]) == 0
+    capsys.readouterr()
+    assert main(["check", str(out), "--witness", str(witness), "--json"]) == 0
+    report = json.loads(capsys.readouterr().out)
+    assert report["verdict"] == "accept" and report["root_cause"] is None
+
+
+# where the verifier must notice each glue fault (contract 3; common practice, no source): a wrong opening
+# breaks final_expr at the instance's last round (evaluation), a claim that does not follow its claim_expr
+# breaks the link at round 0, an eq-factored round scaled by the eq factor breaks g(0) + g(1) at its round
+GLUE_EXPECTED = [
+    (["--kind", "zerocheck", "--fault", "open-wrong-table"], 0, 4, "evaluation"),
+    (["--kind", "zerocheck-eq", "--fault", "open-reversed"], 0, 4, "evaluation"),
+    (["--kind", "zerocheck-eq", "--fault", "drop-eq@3"], 0, 3, "sum"),
+    (["--kind", "zerocheck-eq", "--fault", "double-eq@2"], 0, 2, "sum"),
+    (["--kind", "zerocheck", "--fault", "final-without-eq"], 0, 4, "evaluation"),
+    (["--kind", "gkr-product", "--fault", "stale-coefficient", "--fault-instance", "1"], 1, 0, "link"),
+    (["--kind", "gkr-product", "--fault", "open-wrong-table", "--fault-instance", "1"], 1, 2, "evaluation"),
+]
+
+
+@pytest.mark.parametrize("flags, instance, round_, check", GLUE_EXPECTED)
+def test_each_glue_fault_is_rejected_where_contract_3_says(flags, instance, round_, check, tmp_path, capsys):
+    out = tmp_path / "p.sumtr"
+    assert main(["prove", "-o", str(out), "--num-vars", "4", *flags]) == 0
+    capsys.readouterr()
+    assert main(["check", str(out), "--json"]) == 1
+    first = json.loads(capsys.readouterr().out)["first_failure"]
+    assert (first["instance"], first["round"], first["check"]) == (instance, round_, check)
+
+
+@pytest.mark.parametrize("flags, message", [
+    (["--kind", "generic", "--fault", "open-reversed"], "prover kind that makes it"),
+    (["--kind", "gkr-product", "--num-vars", "2"], "n >= 3"),
+    (["--kind", "zerocheck-eq", "--fault", "drop-eq@1"], "K >= 2"),
+    (["--kind", "zerocheck-eq", "--form", "coeffs"], "eq-factored"),
+    (["--kind", "gkr-product", "--fault", "stale-coefficient"], "earlier coefficient"),
+])
+def test_glue_flags_that_cannot_work_are_one_line_and_exit_2(flags, message, tmp_path, capsys):
+    assert main(["prove", "-o", str(tmp_path / "p.sumtr"), "--num-vars", "4", *flags]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and message in err[0]
+    assert not (tmp_path / "p.sumtr").exists()
