@@ -22,8 +22,8 @@ from stepper.errors import StepperError
 from stepper.provers.faults import parse_fault
 from stepper.provers.reference import ProveSpec, parse_field, prove
 from stepper.transcript.recorder import Recorder
-from stepper.transcript.model import (BatchDecl, BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
-                                RoundMsg, ScheduleDecl)
+from stepper.transcript.model import (BatchDecl, BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart,
+                                      NamedValue, Note, Opening, RoundMsg, ScheduleDecl, Squeeze)
 
 
 class RecorderSink:
@@ -42,7 +42,15 @@ class RecorderSink:
             return rec.batch(record.coefficient, record.terms, record.sources)
         if isinstance(record, InstanceStart):
             return rec.instance(record.name, record.num_vars, record.degree, record.claim, order=record.order,
-                                form=record.form)
+                                form=record.form, claim_expr=record.claim_expr, final_expr=record.final_expr,
+                                eq_point=record.eq_point if isinstance(record.eq_point, (str, type(None)))
+                                else list(record.eq_point))
+        if isinstance(record, NamedValue):
+            return rec.value(record.name, list(record.value) if record.listed else record.value)
+        if isinstance(record, Squeeze):
+            return rec.squeeze(record.name, list(record.value) if record.listed else record.value)
+        if isinstance(record, Opening):
+            return rec.opening(record.name, record.value, None if record.table == record.name else record.table)
         if isinstance(record, RoundMsg):
             return rec.round(record.values)
         if isinstance(record, ChallengeMsg):

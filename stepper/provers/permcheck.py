@@ -104,8 +104,13 @@ def prove_permutation_direct(channel: ProofChannel, counter: MulCounter, stateme
                              glue={"final_expr": " * ".join(factors)})
     counter.phase(f"{name}/openings")
     ends = {"f": field.vlist(folded["f"])[0]}
-    for i in range(mu):
-        ends[f"s{i + 1}"] = counter.mle(committed[f"s{i + 1}"], run.challenges)
+    for i in range(mu):  # s~_i(r) from the folded e~_i(r) = (1 - alpha_i) + (2 alpha_i - 1) s~_i(r): one product
+        slope = field.sub(field.add(alpha[i], alpha[i]), field.one)
+        e_i = field.vlist(folded[f"e{i + 1}"])[0]
+        if field.is_zero(slope):  # alpha_i = 1/2: e_i is constant, so fold the bits themselves
+            ends[f"s{i + 1}"] = counter.mle(committed[f"s{i + 1}"], run.challenges)
+        else:
+            ends[f"s{i + 1}"] = counter.mul(field.sub(e_i, field.sub(field.one, alpha[i])), field.inv(slope))
     send_openings(channel, committed, ends, run.challenges, prefix=prefix)
     witness = WitnessInstance(name, {**tables, **committed}, summand.combine())
     return ProofRun((run,), (witness,), counter.per_phase())

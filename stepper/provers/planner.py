@@ -92,10 +92,11 @@ def _log2(x: Fraction) -> float:
 
 
 def direct_cost(num_vars: int) -> int:
-    """Products of :func:`stepper.provers.permcheck.prove_permutation_direct`."""
+    """Products of :func:`stepper.provers.permcheck.prove_permutation_direct`: the claim,
+    the rounds, the final value and one product per bit opening."""
     mu, n = num_vars, 1 << num_vars
     rounds = sum((1 << (mu - k)) * ((mu + 2) * mu + mu + 1) for k in range(1, mu + 1))
-    return (n - 1) + rounds + mu
+    return (n - 1) + rounds + mu + mu
 
 
 def measure_buckets(bits: Sequence[np.ndarray], widths_groups: Sequence[Sequence[int]], num_vars: int
