@@ -25,6 +25,11 @@ Probes (name: what the faulty prover does):
   coefficient (an unwrapped v + p >= p is rejected by the loader before any probe
   runs); possible only when p > 2^(w-1), e.g. Goldilocks with w = 64.
 
+The glue probes (``opening-point``, ``opening-table``, ``stale-coefficient``,
+``eq-factor``, ``final-without-eq``) are registered in :data:`GLUE_PROBES`
+(:mod:`stepper.diagnose.glue_probes`); they explain a failed glue check rather
+than a wrong round, and :mod:`stepper.diagnose.glue_evidence` runs them.
+
 Pure: no I/O; the only heavy work is re-folding the witness tables. The binding- and
 challenge-order probes live in :mod:`stepper.diagnose.order_probes`, the evidence they share in
 :mod:`stepper.diagnose.probe_evidence`; this module holds the arithmetic probes and the registry.
@@ -38,6 +43,7 @@ from stepper.diagnose.honest import table_round_sums
 from stepper.diagnose.order_probes import (
     probe_challenge_shift, probe_earlier_order_switch, probe_reversed_point, probe_variable_order,
 )
+from stepper.diagnose.glue_probes import GLUE_PROBES
 from stepper.field.poly import lagrange_at
 from stepper.diagnose.probe_evidence import (
     ProbeContext, ProbeFinding, coeffs_of, first_difference, first_entry, fmt_all, honest_values, in_form,
@@ -47,7 +53,7 @@ from stepper.diagnose.probe_evidence import (
 if TYPE_CHECKING:
     from stepper.field.field import Element
 
-__all__ = ["ProbeContext", "ProbeFinding", "PROBES", "run_probes", "first_difference", "MONTGOMERY_RADIX_BITS"]
+__all__ = ["ProbeContext", "ProbeFinding", "PROBES", "GLUE_PROBES", "run_probes", "first_difference", "MONTGOMERY_RADIX_BITS"]
 
 MONTGOMERY_RADIX_BITS = (32, 64, 256)
 WORD_BITS = (32, 64)

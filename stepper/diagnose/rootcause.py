@@ -27,7 +27,9 @@ disagree), and names the first of:
 Eq-factored rounds are compared as the verifier's g_k (the sent q_k times the
 eq factor), the polynomial the witness's combine describes.
 
-Then :mod:`stepper.diagnose.probes` tests known bug classes against that evidence.
+Then :mod:`stepper.diagnose.probes` tests known bug classes against that evidence,
+and :mod:`stepper.diagnose.glue_evidence` asks the glue probes about the verifier's
+first failure when it is a glue check (link, evaluation, an eq-factored sum).
 Agreement with the witness is evidence about this one run, never a soundness
 proof. Pure: no I/O; progress is reported through an optional callback.
 """
@@ -41,6 +43,7 @@ from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, honest_rounds
 from stepper.field.poly import RoundPoly, lagrange_at, mle_eval, point_from_challenges
 from stepper.transcript.model import Opening
+from stepper.diagnose.glue_evidence import glue_findings
 from stepper.diagnose.probes import ProbeContext, ProbeFinding, first_difference, run_probes
 from stepper.diagnose.witness import FittedInstance, fit_witness
 
@@ -275,6 +278,8 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
         if cause is not None:
             findings = _opening_probes(field, inst, cause, fit.tables, shared, transcript)
             break
+    # link, evaluation and eq-factored sums need no witness (the opening probes ran above)
+    findings = (*findings, *glue_findings(transcript, report.first_failure))
     unchecked = tuple(i.name for j, i in enumerate(transcript.instances) if j not in fitted)
     by_position = tuple((fit.witness_name, fit.name) for fit in fitted.values()
                         if fit.witness_name and fit.witness_name != fit.name)
