@@ -271,7 +271,7 @@ def test_every_kind_has_a_description_and_the_schema_is_valid():
 
 # ----- pairs from the reference provers (stepper.provers), one per named fault -----------------------
 from stepper.provers.channel import ListSink  # noqa: E402
-from stepper.provers.faults import FAULTS, GLUE_FAULT_KINDS, parse_fault  # noqa: E402
+from stepper.provers.faults import FAULTS, parse_fault  # noqa: E402
 from stepper.provers.reference import ProveSpec, parse_field, prove  # noqa: E402
 
 # fault -> (kind, element, round) of the first divergence against the honest run of the same sailing
@@ -287,16 +287,40 @@ EXPECTED_FAULT_DIFFS = {
 }
 
 
-def reference_run(field_name: str, fault: str | None = None, kind: str = "ferries", mu: int = 4):
+# glue faults: (prover kind, fault, instance it hits) -> (kind, element, round) of the first divergence.
+# A wrong opening follows identical rounds; a claim that breaks its claim_expr is the link; a final_expr
+# written differently is a link in the statement; an eq-factored round scaled by the eq factor differs
+# from the honest one by that one constant on every value (common practice, no source).
+EXPECTED_GLUE_DIFFS = {
+    ("ferries", "open-wrong-table", 2): ("different-opening", "opening", 4),
+    ("ferries", "open-other-point", 2): ("different-opening", "opening", 4),
+    ("zerocheck-eq", "open-reversed", 0): ("different-opening", "opening", 4),
+    ("gkr-product", "stale-coefficient", 1): ("link", "claim", 0),
+    ("zerocheck-eq", "drop-eq@2", 0): ("constant-factor", "value", 2),
+    ("zerocheck-eq", "double-eq@3", 0): ("constant-factor", "value", 3),
+    ("zerocheck", "final-without-eq", 0): ("link", "statement", 0),
+}
+
+
+def reference_run(field_name: str, fault: str | None = None, kind: str = "ferries", mu: int = 4, instance: int = 0):
     sink = ListSink()
-    prove(ProveSpec(kind, num_vars=mu, fault=None if fault is None else parse_fault(fault)),
+    prove(ProveSpec(kind, num_vars=mu, fault=None if fault is None else parse_fault(fault, instance)),
           parse_field(field_name), sink)
     return sink.transcript()
 
 
-def test_every_round_fault_has_an_expected_diff():
-    # the glue faults are made by the glue provers only, not by the ferries sailing compared here
-    assert {f.split("@")[0] for f in EXPECTED_FAULT_DIFFS} == set(FAULTS) - set(GLUE_FAULT_KINDS)
+def test_every_named_fault_has_an_expected_diff():
+    glue = {fault.split("@")[0] for _, fault, _ in EXPECTED_GLUE_DIFFS}
+    assert {f.split("@")[0] for f in EXPECTED_FAULT_DIFFS} | glue == set(FAULTS)
+
+
+@pytest.mark.parametrize("kind, fault, instance", sorted(EXPECTED_GLUE_DIFFS))
+def test_glue_faults_are_classified(kind, fault, instance):
+    c = compare(reference_run("babybear", kind=kind), reference_run("babybear", fault, kind=kind, instance=instance))
+    d = c.divergence
+    assert (c.classification.kind, d.element, d.round) == EXPECTED_GLUE_DIFFS[(kind, fault, instance)]
+    assert d.instance_a == instance
+    assert_valid_json(c)
 
 
 @pytest.mark.parametrize("fault", sorted(EXPECTED_FAULT_DIFFS))
