@@ -144,3 +144,33 @@ def test_bucket_rows_sum_chunks_per_round_and_the_chart_marks_every_round():
 def test_long_elements_are_shortened_in_the_middle():
     assert short("1234567890" * 5, 13) == "12345...67890"
     assert short("42") == "42"
+
+
+def test_the_glue_is_listed_per_instance_and_before_the_first_instance():
+    import numpy as np
+
+    from stepper.field.field import NAMED_PRIMES, get_field
+    from stepper.provers.channel import ListSink, ProofChannel
+    from stepper.provers.counting import MulCounter
+    from stepper.provers.gkr import prove_grand_product
+
+    field = get_field(NAMED_PRIMES["babybear"])
+    sink = ListSink()
+    prove_grand_product(ProofChannel(field, sink), MulCounter(field), field.vrandom(8, np.random.default_rng(5)))
+    transcript = sink.transcript()
+    doc = build(transcript, replay_transcript(transcript))
+    assert [line.split(" = ")[0] for line in doc.glue] == ["value product.outputs", "squeeze product.c1",
+                                                           "value product.r1"]
+    first = doc.instances[0].glue
+    assert first[0] == "claim_expr (1 - product.c1) * product.outputs[0] + product.c1 * product.outputs[1]"
+    assert first[1] == "final_expr eq(product.r1) * product.v2.lo * product.v2.hi"
+    assert [line.split(" = ")[0] for line in first[2:]] == [
+        "opening product.v2.lo (table v2.lo)", "opening product.v2.hi (table v2.hi)", "squeeze product.c2",
+        "value product.r2"]
+    opening = next(g for g in transcript.instances[0].glue if g.name == "product.v2.lo")
+    assert first[2].endswith(field.fmt(opening.value))
+    markdown = to_markdown(doc)
+    assert "## Values and squeezes before the first instance" in markdown and "### Glue" in markdown
+    page = to_html(doc)
+    assert "Glue of product.layer1" in page and "squeeze product.c2" in page
+    assert "openings (a table's claimed value at one point)" in " ".join(doc.privacy)
