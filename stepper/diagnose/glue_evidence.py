@@ -61,7 +61,7 @@ def _scope_values(glue: list[Any]) -> dict[str, object]:
     values: dict[str, object] = {}
     for event in glue:
         values[event.name] = event.value if type(event).__name__ == "Opening" else (
-            tuple(event.value) if event.listed else event.value)
+            list(event.value) if event.listed else event.value)  # a point is a list in a GlueScope
     return values
 
 
@@ -71,7 +71,7 @@ def eq_point_of(inst: InstanceRecord, values: Mapping[str, object]) -> tuple[Ele
         return None
     if isinstance(point, str):
         found = values.get(point)
-        return tuple(found) if isinstance(found, tuple) else None
+        return tuple(found) if isinstance(found, (list, tuple)) else None
     return tuple(point)
 
 
@@ -150,7 +150,7 @@ def _findings(transcript: Transcript, failure: Failure, tables: Mapping[str, np.
     found: list[ProbeFinding] = []
     if failure.check == "link" and inst.start.claim_expr is not None:
         expr = parse(inst.start.claim_expr, "claim_expr")
-        squeezes = [(e.name, tuple(e.value) if e.listed else e.value) for e in before
+        squeezes = [(e.name, list(e.value) if e.listed else e.value) for e in before
                     if type(e).__name__ == "Squeeze"]
 
         def evaluate(over: Mapping[str, object]) -> Element:
@@ -173,7 +173,7 @@ def _findings(transcript: Transcript, failure: Failure, tables: Mapping[str, np.
             expr = parse(inst.start.final_expr, "final_expr")
             value = expr.evaluate_glue(field, GlueScope(own, points, finals, point))
             reduced = _reduced(field, inst, w)
-            candidates = {n: v for n, v in own.items() if isinstance(v, tuple) and len(v) == len(point)}
+            candidates = {n: tuple(v) for n, v in own.items() if isinstance(v, list) and len(v) == len(point)}
             if w is not None and isinstance(inst.start.eq_point, tuple):
                 candidates["eq_point"] = w
             hit = None if reduced is None else probe_final_without_eq(

@@ -490,10 +490,12 @@ class Replay:
 
 
 def transcript_events(transcript: Transcript) -> Iterable[Event]:
-    """The records a folded transcript was made of, in stream order (notes and buckets left out)."""
+    """The records a folded transcript was made of, in stream order (notes and buckets left out;
+    an instance's values, squeezes and openings after its final value)."""
     yield FieldDecl(transcript.field)
     if transcript.schedule is not None:
         yield transcript.schedule
+    yield from transcript.glue
     for inst in transcript.instances:
         if inst.start.batch is not None:
             yield inst.start.batch
@@ -504,6 +506,7 @@ def transcript_events(transcript: Transcript) -> Iterable[Event]:
                 yield ChallengeMsg(rnd.instance, rnd.number, rnd.challenge)
         if inst.final is not None:
             yield FinalValue(inst.start.index, inst.final)
+        yield from inst.glue
 
 
 def replay_transcript(transcript: Transcript, challenger: Challenger | None = None, *,
