@@ -38,6 +38,7 @@ COMMANDS: dict[str, str] = {
     "plan": "plan_cmd",
     "demo": "demo_cmd",
     "schema": "schema_cmd",
+    "completion": "completion_cmd",
 }
 
 
@@ -73,6 +74,11 @@ def _build_parser(only: str | None = None) -> tuple[_Parser, dict[str, object]]:
         sub = subs.add_parser(name, help=module.HELP, description=getattr(module, "DESCRIPTION", module.HELP))
         module.add_arguments(sub)
     return parser, modules
+
+
+def build_parser() -> tuple[_Parser, dict[str, object]]:
+    """The full parser, every subcommand included (for generated shell completion)."""
+    return _build_parser()
 
 
 def main(argv: Sequence[str] | None = None) -> int:
