@@ -216,7 +216,7 @@ def _section(field: Field, inst: InstanceRecord, summary: InstanceSummary | None
         closing.append("no final value was sent, so the last reduced claim is not checked against an oracle")
     status = summary.status if summary is not None else "not replayed"
     notes = tuple(_note_text(n.text, inst.name, n.round) for n in inst.notes)
-    glue = (*link_lines(field, inst), *glue_lines(field, inst.glue))
+    glue = (*link_lines(field, inst, summary), *glue_lines(field, inst.glue))
     return InstanceSection(s.index, inst.name, statement, status, tuple(rows), tuple(closing),
                            bucket_rows(inst.buckets), notes, glue)
 
@@ -236,18 +236,28 @@ def glue_lines(field: Field, glue: Sequence[Any]) -> tuple[str, ...]:
     return tuple(lines)
 
 
-def link_lines(field: Field, inst: InstanceRecord) -> tuple[str, ...]:
-    """The instance's glue keys as sent: its eq point, claim_expr and final_expr."""
+def link_lines(field: Field, inst: InstanceRecord, summary: InstanceSummary | None = None) -> tuple[str, ...]:
+    """The instance's glue keys and the replay's results for them: its eq point, the
+    ``link`` check (claim vs claim_expr) and the ``evaluation`` check (reduced claim vs
+    final_expr), each with expected and found; the expression text alone when not replayed."""
     s = inst.start
     lines = []
     if s.eq_point is not None:
         point = s.eq_point if isinstance(s.eq_point, str) else "[" + ", ".join(
             short(field.fmt(v)) for v in s.eq_point) + "]"
         lines.append(f"eq_point {point}: rounds sent eq-factored")
-    if s.claim_expr is not None:
-        lines.append(f"claim_expr {s.claim_expr}")
-    if s.final_expr is not None:
-        lines.append(f"final_expr {s.final_expr}")
+    for key, what, result in (("claim_expr", "claim", getattr(summary, "link", None)),
+                              ("final_expr", "reduced claim", getattr(summary, "evaluation", None))):
+        expr = getattr(s, key)
+        if expr is None:
+            continue
+        if result is None:
+            lines.append(f"{key} {expr}")
+            continue
+        check = "link" if key == "claim_expr" else "evaluation"
+        line = (f"{check} {result.status}: {key} {expr} = {short(field.fmt(result.expected), 40)}; "
+                f"{what} {short(field.fmt(result.found), 40)}")
+        lines.append(line + (f" ({result.explanation})" if result.status == "fail" and result.explanation else ""))
     return tuple(lines)
 
 

@@ -162,8 +162,10 @@ def test_the_glue_is_listed_per_instance_and_before_the_first_instance():
     assert [line.split(" = ")[0] for line in doc.glue] == ["value product.outputs", "squeeze product.c1",
                                                            "value product.r1"]
     first = doc.instances[0].glue
-    assert first[0] == "claim_expr (1 - product.c1) * product.outputs[0] + product.c1 * product.outputs[1]"
-    assert first[1] == "final_expr eq(product.r1) * product.v2.lo * product.v2.hi"
+    claim = field.fmt(transcript.instances[0].start.claim)
+    assert first[0] == (f"link pass: claim_expr (1 - product.c1) * product.outputs[0] + product.c1 * "
+                        f"product.outputs[1] = {claim}; claim {claim}")
+    assert first[1].startswith("evaluation pass: final_expr eq(product.r1) * product.v2.lo * product.v2.hi = ")
     assert [line.split(" = ")[0] for line in first[2:]] == [
         "opening product.v2.lo (table v2.lo)", "opening product.v2.hi (table v2.hi)", "squeeze product.c2",
         "value product.r2"]
@@ -174,3 +176,25 @@ def test_the_glue_is_listed_per_instance_and_before_the_first_instance():
     page = to_html(doc)
     assert "Glue of product.layer1" in page and "squeeze product.c2" in page
     assert "openings (a table's claimed value at one point)" in " ".join(doc.privacy)
+
+
+def test_a_failed_link_shows_expected_found_and_why():
+    import numpy as np
+
+    from stepper.field.field import NAMED_PRIMES, get_field
+    from stepper.provers.channel import ListSink, ProofChannel
+    from stepper.provers.counting import MulCounter
+    from stepper.provers.faults import Fault
+    from stepper.provers.gkr import prove_grand_product
+
+    field = get_field(NAMED_PRIMES["babybear"])
+    sink = ListSink()
+    prove_grand_product(ProofChannel(field, sink, fault=Fault("stale-coefficient", 1, 1)), MulCounter(field),
+                        field.vrandom(8, np.random.default_rng(6)))
+    transcript = sink.transcript()
+    report = replay_transcript(transcript)
+    line = build(transcript, report).instances[1].glue[0]
+    link = report.instances[1].link
+    assert line.startswith(f"link fail: claim_expr product.v2.lo + product.c2 * (product.v2.hi - product.v2.lo) = "
+                           f"{field.fmt(link.expected)}; claim {field.fmt(transcript.instances[1].start.claim)} (")
+    assert link.expected != transcript.instances[1].start.claim
