@@ -64,7 +64,7 @@ STATUS_MARKS: dict[str, StatusMark] = {
 
 def verdict_status(verdict: str) -> str:
     """The round status a proof verdict reads as (accept: pass, reject: fail, else incomplete)."""
-    return {"accept": "pass", "reject": "fail"}.get(verdict, "pending")
+    return {"accept": "pass", "reject": "fail", "unusable": "fail"}.get(verdict, "pending")
 
 
 def mark_of(status: str | None) -> StatusMark:
@@ -155,6 +155,8 @@ class ProofModel:
         self._failure_set: set[Position] = set()
         self.completeness = "incomplete"
         self.digest = "missing"
+        self.kind = "transcript"  # or "events" (a JSON-lines stream)
+        self.digest_problem: Exception | None = None  # the reader's digest-mismatch error, word for word
         self.events_seen = 0
         self.loading = False  # True while the first read is still feeding events
         self.final = False  # no checked event can follow (see finish)
@@ -296,9 +298,13 @@ class ProofModel:
         return fold_events(self._records, self.header, self.completeness, self.digest)  # type: ignore[arg-type]
 
     def verdict(self) -> str:
-        """The replay's verdict, or ``checking`` while the first read is under way."""
+        """The replay's verdict, ``checking`` while the first read is under way, or
+        ``unusable`` for a file whose digest does not match (no verdict on such bytes,
+        as `stepper check` gives none: see :mod:`stepper.transcript.condition`)."""
         if self.loading:
             return "checking"
+        if self.digest == "mismatch":
+            return "unusable"
         report = self.report()
         return str(report.verdict) if report is not None else "incomplete"
 

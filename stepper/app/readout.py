@@ -14,6 +14,7 @@ from typing import Any
 
 from stepper.app.proof_model import Position, ProofModel, mark_of
 from stepper.field.field import Field
+from stepper.transcript.condition import file_condition, proof_condition, rounds_counted
 
 __all__ = ["Line", "CAUTION", "SHORT_CAUTION", "summary_lines", "statement_lines", "round_lines", "diagnosis_lines"]
 
@@ -43,14 +44,20 @@ def summary_lines(model: ProofModel) -> list[Line]:
     field = model.field
     report = model.report()
     verdict = model.verdict()
-    lines = [Line("verdict", verdict, {"accept": "good", "reject": "bad"}.get(verdict, "wait"))]
+    lines = [Line("verdict", verdict, {"accept": "good", "reject": "bad", "unusable": "bad"}.get(verdict, "wait"))]
+    if model.digest_problem is not None:
+        lines.append(Line("not judged", str(model.digest_problem), "bad"))
     first = _first_failure(report)
-    if first is not None:
+    if first is not None and model.digest_problem is None:
         lines.append(Line("first failure", first, "bad"))
-    lines.append(Line("transcript", f"{model.completeness}, digest {model.digest}",
-                      "good" if model.digest == "verified" and model.completeness == "complete" else "wait"))
+    file_line = "being read" if model.loading else file_condition(model.kind, model.completeness, model.digest)
+    lines.append(Line("file", file_line, "bad" if model.digest == "mismatch" else
+                      ("good" if file_line == "sealed, digest ok" else "wait")))
+    proof = proof_condition((i, v.name, _counted(v), v.start.num_vars) for i, v in enumerate(model.instances))
+    lines.append(Line("proof", ("so far: " if model.loading else "") + proof,
+                      "good" if proof.startswith("every") else "wait"))
     if model.source:
-        lines.append(Line("file", model.source))
+        lines.append(Line("file name", model.source))
     if field is not None:
         base = field.base
         lines.append(Line("field", f"{base.describe()} (p = {base.p})"))
@@ -61,7 +68,9 @@ def summary_lines(model: ProofModel) -> list[Line]:
         label = f", label {model.schedule.label!r}" if model.schedule.label else ""
         lines.append(Line("schedule", f"Fiat-Shamir {model.schedule.name}{label}"))
     how = getattr(report, "challenges", None)
-    if how:
+    if model.loading and model.schedule is not None:
+        lines.append(Line("challenges", f"declared to come from {model.schedule.name}; not re-derived yet", "wait"))
+    elif how:
         lines.append(Line("challenges", str(how), "plain" if how.startswith("re-derived") else "wait"))
     elif model.schedule is None:
         lines.append(Line("challenges", "taken as recorded (no Fiat-Shamir schedule declared)", "wait"))
@@ -93,12 +102,14 @@ def statement_lines(model: ProofModel, index: int) -> list[Line]:
     view = model.instances[index]
     start = view.start
     fmt = field.fmt
-    sent = len(view.rounds)
+    sent = _counted(view)
+    waiting = len(view.rounds) - sent
     lines = [
         Line("instance", f"#{index} {start.name!r}", "head"),
         Line("claimed sum", fmt(start.claim)),
         Line("shape", f"{start.num_vars} variables, degree {start.degree}, {start.order}, form {start.form}"),
-        Line("rounds", f"{sent} of {start.num_vars} sent" + ("" if sent == start.num_vars else ", stops early"),
+        Line("rounds", f"{sent} of {start.num_vars}" + ("" if sent == start.num_vars else ", stops early")
+             + (f"; round {sent + 1} sent, no challenge yet" if waiting > 0 else ""),
              "plain" if sent == start.num_vars else "wait"),
     ]
     if start.batch is not None:
@@ -204,6 +215,11 @@ def diagnosis_lines(diagnosis: Any, pos: Position | None = None) -> list[Line]:
         text = finding.get("message") or finding.get("text") or _plain(finding)
         lines.append(Line(f"probe {finding.get('probe', finding.get('kind', ''))}".strip(), str(text), "muted"))
     return lines
+
+
+def _counted(view: Any) -> int:
+    """Rounds of an instance that count: those whose challenge is recorded."""
+    return rounds_counted(len(view.rounds), sum(1 for c in view.challenges if c is not None))
 
 
 def _verdict_lines(what: str, result: Any, field: Field | None) -> list[Line]:

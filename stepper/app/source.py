@@ -68,6 +68,7 @@ class TranscriptSource:
             self._stream = self._open_stream() if self.follow else open_events(self.path, best_effort=True)
             self._records = iter(self._stream)
             model.header = self._stream.header
+            model.kind = self._stream.kind
         except StepperError as err:
             self._fail(model, str(err))
         except OSError as err:
@@ -89,6 +90,7 @@ class TranscriptSource:
                     else:
                         self._close()
                     model.loading = False
+                    model.digest_problem = stream.digest_problem
                     model.finish(stream.completeness, stream.digest, _final(stream))
                     return True
                 if self._own_notes and record == self._own_notes[0]:
@@ -167,6 +169,7 @@ class TranscriptSource:
             else:
                 self._reread(model)
             stream = self._stream
+            model.digest_problem = stream.digest_problem
             model.finish(stream.completeness, stream.digest, _final(stream))
             self.problem = None
         except StepperError as err:

@@ -84,7 +84,7 @@ def run(args: argparse.Namespace) -> int:
 
         r = checked.report
         lines = render(r, checked.name, checked.notes, checked.note_count, colour_wanted(args.color), args.rows,
-                       args.detail)
+                       args.detail, checked.file_line)
         if checked.diagnosis is not None:
             lines += ["", "root cause (with the witness):", *("  " + s for s in checked.diagnosis.explain())]
         if checked.strict:

@@ -77,6 +77,7 @@ class Checked:
     note_count: int
     unknown: dict[str, int]
     strict: tuple[str, ...]
+    file_line: str = ""  # the file's condition in the words of stepper.transcript.condition
 
     @property
     def code(self) -> int:
@@ -214,7 +215,7 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
             replay, notes, note_count = new_replay(), [], 0
     events: list[Any] | None = [] if args.witness else None
     if swept is not None:
-        completeness, header, digest = swept.completeness, swept.header, swept.digest
+        completeness, header, digest, kind = swept.completeness, swept.header, swept.digest, "transcript"
     else:
         with open_events(path) as stream:
             if events is None:
@@ -225,7 +226,7 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
                     events.append(record)
                     replay.feed(record)
             completeness = stream.completeness
-            header, digest = stream.header, stream.digest
+            header, digest, kind = stream.header, stream.digest, stream.kind
     report = replay.report(completeness)
     diagnosis = None
     if args.witness:
@@ -238,7 +239,10 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
         with terminal_progress("root cause: recomputing rounds") as progress:
             diagnosis = diagnose(transcript, witness, report, progress=progress)
     strict = strict_reasons(report, unknown) if args.strict else ()
-    return Checked(name, report, diagnosis, notes, note_count, unknown, strict)
+    from stepper.transcript.condition import file_condition
+
+    return Checked(name, report, diagnosis, notes, note_count, unknown, strict,
+                   file_condition(kind, completeness, digest))
 
 
 def strict_reasons(report: Report, unknown: dict[str, int]) -> tuple[str, ...]:

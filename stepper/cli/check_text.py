@@ -66,12 +66,22 @@ def _glue_lines(s: InstanceSummary, fmt: Callable[[object], str | None], colour:
     return lines
 
 
+def counted(s: InstanceSummary) -> int:
+    """Rounds of ``s`` that count (:data:`stepper.transcript.condition.ROUND_RULE`): with no
+    failure, the rounds that passed, each with its challenge; after a failure, the rounds seen."""
+    return s.rounds_seen if s.failure is not None else s.rounds_passed
+
+
 def render(report: Report, path: str, notes: Sequence[Note], note_count: int, colour: bool,
-           rows: int, detail: bool = False) -> list[str]:
+           rows: int, detail: bool = False, file_line: str | None = None) -> list[str]:
+    from stepper.transcript.condition import proof_condition
+
     field = report.field.describe() if report.field is not None else "no field"
+    proof = proof_condition((s.index, s.name, counted(s), s.num_vars) for s in report.instances)
     lines = [
         _paint(f"stepper check {path}", "bold", colour),
-        f"  field {field}; challenges {report.challenges}; file {report.completeness}",
+        f"  field {field}; challenges {report.challenges}",
+        f"  file: {file_line or report.completeness}; proof: {proof}",
         "",
         f"  {'#':>4}  {'instance':<28} {'vars':>4} {'deg':>4}  {'form':<16} {'rounds':>7}  result",
     ]

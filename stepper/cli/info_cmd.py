@@ -14,6 +14,7 @@ import argparse
 import json
 from dataclasses import dataclass, field as dc_field
 from typing import Any
+from stepper.transcript.condition import ROUND_RULE, file_condition, proof_condition, rounds_counted
 
 HELP = "describe a transcript: field, instances and rounds present, completeness, digest, metadata, notes"
 DESCRIPTION = (
@@ -60,7 +61,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.errors import TranscriptError, UsageError, Where
+    from stepper.errors import UsageError
     from stepper.transcript.store import open_events
 
     if args.rows < 0:
@@ -74,9 +75,8 @@ def run(args: argparse.Namespace) -> int:
         print(json.dumps(info, indent=2, default=str))
     else:
         print("\n".join(_as_text(info, summary, args.rows)))
-    if stream.digest == "mismatch":
-        raise TranscriptError("expected the digest in the end event to match the recorded bytes, found a "
-                              "mismatch: the file changed after it was written (corrupt)", Where(file=args.file))
+    if stream.digest_problem is not None:  # the same line and exit code as check and view
+        raise stream.digest_problem
     return 0
 
 
@@ -120,6 +120,9 @@ def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
         "digest": stream.digest,
         "truncated_at": stream.truncated_at,
         "appended_notes": stream.appended,
+        "file_condition": file_condition(stream.kind, stream.completeness, stream.digest),
+        "proof_condition": proof_condition((i, s.name, rounds_counted(s.rounds, s.challenges), s.num_vars)
+                                           for i, s in enumerate(summary.instances)),
         "field": None if fld is None else {"name": fld.describe(), "p": str(fld.p), "degree": fld.degree,
                                            "element_bytes": fld.elem_bytes},
         "schedule": None if summary.schedule is None else {"name": summary.schedule.name,
@@ -127,6 +130,7 @@ def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
         "instances": [
             {"index": i, "name": s.name, "num_vars": s.num_vars, "degree": s.degree, "order": s.order,
              "form": s.form, "batched": s.batched, "rounds_present": s.rounds, "rounds_expected": s.num_vars,
+             "rounds_counted": rounds_counted(s.rounds, s.challenges),
              "challenges": s.challenges, "final": s.final, "bucket_reports": s.buckets}
             for i, s in enumerate(summary.instances)
         ],
@@ -153,11 +157,13 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
                  f"field: {fld['name']} ({fld['element_bytes']} bytes per element)")
     if info["schedule"]:
         label = f" (label {info['schedule']['label']!r})" if info["schedule"]["label"] else ""
-        lines.append(f"challenges: derived by the {info['schedule']['name']} schedule{label}")
-    lines.append(f"state: {_state(info)}")
+        lines.append(f"challenges: declared to come from the {info['schedule']['name']} schedule{label}; "
+                     "not re-derived here (`stepper check` re-derives them and says whether they match)")
+    lines.append(f"file: {_file_line(info)}")
+    lines.append(f"proof: {info['proof_condition']} ({ROUND_RULE})")
     instances = info["instances"]
-    full = sum(1 for s in instances if s["rounds_present"] == s["rounds_expected"])
-    lines.append(f"instances: {len(instances)} ({full} with every round present)")
+    full = sum(1 for s in instances if s["rounds_counted"] == s["rounds_expected"])
+    lines.append(f"instances: {len(instances)} ({full} with all their rounds)")
     for s in instances[:rows]:
         extras = [f"order {s['order']}"] if s["order"] != "low-first" else []
         if s["form"] != "evals":
@@ -167,7 +173,10 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
         if s["bucket_reports"]:
             extras.append(f"{s['bucket_reports']} bucket reports")
         final = "final value" if s["final"] else "no final value"
-        lines.append(f"  {s['index']:>3}  {s['name']}: rounds {s['rounds_present']}/{s['rounds_expected']}, "
+        waiting = s["rounds_present"] - s["rounds_counted"]
+        if waiting > 0:
+            extras.append(f"round {s['rounds_counted'] + 1} sent, no challenge yet")
+        lines.append(f"  #{s['index']:<3} {s['name']}: rounds {s['rounds_counted']} of {s['rounds_expected']}, "
                      f"degree {s['degree']}, {final}" + (f", {', '.join(extras)}" if extras else ""))
     if len(instances) > rows:
         lines.append(f"  ... and {len(instances) - rows} more (--rows N to list more)")
@@ -177,7 +186,7 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
     lines.append(f"notes: {info['note_count']}" + (f" ({info['appended_notes']} appended after recording)"
                                                    if info["appended_notes"] else ""))
     for note in summary.notes:
-        place = "proof" if note.instance is None else f"instance {note.instance}"
+        place = "proof" if note.instance is None else f"instance #{note.instance}"
         if note.round is not None:
             place += f", round {note.round}"
         lines.append(f"  [{place}] {note.text[:200]}")
@@ -186,13 +195,9 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
     return lines
 
 
-def _state(info: dict[str, Any]) -> str:
-    digest = {"verified": "digest verified (the recorded part is intact)",
-              "mismatch": "DIGEST MISMATCH: the file changed after it was written (corrupt)",
-              "missing": "no digest (the writer did not finish)",
-              "not-applicable": "no digest (event files carry none)"}[info["digest"]]
-    state = info["completeness"]
+def _file_line(info: dict[str, Any]) -> str:
+    line = file_condition(info["kind"], info["completeness"], info["digest"])
     if info["truncated_at"] is not None:
         unit = "line" if info["kind"] == "events" else "byte"
-        state += f", a cut-off last event at {unit} {info['truncated_at']} was dropped"
-    return f"{state}; {digest}"
+        line += f"; a cut-off last event at {unit} {info['truncated_at']} was dropped"
+    return line

@@ -53,4 +53,6 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError("expected a terminal on standard input and output, found a redirect or pipe "
                          "(use `stepper check` for text output)")
     app.run()
+    if app.model.digest_problem is not None:  # the same line and exit code as check and info
+        raise app.model.digest_problem
     return EXIT_OK

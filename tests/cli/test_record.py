@@ -246,8 +246,8 @@ def test_info_describes_instances_completeness_digest_and_notes(tmp_path, capsys
     assert main(["info", str(out)]) == 0
     text = capsys.readouterr().out
     assert "field: goldilocks (8 bytes per element)" in text
-    assert "deck-slots-zero: rounds 2/2, degree 3, final value" in text
-    assert "complete; digest verified" in text
+    assert "deck-slots-zero: rounds 2 of 2, degree 3, final value" in text
+    assert "file: sealed, digest ok" in text and "proof: every instance has all its rounds" in text
     assert "notes: 2 (1 appended after recording)" in text and "camera 4 blurred" in text
     assert "label: isle-of-quill-0740" in text
     assert "never contains the witness" in text and "not a soundness proof" in text
@@ -267,7 +267,7 @@ def test_info_on_a_corrupt_file_describes_it_and_exits_2(tmp_path, capsys):
     capsys.readouterr()
     assert main(["info", str(out)]) == 2
     captured = capsys.readouterr()
-    assert "DIGEST MISMATCH" in captured.out and "corrupt" in captured.err
+    assert "file: sealed, digest mismatch" in captured.out and "digest mismatch" in captured.err
 
 
 def test_check_refuses_a_corrupt_transcript_with_exit_2_in_one_line(tmp_path):

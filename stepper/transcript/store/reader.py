@@ -36,6 +36,7 @@ import msgpack
 
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import MAX_SIZES, MAX_TEXT, Sequencer, plain_copy
+from stepper.transcript.condition import DIGEST_MISMATCH
 from stepper.transcript.jsonl import LineSplitter
 from stepper.transcript.store.pending import read_pending
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC, oserror
@@ -162,6 +163,7 @@ class EventStream:
         self.header = Header()
         self.completeness: Completeness = "incomplete"
         self.digest: DigestStatus = "missing"
+        self.digest_problem: TranscriptError | None = None  # the mismatch, kept when best_effort reads on
         self.appended = 0
         self.pending = 0  # of the notes read, those from the pending-notes file beside it
         self.truncated_at: int | None = None
@@ -337,8 +339,6 @@ class EventStream:
             self.digest = "verified"
             return
         self.digest = "mismatch"
-        if self.best_effort:
-            return
         if size > END_MAX_BYTES:
             problem = f"an end event of at most {END_MAX_BYTES} bytes, found {size} bytes"
         elif recorded != digest:
@@ -346,8 +346,11 @@ class EventStream:
             problem = f"SHA-256 {digest.hex()} of bytes 0..{start}, found {found} in the end event"
         else:
             problem = f"the end event to record the {events} events before it, found it records {count!r}"
-        raise TranscriptError(f"expected {problem}: the file changed after it was written (corrupt)",
-                              self.where.but(offset=start, event=events))
+        self.digest_problem = TranscriptError(
+            f"expected {problem}: {DIGEST_MISMATCH}, the file changed after it was written (corrupt)",
+            self.where.but(offset=start, event=events))
+        if not self.best_effort:
+            raise self.digest_problem
 
     def _appended(self, payload: Any) -> Event:
         self.appended += 1
