@@ -261,3 +261,26 @@ def test_glue_flags_that_cannot_work_are_one_line_and_exit_2(flags, message, tmp
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and message in err[0]
     assert not (tmp_path / "p.sumtr").exists()
+
+
+# with the witness, each glue bug is named by its probe (contract 3's root cause for an opening; the glue
+# probes of stepper.diagnose.glue_probes for the rest)
+GLUE_PROBED = [
+    (["--kind", "ferries", "--groups", "0", "--fault", "open-other-point", "--fault-instance", "1"], "opening-point"),
+    (["--kind", "zerocheck", "--fault", "open-reversed"], "opening-point"),
+    (["--kind", "zerocheck", "--fault", "open-wrong-table"], "opening-table"),
+    (["--kind", "gkr-product", "--fault", "stale-coefficient", "--fault-instance", "2"], "stale-coefficient"),
+    (["--kind", "zerocheck-eq", "--fault", "drop-eq@2"], "eq-factor"),
+    (["--kind", "zerocheck-eq", "--fault", "double-eq@4"], "eq-factor"),
+    (["--kind", "zerocheck-eq", "--fault", "final-without-eq"], "final-without-eq"),
+]
+
+
+@pytest.mark.parametrize("flags, probe", GLUE_PROBED)
+def test_check_with_the_witness_names_each_glue_bug(flags, probe, tmp_path, capsys):
+    out, witness = tmp_path / "p.sumtr", tmp_path / "w.json"
+    assert main(["prove", "-o", str(out), "--num-vars", "4", "--witness-out", str(witness), *flags]) == 0
+    capsys.readouterr()
+    assert main(["check", str(out), "--witness", str(witness), "--json"]) == 1
+    report = json.loads(capsys.readouterr().out)
+    assert probe in [f["probe"] for f in report["witness_findings"]], report["witness_findings"]
