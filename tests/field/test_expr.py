@@ -137,3 +137,94 @@ def test_scalar_evaluation_agrees_with_vector_evaluation() -> None:
     vec = field.vlist(expr.evaluate(field, env))
     for i in range(3):
         assert expr.evaluate_scalar(field, {n: int(v[i]) for n, v in env.items()}) == vec[i]
+
+
+# ----- powers and the glue syntax --------------------------------------------------------------------------------
+@settings(max_examples=40, deadline=None)
+@given(e=st.integers(0, 300), seed=st.integers(0, 2**32 - 1))
+def test_integer_powers_match_sympy_vectorised_and_at_a_point(e: int, seed: int) -> None:
+    # sympy evaluates the same text independently (reduced mod p afterwards)
+    field = get_field(BABYBEAR)
+    rng = np.random.default_rng(seed)
+    env = {"a": field.vrandom(4, rng), "b": field.vrandom(4, rng)}
+    text = f"3*a^{e} - (a + b)^2"
+    got = field.vlist(parse(text).evaluate(field, env))
+    a, b = sympy.symbols("a b")
+    sym = sympy.sympify(text.replace("^", "**"))
+    for i in range(4):
+        want = int(sym.subs({a: int(env["a"][i]), b: int(env["b"][i])})) % BABYBEAR
+        assert got[i] == want
+    scalar = parse(text).evaluate_scalar(field, {"a": int(env["a"][0]), "b": int(env["b"][0])})
+    assert scalar == got[0]
+    assert parse(text).degree() == max(e, 2)
+
+
+def test_glue_syntax_evaluates_lists_points_finals_and_eq_like_the_definition() -> None:
+    from stepper.field.expr import GlueScope
+
+    p = 101
+    field = get_field(p)
+    tau, r, other = [3, 7], [10, 20], [5, 6]
+
+    def eq(a: list[int], b: list[int]) -> int:  # prod (a_i b_i + (1 - a_i)(1 - b_i)), common practice, no source
+        out = 1
+        for x, y in zip(a, b):
+            out = out * (x * y + (1 - x) * (1 - y)) % p
+        return out
+
+    scope = GlueScope({"tau": tau, "v": 9}, {"layer.0": tuple(other)}, {"layer.0": 44}, tuple(r))
+    assert parse("eq(tau)").evaluate_glue(field, scope) == eq(tau, r)
+    assert parse("eq(tau, point(layer.0))").evaluate_glue(field, scope) == eq(tau, other)
+    assert parse("tau[1] * v + final(layer.0)").evaluate_glue(field, scope) == (7 * 9 + 44) % p
+    assert parse("v^3 - eq(point(layer.0), tau)^2").evaluate_glue(field, scope) == (9**3 - eq(other, tau) ** 2) % p
+    refs = parse("eq(tau) * v + final(layer.0) + eq(point(layer.0), w) + u[2]").references()
+    assert (refs.scalars, refs.lists, refs.points, refs.finals, refs.own_point) == (
+        ("v",), ("tau", "w", "u"), ("layer.0",), ("layer.0",), True)
+
+
+@pytest.mark.parametrize(("text", "fragment"), [
+    ("tau[5]", "index below 2"),
+    ("v[0]", "to be a list"),
+    ("tau * 2", "one element, found a list"),
+    ("eq(v)", "to be a list (a point)"),
+    ("eq(tau, short)", "one length"),
+    ("final(nowhere)", "instance named 'nowhere'"),
+])
+def test_glue_values_of_the_wrong_kind_are_named(text: str, fragment: str) -> None:
+    from stepper.field.expr import GlueScope
+
+    field = get_field(101)
+    scope = GlueScope({"tau": [1, 2], "v": 3, "short": [1]}, {}, {}, (4, 5))
+    with pytest.raises(ExpressionError, match=fragment.replace("(", r"\(").replace(")", r"\)")):
+        parse(text).evaluate_glue(field, scope)
+
+
+@pytest.mark.parametrize(("text", "column", "fragment"), [
+    ("a ^ b", 4, "integer exponent"),
+    ("a^2^3", 3, "one '^'"),
+    ("f(x)", 1, "only calls"),
+    ("eq(3)", 3, "a point"),
+    ("point(x)", 0, "only inside eq"),
+    ("eq(a, point(b)", 14, "')'"),
+    ("v[x]", 2, "component index"),
+])
+def test_glue_syntax_errors_point_at_the_column(text: str, column: int, fragment: str) -> None:
+    with pytest.raises(ExpressionError) as info:
+        parse(text)
+    assert info.value.column == column and fragment in info.value.message
+
+
+def test_long_chains_and_deep_nesting_never_exhaust_the_stack() -> None:
+    field = get_field(101)
+    long_sum = parse("+".join(["a"] * 2000))  # within MAX_EXPR_LENGTH: a balanced tree, not 2000 deep
+    assert long_sum.evaluate_scalar(field, {"a": 1}) == 2000 % 101
+    long_product = parse("*".join(["a"] * 2000))
+    assert long_product.evaluate_scalar(field, {"a": 2}) == pow(2, 2000, 101)
+    assert field.vlist(long_product.evaluate(field, {"a": field.vec([2, 3])})) == [pow(2, 2000, 101),
+                                                                                   pow(3, 2000, 101)]
+    mixed = parse(" - ".join(["a"] * 30))  # a - a - ... : signs survive the balancing
+    assert mixed.evaluate_scalar(field, {"a": 1}) == (1 - 29) % 101
+    with pytest.raises(ExpressionError, match="nested"):
+        parse("(" * 100 + "a" + ")" * 100)
+    with pytest.raises(ExpressionError, match="at most"):
+        parse("a+" * 3000 + "a")

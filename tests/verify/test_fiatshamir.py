@@ -188,3 +188,82 @@ def test_fused_round_challenge_equals_observe_then_challenge(spec):
         assert one.round_challenge(values) == r
         assert one.state_digest() == two.state_digest()
         values = (field.embed(7), r, field.embed(1)) if not ext_degree else (field.embed(7), r, r)
+
+
+# ----- the glue: openings and values absorbed, squeezes derived (transcripts/FIAT-SHAMIR.md, "The glue") -----------
+GLUE_DIGESTS = {
+    "opening f.at.r": "c18d10f3ae73ef9a76b5fdde442b79fb0f421bcae3d1b01660fe66f5385f6edf",
+    "opening h.at.r": "31e6e042b5788eb10be0f30c38c3d56c7dc832fb8c97d2a11b7f30bdf4cb9e4f",
+    "value tau": "813086a110a1c9dc2e81db38953d169a2e47cfbb613472f331ed6024a9514a1a",
+    "squeeze beta": "a720b2d6cd7c216deb5997fc1c8a417e373e5e0f202398a90868e8865976223f",
+    "squeeze w": "53839eb28dd8ee0d69f298d743588c31c3b241570328e2f727db90c31f1b7ef4",
+}
+F_AT_R, H_AT_R = 1544739144, 1077986011  # f~(r1, r2), h~(r1, r2); their product is the pinned final 360423787
+BETA, W = 1769158119, (101890162, 1751199516)
+
+
+def _pinned_state() -> "hashlib._Hash":
+    state = hashlib.sha256(frame(b"domain", b"stepper-sha256/1"))
+    state.update(frame(b"field", u64(4) + el(P) + u64(1)))
+    state.update(frame(b"schedule", text(SCHEDULE_NAME) + text(LABEL)))
+    state.update(frame(b"instance", text("boarding-permutation") + u64(2) + u64(2) + text("low-first")
+                       + text("evals") + el(38)))
+    for values, r in ((ROUND1, R1), (ROUND2, R2)):
+        state.update(frame(b"round", u64(3) + b"".join(el(v) for v in values)))
+        assert squeeze(state, P) == r
+        state.update(frame(b"challenge", el(r)))
+    assert state.copy().hexdigest() == DIGESTS["challenge 2"]
+    return state
+
+
+def test_hand_built_glue_bytes_give_the_documented_digests_and_squeezes():
+    state = _pinned_state()
+    assert F_AT_R * H_AT_R % P == 360423787
+    state.update(frame(b"opening", text("f.at.r") + text("f") + el(F_AT_R)))
+    assert state.copy().hexdigest() == GLUE_DIGESTS["opening f.at.r"]
+    state.update(frame(b"opening", text("h.at.r") + text("h") + el(H_AT_R)))
+    assert state.copy().hexdigest() == GLUE_DIGESTS["opening h.at.r"]
+    state.update(frame(b"value", text("tau") + u64(1) + u64(2) + el(3) + el(5)))
+    assert state.copy().hexdigest() == GLUE_DIGESTS["value tau"]
+    state.update(frame(b"draw", text("beta") + u64(0) + u64(1)))
+    assert squeeze(state, P) == BETA
+    state.update(frame(b"challenge", el(BETA)))
+    assert state.copy().hexdigest() == GLUE_DIGESTS["squeeze beta"]
+    state.update(frame(b"draw", text("w") + u64(1) + u64(2)))
+    for w in W:
+        assert squeeze(state, P) == w
+        state.update(frame(b"challenge", el(w)))
+    assert state.copy().hexdigest() == GLUE_DIGESTS["squeeze w"]
+
+
+def test_schedule_object_reproduces_the_glue_vectors():
+    from stepper.transcript.model import NamedValue, Opening, Squeeze
+
+    field = get_field(P)
+    s = Sha256Schedule()
+    s.observe(FieldDecl(field))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
+    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+    for k, (values, r) in enumerate(((ROUND1, R1), (ROUND2, R2)), start=1):
+        s.observe(RoundMsg(0, k, values))
+        assert s.challenge() == r
+    s.observe(Opening("f.at.r", F_AT_R, "f", 0))
+    s.observe(Opening("h.at.r", H_AT_R, "h", 0))
+    s.observe(NamedValue("tau", (3, 5), True, 0))
+    assert s.state_digest().hex() == GLUE_DIGESTS["value tau"]
+    s.observe(Squeeze("beta", 999, False, 0))  # observing a squeeze absorbs nothing: squeeze() does
+    assert s.squeeze("beta") == BETA and s.state_digest().hex() == GLUE_DIGESTS["squeeze beta"]
+    assert s.squeeze("w", 2) == W and s.state_digest().hex() == GLUE_DIGESTS["squeeze w"]
+
+
+def test_one_element_and_a_list_of_one_are_absorbed_apart():
+    field = get_field(P)
+    from stepper.transcript.model import NamedValue
+
+    digests = []
+    for record in (NamedValue("x", 4, False), NamedValue("x", (4,), True)):
+        s = Sha256Schedule()
+        s.observe(FieldDecl(field))
+        s.observe(record)
+        digests.append(s.state_digest())
+    assert digests[0] != digests[1]
