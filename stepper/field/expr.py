@@ -39,7 +39,9 @@ and products of base by extension cost k base products, not k^2.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field as dc_field
+from functools import lru_cache
 from typing import TYPE_CHECKING, Mapping, Union
 
 import numpy as np
@@ -50,12 +52,14 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
 
 __all__ = ["Expr", "Const", "Table", "Neg", "Add", "Sub", "Mul", "Pow", "Index", "Eq", "PointOf", "FinalOf",
-           "GlueScope", "References", "parse", "MAX_EXPR_LENGTH", "MAX_EXPONENT_BITS"]
+           "GlueScope", "References", "parse", "parse_cached", "MAX_EXPR_LENGTH", "MAX_EXPONENT_BITS"]
 
 MAX_EXPR_LENGTH = 4096
 MAX_EXPONENT_BITS = 256
 _MAX_DEPTH = 64
 _LEFT_DEEP = 16  # chains up to this many operands keep the plain left-to-right tree
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.]*")
+_SPACE = re.compile(r"[ \t\r\n]*")
 
 
 @dataclass(frozen=True, slots=True)
@@ -173,6 +177,7 @@ class Expr:
 
     text: str
     root: Node
+    refs: References | None = None  # set by parse(); computed on demand otherwise
 
     def degree(self) -> int:
         """Total degree in the table values (constants 0, a table 1)."""
@@ -190,43 +195,10 @@ class Expr:
         return not (refs.lists or refs.points or refs.finals or refs.own_point)
 
     def references(self) -> References:
-        scalars: dict[str, None] = {}
-        lists: dict[str, None] = {}
-        points: dict[str, None] = {}
-        finals: dict[str, None] = {}
-        own = [False]
-
-        def side(node: object) -> None:
-            if isinstance(node, Table):
-                lists.setdefault(node.name)
-            elif isinstance(node, PointOf):
-                points.setdefault(node.name)
-
-        def walk(node: Node) -> None:
-            if isinstance(node, Table):
-                scalars.setdefault(node.name)
-            elif isinstance(node, Index):
-                lists.setdefault(node.name)
-            elif isinstance(node, FinalOf):
-                finals.setdefault(node.name)
-            elif isinstance(node, PointOf):
-                points.setdefault(node.name)
-            elif isinstance(node, Eq):
-                side(node.left)
-                if node.right is None:
-                    own[0] = True
-                else:
-                    side(node.right)
-            elif isinstance(node, Neg):
-                walk(node.operand)
-            elif isinstance(node, Pow):
-                walk(node.base)
-            elif isinstance(node, (Add, Sub, Mul)):
-                walk(node.left)
-                walk(node.right)
-
-        walk(self.root)
-        return References(tuple(scalars), tuple(lists), tuple(points), tuple(finals), own[0])
+        """Names, points and finals the expression reads (computed once by parse)."""
+        if self.refs is not None:
+            return self.refs
+        return _references(self.root)
 
     def evaluate(self, field: Field, env: Mapping[str, np.ndarray]) -> np.ndarray:
         """The expression entry by entry over equally long table arrays; the result
@@ -248,6 +220,46 @@ class Expr:
         return self.text
 
 
+def _references(root: Node) -> References:
+    scalars: dict[str, None] = {}
+    lists: dict[str, None] = {}
+    points: dict[str, None] = {}
+    finals: dict[str, None] = {}
+    own = [False]
+
+    def side(node: object) -> None:
+        if isinstance(node, Table):
+            lists.setdefault(node.name)
+        elif isinstance(node, PointOf):
+            points.setdefault(node.name)
+
+    def walk(node: Node) -> None:
+        if isinstance(node, Table):
+            scalars.setdefault(node.name)
+        elif isinstance(node, Index):
+            lists.setdefault(node.name)
+        elif isinstance(node, FinalOf):
+            finals.setdefault(node.name)
+        elif isinstance(node, PointOf):
+            points.setdefault(node.name)
+        elif isinstance(node, Eq):
+            side(node.left)
+            if node.right is None:
+                own[0] = True
+            else:
+                side(node.right)
+        elif isinstance(node, Neg):
+            walk(node.operand)
+        elif isinstance(node, Pow):
+            walk(node.base)
+        elif isinstance(node, (Add, Sub, Mul)):
+            walk(node.left)
+            walk(node.right)
+
+    walk(root)
+    return References(tuple(scalars), tuple(lists), tuple(points), tuple(finals), own[0])
+
+
 # ----- parsing --------------------------------------------------------------------------
 def parse(text: str, what: str = "combine expression") -> Expr:
     """The tree of ``text``; raises :class:`ExpressionError` pointing at the first
@@ -260,12 +272,168 @@ def parse(text: str, what: str = "combine expression") -> Expr:
             text[:80],
             0,
         )
+    fast = _fast_parse(text)
+    if fast is not None:
+        return Expr(text, fast, _references(fast))
     parser = _Parser(text, what)
     root = parser.expr(0)
     parser.skip_space()
     if parser.pos < len(text):
         parser.fail(f"expected an operator (+, -, *, ^) or the end, found {text[parser.pos]!r}")
-    return Expr(text, root)
+    return Expr(text, root, _references(root))
+
+
+@lru_cache(maxsize=1024)
+def parse_cached(text: str, what: str = "glue expression") -> Expr:
+    """:func:`parse`, remembered for the last 1024 texts (the Sequencer and the replay
+    meet each glue expression once each; an error is raised again each time)."""
+    return parse(text, what)
+
+
+_TOKEN = re.compile(r"[ \t\r\n]*(?:([0-9]+)|([A-Za-z_][A-Za-z0-9_.]*)|([^ \t\r\n]))")
+
+
+def _fast_parse(text: str) -> Node | None:
+    """The tree of a well-formed text from one regex pass over its tokens, or None
+    for anything unusual (an error, a deep nesting, a huge exponent): then the
+    character parser decides and names the column. Both build the same tree."""
+    tokens = _TOKEN.findall(text)
+    if len(tokens) > 2048:
+        return None
+    kinds: list[str] = []
+    values: list[str] = []
+    for number, name, other in tokens:
+        if number:
+            kinds.append("n")
+            values.append(number)
+        elif name:
+            kinds.append("w")
+            values.append(name)
+        else:
+            kinds.append(other)
+            values.append(other)
+    kinds.append("")
+    values.append("")
+    pos = 0
+
+    def expr(depth: int) -> Node | None:
+        nonlocal pos
+        first = term(depth)
+        if first is None:
+            return None
+        items: list[tuple[bool, Node]] = [(True, first)]
+        while kinds[pos] in ("+", "-"):
+            positive = kinds[pos] == "+"
+            pos += 1
+            nxt = term(depth)
+            if nxt is None:
+                return None
+            items.append((positive, nxt))
+        if len(items) > _LEFT_DEEP:
+            return _balanced(items, product=False)
+        node = items[0][1]
+        for positive, right in items[1:]:
+            node = Add(node, right) if positive else Sub(node, right)
+        return node
+
+    def term(depth: int) -> Node | None:
+        nonlocal pos
+        factors = [unary(depth)]
+        while kinds[pos] == "*":
+            pos += 1
+            factors.append(unary(depth))
+        if any(f is None for f in factors):
+            return None
+        if len(factors) > _LEFT_DEEP:
+            return _balanced([(True, f) for f in factors], product=True)  # type: ignore[misc]
+        node = factors[0]
+        for right in factors[1:]:
+            node = Mul(node, right)  # type: ignore[arg-type]
+        return node
+
+    def unary(depth: int) -> Node | None:
+        nonlocal pos
+        if depth > _MAX_DEPTH // 2:
+            return None
+        if kinds[pos] == "-":
+            pos += 1
+            inner = unary(depth + 1)
+            return None if inner is None else Neg(inner)
+        node = atom(depth)
+        if node is None or kinds[pos] != "^":
+            return node
+        if kinds[pos + 1] != "n" or kinds[pos + 2] == "^" or len(values[pos + 1]) > 60:
+            return None
+        exponent = int(values[pos + 1])
+        pos += 2
+        return Pow(node, exponent)
+
+    def point() -> Table | PointOf | None:
+        nonlocal pos
+        if kinds[pos] != "w":
+            return None
+        if values[pos] == "point" and kinds[pos + 1] == "(":
+            if kinds[pos + 2] != "w" or kinds[pos + 3] != ")":
+                return None
+            pos += 4
+            return PointOf(values[pos - 2])
+        if kinds[pos + 1] == "(":
+            return None
+        pos += 1
+        return Table(values[pos - 1])
+
+    def atom(depth: int) -> Node | None:
+        nonlocal pos
+        kind = kinds[pos]
+        if kind == "(":
+            pos += 1
+            node = expr(depth + 1)
+            if node is None or kinds[pos] != ")":
+                return None
+            pos += 1
+            return node
+        if kind == "n":
+            if kinds[pos + 1] == "w":
+                return None
+            pos += 1
+            return Const(int(values[pos - 1]))
+        if kind != "w":
+            return None
+        name = values[pos]
+        pos += 1
+        if kinds[pos] == "(":
+            pos += 1
+            if name == "final":
+                if kinds[pos] != "w" or kinds[pos + 1] != ")":
+                    return None
+                pos += 2
+                return FinalOf(values[pos - 2])
+            if name != "eq":
+                return None
+            left = point()
+            if left is None:
+                return None
+            right = None
+            if kinds[pos] == ",":
+                pos += 1
+                right = point()
+                if right is None:
+                    return None
+            if kinds[pos] != ")":
+                return None
+            pos += 1
+            return Eq(left, right)
+        if kinds[pos] == "[":
+            if kinds[pos + 1] != "n" or kinds[pos + 2] != "]":
+                return None
+            pos += 3
+            return Index(name, int(values[pos - 2]))
+        return Table(name)
+
+    root = expr(0)
+    if root is None or kinds[pos] != "":
+        return None
+    return root
 
 
 def _balanced(items: list[tuple[bool, Node]], product: bool) -> Node:
@@ -302,8 +470,7 @@ class _Parser:
         raise ExpressionError(f"{message} at column {col + 1} of the {self.what}", self.text, col)
 
     def skip_space(self) -> None:
-        while self.pos < len(self.text) and self.text[self.pos] in " \t\r\n":
-            self.pos += 1
+        self.pos = _SPACE.match(self.text, self.pos).end()  # type: ignore[union-attr]
 
     def peek(self) -> str:
         self.skip_space()
@@ -373,15 +540,13 @@ class _Parser:
 
     def name(self, wanted: str) -> str:
         self.skip_space()
-        start = self.pos
-        ch = self.text[self.pos] if self.pos < len(self.text) else ""
-        if not (ch.isascii() and (ch.isalpha() or ch == "_")):
+        found = _NAME.match(self.text, self.pos)
+        if found is None:
+            ch = self.text[self.pos] if self.pos < len(self.text) else ""
             self.fail(f"expected {wanted}, found {repr(ch) if ch else 'the end'}")
-        while self.pos < len(self.text) and (
-            self.text[self.pos].isascii() and (self.text[self.pos].isalnum() or self.text[self.pos] in "_.")
-        ):
-            self.pos += 1
-        return self.text[start:self.pos]
+            raise AssertionError("unreachable")
+        self.pos = found.end()
+        return found.group()
 
     def expect(self, ch: str, after: str) -> None:
         if self.peek() != ch:
@@ -617,44 +782,64 @@ class _Scalar:
         return tuple(v)
 
     def eval(self, node: Node) -> Element:
+        return self._ops[node.__class__](self, node)  # type: ignore[no-any-return]
+
+    def _const(self, node: Const) -> Element:
+        return self.field.embed(node.value)
+
+    def _table(self, node: Table) -> Element:
+        return self.element(node.name)
+
+    def _index(self, node: Index) -> Element:
+        v = self.value(node.name)
+        if not isinstance(v, list):
+            raise self.fail(f"expected {node.name!r} to be a list, found one element")
+        if node.index >= len(v):
+            raise self.fail(f"expected an index below {len(v)} into {node.name!r}, found {node.index}")
+        return self.field.lift(v[node.index])
+
+    def _final(self, node: FinalOf) -> Element:
+        try:
+            return self.field.lift(self.scope.finals[node.name])  # type: ignore[arg-type]
+        except KeyError:
+            raise self.fail(f"expected an earlier, complete instance named {node.name!r}, found none") from None
+
+    def _point(self, node: PointOf) -> Element:
+        raise self.fail(f"expected point({node.name}) only inside eq(...)")
+
+    def _eq(self, node: Eq) -> Element:
         f = self.field
-        if isinstance(node, Const):
-            return f.embed(node.value)
-        if isinstance(node, Table):
-            return self.element(node.name)
-        if isinstance(node, Index):
-            v = self.value(node.name)
-            if not isinstance(v, list):
-                raise self.fail(f"expected {node.name!r} to be a list, found one element")
-            if node.index >= len(v):
-                raise self.fail(f"expected an index below {len(v)} into {node.name!r}, found {node.index}")
-            return f.lift(v[node.index])
-        if isinstance(node, FinalOf):
-            try:
-                return f.lift(self.scope.finals[node.name])  # type: ignore[arg-type]
-            except KeyError:
-                raise self.fail(f"expected an earlier, complete instance named {node.name!r}, found none") from None
-        if isinstance(node, PointOf):
-            raise self.fail(f"expected point({node.name}) only inside eq(...)")
-        if isinstance(node, Eq):
-            a, b = self.points(node.left), self.points(node.right)
-            if len(a) != len(b):
-                raise self.fail(f"expected points of one length in eq(...), found lengths {len(a)} and {len(b)}")
-            one = f.one
-            acc = one
+        a, b = self.points(node.left), self.points(node.right)
+        if len(a) != len(b):
+            raise self.fail(f"expected points of one length in eq(...), found lengths {len(a)} and {len(b)}")
+        if not f.is_extension:  # plain integers: one product and a few sums per coordinate
+            p = f.p
+            acc = 1
             for x, y in zip(a, b):
-                x, y = f.lift(x), f.lift(y)
-                term = f.add(f.mul(x, y), f.mul(f.sub(one, x), f.sub(one, y)))
-                acc = f.mul(acc, term)
-            return acc
-        if isinstance(node, Neg):
-            return f.neg(self.eval(node.operand))
-        if isinstance(node, Pow):
-            return f.pow(self.eval(node.base), node.exponent)
-        left = self.eval(node.left)
-        right = self.eval(node.right)
-        if isinstance(node, Add):
-            return f.add(left, right)
-        if isinstance(node, Sub):
-            return f.sub(left, right)
-        return f.mul(left, right)
+                xy = x * y  # type: ignore[operator]
+                acc = acc * (1 - x - y + 2 * xy) % p  # type: ignore[operator]
+            return acc % p
+        one = f.one
+        acc = one
+        for x, y in zip(a, b):
+            x, y = f.lift(x), f.lift(y)
+            acc = f.mul(acc, f.add(f.mul(x, y), f.mul(f.sub(one, x), f.sub(one, y))))
+        return acc
+
+    def _neg(self, node: Neg) -> Element:
+        return self.field.neg(self.eval(node.operand))
+
+    def _pow(self, node: Pow) -> Element:
+        return self.field.pow(self.eval(node.base), node.exponent)
+
+    def _add(self, node: Add) -> Element:
+        return self.field.add(self.eval(node.left), self.eval(node.right))
+
+    def _sub(self, node: Sub) -> Element:
+        return self.field.sub(self.eval(node.left), self.eval(node.right))
+
+    def _mul(self, node: Mul) -> Element:
+        return self.field.mul(self.eval(node.left), self.eval(node.right))
+
+    _ops = {Const: _const, Table: _table, Index: _index, FinalOf: _final, PointOf: _point, Eq: _eq, Neg: _neg,
+            Pow: _pow, Add: _add, Sub: _sub, Mul: _mul}

@@ -36,7 +36,7 @@ from stepper.transcript.payload_rules import (
     MAX_DEGREE, MAX_NUM_VARS, MAX_SIZES, MAX_TEXT, MAX_VALUES, checked_count, checked_text, plain, short,
 )
 from stepper.transcript.payloads import to_payload
-from stepper.field.expr import Expr, parse as parse_expr
+from stepper.field.expr import Expr, parse as parse_expr, parse_cached
 from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
 from stepper.errors import ExpressionError
 from stepper.transcript.model import (
@@ -92,6 +92,7 @@ class Sequencer:
         self.stopped_at: UnknownEvent | None = None  # see stream()
         self.glue = True  # whether value/squeeze/opening are known (False for format version 1 files)
         self.defined: dict[str, int | None] = {}  # glue name -> list length (None for one element)
+        self._instance_names: set[str] = set()
         self._late: tuple[InstanceStart, tuple[str, ...]] | None = None  # final_expr names still to come
 
     # ----- position --------------------------------------------------------------
@@ -337,8 +338,9 @@ class Sequencer:
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
+        self._instance_names.add(name)
         if final_expr is not None:
-            refs = parse_expr(final_expr).references()
+            refs = parse_cached(final_expr).references()
             late = tuple(n for n in refs.values if n not in self.defined)
             self._late = (start, late) if late else None
         return start
@@ -355,9 +357,13 @@ class Sequencer:
                 continue
             text = checked_text(raw, key, self._fail)
             try:
-                expr = parse_expr(text, f"{key} of instance {name!r}")
-            except ExpressionError as err:
-                raise self._fail(err.message) from None
+                expr = parse_cached(text)
+            except ExpressionError:
+                try:  # again, for a message naming the key and the instance
+                    parse_expr(text, f"{key} of instance {name!r}")
+                except ExpressionError as err:
+                    raise self._fail(err.message) from None
+                raise
             self._check_refs(expr, key, name)
             exprs.append(text)
         eq_raw = payload.get("eq_point")
@@ -389,7 +395,7 @@ class Sequencer:
 
     def _check_refs(self, expr: Expr, key: str, name: str) -> None:
         refs = expr.references()
-        earlier = {s.name for s in self.instances}
+        earlier = self._instance_names
         for inst in (*refs.points, *refs.finals):
             if inst not in earlier:
                 raise self._fail(f"instance {name!r}: {key} names the instance {inst!r}, which is not an earlier "

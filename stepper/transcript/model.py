@@ -13,6 +13,7 @@ reports; the verifier replay consumes events one by one and needs no fold.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Literal, Mapping, Union
 
@@ -53,13 +54,12 @@ FORMAT_VERSION = 2  # the newest version read; 2: the glue events value, squeeze
 GLUE_VERSION = 2  # the first format version whose readers know the glue events
 PLAIN_VERSION = 1  # what the writer declares for a file without glue (see stepper.transcript.store.writer)
 GLUE_NAME = "letters, digits, '_' and '.', starting with a letter or '_', at most 128 characters"
-_NAME_CHARS = frozenset("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789_.")
+_NAME_RE = re.compile(r"[A-Za-z_][A-Za-z0-9_.]{0,127}")
 
 
 def is_glue_name(name: object) -> bool:
     """Whether ``name`` may name a value, squeeze or opening (see ``GLUE_NAME``)."""
-    return (isinstance(name, str) and 0 < len(name) <= 128 and (name[0].isascii() and (name[0].isalpha()
-            or name[0] == "_")) and all(c in _NAME_CHARS for c in name))
+    return name.__class__ is str and _NAME_RE.fullmatch(name) is not None  # type: ignore[arg-type]
 
 
 def _need(ok: bool, record: str, message: str) -> None:

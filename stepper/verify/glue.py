@@ -21,11 +21,10 @@ from __future__ import annotations
 
 from collections import OrderedDict
 from dataclasses import dataclass
-from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
 from stepper.errors import ExpressionError, TranscriptError, Where
-from stepper.field.expr import Expr, GlueScope, parse
+from stepper.field.expr import Expr, GlueScope, parse_cached
 from stepper.field.poly import lagrange_at, point_from_challenges
 from stepper.transcript.model import NamedValue, Opening, Squeeze
 
@@ -39,10 +38,9 @@ __all__ = ["GlueBook", "EqFactor", "GlueResult", "parsed", "link_result", "evalu
 MAX_POINT_ELEMENTS = 1 << 16
 
 
-@lru_cache(maxsize=256)
 def parsed(text: str) -> Expr:
-    """The tree of a glue expression (the Sequencer has already parsed it once and named any error)."""
-    return parse(text, "glue expression")
+    """The tree of a glue expression (the Sequencer has already parsed it, and named any error)."""
+    return parse_cached(text)
 
 
 @dataclass(frozen=True, slots=True)

@@ -155,6 +155,8 @@ class Replay:
                             live.seen = k = round_msg.round
                             if live.failure is None:
                                 live.passed = k
+                            if k == live.start.num_vars and live.start.final_expr is not None:
+                                self._evaluate(live)
                         else:  # the schedule has absorbed the round: resolve with the challenge it derived
                             live.pending = (round_msg, values, None, None, None, None, None)
                             self._resolve_pending(record, rederived)
@@ -179,7 +181,7 @@ class Replay:
         round-then-challenge step of the built-in schedule (None when nothing re-derives)."""
         live, field, source = self._live, self.field, self._source
         if (live is None or field is None or field.degree != 1 or live.start.form != "evals"
-                or self.challenger is not None or live.start.final_expr is not None):
+                or self.challenger is not None):
             return None, -1, 0, 1, None
         squeeze = source.schedule.round_stepper() if source.schedule is not None else None
         return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]

@@ -228,3 +228,45 @@ def test_long_chains_and_deep_nesting_never_exhaust_the_stack() -> None:
         parse("(" * 100 + "a" + ")" * 100)
     with pytest.raises(ExpressionError, match="at most"):
         parse("a+" * 3000 + "a")
+
+
+_glue_atoms = st.sampled_from(["a", "b.c", "_t1", "7", "0", "tau[0]", "eq(w)", "eq(w, point(i.0))",
+                               "final(i.0)", "a^3", "(a)", "x ^ 2"])
+
+
+@st.composite
+def _glue_texts(draw: st.DrawFn, depth: int = 0) -> str:
+    if depth >= 3 or draw(st.booleans()):
+        return draw(_glue_atoms)
+    op = draw(st.sampled_from(["+", "-", "*", "neg", "paren", "junk"]))
+    if op == "neg":
+        return "-" + draw(_glue_texts(depth + 1))
+    if op == "paren":
+        return "(" + draw(_glue_texts(depth + 1)) + ")"
+    if op == "junk":  # a malformed piece: both parsers must refuse it (the slow one names the column)
+        return draw(_glue_texts(depth + 1)) + draw(st.sampled_from([" +", "(", ")", "^", "[1]", "/2", " eq", "2a"]))
+    return draw(_glue_texts(depth + 1)) + f" {op} " + draw(_glue_texts(depth + 1))
+
+
+@settings(max_examples=300, deadline=None)
+@given(text=_glue_texts())
+def test_the_token_fast_path_and_the_character_parser_agree(text: str) -> None:
+    # the character parser is the reference: same tree, or the fast path steps aside (None) for it to refuse
+    from stepper.field.expr import _fast_parse, _Parser
+
+    try:
+        slow = _Parser(text, "test").expr(0)
+        parser_ok = True
+    except ExpressionError:
+        parser_ok = False
+    fast = _fast_parse(text)
+    if parser_ok:
+        try:
+            reference = parse(text).root
+        except ExpressionError:
+            reference = None
+        assert fast is None or fast == reference
+        if reference is not None:
+            assert slow == reference
+    else:
+        assert fast is None

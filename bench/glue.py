@@ -1,0 +1,157 @@
+"""What the glue costs `stepper check`: a proof with openings and expressions vs the same proof without.
+
+Writes two transcripts of ``--instances`` (default 10^4) instances x ``--rounds`` (8)
+rounds over Goldilocks, degree 3, challenges from the built-in schedule
+stepper-sha256/1, with the same round sizes:
+
+* plain: instances with random claims and consistent rounds, nothing between them;
+* glue: before the first instance a point ``tau`` (a ``value`` of ``--rounds``
+  elements); every instance declares ``final_expr`` ``eq(tau) * (a*b - c)`` and is
+  followed by three openings and a squeezed coefficient, and every instance after
+  the first declares ``claim_expr`` ``a + beta*b`` over the previous instance's
+  openings (the claim is built that way). Every glue check passes.
+
+Then, interleaved in ``--repeat`` rounds (best of each), in this process, CPU seconds:
+
+* check: ``stepper check FILE`` (text output to /dev/null) on each file: the plain
+  file takes the whole-file sweep, the glue file the event-by-event replay (the
+  sweep gives up on glue), so this ratio is what a user sees (target <= 1.5x);
+* replay: ``open_events`` + ``Replay.feed_all`` on each file: the same replay path
+  for both, so this ratio is the cost of the glue checks themselves.
+
+    python3 bench/glue.py                          # about a minute
+    python3 bench/glue.py --instances 2000 --repeat 1
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import io
+import os
+import random
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from stepper.field.field import NAMED_PRIMES, get_field  # noqa: E402
+from stepper.field.lagrange import evaluate_round  # noqa: E402
+from stepper.field.poly import eq_eval  # noqa: E402
+from stepper.transcript.model import (  # noqa: E402
+    ChallengeMsg, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl, Squeeze,
+)
+from stepper.transcript.store import TranscriptWriter, open_events  # noqa: E402
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule  # noqa: E402
+
+DEGREE = 3
+
+
+def write_unique(path: Path, instances: int, rounds: int, glue: bool) -> None:
+    """Random consistent rounds, challenges and squeezes by the schedule; with ``glue`` the openings
+    a_i, b_i, c_i make final_expr hold and the next claim is a_i + beta_i * b_i (names are unique in a
+    proof, so each instance's carry its index)."""
+    field = get_field(NAMED_PRIMES["goldilocks"])
+    p = field.p
+    rng = random.Random(7)
+    schedule = Sha256Schedule()
+    with TranscriptWriter(path, metadata={"label": "brackwater-ferries/bench-glue"}) as out:
+        def emit(record: object) -> None:
+            schedule.observe(record)  # type: ignore[arg-type]
+            out.write(record)  # type: ignore[arg-type]
+
+        emit(FieldDecl(field))
+        emit(ScheduleDecl(SCHEDULE_NAME, "bench"))
+        tau = tuple(rng.randrange(p) for _ in range(rounds))
+        if glue:
+            emit(NamedValue("tau", tau, True, None))
+        claim = rng.randrange(p)
+        for i in range(instances):
+            keys = {}
+            if glue:
+                keys["final_expr"] = f"eq(tau) * (a{i}*b{i} - c{i})"
+                if i:
+                    keys["claim_expr"] = f"a{i - 1} + beta{i - 1}*b{i - 1}"
+            emit(InstanceStart(i, f"sailing.{i}", rounds, DEGREE, claim, **keys))  # type: ignore[arg-type]
+            challenges = []
+            for k in range(1, rounds + 1):
+                g0 = rng.randrange(p)
+                evals = (g0, (claim - g0) % p, *(rng.randrange(p) for _ in range(DEGREE - 1)))
+                emit(RoundMsg(i, k, evals))
+                r = schedule.challenge()
+                out.write(ChallengeMsg(i, k, r))
+                challenges.append(r)
+                claim = evaluate_round(field, evals, r)
+            if not glue:
+                claim = rng.randrange(p)
+                continue
+            a, b = rng.randrange(p), rng.randrange(p)
+            c = (a * b - claim * pow(eq_eval(field, tau, challenges), -1, p)) % p  # type: ignore[arg-type]
+            for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
+                emit(Opening(name, value, name, i))
+            beta = schedule.squeeze(f"beta{i}")
+            out.write(Squeeze(f"beta{i}", beta, False, i))
+            claim = (a + beta * b) % p  # type: ignore[operator]
+
+
+def cpu() -> float:
+    t = os.times()
+    return t.user + t.system
+
+
+def time_check(path: Path) -> tuple[float, int]:
+    from stepper.cli.main import main
+
+    start = cpu()
+    with contextlib.redirect_stdout(io.StringIO()):
+        code = main(["check", str(path)])
+    return cpu() - start, code
+
+
+def time_replay(path: Path) -> float:
+    from stepper.verify.replay import Replay
+
+    start = cpu()
+    replay = Replay(keep_instances=20, emit_passing=False)
+    with open_events(path) as stream:
+        replay.feed_all(stream)
+        completeness = stream.completeness
+    report = replay.report(completeness)
+    assert report.verdict == "accept", report.first_failure
+    return cpu() - start
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--instances", type=int, default=10_000)
+    parser.add_argument("--rounds", type=int, default=8)
+    parser.add_argument("--repeat", type=int, default=3)
+    args = parser.parse_args()
+    with tempfile.TemporaryDirectory() as tmp:
+        plain, glued = Path(tmp) / "plain.sumtr", Path(tmp) / "glue.sumtr"
+        write_unique(plain, args.instances, args.rounds, glue=False)
+        write_unique(glued, args.instances, args.rounds, glue=True)
+        print(f"{args.instances} instances x {args.rounds} rounds, Goldilocks, degree {DEGREE}; "
+              f"plain {plain.stat().st_size / 1e6:.1f} MB, glue {glued.stat().st_size / 1e6:.1f} MB "
+              f"(3 openings, 1 squeeze, final_expr and claim_expr per instance)")
+        best: dict[str, float] = {}
+        for _ in range(args.repeat):
+            for label, path in (("plain", plain), ("glue", glued)):
+                seconds, code = time_check(path)
+                assert code == 0, f"check {label} exited {code}"
+                best[f"check {label}"] = min(best.get(f"check {label}", seconds), seconds)
+                seconds = time_replay(path)
+                best[f"replay {label}"] = min(best.get(f"replay {label}", seconds), seconds)
+        for key in ("check plain", "check glue", "replay plain", "replay glue"):
+            print(f"  {key:<13} {best[key]:7.3f} s CPU (best of {args.repeat})")
+        print(f"check  glue/plain: {best['check glue'] / best['check plain']:.2f}x  (target <= 1.5x; the plain file "
+              f"takes the whole-file sweep, the glue file the event-by-event replay)")
+        print(f"replay glue/plain: {best['replay glue'] / best['replay plain']:.2f}x  (the same replay path: the "
+              f"cost of the glue checks themselves)")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
