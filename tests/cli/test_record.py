@@ -336,3 +336,39 @@ def test_a_free_form_integer_msgpack_cannot_store_is_exit_2_and_keeps_the_events
     err = capsys.readouterr().err
     assert "line 2" in err and "keeps the 1 event before it" in err
     assert len(list(open_events(recorded))) == 1
+
+
+GLUE_PROVER = r'''
+import json, os
+with open(os.environ["STEPPER_EVENTS"], "a") as out:
+    for event in [
+        {"type": "field", "name": "babybear"},
+        {"type": "value", "name": "tau", "value": [3, 5]},
+        {"type": "instance", "name": "fares.zero", "num_vars": 1, "degree": 1, "claim": 7, "final_expr": "a + b"},
+        {"type": "round", "evals": [3, 4]},
+        {"type": "challenge", "value": 5},
+        {"type": "opening", "name": "a", "value": 6},
+        {"type": "opening", "name": "b", "table": "fares", "value": 2},
+        {"type": "squeeze", "name": "beta", "value": 9},
+    ]:
+        out.write(json.dumps(event) + "\n")
+'''
+
+
+def test_record_and_export_keep_the_glue_and_the_file_is_version_2(tmp_path, capsys):
+    # g(5) = 3 + 5 * (4 - 3) = 8 = a + b: the evaluation passes (arithmetic by hand)
+    prover_path = tmp_path / "glue_prover.py"
+    prover_path.write_text(GLUE_PROVER)
+    out = tmp_path / "glue.sumtr"
+    proc = stepper("record", "-o", str(out), "--", sys.executable, str(prover_path))
+    assert proc.returncode == 0, proc.stderr
+    t = load(out)
+    assert t.header.format_version == 2 and t.digest == "verified"
+    assert [o.name for o in t.instances[0].openings] == ["a", "b"] and t.instances[0].openings[1].table == "fares"
+    assert main(["export", str(out)]) == 0
+    lines = conforming_lines(capsys.readouterr().out)
+    kinds = [line["type"] for line in lines]
+    assert kinds[1:] == ["field", "value", "instance", "round", "challenge", "opening", "opening", "squeeze"]
+    assert lines[3]["final_expr"] == "a + b" and lines[7] == {"type": "opening", "name": "b", "value": 2,
+                                                                "table": "fares"}
+    assert main(["check", str(out)]) == 0

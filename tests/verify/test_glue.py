@@ -15,9 +15,13 @@ from __future__ import annotations
 import itertools
 import json
 import random
+import sys
 from pathlib import Path
 
 import pytest
+
+sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared schema helper
+from json_contracts import conforming  # noqa: E402
 
 from stepper.cli.main import main
 from stepper.field.field import get_field
@@ -131,7 +135,7 @@ def run(tmp_path: Path, capsys, events: list[dict], *extra: str) -> tuple[int, d
         return code, None, err
     code = main(["check", str(out), "--json", *extra])
     captured = capsys.readouterr()
-    return code, (json.loads(captured.out) if captured.out.strip() else None), captured.err
+    return code, (conforming(captured.out, "check") if captured.out.strip() else None), captured.err
 
 
 def where(report: dict) -> tuple[int, int, str]:

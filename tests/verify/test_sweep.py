@@ -629,3 +629,27 @@ def test_a_file_without_an_end_event_is_declined_before_it_is_read(tmp_path, mon
     monkeypatch.undo()
     assert event_by_event(cut, 20)[0].verdict == "incomplete"
     assert swept_report(written.path, 20) is not None  # the whole file is still taken
+
+
+@pytest.mark.parametrize("kind", ["none", "opening", "claim_expr"])
+def test_sweep_gives_up_on_glue_and_the_replay_checks_it(tmp_path, monkeypatch, kind):
+    # the glue (transcripts/FORMAT.md, "The glue") is checked event by event, never skipped by the sweep
+    from stepper.transcript.store import TranscriptWriter
+
+    path = tmp_path / "glued.sumtr"
+    with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
+        out.write_payload({"type": "field", "name": "goldilocks"})
+        if kind != "none":
+            out.write_payload({"type": "value", "name": "seed", "value": 3})
+        for i in range(3):
+            extra = {"claim_expr": "seed"} if kind == "claim_expr" and i == 2 else {}
+            out.write_payload({"type": "instance", "name": f"leg.{i}", "num_vars": 1, "degree": 1, "claim": 3,
+                               **extra})
+            out.write_payload({"type": "round", "evals": [1, 2]})
+            out.write_payload({"type": "challenge", "value": 5})
+            out.write_payload({"type": "final", "value": 6})
+            if kind == "opening":
+                out.write_payload({"type": "opening", "name": f"o{i}", "value": 6})
+    monkeypatch.delenv("STEPPER_SWEEP", raising=False)
+    swept = sweep(path, Replay(keep_instances=20, emit_passing=False), min_bytes=0)
+    assert (swept is None) == (kind != "none")  # the same proof without glue is swept
