@@ -13,6 +13,10 @@
   claim against ``claim_expr``, reported at round 0) and ``evaluation`` (the
   reduced claim after the last round against ``final_expr``, reported at the
   last round).
+* :class:`GlueDesk` is the replay's side of it: it keeps the book, runs those
+  checks and the ``squeeze`` comparison at the right moments, and records their
+  failures in the replay's ledger (a failure before any instance goes to the
+  next instance, at round 0).
 
 Expressions are parsed once per distinct text (:func:`parsed`).
 """
@@ -20,7 +24,6 @@ Expressions are parsed once per distinct text (:func:`parsed`).
 from __future__ import annotations
 
 from collections import OrderedDict
-from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 from stepper.errors import ExpressionError, TranscriptError, Where
@@ -28,11 +31,14 @@ from stepper.field.expr import Expr, GlueScope, parse_cached
 from stepper.field.poly import lagrange_at, point_from_challenges
 from stepper.transcript.model import NamedValue, Opening, Squeeze
 
+from stepper.verify.verdict import Failure, GlueResult
+
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceStart
+    from stepper.verify.ledger import InstanceLedger, LiveInstance
 
-__all__ = ["GlueBook", "EqFactor", "GlueResult", "parsed", "link_result", "evaluation_result",
+__all__ = ["GlueBook", "GlueDesk", "EqFactor", "GlueResult", "parsed", "link_result", "evaluation_result",
            "MAX_POINT_ELEMENTS"]
 
 MAX_POINT_ELEMENTS = 1 << 16
@@ -41,23 +47,6 @@ MAX_POINT_ELEMENTS = 1 << 16
 def parsed(text: str) -> Expr:
     """The tree of a glue expression (the Sequencer has already parsed it, and named any error)."""
     return parse_cached(text)
-
-
-@dataclass(frozen=True, slots=True)
-class GlueResult:
-    """A ``link`` or ``evaluation`` check: ``expected`` is the expression's value,
-    ``found`` the claim (link) or the reduced claim after the last round (evaluation);
-    ``expr`` the expression's text."""
-
-    instance: int
-    instance_name: str
-    round: int
-    check: str
-    expr: str
-    expected: Element
-    found: Element
-    status: str
-    explanation: str = ""
 
 
 class GlueBook:
@@ -186,3 +175,84 @@ def evaluation_result(field: Field, book: GlueBook, start: InstanceStart, challe
                    f"rounds are wrong")
     return GlueResult(start.index, start.name, start.num_vars, "evaluation", text, expected, found,
                       "pass" if ok else "fail", explanation)
+
+
+class GlueDesk:
+    """The glue checks of one replay, called by :class:`stepper.verify.replay.Replay`."""
+
+    __slots__ = ("book", "held")
+
+    def __init__(self) -> None:
+        self.book = GlueBook()
+        self.held: list[Failure] = []  # failures before the first instance, given to it
+
+    def open_instance(self, field: Field, live: LiveInstance, ledger: InstanceLedger) -> None:
+        """A new instance: held failures, its eq factor, its ``link`` check."""
+        start = live.start
+        for held in self.held:
+            ledger.fail(live, Failure(start.index, start.name, 0, held.check, held.expected, held.found,
+                                      held.explanation))
+        self.held.clear()
+        if start.eq_point is not None:
+            live.eqf = EqFactor(field, self.book.point_value(start.eq_point, Where(instance=start.name)),
+                                start.order)
+        if start.claim_expr is not None:
+            link = link_result(field, self.book, start)
+            live.link = link
+            if link.status == "fail":
+                ledger.fail(live, Failure(start.index, start.name, 0, "link", link.expected,  # type: ignore[arg-type]
+                                          link.found, link.explanation))  # type: ignore[arg-type]
+
+    def take(self, field: Field, record: NamedValue | Squeeze | Opening, derived: Any, deriver: str,
+             live: LiveInstance | None, ledger: InstanceLedger) -> None:
+        """A value, squeeze (``derived``: the schedule's value, or None) or opening: compared,
+        kept for the expressions; an evaluation waiting for it is settled."""
+        if isinstance(record, Squeeze) and derived is not None:
+            self._check_squeeze(field, record, derived, deriver, live, ledger)
+        self.book.add(record)
+        if live is not None and isinstance(record, Opening) and record.instance == live.start.index:
+            live.openings.append(record)
+        if live is not None and live.awaiting:
+            self.evaluate(field, live, ledger)
+
+    def _check_squeeze(self, field: Field, record: Squeeze, derived: Any, deriver: str, live: LiveInstance | None,
+                       ledger: InstanceLedger) -> None:
+        sent, want = record.items(), (derived if record.listed else (derived,))
+        for i, (s, d) in enumerate(zip(sent, want)):
+            if field.lift(s) != field.lift(d):
+                part = f" (element {i})" if record.listed else ""
+                text = (f"the squeeze '{record.name}'{part} is {field.fmt(s)}, but {deriver} derives "
+                        f"{field.fmt(d)}: the prover drew it from a different transcript state")
+                if live is not None:
+                    start = live.start
+                    ledger.fail(live, Failure(start.index, start.name, live.seen, "squeeze", d, s, text))
+                else:
+                    self.held.append(Failure(0, "", 0, "squeeze", d, s, text))
+                return
+
+    def evaluate(self, field: Field | None, live: LiveInstance, ledger: InstanceLedger) -> None:
+        """The ``evaluation`` check once every value final_expr names has arrived (else it waits)."""
+        start = live.start
+        assert field is not None and start.final_expr is not None
+        if self.book.missing(parsed(start.final_expr)) is not None:
+            live.awaiting = True
+            return
+        live.awaiting = False
+        result = evaluation_result(field, self.book, start, live.challenges, live.claim)
+        live.evaluation = result
+        if result.status == "fail":
+            ledger.fail(live, Failure(start.index, start.name, start.num_vars, "evaluation",
+                                      result.expected, result.found, result.explanation))  # type: ignore[arg-type]
+
+    def close_instance(self, live: LiveInstance) -> None:
+        """Remember a complete instance's point and final for point() and final()."""
+        start = live.start
+        if live.seen == start.num_vars:
+            final = live.final.value if live.final is not None else live.claim
+            self.book.close_instance(start, live.challenges, final)
+
+    def finish(self, ledger: InstanceLedger) -> None:
+        """Failures of glue sent before any instance, in a proof that never started one."""
+        for held in self.held:
+            ledger.fail_first(held)
+        self.held.clear()

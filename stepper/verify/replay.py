@@ -42,7 +42,7 @@ from stepper.transcript.model import (
     BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
     Squeeze, Transcript, UnknownEvent,
 )
-from stepper.verify.glue import EqFactor, GlueBook, evaluation_result, link_result, parsed
+from stepper.verify.glue import GlueDesk
 from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify.text import batch_text, final_text, round_text
@@ -83,8 +83,7 @@ class Replay:
         self._dispatch = {RoundMsg: self._on_round, ChallengeMsg: self._on_challenge,
                           InstanceStart: self._on_instance, FinalValue: self._on_final,
                           NamedValue: self._on_glue, Squeeze: self._on_glue, Opening: self._on_glue}
-        self._book = GlueBook()
-        self._held: list[Failure] = []  # glue failures before the first instance, given to it
+        self._glue = GlueDesk()
         self._finished = False
         if field is not None:
             self._source.set_field(field)
@@ -156,7 +155,7 @@ class Replay:
                             if live.failure is None:
                                 live.passed = k
                             if k == live.start.num_vars and live.start.final_expr is not None:
-                                self._evaluate(live)
+                                self._glue.evaluate(self.field, live, self._ledger)
                         else:  # the schedule has absorbed the round: resolve with the challenge it derived
                             live.pending = (round_msg, values, None, None, None, None, None)
                             self._resolve_pending(record, rederived)
@@ -253,69 +252,17 @@ class Replay:
                 self._ledger.fail(live, Failure(start.index, start.name, 0, "batch", combined, start.claim,
                                                 result.explanation))
             out.append(result)
-        for held in self._held:
-            self._ledger.fail(live, Failure(start.index, start.name, 0, held.check, held.expected, held.found,
-                                            held.explanation))
-        self._held.clear()
-        if start.eq_point is not None:
-            live.eqf = EqFactor(field, self._book.point_value(start.eq_point, Where(instance=start.name)),
-                                start.order)
-        if start.claim_expr is not None:
-            link = link_result(field, self._book, start)
-            live.link = link
-            if link.status == "fail":
-                self._ledger.fail(live, Failure(start.index, start.name, 0, "link", link.expected,  # type: ignore[arg-type]
-                                                link.found, link.explanation))  # type: ignore[arg-type]
+        self._glue.open_instance(field, live, self._ledger)
         return out
 
     def _on_glue(self, record: NamedValue | Squeeze | Opening) -> list[Result]:
-        """A value, squeeze or opening: checked (a squeeze against the schedule), kept for the
-        expressions, absorbed; an evaluation waiting for it is settled."""
+        """A value, squeeze or opening (see :class:`stepper.verify.glue.GlueDesk`)."""
         live = self._live
         out = self._resolve_pending(None) if live is not None and live.pending is not None else []
-        if isinstance(record, Squeeze):
-            derived = self._source.squeeze(record)
-            if derived is not None:
-                self._check_squeeze(record, derived)
+        derived = self._source.squeeze(record) if isinstance(record, Squeeze) else None
         self._source.observe(record)
-        self._book.add(record)
-        if live is not None and isinstance(record, Opening) and record.instance == live.start.index:
-            live.openings.append(record)
-        if live is not None and live.awaiting:
-            self._evaluate(live)
+        self._glue.take(self._need_field(), record, derived, self._source.deriver(), live, self._ledger)
         return out
-
-    def _check_squeeze(self, record: Squeeze, derived: Any) -> None:
-        field = self.field
-        assert field is not None
-        sent, want = record.items(), (derived if record.listed else (derived,))
-        for i, (s, d) in enumerate(zip(sent, want)):
-            if field.lift(s) != field.lift(d):
-                part = f" (element {i})" if record.listed else ""
-                text = (f"the squeeze '{record.name}'{part} is {field.fmt(s)}, but {self._source.deriver()} derives "
-                        f"{field.fmt(d)}: the prover drew it from a different transcript state")
-                live = self._live
-                if live is not None:
-                    start = live.start
-                    self._ledger.fail(live, Failure(start.index, start.name, live.seen, "squeeze", d, s, text))
-                else:
-                    self._held.append(Failure(0, "", 0, "squeeze", d, s, text))
-                return
-
-    def _evaluate(self, live: LiveInstance) -> None:
-        """The evaluation check once every value final_expr names has arrived (else it waits)."""
-        field = self.field
-        start = live.start
-        assert field is not None and start.final_expr is not None
-        if self._book.missing(parsed(start.final_expr)) is not None:
-            live.awaiting = True
-            return
-        live.awaiting = False
-        result = evaluation_result(field, self._book, start, live.challenges, live.claim)
-        live.evaluation = result
-        if result.status == "fail":
-            self._ledger.fail(live, Failure(start.index, start.name, start.num_vars, "evaluation",
-                                            result.expected, result.found, result.explanation))  # type: ignore[arg-type]
 
     def _on_round(self, msg: RoundMsg) -> list[Result]:
         field = self.field
@@ -404,7 +351,7 @@ class Replay:
             if not self.emit_passing:
                 live.claim = claim_out  # type: ignore[assignment]
                 if k == start.num_vars and start.final_expr is not None:
-                    self._evaluate(live)
+                    self._glue.evaluate(field, live, self._ledger)
                 return []
         result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
                                     challenge, rederived, claim_out, after)
@@ -417,7 +364,7 @@ class Replay:
         if live.rounds is not None:
             live.rounds.append(result)
         if claim_out is not None and k == start.num_vars and start.final_expr is not None:
-            self._evaluate(live)
+            self._glue.evaluate(field, live, self._ledger)
         return [result]
 
     def _round_result(self, live: LiveInstance, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
@@ -464,10 +411,7 @@ class Replay:
         if live is None:
             return []
         out = self._resolve_pending(None) if live.pending is not None else []
-        start = live.start
-        if live.seen == start.num_vars:
-            final = live.final.value if live.final is not None else live.claim
-            self._book.close_instance(start, live.challenges, final)
+        self._glue.close_instance(live)
         self._ledger.close(live, self.field)
         self._live = None
         return out
@@ -483,9 +427,7 @@ class Replay:
         """The verdict so far (finishes the replay); ``completeness`` is what the store says of the file."""
         self.finish()
         ledger = self._ledger
-        for held in self._held:  # glue failed before any instance started
-            ledger.fail_first(held)
-        self._held.clear()
+        self._glue.finish(ledger)
         return Report(self.field, ledger.verdict(completeness), ledger.first,  # type: ignore[arg-type]
                       tuple(ledger.summaries), dict(ledger.counts), ledger.soundness(self.field),
                       tuple(self._source.findings), self.challenges, completeness, PASSING_REPLAY_WARNING)

@@ -15,7 +15,6 @@ from typing import TYPE_CHECKING, Any, Literal, Union
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Opening
-    from stepper.verify.glue import GlueResult
     from stepper.verify.soundness import SoundnessSummary
 
 __all__ = [
@@ -24,6 +23,7 @@ __all__ = [
     "RoundResult",
     "FinalResult",
     "BatchResult",
+    "GlueResult",
     "Result",
     "Failure",
     "Finding",
@@ -105,6 +105,23 @@ class BatchResult:
     claim: Element
     status: Status
     check: str | None = None
+    explanation: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class GlueResult:
+    """A ``link`` or ``evaluation`` check: ``expected`` is the expression's value,
+    ``found`` the claim (link) or the reduced claim after the last round (evaluation);
+    ``expr`` the expression's text."""
+
+    instance: int
+    instance_name: str
+    round: int
+    check: str
+    expr: str
+    expected: Element
+    found: Element
+    status: str
     explanation: str = ""
 
 
