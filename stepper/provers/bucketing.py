@@ -84,13 +84,28 @@ def group_buckets(bits: Sequence[np.ndarray], group: Sequence[int], round_: int)
         key = np.zeros(len(rows[0]), dtype=np.uint64)
         for pos, row in enumerate(rows):
             key |= row << np.uint64(width * pos)
-        combined, inverse, sizes = np.unique(key, return_inverse=True, return_counts=True)
+        combined, inverse, sizes = _unique_keys(key, width * len(group))
         low = np.uint64((1 << width) - 1)  # width <= 32: bucketing stops by round 5
         keys = np.stack([(combined >> np.uint64(width * pos)) & low for pos in range(len(rows))], axis=1)
     else:
         stacked = np.stack(rows, axis=1)
         keys, inverse, sizes = np.unique(stacked, axis=0, return_inverse=True, return_counts=True)
     return GroupBuckets(keys, inverse.reshape(-1), sizes)
+
+
+def _unique_keys(key: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``np.unique(key, return_inverse=True, return_counts=True)`` for keys of ``bits`` bits:
+    by counting into a table of 2^bits slots when that table is no larger than a few times
+    the keys (no sort: the first rounds of a large permutation), by sorting otherwise."""
+    if bits <= 24 and (1 << bits) <= 4 * len(key) + (1 << 16):
+        slots = key.astype(np.intp)
+        counts = np.bincount(slots, minlength=1 << bits)
+        present = np.flatnonzero(counts)
+        rank = np.zeros(1 << bits, dtype=np.intp)
+        rank[present] = np.arange(len(present), dtype=np.intp)
+        return present.astype(np.uint64), rank[slots], counts[present]
+    combined, inverse, sizes = np.unique(key, return_inverse=True, return_counts=True)
+    return combined, inverse.reshape(-1), sizes
 
 
 def segment_sum(field: Field, values: np.ndarray, inverse: np.ndarray, count: int) -> np.ndarray:

@@ -1,0 +1,120 @@
+"""The witness on disk: writing it, its size, and `check --witness` as a whole command.
+
+For each size 2^mu (default 2^20), `stepper prove --kind generic --combine "a*b*c"` (degree 3) over
+``--field`` (default babybear^4) writes a transcript with its witness, once as the binary folder and
+once as JSON. Then, side by side in one run (CPU seconds, best of ``--repeat``):
+
+* writing: :func:`stepper.diagnose.witness_dir.write_witness_folder` of the prover's tables against
+  ``numpy.save`` of the same arrays (target <= 2x), and the folder's bytes against the tables' raw
+  bytes (elements x element bytes; target <= 1.1x);
+* root cause: ``python3 -m stepper check F --witness W`` as a fresh process, minus the plain
+  ``check F`` (fresh process too), against the bare kernels doing the recomputation's
+  multiplications (``bench/rootcause.py``'s ``bare_kernels``; target <= 3x), for the folder and
+  for the JSON witness; the peak resident memory of the check, against one table's raw bytes
+  (target < 1.5x; it includes the interpreter and numpy, about 40 MB).
+
+    python3 bench/witness.py                    # 2^20, about a minute
+    python3 bench/witness.py --log2n 18 22 --repeat 1
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import shutil
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from check import _child  # noqa: E402
+from rootcause import bare_kernels, field_named  # noqa: E402
+
+
+def prove(folder: Path, field: str, mu: int, witness: str) -> tuple[Path, Path]:
+    out, w = folder / f"p{mu}.sumtr", folder / witness
+    code = _child([sys.executable, "-m", "stepper", "prove", "--kind", "generic", "--field", field, "--num-vars",
+                   str(mu), "--combine", "a*b*c", "-o", str(out), "--witness-out", str(w), "--force"])[3]
+    assert code == 0, "prove failed"
+    return out, w
+
+
+def cpu_of_check(argv: list[str]) -> tuple[float, float]:
+    _, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv])
+    assert code == 0, f"check {argv} exited {code}"
+    return cpu, rss
+
+
+def writing(field_name: str, mu: int, repeat: int, tmp: Path) -> tuple[float, float, float, float]:
+    """(folder write s, numpy.save s, folder bytes, raw bytes) for the prover's tables."""
+    from stepper.diagnose.witness_dir import write_witness_folder
+    from stepper.provers.reference import ProveSpec, parse_field, prove as run_prover
+
+    field = parse_field(field_name)
+
+    class Discard:
+        def write(self, record: object) -> object:
+            return record
+
+    spec = ProveSpec("generic", mu, combine="a*b*c")
+    proof = run_prover(spec, field, Discard(), witness=True)
+    tables = [(w.name, dict(w.tables), w.combine, w.order) for w in proof.witness]
+    ours, bare = [], []
+    for i in range(repeat):
+        target = tmp / f"w{i}"
+        t = time.process_time()
+        write_witness_folder(target, field, tables)
+        ours.append(time.process_time() - t)
+        size = sum(f.stat().st_size for f in target.iterdir())
+        shutil.rmtree(target)
+        plain = tmp / f"n{i}"
+        plain.mkdir()
+        t = time.process_time()
+        for name, ts, _, _ in tables:
+            for tname, table in ts.items():
+                np.save(plain / f"{name}-{tname}.npy", table)
+        bare.append(time.process_time() - t)
+        shutil.rmtree(plain)
+    raw = sum(len(t) * field.elem_bytes for _, ts, _, _ in tables for t in ts.values())
+    return min(ours), min(bare), size, raw
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--field", default="babybear^4")
+    parser.add_argument("--log2n", nargs="+", type=int, default=[20])
+    parser.add_argument("--repeat", type=int, default=2)
+    parser.add_argument("--no-json", action="store_true", help="skip the JSON witness (slow at 2^22 and up)")
+    args = parser.parse_args()
+    field = field_named(args.field)
+    print(f"{args.field}, combine a*b*c (degree 3); CPU seconds, best of {args.repeat}")
+    with tempfile.TemporaryDirectory(dir=os.environ.get("STEPPER_BENCH_TMP")) as name:
+        tmp = Path(name)
+        for mu in args.log2n:
+            ours, bare, size, raw = writing(args.field, mu, args.repeat, tmp)
+            print(f"2^{mu} write: folder {ours:.3f} s vs numpy.save {bare:.3f} s = {ours / bare:.2f}x (target <= 2x); "
+                  f"{size / 2**20:.1f} MiB = {size / raw:.3f}x raw (target <= 1.1x)", flush=True)
+            table_raw = raw / 3
+            kinds = [("folder", "w")] + ([] if args.no_json else [("json", "w.json")])
+            for kind, wname in kinds:
+                transcript, witness = prove(tmp, args.field, mu, wname)
+                plain = min(cpu_of_check([str(transcript)])[0] for _ in range(args.repeat))
+                runs = [cpu_of_check([str(transcript), "--witness", str(witness)]) for _ in range(args.repeat)]
+                full, rss = min(r[0] for r in runs), min(r[1] for r in runs)
+                kernels = min(bare_kernels(field, mu) for _ in range(args.repeat))
+                print(f"2^{mu} check --witness ({kind}): {full:.2f} s - plain check {plain:.2f} s = {full - plain:.2f} s "
+                      f"vs bare kernels {kernels:.2f} s = {(full - plain) / kernels:.1f}x (target <= 3x); peak "
+                      f"{rss:.0f} MB = {rss * 2**20 / table_raw:.2f}x one table ({table_raw / 2**20:.0f} MiB; "
+                      "target < 1.5x)", flush=True)
+                if witness.is_dir():
+                    shutil.rmtree(witness)
+                else:
+                    witness.unlink()
+
+
+if __name__ == "__main__":
+    main()
