@@ -143,7 +143,8 @@ def _evaluate_wide(p: int, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
         merged = []
         for j in range(0, len(parts) - 1, 2):
             (s_left, p_left), (s_right, p_right) = parts[j], parts[j + 1]
-            total, product = s_left * p_right + s_right * p_left, p_left * p_right
+            total = s_left * p_right + s_right * p_left
+            product = p_left * p_right if len(parts) > 2 else p_left  # the top product is never used
             if level >= 3:
                 total, product = total % p, product % p
             merged.append((total, product))
