@@ -203,6 +203,6 @@ def write_witness(path: str, field: Any, proof: Any, *, replace: bool = False) -
     from stepper.transcript.store.output import atomic_output
 
     with atomic_output(path, replace=replace, what="the witness") as out:
-        json.dump(witness_payload(field, proof.witness), out, separators=(",", ":"))
+        out.write(json.dumps(witness_payload(field, proof.witness), separators=(",", ":")))  # C encoder, one pass
         out.write("\n")
 
