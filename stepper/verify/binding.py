@@ -134,6 +134,11 @@ def call_challenger(challenger: Challenger, history: Sequence[Mapping[str, Any]]
     except Exception as err:  # user code: any failure is the plug-in's, reported as input
         raise PluginFailure(f"expected the challenge plug-in {name} to return a challenge, but it raised "
                             f"{type(err).__name__}: {clip_text(str(err))}", where) from None
+    reduced = _reduced(raw, field.p)
+    if reduced is not None:  # a value outside 0..p-1: refused, with what it would reduce to
+        raise PluginFailure(f"challenge plug-in {name} returned {clip_text(str(raw))}, which is not reduced mod "
+                            f"p = {field.p} (it reduces to {reduced}); a challenge must be canonical, "
+                            "0 <= value < p: reduce it in the plug-in", where)
     try:
         return field.parse(raw, where)
     except InputError as err:
@@ -141,6 +146,18 @@ def call_challenger(challenger: Challenger, history: Sequence[Mapping[str, Any]]
     except (RecursionError, ValueError, TypeError, OverflowError, MemoryError) as err:
         raise PluginFailure(f"challenge plug-in {name} returned an unusable value "
                             f"({type(err).__name__}: {clip_text(str(err))})", where) from None
+
+
+def _reduced(raw: Any, p: int) -> Any:
+    """``raw`` reduced mod ``p`` when it is an integer (or a list of integers) outside 0..p-1, else None."""
+    def out_of_range(v: Any) -> bool:
+        return type(v) is int and not 0 <= v < p and v.bit_length() <= 4 * p.bit_length()
+
+    if out_of_range(raw):
+        return raw % p
+    if isinstance(raw, (list, tuple)) and raw and all(type(v) is int for v in raw) and any(map(out_of_range, raw)):
+        return [v % p for v in raw]
+    return None
 
 
 def _bump(value: Any, p: int) -> Any:

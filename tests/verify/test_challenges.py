@@ -40,6 +40,10 @@ PLUGIN = textwrap.dedent("""
         return object()
     def huge(history):
         return 10 ** 6000
+    def not_reduced(history):
+        return 2013265921 + 5
+    def negative(history):
+        return -1
     def deep(history):
         value = 1
         for _ in range(100000):
@@ -67,6 +71,9 @@ def files(tmp_path: Path) -> tuple[Path, Path]:
     ("huge", "returned an unusable value: expected a canonical element 0 <= v < p = 2013265921, found an integer "
              "of 19932 bits"),
     ("deep", "returned an unusable value"),
+    # BabyBear p = 15 * 2^27 + 1 = 2013265921 (common practice, no source): p + 5 reduces to 5, -1 to p - 1
+    ("not_reduced", "returned 2013265926, which is not reduced mod p = 2013265921 (it reduces to 5)"),
+    ("negative", "returned -1, which is not reduced mod p = 2013265921 (it reduces to 2013265920)"),
 ])
 @pytest.mark.parametrize("json_flag", [[], ["--json"]])
 def test_a_misbehaving_plugin_is_exit_2_naming_it_and_the_round_and_the_transcript_is_untouched(
