@@ -62,13 +62,23 @@ class RoundRow:
 
 @dataclass(frozen=True, slots=True)
 class BucketRow:
-    """Bucket occupancy of one round, summed over chunks."""
+    """Bucket occupancy of one round, summed over its groups (chunks). ``bound`` is the
+    like-for-like ceiling of that sum: the sum over the same groups of each group's
+    largest possible count 2^bound_log2 (None unless every group declared one)."""
 
     round: int
     buckets: int
     largest: int | None
     entries: int | None
-    bound_log2: int | None
+    bound: int | None
+    groups: int = 1
+
+    def bound_words(self) -> str:
+        """What the drawn bound is, e.g. ``2^4 + 2^4 = 32 (sum of the 2 groups' bounds)``."""
+        if self.bound is None:
+            return "no bound declared"
+        return f"{self.bound} (sum of the {self.groups} groups' bounds)" if self.groups > 1 else \
+            f"{self.bound} (the group's bound)"
 
 
 @dataclass(frozen=True, slots=True)
@@ -270,9 +280,11 @@ def bucket_rows(stats: Sequence[BucketStats]) -> tuple[BucketRow, ...]:
     for number in sorted(by_round):
         group = by_round[number]
         sizes = [s for b in group if b.sizes is not None for s in b.sizes]
-        bounds = [b.bound_log2 for b in group if b.bound_log2 is not None]
+        # compare like with like: the count summed over the groups against the bounds summed over them
+        complete = all(b.bound_log2 is not None for b in group)
+        bound = sum(1 << b.bound_log2 for b in group) if complete else None  # type: ignore[operator]
         rows.append(BucketRow(number, sum(b.count for b in group), max(sizes) if sizes else None,
-                              sum(sizes) if sizes else None, max(bounds) if bounds else None))
+                              sum(sizes) if sizes else None, bound, len(group)))
     return tuple(rows)
 
 
@@ -337,12 +349,14 @@ def to_markdown(doc: ReportDoc) -> str:
 
 def _text_chart(rows: Sequence[BucketRow], width: int = 40) -> list[str]:
     top = max((r.buckets for r in rows), default=0) or 1
-    lines = ["round  buckets  largest  bound"]
+    lines = ["buckets in use and the bound are both summed over the round's groups",
+             "round  groups  buckets  largest    bound"]
     for r in rows:
         bar = "#" * max(1 if r.buckets else 0, round(width * r.buckets / top))
         largest = "-" if r.largest is None else str(r.largest)
-        bound = "-" if r.bound_log2 is None else f"2^{r.bound_log2}"
-        lines.append(f"{r.round:>5}  {r.buckets:>7}  {largest:>7}  {bound:>5}  {bar}")
+        bound = "-" if r.bound is None else str(r.bound)
+        over = "  above the bound" if r.bound is not None and r.buckets > r.bound else ""
+        lines.append(f"{r.round:>5}  {r.groups:>6}  {r.buckets:>7}  {largest:>7}  {bound:>7}  {bar}{over}")
     return lines
 
 

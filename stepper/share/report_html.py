@@ -105,12 +105,13 @@ def _instance(sec: InstanceSection) -> str:
 
 def bucket_chart(rows: Sequence[BucketRow], name: str, width: int = 640, height: int = 220) -> str:
     """Inline SVG: log2(buckets in use) per round as bars, log2(largest bucket) as dots,
-    each round's declared bound (log2) as a dashed mark."""
+    each round's bound as a dashed mark: the sum over the round's groups of each group's
+    largest possible count, the same groups the bar sums (like with like)."""
     left, right, top, bottom = 44, 12, 16, 30
     plot_w, plot_h = width - left - right, height - top - bottom
     levels = [math.log2(r.buckets + 1) for r in rows]
     levels += [math.log2(r.largest + 1) for r in rows if r.largest is not None]
-    levels += [float(r.bound_log2) for r in rows if r.bound_log2 is not None]
+    levels += [math.log2(r.bound + 1) for r in rows if r.bound is not None]
     ceiling = max(1.0, math.ceil(max(levels, default=1.0)))
     step = plot_w / max(1, len(rows))
 
@@ -140,12 +141,13 @@ def bucket_chart(rows: Sequence[BucketRow], name: str, width: int = 640, height:
                 f"<title>round {r.round}: largest bucket {r.largest}</title></circle>"
             )
         out.append(f'<text x="{x + step / 2:.1f}" y="{height - 12}" text-anchor="middle">{r.round}</text>')
-        if r.bound_log2 is not None:
-            yb = y(float(r.bound_log2))
+        if r.bound is not None:
+            yb = y(math.log2(r.bound + 1))
             out.append(f'<line x1="{x + step * 0.1:.1f}" y1="{yb:.1f}" x2="{x + step * 0.9:.1f}" y2="{yb:.1f}" '
                        f'stroke="#a8321f" stroke-dasharray="5 3"><title>round {r.round}: bound '
-                       f"2^{r.bound_log2}</title></line>")
+                       f"{escape(r.bound_words())}</title></line>")
     out.append(f'<text x="{left + plot_w / 2:.1f}" y="{height - 1}" text-anchor="middle">round (bars: buckets '
-               "in use; dots: largest bucket; dashes: declared bound; log2 scale)</text>")
+               "in use, summed over groups; dots: largest bucket; dashes: the groups' bounds summed; "
+               "log2 scale)</text>")
     out.append("</svg>")
     return "\n".join(out)

@@ -9,7 +9,7 @@ from __future__ import annotations
 import dataclasses
 from html.parser import HTMLParser
 
-from stepper.share.report import build, bucket_rows, short, to_markdown
+from stepper.share.report import _text_chart, build, bucket_rows, short, to_markdown
 from stepper.share.report_html import bucket_chart, to_html
 from stepper.diagnose.rootcause import diagnose
 from stepper.transcript.model import BucketStats, Header, Note
@@ -134,11 +134,24 @@ def test_with_a_witness_the_report_shows_the_root_cause_and_warns_that_it_reveal
 def test_bucket_rows_sum_chunks_per_round_and_the_chart_marks_every_round():
     stats = [BucketStats(0, 1, 0, 3, (1, 2, 5), 4), BucketStats(0, 1, 1, 2, (7, 1), 4), BucketStats(0, 2, 0, 1, None)]
     rows = bucket_rows(stats)
-    assert [(r.round, r.buckets, r.largest, r.entries, r.bound_log2) for r in rows] == [
-        (1, 5, 7, 16, 4), (2, 1, None, None, None)]
+    assert [(r.round, r.buckets, r.largest, r.entries, r.bound, r.groups) for r in rows] == [
+        (1, 5, 7, 16, 32, 2), (2, 1, None, None, None, 1)]
     svg = parse(bucket_chart(rows, "boarding-permutation"))
     assert [tag for tag, _ in svg.tags].count("rect") == 2
     assert [tag for tag, _ in svg.tags].count("circle") == 1  # round 2 sent no sizes
+
+
+def test_the_bucket_chart_compares_the_sum_over_groups_with_the_sum_of_their_bounds():
+    # two groups of a round, each with 3 of its 2^2 = 4 possible buckets in use: 6 in all, within 4 + 4 = 8;
+    # drawn against one group's bound (4) the sum used to look above the bound
+    stats = [BucketStats(0, 1, 0, 3, None, 2), BucketStats(0, 1, 1, 3, None, 2)]
+    rows = bucket_rows(stats)
+    assert (rows[0].buckets, rows[0].bound) == (6, 8)
+    assert rows[0].bound_words() == "8 (sum of the 2 groups' bounds)"
+    chart = "\n".join(_text_chart(rows))
+    assert "summed over the round's groups" in chart and "above the bound" not in chart
+    svg = bucket_chart(rows, "boarding-permutation-grouped")
+    assert "sum of the 2 groups&#x27; bounds" in svg or "sum of the 2 groups' bounds" in svg
 
 
 def test_long_elements_are_shortened_in_the_middle():
