@@ -202,6 +202,8 @@ class GlueDesk:
             if link.status == "fail":
                 ledger.fail(live, Failure(start.index, start.name, 0, "link", link.expected,  # type: ignore[arg-type]
                                           link.found, link.explanation))  # type: ignore[arg-type]
+        if start.num_vars == 0 and start.final_expr is not None:  # no rounds: the claim is the reduced claim
+            self.evaluate(field, live, ledger)
 
     def take(self, field: Field, record: NamedValue | Squeeze | Opening, derived: Any, deriver: str,
              live: LiveInstance | None, ledger: InstanceLedger) -> None:

@@ -307,3 +307,15 @@ def test_brute_force_oracle_matches_itself_on_the_cube():
         assert mle(zc.a, x) == zc.a[i]
     assert lagrange([1, 4, 9], 3) == 16  # x^2 through (0,1)...: (x+1)^2 at 3, common practice, no source
     assert list(itertools.islice(cube(2), 4)) == [[0, 0], [1, 0], [0, 1], [1, 1]]
+
+
+def test_an_instance_without_rounds_evaluates_its_claim_against_final_expr(tmp_path, capsys):
+    # with num_vars = 0 nothing is summed: the reduced claim is the claim itself (common practice, no source)
+    events = [{"type": "field", "name": "babybear"}, {"type": "value", "name": "k", "value": 6},
+              {"type": "instance", "name": "fares.const", "num_vars": 0, "degree": 1, "claim": 12,
+               "final_expr": "2*k"}]
+    code, report, _ = run(tmp_path, capsys, events)
+    assert code == 0 and report["instances"][0]["evaluation"]["status"] == "pass"
+    events[2]["claim"] = 13
+    code, report, _ = run(tmp_path, capsys, events)
+    assert code == 1 and where(report) == (0, 0, "evaluation")
