@@ -31,6 +31,8 @@ def _result(s: InstanceSummary) -> str:
         return "rounds passed; evaluation waits for a value never sent"
     if s.status == "incomplete":
         return f"stops after {s.rounds_passed} of {s.num_vars} rounds"
+    if s.evaluation is not None:
+        return "passed; final_expr checked"
     if s.final is None:
         return "passed; no final value, last claim unchecked"
     return "passed; final value checked"

@@ -298,6 +298,13 @@ def test_text_output_shows_the_glue_on_lines_of_at_most_80_columns(tmp_path, cap
     assert any(line.lstrip().startswith("link") and "ok" in line for line in glue)
     assert all(len(line) <= 80 for line in glue)
     assert "REJECTED at instance 0 'fares.zero', round 2, check evaluation" in text
+    out.unlink()
+    src.write_text("".join(json.dumps(e) + "\n" for e in zero_check_events(zc)))
+    assert main(["import", str(src), "-o", str(out)]) == 0
+    capsys.readouterr()
+    assert main(["check", str(out)]) == 0
+    row = next(line for line in capsys.readouterr().out.splitlines() if "fares.zero" in line)
+    assert row.endswith("passed; final_expr checked")  # the evaluation checked the last claim
 
 
 def test_brute_force_oracle_matches_itself_on_the_cube():
