@@ -142,8 +142,7 @@ def _value(field: Field, expr: Expr, scope: GlueScope, start: InstanceStart, key
     try:
         return expr.evaluate_glue(field, scope)
     except ExpressionError as err:
-        raise TranscriptError(f"instance {start.name!r}: {key} cannot be evaluated: {err.message}",
-                              Where(instance=start.name)) from None
+        raise TranscriptError(f"{key} cannot be evaluated: {err.message}", Where(instance=start.name)) from None
 
 
 def link_result(field: Field, book: GlueBook, start: InstanceStart) -> GlueResult:
