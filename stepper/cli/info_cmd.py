@@ -49,6 +49,7 @@ class _Summary:
     notes: list[Any] = dc_field(default_factory=list)
     note_count: int = 0
     unknown: dict[str, int] = dc_field(default_factory=dict)
+    glue: dict[str, int] = dc_field(default_factory=dict)  # value, squeeze, opening events by type
     field: Any = None
     schedule: Any = None
 
@@ -81,8 +82,8 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _take(summary: _Summary, record: Any) -> None:
-    from stepper.transcript.model import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
-                                    RoundMsg, ScheduleDecl, UnknownEvent)
+    from stepper.transcript.model import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue,
+                                          Note, Opening, RoundMsg, ScheduleDecl, Squeeze, UnknownEvent)
 
     kind = type(record)
     if kind is RoundMsg:
@@ -106,10 +107,20 @@ def _take(summary: _Summary, record: Any) -> None:
         summary.schedule = record
     elif kind is UnknownEvent:
         summary.unknown[record.kind] = summary.unknown.get(record.kind, 0) + 1
+    elif kind is NamedValue or kind is Squeeze or kind is Opening:
+        name = {NamedValue: "value", Squeeze: "squeeze", Opening: "opening"}[kind]
+        summary.glue[name] = summary.glue.get(name, 0) + 1
 
 
 def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
     fld = summary.field
+    out = _info(path, stream, summary, fld)
+    if summary.glue:  # only where there is glue: other files keep their JSON byte for byte
+        out["glue"] = dict(summary.glue)
+    return out
+
+
+def _info(path: str, stream: Any, summary: _Summary, fld: Any) -> dict[str, Any]:
     return {
         "file": path,
         "kind": stream.kind,
@@ -180,6 +191,8 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
                      f"degree {s['degree']}, {final}" + (f", {', '.join(extras)}" if extras else ""))
     if len(instances) > rows:
         lines.append(f"  ... and {len(instances) - rows} more (--rows N to list more)")
+    if info.get("glue"):
+        lines.append("glue between instances: " + ", ".join(f"{k} x{n}" for k, n in info["glue"].items()))
     if info["unknown_events"]:
         kinds = ", ".join(f"{k} x{n}" for k, n in info["unknown_events"].items())
         lines.append(f"unknown events kept: {kinds}")

@@ -372,3 +372,6 @@ def test_record_and_export_keep_the_glue_and_the_file_is_version_2(tmp_path, cap
     assert lines[3]["final_expr"] == "a + b" and lines[7] == {"type": "opening", "name": "b", "value": 2,
                                                                 "table": "fares"}
     assert main(["check", str(out)]) == 0
+    capsys.readouterr()
+    assert main(["info", str(out), "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["glue"] == {"value": 1, "opening": 2, "squeeze": 1}
