@@ -402,7 +402,8 @@ def _fit_one(field: Field, inst: InstanceRecord, winst: WitnessInstance, where: 
             f"found {expr.text!r} of degree {expr.degree()}", where)
     n = 1 << start.num_vars
     tables: dict[str, np.ndarray] = {}
-    for tname in expr.names():
+    opened = [o.table for o in inst.openings if o.table in winst.tables and o.table not in expr.names()]
+    for tname in (*expr.names(), *dict.fromkeys(opened)):  # the combine's tables, then tables only opened
         if len(winst.tables[tname]) != n:  # before any conversion allocates
             raise WitnessError(
                 f"expected table {tname!r} with 2^{start.num_vars} = {n} entries (num_vars {start.num_vars}), "

@@ -326,3 +326,19 @@ def test_an_instance_without_rounds_evaluates_its_claim_against_final_expr(tmp_p
     events[2]["claim"] = 13
     code, report, _ = run(tmp_path, capsys, events)
     assert code == 1 and where(report) == (0, 0, "evaluation")
+
+
+def test_an_opened_table_outside_the_combine_is_checked_too(tmp_path, capsys):
+    zc = ZeroCheck(2, seed=31)
+    events = zero_check_events(zc)
+    wrong = (mle(zc.b, zc.r) + 5) % P
+    events.insert(next(i for i, e in enumerate(events) if e.get("name") == "beta"),
+                  {"type": "opening", "name": "b.again", "table": "side", "value": wrong})
+    witness = tmp_path / "witness.json"
+    witness.write_text(json.dumps({"instances": [{"name": "fares.zero", "combine": "e * (a*b - c)",
+                                                  "tables": {"a": zc.a, "b": zc.b, "c": zc.c, "e": zc.eq_table(),
+                                                             "side": zc.b}}]}))
+    code, report, _ = run(tmp_path, capsys, events, "--witness", str(witness))
+    assert report["verdict"] == "accept" and code == 1
+    cause = report["root_cause"]
+    assert (cause["check"], cause["name"], cause["expected"]) == ("opening", "b.again", str(mle(zc.b, zc.r)))
