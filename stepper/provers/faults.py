@@ -70,9 +70,10 @@ FAULTS: dict[str, tuple[bool, str]] = {
 
 # glue fault -> the prover kinds that can make it (a fault no prover of a kind makes is refused)
 GLUE_FAULT_KINDS: dict[str, tuple[str, ...]] = {
-    "open-reversed": ("zerocheck", "zerocheck-eq", "perm-direct", "gkr-product", "ferries", "ferries-fingerprint"),
+    "open-reversed": ("zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
+                      "ferries-fingerprint"),
     "open-other-point": ("ferries",),
-    "open-wrong-table": ("zerocheck", "zerocheck-eq", "perm-direct", "gkr-product", "ferries",
+    "open-wrong-table": ("zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
                          "ferries-fingerprint"),
     "stale-coefficient": ("gkr-product", "ferries-fingerprint"),
     "drop-eq": ("zerocheck-eq",),

@@ -44,9 +44,10 @@ def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_
     fault = channel.fault
     deck_index = 2 if groups else 1
     if fault is not None and fault.name in GLUE_FAULT_KINDS and fault.instance != deck_index and (
-            groups or fault.name not in ("open-reversed", "open-wrong-table")):
+            fault.instance != 0 or fault.name not in ("open-reversed", "open-wrong-table")):
         raise UsageError(f"expected fault {fault.name} aimed at the deck zero-check (--fault-instance {deck_index})"
-                         + ("" if groups else " or, for an opening fault, the permutation (0)")
+                         + (" or, for an opening fault, the permutation (0)"
+                            if fault.name in ("open-reversed", "open-wrong-table") else "")
                          + f", found instance {fault.instance}")
     sailing = build_sailing(seed, num_vars, tamper=tamper)
     channel.note(f"Brackwater Ferries sailing {sailing.name}: {len(sailing.tickets)} tickets, "

@@ -4,7 +4,9 @@ Split the mu bits of sigma^-1 into L groups G_1..G_L of about c = mu/L bits and
 let P_j(y) = prod over i in G_j of e_i(y) (see :mod:`stepper.provers.permcheck`).
 
 * Layer 1 proves g~(alpha) = sum_y f(y) * P_1(y) ... P_L(y), degree L + 1,
-  ending at a point rho; the prover then states v_j = P~_j(rho).
+  ending at a point rho; the prover then states v_j = P~_j(rho). Its glue: alpha
+  as the value ``alpha`` before it, the openings of f and of each P_j at rho after
+  it, and ``final_expr`` f * p1 * ... * pL over them.
 * A ``batch`` event with coefficient beta combines them: the layer-2 claim is
   sum_j beta^j v_j = sum_y eq(rho, y) * sum_j beta^j prod_{i in G_j} e~_i(y),
   degree c + 1.
@@ -40,6 +42,7 @@ from stepper.provers.bucketing import (
     subset_sums,
 )
 from stepper.provers.engine import InstanceRun, ProductSummand, ProofRun, WitnessInstance, final_point, run_tables
+from stepper.provers.openings import send_openings
 from stepper.provers.permcheck import PermStatement, permutation_point, select_table
 
 if TYPE_CHECKING:
@@ -95,8 +98,9 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     if not 1 <= groups <= mu:
         raise UsageError(f"expected a group count between 1 and mu = {mu}, found {groups}")
     fault = channel.fault
-    if fault is not None and fault.instance == 1 and fault.name in _FOLD_FAULTS:
-        raise UsageError(f"fault {fault.name} acts on folded tables; aim it at the first instance of a grouped proof")
+    if fault is not None and fault.instance == 1 and fault.name in (*_FOLD_FAULTS, "open-reversed", "open-wrong-table"):
+        raise UsageError(f"fault {fault.name} acts on folded tables or openings; aim it at the first instance of a "
+                         "grouped proof")
     if switch_round is not None and not 1 <= switch_round <= MAX_SWITCH_ROUND:
         raise UsageError(f"expected a switch-over round between 1 and {MAX_SWITCH_ROUND} (bucket look-up tables grow "
                          f"as 2^(2^k)), found {switch_round}")
@@ -108,11 +112,15 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     products = group_tables(counter, bits, alpha, parts)
     tables = {"f": field.vec(statement.f), **{f"p{j + 1}": t for j, t in enumerate(products)}}
     summand = ProductSummand(tuple(tables))
-    run1, folded = run_tables(channel, counter, name, tables, summand, claim, form=form)
+    channel.value("alpha", list(alpha))  # layer 1's glue: the point, then f and the P_j opened at rho
+    run1, folded = run_tables(channel, counter, name, tables, summand, claim, form=form,
+                              glue={"final_expr": " * ".join(tables)})
     rho = list(run1.challenges)
     honest_fold = fault is None or fault.instance != 0 or fault.name not in _FOLD_FAULTS
     terms = [field.vlist(folded[f"p{j + 1}"])[0] if honest_fold else mle_eval(field, products[j], rho)
              for j in range(groups)]
+    send_openings(channel, tables, {"f": field.vlist(folded["f"])[0],
+                                    **{f"p{j + 1}": v for j, v in enumerate(terms)}}, rho)
     beta = channel.statement_challenges("batch", [field.encode(v) for v in terms], 1)[0]
     channel.batch(beta, terms, [f"p{j + 1} at the first instance's point" for j in range(groups)])
     counter.phase(f"{name}/groups/setup")

@@ -134,3 +134,23 @@ def test_bucket_counts_never_exceed_either_bound_on_random_permutations(mu, grou
             occupancy = group_buckets(bits, group, k)
             assert occupancy.count <= min(2 ** ((1 << k) * len(group)), 1 << (mu - k))
             assert int(occupancy.sizes.sum()) == 1 << (mu - k)
+
+
+def test_layer_one_opens_f_and_each_group_product_at_its_point():
+    # the openings against the MLE by its definition (a sum over the cube; common practice, no source)
+    from stepper.provers.faults import Fault
+    from tests.provers.glue_helpers import run_glue_prover
+    from tests.provers.helpers import plain_mle
+
+    statement = random_permutation_statement(BABYBEAR, 4, seed=12)
+    run, transcript, glue = run_glue_prover(BABYBEAR, lambda ch, c: prove_permutation_grouped(ch, c, statement, 2))
+    rho = [int(r.challenge) for r in transcript.instances[0].rounds]
+    tables = run.witness[0].tables
+    for name in ("f", "p1", "p2"):
+        assert int(glue.openings[name]) == plain_mle([int(v) for v in tables[name]], rho, BABYBEAR.p)
+    assert glue.starts[0] == {"final_expr": "f * p1 * p2"}
+    assert [int(v) for v in glue.values["alpha"]] and replay_transcript(transcript).verdict == "accept"
+    _, bad, _ = run_glue_prover(BABYBEAR, lambda ch, c: prove_permutation_grouped(ch, c, statement, 2),
+                                Fault("open-wrong-table"))
+    first = replay_transcript(bad).first_failure
+    assert (first.instance, first.round, first.check) == (0, 4, "evaluation")
