@@ -32,12 +32,12 @@ def test_the_proof_words_and_the_round_rule():
     assert proof_condition([(0, "a", 6, 6), (1, "b", 2, 6)]) == "stops early: instance #1 'b' has 2 of 6 rounds"
 
 
-def _cut_stream(tmp_path: Path, capsys, lines: int) -> Path:
-    """The honest file's event stream up to ``lines`` events, the last one a round without its challenge."""
+def _cut_stream(tmp_path: Path, capsys, rounds: int) -> Path:
+    """The honest file's event stream up to its ``rounds``-th round event, which is left without its challenge."""
     assert main(["export", str(HONEST)]) == 0
     events = capsys.readouterr().out.splitlines()[1:]  # without the header line
-    kept = events[:lines]
-    assert json.loads(kept[-1])["type"] == "round"
+    at = [i for i, line in enumerate(events) if json.loads(line)["type"] == "round"][rounds - 1]
+    kept = events[: at + 1]
     path = tmp_path / "cut.jsonl"
     path.write_text("\n".join(kept) + "\n")
     return path
@@ -45,7 +45,7 @@ def _cut_stream(tmp_path: Path, capsys, lines: int) -> Path:
 
 @pytest.mark.parametrize("imported", [False, True])
 def test_check_and_info_tell_the_same_story_of_a_stream_cut_mid_instance(tmp_path, capsys, imported):
-    path = _cut_stream(tmp_path, capsys, 9)  # field, schedule, note, instance, 2 full rounds, round 3 alone
+    path = _cut_stream(tmp_path, capsys, 3)  # field, schedule, note, glue, instance, 2 full rounds, round 3 alone
     if imported:
         assert main(["import", str(path), "-o", str(tmp_path / "cut.sumtr")]) == 0
         path = tmp_path / "cut.sumtr"
