@@ -3,7 +3,13 @@
 Writes two demo transcripts (Brackwater Ferries, invented data): a small one
 (3 instances x 4 rounds) and a large one (default 4000 instances x 25 rounds =
 10^5 rounds), then for each: time from creating the app to its first paint,
-time until every round is checked, and the wall time of single steps (one key
+time until every round is checked (the app checks through `stepper check`'s
+whole-file pass while it starts, then reads the rounds for stepping), the time
+until every round is read for stepping, `stepper check` on the same file in the
+same process (the ratios "all checked / check", from creating the app, and
+"after paint / check", what checking adds once the first screen is up: the
+second is the figure of merit, at most 2),
+and the wall time of single steps (one key
 press each, as the Pilot delivers it, repaint included) and instance hops,
 next to a key bound to nothing (what the Pilot itself costs per press).
 Prints the figures and the large/small ratios, measured in the same run.
@@ -66,14 +72,17 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
         out["first paint s"] = time.perf_counter() - start
         out["first paint cpu s"] = time.process_time() - start_cpu
         assert app.proof_screen.query_one("#rounds").row_count > 0
-        while app.model.loading:
-            await pilot.pause(0.02)
+        while not app.model.all_checked:
+            await pilot.pause(0.01)
         out["all checked s"] = time.perf_counter() - start
         out["all checked cpu s"] = time.process_time() - start_cpu
+        while app.model.loading:
+            await pilot.pause(0.02)
+        out["all read s"] = time.perf_counter() - start
         times, cpu = [], []
         for i in range(steps):  # ten rounds forward, ten back: every press moves
             t, c = time.perf_counter(), time.process_time()
-            await pilot.press("full_stop" if (i // 10) % 2 == 0 else "comma")
+            await pilot.press("r" if (i // 10) % 2 == 0 else "R")
             times.append(time.perf_counter() - t)
             cpu.append(time.process_time() - c)
         idle = []
@@ -84,7 +93,7 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
         hops = []
         for i in range(max(4, steps // 10)):
             t = time.perf_counter()
-            await pilot.press("greater_than_sign" if i % 2 == 0 else "less_than_sign")
+            await pilot.press("i" if i % 2 == 0 else "I")
             hops.append(time.perf_counter() - t)
         out["step median ms"] = 1000 * statistics.median(times)
         out["step max ms"] = 1000 * max(times)
@@ -94,7 +103,25 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
         out["hop median ms"] = 1000 * statistics.median(hops)
         out["rounds"] = app.model.round_count
         out["verdict accept"] = float(app.model.verdict() == "accept")
+    out["check s"] = check_seconds(path)
+    out["all checked / check"] = out["all checked s"] / out["check s"]
+    # the app must paint before it can show anything; what the checking itself adds after that:
+    out["checked after paint s"] = max(0.0, out["all checked s"] - out["first paint s"])
+    out["after paint / check"] = out["checked after paint s"] / out["check s"]
     return out
+
+
+def check_seconds(path: Path) -> float:
+    """`stepper check PATH` in this process (its output discarded), wall seconds."""
+    import contextlib
+    import io
+
+    from stepper.cli.main import main as stepper_main
+
+    start = time.perf_counter()
+    with contextlib.redirect_stdout(io.StringIO()):
+        stepper_main(["check", str(path)])
+    return time.perf_counter() - start
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -62,6 +62,7 @@ class StepperApp(App[int]):
         self.compare = compare
         self.diagnosis = diagnosis
         self.proof_screen = ProofScreen(model)
+        self.whole_file_check: Any = None  # a Future of the whole-file report (see from_file)
 
     @classmethod
     def from_file(cls, path: str | Path, *, witness: str | Path | None = None, progressive: bool = False,
@@ -73,8 +74,11 @@ class StepperApp(App[int]):
         whole file is read and checked first. A witness implies a full first read."""
         source = TranscriptSource(path, witness, follow=bool(options.get("follow", False)))
         if progressive and witness is None:
+            checking = source.start_whole_file_check()  # every round, while the app starts
             model = source.open_start(strict)
-            return cls(model, source=source, **options)
+            app = cls(model, source=source, **options)
+            app.whole_file_check = checking
+            return app
         model = source.open(strict)
         diagnosis = source.diagnose(model) if witness is not None and model.field is not None else None
         return cls(model, source=source, diagnosis=diagnosis, **options)
@@ -110,6 +114,16 @@ class StepperApp(App[int]):
         """Feed the rest of the file in slices, yielding to key presses between them
         and repainting the summary and strip a few times a second."""
         assert self.source is not None
+        # every round checked first, through stepper check's whole-file pass (in a thread, so
+        # keys keep working); then the events are read in slices for stepping, round by round
+        if self.whole_file_check is not None:
+            swept = await asyncio.wrap_future(self.whole_file_check)
+        else:
+            swept = await asyncio.to_thread(self.source.whole_file_report)
+        if swept is not None and self.model.loading:
+            self.model.swept = swept
+            self.model.generation += 1
+            self.proof_screen.model_changed()
         painted = time.monotonic()
         while not self.source.pump(self.model, READ_SLICE):
             if time.monotonic() - painted > REPAINT_SECONDS:

@@ -159,6 +159,7 @@ class ProofModel:
         self.digest_problem: Exception | None = None  # the reader's digest-mismatch error, word for word
         self.events_seen = 0
         self.loading = False  # True while the first read is still feeding events
+        self.swept: Any = None  # the whole-file report of the fast path (stepper check's), while loading
         self.final = False  # no checked event can follow (see finish)
         self.generation = 0  # bumps on every change; screens repaint when it moves
         self._replay_factory = replay_factory
@@ -266,6 +267,18 @@ class ProofModel:
 
     # ----- questions -------------------------------------------------------------------
     @property
+    def all_checked(self) -> bool:
+        """Every round of the file has been checked: by the whole-file pass, or the first read is over."""
+        return not self.loading or self.swept is not None
+
+    @property
+    def rounds_total(self) -> int | None:
+        """How many rounds the file holds, once the whole-file pass has said (for the progress line)."""
+        if self.swept is None:
+            return None
+        return sum(s.rounds_seen for s in self.swept.instances)
+
+    @property
     def round_count(self) -> int:
         return sum(len(v.rounds) for v in self.instances)
 
@@ -273,8 +286,10 @@ class ProofModel:
         """The replay's report of everything fed so far. Once the file is final the live replay closes and reports; before that
         (a growing, truncated or JSON-lines file) a fresh replay of the same
         records reports, so the live one can go on."""
-        if self._replay is None or self.loading:
+        if self._replay is None:
             return None
+        if self.loading:
+            return self.swept  # every round already checked by the whole-file pass, or None
         if self._report is not None and (self._report_generation == self.generation or self._closed):
             return self._report
         if self.final:
@@ -302,7 +317,7 @@ class ProofModel:
         ``unusable`` for a file whose digest does not match (no verdict on such bytes,
         as `stepper check` gives none: see :mod:`stepper.transcript.condition`)."""
         if self.loading:
-            return "checking"
+            return str(self.swept.verdict) if self.swept is not None else "checking"
         if self.digest == "mismatch":
             return "unusable"
         report = self.report()

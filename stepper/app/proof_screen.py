@@ -168,6 +168,10 @@ class ProofScreen(Screen[None]):
         width = max(40, self.size.width or 80)
         tail = f"  ·  round {number} of {view.start.num_vars}  ·  failures {len(model.failures)}"
         extras = [f"  ·  {len(model.instances)} instances"] + (["  ·  following"] if self.stepper.follow else [])
+        if model.loading:  # the progress of the first read stays in view, first of the extras to show
+            total = model.rounds_total
+            extras.insert(0, f"  ·  checking, {model.round_count} rounds read" if total is None else
+                          f"  ·  all checked, read {100 * model.round_count // max(1, total)}%")
         name = f"  ·  instance #{instance} {view.name}"
         while extras and len(head + name + tail + "".join(extras)) > width:
             extras.pop(0)

@@ -50,12 +50,20 @@ def summary_lines(model: ProofModel) -> list[Line]:
     first = _first_failure(report)
     if first is not None and model.digest_problem is None:
         lines.append(Line("first failure", first, "bad"))
-    file_line = "being read" if model.loading else file_condition(model.kind, model.completeness, model.digest)
+    swept = model.swept if model.loading else None
+    if model.loading:
+        lines.append(Line("loading", loading_words(model), "wait"))
+    if swept is not None:  # the whole-file pass only completes on a sealed file whose digest matches
+        file_line = file_condition("transcript", "complete", "verified")
+        proof = proof_condition((s.index, s.name, s.rounds_seen if s.failure is not None else s.rounds_passed,
+                                 s.num_vars) for s in swept.instances)
+    else:
+        file_line = "being read" if model.loading else file_condition(model.kind, model.completeness, model.digest)
+        proof = proof_condition((i, v.name, _counted(v), v.start.num_vars) for i, v in enumerate(model.instances))
+        proof = ("so far: " if model.loading else "") + proof
     lines.append(Line("file", file_line, "bad" if model.digest == "mismatch" else
                       ("good" if file_line == "sealed, digest ok" else "wait")))
-    proof = proof_condition((i, v.name, _counted(v), v.start.num_vars) for i, v in enumerate(model.instances))
-    lines.append(Line("proof", ("so far: " if model.loading else "") + proof,
-                      "good" if proof.startswith("every") else "wait"))
+    lines.append(Line("proof", proof, "good" if proof.startswith("every") else "wait"))
     if model.source:
         lines.append(Line("file name", model.source))
     if field is not None:
@@ -90,6 +98,16 @@ def summary_lines(model: ProofModel) -> list[Line]:
         lines.append(Line("unknown event", f"{unknown.kind} (kept, not checked)", "muted"))
     lines.append(Line("", getattr(report, "warning", None) or CAUTION, "muted"))
     return lines
+
+
+def loading_words(model: ProofModel) -> str:
+    """The progress of the first read: whether every round is checked yet, and how far the
+    round-by-round read for stepping has come."""
+    total = model.rounds_total
+    if total is None:
+        return f"checking: {model.round_count} rounds read so far"
+    share = 100 * model.round_count // max(1, total)
+    return f"every round checked; reading rounds for stepping: {model.round_count} of {total} ({share}%)"
 
 
 def statement_lines(model: ProofModel, index: int) -> list[Line]:

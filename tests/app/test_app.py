@@ -248,3 +248,62 @@ async def test_the_position_line_fits_80_columns(failing_file, tmp_path):
         await pilot.press("f")
         where = str(app.proof_screen.query_one("#where-bar").render())
         assert len(where) <= 80 and "round 2 of 4" in where and "…" in where
+
+
+def _thaler_file(tmp: Path, tamper: bool = False) -> Path:
+    """J. Thaler, "Proofs, Arguments, and Zero-Knowledge", section 4.1 (from memory), via tests/plain_sumcheck.py."""
+    import sys
+
+    sys.path.insert(0, str(Path(__file__).parents[1]))
+    from plain_sumcheck import BABYBEAR, Plain, thaler_payloads
+
+    from stepper.transcript.store import TranscriptWriter
+
+    payloads = thaler_payloads(Plain(BABYBEAR), (5, 7, 11))
+    if tamper:
+        payloads[4]["evals"][1] += 1  # round 2's g(1): its sum check fails
+    path = tmp / ("bad.sumtr" if tamper else "thaler.sumtr")
+    with TranscriptWriter(path) as writer:
+        for payload in payloads:
+            writer.write_payload(payload)
+    return path
+
+
+async def test_every_round_is_checked_by_the_whole_file_pass_before_the_rounds_are_read(tmp_path, monkeypatch):
+    import stepper.app.app as app_module
+
+    monkeypatch.setattr(app_module, "READ_SLICE", 1)  # a slow first read, so its progress can be seen
+    app = StepperApp.from_file(_thaler_file(tmp_path), progressive=True, export_dir=tmp_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        while not app.model.all_checked:
+            await pilot.pause(0.01)
+        assert app.model.swept is not None  # stepper check's whole-file pass, not the event-by-event read
+        assert app.model.verdict() == "accept"
+        while app.model.loading:
+            await pilot.pause(0.01)
+        assert app.model.verdict() == "accept" and app.model.round_count == 3
+
+
+async def test_a_failing_file_is_checked_event_by_event_as_stepper_check_does(tmp_path):
+    from stepper.cli.main import main
+
+    path = _thaler_file(tmp_path, tamper=True)
+    app = StepperApp.from_file(path, progressive=True, export_dir=tmp_path)
+    async with app.run_test(size=(120, 40)) as pilot:
+        while app.model.loading:
+            await pilot.pause(0.01)
+        assert app.model.swept is None  # the whole-file pass leaves a failing block to the replay that names it
+        assert app.model.verdict() == "reject" and app.model.failures[0] == (0, 2)
+    assert main(["check", str(path)]) == 1
+
+
+def test_the_loading_line_says_how_far_the_read_has_come(tmp_path):
+    from stepper.app.readout import loading_words
+    from stepper.app.source import TranscriptSource
+
+    source = TranscriptSource(_thaler_file(tmp_path))
+    model = source.open_start()
+    assert loading_words(model).startswith("checking: ")
+    model.swept = source.whole_file_report()
+    read = model.round_count  # open_start read up to the field and a little beyond
+    assert loading_words(model) == f"every round checked; reading rounds for stepping: {read} of 3 ({100 * read // 3}%)"
