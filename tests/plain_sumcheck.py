@@ -22,10 +22,12 @@ BN254 = 218882428718392752222464057452572750885483644004160343436982041865758084
 
 
 class Plain:
-    """F_p (k = 1) or F_p[X]/(X^k - w), elements as ints or k-tuples."""
+    """F_p (k = 1), F_p[X]/(X^k - w), or F_p[X]/(q) for a monic q given constant term first
+    (``q``, k + 1 coefficients); elements as ints or k-tuples."""
 
-    def __init__(self, p: int, k: int = 1, w: int = 0) -> None:
+    def __init__(self, p: int, k: int = 1, w: int = 0, q: tuple[int, ...] | None = None) -> None:
         self.p, self.k, self.w = p, k, w
+        self.q = q if q is not None else (((-w) % p,) + (0,) * (k - 1) + (1,) if k > 1 else None)
 
     def const(self, n: int) -> Elem:
         return n % self.p if self.k == 1 else (n % self.p,) + (0,) * (self.k - 1)
@@ -45,8 +47,10 @@ class Plain:
         for i, x in enumerate(a):
             for j, y in enumerate(b):
                 prod[i + j] += x * y
-        for t in range(2 * self.k - 2, self.k - 1, -1):  # X^k = w
-            prod[t - self.k] += self.w * prod[t]
+        for t in range(2 * self.k - 2, self.k - 1, -1):  # X^k = -(q_0 + q_1 X + ... + q_(k-1) X^(k-1))
+            top, prod[t] = prod[t], 0
+            for i in range(self.k):
+                prod[t - self.k + i] -= top * self.q[i]
         return tuple(c % self.p for c in prod[: self.k])
 
     def json(self, e: Elem) -> Any:
@@ -56,7 +60,7 @@ class Plain:
         out: Payload = {"type": "field", "modulus": str(self.p)}
         if self.k > 1:
             out["extension_degree"] = self.k
-            out["irreducible"] = [str((-self.w) % self.p)] + ["0"] * (self.k - 1) + ["1"]
+            out["irreducible"] = [str(c % self.p) for c in self.q]
         return out
 
 

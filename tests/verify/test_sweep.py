@@ -45,6 +45,7 @@ REPO = Path(__file__).parents[2]
 GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
 KOALABEAR = 2**31 - 2**24 + 1  # common practice, no source
+MERSENNE31 = 2**31 - 1  # common practice, no source; its quartic u^4 - 4u^2 + 5 is not a binomial (from memory)
 BLS12_381 = 0x73EDA753299D7D483339D80809A1D80553BDA402FFFE5BFEFFFFFFFF00000001  # IETF pairing-friendly-curves draft, 4.2.1
 
 # name -> (arithmetic, field event, whether the sweep checks its rounds by the block)
@@ -59,6 +60,9 @@ FIELDS = {
     "koalabear^4": (Plain(KOALABEAR, 4, 3), {"type": "field", "name": "koalabear", "extension_degree": 4}, True),
     "goldilocks^2": (Plain(GOLDILOCKS, 2, 7), {"type": "field", "name": "goldilocks", "extension_degree": 2}, True),
     "p97^3": (Plain(97, 3, 5), Plain(97, 3, 5).spec(), True),
+    "mersenne31": (Plain(MERSENNE31), {"type": "field", "name": "mersenne31"}, True),
+    "mersenne31^4": (Plain(MERSENNE31, 4, q=(5, 0, MERSENNE31 - 4, 0, 1)),
+                     {"type": "field", "name": "mersenne31", "extension_degree": 4}, True),
     "bn254": (Plain(BN254), {"type": "field", "name": "bn254"}, True),
     "bls12-381": (Plain(BLS12_381), {"type": "field", "name": "bls12-381"}, True),
 }
