@@ -88,7 +88,7 @@ def _analysis(model: ProofModel, instance: int) -> Text:
 class BucketsScreen(Screen[None]):
     """Occupancy charts of one instance at a time."""
 
-    BINDINGS = bindings("buckets")
+    BINDINGS = bindings("buckets")  # type: ignore[assignment]
 
     instance: reactive[int] = reactive(0, init=False)
 

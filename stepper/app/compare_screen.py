@@ -92,7 +92,7 @@ class SideTable(DataTable[object], inherit_bindings=False):
 class CompareScreen(Screen[None]):
     """A and B side by side for one aligned instance pair at a time."""
 
-    BINDINGS = bindings("compare")
+    BINDINGS = bindings("compare")  # type: ignore[assignment]
 
     pair: reactive[int] = reactive(0, init=False)
 

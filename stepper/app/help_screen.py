@@ -32,7 +32,7 @@ class KeyHint(Static):
 class HelpScreen(ModalScreen[None]):
     """A modal list of the keys of ``screen``; escape, k or F1 closes it."""
 
-    BINDINGS = bindings("keys")
+    BINDINGS = bindings("keys")  # type: ignore[assignment]
 
     def __init__(self, screen: str, title: str = "Keys", extra: Iterable[tuple[str, str]] = ()) -> None:
         super().__init__()

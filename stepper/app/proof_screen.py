@@ -74,7 +74,7 @@ def parse_round_target(text: str, current_instance: int) -> Position | None:
 class ProofScreen(Screen[None]):
     """Summary on top, strip of every round, then table and detail side by side."""
 
-    BINDINGS = bindings("proof")
+    BINDINGS = bindings("proof")  # type: ignore[assignment]
 
     position: reactive[Position] = reactive((0, 1), init=False)
     live: reactive[bool] = reactive(False)

@@ -91,7 +91,7 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
     for summary in shown:
         lines.append(_row(summary, colour))
         if summary.has_glue:
-            lines += _glue_lines(summary, report.fmt, colour)
+            lines += _glue_lines(summary, report.fmt, colour)  # type: ignore[arg-type]
         if detail:
             lines += [f"          {r.explanation}" + (" [after an earlier failure]" if r.after_failure else "")
                       for r in summary.rounds]

@@ -43,7 +43,7 @@ def run(args: argparse.Namespace) -> int:
         try:
             os.makedirs(directory, exist_ok=True)
         except OSError as err:
-            raise InputError(f"expected to create the folder {directory}, but {err.strerror.lower()}") from None
+            raise InputError(f"expected to create the folder {directory}, but {(err.strerror or str(err)).lower()}") from None
     else:
         directory = tempfile.mkdtemp(prefix="stepper-demo-")
     _write_examples(directory, EXAMPLES, force=args.force)

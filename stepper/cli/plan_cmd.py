@@ -130,7 +130,7 @@ def _load_sigma(path: str) -> Any:
             with open(path, encoding="utf-8") as handle:
                 sigma = np.array(json.load(handle))
     except OSError as err:
-        raise InputError(f"expected a readable sigma file, but {err.strerror.lower()}", where) from None
+        raise InputError(f"expected a readable sigma file, but {(err.strerror or str(err)).lower()}", where) from None
     except (ValueError, json.JSONDecodeError) as err:
         raise InputError(f"expected a JSON list or .npy array of integers, found unreadable content ({err})",
                          where) from None

@@ -179,7 +179,7 @@ def pair_rounds(field: Field, pairing: Pairing, ia: InstanceRecord | None, ib: I
                   for k in range(max(len(ia.rounds), len(ib.rounds)))]
         return InstancePair(pairing, ia, ib, tuple(rounds))
     ea, eb = decoded_rounds(field, ia), decoded_rounds(field, ib)
-    rounds: list[RoundPair] = []
+    rounds: list[RoundPair] = []  # type: ignore[no-redef]
     for k in range(max(len(ia.rounds), len(ib.rounds))):
         ra = ia.rounds[k] if k < len(ia.rounds) else None
         rb = ib.rounds[k] if k < len(ib.rounds) else None

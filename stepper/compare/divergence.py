@@ -60,7 +60,7 @@ def find_divergence(a: Transcript, b: Transcript, pairs: Sequence[InstancePair])
         else:
             remarks.append(f"Matched by name, the first content divergence is at {inner[0].place()} ({inner[1].kind}).")
         return order[0], order[1], remarks + inner[2]
-    div, cls, more = _scan(field, pairs)
+    div, cls, more = _scan(field, pairs)  # type: ignore[assignment]
     remarks.extend(more)
     if div is None and (a.completeness, b.completeness) != ("complete", "complete"):
         remarks.append(f"Completeness: A {a.completeness}, B {b.completeness}; the parts both sides hold agree.")

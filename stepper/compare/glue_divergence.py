@@ -65,11 +65,11 @@ def glue_divergence(field: Field, glue_a: Sequence[Any], glue_b: Sequence[Any], 
         if ga is None or gb is None:
             present = ga if ga is not None else gb
             short = "a" if ga is None else "b"
-            div = Divergence(_kind(present), ia, ib, name, round_, j, present.name,
+            div = Divergence(_kind(present), ia, ib, name, round_, j, present.name,  # type: ignore[union-attr]
                              None if ga is None else _text(field, _items(field, ga)),
                              None if gb is None else _text(field, _items(field, gb)))
             return div, Classification(
-                "truncated", f"{short.upper()} stops before the {_kind(present)} {present.name} {where}; "
+                "truncated", f"{short.upper()} stops before the {_kind(present)} {present.name} {where}; "  # type: ignore[union-attr]
                 "everything both sides hold agrees.", side=short), []
         ka, kb = _kind(ga), _kind(gb)
         if (ka, ga.name) != (kb, gb.name):
@@ -105,7 +105,7 @@ def _opening(field: Field, ga: Any, gb: Any, va: list[Any], vb: list[Any], where
     if named is not None:
         return Classification(
             "constant-factor", f"The opening {ga.name} {where} in B is A's times {named}: one side keeps the "
-            "opened value in another representation.", factor=field.fmt(ratio), factor_name=named)
+            "opened value in another representation.", factor=field.fmt(ratio), factor_name=named)  # type: ignore[arg-type]
     return Classification(
         "different-opening", f"Every round and challenge agrees but the opening {ga.name} (table {ga.table}) "
         f"{where} differs: the two runs evaluated the table at the same point differently (another point, "

@@ -54,7 +54,7 @@ def instance_point(inst: InstanceRecord) -> tuple[Element, ...] | None:
     challenges = [r.challenge for r in inst.rounds]
     if len(challenges) != inst.start.num_vars or any(c is None for c in challenges):
         return None
-    return tuple(point_from_challenges(challenges, inst.start.order))
+    return tuple(point_from_challenges(challenges, inst.start.order))  # type: ignore[arg-type]
 
 
 def _scope_values(glue: list[Any]) -> dict[str, object]:
@@ -119,9 +119,9 @@ def _reduced(field: Field, inst: InstanceRecord, w: tuple[Element, ...] | None) 
         assert w is not None
         wk = w[-1] if s.order == "low-first" else w[0]
         q = [field.lift(v) for v in last.values]
-        return field.mul(field.mul(prefix, eq_eval(field, [wk], [last.challenge])), lagrange_at(field, q, last.challenge))
+        return field.mul(field.mul(prefix, eq_eval(field, [wk], [last.challenge])), lagrange_at(field, q, last.challenge))  # type: ignore[arg-type, list-item]
     evals = RoundPoly.from_form(field, s.form, last.values, claim_in).evals
-    return lagrange_at(field, list(evals), last.challenge)
+    return lagrange_at(field, list(evals), last.challenge)  # type: ignore[arg-type]
 
 
 def glue_findings(transcript: Transcript, failure: Failure | None,

@@ -47,8 +47,8 @@ def _is_ext(arr: np.ndarray) -> bool:
 def _sum(field: Field, arr: np.ndarray) -> list[int]:
     """Per-coefficient integer sums (not reduced) of a 1-D or (n, k) array."""
     if arr.ndim == 1:
-        return [int(field.base.vsum(arr))]
-    return [int(field.base.vsum(np.ascontiguousarray(arr[:, i]))) for i in range(arr.shape[1])]
+        return [int(field.base.vsum(arr))]  # type: ignore[arg-type]
+    return [int(field.base.vsum(np.ascontiguousarray(arr[:, i]))) for i in range(arr.shape[1])]  # type: ignore[arg-type]
 
 
 def _as_element(field: Field, coeffs: list[int]) -> Element:

@@ -253,7 +253,7 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
             shared.setdefault(tname, table)
     named = _named_values(transcript)
     for index, inst in enumerate(transcript.instances):
-        fit = fitted.get(index)
+        fit = fitted.get(index)  # type: ignore[assignment]
         if fit is None:
             cause = _check_openings(field, inst, {}, shared, transcript)
             if cause is not None:
@@ -427,7 +427,7 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, adv
         else:
             value = expr.evaluate_scalar(field, item)
             c = _claim_or_final(field, inst, None, value, cause_of)
-            return c, (context("final", start.num_vars, (inst.final,), (value,)) if c else None), rounds
+            return c, (context("final", start.num_vars, (inst.final,), (value,)) if c else None), rounds  # type: ignore[arg-type]
     return None, None, rounds
 
 

@@ -104,7 +104,7 @@ def write_witness_folder(path: str | os.PathLike[str], field: Field,
     try:
         entries = []
         for index, (name, tables, combine, order) in enumerate(instances):
-            files = {}
+            files: dict[str, Any] = {}
             for tname, table in tables.items():
                 fname = f"{index}-{_SAFE.sub('_', tname)[:64]}.npy"
                 while fname in files.values():
@@ -174,7 +174,7 @@ def load_witness_folder(path: str | os.PathLike[str], limits: Any) -> list[Folde
     return instances
 
 
-def _table(folder: Path, fname: Any, tname: str, word: str, limbs: int, limits: WitnessLimits,
+def _table(folder: Path, fname: Any, tname: str, word: str, limbs: int, limits: Any,
            where: Where) -> np.ndarray:
     if not isinstance(fname, str) or not fname or "/" in fname or "\\" in fname or fname in (".", "..") \
             or fname.startswith(".."):

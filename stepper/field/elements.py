@@ -77,10 +77,10 @@ class ElementCodec:
         if isinstance(value, str):
             n = self._parse_text(value, where)
         elif isinstance(value, (bytes, bytearray)):
-            return self.base._decode_base(bytes(value), where)
+            return self.base._decode_base(bytes(value), where)  # type: ignore[attr-defined]
         else:
             try:
-                n = operator.index(value)  # int and numpy integers; not float, not bool
+                n = operator.index(value)  # type: ignore[arg-type]  # int and numpy integers; not float, not bool
             except TypeError:
                 raise FieldError(
                     f"expected an element of {self._short()} (an integer, decimal or 0x-hex string), "
@@ -120,7 +120,7 @@ class ElementCodec:
         """Fixed-width little-endian bytes: ``elem_bytes`` long."""
         w = self.base_bytes
         coeffs = (e,) if isinstance(e, int) and not self.is_extension else self.lift(e)
-        if len(coeffs) != self.degree or any(not 0 <= c < self.p for c in coeffs):  # type: ignore[arg-type]
+        if len(coeffs) != self.degree or any(not 0 <= c < self.p for c in coeffs):  # type: ignore[arg-type, union-attr]
             raise FieldError(f"expected a canonical element of {self.describe()} to encode, found {clip_text(str(e))}")
         return b"".join(c.to_bytes(w, "little") for c in coeffs)  # type: ignore[union-attr]
 

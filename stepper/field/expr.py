@@ -79,32 +79,32 @@ class Table:
 
 @dataclass(frozen=True, slots=True)
 class Neg:
-    operand: Expr
+    operand: "Node"
 
 
 @dataclass(frozen=True, slots=True)
 class Add:
-    left: Expr
-    right: Expr
+    left: "Node"
+    right: "Node"
 
 
 @dataclass(frozen=True, slots=True)
 class Sub:
-    left: Expr
-    right: Expr
+    left: "Node"
+    right: "Node"
 
 
 @dataclass(frozen=True, slots=True)
 class Mul:
-    left: Expr
-    right: Expr
+    left: "Node"
+    right: "Node"
 
 
 @dataclass(frozen=True, slots=True)
 class Pow:
     """``base ^ exponent`` with a non-negative integer exponent."""
 
-    base: Expr
+    base: "Node"
     exponent: int
 
 
@@ -590,7 +590,7 @@ class _Parser:
                               "final(...) and, inside eq, point(...))")
                 self.pos += 1
                 if name == "final":
-                    node: Node = FinalOf(self.name("an instance name inside final(...)"))
+                    node: Node = FinalOf(self.name("an instance name inside final(...)"))  # type: ignore[no-redef]
                 elif name == "point":
                     self.fail("expected point(NAME) only inside eq(...), where a point is wanted", start)
                     raise AssertionError("unreachable")

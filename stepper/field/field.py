@@ -22,7 +22,7 @@ from functools import cached_property
 from typing import TYPE_CHECKING, Any
 
 from stepper.field.elements import Element, ElementCodec, clip_text, format_poly
-from stepper.errors import FieldError, Where
+from stepper.errors import FieldError
 from stepper.field.admit import is_irreducible, is_prime
 
 if TYPE_CHECKING:
@@ -190,7 +190,7 @@ class Field(ElementCodec):
         while e:
             if e & 1:
                 result = self.mul(result, base)
-            base = self.mul(base, base)
+            base = self.mul(base, base)  # type: ignore[assignment]
             e >>= 1
         return result
 

@@ -55,7 +55,7 @@ def prove_sum(channel: ProofChannel, counter: MulCounter, name: str, tables: Map
     used = field_tables(field, {n: tables[n] for n in summand.names})
     counter.phase(f"{name}/setup")
     claim = field.vsum(summand.evaluate(counter, used))
-    run, _ = run_tables(channel, counter, name, used, summand, claim, order=order, form=form)
+    run, _ = run_tables(channel, counter, name, used, summand, claim, order=order, form=form)  # type: ignore[arg-type]
     return ProofRun((run,), (WitnessInstance(name, used, combine, order),), counter.per_phase())
 
 
@@ -95,7 +95,7 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
     fault = channel.fault
     without_eq = fault is not None and fault.name == "final-without-eq" and fault.instance == channel.instance + 1
     glue = {"final_expr": inner if without_eq else f"eq({tau_name}) * ({inner})"}
-    run, folded = run_tables(channel, counter, name, env, summand, field.zero, order=order, form=form, glue=glue)
+    run, folded = run_tables(channel, counter, name, env, summand, field.zero, order=order, form=form, glue=glue)  # type: ignore[arg-type]
     point = point_from_challenges(run.challenges, order)
     ends = {n: field.vlist(folded[n])[0] for n in opened}
     send_openings(channel, {n: used[n] for n in opened}, ends, point, prefix=prefix, earlier_points=earlier_points)

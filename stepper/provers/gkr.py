@@ -42,7 +42,7 @@ from stepper.provers.engine import InstanceRun, ProductSummand, ProofRun, Witnes
 from stepper.provers.openings import send_openings
 
 if TYPE_CHECKING:
-    from stepper.field.field import Element, Field
+    from stepper.field.field import Element
     from stepper.provers.channel import ProofChannel
     from stepper.provers.counting import MulCounter
 
@@ -91,9 +91,9 @@ def prove_grand_product(channel: ProofChannel, counter: MulCounter, table: np.nd
         counter.phase(f"{name}/layer{k}/link")
         index = len(runs)
         c = channel.squeeze(f"{name}.c{k}")
-        coefficients.append(c)
+        coefficients.append(c)  # type: ignore[arg-type]
         point = (*prev_point, c)
-        channel.value(f"{name}.r{k}", list(point))
+        channel.value(f"{name}.r{k}", list(point))  # type: ignore[arg-type]
         stale = fault is not None and fault.name == "stale-coefficient" and fault.instance == index
         used = coefficients[-2] if stale else c
         if k == 1:
@@ -102,16 +102,16 @@ def prove_grand_product(channel: ProofChannel, counter: MulCounter, table: np.nd
         else:
             lo_v, hi_v = opened[f"v{k}.lo"], opened[f"v{k}.hi"]
             claim_expr = f"{name}.v{k}.lo + {name}.c{k} * ({name}.v{k}.hi - {name}.v{k}.lo)"
-        claim = field.add(lo_v, counter.mul(used, field.sub(hi_v, lo_v)))
+        claim = field.add(lo_v, counter.mul(used, field.sub(hi_v, lo_v)))  # type: ignore[arg-type]
         upper = layers[k + 1]
         half = 1 << k
         lo_name, hi_name = f"v{k + 1}.lo", f"v{k + 1}.hi"
-        tables = {"eq": counter.eq_table(point), lo_name: upper[:half], hi_name: upper[half:]}
+        tables = {"eq": counter.eq_table(point), lo_name: upper[:half], hi_name: upper[half:]}  # type: ignore[arg-type]
         inner = f"{name}.{lo_name} * {name}.{hi_name}"
         without_eq = fault is not None and fault.name == "final-without-eq" and fault.instance == index
         final_expr = inner if without_eq else f"eq({name}.r{k}) * {inner}"
         summand = ProductSummand(("eq", lo_name, hi_name))
-        run, folded = run_tables(channel, counter, f"{name}.layer{k}", tables, summand, claim, form=form,
+        run, folded = run_tables(channel, counter, f"{name}.layer{k}", tables, summand, claim, form=form,  # type: ignore[arg-type]
                                  glue={"claim_expr": claim_expr, "final_expr": final_expr})
         counter.phase(f"{name}/layer{k}/openings")
         halves = {lo_name: tables[lo_name], hi_name: tables[hi_name]}

@@ -100,7 +100,7 @@ def prove_permutation_direct(channel: ProofChannel, counter: MulCounter, stateme
     channel.value(alpha_name, list(alpha))
     factors = [f"{prefix}f", *(f"(1 - {alpha_name}[{i}] + (2 * {alpha_name}[{i}] - 1) * {prefix}s{i + 1})"
                                for i in range(mu))]
-    run, folded = run_tables(channel, counter, name, tables, summand, claim, form=form,
+    run, folded = run_tables(channel, counter, name, tables, summand, claim, form=form,  # type: ignore[arg-type]
                              glue={"final_expr": " * ".join(factors)})
     counter.phase(f"{name}/openings")
     ends = {"f": field.vlist(folded["f"])[0]}

@@ -145,9 +145,12 @@ class Sequencer:
         base_count, base_done, base_waiting = self.count, done, waiting
         num_vars, index, decode, prime = self._num_vars, self._index, self._decode, self._prime_modulus
         width, runs, high_ones = self._elem_bytes, self._runs, self._high_ones
-        run_size, run_unpack = -1, None  # the last packed-run size seen and its struct unpacker
+        run_unpack: Any = None  # the struct unpacker of the last packed-run size seen
+        run_size = -1
         from_bytes = int.from_bytes
         round_cls, challenge_cls = RoundMsg, ChallengeMsg
+        record: Any  # a draft whose class becomes the frozen record's (see RoundMsgDraft)
+        value: Any
         try:
             while True:
                 for payload in payloads:
@@ -325,7 +328,7 @@ class Sequencer:
         if self.glue and ("claim_expr" in payload or "final_expr" in payload or "eq_point" in payload
                           or form == EQ_FACTORED):
             claim_expr, final_expr, eq_point = self._instance_glue(payload, name, num_vars, degree, form)
-        start = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
+        start: Any = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
             len(self.instances), name, num_vars, degree, claim)
         start.order, start.form, start.batch = order, form, self.pending_batch
@@ -436,7 +439,7 @@ class Sequencer:
         if self.awaiting_challenge:
             raise self._fail(f"expected the challenge of round {self.rounds_done} before a {kind}",
                              self.rounds_done)
-        return name  # type: ignore[no-any-return]
+        return name  # type: ignore[return-value]
 
     def _glue_value(self, raw: Any, what: str) -> tuple[Any, bool]:
         """One element or a list of them: (value, listed)."""

@@ -111,7 +111,7 @@ class ChallengeSource:
     def __init__(self, challenger: Challenger | None, default: ScheduleDecl | str | None,
                  probe_instances: int) -> None:
         if challenger is not None and is_stateful(challenger) and not isinstance(challenger, GuardedStateful):
-            challenger = guard_stateful(challenger, type(challenger).__name__)
+            challenger = guard_stateful(challenger, type(challenger).__name__)  # type: ignore[assignment]
         self.stateful: GuardedStateful | None = challenger if isinstance(challenger, GuardedStateful) else None
         if challenger is not None and self.stateful is None and not isinstance(challenger, GuardedPlugin):
             challenger = GuardedPlugin(challenger)

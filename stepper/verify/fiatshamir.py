@@ -250,10 +250,10 @@ class Sha256Schedule:
                 update(piece)
             return
         if len(squeezes) == 2:  # two blocks per sample (wide primes) or two samples: unrolled
-            first, second = squeezes
+            first, second = squeezes  # type: ignore[assignment]
             for piece in pieces[1:]:
                 h = copy()
-                h.update(first)
+                h.update(first)  # type: ignore[arg-type]
                 add(h.digest())
                 h = copy()
                 h.update(second)

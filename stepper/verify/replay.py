@@ -354,7 +354,7 @@ class Replay:
                     self._glue.evaluate(field, live, self._ledger)
                 return []
         result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
-                                    challenge, rederived, claim_out, after)
+                                    challenge, rederived, claim_out, after)  # type: ignore[arg-type]
         if check is not None:
             failure = Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
                               result.explanation)

@@ -89,7 +89,7 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
 def _times_constant(kernel: Kernel, a: np.ndarray, c: int) -> np.ndarray:
     """a times the base-field constant c (every coefficient, in an extension)."""
     base = _base(kernel)
-    return base.mul(a, c if base.dtype is object else np.uint64(c))
+    return base.mul(a, c if base.dtype is object else np.uint64(c))  # type: ignore[arg-type]
 
 
 def _minus_constant(kernel: Kernel, a: np.ndarray, c: int) -> np.ndarray:

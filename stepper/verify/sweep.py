@@ -379,13 +379,13 @@ class _Block:
 
     def next_final(self) -> int:
         """The final value of the next run of this block, in stream order."""
-        return next(self._finals)  # type: ignore[no-any-return]
+        return next(self._finals)  # type: ignore[no-any-return, return-value]
 
     def absorb(self, schedule: Sha256Schedule, rounds: int) -> None:
         """Run the schedule over the next run of this block (its statement already absorbed)."""
         if self._view is None:
             frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
-            self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]
+            self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]  # type: ignore[arg-type]
         schedule.absorb_rows(self._view, next(self._firsts), rounds, self._round_len, self._frame_len,
                              self.digests)
 

@@ -4,7 +4,6 @@ plug-ins that are slow, crash, hang or answer garbage."""
 
 from __future__ import annotations
 
-import hashlib
 import subprocess
 import sys
 from pathlib import Path

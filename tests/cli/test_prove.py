@@ -9,7 +9,7 @@ import sys
 import pytest
 
 from stepper.cli.main import main
-from json_contracts import conforming, conforming_lines
+from json_contracts import conforming
 
 
 def _prove(tmp_path, *flags):

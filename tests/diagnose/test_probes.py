@@ -207,7 +207,6 @@ def test_a_switch_of_binding_order_whose_first_round_looks_honest_is_traced_back
 
 
 def test_check_command_names_a_binding_order_switch_at_round_3(tmp_path, capsys) -> None:
-    import json
 
     from stepper.cli.main import main
 
