@@ -782,7 +782,7 @@ class _Scalar:
         return tuple(v)
 
     def eval(self, node: Node) -> Element:
-        return self._ops[node.__class__](self, node)  # type: ignore[no-any-return]
+        return self._ops[node.__class__](self, node)  # type: ignore[no-any-return, operator]
 
     def _const(self, node: Const) -> Element:
         return self.field.embed(node.value)
@@ -820,10 +820,10 @@ class _Scalar:
                 acc = acc * (1 - x - y + 2 * xy) % p  # type: ignore[operator]
             return acc % p
         one = f.one
-        acc = one
+        acc = one  # type: ignore[assignment]
         for x, y in zip(a, b):
             x, y = f.lift(x), f.lift(y)
-            acc = f.mul(acc, f.add(f.mul(x, y), f.mul(f.sub(one, x), f.sub(one, y))))
+            acc = f.mul(acc, f.add(f.mul(x, y), f.mul(f.sub(one, x), f.sub(one, y))))  # type: ignore[assignment]
         return acc
 
     def _neg(self, node: Neg) -> Element:
