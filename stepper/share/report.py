@@ -282,7 +282,7 @@ def bucket_rows(stats: Sequence[BucketStats]) -> tuple[BucketRow, ...]:
         sizes = [s for b in group if b.sizes is not None for s in b.sizes]
         # compare like with like: the count summed over the groups against the bounds summed over them
         complete = all(b.bound_log2 is not None for b in group)
-        bound = sum(1 << b.bound_log2 for b in group) if complete else None  # type: ignore[operator]
+        bound = sum(1 << b.bound_log2 for b in group) if complete else None  # type: ignore[misc, operator]
         rows.append(BucketRow(number, sum(b.count for b in group), max(sizes) if sizes else None,
                               sum(sizes) if sizes else None, bound, len(group)))
     return tuple(rows)
