@@ -113,7 +113,7 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     tables = {"f": field.vec(statement.f), **{f"p{j + 1}": t for j, t in enumerate(products)}}
     summand = ProductSummand(tuple(tables))
     channel.value("alpha", list(alpha))  # layer 1's glue: the point, then f and the P_j opened at rho
-    run1, folded = run_tables(channel, counter, name, tables, summand, claim, form=form,
+    run1, folded = run_tables(channel, counter, name, tables, summand, claim, form=form,  # type: ignore[arg-type]
                               glue={"final_expr": " * ".join(tables)})
     rho = list(run1.challenges)
     honest_fold = fault is None or fault.instance != 0 or fault.name not in _FOLD_FAULTS
