@@ -12,7 +12,8 @@ a regression or a broken bench shows in one command.
 
 Sizes (full run): fields at 2^20; store at 10^6 rounds; check and check_fields at 10^4 instances
 x 24 rounds; rootcause at 2^22; witness at 2^20; app at 4,000 x 25; follow at 4,000 x 25;
-permcheck to mu = 24 (grouped only past mu = 20: the direct prover's count is its formula there).
+permcheck to mu = 24 (grouped only past mu = 20: the direct prover's count is its formula there); glue at
+10^4 instances x 8 rounds.
 """
 
 from __future__ import annotations
@@ -125,6 +126,12 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
             _all(r"^\s*(\d+)\s+\d+\s+\S+\s+\d+\s+([\d.]+)\s+\S+\s+([\d.]+)",
                  lambda ms: f"mu {ms[-1][1]}: {ms[-1][3]} s; multiplications direct/grouped "
                             f"{ms[0][2]} (mu {ms[0][1]}) to {ms[-1][2]} (mu {ms[-1][1]})")),
+    ]),
+    "glue": ([], ["--instances", "2000", "--repeat", "1"], [
+        Row("`stepper check`, 10^4 instances x 8 rounds with 3 openings, a squeeze, claim_expr and final_expr each, "
+            "vs the same proof without glue (CPU, in process)", "python3 bench/glue.py", "<= 1.5x",
+            _first(r"^check\s+glue/plain: ([\d.]+)x[\s\S]*?^replay glue/plain: ([\d.]+)x",
+                   lambda m: f"{m[1]}x (replay path alone {m[2]}x)")),
     ]),
 }
 
