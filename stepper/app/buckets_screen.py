@@ -45,7 +45,7 @@ def bucket_text(model: ProofModel, instance: int) -> Text:
     if not 0 <= instance < len(model.instances):
         return Text("no instance yet")
     view = model.instances[instance]
-    head = Text(f"instance {instance} {view.name}: {len(view.buckets)} bucket events\n\n", style="bold")
+    head = Text(f"instance #{instance} {view.name}: {len(view.buckets)} bucket events\n\n", style="bold")
     if not view.buckets:
         head.append("This instance sent no bucket events (only bucketing provers send them).\n", style=tone("muted"))
         return head

@@ -38,7 +38,7 @@ def markdown_report(model: ProofModel, position: Position, diagnosis: Any = None
     parts = _proof_section(model, diagnosis)
     if model.instances:
         instance, number = position
-        parts.extend([f"## Where I was looking: instance {instance} ({model.instances[instance].name}), "
+        parts.extend([f"## Where I was looking: instance #{instance} ({model.instances[instance].name}), "
                       f"round {number}", ""])
         parts.extend(_table(round_lines(model, position)))
         parts.append("")

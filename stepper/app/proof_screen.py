@@ -226,7 +226,7 @@ class ProofScreen(Screen[None]):
         self.go((instance, self.model.rounds_in(instance)))
         view = self.model.instances[instance]
         if view.final_value is None:
-            self.say(f"instance {instance} {view.name!r} has not sent its final value yet")
+            self.say(f"instance #{instance} {view.name!r} has not sent its final value yet")
 
     def action_ask_round(self) -> None:
         self.app.push_screen(AskScreen("Go to round", "N, or #I:N (instance #I as in the strip, round N)"),

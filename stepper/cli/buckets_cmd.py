@@ -42,7 +42,7 @@ def run(args: argparse.Namespace) -> int:
     for row in rows:
         if row.instance != current:
             current = row.instance
-            print(f"instance {row.instance} '{row.instance_name}'")
+            print(f"instance #{row.instance} '{row.instance_name}'")
             print(f"  {'round':>5} {'group':>5} {'buckets':>8} {'bound':>10} {'remaining':>10} {'fill':>6} "
                   f"{'per bucket':>10}  {'method':<8} entries per bucket: min / median / max (singletons)")
         bound = "-" if row.bound_log2 is None else (f"2^{row.bound_log2}" if row.bound_log2 > 16

@@ -122,7 +122,7 @@ class FileResult:
 
                 fmt = str if failure.check in COUNT_CHECKS else report.fmt
                 values = f": expected {fmt(failure.expected)}, found {fmt(failure.found)}"
-            return f"instance {failure.instance} '{failure.instance_name}', {where}, check {failure.check}{values}"
+            return f"instance #{failure.instance} '{failure.instance_name}', {where}, check {failure.check}{values}"
         if report.verdict == "incomplete":
             return "the transcript stops early; every round present passed"
         return f"{report.instance_count} instance(s), every check passed; challenges {report.challenges}"

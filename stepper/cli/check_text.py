@@ -112,7 +112,7 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
     failure = report.first_failure
     if failure is not None:
         where = "its claim" if failure.round == 0 else f"round {failure.round}"
-        lines.append(_paint(word, tint, colour) + f" at instance {failure.instance} '{failure.instance_name}', "
+        lines.append(_paint(word, tint, colour) + f" at instance #{failure.instance} '{failure.instance_name}', "
                      f"{where}, check {failure.check}:")
         lines.append(f"  {failure.explanation}")
     elif report.verdict == "incomplete":
@@ -127,7 +127,7 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
     if notes:
         lines.append("")
         for note in notes:
-            place = "proof" if note.instance is None else f"instance {note.instance}"
+            place = "proof" if note.instance is None else f"instance #{note.instance}"
             if note.round is not None:
                 place += f", round {note.round}"
             lines.append(f"  note ({place}): {note.text}")

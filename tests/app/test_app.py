@@ -137,7 +137,7 @@ async def test_exports_write_an_svg_and_a_markdown_report(failing_file, tmp_path
     report = tmp_path / "isle-of-quill-0740.i1.r2.md"
     assert svg.read_text().lstrip().startswith("<svg")
     text = report.read_text()
-    assert "Where I was looking: instance 1 (boarding-permutation-grouped), round 2" in text
+    assert "Where I was looking: instance #1 (boarding-permutation-grouped), round 2" in text
     assert "evidence about" in text
 
 

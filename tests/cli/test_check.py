@@ -101,7 +101,7 @@ def test_human_output_states_the_first_failure_in_words(tmp_path, capsys):
     payloads[4]["evals"][0] += 1
     code, out, _ = check(capsys, str(write_jsonl(tmp_path / "bad.jsonl", payloads)))
     carried = payloads[4]["evals"][0] - 1 + payloads[4]["evals"][1]
-    assert code == 1 and "REJECTED at instance 0 'boarding-permutation', round 2, check sum" in out
+    assert code == 1 and "REJECTED at instance #0 'boarding-permutation', round 2, check sum" in out
     assert f"round 2: g(0)+g(1) = {carried + 1}, but round 1 carried the claim g1(r1) = {carried}" in out
 
 

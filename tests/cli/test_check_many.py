@@ -144,10 +144,10 @@ def test_junit_never_replaces_a_file_without_force(files, tmp_path, capsys):
 def test_ci_lines_in_the_github_and_compiler_forms(files, capsys):
     _, out, _ = run(capsys, str(files["faulty"]), str(files["incomplete"]), "--ci-lines", "github")
     marks = [line for line in out.splitlines() if line.startswith("::")]
-    assert marks[0].startswith(f"::error file={files['faulty']},title=stepper check::instance 0")
+    assert marks[0].startswith(f"::error file={files['faulty']},title=stepper check::instance #0")
     assert marks[1].startswith("::warning file=")
     _, out, _ = run(capsys, str(files["faulty"]), "--ci-lines", "compiler")
-    assert f"{files['faulty']}:1: error: instance 0 'boarding-permutation', round 2, check sum" in out
+    assert f"{files['faulty']}:1: error: instance #0 'boarding-permutation', round 2, check sum" in out
 
 
 def _cli(*argv: str, env: dict[str, str] | None = None) -> subprocess.CompletedProcess[str]:

@@ -87,7 +87,7 @@ def test_buckets_prints_rows_and_json(tmp_path, capsys):
     capsys.readouterr()
     assert main(["buckets", str(out)]) == 0
     text = capsys.readouterr().out
-    assert "instance 1 'permutation/groups'" in text and "buckets" in text
+    assert "instance #1 'permutation/groups'" in text and "buckets" in text
     assert main(["buckets", str(out), "--json"]) == 0
     rows = json.loads(capsys.readouterr().out)["rows"]
     assert rows[0]["round"] == 1 and rows[0]["bound_log2"] == 2 * 3
