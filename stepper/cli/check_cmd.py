@@ -87,6 +87,9 @@ def run(args: argparse.Namespace) -> int:
                        args.detail, checked.file_line)
         if checked.diagnosis is not None:
             lines += ["", "root cause (with the witness):", *("  " + s for s in checked.diagnosis.explain())]
+        if checked.glue_findings:
+            lines += ["", "glue probes (what known glue bug reproduces the failure exactly; evidence, not proof):",
+                      *(f"  {f.probe}: {f.message}" for f in checked.glue_findings)]
         if checked.strict:
             lines += ["", "STRICT: failing (exit 1) because:", *(f"  - {reason}" for reason in checked.strict)]
         print("\n".join(lines))

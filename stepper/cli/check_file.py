@@ -78,6 +78,7 @@ class Checked:
     unknown: dict[str, int]
     strict: tuple[str, ...]
     file_line: str = ""  # the file's condition in the words of stepper.transcript.condition
+    glue_findings: tuple[Any, ...] = ()  # glue probes on a failed glue check, without a witness
 
     @property
     def code(self) -> int:
@@ -94,6 +95,8 @@ class Checked:
         if self.diagnosis is not None:
             out["root_cause"] = self.diagnosis.root_cause_json()
             out["witness_findings"] = self.diagnosis.findings_json()
+        if self.glue_findings:
+            out["glue_findings"] = [f.to_json() for f in self.glue_findings]
         return out
 
 
@@ -239,10 +242,36 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
         with terminal_progress("root cause: recomputing rounds") as progress:
             diagnosis = diagnose(transcript, witness, report, progress=progress)
     strict = strict_reasons(report, unknown) if args.strict else ()
+    glue = glue_probes(path, report) if diagnosis is None and _glue_failure(report) else ()
     from stepper.transcript.condition import file_condition
 
     return Checked(name, report, diagnosis, notes, note_count, unknown, strict,
-                   file_condition(kind, completeness, digest))
+                   file_condition(kind, completeness, digest), glue)
+
+
+def _glue_failure(report: Report) -> bool:
+    """Whether the first failure is one the glue probes can read without a witness: a
+    ``link``, an ``evaluation``, or a ``sum`` of an eq-factored instance."""
+    first = report.first_failure
+    if first is None:
+        return False
+    if first.check in ("link", "evaluation"):
+        return True
+    summary = next((s for s in report.instances if s.index == first.instance), None)
+    return first.check == "sum" and summary is not None and summary.form == "eq-factored"
+
+
+def glue_probes(path: str, report: Report) -> tuple[Any, ...]:
+    """The glue probes on the first failure: the file is read once more (only a failing
+    file with glue pays for it), folded, and handed to stepper.diagnose.glue_evidence."""
+    from stepper.diagnose.glue_evidence import glue_findings
+    from stepper.transcript.model import fold_events
+    from stepper.transcript.store import open_events
+
+    with open_events(path) as stream:
+        events = list(stream)
+        transcript = fold_events(events, stream.header, stream.completeness, stream.digest)
+    return glue_findings(transcript, report.first_failure)
 
 
 def strict_reasons(report: Report, unknown: dict[str, int]) -> tuple[str, ...]:

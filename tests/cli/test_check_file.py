@@ -1,0 +1,44 @@
+"""stepper check without a witness asks the glue probes about a failed glue check (the file is read once
+more only then). Which probe must answer follows from the fault each reference prover makes."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from stepper.cli.main import main
+
+
+def _check(tmp_path, capsys, *flags, json_out=True):
+    out = tmp_path / f"p{len(list(tmp_path.iterdir()))}.sumtr"
+    assert main(["prove", "-o", str(out), "--num-vars", "4", *flags]) == 0
+    capsys.readouterr()
+    code = main(["check", str(out), *(["--json"] if json_out else [])])
+    return code, capsys.readouterr().out
+
+
+@pytest.mark.parametrize("flags, probe", [
+    (["--kind", "gkr-product", "--fault", "stale-coefficient", "--fault-instance", "1"], "stale-coefficient"),
+    (["--kind", "zerocheck-eq", "--fault", "double-eq@3"], "eq-factor"),
+    (["--kind", "zerocheck", "--fault", "final-without-eq"], "final-without-eq"),
+])
+def test_a_failed_glue_check_is_explained_without_the_witness(flags, probe, tmp_path, capsys):
+    code, out = _check(tmp_path, capsys, *flags)
+    assert code == 1
+    assert [f["probe"] for f in json.loads(out)["glue_findings"]] == [probe]
+
+
+def test_the_text_names_the_probe_and_says_it_is_evidence(tmp_path, capsys):
+    code, out = _check(tmp_path, capsys, "--kind", "gkr-product", "--fault", "stale-coefficient",
+                       "--fault-instance", "2", json_out=False)
+    assert code == 1
+    assert "glue probes (what known glue bug reproduces the failure exactly; evidence, not proof):" in out
+    assert "  stale-coefficient: the claim equals claim_expr with squeeze product.c2 in place of product.c3" in out
+
+
+def test_honest_and_non_glue_failures_carry_no_glue_findings(tmp_path, capsys):
+    code, out = _check(tmp_path, capsys, "--kind", "gkr-product")
+    assert code == 0 and "glue_findings" not in json.loads(out)
+    code, out = _check(tmp_path, capsys, "--kind", "zerocheck", "--fault", "montgomery@2")
+    assert code == 1 and "glue_findings" not in json.loads(out)
