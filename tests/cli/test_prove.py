@@ -284,3 +284,16 @@ def test_check_with_the_witness_names_each_glue_bug(flags, probe, tmp_path, caps
     assert main(["check", str(out), "--witness", str(witness), "--json"]) == 1
     report = json.loads(capsys.readouterr().out)
     assert probe in [f["probe"] for f in report["witness_findings"]], report["witness_findings"]
+
+
+@pytest.mark.parametrize("field", ["babybear^4", "bn254"])
+@pytest.mark.parametrize("kind", ["gkr-product", "zerocheck-eq"])
+def test_the_glue_kinds_check_over_extension_and_254_bit_fields_and_as_event_streams(field, kind, tmp_path, capsys):
+    events, witness = tmp_path / "p.jsonl", tmp_path / "w.json"
+    assert main(["prove", "-o", str(events), "--num-vars", "4", "--kind", kind, "--field", field,
+                 "--witness-out", str(witness)]) == 0
+    assert main(["import", str(events), "-o", str(tmp_path / "p.sumtr")]) == 0
+    capsys.readouterr()
+    for path in (events, tmp_path / "p.sumtr"):
+        assert main(["check", str(path), "--witness", str(witness), "--json"]) == 0
+        assert json.loads(capsys.readouterr().out)["verdict"] == "accept"
