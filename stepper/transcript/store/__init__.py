@@ -75,6 +75,8 @@ def append_note(path: str | os.PathLike[str], note: Note, *, wait: float = 2.0) 
     with handle:
         if not lock_within(handle, wait):  # a writer holds it: keep the note beside the file
             payload = _note_payload(path, note, where, recording=True)
+            if note.instance is None:  # folded in after an instance: say it is about the whole proof
+                payload["instance"] = None
             return add_pending(path, payload)
         try:
             payload = _note_payload(path, note, where, recording=False)
