@@ -256,3 +256,12 @@ def test_limits_come_from_the_environment_and_bad_values_are_refused() -> None:
     assert WitnessLimits.from_environment({}) == WitnessLimits()
     with pytest.raises(WitnessError, match="STEPPER_WITNESS_MAX_BYTES to be a positive whole number"):
         WitnessLimits.from_environment({"STEPPER_WITNESS_MAX_BYTES": "-1"})
+
+
+def test_witness_instances_at_the_limit_load_and_one_past_are_refused():
+    from stepper.diagnose.witness import MAX_INSTANCES
+
+    one = {"name": "a", "combine": "t", "tables": {"t": [1, 2]}}
+    assert len(witness_from_map({"instances": [one] * MAX_INSTANCES}).instances) == MAX_INSTANCES
+    with pytest.raises(WitnessError, match=f"at most {MAX_INSTANCES} witness instances, found {MAX_INSTANCES + 1}"):
+        witness_from_map({"instances": [one] * (MAX_INSTANCES + 1)})
