@@ -105,3 +105,35 @@ def test_every_event_and_element_survives_the_transcript_and_the_json_lines_form
     again = folder / "again.sumtr"
     assert main(["import", str(exported), "-o", str(again)]) == 0
     assert _records(again)[0] == records  # and back to a transcript
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(field=st.sampled_from(["babybear", "goldilocks", "babybear^4"]), size=st.sampled_from([8, 16]),
+       seed=st.integers(0, 2**32))
+def test_glue_events_survive_the_transcript_and_the_json_lines_form(tmp_path_factory, field, size, seed):
+    # named values, squeezes, openings and the claim/final expressions of a GKR product circuit (stepper's
+    # reference prover, checked against brute force in tests/provers/test_gkr.py)
+    import numpy as np
+
+    from stepper.provers.channel import ProofChannel
+    from stepper.provers.counting import MulCounter
+    from stepper.provers.gkr import prove_grand_product
+    from stepper.provers.reference import parse_field
+
+    folder = tmp_path_factory.mktemp("glue")
+    decl = parse_field(field)
+    original = folder / "product.sumtr"
+    with TranscriptWriter(original) as writer:
+        prove_grand_product(ProofChannel(decl, writer, label="isle-of-quill-0740"), MulCounter(decl),
+                            decl.base.vrandom(size, np.random.default_rng(seed)))
+    records, completeness, digest = _records(original)
+    kinds = {type(r).__name__ for r in records}
+    assert {"NamedValue", "Squeeze", "Opening"} <= kinds and (completeness, digest) == ("complete", "verified")
+    exported = folder / "product.jsonl"
+    out = io.StringIO()
+    _export(str(original), out)
+    exported.write_text(out.getvalue())
+    assert _records(exported)[0] == records
+    again = folder / "again.sumtr"
+    assert main(["import", str(exported), "-o", str(again)]) == 0
+    assert _records(again) == (records, "complete", "verified")
