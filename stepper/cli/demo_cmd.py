@@ -29,7 +29,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--dir", metavar="DIR", help="write the examples here (created; default: a new temp folder)")
     parser.add_argument("--no-view", action="store_true", help="print the checks instead of opening the app")
     parser.add_argument("--force", action="store_true",
-                        help="replace files in DIR that differ from what the demo writes (notes added to them are lost)")
+                        help="replace files in DIR that differ from what the demo writes (notes added to them "
+                             "are lost)")
 
 
 def run(args: argparse.Namespace) -> int:

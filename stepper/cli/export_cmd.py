@@ -29,7 +29,8 @@ DESCRIPTION = (
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="transcript (or JSON-lines event file)")
     parser.add_argument("-o", "--output", metavar="OUT", help="write to OUT instead of standard output")
-    parser.add_argument("--force", action="store_true", help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
+    parser.add_argument("--force", action="store_true",
+                        help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
 
 
 def run(args: argparse.Namespace) -> int:

@@ -29,7 +29,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("events", metavar="EVENTS", help="JSON-lines event file (or a transcript)")
     parser.add_argument("-o", "--output", required=True, metavar="OUT", help="transcript file to write")
     parser.add_argument("--label", metavar="TEXT", help="a label stored in the transcript header")
-    parser.add_argument("--force", action="store_true", help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
+    parser.add_argument("--force", action="store_true",
+                        help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
 
 
 def run(args: argparse.Namespace) -> int:

@@ -31,7 +31,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="where to write: OUT.md or OUT.html ('-' for standard output, with --format)")
     parser.add_argument("--witness", "-w", metavar="W", help="witness file for the root-cause section")
     parser.add_argument("--format", choices=("md", "html"), help="override the format implied by OUT's suffix")
-    parser.add_argument("--force", action="store_true", help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
+    parser.add_argument("--force", action="store_true",
+                        help="replace OUT if it exists (without this, an existing OUT is refused and left as it was)")
 
 
 def run(args: argparse.Namespace) -> int:

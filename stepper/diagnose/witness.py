@@ -146,7 +146,8 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
     if stripped[:1] in (b"{", b"["):
         depth = json_depth(data)
         if depth > limits.max_depth:
-            raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", f"{depth} levels", where)
+            raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", f"{depth} levels",
+                                where)
         try:
             raw = json.loads(data.decode("utf-8"))
         except UnicodeDecodeError as err:
@@ -154,8 +155,8 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
         except json.JSONDecodeError as err:
             raise WitnessError(f"expected JSON, found {err.msg}", where.but(line=err.lineno, offset=err.pos)) from None
         except RecursionError:  # json_depth counts what the decoder nests; kept as a second guard
-            raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", "more levels than Python can decode",
-                                where) from None
+            raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth",
+                                "more levels than Python can decode", where) from None
     else:
         raw = _unpack_msgpack(data, where, limits)
     return witness_from_map(raw, where, base_dir=path.parent, limits=limits)
@@ -200,7 +201,8 @@ def _unpack_msgpack(data: bytes, where: Where, limits: WitnessLimits) -> Any:
         raise WitnessError(f"expected a JSON or msgpack witness, found undecodable data ({err})", where) from None
     depth = _nesting(raw, limits.max_depth)
     if depth > limits.max_depth:
-        raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", f"more than {limits.max_depth} levels", where)
+        raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth",
+                            f"more than {limits.max_depth} levels", where)
     return raw
 
 
@@ -261,7 +263,8 @@ def _npz_table(archive: Any, key: str, limits: WitnessLimits, where: Where) -> n
     try:
         with archive.zip.open(f"{key}.npy") as member:
             version = np.lib.format.read_magic(member)
-            read = np.lib.format.read_array_header_1_0 if version == (1, 0) else np.lib.format.read_array_header_2_0
+            fmt = np.lib.format
+            read = fmt.read_array_header_1_0 if version == (1, 0) else fmt.read_array_header_2_0
             shape, _, _ = read(member)
     except (KeyError, OSError, ValueError, zipfile.BadZipFile) as err:
         raise WitnessError(f"expected a readable array {key!r} in the .npz archive, found {err}", where) from None

@@ -189,7 +189,8 @@ def test_one_hundred_thousand_nested_brackets_is_a_clean_input_error(tmp_path: P
     # before the limit, json.loads recursed until RecursionError and the CLI exited 70
     path = tmp_path / "w.json"
     path.write_text("[" * 100_000)
-    with pytest.raises(WitnessError, match=r"nested at most 32 deep, found 100000 levels.*STEPPER_WITNESS_MAX_DEPTH") as err:
+    says = r"nested at most 32 deep, found 100000 levels.*STEPPER_WITNESS_MAX_DEPTH"
+    with pytest.raises(WitnessError, match=says) as err:
         load_witness(path)
     assert err.value.exit_code == EXIT_INPUT
 
@@ -215,7 +216,8 @@ def test_total_bytes_at_the_limit_load_and_one_past_are_refused_before_reading(t
     path = tmp_path / "w.json"
     path.write_bytes(text)
     assert load_witness(path, WitnessLimits(max_bytes=len(text))).instances
-    with pytest.raises(WitnessError, match=f"at most {len(text) - 1} bytes, found {len(text)}.*STEPPER_WITNESS_MAX_BYTES"):
+    says = f"at most {len(text) - 1} bytes, found {len(text)}.*STEPPER_WITNESS_MAX_BYTES"
+    with pytest.raises(WitnessError, match=says):
         load_witness(path, WitnessLimits(max_bytes=len(text) - 1))
 
 

@@ -117,7 +117,8 @@ def test_a_bad_time_limit_setting_is_refused(monkeypatch):
 
 def test_no_code_named_in_a_transcript_or_witness_is_run(tmp_path, capsys):
     # a module that leaves a mark when imported; the transcript and the witness both name it
-    (tmp_path / "mark_me.py").write_text(f"open({str(tmp_path / 'ran')!r}, 'w').close()\ndef derive(h):\n    return 1\n")
+    marker = str(tmp_path / "ran")
+    (tmp_path / "mark_me.py").write_text(f"open({marker!r}, 'w').close()\ndef derive(h):\n    return 1\n")
     sys.path.insert(0, str(tmp_path))
     try:
         payloads = thaler_payloads(Plain(BABYBEAR), (5, 7, 11))
