@@ -293,13 +293,69 @@ def parse_cached(text: str, what: str = "glue expression") -> Expr:
 _TOKEN = re.compile(r"[ \t\r\n]*(?:([0-9]+)|([A-Za-z_][A-Za-z0-9_.]*)|([^ \t\r\n]))")
 
 
+_CALLS = frozenset(("eq", "point", "final"))
+_TEMPLATES: dict[tuple[tuple[str, str], ...], Node] = {}  # token shape (names left out) -> tree with holes
+_MAX_TEMPLATES = 512
+
+
 def _fast_parse(text: str) -> Node | None:
     """The tree of a well-formed text from one regex pass over its tokens, or None
     for anything unusual (an error, a deep nesting, a huge exponent): then the
-    character parser decides and names the column. Both build the same tree."""
+    character parser decides and names the column. Both build the same tree.
+
+    Texts that differ only in their names (``a7 + beta7*b7``, ``a8 + beta8*b8``: glue
+    names are unique in a proof) share one template, a tree whose names are holes
+    ``#0``, ``#1``, ... in the order they appear (``#`` is in no name); the tree of
+    each text is the template with its names put back."""
     tokens = _TOKEN.findall(text)
     if len(tokens) > 2048:
         return None
+    names = [w for _, w, _ in tokens if w and w not in _CALLS]
+    key = tuple(("n", n) if n else (("w", "") if w and w not in _CALLS else ("w", w)) if w else ("o", o)
+                for n, w, o in tokens)
+    template = _TEMPLATES.get(key)
+    if template is None:
+        holes = iter(range(len(names)))
+        shaped = [(n, f"#{next(holes)}" if w and w not in _CALLS else w, o) for n, w, o in tokens]
+        template = _parse_tokens(shaped)  # type: ignore[assignment]
+        if template is None:
+            return None
+        if len(_TEMPLATES) >= _MAX_TEMPLATES:
+            _TEMPLATES.clear()
+        _TEMPLATES[key] = template
+    return _fill(template, names)
+
+
+def _fill(node: Node, names: list[str]) -> Node:
+    """The template ``node`` with hole ``#i`` replaced by ``names[i]`` (a call word used
+    as a name, ``eq``, ``point`` or ``final``, stays in the template as itself)."""
+    if isinstance(node, Const):
+        return node
+    if isinstance(node, Table):
+        return Table(names[int(node.name[1:])]) if node.name[0] == "#" else node
+    if isinstance(node, Index):
+        return Index(names[int(node.name[1:])], node.index) if node.name[0] == "#" else node
+    if isinstance(node, PointOf):
+        return PointOf(names[int(node.name[1:])]) if node.name[0] == "#" else node
+    if isinstance(node, FinalOf):
+        return FinalOf(names[int(node.name[1:])]) if node.name[0] == "#" else node
+    if isinstance(node, Eq):
+        left = _fill(node.left, names)
+        right = None if node.right is None else _fill(node.right, names)
+        return Eq(left, right)  # type: ignore[arg-type]  # a side is a Table or PointOf, filled as one
+    if isinstance(node, Neg):
+        return Neg(_fill(node.operand, names))
+    if isinstance(node, Pow):
+        return Pow(_fill(node.base, names), node.exponent)
+    if isinstance(node, Add):
+        return Add(_fill(node.left, names), _fill(node.right, names))
+    if isinstance(node, Sub):
+        return Sub(_fill(node.left, names), _fill(node.right, names))
+    return Mul(_fill(node.left, names), _fill(node.right, names))
+
+
+def _parse_tokens(tokens: list[tuple[str, str, str]]) -> Node | None:
+    """The recursive descent of :func:`_fast_parse` over (number, name, other) tokens."""
     kinds: list[str] = []
     values: list[str] = []
     for number, name, other in tokens:

@@ -270,3 +270,16 @@ def test_the_token_fast_path_and_the_character_parser_agree(text: str) -> None:
             assert slow == reference
     else:
         assert fast is None
+
+
+def test_texts_of_one_shape_with_other_names_get_their_own_names_back() -> None:
+    # the token template is shared; the character parser is the reference for each text
+    from stepper.field.expr import _Parser
+
+    texts = [f"eq(tau{i}, point(leg.{i})) * (a{i}*b{i} - c{i})^2 + final(leg.{i}) - x{i}[{i}] + eq(w{i})"
+             for i in range(5)] + ["eq(eq, point(point)) * (final*final - eq)^2 + final(eq) - final[0] + eq(eq)"]
+    for text in texts:
+        assert parse(text).root == _Parser(text, "test").expr(0)
+    refs = parse(texts[3]).references()
+    assert (refs.scalars, refs.lists, refs.points, refs.finals) == (
+        ("a3", "b3", "c3"), ("tau3", "x3", "w3"), ("leg.3",), ("leg.3",))
