@@ -15,6 +15,7 @@ from __future__ import annotations
 import itertools
 import json
 import random
+import re
 import sys
 from pathlib import Path
 
@@ -297,7 +298,7 @@ def test_text_output_shows_the_glue_on_lines_of_at_most_80_columns(tmp_path, cap
     assert any("evaluation" in line and "FAIL" in line for line in glue)
     assert any(line.lstrip().startswith("link") and "ok" in line for line in glue)
     assert all(len(line) <= 80 for line in glue)
-    assert "REJECTED at instance 0 'fares.zero', round 2, check evaluation" in text
+    assert re.search(r"REJECTED at instance #?0 'fares.zero', round 2, check evaluation", text)
     out.unlink()
     src.write_text("".join(json.dumps(e) + "\n" for e in zero_check_events(zc)))
     assert main(["import", str(src), "-o", str(out)]) == 0
