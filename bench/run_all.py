@@ -6,8 +6,9 @@ from their output, and prints the table in Markdown, ready to paste into README.
 total time. A figure a script did not print shows as "not measured" and names the script, so
 a regression or a broken bench shows in one command.
 
-    python3 bench/run_all.py            # about 10 minutes on the 2-core development machine
-    python3 bench/run_all.py --quick    # smaller sizes, about 4 minutes (figures are not the README's)
+    python3 bench/run_all.py            # 28 minutes on the shared 2-core machine, 18 of them writing the
+                                        # ten check_fields transcripts (a Python prover with the schedule)
+    python3 bench/run_all.py --quick    # smaller sizes, about 5 minutes (figures are not the README's)
     python3 bench/run_all.py --only check_fields witness
 
 Sizes (full run): fields at 2^20; store at 10^6 rounds; check and check_fields at 10^4 instances

@@ -64,6 +64,7 @@ FIELDS = {
     "mersenne31^4": (Plain(MERSENNE31, 4, q=(5, 0, MERSENNE31 - 4, 0, 1)),
                      {"type": "field", "name": "mersenne31", "extension_degree": 4}, True),
     "bn254": (Plain(BN254), {"type": "field", "name": "bn254"}, True),
+    "bn254^2": (Plain(BN254, 2, 5), Plain(BN254, 2, 5).spec(), True),  # 5^((p-1)/2) = -1 mod p: X^2 - 5 irreducible
     "bls12-381": (Plain(BLS12_381), {"type": "field", "name": "bls12-381"}, True),
 }
 FORMS = ("evals", "evals-no-1", "coeffs", "coeffs-no-linear")
