@@ -240,7 +240,7 @@ class TranscriptSource:
         """Append the note to the file (the recorded part's digest stays intact) and show it."""
         from stepper.transcript.store import append_note
 
-        append_note(self.path, note)
+        append_note(self.path, note, wait=0.2)  # a recording holds the file: the note waits beside it at once
         self._fed += 1
         if self._stream is not None:
             self._own_notes.append(note)

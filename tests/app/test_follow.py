@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import threading
 import time
+from pathlib import Path
 
 from proofs import brackwater_payloads, write_transcript
 
@@ -241,4 +242,29 @@ def test_a_followed_file_rotated_away_is_left_whole_and_the_new_file_at_its_name
     rounds = sum(len(inst.rounds) for inst in load(path).instances)
     assert (source.problem, model.verdict(), model.digest, model.round_count) == (None, "accept", "verified", rounds)
     assert load(rotated).digest == "verified"
+    source.close()
+
+
+def test_a_note_typed_while_the_prover_records_waits_beside_the_file_and_is_shown_once(tmp_path):
+    # it used to be appended into the file the recorder was writing, and overwritten by the next round
+    from stepper.app.source import TranscriptSource
+    from stepper.transcript.model import Note
+    from stepper.transcript.store import load
+    from stepper.transcript.store.pending import pending_path
+
+    path = tmp_path / "isle-of-quill-0740.sumtr"
+    payloads = brackwater_payloads(instances=("boarding-permutation",))
+    writer = TranscriptWriter(path)
+    for payload in payloads[:5]:
+        writer.write_payload(payload)
+    source = TranscriptSource(path, follow=True)
+    model = source.open()
+    source.save_note(model, Note("gate 3 scanner restarted here", 0, 1))
+    assert (tmp_path / Path(pending_path(path)).name).exists()
+    for payload in payloads[5:]:
+        writer.write_payload(payload)
+    writer.finish()
+    source.refresh(model)
+    assert model.instances[0].notes == [Note("gate 3 scanner restarted here", 0, 1)]
+    assert (model.digest, load(path).all_notes()) == ("verified", [Note("gate 3 scanner restarted here", 0, 1)])
     source.close()
