@@ -115,6 +115,10 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
             "python3 bench/app.py", "< 1 s / < 50 ms",
             _all(r"^(open s|first paint s|step median ms|step - unbound ms)\s+[\d.]+\s+([\d.]+)",
                  lambda ms: "; ".join(f"{m[1]} {m[2]}" for m in ms))),
+        Row("app on 10^5 rounds: every round checked, from creating the app / after its first paint, against "
+            "`stepper check` on the same file in the same run", "python3 bench/app.py", "after paint <= 2x check",
+            _all(r"^(all checked s|check s|all checked / check|after paint / check)\s+[\d.]+\s+([\d.]+)",
+                 lambda ms: "; ".join(f"{m[1]} {m[2]}" for m in ms))),
     ]),
     "follow": ([], ["--instances", "1000"], [
         Row("`view --follow`: one poll after an append, incremental vs full re-read", "python3 bench/follow.py",
