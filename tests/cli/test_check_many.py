@@ -156,13 +156,14 @@ def _cli(*argv: str, env: dict[str, str] | None = None) -> subprocess.CompletedP
     return subprocess.run([sys.executable, "-m", "stepper", *argv], capture_output=True, text=True, env=full)
 
 
-def test_color_always_never_and_no_color(files):
-    assert "\x1b[" in _cli("check", str(files["faulty"]), "--color", "always").stdout
-    assert "\x1b[" not in _cli("check", str(files["faulty"]), "--color", "never").stdout
-    assert "\x1b[" not in _cli("check", str(files["faulty"])).stdout  # auto: a pipe is not a terminal
-    many = _cli("check", str(files["faulty"]), str(files["honest"]), "--color", "always")
-    assert "\x1b[31mREJECTED" in many.stdout
-    assert "\x1b[" in _cli("check", str(files["faulty"]), "--color", "always", env={"NO_COLOR": "1"}).stdout
+def test_color_always_never_and_no_color(files, capsys, monkeypatch):
+    monkeypatch.delenv("NO_COLOR", raising=False)
+    assert "\x1b[" in run(capsys, str(files["faulty"]), "--color", "always")[1]
+    assert "\x1b[" not in run(capsys, str(files["faulty"]), "--color", "never")[1]
+    assert "\x1b[" not in run(capsys, str(files["faulty"]))[1]  # auto: captured output is not a terminal
+    assert "\x1b[31mREJECTED" in run(capsys, str(files["faulty"]), str(files["honest"]), "--color", "always")[1]
+    monkeypatch.setenv("NO_COLOR", "1")
+    assert "\x1b[" in run(capsys, str(files["faulty"]), "--color", "always")[1]  # the flag wins
 
 
 def test_no_color_is_honoured_on_a_terminal(files, monkeypatch):

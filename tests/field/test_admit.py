@@ -11,7 +11,9 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from stepper.cli.main import main
 from stepper.field.admit import is_irreducible, is_prime
+from stepper.field.field import get_field
 
 SETTINGS = settings(max_examples=30, deadline=None)
 
@@ -55,26 +57,27 @@ def test_irreducibility_over_a_254_bit_prime_is_answered_quickly():
     assert is_irreducible((r - 5, 0, 1), r) == (not square)
 
 
-def _check_field(tmp_path, field_event: dict) -> subprocess.CompletedProcess[str]:
+def _check_field(tmp_path, capsys, field_event: dict) -> tuple[int, str]:
     path = tmp_path / "f.jsonl"
     lines = [field_event, {"type": "instance", "name": "a", "num_vars": 1, "degree": 1, "claim": 0},
              {"type": "round", "evals": [0, 0]}, {"type": "challenge", "value": 1}]
     path.write_text("".join(json.dumps(line) + "\n" for line in lines))
-    return subprocess.run([sys.executable, "-m", "stepper", "check", str(path)], capture_output=True, text=True)
+    code = main(["check", str(path)])
+    return code, capsys.readouterr().err
 
 
-def test_a_reducible_polynomial_exits_2_naming_it(tmp_path):
+def test_a_reducible_polynomial_exits_2_naming_it(tmp_path, capsys):
     # X^2 - 4 = (X - 2)(X + 2) over F_101 (common practice, no source)
-    proc = _check_field(tmp_path, {"type": "field", "modulus": 101, "extension_degree": 2,
-                                   "irreducible": [97, 0, 1]})
-    assert proc.returncode == 2
-    assert "Traceback" not in proc.stderr and len(proc.stderr.strip().splitlines()) == 1
-    assert "X^2 - 4" in proc.stderr and "reducible" in proc.stderr
+    code, err = _check_field(tmp_path, capsys, {"type": "field", "modulus": 101, "extension_degree": 2,
+                                                "irreducible": [97, 0, 1]})
+    assert code == 2
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1
+    assert "X^2 - 4" in err and "reducible" in err
 
 
-def test_a_composite_modulus_exits_2_naming_it(tmp_path):
-    proc = _check_field(tmp_path, {"type": "field", "modulus": 561})  # 3 * 11 * 17
-    assert proc.returncode == 2 and "561, which is not prime" in proc.stderr
+def test_a_composite_modulus_exits_2_naming_it(tmp_path, capsys):
+    code, err = _check_field(tmp_path, capsys, {"type": "field", "modulus": 561})  # 3 * 11 * 17
+    assert code == 2 and "561, which is not prime" in err
 
 
 def test_a_named_field_never_loads_galois():
@@ -85,7 +88,18 @@ def test_a_named_field_never_loads_galois():
     assert out.strip() == "False"
 
 
-def test_a_user_prime_loads_galois_to_admit_it():
-    code = "import sys; from stepper.field.field import get_field; get_field(101); print('galois' in sys.modules)"
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
-    assert out.strip() == "True"
+def test_a_user_prime_is_admitted_through_galois_and_a_named_one_is_not(monkeypatch):
+    import stepper.field.admit as admit
+
+    asked: list[str] = []
+    real = admit._galois
+
+    def spy():
+        asked.append("galois")
+        return real()
+
+    monkeypatch.setattr(admit, "_galois", spy)
+    get_field(2**31 - 1)  # Mersenne31, a named prime (common practice, no source)
+    assert asked == []
+    get_field(1_000_033)  # a user prime (reference: sympy.isprime)
+    assert sympy.isprime(1_000_033) and asked == ["galois"]
