@@ -12,12 +12,12 @@ from __future__ import annotations
 import os
 import shutil
 import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 
 from json_contracts import conforming_lines
+from stepper.cli.main import main
 
 SAMPLES = Path(__file__).resolve().parents[2] / "samples"
 P = 2**31 - 2**27 + 1  # BabyBear (common practice, no source)
@@ -54,22 +54,18 @@ def _build(kind: str, tmp_path: Path) -> Path:
 
 
 @pytest.mark.parametrize("kind", ["c", "rust"])
-def test_the_emitter_stream_is_recorded_imported_and_checked(kind, tmp_path):
+def test_the_emitter_stream_is_recorded_imported_and_checked(kind, tmp_path, capsys):
     exe = _build(kind, tmp_path)
     env = {k: v for k, v in os.environ.items() if k != "STEPPER_EVENTS"}
     printed = subprocess.run([str(exe)], capture_output=True, text=True, env=env, timeout=60, check=True).stdout
     assert conforming_lines(printed) == _expected_lines()
-    stepper = [sys.executable, "-m", "stepper"]
     recorded = tmp_path / "deck.sumtr"
-    proc = subprocess.run([*stepper, "record", "-o", str(recorded), "--", str(exe)], capture_output=True,
-                          text=True, timeout=120)
-    assert proc.returncode == 0, proc.stderr
+    assert main(["record", "-o", str(recorded), "--", str(exe)]) == 0
     events = tmp_path / "deck.jsonl"
     events.write_text(printed)
     imported = tmp_path / "imported.sumtr"
-    assert subprocess.run([*stepper, "import", str(events), "-o", str(imported)], capture_output=True,
-                          timeout=120).returncode == 0
+    assert main(["import", str(events), "-o", str(imported)]) == 0
+    capsys.readouterr()
     for path in (recorded, imported, events):
-        check = subprocess.run([*stepper, "check", str(path)], capture_output=True, text=True, timeout=120)
-        assert check.returncode == 0, check.stdout + check.stderr
-        assert "passed; final value checked" in check.stdout
+        assert main(["check", str(path)]) == 0
+        assert "passed; final value checked" in capsys.readouterr().out
