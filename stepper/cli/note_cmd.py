@@ -2,7 +2,7 @@
 
 Thin edge over :func:`stepper.transcript.store.append_note`: the note is appended after
 the recorded part, whose digest therefore still verifies; ``info``, ``check``,
-``report`` and the app show it. While another process records into the file (it
+``writeup`` and the app show it. While another process records into the file (it
 holds the file's lock) the note waits in ``FILE.pending-notes`` and is folded in
 when the recording ends. ``--instance`` takes a name or a 0-based
 index; with one instance it may be left out, and with neither flag the note

@@ -101,7 +101,7 @@ def _note_payload(path: str | os.PathLike[str], note: Note, where: Where, *, rec
     instances so far)."""
     with open_events(path) as stream:
         if stream.kind != "transcript":
-            raise TranscriptError("expected a stepper transcript to annotate, found a JSON-lines event file "
+            raise TranscriptError("expected a stepper transcript to hold the note, found a JSON-lines event file "
                                   "(convert it first with `stepper import`)", where)
         for _ in stream:
             pass
