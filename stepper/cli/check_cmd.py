@@ -35,6 +35,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "(one line each and a summary); '-' reads one from standard input")
     parser.add_argument("--json", action="store_true", help="print one JSON object (the check contract)")
     parser.add_argument("--witness", metavar="W", help="witness file (JSON or msgpack): find the root cause")
+    parser.add_argument("--engine", choices=("memory", "dask"), default="memory",
+                        help="what recomputes the rounds for --witness: memory (numpy on whole tables, the "
+                             "default) or dask (chunked tables, Dask's local threads or --scheduler)")
+    parser.add_argument("--scheduler", metavar="ADDRESS",
+                        help="with --engine dask: the address of a running Dask scheduler (tcp://HOST:PORT)")
     parser.add_argument(
         "--challenges", metavar="MODULE:FUNCTION",
         help="re-derive challenges with your own function (MODULE is a .py path or a dotted module name); "
@@ -67,6 +72,10 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError("expected '-' (standard input) at most once among the files, found it twice")
     if args.witness and len(args.files) > 1:
         raise UsageError(f"expected one FILE with --witness, found {len(args.files)} files")
+    if args.engine == "dask" and not args.witness:
+        raise UsageError("expected --engine dask only with --witness W (it recomputes the witness's rounds)")
+    if args.scheduler and args.engine != "dask":
+        raise UsageError("expected --scheduler ADDRESS only with --engine dask")
     if args.force and not args.junit:
         raise UsageError("expected --force only with --junit PATH (the one file check writes)")
     if len(args.files) > 1 or args.junit or args.ci_lines:

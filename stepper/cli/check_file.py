@@ -239,8 +239,17 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
 
         transcript = fold_events(events or [], header, completeness, digest)  # type: ignore[arg-type]
         witness = load_witness(args.witness)
-        with terminal_progress("root cause: recomputing rounds") as progress:
-            diagnosis = diagnose(transcript, witness, report, progress=progress)
+        engine = None
+        if getattr(args, "engine", "memory") == "dask":
+            from stepper.diagnose.dask_engine import DaskEngine
+
+            engine = DaskEngine(getattr(args, "scheduler", None))
+        try:
+            with terminal_progress("root cause: recomputing rounds") as progress:
+                diagnosis = diagnose(transcript, witness, report, progress=progress, engine=engine)
+        finally:
+            if engine is not None:
+                engine.close()
     strict = strict_reasons(report, unknown) if args.strict else ()
     glue = glue_probes(path, report) if diagnosis is None and _glue_failure(report) else ()
     from stepper.transcript.condition import file_condition

@@ -37,7 +37,7 @@ proof. Pure: no I/O; progress is reported through an optional callback.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Protocol
 
 from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, honest_rounds
@@ -53,7 +53,7 @@ if TYPE_CHECKING:
     from stepper.verify.verdict import Failure, Report
     from stepper.diagnose.witness import Witness
 
-__all__ = ["RootCause", "Diagnosis", "diagnose", "Progress", "COMPRESSED_FORMS"]
+__all__ = ["RootCause", "Diagnosis", "diagnose", "Progress", "COMPRESSED_FORMS", "Engine", "InMemory"]
 
 Progress = Callable[[int, int], None]  # (work done, total work), in table entries processed
 COMPRESSED_FORMS = ("evals-no-1", "coeffs-no-linear")
@@ -61,6 +61,22 @@ SOUNDNESS_CAVEAT = (
     "Agreement with the witness is evidence about this one run: it does not show that the protocol, "
     "its Fiat-Shamir transform or the verifier is sound."
 )
+
+
+class Engine(Protocol):
+    """What computes the honest rounds and the openings' values (in memory, or Dask)."""
+
+    def honest_rounds(self, field: Field, tables: Mapping[str, Any], expr: Any, challenges: Any, order: str,
+                      num_points: int, *, on_round: Callable[[int], None] | None = None) -> Iterator[Any]: ...
+
+    def mle_eval(self, field: Field, table: Any, point: Any) -> Element: ...
+
+
+class InMemory:
+    """The default engine: numpy on whole tables (:mod:`stepper.diagnose.honest`)."""
+
+    honest_rounds = staticmethod(honest_rounds)
+    mle_eval = staticmethod(mle_eval)
 
 
 @dataclass(frozen=True, slots=True)
@@ -231,10 +247,13 @@ class Diagnosis:
 
 # ----- the diagnosis -----------------------------------------------------------------------
 def diagnose(transcript: Transcript, witness: Witness, report: Report | None = None, *,
-             progress: Progress | None = None) -> Diagnosis:
+             progress: Progress | None = None, engine: Engine | None = None) -> Diagnosis:
     """Compare every instance that has a witness with an honest prover; stop at the
     first root cause and run the probes on it. Raises :class:`WitnessError` when the
-    witness does not fit the transcript."""
+    witness does not fit the transcript. ``engine`` (e.g. the Dask engine) computes the
+    honest rounds and the openings in place of the in-memory functions; the probes that
+    run once a root cause is found stay in memory."""
+    engine = engine if engine is not None else InMemory()
     if report is None:
         from stepper.verify.replay import replay_transcript
 
@@ -255,7 +274,7 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
     for index, inst in enumerate(transcript.instances):
         fit = fitted.get(index)  # type: ignore[assignment]
         if fit is None:
-            cause = _check_openings(field, inst, {}, shared, transcript)
+            cause = _check_openings(field, inst, {}, shared, transcript, engine)
             if cause is not None:
                 findings = _opening_probes(field, inst, cause, {}, shared, transcript)
                 break
@@ -266,7 +285,7 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
             if progress is not None:
                 progress(done + 2 * n - (n >> (k - 1)), total)
 
-        cause, ctx, rounds = _check_instance(field, inst, fit, advance, named)
+        cause, ctx, rounds = _check_instance(field, inst, fit, advance, named, engine)
         rounds_checked += rounds
         done += 2 << inst.start.num_vars
         if progress is not None:
@@ -274,7 +293,7 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
         if cause is not None:
             findings = run_probes(ctx) if ctx is not None else ()
             break
-        cause = _check_openings(field, inst, fit.tables, shared, transcript)
+        cause = _check_openings(field, inst, fit.tables, shared, transcript, engine)
         if cause is not None:
             findings = _opening_probes(field, inst, cause, fit.tables, shared, transcript)
             break
@@ -341,7 +360,7 @@ def _table_for(opening: Opening, own: Mapping[str, Any], shared: Mapping[str, An
 
 
 def _check_openings(field: Field, inst: InstanceRecord, own: Mapping[str, Any], shared: Mapping[str, Any],
-                    transcript: Transcript) -> RootCause | None:
+                    transcript: Transcript, engine: Engine) -> RootCause | None:
     """The first opening of ``inst`` that differs from its table's extension at the instance's point."""
     point = _point(inst)
     if point is None:
@@ -351,7 +370,7 @@ def _check_openings(field: Field, inst: InstanceRecord, own: Mapping[str, Any], 
         table = _table_for(opening, own, shared, inst)
         if table is None:
             continue
-        honest = mle_eval(field, table, point)
+        honest = engine.mle_eval(field, table, point)
         if field.lift(honest) != field.lift(opening.value):
             return RootCause(start.index, start.name, start.num_vars, "opening", None, honest, opening.value,
                              (honest,), (opening.value,), start.form, opening.name)
@@ -379,7 +398,7 @@ def _opening_probes(field: Field, inst: InstanceRecord, cause: RootCause, own: M
 
 
 def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, advance: Callable[[int], None],
-                    named: dict[str, Any]) -> tuple[RootCause | None, ProbeContext | None, int]:
+                    named: dict[str, Any], engine: Engine) -> tuple[RootCause | None, ProbeContext | None, int]:
     start = inst.start
     form = start.form
     sent = _sent_polys(field, inst, named)
@@ -402,7 +421,8 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, adv
         if c is None:
             return None, None, 0
         return c, context(c.check, c.round, c.sent, c.honest), 0
-    for item in honest_rounds(field, fit.tables, expr, challenges, start.order, start.degree + 1, on_round=advance):
+    for item in engine.honest_rounds(field, fit.tables, expr, challenges, start.order, start.degree + 1,
+                                     on_round=advance):
         if isinstance(item, HonestRound):
             if item.round == 1:
                 honest_claim = field.add(item.evals[0], item.evals[1])
