@@ -11,7 +11,11 @@ once as JSON. Then, side by side in one run (CPU seconds, best of ``--repeat``):
   ``check F`` (fresh process too), against the bare kernels doing the recomputation's
   multiplications (``bench/rootcause.py``'s ``bare_kernels``; target <= 3x), for the folder and
   for the JSON witness; the peak resident memory of the check, against one table's raw bytes
-  (target < 1.5x; it includes the interpreter and numpy, about 40 MB).
+  (target < 1.5x; it includes the interpreter and numpy, about 40 MB);
+* the Dask engine's local overhead: ``check F --witness W --engine dask`` (Dask's local threaded
+  scheduler, blocks of 2^16 entries) minus the plain check, against the same with the default
+  in-memory engine, in CPU and in wall seconds, for the folder witness (skipped when dask is not
+  installed, or with ``--no-dask``).
 
     python3 bench/witness.py                    # 2^20, about a minute
     python3 bench/witness.py --log2n 18 22 --repeat 1
@@ -20,6 +24,7 @@ once as JSON. Then, side by side in one run (CPU seconds, best of ``--repeat``):
 from __future__ import annotations
 
 import argparse
+import importlib.util
 import os
 import shutil
 import sys
@@ -47,6 +52,26 @@ def cpu_of_check(argv: list[str]) -> tuple[float, float]:
     _, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv])
     assert code == 0, f"check {argv} exited {code}"
     return cpu, rss
+
+
+def times_of_check(argv: list[str]) -> tuple[float, float, float]:
+    """(CPU s, wall s, peak MB) of one fresh `check` process."""
+    wall, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv])
+    assert code == 0, f"check {argv} exited {code}"
+    return cpu, wall, rss
+
+
+def dask_overhead(transcript: Path, witness: Path, repeat: int) -> str:
+    """One line: the Dask engine against the in-memory engine, both minus the plain check."""
+    best = {}
+    for name, extra in (("plain", []), ("memory", ["--witness", str(witness)]),
+                        ("dask", ["--witness", str(witness), "--engine", "dask"])):
+        runs = [times_of_check([str(transcript), *extra]) for _ in range(repeat)]
+        best[name] = (min(r[0] for r in runs), min(r[1] for r in runs), min(r[2] for r in runs))
+    (pc, pw, _), (mc, mw, _), (dc, dw, drss) = best["plain"], best["memory"], best["dask"]
+    return (f"--engine dask {dc - pc:.2f} s CPU / {dw - pw:.2f} s wall vs in-memory {mc - pc:.2f} s / "
+            f"{mw - pw:.2f} s (each minus the plain check) = {(dc - pc) / (mc - pc):.2f}x CPU, "
+            f"{(dw - pw) / (mw - pw):.2f}x wall (local threads); peak {drss:.0f} MB")
 
 
 def writing(field_name: str, mu: int, repeat: int, tmp: Path) -> tuple[float, float, float, float]:
@@ -89,6 +114,7 @@ def main() -> None:
     parser.add_argument("--log2n", nargs="+", type=int, default=[20])
     parser.add_argument("--repeat", type=int, default=2)
     parser.add_argument("--no-json", action="store_true", help="skip the JSON witness (slow at 2^22 and up)")
+    parser.add_argument("--no-dask", action="store_true", help="skip the Dask engine's overhead")
     args = parser.parse_args()
     field = field_named(args.field)
     print(f"{args.field}, combine a*b*c (degree 3); CPU seconds, best of {args.repeat}")
@@ -110,6 +136,8 @@ def main() -> None:
                       f"vs bare kernels {kernels:.2f} s = {(full - plain) / kernels:.1f}x (target <= 3x); peak "
                       f"{rss:.0f} MB = {rss * 2**20 / table_raw:.2f}x one table ({table_raw / 2**20:.0f} MiB; "
                       "target < 1.5x)", flush=True)
+                if kind == "folder" and not args.no_dask and importlib.util.find_spec("dask") is not None:
+                    print(f"2^{mu} {dask_overhead(transcript, witness, args.repeat)}", flush=True)
                 if witness.is_dir():
                     shutil.rmtree(witness)
                 else:
