@@ -31,6 +31,7 @@ from typing import Any, Callable, Iterable, Iterator, Mapping
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field.field import Element, Field
 from stepper.field.spec import field_from_spec
+from stepper.transcript.namebook import NameBook
 from stepper.transcript.packed import decoder_for, unpack_elements
 from stepper.transcript.payload_rules import (
     MAX_DEGREE, MAX_NUM_VARS, MAX_SIZES, MAX_TEXT, MAX_VALUES, checked_count, checked_text, plain, short,
@@ -77,7 +78,8 @@ class Sequencer:
         self.source = source or Where()
         self.field: Field | None = None
         self.count = 0  # payloads fed
-        self.instances: list[InstanceStart] = []
+        self.current: InstanceStart | None = None  # the last instance read (earlier ones are not kept)
+        self.names = NameBook()  # the names of all instances read, by position
         self.rounds_done = 0  # rounds of the current instance
         self.awaiting_challenge = False
         self.final_seen = False
@@ -92,13 +94,12 @@ class Sequencer:
         self.stopped_at: UnknownEvent | None = None  # see stream()
         self.glue = True  # whether value/squeeze/opening are known (False for format version 1 files)
         self.defined: dict[str, int | None] = {}  # glue name -> list length (None for one element)
-        self._instance_names: set[str] = set()
         self._late: tuple[InstanceStart, tuple[str, ...]] | None = None  # final_expr names still to come
 
     # ----- position --------------------------------------------------------------
     @property
-    def current(self) -> InstanceStart | None:
-        return self.instances[-1] if self.instances else None
+    def instance_count(self) -> int:
+        return len(self.names)
 
     def where(self, round_: int | None = None) -> Where:
         cur = self.current
@@ -284,7 +285,7 @@ class Sequencer:
         return FieldDecl(self.field)
 
     def _on_schedule(self, payload: Mapping[str, Any]) -> Event:
-        if self.instances:
+        if self.current is not None:
             raise self._fail("expected the `schedule` event before the first instance")
         name = checked_text(payload.get("name"), "schedule name", self._fail)
         if not name:
@@ -308,7 +309,7 @@ class Sequencer:
 
     def _on_instance(self, payload: Mapping[str, Any]) -> Event:
         name = payload.get("name", self)  # the default name is formatted only when there is no name
-        name = f"instance {len(self.instances)}" if name is self else checked_text(name, "instance name", self._fail)
+        name = f"instance {len(self.names)}" if name is self else checked_text(name, "instance name", self._fail)
         num_vars, degree = payload.get("num_vars"), payload.get("degree")
         if num_vars.__class__ is not int or not 0 <= num_vars <= MAX_NUM_VARS:  # type: ignore[operator]
             num_vars = checked_count(num_vars, "num_vars", 0, MAX_NUM_VARS, self._fail)
@@ -330,18 +331,18 @@ class Sequencer:
             claim_expr, final_expr, eq_point = self._instance_glue(payload, name, num_vars, degree, form)
         start: Any = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
-            len(self.instances), name, num_vars, degree, claim)
+            len(self.names), name, num_vars, degree, claim)
         start.order, start.form, start.batch = order, form, self.pending_batch
         start.claim_expr, start.final_expr, start.eq_point = claim_expr, final_expr, eq_point
         start.__class__ = InstanceStart
         self.pending_batch = None
-        self.instances.append(start)
+        self.current = start
+        self.names.add(name)
         self._num_vars = num_vars
         self._index = start.index
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
-        self._instance_names.add(name)
         if final_expr is not None:
             refs = parse_cached(final_expr).references()
             late = tuple(n for n in refs.values if n not in self.defined)
@@ -398,7 +399,7 @@ class Sequencer:
 
     def _check_refs(self, expr: Expr, key: str, name: str) -> None:
         refs = expr.references()
-        earlier = self._instance_names
+        earlier = self.names
         for inst in (*refs.points, *refs.finals):
             if inst not in earlier:
                 raise self._fail(f"instance {name!r}: {key} names the instance {inst!r}, which is not an earlier "
@@ -565,13 +566,12 @@ class Sequencer:
         elif target is None:
             index = self.current.index if self.current else None
         elif isinstance(target, str):
-            matches = [s.index for s in self.instances if s.name == target]
-            if not matches:
+            index = self.names.last(target)
+            if index is None:
                 raise self._fail(f"expected a note's `instance` to name an instance seen so far, found {short(target)}")
-            index = matches[-1]
         else:
-            index = checked_count(target, "note instance", 0, max(0, len(self.instances) - 1), self._fail)
-            if not self.instances:
+            index = checked_count(target, "note instance", 0, max(0, len(self.names) - 1), self._fail)
+            if not self.names:
                 raise self._fail("expected a note's `instance` to refer to an instance seen so far")
         round_raw = payload.get("round")
         round_ = None if round_raw is None else checked_count(round_raw, "note round", 0, MAX_NUM_VARS, self._fail)

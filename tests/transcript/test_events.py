@@ -433,3 +433,19 @@ def test_to_payload_inverts_feed_for_the_glue(binary):
         again.feed(spec)
         for record in records:
             assert again.feed(to_payload(record, field_ext, binary=binary, packed=binary)) == record
+
+
+def test_a_note_names_an_instance_far_back_and_the_last_of_a_repeated_name():
+    # Reference: the instance order itself (a note on a name means its last instance so far);
+    # common practice, no source. 3000 instances push the early names out of the book's recent window.
+    seq = Sequencer()
+    seq.feed({"type": "field", "name": "goldilocks"})
+    for i in range(3000):
+        name = "harbour-pilot" if i in (5, 40) else f"sailing-{i}"
+        seq.feed({"type": "instance", "name": name, "num_vars": 0, "degree": 1, "claim": 0})
+        seq.feed({"type": "final", "value": 0})
+    assert seq.instance_count == 3000 and seq.current is not None and seq.current.index == 2999
+    assert seq.feed({"type": "note", "text": "late", "instance": "sailing-7"}).instance == 7
+    assert seq.feed({"type": "note", "text": "pilot", "instance": "harbour-pilot"}).instance == 40
+    with pytest.raises(TranscriptError, match="seen so far"):
+        seq.feed({"type": "note", "text": "none", "instance": "sailing-3000"})

@@ -25,7 +25,7 @@ from stepper.transcript.events import MAX_TEXT
 from stepper.transcript.store.reader import EventStream, ReadLimits
 from stepper.transcript.store.pending import add_pending, lock_within, take_pending, unlock
 from stepper.transcript.store.writer import MAGIC, TranscriptWriter, header_bytes, oserror
-from stepper.transcript.model import Note, Transcript, fold_events
+from stepper.transcript.model import InstanceStart, Note, Transcript, fold_events
 
 __all__ = [
     "MAGIC",
@@ -103,12 +103,10 @@ def _note_payload(path: str | os.PathLike[str], note: Note, where: Where, *, rec
         if stream.kind != "transcript":
             raise TranscriptError("expected a stepper transcript to hold the note, found a JSON-lines event file "
                                   "(convert it first with `stepper import`)", where)
-        for _ in stream:
-            pass
+        instances = [record for record in stream if record.__class__ is InstanceStart]
         if stream.truncated_at is not None and not recording:
             raise TranscriptError("expected a file that ends after a whole event, found a partial event; "
                                   "refusing to append after it", where.but(offset=stream.truncated_at))
-        instances = list(stream.instances)
     if len(note.text) > MAX_TEXT:
         raise TranscriptError(f"expected a note of at most {MAX_TEXT} characters, found {len(note.text)}", where)
     payload: dict[str, Any] = {"type": "note", "text": note.text}

@@ -40,7 +40,7 @@ from stepper.transcript.condition import DIGEST_MISMATCH
 from stepper.transcript.jsonl import LineSplitter
 from stepper.transcript.store.pending import read_pending
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC, oserror
-from stepper.transcript.model import FORMAT_VERSION, GLUE_VERSION, Completeness, DigestStatus, Event, Header, InstanceStart, Note
+from stepper.transcript.model import FORMAT_VERSION, GLUE_VERSION, Completeness, DigestStatus, Event, Header, Note
 
 __all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note",
            "unpacked"]
@@ -179,9 +179,9 @@ class EventStream:
             raise
 
     @property
-    def instances(self) -> list[InstanceStart]:
-        """The instances read so far."""
-        return self._seq.instances
+    def instance_count(self) -> int:
+        """How many instances were read so far (their records are not kept: see NameBook)."""
+        return self._seq.instance_count
 
     @property
     def events(self) -> int:

@@ -171,7 +171,7 @@ class TranscriptWriter:
             raise TranscriptError("expected no events after finish(), found one", Where(file=self.path))
         field = self._seq.field
         payload = to_payload(record, field, binary=field is not None, packed=True)
-        return self.write_payload(whole_proof_note(payload, record, bool(self._seq.instances)))
+        return self.write_payload(whole_proof_note(payload, record, self._seq.current is not None))
 
     def write_payload(self, payload: Mapping[str, Any]) -> Event:
         """Validate an event payload (JSON or binary values) and append it in
@@ -189,7 +189,7 @@ class TranscriptWriter:
         field = self._seq.field
         try:
             data = self._packer.pack(whole_proof_note(to_payload(record, field, binary=True, packed=True), record,
-                                                      bool(self._seq.instances)))
+                                                      self._seq.current is not None))
         except (OverflowError, TypeError, ValueError) as err:
             # the Sequencer has already counted this event: stop here, so a wrong count is never sealed
             self._broken = (f"expected no more events after event {self._seq.count - 1}, which could not be stored "

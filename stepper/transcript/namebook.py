@@ -1,0 +1,67 @@
+"""The names of the instances read so far, in a few bytes each.
+
+A reader must answer "which instance, if any, was last called NAME?" for any
+instance seen so far (a note names its instance; a glue expression's
+``point(NAME)`` and ``final(NAME)`` must name an earlier instance), yet a
+check streams through files of 10^5 instances and more, so it cannot keep a
+record per instance. The book keeps each name as UTF-8 bytes in one buffer,
+with its end offset and its hash in two flat arrays (16 bytes plus the name),
+and the most recent names in a small dictionary: a question about a recent
+name is a dictionary look-up, one about an older name a vectorised scan of the
+hashes, confirmed against the stored bytes.
+"""
+
+from __future__ import annotations
+
+from array import array
+
+RECENT = 1024  # names answered from the dictionary; older ones by a scan of the hashes
+
+
+class NameBook:
+    """Instance names by position (0, 1, ...), with the last position of each name."""
+
+    __slots__ = ("_blob", "_ends", "_hashes", "_recent")
+
+    def __init__(self) -> None:
+        self._blob = bytearray()
+        self._ends = array("q")  # end offset in _blob of each name
+        self._hashes = array("q")  # hash() of each name (a 64-bit int on every platform Python runs on here)
+        self._recent: dict[str, int] = {}  # name -> its last position, the RECENT most recently added
+
+    def __len__(self) -> int:
+        return len(self._ends)
+
+    def add(self, name: str) -> int:
+        """Record the next instance's name; returns its position."""
+        index = len(self._ends)
+        self._blob += name.encode("utf-8", "surrogatepass")
+        self._ends.append(len(self._blob))
+        self._hashes.append(hash(name))
+        recent = self._recent
+        if recent.pop(name, None) is None and len(recent) >= RECENT:
+            del recent[next(iter(recent))]  # the least recently added name
+        recent[name] = index
+        return index
+
+    def name_at(self, index: int) -> str:
+        start = self._ends[index - 1] if index else 0
+        return self._blob[start:self._ends[index]].decode("utf-8", "surrogatepass")
+
+    def last(self, name: str) -> int | None:
+        """The last position holding ``name``, or None if no instance was so named."""
+        found = self._recent.get(name)
+        if found is not None:
+            return found
+        if not self._ends:
+            return None
+        import numpy as np
+
+        hits = np.flatnonzero(np.frombuffer(self._hashes, dtype=np.int64) == hash(name))
+        for index in hits[::-1].tolist():
+            if self.name_at(index) == name:
+                return int(index)
+        return None
+
+    def __contains__(self, name: object) -> bool:
+        return isinstance(name, str) and self.last(name) is not None

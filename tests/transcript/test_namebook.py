@@ -1,0 +1,48 @@
+"""The instance name book answers as a full list of the names would.
+
+Reference: a plain Python list of every name, searched from the end (the obvious
+implementation the book replaces; common practice, no source)."""
+
+from __future__ import annotations
+
+import random
+
+from stepper.transcript.namebook import RECENT, NameBook
+
+
+def _last_in_list(names: list[str], name: str) -> int | None:
+    for index in range(len(names) - 1, -1, -1):
+        if names[index] == name:
+            return index
+    return None
+
+
+def test_an_empty_book_knows_no_name() -> None:
+    book = NameBook()
+    assert len(book) == 0 and book.last("ferry") is None and "ferry" not in book
+
+
+def test_positions_count_up_and_names_read_back() -> None:
+    book = NameBook()
+    names = ["sailing-1", "", "quay ✓", "sailing-1", "\ud800lone"]  # repeats, empty, non-ASCII, a lone surrogate
+    assert [book.add(n) for n in names] == list(range(len(names)))
+    assert [book.name_at(i) for i in range(len(names))] == names
+    assert book.last("sailing-1") == 3 and book.last("") == 1 and book.last("\ud800lone") == 4
+
+
+def test_old_and_repeated_names_match_the_full_list_past_the_recent_window() -> None:
+    rng = random.Random(18)
+    book, names = NameBook(), []
+    for _ in range(3 * RECENT):
+        name = f"crossing-{rng.randrange(2 * RECENT)}"  # many repeats, many evicted from the window
+        names.append(name)
+        assert book.add(name) == len(names) - 1
+    for probe in [f"crossing-{i}" for i in range(2 * RECENT + 5)] + ["nowhere", names[0], names[-1]]:
+        assert book.last(probe) == _last_in_list(names, probe), probe
+        assert (probe in book) == (probe in names)
+
+
+def test_a_non_string_is_never_in_the_book() -> None:
+    book = NameBook()
+    book.add("7")
+    assert 7 not in book and None not in book
