@@ -272,9 +272,9 @@ def parse(text: str, what: str = "combine expression") -> Expr:
             text[:80],
             0,
         )
-    fast = _fast_parse(text)
+    fast = _fast_parse_refs(text)
     if fast is not None:
-        return Expr(text, fast, _references(fast))
+        return Expr(text, *fast)
     parser = _Parser(text, what)
     root = parser.expr(0)
     parser.skip_space()
@@ -294,11 +294,17 @@ _TOKEN = re.compile(r"[ \t\r\n]*(?:([0-9]+)|([A-Za-z_][A-Za-z0-9_.]*)|([^ \t\r\n
 
 
 _CALLS = frozenset(("eq", "point", "final"))
-_TEMPLATES: dict[tuple[tuple[str, str], ...], Node] = {}  # token shape (names left out) -> tree with holes
+_TEMPLATES: dict[tuple[tuple[str, str], ...], tuple[Node, References]] = {}  # token shape -> tree with holes, refs
 _MAX_TEMPLATES = 512
 
 
 def _fast_parse(text: str) -> Node | None:
+    """The tree of :func:`_fast_parse_refs` alone."""
+    fast = _fast_parse_refs(text)
+    return None if fast is None else fast[0]
+
+
+def _fast_parse_refs(text: str) -> tuple[Node, References] | None:
     """The tree of a well-formed text from one regex pass over its tokens, or None
     for anything unusual (an error, a deep nesting, a huge exponent): then the
     character parser decides and names the column. Both build the same tree.
@@ -306,15 +312,16 @@ def _fast_parse(text: str) -> Node | None:
     Texts that differ only in their names (``a7 + beta7*b7``, ``a8 + beta8*b8``: glue
     names are unique in a proof) share one template, a tree whose names are holes
     ``#0``, ``#1``, ... in the order they appear (``#`` is in no name); the tree of
-    each text is the template with its names put back."""
+    each text is the template with its names put back. So are its references,
+    found once per template (hole names in walk order) and filled the same way."""
     tokens = _TOKEN.findall(text)
     if len(tokens) > 2048:
         return None
     names = [w for _, w, _ in tokens if w and w not in _CALLS]
     key = tuple(("n", n) if n else (("w", "") if w and w not in _CALLS else ("w", w)) if w else ("o", o)
                 for n, w, o in tokens)
-    template = _TEMPLATES.get(key)
-    if template is None:
+    entry = _TEMPLATES.get(key)
+    if entry is None:
         holes = iter(range(len(names)))
         shaped = [(n, f"#{next(holes)}" if w and w not in _CALLS else w, o) for n, w, o in tokens]
         template = _parse_tokens(shaped)  # type: ignore[assignment]
@@ -322,8 +329,17 @@ def _fast_parse(text: str) -> Node | None:
             return None
         if len(_TEMPLATES) >= _MAX_TEMPLATES:
             _TEMPLATES.clear()
-        _TEMPLATES[key] = template
-    return _fill(template, names)
+        entry = _TEMPLATES[key] = (template, _references(template))
+    return _fill(entry[0], names), _fill_references(entry[1], names)
+
+
+def _fill_references(refs: References, names: list[str]) -> References:
+    """A template's references with hole ``#i`` replaced by ``names[i]``, each kept at its
+    first appearance (the template's holes are one per occurrence, so nothing was merged)."""
+    def put(found: tuple[str, ...]) -> tuple[str, ...]:
+        return tuple(dict.fromkeys([names[int(n[1:])] if n[0] == "#" else n for n in found]))
+
+    return References(put(refs.scalars), put(refs.lists), put(refs.points), put(refs.finals), refs.own_point)
 
 
 def _fill(node: Node, names: list[str]) -> Node:

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from array import array
 
-RECENT = 1024  # names answered from the dictionary; older ones by a scan of the hashes
+RECENT = 1024  # at most this many names answered from the dictionary; others by a scan of the hashes
 
 
 class NameBook:
@@ -27,7 +27,7 @@ class NameBook:
         self._blob = bytearray()
         self._ends = array("q")  # end offset in _blob of each name
         self._hashes = array("q")  # hash() of each name (a 64-bit int on every platform Python runs on here)
-        self._recent: dict[str, int] = {}  # name -> its last position, the RECENT most recently added
+        self._recent: dict[str, int] = {}  # name -> its last position, for up to RECENT recent names
 
     def __len__(self) -> int:
         return len(self._ends)
@@ -39,9 +39,9 @@ class NameBook:
         self._ends.append(len(self._blob))
         self._hashes.append(hash(name))
         recent = self._recent
-        if recent.pop(name, None) is None and len(recent) >= RECENT:
-            del recent[next(iter(recent))]  # the least recently added name
-        recent[name] = index
+        if len(recent) >= RECENT:
+            recent.clear()  # start a new window: older names are found by the scan
+        recent[name] = index  # an assignment: a name's entry, when there is one, is its last position
         return index
 
     def name_at(self, index: int) -> str:

@@ -266,6 +266,10 @@ def test_the_token_fast_path_and_the_character_parser_agree(text: str) -> None:
         except ExpressionError:
             reference = None
         assert fast is None or fast == reference
+        if fast is not None:  # the references filled from the template's are the tree's own, walked
+            from stepper.field.expr import _fast_parse_refs, _references
+
+            assert _fast_parse_refs(text)[1] == _references(fast)  # type: ignore[index]
         if reference is not None:
             assert slow == reference
     else:
