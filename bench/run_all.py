@@ -12,7 +12,7 @@ a regression or a broken bench shows in one command.
     python3 bench/run_all.py --only check_fields witness
 
 Sizes (full run): fields at 2^20; store at 10^6 rounds; check and check_fields at 10^4 instances
-x 24 rounds; rootcause at 2^22; witness at 2^20; app at 4,000 x 25; follow at 4,000 x 25;
+x 24 rounds; memory at 10^4 and 10^5 instances x 2 rounds; rootcause at 2^22; witness at 2^20; app at 4,000 x 25; follow at 4,000 x 25;
 permcheck to mu = 24 (grouped only past mu = 20: the direct prover's count is its formula there); glue at
 10^4 instances x 8 rounds.
 """
@@ -87,6 +87,12 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
         Row("peak memory of `check`, a tenth of the instances vs all", "python3 bench/check.py", "flat",
             _first(r"peak resident memory of check:\s+([\d.]+) MB for (\d+) instances, ([\d.]+) MB for (\d+)",
                    lambda m: f"{m[1]} MB ({m[2]}) -> {m[3]} MB ({m[4]})")),
+    ]),
+    "memory": ([], ["--instances", "2000", "--repeat", "1"], [
+        Row("peak memory of a plain `check`, 10^4 vs 10^5 instances x 2 rounds", "python3 bench/memory.py",
+            "<= 1.2x",
+            _all(r"^\s+(\d+) instances: ([\d.]+) MB|^ratio: ([\d.]+)",
+                 lambda ms: f"{ms[0][2]} MB ({ms[0][1]}) -> {ms[1][2]} MB ({ms[1][1]}) = {ms[2][3]}x")),
     ]),
     "check_fields": ([], ["--instances", "2000", "--repeat", "1"], [
         Row("`stepper check` vs bare decode for every named field and extension (10^4 x 24, degree 3, CPU, "
