@@ -468,6 +468,8 @@ def _whole_array(field: Field, values: list[Any]) -> np.ndarray | None:
                 return arr.astype(np.uint64)
             except (ValueError, OverflowError):
                 return None
+        if int(np.char.str_len(arr).max()) > len(str(field.p)):
+            return None  # longer than any canonical element: the parser names the entry
         return _TO_INT(arr).astype(object)  # type: ignore[no-any-return]
     if arr.dtype.kind == "O" and field.p >= 2**64:
         if not all(v.__class__ is int for v in arr.reshape(-1)[:1]):

@@ -267,3 +267,14 @@ def test_witness_instances_at_the_limit_load_and_one_past_are_refused():
     assert len(witness_from_map({"instances": [one] * MAX_INSTANCES}).instances) == MAX_INSTANCES
     with pytest.raises(WitnessError, match=f"at most {MAX_INSTANCES} witness instances, found {MAX_INSTANCES + 1}"):
         witness_from_map({"instances": [one] * (MAX_INSTANCES + 1)})
+
+
+def test_a_decimal_entry_longer_than_any_bn254_element_names_the_entry_instead_of_crashing() -> None:
+    # Python refuses int() of more than 4300 digits; found by bench/fuzz.py (corpus d5e77fc4d1289951).
+    # BN254's r as given in EIP-197 has 77 digits, so 5000 digits can never be canonical.
+    bn254 = get_field(NAMED_PRIMES["bn254"])
+    transcript, tables = _transcript(bn254)
+    raw = _map(tables)
+    raw["instances"][0]["tables"]["ledger"][2] = "9" * 5000
+    with pytest.raises(WitnessError, match=r"table 'ledger' entry 2: .*a number of 5000 digits"):
+        fit_witness(witness_from_map(raw), transcript)

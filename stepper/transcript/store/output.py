@@ -9,7 +9,7 @@ is refused unless the caller passes ``replace`` (the commands' ``--force``): the
 step links the temporary file to the name, which fails if the name appeared meanwhile,
 so a file another program created during the run is not clobbered either.
 
-A temporary file left by a killed run is named ``.NAME.XXXXXXXX.partial`` beside NAME.
+A temporary file left by a killed run is named ``.NAME.<random>.partial`` beside NAME.
 """
 
 from __future__ import annotations
