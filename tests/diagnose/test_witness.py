@@ -275,6 +275,8 @@ def test_a_decimal_entry_longer_than_any_bn254_element_names_the_entry_instead_o
     bn254 = get_field(NAMED_PRIMES["bn254"])
     transcript, tables = _transcript(bn254)
     raw = _map(tables)
-    raw["instances"][0]["tables"]["ledger"][2] = "9" * 5000
+    ledger = [str(v) for v in raw["instances"][0]["tables"]["ledger"]]  # all decimal text: read as one array
+    ledger[2] = "9" * 5000
+    raw["instances"][0]["tables"]["ledger"] = ledger
     with pytest.raises(WitnessError, match=r"table 'ledger' entry 2: .*a number of 5000 digits"):
         fit_witness(witness_from_map(raw), transcript)
