@@ -1,15 +1,7 @@
-"""The `combine` expression of a witness: parsing and evaluation.
+"""Expressions over a field: the witness `combine` and the glue of a transcript, evaluated.
 
-Grammar (ordinary arithmetic over names, integer powers, no division)::
-
-    expr   := term (("+" | "-") term)*
-    term   := unary ("*" unary)*
-    unary  := "-" unary | power
-    power  := atom ("^" INTEGER)?
-    atom   := INTEGER | NAME | NAME "[" INTEGER "]" | "(" expr ")"
-            | "eq" "(" point ")" | "eq" "(" point "," point ")" | "final" "(" NAME ")"
-    point  := NAME | "point" "(" NAME ")"
-    NAME   := [A-Za-z_][A-Za-z0-9_.]*
+The grammar, the parser and the node types live in :mod:`stepper.field.expr_syntax`
+(ordinary arithmetic over names, integer powers, no division).
 
 A witness ``combine`` uses the arithmetic only (names are tables). The glue
 expressions of a transcript (``claim_expr``, ``final_expr``) also use the rest:
@@ -39,7 +31,6 @@ and products of base by extension cost k base products, not k^2.
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass, field as dc_field
 from functools import lru_cache
 from typing import TYPE_CHECKING, Mapping, Union
@@ -47,116 +38,31 @@ from typing import TYPE_CHECKING, Mapping, Union
 import numpy as np
 
 from stepper.errors import ExpressionError
+from stepper.field.expr_syntax import (
+    MAX_EXPONENT_BITS,
+    MAX_EXPR_LENGTH,
+    Add,
+    Const,
+    Eq,
+    FinalOf,
+    Index,
+    Mul,
+    Neg,
+    Node,
+    PointOf,
+    Pow,
+    References,
+    Sub,
+    Table,
+    parse_tree,
+    references,
+)
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
 
 __all__ = ["Expr", "Const", "Table", "Neg", "Add", "Sub", "Mul", "Pow", "Index", "Eq", "PointOf", "FinalOf",
            "GlueScope", "References", "parse", "parse_cached", "MAX_EXPR_LENGTH", "MAX_EXPONENT_BITS"]
-
-MAX_EXPR_LENGTH = 4096
-MAX_EXPONENT_BITS = 256
-_MAX_DEPTH = 64
-_LEFT_DEEP = 16  # chains up to this many operands keep the plain left-to-right tree
-_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.]*")
-_SPACE = re.compile(r"[ \t\r\n]*")
-
-
-@dataclass(frozen=True, slots=True)
-class Const:
-    """An integer constant (reduced mod p when evaluated)."""
-
-    value: int
-
-
-@dataclass(frozen=True, slots=True)
-class Table:
-    """The named value: a table's multilinear extension in a combine, a named
-    element (or a list, where a point is wanted) in a glue expression."""
-
-    name: str
-
-
-@dataclass(frozen=True, slots=True)
-class Neg:
-    operand: "Node"
-
-
-@dataclass(frozen=True, slots=True)
-class Add:
-    left: "Node"
-    right: "Node"
-
-
-@dataclass(frozen=True, slots=True)
-class Sub:
-    left: "Node"
-    right: "Node"
-
-
-@dataclass(frozen=True, slots=True)
-class Mul:
-    left: "Node"
-    right: "Node"
-
-
-@dataclass(frozen=True, slots=True)
-class Pow:
-    """``base ^ exponent`` with a non-negative integer exponent."""
-
-    base: "Node"
-    exponent: int
-
-
-@dataclass(frozen=True, slots=True)
-class Index:
-    """Component ``index`` (0-based) of the list value ``name``."""
-
-    name: str
-    index: int
-
-
-@dataclass(frozen=True, slots=True)
-class PointOf:
-    """The challenge point of the earlier instance ``name`` (x_1..x_mu)."""
-
-    name: str
-
-
-@dataclass(frozen=True, slots=True)
-class FinalOf:
-    """The final value of the earlier instance ``name``."""
-
-    name: str
-
-
-@dataclass(frozen=True, slots=True)
-class Eq:
-    """eq(left, right); ``right`` None means the instance's own challenge point.
-    Each side is a :class:`Table` naming a list value or a :class:`PointOf`."""
-
-    left: Union[Table, PointOf]
-    right: Union[Table, PointOf, None] = None
-
-
-Node = Union[Const, Table, Neg, Add, Sub, Mul, Pow, Index, Eq, PointOf, FinalOf]
-
-
-@dataclass(frozen=True, slots=True)
-class References:
-    """What a glue expression needs: named values (as elements, as lists), instances
-    whose point or final it reads, and whether it uses its own instance's point."""
-
-    scalars: tuple[str, ...] = ()
-    lists: tuple[str, ...] = ()
-    points: tuple[str, ...] = ()
-    finals: tuple[str, ...] = ()
-    own_point: bool = False
-
-    @property
-    def values(self) -> tuple[str, ...]:
-        """Every named value, scalar or list, in order of first appearance."""
-        return tuple(dict.fromkeys((*self.scalars, *self.lists)))
 
 
 @dataclass(frozen=True, slots=True)
@@ -198,7 +104,7 @@ class Expr:
         """Names, points and finals the expression reads (computed once by parse)."""
         if self.refs is not None:
             return self.refs
-        return _references(self.root)
+        return references(self.root)
 
     def evaluate(self, field: Field, env: Mapping[str, np.ndarray]) -> np.ndarray:
         """The expression entry by entry over equally long table arrays; the result
@@ -220,67 +126,11 @@ class Expr:
         return self.text
 
 
-def _references(root: Node) -> References:
-    scalars: dict[str, None] = {}
-    lists: dict[str, None] = {}
-    points: dict[str, None] = {}
-    finals: dict[str, None] = {}
-    own = [False]
-
-    def side(node: object) -> None:
-        if isinstance(node, Table):
-            lists.setdefault(node.name)
-        elif isinstance(node, PointOf):
-            points.setdefault(node.name)
-
-    def walk(node: Node) -> None:
-        if isinstance(node, Table):
-            scalars.setdefault(node.name)
-        elif isinstance(node, Index):
-            lists.setdefault(node.name)
-        elif isinstance(node, FinalOf):
-            finals.setdefault(node.name)
-        elif isinstance(node, PointOf):
-            points.setdefault(node.name)
-        elif isinstance(node, Eq):
-            side(node.left)
-            if node.right is None:
-                own[0] = True
-            else:
-                side(node.right)
-        elif isinstance(node, Neg):
-            walk(node.operand)
-        elif isinstance(node, Pow):
-            walk(node.base)
-        elif isinstance(node, (Add, Sub, Mul)):
-            walk(node.left)
-            walk(node.right)
-
-    walk(root)
-    return References(tuple(scalars), tuple(lists), tuple(points), tuple(finals), own[0])
-
-
-# ----- parsing --------------------------------------------------------------------------
+# ----- parsing (the grammar is in stepper.field.expr_syntax) ------------------------------
 def parse(text: str, what: str = "combine expression") -> Expr:
-    """The tree of ``text``; raises :class:`ExpressionError` pointing at the first
+    """The expression ``text``; raises :class:`ExpressionError` pointing at the first
     character that does not fit the grammar (``what`` names the text in messages)."""
-    if not isinstance(text, str):
-        raise ExpressionError(f"expected the {what} as text, found {type(text).__name__}", "", 0)
-    if len(text) > MAX_EXPR_LENGTH:
-        raise ExpressionError(
-            f"expected a {what} of at most {MAX_EXPR_LENGTH} characters, found {len(text)}",
-            text[:80],
-            0,
-        )
-    fast = _fast_parse_refs(text)
-    if fast is not None:
-        return Expr(text, *fast)
-    parser = _Parser(text, what)
-    root = parser.expr(0)
-    parser.skip_space()
-    if parser.pos < len(text):
-        parser.fail(f"expected an operator (+, -, *, ^) or the end, found {text[parser.pos]!r}")
-    return Expr(text, root, _references(root))
+    return Expr(text, *parse_tree(text, what))
 
 
 @lru_cache(maxsize=1024)
@@ -288,404 +138,6 @@ def parse_cached(text: str, what: str = "glue expression") -> Expr:
     """:func:`parse`, remembered for the last 1024 texts (the Sequencer and the replay
     meet each glue expression once each; an error is raised again each time)."""
     return parse(text, what)
-
-
-_TOKEN = re.compile(r"[ \t\r\n]*(?:([0-9]+)|([A-Za-z_][A-Za-z0-9_.]*)|([^ \t\r\n]))")
-
-
-_CALLS = frozenset(("eq", "point", "final"))
-_TEMPLATES: dict[tuple[tuple[str, str], ...], tuple[Node, References]] = {}  # token shape -> tree with holes, refs
-_MAX_TEMPLATES = 512
-
-
-def _fast_parse(text: str) -> Node | None:
-    """The tree of :func:`_fast_parse_refs` alone."""
-    fast = _fast_parse_refs(text)
-    return None if fast is None else fast[0]
-
-
-def _fast_parse_refs(text: str) -> tuple[Node, References] | None:
-    """The tree of a well-formed text from one regex pass over its tokens, or None
-    for anything unusual (an error, a deep nesting, a huge exponent): then the
-    character parser decides and names the column. Both build the same tree.
-
-    Texts that differ only in their names (``a7 + beta7*b7``, ``a8 + beta8*b8``: glue
-    names are unique in a proof) share one template, a tree whose names are holes
-    ``#0``, ``#1``, ... in the order they appear (``#`` is in no name); the tree of
-    each text is the template with its names put back. So are its references,
-    found once per template (hole names in walk order) and filled the same way."""
-    tokens = _TOKEN.findall(text)
-    if len(tokens) > 2048:
-        return None
-    names = [w for _, w, _ in tokens if w and w not in _CALLS]
-    key = tuple(("n", n) if n else (("w", "") if w and w not in _CALLS else ("w", w)) if w else ("o", o)
-                for n, w, o in tokens)
-    entry = _TEMPLATES.get(key)
-    if entry is None:
-        holes = iter(range(len(names)))
-        shaped = [(n, f"#{next(holes)}" if w and w not in _CALLS else w, o) for n, w, o in tokens]
-        template = _parse_tokens(shaped)  # type: ignore[assignment]
-        if template is None:
-            return None
-        if len(_TEMPLATES) >= _MAX_TEMPLATES:
-            _TEMPLATES.clear()
-        entry = _TEMPLATES[key] = (template, _references(template))
-    return _fill(entry[0], names), _fill_references(entry[1], names)
-
-
-def _fill_references(refs: References, names: list[str]) -> References:
-    """A template's references with hole ``#i`` replaced by ``names[i]``, each kept at its
-    first appearance (the template's holes are one per occurrence, so nothing was merged)."""
-    def put(found: tuple[str, ...]) -> tuple[str, ...]:
-        return tuple(dict.fromkeys([names[int(n[1:])] if n[0] == "#" else n for n in found]))
-
-    return References(put(refs.scalars), put(refs.lists), put(refs.points), put(refs.finals), refs.own_point)
-
-
-def _fill(node: Node, names: list[str]) -> Node:
-    """The template ``node`` with hole ``#i`` replaced by ``names[i]`` (a call word used
-    as a name, ``eq``, ``point`` or ``final``, stays in the template as itself)."""
-    if isinstance(node, Const):
-        return node
-    if isinstance(node, Table):
-        return Table(names[int(node.name[1:])]) if node.name[0] == "#" else node
-    if isinstance(node, Index):
-        return Index(names[int(node.name[1:])], node.index) if node.name[0] == "#" else node
-    if isinstance(node, PointOf):
-        return PointOf(names[int(node.name[1:])]) if node.name[0] == "#" else node
-    if isinstance(node, FinalOf):
-        return FinalOf(names[int(node.name[1:])]) if node.name[0] == "#" else node
-    if isinstance(node, Eq):
-        left = _fill(node.left, names)
-        right = None if node.right is None else _fill(node.right, names)
-        return Eq(left, right)  # type: ignore[arg-type]  # a side is a Table or PointOf, filled as one
-    if isinstance(node, Neg):
-        return Neg(_fill(node.operand, names))
-    if isinstance(node, Pow):
-        return Pow(_fill(node.base, names), node.exponent)
-    if isinstance(node, Add):
-        return Add(_fill(node.left, names), _fill(node.right, names))
-    if isinstance(node, Sub):
-        return Sub(_fill(node.left, names), _fill(node.right, names))
-    return Mul(_fill(node.left, names), _fill(node.right, names))
-
-
-def _parse_tokens(tokens: list[tuple[str, str, str]]) -> Node | None:
-    """The recursive descent of :func:`_fast_parse` over (number, name, other) tokens."""
-    kinds: list[str] = []
-    values: list[str] = []
-    for number, name, other in tokens:
-        if number:
-            kinds.append("n")
-            values.append(number)
-        elif name:
-            kinds.append("w")
-            values.append(name)
-        else:
-            kinds.append(other)
-            values.append(other)
-    kinds.append("")
-    values.append("")
-    pos = 0
-
-    def expr(depth: int) -> Node | None:
-        nonlocal pos
-        first = term(depth)
-        if first is None:
-            return None
-        items: list[tuple[bool, Node]] = [(True, first)]
-        while kinds[pos] in ("+", "-"):
-            positive = kinds[pos] == "+"
-            pos += 1
-            nxt = term(depth)
-            if nxt is None:
-                return None
-            items.append((positive, nxt))
-        if len(items) > _LEFT_DEEP:
-            return _balanced(items, product=False)
-        node = items[0][1]
-        for positive, right in items[1:]:
-            node = Add(node, right) if positive else Sub(node, right)
-        return node
-
-    def term(depth: int) -> Node | None:
-        nonlocal pos
-        factors = [unary(depth)]
-        while kinds[pos] == "*":
-            pos += 1
-            factors.append(unary(depth))
-        if any(f is None for f in factors):
-            return None
-        if len(factors) > _LEFT_DEEP:
-            return _balanced([(True, f) for f in factors], product=True)  # type: ignore[misc]
-        node = factors[0]
-        for right in factors[1:]:
-            node = Mul(node, right)  # type: ignore[arg-type]
-        return node
-
-    def unary(depth: int) -> Node | None:
-        nonlocal pos
-        if depth > _MAX_DEPTH // 2:
-            return None
-        if kinds[pos] == "-":
-            pos += 1
-            inner = unary(depth + 1)
-            return None if inner is None else Neg(inner)
-        node = atom(depth)
-        if node is None or kinds[pos] != "^":
-            return node
-        if kinds[pos + 1] != "n" or kinds[pos + 2] == "^" or len(values[pos + 1]) > 60:
-            return None
-        exponent = int(values[pos + 1])
-        pos += 2
-        return Pow(node, exponent)
-
-    def point() -> Table | PointOf | None:
-        nonlocal pos
-        if kinds[pos] != "w":
-            return None
-        if values[pos] == "point" and kinds[pos + 1] == "(":
-            if kinds[pos + 2] != "w" or kinds[pos + 3] != ")":
-                return None
-            pos += 4
-            return PointOf(values[pos - 2])
-        if kinds[pos + 1] == "(":
-            return None
-        pos += 1
-        return Table(values[pos - 1])
-
-    def atom(depth: int) -> Node | None:
-        nonlocal pos
-        kind = kinds[pos]
-        if kind == "(":
-            pos += 1
-            node = expr(depth + 1)
-            if node is None or kinds[pos] != ")":
-                return None
-            pos += 1
-            return node
-        if kind == "n":
-            if kinds[pos + 1] == "w":
-                return None
-            pos += 1
-            return Const(int(values[pos - 1]))
-        if kind != "w":
-            return None
-        name = values[pos]
-        pos += 1
-        if kinds[pos] == "(":
-            pos += 1
-            if name == "final":
-                if kinds[pos] != "w" or kinds[pos + 1] != ")":
-                    return None
-                pos += 2
-                return FinalOf(values[pos - 2])
-            if name != "eq":
-                return None
-            left = point()
-            if left is None:
-                return None
-            right = None
-            if kinds[pos] == ",":
-                pos += 1
-                right = point()
-                if right is None:
-                    return None
-            if kinds[pos] != ")":
-                return None
-            pos += 1
-            return Eq(left, right)
-        if kinds[pos] == "[":
-            if kinds[pos + 1] != "n" or kinds[pos + 2] != "]":
-                return None
-            pos += 3
-            return Index(name, int(values[pos - 2]))
-        return Table(name)
-
-    root = expr(0)
-    if root is None or kinds[pos] != "":
-        return None
-    return root
-
-
-def _balanced(items: list[tuple[bool, Node]], product: bool) -> Node:
-    """A balanced tree over a chain of signed terms (or factors): depth log2 of the length."""
-    while len(items) > 1:
-        nxt: list[tuple[bool, Node]] = []
-        for i in range(0, len(items) - 1, 2):
-            (pa, a), (pb, b) = items[i], items[i + 1]
-            if product:
-                nxt.append((True, Mul(a, b)))
-            elif pa and pb:
-                nxt.append((True, Add(a, b)))
-            elif pa:
-                nxt.append((True, Sub(a, b)))
-            elif pb:
-                nxt.append((True, Sub(b, a)))
-            else:
-                nxt.append((False, Add(a, b)))
-        if len(items) % 2:
-            nxt.append(items[-1])
-        items = nxt
-    positive, node = items[0]
-    return node if positive else Neg(node)
-
-
-class _Parser:
-    def __init__(self, text: str, what: str) -> None:
-        self.text = text
-        self.what = what
-        self.pos = 0
-
-    def fail(self, message: str, column: int | None = None) -> None:
-        col = self.pos if column is None else column
-        raise ExpressionError(f"{message} at column {col + 1} of the {self.what}", self.text, col)
-
-    def skip_space(self) -> None:
-        self.pos = _SPACE.match(self.text, self.pos).end()  # type: ignore[union-attr]
-
-    def peek(self) -> str:
-        self.skip_space()
-        return self.text[self.pos] if self.pos < len(self.text) else ""
-
-    def expr(self, depth: int) -> Node:
-        items: list[tuple[bool, Node]] = [(True, self.term(depth))]
-        while self.peek() in ("+", "-"):
-            op = self.text[self.pos]
-            self.pos += 1
-            items.append((op == "+", self.term(depth)))
-        if len(items) > _LEFT_DEEP:
-            return _balanced(items, product=False)
-        node = items[0][1]
-        for positive, right in items[1:]:
-            node = Add(node, right) if positive else Sub(node, right)
-        return node
-
-    def term(self, depth: int) -> Node:
-        factors = [self.unary(depth)]
-        while self.peek() == "*":
-            self.pos += 1
-            if self.peek() == "*":
-                self.fail("expected a name, a number or '(' after '*' ('**' is not supported; write '^')")
-            factors.append(self.unary(depth))
-        if len(factors) > _LEFT_DEEP:
-            return _balanced([(True, f) for f in factors], product=True)
-        node = factors[0]
-        for right in factors[1:]:
-            node = Mul(node, right)
-        return node
-
-    def unary(self, depth: int) -> Node:
-        if depth > _MAX_DEPTH:
-            self.fail(f"expected at most {_MAX_DEPTH} nested parentheses, signs or calls, found more")
-        if self.peek() == "-":
-            self.pos += 1
-            return Neg(self.unary(depth + 1))
-        return self.power(depth)
-
-    def power(self, depth: int) -> Node:
-        node = self.atom(depth)
-        if self.peek() != "^":
-            return node
-        self.pos += 1
-        self.skip_space()
-        start = self.pos
-        exponent = self.integer("an integer exponent after '^'")
-        if exponent.bit_length() > MAX_EXPONENT_BITS:
-            self.fail(f"expected an exponent below 2^{MAX_EXPONENT_BITS}, found one of {exponent.bit_length()} "
-                      f"bits", start)
-        if self.peek() == "^":
-            self.fail("expected one '^' per factor (write (a^b)^c with parentheses)")
-        return Pow(node, exponent)
-
-    def integer(self, wanted: str) -> int:
-        start = self.pos
-        while self.pos < len(self.text) and self.text[self.pos].isascii() and self.text[self.pos].isdigit():
-            self.pos += 1
-        if self.pos == start:
-            found = repr(self.text[self.pos]) if self.pos < len(self.text) else "the end"
-            self.fail(f"expected {wanted}, found {found}")
-        if self.pos < len(self.text) and (self.text[self.pos].isalpha() or self.text[self.pos] == "_"):
-            self.fail(f"expected an operator after the number {self.text[start:self.pos]}, "
-                      f"found {self.text[self.pos]!r}")
-        return int(self.text[start:self.pos])
-
-    def name(self, wanted: str) -> str:
-        self.skip_space()
-        found = _NAME.match(self.text, self.pos)
-        if found is None:
-            ch = self.text[self.pos] if self.pos < len(self.text) else ""
-            self.fail(f"expected {wanted}, found {repr(ch) if ch else 'the end'}")
-            raise AssertionError("unreachable")
-        self.pos = found.end()
-        return found.group()
-
-    def expect(self, ch: str, after: str) -> None:
-        if self.peek() != ch:
-            found = repr(self.text[self.pos]) if self.pos < len(self.text) else "the end"
-            self.fail(f"expected {ch!r} {after}, found {found}")
-        self.pos += 1
-
-    def point(self) -> Union[Table, PointOf]:
-        start = self.pos
-        name = self.name("a point: a list value's name or point(NAME)")
-        if name == "point" and self.peek() == "(":
-            self.pos += 1
-            inner = self.name("an instance name inside point(...)")
-            self.expect(")", "to close point(")
-            return PointOf(inner)
-        if self.peek() == "(":
-            self.fail(f"expected a point: a list value's name or point(NAME), found a call of {name!r}", start)
-        return Table(name)
-
-    def atom(self, depth: int) -> Node:
-        ch = self.peek()
-        start = self.pos
-        if ch == "":
-            self.fail("expected a name, a number or '(', found the end of the expression")
-        if ch == "(":
-            self.pos += 1
-            node = self.expr(depth + 1)
-            if self.peek() != ")":
-                found = repr(self.text[self.pos]) if self.pos < len(self.text) else "the end"
-                self.fail(f"expected ')' to close the '(' at column {start + 1}, found {found}")
-            self.pos += 1
-            return node
-        if ch.isascii() and ch.isdigit():
-            return Const(self.integer("a number"))
-        if ch.isascii() and (ch.isalpha() or ch == "_"):
-            name = self.name("a name")
-            nxt = self.peek()
-            if nxt == "(":
-                if name not in ("eq", "point", "final"):
-                    self.fail(f"expected an operator after {name!r}, found '(' (the only calls are eq(...), "
-                              "final(...) and, inside eq, point(...))")
-                self.pos += 1
-                if name == "final":
-                    node: Node = FinalOf(self.name("an instance name inside final(...)"))  # type: ignore[no-redef]
-                elif name == "point":
-                    self.fail("expected point(NAME) only inside eq(...), where a point is wanted", start)
-                    raise AssertionError("unreachable")
-                else:
-                    left = self.point()
-                    right = None
-                    if self.peek() == ",":
-                        self.pos += 1
-                        right = self.point()
-                    node = Eq(left, right)
-                self.expect(")", f"to close the {name}( at column {start + 1}")
-                return node
-            if nxt == "[":
-                self.pos += 1
-                self.skip_space()
-                index = self.integer("a component index (0, 1, ...) inside [...]")
-                self.expect("]", f"to close the [ after {name}")
-                return Index(name, index)
-            return Table(name)
-        if ch == "/":
-            self.fail("expected +, - or *; division is not part of an expression, found '/'")
-        self.fail(f"expected a name, a number or '(', found {ch!r}")
-        raise AssertionError("unreachable")  # fail() always raises
 
 
 # ----- tree walks -----------------------------------------------------------------------

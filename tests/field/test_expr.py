@@ -252,7 +252,7 @@ def _glue_texts(draw: st.DrawFn, depth: int = 0) -> str:
 @given(text=_glue_texts())
 def test_the_token_fast_path_and_the_character_parser_agree(text: str) -> None:
     # the character parser is the reference: same tree, or the fast path steps aside (None) for it to refuse
-    from stepper.field.expr import _fast_parse, _Parser
+    from stepper.field.expr_syntax import _fast_parse, _Parser
 
     try:
         slow = _Parser(text, "test").expr(0)
@@ -267,9 +267,9 @@ def test_the_token_fast_path_and_the_character_parser_agree(text: str) -> None:
             reference = None
         assert fast is None or fast == reference
         if fast is not None:  # the references filled from the template's are the tree's own, walked
-            from stepper.field.expr import _fast_parse_refs, _references
+            from stepper.field.expr_syntax import _fast_parse_refs, references
 
-            assert _fast_parse_refs(text)[1] == _references(fast)  # type: ignore[index]
+            assert _fast_parse_refs(text)[1] == references(fast)  # type: ignore[index]
         if reference is not None:
             assert slow == reference
     else:
@@ -278,7 +278,7 @@ def test_the_token_fast_path_and_the_character_parser_agree(text: str) -> None:
 
 def test_texts_of_one_shape_with_other_names_get_their_own_names_back() -> None:
     # the token template is shared; the character parser is the reference for each text
-    from stepper.field.expr import _Parser
+    from stepper.field.expr_syntax import _Parser
 
     texts = [f"eq(tau{i}, point(leg.{i})) * (a{i}*b{i} - c{i})^2 + final(leg.{i}) - x{i}[{i}] + eq(w{i})"
              for i in range(5)] + ["eq(eq, point(point)) * (final*final - eq)^2 + final(eq) - final[0] + eq(eq)"]

@@ -7,10 +7,10 @@ from __future__ import annotations
 import pytest
 
 from stepper.errors import EXIT_INPUT, ExpressionError
-from stepper.field import expr
+from stepper.field import expr_syntax
 from stepper.field.expr import MAX_EXPONENT_BITS, MAX_EXPR_LENGTH, parse
 
-DEPTH = expr._MAX_DEPTH
+DEPTH = expr_syntax._MAX_DEPTH
 
 
 @pytest.mark.parametrize("name, at_cap, past_cap, says", [
