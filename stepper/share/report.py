@@ -13,6 +13,7 @@ proof; long field elements are shortened in tables, never in the failure.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Protocol, Sequence
 
@@ -77,8 +78,17 @@ class BucketRow:
         """What the drawn bound is, e.g. ``2^4 + 2^4 = 32 (sum of the 2 groups' bounds)``."""
         if self.bound is None:
             return "no bound declared"
-        return f"{self.bound} (sum of the {self.groups} groups' bounds)" if self.groups > 1 else \
-            f"{self.bound} (the group's bound)"
+        bound = count_text(self.bound)
+        return f"{bound} (sum of the {self.groups} groups' bounds)" if self.groups > 1 else \
+            f"{bound} (the group's bound)"
+
+
+def count_text(n: int) -> str:
+    """A count in decimal, or as a power of two once it passes 18 digits (a bound of
+    2^(2^k c) grows past what anyone reads, and past what Python will print)."""
+    if n < 10**18:
+        return str(n)
+    return f"~2^{math.log2(n):.1f}"
 
 
 @dataclass(frozen=True, slots=True)
@@ -354,7 +364,7 @@ def _text_chart(rows: Sequence[BucketRow], width: int = 40) -> list[str]:
     for r in rows:
         bar = "#" * max(1 if r.buckets else 0, round(width * r.buckets / top))
         largest = "-" if r.largest is None else str(r.largest)
-        bound = "-" if r.bound is None else str(r.bound)
+        bound = "-" if r.bound is None else count_text(r.bound)
         over = "  above the bound" if r.bound is not None and r.buckets > r.bound else ""
         lines.append(f"{r.round:>5}  {r.groups:>6}  {r.buckets:>7}  {largest:>7}  {bound:>7}  {bar}{over}")
     return lines

@@ -211,3 +211,13 @@ def test_a_failed_link_shows_expected_found_and_why():
     assert line.startswith(f"link fail: claim_expr product.v2.lo + product.c2 * (product.v2.hi - product.v2.lo) = "
                            f"{field.fmt(link.expected)}; claim {field.fmt(transcript.instances[1].start.claim)} (")
     assert link.expected != transcript.instances[1].start.claim
+
+
+def test_a_bound_too_large_to_print_is_written_as_a_power_of_two() -> None:
+    # found by bench/fuzz.py (corpus c4036d026ab96fed): a round number changed in a bucket event made
+    # the bound 2^(2^k c) too long for Python to print in decimal (exit 70 in the write-up)
+    from stepper.share.report import count_text
+
+    assert count_text(999_999_999_999_999_999) == "999999999999999999"
+    assert count_text(2**100) == "~2^100.0"
+    assert count_text(2**40000) == "~2^40000.0"  # 12,042 decimal digits: past the 4300-digit limit
