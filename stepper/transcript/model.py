@@ -291,14 +291,19 @@ class NamedValue:
     instance: int | None = None
 
     def __post_init__(self) -> None:
-        _freeze(self, "value")
-        _need(is_glue_name(self.name), "NamedValue", f"a name of {GLUE_NAME}, found {self.name!r}"[:200])
-        _need(not self.listed or isinstance(self.value, tuple), "NamedValue", "a tuple of elements when listed")
-        _need(self.instance is None or _index(self.instance), "NamedValue", "instance None or >= 0")
+        _check_named(self, "NamedValue")
 
     def items(self) -> tuple[Element, ...]:
         """The elements: the list, or the one element alone."""
         return self.value if self.listed else (self.value,)  # type: ignore[no-any-return]
+
+
+def _check_named(record: NamedValue | Squeeze, kind: str) -> None:
+    """The checks a named value and a squeeze share: an identifier name, a tuple when listed."""
+    _freeze(record, "value")
+    _need(is_glue_name(record.name), kind, f"a name of {GLUE_NAME}, found {record.name!r}"[:200])
+    _need(not record.listed or isinstance(record.value, tuple), kind, "a tuple of elements when listed")
+    _need(record.instance is None or _index(record.instance), kind, "instance None or >= 0")
 
 
 @dataclass(frozen=True, slots=True)
@@ -312,12 +317,10 @@ class Squeeze:
     instance: int | None = None
 
     def __post_init__(self) -> None:
-        _freeze(self, "value")
-        _need(is_glue_name(self.name), "Squeeze", f"a name of {GLUE_NAME}, found {self.name!r}"[:200])
-        _need(not self.listed or isinstance(self.value, tuple), "Squeeze", "a tuple of elements when listed")
-        _need(self.instance is None or _index(self.instance), "Squeeze", "instance None or >= 0")
+        _check_named(self, "Squeeze")
 
     def items(self) -> tuple[Element, ...]:
+        """The elements: the list, or the one element alone."""
         return self.value if self.listed else (self.value,)  # type: ignore[no-any-return]
 
 
