@@ -73,14 +73,41 @@ class BucketRow:
     entries: int | None
     bound: int | None
     groups: int = 1
+    bound_log2: float | None = None  # log2 of the bound; the only form kept past 2^EXACT_BOUND_LOG2
 
     def bound_words(self) -> str:
         """What the drawn bound is, e.g. ``2^4 + 2^4 = 32 (sum of the 2 groups' bounds)``."""
-        if self.bound is None:
+        if self.bound is None and self.bound_log2 is None:
             return "no bound declared"
-        bound = count_text(self.bound)
+        bound = self.bound_text()
         return f"{bound} (sum of the {self.groups} groups' bounds)" if self.groups > 1 else \
             f"{bound} (the group's bound)"
+
+
+    def bound_text(self) -> str:
+        """The bound in decimal, ``~2^x`` once too long to read, ``-`` when none was declared."""
+        if self.bound is not None:
+            return count_text(self.bound)
+        return "-" if self.bound_log2 is None else f"~2^{self.bound_log2:.1f}"
+
+    def above_bound(self) -> bool:
+        """True when the buckets in use exceed the bound (a bound kept only as its log2 is
+        past 2^1024, more than any count a file can hold)."""
+        return self.bound is not None and self.buckets > self.bound
+
+
+# Past this a bucket bound is kept as its log2 only: the reader admits bound_log2 up to
+# 2^40, and 2^(2^40) as a Python int would take 128 GiB (a fuzzed file did this).
+EXACT_BOUND_LOG2 = 1024
+
+
+def bound_sum(logs: Sequence[int]) -> tuple[int | None, float]:
+    """The sum of 2^b over ``logs``: exact when every b <= EXACT_BOUND_LOG2, and its log2."""
+    top = max(logs)
+    if top <= EXACT_BOUND_LOG2:
+        exact = sum(1 << b for b in logs)
+        return exact, math.log2(exact)
+    return None, top + math.log2(sum(2.0 ** (b - top) for b in logs if top - b < 1000))
 
 
 def count_text(n: int) -> str:
@@ -291,10 +318,10 @@ def bucket_rows(stats: Sequence[BucketStats]) -> tuple[BucketRow, ...]:
         group = by_round[number]
         sizes = [s for b in group if b.sizes is not None for s in b.sizes]
         # compare like with like: the count summed over the groups against the bounds summed over them
-        complete = all(b.bound_log2 is not None for b in group)
-        bound = sum(1 << b.bound_log2 for b in group) if complete else None  # type: ignore[misc, operator]
+        logs = [b.bound_log2 for b in group if b.bound_log2 is not None]
+        bound, bound_log2 = bound_sum(logs) if len(logs) == len(group) else (None, None)
         rows.append(BucketRow(number, sum(b.count for b in group), max(sizes) if sizes else None,
-                              sum(sizes) if sizes else None, bound, len(group)))
+                              sum(sizes) if sizes else None, bound, len(group), bound_log2))
     return tuple(rows)
 
 
@@ -364,9 +391,8 @@ def _text_chart(rows: Sequence[BucketRow], width: int = 40) -> list[str]:
     for r in rows:
         bar = "#" * max(1 if r.buckets else 0, round(width * r.buckets / top))
         largest = "-" if r.largest is None else str(r.largest)
-        bound = "-" if r.bound is None else count_text(r.bound)
-        over = "  above the bound" if r.bound is not None and r.buckets > r.bound else ""
-        lines.append(f"{r.round:>5}  {r.groups:>6}  {r.buckets:>7}  {largest:>7}  {bound:>7}  {bar}{over}")
+        over = "  above the bound" if r.above_bound() else ""
+        lines.append(f"{r.round:>5}  {r.groups:>6}  {r.buckets:>7}  {largest:>7}  {r.bound_text():>7}  {bar}{over}")
     return lines
 
 

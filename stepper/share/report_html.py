@@ -103,6 +103,11 @@ def _instance(sec: InstanceSection) -> str:
     return "\n".join(out)
 
 
+def _bound_level(row: BucketRow) -> float:
+    """log2(bound + 1) like the other levels; a bound kept only as its log2 is past 2^1024."""
+    return math.log2(row.bound + 1) if row.bound is not None else float(row.bound_log2 or 0.0)
+
+
 def bucket_chart(rows: Sequence[BucketRow], name: str, width: int = 640, height: int = 220) -> str:
     """Inline SVG: log2(buckets in use) per round as bars, log2(largest bucket) as dots,
     each round's bound as a dashed mark: the sum over the round's groups of each group's
@@ -111,7 +116,7 @@ def bucket_chart(rows: Sequence[BucketRow], name: str, width: int = 640, height:
     plot_w, plot_h = width - left - right, height - top - bottom
     levels = [math.log2(r.buckets + 1) for r in rows]
     levels += [math.log2(r.largest + 1) for r in rows if r.largest is not None]
-    levels += [math.log2(r.bound + 1) for r in rows if r.bound is not None]
+    levels += [_bound_level(r) for r in rows if r.bound_log2 is not None]
     ceiling = max(1.0, math.ceil(max(levels, default=1.0)))
     step = plot_w / max(1, len(rows))
 
@@ -141,8 +146,8 @@ def bucket_chart(rows: Sequence[BucketRow], name: str, width: int = 640, height:
                 f"<title>round {r.round}: largest bucket {r.largest}</title></circle>"
             )
         out.append(f'<text x="{x + step / 2:.1f}" y="{height - 12}" text-anchor="middle">{r.round}</text>')
-        if r.bound is not None:
-            yb = y(math.log2(r.bound + 1))
+        if r.bound_log2 is not None:
+            yb = y(_bound_level(r))
             out.append(f'<line x1="{x + step * 0.1:.1f}" y1="{yb:.1f}" x2="{x + step * 0.9:.1f}" y2="{yb:.1f}" '
                        f'stroke="#a8321f" stroke-dasharray="5 3"><title>round {r.round}: bound '
                        f"{escape(r.bound_words())}</title></line>")

@@ -221,3 +221,20 @@ def test_a_bound_too_large_to_print_is_written_as_a_power_of_two() -> None:
     assert count_text(999_999_999_999_999_999) == "999999999999999999"
     assert count_text(2**100) == "~2^100.0"
     assert count_text(2**40000) == "~2^40000.0"  # 12,042 decimal digits: past the 4300-digit limit
+
+
+def test_a_hostile_bound_is_kept_as_its_log2_and_never_built_as_an_integer() -> None:
+    # the reader admits bound_log2 up to 2^40; 1 << 2^40 would need 128 GiB before anything printed
+    stats = [BucketStats(0, 3, 0, 5, None, 1 << 40), BucketStats(0, 3, 1, 2, None, 1 << 40)]
+    (row,) = bucket_rows(stats)
+    assert row.bound is None and row.bound_log2 == (1 << 40) + 1.0  # 2^b + 2^b = 2^(b+1)
+    assert row.bound_words() == f"~2^{(1 << 40) + 1}.0 (sum of the 2 groups' bounds)"
+    assert not row.above_bound()
+    chart = "\n".join(_text_chart((row,)))
+    assert f"~2^{(1 << 40) + 1}.0" in chart and "above the bound" not in chart
+    assert "<line" in bucket_chart((row,), "boarding-permutation")
+
+
+def test_a_small_bound_stays_exact_beside_its_log2() -> None:
+    (row,) = bucket_rows([BucketStats(0, 1, 0, 9, None, 3)])
+    assert (row.bound, row.bound_log2, row.above_bound(), row.bound_text()) == (8, 3.0, True, "8")
