@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Callable, Sequence
 
+from stepper.field.display import elide
+
 if TYPE_CHECKING:
     from stepper.transcript.model import Note
     from stepper.verify.verdict import InstanceSummary, Report
@@ -47,7 +49,8 @@ def _row(s: InstanceSummary, colour: bool) -> str:
 
 
 def _clip(text: str, width: int) -> str:
-    return text if len(text) <= width else text[:width - 3] + "..."
+    """A visibly shortened value (head…tail[length]), never a cut that reads as whole."""
+    return elide(text, width)
 
 
 def _glue_lines(s: InstanceSummary, fmt: Callable[[object], str | None], colour: bool) -> list[str]:
@@ -58,8 +61,8 @@ def _glue_lines(s: InstanceSummary, fmt: Callable[[object], str | None], colour:
             continue
         word = "ok  " if g.status == "pass" else _paint("FAIL", "red", colour)
         what = "claim" if g.check == "link" else "reduced claim"
-        lines.append(f"        {g.check:<10} {word} {_clip(g.expr, 44)}")
-        lines.append(f"          = {_clip(fmt(g.expected) or '', 30)}; {what} {_clip(fmt(g.found) or '', 30)}")
+        lines.append(f"        {g.check:<10} {word} {_clip(g.expr, 56)}")
+        lines.append(f"          = {_clip(fmt(g.expected) or '', 26)}; {what} {_clip(fmt(g.found) or '', 26)}")
     for o in s.openings[:6]:
         table = "" if o.table == o.name else f" (table {_clip(o.table, 16)})"
         lines.append(f"        opening    {_clip(o.name, 20)}{table} = {_clip(fmt(o.value) or '', 30)}")
@@ -97,6 +100,8 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
                       for r in summary.rounds]
             if summary.final is not None:
                 lines.append(f"          final: {summary.final.explanation}")
+    if any("…" in line for line in lines):
+        lines.append("  (… marks a shortened value, [n] its full length; --json has every value whole)")
     hidden = report.instance_count - len(shown)
     if hidden > 0:
         counts = ", ".join(f"{n} {k}" for k, n in report.counts.items() if n)

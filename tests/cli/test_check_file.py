@@ -4,6 +4,7 @@ more only then). Which probe must answer follows from the fault each reference p
 from __future__ import annotations
 
 import json
+import re
 
 import pytest
 
@@ -42,3 +43,18 @@ def test_honest_and_non_glue_failures_carry_no_glue_findings(tmp_path, capsys):
     assert code == 0 and "glue_findings" not in json.loads(out)
     code, out = _check(tmp_path, capsys, "--kind", "zerocheck", "--fault", "montgomery@2")
     assert code == 1 and "glue_findings" not in json.loads(out)
+
+
+def test_wide_glue_values_are_shortened_visibly_within_80_columns(tmp_path, capsys):
+    # BN254 elements have 76-77 digits: each glue line shows head…tail[length], never a silent cut
+    code, out = _check(tmp_path, capsys, "--kind", "gkr-product", "--field", "bn254", "--fault",
+                       "stale-coefficient", "--fault-instance", "1", json_out=False)
+    assert code == 1
+    glue = [line for line in out.splitlines() if line.lstrip().startswith(("evaluation", "link", "opening", "= "))]
+    assert glue and all(len(line) <= 80 for line in glue)
+    values = [line for line in glue if line.lstrip().startswith(("opening", "= "))]
+    assert all(re.search(r"\d…\d+\[7\d\]", line) for line in values)
+    assert "  (… marks a shortened value, [n] its full length; --json has every value whole)" in out
+    link = json.loads(_check(tmp_path, capsys, "--kind", "gkr-product", "--field", "bn254", "--fault",
+                             "stale-coefficient", "--fault-instance", "1")[1])["instances"][1]["link"]
+    assert len(str(link["expected"])) >= 70 and "…" not in str(link["expected"])
