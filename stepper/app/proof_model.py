@@ -9,9 +9,12 @@ value search, and the detail of one round. It never decides on its own whether
 a check passed: every status word comes from the replay.
 
 Invariants: a position is ``(instance, round)`` with the instance 0-based and
-the round 1-based; ``InstanceView.rounds[k - 1]`` is round k as sent and
-``results[k - 1]`` the replay's latest result for it (``None`` until there is
-one); ``failures`` lists failing positions in proof order without repeats.
+the round 1-based, or round 0 for an instance whose claim is linked to earlier
+glue (its ``link`` row, see :mod:`stepper.app.glue_model`);
+``InstanceView.rounds[k - 1]`` is round k as sent and ``results[k - 1]`` the
+replay's latest result for it (``None`` until there is one); ``failures`` lists
+failing positions in proof order without repeats, ``failure_checks`` the checks
+that failed at each, in the order they failed.
 """
 
 from __future__ import annotations
@@ -20,7 +23,10 @@ from bisect import bisect_left, bisect_right, insort
 from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Mapping
 
-from stepper.field.display import elide
+from stepper.app.glue_model import GLUE_KINDS, GlueTrail
+from stepper.app.round_rows import (
+    STATUS_MARKS, RoundRow, StatusMark, instance_rows, mark_of, shorten, strip_line, verdict_status,
+)
 from stepper.field.field import Element, Field
 from stepper.transcript.model import (
     BatchDecl,
@@ -39,61 +45,10 @@ from stepper.transcript.model import (
     fold_events,
 )
 
-__all__ = ["Position", "StatusMark", "STATUS_MARKS", "verdict_status", "InstanceView", "ProofModel", "RoundRow", "mark_of", "shorten"]
+__all__ = ["Position", "StatusMark", "STATUS_MARKS", "verdict_status", "InstanceView", "ProofModel", "RoundRow",
+           "mark_of", "shorten"]
 
 Position = tuple[int, int]
-
-
-@dataclass(frozen=True, slots=True)
-class StatusMark:
-    """How a status reads on screen: a word, a symbol of its own shape, a style class."""
-
-    word: str
-    symbol: str
-    tone: str
-
-
-# Shapes differ as well as colours, so a status never rests on colour alone.
-STATUS_MARKS: dict[str, StatusMark] = {
-    "pass": StatusMark("pass", "■", "good"),
-    "fail": StatusMark("fail", "✕", "bad"),
-    "pending": StatusMark("pending", "◌", "wait"),
-    "unchecked": StatusMark("unchecked", "?", "unchecked"),
-}
-
-
-def verdict_status(verdict: str) -> str:
-    """The round status a proof verdict reads as (accept: pass, reject: fail, else incomplete)."""
-    return {"accept": "pass", "reject": "fail", "unusable": "fail"}.get(verdict, "pending")
-
-
-def mark_of(status: str | None) -> StatusMark:
-    return STATUS_MARKS.get(status or "unchecked", STATUS_MARKS["unchecked"])
-
-
-def shorten(text: str, width: int) -> str:
-    """``text`` visibly shortened to about ``width`` (:func:`stepper.field.display.elide`)."""
-    return elide(text, width)
-
-
-@dataclass(frozen=True, slots=True)
-class RoundRow:
-    """One line of an instance's round table, every cell already text."""
-
-    round: int
-    claim_in: str
-    sum01: str
-    degree: str
-    challenge: str
-    claim_out: str
-    status: str
-    symbol: str
-    tone: str
-
-    def cells(self) -> tuple[str, ...]:
-        """Round, status (word and symbol), then the values: the status never scrolls away."""
-        return (str(self.round), f"{self.symbol} {self.status}", self.claim_in, self.sum01, self.degree,
-                self.challenge, self.claim_out)
 
 
 @dataclass(slots=True)
@@ -110,6 +65,7 @@ class InstanceView:
     final_value: Element | None = None
     final_result: Any = None
     batch_result: Any = None
+    glue_failed: bool = False  # a link, evaluation or squeeze of this instance failed
     version: int = 0  # bumps whenever anything shown for this instance changes
 
     @property
@@ -125,7 +81,7 @@ class InstanceView:
     def worst(self) -> str:
         """``fail`` if any check of the instance failed, else ``pending`` while rounds are
         missing or unchecked, else ``pass``."""
-        if self.failed_final() or self.failed_batch() or any(
+        if self.glue_failed or self.failed_final() or self.failed_batch() or any(
             r is not None and r.status == "fail" for r in self.results
         ):
             return "fail"
@@ -152,7 +108,8 @@ class ProofModel:
         self.proof_notes: list[Note] = []
         self.unknown: list[UnknownEvent] = []
         self.failures: list[Position] = []
-        self._failure_set: set[Position] = set()
+        self.failure_checks: dict[Position, list[str]] = {}
+        self.glue = GlueTrail()
         self.completeness = "incomplete"
         self.digest = "missing"
         self.kind = "transcript"  # or "events" (a JSON-lines stream)
@@ -180,6 +137,12 @@ class ProofModel:
             self.schedule = record
         elif isinstance(record, InstanceStart):
             self.instances.append(InstanceView(record))
+            self.glue.opened()
+        elif isinstance(record, GLUE_KINDS):
+            follows = record.instance if record.instance is not None and record.instance < len(self.instances) else None
+            self.glue.add(record, len(self.instances[follows].rounds) if follows is not None else 0)
+            if follows is not None:
+                self.instances[follows].version += 1
         elif isinstance(record, RoundMsg):
             view = self.instances[record.instance]
             view.version += 1
@@ -250,20 +213,37 @@ class ProofModel:
                 view.results.append(None)
             view.results[number - 1] = result
             if result.status == "fail":
-                self._note_failure((index, number))
+                self._note_failure((index, number), str(result.check))
         elif kind == "FinalResult":
             view.final_result = result
             if result.status == "fail":
-                self._note_failure((index, max(1, len(view.rounds))))
+                self._note_failure((index, max(1, len(view.rounds))), "final")
         elif kind == "BatchResult":
             view.batch_result = result
             if result.status == "fail":
-                self._note_failure((index, 1))
+                self._note_failure((index, 1), "batch")
 
-    def _note_failure(self, position: Position) -> None:
-        if position not in self._failure_set:
-            self._failure_set.add(position)
+    def _note_failure(self, position: Position, check: str) -> None:
+        checks = self.failure_checks.get(position)
+        if checks is None:
+            self.failure_checks[position] = [check]
             insort(self.failures, position)
+        elif check not in checks:
+            checks.append(check)
+
+    def _settle_glue(self, report: Any) -> None:
+        """The replay's link and evaluation verdicts, and the squeezes re-derived: their
+        failures join the list (at the positions `stepper check` reports them)."""
+        failed = self.glue.settle(report)
+        failed += [(c.position, "squeeze") for c in self.glue.squeeze_checks(self.field, self._records)
+                   if c.status == "fail"]
+        for (index, number), check in failed:
+            if 0 <= index < len(self.instances):
+                view = self.instances[index]
+                if not view.glue_failed:
+                    view.glue_failed = True
+                    view.version += 1
+                self._note_failure((index, number), check)
 
     # ----- questions -------------------------------------------------------------------
     @property
@@ -277,6 +257,11 @@ class ProofModel:
         if self.swept is None:
             return None
         return sum(s.rounds_seen for s in self.swept.instances)
+
+    @property
+    def records(self) -> list[Event]:
+        """Every record fed so far, in stream order (read only)."""
+        return self._records
 
     @property
     def round_count(self) -> int:
@@ -305,6 +290,7 @@ class ProofModel:
             for result in probe.finish():
                 self._take(result)
             self._report = probe.report(self.completeness)
+        self._settle_glue(self._report)
         self._report_generation = self.generation
         return self._report
 
@@ -330,42 +316,22 @@ class ProofModel:
     def rounds_in(self, instance: int) -> int:
         return len(self.instances[instance].rounds) if 0 <= instance < len(self.instances) else 0
 
+    def first_round(self, instance: int) -> int:
+        """0 when the instance has a round-0 row (its ``link``, or a glue failure reported
+        at round 0 as `stepper check` reports it), else 1."""
+        if not 0 <= instance < len(self.instances):
+            return 1
+        linked = self.instances[instance].start.claim_expr is not None
+        return 0 if linked or (instance, 0) in self.failure_checks else 1
+
     def rows(self, instance: int, width: int = 14) -> list[RoundRow]:
         """The round table of one instance (built on demand: only the instance on screen)."""
-        view = self.instances[instance]
-        field = self.field
-        assert field is not None
-        out: list[RoundRow] = []
-        for number, msg in enumerate(view.rounds, start=1):
-            result = view.results[number - 1]
-            challenge = view.challenges[number - 1]
-            if result is None:
-                mark = mark_of(None)
-                out.append(RoundRow(number, "", "", f"{len(msg.values) - 1}/{view.start.degree}",
-                                    _cell(field, challenge, width), "", mark.word, mark.symbol, mark.tone))
-                continue
-            mark = mark_of(result.status)
-            out.append(RoundRow(
-                number,
-                _cell(field, result.claim_in, width),
-                _cell(field, result.sum01, width),
-                f"{result.degree_seen}/{result.degree_bound}",
-                _cell(field, result.challenge if result.challenge is not None else challenge, width),
-                _cell(field, result.claim_out, width),
-                mark.word,
-                mark.symbol,
-                mark.tone,
-            ))
-        return out
+        return instance_rows(self, instance, width)
 
     def strip_line(self, instance: int) -> str:
-        """One symbol per round of the instance (``·`` for rounds not yet sent), then
-        ``┆`` and the final check's symbol once a final value was checked."""
-        view = self.instances[instance]
-        symbols = [mark_of(view.status(k)).symbol for k in range(1, len(view.rounds) + 1)]
-        missing = view.start.num_vars - len(view.rounds)
-        final = "" if view.final_result is None else "┆" + mark_of(view.final_result.status).symbol
-        return "".join(symbols) + "·" * max(0, missing) + final
+        """The instance's line of the status strip (:func:`stepper.app.round_rows.strip_line`):
+        a symbol per round, ``┆`` and the final check, the link and evaluation marks."""
+        return strip_line(self, instance)
 
     # ----- moving ----------------------------------------------------------------------
     def first_failure(self) -> Position | None:
@@ -386,23 +352,38 @@ class ProofModel:
         return self.failures[at - 1] if at > 0 else self.failures[-1]
 
     def step(self, at: Position, delta: int) -> Position:
-        """``delta`` rounds forward or back across instance borders, clamped to the proof."""
+        """``delta`` rounds forward or back across instance borders (a round-0 row counts
+        as a round), clamped to the proof."""
         instance, round_ = at
         round_ += delta
-        while round_ > self.rounds_in(instance) and instance + 1 < len(self.instances):
-            round_ -= max(1, self.rounds_in(instance))
+        while round_ > max(1, self.rounds_in(instance)) and instance + 1 < len(self.instances):
+            round_ += self.first_round(instance + 1) - max(1, self.rounds_in(instance)) - 1
             instance += 1
-        while round_ < 1 and instance > 0:
+        while round_ < self.first_round(instance) and instance > 0:
+            short = self.first_round(instance) - round_
             instance -= 1
-            round_ += max(1, self.rounds_in(instance))
-        return instance, max(1, min(round_, max(1, self.rounds_in(instance))))
+            round_ = max(1, self.rounds_in(instance)) - short + 1
+        return instance, max(self.first_round(instance), min(round_, max(1, self.rounds_in(instance))))
 
-    def place(self, pos: Position) -> str:
-        """How a position reads for people: ``instance #0 'name', round 3`` (instance as in
-        the JSON, 0-based; rounds 1-based, as everywhere)."""
+    def place(self, pos: Position, named: bool = True) -> str:
+        """How a position reads for people, as `stepper check` says it: ``instance #0 'name',
+        round 3``, or ``its claim`` for round 0 (instance 0-based as in the JSON; rounds 1-based);
+        without ``named``, the round part alone."""
         instance, number = pos
         name = self.instances[instance].name if 0 <= instance < len(self.instances) else "?"
-        return f"instance #{instance} {name!r}, round {number}"
+        where = "its claim" if number == 0 else f"round {number}"
+        return f"instance #{instance} {name!r}, {where}" if named else where
+
+    def failure_words(self, pos: Position, named: bool = True) -> str:
+        """A failure named as `stepper check` names it: place, then ``check NAME`` (several
+        checks failed at one place are joined by ``, then``)."""
+        checks = self.failure_checks.get(pos, [])
+        return self.place(pos, named) + (", check " + ", then ".join(checks) if checks else "")
+
+    def first_failure_of(self, instance: int) -> Position | None:
+        """The instance's first failed place, in proof order."""
+        at = bisect_left(self.failures, (instance, -1))
+        return self.failures[at] if at < len(self.failures) and self.failures[at][0] == instance else None
 
     def notes_at(self, pos: Position) -> list[Note]:
         view = self.instances[pos[0]]
@@ -412,8 +393,6 @@ class ProofModel:
         return self.header.metadata
 
 
-_CHECKED = (FieldDecl, ScheduleDecl, BatchDecl, InstanceStart, RoundMsg, ChallengeMsg, FinalValue)
-
-
-def _cell(field: Field, value: Element | None, width: int) -> str:
-    return "" if value is None else shorten(field.fmt(value), width)
+# Values, squeezes and openings go to the replay too: the schedule absorbs them, and the
+# link and evaluation checks read them.
+_CHECKED = (FieldDecl, ScheduleDecl, BatchDecl, InstanceStart, RoundMsg, ChallengeMsg, FinalValue, *GLUE_KINDS)

@@ -52,6 +52,10 @@ class ProofHost(Protocol):
     def export_path(self, suffix: str, position: Position) -> Path: ...
 
 
+# What the strip's symbols mean (its border title, and the glue marks under it).
+STRIP_LEGEND = "instances  ■ pass ✕ fail ◌ pending ? unchecked · not sent ┆ final"
+GLUE_LEGEND = "⊢ link (claim built from earlier glue)  ⊣ evaluation (final_expr)"
+
 # The mouse, listed on the keys panel after the key map's rows.
 MOUSE = (("click", "a row of the round table, or an instance's line in the strip"),)
 
@@ -85,6 +89,8 @@ class ProofScreen(Screen[None]):
         self.last_message = ""
         self._ready = False
         self._shown: tuple[Position, int] | None = None  # position and instance version on screen
+        self._moved = False  # still where the view opened (then `f` goes to the first failure)
+        self._detail: list[Line] = []  # the round readout, whole (a short screen leaves out its first line)
 
     @property
     def stepper(self) -> ProofHost:
@@ -109,11 +115,11 @@ class ProofScreen(Screen[None]):
         yield KeyHint("proof")
 
     def on_mount(self) -> None:
-        self.query_one("#rounds").border_title = "rounds"
         self.query_one("#rounds").border_subtitle = escape(ELIDE_LEGEND)
         self.query_one("#detail-box").border_title = "round under check"
         self.query_one("#statement-box").border_title = "statement · final check"
-        self.query_one("#strip").border_title = "instances  ■ pass ✕ fail ◌ pending ? unchecked · not sent ┆ final"
+        self.query_one("#strip").border_title = STRIP_LEGEND
+        self.query_one("#strip").border_subtitle = GLUE_LEGEND
         self.query_one("#summary-box").border_title = "whole proof"
         self._ready = True
         self.model_changed()
@@ -139,6 +145,7 @@ class ProofScreen(Screen[None]):
             self._update_where(self.position)
 
     def watch_position(self, position: Position) -> None:
+        self._moved = True
         self._show(position)
 
     def _show(self, position: Position) -> None:
@@ -147,6 +154,9 @@ class ProofScreen(Screen[None]):
         self.query_one(StatusStrip).current = position
         lines = round_lines(self.model, position)
         lines.extend(diagnosis_lines(self.stepper.diagnosis, position))
+        self._detail = lines
+        if self.has_class("short") and lines and lines[0].label == "instance":
+            lines = lines[1:]  # a short screen has the instance in the top line: room for the round's verdict
         self.query_one("#detail", ReadoutPanel).show(lines)
         self.query_one("#statement", ReadoutPanel).show(statement_lines(self.model, instance))
         self._update_where(position)
@@ -166,7 +176,8 @@ class ProofScreen(Screen[None]):
         instance, number = position
         view = model.instances[instance]
         width = max(40, self.size.width or 80)
-        tail = f"  ·  round {number} of {view.start.num_vars}  ·  failures {len(model.failures)}"
+        link = " (link)" if number == 0 else ""
+        tail = f"  ·  round {number}{link} of {view.start.num_vars}  ·  failures {len(model.failures)}"
         extras = [f"  ·  {len(model.instances)} instances"] + (["  ·  following"] if self.stepper.follow else [])
         if model.loading:  # the progress of the first read stays in view, first of the extras to show
             total = model.rounds_total
@@ -185,7 +196,7 @@ class ProofScreen(Screen[None]):
         if not self.model.instances:
             return
         instance = min(max(position[0], 0), len(self.model.instances) - 1)
-        number = min(max(position[1], 1), max(1, self.model.rounds_in(instance)))
+        number = min(max(position[1], self.model.first_round(instance)), max(1, self.model.rounds_in(instance)))
         self.position = (instance, number)
 
     def say(self, message: str, severity: str = "information") -> None:
@@ -197,26 +208,36 @@ class ProofScreen(Screen[None]):
         self.go((message.instance, message.round))
 
     def on_status_strip_picked(self, message: StatusStrip.Picked) -> None:
-        self.go((message.instance, 1))
+        self.go((message.instance, self.model.first_round(message.instance)))
 
     # ----- actions -------------------------------------------------------------------
     def action_step(self, delta: int) -> None:
         self.go(self.model.step(self.position, delta))
 
     def action_hop(self, delta: int) -> None:
-        self.go((self.position[0] + delta, 1))
+        instance = min(max(self.position[0] + delta, 0), max(0, len(self.model.instances) - 1))
+        self.go((instance, self.model.first_round(instance)))
 
     def action_edge(self, last: int) -> None:
         instance = self.position[0]
-        self.go((instance, self.model.rounds_in(instance) if last and self.model.instances else 1))
+        self.go((instance, self.model.rounds_in(instance) if last and self.model.instances
+                 else self.model.first_round(instance)))
 
     def action_failure(self, delta: int) -> None:
-        found = (self.model.next_failure(self.position) if delta > 0
-                 else self.model.previous_failure(self.position))
+        """The next (or previous) failed check; from where the view opened, ``f`` goes to the
+        first failure, which may be a glue check at round 0 (a link)."""
+        model = self.model
+        if delta > 0 and not self._moved:
+            found = model.first_failure()
+        else:
+            found = model.next_failure(self.position) if delta > 0 else model.previous_failure(self.position)
         if found is None:
             self.say("no failed check so far")
-        else:
-            self.go(found)
+            return
+        self.go(found)
+        self._moved = True
+        order = model.failures.index(found) + 1
+        self.say(f"failure {order} of {len(model.failures)}: {model.failure_words(found)}")
 
     def action_opening(self) -> None:
         if not self.model.instances:
@@ -237,7 +258,7 @@ class ProofScreen(Screen[None]):
             return
         target = parse_round_target(answer, self.position[0])
         if target is None or not 0 <= target[0] < len(self.model.instances) or not (
-            1 <= target[1] <= max(1, self.model.rounds_in(target[0]))
+            self.model.first_round(target[0]) <= target[1] <= max(1, self.model.rounds_in(target[0]))
         ):
             self.say(f"expected a round number that exists (or #instance:round), found {answer!r}", "warning")
             return
@@ -307,7 +328,7 @@ class ProofScreen(Screen[None]):
 
     def action_copy(self) -> None:
         """Put the round's readout on the clipboard with every value whole (never a table's cut form)."""
-        text = self.query_one("#detail", ReadoutPanel).plain()
+        text = "\n".join(line.text() for line in self._detail)
         self.app.copy_to_clipboard(text)
         self.say(f"copied {self.model.place(self.position) if self.model.instances else 'the readout'} "
                  f"({len(text)} characters, values whole)")
@@ -322,6 +343,11 @@ class ProofScreen(Screen[None]):
         self.app.push_screen(HelpScreen("proof", "Keys of the proof view", MOUSE))
 
     def on_resize(self) -> None:
-        self.set_class(self.size.height < 34, "short")
+        short = self.size.height < 34
+        changed = short != self.has_class("short")
+        self.set_class(short, "short")
         if self._ready:
-            self._update_where(self.position)
+            if changed:
+                self._show(self.position)
+            else:
+                self._update_where(self.position)

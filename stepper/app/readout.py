@@ -9,9 +9,10 @@ expected/found pair and explanation sentence is quoted from the replay.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import Any
 
+from stepper.app import glue_readout
+from stepper.app.lines import Line
 from stepper.app.proof_model import Position, ProofModel, mark_of
 from stepper.field.field import Field
 from stepper.transcript.condition import file_condition, proof_condition, rounds_counted
@@ -25,18 +26,6 @@ CAUTION = (
 
 # Always on screen, under the position bar.
 SHORT_CAUTION = "A passing replay is evidence about this one run, not a soundness proof."
-
-
-@dataclass(frozen=True, slots=True)
-class Line:
-    """One labelled line; ``tone`` is one of plain, good, bad, wait, muted, note, head."""
-
-    label: str
-    value: str
-    tone: str = "plain"
-
-    def text(self) -> str:
-        return f"{self.label}: {self.value}" if self.label else self.value
 
 
 def summary_lines(model: ProofModel) -> list[Line]:
@@ -130,6 +119,7 @@ def statement_lines(model: ProofModel, index: int) -> list[Line]:
              + (f"; round {sent + 1} sent, no challenge yet" if waiting > 0 else ""),
              "plain" if sent == start.num_vars else "wait"),
     ]
+    lines.extend(glue_readout.statement_glue(model, index))
     if start.batch is not None:
         lines.append(Line("batched", f"coefficient {fmt(start.batch.coefficient)} over {len(start.batch.terms)} "
                                      "terms"))
@@ -158,7 +148,14 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
         Line("instance", f"#{index} {start.name!r}: {start.num_vars} variables, degree {start.degree}, "
                          f"{start.order}, form {start.form}", "head"),
     ]
+    if number == 0:
+        lines.extend(glue_readout.link_lines(model, index))
+        lines.extend(Line("note", note.text, "note") for note in model.notes_at(pos))
+        return lines
     if number == 1 or not view.rounds:
+        lines.extend(glue_readout.eq_lines(model, index))
+        if index == 0 and model.first_round(0) == 1:
+            lines.extend(glue_readout.head_lines(model))
         lines.append(Line("claimed sum", fmt(start.claim)))
         if start.batch is not None:
             batch = start.batch
@@ -174,6 +171,7 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
     result = view.results[number - 1]
     mark = mark_of(view.status(number))
     lines.append(Line("round", f"{number} of {start.num_vars}   {mark.symbol} {mark.word}", mark.tone))
+    lines.extend(glue_readout.failed_here(model, index, number))
     if start.form != "evals" or result is None:
         # In the plain form the values sent are g(0), g(1), ... and are listed once below.
         for i, value in enumerate(msg.values):
@@ -206,6 +204,7 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
             lines.append(Line("final value", fmt(view.final_value)))
         if view.final_result is not None:
             lines.extend(_verdict_lines("final", view.final_result, field))
+        lines.extend(glue_readout.closing_lines(model, index))
     for bucket in view.buckets:
         if bucket.round == number:
             bound = f" of 2^{bucket.bound_log2}" if bucket.bound_log2 is not None else ""
@@ -260,7 +259,7 @@ def _first_failure(report: Any) -> str | None:
     if first is None:
         return None
     fmt = report.fmt
-    round_ = "the claim" if first.round == 0 else f"round {first.round}"
+    round_ = "its claim" if first.round == 0 else f"round {first.round}"  # as `stepper check` says it
     return (f"instance #{first.instance} {first.instance_name!r}, {round_}, check {first.check}: "
             f"expected {fmt(first.expected)}, found {fmt(first.found)}")
 

@@ -1,6 +1,7 @@
 """The round table of the instance on screen: one row per round, built on demand.
 
-Only the visible instance's rows exist (at most 64, the cap on ``num_vars``),
+Only the visible instance's rows exist (at most 64, the cap on ``num_vars``, and
+a ``0 link`` row first for an instance whose claim is linked to earlier glue),
 so changing instance rebuilds a handful of rows and stepping only moves the
 cursor. A cursor move by the user (keys or mouse on the table) posts
 :class:`RoundTable.RoundChosen`; a move the app asked for through ``show`` does
@@ -65,9 +66,14 @@ class RoundTable(DataTable[object], inherit_bindings=False):
         if instance != self.instance or self._shown_version != self.model.version_of(instance):
             self._fill(instance)
         self._by_user = False
-        target = max(0, round_ - 1)
+        target = max(0, round_ - self.first)
         if self.row_count and self.cursor_row != target:
             self.move_cursor(row=target, animate=False)
+
+    @property
+    def first(self) -> int:
+        """The round of the first row: 0 when the instance has a link row, else 1."""
+        return self.model.first_round(self.instance)
 
     def _fill(self, instance: int) -> None:
         self.instance = instance
@@ -75,13 +81,19 @@ class RoundTable(DataTable[object], inherit_bindings=False):
         self.clear()
         if not 0 <= instance < len(self.model.instances):
             return
+        form = self.model.instances[instance].start.form
+        self.border_title = "rounds · eq-factored: q sent, g rebuilt" if form == "eq-factored" else "rounds"
         # the value columns share what round, status, degree, cell padding and border leave
         narrow = self.columns_shown == NARROW_COLUMNS
         width = max(8, ((self.size.width or 88) - (21 if narrow else 37)) // (2 if narrow else 5))
         rows = []
         for row in self.model.rows(instance, width):
             cells: list[object] = list(row.cells())
-            cells[1] = Text(cells[1], style=tone(row.tone))  # type: ignore[arg-type]
+            status = Text(f"{row.symbol} {row.status}", style=tone(row.tone))
+            if row.glue:
+                status.append(" ")
+                status.append(row.glue, style=tone(row.glue_tone))
+            cells[1] = status
             if narrow:
                 cells = [cells[0], cells[1], cells[3], cells[5]]
             rows.append(cells)
@@ -107,4 +119,4 @@ class RoundTable(DataTable[object], inherit_bindings=False):
         if not self._by_user:
             return  # the echo of a move the app asked for: not news
         self._by_user = False
-        self.post_message(self.RoundChosen(self.instance, event.cursor_row + 1))
+        self.post_message(self.RoundChosen(self.instance, event.cursor_row + self.first))

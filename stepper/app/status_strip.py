@@ -2,8 +2,12 @@
 
 A virtual list: only the lines on screen are drawn (``render_line``), so a proof
 of thousands of instances costs no more to paint than a proof of ten. Each
-round is one symbol of its own shape (see ``STATUS_MARKS``); the instance under
-the cursor is marked with a pointer and its current round is underlined.
+round is one symbol of its own shape (see ``STATUS_MARKS``); a linked instance
+starts with its link's symbol and ``⊢``, an instance with a final_expr ends with
+``⊣`` and its evaluation's symbol, an eq-factored one is named with ``(eq)``, and a
+failed instance ends with its first failure named as `stepper check` names it. The
+instance under the cursor is marked with a pointer and its current round (or
+link) is underlined.
 Clicking a line posts :class:`StatusStrip.Picked`.
 """
 
@@ -20,12 +24,14 @@ from textual.strip import Strip
 
 from stepper.app.palette import tone
 from stepper.app.proof_model import ProofModel, STATUS_MARKS
+from stepper.app.round_rows import EVALUATION_MARK, LINK_MARK
 
 __all__ = ["StatusStrip"]
 
-_TONE_STYLE = {name: Style.parse(tone(name)) for name in ("good", "bad", "wait", "unchecked")}
+_TONE_STYLE = {name: Style.parse(tone(name)) for name in ("good", "bad", "wait", "unchecked", "muted")}
 _SYMBOL_TONE = {mark.symbol: mark.tone for mark in STATUS_MARKS.values()}
 _SYMBOL_TONE["┆"] = "wait"
+_SYMBOL_TONE[LINK_MARK] = _SYMBOL_TONE[EVALUATION_MARK] = "muted"
 _NAME_WIDTH = 30
 
 
@@ -75,16 +81,23 @@ class StatusStrip(ScrollView, can_focus=False):
         return cached[1].crop(self.scroll_offset.x, self.scroll_offset.x + width).extend_cell_length(width)
 
     def _draw(self, index: int) -> Strip:
-        view = self.model.instances[index]
+        model = self.model
+        view = model.instances[index]
         here = index == self.current[0]
-        head = f"{'▸' if here else ' '}{index:>5} {view.name[:_NAME_WIDTH]:<{_NAME_WIDTH}} "
+        name = view.name[:_NAME_WIDTH - 5] + " (eq)" if view.start.form == "eq-factored" else view.name[:_NAME_WIDTH]
+        head = f"{'▸' if here else ' '}{index:>5} {name:<{_NAME_WIDTH}} "
         segments = [Segment(head, Style(bold=here))]
-        line = self.model.strip_line(index)
-        for number, symbol in enumerate(line, start=1):
+        line = model.strip_line(index)
+        linked = model.first_round(index) == 0
+        cursor = 0 if self.current[1] == 0 else self.current[1] - 1 + (2 if linked else 0)
+        for at, symbol in enumerate(line):
             style = _TONE_STYLE.get(_SYMBOL_TONE.get(symbol, "wait"), _TONE_STYLE["wait"])
-            if here and number == self.current[1]:
+            if here and at == cursor:
                 style = style + Style(underline=True, reverse=True)
             segments.append(Segment(symbol, style))
+        failure = model.first_failure_of(index)
+        if failure is not None:
+            segments.append(Segment(f"  ✕ {model.failure_words(failure, named=False)}", _TONE_STYLE["bad"]))
         return Strip(segments)
 
     def on_click(self, event: events.Click) -> None:
