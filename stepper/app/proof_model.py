@@ -234,9 +234,12 @@ class ProofModel:
     def _settle_glue(self, report: Any) -> None:
         """The replay's link and evaluation verdicts, and the squeezes re-derived: their
         failures join the list (at the positions `stepper check` reports them)."""
-        failed = self.glue.settle(report)
-        failed += [(c.position, "squeeze") for c in self.glue.squeeze_checks(self.field, self._records)
-                   if c.status == "fail"]
+        squeezes = [(c.position, "squeeze") for c in self.glue.squeeze_checks(self.field, self._records)
+                    if c.status == "fail"]
+        # in stream order at one place: a squeeze sent before the instance, its link; the
+        # evaluation once the openings are in, then squeezes sent after them
+        early = [s for s in squeezes if s[0][1] == 0]
+        failed = early + self.glue.settle(report) + [s for s in squeezes if s[0][1] != 0]
         for (index, number), check in failed:
             if 0 <= index < len(self.instances):
                 view = self.instances[index]

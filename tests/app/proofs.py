@@ -153,3 +153,38 @@ def write_witness(path: Path, mu: int = 4,
         entries.append({"name": name, "tables": dict(zip(names, tables)), "combine": " * ".join(names)})
     path.write_text(json.dumps({"instances": entries}))
     return path
+
+
+SHIPPED = Path(__file__).parents[2] / "transcripts" / "ferries"  # the catalogue `stepper demo` writes
+
+
+def glued_events(path: Path, kind: str, num_vars: int = 3, fault: str | None = None, fault_instance: int = 0,
+                 retouch: Callable[[list[Payload]], None] | None = None) -> Path:
+    """A reference prover's run with glue (values, squeezes, openings, claim_expr, final_expr) as a
+    JSON-lines event file, which `stepper check` and the app both read; ``retouch`` may change the
+    payloads before they are written (to send a squeeze the schedule does not derive)."""
+    import io
+    import json
+
+    from stepper.provers.channel import JsonLinesSink
+    from stepper.provers.faults import parse_fault
+    from stepper.provers.reference import ProveSpec, parse_field, prove
+
+    out = io.StringIO()
+    spec = ProveSpec(kind, num_vars, fault=parse_fault(fault, fault_instance) if fault else None)
+    prove(spec, parse_field("babybear"), JsonLinesSink(out))
+    payloads = [json.loads(line) for line in out.getvalue().splitlines()]
+    if retouch is not None:
+        retouch(payloads)
+    path.write_text("".join(json.dumps(p) + "\n" for p in payloads))
+    return path
+
+
+def bump_squeeze(nth: int) -> Callable[[list[Payload]], None]:
+    """A retouch that adds 1 to the value of the ``nth`` squeeze (0-based) as sent."""
+
+    def hook(payloads: list[Payload]) -> None:
+        squeezes = [p for p in payloads if p["type"] == "squeeze"]
+        squeezes[nth]["value"] = (int(squeezes[nth]["value"]) + 1) % P
+
+    return hook

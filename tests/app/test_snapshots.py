@@ -58,3 +58,21 @@ def test_snapshot_of_the_comparison(snap_compare, honest_file, tmp_path, size):
                              brackwater_payloads(tamper=bump_g1("boarding-permutation-grouped", 2)))
     app = fixed_app(honest_file, tmp_path, compare=other)
     assert snap_compare(app, terminal_size=size)
+
+
+def glue_app(name: str, tmp: Path) -> StepperApp:
+    from proofs import SHIPPED
+
+    app = StepperApp.from_file(SHIPPED / f"{name}.sumtr", export_dir=tmp)
+    app.model.source = f"{name}.sumtr"
+    return app
+
+
+@pytest.mark.parametrize("size", SIZES)
+def test_snapshot_of_a_broken_link_at_round_0(snap_compare, tmp_path, size):
+    assert snap_compare(glue_app("glue-broken-link", tmp_path), press=["f"], terminal_size=size)
+
+
+@pytest.mark.parametrize("size", SIZES)
+def test_snapshot_of_a_failed_evaluation_with_its_openings(snap_compare, tmp_path, size):
+    assert snap_compare(glue_app("glue-wrong-opening", tmp_path), press=["f"], terminal_size=size)

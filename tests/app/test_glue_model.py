@@ -1,0 +1,153 @@
+"""The glue between instances in the app's model (stepper/app/glue_model.py, its use in
+stepper/app/proof_model.py and the rows and strip of stepper/app/round_rows.py).
+
+The reference for every verdict is `stepper check` on the same file (contract 3 of the check
+command: `link` at round 0, `evaluation` at the instance's last round, `squeeze` where the
+replay had got to); the app must tell the same story: same instance, round and check, in the
+same words. Files: the two glue bugs of the shipped catalogue (transcripts/ferries) and small
+runs of the reference provers (tests/app/proofs.py).
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import pytest
+
+sys.path.insert(0, str(Path(__file__).parents[1]))  # the JSON contract helper
+
+from json_contracts import conforming  # noqa: E402
+from proofs import SHIPPED, bump_squeeze, glued_events  # noqa: E402
+
+from stepper.app.glue_model import SqueezeShadow  # noqa: E402
+from stepper.app.proof_model import ProofModel  # noqa: E402
+from stepper.app.round_rows import EVALUATION_MARK, LINK_MARK  # noqa: E402
+from stepper.app.source import TranscriptSource, new_model  # noqa: E402
+from stepper.cli.main import main  # noqa: E402
+
+
+def opened(path: Path) -> ProofModel:
+    model = TranscriptSource(path).open()
+    model.report()
+    return model
+
+
+def checked(path: Path, capsys: pytest.CaptureFixture[str]) -> tuple[dict, str]:
+    """`stepper check --json` and the plain text of the same file."""
+    capsys.readouterr()
+    main(["check", str(path), "--json"])
+    doc = conforming(capsys.readouterr().out, "check")
+    main(["check", str(path)])
+    return doc, capsys.readouterr().out
+
+
+def _case(name: str, kind: str, **options: object):  # a generated file, built in the test's folder
+    return pytest.param(lambda tmp: glued_events(tmp / f"{name}.jsonl", kind, **options), id=name)
+
+
+def _shipped(name: str):
+    return pytest.param(lambda tmp: SHIPPED / f"{name}.sumtr", id=name)
+
+
+SAME_STORY = [
+    _shipped("glue-wrong-opening"),  # evaluation at the deck-slot proof's last round
+    _shipped("glue-broken-link"),  # link of manifest layer 2, at its claim
+    _case("stale-coefficient", "gkr-product", fault="stale-coefficient", fault_instance=1),
+    _case("wrong-table", "zerocheck", fault="open-wrong-table"),
+    _case("drop-eq", "zerocheck-eq", fault="drop-eq@3"),
+    _case("squeeze-after-layer1", "gkr-product", retouch=bump_squeeze(1)),
+    _case("squeeze-before-layer1", "gkr-product", retouch=bump_squeeze(0)),
+]
+
+
+@pytest.mark.parametrize("make", SAME_STORY)
+def test_the_app_and_check_name_the_same_first_failure_in_the_same_words(make, tmp_path, capsys):
+    path = make(tmp_path)
+    doc, text = checked(path, capsys)
+    model = opened(path)
+    first = model.failures[0]
+    expected = doc["first_failure"]
+    assert (first[0], first[1], model.failure_checks[first][0]) == (
+        expected["instance"], expected["round"], expected["check"])
+    assert model.verdict() == doc["verdict"] == "reject"
+    assert f"REJECTED at {model.place(first)}, check {expected['check']}:" in text
+
+
+def test_every_glue_check_of_an_honest_chain_passes_with_the_replays_values(tmp_path, capsys):
+    path = SHIPPED / "ferries-fingerprint.sumtr"
+    doc, _ = checked(path, capsys)
+    model = opened(path)
+    assert model.verdict() == doc["verdict"] == "accept" and model.failures == []
+    for summary in doc["instances"]:
+        index = summary["index"]
+        link, evaluation = model.glue.link[index], model.glue.evaluation[index]
+        assert (str(link.expected), str(link.found), link.status) == (
+            summary["link"]["expected"], summary["link"]["found"], "pass")
+        assert (str(evaluation.expected), evaluation.status) == (summary["evaluation"]["expected"], "pass")
+    checks = model.glue.squeeze_checks(model.field, model.records)
+    assert [c.status for c in checks] == ["pass"] * 3
+    assert [c.derived for c in checks] == [c.record.value for c in checks]
+
+
+def test_a_squeeze_sent_wrong_shows_the_value_the_schedule_derives_which_check_expects(tmp_path, capsys):
+    path = glued_events(tmp_path / "p.jsonl", "gkr-product", retouch=bump_squeeze(1))
+    doc, _ = checked(path, capsys)
+    model = opened(path)
+    wrong = [c for c in model.glue.squeeze_checks(model.field, model.records) if c.status == "fail"]
+    assert len(wrong) == 1
+    assert (str(wrong[0].derived), str(wrong[0].record.value)) == (
+        doc["first_failure"]["expected"], doc["first_failure"]["found"])
+
+
+def test_the_squeeze_shadow_absorbs_exactly_what_the_replay_absorbs_event_by_event():
+    """Were the shadow to miss or add one absorb, every later draw would differ from the replay's."""
+    from stepper.verify.replay import Replay
+
+    model = opened(SHIPPED / "ferries-fingerprint.sumtr")
+    records = [r for r in model.records if type(r).__name__ != "Note"]
+    replay, shadow = Replay(keep_rounds=True), SqueezeShadow()
+    states = []
+    for count, record in enumerate(records, start=1):
+        replay.feed(record)
+        shadow.advance(records[:count])
+        if replay.schedule is not None:
+            states.append(replay.schedule.state_digest() == shadow.source.schedule.state_digest())
+    assert len(states) > 30 and all(states)
+
+
+def test_a_linked_instance_has_a_round_0_row_and_its_last_round_carries_the_evaluation():
+    model = opened(SHIPPED / "glue-broken-link.sumtr")
+    link = model.glue.link[1]
+    rows = model.rows(1, width=20)
+    assert rows[0].cells()[:2] == ("0 link", "✕ fail")
+    assert rows[0].claim_in == str(link.expected) and rows[0].claim_out == str(model.instances[1].start.claim)
+    assert [r.round for r in rows] == [0, 1, 2]
+    assert rows[-1].cells()[1] == f"■ pass {EVALUATION_MARK}■"
+    assert model.strip_line(1) == f"✕{LINK_MARK}✕■┆■{EVALUATION_MARK}■"
+    assert model.first_round(1) == 0
+    plain = opened(SHIPPED / "ferries-honest.sumtr")
+    assert plain.first_round(0) == 1 and plain.rows(0)[0].round == 1
+
+
+def test_stepping_counts_the_link_row_as_a_round_both_ways():
+    model = opened(SHIPPED / "glue-broken-link.sumtr")  # 1 round, then 2, then 3; each with a link row
+    assert model.step((0, 1), 1) == (1, 0)
+    assert model.step((1, 0), 1) == (1, 1)
+    assert model.step((1, 0), -1) == (0, 1)
+    assert model.step((0, 1), 4) == (2, 0)
+    assert model.step((2, 0), -4) == (0, 1)
+    assert model.step((0, 0), -1) == (0, 0)
+    assert model.step((2, 3), 1) == (2, 3)
+
+
+def test_the_evaluation_waits_for_its_openings_and_is_not_counted_as_passed(tmp_path):
+    model = opened(SHIPPED / "glue-wrong-opening.sumtr")
+    records = model.records
+    cut = next(i for i, r in enumerate(records) if type(r).__name__ == "Opening" and r.instance == 1)
+    partial = new_model()
+    partial.feed_all(records[:cut])
+    partial.finish("incomplete", "missing", final=False)
+    partial.report()
+    assert partial.strip_line(1).endswith(f"┆■{EVALUATION_MARK}◌")
+    assert partial.failures == [] and partial.verdict() == "incomplete"
