@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from textual.widgets import Input
+
 from stepper.app.app import StepperApp
 from stepper.app.ask_screen import AskScreen
 from stepper.app.buckets_screen import BucketsScreen
@@ -85,9 +87,15 @@ async def test_go_to_round_takes_n_or_instance_colon_round_and_seek_finds_a_valu
         await pilot.press("g", "escape")
         assert isinstance(app.screen, ProofScreen)
         challenge = app.model.instances[1].challenges[1]
-        await pilot.press("s", *str(challenge), "enter")
+
+        async def seek(answer: str) -> None:  # filled in at once: a key per digit would only repaint the box
+            await pilot.press("s")
+            app.screen.query_one(Input).value = answer
+            await pilot.press("enter")
+
+        await seek(str(challenge))
         assert app.proof_screen.position == (1, 2)
-        await pilot.press("s", "b", "o", "g", "u", "s", "enter")
+        await seek("bogus")
         assert "appears in no round" in app.proof_screen.last_message
 
 
