@@ -139,8 +139,7 @@ class ProofModel:
             self.instances.append(InstanceView(record))
             self.glue.opened()
         elif isinstance(record, GLUE_KINDS):
-            follows = record.instance if record.instance is not None and record.instance < len(self.instances) else None
-            self.glue.add(record, len(self.instances[follows].rounds) if follows is not None else 0)
+            follows = self.glue.add(record, self.rounds_in(record.instance if record.instance is not None else -1))
             if follows is not None:
                 self.instances[follows].version += 1
         elif isinstance(record, RoundMsg):

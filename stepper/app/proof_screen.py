@@ -176,7 +176,7 @@ class ProofScreen(Screen[None]):
         instance, number = position
         view = model.instances[instance]
         width = max(40, self.size.width or 80)
-        link = " (link)" if number == 0 else ""
+        link = "" if number else (" (link)" if view.start.claim_expr is not None else " (glue)")
         tail = f"  ·  round {number}{link} of {view.start.num_vars}  ·  failures {len(model.failures)}"
         extras = [f"  ·  {len(model.instances)} instances"] + (["  ·  following"] if self.stepper.follow else [])
         if model.loading:  # the progress of the first read stays in view, first of the extras to show

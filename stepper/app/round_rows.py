@@ -13,12 +13,12 @@ are the replay's (:mod:`stepper.app.glue_model`).
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Protocol
 
 from stepper.field.display import elide
 
 if TYPE_CHECKING:
-    from stepper.app.proof_model import ProofModel
+    from stepper.app.glue_model import GlueTrail
     from stepper.field.field import Element, Field
 
 __all__ = ["StatusMark", "STATUS_MARKS", "verdict_status", "mark_of", "shorten", "RoundRow", "instance_rows",
@@ -26,6 +26,18 @@ __all__ = ["StatusMark", "STATUS_MARKS", "verdict_status", "mark_of", "shorten",
 
 LINK_MARK = "⊢"  # after the link's symbol: the claim is built from the glue before it
 EVALUATION_MARK = "⊣"  # before the evaluation's symbol: the reduced claim meets final_expr
+
+
+class ProofModel(Protocol):
+    """What the rows read of :class:`stepper.app.proof_model.ProofModel` (which imports this module)."""
+
+    instances: list[Any]
+    glue: GlueTrail
+    failure_checks: dict[tuple[int, int], list[str]]
+    loading: bool
+    field: Field | None
+
+    def first_round(self, instance: int) -> int: ...
 
 
 @dataclass(frozen=True, slots=True)
