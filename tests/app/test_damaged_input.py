@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import json
 import subprocess
-import sys
 
 from proofs import brackwater_payloads, write_transcript
 
@@ -57,8 +56,17 @@ async def test_a_bad_event_part_way_keeps_what_came_before_and_names_the_line(tm
 
 
 def run_view(*args: str) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "stepper", "view", *args], capture_output=True, text=True,
-                          timeout=60)
+    """`stepper view ARGS` in this process with its output captured (so not a terminal), as a
+    finished process: the command's own error handling is what runs (no interpreter to start)."""
+    import contextlib
+    import io
+
+    from stepper.cli.main import main
+
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        code = main(["view", *args])
+    return subprocess.CompletedProcess(["stepper", "view", *args], code, out.getvalue(), err.getvalue())
 
 
 def test_view_of_an_unreadable_file_exits_2_with_one_line(tmp_path):
