@@ -131,18 +131,7 @@ class ProofModel:
         """Take one event record (in file order) and the replay's results for it."""
         self.events_seen += 1
         self.generation += 1
-        if isinstance(record, FieldDecl):
-            self.field = record.field
-        elif isinstance(record, ScheduleDecl):
-            self.schedule = record
-        elif isinstance(record, InstanceStart):
-            self.instances.append(InstanceView(record))
-            self.glue.opened()
-        elif isinstance(record, GLUE_KINDS):
-            follows = self.glue.add(record, self.rounds_in(record.instance if record.instance is not None else -1))
-            if follows is not None:
-                self.instances[follows].version += 1
-        elif isinstance(record, RoundMsg):
+        if isinstance(record, RoundMsg):  # rounds and challenges first: nearly every record is one
             view = self.instances[record.instance]
             view.version += 1
             view.rounds.append(record)
@@ -152,10 +141,21 @@ class ProofModel:
             view = self.instances[record.instance]
             view.challenges[record.round - 1] = record.value
             view.version += 1
+        elif isinstance(record, FieldDecl):
+            self.field = record.field
+        elif isinstance(record, ScheduleDecl):
+            self.schedule = record
+        elif isinstance(record, InstanceStart):
+            self.instances.append(InstanceView(record))
+            self.glue.opened()
         elif isinstance(record, FinalValue):
             view = self.instances[record.instance]
             view.final_value = record.value
             view.version += 1
+        elif isinstance(record, GLUE_KINDS):
+            follows = self.glue.add(record, self.rounds_in(record.instance if record.instance is not None else -1))
+            if follows is not None:
+                self.instances[follows].version += 1
         elif isinstance(record, BucketStats):
             view = self.instances[record.instance]
             view.buckets.append(record)
