@@ -3,7 +3,9 @@
 Pure (no I/O, no Textual). A round mentions a value when it appears among what
 was sent (round values, challenge, final value), what the replay computed
 (claim in, decoded evaluations, g(0)+g(1), g(r), a recovered value, the
-re-derived challenge), or the instance's claimed sum (round 1).
+re-derived challenge), or the instance's claimed sum (round 1); the glue counts
+too: a link's value at its round 0, and the openings, values and squeezes sent
+after an instance at its last round.
 A typed number matches an element equal to it (decimal or ``0x`` hex; for an
 extension element, any coefficient equal to it); typed digits also match
 inside an element's decimal text; other text matches instance names.
@@ -15,6 +17,7 @@ from bisect import bisect_right
 from typing import TYPE_CHECKING
 
 from stepper.field.field import Element, Field
+from stepper.transcript.model import Opening
 
 if TYPE_CHECKING:
     from stepper.app.proof_model import Position, ProofModel
@@ -28,7 +31,8 @@ def find_value(model: ProofModel, query: str, after: Position) -> Position | Non
     if not text or model.field is None:
         return None
     wanted = _as_number(text)
-    order = [(i, k) for i, v in enumerate(model.instances) for k in range(1, max(1, len(v.rounds)) + 1)]
+    order = [(i, k) for i, v in enumerate(model.instances)
+             for k in range(model.first_round(i), max(1, len(v.rounds)) + 1)]
     if not order:
         return None
     start = bisect_right(order, after)
@@ -55,6 +59,11 @@ def _mentions(model: ProofModel, field: Field, pos: Position, text: str, wanted:
         values.append(view.start.claim)
     if pos[1] == len(view.rounds):
         values.append(view.final_value)
+        for record in model.glue.following(pos[0]):
+            values.extend(record.items() if not isinstance(record, Opening) else (record.value,))
+    if pos[1] == 0:
+        link = model.glue.link.get(pos[0])
+        values.extend([view.start.claim, link.expected if link is not None else None])
     for value in values:
         if value is None:
             continue

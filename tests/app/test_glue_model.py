@@ -151,3 +151,11 @@ def test_the_evaluation_waits_for_its_openings_and_is_not_counted_as_passed(tmp_
     partial.report()
     assert partial.strip_line(1).endswith(f"┆■{EVALUATION_MARK}◌")
     assert partial.failures == [] and partial.verdict() == "incomplete"
+
+
+def test_seeking_a_value_finds_an_opening_on_its_instances_last_round_and_a_link_value_at_round_0():
+    from stepper.app.value_search import find_value
+
+    model = opened(SHIPPED / "glue-broken-link.sumtr")
+    assert find_value(model, "533427179", (0, 0)) == (0, 1)  # manifest.v2.hi, opened after layer 1
+    assert find_value(model, str(model.glue.link[1].expected), (0, 1)) == (1, 0)
