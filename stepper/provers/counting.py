@@ -10,18 +10,27 @@ prover strategies by their multiplications, the cost that dominates them.
 Invariants: every product a prover computes goes through this object (the
 counts are honest, never estimated); a vector call on n entries counts n;
 :meth:`phase` switches the tally bucket, :meth:`per_phase` reads it back.
+
+Big tables are worked on in blocks of :data:`BLOCK` entries (:func:`blocks`):
+each field operation then makes a temporary that stays in the cache and is
+reused by the allocator, instead of one as long as the table that the system
+must hand out page by page (at 2^24 entries that page work cost more than the
+arithmetic). Blocks change neither the values (field sums are exact) nor the
+counts (n entries in blocks still count n).
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Sequence
+from typing import TYPE_CHECKING, Iterator, Sequence
 
 import numpy as np
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
 
-__all__ = ["MulCounter"]
+__all__ = ["BLOCK", "MulCounter", "blocks", "halves"]
+
+BLOCK = 1 << 15  # entries per block: at least the compiled kernels' threshold (2^14), temporaries of 256 KB
 
 
 class MulCounter:
@@ -70,10 +79,21 @@ class MulCounter:
             acc = self.vmul(acc, f)
         return acc
 
-    def fold(self, table: np.ndarray, challenge: Element, order: str) -> np.ndarray:
-        """The table with its next variable (per ``order``) bound to ``challenge``."""
+    def fold(self, table: np.ndarray, challenge: Element, order: str, *, in_place: bool = False) -> np.ndarray:
+        """The table with its next variable (per ``order``) bound to ``challenge``; with
+        ``in_place`` the result overwrites the first half of ``table`` (a table the caller
+        owns) and is returned as a view of it."""
+        f = self.field
         lo, hi = halves(table, order)
-        return self.field.vadd(lo, self.vscale(self.field.vsub(hi, lo), challenge))
+        if len(lo) <= BLOCK and not in_place:
+            return f.vadd(lo, self.vscale(f.vsub(hi, lo), challenge))
+        # block b reads entries at or after its own output positions (2i and 2i + 1, or i and
+        # half + i), and each block is computed whole before it is written
+        out = table[: len(lo)] if in_place else np.empty(lo.shape, dtype=lo.dtype)
+        for part in blocks(len(lo)):
+            low = lo[part]
+            out[part] = f.vadd(low, self.vscale(f.vsub(hi[part], low), challenge))
+        return out
 
     def eq_table(self, point: Sequence[Element]) -> np.ndarray:
         """eq(point, b) for every b (index bit j = x_(j+1)), one product per entry made."""
@@ -87,9 +107,16 @@ class MulCounter:
     def mle(self, table: np.ndarray, point: Sequence[Element]) -> Element:
         """The multilinear extension of ``table`` at (x_1, ..., x_mu), folding x_1 first."""
         cur = self.field.vec(table) if self.field.is_extension and table.ndim == 1 else table
-        for x in point:
-            cur = self.fold(cur, x, "low-first")
+        for k, x in enumerate(point):
+            cur = self.fold(cur, x, "low-first", in_place=k > 0)  # from the second fold on, cur is ours
         return self.field.vlist(cur)[0]
+
+
+def blocks(n: int, size: int | None = None) -> Iterator[slice]:
+    """Consecutive slices of ``size`` (default :data:`BLOCK`) covering range(n)."""
+    step = size or BLOCK
+    for start in range(0, n, step):
+        yield slice(start, min(start + step, n))
 
 
 def halves(table: np.ndarray, order: str) -> tuple[np.ndarray, np.ndarray]:

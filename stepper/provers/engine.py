@@ -22,7 +22,7 @@ from typing import TYPE_CHECKING, Any, Mapping, Protocol, Sequence
 import numpy as np
 
 from stepper.field.poly import mle_eval, point_from_challenges
-from stepper.provers.counting import MulCounter, halves
+from stepper.provers.counting import MulCounter, blocks, halves
 
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
@@ -173,9 +173,23 @@ def final_point(challenges: Sequence[Element], order: str, channel: ProofChannel
 
 def round_evals(counter: MulCounter, tables: Mapping[str, np.ndarray], summand: Summand, order: str,
                 sums_first: bool = False) -> list[Element]:
-    """g(0), ..., g(d) of the next variable; ``sums_first`` multiplies per-table sums."""
+    """g(0), ..., g(d) of the next variable; ``sums_first`` multiplies per-table sums.
+    Entry pairs go in blocks (:func:`~stepper.provers.counting.blocks`); the block sums add up."""
     f = counter.field
     parts = {n: halves(tables[n], order) for n in summand.names}
+    if sums_first:
+        return _block_evals(counter, parts, summand, True)
+    totals: list[Element] | None = None
+    for part in blocks(len(next(iter(parts.values()))[0])):
+        sums = _block_evals(counter, {n: (lo[part], hi[part]) for n, (lo, hi) in parts.items()}, summand, False)
+        totals = sums if totals is None else [f.add(t, s) for t, s in zip(totals, sums)]
+    assert totals is not None  # a table has at least one pair
+    return totals
+
+
+def _block_evals(counter: MulCounter, parts: Mapping[str, tuple[np.ndarray, np.ndarray]], summand: Summand,
+                 sums_first: bool) -> list[Element]:
+    f = counter.field
     diffs = {n: f.vsub(hi, lo) for n, (lo, hi) in parts.items()}
     cur = {n: lo for n, (lo, _) in parts.items()}
     out: list[Element] = []
@@ -219,8 +233,9 @@ def run_tables(channel: ProofChannel, counter: MulCounter, name: str, tables: di
         if fault is not None and fault.hits(index, "stale-challenge", k):
             fold_by = challenges[-1]
         challenges.append(r)
-        cur = {n: counter.fold(t, fold_by, bind) for n, t in cur.items()}
+        cur = {n: counter.fold(t, fold_by, bind, in_place=k > 1) for n, t in cur.items()}  # after round 1: ours
         mults.append(counter.total - before)
+    cur = {n: t.copy() for n, t in cur.items()}  # one entry each: let the folded-in-place tables go
     counter.phase(f"{tag}/final")
     point = final_point(challenges, order, channel)
     if point == tuple(point_from_challenges(challenges, order)) and all(

@@ -34,13 +34,14 @@ from stepper.field.poly import eq_eval, eq_table, mle_eval
 from stepper.provers.bucketing import (
     MAX_MASK_BITS,
     GroupBuckets,
-    bit_tables,
-    group_buckets,
+    code_buckets,
+    codes_of_inverse,
     round_masks,
     segment_sum,
     split_groups,
     subset_sums,
 )
+from stepper.provers.counting import blocks
 from stepper.provers.engine import InstanceRun, ProductSummand, ProofRun, WitnessInstance, final_point, run_tables
 from stepper.provers.openings import send_openings
 from stepper.provers.permcheck import PermStatement, permutation_point, select_table
@@ -68,15 +69,13 @@ def direct_products(width: int, widest: int) -> int:
     return (widest + 2) * width
 
 
-def group_tables(counter: MulCounter, bits: Sequence[np.ndarray], alpha: Sequence[Element],
+def group_tables(counter: MulCounter, codes: Sequence[np.ndarray], alpha: Sequence[Element],
                  groups: Sequence[Sequence[int]]) -> list[np.ndarray]:
-    """P_j over the hypercube by look-up: 2^c products per group, none per entry."""
+    """P_j over the hypercube by look-up in the group's codes
+    (:func:`~stepper.provers.bucketing.group_codes`): 2^c products per group, none per entry."""
     field = counter.field
     out = []
-    for group in groups:
-        key = np.zeros(len(bits[0]), dtype=np.int64)
-        for pos, i in enumerate(group):
-            key |= bits[i].astype(np.int64) << pos
+    for key, group in zip(codes, groups):
         values = []
         for code in range(1 << len(group)):
             acc: Element | None = None
@@ -108,8 +107,8 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     counter.phase(f"{name}/setup")
     alpha = permutation_point(channel, statement, "permutation-point")
     claim = counter.mle(field.vec(statement.g), alpha)
-    bits = bit_tables(statement.inverse(), mu)
-    products = group_tables(counter, bits, alpha, parts)
+    codes = codes_of_inverse(statement.inverse(), parts)
+    products = group_tables(counter, codes, alpha, parts)
     tables = {"f": field.vec(statement.f), **{f"p{j + 1}": t for j, t in enumerate(products)}}
     summand = ProductSummand(tuple(tables))
     channel.value("alpha", list(alpha))  # layer 1's glue: the point, then f and the P_j opened at rho
@@ -130,19 +129,21 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     claim2 = field.zero
     for pw, v in zip(powers, terms):
         claim2 = field.add(claim2, counter.mul(pw, v))
-    run2 = prove_group_products(channel, counter, f"{name}/groups", bits, alpha, parts, rho, powers, claim2,
+    del folded  # one entry per table left; the layer-2 rounds need the memory more
+    run2 = prove_group_products(channel, counter, f"{name}/groups", codes, alpha, parts, rho, powers, claim2,
                                 switch_round=switch_round, form=form)
     kept = (WitnessInstance(name, tables, summand.combine()),
-            _layer2_witness(field, run2.name, bits, alpha, parts, rho, powers)) if witness else ()
+            _layer2_witness(field, run2.name, codes, alpha, parts, rho, powers)) if witness else ()
     return ProofRun((run1, run2), kept, counter.per_phase())
 
 
-def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, bits: Sequence[np.ndarray],
+def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, codes: Sequence[np.ndarray],
                          alpha: Sequence[Element], parts: Sequence[Sequence[int]], rho: Sequence[Element],
                          powers: Sequence[Element], claim: Element, *, switch_round: int | None = None,
                          form: str = "evals") -> InstanceRun:
-    """Layer 2: sum_y eq(rho, y) * sum_j powers[j] * prod_{i in G_j} e~_i(y) = claim.
-    Rounds before ``switch_round`` are bucketed (None: while buckets pay off)."""
+    """Layer 2: sum_y eq(rho, y) * sum_j powers[j] * prod_{i in G_j} e~_i(y) = claim, the
+    bits of sigma^-1 given as each group's codes. Rounds before ``switch_round`` are
+    bucketed (None: while buckets pay off)."""
     field = counter.field
     mu = len(rho)
     widest = max(len(g) for g in parts)
@@ -167,7 +168,7 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
         # bucket round k only while round k + 1 could still materialise the tables by look-up
         if tables is None and 2 * width <= MAX_MASK_BITS and (switch_round is None or k < switch_round):
             subset = subset_sums(field, bound_eq)
-            occupancy = [group_buckets(bits, g, k) for g in parts]
+            occupancy = [code_buckets(cj, len(g), k) for g, cj in zip(parts, codes)]
             bucket_cost = sum(o.count * bucket_products(len(g), widest) for o, g in zip(occupancy, parts))
             direct_cost = sum(half * (direct_products(len(g), widest) + len(g)) for g in parts)
             paying = switch_round is not None or bucket_cost < direct_cost
@@ -183,8 +184,8 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
                         for o, g in zip(occupancy, parts)]
         if sums is None:
             if tables is None:
-                tables = _materialise(counter, bits, bound_eq, low, slope, k)
-            sums = [_direct_sums(counter, [tables[i] for i in g], weights, degree) for g in parts]
+                tables = _materialise(counter, codes, parts, bound_eq, low, slope, k)
+            sums = _direct_sums(counter, tables, parts, weights, degree)
         rk = rho[k - 1]
         eq_x, eq_step = field.sub(one, rk), field.sub(field.add(rk, rk), one)  # eq(rho_k, X) at X = 0, 1, ...
         evals = []
@@ -198,21 +199,22 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
         challenges.append(r)
         twice = counter.mul(rk, r)
         prefix = counter.mul(prefix, field.add(field.sub(field.sub(one, rk), r), field.add(twice, twice)))
-        if tables is not None:
-            tables = [counter.fold(t, r, "low-first") for t in tables]
+        if tables is not None:  # the materialised tables are ours: fold them in place
+            tables = [counter.fold(t, r, "low-first", in_place=True) for t in tables]
         elif k < mu:
             high = counter.vscale(bound_eq, r)
             bound_eq = np.concatenate([field.vsub(bound_eq, high), high])
         if k < mu:
-            weights = field.vadd(weights[0::2], weights[1::2])
+            weights = _pair_sums(field, weights)
         round_mults.append(counter.total - before)
     counter.phase(f"{name}/final")
     point = final_point(challenges, "low-first", channel)
     if tables is not None and list(point) == challenges:  # the folded tables hold e~_i(r): no oracle needed
         bound = [field.vlist(t)[0] for t in tables]
     else:  # ask the oracle for the bits of sigma^-1 (the verifier's work, not counted)
-        bound = [field.add(low[i], field.mul(slope[i], mle_eval(field, select_table(field, b, field.zero, one),
-                                                                   point))) for i, b in enumerate(bits)]
+        bits = _bit_planes(codes, parts)
+        bound = [field.add(low[i], field.mul(slope[i], mle_eval(field, select_table(field, bits[i], field.zero, one),
+                                                                   point))) for i in range(mu)]
     final = _final_value(field, bound, parts, rho, powers, point)
     channel.final(final)
     return InstanceRun(name, claim, tuple(challenges), final, tuple(round_mults))
@@ -223,11 +225,12 @@ def _bucket_sums(counter: MulCounter, occ: GroupBuckets, group: Sequence[int], s
                  width: int) -> list[Element]:
     """S_j(0..degree) from the buckets: eq weights added per bucket, products per bucket."""
     field = counter.field
-    bucket_weight = segment_sum(field, weights, occ.inverse, occ.count)
+    bucket_weight = segment_sum(field, weights, occ.inverse(), occ.count)
     mask = np.uint64((1 << width) - 1)
     starts, steps = [], []
+    rows = occ.rows()
     for pos, i in enumerate(group):
-        row = occ.keys[:, pos]
+        row = rows[:, pos]
         a0 = field.vadd(counter.vscale(subset[(row & mask).astype(np.int64)], slope[i]), _fill(field, low[i], occ.count))
         a1 = field.vadd(counter.vscale(subset[(row >> np.uint64(width)).astype(np.int64)], slope[i]),
                         _fill(field, low[i], occ.count))
@@ -236,12 +239,31 @@ def _bucket_sums(counter: MulCounter, occ: GroupBuckets, group: Sequence[int], s
     return _point_sums(counter, starts, steps, bucket_weight, degree)
 
 
-def _direct_sums(counter: MulCounter, tables: Sequence[np.ndarray], weights: np.ndarray, degree: int) -> list[Element]:
-    """S_j(0..degree) entry by entry from the bound tables of the group's bits."""
+def _direct_sums(counter: MulCounter, tables: Sequence[np.ndarray], parts: Sequence[Sequence[int]],
+                 weights: np.ndarray, degree: int) -> list[list[Element]]:
+    """S_j(0..degree) for every group, entry by entry from the bound tables of the bits
+    (``tables[i]`` for bit i), in blocks of entry pairs whose sums add up."""
     field = counter.field
-    starts = [t[0::2] for t in tables]
-    steps = [field.vsub(t[1::2], t[0::2]) for t in tables]
-    return _point_sums(counter, starts, steps, weights, degree)
+    total: list[list[Element]] | None = None
+    for part in blocks(len(weights)):
+        sums = []
+        for group in parts:
+            starts = [tables[i][0::2][part] for i in group]
+            steps = [field.vsub(tables[i][1::2][part], s) for i, s in zip(group, starts)]
+            sums.append(_point_sums(counter, starts, steps, weights[part], degree))
+        total = sums if total is None else [[field.add(a, b) for a, b in zip(t, s)] for t, s in zip(total, sums)]
+    assert total is not None  # at least one pair remains in every round
+    return total
+
+
+def _pair_sums(field: Field, weights: np.ndarray) -> np.ndarray:
+    """E_(k+1)(z) = E_k(2z) + E_k(2z + 1), written over the first half of ``weights`` (ours):
+    block b reads entries at or after the ones it writes, and is computed before it is written."""
+    half = len(weights) // 2
+    out = weights[:half]
+    for part in blocks(half):
+        out[part] = field.vadd(weights[0::2][part], weights[1::2][part])
+    return out
 
 
 def _point_sums(counter: MulCounter, starts: list[np.ndarray], steps: list[np.ndarray], weights: np.ndarray,
@@ -256,20 +278,30 @@ def _point_sums(counter: MulCounter, starts: list[np.ndarray], steps: list[np.nd
     return out
 
 
-def _materialise(counter: MulCounter, bits: Sequence[np.ndarray], bound_eq: np.ndarray, low: Sequence[Element],
-                 slope: Sequence[Element], round_: int) -> list[np.ndarray]:
+def _materialise(counter: MulCounter, codes: Sequence[np.ndarray], parts: Sequence[Sequence[int]],
+                 bound_eq: np.ndarray, low: Sequence[Element], slope: Sequence[Element], round_: int) -> list[np.ndarray]:
     """e~_i(r_1..r_(k-1), t, z) for every bit i, indexed t + 2z, by look-up where that is cheaper."""
     field = counter.field
     subset = subset_sums(field, bound_eq)
+    bits = _bit_planes(codes, parts)
     out = []
     for i, b in enumerate(bits):
-        masks = round_masks(b, round_).reshape(-1).astype(np.int64)
+        masks = round_masks(b, round_).reshape(-1).astype(np.intp)
         if len(subset) <= len(masks):
             values = field.vadd(counter.vscale(subset, slope[i]), _fill(field, low[i], len(subset)))
             out.append(values[masks])
         else:
             out.append(field.vadd(counter.vscale(subset[masks], slope[i]), _fill(field, low[i], len(masks))))
     return out
+
+
+def _bit_planes(codes: Sequence[np.ndarray], parts: Sequence[Sequence[int]]) -> list[np.ndarray]:
+    """The bit tables s_i (uint8, 0 or 1) back out of the groups' codes, by bit index i."""
+    planes: dict[int, np.ndarray] = {}
+    for code, group in zip(codes, parts):
+        for pos, i in enumerate(group):
+            planes[i] = ((code >> code.dtype.type(pos)) & 1).astype(np.uint8)
+    return [planes[i] for i in range(len(planes))]
 
 
 def _size_summary(sizes: np.ndarray) -> dict[str, object]:
@@ -297,13 +329,13 @@ def _final_value(field: Field, bound: Sequence[Element], parts: Sequence[Sequenc
     return field.mul(eq_eval(field, rho, point), total)
 
 
-def _layer2_witness(field: Field, name: str, bits: Sequence[np.ndarray], alpha: Sequence[Element],
+def _layer2_witness(field: Field, name: str, codes: Sequence[np.ndarray], alpha: Sequence[Element],
                     parts: Sequence[Sequence[int]], rho: Sequence[Element], powers: Sequence[Element]) -> WitnessInstance:
     """Tables eq, e1..e_mu (and eq_b_j = beta^j * eq over an extension) with their `combine`."""
     one = field.one
     eq = eq_table(field, rho)
     tables: dict[str, np.ndarray] = {"eq": eq}
-    for i, b in enumerate(bits):
+    for i, b in enumerate(_bit_planes(codes, parts)):
         tables[f"e{i + 1}"] = select_table(field, b, field.sub(one, alpha[i]), alpha[i])
     inner, outer = [], []
     for j, (pw, group) in enumerate(zip(powers, parts)):
