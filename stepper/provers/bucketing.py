@@ -24,7 +24,7 @@ import numpy as np
 if TYPE_CHECKING:
     from stepper.field.field import Field
 
-__all__ = ["MAX_MASK_BITS", "GroupBuckets", "bit_tables", "group_codes", "codes_of_inverse", "round_masks",
+__all__ = ["MAX_MASK_BITS", "GroupBuckets", "bit_tables", "group_codes", "codes_of_inverse", "round_masks", "code_masks",
            "group_buckets", "code_buckets", "segment_sum", "subset_sums", "split_groups"]
 
 MAX_MASK_BITS = 16  # 2^(k-1) <= 16, i.e. bucketing up to round 5: subset-sum tables of <= 2^16 entries
@@ -132,6 +132,27 @@ def round_masks(bits: np.ndarray, round_: int) -> np.ndarray:
     for step in range(round_ - 1):
         mask = _halve(mask, 1 << step)
     return mask.astype(np.uint64).reshape(-1, 2)
+
+
+def code_masks(codes: np.ndarray, c: int, round_: int) -> list[np.ndarray]:
+    """:func:`round_masks` of each of the group's ``c`` bits, flattened (index t + 2z),
+    straight from the group's codes: halve them into keys of 2^(k-1) codes, then pick
+    each bit's 2^(k-1) bits out of the key."""
+    span = 1 << (round_ - 1)
+    if c * span > 64:
+        return [round_masks(((codes >> codes.dtype.type(pos)) & 1).astype(np.uint8), round_).reshape(-1)
+                for pos in range(c)]
+    key = codes
+    for step in range(round_ - 1):
+        key = _halve(key, c << step)
+    dtype = _code_dtype(span)
+    out = []
+    for pos in range(c):
+        mask = ((key >> key.dtype.type(pos)) & 1).astype(dtype)
+        for b in range(1, span):
+            mask |= ((key >> key.dtype.type(c * b + pos)) & 1).astype(dtype) << dtype(b)
+        out.append(mask)
+    return out
 
 
 def group_buckets(bits: Sequence[np.ndarray], group: Sequence[int], round_: int) -> GroupBuckets:

@@ -35,8 +35,8 @@ from stepper.provers.bucketing import (
     MAX_MASK_BITS,
     GroupBuckets,
     code_buckets,
+    code_masks,
     codes_of_inverse,
-    round_masks,
     segment_sum,
     split_groups,
     subset_sums,
@@ -83,7 +83,7 @@ def group_tables(counter: MulCounter, codes: Sequence[np.ndarray], alpha: Sequen
                 factor = alpha[i] if code >> pos & 1 else field.sub(field.one, alpha[i])
                 acc = factor if acc is None else counter.mul(acc, factor)
             values.append(acc)
-        out.append(field.vec(values)[key])
+        out.append(_gather(field.vec(values), key))
     return out
 
 
@@ -283,15 +283,26 @@ def _materialise(counter: MulCounter, codes: Sequence[np.ndarray], parts: Sequen
     """e~_i(r_1..r_(k-1), t, z) for every bit i, indexed t + 2z, by look-up where that is cheaper."""
     field = counter.field
     subset = subset_sums(field, bound_eq)
-    bits = _bit_planes(codes, parts)
+    masks_of: dict[int, np.ndarray] = {}
+    for code, group in zip(codes, parts):
+        masks_of.update(zip(group, code_masks(code, len(group), round_)))
     out = []
-    for i, b in enumerate(bits):
-        masks = round_masks(b, round_).reshape(-1).astype(np.intp)
+    for i in range(len(masks_of)):
+        masks = masks_of.pop(i)
         if len(subset) <= len(masks):
             values = field.vadd(counter.vscale(subset, slope[i]), _fill(field, low[i], len(subset)))
-            out.append(values[masks])
+            out.append(_gather(values, masks))
         else:
-            out.append(field.vadd(counter.vscale(subset[masks], slope[i]), _fill(field, low[i], len(masks))))
+            picked = _gather(subset, masks)
+            out.append(field.vadd(counter.vscale(picked, slope[i]), _fill(field, low[i], len(masks))))
+    return out
+
+
+def _gather(table: np.ndarray, index: np.ndarray) -> np.ndarray:
+    """table[index] for a narrow unsigned ``index``, converted to indices a block at a time."""
+    out = np.empty((len(index), *table.shape[1:]), dtype=table.dtype)
+    for part in blocks(len(index)):
+        out[part] = table[index[part].astype(np.intp)]
     return out
 
 
