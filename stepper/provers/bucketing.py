@@ -113,7 +113,10 @@ def codes_of_inverse(inverse_perm: np.ndarray, groups: Sequence[Sequence[int]]) 
     for group in groups:
         dtype = _code_dtype(len(group))
         if list(group) == list(range(group[0], group[0] + len(group))):  # consecutive bits: one shift
-            out.append(((inv >> group[0]) & ((1 << len(group)) - 1)).astype(dtype))
+            code = np.empty(len(inv), dtype=dtype)
+            for start in range(0, len(inv), 1 << 16):  # in blocks: no int64 temporaries as long as inv
+                code[start : start + (1 << 16)] = (inv[start : start + (1 << 16)] >> group[0]) & ((1 << len(group)) - 1)
+            out.append(code)
         else:
             out.append(group_codes([((inv >> i) & 1).astype(np.uint8) for i in range(max(group) + 1)], group))
     return out

@@ -9,7 +9,17 @@ from hypothesis import given, settings, strategies as st
 
 from stepper.field.field import NAMED_PRIMES, get_field
 from stepper.field.spec import field_from_spec
-from stepper.provers.bucketing import bit_tables, group_buckets, round_masks, split_groups
+from stepper.provers import counting
+from stepper.provers.bucketing import (
+    bit_tables,
+    code_buckets,
+    code_masks,
+    codes_of_inverse,
+    group_buckets,
+    group_codes,
+    round_masks,
+    split_groups,
+)
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.reference import random_permutation_statement
 from stepper.verify.replay import replay_transcript
@@ -87,18 +97,90 @@ def test_round_one_counts_are_at_most_four_to_the_c_and_later_rounds_within_both
         assert s.sizes is not None and sum(s.sizes) == s.remaining and len(s.sizes) == s.count
 
 
-def test_bucket_keys_agree_with_a_plain_python_grouping():
-    mu, k = 7, 2
+@pytest.mark.parametrize("groups, k", [(3, 1), (3, 2), (3, 3), (2, 4), (1, 3)])  # (2, 4) and (1, 3): keys past 64 bits
+def test_bucket_keys_agree_with_a_plain_python_grouping(groups, k):
+    mu = 7
     statement = random_permutation_statement(BABYBEAR, mu, seed=11)
     bits = bit_tables(statement.inverse(), mu)
-    group = split_groups(mu, 3)[0]
+    group = split_groups(mu, groups)[0]
     occupancy = group_buckets(bits, group, k)
-    plain: dict[tuple, int] = {}
+    plain: dict[tuple, list[int]] = {}
     for z in range(1 << (mu - k)):
         key = tuple(int(bits[i][b + (z << k)]) for i in group for b in range(1 << k))
-        plain[key] = plain.get(key, 0) + 1
+        plain.setdefault(key, []).append(z)
     assert occupancy.count == len(plain)
-    assert sorted(occupancy.sizes.tolist()) == sorted(plain.values())
+    assert sorted(occupancy.sizes.tolist()) == sorted(len(zs) for zs in plain.values())
+    inverse, rows = occupancy.inverse(), occupancy.rows()
+    for zs in plain.values():  # one bucket per key, holding exactly the entries with that key
+        assert len({int(inverse[z]) for z in zs}) == 1 and occupancy.sizes[inverse[zs[0]]] == len(zs)
+    for z in range(1 << (mu - k)):  # a bucket's row of bit i: bit b is s_i(b + 2^k z)
+        expected = [sum(int(bits[i][b + (z << k)]) << b for b in range(1 << k)) for i in group]
+        assert [int(v) for v in rows[inverse[z]]] == expected
+
+
+@pytest.mark.parametrize("groups", [1, 3, 7])
+def test_group_codes_from_sigma_inverse_equal_the_codes_from_its_bit_tables(groups):
+    statement = random_permutation_statement(BABYBEAR, 7, seed=13)
+    bits = bit_tables(statement.inverse(), 7)
+    parts = split_groups(7, groups)
+    for group, code in zip(parts, codes_of_inverse(statement.inverse(), parts)):
+        assert code.tolist() == group_codes(bits, group).tolist()
+        assert code_buckets(code, len(group), 2).sizes.tolist() == group_buckets(bits, group, 2).sizes.tolist()
+
+
+@pytest.mark.parametrize("groups, k", [(3, 1), (3, 2), (3, 3), (3, 4), (2, 5), (1, 5)])  # (1, 5): 7 * 16 bits > 64
+def test_masks_from_the_codes_equal_each_bits_round_masks(groups, k):
+    mu = 9
+    statement = random_permutation_statement(BABYBEAR, mu, seed=14)
+    bits = bit_tables(statement.inverse(), mu)
+    for group in split_groups(mu, groups):
+        masks = code_masks(group_codes(bits, group), len(group), k)
+        assert [m.tolist() for m in masks] == [round_masks(bits[i], k).reshape(-1).tolist() for i in group]
+
+
+# sha256 of `stepper prove --kind perm-grouped --num-vars 9 --groups 3 [--switch-round 4] --field F`
+# with SOURCE_DATE_EPOCH=1700000000, made by the prover as it stood before it worked in blocks
+# (main at e932cff): the blocked rounds, in-place folds and code-based bucket keys must not
+# change a byte
+BEFORE_BLOCKS = {
+    ("babybear", None): "3240d855c18f497f30b729ab2c69998fe0693c4c14cd245c8ce3302392030e75",
+    ("goldilocks", None): "7f681e6e60f9f75a5c7c35dea82071ebce122054841cf2069340382e4534fe2a",
+    ("babybear^4", None): "ba6a113cdff3111b632190405949452da681dc3482f636b3cf887a2ff9c8f77f",
+    ("babybear", 4): "275aec1ce7b5f9fc2bc34c7f5dc0912f9b3f877fd29bae713bf1b47e69a4eecb",
+    ("goldilocks", 4): "030855083b461f38bf04445bb9850f34cc2e7818360c4c9354821652899defff",
+    ("babybear^4", 4): "fae89576a7461bf6fcff3fcbb24be87a658f1c3b82ad8ad4beef831bbaf63115",
+}
+
+
+@pytest.mark.parametrize("field_name, switch", sorted(BEFORE_BLOCKS, key=str))
+@pytest.mark.parametrize("block", [3, 1 << 15])
+def test_transcripts_are_byte_identical_to_the_prover_before_blocks(monkeypatch, tmp_path, field_name, switch, block):
+    import hashlib
+
+    from stepper.cli.main import main
+
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1700000000")
+    monkeypatch.setattr(counting, "BLOCK", block)  # 3: every table of the proof in several blocks
+    out = tmp_path / "p.sumtr"
+    flags = ["--switch-round", str(switch)] if switch else []
+    assert main(["prove", "--kind", "perm-grouped", "--num-vars", "9", "--groups", "3", "--field", field_name,
+                 "-o", str(out), *flags]) == 0
+    assert hashlib.sha256(out.read_bytes()).hexdigest() == BEFORE_BLOCKS[(field_name, switch)]
+
+
+@pytest.mark.parametrize("spec", [{"name": "bn254"}, {"name": "koalabear", "extension_degree": 4}])
+def test_rounds_in_blocks_send_what_one_block_sends(monkeypatch, spec):
+    # in one process: a bn254 statement hashes its object arrays by reference, so another run draws another alpha
+    field = field_from_spec(spec)
+    statement = random_permutation_statement(field, 7, 21)
+
+    def rounds(block):
+        monkeypatch.setattr(counting, "BLOCK", block)
+        run, transcript, counter = run_prover(field, lambda ch, c: prove_permutation_grouped(ch, c, statement, 3))
+        sent = [(r.values, r.challenge) for inst in transcript.instances for r in inst.rounds]
+        return sent, [i.final for i in transcript.instances], counter.per_phase()
+
+    assert rounds(5) == rounds(1 << 15)
 
 
 def test_identity_permutation_needs_few_buckets():
