@@ -6,7 +6,9 @@
 
 Both provers run side by side in one process on the same random permutation
 over BabyBear (records to memory, challenges from the built-in Fiat-Shamir
-schedule). Multiplications are the provers' own honest counts; the grouped
+schedule). Times are wall-clock seconds and CPU seconds of this process (user +
+system: the figure that other jobs on a shared machine disturb least); the load
+average is printed before and after. Multiplications are the provers' own honest counts; the grouped
 prover uses groups of about 4 bits (L = ceil(mu / 4)) and switches from
 buckets to the direct method when buckets stop paying. Printed as ratios
 direct / grouped: the multiplication ratio should grow with mu. Past ``--direct-max-mu``
@@ -20,6 +22,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import time
 
 
@@ -49,9 +52,10 @@ def run_once(mu: int, groups: int, field_name: str, seed: int, direct: bool = Tr
     provers.append(("grouped", lambda ch, c: prove_permutation_grouped(ch, c, statement, groups, witness=False)))
     for name, body in provers:
         counter = MulCounter(field)
-        start = time.perf_counter()
+        start, cpu = time.perf_counter(), time.process_time()
         body(ProofChannel(field, Discard()), counter)
         out[f"{name}_seconds"] = time.perf_counter() - start
+        out[f"{name}_cpu"] = time.process_time() - cpu
         out[f"{name}_mults"] = counter.total
     if direct:
         if not _PER_VARIABLE:
@@ -76,8 +80,9 @@ def main() -> None:
     # COMPILED_MIN entries) outside the timings; without it the first such mu pays the compile
     run_once(COMPILED_MIN.bit_length() + 1, 2, args.field, args.seed)
     print(f"permutation check over {args.field}: direct (degree mu+1) vs grouped (L = ceil(mu/4), bucketed layer 2)")
+    print(f"load average (1, 5, 15 min) before: {_load()}")
     print(f"{'mu':>3} {'L':>3} {'direct mults':>14} {'grouped mults':>14} {'mult ratio':>10} "
-          f"{'direct s':>9} {'grouped s':>9} {'time ratio':>10}")
+          f"{'direct s':>9} {'grouped s':>9} {'time ratio':>10} {'grouped cpu s':>13}")
     for mu in range(args.min_mu, args.max_mu + 1):
         groups = math.ceil(mu / 4)
         direct = mu <= args.direct_max_mu
@@ -86,7 +91,12 @@ def main() -> None:
         ratio = f"{r['direct_seconds'] / r['grouped_seconds']:>10.2f}" if direct else f"{'-':>10}"
         print(f"{mu:>3} {groups:>3} {int(r['direct_mults']):>14} {int(r['grouped_mults']):>14} "
               f"{r['direct_mults'] / r['grouped_mults']:>10.2f} {seconds} "
-              f"{r['grouped_seconds']:>9.2f} {ratio}", flush=True)
+              f"{r['grouped_seconds']:>9.2f} {ratio} {r['grouped_cpu']:>13.2f}", flush=True)
+    print(f"load average (1, 5, 15 min) after: {_load()}")
+
+
+def _load() -> str:
+    return ", ".join(f"{x:.2f}" for x in os.getloadavg())
 
 
 if __name__ == "__main__":
