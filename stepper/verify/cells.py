@@ -5,8 +5,9 @@ The store packs an element as ``elem_bytes`` little-endian bytes: one base coeff
 extension. :func:`decode_cells` turns rows of such cells (a uint8 array) into the array a
 :class:`~stepper.field.kernels.Kernel` works on: uint64 entries for primes below 2^64
 (assembled from 4- or 8-byte words, or zero-padded), Python ints in an object array for
-larger primes (each cell one ``int.from_bytes`` call made by a numpy ufunc),
-and shape (n, k) for an extension. :func:`below_p` says whether every entry is canonical.
+rows of 29-bit limbs for a :class:`~stepper.field.kernels.limbs.LimbKernel` (shape (n, limbs)),
+Python ints in an object array for other larger primes (each cell one ``int.from_bytes`` call
+made by a numpy ufunc), and shape (n, k) for an extension. :func:`below_p` says whether every entry is canonical.
 No Python loop runs over the entries.
 """
 
@@ -15,6 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from stepper.field.kernels import ExtensionKernel, Kernel
+from stepper.field.kernels.limbs import LimbKernel
 
 __all__ = ["decode_cells", "below_p", "words_to_ints"]
 
@@ -27,6 +29,8 @@ def decode_cells(kernel: Kernel, cells: np.ndarray, width: int) -> np.ndarray:
         return decode_cells(kernel.base, cells, width // k).reshape(-1, k)
     count = cells.size // width
     flat = np.ascontiguousarray(cells).reshape(count, width)
+    if isinstance(kernel, LimbKernel):
+        return kernel.from_bytes(flat)
     if kernel.dtype is not object:
         if width == 8:
             return flat.view("<u8").reshape(count).astype(np.uint64)
@@ -60,6 +64,8 @@ def below_p(kernel: Kernel, values: np.ndarray) -> bool:
     """Whether every entry (of any shape) is below p."""
     if values.size == 0:
         return True
+    if isinstance(kernel, LimbKernel):
+        return kernel.below_p(values)
     if values.dtype == object:
         return bool(np.less(values, kernel.p).all())
     return bool(values.max() < np.uint64(kernel.p))

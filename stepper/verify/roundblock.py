@@ -16,10 +16,10 @@ the instance, round and check; this module never explains. Degree bounds and
 the instance rules are the caller's (they are per instance, not per round).
 
 Every field works here, each on its numpy kernel (:func:`block_kernel`): uint64
-entries for primes below 2^64, object arrays of Python ints above (BN254,
-BLS12-381: one numpy pass per operation, each entry a CPython big-integer operation
-of about 0.2-0.7 us; multi-limb arithmetic in numpy is not built), rows of k
-coefficients for an extension.
+entries for primes below 2^64, rows of 29-bit limbs for primes of 65 to 512 bits
+(BN254, BLS12-381: :class:`~stepper.field.kernels.limbs.LimbKernel`, Montgomery
+products in numpy), object arrays of Python ints above, rows of k coefficients for an
+extension.
 
 g(r) is evaluated for a whole column of rounds at once in Newton's forward-difference
 form, g(r) = sum_k c_k r(r-1)...(r-k+1) with c_k = (Delta^k g)(0) / k!, by Horner's
@@ -34,6 +34,7 @@ from math import comb, factorial
 import numpy as np
 
 from stepper.field.kernels import GOLDILOCKS, ExtensionKernel, Kernel, kernel_for
+from stepper.field.kernels.limbs import MAX_LIMB_PRIME_BITS, LimbKernel
 from stepper.field.field import Field
 from stepper.verify.cells import below_p, words_to_ints
 
@@ -50,7 +51,9 @@ def supports(field: Field, values: int) -> bool:
 
 
 def block_kernel(field: Field) -> Kernel:
-    """The numpy-only kernel of a field."""
+    """The numpy-only kernel of a field: limb rows for a prime of 65 to 512 bits."""
+    if not field.is_extension and 64 < field.p.bit_length() <= MAX_LIMB_PRIME_BITS:
+        return LimbKernel(field.base, _NEVER_COMPILED)
     return kernel_for(field, _NEVER_COMPILED)
 
 
@@ -65,6 +68,8 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
     32-bit limbs below 2^32 and 64-bit limbs for Goldilocks (``wide`` <= 24); Python ints
     in an object array otherwise."""
     base = _base(kernel)
+    if isinstance(base, LimbKernel):
+        return base.reduce_bytes(np.ascontiguousarray(digests[:, :wide]))
     p = base.p
     if wide <= 24 and (p < 2**32 or p == GOLDILOCKS):
         head = np.zeros((digests.shape[0], 24), dtype=np.uint8)
@@ -109,6 +114,8 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
     (n, m) and (n,) over a prime field, (n, m, k) and (n, k) over a degree-k extension."""
     m = evals.shape[1]
     p = kernel.p
+    if isinstance(kernel, LimbKernel):
+        return kernel.evaluate(evals, points)
     if evals.dtype == object and evals.ndim == 2 and m > 1:
         return _evaluate_wide(p, evals, points)
     deltas = [evals[:, 0]]

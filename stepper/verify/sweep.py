@@ -393,6 +393,7 @@ class _Block:
         """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
         import numpy as np
 
+        from stepper.field.kernels import ExtensionKernel
         from stepper.verify.roundblock import reduce_wide
 
         if not self.digests and schedule is None:
@@ -400,7 +401,7 @@ class _Block:
         per = schedule.squeezes_per_challenge if schedule is not None else 0
         if schedule is None or len(self.digests) != len(self.rows) * per:
             raise _GiveUp("challenges re-derived for only part of the block")
-        samples = self.challenges.shape[1] if self.challenges.ndim == 2 else 1
+        samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
         squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(len(self.rows) * samples, -1)
         reduced = reduce_wide(kernel, squeezed, schedule.wide_bytes)
         return reduced.reshape(self.challenges.shape)
