@@ -111,11 +111,15 @@ class LimbKernel(Kernel):
         return self.from_bytes(np.frombuffer(raw, dtype=np.uint8).reshape(len(items), width))
 
     def to_list(self, a: np.ndarray) -> list[Element]:
+        return [int(v) for v in self._integers(a)]
+
+    def _integers(self, a: np.ndarray) -> np.ndarray:
+        """The elements as an object array of Python ints (n passes over the limbs)."""
         rows = np.asarray(a).reshape(-1, self.n)
         total = np.zeros(len(rows), dtype=object)
         for i in range(self.n - 1, -1, -1):
             total = (total << LIMB_BITS) + rows[:, i].astype(object)
-        return [int(v) for v in total]
+        return total
 
     def zeros(self, n: int) -> np.ndarray:
         return np.zeros((n, self.n), dtype=np.uint64)
@@ -125,7 +129,7 @@ class LimbKernel(Kernel):
         return self.reduce_bytes(wide)
 
     def sum(self, a: np.ndarray) -> Element:
-        return sum(self.to_list(a)) % self.p
+        return int(np.sum(self._integers(a))) % self.p if len(a) else 0
 
     def _first_zero(self, a: np.ndarray) -> int:
         return int(np.flatnonzero(np.all(a == 0, axis=-1))[0])
@@ -220,25 +224,26 @@ class LimbKernel(Kernel):
         return bool(self._below(self._major(a)).all())
 
     def reduce_bytes(self, rows: np.ndarray) -> np.ndarray:
-        """Each row of little-endian bytes (uint8, shape (N, w), 8w < 29n + log2(p) - 2) as an
-        integer mod p, canonical limb rows: one Montgomery reduction of the whole value (x / R),
-        then a Montgomery product with R^2 mod p (x)."""
+        """Each row of little-endian bytes (uint8, shape (N, w)) as an integer mod p, canonical limb
+        rows: k Montgomery reduction steps divide the value x by 2^(29k) mod p, with k two limbs
+        more than x has above p's n (so the result is below x / 2^(29k) + p < 2p), then one
+        Montgomery product by 2^(29k) R mod p multiplies it back."""
         count, width = rows.shape
         limbs = -(-8 * width // LIMB_BITS)
-        if limbs > 2 * self.n or 8 * width >= self._r_bits + self.p.bit_length() - 2:
-            raise FieldError(f"expected at most {(self._r_bits + self.p.bit_length() - 3) // 8} bytes to reduce, "
-                             f"found {width}")
+        n = self.n
+        steps = max(1, limbs - n + 2)
         words = np.zeros((count, -(-width // 8) + 1), dtype=np.uint64)
         words.view(np.uint8)[:, :width] = rows
-        t = np.zeros((2 * self.n + 1, count), dtype=np.uint64)
+        t = np.zeros((max(limbs, steps + n) + 1, count), dtype=np.uint64)
         t[:limbs] = self._limbs_of_words(words, limbs)
-        p_limbs, q, n = self._p_limbs, self._minus_p_inverse, self.n
-        for i in range(n):
+        p_limbs, q = self._p_limbs, self._minus_p_inverse
+        for i in range(steps):
             m = ((t[i] & _MASK) * q) & _MASK
             t[i:i + n] += m * p_limbs
             t[i + 1] += t[i] >> _SHIFT
-        reduced = self._carry(t[n:2 * n + 1])[:n]  # x / R mod p, below x / R + p < 2p
-        return self._rows(self._minus_p(self._montgomery(self._minus_p(reduced), self._r2)))
+        reduced = self._carry(t[steps:])[:n]  # x / 2^(29k) mod p, below 2p
+        back = self._column(pow(2, LIMB_BITS * steps + self._r_bits, self.p))
+        return self._rows(self._minus_p(self._montgomery(self._minus_p(reduced), back)))
 
     def evaluate(self, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
         """g_i(points[i]) for rows of evaluations g_i(0..m-1) (shape (N, m, n); m <= p), canonical
