@@ -190,12 +190,18 @@ class LimbKernel(Kernel):
         t = np.zeros((2 * n + 1, max(a.shape[1], b.shape[1])), dtype=np.uint64)
         for i in range(n):
             t[i:i + n] += a[i] * b
-        p_limbs, q = self._p_limbs, self._minus_p_inverse
-        for i in range(n):
+        return self._reduce_steps(t, n)
+
+    def _reduce_steps(self, t: np.ndarray, steps: int) -> np.ndarray:
+        """Montgomery reduction by 2^(29 steps), in place on the columns t (limb-major, rows enough for
+        the carries): each step adds m p with m = -t_i / p mod 2^29, making limb i zero, and passes
+        its carry up. The n limbs from row ``steps`` on (the value is below 2p < R: nothing above)."""
+        n, p_limbs, q = self.n, self._p_limbs, self._minus_p_inverse
+        for i in range(steps):
             m = ((t[i] & _MASK) * q) & _MASK
             t[i:i + n] += m * p_limbs
             t[i + 1] += t[i] >> _SHIFT
-        return self._carry(t[n:2 * n + 1])[:n]  # the value is below 2p < R: the top limb is 0
+        return self._carry(t[steps:])[:n]
 
     def _mul_major(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         return self._minus_p(self._montgomery(self._minus_p(self._montgomery(a, b)), self._r2))
@@ -236,12 +242,7 @@ class LimbKernel(Kernel):
         words.view(np.uint8)[:, :width] = rows
         t = np.zeros((max(limbs, steps + n) + 1, count), dtype=np.uint64)
         t[:limbs] = self._limbs_of_words(words, limbs)
-        p_limbs, q = self._p_limbs, self._minus_p_inverse
-        for i in range(steps):
-            m = ((t[i] & _MASK) * q) & _MASK
-            t[i:i + n] += m * p_limbs
-            t[i + 1] += t[i] >> _SHIFT
-        reduced = self._carry(t[steps:])[:n]  # x / 2^(29k) mod p, below 2p
+        reduced = self._reduce_steps(t, steps)  # x / 2^(29k) mod p, below 2p
         back = self._column(pow(2, LIMB_BITS * steps + self._r_bits, self.p))
         return self._rows(self._minus_p(self._montgomery(self._minus_p(reduced), back)))
 
