@@ -186,11 +186,11 @@ def statement_glue(model: ProofModel, index: int) -> list[Line]:
     lines = eq_lines(model, index)[1:]
     if start.claim_expr is not None:
         mark = mark_of(link_status(model, index))
-        lines.append(Line("link", f"{mark.symbol} {mark.word}: claim = {start.claim_expr}", mark.tone))
+        lines.append(Line("link", f"{mark.symbol} {mark.word}: the claim against {start.claim_expr}", mark.tone))
     status = evaluation_status(model, index)
     if start.final_expr is not None and status is not None:
         mark = mark_of(status)
-        lines.append(Line("evaluation", f"{mark.symbol} {mark.word}: reduced claim = {start.final_expr}", mark.tone))
+        lines.append(Line("evaluation", f"{mark.symbol} {mark.word}: the reduced claim against {start.final_expr}", mark.tone))
     openings = [g.name for g in model.glue.following(index) if isinstance(g, Opening) and g.instance == index]
     if openings:
         lines.append(Line("openings", ", ".join(openings)))

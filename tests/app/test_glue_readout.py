@@ -88,8 +88,8 @@ def test_a_glue_verdict_always_carries_a_symbol_and_a_word():
 def test_the_statement_names_the_link_and_evaluation_and_an_eq_factored_instance_says_so(tmp_path):
     model = opened(SHIPPED / "glue-broken-link.sumtr")
     text = text_of(statement_lines(model, 1))
-    assert "link: ✕ fail: claim = manifest.v2.lo + manifest.c2 * (manifest.v2.hi - manifest.v2.lo)" in text
-    assert "evaluation: ■ pass: reduced claim = eq(manifest.r2)" in text
+    assert "link: ✕ fail: the claim against manifest.v2.lo + manifest.c2 * (manifest.v2.hi - manifest.v2.lo)" in text
+    assert "evaluation: ■ pass: the reduced claim against eq(manifest.r2)" in text
     eq = opened(glued_events(tmp_path / "eq.jsonl", "zerocheck-eq"))
     first = text_of(round_lines(eq, (0, 1)))
     assert "eq-factored: sent q_k(0..2); the verifier's g_k(X) = prod_(i<k) eq(w_i, r_i)" in first
