@@ -95,10 +95,10 @@ async def test_every_key_of_the_comparison_reaches_its_action(honest_file, tmp_p
 
 
 async def test_every_key_of_the_keys_panel_closes_it(honest_file, tmp_path):
-    for entry in (k for k in KEYS if "keys" in k.screens):
-        for key in entry.keys:
-            app = StepperApp.from_file(honest_file, export_dir=tmp_path)
-            async with app.run_test(size=SIZE) as pilot:
+    app = StepperApp.from_file(honest_file, export_dir=tmp_path)
+    async with app.run_test(size=SIZE) as pilot:  # one app: the panel is opened again for each key
+        for entry in (k for k in KEYS if "keys" in k.screens):
+            for key in entry.keys:
                 await pilot.press("k")
                 assert isinstance(app.screen, HelpScreen)
                 await pilot.press(key)
