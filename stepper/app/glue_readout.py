@@ -97,7 +97,8 @@ def link_lines(model: ProofModel, index: int) -> list[Line]:
     result = model.glue.link.get(index)
     status = link_status(model, index)
     mark = mark_of(status)
-    lines = [Line("round", f"0 of {start.num_vars}   {mark.symbol} {mark.word}: the claim against its glue", mark.tone)]
+    lines = [Line("round", f"0 of {start.num_vars}   {mark.symbol} {mark.word}: the claim against its glue", mark.tone),
+             *failed_here(model, index, 0)]
     if start.claim_expr is not None:
         tone = "bad" if status == "fail" else "plain"
         lines.append(Line("claim_expr", start.claim_expr))
@@ -109,12 +110,10 @@ def link_lines(model: ProofModel, index: int) -> list[Line]:
         if named:
             lines.append(Line("built from", f"{len(named)} named value{'s' if len(named) != 1 else ''}", "muted"))
             lines.extend(_record_lines(model, field, named))
-    for check in model.failure_checks.get((index, 0), []):
-        if check == "squeeze":
-            lines.append(Line("squeeze", "✕ fail (squeeze): a squeeze sent before this instance differs from the "
-                                         "schedule's", "bad"))
     if index == 0 and model.glue.head:
         lines.extend(head_lines(model))
+    if start.num_vars == 0:  # no rounds: the claim is the reduced claim, checked here
+        lines.extend(closing_lines(model, index))
     return lines
 
 

@@ -165,7 +165,12 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
         for unknown in view.unknown:
             lines.append(Line("unknown event", f"{unknown.kind} (kept, not checked)", "muted"))
     if not view.rounds:
-        lines.append(Line("rounds", "none sent yet", "wait"))
+        if start.num_vars == 0:
+            lines.append(Line("rounds", "none: no variables, the claim is the reduced claim"))
+            if model.first_round(index) == 1:
+                lines.extend(glue_readout.closing_lines(model, index))
+        else:
+            lines.append(Line("rounds", "none sent yet", "wait"))
         return lines
     msg = view.rounds[number - 1]
     result = view.results[number - 1]

@@ -46,6 +46,27 @@ def _case(name: str, kind: str, **options: object):  # a generated file, built i
     return pytest.param(lambda tmp: glued_events(tmp / f"{name}.jsonl", kind, **options), id=name)
 
 
+def _written(name: str, payloads: list[dict]):  # a few events typed out, as a JSON-lines file
+    import json
+
+    def make(tmp: Path) -> Path:
+        path = tmp / f"{name}.jsonl"
+        path.write_text("".join(json.dumps(p) + "\n" for p in payloads))
+        return path
+
+    return pytest.param(make, id=name)
+
+
+# An instance of no variables: its claim is its reduced claim, so its evaluation sits at round 0
+# (the instance's last round), beside its link (contract 3, as restated in transcripts/FORMAT.md).
+NO_VARIABLES = [
+    {"type": "field", "name": "babybear"},
+    {"type": "value", "name": "fare", "value": 5},
+    {"type": "instance", "name": "fares.flat", "num_vars": 0, "degree": 1, "claim": 10, "claim_expr": "2*fare",
+     "final_expr": "fare"},
+]
+
+
 def _shipped(name: str):
     return pytest.param(lambda tmp: SHIPPED / f"{name}.sumtr", id=name)
 
@@ -58,6 +79,7 @@ SAME_STORY = [
     _case("drop-eq", "zerocheck-eq", fault="drop-eq@3"),
     _case("squeeze-after-layer1", "gkr-product", retouch=bump_squeeze(1)),
     _case("squeeze-before-layer1", "gkr-product", retouch=bump_squeeze(0)),
+    _written("no-variables", NO_VARIABLES),
 ]
 
 
@@ -159,3 +181,13 @@ def test_seeking_a_value_finds_an_opening_on_its_instances_last_round_and_a_link
     model = opened(SHIPPED / "glue-broken-link.sumtr")
     assert find_value(model, "533427179", (0, 0)) == (0, 1)  # manifest.v2.hi, opened after layer 1
     assert find_value(model, str(model.glue.link[1].expected), (0, 1)) == (1, 0)
+
+
+def test_an_instance_of_no_variables_shows_its_evaluation_on_its_round_0_row(tmp_path):
+    from stepper.app.readout import round_lines
+
+    model = opened(_written("no-variables", NO_VARIABLES).values[0](tmp_path))
+    text = "\n".join(line.text() for line in round_lines(model, (0, 0)))
+    assert "link: ■ pass (link)" in text and "evaluation: ✕ fail (evaluation)" in text
+    assert text.splitlines()[2].startswith("evaluation: ✕ fail: final_expr gives 5, the reduced claim is 10")
+    assert model.strip_line(0) == f"■{LINK_MARK}{EVALUATION_MARK}✕"
