@@ -54,8 +54,11 @@ from stepper.field.expr_syntax import (
     References,
     Sub,
     Table,
+    Template,
+    fill,
     parse_tree,
     references,
+    template_of,
 )
 
 if TYPE_CHECKING:
@@ -77,13 +80,36 @@ class GlueScope:
     own_point: tuple | None = None  # type: ignore[type-arg]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True, slots=True, eq=False)
 class Expr:
-    """A parsed expression: its source text and its tree."""
+    """A parsed expression: its source text and its tree (equal when their texts are).
+
+    One made by :func:`parse_cached` from a template (:func:`template_of`) keeps the
+    template and its names and builds its own tree only when asked for ``root``: checking
+    what a glue expression references, or evaluating many that share a template by
+    columns (stepper.verify.glue_block), never needs it."""
 
     text: str
-    root: Node
+    tree: Node | None = None  # None until ``root`` fills the template
     refs: References | None = None  # set by parse(); computed on demand otherwise
+    template: Template | None = None
+    holes: tuple[str, ...] = ()  # the names that fill the template's holes, in order
+
+    @property
+    def root(self) -> Node:
+        """The tree (the template with its names put back, built on first use)."""
+        tree = self.tree
+        if tree is None:
+            assert self.template is not None
+            tree = fill(self.template.root, list(self.holes))
+            object.__setattr__(self, "tree", tree)
+        return tree
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, Expr) and other.text == self.text
+
+    def __hash__(self) -> int:
+        return hash(self.text)
 
     def degree(self) -> int:
         """Total degree in the table values (constants 0, a table 1)."""
@@ -136,7 +162,13 @@ def parse(text: str, what: str = "combine expression") -> Expr:
 @lru_cache(maxsize=1024)
 def parse_cached(text: str, what: str = "glue expression") -> Expr:
     """:func:`parse`, remembered for the last 1024 texts (the Sequencer and the replay
-    meet each glue expression once each; an error is raised again each time)."""
+    meet each glue expression once each; an error is raised again each time). A
+    well-formed text gets its references and template at once, its tree when first used."""
+    if text.__class__ is str and len(text) <= MAX_EXPR_LENGTH:
+        found = template_of(text)
+        if found is not None:
+            template, names = found
+            return Expr(text, None, template.references(names), template, tuple(names))
     return parse(text, what)
 
 

@@ -25,12 +25,13 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
-from typing import Union
+from typing import Any, Union
 
 from stepper.errors import ExpressionError
 
 __all__ = ["Const", "Table", "Neg", "Add", "Sub", "Mul", "Pow", "Index", "Eq", "PointOf", "FinalOf", "Node",
-           "References", "references", "parse_tree", "MAX_EXPR_LENGTH", "MAX_EXPONENT_BITS"]
+           "References", "Template", "references", "parse_tree", "template_of", "fill", "MAX_EXPR_LENGTH",
+           "MAX_EXPONENT_BITS"]
 
 MAX_EXPR_LENGTH = 4096
 MAX_EXPONENT_BITS = 256
@@ -203,8 +204,45 @@ _TOKEN = re.compile(r"[ \t\r\n]*(?:([0-9]+)|([A-Za-z_][A-Za-z0-9_.]*)|([^ \t\r\n
 
 
 _CALLS = frozenset(("eq", "point", "final"))
-_TEMPLATES: dict[tuple[tuple[str, str], ...], tuple[Node, References]] = {}  # token shape -> tree with holes, refs
+_SPLIT = re.compile(r"([A-Za-z_][A-Za-z0-9_.]*)")  # the NAME of _TOKEN: parts alternate text between names, name
+_TEMPLATES: dict[tuple[str, ...], Template] = {}  # text with its names cut out -> template
 _MAX_TEMPLATES = 512
+
+
+@dataclass(frozen=True, slots=True)
+class Template:
+    """The tree shared by texts that differ only in their names: names are holes ``#0``,
+    ``#1``, ... in order of appearance (a call word used as a name stays itself), with the
+    references of the tree (hole names) and, per kind of reference, what fills it: a hole's
+    number or a word kept as it is."""
+
+    root: Node
+    refs: References
+    plan: tuple[tuple[int | str, ...], ...]  # scalars, lists, points, finals
+
+    def references(self, names: list[str]) -> References:
+        """The references of the text whose names are ``names``, each kept at its first appearance
+        (the holes are one per occurrence, so nothing was merged in the template)."""
+        scalars, lists, points, finals = self.plan
+        refs: Any = _ReferencesDraft()  # every field built here: skip the frozen __init__ (one per glue text)
+        refs.scalars = _pick(scalars, names) if scalars else ()
+        refs.lists = _pick(lists, names) if lists else ()
+        refs.points = _pick(points, names) if points else ()
+        refs.finals = _pick(finals, names) if finals else ()
+        refs.own_point = self.refs.own_point
+        refs.__class__ = References
+        return refs
+
+
+class _ReferencesDraft:
+    """A blank with the slots of :class:`References`, filled and then given that class (as
+    stepper.transcript.model.RoundMsgDraft does for rounds)."""
+
+    __slots__ = References.__slots__  # type: ignore[attr-defined]
+
+
+def _pick(kind: tuple[int | str, ...], names: list[str]) -> tuple[str, ...]:
+    return tuple(dict.fromkeys([names[i] if i.__class__ is int else i for i in kind]))  # type: ignore[index]
 
 
 def _fast_parse(text: str) -> Node | None:
@@ -214,44 +252,48 @@ def _fast_parse(text: str) -> Node | None:
 
 
 def _fast_parse_refs(text: str) -> tuple[Node, References] | None:
-    """The tree of a well-formed text from one regex pass over its tokens, or None
-    for anything unusual (an error, a deep nesting, a huge exponent): then the
-    character parser decides and names the column. Both build the same tree.
+    """The tree of a well-formed text and its references, from its template (see
+    :func:`template_of`), or None when the character parser must decide."""
+    found = template_of(text)
+    if found is None:
+        return None
+    template, names = found
+    return fill(template.root, names), template.references(names)
+
+
+def template_of(text: str) -> tuple[Template, list[str]] | None:
+    """The template of a well-formed text and its names in order of appearance, or None for
+    anything unusual (an error, a deep nesting, a huge exponent): then the character parser
+    decides and names the column. Both build the same tree.
 
     Texts that differ only in their names (``a7 + beta7*b7``, ``a8 + beta8*b8``: glue
-    names are unique in a proof) share one template, a tree whose names are holes
-    ``#0``, ``#1``, ... in the order they appear (``#`` is in no name); the tree of
-    each text is the template with its names put back. So are its references,
-    found once per template (hole names in walk order) and filled the same way."""
-    tokens = _TOKEN.findall(text)
-    if len(tokens) > 2048:
-        return None
-    names = [w for _, w, _ in tokens if w and w not in _CALLS]
-    key = tuple(("n", n) if n else (("w", "") if w and w not in _CALLS else ("w", w)) if w else ("o", o)
-                for n, w, o in tokens)
-    entry = _TEMPLATES.get(key)
-    if entry is None:
+    names are unique in a proof) share one template, found by the text with its names
+    cut out (one regex split, the names' pattern being the tokenizer's); the first such
+    text builds it from one regex pass over its tokens."""
+    parts = _SPLIT.split(text)
+    words = parts[1::2]
+    key = (*parts[0::2], *[w if w in _CALLS else "" for w in words])
+    names = [w for w in words if w not in _CALLS]
+    template = _TEMPLATES.get(key)
+    if template is None:
+        tokens = _TOKEN.findall(text)
+        if len(tokens) > 2048:
+            return None
         holes = iter(range(len(names)))
         shaped = [(n, f"#{next(holes)}" if w and w not in _CALLS else w, o) for n, w, o in tokens]
-        template = _parse_tokens(shaped)  # type: ignore[assignment]
-        if template is None:
+        root = _parse_tokens(shaped)  # type: ignore[arg-type]
+        if root is None:
             return None
         if len(_TEMPLATES) >= _MAX_TEMPLATES:
             _TEMPLATES.clear()
-        entry = _TEMPLATES[key] = (template, references(template))
-    return _fill(entry[0], names), _fillreferences(entry[1], names)
+        refs = references(root)
+        plan = tuple(tuple(int(n[1:]) if n[0] == "#" else n for n in kind)
+                     for kind in (refs.scalars, refs.lists, refs.points, refs.finals))
+        template = _TEMPLATES[key] = Template(root, refs, plan)
+    return template, names
 
 
-def _fillreferences(refs: References, names: list[str]) -> References:
-    """A template's references with hole ``#i`` replaced by ``names[i]``, each kept at its
-    first appearance (the template's holes are one per occurrence, so nothing was merged)."""
-    def put(found: tuple[str, ...]) -> tuple[str, ...]:
-        return tuple(dict.fromkeys([names[int(n[1:])] if n[0] == "#" else n for n in found]))
-
-    return References(put(refs.scalars), put(refs.lists), put(refs.points), put(refs.finals), refs.own_point)
-
-
-def _fill(node: Node, names: list[str]) -> Node:
+def fill(node: Node, names: list[str]) -> Node:
     """The template ``node`` with hole ``#i`` replaced by ``names[i]`` (a call word used
     as a name, ``eq``, ``point`` or ``final``, stays in the template as itself)."""
     if isinstance(node, Const):
@@ -265,18 +307,18 @@ def _fill(node: Node, names: list[str]) -> Node:
     if isinstance(node, FinalOf):
         return FinalOf(names[int(node.name[1:])]) if node.name[0] == "#" else node
     if isinstance(node, Eq):
-        left = _fill(node.left, names)
-        right = None if node.right is None else _fill(node.right, names)
+        left = fill(node.left, names)
+        right = None if node.right is None else fill(node.right, names)
         return Eq(left, right)  # type: ignore[arg-type]  # a side is a Table or PointOf, filled as one
     if isinstance(node, Neg):
-        return Neg(_fill(node.operand, names))
+        return Neg(fill(node.operand, names))
     if isinstance(node, Pow):
-        return Pow(_fill(node.base, names), node.exponent)
+        return Pow(fill(node.base, names), node.exponent)
     if isinstance(node, Add):
-        return Add(_fill(node.left, names), _fill(node.right, names))
+        return Add(fill(node.left, names), fill(node.right, names))
     if isinstance(node, Sub):
-        return Sub(_fill(node.left, names), _fill(node.right, names))
-    return Mul(_fill(node.left, names), _fill(node.right, names))
+        return Sub(fill(node.left, names), fill(node.right, names))
+    return Mul(fill(node.left, names), fill(node.right, names))
 
 
 def _parse_tokens(tokens: list[tuple[str, str, str]]) -> Node | None:

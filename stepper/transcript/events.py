@@ -42,6 +42,7 @@ from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
 from stepper.errors import ExpressionError
 from stepper.transcript.model import (
     GLUE_NAME,
+    GLUE_NAME_PATTERN,
     NamedValue,
     Opening,
     Squeeze,
@@ -60,6 +61,8 @@ from stepper.transcript.model import (
     ChallengeMsgDraft,
     InstanceStartDraft,
     RoundMsgDraft,
+    GlueDraft,
+    OpeningDraft,
 )
 
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
@@ -433,7 +436,7 @@ class Sequencer:
 
     def _glue_name(self, payload: Mapping[str, Any], kind: str) -> str:
         name = payload.get("name")
-        if not is_glue_name(name):
+        if name.__class__ is not str or GLUE_NAME_PATTERN.fullmatch(name) is None:  # type: ignore[arg-type]
             raise self._fail(f"expected a {kind} `name` of {GLUE_NAME}, found {short(name)}")
         if name in self.defined:
             raise self._fail(f"expected glue names unique in the proof, found a second {short(name)}")
@@ -453,34 +456,42 @@ class Sequencer:
         return self._element(raw, what), False
 
     def _on_value(self, payload: Mapping[str, Any]) -> Event:
-        self._close_instance()
-        name = self._glue_name(payload, "value")
-        value, listed = self._glue_value(payload.get("value"), f"value {name!r}")
-        self.defined[name] = len(value) if listed else None
-        cur = self.current
-        return NamedValue(name, value, listed, cur.index if cur else None)
+        return self._named(payload, "value", NamedValue)
 
     def _on_squeeze(self, payload: Mapping[str, Any]) -> Event:
+        return self._named(payload, "squeeze", Squeeze)
+
+    def _named(self, payload: Mapping[str, Any], kind: str, cls: type) -> Event:
+        """A value or squeeze: checked, then built from a draft (see RoundMsgDraft)."""
         self._close_instance()
-        name = self._glue_name(payload, "squeeze")
-        value, listed = self._glue_value(payload.get("value"), f"squeeze {name!r}")
+        name = self._glue_name(payload, kind)
+        value, listed = self._glue_value(payload.get("value"), f"{kind} {name!r}")
         self.defined[name] = len(value) if listed else None
         cur = self.current
-        return Squeeze(name, value, listed, cur.index if cur else None)
+        record: Any = GlueDraft()
+        record.name, record.value, record.listed, record.instance = name, value, listed, cur.index if cur else None
+        record.__class__ = cls
+        return record  # type: ignore[no-any-return]
 
     def _on_opening(self, payload: Mapping[str, Any]) -> Event:
-        self._close_instance()
-        cur = self._need_instance("opening")
+        if self.pending_batch is not None:
+            self._close_instance()
+        cur = self.current
+        if cur is None:
+            cur = self._need_instance("opening")
         name = self._glue_name(payload, "opening")
         if self.rounds_done != cur.num_vars:
             raise self._fail(f"expected an opening after all {cur.num_vars} rounds of instance {cur.name!r} "
                              f"(its challenge point), found it after {self.rounds_done}")
         table = payload.get("table", name)
-        if not is_glue_name(table):
+        if table is not name and (table.__class__ is not str or GLUE_NAME_PATTERN.fullmatch(table) is None):
             raise self._fail(f"expected an opening's `table` of {GLUE_NAME}, found {short(table)}")
         value = self._element(payload.get("value"), f"opening {name!r}")
         self.defined[name] = None
-        return Opening(name, value, table, cur.index)
+        record: Any = OpeningDraft()
+        record.name, record.value, record.table, record.instance = name, value, table, cur.index
+        record.__class__ = Opening
+        return record  # type: ignore[no-any-return]
 
     def finish_glue(self) -> str | None:
         """At the end of the stream: the first final_expr name that never came, as

@@ -23,6 +23,7 @@ from stepper.field.poly import ORDERS, ROUND_FORMS, RoundPoly
 __all__ = [
     "FORMAT_VERSION",
     "GLUE_VERSION",
+    "GLUE_NAME_PATTERN",
     "PLAIN_VERSION",
     "Header",
     "FieldDecl",
@@ -48,18 +49,20 @@ __all__ = [
     "RoundMsgDraft",
     "ChallengeMsgDraft",
     "InstanceStartDraft",
+    "GlueDraft",
+    "OpeningDraft",
 ]
 
 FORMAT_VERSION = 2  # the newest version read; 2: the glue events value, squeeze, opening, the glue instance keys
 GLUE_VERSION = 2  # the first format version whose readers know the glue events
 PLAIN_VERSION = 1  # what the writer declares for a file without glue (see stepper.transcript.store.writer)
 GLUE_NAME = "letters, digits, '_' and '.', starting with a letter or '_', at most 128 characters"
-_NAME_RE = re.compile(r"[A-Za-z_][A-Za-z0-9_.]{0,127}")
+GLUE_NAME_PATTERN = re.compile(r"[A-Za-z_][A-Za-z0-9_.]{0,127}")
 
 
 def is_glue_name(name: object) -> bool:
     """Whether ``name`` may name a value, squeeze or opening (see ``GLUE_NAME``)."""
-    return name.__class__ is str and _NAME_RE.fullmatch(name) is not None  # type: ignore[arg-type]
+    return name.__class__ is str and GLUE_NAME_PATTERN.fullmatch(name) is not None  # type: ignore[arg-type]
 
 
 def _need(ok: bool, record: str, message: str) -> None:
@@ -338,6 +341,20 @@ class Opening:
         _need(is_glue_name(self.name), "Opening", f"a name of {GLUE_NAME}, found {self.name!r}"[:200])
         _need(isinstance(self.table, str) and bool(self.table), "Opening", "a table name")
         _need(_index(self.instance), "Opening", "instance >= 0")
+
+
+class GlueDraft:
+    """The same for :class:`NamedValue` and :class:`Squeeze` (see :class:`RoundMsgDraft`): the
+    Sequencer has checked the name and made a list value a tuple; 4 or more per instance in a
+    glued proof."""
+
+    __slots__ = NamedValue.__slots__  # type: ignore[attr-defined]
+
+
+class OpeningDraft:
+    """The same for :class:`Opening` (see :class:`RoundMsgDraft`)."""
+
+    __slots__ = Opening.__slots__  # type: ignore[attr-defined]
 
 
 Glue = Union[NamedValue, Squeeze, Opening]

@@ -55,6 +55,7 @@ _SECURITY_BITS = 128
 _ROUND_HEAD = bytes([5]) + b"round"
 _PAIR = struct.Struct("<QQ")  # two u64 of a frame body
 _INSTANCE_HEAD = bytes([8]) + b"instance"
+_OPENING_HEAD = bytes([7]) + b"opening"
 
 
 def frame(tag: bytes, body: bytes) -> bytes:
@@ -135,15 +136,25 @@ class Sha256Schedule:
             body = (self._el(record.coefficient) + _u64(len(record.terms))  # type: ignore[union-attr]
                     + pack_elements(field, record.terms))  # type: ignore[union-attr]
             self._absorb(b"batch", body)
-        elif cls is NamedValue:
-            field = self._need_field("value")
-            items = record.items()  # type: ignore[union-attr]
-            self._absorb(b"value", _text(record.name) + _u64(int(record.listed)) + _u64(len(items))  # type: ignore[union-attr]
-                         + pack_elements(field, items))
-        elif cls is Opening:
+        elif cls is NamedValue or cls is Opening:
+            self._state.update(self.glue_frame(record))  # type: ignore[arg-type]
+
+    def glue_frame(self, record: NamedValue | Opening) -> bytes:
+        """The frame a value or an opening is absorbed as (frames absorbed one after another are
+        their concatenation absorbed at once)."""
+        if record.__class__ is Opening:
             self._need_field("opening")
-            self._absorb(b"opening", _text(record.name) + _text(record.table)  # type: ignore[union-attr]
-                         + self._el(record.value))  # type: ignore[union-attr]
+            name, table = record.name.encode("utf-8"), record.table.encode("utf-8")  # type: ignore[union-attr]
+            body = b"".join((_u64(len(name)), name, _u64(len(table)), table, self._el(record.value)))
+            return b"".join((_OPENING_HEAD, _u64(len(body)), body))
+        field = self._need_field("value")
+        items = record.items()  # type: ignore[union-attr]
+        return frame(b"value", _text(record.name) + _u64(int(record.listed)) + _u64(len(items))  # type: ignore[union-attr]
+                     + pack_elements(field, items))
+
+    def absorb_frames(self, frames: bytes) -> None:
+        """Absorb frames made by :meth:`glue_frame`, in order."""
+        self._state.update(frames)
 
     def squeeze(self, name: str, count: int | None = None) -> Element | tuple[Element, ...]:
         """Derive the squeeze ``name``: one element (``count`` None) or a tuple of

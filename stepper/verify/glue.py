@@ -24,7 +24,7 @@ Expressions are parsed once per distinct text (:func:`parsed`).
 from __future__ import annotations
 
 from collections import OrderedDict
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Iterable
 
 from stepper.errors import ExpressionError, TranscriptError, Where
 from stepper.field.expr import Expr, GlueScope, parse_cached
@@ -65,6 +65,11 @@ class GlueBook:
             self.values[record.name] = record.value
         else:
             self.values[record.name] = list(record.value) if record.listed else record.value
+
+    def add_all(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:
+        """:meth:`add` for each record, in order."""
+        self.values.update({record.name: list(record.value) if record.__class__ is not Opening and record.listed
+                            else record.value for record in records})
 
     def close_instance(self, start: InstanceStart, challenges: list[Element] | None, final: Element | None) -> None:
         """Remember a complete instance's point (variable order) and final value."""

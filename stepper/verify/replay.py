@@ -185,13 +185,17 @@ class Replay:
         squeeze = source.schedule.round_stepper() if source.schedule is not None else None
         return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
 
-    def settle(self, start: InstanceStart, final: Element) -> None:
+    def settle(self, start: InstanceStart, final: Element,
+               challenges: Callable[[], list[Element]] | None = None) -> None:
         """Account for an instance checked in bulk and found passing (:mod:`stepper.verify.roundblock`):
         every round passed the degree, sum and challenge checks and ``final`` equals the
         reduced claim. The effect is that of feeding its instance, rounds, challenges and
         final, except that the schedule absorbs only the statement here: the caller absorbs
         the rounds and challenges (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`)
-        right after, and replays event by event instead if the block turns out not to pass."""
+        right after, and replays event by event instead if the block turns out not to pass.
+        An instance with glue keys whose summary is kept gets its ``link`` and ``evaluation``
+        results here (``challenges`` gives its r_1..r_mu for its own point); the caller checks
+        the glue of the others by the block (:mod:`stepper.verify.glue_block`)."""
         if (self.field is None or self.challenger is not None or self.emit_passing or start.batch is not None
                 or self._pending_batch is not None):
             raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
@@ -204,8 +208,38 @@ class Replay:
         live = LiveInstance(start, False)
         self._live = live
         ledger.opened(start)
+        glued = start.claim_expr is not None or start.final_expr is not None
+        if glued:
+            self._glue.open_instance(self.field, live, ledger)
+            if challenges is None:
+                raise ValueError("expected the challenges of a glued instance settled in bulk")
+            live.challenges = challenges()
         live.claim, live.seen, live.passed = final, start.num_vars, start.num_vars
+        if glued and start.final_expr is not None:
+            self._glue.evaluate(self.field, live, ledger)
         self._on_final(FinalValue(start.index, final))
+
+    def settle_glue(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:
+        """Account for values, squeezes and openings that follow an instance settled in bulk,
+        in stream order: the schedule has absorbed them and every squeeze equals the derived
+        one (the caller's doing). They are kept for later expressions, and an instance whose
+        summary is kept lists its openings and settles its waiting evaluation."""
+        live = self._live
+        if live is None:
+            self._glue.book.add_all(records)
+            return
+        field, ledger, take = self._need_field(), self._ledger, self._glue.take
+        for record in records:
+            take(field, record, None, "", live, ledger)
+
+    def glue_values(self) -> dict[str, Any]:
+        """The values, squeezes and openings received so far, by name (what glue expressions read)."""
+        return self._glue.book.values
+
+    @property
+    def failed(self) -> bool:
+        """Whether any check has failed so far (glue sent before the first instance included)."""
+        return self._ledger.first is not None or bool(self._glue.held)
 
     @property
     def schedule(self) -> Sha256Schedule | None:

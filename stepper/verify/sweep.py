@@ -56,8 +56,10 @@ if TYPE_CHECKING:
     import numpy as np
 
     from stepper.verify.fiatshamir import Sha256Schedule
-    from stepper.field.field import Field
+    from stepper.field.expr import Expr
+    from stepper.field.field import Element, Field
     from stepper.field.kernels import Kernel
+    from stepper.verify.glue_block import GlueChecks
     from stepper.verify.replay import Replay
 
 __all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
@@ -161,8 +163,14 @@ class _Sweeper:
         self.kernel: Kernel | None = None
         self.layout: _Layout | None = None  # of the last run read
         self.layouts: dict[int, _Layout] = {}  # by values per round
-        self.runs: list[tuple[InstanceStart, bytes, bytes, _Layout]] = []  # instance, first bytes, rest, layout
-        self.rows = 0  # rounds in self.runs
+        # runs (instance, first bytes, rest, layout) and the glue after them, in stream order
+        self.items: list[tuple[InstanceStart, bytes, bytes, _Layout] | NamedValue | Squeeze | Opening] = []
+        self.bulk_glue = False  # whether glue now follows a run (checked with it; else fed to the replay)
+        self.glue: GlueChecks | None = None  # set with the field
+        self.glue_exprs: Callable[[InstanceStart], tuple[Expr | None, Expr | None] | None] = _glue_exprs
+        self.exprs: dict[int, tuple[Expr | None, Expr | None]] = {}  # of the glued runs not yet flushed, by index
+        self.ended = False  # the end event has been read
+        self.rows = 0  # rounds in self.items
         self.pending_bytes = 0  # bytes of rounds in self.runs
         self.loose_rounds = 0  # rounds fed one by one (instances not taken as runs)
 
@@ -227,21 +235,36 @@ class _Sweeper:
         return Swept(header, appended)
 
     def _events(self, payloads: Iterator[Any]) -> dict[str, Any]:
-        """Every event up to the end event (returned), runs taken and checked by the block."""
+        """Every event up to the end event (returned), runs taken and checked by the block, with the
+        glue that follows them."""
         seq, replay, instance_cls = self.seq, self.replay, InstanceStart
         passive = (Note, BucketStats, UnknownEvent)
         glue = (NamedValue, Squeeze, Opening)
         for payload in payloads:
             record = seq.feed(payload)
             cls = record.__class__
-            if cls in glue or (cls is instance_cls and (record.claim_expr is not None  # type: ignore[union-attr]
-                               or record.final_expr is not None or record.eq_point is not None)):  # type: ignore[union-attr]
-                raise _GiveUp("glue between instances")  # the event-by-event replay checks it
-            if cls is instance_cls and self._runnable(record):  # type: ignore[arg-type]
-                self._take_run(record)  # type: ignore[arg-type]
-                continue
+            if cls in glue:
+                if self.bulk_glue:  # after a run: checked with it
+                    self.items.append(record)
+                    continue
+            elif cls is instance_cls:
+                glued = record.claim_expr is not None or record.final_expr is not None  # type: ignore[union-attr]
+                if glued:
+                    exprs = self.glue_exprs(record)  # type: ignore[arg-type]
+                    if exprs is None:
+                        raise _GiveUp("glue this pass does not check by the block")
+                if self._runnable(record):  # type: ignore[arg-type]
+                    if glued:
+                        self.exprs[record.index] = exprs  # type: ignore[union-attr]
+                    self._take_run(record)  # type: ignore[arg-type]
+                    self.bulk_glue = True
+                    continue
+                self.bulk_glue = False
             if cls in passive:
                 if cls is UnknownEvent and record.kind == "end":  # type: ignore[union-attr]
+                    if seq.finish_glue() is not None:
+                        raise _GiveUp("a final_expr names a value never sent")
+                    self.ended = True
                     return payload  # type: ignore[no-any-return]
                 if cls is Note and self.on_note is not None:
                     self.on_note(record)  # type: ignore[arg-type]
@@ -258,12 +281,14 @@ class _Sweeper:
 
     def _set_field(self, field: Field) -> None:
         from stepper.field.kernels.base import steady_heap
+        from stepper.verify.glue_block import GlueChecks
         from stepper.verify.roundblock import block_kernel, supports
 
         if not supports(field, 1) or self.replay.challenger is not None:
             raise _GiveUp("no runs in this field")  # every event one by one: the usual replay does that faster
         self.field = field
         self.kernel = block_kernel(field)
+        self.glue = GlueChecks(field, self.kernel)
         steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
 
     def _runnable(self, start: InstanceStart) -> bool:
@@ -281,7 +306,7 @@ class _Sweeper:
         if not rest.startswith(layout.final_prefix, len(rest) - layout.final_len):
             raise _GiveUp("no final after the rounds")
         self.seq.account_run(start.num_vars)
-        self.runs.append((start, head, rest, layout))
+        self.items.append((start, head, rest, layout))
         self.rows += start.num_vars
         self.pending_bytes += start.num_vars * layout.stride
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
@@ -316,31 +341,89 @@ class _Sweeper:
 
     # ----- checking a block -----------------------------------------------------------
     def _flush(self) -> None:
-        """Check the runs read so far and settle them into the replay, or give up. Runs are
-        grouped by layout (one array per round size) but settled and hashed in stream order."""
-        if not self.runs:
+        """Check the runs read so far, and the glue after them, and settle them into the replay, or
+        give up. Runs are grouped by layout (one array per round size) but settled and hashed in
+        stream order, the glue absorbed and squeezed between them."""
+        if not self.items:
             return
+        from stepper.verify.glue_block import Unsupported
         from stepper.verify.roundblock import block_passes
 
-        runs, kernel = self.runs, self.kernel
-        assert kernel is not None
-        self.runs, self.rows, self.pending_bytes = [], 0, 0
+        items, kernel, checks = self.items, self.kernel, self.glue
+        assert kernel is not None and checks is not None
+        self.items, self.rows, self.pending_bytes = [], 0, 0
         members: dict[_Layout, list[tuple[InstanceStart, bytes, bytes, _Layout]]] = {}
-        for run in runs:
-            members.setdefault(run[3], []).append(run)
+        for item in items:
+            if item.__class__ is tuple:
+                members.setdefault(item[3], []).append(item)  # type: ignore[index, arg-type]
         blocks = {layout: _Block(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
-        for start, _, _, layout in runs:
+        glue: list[NamedValue | Squeeze | Opening] = []  # since the last run
+        exprs = self.exprs
+        for item in items:
+            if item.__class__ is not tuple:
+                glue.append(item)  # type: ignore[arg-type]
+                continue
+            start, _, _, layout = item  # type: ignore[misc]
+            if glue:
+                self._absorb_glue(glue)
+                replay.settle_glue(glue)
+                glue = []
             block = blocks[layout]
-            replay.settle(start, block.next_final())
+            first, final = block.next_run()
+            if start.claim_expr is None and start.final_expr is None:
+                replay.settle(start, final)
+            else:
+                replay.settle(start, final, block.point_reader(first, start.num_vars))
+                checks.add(*exprs.pop(start.index), final, block.challenges, first, start)
             schedule = replay.schedule  # the first settle may start the default schedule
             if schedule is not None:
-                block.absorb(schedule, start.num_vars)
+                block.absorb(schedule, first, start.num_vars)
+        if glue:
+            self._absorb_glue(glue)
+            replay.settle_glue(glue)
         for block in blocks.values():
             rederived = block.rederived(kernel, replay.schedule)
             if not block_passes(kernel, block.evals, block.challenges, block.starts, block.claims, block.finals,
                                 rederived):
                 raise _GiveUp("a check fails in this block")
+        try:
+            passes = checks.check(replay.glue_values(), last=self.ended)
+        except Unsupported as err:
+            raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
+        if not passes or replay.failed:
+            raise _GiveUp("a glue check fails in this block")
+
+    def _absorb_glue(self, records: list[NamedValue | Squeeze | Opening]) -> None:
+        """The schedule's side of the values, openings and squeezes after a run, in order; a squeeze
+        must be the derived one."""
+        schedule = self.replay.schedule
+        if schedule is None:
+            return
+        field = self.field
+        assert field is not None
+        frames: list[bytes] = []
+        for record in records:
+            if record.__class__ is not Squeeze:
+                frames.append(schedule.glue_frame(record))  # type: ignore[arg-type]
+                continue
+            if frames:
+                schedule.absorb_frames(b"".join(frames))
+                frames = []
+            derived = schedule.squeeze(record.name, len(record.value) if record.listed else None)
+            want = derived if record.listed else (derived,)
+            if [field.lift(v) for v in record.items()] != [field.lift(v) for v in want]:  # type: ignore[union-attr]
+                raise _GiveUp("a squeeze differs from the derived one")
+        if frames:
+            schedule.absorb_frames(b"".join(frames))
+
+
+def _glue_exprs(start: InstanceStart) -> tuple[Expr | None, Expr | None] | None:
+    """The parsed claim_expr and final_expr of ``start``, or None when the block does not check them
+    (:func:`stepper.verify.glue_block.glue_exprs`)."""
+    from stepper.verify.glue_block import glue_exprs
+
+    return glue_exprs(start)
 
 
 class _Block:
@@ -354,6 +437,7 @@ class _Block:
         from stepper.verify.cells import decode_cells
 
         self.layout = layout
+        self.kernel = kernel
         final_len, width = layout.final_len, layout.width
         rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs for part in (head, rest[:-final_len])]),
                              dtype=np.uint8).reshape(-1, layout.stride)
@@ -377,17 +461,20 @@ class _Block:
         self._round_len = self._frame_len = 0
         self.digests: list[bytes] = []
 
-    def next_final(self) -> int:
-        """The final value of the next run of this block, in stream order."""
-        return next(self._finals)  # type: ignore[no-any-return, return-value]
+    def next_run(self) -> tuple[int, Element]:
+        """The first row and the final value of the next run of this block, in stream order."""
+        return next(self._firsts), next(self._finals)
 
-    def absorb(self, schedule: Sha256Schedule, rounds: int) -> None:
+    def point_reader(self, first: int, rounds: int) -> Callable[[], list[Element]]:
+        """A function giving the challenges r_1..r_mu of the run whose first row is ``first``."""
+        return lambda: self.kernel.to_list(self.challenges[first:first + rounds])
+
+    def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
         """Run the schedule over the next run of this block (its statement already absorbed)."""
         if self._view is None:
             frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
             self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]  # type: ignore[arg-type]
-        schedule.absorb_rows(self._view, next(self._firsts), rounds, self._round_len, self._frame_len,
-                             self.digests)
+        schedule.absorb_rows(self._view, first, rounds, self._round_len, self._frame_len, self.digests)
 
     def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
         """The challenges the schedule squeezed for every round of the block (None: no schedule)."""

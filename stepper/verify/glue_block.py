@@ -1,0 +1,250 @@
+"""The glue of instances swept by the block, checked by columns (no I/O).
+
+The sweep (:mod:`stepper.verify.sweep`) settles runs of rounds in bulk; an instance
+there may carry ``claim_expr`` and ``final_expr`` (transcripts/FORMAT.md, "The
+glue"). :class:`GlueChecks` gathers them and asks of a whole flush the question
+:mod:`stepper.verify.roundblock` asks of rounds: *does every check pass?*
+
+* link: ``claim_expr`` evaluated over the values sent before the instance equals
+  its claim;
+* evaluation: ``final_expr`` evaluated over the values, with the instance's own
+  challenge point for ``eq(a)``, equals the reduced claim (the final value, which
+  the block has already found equal to g_mu(r_mu)).
+
+Expressions that differ only in their names share a template
+(:func:`stepper.field.expr.parse_cached`: ``a7 + beta7*b7`` and ``a8 + beta8*b8``).
+The instances of a flush are grouped by template (and, for an evaluation, by the
+length of the point and the block that holds its challenges); each hole of the
+template becomes a column of the values it names, instance by instance, and the
+template is evaluated once per group with the block kernel: a numpy pass per node,
+a few per coordinate of an ``eq``. Values are read from the replay's glue book; names
+are unique in a proof and never change once sent, so reading them at the end of a
+flush gives what the replay reads when it checks. An evaluation whose values have not
+all arrived waits for the next flush.
+
+The answer is yes or no. On no, or on anything this module does not take (``point(NAME)``,
+``final(NAME)``, a text only the character parser reads, a list where an element is
+wanted, points of different lengths), the sweep gives up and the replay names what it
+finds. A passing check, here as there, is evidence about one run, not a soundness proof.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any, Mapping
+
+import numpy as np
+
+from stepper.field.expr import parse_cached
+from stepper.field.kernels import ExtensionKernel
+from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
+
+if TYPE_CHECKING:
+    from stepper.field.expr import Expr
+    from stepper.field.expr_syntax import Node, Template
+    from stepper.field.field import Element, Field
+    from stepper.field.kernels import Kernel
+    from stepper.transcript.model import InstanceStart
+
+__all__ = ["GlueChecks", "Unsupported", "glue_exprs"]
+
+
+class Unsupported(Exception):
+    """A glue expression or value this module does not check by columns: the replay must."""
+
+
+def glue_exprs(start: InstanceStart) -> tuple[Expr | None, Expr | None] | None:
+    """The parsed ``claim_expr`` and ``final_expr`` of ``start``, or None when they cannot be checked
+    here (``point(NAME)`` or ``final(NAME)``, a text only the character parser reads)."""
+    exprs = []
+    for text in (start.claim_expr, start.final_expr):
+        expr = None if text is None else parse_cached(text)
+        if expr is not None:
+            refs = expr.references()
+            if expr.template is None or refs.points or refs.finals:
+                return None
+        exprs.append(expr)
+    return exprs[0], exprs[1]
+
+
+# template, names filling its holes, the value it must equal; for an evaluation the challenges of its
+# block, its first row there, num_vars and order (None, 0, 0, "" for a link)
+_Entry = tuple[Any, tuple[str, ...], Any, Any, int, int, str]
+
+
+class GlueChecks:
+    """The link and evaluation checks of swept instances, a flush at a time."""
+
+    def __init__(self, field: Field, kernel: Kernel) -> None:
+        self.field = field
+        self.kernel = kernel
+        self.entries: list[_Entry] = []
+        self.waiting: list[_Entry] = []  # evaluations whose values had not all arrived at the last flush
+
+    def add(self, claim_expr: Expr | None, final_expr: Expr | None, final: Element, challenges: np.ndarray,
+            first_row: int, start: InstanceStart) -> None:
+        """An instance settled in bulk (its expressions from :func:`glue_exprs`): its claim, and its
+        final value at the point whose challenges (round order) are rows ``first_row`` ..
+        ``first_row + num_vars - 1`` of ``challenges``."""
+        if claim_expr is not None:
+            self.entries.append((claim_expr.template, claim_expr.holes, start.claim, None, 0, 0, ""))
+        if final_expr is not None:
+            self.entries.append((final_expr.template, final_expr.holes, final, challenges, first_row, start.num_vars,
+                                 start.order))
+
+    def check(self, values: Mapping[str, Any], *, last: bool = False) -> bool:
+        """Whether every gathered check passes with the values sent so far; an evaluation that
+        names a value not sent yet waits for the next call (with ``last``, it fails). Raises
+        :class:`Unsupported` for what only the replay checks."""
+        entries, self.entries, self.waiting = self.waiting + self.entries, [], []
+        groups: dict[tuple[int, int, int, str], list[_Entry]] = {}
+        for entry in entries:
+            template, _, _, challenges, _, num_vars, order = entry
+            groups.setdefault((id(template), id(challenges), num_vars, order), []).append(entry)
+        for group in groups.values():
+            try:
+                passes = _Columns(self.field, self.kernel, values, group).passes()
+            except KeyError:  # a value not sent yet: check those that have all theirs, keep the others
+                ready = [entry for entry in group if all(name in values for name in entry[1])]
+                if last or len(ready) == len(group):
+                    return False
+                self.waiting.extend(entry for entry in group if not all(name in values for name in entry[1]))
+                passes = not ready or _Columns(self.field, self.kernel, values, ready).passes()
+            if not passes:
+                return False
+        return True
+
+
+class _Columns:
+    """One group of checks sharing a template (and, for evaluations, the block, num_vars and order):
+    the template evaluated over columns, one entry per check."""
+
+    def __init__(self, field: Field, kernel: Kernel, values: Mapping[str, Any], group: list[_Entry]) -> None:
+        self.field = field
+        self.kernel = kernel
+        self.values = values
+        self.group = group
+        self.n = len(group)
+        self.template: Template = group[0][0]
+
+    def passes(self) -> bool:
+        expected = self.eval(self.template.root)
+        found = self.array([entry[2] for entry in self.group])
+        return bool(np.array_equal(expected, found))
+
+    # ----- columns ------------------------------------------------------------------------
+    def names(self, name: str) -> list[str]:
+        """The name a template's name stands for, per check (a hole ``#i``, or a word kept as is)."""
+        if name[0] != "#":
+            return [name] * self.n
+        i = int(name[1:])
+        return [entry[1][i] for entry in self.group]
+
+    def array(self, items: list[Any]) -> np.ndarray:
+        """Canonical elements (the Sequencer and the block checked them) as a kernel array."""
+        kernel = self.kernel
+        if isinstance(kernel, ExtensionKernel) or kernel.dtype is object:
+            return kernel.array(items)
+        return np.array(items, dtype=np.uint64)
+
+    def repeated(self, row: np.ndarray) -> np.ndarray:
+        return np.repeat(row[None], self.n, axis=0)
+
+    def constant(self, c: int) -> np.ndarray:
+        return self.repeated(self.array([self.field.embed(c)])[0])
+
+    def elements(self, name: str) -> np.ndarray:
+        """The column of one element per check."""
+        names = self.names(name)
+        values = self.values
+        if names.count(names[0]) == self.n:
+            value = values[names[0]]
+            if value.__class__ is list:
+                raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
+            return self.repeated(self.array([value])[0])
+        column = [values[n] for n in names]
+        if any(v.__class__ is list for v in column):
+            raise Unsupported("a list where an element is wanted")
+        return self.array(column)
+
+    def lists(self, name: str) -> list[Any]:
+        """The list value per check (one list for all when every check names the same one)."""
+        names = self.names(name)
+        column = [self.values[names[0]]] if names.count(names[0]) == self.n else [self.values[n] for n in names]
+        if any(v.__class__ is not list for v in column):
+            raise Unsupported("an element where a list is wanted")
+        return column
+
+    def point(self, side: Any) -> np.ndarray:
+        """A side of eq(...) as a matrix, one row of coordinates x_1..x_m per check."""
+        kernel = self.kernel
+        if side is None:  # the instance's own point
+            _, _, _, challenges, _, num_vars, order = self.group[0]
+            rows = np.array([entry[4] for entry in self.group], dtype=np.int64)[:, None] + np.arange(num_vars)
+            matrix = challenges[rows]
+            return matrix[:, ::-1] if order == "high-first" else matrix
+        if not isinstance(side, Table):
+            raise Unsupported("point(NAME) in eq(...)")
+        column = self.lists(side.name)
+        length = len(column[0])
+        if any(len(v) != length for v in column):
+            raise Unsupported("points of different lengths")
+        if length == 0:
+            empty = kernel.zeros(0)
+            return np.zeros((self.n, 0, *empty.shape[1:]), dtype=empty.dtype)
+        flat = self.array([x for v in column for x in v])
+        matrix = flat.reshape(len(column), length, *flat.shape[1:])
+        return self.repeated(matrix[0]) if len(column) < self.n else matrix
+
+    # ----- evaluation ---------------------------------------------------------------------
+    def eval(self, node: Node) -> np.ndarray:
+        kernel = self.kernel
+        if isinstance(node, Table):
+            return self.elements(node.name)
+        if isinstance(node, Const):
+            return self.constant(node.value)
+        if isinstance(node, Add):
+            return kernel.add(self.eval(node.left), self.eval(node.right))
+        if isinstance(node, Sub):
+            return kernel.sub(self.eval(node.left), self.eval(node.right))
+        if isinstance(node, Mul):
+            return kernel.mul(self.eval(node.left), self.eval(node.right))
+        if isinstance(node, Neg):
+            return kernel.neg(self.eval(node.operand))
+        if isinstance(node, Pow):
+            return self.power(self.eval(node.base), node.exponent)
+        if isinstance(node, Index):
+            column = self.lists(node.name)
+            if any(node.index >= len(v) for v in column):
+                raise Unsupported("an index past the end of a list")
+            picked = self.array([v[node.index] for v in column])
+            return self.repeated(picked[0]) if len(column) < self.n else picked
+        if isinstance(node, Eq):
+            return self.eq(node)
+        raise Unsupported(f"{type(node).__name__} outside eq(...)")
+
+    def power(self, base: np.ndarray, e: int) -> np.ndarray:
+        """base^e by repeated squaring."""
+        mul = self.kernel.mul
+        result: np.ndarray | None = None
+        while e:
+            if e & 1:
+                result = base if result is None else mul(result, base)
+            e >>= 1
+            if e:
+                base = mul(base, base)
+        return result if result is not None else self.constant(1)
+
+    def eq(self, node: Eq) -> np.ndarray:
+        """prod_j (a_j b_j + (1 - a_j)(1 - b_j)) = prod_j (1 - a_j - b_j + 2 a_j b_j), per check."""
+        kernel = self.kernel
+        a, b = self.point(node.left), self.point(node.right)
+        if a.shape[1] != b.shape[1]:
+            raise Unsupported("points of different lengths in eq(...)")
+        one = self.constant(1)
+        acc = one
+        for j in range(a.shape[1]):
+            x, y = a[:, j], b[:, j]
+            xy = kernel.mul(x, y)
+            term = kernel.sub(kernel.add(one, kernel.add(xy, xy)), kernel.add(x, y))
+            acc = kernel.mul(acc, term)
+        return acc
