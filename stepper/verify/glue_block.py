@@ -146,11 +146,12 @@ class _Columns:
             return kernel.array(items)
         return np.array(items, dtype=np.uint64)
 
-    def repeated(self, row: np.ndarray) -> np.ndarray:
-        return np.repeat(row[None], self.n, axis=0)
+    def repeated(self, one: np.ndarray) -> np.ndarray:
+        """An array of one check's value (a leading axis of length 1) repeated for every check."""
+        return np.repeat(one, self.n, axis=0)
 
     def constant(self, c: int) -> np.ndarray:
-        return self.repeated(self.array([self.field.embed(c)])[0])
+        return self.repeated(self.array([self.field.embed(c)]))
 
     def elements(self, name: str) -> np.ndarray:
         """The column of one element per check."""
@@ -160,7 +161,7 @@ class _Columns:
             value = values[names[0]]
             if value.__class__ is list:
                 raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
-            return self.repeated(self.array([value])[0])
+            return self.repeated(self.array([value]))
         column = [values[n] for n in names]
         if any(v.__class__ is list for v in column):
             raise Unsupported("a list where an element is wanted")
@@ -193,7 +194,7 @@ class _Columns:
             return np.zeros((self.n, 0, *empty.shape[1:]), dtype=empty.dtype)
         flat = self.array([x for v in column for x in v])
         matrix = flat.reshape(len(column), length, *flat.shape[1:])
-        return self.repeated(matrix[0]) if len(column) < self.n else matrix
+        return self.repeated(matrix) if len(column) < self.n else matrix
 
     # ----- evaluation ---------------------------------------------------------------------
     def eval(self, node: Node) -> np.ndarray:
@@ -217,7 +218,7 @@ class _Columns:
             if any(node.index >= len(v) for v in column):
                 raise Unsupported("an index past the end of a list")
             picked = self.array([v[node.index] for v in column])
-            return self.repeated(picked[0]) if len(column) < self.n else picked
+            return self.repeated(picked) if len(column) < self.n else picked
         if isinstance(node, Eq):
             return self.eq(node)
         raise Unsupported(f"{type(node).__name__} outside eq(...)")

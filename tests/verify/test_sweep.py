@@ -70,6 +70,32 @@ FIELDS = {
 FORMS = ("evals", "evals-no-1", "coeffs", "coeffs-no-linear")
 FAULTS = ("eval", "challenge", "final", "claim", "degree", "truncate", "flip", "noncanonical")
 FILE_FAULTS = ("truncate", "flip", "noncanonical")
+GLUE_FAULTS = ("link", "evaluation", "squeeze")  # a claim off its claim_expr, an opening off, a squeeze not derived
+
+# final_expr texts (instance i; value w{i} is its point, sent before it) with F, the part without -c{i}:
+# c{i} = F - the reduced claim makes the evaluation hold. Several texts, so the sweep groups by template.
+EVALUATIONS = (
+    ("eq(w{i}) * (a{i}*b{i}) - c{i}", lambda ar, e, w, a, b: ar.mul(e, ar.mul(a, b))),
+    ("eq(w{i}, w{i}) * a{i}^2 + 3*b{i} - c{i}",
+     lambda ar, e, w, a, b: ar.add(ar.mul(eq_plain(ar, w, w), ar.mul(a, a)), ar.mul(ar.const(3), b))),
+    ("a{i} * w{i}[0] - (c{i} - b{i})", lambda ar, e, w, a, b: ar.add(ar.mul(a, w[0]), b)),
+    ("-c{i} + eq(w{i})^2 * 7 + a{i} - b{i}",
+     lambda ar, e, w, a, b: ar.sub(ar.add(ar.mul(ar.mul(e, e), ar.const(7)), a), b)),
+)
+# claim_expr texts over the previous instance j's openings and squeeze, with their value
+LINKS = (
+    ("a{j} + beta{j}*b{j}", lambda ar, a, b, c, beta: ar.add(a, ar.mul(beta, b))),
+    ("(1 - beta{j}) * c{j} + beta{j}^2 * a{j}",
+     lambda ar, a, b, c, beta: ar.add(ar.mul(ar.sub(ar.const(1), beta), c), ar.mul(ar.mul(beta, beta), a))),
+)
+
+
+def eq_plain(ar: Plain, x: list[Elem], y: list[Elem]) -> Elem:
+    """eq(x, y) = prod_j (x_j y_j + (1 - x_j)(1 - y_j)) (common practice, no source)."""
+    acc, one = ar.const(1), ar.const(1)
+    for a, b in zip(x, y):
+        acc = ar.mul(acc, ar.add(ar.mul(a, b), ar.mul(ar.sub(one, a), ar.sub(one, b))))
+    return acc
 
 
 # ----- the independent prover ------------------------------------------------------------
@@ -92,6 +118,8 @@ class Knobs:
     between_rounds: bool = False  # notes between rounds (the sweep must give up on such a run)
     no_final: bool = False
     ragged: bool = False  # an instance whose rounds carry different numbers of values
+    glue: bool = False  # every instance: a point value before it, final_expr, openings and a squeeze after
+    # it, and claim_expr over the previous instance's glue (not on batched instances)
     appended: int = 0  # notes appended after the end event
     fault: str | None = None
     seed: int = 0
@@ -153,7 +181,8 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
     writer = TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"})
     offsets: list[tuple[str, int, int]] = []
     regular = block_field and knobs.fault not in FILE_FAULTS and knobs.fault != "degree"
-    fault_instance = rng.randrange(knobs.instances)
+    fault_instance = rng.randrange(1 if knobs.fault in GLUE_FAULTS and knobs.instances > 1 else 0, knobs.instances)
+    previous: tuple[int, Elem, Elem, Elem, Elem] | None = None  # the last instance's j, a, b, c, beta
     any_ragged = False
 
     def put(payload: dict) -> None:
@@ -189,6 +218,18 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
         final = not (knobs.no_final and rng.random() < 0.3) or faulty == "final"
         claim = element(ar, rng)
         batched = knobs.batch and rng.random() < 0.3
+        glue_keys: dict[str, str] = {}
+        if knobs.glue:
+            w = [element(ar, rng) for _ in range(num_vars)]
+            put({"type": "value", "name": f"w{i}", "value": [ar.json(x) for x in w]})
+            evaluation = rng.choice(EVALUATIONS)
+            glue_keys["final_expr"] = evaluation[0].format(i=i)
+            if previous is not None and not batched:
+                link = rng.choice(LINKS)
+                glue_keys["claim_expr"] = link[0].format(j=previous[0])
+                claim = link[1](ar, *previous[1:])
+                if faulty == "link":
+                    claim = bump(ar, claim)
         if batched:
             coefficient, terms = element(ar, rng), [element(ar, rng) for _ in range(rng.randint(1, 3))]
             claim, power = ar.const(0), ar.const(1)
@@ -197,9 +238,10 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
             put({"type": "batch", "coefficient": ar.json(coefficient), "terms": [ar.json(t) for t in terms]})
         put({"type": "instance", "name": f"boarding-permutation-{i}", "num_vars": num_vars, "degree": degree,
              "claim": ar.json(bump(ar, claim) if faulty == "claim" else claim), "form": form,
-             "order": rng.choice(["low-first", "high-first"])})
+             "order": (order := rng.choice(["low-first", "high-first"])), **glue_keys})
         regular = regular and form == "evals" and not batched and final and not ragged
         fault_round = rng.randint(1, num_vars)
+        challenges: list[Elem] = []
         for k in range(1, num_vars + 1):
             if knobs.between_rounds and rng.random() < 0.15:
                 extra(f"in instance {i} before round {k}")
@@ -214,11 +256,24 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
                 values = values + [element(ar, rng)] * (degree + 2 - len(values))
             put({"type": "round", "evals": [ar.json(v) for v in values]})
             r = schedule.challenge() if schedule is not None else element(ar, rng)
-            put({"type": "challenge", "value": ar.json(bump(ar, r) if faulty == "challenge" and k == fault_round
-                                                       else r)})
+            recorded = bump(ar, r) if faulty == "challenge" and k == fault_round else r
+            put({"type": "challenge", "value": ar.json(recorded)})
+            challenges.append(recorded)
             claim = horner(ar, coeffs, r)
         if final:
             put({"type": "final", "value": ar.json(bump(ar, claim) if faulty == "final" else claim)})
+        if knobs.glue:  # openings that make final_expr hold at the instance's point, then a squeeze
+            point = challenges if order == "low-first" else challenges[::-1]
+            a, b = element(ar, rng), element(ar, rng)
+            c = ar.sub(evaluation[1](ar, eq_plain(ar, w, point), w, a, b), claim)
+            if faulty == "evaluation":
+                c = bump(ar, c)
+            for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
+                put({"type": "opening", "name": name, "value": ar.json(value)})
+            beta = schedule.squeeze(f"beta{i}") if schedule is not None else element(ar, rng)
+            put({"type": "squeeze", "name": f"beta{i}", "value": ar.json(bump(ar, beta) if faulty == "squeeze"
+                                                                        else beta)})
+            previous = (i, a, b, c, beta)
     writer.close()
     body = path.read_bytes()
     path.write_bytes(body + seal(body, writer.events))
@@ -306,16 +361,20 @@ def test_shipped_transcripts_check_the_same_with_the_sweep_on_or_off(capsys, mon
         assert code in (0, 1)
 
 
-def test_the_sweep_takes_the_honest_shipped_transcripts_without_glue(capsys, monkeypatch):
-    samples = REPO / "transcripts" / "samples"
-    for name in ("boarding-jsonl.sumtr", "deck-channel-adapter.sumtr"):
-        code, _, _, swept = check_both(capsys, monkeypatch, samples / name)
-        assert code == 0 and swept is not None, name
-    # the sailing's proofs carry glue (openings, values): the sweep leaves them to the event-by-event replay
-    ferries = REPO / "transcripts" / "ferries"
-    for name in ("ferries-honest.sumtr", "ferries-direct.sumtr"):
-        code, _, _, swept = check_both(capsys, monkeypatch, ferries / name)
-        assert code == 0 and swept is None, name
+HONEST_SHIPPED = [REPO / "transcripts" / "samples" / name for name in
+                  ("boarding-jsonl.sumtr", "deck-channel-adapter.sumtr", "sailing-recorder.sumtr")] + [
+                  REPO / "transcripts" / "ferries" / name for name in
+                  ("ferries-honest.sumtr", "ferries-direct.sumtr", "ferries-compressed.sumtr",
+                   "ferries-fingerprint.sumtr")]
+
+
+@pytest.mark.parametrize("path", HONEST_SHIPPED, ids=[p.name for p in HONEST_SHIPPED])
+def test_the_sweep_takes_the_honest_shipped_transcripts_glue_included(capsys, monkeypatch, path):
+    # the sailing's proofs carry glue (values, openings, squeezes, claim_expr, final_expr) and a batched or
+    # compressed instance, which the sweep hands to the replay while it takes the others as runs
+    code, _, _, swept = check_both(capsys, monkeypatch, path)
+    assert code == 0 and swept is not None
+    assert_same_report(path, 20)
 
 
 RARE = st.sampled_from([False, False, False, True])  # so that many transcripts stay regular
@@ -637,10 +696,8 @@ def test_a_file_without_an_end_event_is_declined_before_it_is_read(tmp_path, mon
 
 
 @pytest.mark.parametrize("kind", ["none", "opening", "claim_expr"])
-def test_sweep_gives_up_on_glue_and_the_replay_checks_it(tmp_path, monkeypatch, kind):
-    # the glue (transcripts/FORMAT.md, "The glue") is checked event by event, never skipped by the sweep
-    from stepper.transcript.store import TranscriptWriter
-
+def test_sweep_takes_glue_after_runs_and_reports_as_the_replay(tmp_path, monkeypatch, kind):
+    # the glue (transcripts/FORMAT.md, "The glue") after an instance taken as a run is checked in the sweep
     path = tmp_path / "glued.sumtr"
     with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
         out.write_payload({"type": "field", "name": "goldilocks"})
@@ -656,5 +713,85 @@ def test_sweep_gives_up_on_glue_and_the_replay_checks_it(tmp_path, monkeypatch, 
             if kind == "opening":
                 out.write_payload({"type": "opening", "name": f"o{i}", "value": 6})
     monkeypatch.delenv("STEPPER_SWEEP", raising=False)
-    swept = sweep(path, Replay(keep_instances=20, emit_passing=False), min_bytes=0)
-    assert (swept is None) == (kind != "none")  # the same proof without glue is swept
+    assert sweep(path, Replay(keep_instances=20, emit_passing=False), min_bytes=0) is not None
+    assert_same_report(path, 20)
+
+
+# ----- 4. the glue: checked in the sweep, the same report as the replay --------------------
+
+
+@pytest.mark.parametrize("field", sorted(FIELDS))
+@pytest.mark.parametrize("schedule", ["builtin", "none"])
+def test_sweep_takes_glued_honest_transcripts_and_reports_their_glue_as_the_replay(tmp_path, field, schedule):
+    # values, openings, squeezes, claim_expr and final_expr in every instance, in every named field: the
+    # per-instance openings, link and evaluation results in --json are the replay's, to the byte
+    knobs = Knobs(field=field, schedule=schedule, instances=14, max_vars=6, max_degree=3, extras=True, appended=1,
+                  glue=True, seed=23)
+    written = write_transcript(tmp_path / "glued.sumtr", knobs)
+    assert written.regular
+    assert_same_report(written.path, 20)
+    assert_same_report(written.path, 3)  # most instances' glue checked by columns only
+    report = swept_report(written.path, 20)[0]  # type: ignore[index]
+    first = report.to_json()["instances"][1]
+    assert first["link"]["status"] == "pass" and first["evaluation"]["status"] == "pass"
+    assert [o["name"] for o in first["openings"]] == ["a1", "b1", "c1"]
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "bn254", "p97"])
+@pytest.mark.parametrize("fault", GLUE_FAULTS)
+def test_sweep_gives_up_on_every_glue_fault_and_check_names_it_as_the_replay(tmp_path, capsys, monkeypatch, field,
+                                                                            fault):
+    knobs = Knobs(field=field, instances=8, max_vars=4, glue=True, fault=fault, seed=41)
+    written = write_transcript(tmp_path / f"{fault}.sumtr", knobs)
+    code, out, _, swept = check_both(capsys, monkeypatch, written.path)
+    assert swept is None and code == 1
+    assert f"check {'squeeze' if fault == 'squeeze' else fault}" in out
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@given(knobs=st.builds(
+    Knobs,
+    field=st.sampled_from(sorted(FIELDS)),
+    schedule=st.sampled_from(["builtin", "builtin", "none", "foreign"]),
+    instances=st.integers(1, 25), max_vars=st.integers(1, 6), max_degree=st.integers(1, 4),
+    fewer=st.booleans(), compressed=RARE, batch=RARE, extras=st.booleans(), no_final=RARE, glue=st.just(True),
+    fault=st.sampled_from((None,) * 6 + GLUE_FAULTS + ("eval", "claim", "final", "challenge")),
+    seed=st.integers(0, 2**32)),
+    rows=st.sampled_from(["0", "5", "20"]))
+def test_generated_glued_transcripts_check_the_same_with_the_sweep_on_or_off(tmp_path, capsys, monkeypatch, knobs,
+                                                                             rows):
+    written = write_transcript(tmp_path / "glued.sumtr", knobs)
+    code, _, _, swept = check_both(capsys, monkeypatch, written.path, "--rows", rows)
+    event(f"exit {code}, {'regular' if written.regular else 'irregular'}, {'swept' if swept else 'gave up'}")
+    if written.regular:  # every instance one run, glue after it: taken exactly when the proof passes
+        assert (swept is not None) == (code == 0)
+    if swept is not None:
+        assert code == 0
+        assert_same_report(written.path, 20)
+
+
+def test_glue_late_in_a_block_waits_for_the_next_flush(tmp_path, monkeypatch):
+    # a flush after every run: an instance's openings are read only in the next flush
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 1)
+    written = write_transcript(tmp_path / "small-blocks.sumtr", Knobs(instances=9, glue=True, seed=3))
+    assert_same_report(written.path, 2)
+
+
+def test_point_and_final_of_an_earlier_instance_are_left_to_the_replay(tmp_path, monkeypatch):
+    # point(NAME) and final(NAME) are not checked by columns: the sweep gives up and the replay checks them
+    path = tmp_path / "points.sumtr"
+    with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
+        out.write_payload({"type": "field", "name": "goldilocks"})
+        out.write_payload({"type": "instance", "name": "leg.0", "num_vars": 1, "degree": 1, "claim": 3})
+        out.write_payload({"type": "round", "evals": [1, 2]})
+        out.write_payload({"type": "challenge", "value": 5})
+        out.write_payload({"type": "final", "value": 6})  # g(5) = 1 + 5 * (2 - 1)
+        out.write_payload({"type": "instance", "name": "leg.1", "num_vars": 1, "degree": 1, "claim": 6,
+                           "claim_expr": "final(leg.0)"})
+        out.write_payload({"type": "round", "evals": [2, 4]})
+        out.write_payload({"type": "challenge", "value": 1})
+        out.write_payload({"type": "final", "value": 4})
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
+    assert swept_report(path, 20) is None
+    assert event_by_event(path, 20)[0].verdict == "accept"
