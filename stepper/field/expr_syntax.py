@@ -242,7 +242,7 @@ class _ReferencesDraft:
 
 
 def _pick(kind: tuple[int | str, ...], names: list[str]) -> tuple[str, ...]:
-    return tuple(dict.fromkeys([names[i] if i.__class__ is int else i for i in kind]))  # type: ignore[index]
+    return tuple(dict.fromkeys([names[i] if isinstance(i, int) else i for i in kind]))
 
 
 def _fast_parse(text: str) -> Node | None:

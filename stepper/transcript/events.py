@@ -46,7 +46,6 @@ from stepper.transcript.model import (
     NamedValue,
     Opening,
     Squeeze,
-    is_glue_name,
     BatchDecl,
     BucketStats,
     ChallengeMsg,

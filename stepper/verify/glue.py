@@ -68,7 +68,7 @@ class GlueBook:
 
     def add_all(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:
         """:meth:`add` for each record, in order."""
-        self.values.update({record.name: list(record.value) if record.__class__ is not Opening and record.listed
+        self.values.update({record.name: list(record.value) if not isinstance(record, Opening) and record.listed
                             else record.value for record in records})
 
     def close_instance(self, start: InstanceStart, challenges: list[Element] | None, final: Element | None) -> None:

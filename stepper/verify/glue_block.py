@@ -30,6 +30,7 @@ finds. A passing check, here as there, is evidence about one run, not a soundnes
 
 from __future__ import annotations
 
+from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping
 
 import numpy as np
@@ -78,13 +79,15 @@ class GlueChecks:
         self.field = field
         self.kernel = kernel
         self.entries: list[_Entry] = []
-        self.waiting: list[_Entry] = []  # evaluations whose values had not all arrived at the last flush
+        self.waiting: list[_Entry] = []  # checks whose values had not all arrived at the last call
+        self.added = 0  # entries added for the last instance
 
     def add(self, claim_expr: Expr | None, final_expr: Expr | None, final: Element, challenges: np.ndarray,
             first_row: int, start: InstanceStart) -> None:
         """An instance settled in bulk (its expressions from :func:`glue_exprs`): its claim, and its
         final value at the point whose challenges (round order) are rows ``first_row`` ..
         ``first_row + num_vars - 1`` of ``challenges``."""
+        self.added = (claim_expr is not None) + (final_expr is not None)
         if claim_expr is not None:
             self.entries.append((claim_expr.template, claim_expr.holes, start.claim, None, 0, 0, ""))
         if final_expr is not None:
@@ -92,10 +95,18 @@ class GlueChecks:
                                  start.order))
 
     def check(self, values: Mapping[str, Any], *, last: bool = False) -> bool:
-        """Whether every gathered check passes with the values sent so far; an evaluation that
-        names a value not sent yet waits for the next call (with ``last``, it fails). Raises
+        """Whether every gathered check passes with the values sent so far. Only the instance added
+        last may name values not sent yet (the Sequencer requires a final_expr's values before the
+        next instance): its checks then wait for the next call (with ``last``, they fail). Raises
         :class:`Unsupported` for what only the replay checks."""
-        entries, self.entries, self.waiting = self.waiting + self.entries, [], []
+        entries, self.entries = self.waiting + self.entries, []
+        self.waiting = []
+        tail = len(entries) - self.added
+        while len(entries) > tail >= 0 and not all(name in values for name in entries[-1][1]):
+            if last:
+                return False
+            self.waiting.insert(0, entries.pop())
+        self.added = 0
         groups: dict[tuple[int, int, int, str], list[_Entry]] = {}
         for entry in entries:
             template, _, _, challenges, _, num_vars, order = entry
@@ -103,9 +114,9 @@ class GlueChecks:
         for group in groups.values():
             try:
                 passes = _Columns(self.field, self.kernel, values, group).passes()
-            except KeyError:  # a value not sent yet: check those that have all theirs, keep the others
+            except KeyError:  # waiting since an earlier call, and still not sent: keep those that are not
                 ready = [entry for entry in group if all(name in values for name in entry[1])]
-                if last or len(ready) == len(group):
+                if last:
                     return False
                 self.waiting.extend(entry for entry in group if not all(name in values for name in entry[1]))
                 passes = not ready or _Columns(self.field, self.kernel, values, ready).passes()
@@ -136,8 +147,7 @@ class _Columns:
         """The name a template's name stands for, per check (a hole ``#i``, or a word kept as is)."""
         if name[0] != "#":
             return [name] * self.n
-        i = int(name[1:])
-        return [entry[1][i] for entry in self.group]
+        return list(map(itemgetter(int(name[1:])), map(itemgetter(1), self.group)))
 
     def array(self, items: list[Any]) -> np.ndarray:
         """Canonical elements (the Sequencer and the block checked them) as a kernel array."""
@@ -162,8 +172,8 @@ class _Columns:
             if value.__class__ is list:
                 raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
             return self.repeated(self.array([value]))
-        column = [values[n] for n in names]
-        if any(v.__class__ is list for v in column):
+        column = list(map(values.__getitem__, names))
+        if list in set(map(type, column)):
             raise Unsupported("a list where an element is wanted")
         return self.array(column)
 

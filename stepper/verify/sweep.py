@@ -47,17 +47,15 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
+from stepper.verify.packed_runs import GiveUp as _GiveUp, Layout, RunBlock, layout_of
 from stepper.transcript.model import (
     FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, NamedValue, Note, Opening, RoundMsg, Squeeze,
     UnknownEvent,
 )
 
 if TYPE_CHECKING:
-    import numpy as np
-
-    from stepper.verify.fiatshamir import Sha256Schedule
     from stepper.field.expr import Expr
-    from stepper.field.field import Element, Field
+    from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.verify.glue_block import GlueChecks
     from stepper.verify.replay import Replay
@@ -80,37 +78,6 @@ class Swept:
     appended: int
     completeness: str = "complete"
     digest: str = "verified"
-
-
-class _GiveUp(Exception):
-    """The sweep does not apply here: replay event by event instead."""
-
-
-@dataclass(frozen=True, slots=True)
-class _Layout:
-    """Bytes of one round event, one challenge event and one final event as the writer packs them
-    (prefixes before the packed values; lengths precomputed: they are read per instance)."""
-
-    values: int
-    width: int
-    round_prefix: bytes
-    challenge_prefix: bytes
-    final_prefix: bytes
-    round_len: int  # prefix and values of a round event
-    stride: int  # a round event and its challenge event
-    final_len: int
-
-
-def _layout(values: int, width: int) -> _Layout:
-    def prefix(payload: dict[str, Any], size: int) -> bytes:
-        return msgpack.packb(payload, use_bin_type=True)[:-size]
-
-    round_prefix = prefix({"type": "round", "evals": bytes(values * width)}, values * width)
-    challenge_prefix = prefix({"type": "challenge", "value": bytes(width)}, width)
-    final_prefix = prefix({"type": "final", "value": bytes(width)}, width)
-    round_len = len(round_prefix) + values * width
-    return _Layout(values, width, round_prefix, challenge_prefix, final_prefix, round_len,
-                   round_len + len(challenge_prefix) + width, len(final_prefix) + width)
 
 
 def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note], object] | None = None,
@@ -161,10 +128,10 @@ class _Sweeper:
         self.total = 0
         self.field: Field | None = None
         self.kernel: Kernel | None = None
-        self.layout: _Layout | None = None  # of the last run read
-        self.layouts: dict[int, _Layout] = {}  # by values per round
+        self.layout: Layout | None = None  # of the last run read
+        self.layouts: dict[int, Layout] = {}  # by values per round
         # runs (instance, first bytes, rest, layout) and the glue after them, in stream order
-        self.items: list[tuple[InstanceStart, bytes, bytes, _Layout] | NamedValue | Squeeze | Opening] = []
+        self.items: list[tuple[InstanceStart, bytes, bytes, Layout] | NamedValue | Squeeze | Opening] = []
         self.bulk_glue = False  # whether glue now follows a run (checked with it; else fed to the replay)
         self.glue: GlueChecks | None = None  # set with the field
         self.glue_exprs: Callable[[InstanceStart], tuple[Expr | None, Expr | None] | None] = _glue_exprs
@@ -245,7 +212,7 @@ class _Sweeper:
             cls = record.__class__
             if cls in glue:
                 if self.bulk_glue:  # after a run: checked with it
-                    self.items.append(record)
+                    self.items.append(record)  # type: ignore[arg-type]
                     continue
             elif cls is instance_cls:
                 glued = record.claim_expr is not None or record.final_expr is not None  # type: ignore[union-attr]
@@ -255,7 +222,7 @@ class _Sweeper:
                         raise _GiveUp("glue this pass does not check by the block")
                 if self._runnable(record):  # type: ignore[arg-type]
                     if glued:
-                        self.exprs[record.index] = exprs  # type: ignore[union-attr]
+                        self.exprs[record.index] = exprs  # type: ignore[union-attr, assignment]
                     self._take_run(record)  # type: ignore[arg-type]
                     self.bulk_glue = True
                     continue
@@ -312,7 +279,7 @@ class _Sweeper:
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
             self._flush()
 
-    def _new_layout(self, head: bytes) -> tuple[bytes, _Layout]:
+    def _new_layout(self, head: bytes) -> tuple[bytes, Layout]:
         """The layout a run's first bytes announce."""
         from stepper.verify.roundblock import supports
 
@@ -333,7 +300,7 @@ class _Sweeper:
         if layout is None:
             if len(self.layouts) >= 64:
                 raise _GiveUp("too many round sizes")
-            layout = self.layouts[values] = _layout(values, field.elem_bytes)
+            layout = self.layouts[values] = layout_of(values, field.elem_bytes)
         if not head.startswith(layout.round_prefix):
             raise _GiveUp("round header")
         self.layout = layout
@@ -352,11 +319,11 @@ class _Sweeper:
         items, kernel, checks = self.items, self.kernel, self.glue
         assert kernel is not None and checks is not None
         self.items, self.rows, self.pending_bytes = [], 0, 0
-        members: dict[_Layout, list[tuple[InstanceStart, bytes, bytes, _Layout]]] = {}
+        members: dict[Layout, list[tuple[InstanceStart, bytes, bytes, Layout]]] = {}
         for item in items:
             if item.__class__ is tuple:
                 members.setdefault(item[3], []).append(item)  # type: ignore[index, arg-type]
-        blocks = {layout: _Block(layout, group, kernel) for layout, group in members.items()}
+        blocks = {layout: RunBlock(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
         glue: list[NamedValue | Squeeze | Opening] = []  # since the last run
         exprs = self.exprs
@@ -412,7 +379,7 @@ class _Sweeper:
                 frames = []
             derived = schedule.squeeze(record.name, len(record.value) if record.listed else None)
             want = derived if record.listed else (derived,)
-            if [field.lift(v) for v in record.items()] != [field.lift(v) for v in want]:  # type: ignore[union-attr]
+            if [field.lift(v) for v in record.items()] != [field.lift(v) for v in want]:  # type: ignore[union-attr, arg-type]
                 raise _GiveUp("a squeeze differs from the derived one")
         if frames:
             schedule.absorb_frames(b"".join(frames))
@@ -424,92 +391,3 @@ def _glue_exprs(start: InstanceStart) -> tuple[Expr | None, Expr | None] | None:
     from stepper.verify.glue_block import glue_exprs
 
     return glue_exprs(start)
-
-
-class _Block:
-    """The runs of one layout in a flush, as arrays (rows of packed bytes, decoded values),
-    and the Fiat-Shamir digests squeezed for them so far."""
-
-    def __init__(self, layout: _Layout, runs: list[tuple[InstanceStart, bytes, bytes, _Layout]],
-                 kernel: Kernel) -> None:
-        import numpy as np
-
-        from stepper.verify.cells import decode_cells
-
-        self.layout = layout
-        self.kernel = kernel
-        final_len, width = layout.final_len, layout.width
-        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs for part in (head, rest[:-final_len])]),
-                             dtype=np.uint8).reshape(-1, layout.stride)
-        round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
-        if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
-                and np.array_equal(rows[:, layout.round_len:challenge_at],
-                                   _bytes_row(layout.challenge_prefix, len(rows)))):
-            raise _GiveUp("events laid out otherwise")
-        self.rows = rows
-        evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
-        self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
-        self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
-        self.finals = decode_cells(kernel, np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
-                                                         dtype=np.uint8), width)
-        self.claims = kernel.array([start.claim for start, _, _, _ in runs])
-        self.starts = np.zeros(len(runs), dtype=np.int64)
-        np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
-        self._finals = iter(kernel.to_list(self.finals))
-        self._firsts = iter(self.starts.tolist())
-        self._view: memoryview | None = None
-        self._round_len = self._frame_len = 0
-        self.digests: list[bytes] = []
-
-    def next_run(self) -> tuple[int, Element]:
-        """The first row and the final value of the next run of this block, in stream order."""
-        return next(self._firsts), next(self._finals)
-
-    def point_reader(self, first: int, rounds: int) -> Callable[[], list[Element]]:
-        """A function giving the challenges r_1..r_mu of the run whose first row is ``first``."""
-        return lambda: self.kernel.to_list(self.challenges[first:first + rounds])
-
-    def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
-        """Run the schedule over the next run of this block (its statement already absorbed)."""
-        if self._view is None:
-            frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
-            self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]  # type: ignore[arg-type]
-        schedule.absorb_rows(self._view, first, rounds, self._round_len, self._frame_len, self.digests)
-
-    def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
-        """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
-        import numpy as np
-
-        from stepper.field.kernels import ExtensionKernel
-        from stepper.verify.roundblock import reduce_wide
-
-        if not self.digests and schedule is None:
-            return None
-        per = schedule.squeezes_per_challenge if schedule is not None else 0
-        if schedule is None or len(self.digests) != len(self.rows) * per:
-            raise _GiveUp("challenges re-derived for only part of the block")
-        samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
-        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(len(self.rows) * samples, -1)
-        reduced = reduce_wide(kernel, squeezed, schedule.wide_bytes)
-        return reduced.reshape(self.challenges.shape)
-
-
-def _bytes_row(data: bytes, count: int) -> np.ndarray:
-    import numpy as np
-
-    return np.broadcast_to(np.frombuffer(data, dtype=np.uint8), (count, len(data)))
-
-
-def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: _Layout) -> tuple[np.ndarray, int]:
-    """Per round, the schedule's round frame then its challenge frame, built from the packed
-    bytes (one row each), and the length of the round frame."""
-    import numpy as np
-
-    round_head, challenge_head = heads
-    round_len = len(round_head) + layout.values * layout.width
-    frames = np.empty((len(rows), round_len + len(challenge_head) + layout.width), dtype=np.uint8)
-    frames[:, :len(round_head)] = np.frombuffer(round_head, dtype=np.uint8)
-    frames[:, len(round_head):round_len] = rows[:, len(layout.round_prefix):layout.round_len]
-    frames[:, round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
-    frames[:, round_len + len(challenge_head):] = rows[:, layout.stride - layout.width:]
-    return frames, round_len

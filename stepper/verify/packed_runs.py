@@ -1,0 +1,149 @@
+"""Runs of rounds as the writer packs them, decoded and hashed by the block (no I/O).
+
+The whole-file pass (:mod:`stepper.verify.sweep`) takes an instance's rounds, challenges and
+final as one run of bytes when they follow its ``instance`` event laid out exactly as
+:class:`~stepper.transcript.store.writer.TranscriptWriter` packs them. :class:`Layout`
+holds the fixed bytes of one round, challenge and final event for a round size;
+:class:`RunBlock` holds the runs of one layout read before a check: the packed rows, the
+values decoded from them (:func:`stepper.verify.cells.decode_cells`), and the Fiat-Shamir
+digests squeezed over frames built from the same bytes
+(:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`). Whatever does not fit
+raises :class:`GiveUp`: the caller then replays the file event by event.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Callable
+
+import msgpack
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from stepper.field.field import Element
+    from stepper.field.kernels import Kernel
+    from stepper.transcript.model import InstanceStart
+    from stepper.verify.fiatshamir import Sha256Schedule
+
+__all__ = ["GiveUp", "Layout", "layout_of", "RunBlock"]
+
+
+class GiveUp(Exception):
+    """The sweep does not apply here: replay event by event instead."""
+
+
+@dataclass(frozen=True, slots=True)
+class Layout:
+    """Bytes of one round event, one challenge event and one final event as the writer packs them
+    (prefixes before the packed values; lengths precomputed: they are read per instance)."""
+
+    values: int
+    width: int
+    round_prefix: bytes
+    challenge_prefix: bytes
+    final_prefix: bytes
+    round_len: int  # prefix and values of a round event
+    stride: int  # a round event and its challenge event
+    final_len: int
+
+
+def layout_of(values: int, width: int) -> Layout:
+    def prefix(payload: dict[str, Any], size: int) -> bytes:
+        return msgpack.packb(payload, use_bin_type=True)[:-size]
+
+    round_prefix = prefix({"type": "round", "evals": bytes(values * width)}, values * width)
+    challenge_prefix = prefix({"type": "challenge", "value": bytes(width)}, width)
+    final_prefix = prefix({"type": "final", "value": bytes(width)}, width)
+    round_len = len(round_prefix) + values * width
+    return Layout(values, width, round_prefix, challenge_prefix, final_prefix, round_len,
+                   round_len + len(challenge_prefix) + width, len(final_prefix) + width)
+
+
+class RunBlock:
+    """The runs of one layout in a flush, as arrays (rows of packed bytes, decoded values),
+    and the Fiat-Shamir digests squeezed for them so far."""
+
+    def __init__(self, layout: Layout, runs: list[tuple[InstanceStart, bytes, bytes, Layout]],
+                 kernel: Kernel) -> None:
+        import numpy as np
+
+        from stepper.verify.cells import decode_cells
+
+        self.layout = layout
+        self.kernel = kernel
+        final_len, width = layout.final_len, layout.width
+        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs for part in (head, rest[:-final_len])]),
+                             dtype=np.uint8).reshape(-1, layout.stride)
+        round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
+        if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
+                and np.array_equal(rows[:, layout.round_len:challenge_at],
+                                   _bytes_row(layout.challenge_prefix, len(rows)))):
+            raise GiveUp("events laid out otherwise")
+        self.rows = rows
+        evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
+        self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
+        self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
+        self.finals = decode_cells(kernel, np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
+                                                         dtype=np.uint8), width)
+        self.claims = kernel.array([start.claim for start, _, _, _ in runs])
+        self.starts = np.zeros(len(runs), dtype=np.int64)
+        np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
+        self._finals = iter(kernel.to_list(self.finals))
+        self._firsts = iter(self.starts.tolist())
+        self._view: memoryview | None = None
+        self._round_len = self._frame_len = 0
+        self.digests: list[bytes] = []
+
+    def next_run(self) -> tuple[int, Element]:
+        """The first row and the final value of the next run of this block, in stream order."""
+        return next(self._firsts), next(self._finals)
+
+    def point_reader(self, first: int, rounds: int) -> Callable[[], list[Element]]:
+        """A function giving the challenges r_1..r_mu of the run whose first row is ``first``."""
+        return lambda: self.kernel.to_list(self.challenges[first:first + rounds])
+
+    def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
+        """Run the schedule over the next run of this block (its statement already absorbed)."""
+        if self._view is None:
+            frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
+            self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]  # type: ignore[arg-type]
+        schedule.absorb_rows(self._view, first, rounds, self._round_len, self._frame_len, self.digests)
+
+    def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
+        """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
+        import numpy as np
+
+        from stepper.field.kernels import ExtensionKernel
+        from stepper.verify.roundblock import reduce_wide
+
+        if not self.digests and schedule is None:
+            return None
+        per = schedule.squeezes_per_challenge if schedule is not None else 0
+        if schedule is None or len(self.digests) != len(self.rows) * per:
+            raise GiveUp("challenges re-derived for only part of the block")
+        samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
+        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(len(self.rows) * samples, -1)
+        reduced = reduce_wide(kernel, squeezed, schedule.wide_bytes)
+        return reduced.reshape(self.challenges.shape)
+
+
+def _bytes_row(data: bytes, count: int) -> np.ndarray:
+    import numpy as np
+
+    return np.broadcast_to(np.frombuffer(data, dtype=np.uint8), (count, len(data)))
+
+
+def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: Layout) -> tuple[np.ndarray, int]:
+    """Per round, the schedule's round frame then its challenge frame, built from the packed
+    bytes (one row each), and the length of the round frame."""
+    import numpy as np
+
+    round_head, challenge_head = heads
+    round_len = len(round_head) + layout.values * layout.width
+    frames = np.empty((len(rows), round_len + len(challenge_head) + layout.width), dtype=np.uint8)
+    frames[:, :len(round_head)] = np.frombuffer(round_head, dtype=np.uint8)
+    frames[:, len(round_head):round_len] = rows[:, len(layout.round_prefix):layout.round_len]
+    frames[:, round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
+    frames[:, round_len + len(challenge_head):] = rows[:, layout.stride - layout.width:]
+    return frames, round_len

@@ -1,0 +1,138 @@
+"""stepper.verify.glue_block: link and evaluation checks of many instances at once, by columns.
+
+The independent side is plain integer arithmetic (tests/plain_sumcheck.py): eq(x, y) =
+prod_j (x_j y_j + (1 - x_j)(1 - y_j)) (common practice, no source) and each expression
+written out by hand. Moduli: Goldilocks 2^64 - 2^32 + 1 and BabyBear 2^31 - 2^27 + 1 (common
+practice, no source), 97, the BN254 scalar field (EIP-197, from memory); the quartic extension
+of BabyBear by X^4 - 11 (from memory; stepper's field constructor checks irreducibility).
+"""
+
+from __future__ import annotations
+
+import random
+import sys
+from pathlib import Path
+
+import pytest
+
+sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer arithmetic
+
+from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
+from stepper.field.field import get_field  # noqa: E402
+from stepper.field.spec import field_from_spec  # noqa: E402
+from stepper.transcript.model import InstanceStart  # noqa: E402
+from stepper.verify.glue_block import GlueChecks, Unsupported, glue_exprs  # noqa: E402
+from stepper.verify.roundblock import block_kernel  # noqa: E402
+
+BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
+GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
+ARITHMETIC = {"goldilocks": Plain(GOLDILOCKS), "p97": Plain(97), "bn254": Plain(BN254),
+              "babybear^4": Plain(BABYBEAR, 4, 11)}
+
+FINAL = "eq(w) * (a{i}*b{i} - c{i}) + 5*d{i}^3 - w[1]"
+CLAIM = "(1 - beta{i}) * a{i} + beta{i}^2 * eq(w, u{i})"
+
+
+def field_of(name: str):  # type: ignore[no-untyped-def]
+    ar = ARITHMETIC[name]
+    return get_field(ar.p) if ar.k == 1 else field_from_spec(ar.spec())
+
+
+def eq_plain(ar: Plain, x: list[Elem], y: list[Elem]) -> Elem:
+    acc, one = ar.const(1), ar.const(1)
+    for a, b in zip(x, y):
+        acc = ar.mul(acc, ar.add(ar.mul(a, b), ar.mul(ar.sub(one, a), ar.sub(one, b))))
+    return acc
+
+
+def element(ar: Plain, rng: random.Random) -> Elem:
+    return rng.randrange(ar.p) if ar.k == 1 else tuple(rng.randrange(ar.p) for _ in range(ar.k))
+
+
+def glued_instances(name: str, count: int, num_vars: int, seed: int):  # type: ignore[no-untyped-def]
+    """``count`` instances over one point value w: their starts, values, round-order challenges and honest
+    finals, with CLAIM and FINAL holding (computed here in plain integers)."""
+    ar, rng = ARITHMETIC[name], random.Random(seed)
+    w = [element(ar, rng) for _ in range(num_vars)]
+    values: dict[str, object] = {"w": [ar.json(x) if ar.k == 1 else x for x in w]}
+    starts, challenges, finals = [], [], []
+    for i in range(count):
+        a, b, c, d, beta = (element(ar, rng) for _ in range(5))
+        u = [element(ar, rng) for _ in range(num_vars)]
+        values.update({f"a{i}": a, f"b{i}": b, f"c{i}": c, f"d{i}": d, f"beta{i}": beta, f"u{i}": u})
+        order = rng.choice(["low-first", "high-first"])
+        rounds = [element(ar, rng) for _ in range(num_vars)]
+        point = rounds if order == "low-first" else rounds[::-1]
+        final = ar.sub(ar.add(ar.mul(eq_plain(ar, w, point), ar.sub(ar.mul(a, b), c)),
+                              ar.mul(ar.const(5), ar.mul(d, ar.mul(d, d)))), w[1])
+        claim = ar.add(ar.mul(ar.sub(ar.const(1), beta), a), ar.mul(ar.mul(beta, beta), eq_plain(ar, w, u)))
+        starts.append(InstanceStart(i, f"deck.{i}", num_vars, 2, claim, order=order,
+                                    claim_expr=CLAIM.format(i=i), final_expr=FINAL.format(i=i)))
+        challenges.extend(rounds)
+        finals.append(final)
+    return starts, values, challenges, finals
+
+
+def gathered(name: str, starts, challenges, finals) -> GlueChecks:  # type: ignore[no-untyped-def]
+    field = field_of(name)
+    kernel = block_kernel(field)
+    checks = GlueChecks(field, kernel)
+    rows = kernel.array(challenges)
+    for start, final in zip(starts, finals):
+        exprs = glue_exprs(start)
+        assert exprs is not None
+        checks.add(*exprs, final, rows, start.index * start.num_vars, start)
+    return checks
+
+
+@pytest.mark.parametrize("name", sorted(ARITHMETIC))
+def test_link_and_evaluation_of_many_instances_pass_when_every_one_holds(name):
+    starts, values, challenges, finals = glued_instances(name, 40, 3, seed=5)
+    assert gathered(name, starts, challenges, finals).check(values, last=True)
+
+
+@pytest.mark.parametrize("name", sorted(ARITHMETIC))
+@pytest.mark.parametrize("where", ["final", "claim", "opening"])
+def test_one_wrong_value_among_many_fails_the_whole_group(name, where):
+    ar = ARITHMETIC[name]
+    starts, values, challenges, finals = glued_instances(name, 40, 3, seed=6)
+    if where == "final":
+        finals[17] = ar.add(finals[17], ar.const(1))
+    elif where == "claim":
+        start = starts[29]
+        starts[29] = InstanceStart(start.index, start.name, start.num_vars, start.degree,
+                                   ar.add(start.claim, ar.const(1)), order=start.order, claim_expr=start.claim_expr,
+                                   final_expr=start.final_expr)
+    else:
+        values["c3"] = ar.add(values["c3"], ar.const(1))  # type: ignore[arg-type]
+    assert not gathered(name, starts, challenges, finals).check(values, last=True)
+
+
+def test_an_evaluation_waits_for_openings_sent_after_the_flush():
+    starts, values, challenges, finals = glued_instances("goldilocks", 6, 2, seed=7)
+    late = {name: values.pop(name) for name in ("a5", "b5", "c5")}
+    checks = gathered("goldilocks", starts, challenges, finals)
+    assert checks.check(dict(values))  # the others pass; instance 5's link (it names a5) and evaluation wait
+    assert len(checks.waiting) == 2
+    values.update(late)
+    assert checks.check(values, last=True) and not checks.waiting
+
+
+def test_a_value_that_never_comes_fails_at_the_end():
+    starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=8)
+    del values["d2"]
+    assert not gathered("goldilocks", starts, challenges, finals).check(values, last=True)
+
+
+def test_what_only_the_replay_checks_is_refused():
+    point = InstanceStart(1, "deck.1", 1, 1, 0, claim_expr="eq(point(deck.0), w)")
+    final = InstanceStart(1, "deck.1", 1, 1, 0, claim_expr="final(deck.0) + 1")
+    assert glue_exprs(point) is None and glue_exprs(final) is None
+    starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=9)
+    values["a1"] = [1, 2]  # a list where an element is wanted
+    with pytest.raises(Unsupported):
+        gathered("goldilocks", starts, challenges, finals).check(values, last=True)
+    starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=9)
+    values["u2"] = [1, 2, 3]  # eq(w, u2) over points of different lengths
+    with pytest.raises(Unsupported):
+        gathered("goldilocks", starts, challenges, finals).check(values, last=True)
