@@ -766,8 +766,7 @@ def test_generated_glued_transcripts_check_the_same_with_the_sweep_on_or_off(tmp
     event(f"exit {code}, {'regular' if written.regular else 'irregular'}, {'swept' if swept else 'gave up'}")
     if written.regular:  # every instance one run, glue after it: taken exactly when the proof passes
         assert (swept is not None) == (code == 0)
-    if swept is not None:
-        assert code == 0
+    if swept is not None and code == 0:  # a failure around an instance not taken as a run is the replay's own
         assert_same_report(written.path, 20)
 
 
