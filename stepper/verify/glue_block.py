@@ -36,7 +36,7 @@ from typing import TYPE_CHECKING, Any, Mapping
 import numpy as np
 
 from stepper.field.expr import parse_cached
-from stepper.field.kernels import ExtensionKernel
+from stepper.field.kernels import GoldilocksKernel, SmallPrimeKernel, Word64Kernel
 from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
 
 if TYPE_CHECKING:
@@ -136,6 +136,7 @@ class _Columns:
         self.group = group
         self.n = len(group)
         self.template: Template = group[0][0]
+        self.words = isinstance(kernel, (SmallPrimeKernel, GoldilocksKernel, Word64Kernel))  # one uint64 each
 
     def passes(self) -> bool:
         expected = self.eval(self.template.root)
@@ -151,10 +152,9 @@ class _Columns:
 
     def array(self, items: list[Any]) -> np.ndarray:
         """Canonical elements (the Sequencer and the block checked them) as a kernel array."""
-        kernel = self.kernel
-        if isinstance(kernel, ExtensionKernel) or kernel.dtype is object:
-            return kernel.array(items)
-        return np.array(items, dtype=np.uint64)
+        if self.words:
+            return np.array(items, dtype=np.uint64)
+        return self.kernel.array(items)
 
     def repeated(self, one: np.ndarray) -> np.ndarray:
         """An array of one check's value (a leading axis of length 1) repeated for every check."""
