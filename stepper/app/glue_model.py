@@ -147,6 +147,14 @@ class GlueTrail:
                     failed.append(((summary.index, evaluation.round), "evaluation"))
         return failed
 
+    def failures(self, report: Any, field: Field | None, records: Sequence[Event]) -> list[tuple[Position, str]]:
+        """Every failed glue check (position and check): the report's links and evaluations and
+        the squeezes re-derived, in stream order at one place: a squeeze sent before the
+        instance, its link; the evaluation once the openings are in, then squeezes sent after."""
+        squeezes = [(c.position, "squeeze") for c in self.squeeze_checks(field, records) if c.status == "fail"]
+        early = [s for s in squeezes if s[0][1] == 0]
+        return early + self.settle(report) + [s for s in squeezes if s[0][1] != 0]
+
     def squeeze_checks(self, field: Field | None, records: Sequence[Event]) -> list[SqueezeCheck]:
         """Every squeeze so far with its re-derived value and status (the shadow catches up)."""
         if len(self._checks) == len(self.squeezes) or field is None:

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field as dc_field
 from typing import Any, Iterable, Mapping
 
 from stepper.app.glue_model import GLUE_KINDS, GlueTrail
+from stepper.errors import StepperError
 from stepper.app.round_rows import (
     STATUS_MARKS, RoundRow, StatusMark, instance_rows, mark_of, shorten, strip_line, verdict_status,
 )
@@ -169,7 +170,12 @@ class ProofModel:
                 self.unknown.append(record)
         self._records.append(record)
         if self._replay is not None and isinstance(record, _CHECKED):
-            for result in self._replay.feed(record):
+            try:
+                results = self._replay.feed(record)
+            except StepperError:
+                self._records.pop()  # refused by the replay (the reader says why): never replayed again
+                raise
+            for result in results:
                 self._take(result)
 
     def feed_all(self, records: Iterable[Event]) -> None:
@@ -233,13 +239,7 @@ class ProofModel:
     def _settle_glue(self, report: Any) -> None:
         """The replay's link and evaluation verdicts, and the squeezes re-derived: their
         failures join the list (at the positions `stepper check` reports them)."""
-        squeezes = [(c.position, "squeeze") for c in self.glue.squeeze_checks(self.field, self._records)
-                    if c.status == "fail"]
-        # in stream order at one place: a squeeze sent before the instance, its link; the
-        # evaluation once the openings are in, then squeezes sent after them
-        early = [s for s in squeezes if s[0][1] == 0]
-        failed = early + self.glue.settle(report) + [s for s in squeezes if s[0][1] != 0]
-        for (index, number), check in failed:
+        for (index, number), check in self.glue.failures(report, self.field, self._records):
             if 0 <= index < len(self.instances):
                 view = self.instances[index]
                 if not view.glue_failed:

@@ -191,3 +191,21 @@ def test_an_instance_of_no_variables_shows_its_evaluation_on_its_round_0_row(tmp
     assert "link: ■ pass (link)" in text and "evaluation: ✕ fail (evaluation)" in text
     assert text.splitlines()[2].startswith("evaluation: ✕ fail: final_expr gives 5, the reduced claim is 10")
     assert model.strip_line(0) == f"■{LINK_MARK}{EVALUATION_MARK}✕"
+
+
+def test_a_glue_expression_the_replay_cannot_evaluate_stops_the_read_with_checks_reason(tmp_path, capsys):
+    path = _written("index-past-end", [
+        {"type": "field", "name": "babybear"},
+        {"type": "value", "name": "tau", "value": [5, 6, 7]},
+        {"type": "instance", "name": "fares.zero", "num_vars": 1, "degree": 1, "claim": 10, "final_expr": "tau[5]"},
+        {"type": "round", "evals": [3, 7]},
+        {"type": "challenge", "value": 9},
+    ]).values[0](tmp_path)
+    capsys.readouterr()
+    assert main(["check", str(path)]) == 2
+    reason = capsys.readouterr().err.strip().removeprefix("stepper check: ")
+    source = TranscriptSource(path)
+    model = source.open(strict=False)
+    assert source.problem == reason  # the replay's refusal, word for word
+    assert model.verdict() == "incomplete" and model.failures == []  # the record it refused is not replayed
+    assert model.round_count == 1
