@@ -170,14 +170,14 @@ def block_passes(kernel: Kernel, evals: np.ndarray, challenges: np.ndarray, star
     ``evals`` (n, m) and ``challenges`` (n,) hold the rounds of all instances in stream order
     (with a trailing axis of k coefficients over an extension); ``starts`` the row of each
     instance's first round (ascending, the first 0); ``claims`` and ``finals`` one value per
-    instance; ``rederived`` the re-derived challenges or None."""
+    instance; ``rederived`` the re-derived challenges (canonical) or None."""
     n, m = evals.shape[:2]
     if n == 0 or len(starts) == 0 or starts[0] != 0:
         return False
-    if not (below_p(kernel, evals) and below_p(kernel, challenges) and below_p(kernel, finals)
-            and below_p(kernel, claims)):
-        return False
     if rederived is not None and not np.array_equal(rederived, challenges):
+        return False  # equal to the re-derived ones (canonical: reduced mod p), the challenges are canonical too
+    if not (below_p(kernel, evals) and (rederived is not None or below_p(kernel, challenges))
+            and below_p(kernel, finals) and below_p(kernel, claims)):
         return False
     carried = evaluate_at(kernel, evals, challenges)
     claim_in = np.empty_like(carried)
