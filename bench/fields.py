@@ -12,6 +12,11 @@ time is compared. Each galois result is also checked against ours.
 Targets (issue 2): Goldilocks multiply >= 5x faster than galois; BabyBear^4
 multiply >= 100x faster than galois; 31-bit multiply within 1.5x of bare numpy.
 
+After the table, for BN254 and BLS12-381: the limb kernel the whole-file check runs its
+blocks on (``LimbKernel``: 29-bit limbs, Montgomery products in numpy) against the object
+arrays of Python ints of ``field.vmul``, on blocks of 2^14 elements (the sweep's size), and
+g(r) of degree-3 rounds from g(0..3) as the sweep computes it on each.
+
     python3 bench/fields.py                      # about a minute
     python3 bench/fields.py --fields goldilocks babybear^4 --repeat 5
 """
@@ -129,6 +134,37 @@ def measure(label: str, log2n: int, galois_log2n: int, repeat: int) -> list[Timi
     return timings
 
 
+def limb_rows(labels: list[str], repeat: int, log2n: int = 14) -> None:
+    """Multiply and add of the wide primes on LimbKernel rows vs object arrays of Python ints."""
+    from stepper.field.kernels.limbs import LimbKernel
+    from stepper.verify.roundblock import _evaluate_wide
+
+    n = 1 << log2n
+    for label in labels:
+        field = field_of(label)
+        if field.is_extension or field.p < 2**64:
+            continue
+        limbs, objects = LimbKernel(field), field.kernel
+        rng = np.random.default_rng(20261)
+        a, b = objects.random(n, rng), objects.random(n, rng)
+        la, lb = limbs.array(a), limbs.array(b)
+        for op in ("mul", "add"):
+            ours, theirs = getattr(limbs, op), getattr(objects, op)
+            if limbs.to_list(ours(la, lb)) != objects.to_list(theirs(a, b)):
+                sys.exit(f"bench/fields.py: {label} {op}: limb rows and Python ints disagree")
+            limb_ns, object_ns = best_ns(lambda: ours(la, lb), n, repeat), best_ns(lambda: theirs(a, b), n, repeat)
+            print(f"{label + ' limbs':<20}{op:<5}{limb_ns:12.2f} ns vs object arrays {object_ns:9.2f} ns: "
+                  f"{object_ns / limb_ns:5.1f}x faster (2^{log2n} elements)", flush=True)
+        evals = objects.random(4 * n, rng).reshape(n, 4)  # g(0..3) of degree-3 rounds, and their challenges
+        limb_evals = limbs.array(evals.reshape(-1)).reshape(n, 4, limbs.n)
+        if limbs.to_list(limbs.evaluate(limb_evals, la)) != [int(v) for v in _evaluate_wide(field.p, evals, a)]:
+            sys.exit(f"bench/fields.py: {label} g(r): limb rows and Python ints disagree")
+        limb_ns = best_ns(lambda: limbs.evaluate(limb_evals, la), n, repeat)
+        object_ns = best_ns(lambda: _evaluate_wide(field.p, evals, a), n, repeat)
+        print(f"{label + ' limbs':<20}{'g(r)':<5}{limb_ns:12.2f} ns vs object arrays {object_ns:9.2f} ns: "
+              f"{object_ns / limb_ns:5.1f}x faster (per degree-3 round)", flush=True)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--log2n", type=int, default=20, help="vector length 2^N for stepper and numpy (default 20)")
@@ -154,6 +190,7 @@ def main(argv: list[str] | None = None) -> int:
                 flush=True,
             )
     print(f"\n(2^{args.log2n} elements, best of {args.repeat}; {time.perf_counter() - start:.0f} s in all)")
+    limb_rows(args.fields, args.repeat)
     by_key = {(t.field, t.op): t for t in rows}
     targets = []
     if ("goldilocks", "mul") in by_key:
