@@ -72,13 +72,14 @@ FAULTS: dict[str, tuple[bool, str]] = {
 GLUE_FAULT_KINDS: dict[str, tuple[str, ...]] = {
     "open-reversed": ("zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
                       "ferries-fingerprint"),
-    "open-other-point": ("ferries",),
+    "open-other-point": ("perm-grouped", "ferries"),
     "open-wrong-table": ("zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
                          "ferries-fingerprint"),
     "stale-coefficient": ("gkr-product", "ferries-fingerprint"),
     "drop-eq": ("zerocheck-eq",),
     "double-eq": ("zerocheck-eq",),
-    "final-without-eq": ("zerocheck", "zerocheck-eq", "gkr-product", "ferries", "ferries-fingerprint"),
+    "final-without-eq": ("zerocheck", "zerocheck-eq", "perm-grouped", "gkr-product", "ferries",
+                         "ferries-fingerprint"),
 }
 
 

@@ -22,6 +22,7 @@ from stepper.provers.engine import ProofRun
 from stepper.provers.faults import GLUE_FAULT_KINDS
 from stepper.provers.generic import prove_zero
 from stepper.provers.grouped import prove_permutation_grouped
+from stepper.provers.openings import OPENING_FAULTS
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
 from stepper.provers.scenario import DECK_CONSTRAINTS, build_sailing, deck_tables, ticket_values
 
@@ -36,6 +37,16 @@ DECK = "deck-slots-zero"
 FINGERPRINT = "manifest"
 
 
+def _glue_targets(fault: str, groups: int) -> set[int]:
+    """The instances of a sailing's proof whose glue a glue fault can break."""
+    targets = {2 if groups else 1}  # the deck zero-check: openings and an eq term
+    if fault in ("open-reversed", "open-wrong-table"):
+        targets.add(0)  # the permutation's first (or only) instance opens its tables
+    if groups and fault in (*OPENING_FAULTS, "final-without-eq"):
+        targets.add(1)  # the grouped second layer opens the bits after an earlier point, under an eq term
+    return targets
+
+
 def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_vars: int, groups: int,
                   switch_round: int | None = None, tamper: str | None = None, form: str = "evals") -> ProofRun:
     """Both statements of the sailing ``seed`` builds (route from the seed); ``groups`` 0
@@ -43,11 +54,12 @@ def prove_sailing(channel: ProofChannel, counter: MulCounter, *, seed: int, num_
     field = counter.field
     fault = channel.fault
     deck_index = 2 if groups else 1
-    if fault is not None and fault.name in GLUE_FAULT_KINDS and fault.instance != deck_index and (
-            fault.instance != 0 or fault.name not in ("open-reversed", "open-wrong-table")):
+    if fault is not None and fault.name in GLUE_FAULT_KINDS and fault.instance not in _glue_targets(fault.name, groups):
         raise UsageError(f"expected fault {fault.name} aimed at the deck zero-check (--fault-instance {deck_index})"
                          + (" or, for an opening fault, the permutation (0)"
                             if fault.name in ("open-reversed", "open-wrong-table") else "")
+                         + (" or the grouped permutation's second layer (1)"
+                            if groups and fault.name in (*OPENING_FAULTS, "final-without-eq") else "")
                          + f", found instance {fault.instance}")
     sailing = build_sailing(seed, num_vars, tamper=tamper)
     channel.note(f"Brackwater Ferries sailing {sailing.name}: {len(sailing.tickets)} tickets, "

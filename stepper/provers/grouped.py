@@ -7,9 +7,16 @@ let P_j(y) = prod over i in G_j of e_i(y) (see :mod:`stepper.provers.permcheck`)
   ending at a point rho; the prover then states v_j = P~_j(rho). Its glue: alpha
   as the value ``alpha`` before it, the openings of f and of each P_j at rho after
   it, and ``final_expr`` f * p1 * ... * pL over them.
-* A ``batch`` event with coefficient beta combines them: the layer-2 claim is
+* The verifier squeezes beta (the ``squeeze`` ``beta``, after the openings) and a
+  ``batch`` event with it combines them: the layer-2 claim is
   sum_j beta^j v_j = sum_y eq(rho, y) * sum_j beta^j prod_{i in G_j} e~_i(y),
-  degree c + 1.
+  degree c + 1, and its ``claim_expr`` p1 + beta * p2 + ... links it to the openings.
+* After layer 2's rounds the prover opens the bit tables s_1..s_mu of sigma^-1 at
+  its point r (s~_i(r) from the folded e~_i(r): one product each) and ``final_expr``
+  is eq(rho) * sum_j beta^j prod_{i in G_j} (1 - alpha_i + (2 alpha_i - 1) s_i), with
+  rho written point(NAME) of layer 1 when its name is an identifier, else restated
+  as the value ``rho`` (then that it is layer 1's point is this prover's doing, not
+  a check).
 * Layer 2, round k: g_k(X) = A_k * eq(rho_k, X) * sum_j beta^j S_j(X) with
   S_j(X) = sum_z E_k(z) * prod_{i in G_j} e~_i(r_1..r_(k-1), X, z),
   A_k = prod_{i<k} eq(rho_i, r_i) and E_k(z) = eq(rho_(k+1..mu), z). Bucketed
@@ -25,7 +32,8 @@ bucket, the bound 2^(2^k * c) as ``bound_log2`` and the remaining 2^(mu-k).
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Sequence
+import re
+from typing import TYPE_CHECKING, Iterator, Mapping, Sequence
 
 import numpy as np
 
@@ -56,6 +64,7 @@ __all__ = ["MAX_SWITCH_ROUND", "SIZES_LIMIT", "bucket_products", "direct_product
 MAX_SWITCH_ROUND = 5  # rounds 1..4 can be bucketed (see the look-up rule in prove_group_products)
 SIZES_LIMIT = 4096  # buckets events list entries-per-bucket up to this many buckets
 _FOLD_FAULTS = ("flip-order", "stale-challenge", "product-of-sums")
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.]*")  # an instance name an expression can cite as point(NAME)
 
 
 def bucket_products(width: int, widest: int) -> int:
@@ -97,9 +106,11 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     if not 1 <= groups <= mu:
         raise UsageError(f"expected a group count between 1 and mu = {mu}, found {groups}")
     fault = channel.fault
-    if fault is not None and fault.instance == 1 and fault.name in (*_FOLD_FAULTS, "open-reversed", "open-wrong-table"):
-        raise UsageError(f"fault {fault.name} acts on folded tables or openings; aim it at the first instance of a "
-                         "grouped proof")
+    if fault is not None and fault.instance == 1 and fault.name in _FOLD_FAULTS:
+        raise UsageError(f"fault {fault.name} acts on folded tables; aim it at the first instance of a grouped proof")
+    if fault is not None and fault.instance == 0 and fault.name == "final-without-eq":
+        raise UsageError("fault final-without-eq needs an eq term; the first instance of a grouped proof has none: "
+                         "aim it at the second (--fault-instance 1)")
     if switch_round is not None and not 1 <= switch_round <= MAX_SWITCH_ROUND:
         raise UsageError(f"expected a switch-over round between 1 and {MAX_SWITCH_ROUND} (bucket look-up tables grow "
                          f"as 2^(2^k)), found {switch_round}")
@@ -120,7 +131,10 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
              for j in range(groups)]
     send_openings(channel, tables, {"f": field.vlist(folded["f"])[0],
                                     **{f"p{j + 1}": v for j, v in enumerate(terms)}}, rho)
-    beta = channel.statement_challenges("batch", [field.encode(v) for v in terms], 1)[0]
+    rho_ref = f"point({name})" if _NAME.fullmatch(name) else "rho"
+    if rho_ref == "rho":  # no way to name layer 1's point in an expression: restate it (not checked)
+        channel.value("rho", rho)
+    beta: Element = channel.squeeze("beta")  # type: ignore[assignment]  # drawn after the openings it batches
     channel.batch(beta, terms, [f"p{j + 1} at the first instance's point" for j in range(groups)])
     counter.phase(f"{name}/groups/setup")
     powers = [field.one]
@@ -130,8 +144,11 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
     for pw, v in zip(powers, terms):
         claim2 = field.add(claim2, counter.mul(pw, v))
     del folded  # one entry per table left; the layer-2 rounds need the memory more
+    without_eq = fault is not None and fault.instance == 1 and fault.name == "final-without-eq"
+    glue = {"claim_expr": " + ".join(_power_term(j, f"p{j + 1}") for j in range(groups)),
+            "final_expr": _layer2_final_expr(parts, None if without_eq else rho_ref)}
     run2 = prove_group_products(channel, counter, f"{name}/groups", codes, alpha, parts, rho, powers, claim2,
-                                switch_round=switch_round, form=form)
+                                switch_round=switch_round, form=form, glue=glue)
     kept = (WitnessInstance(name, tables, summand.combine()),
             _layer2_witness(field, run2.name, codes, alpha, parts, rho, powers)) if witness else ()
     return ProofRun((run1, run2), kept, counter.per_phase())
@@ -140,15 +157,16 @@ def prove_permutation_grouped(channel: ProofChannel, counter: MulCounter, statem
 def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, codes: Sequence[np.ndarray],
                          alpha: Sequence[Element], parts: Sequence[Sequence[int]], rho: Sequence[Element],
                          powers: Sequence[Element], claim: Element, *, switch_round: int | None = None,
-                         form: str = "evals") -> InstanceRun:
+                         form: str = "evals", glue: Mapping[str, str] | None = None) -> InstanceRun:
     """Layer 2: sum_y eq(rho, y) * sum_j powers[j] * prod_{i in G_j} e~_i(y) = claim, the
     bits of sigma^-1 given as each group's codes. Rounds before ``switch_round`` are
-    bucketed (None: while buckets pay off)."""
+    bucketed (None: while buckets pay off). After the final value the prover opens the bit
+    tables s_1..s_mu at the challenge point (``glue``: the instance's claim_expr and final_expr)."""
     field = counter.field
     mu = len(rho)
     widest = max(len(g) for g in parts)
     degree = widest + 1
-    channel.start_instance(name, mu, degree, claim, form=form)
+    channel.start_instance(name, mu, degree, claim, form=form, **(glue or {}))
     counter.phase(f"{name}/setup")
     one = field.one
     low = [field.sub(one, a) for a in alpha]  # e_i where the bit is 0
@@ -217,7 +235,61 @@ def prove_group_products(channel: ProofChannel, counter: MulCounter, name: str, 
                                                                    point))) for i in range(mu)]
     final = _final_value(field, bound, parts, rho, powers, point)
     channel.final(final)
+    counter.phase(f"{name}/openings")
+    if tables is not None:  # s~_i(r) from the folded e~_i(r) = (1 - alpha_i) + (2 alpha_i - 1) s~_i(r): one product
+        ends = [_bit_opening(counter, field.vlist(t)[0], low[i], slope[i], codes, parts, i, challenges)
+                for i, t in enumerate(tables)]
+    else:  # every round bucketed: eq(r, .) from the bound eq table, then s~_i(r) adds it where bit i is set
+        high = counter.vscale(bound_eq, challenges[-1])
+        full_eq = np.concatenate([field.vsub(bound_eq, high), high])
+        ends = [field.vsum(full_eq[b.astype(bool)]) for b in _bit_planes(codes, parts)]
+    send_openings(channel, _BitTables(field, codes, parts), {f"s{i + 1}": v for i, v in enumerate(ends)},
+                  challenges, earlier_points=[tuple(rho)])
     return InstanceRun(name, claim, tuple(challenges), final, tuple(round_mults))
+
+
+def _bit_opening(counter: MulCounter, bound: Element, low: Element, slope: Element, codes: Sequence[np.ndarray],
+                 parts: Sequence[Sequence[int]], bit: int, point: Sequence[Element]) -> Element:
+    field = counter.field
+    if field.is_zero(slope):  # alpha_i = 1/2: e_i is constant, so fold the bit table itself
+        return counter.mle(_BitTables(field, codes, parts)[f"s{bit + 1}"], point)
+    return counter.mul(field.sub(bound, low), field.inv(slope))
+
+
+class _BitTables(Mapping[str, np.ndarray]):
+    """The bit tables s_1..s_mu as field vectors, by name, each made only when asked for
+    (an opening fault re-evaluates one; an honest run needs none of them)."""
+
+    def __init__(self, field: Field, codes: Sequence[np.ndarray], parts: Sequence[Sequence[int]]) -> None:
+        self._field, self._codes, self._parts = field, codes, parts
+        self._names = [f"s{i + 1}" for group in parts for i in group]
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        bit = int(name[1:]) - 1
+        for code, group in zip(self._codes, self._parts):
+            if bit in group:
+                plane = (code >> code.dtype.type(group.index(bit))) & 1
+                return self._field.vec(plane.astype(np.int64))
+        raise KeyError(name)
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(sorted(self._names, key=lambda n: int(n[1:])))
+
+    def __len__(self) -> int:
+        return len(self._names)
+
+
+def _power_term(j: int, term: str) -> str:
+    """beta^j * term, written plainly for j = 0 and 1."""
+    return term if j == 0 else f"beta * {term}" if j == 1 else f"beta^{j} * {term}"
+
+
+def _layer2_final_expr(parts: Sequence[Sequence[int]], rho_ref: str | None) -> str:
+    """eq(rho) * sum_j beta^j prod_{i in G_j} e_i over the openings s_i, with
+    e_i = 1 - alpha_i + (2 alpha_i - 1) s_i (``rho_ref`` None: the eq term left out)."""
+    groups = [" * ".join(f"(1 - alpha[{i}] + (2 * alpha[{i}] - 1) * s{i + 1})" for i in group) for group in parts]
+    inner = " + ".join(_power_term(j, g) for j, g in enumerate(groups))
+    return inner if rho_ref is None else f"eq({rho_ref}) * ({inner})"
 
 
 def _bucket_sums(counter: MulCounter, occ: GroupBuckets, group: Sequence[int], subset: np.ndarray,
@@ -348,6 +420,7 @@ def _layer2_witness(field: Field, name: str, codes: Sequence[np.ndarray], alpha:
     tables: dict[str, np.ndarray] = {"eq": eq}
     for i, b in enumerate(_bit_planes(codes, parts)):
         tables[f"e{i + 1}"] = select_table(field, b, field.sub(one, alpha[i]), alpha[i])
+        tables[f"s{i + 1}"] = field.vec(b.astype(np.int64))  # opened after the instance; not in the combine
     inner, outer = [], []
     for j, (pw, group) in enumerate(zip(powers, parts)):
         product = " * ".join(f"e{i + 1}" for i in group)

@@ -146,6 +146,8 @@ def grouped_cost(num_vars: int, widths: Sequence[int], counts: Sequence[Sequence
             layer2 += mu * half
         elif k < mu:
             layer2 += 1 << (k - 1)
+    # the bit openings: one product each from the folded tables, or eq(r, .) completed when every round was bucketed
+    layer2 += mu if direct_from <= mu else 1 << (mu - 1)
     return layer1, layer2, direct_from
 
 

@@ -236,6 +236,8 @@ GLUE_EXPECTED = [
     (["--kind", "zerocheck", "--fault", "final-without-eq"], 0, 4, "evaluation"),
     (["--kind", "gkr-product", "--fault", "stale-coefficient", "--fault-instance", "1"], 1, 0, "link"),
     (["--kind", "gkr-product", "--fault", "open-wrong-table", "--fault-instance", "1"], 1, 2, "evaluation"),
+    (["--kind", "perm-grouped", "--fault", "open-other-point", "--fault-instance", "1"], 1, 4, "evaluation"),
+    (["--kind", "perm-grouped", "--fault", "final-without-eq", "--fault-instance", "1"], 1, 4, "evaluation"),
 ]
 
 
@@ -269,6 +271,8 @@ GLUE_PROBED = [
     (["--kind", "ferries", "--groups", "0", "--fault", "open-other-point", "--fault-instance", "1"], "opening-point"),
     (["--kind", "zerocheck", "--fault", "open-reversed"], "opening-point"),
     (["--kind", "zerocheck", "--fault", "open-wrong-table"], "opening-table"),
+    (["--kind", "perm-grouped", "--fault", "open-reversed", "--fault-instance", "1"], "opening-point"),
+    (["--kind", "perm-grouped", "--fault", "open-wrong-table", "--fault-instance", "1"], "opening-table"),
     (["--kind", "gkr-product", "--fault", "stale-coefficient", "--fault-instance", "2"], "stale-coefficient"),
     (["--kind", "zerocheck-eq", "--fault", "drop-eq@2"], "eq-factor"),
     (["--kind", "zerocheck-eq", "--fault", "double-eq@4"], "eq-factor"),

@@ -72,10 +72,17 @@ def test_open_other_point_takes_the_deck_openings_at_the_permutations_point():
     assert (first.instance, first.round, first.check) == (1, 4, "evaluation")
 
 
+def test_a_wrong_bit_opening_of_the_grouped_second_layer_fails_its_evaluation():
+    _, transcript, _ = run_glue_prover(
+        BABYBEAR, lambda ch, c: prove_sailing(ch, c, seed=740, num_vars=4, groups=2), Fault("open-wrong-table", 1, 1))
+    first = replay_transcript(transcript).first_failure
+    assert (first.instance, first.round, first.check) == (1, 4, "evaluation")
+
+
 def test_glue_faults_aimed_at_an_instance_without_glue_are_usage_errors():
     with pytest.raises(UsageError, match="deck zero-check"):
         run_glue_prover(BABYBEAR, lambda ch, c: prove_sailing(ch, c, seed=740, num_vars=4, groups=2),
-                        Fault("open-wrong-table", 1, 1))  # the grouped permutation's second layer opens nothing
+                        Fault("open-other-point", 1, 0))  # nothing comes before the permutation's first layer
     with pytest.raises(UsageError, match="deck zero-check"):
         run_glue_prover(BABYBEAR, lambda ch, c: prove_sailing(ch, c, seed=740, num_vars=4, groups=0),
                         Fault("final-without-eq", 1, 0))  # the permutation's final_expr has no eq term

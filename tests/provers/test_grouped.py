@@ -139,22 +139,23 @@ def test_masks_from_the_codes_equal_each_bits_round_masks(groups, k):
 
 
 # sha256 of `stepper prove --kind perm-grouped --num-vars 9 --groups 3 [--switch-round 4] --field F`
-# with SOURCE_DATE_EPOCH=1700000000, made by the prover as it stood before it worked in blocks
-# (main at e932cff): the blocked rounds, in-place folds and code-based bucket keys must not
-# change a byte
-BEFORE_BLOCKS = {
-    ("babybear", None): "3240d855c18f497f30b729ab2c69998fe0693c4c14cd245c8ce3302392030e75",
-    ("goldilocks", None): "7f681e6e60f9f75a5c7c35dea82071ebce122054841cf2069340382e4534fe2a",
-    ("babybear^4", None): "ba6a113cdff3111b632190405949452da681dc3482f636b3cf887a2ff9c8f77f",
-    ("babybear", 4): "275aec1ce7b5f9fc2bc34c7f5dc0912f9b3f877fd29bae713bf1b47e69a4eecb",
-    ("goldilocks", 4): "030855083b461f38bf04445bb9850f34cc2e7818360c4c9354821652899defff",
-    ("babybear^4", 4): "fae89576a7461bf6fcff3fcbb24be87a658f1c3b82ad8ad4beef831bbaf63115",
+# with SOURCE_DATE_EPOCH=1700000000. First pinned from the prover as it stood before it worked in
+# blocks (main at e932cff) and passed unchanged by the blocked one; pinned again when the second
+# layer gained its glue (a squeezed beta, claim_expr, final_expr, bit openings), which changes the
+# bytes on purpose. Blocks of 3 pairs and of 2^15 must both give these bytes.
+PINNED = {
+    ("babybear", None): "e73d79827d3d15fb36c2b6365235d85176c86ac4881b71dd232778b7a906e6ab",
+    ("goldilocks", None): "3d27d48e4b33f80b3827f9297c9b6bbd2f8702837ea8a37721071a758a3702f7",
+    ("babybear^4", None): "8973e6468f6401cf97fd8bfbecf0eae655d6b28bcb73b2f758bde7f765d3b346",
+    ("babybear", 4): "055ef1c7326e1a0df16fb25c2ab5a2647430234b021e0c7cbeba8e8d49108dcf",
+    ("goldilocks", 4): "7ff0d64a791d42ff37991017f6b73a4a8b04515c294edd635d04b2e96913523b",
+    ("babybear^4", 4): "590c9e22f181db0e1892c18cc39980adf56080f21c3fbbf96c9159078cf0a5c6",
 }
 
 
-@pytest.mark.parametrize("field_name, switch", sorted(BEFORE_BLOCKS, key=str))
+@pytest.mark.parametrize("field_name, switch", sorted(PINNED, key=str))
 @pytest.mark.parametrize("block", [3, 1 << 15])
-def test_transcripts_are_byte_identical_to_the_prover_before_blocks(monkeypatch, tmp_path, field_name, switch, block):
+def test_transcripts_are_the_pinned_bytes_whatever_the_block_size(monkeypatch, tmp_path, field_name, switch, block):
     import hashlib
 
     from stepper.cli.main import main
@@ -165,7 +166,7 @@ def test_transcripts_are_byte_identical_to_the_prover_before_blocks(monkeypatch,
     flags = ["--switch-round", str(switch)] if switch else []
     assert main(["prove", "--kind", "perm-grouped", "--num-vars", "9", "--groups", "3", "--field", field_name,
                  "-o", str(out), *flags]) == 0
-    assert hashlib.sha256(out.read_bytes()).hexdigest() == BEFORE_BLOCKS[(field_name, switch)]
+    assert hashlib.sha256(out.read_bytes()).hexdigest() == PINNED[(field_name, switch)]
 
 
 @pytest.mark.parametrize("spec", [{"name": "bn254"}, {"name": "koalabear", "extension_degree": 4}])
@@ -236,3 +237,55 @@ def test_layer_one_opens_f_and_each_group_product_at_its_point():
                                 Fault("open-wrong-table"))
     first = replay_transcript(bad).first_failure
     assert (first.instance, first.round, first.check) == (0, 4, "evaluation")
+
+
+def test_layer_two_is_linked_to_layer_one_and_opens_each_bit_as_a_brute_force_sum_says():
+    # oracle: multilinear extensions and eq by their definitions, in plain integers (common practice, no source)
+    import math
+
+    from tests.provers.glue_helpers import run_glue_prover
+    from tests.provers.helpers import plain_mle
+
+    p = BABYBEAR.p
+    for mu, groups, switch in [(3, 2, None), (4, 2, None), (4, 2, 1), (4, 3, 5)]:  # (4, 3, 5): every round bucketed
+        statement = random_permutation_statement(BABYBEAR, mu, seed=30 + mu)
+        _, transcript, glue = run_glue_prover(
+            BABYBEAR, lambda ch, c: prove_permutation_grouped(ch, c, statement, groups, switch_round=switch))
+        first, second = transcript.instances
+        rho = [int(r.challenge) for r in first.rounds]
+        point = [int(r.challenge) for r in second.rounds]
+        alpha, beta = [int(a) for a in glue.values["alpha"]], int(glue.squeezes["beta"])
+        inverse = statement.inverse()
+        bits = [plain_mle([int(inverse[y]) >> i & 1 for y in range(1 << mu)], point, p) for i in range(mu)]
+        assert [int(glue.openings[f"s{i + 1}"]) for i in range(mu)] == bits
+        opened = [int(glue.openings[f"p{j + 1}"]) for j in range(groups)]
+        assert int(second.start.claim) == sum(pow(beta, j, p) * v for j, v in enumerate(opened)) % p
+        e = [(1 - a + (2 * a - 1) * s) % p for a, s in zip(alpha, bits)]
+        batched = sum(pow(beta, j, p) * math.prod(e[i] for i in group) for j, group in enumerate(split_groups(mu, groups)))
+        eq = math.prod(x * y + (1 - x) * (1 - y) for x, y in zip(rho, point))
+        assert int(second.final) == eq * batched % p
+        assert glue.starts[1]["claim_expr"].startswith("p1 + beta * p2")
+        assert glue.starts[1]["final_expr"].startswith("eq(point(permutation)) * ((1 - alpha[0] + ")
+        assert replay_transcript(transcript).verdict == "accept"
+
+
+@pytest.mark.parametrize("fault", ["open-wrong-table", "open-reversed", "open-other-point", "final-without-eq"])
+def test_a_glue_fault_in_the_second_layer_fails_its_evaluation_at_the_last_round(fault):
+    # a wrong opening or a final_expr without its eq term breaks the evaluation check (contract 3)
+    from stepper.provers.faults import Fault
+    from tests.provers.glue_helpers import run_glue_prover
+
+    statement = random_permutation_statement(BABYBEAR, 4, seed=33)
+    _, transcript, _ = run_glue_prover(BABYBEAR, lambda ch, c: prove_permutation_grouped(ch, c, statement, 2),
+                                       Fault(fault, 1, 1))
+    first = replay_transcript(transcript).first_failure
+    assert (first.instance, first.round, first.check) == (1, 4, "evaluation")
+
+
+def test_final_without_eq_aimed_at_the_first_layer_is_a_usage_error():
+    from stepper.errors import UsageError
+    from stepper.provers.faults import Fault
+
+    statement = random_permutation_statement(BABYBEAR, 4, seed=33)
+    with pytest.raises(UsageError, match="first instance of a grouped proof has none"):
+        run_prover(BABYBEAR, lambda ch, c: prove_permutation_grouped(ch, c, statement, 2), Fault("final-without-eq"))
