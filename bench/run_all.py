@@ -11,7 +11,7 @@ a regression or a broken bench shows in one command.
     python3 bench/run_all.py --quick    # smaller sizes, about 5 minutes (figures are not the README's)
     python3 bench/run_all.py --only check_fields witness
 
-Sizes (full run): fields at 2^20; store at 10^6 rounds; check and check_fields at 10^4 instances
+Sizes (full run): fields at 2^20; binary_fields at 2^18; store at 10^6 rounds; check and check_fields at 10^4 instances
 x 24 rounds; memory at 10^4 and 10^5 instances x 2 rounds; rootcause at 2^22; witness at 2^20; app at 4,000 x 25; follow at 4,000 x 25;
 permcheck to mu = 24 (grouped only past mu = 20: the direct prover's count is its formula there); glue at
 10^4 instances x 8 rounds.
@@ -73,6 +73,13 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
         Row("31-bit multiply vs bare numpy `(a*b)%p`", "python3 bench/fields.py", "<= 1.5x the time",
             _all(r"(?:babybear|koalabear|mersenne31) mul: stepper/numpy <= 1.5\s+measured\s+([\d.]+)",
                  lambda ms: _span([float(m[1]) for m in ms], "x", 2) + " the time")),
+    ]),
+    "binary_fields": ([], ["--log2n", "16", "--repeat", "2"], [
+        Row("GF(2^k) multiply through galois vs the schoolbook extension kernel (CPU); galois's one-off set-up",
+            "python3 bench/binary_fields.py", ">= 2x faster",
+            _all(r"^GF\(2\^(\d+)\)\s+[\d.]+\s+[\d.]+\s+([\d.]+)\s+([\d.]+)",
+                 lambda ms: ", ".join(f"GF(2^{m[1]}) {m[2]}x" for m in ms) + " faster; set-up "
+                            + _span([float(m[3]) for m in ms], " s", 2))),
     ]),
     "store": ([], ["--rounds", "200000", "--log-size", "18", "--repeat", "3"], [
         Row("reading 10^6 rounds vs bare `msgpack.Unpacker`", "python3 bench/store.py", "<= 3x",

@@ -290,6 +290,9 @@ def strict_reasons(report: Report, unknown: dict[str, int]) -> tuple[str, ...]:
         reasons.append("the transcript is incomplete: it stops before every round was sent")
     if report.challenges.startswith("not re-derived"):
         reasons.append(f"challenges unchecked: {report.challenges}")
+    squeezes = next((f for f in report.findings if f.kind == "squeezes-unchecked"), None)
+    if squeezes is not None:
+        reasons.append(f"squeezes unchecked: {squeezes.message}")
     if report.soundness.weak:
         reasons.append(f"weak soundness bound: {report.soundness.describe()}")
     if unknown:

@@ -4,9 +4,10 @@ JSON lines over its standard input and output.
 stepper starts CMD once per checked file and writes one line per event the verifier absorbs,
 ``{"absorb": EVENT}`` (EVENT is the same plain map a Python plug-in sees), and, whenever a
 challenge is needed, ``{"derive": {"type": "challenge", "instance": NAME, "index": I,
-"round": K}}``. The command answers each ``derive`` with exactly one line,
+"round": K}}``, and before each squeeze event ``{"derive": {"type": "squeeze", "name": NAME,
+"length": null or N}}``. The command answers each ``derive`` with exactly one line,
 ``{"value": ELEMENT}`` (an element as in the event stream: integer, decimal or 0x string, a
-list for an extension) or ``{"error": TEXT}``. When the check is done stepper closes the
+list for an extension; for a squeeze with a length, a list of N elements) or ``{"error": TEXT}``. When the check is done stepper closes the
 command's standard input and waits briefly for it to exit. Its standard error passes through.
 
 Failures are exit 2 with one line naming the command: it cannot start, exits or closes its

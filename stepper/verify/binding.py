@@ -38,7 +38,8 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event
 
-__all__ = ["Challenger", "History", "history_payload", "call_challenger", "probe_binding", "glue_positions"]
+__all__ = ["Challenger", "History", "history_payload", "call_challenger", "parse_answer", "probe_binding",
+           "glue_positions"]
 
 Challenger = Callable[[Sequence[Mapping[str, Any]]], Any]
 
@@ -134,6 +135,12 @@ def call_challenger(challenger: Challenger, history: Sequence[Mapping[str, Any]]
     except Exception as err:  # user code: any failure is the plug-in's, reported as input
         raise PluginFailure(f"expected the challenge plug-in {name} to return a challenge, but it raised "
                             f"{type(err).__name__}: {clip_text(str(err))}", where) from None
+    return parse_answer(raw, field, name, where)
+
+
+def parse_answer(raw: Any, field: Field, name: str, where: Where) -> Element:
+    """A plug-in's answer as an element of ``field``: canonical, or a :class:`PluginFailure`
+    naming the plug-in ``name`` and saying what was wrong."""
     reduced = _reduced(raw, field.p)
     if reduced is not None:  # a value outside 0..p-1: refused, with what it would reduce to
         raise PluginFailure(f"challenge plug-in {name} returned {clip_text(str(raw))}, which is not reduced mod "

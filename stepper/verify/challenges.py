@@ -141,6 +141,8 @@ class ChallengeSource:
 
     def deriver(self) -> str:
         """Who re-derives, for sentences: "the built-in schedule stepper-sha256/1"."""
+        if self.stateful is not None:
+            return f"the plug-in {self.stateful.label}"
         if self.challenger is not None:
             return "the --challenges plug-in"
         return f"the built-in schedule {self.schedule.name}" if self.schedule is not None else "no schedule"
@@ -185,12 +187,21 @@ class ChallengeSource:
         """Add a record the schedule does not absorb (final, unknown) to the plug-in history."""
         self._log(record)
 
-    def squeeze(self, record: Squeeze) -> Element | tuple[Element, ...] | None:
-        """The built-in schedule's value for a squeeze (None without one: a plug-in derives
-        round challenges only; the squeeze stays in its history)."""
-        if self.schedule is None:
-            return None
-        return self.schedule.squeeze(record.name, len(record.value) if record.listed else None)
+    def squeeze(self, record: Squeeze, where: Where) -> Element | tuple[Element, ...] | None:
+        """The value the built-in schedule or a stateful plug-in derives for a squeeze, before
+        the squeeze's own event is absorbed; None when nothing derives it (no schedule, or a
+        function plug-in, which derives round challenges only: said once in a finding)."""
+        length = len(record.value) if record.listed else None
+        if self.schedule is not None:
+            return self.schedule.squeeze(record.name, length)
+        if self.stateful is not None and self.field is not None:
+            return self.stateful.derive_squeeze(record.name, length, self.field, where)
+        if self.challenger is not None and not any(f.kind == "squeezes-unchecked" for f in self.findings):
+            self.findings.append(Finding(
+                "squeezes-unchecked", "info",
+                f"the squeeze '{record.name}' (and any later one) was not re-derived: a function plug-in "
+                f"derives round challenges only (give a stateful plug-in or --challenges-exec to check squeezes)"))
+        return None
 
     def start_instance(self, has_batch: bool) -> None:
         """Mark where the next instance's statement starts in the plug-in history."""

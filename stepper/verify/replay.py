@@ -293,7 +293,9 @@ class Replay:
         """A value, squeeze or opening (see :class:`stepper.verify.glue.GlueDesk`)."""
         live = self._live
         out = self._resolve_pending(None) if live is not None and live.pending is not None else []
-        derived = self._source.squeeze(record) if isinstance(record, Squeeze) else None
+        derived = None
+        if isinstance(record, Squeeze):
+            derived = self._source.squeeze(record, Where(instance=live.start.name) if live is not None else Where())
         self._source.observe(record)
         self._glue.take(self._need_field(), record, derived, self._source.deriver(), live, self._ledger)
         return out

@@ -2,9 +2,11 @@
 ``derive(request)``.
 
 A function plug-in (``derive(history)``) is handed the whole proof so far at every round; a
-stateful one is handed each event once, in stream order, as the same plain maps, and asked
-for a challenge when one is needed, with ``{"type": "challenge", "instance": NAME, "index": I,
-"round": K}``. This is also the shape of an out-of-process plug-in (``--challenges-exec``),
+stateful one is handed each event once, in stream order, as the same plain maps (values and
+openings included), and asked for a challenge when one is needed, with ``{"type": "challenge",
+"instance": NAME, "index": I, "round": K}``, and for each squeeze before its event, with
+``{"type": "squeeze", "name": NAME, "length": None}`` (one element) or ``"length": N`` (a list
+of N). This is also the shape of an out-of-process plug-in (``--challenges-exec``),
 whose pipe lives at the CLI edge. A stateful plug-in cannot be re-run on altered histories,
 so the binding probe (which messages a challenge depends on) needs the function form.
 """
@@ -15,7 +17,7 @@ from typing import TYPE_CHECKING, Any, Mapping, Protocol
 
 from stepper.errors import Where
 from stepper.field.elements import clip_text
-from stepper.verify.binding import PluginFailure, call_challenger
+from stepper.verify.binding import PluginFailure, call_challenger, parse_answer
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
@@ -62,3 +64,22 @@ class GuardedStateful:
 
     def derive(self, request: Mapping[str, Any], field: Field, where: Where) -> Element:
         return call_challenger(self._derive, request, field, where)  # type: ignore[arg-type]
+
+    def derive_squeeze(self, name: str, length: int | None, field: Field,
+                       where: Where) -> Element | tuple[Element, ...]:
+        """The squeeze ``name``: one element (``length`` None) or a tuple of ``length``, asked
+        for with ``{"type": "squeeze", "name": NAME, "length": N or None}``."""
+        what = f"the squeeze '{name}'"
+        try:
+            raw = self._derive({"type": "squeeze", "name": name, "length": length})
+        except PluginFailure as err:
+            raise PluginFailure(f"{err.message} (deriving {what})", where) from None
+        except Exception as err:  # user code: its failure is input, not a bug in stepper
+            raise PluginFailure(f"expected the challenge plug-in {self.label} to return {what}, but it raised "
+                                f"{type(err).__name__}: {clip_text(str(err))}", where) from None
+        if length is None:
+            return parse_answer(raw, field, self.label, where)
+        if not isinstance(raw, (list, tuple)) or len(raw) != length:
+            raise PluginFailure(f"expected the challenge plug-in {self.label} to return {what} as a list of "
+                                f"{length} elements, found {clip_text(repr(raw))}", where)
+        return tuple(parse_answer(v, field, self.label, where) for v in raw)
