@@ -48,7 +48,19 @@ def test_ctrl_c_during_recomputation_reaches_the_caller() -> None:
             diagnose(transcript, witness, progress=lambda d, t: (update(d, t), interrupt(d, t)))
 
 
-def test_a_ctrl_c_is_held_until_the_next_callback_and_then_raised_there() -> None:
+@pytest.fixture
+def default_sigint():
+    """Python's own SIGINT handler for the test, whatever the process started with: a test run
+    launched as a background job from a script starts with SIGINT ignored, and Python then
+    installs no handler of its own."""
+    import signal
+
+    previous = signal.signal(signal.SIGINT, signal.default_int_handler)
+    yield
+    signal.signal(signal.SIGINT, previous)
+
+
+def test_a_ctrl_c_is_held_until_the_next_callback_and_then_raised_there(default_sigint) -> None:
     # An interrupt delivered inside a compiled kernel would come back as a SystemError;
     # holding it until the next callback (between rounds) keeps exit code 130 reachable.
     import os
@@ -65,7 +77,7 @@ def test_a_ctrl_c_is_held_until_the_next_callback_and_then_raised_there() -> Non
     assert signal.getsignal(signal.SIGINT) is signal.default_int_handler
 
 
-def test_a_held_ctrl_c_without_a_later_callback_is_raised_when_the_block_ends() -> None:
+def test_a_held_ctrl_c_without_a_later_callback_is_raised_when_the_block_ends(default_sigint) -> None:
     import os
     import signal
 
@@ -73,3 +85,18 @@ def test_a_held_ctrl_c_without_a_later_callback_is_raised_when_the_block_ends() 
         with terminal_progress("work", stream=io.StringIO()):
             os.kill(os.getpid(), signal.SIGINT)
     assert signal.getsignal(signal.SIGINT) is signal.default_int_handler
+
+
+def test_an_ignored_sigint_is_left_ignored() -> None:
+    # a background job runs with SIGINT ignored: the block must neither catch nor restore it
+    import os
+    import signal
+
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        with terminal_progress("work", stream=io.StringIO()) as update:
+            os.kill(os.getpid(), signal.SIGINT)
+            update(1, 2)
+        assert signal.getsignal(signal.SIGINT) is signal.SIG_IGN
+    finally:
+        signal.signal(signal.SIGINT, previous)
