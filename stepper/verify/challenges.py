@@ -187,7 +187,7 @@ class ChallengeSource:
         """Add a record the schedule does not absorb (final, unknown) to the plug-in history."""
         self._log(record)
 
-    def squeeze(self, record: Squeeze, where: Where) -> Element | tuple[Element, ...] | None:
+    def squeeze(self, record: Squeeze, where: Where | None = None) -> Element | tuple[Element, ...] | None:
         """The value the built-in schedule or a stateful plug-in derives for a squeeze, before
         the squeeze's own event is absorbed; None when nothing derives it (no schedule, or a
         function plug-in, which derives round challenges only: said once in a finding)."""
@@ -195,7 +195,7 @@ class ChallengeSource:
         if self.schedule is not None:
             return self.schedule.squeeze(record.name, length)
         if self.stateful is not None and self.field is not None:
-            return self.stateful.derive_squeeze(record.name, length, self.field, where)
+            return self.stateful.derive_squeeze(record.name, length, self.field, where or Where())
         if self.challenger is not None and not any(f.kind == "squeezes-unchecked" for f in self.findings):
             self.findings.append(Finding(
                 "squeezes-unchecked", "info",
