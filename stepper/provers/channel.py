@@ -22,6 +22,8 @@ import hashlib
 import json
 from typing import IO, TYPE_CHECKING, Any, Protocol, Sequence
 
+import numpy as np
+
 from stepper.errors import UsageError
 from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
 from stepper.field.poly import RoundPoly
@@ -113,16 +115,32 @@ class ProofChannel:
         self.sink.write(record)
 
     # ----- statement randomness ---------------------------------------------------------
-    def statement_challenges(self, purpose: str, statement: Sequence[bytes], count: int) -> list[Element]:
-        """``count`` challenges bound to the proof so far and to ``statement`` (bytes)."""
+    def statement_challenges(self, purpose: str, statement: Sequence[bytes | np.ndarray], count: int) -> list[Element]:
+        """``count`` challenges bound to the proof so far and to ``statement`` (bytes, or
+        tables of this field, taken as :meth:`table_bytes`)."""
         digest = hashlib.sha256(self.schedule.state_digest())
-        for part in statement:
+        for item in statement:
+            part = item if isinstance(item, bytes) else self.table_bytes(item)
             digest.update(len(part).to_bytes(8, "little"))
             digest.update(part)
         side = Sha256Schedule()
         side.observe(FieldDecl(self.field))
         side.observe(ScheduleDecl(SCHEDULE_NAME, f"{purpose}:{digest.hexdigest()}"))
         return [side.challenge() for _ in range(count)]
+
+    def table_bytes(self, table: np.ndarray) -> bytes:
+        """A table's entries as bytes that depend only on their values: the array's own
+        bytes for fixed-width entries; for Python-int entries (primes above 2^64) each
+        entry as little-endian 64-bit words, as many as the modulus needs. (The bytes of
+        an object array are pointers, which differ from run to run.)"""
+        if table.dtype != object:
+            return table.tobytes()
+        flat = table.reshape(-1)
+        words = []
+        for _ in range((self.field.p.bit_length() + 63) // 64):
+            words.append((flat & 0xFFFFFFFFFFFFFFFF).astype(np.uint64))
+            flat = flat >> 64
+        return np.stack(words, axis=1).tobytes()
 
     # ----- messages -----------------------------------------------------------------------
     def batch(self, coefficient: Element, terms: Sequence[Element], sources: Sequence[str] = ()) -> None:

@@ -95,7 +95,8 @@ def prove_zero_factored(channel: ProofChannel, counter: MulCounter, name: str, t
     used = field_tables(field, {n: tables[n] for n in names})
     mu = len(next(iter(used.values()))).bit_length() - 1
     fault = channel.fault
-    statement = [name.encode(), *(c.encode() for c in constraints), *(used[n].tobytes() for n in sorted(used))]
+    statement: list[bytes | np.ndarray] = [name.encode(), *(c.encode() for c in constraints),
+                                          *(used[n] for n in sorted(used))]
     counter.phase(f"{name}/setup")
     tau = channel.statement_challenges("zero-check-point", statement, mu)
     weights, gamma = mix_constraints(channel, counter, constraints, statement)

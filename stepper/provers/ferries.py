@@ -88,7 +88,7 @@ def prove_fingerprint(channel: ProofChannel, counter: MulCounter, *, seed: int, 
     field = counter.field
     sailing = build_sailing(seed, num_vars, tamper=tamper)
     boarding = ticket_values(field, sailing.boarding)
-    z = channel.statement_challenges("manifest-fingerprint", [boarding.tobytes()], 1)[0]
+    z = channel.statement_challenges("manifest-fingerprint", [boarding], 1)[0]
     channel.note(f"Brackwater Ferries sailing {sailing.name}: boarding-log fingerprint over "
                  f"{len(sailing.boarding)} scans, z - ticket multiplied up the manifest circuit")
     channel.value(f"{FINGERPRINT}.z", z)

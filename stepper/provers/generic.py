@@ -74,7 +74,8 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
         raise UsageError("expected no table named 'eq' in a zero-check (the prover adds eq(tau, x) under that name)")
     used = field_tables(field, dict(tables))
     num_vars = len(next(iter(used.values()))).bit_length() - 1
-    statement = [name.encode(), *(c.encode() for c in constraints), *(used[n].tobytes() for n in sorted(used))]
+    statement: list[bytes | np.ndarray] = [name.encode(), *(c.encode() for c in constraints),
+                                          *(used[n] for n in sorted(used))]
     counter.phase(f"{name}/setup")
     tau = channel.statement_challenges("zero-check-point", statement, num_vars)
     eq = counter.eq_table(tau)
@@ -103,7 +104,7 @@ def prove_zero(channel: ProofChannel, counter: MulCounter, name: str, tables: Ma
 
 
 def mix_constraints(channel: ProofChannel, counter: MulCounter, constraints: Sequence[str],
-                    statement: list[bytes]) -> tuple[list[Element], Element | None]:
+                    statement: Sequence[bytes | np.ndarray]) -> tuple[list[Element], Element | None]:
     """The weights 1, gamma, gamma^2 ... of the constraints and gamma (None for one
     constraint): a fixed mix would let two constraints cancel."""
     field = counter.field

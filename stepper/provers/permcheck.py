@@ -66,7 +66,7 @@ class PermStatement:
 
 def permutation_point(channel: ProofChannel, statement: PermStatement, purpose: str) -> list[Element]:
     """alpha, bound to the proof so far and to f and g."""
-    return channel.statement_challenges(purpose, [statement.f.tobytes(), statement.g.tobytes()], statement.num_vars)
+    return channel.statement_challenges(purpose, [statement.f, statement.g], statement.num_vars)
 
 
 def select_table(field: Field, bits: np.ndarray, when0: Element, when1: Element) -> np.ndarray:

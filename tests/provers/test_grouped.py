@@ -171,7 +171,7 @@ def test_transcripts_are_the_pinned_bytes_whatever_the_block_size(monkeypatch, t
 
 @pytest.mark.parametrize("spec", [{"name": "bn254"}, {"name": "koalabear", "extension_degree": 4}])
 def test_rounds_in_blocks_send_what_one_block_sends(monkeypatch, spec):
-    # in one process: a bn254 statement hashes its object arrays by reference, so another run draws another alpha
+    # object arrays (bn254) and a degree-4 extension: blocks of 5 pairs against one block, counts included
     field = field_from_spec(spec)
     statement = random_permutation_statement(field, 7, 21)
 
