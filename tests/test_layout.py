@@ -11,41 +11,50 @@ from pathlib import Path
 
 import pytest
 
-from layout_rules import ORDER, core_faults, cycles, layer_faults, longest_chain, read_imports
+from layout_rules import ORDER, Import, core_faults, cycles, layer_faults, longest_chain, read_imports
 
 PACKAGE = Path(__file__).resolve().parent.parent / "stepper"
+
+
+Tree = tuple[dict[str, Path], list[Import], list[Import]]  # modules, imports inside, imports outside
+
+
+@pytest.fixture(scope="module")
+def stepper_imports() -> Tree:
+    """The real package read once per module (about half a second of parsing); no test changes it."""
+    return read_imports(PACKAGE)
 
 
 def _describe(path: list) -> str:
     return " -> ".join(f"{imp.source} ({imp.where()})" for imp in path) + f" -> {path[0].source}"
 
 
-def test_no_module_of_stepper_takes_part_in_an_import_cycle() -> None:
-    _, inner, _ = read_imports(PACKAGE)
+def test_no_module_of_stepper_takes_part_in_an_import_cycle(stepper_imports: Tree) -> None:
+    _, inner, _ = stepper_imports
     found = cycles(inner)
     assert not found, "import cycles:\n" + "\n".join(_describe(path) for path in found)
 
 
-def test_no_package_imports_one_later_in_the_pipeline_order() -> None:
-    _, inner, _ = read_imports(PACKAGE)
+def test_no_package_imports_one_later_in_the_pipeline_order(stepper_imports: Tree) -> None:
+    _, inner, _ = stepper_imports
     assert layer_faults(inner) == []
 
 
-def test_the_core_imports_no_terminal_library_and_no_edge() -> None:
-    _, inner, outer = read_imports(PACKAGE)
+def test_the_core_imports_no_terminal_library_and_no_edge(stepper_imports: Tree) -> None:
+    _, inner, outer = stepper_imports
     assert core_faults(inner, outer) == []
 
 
-def test_every_module_lives_in_a_package_of_the_order_or_at_the_root_with_the_error_tree() -> None:
-    modules, _, _ = read_imports(PACKAGE)
+def test_every_module_lives_in_a_package_of_the_order_or_at_the_root_with_the_error_tree(stepper_imports: Tree) -> None:
+    modules, _, _ = stepper_imports
     loose = sorted(name for name in modules if name.count(".") == 1 and name.split(".")[1] not in ORDER)
     assert loose == ["stepper.__main__"]
 
 
 @pytest.mark.parametrize("command", ["check_cmd", "view_cmd", "prove_cmd", "compare_cmd"])
-def test_a_command_reaches_a_kernel_without_climbing_back_up_the_pipeline(command: str) -> None:
+def test_a_command_reaches_a_kernel_without_climbing_back_up_the_pipeline(command: str, stepper_imports: Tree) -> None:
     # stepper.cli.main imports each command's module by name (importlib), so the chain starts there
-    _, inner, _ = read_imports(PACKAGE)
+    _, inner, _ = stepper_imports
     chain = longest_chain(inner, f"stepper.cli.{command}", "stepper.field.kernels")
     assert chain[0] == f"stepper.cli.{command}" and chain[-1].startswith("stepper.field.kernels")
     ranks = [ORDER.index(name.split(".")[1]) for name in chain if name.split(".")[1] in ORDER]

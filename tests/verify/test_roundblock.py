@@ -330,10 +330,15 @@ EXTENSIONS = {  # constant term first, monic (stepper.field.field.DEFAULT_IRREDU
 
 
 def gf_ext(p: int, q: tuple[int, ...]) -> type:
+    """galois's GF(p^k) for the irreducible q. A stated primitive element (x + 1, unchecked under
+    verify=False) spares galois its own search for one, which factors p^k - 1 and took about 2 s
+    per field; interpolation only adds, multiplies and divides, and never uses it."""
     key = (p, q)
     if key not in _GF:
-        _GF[key] = galois.GF(p ** (len(q) - 1), irreducible_poly=galois.Poly(list(reversed(q)), field=gf(p)),
-                             compile="python-calculate", verify=False)
+        base = gf(p)
+        _GF[key] = galois.GF(p ** (len(q) - 1), irreducible_poly=galois.Poly(list(reversed(q)), field=base),
+                             primitive_element=galois.Poly([1, 1], field=base), compile="python-calculate",
+                             verify=False)
     return _GF[key]
 
 
