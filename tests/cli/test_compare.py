@@ -71,11 +71,23 @@ def test_the_schema_flag_prints_the_schema(capsys):
     assert code == 0 and json.loads(out) == json.loads(json.dumps(JSON_SCHEMA))
 
 
-def test_bad_input_is_one_line_and_exit_2(runs, tmp_path):
+def test_bad_input_is_one_line_and_exit_2(runs, tmp_path, capsys):
     junk = tmp_path / "junk.sumtr"
     junk.write_bytes(b"\x00\x01 not a transcript")
     for argv in ([str(runs["a"]), str(tmp_path / "missing.sumtr")], [str(runs["a"]), str(junk)], [str(runs["a"])]):
-        proc = subprocess.run([sys.executable, "-m", "stepper", "compare", *argv], capture_output=True, text=True)
-        assert proc.returncode == 2
-        assert proc.stderr.startswith("stepper compare: ") and proc.stderr.count("\n") == 1
-        assert "Traceback" not in proc.stderr
+        try:
+            code, _, err = run(capsys, *argv)
+        except SystemExit as stop:  # argparse refuses a missing operand by exiting
+            code, err = stop.code, capsys.readouterr().err
+        assert code == 2
+        assert err.startswith("stepper compare: ") and err.count("\n") == 1
+        assert "Traceback" not in err
+
+
+def test_an_unreadable_file_through_python_dash_m_is_one_line_and_exit_2(runs, tmp_path):
+    # the process boundary: exit code and standard error of `python -m stepper compare`
+    proc = subprocess.run([sys.executable, "-m", "stepper", "compare", str(runs["a"]), str(tmp_path / "missing.sumtr")],
+                          capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert proc.stderr.startswith("stepper compare: ") and proc.stderr.count("\n") == 1
+    assert "Traceback" not in proc.stderr

@@ -72,12 +72,31 @@ def test_the_parser_offers_exactly_the_reference_kinds_without_importing_the_pro
     (["--kind", "zerocheck", "--combine", "eq * a"], "'eq'"),
     (["--seed", "-1"], "non-negative"),
 ])
-def test_bad_flags_are_one_line_and_exit_2(flags, message, tmp_path):
+def test_bad_flags_are_one_line_and_exit_2(flags, message, tmp_path, capsys):
+    # through main() in this process (a process start costs about a second); the test after this
+    # one takes the same path through `python -m stepper` for the process boundary
+    out = tmp_path / "x.sumtr"
+    try:
+        code = main(["prove", "-o", str(out), "--num-vars", "5", *flags])
+    except SystemExit as stop:  # argparse refuses a malformed value by exiting
+        code = stop.code
+    err = capsys.readouterr().err
+    assert code == 2
+    assert not out.exists()  # nothing half-written is left behind
+    assert message in err and err.strip().count("\n") == 0
+    assert "Traceback" not in err
+
+
+@pytest.mark.parametrize("flags, message", [
+    (["--switch-round", "soon"], "--switch-round"),  # refused by argparse
+    (["--kind", "perm-direct", "--fault", "drop-eval@9"], "at most 5"),  # refused by the prover's checks
+])
+def test_a_bad_flag_through_python_dash_m_is_one_line_on_stderr_and_exit_2(flags, message, tmp_path):
     out = tmp_path / "x.sumtr"
     proc = subprocess.run([sys.executable, "-m", "stepper", "prove", "-o", str(out), "--num-vars", "5", *flags],
                           capture_output=True, text=True)
     assert proc.returncode == 2
-    assert not out.exists()  # nothing half-written is left behind
+    assert not out.exists()
     assert message in proc.stderr and proc.stderr.strip().count("\n") == 0
     assert "Traceback" not in proc.stderr
 

@@ -49,8 +49,18 @@ with open(os.environ["STEPPER_EVENTS"], "a") as out:
 
 
 def stepper(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess[str]:
+    """The command in a process of its own, for what only the process boundary shows."""
     return subprocess.run([sys.executable, "-m", "stepper", *args], capture_output=True, text=True, cwd=cwd,
                           timeout=120)
+
+
+def in_process(capsys, *args: str) -> tuple[int, str, str]:
+    """The command through main() in this process (a process start costs about a second):
+    exit code, standard output, standard error."""
+    capsys.readouterr()
+    code = main(list(args))
+    got = capsys.readouterr()
+    return code, got.out, got.err
 
 
 def rounds_in(path: Path) -> int:
@@ -230,11 +240,11 @@ def test_import_of_a_non_json_line_in_the_middle_is_exit_2_naming_the_line(tmp_p
         ({"type": "round", "evals": [1, 2]}, "expected an `instance` event before `round`"),
     ],
 )
-def test_bad_events_are_one_line_and_exit_2(tmp_path, event, expected):
+def test_bad_events_are_one_line_and_exit_2(tmp_path, event, expected, capsys):
     lines = [DECK_EVENTS[0], event] if event["type"] != "field" else [event]
     events = write_events(tmp_path / "e.jsonl", lines)
-    proc = stepper("import", str(events), "-o", str(tmp_path / "e.sumtr"))
-    assert proc.returncode == 2 and expected in proc.stderr and proc.stderr.count("\n") == 1
+    code, _, err = in_process(capsys, "import", str(events), "-o", str(tmp_path / "e.sumtr"))
+    assert code == 2 and expected in err and err.count("\n") == 1
 
 
 def test_info_describes_instances_completeness_digest_and_notes(tmp_path, capsys):
@@ -270,32 +280,41 @@ def test_info_on_a_corrupt_file_describes_it_and_exits_2(tmp_path, capsys):
     assert "file: sealed, digest mismatch" in captured.out and "digest mismatch" in captured.err
 
 
-def test_check_refuses_a_corrupt_transcript_with_exit_2_in_one_line(tmp_path):
+def test_check_refuses_a_corrupt_transcript_with_exit_2_in_one_line(tmp_path, capsys):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
     out = tmp_path / "deck.sumtr"
-    assert stepper("import", str(events), "-o", str(out)).returncode == 0
+    assert in_process(capsys, "import", str(events), "-o", str(out))[0] == 0
     data = bytearray(out.read_bytes())
     data[data.index(b"slot 7")] = ord("S")  # a note's text: still valid msgpack, digest now wrong
     out.write_bytes(bytes(data))
-    proc = stepper("check", str(out))
-    assert proc.returncode == 2
-    assert proc.stderr.count("\n") == 1 and "corrupt" in proc.stderr and "Traceback" not in proc.stderr
+    code, _, err = in_process(capsys, "check", str(out))
+    assert code == 2
+    assert err.count("\n") == 1 and "corrupt" in err and "Traceback" not in err
 
 
 @pytest.mark.parametrize("content", [b"\x89PNG\r\n\x1a\n\0\0", b"stepper:sumcheck\n\x07\x80", b"stepper:sum"])
-def test_info_and_export_of_unusable_files_are_one_line_and_exit_2(tmp_path, content):
+def test_info_and_export_of_unusable_files_are_one_line_and_exit_2(tmp_path, content, capsys):
     path = tmp_path / "bad.sumtr"
     path.write_bytes(content)
     for command in ("info", "export"):
-        proc = stepper(command, str(path))
-        assert proc.returncode == 2, proc.stderr
-        assert proc.stderr.count("\n") == 1 and str(path) in proc.stderr and "Traceback" not in proc.stderr
+        code, _, err = in_process(capsys, command, str(path))
+        assert code == 2, err
+        assert err.count("\n") == 1 and str(path) in err and "Traceback" not in err
 
 
-def test_export_of_an_incomplete_transcript_prints_the_events_present_and_warns(tmp_path):
+def test_info_of_an_unusable_file_through_python_dash_m_is_one_line_and_exit_2(tmp_path):
+    # the process boundary for `info` (`export` crosses it in the test below)
+    path = tmp_path / "bad.sumtr"
+    path.write_bytes(b"stepper:sumcheck\n\x07\x80")
+    proc = stepper("info", str(path))
+    assert proc.returncode == 2, proc.stderr
+    assert proc.stderr.count("\n") == 1 and str(path) in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_export_of_an_incomplete_transcript_prints_the_events_present_and_warns(tmp_path, capsys):
     events = write_events(tmp_path / "deck.jsonl", DECK_EVENTS)
     out = tmp_path / "deck.sumtr"
-    assert stepper("import", str(events), "-o", str(out)).returncode == 0
+    assert in_process(capsys, "import", str(events), "-o", str(out))[0] == 0
     out.write_bytes(out.read_bytes()[:-70])  # the end event and the last event are cut
     proc = stepper("export", str(out))
     assert proc.returncode == 0 and "incomplete" in proc.stderr
