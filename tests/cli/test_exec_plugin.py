@@ -149,6 +149,7 @@ def test_a_command_that_fails_is_exit_2_naming_it_and_the_file_is_untouched(setu
     assert setup["run"].read_bytes() == before
 
 
+@pytest.mark.slow
 def test_a_command_that_hangs_is_stopped_at_the_time_limit(setup, monkeypatch):
     before = setup["run"].read_bytes()
     monkeypatch.setenv("STEPPER_CHALLENGES_SECONDS", "1")

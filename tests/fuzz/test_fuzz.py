@@ -26,6 +26,7 @@ def _harness():
     return module
 
 
+@pytest.mark.slow
 def test_a_short_fixed_seed_budget_over_every_input_kind_finds_nothing(tmp_path):
     proc = subprocess.run([sys.executable, str(ROOT / "bench" / "fuzz.py"), "--seconds", "14", "--seed", "7",
                            "--corpus", str(tmp_path / "corpus"), "--memory-mb", "3072"],

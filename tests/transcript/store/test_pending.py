@@ -97,6 +97,7 @@ _RECORDER = textwrap.dedent("""
 """)
 
 
+@pytest.mark.slow
 def test_notes_survive_a_recorder_killed_with_sigkill_and_the_next_note_folds_them(tmp_path):
     path = tmp_path / "quill.sumtr"
     child = subprocess.Popen([sys.executable, "-c", _RECORDER.format(tests=str(ROOT / "tests")), str(path)],
@@ -113,6 +114,7 @@ def test_notes_survive_a_recorder_killed_with_sigkill_and_the_next_note_folds_th
     assert [n.text for n in load(path).all_notes()] == ["first, while recording", "second, after the kill"]
 
 
+@pytest.mark.slow
 def test_two_processes_adding_notes_at_once_both_land(tmp_path):
     path = tmp_path / "quill.sumtr"
     with TranscriptWriter(path) as writer:
