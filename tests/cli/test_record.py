@@ -124,21 +124,21 @@ def test_prover_killed_with_sigkill_mid_proof_keeps_every_round_before_the_kill(
     assert [r.challenge for r in t.instances[0].rounds] == [1, 2, 3, 4, 5]
 
 
-def test_record_stops_on_a_line_that_is_not_json_naming_it(tmp_path, prover):
+def test_record_stops_on_a_line_that_is_not_json_naming_it(tmp_path, prover, capsys):
     out = tmp_path / "garbage.sumtr"
-    proc = stepper("record", "-o", str(out), "--", sys.executable, str(prover), "2", "garbage")
-    assert proc.returncode == 2
-    line = proc.stderr.strip()
+    code, _, err = in_process(capsys, "record", "-o", str(out), "--", sys.executable, str(prover), "2", "garbage")
+    assert code == 2
+    line = err.strip()
     assert "\n" not in line and "line 7" in line and "invalid JSON" in line and "keeps the 6 events" in line
     assert len(load(out).instances[0].rounds) == 2
 
 
-def test_record_without_a_command_or_with_a_missing_program_is_exit_2(tmp_path):
-    proc = stepper("record", "-o", str(tmp_path / "x.sumtr"))
-    assert proc.returncode == 2 and "expected a command to run" in proc.stderr
-    proc = stepper("record", "-o", str(tmp_path / "x.sumtr"), "--", "no-such-prover-binary")
-    assert proc.returncode == 2 and "cannot be started" in proc.stderr
-    assert proc.stderr.count("\n") == 1
+def test_record_without_a_command_or_with_a_missing_program_is_exit_2(tmp_path, capsys):
+    code, _, err = in_process(capsys, "record", "-o", str(tmp_path / "x.sumtr"))
+    assert code == 2 and "expected a command to run" in err
+    code, _, err = in_process(capsys, "record", "-o", str(tmp_path / "x.sumtr"), "--", "no-such-prover-binary")
+    assert code == 2 and "cannot be started" in err
+    assert err.count("\n") == 1
     assert not (tmp_path / "x.sumtr").exists()
 
 
