@@ -1,8 +1,9 @@
-"""Suite-wide collection order: tests marked ``slow`` (a time limit, a budget, processes killed at
-chosen moments: seconds of wall time each) are collected first. With ``pytest -n 2`` xdist hands
-tests out in collection order, so the long ones start at once on both workers and the many short
-ones fill in behind them, instead of one long test running alone at the end. The order within
-each group is unchanged (the sort is stable)."""
+"""Suite-wide collection order: tests marked ``slow`` (a time limit, the fuzz budget, processes
+killed at chosen moments: seconds of wall time each, mostly spent waiting on a child process) are
+collected first. ``pytest -n 2`` deals tests out to its two workers in consecutive chunks in
+collection order, so these start at once on the first worker while the second works through short
+tests, and none of them is left running alone at the end of the run (where they used to fall:
+tests/transcript/store sorts late). The order within each group is unchanged (the sort is stable)."""
 
 from __future__ import annotations
 
