@@ -17,7 +17,7 @@ from tests.provers.helpers import run_prover
 BABYBEAR = get_field(NAMED_PRIMES["babybear"])
 
 
-@pytest.mark.parametrize("mu, groups", [(5, 2), (7, 3), (9, 4)])
+@pytest.mark.parametrize("mu, groups", [(4, 2), (5, 2), (7, 3), (9, 4)])  # (4, 2), switch 5: every round bucketed
 def test_prediction_equals_the_prover_counter_for_every_switch_round(mu, groups):
     statement = random_permutation_statement(BABYBEAR, mu, seed=mu)
     parts = split_groups(mu, groups)
