@@ -39,7 +39,7 @@ if TYPE_CHECKING:
     from stepper.verify.ledger import InstanceLedger, LiveInstance
 
 __all__ = ["GlueBook", "GlueDesk", "EqFactor", "GlueResult", "parsed", "link_result", "evaluation_result",
-           "MAX_POINT_ELEMENTS"]
+           "passing_link", "passing_evaluation", "MAX_POINT_ELEMENTS"]
 
 MAX_POINT_ELEMENTS = 1 << 16
 
@@ -155,7 +155,18 @@ def link_result(field: Field, book: GlueBook, start: InstanceStart) -> GlueResul
     text = start.claim_expr
     assert text is not None
     expected = _value(field, parsed(text), book.scope(None), start, "claim_expr")
+    return _link(field, start, text, expected, field.lift(start.claim))
+
+
+def passing_link(field: Field, start: InstanceStart) -> GlueResult:
+    """The ``link`` result of an instance whose check passed by the block (stepper.verify.glue_block):
+    claim_expr's value is the claim."""
+    assert start.claim_expr is not None
     found = field.lift(start.claim)
+    return _link(field, start, start.claim_expr, found, found)
+
+
+def _link(field: Field, start: InstanceStart, text: str, expected: Element, found: Element) -> GlueResult:
     ok = expected == found
     explanation = (f"the claim of instance '{start.name}' equals claim_expr {text}" if ok else
                    f"the claim of instance '{start.name}' is {field.fmt(found)}, but claim_expr {text} gives "
@@ -171,7 +182,18 @@ def evaluation_result(field: Field, book: GlueBook, start: InstanceStart, challe
     assert text is not None
     own = point_from_challenges(challenges, start.order)
     expected = _value(field, parsed(text), book.scope(own), start, "final_expr")
+    return _evaluation(field, start, text, expected, field.lift(reduced))
+
+
+def passing_evaluation(field: Field, start: InstanceStart, reduced: Element) -> GlueResult:
+    """The ``evaluation`` result of an instance whose check passed by the block: final_expr's value
+    is the reduced claim."""
+    assert start.final_expr is not None
     found = field.lift(reduced)
+    return _evaluation(field, start, start.final_expr, found, found)
+
+
+def _evaluation(field: Field, start: InstanceStart, text: str, expected: Element, found: Element) -> GlueResult:
     ok = expected == found
     explanation = (f"after round {start.num_vars} the reduced claim equals final_expr {text}" if ok else
                    f"after round {start.num_vars} the reduced claim is {field.fmt(found)}, but final_expr {text} "

@@ -14,7 +14,7 @@ raises :class:`GiveUp`: the caller then replays the file event by event.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable
+from typing import TYPE_CHECKING, Any
 
 import msgpack
 
@@ -98,10 +98,6 @@ class RunBlock:
     def next_run(self) -> tuple[int, Element]:
         """The first row and the final value of the next run of this block, in stream order."""
         return next(self._firsts), next(self._finals)
-
-    def point_reader(self, first: int, rounds: int) -> Callable[[], list[Element]]:
-        """A function giving the challenges r_1..r_mu of the run whose first row is ``first``."""
-        return lambda: self.kernel.to_list(self.challenges[first:first + rounds])
 
     def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
         """Run the schedule over the next run of this block (its statement already absorbed)."""

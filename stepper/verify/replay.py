@@ -42,7 +42,7 @@ from stepper.transcript.model import (
     BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
     Squeeze, Transcript, UnknownEvent,
 )
-from stepper.verify.glue import GlueDesk
+from stepper.verify.glue import GlueDesk, passing_evaluation, passing_link
 from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify.text import batch_text, final_text, round_text
@@ -185,17 +185,15 @@ class Replay:
         squeeze = source.schedule.round_stepper() if source.schedule is not None else None
         return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
 
-    def settle(self, start: InstanceStart, final: Element,
-               challenges: Callable[[], list[Element]] | None = None) -> None:
+    def settle(self, start: InstanceStart, final: Element) -> None:
         """Account for an instance checked in bulk and found passing (:mod:`stepper.verify.roundblock`):
         every round passed the degree, sum and challenge checks and ``final`` equals the
         reduced claim. The effect is that of feeding its instance, rounds, challenges and
         final, except that the schedule absorbs only the statement here: the caller absorbs
         the rounds and challenges (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`)
         right after, and replays event by event instead if the block turns out not to pass.
-        An instance with glue keys whose summary is kept gets its ``link`` and ``evaluation``
-        results here (``challenges`` gives its r_1..r_mu for its own point); the caller checks
-        the glue of the others by the block (:mod:`stepper.verify.glue_block`)."""
+        The same holds for its glue keys: a kept summary gets passing ``link`` and ``evaluation``
+        results, and the caller checks them by the block (:mod:`stepper.verify.glue_block`)."""
         if (self.field is None or self.challenger is not None or self.emit_passing or start.batch is not None
                 or self._pending_batch is not None):
             raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
@@ -208,15 +206,11 @@ class Replay:
         live = LiveInstance(start, False)
         self._live = live
         ledger.opened(start)
-        glued = start.claim_expr is not None or start.final_expr is not None
-        if glued:
-            self._glue.open_instance(self.field, live, ledger)
-            if challenges is None:
-                raise ValueError("expected the challenges of a glued instance settled in bulk")
-            live.challenges = challenges()
+        if start.claim_expr is not None:
+            live.link = passing_link(self.field, start)
+        if start.final_expr is not None:
+            live.evaluation = passing_evaluation(self.field, start, final)
         live.claim, live.seen, live.passed = final, start.num_vars, start.num_vars
-        if glued and start.final_expr is not None:
-            self._glue.evaluate(self.field, live, ledger)
         self._on_final(FinalValue(start.index, final))
 
     def settle_glue(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:

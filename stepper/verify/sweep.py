@@ -338,10 +338,8 @@ class _Sweeper:
                 glue = []
             block = blocks[layout]
             first, final = block.next_run()
-            if start.claim_expr is None and start.final_expr is None:
-                replay.settle(start, final)
-            else:
-                replay.settle(start, final, block.point_reader(first, start.num_vars))
+            replay.settle(start, final)
+            if start.claim_expr is not None or start.final_expr is not None:
                 checks.add(*exprs.pop(start.index), final, block.challenges, first, start)
             schedule = replay.schedule  # the first settle may start the default schedule
             if schedule is not None:
