@@ -63,8 +63,7 @@ def frame(tag: bytes, body: bytes) -> bytes:
     return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
 
 
-def _u64(n: int) -> bytes:
-    return n.to_bytes(8, "little")
+_u64 = struct.Struct("<Q").pack  # an integer of a frame body: 8 bytes little-endian
 
 
 def _text(s: str) -> bytes:

@@ -130,14 +130,16 @@ class _Sweeper:
         self.kernel: Kernel | None = None
         self.layout: Layout | None = None  # of the last run read
         self.layouts: dict[int, Layout] = {}  # by values per round
-        # runs (instance, first bytes, rest, layout) and the glue after them, in stream order
-        self.items: list[tuple[InstanceStart, bytes, bytes, Layout] | NamedValue | Squeeze | Opening] = []
-        self.bulk_glue = False  # whether glue now follows a run (checked with it; else fed to the replay)
+        self.runs: list[tuple[InstanceStart, bytes, bytes, Layout]] = []  # instance, first bytes, rest, layout
+        # the glue after each run, and after the last run of the previous flush: checked with them
+        self.trailing: list[list[NamedValue | Squeeze | Opening]] = []
+        self.leading: list[NamedValue | Squeeze | Opening] = []
+        self.glue_tail: list[NamedValue | Squeeze | Opening] | None = None  # where glue now goes (None: the replay)
         self.glue: GlueChecks | None = None  # set with the field
         self.glue_exprs: Callable[[InstanceStart], tuple[Expr | None, Expr | None] | None] = _glue_exprs
         self.exprs: dict[int, tuple[Expr | None, Expr | None]] = {}  # of the glued runs not yet flushed, by index
         self.ended = False  # the end event has been read
-        self.rows = 0  # rounds in self.items
+        self.rows = 0  # rounds in self.runs
         self.pending_bytes = 0  # bytes of rounds in self.runs
         self.loose_rounds = 0  # rounds fed one by one (instances not taken as runs)
 
@@ -211,8 +213,8 @@ class _Sweeper:
             record = seq.feed(payload)
             cls = record.__class__
             if cls in glue:
-                if self.bulk_glue:  # after a run: checked with it
-                    self.items.append(record)  # type: ignore[arg-type]
+                if self.glue_tail is not None:  # after a run: checked with it
+                    self.glue_tail.append(record)  # type: ignore[arg-type]
                     continue
             elif cls is instance_cls:
                 glued = record.claim_expr is not None or record.final_expr is not None  # type: ignore[union-attr]
@@ -224,9 +226,8 @@ class _Sweeper:
                     if glued:
                         self.exprs[record.index] = exprs  # type: ignore[union-attr, assignment]
                     self._take_run(record)  # type: ignore[arg-type]
-                    self.bulk_glue = True
                     continue
-                self.bulk_glue = False
+                self.glue_tail = None
             if cls in passive:
                 if cls is UnknownEvent and record.kind == "end":  # type: ignore[union-attr]
                     if seq.finish_glue() is not None:
@@ -273,7 +274,9 @@ class _Sweeper:
         if not rest.startswith(layout.final_prefix, len(rest) - layout.final_len):
             raise _GiveUp("no final after the rounds")
         self.seq.account_run(start.num_vars)
-        self.items.append((start, head, rest, layout))
+        self.runs.append((start, head, rest, layout))
+        self.glue_tail = []
+        self.trailing.append(self.glue_tail)
         self.rows += start.num_vars
         self.pending_bytes += start.num_vars * layout.stride
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
@@ -310,32 +313,29 @@ class _Sweeper:
     def _flush(self) -> None:
         """Check the runs read so far, and the glue after them, and settle them into the replay, or
         give up. Runs are grouped by layout (one array per round size) but settled and hashed in
-        stream order, the glue absorbed and squeezed between them."""
-        if not self.items:
+        stream order, the glue absorbed and squeezed after the run it follows."""
+        runs, leading = self.runs, self.leading
+        if not runs and not leading:
             return
         from stepper.verify.glue_block import Unsupported
         from stepper.verify.roundblock import block_passes
 
-        items, kernel, checks = self.items, self.kernel, self.glue
+        kernel, checks, trailing = self.kernel, self.glue, self.trailing
         assert kernel is not None and checks is not None
-        self.items, self.rows, self.pending_bytes = [], 0, 0
+        self.runs, self.trailing, self.rows, self.pending_bytes = [], [], 0, 0
+        self.leading = []
+        if self.glue_tail is not None:  # the glue read next still follows the last run
+            self.glue_tail = self.leading
         members: dict[Layout, list[tuple[InstanceStart, bytes, bytes, Layout]]] = {}
-        for item in items:
-            if item.__class__ is tuple:
-                members.setdefault(item[3], []).append(item)  # type: ignore[index, arg-type]
+        for run in runs:
+            members.setdefault(run[3], []).append(run)
         blocks = {layout: RunBlock(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
-        glue: list[NamedValue | Squeeze | Opening] = []  # since the last run
+        if leading:
+            self._absorb_glue(leading)
+            replay.settle_glue(leading)
         exprs = self.exprs
-        for item in items:
-            if item.__class__ is not tuple:
-                glue.append(item)  # type: ignore[arg-type]
-                continue
-            start, _, _, layout = item  # type: ignore[misc]
-            if glue:
-                self._absorb_glue(glue)
-                replay.settle_glue(glue)
-                glue = []
+        for (start, _, _, layout), glue in zip(runs, trailing):
             block = blocks[layout]
             first, final = block.next_run()
             replay.settle(start, final)
@@ -344,9 +344,9 @@ class _Sweeper:
             schedule = replay.schedule  # the first settle may start the default schedule
             if schedule is not None:
                 block.absorb(schedule, first, start.num_vars)
-        if glue:
-            self._absorb_glue(glue)
-            replay.settle_glue(glue)
+            if glue:
+                self._absorb_glue(glue)
+                replay.settle_glue(glue)
         for block in blocks.values():
             rederived = block.rederived(kernel, replay.schedule)
             if not block_passes(kernel, block.evals, block.challenges, block.starts, block.claims, block.finals,
