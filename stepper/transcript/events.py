@@ -259,13 +259,13 @@ class Sequencer:
             if kind in KNOWN_TYPES:
                 raise self._fail(f"expected the `field` event first, found `{short(kind)}`")
             return UnknownEvent(kind[:MAX_TEXT], plain(payload, self._fail))
-        handler = getattr(self, "_on_" + kind, None) if kind in KNOWN_TYPES else None
+        handler = _HANDLERS.get(kind)
         if handler is not None and not self.glue and kind in GLUE_TYPES:
             handler = None
         if handler is None:
             cur = self.current
             return UnknownEvent(kind[:MAX_TEXT], plain(payload, self._fail), cur.index if cur else None)
-        return handler(payload)  # type: ignore[no-any-return]
+        return handler(self, payload)  # type: ignore[no-any-return]
 
     def _on_field(self, payload: Mapping[str, Any]) -> Event:
         if self.field is not None:
@@ -328,9 +328,11 @@ class Sequencer:
         if self._late is not None:
             self._settle_late()
         claim_expr = final_expr = eq_point = None
+        final_parsed: Expr | None = None
         if self.glue and ("claim_expr" in payload or "final_expr" in payload or "eq_point" in payload
                           or form == EQ_FACTORED):
-            claim_expr, final_expr, eq_point = self._instance_glue(payload, name, num_vars, degree, form)
+            claim_expr, final_expr, eq_point, final_parsed = self._instance_glue(payload, name, num_vars, degree,
+                                                                                 form)
         start: Any = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
             len(self.names), name, num_vars, degree, claim)
@@ -345,17 +347,19 @@ class Sequencer:
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
-        if final_expr is not None:
-            refs = parse_cached(final_expr).references()
-            late = tuple(n for n in refs.values if n not in self.defined)
+        if final_parsed is not None:
+            defined = self.defined
+            late = tuple(n for n in final_parsed.references().values if n not in defined)
             self._late = (start, late) if late else None
         return start
 
     # ----- the glue -----------------------------------------------------------------
     def _instance_glue(self, payload: Mapping[str, Any], name: str, num_vars: int, degree: int,
-                       form: str) -> tuple[str | None, str | None, tuple[Element, ...] | str | None]:
-        """The checked ``claim_expr``, ``final_expr`` and ``eq_point`` of an instance event."""
+                       form: str) -> tuple[str | None, str | None, tuple[Element, ...] | str | None, Expr | None]:
+        """The checked ``claim_expr``, ``final_expr`` and ``eq_point`` of an instance event, and the
+        parsed final_expr."""
         exprs: list[str | None] = []
+        parsed: Expr | None = None
         for key in ("claim_expr", "final_expr"):
             raw = payload.get(key)
             if raw is None:
@@ -372,6 +376,7 @@ class Sequencer:
                 raise
             self._check_refs(expr, key, name)
             exprs.append(text)
+            parsed = expr
         eq_raw = payload.get("eq_point")
         eq_point: tuple[Element, ...] | str | None = None
         if form == EQ_FACTORED:
@@ -397,7 +402,7 @@ class Sequencer:
         elif eq_raw is not None:
             raise self._fail(f"expected `eq_point` only with form eq-factored, found it with form {form!r} in "
                              f"instance {name!r}")
-        return exprs[0], exprs[1], eq_point
+        return exprs[0], exprs[1], eq_point, parsed if exprs[1] is not None else None
 
     def _check_refs(self, expr: Expr, key: str, name: str) -> None:
         refs = expr.references()
@@ -627,6 +632,10 @@ class Sequencer:
         if len(raw) > MAX_VALUES:
             raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(raw)}", round_)
         return tuple(self._element(v, what, round_) for v in raw)
+
+
+_HANDLERS: dict[str, Callable[[Sequencer, Mapping[str, Any]], Event]] = {
+    kind: getattr(Sequencer, "_on_" + kind) for kind in KNOWN_TYPES}  # each known type's handler
 
 
 def plain_copy(value: Any, where: Where | None = None) -> Any:
