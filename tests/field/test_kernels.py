@@ -329,3 +329,19 @@ def test_numpy_only_switch_turns_the_compiled_loops_off(monkeypatch):
     kernel = kernel_for(named("goldilocks"), compiled_min=0)
     a = kernel.array([2**63, 5])
     assert kernel.to_list(kernel.mul(a, a)) == [2**126 % kernel.p, 25]
+
+
+@pytest.mark.parametrize("label", ["babybear^4", "koalabear^4", "mersenne31^4", "babybear-dense^4", "babybear^3",
+                                   "p32^4"])
+def test_extension_products_of_the_largest_coefficients_match_python_integers(label):
+    # every coefficient p - 1 (and p - 2, 1, 0 beside it) makes the raw sums of the numpy path
+    # (reduced once per power of X, not once per product) as large as they get
+    field = field_by_label(label)
+    p, k = field.p, field.degree
+    values = [tuple([p - 1] * k), tuple([p - 2] + [p - 1] * (k - 1)), tuple([1] + [0] * (k - 1)),
+              tuple([0] * (k - 1) + [p - 1])]
+    xs = [x for x in values for _ in values]
+    ys = [y for _ in values for y in values]
+    for kernel in kernels_of(field):
+        got = kernel.to_list(kernel.mul(kernel.array(xs), kernel.array(ys)))
+        assert got == [python_mul(field, x, y) for x, y in zip(xs, ys)]  # reference: plain Python integers

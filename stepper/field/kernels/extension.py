@@ -48,6 +48,9 @@ class ExtensionKernel(Kernel):
         compiled_base = isinstance(base, (SmallPrimeKernel, GoldilocksKernel))
         self._xk_array = np.array(self.xk, dtype=np.uint64) if compiled_base else None
         self._lazy = 4 * (p - 1) ** 2 < 2**64  # four raw products fit in uint64
+        # numpy products reduced once per coefficient: k raw products, or a reduced coefficient plus
+        # k - 1 products by the reduction rows, fit in uint64 (any prime below 2^32 for small k)
+        self._numpy_lazy = isinstance(base, SmallPrimeKernel) and self.k * (p - 1) ** 2 + p < 2**64
 
     # ----- construction and conversion -------------------------------------------
     def array(self, values: Any) -> np.ndarray:
@@ -122,6 +125,8 @@ class ExtensionKernel(Kernel):
         return compiled.small_ext_mul(fa, fb, self._xk_array, base.p64, base.pinv, out)  # type: ignore[no-any-return]
 
     def _mul_numpy(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        if self._numpy_lazy:
+            return self._mul_numpy_lazy(a, b)
         k, bk = self.k, self.base
         n = max(len(a), len(b))
         prod = [bk.zeros(n) for _ in range(2 * k - 1)]
@@ -134,6 +139,29 @@ class ExtensionKernel(Kernel):
                 if coef:
                     prod[i] = bk.add(prod[i], bk.mul(top, bk.scalar_array(coef)[0]))
         return np.stack(prod[:k], axis=1)
+
+    def _mul_numpy_lazy(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """The schoolbook product on uint64 without reducing each product: the raw sums of each
+        power X^(i+j) (at most k products below p^2), one remainder per power, the powers from X^k
+        up folded in by the reduction rows (a coefficient below p plus k - 1 products below p^2),
+        one remainder per coefficient: 3k - 1 remainders instead of one per product."""
+        k, p = self.k, np.uint64(self.p)
+        a, b = np.asarray(a, dtype=np.uint64), np.asarray(b, dtype=np.uint64)
+        raw: list[np.ndarray | None] = [None] * (2 * k - 1)
+        for i in range(k):
+            for j in range(k):
+                term = a[:, i] * b[:, j]
+                held = raw[i + j]
+                raw[i + j] = term if held is None else np.add(held, term, out=held)
+        powers = [np.remainder(r, p, out=r) for r in raw if r is not None]
+        out = np.empty((len(powers[0]), k), dtype=np.uint64)
+        for i in range(k):
+            acc = powers[i]
+            for j, row in enumerate(self.reductions):
+                if row[i]:
+                    acc = acc + powers[k + j] * np.uint64(row[i])
+            np.remainder(acc, p, out=out[:, i])
+        return out
 
     def mul_base(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         """a (shape (n, k)) times b (base entries, shape (n,)): k base products per entry."""
