@@ -24,6 +24,7 @@ import numpy as np
 
 from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, _check_tables, _element_of, fold, honest_round
+from stepper.diagnose.stored_table import StoredTable
 
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
@@ -94,6 +95,9 @@ class DaskEngine:
         size = min(size or self.block, len(arr))
         if isinstance(arr, da.Array):
             return arr.rechunk((size, *arr.shape[1:]))
+        if isinstance(arr, StoredTable):  # the stored words, made canonical block by block
+            words = da.from_array(arr.words, chunks=(size, *arr.shape[1:]), asarray=False)
+            return words.map_blocks(_canonical, dtype=np.uint64)
         return da.from_array(arr, chunks=(size, *arr.shape[1:]), asarray=False)
 
     def _pairs(self, arr: Any, order: str) -> list[Any]:
@@ -102,6 +106,8 @@ class DaskEngine:
             return [self._chunked(arr)]
         half = len(arr) // 2
         size = min(self.block // 2, half) or 1
+        if isinstance(arr, StoredTable):
+            return [self._chunked(arr.part(0, half), size), self._chunked(arr.part(half, len(arr)), size)]
         return [self._chunked(arr[:half], size), self._chunked(arr[half:], size)]
 
     def _round(self, field: Field, tables: Mapping[str, Any], expr: Expr, num_points: int,
@@ -136,10 +142,12 @@ class DaskEngine:
         return self._persist(out)
 
     # ----- what the diagnosis asks for -------------------------------------------------------
-    def honest_rounds(self, field: Field, tables: Mapping[str, np.ndarray], expr: Expr,
+    def honest_rounds(self, field: Field, tables: Mapping[str, Any], expr: Expr,
                       challenges: Sequence[Element], order: str, num_points: int, *,
-                      on_round: Callable[[int], None] | None = None) -> Iterator[HonestRound | dict[str, Element]]:
-        """The same items as :func:`stepper.diagnose.honest.honest_rounds`, computed by Dask."""
+                      on_round: Callable[[int], None] | None = None,
+                      on_work: Callable[[int], None] | None = None) -> Iterator[HonestRound | dict[str, Element]]:
+        """The same items as :func:`stepper.diagnose.honest.honest_rounds`, computed by Dask
+        (progress after each round only: ``on_work`` is not called)."""
         names = expr.names()
         n = _check_tables({name: tables[name] for name in names}, expr)
         cur: dict[str, Any] = {name: tables[name] for name in names}
@@ -153,7 +161,8 @@ class DaskEngine:
         final = self._compute(*(cur[name] for name in names))
         yield {name: _element_of(field, np.asarray(arr)) for name, arr in zip(names, final)}
 
-    def mle_eval(self, field: Field, table: np.ndarray, point: Sequence[Element]) -> Element:
+    def mle_eval(self, field: Field, table: Any, point: Sequence[Element], *,
+                 on_work: Callable[[int], None] | None = None) -> Element:
         """The table's multilinear extension at (x_1, ..., x_mu), by Dask folds x_1 first."""
         size = len(table)
         if size != 1 << len(point):
@@ -162,8 +171,14 @@ class DaskEngine:
         cur: dict[str, Any] = {"t": table}
         for x in point:
             cur = self._fold(field, cur, x, "low-first")
-        (last,) = self._compute(cur["t"]) if point else (np.asarray(table),)
+        (last,) = self._compute(cur["t"]) if point else (np.asarray(table[0:1] if not isinstance(table, StoredTable)
+                                                                   else table.rows(0, 1)),)
         return _element_of(field, np.asarray(last))
+
+
+def _canonical(words: np.ndarray) -> np.ndarray:
+    """A block of stored words (checked canonical when the witness was fitted) as the kernels' uint64."""
+    return np.array(words, dtype=np.uint64, order="C")
 
 
 def _block_round(field: Field, expr: Expr, num_points: int, order: str, names: list[str],

@@ -36,213 +36,58 @@ proof. Pure: no I/O; progress is reported through an optional callback.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Protocol
 
 from stepper.errors import InputError
+from stepper.diagnose.diagnosis import COMPRESSED_FORMS, SOUNDNESS_CAVEAT, Diagnosis, RootCause
+from stepper.diagnose.folding import ChunkedFold
 from stepper.diagnose.honest import HonestRound, honest_rounds
+from stepper.diagnose.stored_table import table_rows, whole_table
 from stepper.field.poly import RoundPoly, lagrange_at, mle_eval, point_from_challenges
 from stepper.transcript.model import Opening
 from stepper.diagnose.glue_evidence import glue_findings
 from stepper.diagnose.probes import ProbeContext, ProbeFinding, first_difference, run_probes
-from stepper.diagnose.witness import FittedInstance, fit_witness
+from stepper.diagnose.witness_fit import FittedInstance, fit_witness
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceRecord, Transcript
-    from stepper.verify.verdict import Failure, Report
+    from stepper.verify.verdict import Report
     from stepper.diagnose.witness import Witness
 
-__all__ = ["RootCause", "Diagnosis", "diagnose", "Progress", "COMPRESSED_FORMS", "Engine", "InMemory"]
+__all__ = ["RootCause", "Diagnosis", "diagnose", "Progress", "COMPRESSED_FORMS", "SOUNDNESS_CAVEAT", "Engine",
+           "InMemory"]
 
 Progress = Callable[[int, int], None]  # (work done, total work), in table entries processed
-COMPRESSED_FORMS = ("evals-no-1", "coeffs-no-linear")
-SOUNDNESS_CAVEAT = (
-    "Agreement with the witness is evidence about this one run: it does not show that the protocol, "
-    "its Fiat-Shamir transform or the verifier is sound."
-)
 
 
 class Engine(Protocol):
-    """What computes the honest rounds and the openings' values (in memory, or Dask)."""
+    """What computes the honest rounds and the openings' values (chunked, whole tables, or Dask).
+    Tables are field vectors or :class:`stepper.diagnose.stored_table.StoredTable`; ``on_work``
+    may report progress inside a long pass, in the units of ``on_round``."""
 
     def honest_rounds(self, field: Field, tables: Mapping[str, Any], expr: Any, challenges: Any, order: str,
-                      num_points: int, *, on_round: Callable[[int], None] | None = None) -> Iterator[Any]: ...
+                      num_points: int, *, on_round: Callable[[int], None] | None = None,
+                      on_work: Callable[[int], None] | None = None) -> Iterator[Any]: ...
 
-    def mle_eval(self, field: Field, table: Any, point: Any) -> Element: ...
+    def mle_eval(self, field: Field, table: Any, point: Any, *,
+                 on_work: Callable[[int], None] | None = None) -> Element: ...
 
 
 class InMemory:
-    """The default engine: numpy on whole tables (:mod:`stepper.diagnose.honest`)."""
+    """Numpy on whole tables (:mod:`stepper.diagnose.honest`): every table is read into memory
+    first. The default engine is :class:`stepper.diagnose.folding.ChunkedFold`."""
 
-    honest_rounds = staticmethod(honest_rounds)
-    mle_eval = staticmethod(mle_eval)
+    @staticmethod
+    def honest_rounds(field: Field, tables: Mapping[str, Any], expr: Any, challenges: Any, order: str,
+                      num_points: int, *, on_round: Callable[[int], None] | None = None,
+                      on_work: Callable[[int], None] | None = None) -> Iterator[Any]:
+        whole = {name: whole_table(tables[name]) for name in expr.names()}
+        return honest_rounds(field, whole, expr, challenges, order, num_points, on_round=on_round)
 
-
-@dataclass(frozen=True, slots=True)
-class RootCause:
-    """The first thing the prover sent that an honest prover with this witness would not.
-    ``honest`` / ``sent`` are full evaluations g(0..) of the round (or the claim or
-    final value alone); ``expected`` / ``found`` are at ``point`` (counts for ``degree``)."""
-
-    instance: int
-    instance_name: str
-    round: int
-    check: str
-    point: int | None
-    expected: Element
-    found: Element
-    honest: tuple[Element, ...]
-    sent: tuple[Element, ...]
-    form: str
-    name: str | None = None  # the opening's name, for check ``opening``
-
-
-@dataclass(frozen=True, slots=True)
-class Diagnosis:
-    """The outcome of :func:`diagnose`: the root cause (None when the witness agrees
-    with everything checked), the probe findings, where the verifier noticed, and
-    which instances had no witness."""
-
-    field: Field
-    root_cause: RootCause | None
-    findings: tuple[ProbeFinding, ...]
-    first_failure: Failure | None
-    checked: tuple[str, ...]
-    unchecked: tuple[str, ...]
-    rounds_checked: int
-    by_position: tuple[tuple[str, str], ...] = ()  # (witness name, transcript name) matched by position
-
-    def root_cause_json(self) -> dict[str, Any] | None:
-        """The transcripts/EVENTS.md ``root_cause`` object, plus where the verifier noticed."""
-        cause = self.root_cause
-        if cause is None:
-            return None
-        fmt = self._fmt
-        noticed = self.first_failure
-        out: dict[str, Any] = {
-            "instance": cause.instance,
-            "instance_name": cause.instance_name,
-            "round": cause.round,
-            "check": cause.check,
-            "point": cause.point,
-            "expected": fmt(cause.expected, cause.check),
-            "found": fmt(cause.found, cause.check),
-            "honest": [self.field.fmt(self.field.lift(v)) for v in cause.honest],
-            "sent": [self.field.fmt(self.field.lift(v)) for v in cause.sent],
-            "form": cause.form,
-            **({"name": cause.name} if cause.name is not None else {}),
-            "noticed": None if noticed is None else {
-                "instance": noticed.instance, "instance_name": noticed.instance_name,
-                "round": noticed.round, "check": noticed.check},
-            "probes": [f.probe for f in self.findings],
-            "explanation": self.explain()[0],
-        }
-        return out
-
-    def findings_json(self) -> list[dict[str, Any]]:
-        return [f.to_json() for f in self.findings]
-
-    def explain(self) -> list[str]:
-        """Human sentences: where the prover erred, where the verifier noticed, why the
-        gap, what the probes found, and the soundness caveat."""
-        cause = self.root_cause
-        lines: list[str] = []
-        if cause is None:
-            lines.append(
-                f"The witness agrees with everything sent in {len(self.checked)} instance(s) "
-                f"({self.rounds_checked} round(s)): claims, round polynomials and final values are the honest ones.")
-            if self.first_failure is not None:
-                ff = self.first_failure
-                lines.append(
-                    f"The verifier's rejection (instance {ff.instance} '{ff.instance_name}', round {ff.round}, "
-                    f"check {ff.check}) is therefore not a wrong prover message for these tables: look at the "
-                    "challenges, the batching, the declared degree or form, or the verifier's own expectations.")
-        else:
-            lines.append(self._cause_sentence(cause))
-            lines.extend(self._gap_sentences(cause))
-            if self.findings:
-                lines.extend(f"Probe {f.probe}: {f.message}." for f in self.findings)
-            else:
-                lines.append("No known bug class (probes: variable order, reversed point, challenge shift, "
-                             "Montgomery form, product of sums, point count, negation, reduction) reproduces "
-                             "the sent values exactly.")
-        for wname, tname in self.by_position:
-            lines.append(f"Witness instance '{wname}' names no transcript instance; it was matched by position "
-                         f"to '{tname}': make sure that is the instance you meant.")
-        if self.unchecked:
-            names = ", ".join(f"'{n}'" for n in self.unchecked[:5])
-            more = f" and {len(self.unchecked) - 5} more" if len(self.unchecked) > 5 else ""
-            lines.append(f"No witness for instance(s) {names}{more}: not checked.")
-        if cause is None:
-            lines.append(SOUNDNESS_CAVEAT)
-        return lines
-
-    # ----- sentences ------------------------------------------------------------------------
-    def _fmt(self, value: Element, check: str) -> str:
-        if check == "degree":
-            return str(value)
-        return self.field.fmt(self.field.lift(value))
-
-    def _cause_sentence(self, cause: RootCause) -> str:
-        where = f"instance {cause.instance} '{cause.instance_name}'"
-        exp, found = self._fmt(cause.expected, cause.check), self._fmt(cause.found, cause.check)
-        if cause.check == "claim":
-            return f"The prover first went wrong in {where} at the claimed sum (round 0): the tables sum to {exp}, " \
-                   f"the claim is {found}."
-        if cause.check == "opening":
-            return f"The prover first went wrong in {where} at the opening {cause.name!r} after round " \
-                   f"{cause.round}: it sent {found}, but its table's multilinear extension at the instance's " \
-                   f"challenge point is {exp}."
-        if cause.check == "final":
-            return f"The prover first went wrong in {where} at the final value: every round is honest, but the " \
-                   f"final value is {found} where the tables give {exp} at the challenge point."
-        if cause.check == "degree":
-            return f"The prover first went wrong in {where}, round {cause.round}: the honest polynomial, but sent " \
-                   f"with {found} values where the degree allows {exp}."
-        head = f"The prover first went wrong in {where}, round {cause.round}: its round polynomial differs from " \
-               f"the honest one at point {cause.point}"
-        if cause.point is not None and cause.point >= len(cause.sent):
-            return f"{head} (honest g({cause.point}) = {exp}; the sent polynomial, given by {len(cause.sent)} " \
-                   f"evaluation(s), extends to {found} there)."
-        return f"{head} (honest g({cause.point}) = {exp}, sent {found})."
-
-    def _gap_sentences(self, cause: RootCause) -> list[str]:
-        ff = self.first_failure
-        if ff is None:
-            return ["The verifier accepted or did not reach a check that could notice: the lie went unseen "
-                    "by the replay."]
-        where = f"instance {ff.instance}, round {ff.round} (check {ff.check})"
-        if (ff.instance, ff.round) == (cause.instance, cause.round) or (
-                cause.check == "claim" and ff.instance == cause.instance and ff.round == 1 and ff.check == "sum"):
-            return [f"The verifier noticed at once: {where}."]
-        if ff.instance < cause.instance or (ff.instance == cause.instance and ff.round < cause.round):
-            return [f"The verifier failed earlier, at {where}, for a reason the witness does not show "
-                    "(an earlier message agrees with the honest prover)."]
-        if ff.instance != cause.instance:
-            return [f"The verifier noticed only in a later instance: {where}."]
-        gap = ff.round - cause.round
-        if cause.check == "claim" and cause.form in COMPRESSED_FORMS:
-            why = (f"in the compressed form {cause.form} the left-out value is recovered from the claim, so every "
-                   "sum check holds by construction and only the final check can expose a wrong claim")
-        elif cause.check == "claim":
-            why = "the first round was made to sum to the wrong claim, which moved the error into later rounds"
-        elif cause.check == "final":
-            why = "the final value is only checked at the end"
-        elif cause.check == "opening":
-            why = "an opening is only used where an expression names it"
-        elif ff.check == "final" and cause.form in COMPRESSED_FORMS:
-            why = (f"in the compressed form {cause.form} each round's left-out value is recovered from the claim "
-                   "carried into it, so every sum check holds by construction and only the final check could "
-                   "expose the wrong round")
-        elif ff.check == "final":
-            why = (f"every round from {cause.round} on summed to the claim carried into it (the prover stayed "
-                   "consistent with its own tables as it had folded them), so only the final check against the "
-                   "tables' value at the challenge point could expose it")
-        else:
-            why = (f"the wrong round {cause.round} polynomial still satisfied g(0) + g(1) = claim, so only its "
-                   f"value at the challenge, carried into the next round's claim, could expose it")
-        return [f"The verifier noticed only at {where}, {gap} round(s) later: {why}."]
+    @staticmethod
+    def mle_eval(field: Field, table: Any, point: Any, *, on_work: Callable[[int], None] | None = None) -> Element:
+        return mle_eval(field, whole_table(table), point)
 
 
 # ----- the diagnosis -----------------------------------------------------------------------
@@ -251,9 +96,9 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
     """Compare every instance that has a witness with an honest prover; stop at the
     first root cause and run the probes on it. Raises :class:`WitnessError` when the
     witness does not fit the transcript. ``engine`` (e.g. the Dask engine) computes the
-    honest rounds and the openings in place of the in-memory functions; the probes that
-    run once a root cause is found stay in memory."""
-    engine = engine if engine is not None else InMemory()
+    honest rounds and the openings in place of the default :class:`ChunkedFold` (tables read in
+    pieces); the probes that run once a root cause is found read the tables they need whole."""
+    engine = engine if engine is not None else ChunkedFold()
     if report is None:
         from stepper.verify.replay import replay_transcript
 
@@ -285,7 +130,11 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
             if progress is not None:
                 progress(done + 2 * n - (n >> (k - 1)), total)
 
-        cause, ctx, rounds = _check_instance(field, inst, fit, advance, named, engine)
+        def working(units: int) -> None:
+            if progress is not None:
+                progress(done + units, total)
+
+        cause, ctx, rounds = _check_instance(field, inst, fit, (advance, working), named, engine)
         rounds_checked += rounds
         done += 2 << inst.start.num_vars
         if progress is not None:
@@ -388,17 +237,21 @@ def _opening_probes(field: Field, inst: InstanceRecord, cause: RootCause, own: M
     if point is None or table is None:
         return ()
     others = {i.name: p for i in transcript.instances if i is not inst and (p := _point(i)) is not None}
-    found = probe_opening_point(field, opening.name, opening.value, table, point, others, instance=cause.instance)
+    found = probe_opening_point(field, opening.name, opening.value, whole_table(table), point, others,
+                                instance=cause.instance)
     if found is None:
-        values = {name: mle_eval(field, t, point) for name, t in {**shared, **own}.items()
+        values = {name: mle_eval(field, whole_table(t), point) for name, t in {**shared, **own}.items()
                   if len(t) == 1 << inst.start.num_vars}
         found = probe_opening_table(field, opening.name, opening.table, opening.value, values,
                                     instance=cause.instance)
     return () if found is None else (found,)
 
 
-def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, advance: Callable[[int], None],
-                    named: dict[str, Any], engine: Engine) -> tuple[RootCause | None, ProbeContext | None, int]:
+def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance,
+                    progress: tuple[Callable[[int], None], Callable[[int], None]], named: dict[str, Any],
+                    engine: Engine) -> tuple[RootCause | None, ProbeContext | None, int]:
+    """The first root cause in one instance's rounds, claim or final value; ``progress`` is
+    (after round k, inside a pass) for the engine. The probes' context reads the tables whole."""
     start = inst.start
     form = start.form
     sent = _sent_polys(field, inst, named)
@@ -406,7 +259,8 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, adv
     expr = fit.combine
 
     def context(check: str, round_: int, values: tuple[Element, ...], honest: tuple[Element, ...]) -> ProbeContext:
-        return ProbeContext(field, start, fit.tables, expr, challenges, check, round_, values, honest,
+        tables = {name: whole_table(table) for name, table in fit.tables.items()}
+        return ProbeContext(field, start, tables, expr, challenges, check, round_, values, honest,
                             tuple(tuple(r.values) for r in inst.rounds))
 
     def cause_of(check: str, round_: int, point: int | None, expected: Element, found: Element,
@@ -422,7 +276,7 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance, adv
             return None, None, 0
         return c, context(c.check, c.round, c.sent, c.honest), 0
     for item in engine.honest_rounds(field, fit.tables, expr, challenges, start.order, start.degree + 1,
-                                     on_round=advance):
+                                     on_round=progress[0], on_work=progress[1]):
         if isinstance(item, HonestRound):
             if item.round == 1:
                 honest_claim = field.add(item.evals[0], item.evals[1])
@@ -466,7 +320,8 @@ def _value_at(field: Field, evals: tuple[Element, ...], t: int) -> Element:
     return field.lift(evals[t]) if t < len(evals) else lagrange_at(field, evals, field.embed(t))
 
 
-def _first(field: Field, arr: Any) -> Element:
+def _first(field: Field, table: Any) -> Element:
+    arr = table_rows(table, 0, 1)
     if arr.ndim == 1:
         return field.lift(int(arr[0]))
     return tuple(int(c) for c in arr[0])

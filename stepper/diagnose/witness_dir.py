@@ -132,7 +132,7 @@ def write_witness_folder(path: str | os.PathLike[str], field: Field,
 # ----- reading ---------------------------------------------------------------------------------
 def load_witness_folder(path: str | os.PathLike[str], limits: Any) -> list[FolderInstance]:
     """Read the manifest and memory-map every table: (name, tables, combine text) per instance,
-    entries kept as raw words (:func:`stepper.diagnose.witness.fit_witness` checks them against
+    entries kept as raw words (:func:`stepper.diagnose.witness_fit.fit_witness` checks them against
     the transcript's field). ``limits`` is the caller's ``WitnessLimits``. Raises
     :class:`WitnessError`."""
     folder = Path(path)

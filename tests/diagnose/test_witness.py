@@ -13,7 +13,9 @@ import pytest
 from rootcause_prover import prove
 from stepper.errors import EXIT_INPUT, ExpressionError, WitnessError
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
-from stepper.diagnose.witness import fit_witness, load_witness, witness_from_map
+from stepper.diagnose.stored_table import whole_table
+from stepper.diagnose.witness import load_witness, witness_from_map
+from stepper.diagnose.witness_fit import fit_witness
 
 BABYBEAR = NAMED_PRIMES["babybear"]
 FIELD = get_field(BABYBEAR)
@@ -59,7 +61,7 @@ def test_npz_witness_names_instances_by_their_combine_arrays(tmp_path: Path) -> 
                       **{f"boarding-permutation/{k}": v for k, v in tables.items()}})
     witness = load_witness(path)
     assert [i.name for i in witness.instances] == ["boarding-permutation"]
-    assert fit_witness(witness, transcript)[0].tables["scans"].tolist() == tables["scans"].tolist()
+    assert whole_table(fit_witness(witness, transcript)[0].tables["scans"]).tolist() == tables["scans"].tolist()
 
 
 def test_json_witness_may_name_npy_files_relative_to_itself(tmp_path: Path) -> None:
@@ -70,8 +72,9 @@ def test_json_witness_may_name_npy_files_relative_to_itself(tmp_path: Path) -> N
                           "tables": {"ledger": "ledger.npy", "scans": "scans.npy"}}]}
     (tmp_path / "w.json").write_text(json.dumps(raw))
     fitted = fit_witness(load_witness(tmp_path / "w.json"), transcript)
-    assert fitted[0].tables["ledger"].dtype == np.uint64
-    assert fitted[0].tables["ledger"].tolist() == tables["ledger"].tolist()
+    ledger = whole_table(fitted[0].tables["ledger"])
+    assert ledger.dtype == np.uint64
+    assert ledger.tolist() == tables["ledger"].tolist()
 
 
 def test_extension_entries_become_an_extension_table() -> None:

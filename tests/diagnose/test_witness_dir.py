@@ -18,7 +18,9 @@ import pytest
 
 from rootcause_prover import prove
 from stepper.cli.main import main
-from stepper.diagnose.witness import fit_witness, load_witness
+from stepper.diagnose.stored_table import whole_table
+from stepper.diagnose.witness import load_witness
+from stepper.diagnose.witness_fit import fit_witness
 from stepper.diagnose.witness_dir import FORMAT, MANIFEST, write_witness_folder
 from stepper.errors import InputError, WitnessError
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
@@ -68,7 +70,7 @@ def test_tables_are_raw_little_endian_npy_files_and_fit_back_unchanged(tmp_path:
     witness = load_witness(folder)
     fitted = fit_witness(witness, transcript)[0]
     for tname, table in tables.items():
-        assert field.vlist(fitted.tables[tname]) == field.vlist(table)
+        assert field.vlist(whole_table(fitted.tables[tname])) == field.vlist(table)
 
 
 def test_tables_are_memory_mapped_not_read(tmp_path: Path) -> None:
