@@ -35,9 +35,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "(one line each and a summary); '-' reads one from standard input")
     parser.add_argument("--json", action="store_true", help="print one JSON object (the check contract)")
     parser.add_argument("--witness", metavar="W", help="witness file (JSON or msgpack): find the root cause")
-    parser.add_argument("--engine", choices=("memory", "dask"), default="memory",
-                        help="what recomputes the rounds for --witness: memory (numpy on whole tables, the "
-                             "default) or dask (chunked tables, Dask's local threads or --scheduler)")
+    parser.add_argument("--engine", choices=("chunked", "memory", "dask"), default="chunked",
+                        help="what recomputes the rounds for --witness: chunked (the default: each table read "
+                             "once, --chunk entries at a time), memory (numpy on whole tables read into memory) "
+                             "or dask (Dask's local threads or --scheduler)")
+    parser.add_argument("--chunk", metavar="N", type=_entries, default=None,
+                        help="with --witness: table entries read at once by the chunked engine (N or 2^K, at "
+                             "least 2; default 2^18); memory grows with N, not with the table")
+    parser.add_argument("--progress", action="store_true",
+                        help="with --witness: report progress on stderr (throughput, time left) even when it "
+                             "is not a terminal, one line every few seconds")
     parser.add_argument("--scheduler", metavar="ADDRESS",
                         help="with --engine dask: the address of a running Dask scheduler (tcp://HOST:PORT)")
     parser.add_argument(
@@ -65,6 +72,19 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="colour the text output: auto (a terminal, unless NO_COLOR is set), always, never")
 
 
+def _entries(text: str) -> int:
+    """A table entry count, as N or 2^K, at least 2 (argparse turns the ValueError into exit 2)."""
+    base, caret, power = text.strip().partition("^")
+    if caret and base == "2" and power.isdigit() and 1 <= int(power) <= 40:
+        return 1 << int(power)
+    if not caret and base.isdigit() and int(base) >= 2:
+        return int(base)
+    raise ValueError(text)
+
+
+_entries.__name__ = "entry count (N or 2^K, at least 2)"
+
+
 def run(args: argparse.Namespace) -> int:
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
@@ -76,6 +96,10 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError("expected --engine dask only with --witness W (it recomputes the witness's rounds)")
     if args.scheduler and args.engine != "dask":
         raise UsageError("expected --scheduler ADDRESS only with --engine dask")
+    if args.chunk is not None and (not args.witness or args.engine != "chunked"):
+        raise UsageError("expected --chunk N only with --witness W and the chunked engine (the default)")
+    if args.progress and not args.witness:
+        raise UsageError("expected --progress only with --witness W (it reports the root cause's recomputation)")
     if args.force and not args.junit:
         raise UsageError("expected --force only with --junit PATH (the one file check writes)")
     if len(args.files) > 1 or args.junit or args.ci_lines:

@@ -239,16 +239,13 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
 
         transcript = fold_events(events or [], header, completeness, digest)  # type: ignore[arg-type]
         witness = load_witness(args.witness)
-        engine = None
-        if getattr(args, "engine", "memory") == "dask":
-            from stepper.diagnose.dask_engine import DaskEngine
-
-            engine = DaskEngine(getattr(args, "scheduler", None))
+        engine = _engine(args)
         try:
-            with terminal_progress("root cause: recomputing rounds") as progress:
+            with terminal_progress("root cause: recomputing rounds", always=bool(getattr(args, "progress", False)),
+                                   unit="entries") as progress:
                 diagnosis = diagnose(transcript, witness, report, progress=progress, engine=engine)
         finally:
-            if engine is not None:
+            if hasattr(engine, "close"):
                 engine.close()
     strict = strict_reasons(report, unknown) if args.strict else ()
     glue = glue_probes(path, report) if diagnosis is None and _glue_failure(report) else ()
@@ -256,6 +253,22 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
 
     return Checked(name, report, diagnosis, notes, note_count, unknown, strict,
                    file_condition(kind, completeness, digest), glue)
+
+
+def _engine(args: argparse.Namespace) -> Any:
+    """The root cause's engine named by ``--engine`` (``--chunk`` for the chunked one)."""
+    name = getattr(args, "engine", "chunked")
+    if name == "dask":
+        from stepper.diagnose.dask_engine import DaskEngine
+
+        return DaskEngine(getattr(args, "scheduler", None))
+    if name == "memory":
+        from stepper.diagnose.rootcause import InMemory
+
+        return InMemory()
+    from stepper.diagnose.folding import CHUNK_ENTRIES, ChunkedFold
+
+    return ChunkedFold(getattr(args, "chunk", None) or CHUNK_ENTRIES)
 
 
 def _glue_failure(report: Report) -> bool:

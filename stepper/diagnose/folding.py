@@ -35,7 +35,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Sequence
 import numpy as np
 
 from stepper.errors import InputError
-from stepper.diagnose.honest import HonestRound, _check_tables, fold, honest_round, honest_rounds
+from stepper.diagnose.honest import HonestRound, _check_tables, fold, honest_rounds, round_share
 from stepper.diagnose.stored_table import table_rows, whole_table
 from stepper.field.poly import mle_eval
 
@@ -135,7 +135,7 @@ def _one_pass(field: Field, tables: Mapping[str, Any], expr: Expr | None, challe
         for k in range(1, max(rounds, folds) + 1):
             if k <= rounds:
                 assert expr is not None
-                share = honest_round(field, piece, expr, num_points, order)
+                share = round_share(field, piece, expr, num_points, order)
                 if len(sums) < k:
                     sums.append(share)
                 else:

@@ -28,7 +28,7 @@ if TYPE_CHECKING:
     from stepper.field.expr import Expr
     from stepper.field.field import Element, Field
 
-__all__ = ["CHUNK", "honest_round", "fold", "table_round_sums", "HonestRound", "honest_rounds", "tables_at"]
+__all__ = ["CHUNK", "honest_round", "round_share", "fold", "table_round_sums", "HonestRound", "honest_rounds", "tables_at"]
 
 CHUNK = 1 << 15  # pairs of entries handled per vectorised pass
 
@@ -97,6 +97,19 @@ def honest_round(
     n = _check_tables(tables, expr)
     if n < 2:
         raise InternalError(f"expected tables with at least 2 entries to run a round, found {n}")
+    return round_share(field, tables, expr, num_points, order)
+
+
+def round_share(
+    field: Field,
+    tables: Mapping[str, np.ndarray],
+    expr: Expr,
+    num_points: int,
+    order: str = "low-first",
+) -> tuple[Element, ...]:
+    """The sums of :func:`honest_round` over the pairs ``tables`` hold, of any even length: a
+    piece of the tables laid out as ``order`` pairs them (:mod:`stepper.diagnose.folding`)."""
+    n = len(tables[expr.names()[0]])
     ops = _Ops(field)
     sums = [[0] for _ in range(num_points)]
     halves = {name: _halves(tables[name], order) for name in expr.names()}
