@@ -292,3 +292,35 @@ def test_a_witness_of_one_hundred_thousand_nested_brackets_exits_2_not_70(tmp_pa
     assert main(["check", str(transcript), "--witness", str(witness)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "STEPPER_WITNESS_MAX_DEPTH" in err[0] and "internal error" not in err[0]
+
+
+@pytest.mark.parametrize("fault", [None, "stale-challenge@5", "flip-order@3"])
+@pytest.mark.parametrize("order", ["low-first", "high-first"])
+def test_every_engine_and_chunk_prints_the_same_json_for_a_binary_witness(tmp_path, capsys, fault, order):
+    proof, folder = tmp_path / "p.sumtr", tmp_path / "w"
+    argv = ["prove", "--kind", "generic", "--field", "babybear^4", "--num-vars", "9", "--combine", "a*b*c",
+            "--order", order, "-o", str(proof), "--witness-out", str(folder)]
+    assert main([*argv, *(["--fault", fault] if fault else [])]) == 0
+    capsys.readouterr()
+    runs = [[], ["--engine", "memory"], ["--chunk", "2"], ["--chunk", "7"], ["--chunk", "2^5"], ["--progress"]]
+    outputs = [check(capsys, str(proof), "--witness", str(folder), "--json", *extra) for extra in runs]
+    assert {code for code, _, _ in outputs} == {0 if fault is None else 1}
+    assert len({out for _, out, _ in outputs}) == 1
+    assert (conforming(outputs[0][1], "check")["root_cause"] is None) == (fault is None)
+
+
+@pytest.mark.parametrize(("extra", "message"), [
+    (["--chunk", "1"], "argument --chunk: invalid entry count"),
+    (["--chunk", "2^x"], "argument --chunk: invalid entry count"),
+    (["--engine", "memory", "--chunk", "8", "--witness", "W"], "--chunk N only with --witness W and the chunked"),
+    (["--chunk", "8"], "--chunk N only with --witness W"),
+    (["--progress"], "--progress only with --witness W"),
+])
+def test_chunk_and_progress_flags_out_of_place_are_one_line_and_exit_2(tmp_path, capsys, extra, message):
+    path = write_jsonl(tmp_path / "run.jsonl", honest())
+    try:
+        code, out, err = check(capsys, str(path), *[str(tmp_path / "w") if a == "W" else a for a in extra])
+    except SystemExit as stop:  # argparse's own refusal of a value
+        code, (out, err) = stop.code, capsys.readouterr()
+    assert code == 2 and out == ""
+    assert message in err and "Traceback" not in err

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import io
 
 import numpy as np
@@ -9,7 +10,8 @@ import pytest
 
 from rootcause_prover import prove
 from stepper.field.field import NAMED_PRIMES, get_field
-from stepper.cli.progress import terminal_progress, wants_bar
+import stepper.cli.progress as progress_module
+from stepper.cli.progress import rate_text, terminal_progress, wants_bar
 from stepper.diagnose.rootcause import diagnose
 
 
@@ -100,3 +102,51 @@ def test_an_ignored_sigint_is_left_ignored() -> None:
         assert signal.getsignal(signal.SIGINT) is signal.SIG_IGN
     finally:
         signal.signal(signal.SIGINT, previous)
+
+
+def test_the_rate_text_gives_the_average_throughput_and_the_time_left_at_it() -> None:
+    assert rate_text(2_500_000, 10_000_000, 2.0, "entries") == "1.2 M entries/s, about 6 s left"
+    assert rate_text(500, 1_000, 1.0, "entries") == "500 entries/s, about 1 s left"
+    assert rate_text(1_000, 1_000_000, 1.0, "entries") == "1.0 k entries/s, about 16.6 min left"
+    assert rate_text(0, 10, 1.0, "entries") == "entries/s not known yet"
+
+
+def test_lines_are_written_off_a_terminal_only_when_asked_for(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(progress_module, "LINE_SECONDS", 0.0)
+    quiet, asked = io.StringIO(), io.StringIO()
+    with terminal_progress("recomputing", delay=0.0, stream=quiet, unit="entries") as update:
+        update(3, 10)
+    with terminal_progress("recomputing", delay=0.0, stream=asked, always=True, unit="entries") as update:
+        update(3, 10)
+        update(10, 10)  # the end is not a line of its own
+    assert quiet.getvalue() == ""
+    (line,) = asked.getvalue().splitlines()
+    assert line.startswith("recomputing: 30% (3 of 10 entries), ") and "entries/s" in line
+
+
+def test_the_bar_on_a_terminal_shows_the_throughput(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.delenv("TERM", raising=False)
+    stream = _Tty()
+    with terminal_progress("recomputing", delay=0.0, stream=stream, unit="entries") as update:
+        update(3, 10)
+    assert "entries/s" in stream.getvalue()
+
+
+def test_progress_lines_go_to_stderr_and_leave_the_json_on_stdout_whole(tmp_path, capsys,
+                                                                       monkeypatch: pytest.MonkeyPatch) -> None:
+    import json
+
+    from stepper.cli.main import main
+
+    monkeypatch.setattr(progress_module, "LINE_SECONDS", 0.0)
+    monkeypatch.setattr(progress_module, "terminal_progress",
+                        functools.partial(progress_module.terminal_progress, delay=0.0))
+    proof, folder = tmp_path / "p.sumtr", tmp_path / "w"
+    assert main(["prove", "--kind", "generic", "--num-vars", "8", "-o", str(proof), "--witness-out",
+                 str(folder)]) == 0
+    capsys.readouterr()
+    code = main(["check", str(proof), "--witness", str(folder), "--json", "--progress", "--chunk", "4"])
+    out, err = capsys.readouterr()
+    assert code == 0
+    assert json.loads(out)["verdict"] == "accept"
+    assert "root cause: recomputing rounds:" in err and "entries/s" in err and "left" in err
