@@ -133,15 +133,17 @@ def _one_pass(field: Field, tables: Mapping[str, Any], expr: Expr | None, challe
         stop = min(start + plan.rows, width)
         piece = {name: _piece(table, order, levels, width, start, stop) for name, table in tables.items()}
         for k in range(1, max(rounds, folds) + 1):
+            if order == "low-first":  # pairs (2i, 2i + 1) moved to (i, i + m/2): the kernels then read halves
+                piece = {name: _split_pairs(arr) for name, arr in piece.items()}
             if k <= rounds:
                 assert expr is not None
-                share = round_share(field, piece, expr, num_points, order)
+                share = round_share(field, piece, expr, num_points, "high-first")
                 if len(sums) < k:
                     sums.append(share)
                 else:
                     sums[k - 1] = tuple(field.add(a, b) for a, b in zip(sums[k - 1], share))
             if k <= folds:
-                piece = fold(field, piece, challenges[k - 1], order, in_place=k > 1)
+                piece = fold(field, piece, challenges[k - 1], "high-first", in_place=True)
         if left is not None:
             for name, arr in piece.items():
                 if name not in left:
@@ -150,6 +152,17 @@ def _one_pass(field: Field, tables: Mapping[str, Any], expr: Expr | None, challe
         if on_work is not None:
             on_work(work * stop // width)
     return sums, left
+
+
+def _split_pairs(arr: np.ndarray) -> np.ndarray:
+    """Entries 0, 2, 4, ... then 1, 3, 5, ...: the low-first pairs of ``arr`` as the halves that the
+    high-first kernels pair, each contiguous (the kernels would otherwise copy every strided half
+    once per use); folding that layout high-first gives the low-first fold in its own order."""
+    half = len(arr) // 2
+    out = np.empty_like(arr)
+    out[:half] = arr[0::2]
+    out[half:] = arr[1::2]
+    return out
 
 
 def _piece(table: Any, order: str, levels: int, width: int, start: int, stop: int) -> np.ndarray:
