@@ -9,16 +9,24 @@ once as JSON. Then, side by side in one run (CPU seconds, best of ``--repeat``):
   bytes (elements x element bytes; target <= 1.1x);
 * root cause: ``python3 -m stepper check F --witness W`` as a fresh process, minus the plain
   ``check F`` (fresh process too), against the bare kernels doing the recomputation's
-  multiplications (``bench/rootcause.py``'s ``bare_kernels``; target <= 3x), for the folder and
-  for the JSON witness; the peak resident memory of the check, against one table's raw bytes
-  (target < 1.5x; it includes the interpreter and numpy, about 40 MB);
+  multiplications (``bench/rootcause.py``'s ``bare_kernels``, CPU seconds in this process; target
+  <= 3x), and on the same line its peak resident memory (``ru_maxrss`` of the child) against one
+  table's raw bytes (target < 1.5x), for the folder and for the JSON witness. The peak includes
+  the interpreter, numpy and the compiled kernels; the same command on a 2^15 witness (the compiled kernels load from 2^14 entries) gives that
+  floor, printed beside it;
 * the Dask engine's local overhead: ``check F --witness W --engine dask`` (Dask's local threaded
   scheduler, blocks of 2^16 entries) minus the plain check, against the same with the default
-  in-memory engine, in CPU and in wall seconds, for the folder witness (skipped when dask is not
+  (chunked) engine, in CPU and in wall seconds, for the folder witness (skipped when dask is not
   installed, or with ``--no-dask``).
 
     python3 bench/witness.py                    # 2^20, about a minute
     python3 bench/witness.py --log2n 18 22 --repeat 1
+    python3 bench/witness.py --log2n 26 --synthetic --repeat 1 --no-json --no-dask   # the 2^26 demonstration
+
+``--synthetic`` skips the in-memory prover (at 2^26 its three BabyBear^4 tables alone are 6 GiB):
+the folder's tables are written in pieces of random canonical words, and the honest transcript
+(random challenges, no Fiat-Shamir schedule) is computed from them by the chunked engine
+itself, whose agreement with the in-memory path the tests establish at small sizes.
 """
 
 from __future__ import annotations
@@ -64,12 +72,12 @@ def times_of_check(argv: list[str]) -> tuple[float, float, float]:
 def dask_overhead(transcript: Path, witness: Path, repeat: int) -> str:
     """One line: the Dask engine against the in-memory engine, both minus the plain check."""
     best = {}
-    for name, extra in (("plain", []), ("memory", ["--witness", str(witness)]),
+    for name, extra in (("plain", []), ("chunked", ["--witness", str(witness)]),
                         ("dask", ["--witness", str(witness), "--engine", "dask"])):
         runs = [times_of_check([str(transcript), *extra]) for _ in range(repeat)]
         best[name] = (min(r[0] for r in runs), min(r[1] for r in runs), min(r[2] for r in runs))
-    (pc, pw, _), (mc, mw, _), (dc, dw, drss) = best["plain"], best["memory"], best["dask"]
-    return (f"--engine dask {dc - pc:.2f} s CPU / {dw - pw:.2f} s wall vs in-memory {mc - pc:.2f} s / "
+    (pc, pw, _), (mc, mw, _), (dc, dw, drss) = best["plain"], best["chunked"], best["dask"]
+    return (f"--engine dask {dc - pc:.2f} s CPU / {dw - pw:.2f} s wall vs chunked {mc - pc:.2f} s / "
             f"{mw - pw:.2f} s (each minus the plain check) = {(dc - pc) / (mc - pc):.2f}x CPU, "
             f"{(dw - pw) / (mw - pw):.2f}x wall (local threads); peak {drss:.0f} MB")
 
@@ -108,6 +116,57 @@ def writing(field_name: str, mu: int, repeat: int, tmp: Path) -> tuple[float, fl
     return min(ours), min(bare), size, raw
 
 
+def synthetic(folder: Path, field_name: str, mu: int) -> tuple[Path, Path]:
+    """A witness folder of three random BabyBear^4-shaped tables written in pieces, and its honest
+    transcript computed from the memory-mapped tables by the chunked engine (module docstring)."""
+    import json
+    import random
+
+    from stepper.diagnose.folding import ChunkedFold
+    from stepper.diagnose.honest import HonestRound
+    from stepper.diagnose.stored_table import StoredTable
+    from stepper.diagnose.witness_dir import FORMAT, MANIFEST, element_layout
+    from stepper.field.expr import parse
+    from stepper.transcript.model import ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg
+    from stepper.transcript.store import TranscriptWriter
+
+    field = field_named(field_name)
+    word, limbs = element_layout(field)
+    assert limbs == 1, "--synthetic writes fields below 2^64"
+    n, shape = 1 << mu, ((1 << mu, field.degree) if field.is_extension else (1 << mu,))
+    w = folder / f"s{mu}"
+    w.mkdir()
+    rng = np.random.default_rng(mu)
+    names = ("a", "b", "c")
+    for name in names:
+        out = np.lib.format.open_memmap(w / f"0-{name}.npy", mode="w+", dtype=np.dtype(word), shape=shape)
+        for start in range(0, n, 1 << 20):
+            stop = min(start + (1 << 20), n)
+            out[start:stop] = rng.integers(0, field.p, size=(stop - start, *shape[1:]), dtype=np.uint64)
+        out.flush()
+        del out
+    manifest = {"format": FORMAT, "field": field.spec(), "element": {"word": word, "limbs": 1},
+                "instances": [{"name": "boarding-permutation", "combine": "a*b*c", "order": "low-first",
+                               "tables": {name: f"0-{name}.npy" for name in names}}]}
+    (w / MANIFEST).write_text(json.dumps(manifest, indent=1) + "\n", encoding="utf-8")
+    tables = {name: StoredTable(field, np.load(w / f"0-{name}.npy", mmap_mode="r"), name) for name in names}
+    prng = random.Random(mu)
+    challenges = [field.random(prng) for _ in range(mu)]
+    expr = parse("a*b*c")
+    items = list(ChunkedFold().honest_rounds(field, tables, expr, challenges, "low-first", 4))
+    rounds = [item.evals for item in items if isinstance(item, HonestRound)]
+    final = expr.evaluate_scalar(field, items[-1])  # type: ignore[arg-type]
+    out = folder / f"s{mu}.sumtr"
+    with TranscriptWriter(out) as writer:
+        writer.write(FieldDecl(field))
+        writer.write(InstanceStart(0, "boarding-permutation", mu, 3, field.add(rounds[0][0], rounds[0][1])))
+        for k, evals in enumerate(rounds, start=1):
+            writer.write(RoundMsg(0, k, evals))
+            writer.write(ChallengeMsg(0, k, challenges[k - 1]))
+        writer.write(FinalValue(0, final))
+    return out, w
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--field", default="babybear^4")
@@ -115,33 +174,48 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=2)
     parser.add_argument("--no-json", action="store_true", help="skip the JSON witness (slow at 2^22 and up)")
     parser.add_argument("--no-dask", action="store_true", help="skip the Dask engine's overhead")
+    parser.add_argument("--synthetic", action="store_true",
+                        help="write the folder and the transcript without the in-memory prover (2^25 and up); "
+                             "implies --no-json and skips the writing comparison")
     args = parser.parse_args()
     field = field_named(args.field)
     print(f"{args.field}, combine a*b*c (degree 3); CPU seconds, best of {args.repeat}")
     with tempfile.TemporaryDirectory(dir=os.environ.get("STEPPER_BENCH_TMP")) as name:
         tmp = Path(name)
+        small_t, small_w = prove(tmp, args.field, 15, "floor")  # 2^15: the compiled kernels load
+        floor = min(cpu_of_check([str(small_t), "--witness", str(small_w)])[1] for _ in range(args.repeat))
         for mu in args.log2n:
-            ours, bare, size, raw = writing(args.field, mu, args.repeat, tmp)
-            print(f"2^{mu} write: folder {ours:.3f} s vs numpy.save {bare:.3f} s = {ours / bare:.2f}x (target <= 2x); "
-                  f"{size / 2**20:.1f} MiB = {size / raw:.3f}x raw (target <= 1.1x)", flush=True)
+            raw = 3 * (1 << mu) * field.elem_bytes
+            if not args.synthetic:
+                ours, bare, size, raw = writing(args.field, mu, args.repeat, tmp)
+                print(f"2^{mu} write: folder {ours:.3f} s vs numpy.save {bare:.3f} s = {ours / bare:.2f}x (target "
+                      f"<= 2x); {size / 2**20:.1f} MiB = {size / raw:.3f}x raw (target <= 1.1x)", flush=True)
             table_raw = raw / 3
-            kinds = [("folder", "w")] + ([] if args.no_json else [("json", "w.json")])
+            kinds = [("folder", "w")] + ([] if args.no_json or args.synthetic else [("json", "w.json")])
             for kind, wname in kinds:
-                transcript, witness = prove(tmp, args.field, mu, wname)
+                if args.synthetic:
+                    began = time.perf_counter()
+                    transcript, witness = synthetic(tmp, args.field, mu)
+                    print(f"2^{mu} synthetic witness and honest transcript written in "
+                          f"{time.perf_counter() - began:.0f} s wall", flush=True)
+                else:
+                    transcript, witness = prove(tmp, args.field, mu, wname)
                 plain = min(cpu_of_check([str(transcript)])[0] for _ in range(args.repeat))
-                runs = [cpu_of_check([str(transcript), "--witness", str(witness)]) for _ in range(args.repeat)]
-                full, rss = min(r[0] for r in runs), min(r[1] for r in runs)
-                kernels = min(bare_kernels(field, mu) for _ in range(args.repeat))
-                print(f"2^{mu} check --witness ({kind}): {full:.2f} s - plain check {plain:.2f} s = {full - plain:.2f} s "
-                      f"vs bare kernels {kernels:.2f} s = {(full - plain) / kernels:.1f}x (target <= 3x); peak "
-                      f"{rss:.0f} MB = {rss * 2**20 / table_raw:.2f}x one table ({table_raw / 2**20:.0f} MiB; "
-                      "target < 1.5x)", flush=True)
+                runs = [times_of_check([str(transcript), "--witness", str(witness)]) for _ in range(args.repeat)]
+                full, wall, rss = min(r[0] for r in runs), min(r[1] for r in runs), min(r[2] for r in runs)
+                kernels = min(bare_kernels(field, mu, clock=time.process_time) for _ in range(args.repeat))
+                print(f"2^{mu} check --witness ({kind}): {full:.2f} s - plain check {plain:.2f} s = "
+                      f"{full - plain:.2f} s vs bare kernels {kernels:.2f} s = {(full - plain) / kernels:.1f}x "
+                      f"(target <= 3x) | peak {rss:.0f} MB = {rss * 2**20 / table_raw:.2f}x one table "
+                      f"({table_raw / 2**20:.0f} MiB; target < 1.5x; the same command at 2^15: {floor:.0f} MB) "
+                      f"| {wall:.0f} s wall", flush=True)
                 if kind == "folder" and not args.no_dask and importlib.util.find_spec("dask") is not None:
                     print(f"2^{mu} {dask_overhead(transcript, witness, args.repeat)}", flush=True)
                 if witness.is_dir():
                     shutil.rmtree(witness)
                 else:
                     witness.unlink()
+                transcript.unlink()
 
 
 if __name__ == "__main__":
