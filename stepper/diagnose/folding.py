@@ -17,6 +17,10 @@ Which entries make a piece (n entries, W = n / 2^L, piece = rows [b, b + R) of t
   side by side (2^L ranges); the high-first kernels on that piece pair exactly the
   entries the whole tables would pair, round after round.
 
+A low-first piece is laid out once per round as its even entries, then its odd ones, and
+folded by the half-pairing (high-first) kernels: the same pairs and the same order of the
+result, with both halves contiguous for the compiled kernels.
+
 With ``chunk`` entries per piece (any count of at least 2; a piece need not divide n), L
 and R are chosen so that a piece has at most ``chunk`` entries and the tables left after
 the pass have at most ``chunk`` entries whenever chunk^2 >= n (with a smaller chunk, n /

@@ -21,8 +21,14 @@ disagree), and names the first of:
   opening that follows the instance differs from its table's multilinear
   extension at the instance's challenge point. Tables are looked up in the
   instance's own witness first, then in any other witness instance (a table
-  shared between instances is converted once, by the witness fit); each is
-  evaluated with one vectorised fold.
+  shared between instances is checked once, by the witness fit); each is
+  evaluated by the engine's folds.
+
+The rounds and the openings come from an engine: by default
+:class:`stepper.diagnose.folding.ChunkedFold`, which reads each table once in pieces
+and never holds a stored table whole; :class:`InMemory` reads the tables whole first;
+the Dask engine runs blocks as tasks. All give the same values. The result types and
+their words are in :mod:`stepper.diagnose.diagnosis` (re-exported here).
 
 Eq-factored rounds are compared as the verifier's g_k (the sent q_k times the
 eq factor), the polynomial the witness's combine describes.
