@@ -10,7 +10,7 @@ once as JSON. Then, side by side in one run (CPU seconds, best of ``--repeat``):
 * root cause: ``python3 -m stepper check F --witness W`` as a fresh process, minus the plain
   ``check F`` (fresh process too), against the bare kernels doing the recomputation's
   multiplications (``bench/rootcause.py``'s ``bare_kernels``, CPU seconds in this process; target
-  <= 3x), and on the same line its peak resident memory (``ru_maxrss`` of the child) against one
+  <= 3x), and on the same line its peak resident memory (the child's own ``VmHWM``) against one
   table's raw bytes (target < 1.5x), for the folder and for the JSON witness. The peak includes
   the interpreter, numpy and the compiled kernels; the same command on a 2^15 witness (the compiled kernels load from 2^14 entries) gives that
   floor, printed beside it;
@@ -62,11 +62,36 @@ def cpu_of_check(argv: list[str]) -> tuple[float, float]:
     return cpu, rss
 
 
+# `python -m stepper` that writes its own peak resident memory (VmHWM, kibibytes) to stderr at exit.
+# The child's ru_maxrss is not used: Python starts children with vfork, and Linux then counts the
+# parent's high-water mark (this script's, e.g. while it wrote a 1 GiB table) as the child's.
+_PEAK_SELF = ("import atexit, os, runpy, sys\n"
+              "def peak():\n"
+              "    with open('/proc/self/status') as status:\n"
+              "        kib = next(line.split()[1] for line in status if line.startswith('VmHWM:'))\n"
+              "    os.write(2, f'peak-kib {kib}\\n'.encode())\n"
+              "atexit.register(peak)\n"
+              "sys.argv = ['stepper', *sys.argv[1:]]\n"
+              "runpy.run_module('stepper', run_name='__main__', alter_sys=True)\n")
+
+
 def times_of_check(argv: list[str]) -> tuple[float, float, float]:
-    """(CPU s, wall s, peak MB) of one fresh `check` process."""
-    wall, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv])
-    assert code == 0, f"check {argv} exited {code}"
-    return cpu, wall, rss
+    """(CPU s, wall s, peak MB) of one fresh `check` process; the peak is the child's own (VmHWM)."""
+    import subprocess
+
+    from check import _child_env
+
+    t0 = time.perf_counter()
+    proc = subprocess.Popen([sys.executable, "-c", _PEAK_SELF, "check", *argv], stdout=subprocess.DEVNULL,
+                            stderr=subprocess.PIPE, env=_child_env())
+    assert proc.stderr is not None
+    err = proc.stderr.read().decode(errors="replace")
+    _, status, usage = os.wait4(proc.pid, 0)
+    wall = time.perf_counter() - t0
+    code = os.waitstatus_to_exitcode(status)
+    assert code == 0, f"check {argv} exited {code}: {err[-300:]}"
+    kib = int(err.rsplit("peak-kib ", 1)[1].split()[0])
+    return usage.ru_utime + usage.ru_stime, wall, kib / 1024
 
 
 def dask_overhead(transcript: Path, witness: Path, repeat: int) -> str:
@@ -183,7 +208,7 @@ def main() -> None:
     with tempfile.TemporaryDirectory(dir=os.environ.get("STEPPER_BENCH_TMP")) as name:
         tmp = Path(name)
         small_t, small_w = prove(tmp, args.field, 15, "floor")  # 2^15: the compiled kernels load
-        floor = min(cpu_of_check([str(small_t), "--witness", str(small_w)])[1] for _ in range(args.repeat))
+        floor = min(times_of_check([str(small_t), "--witness", str(small_w)])[2] for _ in range(args.repeat))
         for mu in args.log2n:
             raw = 3 * (1 << mu) * field.elem_bytes
             if not args.synthetic:

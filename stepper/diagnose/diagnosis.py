@@ -60,6 +60,7 @@ class Diagnosis:
     unchecked: tuple[str, ...]
     rounds_checked: int
     by_position: tuple[tuple[str, str], ...] = ()  # (witness name, transcript name) matched by position
+    probes_skipped: str = ""  # why the bug-class probes did not run (tables too big to read whole), or ""
 
     def root_cause_json(self) -> dict[str, Any] | None:
         """The transcripts/EVENTS.md ``root_cause`` object, plus where the verifier noticed."""
@@ -84,6 +85,7 @@ class Diagnosis:
                 "instance": noticed.instance, "instance_name": noticed.instance_name,
                 "round": noticed.round, "check": noticed.check},
             "probes": [f.probe for f in self.findings],
+            **({"probes_skipped": self.probes_skipped} if self.probes_skipped else {}),
             "explanation": self.explain()[0],
         }
         return out
@@ -111,6 +113,9 @@ class Diagnosis:
             lines.extend(self._gap_sentences(cause))
             if self.findings:
                 lines.extend(f"Probe {f.probe}: {f.message}." for f in self.findings)
+            elif self.probes_skipped:
+                lines.append(f"The bug-class probes were not run: {self.probes_skipped}. The root cause above "
+                             "does not depend on them.")
             else:
                 lines.append("No known bug class (probes: variable order, reversed point, challenge shift, "
                              "Montgomery form, product of sums, point count, negation, reduction) reproduces "

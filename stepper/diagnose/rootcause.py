@@ -42,7 +42,8 @@ proof. Pure: no I/O; progress is reported through an optional callback.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Protocol
+from dataclasses import replace
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Protocol
 
 from stepper.errors import InputError
 from stepper.diagnose.diagnosis import COMPRESSED_FORMS, SOUNDNESS_CAVEAT, Diagnosis, RootCause
@@ -62,9 +63,10 @@ if TYPE_CHECKING:
     from stepper.diagnose.witness import Witness
 
 __all__ = ["RootCause", "Diagnosis", "diagnose", "Progress", "COMPRESSED_FORMS", "SOUNDNESS_CAVEAT", "Engine",
-           "InMemory"]
+           "InMemory", "PROBE_MAX_ENTRIES"]
 
 Progress = Callable[[int, int], None]  # (work done, total work), in table entries processed
+PROBE_MAX_ENTRIES = 1 << 24  # the probes read an instance's tables whole: not past this many entries per table
 
 
 class Engine(Protocol):
@@ -117,6 +119,7 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
     rounds_checked = 0
     cause: RootCause | None = None
     findings: tuple[ProbeFinding, ...] = ()
+    skipped = ""
     shared: dict[str, Any] = {}  # table name -> field vector, over every fitted instance (own tables win below)
     for fit in fitted.values():
         for tname, table in fit.tables.items():
@@ -127,7 +130,8 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
         if fit is None:
             cause = _check_openings(field, inst, {}, shared, transcript, engine)
             if cause is not None:
-                findings = _opening_probes(field, inst, cause, {}, shared, transcript)
+                skipped = _too_big_for_probes(shared.values())
+                findings = () if skipped else _opening_probes(field, inst, cause, {}, shared, transcript)
                 break
             continue
         checked.append(inst.name)
@@ -146,11 +150,14 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
         if progress is not None:
             progress(done, total)
         if cause is not None:
-            findings = run_probes(ctx) if ctx is not None else ()
+            skipped = _too_big_for_probes(fit.tables.values())
+            if ctx is not None and not skipped:
+                findings = run_probes(replace(ctx, tables={n: whole_table(t) for n, t in ctx.tables.items()}))
             break
         cause = _check_openings(field, inst, fit.tables, shared, transcript, engine)
         if cause is not None:
-            findings = _opening_probes(field, inst, cause, fit.tables, shared, transcript)
+            skipped = _too_big_for_probes(shared.values())
+            findings = () if skipped else _opening_probes(field, inst, cause, fit.tables, shared, transcript)
             break
     # link, evaluation and eq-factored sums need no witness (the opening probes ran above)
     findings = (*findings, *glue_findings(transcript, report.first_failure))
@@ -158,7 +165,16 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
     by_position = tuple((fit.witness_name, fit.name) for fit in fitted.values()
                         if fit.witness_name and fit.witness_name != fit.name)
     return Diagnosis(field, cause, findings, report.first_failure, tuple(checked), unchecked, rounds_checked,
-                     by_position)
+                     by_position, skipped)
+
+
+def _too_big_for_probes(tables: Iterable[Any]) -> str:
+    """Why the probes may not read these tables whole (a table past :data:`PROBE_MAX_ENTRIES`), or ""."""
+    biggest = max((len(t) for t in tables), default=0)
+    if biggest <= PROBE_MAX_ENTRIES:
+        return ""
+    return (f"they read the instance's tables whole, and a table here has {biggest} entries (more than "
+            f"{PROBE_MAX_ENTRIES}, the probes' limit)")
 
 
 def _sent_polys(field: Field, inst: InstanceRecord, named: dict[str, Any]) -> list[tuple[Element, ...]]:
@@ -265,8 +281,7 @@ def _check_instance(field: Field, inst: InstanceRecord, fit: FittedInstance,
     expr = fit.combine
 
     def context(check: str, round_: int, values: tuple[Element, ...], honest: tuple[Element, ...]) -> ProbeContext:
-        tables = {name: whole_table(table) for name, table in fit.tables.items()}
-        return ProbeContext(field, start, tables, expr, challenges, check, round_, values, honest,
+        return ProbeContext(field, start, fit.tables, expr, challenges, check, round_, values, honest,
                             tuple(tuple(r.values) for r in inst.rounds))
 
     def cause_of(check: str, round_: int, point: int | None, expected: Element, found: Element,

@@ -246,3 +246,21 @@ def test_a_dropped_point_is_described_as_the_sent_polynomial_extended_not_as_a_s
     cause = diagnosis.root_cause
     assert cause is not None and cause.point is not None and cause.point >= len(cause.sent)
     assert "extends to" in diagnosis.explain()[0] and "sent " not in diagnosis.explain()[0].split("(")[-1]
+
+
+def test_probes_past_their_table_limit_are_said_to_be_skipped_and_the_root_cause_still_stands(monkeypatch) -> None:
+    import stepper.diagnose.rootcause as rootcause_module
+
+    rng = np.random.default_rng(4)
+    tables = {n: GOLDILOCKS.vrandom(64, rng) for n in ("ledger", "scans")}
+    transcript, witness = prove(GOLDILOCKS, tables, "ledger*scans", degree=2, fault=Fault("negate-value", 3, 1))
+    within = diagnose(transcript, witness)
+    assert within.findings and "probes_skipped" not in within.root_cause_json()
+    monkeypatch.setattr(rootcause_module, "PROBE_MAX_ENTRIES", 32)
+    past = diagnose(transcript, witness)
+    cause = past.root_cause_json()
+    assert past.findings == () and cause["probes"] == []
+    assert {k: v for k, v in cause.items() if k not in ("probes", "probes_skipped")} == \
+        {k: v for k, v in within.root_cause_json().items() if k != "probes"}
+    assert "64 entries (more than 32" in cause["probes_skipped"]
+    assert any(line.startswith("The bug-class probes were not run") for line in past.explain())
