@@ -40,7 +40,7 @@ import numpy as np
 
 from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, _check_tables, fold, honest_rounds, round_share
-from stepper.diagnose.stored_table import table_rows, whole_table
+from stepper.diagnose.stored_table import StoredTable, table_rows, whole_table
 from stepper.field.poly import mle_eval
 
 if TYPE_CHECKING:
@@ -137,7 +137,7 @@ def _one_pass(field: Field, tables: Mapping[str, Any], expr: Expr | None, challe
         stop = min(start + plan.rows, width)
         piece = {name: _piece(table, order, levels, width, start, stop) for name, table in tables.items()}
         for k in range(1, max(rounds, folds) + 1):
-            if order == "low-first":  # pairs (2i, 2i + 1) moved to (i, i + m/2): the kernels then read halves
+            if order == "low-first" and k > 1:  # pairs (2i, 2i + 1) moved to (i, i + m/2), as _piece does
                 piece = {name: _split_pairs(arr) for name, arr in piece.items()}
             if k <= rounds:
                 assert expr is not None
@@ -171,7 +171,9 @@ def _split_pairs(arr: np.ndarray) -> np.ndarray:
 
 def _piece(table: Any, order: str, levels: int, width: int, start: int, stop: int) -> np.ndarray:
     """The entries that rows [start, stop) of ``table`` folded ``levels`` times depend on, in the
-    layout the kernels of ``order`` fold (module docstring)."""
-    if order == "low-first":
-        return table_rows(table, start << levels, stop << levels)
+    layout the half-pairing kernels fold (module docstring)."""
+    if order == "low-first":  # already laid out as the pairs' halves (see _split_pairs)
+        if isinstance(table, StoredTable):
+            return table.rows_split(start << levels, stop << levels)
+        return _split_pairs(table[start << levels:stop << levels])
     return np.concatenate([table_rows(table, s * width + start, s * width + stop) for s in range(1 << levels)])

@@ -35,6 +35,7 @@ def test_rows_and_the_whole_table_are_the_stored_words_as_canonical_uint64(tmp_p
     assert part.dtype == np.uint64 and part.flags.c_contiguous
     assert part.tolist() == words[10:17].tolist()
     assert table.part(500, 1000).rows(0, 3).tolist() == words[500:503].tolist()
+    assert table.rows_split(20, 26).tolist() == words[[20, 22, 24, 21, 23, 25]].tolist()
     assert whole_table(table).tolist() == words.tolist()
     memory = BABYBEAR.vec([1, 2, 3])
     assert table_rows(memory, 1, 3).tolist() == [2, 3] and whole_table(memory) is memory
