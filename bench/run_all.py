@@ -117,10 +117,10 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
             _first(r"= ([\d.]+)x \(target <= 2x\); [\d.]+ MiB = ([\d.]+)x raw", lambda m: f"{m[1]}x; {m[2]}x")),
         Row("`check --witness` (folder), whole command minus plain check, vs bare kernels; peak RSS vs one table",
             "python3 bench/witness.py", "<= 3x; < 1.5x",
-            _first(r"\(folder\): .*= ([\d.]+)x \(target <= 3x\); peak (\d+) MB = ([\d.]+)x one table",
+            _first(r"\(folder\): .*= ([\d.]+)x \(target <= 3x\) \| peak (\d+) MB = ([\d.]+)x one table",
                    lambda m: f"{m[1]}x; {m[2]} MB = {m[3]}x")),
         Row("`check --witness` (JSON), the same", "python3 bench/witness.py", "<= 3x; < 1.5x",
-            _first(r"\(json\): .*= ([\d.]+)x \(target <= 3x\); peak (\d+) MB = ([\d.]+)x one table",
+            _first(r"\(json\): .*= ([\d.]+)x \(target <= 3x\) \| peak (\d+) MB = ([\d.]+)x one table",
                    lambda m: f"{m[1]}x; {m[2]} MB = {m[3]}x")),
     ]),
     "app": ([], ["--instances", "1000", "--steps", "20"], [
