@@ -20,79 +20,32 @@ Digest: the SHA-256 of every byte before the end event. Chunks are hashed as
 the reader advances, always keeping back the last ``END_MAX_BYTES`` bytes so
 that a cut-off end event is never hashed; the end event's start is its end
 minus its (shortest-form) packed size.
+
+The caps and the capped ``Unpacker`` are in :mod:`stepper.transcript.store.limits`, the held-back
+digest in :mod:`stepper.transcript.store.digest`; both are re-exported here under their names.
 """
 
 from __future__ import annotations
 
-import hashlib
 import itertools
 import os
-import re
-from dataclasses import dataclass
 from types import TracebackType
-from typing import Any, BinaryIO, Callable, Iterator
+from typing import Any, BinaryIO, Iterator
 
 import msgpack
 
 from stepper.errors import TranscriptError, Where
-from stepper.transcript.events import MAX_SIZES, MAX_TEXT, Sequencer, plain_copy
+from stepper.transcript.events import MAX_TEXT, Sequencer, plain_copy
 from stepper.transcript.condition import DIGEST_MISMATCH
 from stepper.transcript.jsonl import LineSplitter
 from stepper.transcript.store.pending import read_pending
+from stepper.transcript.store.digest import HeldBackDigest
+from stepper.transcript.store.limits import ReadLimits, make_unpacker, past_cap, unpacked
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC, oserror
 from stepper.transcript.model import FORMAT_VERSION, GLUE_VERSION, Completeness, DigestStatus, Event, Header, Note
 
 __all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note",
            "unpacked"]
-
-
-@dataclass(frozen=True, slots=True)
-class ReadLimits:
-    """Caps that keep a hostile file from costing unbounded memory or time.
-    Elements per event are capped by the Sequencer (``MAX_VALUES``) and, for a
-    packed run, by ``max_event_bytes``."""
-
-    max_event_bytes: int = 64 << 20
-    max_total_bytes: int = 1 << 40
-    max_items: int = MAX_SIZES  # entries of one msgpack array or map
-    chunk_bytes: int = 1 << 20  # bytes read at a time
-
-
-def make_unpacker(limits: ReadLimits, source: Any = None) -> msgpack.Unpacker:
-    """A msgpack ``Unpacker`` refusing what ``limits`` refuse (feed mode when ``source`` is None)."""
-    return msgpack.Unpacker(
-        source,
-        raw=False,
-        max_buffer_size=limits.max_event_bytes + limits.chunk_bytes,
-        max_bin_len=limits.max_event_bytes,
-        max_str_len=4 * MAX_TEXT,
-        max_array_len=limits.max_items,
-        max_map_len=limits.max_items,
-        max_ext_len=0,
-    )
-
-
-def unpacked(unpacker: msgpack.Unpacker, refill: Callable[[], bool]) -> Iterator[Any]:
-    """Every object of a feed-mode ``unpacker``, calling ``refill`` (which feeds it) when it runs dry
-    until ``refill`` returns False."""
-    while True:
-        yield from unpacker
-        if not refill():
-            return
-
-
-_PAST_CAP = re.compile(r"(\d+) exceeds max_(bin|str|array|map|ext)_len\((\d+)\)")
-_CAP_UNITS = {"bin": "bytes of binary data", "str": "bytes of text", "array": "entries in a list",
-              "map": "entries in a map", "ext": "bytes of extension data"}
-
-
-def past_cap(err: Exception) -> str | None:
-    """msgpack's refusal of an object past a ReadLimits cap, in words (None for other errors)."""
-    match = _PAST_CAP.search(str(err))
-    if match is None:
-        return None
-    found, kind, cap = match.groups()
-    return f"expected at most {cap} {_CAP_UNITS[kind]} in one object (a reading limit), found {found}"
 
 
 def appended_note(seq: Sequencer, payload: Any) -> Note:
@@ -106,42 +59,6 @@ def appended_note(seq: Sequencer, payload: Any) -> Note:
     if "instance" not in payload:
         return Note(record.text, None, record.round)
     return record
-
-
-class HeldBackDigest:
-    """SHA-256 of a file's bytes from offset 0, hashed as reading advances but held
-    back: ``add(chunk, safe)`` keeps the chunk and hashes only what lies before
-    offset ``safe``, so that bytes of an end event not yet recognised are never hashed."""
-
-    def __init__(self, first: bytes) -> None:
-        self._pending = [first]  # bytes read but not yet hashed, from offset _start
-        self._start = 0
-        self._hasher = hashlib.sha256()
-
-    def add(self, chunk: bytes, safe: int) -> None:
-        self._hash_upto(safe)
-        self._pending.append(chunk)
-
-    def digest_upto(self, offset: int) -> bytes:
-        """The SHA-256 of bytes 0..offset (all read)."""
-        self._hash_upto(offset)
-        return self._hasher.digest()
-
-    def drop(self) -> None:
-        """Forget the bytes held back (reading goes on past the end event)."""
-        self._pending = []
-
-    def _hash_upto(self, offset: int) -> None:
-        pending = self._pending
-        while pending and offset > self._start:
-            chunk = pending[0]
-            take = min(len(chunk), offset - self._start)
-            self._hasher.update(memoryview(chunk)[:take])
-            if take == len(chunk):
-                pending.pop(0)
-            else:
-                pending[0] = chunk[take:]
-            self._start += take
 
 
 class EventStream:
