@@ -19,6 +19,11 @@ a payload may contain and where it may stand:
   ``point(NAME)`` and ``final(NAME)`` name earlier instances. Files of format
   version 1 predate the glue: there these types stay unknown events.
 
+The rules live one module per part of the stream: the statement, rounds, challenges and
+finals here, with the reader's hot loop (:meth:`Sequencer.stream`), the glue in
+:mod:`stepper.transcript.glue_rules`, buckets and notes in :mod:`stepper.transcript.annotations`,
+and the position and helpers they share in :mod:`stepper.transcript.sequence_state`.
+
 :func:`to_payload` is the inverse: a record as a payload, binary or JSON.
 Caps keep a hostile input from costing unbounded memory.
 """
@@ -29,40 +34,20 @@ import struct
 from typing import Any, Callable, Iterable, Iterator, Mapping
 
 from stepper.errors import FieldError, TranscriptError, Where
-from stepper.field.field import Element, Field
+from stepper.field.expr import Expr
+from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
 from stepper.field.spec import field_from_spec
-from stepper.transcript.namebook import NameBook
-from stepper.transcript.packed import decoder_for, unpack_elements
+from stepper.transcript.packed import decoder_for
 from stepper.transcript.payload_rules import (
     MAX_DEGREE, MAX_NUM_VARS, MAX_SIZES, MAX_TEXT, MAX_VALUES, checked_count, checked_text, plain, short,
 )
 from stepper.transcript.payloads import to_payload
-from stepper.field.expr import Expr, parse as parse_expr, parse_cached
-from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
-from stepper.errors import ExpressionError
 from stepper.transcript.model import (
-    GLUE_NAME,
-    GLUE_NAME_PATTERN,
-    NamedValue,
-    Opening,
-    Squeeze,
-    BatchDecl,
-    BucketStats,
-    ChallengeMsg,
-    Event,
-    FieldDecl,
-    FinalValue,
-    InstanceStart,
-    Note,
-    RoundMsg,
-    ScheduleDecl,
-    UnknownEvent,
-    ChallengeMsgDraft,
-    InstanceStartDraft,
-    RoundMsgDraft,
-    GlueDraft,
-    OpeningDraft,
+    BatchDecl, ChallengeMsg, ChallengeMsgDraft, Event, FieldDecl, FinalValue, InstanceStart, InstanceStartDraft,
+    RoundMsg, RoundMsgDraft, ScheduleDecl, UnknownEvent,
 )
+from stepper.transcript.annotations import AnnotationRules
+from stepper.transcript.glue_rules import GlueRules
 
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
            "MAX_DEGREE"]
@@ -72,47 +57,9 @@ KNOWN_TYPES = ("field", "schedule", "batch", "instance", "round", "challenge", "
 GLUE_TYPES = ("value", "squeeze", "opening")
 
 
-class Sequencer:
+class Sequencer(GlueRules, AnnotationRules):
     """Feeds payloads in order; returns one record per payload or raises
     :class:`TranscriptError` naming the event index, instance and round."""
-
-    def __init__(self, source: Where | None = None) -> None:
-        self.source = source or Where()
-        self.field: Field | None = None
-        self.count = 0  # payloads fed
-        self.current: InstanceStart | None = None  # the last instance read (earlier ones are not kept)
-        self.names = NameBook()  # the names of all instances read, by position
-        self.rounds_done = 0  # rounds of the current instance
-        self.awaiting_challenge = False
-        self.final_seen = False
-        self.pending_batch: BatchDecl | None = None
-        self._decode: Any = None  # packed-run decoder of the field, set by the field event
-        self._elem_bytes = 0
-        self._prime_modulus = 0  # p for a prime field, 0 for an extension
-        self._runs: dict[int, Any] | None = None  # struct unpackers by run size (prime fields of 4/8 bytes)
-        self._high_ones: bytes | None = None  # see _on_field
-        self._num_vars = 0  # of the current instance (0 before any)
-        self._index = -1
-        self.stopped_at: UnknownEvent | None = None  # see stream()
-        self.glue = True  # whether value/squeeze/opening are known (False for format version 1 files)
-        self.defined: dict[str, int | None] = {}  # glue name -> list length (None for one element)
-        self._late: tuple[InstanceStart, tuple[str, ...]] | None = None  # final_expr names still to come
-
-    # ----- position --------------------------------------------------------------
-    @property
-    def instance_count(self) -> int:
-        return len(self.names)
-
-    def where(self, round_: int | None = None) -> Where:
-        cur = self.current
-        return self.source.but(
-            event=self.count,
-            instance=cur.name if cur else None,
-            round=round_,
-        )
-
-    def _fail(self, message: str, round_: int | None = None) -> TranscriptError:
-        return TranscriptError(message, self.where(round_))
 
     # ----- feeding ---------------------------------------------------------------
     def feed(self, payload: Any, where: Where | None = None) -> Event:
@@ -353,163 +300,6 @@ class Sequencer:
             self._late = (start, late) if late else None
         return start
 
-    # ----- the glue -----------------------------------------------------------------
-    def _instance_glue(self, payload: Mapping[str, Any], name: str, num_vars: int, degree: int,
-                       form: str) -> tuple[str | None, str | None, tuple[Element, ...] | str | None, Expr | None]:
-        """The checked ``claim_expr``, ``final_expr`` and ``eq_point`` of an instance event, and the
-        parsed final_expr."""
-        exprs: list[str | None] = []
-        parsed: Expr | None = None
-        for key in ("claim_expr", "final_expr"):
-            raw = payload.get(key)
-            if raw is None:
-                exprs.append(None)
-                continue
-            text = checked_text(raw, key, self._fail)
-            try:
-                expr = parse_cached(text)
-            except ExpressionError:
-                try:  # again, for a message naming the key and the instance
-                    parse_expr(text, f"{key} of instance {name!r}")
-                except ExpressionError as err:
-                    raise self._fail(err.message) from None
-                raise
-            self._check_refs(expr, key, name)
-            exprs.append(text)
-            parsed = expr
-        eq_raw = payload.get("eq_point")
-        eq_point: tuple[Element, ...] | str | None = None
-        if form == EQ_FACTORED:
-            if degree < 1:
-                raise self._fail(f"expected degree >= 1 for the eq-factored instance {name!r}, found {degree}")
-            if eq_raw is None:
-                raise self._fail(f"expected `eq_point` with form eq-factored in instance {name!r}, found none")
-            if isinstance(eq_raw, str):
-                if eq_raw not in self.defined:
-                    raise self._fail(f"instance {name!r}: eq_point names {short(eq_raw)}, which no earlier value or "
-                                     "squeeze defines")
-                length = self.defined[eq_raw]
-                if length is None:
-                    raise self._fail(f"instance {name!r}: eq_point names {eq_raw!r}, one element; expected a list "
-                                     f"of num_vars = {num_vars}")
-                eq_point = eq_raw
-            else:
-                eq_point = self._elements(eq_raw, "eq_point")
-                length = len(eq_point)
-            if length != num_vars:
-                raise self._fail(f"instance {name!r}: expected eq_point of num_vars = {num_vars} elements, "
-                                 f"found {length}")
-        elif eq_raw is not None:
-            raise self._fail(f"expected `eq_point` only with form eq-factored, found it with form {form!r} in "
-                             f"instance {name!r}")
-        return exprs[0], exprs[1], eq_point, parsed if exprs[1] is not None else None
-
-    def _check_refs(self, expr: Expr, key: str, name: str) -> None:
-        refs = expr.references()
-        earlier = self.names
-        for inst in (*refs.points, *refs.finals):
-            if inst not in earlier:
-                raise self._fail(f"instance {name!r}: {key} names the instance {inst!r}, which is not an earlier "
-                                 "instance")
-        if key == "claim_expr":
-            if refs.own_point:
-                raise self._fail(f"instance {name!r}: claim_expr uses eq(a) with the instance's own point, which is "
-                                 "not known before its rounds; write eq(a, b)")
-            for value in refs.values:
-                if value not in self.defined:
-                    raise self._fail(f"instance {name!r}: claim_expr names {value!r}, which no earlier value, "
-                                     "squeeze or opening defines")
-        for value in refs.lists:
-            if self.defined.get(value, 0) is None:
-                raise self._fail(f"instance {name!r}: {key} uses {value!r} as a list, found one element")
-        for value in refs.scalars:
-            if self.defined.get(value) is not None:
-                raise self._fail(f"instance {name!r}: {key} uses {value!r} as one element, found a list of "
-                                 f"{self.defined[value]}")
-
-    def _settle_late(self) -> None:
-        """At the next instance: the previous instance's final_expr names must all have come."""
-        assert self._late is not None
-        start, late = self._late
-        self._late = None
-        missing = [n for n in late if n not in self.defined]
-        if missing:
-            raise TranscriptError(
-                f"instance {start.name!r}: final_expr names {missing[0]!r}, which nothing before the next instance "
-                "defines", self.source.but(event=self.count, instance=start.name))
-
-    def _glue_name(self, payload: Mapping[str, Any], kind: str) -> str:
-        name = payload.get("name")
-        if name.__class__ is not str or GLUE_NAME_PATTERN.fullmatch(name) is None:  # type: ignore[arg-type]
-            raise self._fail(f"expected a {kind} `name` of {GLUE_NAME}, found {short(name)}")
-        if name in self.defined:
-            raise self._fail(f"expected glue names unique in the proof, found a second {short(name)}")
-        if self.awaiting_challenge:
-            raise self._fail(f"expected the challenge of round {self.rounds_done} before a {kind}",
-                             self.rounds_done)
-        return name  # type: ignore[return-value]
-
-    def _glue_value(self, raw: Any, what: str) -> tuple[Any, bool]:
-        """One element or a list of them: (value, listed)."""
-        assert self.field is not None
-        if raw.__class__ is list:
-            if self.field.is_extension and len(raw) == self.field.degree and all(
-                    isinstance(v, (int, str)) for v in raw):
-                return self._element(raw, what), False  # k scalars: one extension element
-            return self._elements(raw, what), True
-        return self._element(raw, what), False
-
-    def _on_value(self, payload: Mapping[str, Any]) -> Event:
-        return self._named(payload, "value", NamedValue)
-
-    def _on_squeeze(self, payload: Mapping[str, Any]) -> Event:
-        return self._named(payload, "squeeze", Squeeze)
-
-    def _named(self, payload: Mapping[str, Any], kind: str, cls: type) -> Event:
-        """A value or squeeze: checked, then built from a draft (see RoundMsgDraft)."""
-        self._close_instance()
-        name = self._glue_name(payload, kind)
-        value, listed = self._glue_value(payload.get("value"), f"{kind} {name!r}")
-        self.defined[name] = len(value) if listed else None
-        cur = self.current
-        record: Any = GlueDraft()
-        record.name, record.value, record.listed, record.instance = name, value, listed, cur.index if cur else None
-        record.__class__ = cls
-        return record  # type: ignore[no-any-return]
-
-    def _on_opening(self, payload: Mapping[str, Any]) -> Event:
-        if self.pending_batch is not None:
-            self._close_instance()
-        cur = self.current
-        if cur is None:
-            cur = self._need_instance("opening")
-        name = self._glue_name(payload, "opening")
-        if self.rounds_done != cur.num_vars:
-            raise self._fail(f"expected an opening after all {cur.num_vars} rounds of instance {cur.name!r} "
-                             f"(its challenge point), found it after {self.rounds_done}")
-        table = payload.get("table", name)
-        if table is not name and (table.__class__ is not str or GLUE_NAME_PATTERN.fullmatch(table) is None):
-            raise self._fail(f"expected an opening's `table` of {GLUE_NAME}, found {short(table)}")
-        value = self._element(payload.get("value"), f"opening {name!r}")
-        self.defined[name] = None
-        record: Any = OpeningDraft()
-        record.name, record.value, record.table, record.instance = name, value, table, cur.index
-        record.__class__ = Opening
-        return record  # type: ignore[no-any-return]
-
-    def finish_glue(self) -> str | None:
-        """At the end of the stream: the first final_expr name that never came, as
-        ``instance NAME: final_expr names X`` (the proof is incomplete), or None."""
-        if self._late is None:
-            return None
-        start, late = self._late
-        missing = [n for n in late if n not in self.defined]
-        return f"instance {start.name!r}: final_expr names {missing[0]!r}, never sent" if missing else None
-
-    def _close_instance(self) -> None:
-        if self.pending_batch is not None:
-            raise self._fail("expected an `instance` event right after `batch`")
-
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()
         cur = self._need_instance("round")
@@ -546,92 +336,6 @@ class Sequencer:
             )
         self.final_seen = True
         return FinalValue(cur.index, self._element(payload.get("value"), "final value"))
-
-    def _on_buckets(self, payload: Mapping[str, Any]) -> Event:
-        cur = self._need_instance("buckets")
-        round_ = checked_count(payload.get("round"), "buckets round", 0, MAX_NUM_VARS, self._fail)
-        chunk = checked_count(payload.get("chunk"), "buckets chunk", 0, 1 << 20, self._fail)
-        count = checked_count(payload.get("count"), "buckets count", 0, 1 << 62, self._fail)
-        sizes_raw = payload.get("sizes")
-        sizes: tuple[int, ...] | None = None
-        if sizes_raw is not None:
-            if not isinstance(sizes_raw, list) or len(sizes_raw) > MAX_SIZES:
-                raise self._fail(f"expected bucket `sizes` as a list of at most {MAX_SIZES} counts")
-            sizes = tuple(checked_count(s, "bucket size", 0, 1 << 62, self._fail) for s in sizes_raw)
-        bound = payload.get("bound_log2")
-        remaining = payload.get("remaining")
-        extra = {k: v for k, v in payload.items()
-                 if k not in ("type", "round", "chunk", "count", "sizes", "bound_log2", "remaining")}
-        return BucketStats(
-            cur.index,
-            round_,
-            chunk,
-            count,
-            sizes,
-            None if bound is None else checked_count(bound, "bound_log2", 0, 1 << 40, self._fail),
-            None if remaining is None else checked_count(remaining, "remaining", 0, 1 << 62, self._fail),
-            plain(extra, self._fail),
-        )
-
-    def _on_note(self, payload: Mapping[str, Any]) -> Event:
-        text = checked_text(payload.get("text"), "note text", self._fail)
-        target = payload.get("instance")
-        if target is None and "instance" in payload:  # an explicit null: a note on the whole proof
-            index = None
-        elif target is None:
-            index = self.current.index if self.current else None
-        elif isinstance(target, str):
-            index = self.names.last(target)
-            if index is None:
-                raise self._fail(f"expected a note's `instance` to name an instance seen so far, found {short(target)}")
-        else:
-            index = checked_count(target, "note instance", 0, max(0, len(self.names) - 1), self._fail)
-            if not self.names:
-                raise self._fail("expected a note's `instance` to refer to an instance seen so far")
-        round_raw = payload.get("round")
-        round_ = None if round_raw is None else checked_count(round_raw, "note round", 0, MAX_NUM_VARS, self._fail)
-        return Note(text, index, round_)
-
-    # ----- helpers -------------------------------------------------------------------
-    def _need_instance(self, kind: str) -> InstanceStart:
-        cur = self.current
-        if cur is None:
-            raise self._fail(f"expected an `instance` event before `{kind}`")
-        return cur
-
-    def _element(self, raw: Any, what: str, round_: int | None = None) -> Element:
-        assert self.field is not None
-        if raw.__class__ is bytes and len(raw) == self._elem_bytes:
-            if self._prime_modulus:  # a prime field: the bytes are the value, little-endian
-                value = int.from_bytes(raw, "little")
-                if value < self._prime_modulus:
-                    return value
-            one = self._decode(raw)
-            if one is not None:
-                return one[0]  # type: ignore[no-any-return]
-        if raw is None:
-            raise self._fail(f"expected a {what}, found none", round_)
-        try:
-            return self.field.parse(raw)
-        except FieldError as err:  # the location is built only when it is needed
-            raise TranscriptError(f"{what}: {err.message}", self.where(round_)) from None
-
-    def _elements(self, raw: Any, what: str, round_: int | None = None) -> tuple[Element, ...]:
-        if isinstance(raw, (bytes, bytearray)) and self.field is not None:
-            values = self._decode(bytes(raw))
-            if values is None:
-                try:
-                    unpack_elements(self.field, bytes(raw), what, self.where(round_))
-                except FieldError as err:
-                    raise TranscriptError(err.message, err.where) from None
-            if len(values) > MAX_VALUES:
-                raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(values)}", round_)
-            return values  # type: ignore[no-any-return]
-        if not isinstance(raw, list):
-            raise self._fail(f"expected {what} as a list, found {short(raw)}", round_)
-        if len(raw) > MAX_VALUES:
-            raise self._fail(f"expected at most {MAX_VALUES} {what}, found {len(raw)}", round_)
-        return tuple(self._element(v, what, round_) for v in raw)
 
 
 _HANDLERS: dict[str, Callable[[Sequencer, Mapping[str, Any]], Event]] = {
