@@ -1,4 +1,4 @@
-"""Suite-wide set-up, for ``pytest -n 2`` above all.
+"""Suite-wide set-up, for ``pytest -n 3`` (README's command) above all.
 
 * Tests marked ``slow`` (a time limit, the fuzz budget, processes killed at chosen moments:
   seconds of wall time each, mostly spent waiting on a child process) are collected first.

@@ -28,7 +28,7 @@ def _harness():
 
 @pytest.mark.slow
 def test_a_short_fixed_seed_budget_over_every_input_kind_finds_nothing(tmp_path):
-    proc = subprocess.run([sys.executable, str(ROOT / "bench" / "fuzz.py"), "--seconds", "14", "--seed", "7",
+    proc = subprocess.run([sys.executable, str(ROOT / "bench" / "fuzz.py"), "--seconds", "8", "--seed", "7",
                            "--corpus", str(tmp_path / "corpus"), "--memory-mb", "3072"],
                           capture_output=True, text=True, timeout=240, cwd=ROOT)
     summary = json.loads(proc.stdout)
