@@ -29,7 +29,7 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from glue import cpu, write_unique  # noqa: E402
+from glue import cpu, write_pair  # noqa: E402
 
 from stepper.transcript.store import open_events  # noqa: E402
 
@@ -70,9 +70,7 @@ def main() -> int:
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as tmp:
-        plain, glued = Path(tmp) / "plain.sumtr", Path(tmp) / "glue.sumtr"
-        write_unique(plain, args.instances, args.rounds, glue=False)
-        write_unique(glued, args.instances, args.rounds, glue=True)
+        plain, glued = write_pair(Path(tmp), args.instances, args.rounds)
         print(f"{args.instances} instances x {args.rounds} rounds, Goldilocks, degree 3; glue: 3 openings, "
               f"1 squeeze, final_expr and claim_expr per instance")
         best: dict[str, float] = {}

@@ -132,6 +132,14 @@ def time_replay(path: Path) -> float:
     return cpu() - start
 
 
+def write_pair(folder: Path, instances: int, rounds: int) -> tuple[Path, Path]:
+    """The plain and the glued transcript of the same rounds, written into ``folder``."""
+    plain, glued = folder / "plain.sumtr", folder / "glue.sumtr"
+    write_unique(plain, instances, rounds, glue=False)
+    write_unique(glued, instances, rounds, glue=True)
+    return plain, glued
+
+
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--instances", type=int, default=10_000)
@@ -139,9 +147,7 @@ def main() -> int:
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as tmp:
-        plain, glued = Path(tmp) / "plain.sumtr", Path(tmp) / "glue.sumtr"
-        write_unique(plain, args.instances, args.rounds, glue=False)
-        write_unique(glued, args.instances, args.rounds, glue=True)
+        plain, glued = write_pair(Path(tmp), args.instances, args.rounds)
         print(f"{args.instances} instances x {args.rounds} rounds, Goldilocks, degree {DEGREE}; "
               f"plain {plain.stat().st_size / 1e6:.1f} MB, glue {glued.stat().st_size / 1e6:.1f} MB "
               f"(3 openings, 1 squeeze, final_expr and claim_expr per instance)")
