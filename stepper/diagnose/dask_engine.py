@@ -25,6 +25,7 @@ import numpy as np
 from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, _check_tables, _element_of, fold, honest_round
 from stepper.diagnose.stored_table import StoredTable
+from stepper.field.poly import check_point_length
 
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
@@ -165,9 +166,7 @@ class DaskEngine:
                  on_work: Callable[[int], None] | None = None) -> Element:
         """The table's multilinear extension at (x_1, ..., x_mu), by Dask folds x_1 first."""
         size = len(table)
-        if size != 1 << len(point):
-            raise InputError(f"expected a table of 2^{len(point)} = {1 << len(point)} entries for a point of "
-                             f"{len(point)} coordinates, found {size} entries")
+        check_point_length(size, point)
         cur: dict[str, Any] = {"t": table}
         for x in point:
             cur = self._fold(field, cur, x, "low-first")

@@ -41,7 +41,7 @@ import numpy as np
 from stepper.errors import InputError
 from stepper.diagnose.honest import HonestRound, _check_tables, fold, honest_rounds, round_share
 from stepper.diagnose.stored_table import StoredTable, table_rows, whole_table
-from stepper.field.poly import mle_eval
+from stepper.field.poly import check_point_length, mle_eval
 
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
@@ -108,9 +108,7 @@ class ChunkedFold:
                  on_work: Callable[[int], None] | None = None) -> Element:
         """The table's multilinear extension at (x_1, ..., x_mu): the first folds in one pass."""
         n = len(table)
-        if n != 1 << len(point):
-            raise InputError(f"expected a table of 2^{len(point)} = {1 << len(point)} entries for a point of "
-                             f"{len(point)} coordinates, found {n} entries")
+        check_point_length(n, point)
         plan = PassPlan.of(len(point), self.chunk)
         if plan.levels == 0:
             return mle_eval(field, whole_table(table), point)

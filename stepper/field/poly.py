@@ -222,17 +222,21 @@ def point_from_challenges(challenges: Sequence[Element], order: str) -> tuple[El
     return tuple(challenges) if order == "low-first" else tuple(reversed(challenges))
 
 
-def mle_eval(field: Field, table: np.ndarray, point: Sequence[Element]) -> Element:
-    """The multilinear extension of ``table`` at (x_1, ..., x_mu), by folding x_1 first.
-
-    A table of base-field entries (1-D) in an extension field is folded by the
-    first coordinate with base-by-extension products, then stays in the extension."""
-    size = len(table)
+def check_point_length(size: int, point: Sequence[Element]) -> None:
+    """Refuse a table of ``size`` entries that is not 2^len(point) (a point for another table)."""
     if size != 1 << len(point):
         raise InputError(
             f"expected a table of 2^{len(point)} = {1 << len(point)} entries for a point of "
             f"{len(point)} coordinates, found {size} entries"
         )
+
+
+def mle_eval(field: Field, table: np.ndarray, point: Sequence[Element]) -> Element:
+    """The multilinear extension of ``table`` at (x_1, ..., x_mu), by folding x_1 first.
+
+    A table of base-field entries (1-D) in an extension field is folded by the
+    first coordinate with base-by-extension products, then stays in the extension."""
+    check_point_length(len(table), point)
     cur = table
     coords = list(point)
     if field.is_extension and table.ndim == 1:
