@@ -38,6 +38,7 @@ from typing import TYPE_CHECKING, Mapping, Union
 import numpy as np
 
 from stepper.errors import ExpressionError
+from stepper.field.field import power_by_squaring
 from stepper.field.expr_syntax import (
     MAX_EXPONENT_BITS,
     MAX_EXPR_LENGTH,
@@ -266,15 +267,8 @@ class _VectorArith:
         """a^e by repeated squaring: about 2 log2(e) vector products."""
         if isinstance(a, int):
             return pow(a, e, self.p)
-        result: _Value = 1
-        base: _Value = a
-        while e:
-            if e & 1:
-                result = self.mul(result, base)
-            e >>= 1
-            if e:
-                base = self.mul(base, base)
-        return result
+        one: _Value = 1
+        return power_by_squaring(self.mul, a, e, one)
 
 
 def _eval(node: Node, env: Mapping[str, np.ndarray], arith: _VectorArith) -> _Value:

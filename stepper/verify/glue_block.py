@@ -36,6 +36,7 @@ from typing import TYPE_CHECKING, Any, Mapping
 import numpy as np
 
 from stepper.field.expr import parse_cached
+from stepper.field.field import power_by_squaring
 from stepper.field.kernels import GoldilocksKernel, SmallPrimeKernel, Word64Kernel
 from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
 
@@ -235,15 +236,7 @@ class _Columns:
 
     def power(self, base: np.ndarray, e: int) -> np.ndarray:
         """base^e by repeated squaring."""
-        mul = self.kernel.mul
-        result: np.ndarray | None = None
-        while e:
-            if e & 1:
-                result = base if result is None else mul(result, base)
-            e >>= 1
-            if e:
-                base = mul(base, base)
-        return result if result is not None else self.constant(1)
+        return power_by_squaring(self.kernel.mul, base, e, self.constant(1))
 
     def eq(self, node: Eq) -> np.ndarray:
         """prod_j (a_j b_j + (1 - a_j)(1 - b_j)) = prod_j (1 - a_j - b_j + 2 a_j b_j), per check."""
