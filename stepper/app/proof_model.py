@@ -226,7 +226,7 @@ class ProofModel:
         elif kind == "BatchResult":
             view.batch_result = result
             if result.status == "fail":
-                self._note_failure((index, 1), "batch")
+                self._note_failure((index, 0), "batch")  # at the instance's claim, where check puts it
 
     def _note_failure(self, position: Position, check: str) -> None:
         checks = self.failure_checks.get(position)
@@ -319,8 +319,8 @@ class ProofModel:
         return len(self.instances[instance].rounds) if 0 <= instance < len(self.instances) else 0
 
     def first_round(self, instance: int) -> int:
-        """0 when the instance has a round-0 row (its ``link``, or a glue failure reported
-        at round 0 as `stepper check` reports it), else 1."""
+        """0 when the instance has a round-0 row (its ``link``, or a glue or batch failure
+        reported at round 0 as `stepper check` reports it), else 1."""
         if not 0 <= instance < len(self.instances):
             return 1
         linked = self.instances[instance].start.claim_expr is not None

@@ -150,6 +150,9 @@ def round_lines(model: ProofModel, pos: Position) -> list[Line]:
     ]
     if number == 0:
         lines.extend(glue_readout.link_lines(model, index))
+        if view.batch_result is not None and start.claim_expr is None:  # a failed batch has this row
+            lines.append(Line("claimed sum", fmt(start.claim)))
+            lines.extend(_verdict_lines("batch", view.batch_result, field))
         lines.extend(Line("note", note.text, "note") for note in model.notes_at(pos))
         return lines
     if number == 1 or not view.rounds:

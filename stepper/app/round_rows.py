@@ -87,7 +87,7 @@ class RoundRow:
     tone: str
     glue: str = ""  # on the last round of an instance with a final_expr: ``⊣`` and the evaluation's symbol
     glue_tone: str = ""
-    label: str = ""  # ``link`` (or ``glue``) on the round-0 row
+    label: str = ""  # ``link`` (or ``batch``, ``glue``) on the round-0 row
 
     def cells(self) -> tuple[str, ...]:
         """Round, status (word and symbol), then the values: the status never scrolls away."""
@@ -155,11 +155,17 @@ def instance_rows(model: ProofModel, instance: int, width: int) -> list[RoundRow
 
 
 def _link_row(model: ProofModel, field: Field, instance: int, width: int) -> RoundRow:
-    start = model.instances[instance].start
+    view = model.instances[instance]
+    start = view.start
     result: Any = model.glue.link.get(instance)
     mark = mark_of(link_status(model, instance))
-    label = "link" if start.claim_expr is not None else "glue"
     expected = result.expected if result is not None else None
+    if start.claim_expr is not None:
+        label = "link"
+    elif "batch" in model.failure_checks.get((instance, 0), ()):
+        label, expected = "batch", view.batch_result.combined  # the claim the batch promises
+    else:
+        label = "glue"
     return RoundRow(0, _cell(field, expected, width), "", "", "", _cell(field, start.claim, width), mark.word,
                     mark.symbol, mark.tone, label=label)
 

@@ -10,6 +10,7 @@ runs of the reference provers (tests/app/proofs.py).
 
 from __future__ import annotations
 
+import json
 import sys
 from pathlib import Path
 
@@ -47,8 +48,6 @@ def _case(name: str, kind: str, **options: object):  # a generated file, built i
 
 
 def _written(name: str, payloads: list[dict]):  # a few events typed out, as a JSON-lines file
-    import json
-
     def make(tmp: Path) -> Path:
         path = tmp / f"{name}.jsonl"
         path.write_text("".join(json.dumps(p) + "\n" for p in payloads))
@@ -67,6 +66,22 @@ NO_VARIABLES = [
 ]
 
 
+# A batch whose combined claim (10 + 7*1 = 17) is not the next instance's claim (18):
+# `check` reports it at that instance's round 0 (its claim), as it does a broken link.
+BROKEN_BATCH = [
+    {"type": "field", "name": "babybear"},
+    {"type": "instance", "name": "fares.day", "num_vars": 1, "degree": 1, "claim": 10},
+    {"type": "round", "evals": [4, 6]},
+    {"type": "challenge", "value": 3},
+    {"type": "final", "value": 10},
+    {"type": "batch", "coefficient": 7, "terms": [10, 1], "sources": ["fares.day", "surcharge"]},
+    {"type": "instance", "name": "fares.week", "num_vars": 1, "degree": 1, "claim": 18},
+    {"type": "round", "evals": [9, 9]},
+    {"type": "challenge", "value": 2},
+    {"type": "final", "value": 9},
+]
+
+
 def _shipped(name: str):
     return pytest.param(lambda tmp: SHIPPED / f"{name}.sumtr", id=name)
 
@@ -80,6 +95,7 @@ SAME_STORY = [
     _case("squeeze-after-layer1", "gkr-product", retouch=bump_squeeze(1)),
     _case("squeeze-before-layer1", "gkr-product", retouch=bump_squeeze(0)),
     _written("no-variables", NO_VARIABLES),
+    _written("broken-batch", BROKEN_BATCH),
 ]
 
 
@@ -209,3 +225,15 @@ def test_a_glue_expression_the_replay_cannot_evaluate_stops_the_read_with_checks
     assert source.problem == reason  # the replay's refusal, word for word
     assert model.verdict() == "incomplete" and model.failures == []  # the record it refused is not replayed
     assert model.round_count == 1
+
+
+def test_a_failed_batch_has_a_round_0_row_with_the_combined_claim_against_the_claim_sent(tmp_path):
+    from stepper.app.readout import round_lines
+    path = tmp_path / "broken-batch.jsonl"
+    path.write_text("".join(json.dumps(p) + "\n" for p in BROKEN_BATCH))
+    model = opened(path)
+    assert model.first_round(1) == 0 and model.first_round(0) == 1
+    row = model.rows(1)[0]
+    assert (row.round, row.label, row.claim_in.strip(), row.claim_out.strip()) == (0, "batch", "17", "18")
+    lines = {line.label: line.value for line in round_lines(model, (1, 0))}
+    assert "fail" in lines["batch check"] and lines["claimed sum"] == "18"
