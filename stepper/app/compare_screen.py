@@ -3,10 +3,12 @@
 Opened by ``stepper view A --compare B`` (or pushed with a ready
 :class:`~stepper.compare.diff.Comparison`). State is one reactive ``pair`` (the index
 of the aligned instance pair on screen); ``watch_pair`` refills both round
-tables. Each table shows the claim, every round (values sent, challenge) and
-the final value of its side; a mark column says what differs on that line
-(``g`` values, ``r`` challenge, ``-`` missing on the other side) and ``>>``
-points at the first divergence. Judging is done by :mod:`stepper.compare.diff`; this
+tables. Each table shows the claim, the instance's link keys (claim_expr,
+eq_point, final_expr) where either side has them, every round (values sent,
+challenge), the final value and the glue that follows the instance (values,
+squeezes, openings, by position); a mark column says what differs on that line
+(``g`` values, ``r`` challenge, ``c`` claim, ``f`` final, ``x`` a link key, ``u``
+glue, ``-`` missing on the other side) and ``>>`` points at the first divergence. Judging is done by :mod:`stepper.compare.diff`; this
 module only lays it out. A file that cannot be read shows its one-line error.
 """
 
@@ -30,6 +32,7 @@ from stepper.errors import StepperError
 from stepper.field.display import ELIDE_LEGEND, elide
 
 if TYPE_CHECKING:
+    from stepper.compare.alignment import Divergence
     from stepper.compare.diff import Comparison, InstancePair
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceRecord
@@ -60,14 +63,18 @@ def side_rows(c: Comparison, pair: InstancePair, side: str, width: int = 60) -> 
     if inst is None:
         return [("-", "instance", "(absent on this side)", "", True)]
     claim_differs = other is None or field.lift(inst.start.claim) != field.lift(other.start.claim)
-    claim_mark = ">>" if here and d is not None and d.round == 0 else ("c" if claim_differs else "")
+    statement_here = here and d is not None and d.element == "statement" and d.detail in _LINK_KEYS
+    claim_mark = ">>" if here and d is not None and d.round == 0 and not statement_here else (
+        "c" if claim_differs else "")
     rows.append((claim_mark, "claim", _short(field, inst.start.claim, values_width), "", claim_differs))
+    rows.extend(_key_rows(field, inst, other, ("claim_expr", "eq_point"), d if statement_here else None,
+                          values_width))
     for rp in pair.rounds:
         rnd = rp.a if side == "a" else rp.b
         marks = ("g" if rp.same_values is False else "") + ("r" if rp.same_challenge is False else "")
         if rp.a is None or rp.b is None:
             marks = "-"
-        if here and d is not None and d.round == rp.number and d.element in ("value", "challenge", "round"):
+        if here and d is not None and d.round == rp.number and d.element in ("value", "challenge", "round") and marks:
             marks = ">>" + marks
         if rnd is None:
             rows.append((marks, f"round {rp.number}", "(not sent)", "", True))
@@ -82,6 +89,63 @@ def side_rows(c: Comparison, pair: InstancePair, side: str, width: int = 60) -> 
         mark = ">>" if here and d is not None and d.element == "final" else ("f" if final_differs else "")
         shown = "(none)" if inst.final is None else _short(field, inst.final, values_width)
         rows.append((mark, "final", shown, "", final_differs))
+    rows.extend(_key_rows(field, inst, other, ("final_expr",), d if statement_here else None, values_width))
+    rows.extend(_glue_rows(field, inst, other, d if here and not any(row[0].startswith(">>") for row in rows)
+                           else None, values_width))
+    return rows
+
+
+_LINK_KEYS = ("claim_expr", "eq_point", "final_expr")
+_LEGEND = "marks: g values  r challenge  c claim  f final  x link key  u glue  - one side only  >> first divergence"
+_LEGEND_NARROW = "g values r challenge c claim f final x key u glue - absent >> first"  # fits 80 columns
+
+
+def _key_text(field: Field, value: object) -> str | None:
+    if isinstance(value, tuple):
+        return "[" + ", ".join(field.fmt(field.lift(v)) for v in value) + "]"
+    return None if value is None else str(value)
+
+
+def _key_rows(field: Field, inst: InstanceRecord, other: InstanceRecord | None, keys: tuple[str, ...],
+              d: Divergence | None, width: int) -> list[tuple[str, str, str, str, bool]]:
+    """The link keys either side declares: the text of each, marked ``x`` where they differ."""
+    rows = []
+    for key in keys:
+        mine = _key_text(field, getattr(inst.start, key, None))
+        theirs = None if other is None else _key_text(field, getattr(other.start, key, None))
+        if mine is None and theirs is None:
+            continue
+        differs = mine != theirs
+        mark = ">>" if d is not None and d.detail == key else ("x" if differs else "")
+        rows.append((mark, key.replace("_", " "), elide(mine, width) if mine is not None else "(none)", "", differs))
+    return rows
+
+
+def _glue_rows(field: Field, inst: InstanceRecord, other: InstanceRecord | None, d: Divergence | None,
+               width: int) -> list[tuple[str, str, str, str, bool]]:
+    """The glue after the instance, by position against the other side's: ``u`` where it
+    differs (kind, name, table or value), ``-`` where one side sends nothing there, ``>>``
+    on the first divergence when it lies in this glue."""
+    from stepper.compare.glue_divergence import glue_items, glue_kind, glue_text
+
+    theirs = () if other is None else other.glue
+    rows = []
+    for j in range(max(len(inst.glue), len(theirs))):
+        mine = inst.glue[j] if j < len(inst.glue) else None
+        their = theirs[j] if j < len(theirs) else None
+        if mine is None:
+            assert their is not None
+            rows.append(("-", f"{glue_kind(their)} {their.name}", "(not sent)", "", True))
+            continue
+        kind, table = glue_kind(mine), getattr(mine, "table", None)
+        text = glue_text(field, glue_items(field, mine))
+        shown = elide(text, width) if table is None else f"{table}: " + elide(text, max(8, width - len(table) - 2))
+        same = their is not None and (glue_kind(their), their.name, getattr(their, "table", None)) == (
+            kind, mine.name, table) and glue_items(field, their) == glue_items(field, mine)
+        mark = "-" if their is None else ("" if same else "u")
+        if d is not None and d.element in ("value", "squeeze", "opening") and d.index == j and not same:
+            mark = ">>" + mark
+        rows.append((mark, f"{kind} {mine.name}", shown, "", not same))
     return rows
 
 
@@ -160,7 +224,7 @@ class CompareScreen(Screen[None]):
         b = self.path_b.name if self.path_b else "B"
         head.update(f" A {a} ({c.field_a.describe()}, {c.completeness_a})   B {b} "
                     f"({c.field_b.describe()}, {c.completeness_b})")
-        verdict.border_subtitle = "marks: g values  r challenge  c claim  f final  - one side only  >> first divergence"
+        verdict.border_subtitle = _LEGEND_NARROW if self.size.width and self.size.width < 120 else _LEGEND
         self.query_one("#side-b").border_subtitle = escape(ELIDE_LEGEND)
         lines = Text()
         if c.divergence is None:
@@ -249,6 +313,8 @@ class CompareScreen(Screen[None]):
     def on_resize(self) -> None:
         self.set_class(self.size.height < 34, "short")
         self.set_class(self.size.width < 120, "narrow")
+        if self.comparison is not None and self.is_mounted:
+            self._head()  # the legend follows the width
         if self.comparison is not None and self.comparison.pairs and self.is_mounted:
             self._fill(self.pair)  # the value columns follow the width
 

@@ -31,24 +31,27 @@ if TYPE_CHECKING:
     from stepper.field.field import Field
     from stepper.transcript.model import InstanceRecord
 
-__all__ = ["GLUE_KEYS", "glue_divergence", "link_keys_divergence", "claim_link"]
+__all__ = ["GLUE_KEYS", "glue_divergence", "link_keys_divergence", "claim_link", "glue_kind", "glue_items", "glue_text"]
 
 Found = tuple[Divergence, Classification, list[str]]
 GLUE_KEYS = ("eq_point", "claim_expr", "final_expr")
 _KIND = {"NamedValue": "value", "Squeeze": "squeeze", "Opening": "opening"}
 
 
-def _kind(event: Any) -> str:
+def glue_kind(event: Any) -> str:
+    """``value``, ``squeeze`` or ``opening``."""
     return _KIND.get(type(event).__name__, type(event).__name__.lower())
 
 
-def _items(field: Field, event: Any) -> list[Any]:
-    if _kind(event) == "opening":
+def glue_items(field: Field, event: Any) -> list[Any]:
+    """The elements a glue event carries, lifted into ``field``."""
+    if glue_kind(event) == "opening":
         return [field.lift(event.value)]
     return [field.lift(v) for v in event.items()]
 
 
-def _text(field: Field, items: Sequence[Any]) -> str:
+def glue_text(field: Field, items: Sequence[Any]) -> str:
+    """One element as text, several as a bracketed list."""
     shown = [field.fmt(v) for v in items]
     return shown[0] if len(shown) == 1 else "[" + ", ".join(shown) + "]"
 
@@ -65,23 +68,23 @@ def glue_divergence(field: Field, glue_a: Sequence[Any], glue_b: Sequence[Any], 
         if ga is None or gb is None:
             present = ga if ga is not None else gb
             short = "a" if ga is None else "b"
-            div = Divergence(_kind(present), ia, ib, name, round_, j, present.name,  # type: ignore[union-attr]
-                             None if ga is None else _text(field, _items(field, ga)),
-                             None if gb is None else _text(field, _items(field, gb)))
+            div = Divergence(glue_kind(present), ia, ib, name, round_, j, present.name,  # type: ignore[union-attr]
+                             None if ga is None else glue_text(field, glue_items(field, ga)),
+                             None if gb is None else glue_text(field, glue_items(field, gb)))
             return div, Classification(
-                "truncated", f"{short.upper()} stops before the {_kind(present)} {present.name} {where}; "  # type: ignore[union-attr]
+                "truncated", f"{short.upper()} stops before the {glue_kind(present)} {present.name} {where}; "  # type: ignore[union-attr]
                 "everything both sides hold agrees.", side=short), []
-        ka, kb = _kind(ga), _kind(gb)
+        ka, kb = glue_kind(ga), glue_kind(gb)
         if (ka, ga.name) != (kb, gb.name):
             div = Divergence(ka, ia, ib, name, round_, j, f"{ka} {ga.name} / {kb} {gb.name}",
                              f"{ka} {ga.name}", f"{kb} {gb.name}")
             return div, Classification(
                 "statement", f"A sends the {ka} {ga.name} {where} where B sends the {kb} {gb.name}: the two runs "
                 "send different glue from here on."), []
-        va, vb = _items(field, ga), _items(field, gb)
+        va, vb = glue_items(field, ga), glue_items(field, gb)
         if va == vb and getattr(ga, "table", None) == getattr(gb, "table", None):
             continue
-        div = Divergence(ka, ia, ib, name, round_, j, ga.name, _text(field, va), _text(field, vb))
+        div = Divergence(ka, ia, ib, name, round_, j, ga.name, glue_text(field, va), glue_text(field, vb))
         if ka == "opening":
             return div, _opening(field, ga, gb, va, vb, where), []
         if ka == "squeeze":
@@ -118,9 +121,9 @@ def link_keys_divergence(field: Field, ia: InstanceRecord, ib: InstanceRecord,
     for key in GLUE_KEYS:
         a, b = getattr(ia.start, key, None), getattr(ib.start, key, None)
         if isinstance(a, tuple):
-            a = _text(field, [field.lift(v) for v in a])
+            a = glue_text(field, [field.lift(v) for v in a])
         if isinstance(b, tuple):
-            b = _text(field, [field.lift(v) for v in b])
+            b = glue_text(field, [field.lift(v) for v in b])
         if a != b:
             div = Divergence("statement", *instance, 0, None, key, None if a is None else str(a),
                              None if b is None else str(b))

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from proofs import brackwater_payloads, bump_g1, write_transcript
+from proofs import brackwater_payloads, bump_g1, glued_events, write_transcript
 from stepper.app.app import StepperApp
 from stepper.app.compare_screen import CompareScreen, side_rows
 from stepper.app.proof_screen import ProofScreen
@@ -103,3 +103,42 @@ def test_side_rows_mark_rounds_only_one_side_has(tmp_path):
     assert [r[1] for r in rows_b] == ["claim", "round 1", "round 2", "round 3", "final"]
     assert rows_b[3][:3] == (">>-", "round 3", "(not sent)")
     assert rows_b[4][2] == "(none)" and rows_b[4][4] is True
+
+
+def glued_pair(tmp_path: Path, fault: str, kind: str = "zerocheck", fault_instance: int = 0) -> tuple[Path, Path]:
+    """A reference prover's glued run and the same run with one fault (same seed, same statement)."""
+    a = glued_events(tmp_path / "honest.jsonl", kind)
+    return a, glued_events(tmp_path / "faulty.jsonl", kind, fault=fault, fault_instance=fault_instance)
+
+
+def test_side_rows_show_the_glue_after_an_instance_and_point_at_the_opening_that_differs(tmp_path):
+    a, b = glued_pair(tmp_path, "open-wrong-table")
+    c = compare(load(a), load(b))
+    assert (c.divergence.element, c.divergence.detail) == ("opening", "a")
+    rows = side_rows(c, c.pairs[0], "a")
+    marks = {line: mark for mark, line, *_ in rows}
+    assert marks["opening a"] == ">>u" and marks["opening b"] == marks["opening c"] == ""
+    # the rounds agree: the last round is not where the divergence is, though the opening follows it
+    assert all(not mark for mark, line, *_ in rows if line.startswith("round"))
+    assert marks["final expr"] == ""  # a link key both sides declare alike
+
+
+def test_side_rows_mark_glue_and_link_keys_after_a_divergent_claim_without_taking_the_arrow(tmp_path):
+    a, b = glued_pair(tmp_path, "stale-coefficient", kind="gkr-product", fault_instance=1)
+    c = compare(load(a), load(b))
+    rows = side_rows(c, c.pairs[1], "b")
+    arrows = [line for mark, line, *_ in rows if mark.startswith(">>")]
+    assert arrows == ["claim"]  # one first divergence, on the claim
+    assert any(line.startswith("opening ") and mark == "u" for mark, line, *_ in rows)
+
+
+async def test_the_compare_screen_lands_on_a_glue_divergence_at_80_columns(tmp_path):
+    a, b = glued_pair(tmp_path, "open-wrong-table")
+    app = StepperApp.from_file(a, compare=b)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause()
+        screen = app.screen
+        table_a = screen.query_one("#table-a", DataTable)
+        row = table_a.cursor_row
+        assert cells(table_a, row)[0] == ">>u" and cells(table_a, row)[1] == "opening a"
+        assert screen.query_one("#table-b", DataTable).cursor_row == row
