@@ -18,14 +18,15 @@
 Replay goes on after a failure: later rounds are evaluated against the claim
 actually carried and marked ``after_failure``; ``first_failure`` is the first in
 stream order. Memory per instance is constant unless ``keep_rounds`` is set;
-``keep_instances`` caps the kept instance summaries (counts cover every instance);
-that bookkeeping lives in :mod:`stepper.verify.ledger`.
+``keep_instances`` caps the kept instance summaries (counts cover every instance).
 
-``feed_all`` is the streaming fast path (``stepper check`` without ``--json``):
-a round and its challenge that pass in a prime field are settled inline (the
-schedule's fused :meth:`~stepper.verify.fiatshamir.Sha256Schedule.round_stepper`,
-:func:`~stepper.field.lagrange.round_evaluator`, no result record); anything else, and
-any failure, goes through ``feed``, so the report is exactly the same.
+The replay drives the instances (statement, batch, final value, closing) and the
+challenge source, and hands the rest to its parts: a round's checks to
+:mod:`stepper.verify.round_checks`, the glue to :mod:`stepper.verify.glue`, the
+instance bookkeeping to :mod:`stepper.verify.ledger`. ``feed_all`` is the streaming
+fast path (``stepper check`` without ``--json``, :mod:`stepper.verify.streaming`):
+rounds that pass in a prime field are settled inline, anything else, and any failure,
+goes through ``feed``, so the report is exactly the same.
 """
 
 from __future__ import annotations
@@ -35,9 +36,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterable
 from stepper.verify.binding import Challenger
 from stepper.verify.challenges import ChallengeSource
 from stepper.errors import InputError, Where
-from stepper.field.lagrange import evaluate_round, round_evaluator
 from stepper.verify.ledger import InstanceLedger, LiveInstance, combine_batch
-from stepper.field.poly import RoundPoly
 from stepper.transcript.model import (
     BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
     Squeeze, Transcript, UnknownEvent,
@@ -45,7 +44,9 @@ from stepper.transcript.model import (
 from stepper.verify.glue import GlueDesk, passing_evaluation, passing_link
 from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
-from stepper.verify.text import batch_text, final_text, round_text
+from stepper.verify.text import batch_text, final_text
+from stepper.verify.round_checks import NOT_REDERIVED, RoundDesk
+from stepper.verify.streaming import InlineSetup, feed_stream, inline_setup
 
 if TYPE_CHECKING:
     from stepper.verify.fiatshamir import Sha256Schedule
@@ -54,9 +55,6 @@ if TYPE_CHECKING:
 
 __all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "FinalResult", "BatchResult",
            "Report", "Failure", "Finding"]
-
-
-_UNKNOWN = object()  # marks "not re-derived yet" in Replay._resolve_pending
 
 
 class Replay:
@@ -84,6 +82,8 @@ class Replay:
                           InstanceStart: self._on_instance, FinalValue: self._on_final,
                           NamedValue: self._on_glue, Squeeze: self._on_glue, Opening: self._on_glue}
         self._glue = GlueDesk()
+        self._rounds = RoundDesk(self._source, self._glue, self._ledger, emit_passing=self.emit_passing,
+                                 plugin=challenger is not None)
         self._finished = False
         if field is not None:
             self._source.set_field(field)
@@ -118,72 +118,16 @@ class Replay:
         round or challenge. A round and its challenge that pass the degree, sum and
         challenge checks in a prime field, form ``evals``, built-in or no schedule,
         take an inline path with the same effect; everything else goes through ``feed``."""
-        feed = self.feed
         if self.keep_rounds:
             for record in records:
-                feed(record)
+                self.feed(record)
                 if on_other is not None and record.__class__ not in (RoundMsg, ChallengeMsg):
                     on_other(record)
             return
-        round_cls, challenge_cls = RoundMsg, ChallengeMsg
-        held: Any = None  # a round waiting for its challenge to take the inline path
-        live: Any  # the instance's LiveInstance while the inline path applies, else None
-        live, index, limit, p, squeeze = self._inline_setup()
-        items: Iterable[Any] = records
-        last_n, evaluate = -1, round_evaluator(2, 0)  # g(r) for rounds of last_n values
-        try:
-            for record in items:
-                cls = record.__class__
-                if cls is round_cls:
-                    if held is None and live is not None and record.instance == index and live.pending is None:
-                        held = record
-                        continue
-                elif cls is challenge_cls and held is not None:
-                    round_msg, held = held, None
-                    values = round_msg.values
-                    n = len(values)
-                    if (0 < n <= limit and record.instance == index
-                            and (values[0] + values[1 if n > 1 else 0]) % p == live.claim):
-                        challenge = record.value
-                        rederived = squeeze(values) if squeeze is not None else challenge
-                        if rederived == challenge:
-                            if n != last_n:
-                                last_n, evaluate = n, round_evaluator(p, n - 1)
-                            live.claim = evaluate(values, challenge)
-                            live.challenges.append(challenge)
-                            live.seen = k = round_msg.round
-                            if live.failure is None:
-                                live.passed = k
-                            if k == live.start.num_vars and live.start.final_expr is not None:
-                                self._glue.evaluate(self.field, live, self._ledger)
-                        else:  # the schedule has absorbed the round: resolve with the challenge it derived
-                            live.pending = (round_msg, values, None, None, None, None, None)
-                            self._resolve_pending(record, rederived)
-                        continue
-                    feed(round_msg)
-                if held is not None:
-                    round_msg, held = held, None
-                    feed(round_msg)
-                feed(record)
-                if cls is not round_cls and cls is not challenge_cls:
-                    if on_other is not None:
-                        on_other(record)
-                    live, index, limit, p, squeeze = self._inline_setup()
-                    last_n = -1
-        finally:
-            if held is not None:
-                feed(held)
+        feed_stream(records, self.feed, self._rounds, self._inline_setup, on_other)
 
-    def _inline_setup(self) -> tuple[LiveInstance | None, int, int, int, Callable[[tuple[int, ...]], int] | None]:
-        """What ``feed_all``'s inline path needs for the current instance, or ``live`` None when it
-        does not apply: the instance index, the most values a round may carry, p, and the fused
-        round-then-challenge step of the built-in schedule (None when nothing re-derives)."""
-        live, field, source = self._live, self.field, self._source
-        if (live is None or field is None or field.degree != 1 or live.start.form != "evals"
-                or self.challenger is not None):
-            return None, -1, 0, 1, None
-        squeeze = source.schedule.round_stepper() if source.schedule is not None else None
-        return live, live.start.index, min(live.start.degree + 1, field.p), field.p, squeeze  # type: ignore[return-value]
+    def _inline_setup(self) -> InlineSetup:
+        return inline_setup(self.field, self._live, self._source.schedule, self.challenger is not None)
 
     def settle(self, start: InstanceStart, final: Element) -> None:
         """Account for an instance checked in bulk and found passing (:mod:`stepper.verify.roundblock`):
@@ -302,40 +246,7 @@ class Replay:
         if live is None or live.start.index != msg.instance:
             live = self._need_live("round", msg.instance)
         out = self._resolve_pending(None) if live.pending is not None else []
-        start = live.start
-        values = msg.values
-        recovered = recovered_value = None
-        if values and start.form == "evals" and field.degree == 1:
-            evals = values  # the hot path: canonical ints, nothing to decode
-        else:
-            try:
-                poly = RoundPoly.from_form(field, start.form, values, live.claim) if values else None
-            except InputError:
-                poly = None
-            evals = poly.evals if poly is not None else ()
-            if poly is not None:
-                recovered, recovered_value = poly.recovered, poly.recovered_value
-        if live.eqf is not None and evals:
-            evals = live.eqf.expand(evals, msg.round)
-        check: str | None = None
-        expected: object = None
-        found: object = None
-        if not evals:
-            check, expected, found = "shape", 1, 0
-            evals = (field.zero,)
-        elif len(evals) > start.degree + 1:
-            check, expected, found = "degree", start.degree + 1, len(evals)
-        elif field.degree == 1:
-            total = (evals[0] + evals[1 if len(evals) > 1 else 0]) % field.p  # type: ignore[operator]
-            if total != live.claim:
-                check, expected, found = "sum", live.claim, total
-        else:
-            g0 = evals[0]
-            total = field.add(g0, evals[1] if len(evals) > 1 else g0)
-            if total != field.lift(live.claim):
-                check, expected, found = "sum", live.claim, total
-        live.pending = (msg, evals, recovered, recovered_value, check, expected, found)
-        self._source.observe(msg)
+        self._rounds.open(field, live, msg)
         return out
 
     def _on_challenge(self, msg: ChallengeMsg) -> list[Result]:
@@ -347,74 +258,12 @@ class Replay:
                              Where(instance=live.start.name, round=msg.round))
         return self._resolve_pending(msg)
 
-    def _resolve_pending(self, msg: ChallengeMsg | None, known: object = _UNKNOWN) -> list[Result]:
+    def _resolve_pending(self, msg: ChallengeMsg | None, known: object = NOT_REDERIVED) -> list[Result]:
         """Resolve the pending round with its challenge (``known``: the challenge the
-        schedule already re-derived for it, by ``feed_all``)."""
-        live = self._live
-        assert live is not None and live.pending is not None and self.field is not None
-        field = self.field
-        round_msg, evals, recovered, recovered_value, check, expected, found = live.pending
-        live.pending = None
-        k = round_msg.round
-        start = live.start
-        challenge = rederived = claim_out = None
-        if msg is not None:
-            challenge = msg.value
-            rederived = self._source.rederive(start, k) if known is _UNKNOWN else known
-            if check is None and rederived is not None and rederived != challenge:
-                check, expected, found = "challenge", rederived, challenge
-            try:
-                claim_out = evaluate_round(field, evals, challenge)
-            except InputError as err:
-                raise InputError(err.message, Where(instance=start.name, round=k)) from None
-            if self.challenger is not None:
-                self._source.observe(msg)
-        after = live.failure is not None
-        live.seen = k
-        if challenge is not None:
-            live.challenges.append(challenge)
-            if live.eqf is not None:
-                live.eqf.advance(k, challenge)
-        if check is None and msg is not None:
-            if not after:
-                live.passed = k
-            if not self.emit_passing:
-                live.claim = claim_out  # type: ignore[assignment]
-                if k == start.num_vars and start.final_expr is not None:
-                    self._glue.evaluate(field, live, self._ledger)
-                return []
-        result = self._round_result(live, round_msg, evals, recovered, recovered_value, check, expected, found,
-                                    challenge, rederived, claim_out, after)  # type: ignore[arg-type]
-        if check is not None:
-            failure = Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
-                              result.explanation)
-            self._ledger.fail(live, failure)
-        if claim_out is not None:
-            live.claim = claim_out
-        if live.rounds is not None:
-            live.rounds.append(result)
-        if claim_out is not None and k == start.num_vars and start.final_expr is not None:
-            self._glue.evaluate(field, live, self._ledger)
-        return [result]
-
-    def _round_result(self, live: LiveInstance, msg: RoundMsg, evals: tuple[Element, ...], recovered: str | None,
-                      recovered_value: Element | None, check: str | None, expected: object, found: object,
-                      challenge: Element | None, rederived: Element | None, claim_out: Element | None,
-                      after: bool) -> RoundResult:
-        field = self.field
-        assert field is not None
-        start, k = live.start, msg.round
-        g0 = evals[0]
-        g1 = evals[1] if len(evals) > 1 else evals[0]
-        status = "fail" if check is not None else ("pass" if challenge is not None else "pending")
-        poly = RoundPoly(tuple(evals), recovered, recovered_value)
-        text = round_text(field, start, k, live.claim, poly, check, expected, found, challenge, rederived,
-                          claim_out, self._source.deriver())
-        return RoundResult(
-            start.index, start.name, k, start.form, live.claim, msg.values, tuple(evals), recovered,
-            recovered_value, g0, g1, field.add(g0, g1), len(evals) - 1, start.degree, challenge, rederived,
-            claim_out, status, check, expected, found, text, after,  # type: ignore[arg-type]
-        )
+        schedule already re-derived for it)."""
+        live, field = self._live, self.field
+        assert live is not None and field is not None
+        return self._rounds.resolve(field, live, msg, known)
 
     def _on_final(self, msg: FinalValue) -> list[Result]:
         live = self._need_live("final", msg.instance)

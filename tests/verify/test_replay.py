@@ -11,7 +11,6 @@ from __future__ import annotations
 import copy
 import hashlib
 import random
-from typing import Sequence
 
 import pytest
 from hypothesis import given, settings, strategies as st
@@ -20,9 +19,10 @@ from plain_sumcheck import (
     BABYBEAR, BN254, GOLDILOCKS, Plain, instance_payloads, lagrange, product_rounds, thaler_payloads,
 )
 from stepper.transcript.events import Sequencer
-from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from tests.verify.scheduled_proofs import scheduled_worked_example
+from stepper.verify.fiatshamir import SCHEDULE_NAME
 from stepper.verify.replay import Replay, RoundResult, replay_transcript
-from stepper.transcript.model import ChallengeMsg, RoundMsg, fold_events
+from stepper.transcript.model import fold_events
 
 CHALLENGES = (5, 7, 11)  # outside the nodes 0..3, so no evaluation hides a change
 
@@ -186,37 +186,12 @@ def test_failure_in_a_later_instance_is_reported_with_its_index():
     assert [s.status for s in report.instances] == ["pass", "fail"]
 
 
-def _scheduled(tamper_round: int | None = None):
-    """The worked example with challenges from the built-in schedule; optionally a recorded
-    challenge replaced (the prover continuing honestly from the replaced value)."""
-    ar = Plain(BABYBEAR)
-    seq = Sequencer()
-    sched = Sha256Schedule()
-    head = [ar.spec(), {"type": "schedule", "name": SCHEDULE_NAME, "label": "isle-of-quill-0740"}]
-    for p in head:
-        sched.observe(seq.feed(p))
-    sched.observe(seq.feed({"type": "instance", "name": "boarding-permutation", "num_vars": 3, "degree": 3,
-                            "claim": 12}))
-
-    def challenge(k, evals):
-        sched.observe(seq.feed({"type": "round", "evals": evals}))
-        r = sched.challenge()
-        if k == tamper_round:
-            r = (r + 1) % BABYBEAR
-        seq.feed({"type": "challenge", "value": r})
-        return r
-
-    from plain_sumcheck import brute_force_rounds, thaler_g
-    rounds, rs = brute_force_rounds(ar, thaler_g(ar), 3, 3, challenge)
-    return head + instance_payloads(ar, "boarding-permutation", 3, 3, 12, rounds, rs, thaler_g(ar)(*rs))
-
-
 def test_builtin_schedule_is_re_derived_and_a_replaced_challenge_is_named():
-    results, report = run(_scheduled())
+    results, report = run(scheduled_worked_example())
     assert report.verdict == "accept"
     assert all(r.rederived == r.challenge for r in results if isinstance(r, RoundResult))
     assert SCHEDULE_NAME in report.challenges
-    _, report = run(_scheduled(tamper_round=2))
+    _, report = run(scheduled_worked_example(tamper_round=2))
     ff = report.first_failure
     assert (ff.round, ff.check) == (2, "challenge") and ff.found == (ff.expected + 1) % BABYBEAR
 
@@ -380,111 +355,8 @@ def test_degree_counts_print_as_plain_numbers_in_an_extension_field():
 
 
 def test_schedule_given_by_name_applies_when_the_stream_declares_none():
-    payloads = [p for p in _scheduled(tamper_round=3) if p["type"] != "schedule"]
+    payloads = [p for p in scheduled_worked_example(tamper_round=3) if p["type"] != "schedule"]
     assert run(payloads)[1].verdict == "accept"  # no schedule: challenges are not re-derived
     _, report = run(payloads, schedule=SCHEDULE_NAME)
     assert report.first_failure.check == "challenge"  # re-derived without the label: differs at round 1
     assert report.first_failure.round == 1
-
-
-def _scheduled_proof(ar: Plain, instances: int, num_vars: int, degree: int, rng: random.Random,
-                     forms: Sequence[str] = ("evals",)) -> list[dict]:
-    """Several honest product instances, challenges by the built-in schedule, notes between them."""
-    seq = Sequencer()
-    sched = Sha256Schedule()
-    out = [ar.spec(), {"type": "schedule", "name": SCHEDULE_NAME, "label": "isle-of-quill-0740"}]
-    for payload in out:
-        sched.observe(seq.feed(payload))
-    for i in range(instances):
-        tables = [[ar.const(rng.randrange(ar.p)) for _ in range(1 << num_vars)] for _ in range(degree)]
-        claim = ar.const(0)
-        for j in range(1 << num_vars):
-            term = ar.const(1)
-            for t in tables:
-                term = ar.mul(term, t[j])
-            claim = ar.add(claim, term)
-        head = {"type": "instance", "name": f"sailing-{i}", "num_vars": num_vars, "degree": degree,
-                "claim": ar.json(claim), "form": forms[i % len(forms)]}
-        sched.observe(seq.feed(head))
-
-        def challenge(k, evals, form=head["form"]):
-            sent = evals if form == "evals" else [evals[0], *evals[2:]]
-            sched.observe(seq.feed({"type": "round", "evals": [ar.json(v) for v in sent]}))
-            r = sched.challenge()
-            seq.feed({"type": "challenge", "value": ar.json(r)})
-            return r
-
-        rounds, rs, final = product_rounds(ar, tables, challenge)
-        body = instance_payloads(ar, head["name"], num_vars, degree, claim, rounds, rs, final)
-        body[0] = head
-        if head["form"] == "evals-no-1":
-            for payload in body[1::2][:num_vars]:
-                payload["evals"] = [payload["evals"][0], *payload["evals"][2:]]
-        out += body
-        out.append({"type": "note", "text": f"gate closed for sailing-{i}"})
-    return out
-
-
-def _reports_both_ways(payloads, keep=2):
-    """The same records through ``feed`` one by one and through ``feed_all``."""
-    records = []
-    seq = Sequencer()
-    try:
-        for payload in payloads:
-            records.append(seq.feed(payload))
-    except Exception:  # a corruption the sequencer refuses: replay the records before it
-        pass
-    one = Replay(keep_instances=keep, emit_passing=False)
-    for record in records:
-        one.feed(record)
-    other = Replay(keep_instances=keep, emit_passing=False)
-    seen = []
-    other.feed_all(records, on_other=seen.append)
-    return one.report(), other.report(), seen, records
-
-
-@settings(max_examples=30, deadline=None)
-@given(st.data())
-def test_inline_path_of_feed_all_gives_exactly_the_report_of_feeding_one_by_one(data):
-    p = data.draw(st.sampled_from([97, BABYBEAR, GOLDILOCKS, BN254]), label="p")
-    ar = Plain(p, 4, 11) if data.draw(st.booleans(), label="extension") and p == BABYBEAR else Plain(p)
-    degree = data.draw(st.integers(1, 3), label="degree")
-    rng = random.Random(data.draw(st.integers(0, 2**32), label="seed"))
-    forms = data.draw(st.sampled_from([("evals",), ("evals", "evals-no-1")]), label="forms")
-    payloads = _scheduled_proof(ar, 3, 3, degree, rng, forms)
-    fault = data.draw(st.sampled_from(["none", "value", "challenge", "degree", "final", "cut"]), label="fault")
-    rounds_at = [i for i, x in enumerate(payloads) if x["type"] == "round"]
-    at = data.draw(st.sampled_from(rounds_at), label="at")
-    if fault == "value":
-        i = data.draw(st.integers(0, len(payloads[at]["evals"]) - 1), label="index")
-        value = payloads[at]["evals"][i]
-        payloads[at]["evals"][i] = [(value[0] + 1) % p, *value[1:]] if ar.k > 1 else (value + 1) % p
-    elif fault == "challenge":
-        value = payloads[at + 1]["value"]
-        payloads[at + 1]["value"] = [(value[0] + 1) % p, *value[1:]] if ar.k > 1 else (value + 1) % p
-    elif fault == "degree":
-        payloads[at]["evals"].append(ar.json(ar.const(3)))
-    elif fault == "final":
-        finals = [i for i, x in enumerate(payloads) if x["type"] == "final"]
-        payloads[finals[1]]["value"] = ar.json(ar.const(5)) if payloads[finals[1]]["value"] != ar.json(
-            ar.const(5)) else ar.json(ar.const(6))
-    elif fault == "cut":
-        payloads = payloads[:at + 1]
-    one, other, seen, records = _reports_both_ways(payloads)
-    assert other.to_json() == one.to_json()
-    assert seen == [r for r in records if not isinstance(r, (RoundMsg, ChallengeMsg))]
-    if fault == "none":
-        assert other.verdict == "accept" and other.counts["pass"] == 3
-    elif fault in ("challenge", "final"):
-        assert other.verdict == "reject"
-        assert other.first_failure.check in (("challenge", "sum", "final") if fault == "challenge" else ("final",))
-    elif fault == "cut":
-        assert other.verdict == "incomplete"
-
-
-def test_feed_all_names_a_replaced_challenge_like_feed_does():
-    payloads = _scheduled(tamper_round=2)
-    one, other, _, _ = _reports_both_ways(payloads)
-    assert (other.first_failure.round, other.first_failure.check) == (2, "challenge")
-    assert other.first_failure == one.first_failure
-    assert other.first_failure.found == (other.first_failure.expected + 1) % BABYBEAR
