@@ -82,6 +82,7 @@ class Sha256Schedule:
         self._wide = 0
         self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
         self._challenge_head = b""
+        self._element_packer: Callable[..., bytes] | None = None  # an extension element's k coefficients, packed
         self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
         self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
         self._shapes: dict[tuple[str, str], bytes] = {}  # _text(order) + _text(form), by (order, form)
@@ -105,6 +106,10 @@ class Sha256Schedule:
         assert field is not None
         if e.__class__ is int and field.degree == 1 and 0 <= e < field.p:  # type: ignore[operator]
             return e.to_bytes(field.base_bytes, "little")  # type: ignore[union-attr]
+        pack = self._element_packer
+        if (pack is not None and e.__class__ is tuple and len(e) == field.degree  # type: ignore[arg-type]
+                and max(e) < field.p and min(e) >= 0):  # type: ignore[arg-type, operator]
+            return pack(*e)  # type: ignore[misc]  # an extension element of int coefficients
         return field.encode(e)
 
     def observe(self, record: Event) -> None:
@@ -189,6 +194,8 @@ class Sha256Schedule:
         self._absorb(b"field", body)
         self.field = field
         self._round_packers.clear()
+        self._element_packer = (struct.Struct(f"<{field.degree}{'I' if w == 4 else 'Q'}").pack
+                                if field.is_extension and w in (4, 8) else None)
         self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
         blocks = -(-self._wide // 32)
         self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
@@ -227,17 +234,22 @@ class Sha256Schedule:
         return head, self._challenge_head
 
     def absorb_rows(self, rows: memoryview, first: int, count: int, round_len: int, stride: int,
-                    digests: list[bytes]) -> None:
+                    digests: bytearray) -> None:
         """Observe ``count`` rounds and absorb their challenges, squeezing after each round:
         the same state as ``observe(round)`` then ``challenge()`` per round, when every
         challenge is the one squeezed. ``rows`` holds rows of ``stride`` bytes; row ``first + i``
         is round i's frame (``round_len`` bytes) followed by its challenge's frame (heads from
-        :meth:`row_heads`). The digests squeezed for each round are appended to ``digests``:
-        :attr:`squeezes_per_challenge` of them, sample by sample and block by block within a
-        sample (the wide reduction of a sample's blocks is that challenge coefficient); the
-        caller compares them with the rows' challenges, and the state is that of the schedule
-        only if all are equal. Any field: k samples for a degree-k extension, several blocks
-        per sample for primes of more than 128 bits."""
+        :meth:`row_heads`). The digests squeezed for each round are appended to ``digests``
+        (32 bytes each): :attr:`squeezes_per_challenge` of them, sample by sample and block by
+        block within a sample (the wide reduction of a sample's blocks is that challenge
+        coefficient); the caller compares them with the rows' challenges, and the state is that
+        of the schedule only if all are equal. Any field: k samples for a degree-k extension,
+        several blocks per sample for primes of more than 128 bits.
+
+        The loop is the floor of re-deriving with hashlib from Python: per squeeze a copy of the
+        state, an update and a digest. Each digest is appended to one growing byte buffer and
+        dropped at once (a list of digest objects, joined later, cost about 15% more time and
+        page faults on every block)."""
         self._need_field("round")
         key = (count, round_len, stride)
         cut = self._row_cuts.get(key)
@@ -248,26 +260,27 @@ class Sha256Schedule:
             if len(self._row_cuts) < 256:
                 self._row_cuts[key] = cut
         pieces = cut(rows[first * stride:(first + count) * stride])
-        update, copy, add = self._state.update, self._state.copy, digests.append
+        update, copy = self._state.update, self._state.copy
         squeezes = [squeeze for frames in self._squeeze_frames for squeeze in frames]
+        out = digests  # appended in place: ``out += digest`` extends the caller's buffer
         update(pieces[0])
         if len(squeezes) == 1:
             squeeze = squeezes[0]
             for piece in pieces[1:]:
                 h = copy()
                 h.update(squeeze)
-                add(h.digest())
+                out += h.digest()
                 update(piece)
             return
         if len(squeezes) == 2:  # two blocks per sample (wide primes) or two samples: unrolled
-            first, second = squeezes  # type: ignore[assignment]
+            s0, s1 = squeezes
             for piece in pieces[1:]:
                 h = copy()
-                h.update(first)  # type: ignore[arg-type]
-                add(h.digest())
+                h.update(s0)
+                out += h.digest()
                 h = copy()
-                h.update(second)
-                add(h.digest())
+                h.update(s1)
+                out += h.digest()
                 update(piece)
             return
         if len(squeezes) == 4:  # four samples (quartic extensions): unrolled
@@ -275,23 +288,23 @@ class Sha256Schedule:
             for piece in pieces[1:]:
                 h = copy()
                 h.update(s0)
-                add(h.digest())
+                out += h.digest()
                 h = copy()
                 h.update(s1)
-                add(h.digest())
+                out += h.digest()
                 h = copy()
                 h.update(s2)
-                add(h.digest())
+                out += h.digest()
                 h = copy()
                 h.update(s3)
-                add(h.digest())
+                out += h.digest()
                 update(piece)
             return
         for piece in pieces[1:]:
             for squeeze in squeezes:
                 h = copy()
                 h.update(squeeze)
-                add(h.digest())
+                out += h.digest()
             update(piece)
 
     @property

@@ -93,7 +93,7 @@ class RunBlock:
         self._firsts = iter(self.starts.tolist())
         self._view: memoryview | None = None
         self._round_len = self._frame_len = 0
-        self.digests: list[bytes] = []
+        self.digests = bytearray()  # 32 bytes per squeezed digest, in the schedule's order
 
     def next_run(self) -> tuple[int, Element]:
         """The first row and the final value of the next run of this block, in stream order."""
@@ -116,10 +116,10 @@ class RunBlock:
         if not self.digests and schedule is None:
             return None
         per = schedule.squeezes_per_challenge if schedule is not None else 0
-        if schedule is None or len(self.digests) != len(self.rows) * per:
+        if schedule is None or len(self.digests) != len(self.rows) * per * 32:
             raise GiveUp("challenges re-derived for only part of the block")
         samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
-        squeezed = np.frombuffer(b"".join(self.digests), dtype=np.uint8).reshape(len(self.rows) * samples, -1)
+        squeezed = np.frombuffer(self.digests, dtype=np.uint8).reshape(len(self.rows) * samples, -1)
         reduced = reduce_wide(kernel, squeezed, schedule.wide_bytes)
         return reduced.reshape(self.challenges.shape)
 

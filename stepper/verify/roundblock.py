@@ -34,6 +34,7 @@ from math import comb, factorial
 import numpy as np
 
 from stepper.field.kernels import GOLDILOCKS, ExtensionKernel, Kernel, kernel_for
+from stepper.field.kernels.prime import mod_u64
 from stepper.field.kernels.limbs import MAX_LIMB_PRIME_BITS, LimbKernel
 from stepper.field.field import Field
 from stepper.verify.cells import below_p, words_to_ints
@@ -71,16 +72,13 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
     if isinstance(base, LimbKernel):
         return base.reduce_bytes(np.ascontiguousarray(digests[:, :wide]))
     p = base.p
+    if p < 2**32 and digests.shape[1] % 4 == 0 and wide <= digests.shape[1]:
+        return _reduce_words(np.ascontiguousarray(digests).view("<u4"), wide, p)
     if wide <= 24 and (p < 2**32 or p == GOLDILOCKS):
         head = np.zeros((digests.shape[0], 24), dtype=np.uint8)
         head[:, :wide] = digests[:, :wide]
         if p < 2**32:
-            limbs = head.view("<u4").astype(np.uint64)
-            p64, s32 = np.uint64(p), np.uint64(32)
-            acc = limbs[:, 5] % p64
-            for i in range(4, -1, -1):
-                acc = ((acc << s32) | limbs[:, i]) % p64
-            return acc  # type: ignore[no-any-return]
+            return _reduce_words(head.view("<u4"), wide, p)
         limbs = head.view("<u8")
         l0, l1, l2 = limbs[:, 0], limbs[:, 1], limbs[:, 2]
         # Goldilocks: 2^128 = -2^32 (mod p), so the value is (l1 * 2^64 + l0) - l2 * 2^32, and
@@ -90,6 +88,24 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
         return base.sub(reduce128(l0, l1), reduce128((l2 & m32) << s32, l2 >> s32))
     values = np.remainder(words_to_ints(np.ascontiguousarray(digests[:, :wide])), p)
     return values if base.dtype is object else values.astype(np.uint64)
+
+
+def _reduce_words(words: np.ndarray, wide: int, p: int) -> np.ndarray:
+    """Each row's first ``wide`` bytes mod p < 2^32, from the row's little-endian 32-bit words
+    (shape (n, >= ceil(wide / 4)), uint32): Horner's rule from the top word down, the
+    partial top word masked, one reduction per word (``mod_u64``)."""
+    count, rest = divmod(wide, 4)
+    top = words[:, count].astype(np.uint64) & np.uint64((1 << 8 * rest) - 1) if rest else None
+    if top is None:
+        count -= 1
+        top = words[:, count].astype(np.uint64)
+    p64, s32 = np.uint64(p), np.uint64(32)
+    acc = mod_u64(top, p64)
+    for i in range(count - 1, -1, -1):
+        acc <<= s32
+        acc |= words[:, i]
+        mod_u64(acc, p64, out=acc)
+    return acc
 
 
 def _times_constant(kernel: Kernel, a: np.ndarray, c: int) -> np.ndarray:

