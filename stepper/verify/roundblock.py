@@ -34,7 +34,7 @@ from math import comb, factorial
 import numpy as np
 
 from stepper.field.kernels import GOLDILOCKS, ExtensionKernel, Kernel, kernel_for
-from stepper.field.kernels.prime import mod_u64
+from stepper.field.kernels.prime import SmallPrimeKernel, mod_u64
 from stepper.field.kernels.limbs import MAX_LIMB_PRIME_BITS, LimbKernel
 from stepper.field.field import Field
 from stepper.verify.cells import below_p, words_to_ints
@@ -134,6 +134,8 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
         return kernel.evaluate(evals, points)
     if evals.dtype == object and evals.ndim == 2 and m > 1:
         return _evaluate_wide(p, evals, points)
+    if isinstance(kernel, ExtensionKernel) and kernel.dtype is not object and len(evals):
+        return _evaluate_columns(kernel, evals, points)
     deltas = [evals[:, 0]]
     layer = [evals[:, i] for i in range(m)]
     for _ in range(1, m):
@@ -146,6 +148,75 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
         shifted = _minus_constant(kernel, points, k - 1) if k > 1 else points
         acc = kernel.add(coefficients[k - 1], kernel.mul(acc, shifted))
     return acc
+
+
+def _evaluate_columns(kernel: ExtensionKernel, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
+    """:func:`evaluate_at` over an extension with uint64 coefficients, by columns: the block is
+    turned once into one contiguous array per coefficient of each g(j) (a strided column costs
+    numpy about twice a contiguous one), and the same Newton form runs on lists of k columns;
+    the products go through :func:`_mul_columns`."""
+    base, k, m, p = kernel.base, kernel.k, evals.shape[1], kernel.p
+    columns = np.ascontiguousarray(evals.transpose(1, 2, 0))  # (m, k, n)
+    r = list(np.ascontiguousarray(points.T))
+    layer = [list(columns[j]) for j in range(m)]
+    deltas = [layer[0]]
+    for _ in range(1, m):
+        layer = [[base.sub(x, y) for x, y in zip(layer[i + 1], layer[i])] for i in range(len(layer) - 1)]
+        deltas.append(layer[0])
+    for d in range(2, m):  # the 1/d! of Newton's form: constants of the degree
+        inverse = np.uint64(pow(factorial(d), -1, p))
+        deltas[d] = [base.mul(column, inverse) for column in deltas[d]]
+    acc = deltas[m - 1]
+    for d in range(m - 1, 0, -1):
+        shifted = r if d == 1 else [base.sub(r[0], base.array([d - 1])), *r[1:]]
+        acc = [base.add(x, y) for x, y in zip(deltas[d - 1], _mul_columns(kernel, acc, shifted))]
+    return np.stack(acc, axis=1)
+
+
+def _mul_columns(kernel: ExtensionKernel, a: list[np.ndarray], b: list[np.ndarray]) -> list[np.ndarray]:
+    """The products of two extension vectors held as k coefficient columns each (contiguous
+    uint64). Below 2^32 (when k products below p^2 fit in 64 bits) the raw sum of each power
+    X^(i+j) is reduced once, as ``ExtensionKernel``'s numpy product does; otherwise the base
+    kernel's products, Karatsuba's three for k = 2 (a0 b0, a1 b1, (a0 + a1)(b0 + b1))."""
+    base, k, p = kernel.base, kernel.k, kernel.p
+    if isinstance(base, SmallPrimeKernel) and k * (p - 1) ** 2 + p < 2**64:
+        p64 = np.uint64(p)
+        raw: list[np.ndarray] = []
+        for i in range(k):
+            for j in range(k):
+                term = a[i] * b[j]
+                if i + j == len(raw):
+                    raw.append(term)
+                else:
+                    np.add(raw[i + j], term, out=raw[i + j])
+        powers = [mod_u64(power, p64, out=power) for power in raw]
+        out = []
+        for i in range(k):
+            acc = powers[i]
+            for j, row in enumerate(kernel.reductions):
+                if row[i]:
+                    acc = acc + powers[k + j] * np.uint64(row[i])
+            out.append(acc if acc is powers[i] else mod_u64(acc, p64, out=acc))
+        return out
+    if k == 2:
+        low, high = base.mul(a[0], b[0]), base.mul(a[1], b[1])
+        middle = base.sub(base.sub(base.mul(base.add(a[0], a[1]), base.add(b[0], b[1])), low), high)
+        products = [low, middle, high]
+    else:
+        products = [base.mul(a[0], b[j]) for j in range(k)]
+        for i in range(1, k):
+            for j in range(k):
+                term = base.mul(a[i], b[j])
+                if i + j < len(products):
+                    products[i + j] = base.add(products[i + j], term)
+                else:
+                    products.append(term)
+    out = products[:k]
+    for j, row in enumerate(kernel.reductions):
+        for i, coefficient in enumerate(row):
+            if coefficient:
+                out[i] = base.add(out[i], base.mul(products[k + j], np.uint64(coefficient)))
+    return out
 
 
 def _evaluate_wide(p: int, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
