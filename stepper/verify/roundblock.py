@@ -155,7 +155,7 @@ def _evaluate_columns(kernel: ExtensionKernel, evals: np.ndarray, points: np.nda
     turned once into one contiguous array per coefficient of each g(j) (a strided column costs
     numpy about twice a contiguous one), and the same Newton form runs on lists of k columns;
     the products go through :func:`_mul_columns`."""
-    base, k, m, p = kernel.base, kernel.k, evals.shape[1], kernel.p
+    base, m, p = kernel.base, evals.shape[1], kernel.p
     columns = np.ascontiguousarray(evals.transpose(1, 2, 0))  # (m, k, n)
     r = list(np.ascontiguousarray(points.T))
     layer = [list(columns[j]) for j in range(m)]
@@ -164,7 +164,7 @@ def _evaluate_columns(kernel: ExtensionKernel, evals: np.ndarray, points: np.nda
         layer = [[base.sub(x, y) for x, y in zip(layer[i + 1], layer[i])] for i in range(len(layer) - 1)]
         deltas.append(layer[0])
     for d in range(2, m):  # the 1/d! of Newton's form: constants of the degree
-        inverse = np.uint64(pow(factorial(d), -1, p))
+        inverse = base.array([pow(factorial(d), -1, p)])
         deltas[d] = [base.mul(column, inverse) for column in deltas[d]]
     acc = deltas[m - 1]
     for d in range(m - 1, 0, -1):
@@ -215,7 +215,7 @@ def _mul_columns(kernel: ExtensionKernel, a: list[np.ndarray], b: list[np.ndarra
     for j, row in enumerate(kernel.reductions):
         for i, coefficient in enumerate(row):
             if coefficient:
-                out[i] = base.add(out[i], base.mul(products[k + j], np.uint64(coefficient)))
+                out[i] = base.add(out[i], base.mul(products[k + j], base.array([coefficient])))
     return out
 
 

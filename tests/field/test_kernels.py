@@ -28,6 +28,7 @@ from stepper.field.kernels import (
     kernel_for,
 )
 from stepper.field.kernels import base as kernel_base
+from stepper.field.kernels.prime import mod_u64
 
 SETTINGS = settings(max_examples=20, deadline=None)
 
@@ -345,3 +346,14 @@ def test_extension_products_of_the_largest_coefficients_match_python_integers(la
     for kernel in kernels_of(field):
         got = kernel.to_list(kernel.mul(kernel.array(xs), kernel.array(ys)))
         assert got == [python_mul(field, x, y) for x, y in zip(xs, ys)]  # reference: plain Python integers
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.integers(0, 2**64 - 1), min_size=1, max_size=40), st.integers(2, 2**64 - 1))
+def test_mod_u64_is_the_python_remainder_for_any_uint64_and_modulus(values, modulus):
+    # reference: Python's integer %, which is exact for any size
+    x = np.array(values, dtype=np.uint64)
+    expected = [v % modulus for v in values]
+    assert mod_u64(x, np.uint64(modulus)).tolist() == expected
+    mod_u64(x, np.uint64(modulus), out=x)  # in place, as the kernels use it
+    assert x.tolist() == expected
