@@ -1,7 +1,7 @@
 """Fuzz every stepper command that reads an input, in process, and fail on anything undocumented.
 
-    python3 bench/fuzz.py --minutes 30          # a long run
-    python3 bench/fuzz.py --seconds 15 --seed 7 # the short fixed-seed budget the test suite runs
+    python3 bench/fuzz.py --minutes 30           # a long run
+    python3 bench/fuzz.py --inputs 500 --seed 7  # the short fixed-seed run the test suite makes
 
 Inputs (bench/fuzz_inputs.py): transcripts (bytes flipped, cut, slices repeated or removed, one event
 changed with the digest recomputed), JSON-lines event streams, witness files (JSON and msgpack;
@@ -227,7 +227,9 @@ def _plugin_limit(seconds: str = "1") -> Any:
 
 # ----- the run ----------------------------------------------------------------------------------------
 def fuzz(seconds: float, seed: int, corpus: Path | None, timeout: float,
-         progress: Callable[[dict[str, Any]], None] | None = None) -> dict[str, Any]:
+         progress: Callable[[dict[str, Any]], None] | None = None, max_inputs: int | None = None) -> dict[str, Any]:
+    """Inputs for ``seconds`` of wall time or, given ``max_inputs``, exactly that many inputs (the same
+    ones for the same seed, however busy the machine is)."""
     rng = random.Random(seed)
     seeds = inputs.build_seeds()
     stop = {"now": False}
@@ -243,7 +245,8 @@ def fuzz(seconds: float, seed: int, corpus: Path | None, timeout: float,
     if corpus is not None:
         corpus.mkdir(parents=True, exist_ok=True)
     with tempfile.TemporaryDirectory(prefix="stepper-fuzz-") as scratch, _plugin_limit():
-        while time.monotonic() - started < seconds and not stop["now"]:
+        while not stop["now"] and (cases < max_inputs if max_inputs is not None
+                                   else time.monotonic() - started < seconds):
             try:
                 case, targets = make_case(rng, seeds)
             except (RecursionError, ValueError, TypeError, OverflowError) as err:  # the mutator's own limits
@@ -291,6 +294,7 @@ def main() -> int:
     budget = parser.add_mutually_exclusive_group()
     budget.add_argument("--minutes", type=float, help="how long to run")
     budget.add_argument("--seconds", type=float, help="how long to run (default 60)")
+    budget.add_argument("--inputs", type=int, help="run exactly this many inputs, however long they take")
     parser.add_argument("--seed", type=int, default=1, help="random seed (same seed, same inputs)")
     parser.add_argument("--corpus", default=str(DEFAULT_CORPUS), help="where failing inputs are saved")
     parser.add_argument("--no-save", action="store_true", help="do not save failing inputs")
@@ -313,7 +317,10 @@ def main() -> int:
             Path(temp).write_text(json.dumps(summary, indent=1) + "\n")
             os.replace(temp, args.summary)
 
-    summary = fuzz(seconds, args.seed, None if args.no_save else Path(args.corpus), args.timeout, write_summary)
+    if args.inputs is not None and args.inputs < 1:
+        parser.error(f"--inputs: expected at least 1 input, found {args.inputs}")
+    summary = fuzz(seconds, args.seed, None if args.no_save else Path(args.corpus), args.timeout, write_summary,
+                   args.inputs)
     write_summary(summary)
     print(json.dumps(summary, indent=1))
     return 1 if summary["failures"] else 0

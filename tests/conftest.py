@@ -1,6 +1,6 @@
 """Suite-wide set-up, for ``pytest -n 3`` (README's command) above all.
 
-* Tests marked ``slow`` (a time limit, the fuzz budget, processes killed at chosen moments:
+* Tests marked ``slow`` (a time limit, the fuzz run, processes killed at chosen moments:
   seconds of wall time each, mostly spent waiting on a child process) are collected first.
   xdist deals tests out to its workers in consecutive chunks in collection order, so these start
   at once on the first worker while the second works through short tests, and none of them is
