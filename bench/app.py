@@ -4,25 +4,46 @@ Writes two demo transcripts (Brackwater Ferries, invented data): a small one
 (3 instances x 4 rounds) and a large one (default 4000 instances x 25 rounds =
 10^5 rounds), then for each: time from creating the app to its first paint,
 time until every round is checked (the app checks through `stepper check`'s
-whole-file pass while it starts, then reads the rounds for stepping), the time
-until every round is read for stepping, `stepper check` on the same file in the
-same process (the ratios "all checked / check", from creating the app, and
-"after paint / check", what checking adds once the first screen is up: the
-second is the figure of merit, at most 2),
-and the wall time of single steps (one key
-press each, as the Pilot delivers it, repaint included) and instance hops,
-next to a key bound to nothing (what the Pilot itself costs per press).
+whole-file pass while it starts, in a child process where it can, then reads the
+rounds for stepping), the time until every round is read for stepping, `stepper
+check` on the same file in the same process (the ratios "all checked / check",
+from creating the app, and "after paint / check", what checking adds once the
+first screen is up: the second is the figure of merit, at most 2), and single
+steps: the wall time of one key press as the Pilot delivers it (repaint
+included) next to a key bound to nothing (what the Pilot itself costs per press),
+the CPU time of a step, and "key to paint", the wall time from posting the key
+to the end of the repaint that shows the new round (no Pilot polling in it).
+First paint, every round checked and `stepper check` are the best of ``--repeat``
+starts, each start followed by a check; the steps are taken on one more start.
+
+The Pilot waits for the app to go idle in slices of 20 ms (textual's
+``wait_for_idle``: a slice in which the process spent more than 1 ms of CPU is
+followed by another), so a press reads as about 40 ms when it does nothing and
+about 60 ms when it repaints anything at all: "step median ms" moves in steps of
+20 ms, and "key to paint ms" is the latency a person sees.
+
+"all checked cpu s" is this process's CPU; "check child cpu s" is the CPU of the
+forked child that ran the whole-file pass (0 when it ran in a thread).
+
+Then the fresh-process pair, on the large file: a new Python process that starts
+the app headless through ``App.run_test`` and stops as soon as every round is
+checked, against ``python3 -m stepper check FILE`` in a new process, interleaved,
+best of ``--fresh`` runs each, wall and CPU (the child's own children included).
+
 Prints the figures and the large/small ratios, measured in the same run.
 
-    python bench/app.py [--instances N] [--rounds K] [--steps S]
+    python bench/app.py [--instances N] [--rounds K] [--steps S] [--repeat N] [--fresh R]
 """
 
 from __future__ import annotations
 
 import argparse
 import asyncio
+import os
 import random
+import resource
 import statistics
+import subprocess
 import sys
 import tempfile
 import time
@@ -61,10 +82,12 @@ def write(path: Path, instances: int, rounds: int) -> Path:
     return path
 
 
-async def measure(path: Path, steps: int) -> dict[str, float]:
+async def until_all_checked(path: Path) -> dict[str, float]:
+    """One start of the app on ``path``: first paint and every round checked, wall and CPU,
+    from creating the app; the app is closed straight after (the rounds still being read)."""
     from stepper.app.app import StepperApp
 
-    start, start_cpu = time.perf_counter(), time.process_time()
+    start, start_cpu, start_child = time.perf_counter(), time.process_time(), children_cpu()
     app = StepperApp.from_file(path, progressive=True, export_dir=path.parent)
     out: dict[str, float] = {}
     async with app.run_test(size=(140, 44)) as pilot:
@@ -76,6 +99,24 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
             await pilot.pause(0.01)
         out["all checked s"] = time.perf_counter() - start
         out["all checked cpu s"] = time.process_time() - start_cpu
+        out["check child cpu s"] = children_cpu() - start_child  # reaped before the app hears of it
+        out["verdict accept"] = float(app.model.verdict() == "accept")
+    return out
+
+
+async def measure(path: Path, steps: int, repeat: int) -> dict[str, float]:
+    from stepper.app.app import StepperApp
+
+    out: dict[str, float] = {}
+    for _ in range(repeat):  # the app's start and `stepper check` interleaved, best of each
+        sample = await until_all_checked(path)
+        sample["check s"], sample["check cpu s"] = check_seconds(path)
+        sample["checked after paint s"] = max(0.0, sample["all checked s"] - sample["first paint s"])
+        for key, value in sample.items():
+            out[key] = min(out.get(key, value), value)
+    start = time.perf_counter()
+    app = StepperApp.from_file(path, progressive=True, export_dir=path.parent)
+    async with app.run_test(size=(140, 44)) as pilot:
         while app.model.loading:
             await pilot.pause(0.02)
         out["all read s"] = time.perf_counter() - start
@@ -85,11 +126,13 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
             await pilot.press("r" if (i // 10) % 2 == 0 else "R")
             times.append(time.perf_counter() - t)
             cpu.append(time.process_time() - c)
-        idle = []
+        idle, idle_cpu = [], []
         for _ in range(max(10, steps // 3)):  # a key bound to nothing: the Pilot's own cost
-            t = time.perf_counter()
+            t, c = time.perf_counter(), time.process_time()
             await pilot.press("z")
             idle.append(time.perf_counter() - t)
+            idle_cpu.append(time.process_time() - c)
+        paints = [await key_to_paint(app, "r" if (i // 10) % 2 == 0 else "R") for i in range(steps)]
         hops = []
         for i in range(max(4, steps // 10)):
             t = time.perf_counter()
@@ -98,30 +141,90 @@ async def measure(path: Path, steps: int) -> dict[str, float]:
         out["step median ms"] = 1000 * statistics.median(times)
         out["step max ms"] = 1000 * max(times)
         out["step cpu median ms"] = 1000 * statistics.median(cpu)
+        out["unbound cpu median ms"] = 1000 * statistics.median(idle_cpu)
+        out["key to paint median ms"] = 1000 * statistics.median(paints)
+        out["key to paint max ms"] = 1000 * max(paints)
         out["unbound key median ms"] = 1000 * statistics.median(idle)
         out["step - unbound ms"] = out["step median ms"] - out["unbound key median ms"]
         out["hop median ms"] = 1000 * statistics.median(hops)
         out["rounds"] = app.model.round_count
-        out["verdict accept"] = float(app.model.verdict() == "accept")
-    out["check s"] = check_seconds(path)
     out["all checked / check"] = out["all checked s"] / out["check s"]
     # the app must paint before it can show anything; what the checking itself adds after that:
-    out["checked after paint s"] = max(0.0, out["all checked s"] - out["first paint s"])
     out["after paint / check"] = out["checked after paint s"] / out["check s"]
     return out
 
 
-def check_seconds(path: Path) -> float:
-    """`stepper check PATH` in this process (its output discarded), wall seconds."""
+async def key_to_paint(app: Any, key: str) -> float:
+    """Wall seconds from posting ``key`` to the end of the repaint that shows the round it
+    moved to (textual's ``call_after_refresh``, asked once the position has changed)."""
+    from textual import events
+
+    screen = app.proof_screen
+    before = screen.position
+    painted = asyncio.get_running_loop().create_future()
+    start = time.perf_counter()
+    app.post_message(events.Key(key, key))
+    while screen.position == before:
+        await asyncio.sleep(0)
+    screen.call_after_refresh(lambda: painted.done() or painted.set_result(None))
+    await painted
+    return time.perf_counter() - start
+
+
+def children_cpu() -> float:
+    """CPU seconds of this process's children that have ended and been waited for."""
+    usage = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return usage.ru_utime + usage.ru_stime
+
+
+def check_seconds(path: Path) -> tuple[float, float]:
+    """`stepper check PATH` in this process (its output discarded): wall and CPU seconds."""
     import contextlib
     import io
 
     from stepper.cli.main import main as stepper_main
 
-    start = time.perf_counter()
+    start, start_cpu = time.perf_counter(), time.process_time()
     with contextlib.redirect_stdout(io.StringIO()):
         stepper_main(["check", str(path)])
-    return time.perf_counter() - start
+    return time.perf_counter() - start, time.process_time() - start_cpu
+
+
+def until_checked(path: Path) -> int:
+    """The app side of the fresh-process pair: start the app headless on ``path`` and leave
+    as soon as every round is checked (printing the verdict), without the app's tear-down."""
+    from stepper.app.app import StepperApp
+
+    async def run() -> None:
+        app = StepperApp.from_file(path, progressive=True, export_dir=path.parent)
+        async with app.run_test(size=(140, 44)) as pilot:
+            while not app.model.all_checked:
+                await pilot.pause(0.005)
+            print(app.model.verdict(), flush=True)
+            os._exit(0)
+
+    asyncio.run(run())
+    return 1  # never reached: the app closed before every round was checked
+
+
+def fresh_pair(path: Path, repeat: int) -> dict[str, float]:
+    """Best-of-``repeat`` wall and CPU of the app until every round is checked and of `stepper
+    check`, each in a new process, the two interleaved."""
+    sides = {"app": [sys.executable, __file__, "--until-checked", str(path)],
+             "check": [sys.executable, "-m", "stepper", "check", str(path)]}
+    best: dict[str, float] = {}
+    for _ in range(repeat):
+        for side, command in sides.items():
+            cpu, start = children_cpu(), time.perf_counter()
+            done = subprocess.run(command, capture_output=True, text=True)
+            wall, cpu = time.perf_counter() - start, children_cpu() - cpu
+            if done.returncode != 0:
+                raise SystemExit(f"{' '.join(command)} exited {done.returncode}: {done.stderr.strip()}")
+            best[f"{side} wall s"] = min(best.get(f"{side} wall s", wall), wall)
+            best[f"{side} cpu s"] = min(best.get(f"{side} cpu s", cpu), cpu)
+    best["app / check wall"] = best["app wall s"] / best["check wall s"]
+    best["app / check cpu"] = best["app cpu s"] / best["check cpu s"]
+    return best
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -129,21 +232,33 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--instances", type=int, default=4000)
     parser.add_argument("--rounds", type=int, default=25)
     parser.add_argument("--steps", type=int, default=60)
+    parser.add_argument("--repeat", type=int, default=3,
+                        help="starts of the app, each beside a `stepper check`, best of each (in process)")
+    parser.add_argument("--fresh", type=int, default=5, help="runs of each side of the fresh-process pair")
+    parser.add_argument("--until-checked", type=Path, help=argparse.SUPPRESS)  # the pair's app side
     args = parser.parse_args(argv)
+    if args.until_checked is not None:
+        return until_checked(args.until_checked)
     with tempfile.TemporaryDirectory() as tmp:
         t = time.perf_counter()
         small = write(Path(tmp) / "small.sumtr", 3, 4)
         large = write(Path(tmp) / "large.sumtr", args.instances, args.rounds)
         print(f"wrote the transcripts in {time.perf_counter() - t:.1f} s "
               f"({large.stat().st_size / 1e6:.1f} MB for {args.instances * args.rounds} rounds)")
-        results = {"small": asyncio.run(measure(small, args.steps)),
-                   "large": asyncio.run(measure(large, args.steps))}
+        results = {"small": asyncio.run(measure(small, args.steps, args.repeat)),
+                   "large": asyncio.run(measure(large, args.steps, args.repeat))}
+        fresh = fresh_pair(large, args.fresh) if args.fresh > 0 else {}
     keys = list(results["small"])
     print(f"{'':24}{'small':>12}{'large':>12}{'large/small':>14}")
     for key in keys:
         a, b = results["small"][key], results["large"][key]
         ratio = f"{b / a:.2f}" if a else "-"
         print(f"{key:24}{a:12.2f}{b:12.2f}{ratio:>14}")
+    if fresh:
+        print(f"\nfresh processes on the large file, best of {args.fresh} each, interleaved "
+              "(app: until every round is checked)")
+        for key, value in fresh.items():
+            print(f"fresh {key:20}{value:12.2f}")
     return 0
 
 

@@ -22,6 +22,7 @@ from textual.app import App
 from stepper.app.proof_model import Position, ProofModel
 from stepper.app.proof_screen import ProofScreen
 from stepper.app.source import TranscriptSource
+from stepper.app.whole_file import WholeFileCheck
 from stepper.transcript.model import Note
 
 __all__ = ["StepperApp", "compare_available", "READ_SLICE"]
@@ -62,7 +63,7 @@ class StepperApp(App[int]):
         self.compare = compare
         self.diagnosis = diagnosis
         self.proof_screen = ProofScreen(model)
-        self.whole_file_check: Any = None  # a Future of the whole-file report (see from_file)
+        self.whole_file_check: WholeFileCheck | None = None  # the whole-file pass under way (see from_file)
 
     @classmethod
     def from_file(cls, path: str | Path, *, witness: str | Path | None = None, progressive: bool = False,
@@ -74,7 +75,7 @@ class StepperApp(App[int]):
         whole file is read and checked first. A witness implies a full first read."""
         source = TranscriptSource(path, witness, follow=bool(options.get("follow", False)))
         if progressive and witness is None:
-            checking = source.start_whole_file_check()  # every round, while the app starts
+            checking = source.start_whole_file_check()  # every round, beside the app's start-up
             model = source.open_start(strict)
             app = cls(model, source=source, **options)
             app.whole_file_check = checking
@@ -97,6 +98,8 @@ class StepperApp(App[int]):
             self.open_compare(self.compare)
 
     def on_unmount(self) -> None:
+        if self.whole_file_check is not None:
+            self.whole_file_check.stop()  # closed before every round was checked: the child goes too
         if self.source is not None and not self.model.loading:
             self.source.close()  # the file kept open for following
 
@@ -114,18 +117,19 @@ class StepperApp(App[int]):
         """Feed the rest of the file in slices, yielding to key presses between them
         and repainting the summary and strip a few times a second."""
         assert self.source is not None
-        # every round checked first, through stepper check's whole-file pass (in a thread, so
+        # every round checked first, through stepper check's whole-file pass (beside the app, so
         # keys keep working); then the events are read in slices for stepping, round by round
         if self.whole_file_check is not None:
-            swept = await asyncio.wrap_future(self.whole_file_check)
+            swept = await asyncio.wrap_future(self.whole_file_check.future)
         else:
-            swept = await asyncio.to_thread(self.source.whole_file_report)
+            swept = await asyncio.to_thread(self.source.whole_file_check)
         if swept is not None and self.model.loading:
-            self.model.swept = swept
-            self.model.generation += 1
+            self.model.take_whole_file(swept)
             self.proof_screen.model_changed()
         painted = time.monotonic()
         while not self.source.pump(self.model, READ_SLICE):
+            if not self.is_running:
+                return  # the app is closing: nobody will step through the rest
             if time.monotonic() - painted > REPAINT_SECONDS:
                 self.proof_screen.model_changed()
                 painted = time.monotonic()

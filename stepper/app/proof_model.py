@@ -21,7 +21,7 @@ from __future__ import annotations
 
 from bisect import bisect_left, bisect_right, insort
 from dataclasses import dataclass, field as dc_field
-from typing import Any, Iterable, Mapping
+from typing import TYPE_CHECKING, Any, Iterable, Mapping
 
 from stepper.app.glue_model import GLUE_KINDS, GlueTrail
 from stepper.errors import StepperError
@@ -45,6 +45,9 @@ from stepper.transcript.model import (
     UnknownEvent,
     fold_events,
 )
+
+if TYPE_CHECKING:
+    from stepper.app.whole_file import WholeFile
 
 __all__ = ["Position", "StatusMark", "STATUS_MARKS", "verdict_status", "InstanceView", "ProofModel", "RoundRow",
            "mark_of", "shorten"]
@@ -117,7 +120,7 @@ class ProofModel:
         self.digest_problem: Exception | None = None  # the reader's digest-mismatch error, word for word
         self.events_seen = 0
         self.loading = False  # True while the first read is still feeding events
-        self.swept: Any = None  # the whole-file report of the fast path (stepper check's), while loading
+        self.swept: WholeFile | None = None  # what the whole-file pass (stepper check's) said, while loading
         self.final = False  # no checked event can follow (see finish)
         self.generation = 0  # bumps on every change; screens repaint when it moves
         self._replay_factory = replay_factory
@@ -247,6 +250,12 @@ class ProofModel:
                     view.version += 1
                 self._note_failure((index, number), check)
 
+    def take_whole_file(self, swept: WholeFile) -> None:
+        """What the whole-file pass found (every round checked), shown while the rounds are
+        still read for stepping; values format in this model's field."""
+        self.swept = swept.with_field(self.field)
+        self.generation += 1
+
     # ----- questions -------------------------------------------------------------------
     @property
     def all_checked(self) -> bool:
@@ -256,9 +265,7 @@ class ProofModel:
     @property
     def rounds_total(self) -> int | None:
         """How many rounds the file holds, once the whole-file pass has said (for the progress line)."""
-        if self.swept is None:
-            return None
-        return sum(s.rounds_seen for s in self.swept.instances)
+        return None if self.swept is None else self.swept.rounds
 
     @property
     def records(self) -> list[Event]:
@@ -276,7 +283,7 @@ class ProofModel:
         if self._replay is None:
             return None
         if self.loading:
-            return self.swept  # every round already checked by the whole-file pass, or None
+            return None if self.swept is None else self.swept.report  # every round checked by the whole-file pass
         if self._report is not None and (self._report_generation == self.generation or self._closed):
             return self._report
         if self.final:
@@ -305,7 +312,7 @@ class ProofModel:
         ``unusable`` for a file whose digest does not match (no verdict on such bytes,
         as `stepper check` gives none: see :mod:`stepper.transcript.condition`)."""
         if self.loading:
-            return str(self.swept.verdict) if self.swept is not None else "checking"
+            return str(self.swept.report.verdict) if self.swept is not None else "checking"
         if self.digest == "mismatch":
             return "unusable"
         report = self.report()

@@ -80,7 +80,7 @@ class ProofScreen(Screen[None]):
 
     BINDINGS = bindings("proof")  # type: ignore[assignment]
 
-    position: reactive[Position] = reactive((0, 1), init=False)
+    position: reactive[Position] = reactive((0, 1), init=False, repaint=False)
     live: reactive[bool] = reactive(False)
 
     def __init__(self, model: ProofModel) -> None:
@@ -129,8 +129,8 @@ class ProofScreen(Screen[None]):
     # ----- state -------------------------------------------------------------------
     def model_changed(self) -> None:
         """Repaint what depends on the whole model (after the file grew or a note)."""
-        if not self._ready:
-            return  # on_mount paints everything once the screen exists
+        if not self._ready or not self.app.is_running:
+            return  # on_mount paints everything once the screen exists; a closing app paints nothing
         lines = summary_lines(self.model)
         if self.stepper.problem:
             lines.insert(0, Line("stopped reading", self.stepper.problem, "bad"))

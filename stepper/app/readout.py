@@ -44,8 +44,7 @@ def summary_lines(model: ProofModel) -> list[Line]:
         lines.append(Line("loading", loading_words(model), "wait"))
     if swept is not None:  # the whole-file pass only completes on a sealed file whose digest matches
         file_line = file_condition("transcript", "complete", "verified")
-        proof = proof_condition((s.index, s.name, s.rounds_seen if s.failure is not None else s.rounds_passed,
-                                 s.num_vars) for s in swept.instances)
+        proof = swept.proof
     else:
         file_line = "being read" if model.loading else file_condition(model.kind, model.completeness, model.digest)
         proof = proof_condition((i, v.name, _counted(v), v.start.num_vars) for i, v in enumerate(model.instances))

@@ -43,6 +43,10 @@ class ReadoutPanel(Static):
         self.lines: list[Line] = []
 
     def show(self, lines: Sequence[Line]) -> None:
+        """Draw ``lines``; the same lines again (a step within one instance, for the
+        statement panel) cost nothing."""
+        if self.lines == list(lines) and self.lines:
+            return
         self.lines = list(lines)
         self.update(render_lines(self.lines, self.label_width), layout=False)
         # Re-lay out only when the wrapped text needs another height: stepping between

@@ -19,16 +19,17 @@ Notes saved from the app are not fed a second time when the stream reaches them.
 
 from __future__ import annotations
 
-import threading
-from concurrent.futures import Future
 import os
 from functools import partial
 from pathlib import Path
-from typing import Any, Iterator
+from typing import TYPE_CHECKING, Any, Iterator
 
 from stepper.app.proof_model import ProofModel
 from stepper.errors import InputError, StepperError
 from stepper.transcript.model import Event, Header, Note
+
+if TYPE_CHECKING:
+    from stepper.app.whole_file import WholeFile, WholeFileCheck
 
 __all__ = ["TranscriptSource", "new_model"]
 
@@ -77,34 +78,27 @@ class TranscriptSource:
             self._fail(model, f"{self.path}: cannot read ({err.strerror or err})")
         return model
 
-    def whole_file_report(self) -> Any:
+    def whole_file_check(self) -> WholeFile | None:
         """Every round checked through the same whole-file pass as `stepper check`
-        (:func:`stepper.verify.sweep.sweep`), or None when it does not apply (a file
-        still being written, a JSON-lines stream, notes waiting beside it, anything odd:
-        the event-by-event read then checks as before). Safe to run in a thread: it
-        opens the file on its own and touches no model."""
+        (:func:`stepper.app.whole_file.check_whole_file`), or None when it does not apply (a
+        file still being written, a JSON-lines stream, notes waiting beside it, anything odd:
+        the event-by-event read then checks as before). Opens the file on its own and
+        touches no model."""
         if self.follow or self.witness_path is not None:
             return None
-        from stepper.verify.replay import Replay
-        from stepper.verify.sweep import sweep
+        from stepper.app.whole_file import check_whole_file
 
-        replay = Replay(keep_rounds=False, keep_instances=None, emit_passing=False)
-        swept = sweep(self.path, replay)
-        return None if swept is None else replay.report(swept.completeness)
+        return check_whole_file(self.path)
 
-    def start_whole_file_check(self) -> Future[Any]:
-        """Run :meth:`whole_file_report` in a thread from now on (it overlaps the app's
-        start-up); the future holds the report or None."""
-        future: Future[Any] = Future()
+    def start_whole_file_check(self, *, child: bool | None = None) -> WholeFileCheck | None:
+        """Start :meth:`whole_file_check` beside the app's start-up (a child process where
+        possible, else a thread: :class:`stepper.app.whole_file.WholeFileCheck`); None when it
+        does not apply."""
+        if self.follow or self.witness_path is not None:
+            return None
+        from stepper.app.whole_file import WholeFileCheck
 
-        def work() -> None:
-            try:
-                future.set_result(self.whole_file_report())
-            except BaseException as err:  # noqa: BLE001 - handed to whoever awaits the future
-                future.set_exception(err)
-
-        threading.Thread(target=work, name="stepper whole-file check", daemon=True).start()
-        return future
+        return WholeFileCheck(self.path, child=child)
 
     def pump(self, model: ProofModel, limit: int) -> bool:
         """Feed up to ``limit`` more events; True once the file is exhausted (or broke)."""

@@ -65,8 +65,13 @@ class StatusStrip(ScrollView, can_focus=False):
     def watch_current(self, old: tuple[int, int], new: tuple[int, int]) -> None:
         self._cache.pop(old[0], None)
         self._cache.pop(new[0], None)
-        self.scroll_to(y=max(0, new[0] - self.size.height // 2), animate=False, immediate=True)
-        self.refresh()
+        top = max(0, new[0] - self.size.height // 2)
+        if top != self.scroll_offset.y:  # the instance under the cursor moved: every line shown changes
+            self.scroll_to(y=top, animate=False, immediate=True)
+            self.refresh()
+        else:  # a step within the lines on screen: only the old and the new cursor line are redrawn
+            self.refresh_line(old[0])
+            self.refresh_line(new[0])
 
     def render_line(self, y: int) -> Strip:
         index = self.scroll_offset.y + y

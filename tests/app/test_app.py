@@ -6,6 +6,8 @@ from pathlib import Path
 
 from textual.widgets import Input
 
+from proofs import brackwater_payloads, write_transcript
+
 from stepper.app.app import StepperApp
 from stepper.app.ask_screen import AskScreen
 from stepper.app.buckets_screen import BucketsScreen
@@ -312,6 +314,48 @@ def test_the_loading_line_says_how_far_the_read_has_come(tmp_path):
     source = TranscriptSource(_thaler_file(tmp_path))
     model = source.open_start()
     assert loading_words(model).startswith("checking: ")
-    model.swept = source.whole_file_report()
+    swept = source.whole_file_check()
+    assert swept is not None
+    model.take_whole_file(swept)
     read = model.round_count  # open_start read up to the field and a little beyond
     assert loading_words(model) == f"every round checked; reading rounds for stepping: {read} of 3 ({100 * read // 3}%)"
+
+
+async def test_closing_the_app_while_the_rounds_are_still_read_ends_cleanly(tmp_path, monkeypatch):
+    import stepper.app.app as app_module
+
+    monkeypatch.setattr(app_module, "READ_SLICE", 1)  # one event per slice: the read outlasts the test
+    monkeypatch.setattr(app_module, "REPAINT_SECONDS", 0.0)  # and repaints after every slice
+    path = write_transcript(tmp_path / "long.sumtr", brackwater_payloads(mu=8))
+    app = StepperApp.from_file(path, progressive=True, export_dir=tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        while app.model.round_count == 0:
+            await pilot.pause(0.01)
+        assert app.model.loading  # the app closes (leaving run_test) in the middle of the read
+    # run_test re-raises what a worker raised: nothing did, no repaint of a screen already taken down
+
+
+async def test_a_step_within_an_instance_repaints_the_round_and_not_the_rest(honest_file, tmp_path):
+    app = app_for(honest_file, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()  # the first screen is drawn whole
+        screen = app.proof_screen
+        drawn: dict[str, int] = {}
+        for name in ("#summary", "#statement", "#detail"):
+            panel = screen.query_one(name)
+            render = panel.render
+
+            def counted(name=name, render=render):  # type: ignore[no-untyped-def]
+                drawn[name] = drawn.get(name, 0) + 1  # the panel's text laid out again
+                return render()
+
+            panel.render = counted  # type: ignore[method-assign]
+        strip_lines: list[int] = []
+        strip = screen.query_one("#strip")
+        render_line = strip.render_line
+        strip.render_line = lambda y: strip_lines.append(y) or render_line(y)  # type: ignore[method-assign]
+        await pilot.press("r")
+        assert screen.position == (0, 2)
+        assert drawn.get("#detail", 0) > 0  # the round under check is drawn again
+        assert "#summary" not in drawn and "#statement" not in drawn  # the same proof, the same instance
+        assert len(set(strip_lines)) == 1  # the strip redraws the cursor's line only
