@@ -278,8 +278,11 @@ class Sequencer(GlueRules, AnnotationRules):
         final_parsed: Expr | None = None
         if self.glue and ("claim_expr" in payload or "final_expr" in payload or "eq_point" in payload
                           or form == EQ_FACTORED):
-            claim_expr, final_expr, eq_point, final_parsed = self._instance_glue(payload, name, num_vars, degree,
-                                                                                 form)
+            if self.defer_glue and form != EQ_FACTORED and "eq_point" not in payload:
+                claim_expr, final_expr = self._glue_text(payload, "claim_expr"), self._glue_text(payload, "final_expr")
+            else:
+                claim_expr, final_expr, eq_point, final_parsed = self._instance_glue(payload, name, num_vars, degree,
+                                                                                     form)
         start: Any = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
             len(self.names), name, num_vars, degree, claim)
@@ -295,9 +298,7 @@ class Sequencer(GlueRules, AnnotationRules):
         self.awaiting_challenge = False
         self.final_seen = False
         if final_parsed is not None:
-            defined = self.defined
-            late = tuple(n for n in final_parsed.references().values if n not in defined)
-            self._late = (start, late) if late else None
+            self._expect_late(start, final_parsed)
         return start
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:

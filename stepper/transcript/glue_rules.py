@@ -18,7 +18,7 @@ from stepper.field.field import Element
 from stepper.field.poly import EQ_FACTORED
 from stepper.transcript.payload_rules import checked_text, short
 from stepper.transcript.model import (
-    GLUE_NAME, GLUE_NAME_PATTERN, Event, GlueDraft, NamedValue, Opening, OpeningDraft, Squeeze,
+    GLUE_NAME, GLUE_NAME_PATTERN, Event, GlueDraft, InstanceStart, NamedValue, Opening, OpeningDraft, Squeeze,
 )
 from stepper.transcript.sequence_state import SequenceState
 
@@ -41,17 +41,8 @@ class GlueRules(SequenceState):
                 exprs.append(None)
                 continue
             text = checked_text(raw, key, self._fail)
-            try:
-                expr = parse_cached(text)
-            except ExpressionError:
-                try:  # again, for a message naming the key and the instance
-                    parse_expr(text, f"{key} of instance {name!r}")
-                except ExpressionError as err:
-                    raise self._fail(err.message) from None
-                raise
-            self._check_refs(expr, key, name)
+            parsed = self._checked_expr(text, key, name)
             exprs.append(text)
-            parsed = expr
         eq_raw = payload.get("eq_point")
         eq_point: tuple[Element, ...] | str | None = None
         if form == EQ_FACTORED:
@@ -78,6 +69,40 @@ class GlueRules(SequenceState):
             raise self._fail(f"expected `eq_point` only with form eq-factored, found it with form {form!r} in "
                              f"instance {name!r}")
         return exprs[0], exprs[1], eq_point, parsed if exprs[1] is not None else None
+
+    def _checked_expr(self, text: str, key: str, name: str) -> Expr:
+        """The parsed ``key`` of the instance ``name``, its names checked against what came before."""
+        try:
+            expr = parse_cached(text)
+        except ExpressionError:
+            try:  # again, for a message naming the key and the instance
+                parse_expr(text, f"{key} of instance {name!r}")
+            except ExpressionError as err:
+                raise self._fail(err.message) from None
+            raise
+        self._check_refs(expr, key, name)
+        return expr
+
+    def _glue_text(self, payload: Mapping[str, Any], key: str) -> str | None:
+        """An instance's ``claim_expr`` or ``final_expr`` as text, unparsed (see ``defer_glue``)."""
+        raw = payload.get(key)
+        return None if raw is None else checked_text(raw, key, self._fail)
+
+    def check_deferred(self, start: InstanceStart) -> None:
+        """The checks of ``start``'s claim_expr and final_expr that ``defer_glue`` left out, made now
+        (the caller has brought the names defined up to the instance's place in the stream)."""
+        parsed = None
+        for key, text in (("claim_expr", start.claim_expr), ("final_expr", start.final_expr)):
+            if text is not None:
+                parsed = self._checked_expr(text, key, start.name)
+        if start.final_expr is not None and parsed is not None:
+            self._expect_late(start, parsed)
+
+    def _expect_late(self, start: InstanceStart, final_expr: Expr) -> None:
+        """Remember the final_expr names not sent yet: they must come before the next instance."""
+        defined = self.defined
+        late = tuple(n for n in final_expr.references().values if n not in defined)
+        self._late = (start, late) if late else None
 
     def _check_refs(self, expr: Expr, key: str, name: str) -> None:
         refs = expr.references()

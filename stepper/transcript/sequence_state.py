@@ -47,6 +47,9 @@ class SequenceState:
         self.glue = True  # whether value/squeeze/opening are known (False for format version 1 files)
         self.defined: dict[str, int | None] = {}  # glue name -> list length (None for one element)
         self._late: tuple[InstanceStart, tuple[str, ...]] | None = None  # final_expr names still to come
+        # When set, an instance's claim_expr and final_expr (without an eq point) are taken as text, unparsed:
+        # the caller (stepper.verify.sweep) checks them by columns, or calls check_deferred.
+        self.defer_glue = False
 
     # ----- position --------------------------------------------------------------
     @property

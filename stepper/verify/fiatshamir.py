@@ -36,7 +36,7 @@ from __future__ import annotations
 import hashlib
 import struct
 from operator import itemgetter
-from typing import TYPE_CHECKING, Callable
+from typing import TYPE_CHECKING, Callable, Sequence
 
 from stepper.errors import InputError
 from stepper.transcript.packed import pack_elements
@@ -56,6 +56,8 @@ _ROUND_HEAD = bytes([5]) + b"round"
 _PAIR = struct.Struct("<QQ")  # two u64 of a frame body
 _INSTANCE_HEAD = bytes([8]) + b"instance"
 _OPENING_HEAD = bytes([7]) + b"opening"
+_VALUE_HEAD = bytes([5]) + b"value"
+_DRAW_HEAD = bytes([4]) + b"draw"
 
 
 def frame(tag: bytes, body: bytes) -> bytes:
@@ -155,6 +157,47 @@ class Sha256Schedule:
         items = record.items()  # type: ignore[union-attr]
         return frame(b"value", _text(record.name) + _u64(int(record.listed)) + _u64(len(items))  # type: ignore[union-attr]
                      + pack_elements(field, items))
+
+    def glue_stream(self, kinds: Sequence[str], names: Sequence[str], tables: Sequence[str], data: Sequence[bytes],
+                    counts: Sequence[int], listed: Sequence[bool]) -> tuple[bytes, list[int], list[int]]:
+        """The bytes absorbed for glue events in stream order, built in one pass: a ``value`` or
+        ``opening`` as :meth:`glue_frame` frames it, a ``squeeze`` as its draw frame (see
+        :meth:`squeeze`) then the frame of each of its challenges, with the element sent standing
+        in for the one squeezed. Event i has kind ``kinds[i]``, name ``names[i]`` (ASCII: a glue
+        name), table ``tables[i]`` (openings), its ``counts[i]`` elements packed in ``data[i]``
+        and ``listed[i]`` (a list value). Returns the bytes, the offset where each event's frames
+        end, and the offsets at which a challenge is squeezed (after a draw frame, and between
+        two challenges of one squeeze): with :meth:`absorb_pieces` over the pieces between them,
+        the schedule's state, when every squeezed element is the one sent."""
+        field = self._need_field("value")
+        width, head = field.elem_bytes, self._challenge_head
+        u64 = _u64
+        parts: list[bytes] = []
+        ends: list[int] = []
+        cuts: list[int] = []
+        put = parts.extend
+        at = 0
+        for kind, name, table, packed, n, is_list in zip(kinds, names, tables, data, counts, listed):
+            raw = name.encode()
+            size = len(raw)
+            if kind == "opening":
+                label = table.encode()
+                body = 16 + size + len(label) + width
+                put((_OPENING_HEAD, u64(body), u64(size), raw, u64(len(label)), label, packed))
+                at += 16 + body
+            elif kind == "value":
+                body = 24 + size + n * width
+                put((_VALUE_HEAD, u64(body), u64(size), raw, u64(is_list), u64(n), packed))
+                at += 14 + body
+            else:
+                put((_DRAW_HEAD, u64(24 + size), u64(size), raw, u64(is_list), u64(n)))
+                at += 37 + size
+                for j in range(n):
+                    cuts.append(at)
+                    put((head, packed[j * width:(j + 1) * width]))
+                    at += len(head) + width
+            ends.append(at)
+        return b"".join(parts), ends, cuts
 
     def absorb_frames(self, frames: bytes) -> None:
         """Absorb frames made by :meth:`glue_frame`, in order."""
@@ -259,7 +302,13 @@ class Sha256Schedule:
                              slice(round_len + (count - 1) * stride, count * stride))
             if len(self._row_cuts) < 256:
                 self._row_cuts[key] = cut
-        pieces = cut(rows[first * stride:(first + count) * stride])
+        self.absorb_pieces(cut(rows[first * stride:(first + count) * stride]), digests)
+
+    def absorb_pieces(self, pieces: Sequence[bytes | memoryview], digests: bytearray) -> None:
+        """Absorb ``pieces`` in order, squeezing one challenge between each two: the digests of
+        every squeeze are appended to ``digests`` (as :meth:`absorb_rows` does); each piece after
+        the first starts with the frame of the challenge squeezed before it, so the state is the
+        schedule's only if each of those challenges is the one squeezed (the caller compares)."""
         update, copy = self._state.update, self._state.copy
         squeezes = [squeeze for frames in self._squeeze_frames for squeeze in frames]
         out = digests  # appended in place: ``out += digest`` extends the caller's buffer

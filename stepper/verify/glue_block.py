@@ -12,15 +12,17 @@ glue"). :class:`GlueChecks` gathers them and asks of a whole flush the question
   the block has already found equal to g_mu(r_mu)).
 
 Expressions that differ only in their names share a template
-(:func:`stepper.field.expr.parse_cached`: ``a7 + beta7*b7`` and ``a8 + beta8*b8``).
+(:func:`stepper.field.expr_syntax.template_of`: ``a7 + beta7*b7`` and ``a8 + beta8*b8``).
 The instances of a flush are grouped by template (and, for an evaluation, by the
 length of the point and the block that holds its challenges); each hole of the
 template becomes a column of the values it names, instance by instance, and the
 template is evaluated once per group with the block kernel: a numpy pass per node,
 a few per coordinate of an ``eq``. Values are read from the replay's glue book; names
 are unique in a proof and never change once sent, so reading them at the end of a
-flush gives what the replay reads when it checks. An evaluation whose values have not
-all arrived waits for the next flush.
+flush gives what the replay reads when it checks. The sweep flushes only where every
+name an expression of the flush reads has come (before the next instance, or at the end);
+:meth:`GlueChecks.check_names` checks the Sequencer's rules for those names (sent before
+the expression may read them, element or list as used) by columns too.
 
 The answer is yes or no. On no, or on anything this module does not take (``point(NAME)``,
 ``final(NAME)``, a text only the character parser reads, a list where an element is
@@ -35,37 +37,22 @@ from typing import TYPE_CHECKING, Any, Mapping
 
 import numpy as np
 
-from stepper.field.expr import parse_cached
+from stepper.field.expr_syntax import template_of
 from stepper.field.field import power_by_squaring
 from stepper.field.kernels import GoldilocksKernel, SmallPrimeKernel, Word64Kernel
 from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
 
 if TYPE_CHECKING:
-    from stepper.field.expr import Expr
     from stepper.field.expr_syntax import Node, Template
     from stepper.field.field import Element, Field
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
 
-__all__ = ["GlueChecks", "Unsupported", "glue_exprs"]
+__all__ = ["GlueChecks", "Unsupported"]
 
 
 class Unsupported(Exception):
     """A glue expression or value this module does not check by columns: the replay must."""
-
-
-def glue_exprs(start: InstanceStart) -> tuple[Expr | None, Expr | None] | None:
-    """The parsed ``claim_expr`` and ``final_expr`` of ``start``, or None when they cannot be checked
-    here (``point(NAME)`` or ``final(NAME)``, a text only the character parser reads)."""
-    exprs = []
-    for text in (start.claim_expr, start.final_expr):
-        expr = None if text is None else parse_cached(text)
-        if expr is not None:
-            refs = expr.references()
-            if expr.template is None or refs.points or refs.finals:
-                return None
-        exprs.append(expr)
-    return exprs[0], exprs[1]
 
 
 # template, names filling its holes, the value it must equal; for an evaluation the challenges of its
@@ -80,48 +67,74 @@ class GlueChecks:
         self.field = field
         self.kernel = kernel
         self.entries: list[_Entry] = []
-        self.waiting: list[_Entry] = []  # checks whose values had not all arrived at the last call
-        self.added = 0  # entries added for the last instance
+        # per template and kind of check: the runs of its checks and the names filling its holes
+        self.uses: dict[tuple[int, bool], tuple[Template, list[int], list[tuple[str, ...]]]] = {}
 
-    def add(self, claim_expr: Expr | None, final_expr: Expr | None, final: Element, challenges: np.ndarray,
-            first_row: int, start: InstanceStart) -> None:
-        """An instance settled in bulk (its expressions from :func:`glue_exprs`): its claim, and its
-        final value at the point whose challenges (round order) are rows ``first_row`` ..
-        ``first_row + num_vars - 1`` of ``challenges``."""
-        self.added = (claim_expr is not None) + (final_expr is not None)
-        if claim_expr is not None:
-            self.entries.append((claim_expr.template, claim_expr.holes, start.claim, None, 0, 0, ""))
-        if final_expr is not None:
-            self.entries.append((final_expr.template, final_expr.holes, final, challenges, first_row, start.num_vars,
-                                 start.order))
+    def add(self, start: InstanceStart, final: Element, challenges: np.ndarray, first_row: int, run: int) -> None:
+        """An instance settled in bulk, the ``run``-th of its flush: its claim against its claim_expr,
+        and its final value against its final_expr at the point whose challenges (round order) are
+        rows ``first_row`` .. ``first_row + num_vars - 1`` of ``challenges``. Raises
+        :class:`Unsupported` for an expression this module does not check (``point(NAME)``,
+        ``final(NAME)``, a text only the character parser reads, eq(a) in a claim_expr)."""
+        for text, final_check in ((start.claim_expr, False), (start.final_expr, True)):
+            if text is None:
+                continue
+            found = template_of(text)
+            if found is None:
+                raise Unsupported("a text only the character parser reads")
+            template, names = found
+            refs = template.refs
+            if refs.points or refs.finals or (refs.own_point and not final_check):
+                raise Unsupported("point(NAME), final(NAME) or eq(a) in a claim_expr")
+            holes = tuple(names)
+            use = self.uses.get((id(template), final_check))
+            if use is None:
+                use = self.uses[(id(template), final_check)] = (template, [], [])
+            use[1].append(run)
+            use[2].append(holes)
+            if final_check:
+                self.entries.append((template, holes, final, challenges, first_row, start.num_vars, start.order))
+            else:
+                self.entries.append((template, holes, start.claim, None, 0, 0, ""))
 
-    def check(self, values: Mapping[str, Any], *, last: bool = False) -> bool:
-        """Whether every gathered check passes with the values sent so far. Only the instance added
-        last may name values not sent yet (the Sequencer requires a final_expr's values before the
-        next instance): its checks then wait for the next call (with ``last``, they fail). Raises
-        :class:`Unsupported` for what only the replay checks."""
-        entries, self.entries = self.waiting + self.entries, []
-        self.waiting = []
-        tail = len(entries) - self.added
-        while len(entries) > tail >= 0 and not all(name in values for name in entries[-1][1]):
-            if last:
-                return False
-            self.waiting.insert(0, entries.pop())
-        self.added = 0
+    def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
+                    earlier: Mapping[str, int | None]) -> None:
+        """The Sequencer's rules for the names an expression reads, by columns: a claim_expr's names
+        were sent before its instance (after an earlier run of the flush, ``runs``, or before the
+        flush, ``earlier``), a final_expr's also after its own run; a name used as an element
+        is one, a name used as a list (a point, ``NAME[i]``) is one (``defined``: a list's length
+        or None, for the flush's names). Raises :class:`Unsupported` where one does not hold."""
+        for (_, final_check), (template, used_by, holes) in self.uses.items():
+            scalars, lists = template.plan[0], template.plan[1]
+            limits = used_by if final_check else [run - 1 for run in used_by]
+            for hole, listed in [*((h, False) for h in scalars), *((h, True) for h in lists)]:
+                if not isinstance(hole, int):
+                    raise Unsupported("a call word used as a name")
+                column = [names[hole] for names in holes]
+                places: list[Any] = list(map(runs.get, column))
+                if None in places:
+                    before = [name for name, place in zip(column, places) if place is None]
+                    if not all(map(earlier.__contains__, before)) or any(
+                            (earlier[name] is None) == listed for name in before):
+                        raise Unsupported("a name not sent before, or of another kind")
+                    places = [-1 if place is None else place for place in places]
+                if any(map(int.__gt__, places, limits)):
+                    raise Unsupported("a name sent after the expression may read it")
+                kinds = list(map(defined.get, column))
+                if any((kind is None) == listed for kind, place in zip(kinds, places) if place >= 0):
+                    raise Unsupported("a name of another kind")
+
+    def check(self, values: Mapping[str, Any]) -> bool:
+        """Whether every gathered check passes with the values sent (every name an expression reads
+        has come: :meth:`check_names`). Raises :class:`Unsupported` for what only the replay checks."""
+        entries, self.entries = self.entries, []
+        self.uses = {}
         groups: dict[tuple[int, int, int, str], list[_Entry]] = {}
         for entry in entries:
             template, _, _, challenges, _, num_vars, order = entry
             groups.setdefault((id(template), id(challenges), num_vars, order), []).append(entry)
         for group in groups.values():
-            try:
-                passes = _Columns(self.field, self.kernel, values, group).passes()
-            except KeyError:  # waiting since an earlier call, and still not sent: keep those that are not
-                ready = [entry for entry in group if all(name in values for name in entry[1])]
-                if last:
-                    return False
-                self.waiting.extend(entry for entry in group if not all(name in values for name in entry[1]))
-                passes = not ready or _Columns(self.field, self.kernel, values, ready).passes()
-            if not passes:
+            if not _Columns(self.field, self.kernel, values, group).passes():
                 return False
         return True
 

@@ -26,7 +26,7 @@ if TYPE_CHECKING:
     from stepper.transcript.model import InstanceStart
     from stepper.verify.fiatshamir import Sha256Schedule
 
-__all__ = ["GiveUp", "Layout", "layout_of", "RunBlock"]
+__all__ = ["GiveUp", "Layout", "layout_of", "RunBlock", "rederive"]
 
 
 class GiveUp(Exception):
@@ -108,20 +108,26 @@ class RunBlock:
 
     def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
         """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
-        import numpy as np
-
-        from stepper.field.kernels import ExtensionKernel
-        from stepper.verify.roundblock import reduce_wide
-
         if not self.digests and schedule is None:
             return None
-        per = schedule.squeezes_per_challenge if schedule is not None else 0
-        if schedule is None or len(self.digests) != len(self.rows) * per * 32:
-            raise GiveUp("challenges re-derived for only part of the block")
-        samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
-        squeezed = np.frombuffer(self.digests, dtype=np.uint8).reshape(len(self.rows) * samples, -1)
-        reduced = reduce_wide(kernel, squeezed, schedule.wide_bytes)
-        return reduced.reshape(self.challenges.shape)
+        return rederive(kernel, schedule, self.digests, len(self.rows), self.challenges.shape)
+
+
+def rederive(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray, count: int,
+             shape: tuple[int, ...]) -> np.ndarray:
+    """The ``count`` challenges (an array of ``shape``) whose digests
+    :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended to ``digests``."""
+    import numpy as np
+
+    from stepper.field.kernels import ExtensionKernel
+    from stepper.verify.roundblock import reduce_wide
+
+    per = schedule.squeezes_per_challenge if schedule is not None else 0
+    if schedule is None or len(digests) != count * per * 32:
+        raise GiveUp("challenges re-derived for only part of the block")
+    samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
+    squeezed = np.frombuffer(digests, dtype=np.uint8).reshape(count * samples, -1)
+    return reduce_wide(kernel, squeezed, schedule.wide_bytes).reshape(shape)
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:

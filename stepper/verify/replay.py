@@ -129,7 +129,7 @@ class Replay:
     def _inline_setup(self) -> InlineSetup:
         return inline_setup(self.field, self._live, self._source.schedule, self.challenger is not None)
 
-    def settle(self, start: InstanceStart, final: Element) -> None:
+    def settle(self, start: InstanceStart, final: Element) -> bool:
         """Account for an instance checked in bulk and found passing (:mod:`stepper.verify.roundblock`):
         every round passed the degree, sum and challenge checks and ``final`` equals the
         reduced claim. The effect is that of feeding its instance, rounds, challenges and
@@ -137,7 +137,9 @@ class Replay:
         the rounds and challenges (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`)
         right after, and replays event by event instead if the block turns out not to pass.
         The same holds for its glue keys: a kept summary gets passing ``link`` and ``evaluation``
-        results, and the caller checks them by the block (:mod:`stepper.verify.glue_block`)."""
+        results, and the caller checks them by the block (:mod:`stepper.verify.glue_block`).
+        Returns whether the instance's summary is kept (its glue then goes to :meth:`settle_glue`;
+        otherwise :meth:`settle_glue_values` will do)."""
         if (self.field is None or self.challenger is not None or self.emit_passing or start.batch is not None
                 or self._pending_batch is not None):
             raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
@@ -146,7 +148,7 @@ class Replay:
         ledger = self._ledger
         if not ledger.keeps_passing():
             ledger.passed_unkept(start)
-            return
+            return False
         live = LiveInstance(start, False)
         self._live = live
         ledger.opened(start)
@@ -156,6 +158,7 @@ class Replay:
             live.evaluation = passing_evaluation(self.field, start, final)
         live.claim, live.seen, live.passed = final, start.num_vars, start.num_vars
         self._on_final(FinalValue(start.index, final))
+        return True
 
     def settle_glue(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:
         """Account for values, squeezes and openings that follow an instance settled in bulk,
@@ -169,6 +172,13 @@ class Replay:
         field, ledger, take = self._need_field(), self._ledger, self._glue.take
         for record in records:
             take(field, record, None, "", live, ledger)
+
+    def settle_glue_values(self, names: Iterable[str], values: Iterable[Any]) -> None:
+        """:meth:`settle_glue` for glue after instances whose summaries are not kept, given as the
+        names and the values the glue book keeps (an element, or a list of elements)."""
+        if self._live is not None:
+            raise ValueError("expected no open instance to settle glue values in bulk")
+        self._glue.book.values.update(zip(names, values))
 
     def glue_values(self) -> dict[str, Any]:
         """The values, squeezes and openings received so far, by name (what glue expressions read)."""

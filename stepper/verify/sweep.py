@@ -42,19 +42,17 @@ import msgpack
 
 from stepper.errors import Where
 from stepper.transcript.store.pending import pending_path
-from stepper.transcript.events import Sequencer
+from stepper.transcript.events import KNOWN_TYPES, Sequencer
 from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
 from stepper.verify.packed_runs import GiveUp as _GiveUp, Layout, RunBlock, layout_of
 from stepper.transcript.model import (
-    FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, NamedValue, Note, Opening, RoundMsg, Squeeze,
-    UnknownEvent,
+    FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent,
 )
 
 if TYPE_CHECKING:
-    from stepper.field.expr import Expr
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.verify.glue_block import GlueChecks
@@ -65,6 +63,8 @@ __all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
 BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cache
 LOOSE_ROUNDS = 1 << 12  # rounds outside runs before the sweep leaves the file to the usual replay
 SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
+_GLUE_TYPES = frozenset(("value", "squeeze", "opening"))
+_KNOWN_TYPES = frozenset(KNOWN_TYPES)
 _ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
 # the first bytes of an end event as the writer packs it (writer.end_payload): a map of 3, "type": "end", "events"
 _END_KEYS = b"\x83" + b"".join(msgpack.packb(word) for word in ("type", "end", "events"))
@@ -131,14 +131,10 @@ class _Sweeper:
         self.layout: Layout | None = None  # of the last run read
         self.layouts: dict[int, Layout] = {}  # by values per round
         self.runs: list[tuple[InstanceStart, bytes, bytes, Layout]] = []  # instance, first bytes, rest, layout
-        # the glue after each run, and after the last run of the previous flush: checked with them
-        self.trailing: list[list[NamedValue | Squeeze | Opening]] = []
-        self.leading: list[NamedValue | Squeeze | Opening] = []
-        self.glue_tail: list[NamedValue | Squeeze | Opening] | None = None  # where glue now goes (None: the replay)
+        self.trailing: list[list[dict[str, Any]]] = []  # the glue payloads after each run, checked with them
+        self.glue_tail: list[dict[str, Any]] | None = None  # where glue payloads now go (None: the Sequencer)
         self.glue: GlueChecks | None = None  # set with the field
-        self.glue_exprs: Callable[[InstanceStart], tuple[Expr | None, Expr | None] | None] = _glue_exprs
-        self.exprs: dict[int, tuple[Expr | None, Expr | None]] = {}  # of the glued runs not yet flushed, by index
-        self.ended = False  # the end event has been read
+        self.due = False  # enough runs read: check them before the next instance
         self.rows = 0  # rounds in self.runs
         self.pending_bytes = 0  # bytes of rounds in self.runs
         self.loose_rounds = 0  # rounds fed one by one (instances not taken as runs)
@@ -205,34 +201,39 @@ class _Sweeper:
 
     def _events(self, payloads: Iterator[Any]) -> dict[str, Any]:
         """Every event up to the end event (returned), runs taken and checked by the block, with the
-        glue that follows them."""
+        glue that follows them. The glue payloads after a run are kept as they are and checked by
+        columns when the run is (:mod:`stepper.verify.glue_columns`), and so are its instance's
+        claim_expr and final_expr (the Sequencer defers them): before the Sequencer sees any other
+        event that could read the names they define, the runs read so far are checked."""
         seq, replay, instance_cls = self.seq, self.replay, InstanceStart
         passive = (Note, BucketStats, UnknownEvent)
-        glue = (NamedValue, Squeeze, Opening)
+        quiet = ("instance", "note", "buckets")  # events the Sequencer judges without the glue names
+        seq.defer_glue = True
         for payload in payloads:
+            tail = self.glue_tail
+            if tail is not None:
+                kind = payload.get("type") if payload.__class__ is dict else None
+                if kind in _GLUE_TYPES:
+                    tail.append(payload)
+                    seq.count += 1
+                    continue
+                if kind not in quiet or (kind == "instance" and ("eq_point" in payload or self.due)):
+                    if kind in _KNOWN_TYPES:
+                        self._flush()
             record = seq.feed(payload)
             cls = record.__class__
-            if cls in glue:
-                if self.glue_tail is not None:  # after a run: checked with it
-                    self.glue_tail.append(record)  # type: ignore[arg-type]
-                    continue
-            elif cls is instance_cls:
-                glued = record.claim_expr is not None or record.final_expr is not None  # type: ignore[union-attr]
-                if glued:
-                    exprs = self.glue_exprs(record)  # type: ignore[arg-type]
-                    if exprs is None:
-                        raise _GiveUp("glue this pass does not check by the block")
+            if cls is instance_cls:
                 if self._runnable(record):  # type: ignore[arg-type]
-                    if glued:
-                        self.exprs[record.index] = exprs  # type: ignore[union-attr, assignment]
                     self._take_run(record)  # type: ignore[arg-type]
                     continue
-                self.glue_tail = None
+                self._flush()
+                if record.claim_expr is not None or record.final_expr is not None:  # type: ignore[union-attr]
+                    if record.eq_point is None:  # type: ignore[union-attr]
+                        seq.check_deferred(record)  # type: ignore[arg-type]
             if cls in passive:
                 if cls is UnknownEvent and record.kind == "end":  # type: ignore[union-attr]
                     if seq.finish_glue() is not None:
                         raise _GiveUp("a final_expr names a value never sent")
-                    self.ended = True
                     return payload  # type: ignore[no-any-return]
                 if cls is Note and self.on_note is not None:
                     self.on_note(record)  # type: ignore[arg-type]
@@ -275,12 +276,13 @@ class _Sweeper:
             raise _GiveUp("no final after the rounds")
         self.seq.account_run(start.num_vars)
         self.runs.append((start, head, rest, layout))
-        self.glue_tail = []
-        self.trailing.append(self.glue_tail)
+        tail: list[dict[str, Any]] = []
+        self.trailing.append(tail)
+        self.glue_tail = tail if self.seq.glue else None
         self.rows += start.num_vars
         self.pending_bytes += start.num_vars * layout.stride
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
-            self._flush()
+            self.due = True
 
     def _new_layout(self, head: bytes) -> tuple[bytes, Layout]:
         """The layout a run's first bytes announce."""
@@ -314,78 +316,63 @@ class _Sweeper:
         """Check the runs read so far, and the glue after them, and settle them into the replay, or
         give up. Runs are grouped by layout (one array per round size) but settled and hashed in
         stream order, the glue absorbed and squeezed after the run it follows."""
-        runs, leading = self.runs, self.leading
-        if not runs and not leading:
+        runs, trailing = self.runs, self.trailing
+        self.glue_tail = None
+        if not runs:
             return
         from stepper.verify.glue_block import Unsupported
+        from stepper.verify.glue_columns import GlueColumns
         from stepper.verify.roundblock import block_passes
 
-        kernel, checks, trailing = self.kernel, self.glue, self.trailing
-        assert kernel is not None and checks is not None
-        self.runs, self.trailing, self.rows, self.pending_bytes = [], [], 0, 0
-        self.leading = []
-        if self.glue_tail is not None:  # the glue read next still follows the last run
-            self.glue_tail = self.leading
+        kernel, checks, field, seq = self.kernel, self.glue, self.field, self.seq
+        assert kernel is not None and checks is not None and field is not None
+        self.runs, self.trailing, self.rows, self.pending_bytes, self.due = [], [], 0, 0, False
+        glue = GlueColumns(field, trailing, seq.defined)
         members: dict[Layout, list[tuple[InstanceStart, bytes, bytes, Layout]]] = {}
         for run in runs:
             members.setdefault(run[3], []).append(run)
         blocks = {layout: RunBlock(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
-        if leading:
-            self._absorb_glue(leading)
-            replay.settle_glue(leading)
-        exprs = self.exprs
-        for (start, _, _, layout), glue in zip(runs, trailing):
-            block = blocks[layout]
-            first, final = block.next_run()
-            replay.settle(start, final)
-            if start.claim_expr is not None or start.final_expr is not None:
-                checks.add(*exprs.pop(start.index), final, block.challenges, first, start)
-            schedule = replay.schedule  # the first settle may start the default schedule
-            if schedule is not None:
-                block.absorb(schedule, first, start.num_vars)
-            if glue:
-                self._absorb_glue(glue)
-                replay.settle_glue(glue)
+        pieces: list[list[memoryview]] | None = None
+        digests = bytearray()  # of the glue's squeezes
+        unkept = glue.size  # the first glue event after a run whose summary is not kept
+        bounds = glue.bounds
+        try:
+            for i, (start, _, _, layout) in enumerate(runs):
+                block = blocks[layout]
+                first, final = block.next_run()
+                kept = replay.settle(start, final)
+                if start.claim_expr is not None or start.final_expr is not None:
+                    checks.add(start, final, block.challenges, first, i)
+                schedule = replay.schedule  # the first settle may start the default schedule
+                if schedule is not None:
+                    block.absorb(schedule, first, start.num_vars)
+                    if glue.size:
+                        if pieces is None:
+                            pieces = glue.pieces(schedule)
+                        if pieces[i]:
+                            schedule.absorb_pieces(pieces[i], digests)
+                if kept:
+                    replay.settle_glue(glue.records(i, start.index))
+                elif unkept == glue.size:
+                    unkept = bounds[i]
+            defined = glue.defined()
+            checks.check_names(glue.runs_of_names(), defined, seq.defined)
+        except Unsupported as err:
+            raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
+        seq.defined.update(defined)
+        if unkept < glue.size:
+            replay.settle_glue_values(glue.names[unkept:], glue.values[unkept:])
         for block in blocks.values():
             rederived = block.rederived(kernel, replay.schedule)
             if not block_passes(kernel, block.evals, block.challenges, block.starts, block.claims, block.finals,
                                 rederived):
                 raise _GiveUp("a check fails in this block")
+        if digests and not glue.squeezes_pass(kernel, replay.schedule, digests):
+            raise _GiveUp("a squeeze differs from the derived one")
         try:
-            passes = checks.check(replay.glue_values(), last=self.ended)
+            passes = checks.check(replay.glue_values())
         except Unsupported as err:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
         if not passes or replay.failed:
             raise _GiveUp("a glue check fails in this block")
-
-    def _absorb_glue(self, records: list[NamedValue | Squeeze | Opening]) -> None:
-        """The schedule's side of the values, openings and squeezes after a run, in order; a squeeze
-        must be the derived one."""
-        schedule = self.replay.schedule
-        if schedule is None:
-            return
-        field = self.field
-        assert field is not None
-        frames: list[bytes] = []
-        for record in records:
-            if record.__class__ is not Squeeze:
-                frames.append(schedule.glue_frame(record))  # type: ignore[arg-type]
-                continue
-            if frames:
-                schedule.absorb_frames(b"".join(frames))
-                frames = []
-            derived = schedule.squeeze(record.name, len(record.value) if record.listed else None)
-            want = derived if record.listed else (derived,)
-            if [field.lift(v) for v in record.items()] != [field.lift(v) for v in want]:  # type: ignore[union-attr, arg-type]
-                raise _GiveUp("a squeeze differs from the derived one")
-        if frames:
-            schedule.absorb_frames(b"".join(frames))
-
-
-def _glue_exprs(start: InstanceStart) -> tuple[Expr | None, Expr | None] | None:
-    """The parsed claim_expr and final_expr of ``start``, or None when the block does not check them
-    (:func:`stepper.verify.glue_block.glue_exprs`)."""
-    from stepper.verify.glue_block import glue_exprs
-
-    return glue_exprs(start)

@@ -267,3 +267,26 @@ def test_one_element_and_a_list_of_one_are_absorbed_apart():
         s.observe(record)
         digests.append(s.state_digest())
     assert digests[0] != digests[1]
+
+
+def test_glue_stream_absorbed_by_pieces_reproduces_the_glue_vectors():
+    # the whole-file pass frames a run's glue by columns (stepper.verify.glue_columns): the same bytes as
+    # the record-by-record schedule above, the sent squeezes standing in for the derived ones
+    field = get_field(P)
+    s = Sha256Schedule()
+    s.observe(FieldDecl(field))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
+    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+    for k, (values, r) in enumerate(((ROUND1, R1), (ROUND2, R2)), start=1):
+        s.observe(RoundMsg(0, k, values))
+        assert s.challenge() == r
+    stream, ends, cuts = s.glue_stream(
+        ["opening", "opening", "value", "squeeze", "squeeze"], ["f.at.r", "h.at.r", "tau", "beta", "w"],
+        ["f", "h", "", "", ""], [el(F_AT_R), el(H_AT_R), el(3) + el(5), el(BETA), el(W[0]) + el(W[1])],
+        [1, 1, 2, 1, 2], [False, False, True, False, True])
+    assert len(ends) == 5 and ends[-1] == len(stream) and len(cuts) == 3  # a draw, then w's two challenges
+    marks = [0, *cuts, len(stream)]
+    digests = bytearray()
+    s.absorb_pieces([stream[a:b] for a, b in zip(marks, marks[1:])], digests)
+    assert s.state_digest().hex() == GLUE_DIGESTS["squeeze w"]
+    assert [int.from_bytes(digests[i:i + s.wide_bytes], "little") % P for i in (0, 32, 64)] == [BETA, *W]

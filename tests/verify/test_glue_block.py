@@ -21,7 +21,7 @@ from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
 from stepper.field.field import get_field  # noqa: E402
 from stepper.field.spec import field_from_spec  # noqa: E402
 from stepper.transcript.model import InstanceStart  # noqa: E402
-from stepper.verify.glue_block import GlueChecks, Unsupported, glue_exprs  # noqa: E402
+from stepper.verify.glue_block import GlueChecks, Unsupported  # noqa: E402
 from stepper.verify.roundblock import block_kernel  # noqa: E402
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
@@ -78,17 +78,27 @@ def gathered(name: str, starts, challenges, finals) -> GlueChecks:  # type: igno
     kernel = block_kernel(field)
     checks = GlueChecks(field, kernel)
     rows = kernel.array(challenges)
-    for start, final in zip(starts, finals):
-        exprs = glue_exprs(start)
-        assert exprs is not None
-        checks.add(*exprs, final, rows, start.index * start.num_vars, start)
+    for run, (start, final) in enumerate(zip(starts, finals)):
+        checks.add(start, final, rows, start.index * start.num_vars, run)
     return checks
+
+
+def sent_in_time(values: dict[str, object], count: int):  # type: ignore[no-untyped-def]
+    """Where an honest stream sends the glue of ``count`` instances: w and instance 0's claim values
+    before the flush, a{i}, beta{i}, u{i} after run i - 1 (instance i's claim reads them), b{i}, c{i},
+    d{i} after run i (only its final_expr reads them). Returns the runs, the kinds of the flush's names
+    (a list's length or None) and the kinds of the earlier ones."""
+    earlier = {"w": len(values["w"]), "a0": None, "beta0": None, "u0": len(values["u0"])}  # type: ignore[arg-type]
+    runs = {f"{n}{i}": i - 1 for i in range(1, count) for n in ("a", "beta", "u")}
+    runs.update({f"{n}{i}": i for i in range(count) for n in ("b", "c", "d")})
+    kinds = {name: len(values[name]) if isinstance(values[name], list) else None for name in runs}  # type: ignore[arg-type]
+    return runs, kinds, earlier
 
 
 @pytest.mark.parametrize("name", sorted(ARITHMETIC))
 def test_link_and_evaluation_of_many_instances_pass_when_every_one_holds(name):
     starts, values, challenges, finals = glued_instances(name, 40, 3, seed=5)
-    assert gathered(name, starts, challenges, finals).check(values, last=True)
+    assert gathered(name, starts, challenges, finals).check(values)
 
 
 @pytest.mark.parametrize("name", sorted(ARITHMETIC))
@@ -105,34 +115,45 @@ def test_one_wrong_value_among_many_fails_the_whole_group(name, where):
                                    final_expr=start.final_expr)
     else:
         values["c3"] = ar.add(values["c3"], ar.const(1))  # type: ignore[arg-type]
-    assert not gathered(name, starts, challenges, finals).check(values, last=True)
+    assert not gathered(name, starts, challenges, finals).check(values)
 
 
-def test_an_evaluation_waits_for_openings_sent_after_the_flush():
-    starts, values, challenges, finals = glued_instances("goldilocks", 6, 2, seed=7)
-    late = {name: values.pop(name) for name in ("a5", "b5", "c5")}
+def test_names_sent_in_time_and_of_the_right_kind_pass_the_sequencer_rules():
+    starts, values, challenges, finals = glued_instances("goldilocks", 4, 2, seed=10)
     checks = gathered("goldilocks", starts, challenges, finals)
-    assert checks.check(dict(values))  # the others pass; instance 5's link (it names a5) and evaluation wait
-    assert len(checks.waiting) == 2
-    values.update(late)
-    assert checks.check(values, last=True) and not checks.waiting
+    checks.check_names(*sent_in_time(values, 4))
+    assert checks.check(values)
 
 
-def test_a_value_that_never_comes_fails_at_the_end():
-    starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=8)
-    del values["d2"]
-    assert not gathered("goldilocks", starts, challenges, finals).check(values, last=True)
+@pytest.mark.parametrize("problem", ["late", "missing", "list-as-element", "element-as-list"])
+def test_a_name_sent_too_late_never_sent_or_of_the_wrong_kind_is_refused(problem):
+    starts, values, challenges, finals = glued_instances("goldilocks", 4, 2, seed=11)
+    runs, kinds, earlier = sent_in_time(values, 4)
+    if problem == "late":
+        runs["beta2"] = 2  # instance 2's claim_expr reads it; sent only after its rounds
+    elif problem == "missing":
+        del runs["d1"], kinds["d1"]
+    elif problem == "list-as-element":
+        kinds["a1"] = 2
+    else:
+        kinds["u2"] = None
+    checks = gathered("goldilocks", starts, challenges, finals)
+    with pytest.raises(Unsupported):
+        checks.check_names(runs, kinds, earlier)
 
 
 def test_what_only_the_replay_checks_is_refused():
-    point = InstanceStart(1, "deck.1", 1, 1, 0, claim_expr="eq(point(deck.0), w)")
-    final = InstanceStart(1, "deck.1", 1, 1, 0, claim_expr="final(deck.0) + 1")
-    assert glue_exprs(point) is None and glue_exprs(final) is None
+    field = field_of("goldilocks")
+    checks = GlueChecks(field, block_kernel(field))
+    rows = checks.kernel.array([1])
+    for text in ("eq(point(deck.0), w)", "final(deck.0) + 1", "eq(w) * a"):  # eq(a) in a claim: no point yet
+        with pytest.raises(Unsupported):
+            checks.add(InstanceStart(1, "deck.1", 1, 1, 0, claim_expr=text), 0, rows, 0, 0)
     starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=9)
     values["a1"] = [1, 2]  # a list where an element is wanted
     with pytest.raises(Unsupported):
-        gathered("goldilocks", starts, challenges, finals).check(values, last=True)
+        gathered("goldilocks", starts, challenges, finals).check(values)
     starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=9)
     values["u2"] = [1, 2, 3]  # eq(w, u2) over points of different lengths
     with pytest.raises(Unsupported):
-        gathered("goldilocks", starts, challenges, finals).check(values, last=True)
+        gathered("goldilocks", starts, challenges, finals).check(values)

@@ -269,10 +269,14 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
             if faulty == "evaluation":
                 c = bump(ar, c)
             for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
-                put({"type": "opening", "name": name, "value": ar.json(value)})
+                table = {"table": f"deck.{name}"} if rng.random() < 0.3 else {}  # a table named apart
+                put({"type": "opening", "name": name, "value": ar.json(value), **table})
             beta = schedule.squeeze(f"beta{i}") if schedule is not None else element(ar, rng)
             put({"type": "squeeze", "name": f"beta{i}", "value": ar.json(bump(ar, beta) if faulty == "squeeze"
                                                                         else beta)})
+            if rng.random() < 0.3:  # a point squeezed as a list
+                gamma = schedule.squeeze(f"gamma{i}", 2) if schedule is not None else (element(ar, rng),) * 2
+                put({"type": "squeeze", "name": f"gamma{i}", "value": [ar.json(g) for g in gamma]})  # type: ignore[union-attr]
             previous = (i, a, b, c, beta)
     writer.close()
     body = path.read_bytes()
@@ -752,8 +756,8 @@ def test_sweep_gives_up_on_every_glue_fault_and_check_names_it_as_the_replay(tmp
     assert f"check {'squeeze' if fault == 'squeeze' else fault}" in out
 
 
-def test_glue_late_in_a_block_waits_for_the_next_flush(tmp_path, monkeypatch):
-    # a flush after every run: an instance's openings are read only in the next flush
+def test_glue_after_the_run_that_ends_a_block_is_checked_with_it(tmp_path, monkeypatch):
+    # a block ends after every run: its openings and squeezes still follow it, and are checked with it
     monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 1)
     written = write_transcript(tmp_path / "small-blocks.sumtr", Knobs(instances=9, glue=True, seed=3))
     assert_same_report(written.path, 2)

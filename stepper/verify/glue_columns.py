@@ -1,0 +1,154 @@
+"""The glue events after runs of rounds, read as columns (no I/O).
+
+The whole-file pass (:mod:`stepper.verify.sweep`) keeps the ``value``, ``squeeze`` and
+``opening`` payloads that follow each instance it takes as a run, as the reader unpacked
+them, without turning each into a record. :class:`GlueColumns` takes all of a flush's at
+once and checks what the event :class:`~stepper.transcript.events.Sequencer` would check of
+each, by columns: every name a glue name (one regular-expression match over all of them,
+joined), unique in the proof (a set), every element a canonical packed element (one decode of
+their bytes joined). It then gives what the rest of the pass needs, still by columns: the
+names and values for the replay's glue book, each name's run (for the rules of expressions),
+the Fiat-Shamir pieces of each run (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.glue_stream`),
+and the squeezed elements sent, which the caller compares with those re-derived, by the block.
+
+Anything else (a payload another producer shaped otherwise, a JSON-style element, a name
+sent twice) raises :class:`~stepper.verify.packed_runs.GiveUp`: the caller then replays the
+file event by event, which names the problem.
+"""
+
+from __future__ import annotations
+
+import re
+from bisect import bisect_left
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
+
+from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
+from stepper.transcript.packed import decoder_for
+from stepper.transcript.payload_rules import MAX_VALUES
+from stepper.verify.packed_runs import GiveUp, rederive
+
+if TYPE_CHECKING:
+    from stepper.field.field import Field
+    from stepper.field.kernels import Kernel
+    from stepper.verify.fiatshamir import Sha256Schedule
+
+__all__ = ["GlueColumns"]
+
+_NAME = r"[A-Za-z_][A-Za-z0-9_.]{0,127}"  # stepper.transcript.glue_records.GLUE_NAME_PATTERN
+_NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
+
+
+class GlueColumns:
+    """The glue payloads that follow the runs of one flush, checked and held as columns."""
+
+    def __init__(self, field: Field, tails: Sequence[Sequence[Mapping[str, Any]]], defined: Mapping[str, Any]) -> None:
+        """``tails[i]`` holds the payloads that followed run i, in stream order; ``defined`` the
+        glue names sent before the flush (they may not come again)."""
+        payloads = [payload for tail in tails for payload in tail]
+        self.field = field
+        self.size = len(payloads)
+        self.bounds = [0]  # run i's events are bounds[i] .. bounds[i + 1] - 1
+        for tail in tails:
+            self.bounds.append(self.bounds[-1] + len(tail))
+        self.kinds: list[str] = [payload["type"] for payload in payloads]
+        names = [payload.get("name") for payload in payloads]
+        try:
+            joined = "\n".join(names)  # type: ignore[arg-type]
+        except TypeError:
+            raise GiveUp("a glue name that is not text") from None
+        if payloads and _NAMES.fullmatch(joined) is None:
+            raise GiveUp("a glue name outside the pattern")
+        if len(set(names)) != len(names) or not defined.keys().isdisjoint(names):
+            raise GiveUp("a glue name sent twice")
+        self.names: list[str] = names  # type: ignore[assignment]
+        tables = [payload.get("table", name) if kind == "opening" else "" for payload, kind, name
+                  in zip(payloads, self.kinds, names)]
+        given = [table for table, name, kind in zip(tables, names, self.kinds) if kind == "opening" and table is not name]
+        try:
+            if given and _NAMES.fullmatch("\n".join(given)) is None:
+                raise GiveUp("an opening's table outside the pattern")
+        except TypeError:
+            raise GiveUp("an opening's table that is not text") from None
+        self.tables = tables
+        raws: list[Any] = [payload.get("value") for payload in payloads]
+        self.listed = [raw.__class__ is list for raw in raws]
+        self.counts: list[int] = [len(raw) if is_list else 1 for raw, is_list in zip(raws, self.listed)]
+        if self.counts and max(self.counts) > MAX_VALUES:
+            raise GiveUp("a glue list longer than the Sequencer takes")
+        if any(is_list and kind == "opening" for is_list, kind in zip(self.listed, self.kinds)):
+            raise GiveUp("an opening of a list")
+        self.data: list[bytes] = [b"".join(raw) if is_list else raw for raw, is_list in zip(raws, self.listed)]
+        self.values = self._decode(raws)
+
+    def _decode(self, raws: list[Any]) -> list[Any]:
+        """The elements sent, as the replay's glue book keeps them: an element, or a list of them."""
+        width = self.field.elem_bytes
+        cells = [raw for raw, is_list in zip(raws, self.listed) for raw in (raw if is_list else (raw,))]
+        if set(map(type, cells)) - {bytes} or set(map(len, cells)) - {width}:
+            raise GiveUp("a glue element not packed as the writer packs it")
+        elements = decoder_for(self.field)(b"".join(cells))
+        if elements is None:
+            raise GiveUp("a glue element that is not canonical")
+        if not any(self.listed):
+            return list(elements)
+        out: list[Any] = []
+        at = 0
+        for n, is_list in zip(self.counts, self.listed):
+            out.append(list(elements[at:at + n]) if is_list else elements[at])
+            at += n
+        return out
+
+    # ----- what the rest of the flush reads -----------------------------------------------
+    def runs_of_names(self) -> dict[str, int]:
+        """Each name's run (the index of the run it follows in the flush)."""
+        runs = [i for i in range(len(self.bounds) - 1) for _ in range(self.bounds[i + 1] - self.bounds[i])]
+        return dict(zip(self.names, runs))
+
+    def defined(self) -> dict[str, int | None]:
+        """The names as the Sequencer records them: a list's length, None for one element."""
+        return {name: n if is_list else None for name, n, is_list in zip(self.names, self.counts, self.listed)}
+
+    def records(self, run: int, instance: int) -> list[NamedValue | Squeeze | Opening]:
+        """The records of the events after run ``run`` (instance ``instance``), as the Sequencer builds them."""
+        out: list[NamedValue | Squeeze | Opening] = []
+        for i in range(self.bounds[run], self.bounds[run + 1]):
+            kind, name, value = self.kinds[i], self.names[i], self.values[i]
+            if kind == "opening":
+                out.append(Opening(name, value, self.tables[i], instance))
+                continue
+            cls = NamedValue if kind == "value" else Squeeze
+            out.append(cls(name, tuple(value) if self.listed[i] else value, self.listed[i], instance))
+        return out
+
+    def squeezes_pass(self, kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray) -> bool:
+        """Whether every element squeezed is the one sent, ``digests`` being those
+        :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended for the pieces
+        of :meth:`pieces`, in stream order."""
+        import numpy as np
+
+        from stepper.verify.cells import decode_cells
+
+        sent = b"".join([data for kind, data in zip(self.kinds, self.data) if kind == "squeeze"])
+        width = self.field.elem_bytes
+        expected = decode_cells(kernel, np.frombuffer(sent, dtype=np.uint8), width)
+        return bool(np.array_equal(rederive(kernel, schedule, digests, len(sent) // width, expected.shape),
+                                   expected))
+
+    def pieces(self, schedule: Sha256Schedule) -> list[list[memoryview]]:
+        """Per run, the pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes
+        after the run's rounds (empty for a run with no glue)."""
+        stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, self.tables, self.data, self.counts,
+                                                  self.listed)
+        view = memoryview(stream)
+        out: list[list[memoryview]] = []
+        bounds = self.bounds
+        for run in range(len(bounds) - 1):
+            first, last = bounds[run], bounds[run + 1]
+            if first == last:
+                out.append([])
+                continue
+            start, stop = ends[first - 1] if first else 0, ends[last - 1]
+            inside = cuts[bisect_left(cuts, start):bisect_left(cuts, stop)]
+            marks = [start, *inside, stop]
+            out.append([view[a:b] for a, b in zip(marks, marks[1:])])
+        return out
