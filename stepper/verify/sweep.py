@@ -8,8 +8,11 @@ follow its ``instance`` event laid out exactly as
 :class:`~stepper.transcript.store.writer.TranscriptWriter` packs them, as one run of
 bytes without decoding them, and checks runs by the block: Fiat-Shamir with
 :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`, the sums, challenges
-and finals with :func:`stepper.verify.roundblock.block_passes`. Every other event goes
-through the same :class:`~stepper.transcript.events.Sequencer` and
+and finals with :func:`stepper.verify.roundblock.block_passes`. The glue events after
+a run (values, squeezes, openings) are kept as unpacked and checked by columns with it
+(:mod:`stepper.verify.glue_columns`), and so are the run's ``claim_expr`` and
+``final_expr`` (:mod:`stepper.verify.glue_block`; the Sequencer defers them). Every
+other event goes through the same :class:`~stepper.transcript.events.Sequencer` and
 :meth:`~stepper.verify.replay.Replay.feed` as the reader would take it.
 
 It either ends with the replay in exactly the state the event-by-event path
