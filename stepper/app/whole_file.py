@@ -10,7 +10,8 @@ file event by event afterwards.
 Where it runs: on Linux, in a process that has one thread, the pass runs in a forked
 child process (on the other core, so it neither waits for the paint nor slows it) and
 sends back the :class:`WholeFile` pickled through a pipe, a few hundred bytes whatever
-the size of the file; the child never prints and leaves with ``os._exit``. Elsewhere
+the size of the file; the child's standard output and error go to the null device (a
+stray line would land in the middle of the app's screen) and it leaves with ``os._exit``. Elsewhere
 (no ``fork``, another platform, threads already running) it runs in a thread of this
 process. Either way, a pass that declines (a file still being written, a failing block,
 notes waiting beside the file, anything odd) or a child that dies gives None, and the
@@ -111,6 +112,10 @@ class WholeFileCheck:
             code = 1
             try:
                 os.close(read_end)
+                quiet = os.open(os.devnull, os.O_WRONLY)  # nothing of the child reaches the app's terminal
+                os.dup2(quiet, 1)
+                os.dup2(quiet, 2)
+                sys.stdout = sys.stderr = open(quiet, "w", closefd=False)  # whatever sys.stdout was
                 data = pickle.dumps(check_whole_file(self.path), protocol=pickle.HIGHEST_PROTOCOL)
                 with open(write_end, "wb") as pipe:
                     pipe.write(data)

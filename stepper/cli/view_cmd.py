@@ -50,6 +50,8 @@ def run(args: argparse.Namespace) -> int:
     app = StepperApp.from_file(args.file, witness=args.witness, progressive=True, strict=True,
                                follow=args.follow, export_dir=exports, compare=args.compare)
     if not (sys.stdin.isatty() and sys.stdout.isatty()):  # the app would draw into a pipe and wait forever
+        if app.whole_file_check is not None:
+            app.whole_file_check.stop()  # the check started with the app has nobody to report to
         raise UsageError("expected a terminal on standard input and output, found a redirect or pipe "
                          "(use `stepper check` for text output)")
     app.run()

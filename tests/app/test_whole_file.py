@@ -140,3 +140,14 @@ def test_the_app_hears_back_even_when_someone_else_reaped_the_child(tmp_path, mo
     path = taken_file(tmp_path)
     assert WholeFileCheck(path, child=True).future.result(timeout=WAIT) == check_whole_file(path)
     assert len(reaped) == 1
+
+
+def test_nothing_the_child_writes_reaches_the_terminal(tmp_path, monkeypatch, capfd):
+    def noisy(path: object) -> None:
+        print("from the child", flush=True)
+        os.write(2, b"from the child\n")  # a stray warning would land in the middle of the app's screen
+
+    monkeypatch.setattr(whole_file, "check_whole_file", noisy)
+    assert WholeFileCheck(taken_file(tmp_path), child=True).future.result(timeout=WAIT) is None
+    out, err = capfd.readouterr()
+    assert "from the child" not in out + err

@@ -76,3 +76,28 @@ def test_view_draws_the_proof_in_a_terminal_and_the_quit_key_ends_it_cleanly():
     assert b"Traceback" not in seen
     tail = seen[seen.rindex(KEY_BAR):]
     assert LEAVE_ALTERNATE_SCREEN in tail and SHOW_CURSOR in tail  # the terminal is handed back
+
+
+def test_view_off_a_terminal_stops_the_whole_file_check_it_started(monkeypatch, capsys):
+    from stepper.app import whole_file
+    from stepper.cli.main import main
+
+    started: list[whole_file.WholeFileCheck] = []
+    stopped: list[whole_file.WholeFileCheck] = []
+
+    class Watched(whole_file.WholeFileCheck):
+        def __init__(self, path: Path, *, child: bool | None = None) -> None:
+            super().__init__(path, child=True)  # a child process, as in a real start
+            started.append(self)
+
+        def stop(self) -> None:
+            stopped.append(self)
+            super().stop()
+
+    monkeypatch.setattr(whole_file, "WholeFileCheck", Watched)
+    assert main(["view", str(HONEST)]) == 2  # the test's standard input is not a terminal
+    assert "expected a terminal" in capsys.readouterr().err
+    assert stopped == started and len(started) == 1
+    started[0].future.result(timeout=60)
+    with pytest.raises(ChildProcessError):
+        os.waitpid(started[0].pid, os.WNOHANG)  # type: ignore[arg-type]  # gone, and reaped
