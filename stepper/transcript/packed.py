@@ -9,10 +9,16 @@ slices otherwise.
 
 Invariant: :func:`unpack_elements` returns canonical elements or raises
 :class:`FieldError`; it never reduces a value modulo p.
+
+:func:`pair_run` finds the bulk of a transcript in its bytes: rounds each followed by
+their challenge, packed exactly as the writer packs them (a round's values in one
+``bin 8``), so the reader's hot loop can decode a whole run of them in C before making
+the records.
 """
 
 from __future__ import annotations
 
+import re
 import struct
 from functools import lru_cache
 from typing import Callable
@@ -20,7 +26,7 @@ from typing import Callable
 from stepper.errors import FieldError, Where
 from stepper.field.field import Element, Field
 
-__all__ = ["pack_elements", "unpack_elements", "decoder_for"]
+__all__ = ["pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
 
@@ -96,3 +102,53 @@ def unpack_elements(field: Field, blob: bytes, what: str, where: Where | None = 
         except FieldError as err:
             raise FieldError(f"{what}, element {i // size}: {err.message}", err.where) from None
     raise FieldError(f"expected {what} as canonical elements, found an undecodable run", where)
+
+
+# A round event as the writer packs it, up to its values: a map of two entries, "type": "round",
+# then "evals" and the values' bin header (msgpack's shortest forms; the writer's key order).
+_ROUND_HEAD = b"\x82\xa4type\xa5round\xa5evals"
+_CHALLENGE_HEAD = b"\x82\xa4type\xa9challenge\xa5value"
+_BIN8 = 0xC4
+
+
+class PairLayout:
+    """One round event and its challenge event of a prime field with 4- or 8-byte elements,
+    ``values`` per round, as the writer packs them: ``stride`` bytes in all, ``pattern``
+    matching any number of them back to back, ``pair`` reading one as (values..., challenge)."""
+
+    __slots__ = ("values", "stride", "pattern", "pair")
+
+    def __init__(self, values: int, width: int) -> None:
+        size = values * width
+        round_head = _ROUND_HEAD + bytes((_BIN8, size))
+        challenge_head = _CHALLENGE_HEAD + bytes((_BIN8, width))
+        code = "I" if width == 4 else "Q"
+        self.values = values
+        self.stride = len(round_head) + size + len(challenge_head) + width
+        self.pattern = re.compile(b"(?:" + re.escape(round_head) + b".{%d}" % size + re.escape(challenge_head)
+                                  + b".{%d})*" % width, re.DOTALL)
+        self.pair = struct.Struct(f"<{len(round_head)}x{values}{code}{len(challenge_head)}x{code}")
+
+
+@lru_cache(maxsize=64)
+def _pair_layout(size: int, width: int) -> PairLayout | None:
+    if size == 0 or size % width:
+        return None
+    return PairLayout(size // width, width)
+
+
+def pair_run(data: bytes, at: int, width: int, most: int) -> tuple[int, PairLayout] | None:
+    """How many round-then-challenge pairs packed as the writer packs them (see
+    :class:`PairLayout`; ``width`` 4 or 8) lie whole in ``data`` from offset ``at``, at most
+    ``most``, and their layout; None when the bytes at ``at`` do not start a round so packed.
+    Nothing is judged but the layout: the values may still be non-canonical."""
+    head = at + len(_ROUND_HEAD)
+    if len(data) < head + 2 or data[head] != _BIN8 or not data.startswith(_ROUND_HEAD, at):
+        return None
+    layout = _pair_layout(data[head + 1], width)
+    if layout is None:
+        return None
+    stride = layout.stride
+    match = layout.pattern.match(data, at, min(len(data), at + most * stride))
+    assert match is not None  # the pattern matches the empty string too
+    return (match.end() - at) // stride, layout

@@ -6,6 +6,7 @@ from __future__ import annotations
 import random
 import struct
 
+import msgpack
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -13,7 +14,7 @@ from hypothesis import strategies as st
 from stepper.errors import TranscriptError
 from stepper.transcript.events import MAX_VALUES, Sequencer, to_payload
 from stepper.field.field import get_field
-from stepper.transcript.packed import pack_elements, unpack_elements
+from stepper.transcript.packed import pack_elements, pair_run, unpack_elements
 from stepper.transcript.model import (
     BatchDecl,
     BucketStats,
@@ -301,6 +302,121 @@ def test_stream_refuses_non_canonical_goldilocks_values_like_feed(value):
             list(seq.stream(iter([packed_round(value, 0, 0)]))) if use_stream else seq.feed(packed_round(value, 0, 0))
         messages.append(str(info.value))
     assert messages[0] == messages[1] and "element 0" in messages[0]
+
+
+# ----- packed runs of rounds decoded from the bytes fed (the reader's window) ----------------------------------------
+class CountingUnpacker(msgpack.Unpacker):
+    """A msgpack Unpacker that counts the bytes the hot loop takes from it without unpacking."""
+
+    taken = 0
+
+    def read_bytes(self, nbytes: int) -> bytes:
+        data = super().read_bytes(nbytes)
+        self.taken += len(data)
+        return data
+
+
+def stream_bytes(seq: Sequencer, data: bytes, chunk: int, out: list[object]) -> CountingUnpacker:
+    """``seq.stream`` over ``data`` fed to a real Unpacker ``chunk`` bytes at a time, with the window
+    a reader gives (the bytes last fed and their unpacker offset); the records go to ``out``."""
+    unpacker = CountingUnpacker(raw=False)
+    fed = [0, (b"", 0)]  # bytes fed so far, the window
+
+    def refill() -> bool:
+        if fed[0] >= len(data):
+            return False
+        piece = data[fed[0]:fed[0] + chunk]
+        unpacker.feed(piece)
+        fed[1] = (piece, fed[0])
+        fed[0] += len(piece)
+        return True
+
+    out.extend(seq.stream(unpacker, refill=refill, window=lambda: fed[1]))  # type: ignore[arg-type, return-value]
+    return unpacker
+
+
+def writer_pair(field: str, rng: random.Random, values: int, bad: str | None = None) -> list[dict[str, object]]:
+    """A round and its challenge as the writer packs them (packed runs of 4- or 8-byte elements)."""
+    p, code = (GOLDILOCKS, "Q") if field == "goldilocks" else (BABYBEAR, "I")
+    evals = [rng.randrange(p) for _ in range(values)]
+    challenge = rng.randrange(p)
+    if bad == "round":
+        evals[rng.randrange(values)] = p + rng.randrange(3)
+    elif bad == "challenge":
+        challenge = p
+    return [{"type": "round", "evals": struct.pack(f"<{values}{code}", *evals)},
+            {"type": "challenge", "value": struct.pack(f"<{code}", challenge)}]
+
+
+def test_pair_run_counts_whole_pairs_packed_as_the_writer_packs_them_up_to_most():
+    rng = random.Random(740)
+    pairs = [payload for _ in range(5) for payload in writer_pair("goldilocks", rng, 4)]
+    data = b"".join(msgpack.packb(payload, use_bin_type=True) for payload in pairs)
+    count, layout = pair_run(data, 0, 8, 99)
+    assert count == 5 and layout.stride * 5 == len(data) and layout.values == 4
+    assert pair_run(data, 0, 8, 3)[0] == 3
+    assert pair_run(data[:-1], 0, 8, 99)[0] == 4  # the cut pair is left to the unpacker
+    assert pair_run(data, 0, 4, 99)[0] == 0  # 8-byte challenges are not the 4-byte layout
+    assert pair_run(data, layout.stride // 2, 8, 99) is None  # not the start of a round
+    rows = list(layout.pair.iter_unpack(data))
+    assert [row[:4] for row in rows] == [struct.unpack("<4Q", payload["evals"]) for payload in pairs[0::2]]
+    assert [row[4] for row in rows] == [int.from_bytes(payload["value"], "little") for payload in pairs[1::2]]
+
+
+@settings(max_examples=60, deadline=None)
+@given(field=st.sampled_from(["goldilocks", "babybear"]), seed=st.integers(0, 2**32),
+       shape=st.lists(st.sampled_from(["pair", "pair", "pair", "bad-round", "bad-challenge", "note", "list-round",
+                                       "three-values", "instance"]), max_size=40),
+       chunk=st.sampled_from([7, 64, 333, 1 << 20]))
+def test_packed_runs_read_through_the_window_give_exactly_what_feeding_one_at_a_time_gives(field, seed, shape,
+                                                                                           chunk):
+    rng = random.Random(seed)
+    payloads: list[dict[str, object]] = [
+        {"type": "field", "name": field},
+        {"type": "instance", "name": "boarding-permutation", "num_vars": 12, "degree": 3, "claim": 1}]
+    for index, kind in enumerate(shape):
+        if kind == "instance":
+            payloads.append({"type": "instance", "name": f"deck-{index}", "num_vars": 12, "degree": 3, "claim": 1})
+        elif kind == "note":
+            payloads.append({"type": "note", "text": "gate closed"})
+        elif kind == "list-round":
+            payloads += [{"type": "round", "evals": [1, 2, 3, 4]}, {"type": "challenge", "value": 9}]
+        else:
+            values = 3 if kind == "three-values" else 4
+            payloads += writer_pair(field, rng, values, kind[4:] if kind.startswith("bad-") else None)
+    data = b"".join(msgpack.packb(payload, use_bin_type=True) for payload in payloads)
+
+    def outcome(records: list[object], seq: Sequencer, error: str | None) -> tuple[object, ...]:
+        return records, [type(r) for r in records], error, seq.count, seq.rounds_done, seq.awaiting_challenge
+
+    fed, seq_fed, error_fed = [], Sequencer(), None
+    try:
+        for payload in payloads:
+            fed.append(seq_fed.feed(payload))
+    except TranscriptError as err:
+        error_fed = str(err)
+    seq, records, error = Sequencer(), [], None
+    try:
+        stream_bytes(seq, data, chunk, records)
+    except TranscriptError as err:
+        error = str(err)
+    assert outcome(records, seq, error) == outcome(fed, seq_fed, error_fed)
+
+
+def test_a_whole_run_of_rounds_is_taken_from_the_unpacker_as_bytes_not_unpacked_one_by_one():
+    rng = random.Random(740)
+    payloads = [{"type": "field", "name": "goldilocks"},
+                {"type": "instance", "name": "boarding-permutation", "num_vars": 6, "degree": 3, "claim": 1}]
+    for _ in range(6):
+        payloads += writer_pair("goldilocks", rng, 4)
+    payloads.append({"type": "final", "value": struct.pack("<Q", 8)})
+    data = b"".join(msgpack.packb(payload, use_bin_type=True) for payload in payloads)
+    records: list[object] = []
+    unpacker = stream_bytes(Sequencer(), data, 1 << 20, records)
+    fed = Sequencer()
+    assert records == [fed.feed(payload) for payload in payloads]
+    assert unpacker.taken == 6 * pair_run(data, len(msgpack.packb(payloads[0])) + len(
+        msgpack.packb(payloads[1], use_bin_type=True)), 8, 6)[1].stride
 
 
 # ----- the glue: value, squeeze, opening and the instance keys ----------------------------------------------------

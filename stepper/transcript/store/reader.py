@@ -2,10 +2,11 @@
 
 :class:`EventStream` tells the two apart by content (the magic line, or a
 first non-space byte ``{``) and hands out event records one at a time. It holds
-at most one chunk, one event and a few hundred bytes awaiting the digest in
-memory, and refuses anything above its :class:`ReadLimits`. Every msgpack, JSON
-and OS failure becomes one :class:`TranscriptError` naming the file, the byte
-offset (or line), the event index, instance and round.
+at most one chunk (twice: the unpacker's copy, and the chunk itself, from which
+the hot loop decodes packed runs of rounds), one event and a few hundred bytes
+awaiting the digest in memory, and refuses anything above its :class:`ReadLimits`.
+Every msgpack, JSON and OS failure becomes one :class:`TranscriptError` naming
+the file, the byte offset (or line), the event index, instance and round.
 
 Truncation: msgpack's ``Unpacker`` ends iteration silently when the data stops
 inside an object, and its ``tell()`` then already points into that object
@@ -150,6 +151,8 @@ class EventStream:
 
     def _transcript(self, first: bytes) -> Iterator[Event]:
         self._msgpack = self._unpacker()
+        self._fed = 0  # bytes fed to the unpacker
+        self._window = (b"", 0)
         self._total = len(first)
         self._hash = HeldBackDigest(first)
         self._feed(first[len(MAGIC):])
@@ -177,6 +180,13 @@ class EventStream:
         except msgpack.BufferFull:
             raise TranscriptError(f"expected events of at most {self.limits.max_event_bytes} bytes, "
                                   "found a larger one", self.where.but(offset=self._offset())) from None
+        self._window = (data, self._fed)
+        self._fed += len(data)
+
+    def _last_fed(self) -> tuple[bytes, int]:
+        """The bytes last fed to the unpacker and the unpacker offset of their first byte
+        (the hot loop decodes packed runs of rounds from them: see :meth:`Sequencer.stream`)."""
+        return self._window
 
     def _refill(self) -> bool:
         """Feed the next chunk; False at the end of the file."""
@@ -213,7 +223,8 @@ class EventStream:
         """The hot loop (:meth:`Sequencer.stream`, refilling chunk by chunk), then the
         end event's checks; chained in C so no generator of ours sits between the
         consumer and the hot loop."""
-        body = self._seq.stream(self._msgpack, until="end", refill=self._refill, on_error=self._translate)
+        body = self._seq.stream(self._msgpack, until="end", refill=self._refill, on_error=self._translate,
+                                window=self._last_fed)
         return itertools.chain(body, self._tail())
 
     def _tail(self) -> Iterator[Event]:
