@@ -25,7 +25,7 @@ import pickle
 import signal
 import sys
 import threading
-from concurrent.futures import Future
+from concurrent.futures import Future, InvalidStateError
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -95,17 +95,29 @@ class WholeFileCheck:
         self._reaped = False
         self._lock = threading.Lock()
         if child_possible() if child is None else child:
-            self._start_child()
+            self.thread = self._start_child()  # the thread waiting for the child
         else:
-            threading.Thread(target=self._in_thread, name="stepper whole-file check", daemon=True).start()
+            self.thread = threading.Thread(target=self._in_thread, name="stepper whole-file check", daemon=True)
+            self.thread.start()
+
+    def _settle(self, result: WholeFile | None = None, error: BaseException | None = None) -> None:
+        """Hand over the outcome, unless whoever awaited it has given up (the app closed and
+        cancelled the future): then there is nobody to tell, and nothing to raise."""
+        try:
+            if error is not None:
+                self.future.set_exception(error)
+            else:
+                self.future.set_result(result)
+        except InvalidStateError:
+            pass  # cancelled
 
     def _in_thread(self) -> None:
         try:
-            self.future.set_result(check_whole_file(self.path))
+            self._settle(check_whole_file(self.path))
         except BaseException as err:  # noqa: BLE001 - handed to whoever awaits the future
-            self.future.set_exception(err)
+            self._settle(error=err)
 
-    def _start_child(self) -> None:
+    def _start_child(self) -> threading.Thread:
         read_end, write_end = os.pipe()
         pid = os.fork()
         if pid == 0:  # the child: check, send the summary, leave without the parent's clean-up
@@ -124,8 +136,10 @@ class WholeFileCheck:
                 os._exit(code)  # noqa: B012 - nothing of the parent's (atexit, buffers) runs twice
         os.close(write_end)
         self.pid = pid
-        threading.Thread(target=self._collect, args=(pid, read_end), name="stepper whole-file check",
-                         daemon=True).start()
+        thread = threading.Thread(target=self._collect, args=(pid, read_end), name="stepper whole-file check",
+                                  daemon=True)
+        thread.start()
+        return thread
 
     def _collect(self, pid: int, read_end: int) -> None:
         """Read the child's answer to the end, reap the child, and settle the future: None when
@@ -144,7 +158,7 @@ class WholeFileCheck:
                 except ChildProcessError:
                     pass  # already reaped by someone waiting for any child
                 self._reaped = True
-            self.future.set_result(result if isinstance(result, WholeFile) else None)
+            self._settle(result if isinstance(result, WholeFile) else None)
 
     def stop(self) -> None:
         """End a child still checking (the app closed first); a thread is left to finish."""

@@ -151,3 +151,14 @@ def test_nothing_the_child_writes_reaches_the_terminal(tmp_path, monkeypatch, ca
     assert WholeFileCheck(taken_file(tmp_path), child=True).future.result(timeout=WAIT) is None
     out, err = capfd.readouterr()
     assert "from the child" not in out + err
+
+
+@pytest.mark.parametrize("child", [True, False], ids=["child process", "thread"])
+def test_a_check_nobody_waits_for_any_more_ends_quietly(tmp_path, monkeypatch, child):
+    raised: list[object] = []
+    monkeypatch.setattr(whole_file.threading, "excepthook", raised.append)
+    check = WholeFileCheck(taken_file(tmp_path, mu=8), child=child)
+    check.future.cancel()  # what asyncio does to the future it wrapped when the app closes first
+    check.stop()
+    check.thread.join(WAIT)
+    assert not check.thread.is_alive() and raised == []  # no "Exception in thread" on the terminal
