@@ -12,8 +12,8 @@ child process (on the other core, so it neither waits for the paint nor slows it
 sends back the :class:`WholeFile` pickled through a pipe, a few hundred bytes whatever
 the size of the file; the child's standard output and error go to the null device (a
 stray line would land in the middle of the app's screen) and it leaves with ``os._exit``. Elsewhere
-(no ``fork``, another platform, threads already running) it runs in a thread of this
-process. Either way, a pass that declines (a file still being written, a failing block,
+(no ``fork``, another platform, threads already running, a fork refused) it runs in a
+thread of this process. Either way, a pass that declines (a file still being written, a failing block,
 notes waiting beside the file, anything odd) or a child that dies gives None, and the
 event-by-event read checks the file as before and names any failure.
 """
@@ -94,11 +94,13 @@ class WholeFileCheck:
         self.pid: int | None = None  # the child's process id (None: a thread)
         self._reaped = False
         self._lock = threading.Lock()
+        thread = None
         if child_possible() if child is None else child:
-            self.thread = self._start_child()  # the thread waiting for the child
-        else:
-            self.thread = threading.Thread(target=self._in_thread, name="stepper whole-file check", daemon=True)
-            self.thread.start()
+            thread = self._start_child()  # the thread waiting for the child; None if no child could start
+        if thread is None:
+            thread = threading.Thread(target=self._in_thread, name="stepper whole-file check", daemon=True)
+            thread.start()
+        self.thread = thread
 
     def _settle(self, result: WholeFile | None = None, error: BaseException | None = None) -> None:
         """Hand over the outcome, unless whoever awaited it has given up (the app closed and
@@ -117,9 +119,17 @@ class WholeFileCheck:
         except BaseException as err:  # noqa: BLE001 - handed to whoever awaits the future
             self._settle(error=err)
 
-    def _start_child(self) -> threading.Thread:
-        read_end, write_end = os.pipe()
-        pid = os.fork()
+    def _start_child(self) -> threading.Thread | None:
+        try:
+            read_end, write_end = os.pipe()
+        except OSError:
+            return None  # out of file descriptors: the thread checks instead
+        try:
+            pid = os.fork()
+        except OSError:  # no more processes or memory for one: the thread checks instead
+            os.close(read_end)
+            os.close(write_end)
+            return None
         if pid == 0:  # the child: check, send the summary, leave without the parent's clean-up
             code = 1
             try:

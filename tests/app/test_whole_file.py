@@ -162,3 +162,13 @@ def test_a_check_nobody_waits_for_any_more_ends_quietly(tmp_path, monkeypatch, c
     check.stop()
     check.thread.join(WAIT)
     assert not check.thread.is_alive() and raised == []  # no "Exception in thread" on the terminal
+
+
+def test_a_refused_fork_leaves_the_check_to_a_thread(tmp_path, monkeypatch):
+    def refused() -> int:
+        raise BlockingIOError(11, "Resource temporarily unavailable")  # fork(2)'s EAGAIN
+
+    monkeypatch.setattr(whole_file.os, "fork", refused)
+    path = taken_file(tmp_path)
+    check = WholeFileCheck(path, child=True)
+    assert check.pid is None and check.future.result(timeout=WAIT) == check_whole_file(path)
