@@ -11,11 +11,13 @@ Where it runs: on Linux, in a process that has one thread, the pass runs in a fo
 child process (on the other core, so it neither waits for the paint nor slows it) and
 sends back the :class:`WholeFile` pickled through a pipe, a few hundred bytes whatever
 the size of the file; the child's standard output and error go to the null device (a
-stray line would land in the middle of the app's screen) and it leaves with ``os._exit``. Elsewhere
-(no ``fork``, another platform, threads already running, a fork refused) it runs in a
-thread of this process. Either way, a pass that declines (a file still being written, a failing block,
-notes waiting beside the file, anything odd) or a child that dies gives None, and the
-event-by-event read checks the file as before and names any failure.
+stray line would land in the middle of the app's screen) and it leaves with
+``os._exit``. Elsewhere (no ``fork``, another platform, threads already running, a fork
+refused) it runs in a thread of this process. Either way, a pass that declines (a file
+still being written, a failing block, notes waiting beside the file, anything odd) or a
+child that dies gives None, and the event-by-event read checks the file as before and
+names any failure. An outcome nobody waits for any more (the app closed first) is
+dropped quietly.
 """
 
 from __future__ import annotations
