@@ -7,10 +7,10 @@ in ``--repeat`` rounds (best of each), in this process, CPU seconds:
 
 * replay: ``open_events`` + ``Replay(keep_rounds=True).feed`` of every record and the report
   (what the app's model hands its records to);
-* app: ``TranscriptSource.open`` (the model fed every record, the replay inside it) and
-  ``report()``, which takes the link and evaluation results and re-derives every squeeze
-  (the squeeze shadow), then the panels of one instance: its rows, the readout of its round 0
-  and last round, and 50 strip lines.
+* app: ``TranscriptSource.open`` (the model fed every record, the replay inside it, whose
+  squeeze results it keeps) and ``report()``, which takes the link and evaluation results,
+  then the panels of one instance: its rows, the readout of its round 0 and last round, and
+  50 strip lines.
 
 Prints app/replay for each file (what the model adds, glue view included) and glue/plain
 for each path.

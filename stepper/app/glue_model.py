@@ -7,11 +7,10 @@ the model reads, in stream order, and keeps them by the instance they follow
 * ``link`` and ``evaluation`` are the replay's own :class:`~stepper.verify.verdict.GlueResult`
   records, taken from its report (:meth:`GlueTrail.settle`); nothing here evaluates
   an expression or compares a claim.
-* A squeeze's re-derived value comes from the replay's challenge source
-  (:class:`~stepper.verify.challenges.ChallengeSource`, the built-in schedule), run a
-  second time over the same records in the same order (:class:`SqueezeShadow`), because
-  the replay reports a squeeze only when it fails, and only an instance's first failure.
-  Sent and re-derived are compared element by element, as the replay compares them.
+* A squeeze's re-derived value and status are the replay's own
+  :class:`~stepper.verify.verdict.SqueezeResult`, one per squeeze in stream order, as the
+  replay's ``feed`` returns them (:meth:`GlueTrail.took`); nothing here re-derives a
+  squeeze.
 
 Where a glue check sits (the positions ``check`` reports): ``link`` at round 0 of
 its instance; ``evaluation`` at the instance's last round; a ``squeeze`` at the
@@ -23,17 +22,15 @@ glue failure sits there.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Iterable
 
-from stepper.transcript.model import (
-    BatchDecl, ChallengeMsg, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl, Squeeze,
-)
+from stepper.transcript.model import NamedValue, Opening, Squeeze
 
 if TYPE_CHECKING:
-    from stepper.field.field import Element, Field
-    from stepper.transcript.model import Event, Glue
+    from stepper.transcript.model import Glue
+    from stepper.verify.verdict import SqueezeResult
 
-__all__ = ["GlueTrail", "SqueezeCheck", "SqueezeShadow", "GLUE_KINDS", "glue_kind", "names_in"]
+__all__ = ["GlueTrail", "SqueezeCheck", "GLUE_KINDS", "glue_kind", "names_in"]
 
 Position = tuple[int, int]
 
@@ -64,46 +61,6 @@ class SqueezeCheck:
     position: Position
 
 
-class SqueezeShadow:
-    """The replay's challenge source, advanced over the model's records only when asked
-    (a proof without squeezes never pays for it): it answers each squeeze's re-derived
-    value, in stream order. The calls mirror :class:`stepper.verify.replay.Replay`."""
-
-    def __init__(self) -> None:
-        from stepper.verify.challenges import ChallengeSource
-
-        self.source = ChallengeSource(None, None, 0)
-        self.read = 0  # records consumed
-        self.derived: list[Any] = []  # one per squeeze, in stream order
-        self._pending_batch = False
-
-    def advance(self, records: Sequence[Event]) -> None:
-        source = self.source
-        for record in records[self.read:]:
-            cls = record.__class__
-            if cls is RoundMsg or cls is NamedValue or cls is Opening:
-                source.observe(record)
-            elif cls is ChallengeMsg and source.schedule is not None:
-                source.schedule.challenge()  # the replay re-derives every round's challenge in turn
-            elif cls is Squeeze:
-                self.derived.append(source.squeeze(record))  # type: ignore[arg-type]
-                source.observe(record)
-            elif cls is InstanceStart:
-                source.before_statement()
-                source.start_instance(has_batch=self._pending_batch or record.batch is not None)  # type: ignore[union-attr]
-                self._pending_batch = False
-                source.observe(record)
-            elif cls is BatchDecl:
-                source.before_statement()
-                self._pending_batch = True
-                source.observe(record)
-            elif cls is FieldDecl:
-                source.set_field(record.field)  # type: ignore[union-attr]
-            elif cls is ScheduleDecl:
-                source.declare(record)  # type: ignore[arg-type]
-        self.read = len(records)
-
-
 class GlueTrail:
     """Glue records by the instance they follow, and the replay's glue verdicts."""
 
@@ -114,8 +71,7 @@ class GlueTrail:
         self.squeezes: list[tuple[Squeeze, Position]] = []
         self.link: dict[int, Any] = {}  # instance -> GlueResult
         self.evaluation: dict[int, Any] = {}
-        self._shadow: SqueezeShadow | None = None
-        self._checks: list[SqueezeCheck] = []
+        self._checks: list[SqueezeCheck] = []  # one per squeeze the replay has checked, in stream order
 
     # ----- growing -----------------------------------------------------------------
     def opened(self) -> None:
@@ -147,26 +103,22 @@ class GlueTrail:
                     failed.append(((summary.index, evaluation.round), "evaluation"))
         return failed
 
-    def failures(self, report: Any, field: Field | None, records: Sequence[Event]) -> list[tuple[Position, str]]:
+    def took(self, result: SqueezeResult) -> None:
+        """The replay's result for the next squeeze in stream order."""
+        record, position = self.squeezes[len(self._checks)]
+        self._checks.append(SqueezeCheck(record, result.expected, result.status, position))
+
+    def failures(self, report: Any) -> list[tuple[Position, str]]:
         """Every failed glue check (position and check): the report's links and evaluations and
         the squeezes re-derived, in stream order at one place: a squeeze sent before the
         instance, its link; the evaluation once the openings are in, then squeezes sent after."""
-        squeezes = [(c.position, "squeeze") for c in self.squeeze_checks(field, records) if c.status == "fail"]
+        squeezes = [(c.position, "squeeze") for c in self._checks if c.status == "fail"]
         early = [s for s in squeezes if s[0][1] == 0]
         return early + self.settle(report) + [s for s in squeezes if s[0][1] != 0]
 
-    def squeeze_checks(self, field: Field | None, records: Sequence[Event]) -> list[SqueezeCheck]:
-        """Every squeeze so far with its re-derived value and status (the shadow catches up)."""
-        if len(self._checks) == len(self.squeezes) or field is None:
-            return self._checks
-        if self._shadow is None:
-            self._shadow = SqueezeShadow()
-        self._shadow.advance(records)
-        checks = []
-        for (record, position), derived in zip(self.squeezes, self._shadow.derived):
-            checks.append(SqueezeCheck(record, derived, _squeeze_status(field, record, derived), position))
-        self._checks = checks
-        return checks
+    def squeeze_checks(self) -> list[SqueezeCheck]:
+        """Every squeeze the replay has checked so far, with its re-derived value and status."""
+        return self._checks
 
     # ----- questions ---------------------------------------------------------------
     def following(self, instance: int) -> list[Glue]:
@@ -176,11 +128,3 @@ class GlueTrail:
         """The latest record of each name that has arrived, in the order given."""
         return [self.by_name[n] for n in names if n in self.by_name]
 
-
-def _squeeze_status(field: Field, record: Squeeze, derived: Any) -> str:
-    if derived is None:
-        return "unchecked"
-    sent: tuple[Element, ...] = record.items()
-    want = tuple(derived) if record.listed else (derived,)
-    same = len(sent) == len(want) and all(field.lift(s) == field.lift(d) for s, d in zip(sent, want))
-    return "pass" if same else "fail"

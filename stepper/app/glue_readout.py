@@ -43,7 +43,7 @@ def _derived(field: Field, derived: Any) -> str:
 
 def _record_lines(model: ProofModel, field: Field, records: Iterable[Glue]) -> list[Line]:
     """One line per record (kind, name, value as sent); a squeeze adds what the schedule re-derives."""
-    checks = {id(c.record): c for c in model.glue.squeeze_checks(field, model.records)}
+    checks = {id(c.record): c for c in model.glue.squeeze_checks()}
     lines = []
     for record in records:
         kind = glue_kind(record)
@@ -81,7 +81,7 @@ def failed_here(model: ProofModel, index: int, number: int) -> list[Line]:
             lines.append(Line("evaluation", f"✕ fail: final_expr gives {field.fmt(result.expected)}, the reduced "
                                             f"claim is {field.fmt(result.found)} (below)", "bad"))
         elif check == "squeeze":
-            for squeeze in model.glue.squeeze_checks(field, model.records):
+            for squeeze in model.glue.squeeze_checks():
                 if squeeze.position == (index, number) and squeeze.status == "fail":
                     lines.append(Line("squeeze", f"✕ fail: {squeeze.record.name} = {_shown(field, squeeze.record)} "
                                                  f"sent, {_derived(field, squeeze.derived)} re-derived (below)", "bad"))

@@ -210,6 +210,8 @@ class ProofModel:
     def _take(self, result: Any) -> None:
         self.generation += 1
         kind = type(result).__name__
+        if kind == "SqueezeResult":  # re-derived and compared by the replay, kept in stream order
+            self.glue.took(result)
         index = getattr(result, "instance", None)
         if not isinstance(index, int) or not 0 <= index < len(self.instances):
             return
@@ -242,7 +244,7 @@ class ProofModel:
     def _settle_glue(self, report: Any) -> None:
         """The replay's link and evaluation verdicts, and the squeezes re-derived: their
         failures join the list (at the positions `stepper check` reports them)."""
-        for (index, number), check in self.glue.failures(report, self.field, self._records):
+        for (index, number), check in self.glue.failures(report):
             if 0 <= index < len(self.instances):
                 view = self.instances[index]
                 if not view.glue_failed:

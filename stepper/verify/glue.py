@@ -31,7 +31,7 @@ from stepper.field.expr import Expr, GlueScope, parse_cached
 from stepper.field.poly import lagrange_at, point_from_challenges
 from stepper.transcript.model import NamedValue, Opening, Squeeze
 
-from stepper.verify.verdict import Failure, GlueResult
+from stepper.verify.verdict import Failure, GlueResult, SqueezeResult
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
@@ -232,19 +232,25 @@ class GlueDesk:
             self.evaluate(field, live, ledger)
 
     def take(self, field: Field, record: NamedValue | Squeeze | Opening, derived: Any, deriver: str,
-             live: LiveInstance | None, ledger: InstanceLedger) -> None:
+             live: LiveInstance | None, ledger: InstanceLedger) -> SqueezeResult | None:
         """A value, squeeze (``derived``: the schedule's value, or None) or opening: compared,
-        kept for the expressions; an evaluation waiting for it is settled."""
-        if isinstance(record, Squeeze) and derived is not None:
-            self._check_squeeze(field, record, derived, deriver, live, ledger)
+        kept for the expressions; an evaluation waiting for it is settled. A squeeze's
+        result (sent, re-derived, status) is returned."""
+        result = None
+        if isinstance(record, Squeeze):
+            result = self._check_squeeze(field, record, derived, deriver, live, ledger)
         self.book.add(record)
         if live is not None and isinstance(record, Opening) and record.instance == live.start.index:
             live.openings.append(record)
         if live is not None and live.awaiting:
             self.evaluate(field, live, ledger)
+        return result
 
     def _check_squeeze(self, field: Field, record: Squeeze, derived: Any, deriver: str, live: LiveInstance | None,
-                       ledger: InstanceLedger) -> None:
+                       ledger: InstanceLedger) -> SqueezeResult:
+        where = (live.start.index, live.seen) if live is not None else (None, 0)
+        if derived is None:
+            return SqueezeResult(where[0], record.name, where[1], record.value, None, "unchecked")
         sent, want = record.items(), (derived if record.listed else (derived,))
         for i, (s, d) in enumerate(zip(sent, want)):
             if field.lift(s) != field.lift(d):
@@ -256,7 +262,8 @@ class GlueDesk:
                     ledger.fail(live, Failure(start.index, start.name, live.seen, "squeeze", d, s, text))
                 else:
                     self.held.append(Failure(0, "", 0, "squeeze", d, s, text))
-                return
+                return SqueezeResult(where[0], record.name, where[1], record.value, derived, "fail")
+        return SqueezeResult(where[0], record.name, where[1], record.value, derived, "pass")
 
     def evaluate(self, field: Field | None, live: LiveInstance, ledger: InstanceLedger) -> None:
         """The ``evaluation`` check once every value final_expr names has arrived (else it waits)."""

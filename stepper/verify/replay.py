@@ -245,7 +245,9 @@ class Replay:
         if isinstance(record, Squeeze):
             derived = self._source.squeeze(record, Where(instance=live.start.name) if live is not None else Where())
         self._source.observe(record)
-        self._glue.take(self._need_field(), record, derived, self._source.deriver(), live, self._ledger)
+        squeezed = self._glue.take(self._need_field(), record, derived, self._source.deriver(), live, self._ledger)
+        if squeezed is not None and (self.emit_passing or squeezed.status == "fail"):
+            out.append(squeezed)
         return out
 
     def _on_round(self, msg: RoundMsg) -> list[Result]:

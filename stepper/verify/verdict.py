@@ -24,6 +24,7 @@ __all__ = [
     "FinalResult",
     "BatchResult",
     "GlueResult",
+    "SqueezeResult",
     "Result",
     "Failure",
     "Finding",
@@ -125,7 +126,22 @@ class GlueResult:
     explanation: str = ""
 
 
-Result = Union[RoundResult, FinalResult, BatchResult]
+@dataclass(frozen=True, slots=True)
+class SqueezeResult:
+    """A ``squeeze`` as sent (``found``: an element, or a tuple for a list) and as the challenge
+    source re-derives it (``expected``, the same shape; None when nothing re-derives it, status
+    ``unchecked``). ``instance`` is the instance it follows (None before the first) and ``round``
+    the rounds that instance had when it arrived."""
+
+    instance: int | None
+    name: str
+    round: int
+    found: Any
+    expected: Any
+    status: str  # pass, fail or unchecked
+
+
+Result = Union[RoundResult, FinalResult, BatchResult, SqueezeResult]
 
 
 @dataclass(frozen=True, slots=True)

@@ -21,7 +21,6 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the JSON contract helper
 from json_contracts import conforming  # noqa: E402
 from proofs import SHIPPED, bump_squeeze, glued_events  # noqa: E402
 
-from stepper.app.glue_model import SqueezeShadow  # noqa: E402
 from stepper.app.proof_model import ProofModel  # noqa: E402
 from stepper.app.round_rows import EVALUATION_MARK, LINK_MARK  # noqa: E402
 from stepper.app.source import TranscriptSource, new_model  # noqa: E402
@@ -123,7 +122,7 @@ def test_every_glue_check_of_an_honest_chain_passes_with_the_replays_values(tmp_
         assert (str(link.expected), str(link.found), link.status) == (
             summary["link"]["expected"], summary["link"]["found"], "pass")
         assert (str(evaluation.expected), evaluation.status) == (summary["evaluation"]["expected"], "pass")
-    checks = model.glue.squeeze_checks(model.field, model.records)
+    checks = model.glue.squeeze_checks()
     assert [c.status for c in checks] == ["pass"] * 3
     assert [c.derived for c in checks] == [c.record.value for c in checks]
 
@@ -132,26 +131,27 @@ def test_a_squeeze_sent_wrong_shows_the_value_the_schedule_derives_which_check_e
     path = glued_events(tmp_path / "p.jsonl", "gkr-product", retouch=bump_squeeze(1))
     doc, _ = checked(path, capsys)
     model = opened(path)
-    wrong = [c for c in model.glue.squeeze_checks(model.field, model.records) if c.status == "fail"]
+    wrong = [c for c in model.glue.squeeze_checks() if c.status == "fail"]
     assert len(wrong) == 1
     assert (str(wrong[0].derived), str(wrong[0].record.value)) == (
         doc["first_failure"]["expected"], doc["first_failure"]["found"])
 
 
-def test_the_squeeze_shadow_absorbs_exactly_what_the_replay_absorbs_event_by_event():
-    """Were the shadow to miss or add one absorb, every later draw would differ from the replay's."""
+def test_every_squeeze_shown_is_the_replays_own_result_in_stream_order():
+    """The model re-derives nothing: each squeeze's value and status are the replay's."""
+    from stepper.transcript.model import Squeeze
     from stepper.verify.replay import Replay
+    from stepper.verify.verdict import SqueezeResult
 
     model = opened(SHIPPED / "ferries-fingerprint.sumtr")
     records = [r for r in model.records if type(r).__name__ != "Note"]
-    replay, shadow = Replay(keep_rounds=True), SqueezeShadow()
-    states = []
-    for count, record in enumerate(records, start=1):
-        replay.feed(record)
-        shadow.advance(records[:count])
-        if replay.schedule is not None:
-            states.append(replay.schedule.state_digest() == shadow.source.schedule.state_digest())
-    assert len(states) > 30 and all(states)
+    replay = Replay(keep_rounds=True)
+    results = [r for record in records for r in replay.feed(record) if isinstance(r, SqueezeResult)]
+    checks = model.glue.squeeze_checks()
+    assert len(checks) == len(results) == sum(isinstance(r, Squeeze) for r in records) > 0
+    assert [c.record.name for c in checks] == [r.name for r in results]
+    assert [(c.derived, c.status) for c in checks] == [(r.expected, r.status) for r in results]
+    assert all(c.status == "pass" for c in checks)
 
 
 def test_a_linked_instance_has_a_round_0_row_and_its_last_round_carries_the_evaluation():

@@ -274,6 +274,45 @@ def test_a_squeeze_the_schedule_does_not_derive_fails_check_squeeze_naming_it(tm
     assert "'alpha'" in report["first_failure"]["explanation"]
 
 
+def _squeeze_results(events: list[dict], **replay_options: object) -> list:
+    """The squeeze results the replay's ``feed`` returns for a stream of events, in order."""
+    from stepper.transcript.events import Sequencer
+    from stepper.verify.replay import Replay
+    from stepper.verify.verdict import SqueezeResult
+
+    seq, replay = Sequencer(), Replay(**replay_options)  # type: ignore[arg-type]
+    out = []
+    for event in events:
+        out += [r for r in replay.feed(seq.feed(event)) if isinstance(r, SqueezeResult)]
+    return out
+
+
+def test_the_replay_returns_every_squeeze_as_sent_and_as_re_derived_with_its_status():
+    import io
+
+    from stepper.provers.channel import JsonLinesSink, ProofChannel
+
+    stream = io.StringIO()
+    channel = ProofChannel(get_field(P), JsonLinesSink(stream), label="isle-of-quill-0740")
+    channel.value("tau", [1, 2])
+    alpha = channel.squeeze("alpha")
+    channel.start_instance("deck", 1, 1, 6)
+    channel.send_round([2, 4])
+    channel.squeeze("gamma")
+    events = [json.loads(line) for line in stream.getvalue().splitlines()]
+    (first, second) = _squeeze_results(events, keep_rounds=True)
+    assert (first.name, first.instance, first.round, first.status) == ("alpha", None, 0, "pass")
+    assert first.expected == first.found == alpha
+    assert (second.name, second.instance, second.round, second.status) == ("gamma", 0, 1, "pass")
+    assert _squeeze_results(events, emit_passing=False) == []  # a summary replay returns only failures
+    bumped = [dict(e, value=(e["value"] + 1) % P) if e.get("name") == "alpha" else e for e in events]
+    (wrong,) = _squeeze_results(bumped, emit_passing=False)
+    assert (wrong.status, wrong.expected, wrong.found) == ("fail", alpha, (alpha + 1) % P)
+    unscheduled = [e for e in events if e["type"] != "schedule"]
+    assert [(r.status, r.expected) for r in _squeeze_results(unscheduled, keep_rounds=True)] == [
+        ("unchecked", None), ("unchecked", None)]
+
+
 def test_point_and_final_of_an_earlier_instance_feed_a_later_claim(tmp_path, capsys):
     zc = ZeroCheck(2, seed=9)
     events = zero_check_events(zc)
