@@ -7,6 +7,9 @@ galois library (an independent finite-field implementation).
 
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
 from functools import lru_cache
 from typing import Any
 
@@ -330,6 +333,44 @@ def test_numpy_only_switch_turns_the_compiled_loops_off(monkeypatch):
     kernel = kernel_for(named("goldilocks"), compiled_min=0)
     a = kernel.array([2**63, 5])
     assert kernel.to_list(kernel.mul(a, a)) == [2**126 % kernel.p, 25]
+
+
+def test_held_back_packages_import_as_missing_inside_the_block_and_normally_after(tmp_path, monkeypatch):
+    (tmp_path / "heldprobe").mkdir()
+    (tmp_path / "heldprobe" / "__init__.py").write_text("VALUE = 7\n")
+    (tmp_path / "heldprobe" / "inner.py").write_text("VALUE = 8\n")
+    monkeypatch.syspath_prepend(str(tmp_path))
+    with kernel_base.held_back(("heldprobe",)):
+        with pytest.raises(ModuleNotFoundError, match="held back"):
+            import heldprobe.inner  # noqa: F401
+        import json  # a package not named stays importable
+
+        assert json.loads("1") == 1
+    import heldprobe.inner
+
+    assert heldprobe.inner.VALUE == 8
+    with kernel_base.held_back(("heldprobe",)):  # already imported: still usable inside
+        import heldprobe
+
+        assert heldprobe.VALUE == 7
+    monkeypatch.delitem(sys.modules, "heldprobe")
+    monkeypatch.delitem(sys.modules, "heldprobe.inner")
+
+
+def test_loading_the_compiled_loops_imports_neither_scipy_nor_cffi():
+    # numba reaches for both on its first call; a fresh process shows whether they were held back
+    pytest.importorskip("numba")
+    code = ("import sys\n"
+            "from stepper.field.kernels.base import load_compiled\n"
+            "compiled = load_compiled()\n"
+            "import numpy as np\n"
+            "a = np.array([5, 6], dtype=np.uint64)\n"
+            "product = compiled.small_mul(a, a, np.uint64(7), 1.0 / 7, np.empty_like(a))\n"
+            "print(compiled is not None, product.tolist(), 'scipy.linalg' in sys.modules, 'cffi' in sys.modules)\n")
+    env = {k: v for k, v in os.environ.items() if k != "STEPPER_KERNELS"}
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["True", "[4,", "1]", "False", "False"]  # 25 mod 7 = 4, 36 mod 7 = 1
 
 
 @pytest.mark.parametrize("label", ["babybear^4", "koalabear^4", "mersenne31^4", "babybear-dense^4", "babybear^3",

@@ -35,6 +35,7 @@ __all__ = [
     "word_mul",
     "word_add",
     "word_sub",
+    "first_call",
 ]
 
 _ZERO = np.uint64(0)
@@ -324,3 +325,11 @@ def word_sub(a: np.ndarray, b: np.ndarray, p: np.uint64, out: np.ndarray) -> np.
         d = a[i] - b[i]
         out[i] = d + p if a[i] < b[i] else d
     return out
+
+
+def first_call() -> None:
+    """Run one loop on one entry: numba loads its typing and lowering registries on the first
+    call in a process, which :func:`stepper.field.kernels.base.load_compiled` wants done while
+    it holds numba's optional packages back."""
+    one = np.ones(1, dtype=np.uint64)
+    small_add(one, one, np.uint64(3), np.empty_like(one))
