@@ -17,9 +17,13 @@ Which entries make a piece (n entries, W = n / 2^L, piece = rows [b, b + R) of t
   side by side (2^L ranges); the high-first kernels on that piece pair exactly the
   entries the whole tables would pair, round after round.
 
-A low-first piece is laid out once per round as its even entries, then its odd ones, and
-folded by the half-pairing (high-first) kernels: the same pairs and the same order of the
-result, with both halves contiguous for the compiled kernels.
+A low-first piece is laid out once, as it is read, so that the half-pairing (high-first)
+kernels pair exactly the low-first pairs in every one of its L rounds, with both halves
+contiguous for the compiled kernels: entry 2^L r + s of the piece (r < R, s < 2^L) goes to
+row rev(s) R + r, where rev reverses the L bits of s. Round 1 pairs s and s + 1 (s even),
+whose rev differ in the top bit only, so they sit half the piece apart; the fold leaves
+pair s / 2 at row rev(s) R + r of the first half, which is the same layout for L - 1 bits;
+after L folds row r holds entry r of the tables folded L times, in order.
 
 With ``chunk`` entries per piece (any count of at least 2; a piece need not divide n), L
 and R are chosen so that a piece has at most ``chunk`` entries and the tables left after
@@ -39,8 +43,8 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Mapping, Sequence
 import numpy as np
 
 from stepper.errors import InputError
-from stepper.diagnose.honest import HonestRound, _check_tables, fold, honest_rounds, round_share
-from stepper.diagnose.stored_table import StoredTable, table_rows, whole_table
+from stepper.diagnose.honest import HonestRound, _check_tables, fold, honest_rounds, round_share, share_and_fold
+from stepper.diagnose.stored_table import StoredTable, bit_reversed, table_rows, whole_table
 from stepper.field.poly import check_point_length, mle_eval
 
 if TYPE_CHECKING:
@@ -135,17 +139,20 @@ def _one_pass(field: Field, tables: Mapping[str, Any], expr: Expr | None, challe
         stop = min(start + plan.rows, width)
         piece = {name: _piece(table, order, levels, width, start, stop) for name, table in tables.items()}
         for k in range(1, max(rounds, folds) + 1):
-            if order == "low-first" and k > 1:  # pairs (2i, 2i + 1) moved to (i, i + m/2), as _piece does
-                piece = {name: _split_pairs(arr) for name, arr in piece.items()}
-            if k <= rounds:
+            share: tuple[Element, ...] | None = None
+            if k <= rounds and k <= folds:
+                assert expr is not None
+                share, piece = share_and_fold(field, piece, expr, num_points, challenges[k - 1])
+            elif k <= rounds:
                 assert expr is not None
                 share = round_share(field, piece, expr, num_points, "high-first")
+            elif k <= folds:
+                piece = fold(field, piece, challenges[k - 1], "high-first", in_place=True)
+            if share is not None:
                 if len(sums) < k:
                     sums.append(share)
                 else:
                     sums[k - 1] = tuple(field.add(a, b) for a, b in zip(sums[k - 1], share))
-            if k <= folds:
-                piece = fold(field, piece, challenges[k - 1], "high-first", in_place=True)
         if left is not None:
             for name, arr in piece.items():
                 if name not in left:
@@ -156,22 +163,12 @@ def _one_pass(field: Field, tables: Mapping[str, Any], expr: Expr | None, challe
     return sums, left
 
 
-def _split_pairs(arr: np.ndarray) -> np.ndarray:
-    """Entries 0, 2, 4, ... then 1, 3, 5, ...: the low-first pairs of ``arr`` as the halves that the
-    high-first kernels pair, each contiguous (the kernels would otherwise copy every strided half
-    once per use); folding that layout high-first gives the low-first fold in its own order."""
-    half = len(arr) // 2
-    out = np.empty_like(arr)
-    out[:half] = arr[0::2]
-    out[half:] = arr[1::2]
-    return out
-
-
 def _piece(table: Any, order: str, levels: int, width: int, start: int, stop: int) -> np.ndarray:
     """The entries that rows [start, stop) of ``table`` folded ``levels`` times depend on, in the
-    layout the half-pairing kernels fold (module docstring)."""
-    if order == "low-first":  # already laid out as the pairs' halves (see _split_pairs)
+    layout the half-pairing kernels fold (module docstring): low-first one range, its entry
+    2^L r + s at row rev(s) R + r; high-first 2^L ranges side by side."""
+    if order == "low-first":
         if isinstance(table, StoredTable):
-            return table.rows_split(start << levels, stop << levels)
-        return _split_pairs(table[start << levels:stop << levels])
+            return table.rows_bit_reversed(start << levels, stop << levels, levels)
+        return bit_reversed(table[start << levels:stop << levels], levels)
     return np.concatenate([table_rows(table, s * width + start, s * width + stop) for s in range(1 << levels)])

@@ -27,7 +27,7 @@ from stepper.errors import WitnessError, Where
 if TYPE_CHECKING:
     from stepper.field.field import Field
 
-__all__ = ["StoredTable", "stored_table", "table_rows", "whole_table", "SCAN_ROWS"]
+__all__ = ["StoredTable", "stored_table", "bit_reversed", "table_rows", "whole_table", "SCAN_ROWS"]
 
 SCAN_ROWS = 1 << 18  # rows checked at once when a table is admitted
 
@@ -77,14 +77,10 @@ class StoredTable:
         self._release(start, stop)
         return out
 
-    def rows_split(self, start: int, stop: int) -> np.ndarray:
-        """Rows [start, stop) (an even count) as :meth:`rows` gives them, but laid out as rows start,
-        start + 2, ... then start + 1, start + 3, ...: converted and reordered in one copy."""
-        part = self.words[start:stop]
-        half = len(part) // 2
-        out = np.empty(part.shape, dtype=np.uint64)
-        out[:half] = part[0::2]
-        out[half:] = part[1::2]
+    def rows_bit_reversed(self, start: int, stop: int, bits: int) -> np.ndarray:
+        """Rows [start, stop) laid out as :func:`bit_reversed` lays them out, converted on the way
+        (one copy); their mapped pages are released."""
+        out = bit_reversed(self.words[start:stop], bits, np.uint64)
         self._release(start, stop)
         return out
 
@@ -150,6 +146,18 @@ def stored_table(field: Field, words: np.ndarray, table: str, where: Where) -> S
                 f"{index}", where)
         result._release(start, stop)
     return result
+
+
+def bit_reversed(rows: np.ndarray, bits: int, dtype: Any = None) -> np.ndarray:
+    """A new C-contiguous array (of ``dtype``, default that of ``rows``) whose row rev(s) R + r is
+    row 2^bits r + s of ``rows`` (s < 2^bits, R = len(rows) / 2^bits), rev(s) being s with its
+    ``bits`` bits reversed. One copy: with s split into its bits as axes of length 2, reversing
+    them is a transposition."""
+    groups = rows.reshape(len(rows) >> bits, *([2] * bits), *rows.shape[1:])  # axes r, s_(bits-1), ..., s_0
+    axes = (*range(bits, 0, -1), 0, *range(bits + 1, groups.ndim))  # s_0, ..., s_(bits-1), r
+    out = np.empty(groups.transpose(axes).shape, dtype=rows.dtype if dtype is None else dtype)
+    out[...] = groups.transpose(axes)
+    return out.reshape(rows.shape)
 
 
 def table_rows(table: Any, start: int, stop: int) -> np.ndarray:

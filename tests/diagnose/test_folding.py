@@ -85,6 +85,17 @@ def test_honest_rounds_equal_the_in_memory_ones_for_every_chunk_and_any_number_o
     assert sum(isinstance(item, HonestRound) for item in got) == min(given + 1, mu)
 
 
+@pytest.mark.parametrize("order", ["low-first", "high-first"])
+def test_honest_rounds_over_python_integer_entries_equal_the_in_memory_ones(order: str) -> None:
+    # BN254 tables are object arrays of Python ints: the pieces keep them so, in either layout
+    field = get_field(NAMED_PRIMES["bn254"])
+    tables = _tables(field, 8)
+    challenges = [field.random(random.Random(3)) for _ in range(8)]
+    expr = parse("ledger*scans*tolls")
+    expected = list(honest_rounds(field, tables, expr, challenges, order, 4))
+    assert list(ChunkedFold(16).honest_rounds(field, tables, expr, challenges, order, 4)) == expected
+
+
 @pytest.mark.parametrize("name", sorted(FIELDS))
 @pytest.mark.parametrize("order", ["low-first", "high-first"])
 @pytest.mark.parametrize("fault", [None, Fault("negate-value", 2, 1), Fault("negate-value", 7, 2),

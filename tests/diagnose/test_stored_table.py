@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 import stepper.diagnose.stored_table as stored_module
-from stepper.diagnose.stored_table import StoredTable, stored_table, table_rows, whole_table
+from stepper.diagnose.stored_table import StoredTable, bit_reversed, stored_table, table_rows, whole_table
 from stepper.errors import WitnessError, Where
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
 
@@ -35,7 +35,15 @@ def test_rows_and_the_whole_table_are_the_stored_words_as_canonical_uint64(tmp_p
     assert part.dtype == np.uint64 and part.flags.c_contiguous
     assert part.tolist() == words[10:17].tolist()
     assert table.part(500, 1000).rows(0, 3).tolist() == words[500:503].tolist()
-    assert table.rows_split(20, 26).tolist() == words[[20, 22, 24, 21, 23, 25]].tolist()
+    # rows 16..31 as 2 groups (r) of 8 (s = 0..7, 3 bits): row rev(s) 2 + r is row 16 + 8 r + s, where
+    # rev = 0, 4, 2, 6, 1, 5, 3, 7 (s written in 3 bits, read backwards)
+    spread = table.rows_bit_reversed(16, 32, 3)
+    assert spread.dtype == np.uint64 and spread.flags.c_contiguous
+    want = [16 + 8 * r + s for s in (0, 4, 2, 6, 1, 5, 3, 7) for r in (0, 1)]
+    assert spread.tolist() == words[want].tolist()
+    assert bit_reversed(words[16:32], 0).tolist() == words[16:32].tolist()
+    big = np.array([2**200 + i for i in range(8)], dtype=object)  # BN254-sized entries keep their type
+    assert bit_reversed(big, 2).tolist() == [2**200 + i for i in (0, 4, 2, 6, 1, 5, 3, 7)]
     assert whole_table(table).tolist() == words.tolist()
     memory = BABYBEAR.vec([1, 2, 3])
     assert table_rows(memory, 1, 3).tolist() == [2, 3] and whole_table(memory) is memory

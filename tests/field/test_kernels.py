@@ -373,6 +373,23 @@ def test_loading_the_compiled_loops_imports_neither_scipy_nor_cffi():
     assert out.stdout.split() == ["True", "[4,", "1]", "False", "False"]  # 25 mod 7 = 4, 36 mod 7 = 1
 
 
+@pytest.mark.parametrize("label", ["babybear^4", "babybear-dense^4", "babybear^3", "goldilocks^2"])
+def test_a_vector_times_a_single_row_is_every_entry_times_that_scalar_on_both_sides(label):
+    # the unrolled k = 4 loops read a one-row operand in place of n copies of it; the others broadcast
+    field = field_by_label(label)
+    p, k = field.p, field.degree
+    rng = np.random.default_rng(k)
+    rows = [tuple(int(c) for c in rng.integers(0, p, size=k, dtype=np.uint64)) for _ in range(37)]
+    rows[0] = tuple([p - 1] * k)
+    scalar = tuple([p - 1] * (k - 1) + [p - 2])
+    want = [python_mul(field, x, scalar) for x in rows]  # reference: plain Python integers
+    for kernel in kernels_of(field):
+        vector, single = kernel.array(rows), kernel.array([scalar])
+        assert kernel.to_list(kernel.mul(vector, single)) == want
+        assert kernel.to_list(kernel.mul(single, vector)) == want
+        assert kernel.to_list(kernel.scale(vector, scalar)) == want
+
+
 @pytest.mark.parametrize("label", ["babybear^4", "koalabear^4", "mersenne31^4", "babybear-dense^4", "babybear^3",
                                    "p32^4"])
 def test_extension_products_of_the_largest_coefficients_match_python_integers(label):

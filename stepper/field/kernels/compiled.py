@@ -6,7 +6,8 @@ function is ``njit(cache=True)``: the first run on a machine compiles (about a
 second), later processes load the machine code from numba's cache.
 
 Invariants: inputs are C-contiguous uint64 arrays of canonical entries and the
-``out`` array has the result's shape; every entry written is canonical.
+``out`` array has the result's shape (that of the first operand, where the second may be a
+single row); every entry written is canonical.
 
 Reduction modulo a prime p < 2^32 avoids the slow integer division: for
 x < 2^40 p, q = trunc(float(x) / p) is within one of floor(x / p) because a
@@ -130,10 +131,13 @@ def small_binomial4_mul(
 ) -> np.ndarray:
     """The k = 4 case of :func:`small_binomial_mul`, unrolled, for p < 2^31:
     four raw products sum below 4 (p - 1)^2 < 2^64, so each coefficient
-    needs one reduction before and one after the multiplication by w."""
+    needs one reduction before and one after the multiplication by w. ``b`` may
+    be a single row, which multiplies every row of ``a`` (a scalar, not copied n times)."""
+    step = 0 if b.shape[0] == 1 else 1
     for i in range(a.shape[0]):
         a0, a1, a2, a3 = a[i, 0], a[i, 1], a[i, 2], a[i, 3]
-        b0, b1, b2, b3 = b[i, 0], b[i, 1], b[i, 2], b[i, 3]
+        j = i * step
+        b0, b1, b2, b3 = b[j, 0], b[j, 1], b[j, 2], b[j, 3]
         h0 = _mod_small(a1 * b3 + a2 * b2 + a3 * b1, p, pinv)
         h1 = _mod_small(a2 * b3 + a3 * b2, p, pinv)
         h2 = _mod_small(a3 * b3, p, pinv)
@@ -153,11 +157,14 @@ def small_ext4_mul(
 ) -> np.ndarray:
     """The k = 4 case of :func:`small_ext_mul`, unrolled, for p < 2^31 (raw
     sums of four products fit in 64 bits); X^6, X^5, X^4 are folded down in turn
-    with X^4 = xk_0 + xk_1 X + xk_2 X^2 + xk_3 X^3."""
+    with X^4 = xk_0 + xk_1 X + xk_2 X^2 + xk_3 X^3. ``b`` may be a single row, as in
+    :func:`small_binomial4_mul`."""
     x0, x1, x2, x3 = xk[0], xk[1], xk[2], xk[3]
+    step = 0 if b.shape[0] == 1 else 1
     for i in range(a.shape[0]):
         a0, a1, a2, a3 = a[i, 0], a[i, 1], a[i, 2], a[i, 3]
-        b0, b1, b2, b3 = b[i, 0], b[i, 1], b[i, 2], b[i, 3]
+        j = i * step
+        b0, b1, b2, b3 = b[j, 0], b[j, 1], b[j, 2], b[j, 3]
         r0 = _mod_small(a0 * b0, p, pinv)
         r1 = _mod_small(a0 * b1 + a1 * b0, p, pinv)
         r2 = _mod_small(a0 * b2 + a1 * b1 + a2 * b0, p, pinv)

@@ -104,12 +104,17 @@ class ExtensionKernel(Kernel):
         compiled = self._use_compiled(a, b) if self._xk_array is not None else None
         if compiled is None:
             return self._mul_numpy(a, b)
-        if a.shape != b.shape:
+        base = self.base
+        # the unrolled k = 4 loops take a single row as the second operand (a scalar) uncopied
+        by_row = (self.k == 4 and self._lazy and isinstance(base, SmallPrimeKernel) and a.ndim == b.ndim == 2
+                  and 1 in (a.shape[0], b.shape[0]))
+        if by_row and a.shape[0] == 1:
+            a, b = b, a
+        elif a.shape != b.shape and not by_row:
             a, b = np.broadcast_arrays(a, b)
         fa = np.ascontiguousarray(a, dtype=np.uint64)
         fb = np.ascontiguousarray(b, dtype=np.uint64)
         out = np.empty_like(fa)
-        base = self.base
         if isinstance(base, GoldilocksKernel):
             return compiled.gl_ext_mul(fa, fb, self._xk_array, out)  # type: ignore[no-any-return]
         assert isinstance(base, SmallPrimeKernel)
