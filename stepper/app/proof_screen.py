@@ -88,6 +88,7 @@ class ProofScreen(Screen[None]):
         self.model = model
         self.last_message = ""
         self._ready = False
+        self._write_up_waiting: Position | None = None  # a write-up asked for while the rounds were read
         self._shown: tuple[Position, int] | None = None  # position and instance version on screen
         self._moved = False  # still where the view opened (then `f` goes to the first failure)
         self._detail: list[Line] = []  # the round readout, whole (a short screen leaves out its first line)
@@ -131,6 +132,9 @@ class ProofScreen(Screen[None]):
         """Repaint what depends on the whole model (after the file grew or a note)."""
         if not self._ready or not self.app.is_running:
             return  # on_mount paints everything once the screen exists; a closing app paints nothing
+        if self._write_up_waiting is not None and not self.model.loading:
+            waiting, self._write_up_waiting = self._write_up_waiting, None
+            self._write_up(waiting)  # asked for while the rounds were still read
         lines = summary_lines(self.model)
         if self.stepper.problem:
             lines.insert(0, Line("stopped reading", self.stepper.problem, "bad"))
@@ -308,8 +312,17 @@ class ProofScreen(Screen[None]):
             self.say(f"picture written to {path}")
 
     def action_write_up(self) -> None:
-        path = self.stepper.export_path("md", self.position)
-        text = markdown_report(self.model, self.position, self.stepper.diagnosis)
+        if self.model.loading:
+            # Each instance's own verdict is known once its rounds are read: a write-up saved
+            # now would list them as not replayed. It is saved, at this round, when the read ends.
+            self._write_up_waiting = self.position
+            self.say("the write-up is saved when every round is read (each instance's verdict is known then)")
+            return
+        self._write_up(self.position)
+
+    def _write_up(self, position: Position) -> None:
+        path = self.stepper.export_path("md", position)
+        text = markdown_report(self.model, position, self.stepper.diagnosis)
         if self._write_export(path, text, "write-up"):
             self.say(f"write-up written to {path}")
 

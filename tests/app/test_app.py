@@ -359,3 +359,29 @@ async def test_a_step_within_an_instance_repaints_the_round_and_not_the_rest(hon
         assert drawn.get("#detail", 0) > 0  # the round under check is drawn again
         assert "#summary" not in drawn and "#statement" not in drawn  # the same proof, the same instance
         assert len(set(strip_lines)) == 1  # the strip redraws the cursor's line only
+
+
+async def test_a_write_up_asked_for_while_the_rounds_are_read_is_saved_when_the_read_ends(tmp_path, monkeypatch):
+    from stepper.app.source import TranscriptSource
+
+    held = [True]
+    pump = TranscriptSource.pump
+
+    def held_pump(self, model, limit):  # the first read stops after its first round until released
+        return False if held[0] and model.round_count > 0 else pump(self, model, 1)
+
+    monkeypatch.setattr(TranscriptSource, "pump", held_pump)
+    path = write_transcript(tmp_path / "long.sumtr", brackwater_payloads(mu=5))
+    app = StepperApp.from_file(path, progressive=True, export_dir=tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        while app.model.round_count == 0:
+            await pilot.pause(0.01)
+        await pilot.press("w")
+        assert app.model.loading and not list(tmp_path.glob("*.md"))  # not yet: each verdict is not known
+        held[0] = False
+        while app.model.loading:
+            await pilot.pause(0.01)
+        await pilot.pause()
+    (written,) = tmp_path.glob("*.md")
+    text = written.read_text()
+    assert "not replayed" not in text and "pass" in text
