@@ -25,6 +25,7 @@ if TYPE_CHECKING:
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
     from stepper.verify.fiatshamir import Sha256Schedule
+    from stepper.verify.roundblock import WideSamples
 
 __all__ = ["GiveUp", "Layout", "layout_of", "RunBlock", "rederive"]
 
@@ -106,28 +107,42 @@ class RunBlock:
             self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]  # type: ignore[arg-type]
         schedule.absorb_rows(self._view, first, rounds, self._round_len, self._frame_len, self.digests)
 
-    def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | None:
-        """The challenges the schedule squeezed for every round of the block (None: no schedule)."""
+    def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | WideSamples | None:
+        """The challenges the schedule squeezed for every round of the block (None: no schedule);
+        over rows of limbs the samples they are reduced from, unreduced
+        (:class:`~stepper.verify.roundblock.WideSamples`: compared by a congruence)."""
+        from stepper.field.kernels.limbs import LimbKernel
+        from stepper.verify.roundblock import WideSamples
+
         if not self.digests and schedule is None:
             return None
+        if isinstance(kernel, LimbKernel) and schedule is not None:
+            return WideSamples(_squeezed(kernel, schedule, self.digests, len(self.rows))[:, :schedule.wide_bytes])
         return rederive(kernel, schedule, self.digests, len(self.rows), self.challenges.shape)
+
+
+def _squeezed(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray, count: int) -> np.ndarray:
+    """The digests :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended for
+    ``count`` challenges, one row per base sample (uint8)."""
+    import numpy as np
+
+    from stepper.field.kernels import ExtensionKernel
+
+    per = schedule.squeezes_per_challenge if schedule is not None else 0
+    if schedule is None or len(digests) != count * per * 32:
+        raise GiveUp("challenges re-derived for only part of the block")
+    samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
+    return np.frombuffer(digests, dtype=np.uint8).reshape(count * samples, -1)
 
 
 def rederive(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray, count: int,
              shape: tuple[int, ...]) -> np.ndarray:
     """The ``count`` challenges (an array of ``shape``) whose digests
     :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended to ``digests``."""
-    import numpy as np
-
-    from stepper.field.kernels import ExtensionKernel
     from stepper.verify.roundblock import reduce_wide
 
-    per = schedule.squeezes_per_challenge if schedule is not None else 0
-    if schedule is None or len(digests) != count * per * 32:
-        raise GiveUp("challenges re-derived for only part of the block")
-    samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
-    squeezed = np.frombuffer(digests, dtype=np.uint8).reshape(count * samples, -1)
-    return reduce_wide(kernel, squeezed, schedule.wide_bytes).reshape(shape)
+    squeezed = _squeezed(kernel, schedule, digests, count)
+    return reduce_wide(kernel, squeezed, schedule.wide_bytes).reshape(shape)  # type: ignore[union-attr]
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:

@@ -29,6 +29,7 @@ rule: m - 1 subtraction passes, m - 2 multiplications by a base-field constant (
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from math import comb, factorial
 
 import numpy as np
@@ -39,7 +40,7 @@ from stepper.field.kernels.limbs import MAX_LIMB_PRIME_BITS, LimbKernel
 from stepper.field.field import Field
 from stepper.verify.cells import below_p, words_to_ints
 
-__all__ = ["block_kernel", "supports", "reduce_wide", "evaluate_at", "block_passes"]
+__all__ = ["block_kernel", "supports", "reduce_wide", "WideSamples", "evaluate_at", "block_passes"]
 
 _NEVER_COMPILED = 1 << 62  # numba's import costs more than a whole block on numpy
 MAX_VALUES = 1 << 12  # evaluations per round checked by the block
@@ -106,6 +107,15 @@ def _reduce_words(words: np.ndarray, wide: int, p: int) -> np.ndarray:
         acc |= words[:, i]
         mod_u64(acc, p64, out=acc)
     return acc
+
+
+@dataclass(frozen=True, slots=True)
+class WideSamples:
+    """The schedule's samples for a block of challenges, one row of ``wide`` little-endian bytes
+    per challenge, not reduced: over rows of limbs :func:`block_passes` tests each against its
+    recorded challenge by a congruence, which costs less than reducing it."""
+
+    rows: np.ndarray
 
 
 def _times_constant(kernel: Kernel, a: np.ndarray, c: int) -> np.ndarray:
@@ -251,16 +261,24 @@ def _evaluate_wide(p: int, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
 
 
 def block_passes(kernel: Kernel, evals: np.ndarray, challenges: np.ndarray, starts: np.ndarray,
-                 claims: np.ndarray, finals: np.ndarray, rederived: np.ndarray | None) -> bool:
+                 claims: np.ndarray, finals: np.ndarray, rederived: np.ndarray | WideSamples | None) -> bool:
     """Whether every check above passes for a block of instances.
 
     ``evals`` (n, m) and ``challenges`` (n,) hold the rounds of all instances in stream order
     (with a trailing axis of k coefficients over an extension); ``starts`` the row of each
     instance's first round (ascending, the first 0); ``claims`` and ``finals`` one value per
-    instance; ``rederived`` the re-derived challenges (canonical) or None."""
+    instance; ``rederived`` the re-derived challenges (canonical, or the samples they are reduced
+    from: :class:`WideSamples`) or None."""
     n, m = evals.shape[:2]
     if n == 0 or len(starts) == 0 or starts[0] != 0:
         return False
+    if isinstance(kernel, LimbKernel):
+        passes = _limb_passes(kernel, evals, challenges, starts, claims, finals, rederived)
+        if passes is not None:
+            return passes
+        if isinstance(rederived, WideSamples):
+            rederived = kernel.reduce_bytes(rederived.rows)
+    assert not isinstance(rederived, WideSamples)  # samples are made for rows of limbs only (packed_runs)
     if rederived is not None and not np.array_equal(rederived, challenges):
         return False  # equal to the re-derived ones (canonical: reduced mod p), the challenges are canonical too
     if not (below_p(kernel, evals) and (rederived is not None or below_p(kernel, challenges))
@@ -275,3 +293,36 @@ def block_passes(kernel: Kernel, evals: np.ndarray, challenges: np.ndarray, star
         return False
     ends = np.append(starts[1:], n) - 1
     return bool(np.array_equal(carried[ends], finals))
+
+
+def _limb_passes(kernel: LimbKernel, evals: np.ndarray, challenges: np.ndarray, starts: np.ndarray,
+                 claims: np.ndarray, finals: np.ndarray, rederived: np.ndarray | WideSamples | None) -> bool | None:
+    """:func:`block_passes` over rows of limbs, by congruences mod p instead of canonical values
+    (:mod:`stepper.field.kernels.limb_rounds`); None when the lazy Horner plan does not hold for
+    this round size (the canonical path then decides). The sum g(0) + g(1) is never reduced: it
+    is congruent to the claim, or to g(r) of the round before, which is congruent to it."""
+    from stepper.field.kernels.limb_rounds import multiple_of_p, rounds_congruent, wide_congruent
+
+    rows, m = evals.shape[:2]
+    if not (below_p(kernel, evals) and below_p(kernel, challenges) and below_p(kernel, finals)
+            and below_p(kernel, claims)):
+        return False
+    if isinstance(rederived, WideSamples):
+        if not wide_congruent(kernel, rederived.rows, challenges).all():
+            return False
+    elif rederived is not None and not np.array_equal(rederived, challenges):
+        return False
+    columns = np.ascontiguousarray(np.moveaxis(evals.reshape(rows, m, kernel.n), 0, -1))  # (m, n, N)
+    sums = columns[0] + columns[1 if m > 1 else 0]  # below 2p, limbs below 2^30
+    ends = np.append(starts[1:], rows) - 1
+    targets = np.empty_like(sums)
+    targets[:, :-1] = sums[:, 1:]
+    targets[:, ends] = finals.T
+    matches = rounds_congruent(kernel, columns, np.ascontiguousarray(challenges.T), targets, 2)
+    if matches is None:
+        return None
+    if not matches.all():
+        return False
+    claim_gap = sums[:, starts].view(np.int64) - claims.T.view(np.int64)
+    claim_gap += kernel._p_limbs.view(np.int64)  # the sum minus the claim, plus p: in [0, 3p)
+    return bool(multiple_of_p(kernel, claim_gap, 3).all())

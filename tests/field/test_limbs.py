@@ -141,6 +141,9 @@ def test_below_p_accepts_p_minus_one_and_refuses_p_and_the_largest_cell(name):
     assert k.below_p(cells(0, 1, p - 1))
     assert not k.below_p(cells(0, p))
     assert not k.below_p(cells((1 << (8 * width)) - 1))
+    top = (p >> (LIMB_BITS * (k.n - 1))) << (LIMB_BITS * (k.n - 1))  # p's top limb, the lower limbs zero
+    assert k.below_p(cells(top, p - 1, 2, 3).reshape(2, 2, -1))  # blocks of rounds: (rounds, values, limbs)
+    assert not k.below_p(cells(top, p + 1 if p + 1 < 1 << (8 * width) else p, 2, 3).reshape(2, 2, -1))
     with pytest.raises(FieldError):
         k.array([p])
     with pytest.raises(FieldError):

@@ -31,7 +31,9 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer a
 
 from plain_sumcheck import Plain, lagrange  # noqa: E402
 from stepper.field.field import get_field  # noqa: E402
-from stepper.verify.roundblock import block_kernel, block_passes, evaluate_at, reduce_wide, supports  # noqa: E402
+from stepper.verify.roundblock import (  # noqa: E402
+    WideSamples, block_kernel, block_passes, evaluate_at, reduce_wide, supports,
+)
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
 KOALABEAR = 2**31 - 2**24 + 1  # common practice, no source
@@ -504,3 +506,35 @@ def test_a_wide_value_at_or_above_p_fails(name):
     finals = block.finals[:]
     finals[0] = raised(finals[0])
     assert not block.passes(finals=finals)
+
+
+@pytest.mark.parametrize("name", ["bn254", "bls12-381"])
+@pytest.mark.parametrize("m", [2, 4, 7])  # 7 values: past the lazy plan, the canonical path decides
+def test_wide_primes_compare_challenges_with_unreduced_samples_by_congruence(name, m):
+    """A schedule's samples are wide (ceil((bits(p) + 128) / 8) bytes, transcripts/FIAT-SHAMIR.md): each
+    is the challenge plus some multiple of p; block_passes takes them unreduced over rows of limbs."""
+    ar = WIDE_CASES[name]
+    block = ExtBlock(ar, m, [3, 1, 2], (name, m, "samples"))
+    rng = random.Random(f"{name}-{m}")
+    wide = (ar.p.bit_length() + 128 + 7) // 8
+    k = block_kernel(get_field(ar.p))
+
+    def samples(challenges: list[int]) -> WideSamples:
+        rows = [(r + rng.randrange(2**128) * ar.p).to_bytes(wide, "little") for r in challenges]
+        return WideSamples(np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), wide))
+
+    flat = block.array([v for row in block.evals for v in row]).reshape(len(block.evals), m, -1)
+
+    def passes(rederived: WideSamples, **replace) -> bool:
+        parts = {"challenges": block.challenges, "finals": block.finals, **replace}
+        return block_passes(k, flat, block.array(parts["challenges"]), np.array(block.starts),
+                            block.array(block.claims), block.array(parts["finals"]), rederived)
+
+    assert passes(samples(block.challenges))
+    for i in range(len(block.challenges)):
+        changed = block.challenges[:]
+        changed[i] = (changed[i] + 1) % ar.p
+        assert not passes(samples(changed)), i
+    finals = block.finals[:]
+    finals[-1] = (finals[-1] + ar.p - 1) % ar.p
+    assert not passes(samples(block.challenges), finals=finals)

@@ -73,25 +73,34 @@ class LimbKernel(Kernel):
 
     def from_bytes(self, cells: np.ndarray) -> np.ndarray:
         """Rows of little-endian bytes (uint8, shape (N, w), w at most the field's byte width) as
-        limb rows, shape (N, n); not reduced, not checked (every bit of a row lands in a limb)."""
+        limb rows, shape (N, n); not reduced, not checked (every bit of a row lands in a limb).
+        The rows are a view of limb-major limbs (Fortran order): :meth:`_major` takes them back
+        without a copy."""
         count, width = cells.shape
         if width > self.byte_width:
             raise FieldError(f"expected at most {self.byte_width} bytes per element, found {width}")
-        words = -(-width // 8) + 1
-        padded = np.zeros((count, 8 * words), dtype=np.uint8)
-        padded[:, :width] = cells
-        return self._limbs_of_words(padded.view("<u8"), self.n).T.copy()
+        if width % 8 == 0 and cells.flags.c_contiguous:
+            words = cells.view("<u8")
+        else:
+            padded = np.zeros((count, 8 * -(-width // 8)), dtype=np.uint8)
+            padded[:, :width] = cells
+            words = padded.view("<u8")
+        return self._limbs_of_words(words, self.n).T
 
     @staticmethod
     def _limbs_of_words(words: np.ndarray, count: int) -> np.ndarray:
-        """The first ``count`` 29-bit limbs of rows of little-endian uint64 words (shape (N, k),
-        k enough words for them plus one), limb-major: shape (count, N)."""
+        """The first ``count`` 29-bit limbs of rows of little-endian uint64 words (shape (N, k);
+        bits past the k words are zero), limb-major: shape (count, N)."""
+        columns = np.ascontiguousarray(words.T)  # (k, N): each word of every row in one run
         out = np.empty((count, words.shape[0]), dtype=np.uint64)
         for i in range(count):
             word, shift = divmod(LIMB_BITS * i, 64)
-            limb = words[:, word] >> np.uint64(shift)
-            if shift + LIMB_BITS > 64:
-                limb |= words[:, word + 1] << np.uint64(64 - shift)
+            if word >= len(columns):
+                out[i] = 0
+                continue
+            limb = columns[word] >> np.uint64(shift)
+            if shift + LIMB_BITS > 64 and word + 1 < len(columns):
+                limb |= columns[word + 1] << np.uint64(64 - shift)
             np.bitwise_and(limb, _MASK, out=out[i])
         return out
 
@@ -224,10 +233,18 @@ class LimbKernel(Kernel):
         return rows if np.ndim(a) == 2 or np.ndim(b) == 2 else rows[0]
 
     def below_p(self, a: np.ndarray) -> bool:
-        """Whether every element of limb rows (any leading shape) is below p."""
+        """Whether every element of limb rows (any leading shape; limbs below 2^29) is below p:
+        decided by the top limb alone, except where it equals p's top limb."""
         if a.size == 0:
             return True
-        return bool(self._below(self._major(a)).all())
+        top = np.asarray(a)[..., self.n - 1]
+        p_top = self._p_limbs[self.n - 1, 0]
+        if (top > p_top).any():
+            return False
+        ties = top == p_top
+        if not ties.any():
+            return True
+        return bool(self._below(self._major(np.asarray(a)[ties])).all())
 
     def reduce_bytes(self, rows: np.ndarray) -> np.ndarray:
         """Each row of little-endian bytes (uint8, shape (N, w)) as an integer mod p, canonical limb

@@ -1,0 +1,147 @@
+"""A block of sumcheck rounds checked on rows of 29-bit limbs, as congruences mod p (no I/O).
+
+:class:`~stepper.field.kernels.limbs.LimbKernel` makes every result canonical, at the cost
+of a Montgomery product or a conditional subtraction of p per step. A block of rounds only
+asks whether values are *equal* mod p, and a congruence can be tested on values known only
+to lie below a small multiple of p, so the checks here never make a value canonical:
+
+* :func:`rounds_congruent`: (m-1)! g_i(r_i) = (m-1)! t_i mod p for every column i, where g_i
+  is given by its values g_i(0..m-1), r_i is a point and t_i a target below a small multiple
+  of p (the next round's g(0) + g(1), never reduced, or the final value). Newton's forward
+  differences scaled by (m-1)! are small signed integer combinations of the columns, formed
+  limb by limb; Horner's rule then runs on them, each step one Montgomery product by
+  (r_i - k) R mod p plus the next coefficient made non-negative by a fixed multiple of p,
+  with no reduction in between, while :func:`horner_plan` shows every partial value stays
+  below R (a Montgomery product of x < a p and y < b p is below (a b p / R + 1) p).
+* :func:`wide_congruent`: rows of little-endian bytes (the schedule's wide samples) against
+  canonical values: x - v plus a multiple of p, divided by 2^(29 k) by k Montgomery steps,
+  is 0 or p exactly when x = v mod p.
+* :func:`multiple_of_p`: the last step of both. An integer D in [0, q p] is a multiple of p
+  exactly when D - round(D / p) p is zero, and D / p needs only the top three limbs in
+  floating point (their error is far below p / 2); the subtraction itself is exact.
+
+Compared with canonical values (``LimbKernel.evaluate`` and ``reduce_bytes``, then equality
+tests) this saves the conversion of g(r) out of Montgomery form, the product that turns a wide
+sample back out of its Montgomery steps, every conditional subtraction and the sum
+g(0) + g(1) mod p (``python3 bench/check_fields.py --fields bn254,bls12-381`` measures the
+whole check).
+"""
+
+from __future__ import annotations
+
+from math import factorial
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from stepper.field.kernels.limbs import LIMB_BITS
+
+if TYPE_CHECKING:
+    from stepper.field.kernels.limbs import LimbKernel
+
+__all__ = ["horner_plan", "rounds_congruent", "wide_congruent", "multiple_of_p"]
+
+_MASK = (1 << LIMB_BITS) - 1
+_INT64_ROOM = 1 << 61  # signed limbs stay below this (products of limbs are formed in uint64 elsewhere)
+
+
+def _normalise(t: np.ndarray) -> np.ndarray:
+    """Signed limbs (int64, limb-major) carried in place so that every limb but the top one is in
+    [0, 2^29): arithmetic shifts floor, so a negative limb borrows from the next."""
+    for i in range(t.shape[0] - 1):
+        t[i + 1] += t[i] >> LIMB_BITS
+        t[i] &= _MASK
+    return t
+
+
+def multiple_of_p(kernel: LimbKernel, d: np.ndarray, bound: int) -> np.ndarray:
+    """Per column, whether the integer with signed limbs ``d`` (int64, limb-major (n, N), each
+    limb below 2^40 in size, the value known to lie in [0, bound p]) is a multiple of p.
+    Consumes ``d``."""
+    n, p = kernel.n, kernel.p
+    if bound >= 1 << 40:
+        raise ValueError(f"expected a quotient bound below 2^40, found {bound}")
+    weights = np.array([2.0 ** (LIMB_BITS * i) / p for i in range(n - 3, n)])
+    quotient = np.rint(weights @ d[n - 3:].astype(np.float64)).astype(np.int64)
+    d -= quotient * kernel._p_limbs.astype(np.int64)
+    return np.logical_not(_normalise(d).any(axis=0))  # type: ignore[no-any-return]
+
+
+def horner_plan(kernel: LimbKernel, m: int, point_bound: int = 3) -> tuple[list[int], list[int], int] | None:
+    """For rounds of m values: the weights (m-1)!/k! of the differences, the multiples of p that
+    make each scaled difference non-negative, and the bound (in units of p) of the value Horner's
+    rule ends with; None when some partial value could reach R (then the canonical path is used).
+    ``point_bound``: the points (r - k) R mod p are below that many p (r R mod p, below 2p, plus a
+    constant below p)."""
+    if m < 1:
+        return None
+    scale = factorial(m - 1)
+    weights = [scale // factorial(k) for k in range(m)]
+    offsets = [w << (k - 1) if k else 0 for k, w in enumerate(weights)]  # a k-th difference lies in (-2^(k-1) p, 2^(k-1) p)
+    if max(w << max(k, 1) for k, w in enumerate(weights)) << (LIMB_BITS + 1) >= _INT64_ROOM:
+        return None  # the scaled differences would not fit signed 64-bit limbs
+    room = (1 << kernel._r_bits) / kernel.p  # R / p
+    bound = float(weights[m - 1] << max(m - 1, 1))
+    if bound >= room:
+        return None
+    for k in range(m - 2, -1, -1):
+        bound = bound * point_bound / room + 1 + (weights[k] << max(k, 1) if k else weights[k])
+        if bound >= room:  # every partial value below R: its top limb below 2^29, as products need
+            return None
+    return weights, offsets, int(bound) + 1
+
+
+def rounds_congruent(kernel: LimbKernel, columns: np.ndarray, points: np.ndarray, targets: np.ndarray,
+                     target_bound: int) -> np.ndarray | None:
+    """Per column i, whether g_i(points_i) = targets_i mod p; None when :func:`horner_plan` finds
+    no safe plan for these m. ``columns``: g_i(0..m-1), canonical, limb-major (m, n, N) uint64;
+    ``points``: canonical, limb-major (n, N); ``targets``: limb-major (n, N), limbs below 2^31,
+    values below ``target_bound`` p."""
+    m = columns.shape[0]
+    plan = horner_plan(kernel, m)
+    if plan is None:
+        return None
+    weights, offsets, acc_bound = plan
+    p_limbs = kernel._p_limbs.astype(np.int64)
+    layer = list(columns.view(np.int64))
+    coefficients = [layer[0]]
+    for _ in range(1, m):
+        layer = [layer[j + 1] - layer[j] for j in range(len(layer) - 1)]
+        coefficients.append(layer[0])
+    r_mont = kernel._montgomery(points, kernel._r2) if m > 1 else points  # r R mod p, below 2p
+    acc = _normalise(_scaled(coefficients[m - 1], weights[m - 1], offsets[m - 1], p_limbs)).view(np.uint64)
+    for k in range(m - 2, -1, -1):
+        shift = r_mont if k == 0 else kernel._carry(r_mont + kernel._column(-k * (1 << kernel._r_bits) % kernel.p))
+        term = _scaled(coefficients[k], weights[k], offsets[k], p_limbs)
+        term += kernel._montgomery(acc, shift).view(np.int64)  # carried, below (a b p / R + 1) p
+        acc = _normalise(term).view(np.uint64)
+    scale = weights[0]  # (m-1)!
+    d = acc.view(np.int64) - targets.astype(np.int64) * scale
+    d += p_limbs * (scale * target_bound)
+    return multiple_of_p(kernel, d, acc_bound + scale * target_bound)
+
+
+def _scaled(difference: np.ndarray, weight: int, offset: int, p_limbs: np.ndarray) -> np.ndarray:
+    """weight * difference + offset * p, a new array of signed limbs (not carried)."""
+    term = difference * weight if weight != 1 else difference.copy()
+    if offset:
+        term += p_limbs * offset
+    return term
+
+
+def wide_congruent(kernel: LimbKernel, rows: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Per row, whether the little-endian integer of ``rows`` (uint8, (N, w)) is congruent to the
+    value of the same row of ``values`` (limb rows (N, n), limbs below 2^29) mod p."""
+    count, width = rows.shape
+    n, p = kernel.n, kernel.p
+    limbs = -(-8 * width // LIMB_BITS)
+    steps = max(2, limbs - n + 2)  # the value / 2^(29 steps) is below p: the result below 2p
+    words = np.zeros((count, -(-width // 8) + 1), dtype=np.uint64)
+    words.view(np.uint8)[:, :width] = rows
+    t = np.zeros((max(limbs, steps + n, n + 1) + 1, count), dtype=np.int64)
+    t[:limbs] = kernel._limbs_of_words(words, limbs).view(np.int64)
+    lift = -(-(1 << kernel._r_bits) // p) * p  # a multiple of p above every value
+    t[:n + 1] += np.array([(lift >> (LIMB_BITS * i)) & _MASK for i in range(n + 1)], dtype=np.int64)[:, None]
+    t[:n] -= values.T.view(np.int64)
+    reduced = kernel._reduce_steps(_normalise(t).view(np.uint64), steps)  # below 2p
+    return np.all(reduced == 0, axis=0) | np.all(reduced == kernel._p_limbs, axis=0)  # type: ignore[no-any-return]

@@ -1,0 +1,121 @@
+"""stepper.field.kernels.limb_rounds: the congruence checks of a block of rounds on limb rows agree with
+plain Python integers (g(r) by the textbook Lagrange formula, reductions with ``%``) and with galois's
+Lagrange interpolation, for honest values, values off by one, and targets left unreduced (plus p).
+
+Moduli: the BN254 scalar field r (EIP-196 / EIP-197, alt_bn128 "curve_order"; value from memory,
+stepper.field.field pins it the same way), the BLS12-381 scalar field r (IETF
+draft-irtf-cfrg-pairing-friendly-curves, section 4.2.1; from memory), 2^127 - 1 (a Mersenne prime:
+common practice, no source) and the first prime after 2^64 and the last before 2^512 (sympy.nextprime
+and sympy.prevprime); sympy.isprime checks each below.
+"""
+
+from __future__ import annotations
+
+import random
+from functools import lru_cache
+
+import galois
+import numpy as np
+import pytest
+import sympy
+
+from stepper.field.field import get_field
+from stepper.field.kernels.limb_rounds import horner_plan, multiple_of_p, rounds_congruent, wide_congruent
+from stepper.field.kernels.limbs import LimbKernel
+
+BN254 = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 curve_order
+BLS12_381_R = 0x73EDA753299D7D483339D80809A1D80553BDA402FFFE5BFEFFFFFFFF00000001  # IETF draft, 4.2.1 (r)
+MERSENNE127 = 2**127 - 1  # common practice, no source
+ABOVE_2_64 = int(sympy.nextprime(2**64))
+BELOW_2_512 = int(sympy.prevprime(2**512))
+PRIMES = [BN254, BLS12_381_R, MERSENNE127, ABOVE_2_64, BELOW_2_512]
+
+
+def test_the_moduli_are_prime():
+    assert all(sympy.isprime(p) for p in PRIMES)
+
+
+@lru_cache(maxsize=None)
+def kernel(p: int) -> LimbKernel:
+    return LimbKernel(get_field(p))
+
+
+def major(k: LimbKernel, values: list[int]) -> np.ndarray:
+    """Integers below 2^(29 n) as limb-major limbs (n, N), unchecked and unreduced."""
+    return np.array([[(v >> (29 * i)) & ((1 << 29) - 1) for v in values] for i in range(k.n)], dtype=np.uint64)
+
+
+def lagrange_at(p: int, values: list[int], x: int) -> int:
+    """g(x) for g of degree < m through (j, values[j]): the textbook formula in plain integers."""
+    m, total = len(values), 0
+    for i, v in enumerate(values):
+        num, den = 1, 1
+        for j in range(m):
+            if j != i:
+                num, den = num * (x - j) % p, den * (i - j) % p
+        total += v * num * pow(den, -1, p)
+    return total % p
+
+
+def check(p: int, rows: list[list[int]], points: list[int], targets: list[int], bound: int) -> list[bool] | None:
+    k = kernel(p)
+    m = len(rows[0])
+    columns = np.stack([major(k, [row[j] for row in rows]) for j in range(m)])
+    got = rounds_congruent(k, columns, major(k, points), major(k, targets), bound)
+    return None if got is None else got.tolist()
+
+
+@pytest.mark.parametrize("p", PRIMES)
+@pytest.mark.parametrize("m", [1, 2, 3, 4, 5])
+def test_honest_targets_match_whether_reduced_or_not_and_off_by_one_fail(p, m):
+    rng = random.Random(f"{p}-{m}")
+    rows = [[rng.randrange(p) for _ in range(m)] for _ in range(12)] + [[p - 1] * m, [0] * m]
+    points = [rng.randrange(p) for _ in range(12)] + [p - 1, 0]
+    values = [lagrange_at(p, row, x) for row, x in zip(rows, points)]
+    assert horner_plan(kernel(p), m) is not None  # degrees up to 4 take the lazy path for every prime here
+    assert check(p, rows, points, values, 2) == [True] * len(rows)
+    assert check(p, rows, points, [v + p for v in values], 2) == [True] * len(rows)  # unreduced: below 2p
+    assert check(p, rows, points, [(v + 1) % p for v in values], 2) == [False] * len(rows)
+    assert check(p, rows, points, [(v - 1) % p + p for v in values], 2) == [False] * len(rows)
+
+
+@pytest.mark.parametrize("p", [BN254, BLS12_381_R])
+def test_degree_three_agrees_with_galois_lagrange_interpolation(p):
+    gf = galois.GF(p, primitive_element=2, verify=False, compile="python-calculate")
+    rng = random.Random(p)
+    rows = [[rng.randrange(p) for _ in range(4)] for _ in range(8)]
+    points = [rng.randrange(p) for _ in range(8)]
+    expected = [int(galois.lagrange_poly(gf([0, 1, 2, 3]), gf(row))(gf(x))) for row, x in zip(rows, points)]
+    assert check(p, rows, points, expected, 1) == [True] * len(rows)
+    assert check(p, rows, points, [(e + 1) % p for e in expected], 1) == [False] * len(rows)
+
+
+def test_long_rounds_have_no_lazy_plan_where_partial_values_could_reach_r():
+    # BN254: R / p is about 2^7.4; six values need a bound past it (the canonical path takes them)
+    assert horner_plan(kernel(BN254), 5) is not None
+    assert horner_plan(kernel(BN254), 6) is None
+    assert check(BN254, [[1] * 6], [5], [1], 1) is None
+
+
+@pytest.mark.parametrize("p", PRIMES)
+def test_wide_samples_are_congruent_to_their_reduction_only(p):
+    k = kernel(p)
+    wide = (p.bit_length() + 128 + 7) // 8  # the schedule's wide sample: ceil((bits(p) + 128) / 8) bytes
+    rng = random.Random(p)
+    samples = [bytes(wide), b"\xff" * wide, (p).to_bytes(wide, "little"), (p - 1).to_bytes(wide, "little")]
+    samples += [rng.randbytes(wide) for _ in range(40)]
+    rows = np.frombuffer(b"".join(samples), dtype=np.uint8).reshape(len(samples), wide)
+    reduced = [int.from_bytes(s, "little") % p for s in samples]
+    assert wide_congruent(k, rows, major(k, reduced).T).tolist() == [True] * len(samples)
+    assert wide_congruent(k, rows, major(k, [(v + 1) % p for v in reduced]).T).tolist() == [False] * len(samples)
+    assert wide_congruent(k, rows, major(k, [(v - 1) % p for v in reduced]).T).tolist() == [False] * len(samples)
+
+
+@pytest.mark.parametrize("p", PRIMES)
+def test_multiple_of_p_says_yes_for_multiples_up_to_the_bound_and_no_next_to_them(p):
+    k = kernel(p)
+    bound = 40
+    multiples = [j * p for j in range(bound + 1)]
+    assert multiple_of_p(k, major(k, multiples).view(np.int64).copy(), bound).tolist() == [True] * len(multiples)
+    near = [v + d for v in multiples for d in (-1, 1) if v + d >= 0] + [p // 2, 3 * p + p // 2]
+    assert multiple_of_p(k, major(k, near).view(np.int64).copy(), bound).tolist() == [False] * len(near)
