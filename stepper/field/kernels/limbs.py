@@ -194,12 +194,25 @@ class LimbKernel(Kernel):
         return self._minus_p(self._carry(t))
 
     def _montgomery(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        """a b / R mod p, below 2p, for limb-major a, b (limbs below 2^29, a b < R p)."""
-        n = self.n
-        t = np.zeros((2 * n + 1, max(a.shape[1], b.shape[1])), dtype=np.uint64)
+        """a b / R mod p, below a b / R + p, for limb-major a, b (limbs below 2^29). Operand scanning with the reduction interleaved: step i adds a_i b,
+        then m p with m = -t_i / p mod 2^29 (limb i becomes zero) and passes limb i's carry up; a
+        column gets the same products as a product followed by a reduction, in another order."""
+        n, p_limbs, q = self.n, self._p_limbs, self._minus_p_inverse
+        count = max(a.shape[1], b.shape[1])
+        t = np.zeros((2 * n + 1, count), dtype=np.uint64)
+        product = np.empty((n, count), dtype=np.uint64)
+        m = np.empty(count, dtype=np.uint64)
         for i in range(n):
-            t[i:i + n] += a[i] * b
-        return self._reduce_steps(t, n)
+            np.multiply(a[i], b, out=product)
+            t[i:i + n] += product
+            np.bitwise_and(t[i], _MASK, out=m)
+            m *= q
+            m &= _MASK
+            np.multiply(m, p_limbs, out=product)
+            t[i:i + n] += product
+            np.right_shift(t[i], _SHIFT, out=m)
+            t[i + 1] += m
+        return self._carry(t[n:])[:n]
 
     def _reduce_steps(self, t: np.ndarray, steps: int) -> np.ndarray:
         """Montgomery reduction by 2^(29 steps), in place on the columns t (limb-major, rows enough for
