@@ -285,7 +285,10 @@ class _Sweeper:
         self.rows += start.num_vars
         self.pending_bytes += start.num_vars * layout.stride
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
-            self.due = True
+            if self.glue_tail is None:
+                self._flush()  # a file without glue events: nothing after the run waits to be checked with it
+            else:
+                self.due = True
 
     def _new_layout(self, head: bytes) -> tuple[bytes, Layout]:
         """The layout a run's first bytes announce."""

@@ -553,6 +553,25 @@ def test_instances_alternating_two_degrees_are_checked_in_few_blocks(tmp_path, m
     assert len(calls) <= 4
 
 
+def test_a_file_without_glue_is_checked_block_by_block_not_whole(tmp_path, monkeypatch):
+    # memory flat in the number of instances: a block is checked once BLOCK_ROUNDS rounds are read,
+    # also in a file of the first format version (no glue events can follow a run there)
+    import stepper.verify.roundblock as roundblock
+
+    sizes = []
+    real = roundblock.block_passes
+
+    def counting(*args: object) -> bool:
+        sizes.append(len(args[1]))  # type: ignore[arg-type]
+        return real(*args)
+
+    monkeypatch.setattr(roundblock, "block_passes", counting)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 8)
+    written = write_transcript(tmp_path / "plain.sumtr", Knobs(instances=40, max_vars=4, degrees=(3,), seed=41))
+    assert_same_report(written.path, 20)
+    assert len(sizes) >= 5 and max(sizes) < 8 + 4
+
+
 def test_a_failure_in_an_instance_not_taken_as_a_run_is_judged_by_the_same_replay(tmp_path):
     # Compressed forms and batched claims are fed event by event inside the sweep: a failure there
     # is the replay's own result, so the report must equal the event-by-event one, verdict included.
