@@ -19,7 +19,9 @@ Every field works here, each on its numpy kernel (:func:`block_kernel`): uint64
 entries for primes below 2^64, rows of 29-bit limbs for primes of 65 to 512 bits
 (BN254, BLS12-381: :class:`~stepper.field.kernels.limbs.LimbKernel`, Montgomery
 products in numpy), object arrays of Python ints above, rows of k coefficients for an
-extension.
+extension. Over limb rows the sum, challenge and final checks are congruences mod p on
+values never made canonical (:mod:`stepper.field.kernels.limb_rounds`), and the
+re-derived challenges arrive as the schedule's unreduced samples (:class:`WideSamples`).
 
 g(r) is evaluated for a whole column of rounds at once in Newton's forward-difference
 form, g(r) = sum_k c_k r(r-1)...(r-k+1) with c_k = (Delta^k g)(0) / k!, by Horner's
