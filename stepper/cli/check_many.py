@@ -74,7 +74,11 @@ def _print_line(result: FileResult, colour: bool) -> None:
     text = f"{word:<10}"
     if colour:
         text = f"\x1b[{_PAINT[tint]}m{text}\x1b[0m"
-    print(f"{text} {result.name}: {result.detail()}", file=sys.stdout)
+    detail = result.detail()
+    if result.checked is None and detail.startswith(result.name) and detail[len(result.name):][:1] in (":", ","):
+        print(f"{text} {detail}", file=sys.stdout)  # the error already begins with the file's name
+    else:
+        print(f"{text} {result.name}: {detail}", file=sys.stdout)
 
 
 def summary(results: list[FileResult], code: int) -> str:

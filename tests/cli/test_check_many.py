@@ -81,6 +81,16 @@ def test_an_unusable_file_is_reported_on_its_line_and_the_others_still_checked(f
     assert "Traceback" not in out + err
 
 
+def test_an_unusable_files_line_names_it_once(files, tmp_path, capsys):
+    folder = tmp_path / "proofs"
+    folder.mkdir()
+    missing = tmp_path / "missing.sumtr"
+    code, out, _ = run(capsys, str(missing), str(folder), str(files["garbage"]), str(files["honest"]))
+    assert code == 2
+    for line, path in zip(out.splitlines()[:3], (missing, folder, files["garbage"])):
+        assert line.startswith("UNUSABLE") and line.count(str(path)) == 1, line
+
+
 def test_only_incomplete_and_accepted_files_exit_3(files, capsys):
     assert run(capsys, str(files["honest"]), str(files["incomplete"]))[0] == 3
 
