@@ -30,7 +30,7 @@ from typing import Any, Union
 from stepper.errors import ExpressionError
 
 __all__ = ["Const", "Table", "Neg", "Add", "Sub", "Mul", "Pow", "Index", "Eq", "PointOf", "FinalOf", "Node",
-           "References", "Template", "references", "parse_tree", "template_of", "fill", "MAX_EXPR_LENGTH",
+           "References", "Template", "references", "parse_tree", "template_of", "templates_of", "fill", "MAX_EXPR_LENGTH",
            "MAX_EXPONENT_BITS"]
 
 MAX_EXPR_LENGTH = 4096
@@ -291,6 +291,51 @@ def template_of(text: str) -> tuple[Template, list[str]] | None:
                      for kind in (refs.scalars, refs.lists, refs.points, refs.finals))
         template = _TEMPLATES[key] = Template(root, refs, plan)
     return template, names
+
+
+# a name the template path cuts out (see templates_of): _SPLIT's NAME where a match of it starts (never right
+# after a letter or '_', which would belong to the name before), unless it is a call word
+_HOLE = re.compile(r"(?<![A-Za-z_])(?!(?:eq|point|final)(?![A-Za-z0-9_.]))[A-Za-z_][A-Za-z0-9_.]*")
+
+
+def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list[int]]] | None:
+    """:func:`template_of` for many texts at once, grouped: per template, the names filling each
+    hole as a column (one entry per text of the group) and the positions in ``texts`` of the
+    group's texts; None when some text has no template. The texts are joined by newlines and
+    read by two regex passes (the names cut out, and the names in order); texts with the same
+    text between their names share a template, found once (a text holding a newline or a NUL
+    is read alone)."""
+    joined = "\n".join(texts)
+    if "\x00" in joined or joined.count("\n") != len(texts) - 1:
+        singles = [template_of(text) for text in texts]
+        if any(found is None for found in singles):
+            return None
+        return [(found[0], [[name] for name in found[1]], [i]) for i, found in enumerate(singles)]  # type: ignore[index]
+    shapes = _HOLE.sub("\x00", joined).split("\n")
+    names = _HOLE.findall(joined)
+    if shapes.count(shapes[0]) == len(shapes):  # one shape: the names fall into columns by position
+        found = template_of(texts[0])
+        holes = shapes[0].count("\x00")
+        if found is None or len(found[1]) != holes:
+            return None
+        return [(found[0], [names[j::holes] for j in range(holes)] if holes else [], list(range(len(texts))))]
+    groups: dict[str, tuple[list[int], list[int]]] = {}  # shape -> positions, first name of each text
+    at = 0
+    for i, shape in enumerate(shapes):
+        group = groups.get(shape)
+        if group is None:
+            group = groups[shape] = ([], [])
+        group[0].append(i)
+        group[1].append(at)
+        at += shape.count("\x00")
+    out = []
+    for shape, (positions, starts) in groups.items():
+        found = template_of(texts[positions[0]])
+        holes = shape.count("\x00")
+        if found is None or len(found[1]) != holes:
+            return None
+        out.append((found[0], [[names[a + j] for a in starts] for j in range(holes)], positions))
+    return out
 
 
 def fill(node: Node, names: list[str]) -> Node:

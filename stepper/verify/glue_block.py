@@ -32,12 +32,12 @@ finds. A passing check, here as there, is evidence about one run, not a soundnes
 
 from __future__ import annotations
 
-from operator import itemgetter
+from dataclasses import dataclass, field as dc_field
 from typing import TYPE_CHECKING, Any, Mapping
 
 import numpy as np
 
-from stepper.field.expr_syntax import template_of
+from stepper.field.expr_syntax import templates_of
 from stepper.field.field import power_by_squaring
 from stepper.field.kernels import GoldilocksKernel, SmallPrimeKernel, Word64Kernel
 from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
@@ -55,9 +55,26 @@ class Unsupported(Exception):
     """A glue expression or value this module does not check by columns: the replay must."""
 
 
-# template, names filling its holes, the value it must equal; for an evaluation the challenges of its
-# block, its first row there, num_vars and order (None, 0, 0, "" for a link)
-_Entry = tuple[Any, tuple[str, ...], Any, Any, int, int, str]
+@dataclass(slots=True)
+class _Group:
+    """Checks sharing a template (and, for evaluations, the block of challenges, num_vars and
+    order): the names filling each hole as columns, the values the checks must equal, the runs
+    of their instances in the flush and, for evaluations, each instance's first row."""
+
+    template: Template
+    final: bool
+    columns: list[list[str]]
+    expected: list[Any]
+    runs: list[int]
+    challenges: Any = None
+    first_rows: list[int] = dc_field(default_factory=list)
+    num_vars: int = 0
+    order: str = ""
+
+
+# an instance settled in bulk: its run in the flush, start, final value, the challenges of its block and
+# its first row there
+Settled = tuple[int, "InstanceStart", Any, Any, int]
 
 
 class GlueChecks:
@@ -66,36 +83,49 @@ class GlueChecks:
     def __init__(self, field: Field, kernel: Kernel) -> None:
         self.field = field
         self.kernel = kernel
-        self.entries: list[_Entry] = []
-        # per template and kind of check: the runs of its checks and the names filling its holes
-        self.uses: dict[tuple[int, bool], tuple[Template, list[int], list[tuple[str, ...]]]] = {}
+        self.groups: list[_Group] = []
 
-    def add(self, start: InstanceStart, final: Element, challenges: np.ndarray, first_row: int, run: int) -> None:
-        """An instance settled in bulk, the ``run``-th of its flush: its claim against its claim_expr,
-        and its final value against its final_expr at the point whose challenges (round order) are
-        rows ``first_row`` .. ``first_row + num_vars - 1`` of ``challenges``. Raises
+    def add(self, settled: list[Settled]) -> None:
+        """Instances settled in bulk with a claim_expr or final_expr: each claim against its
+        claim_expr, each final value against its final_expr at the point whose challenges
+        (round order) are rows ``first_row`` .. ``first_row + num_vars - 1`` of its block's
+        challenges. Texts are read by template all at once (:func:`templates_of`). Raises
         :class:`Unsupported` for an expression this module does not check (``point(NAME)``,
         ``final(NAME)``, a text only the character parser reads, eq(a) in a claim_expr)."""
-        for text, final_check in ((start.claim_expr, False), (start.final_expr, True)):
-            if text is None:
+        for final in (False, True):
+            chosen = [entry for entry in settled if (entry[1].final_expr if final else entry[1].claim_expr)
+                      is not None]
+            if not chosen:
                 continue
-            found = template_of(text)
+            texts = [entry[1].final_expr if final else entry[1].claim_expr for entry in chosen]
+            found = templates_of(texts)  # type: ignore[arg-type]
             if found is None:
                 raise Unsupported("a text only the character parser reads")
-            template, names = found
-            refs = template.refs
-            if refs.points or refs.finals or (refs.own_point and not final_check):
-                raise Unsupported("point(NAME), final(NAME) or eq(a) in a claim_expr")
-            holes = tuple(names)
-            use = self.uses.get((id(template), final_check))
-            if use is None:
-                use = self.uses[(id(template), final_check)] = (template, [], [])
-            use[1].append(run)
-            use[2].append(holes)
-            if final_check:
-                self.entries.append((template, holes, final, challenges, first_row, start.num_vars, start.order))
-            else:
-                self.entries.append((template, holes, start.claim, None, 0, 0, ""))
+            for template, columns, positions in found:
+                refs = template.refs
+                if refs.points or refs.finals or (refs.own_point and not final):
+                    raise Unsupported("point(NAME), final(NAME) or eq(a) in a claim_expr")
+                picked = chosen if len(positions) == len(chosen) else [chosen[i] for i in positions]
+                if not final:
+                    self.groups.append(_Group(template, False, columns, [entry[1].claim for entry in picked],
+                                              [entry[0] for entry in picked]))
+                    continue
+                keys = [(id(entry[3]), entry[1].num_vars, entry[1].order) for entry in picked]
+                if keys.count(keys[0]) == len(keys):
+                    self._evaluations(template, columns, picked)
+                    continue
+                split: dict[tuple[int, int, str], list[int]] = {}
+                for i, key in enumerate(keys):
+                    split.setdefault(key, []).append(i)
+                for members in split.values():
+                    self._evaluations(template, [[column[i] for i in members] for column in columns],
+                                      [picked[i] for i in members])
+
+    def _evaluations(self, template: Template, columns: list[list[str]], picked: list[Settled]) -> None:
+        start = picked[0][1]
+        self.groups.append(_Group(template, True, columns, [entry[2] for entry in picked],
+                                  [entry[0] for entry in picked], picked[0][3], [entry[4] for entry in picked],
+                                  start.num_vars, start.order))
 
     def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
                     earlier: Mapping[str, int | None]) -> None:
@@ -104,13 +134,13 @@ class GlueChecks:
         flush, ``earlier``), a final_expr's also after its own run; a name used as an element
         is one, a name used as a list (a point, ``NAME[i]``) is one (``defined``: a list's length
         or None, for the flush's names). Raises :class:`Unsupported` where one does not hold."""
-        for (_, final_check), (template, used_by, holes) in self.uses.items():
-            scalars, lists = template.plan[0], template.plan[1]
-            limits = used_by if final_check else [run - 1 for run in used_by]
+        for group in self.groups:
+            scalars, lists = group.template.plan[0], group.template.plan[1]
+            limits = group.runs if group.final else [run - 1 for run in group.runs]
             for hole, listed in [*((h, False) for h in scalars), *((h, True) for h in lists)]:
                 if not isinstance(hole, int):
                     raise Unsupported("a call word used as a name")
-                column = [names[hole] for names in holes]
+                column = group.columns[hole]
                 places: list[Any] = list(map(runs.get, column))
                 if None in places:
                     before = [name for name, place in zip(column, places) if place is None]
@@ -127,42 +157,32 @@ class GlueChecks:
     def check(self, values: Mapping[str, Any]) -> bool:
         """Whether every gathered check passes with the values sent (every name an expression reads
         has come: :meth:`check_names`). Raises :class:`Unsupported` for what only the replay checks."""
-        entries, self.entries = self.entries, []
-        self.uses = {}
-        groups: dict[tuple[int, int, int, str], list[_Entry]] = {}
-        for entry in entries:
-            template, _, _, challenges, _, num_vars, order = entry
-            groups.setdefault((id(template), id(challenges), num_vars, order), []).append(entry)
-        for group in groups.values():
-            if not _Columns(self.field, self.kernel, values, group).passes():
-                return False
-        return True
+        groups, self.groups = self.groups, []
+        return all(_Columns(self.field, self.kernel, values, group).passes() for group in groups)
 
 
 class _Columns:
-    """One group of checks sharing a template (and, for evaluations, the block, num_vars and order):
-    the template evaluated over columns, one entry per check."""
+    """One group of checks: the template evaluated over columns, one entry per check."""
 
-    def __init__(self, field: Field, kernel: Kernel, values: Mapping[str, Any], group: list[_Entry]) -> None:
+    def __init__(self, field: Field, kernel: Kernel, values: Mapping[str, Any], group: _Group) -> None:
         self.field = field
         self.kernel = kernel
         self.values = values
         self.group = group
-        self.n = len(group)
-        self.template: Template = group[0][0]
+        self.n = len(group.expected)
+        self.template: Template = group.template
         self.words = isinstance(kernel, (SmallPrimeKernel, GoldilocksKernel, Word64Kernel))  # one uint64 each
 
     def passes(self) -> bool:
         expected = self.eval(self.template.root)
-        found = self.array([entry[2] for entry in self.group])
-        return bool(np.array_equal(expected, found))
+        return bool(np.array_equal(expected, self.array(self.group.expected)))
 
     # ----- columns ------------------------------------------------------------------------
     def names(self, name: str) -> list[str]:
         """The name a template's name stands for, per check (a hole ``#i``, or a word kept as is)."""
         if name[0] != "#":
             return [name] * self.n
-        return list(map(itemgetter(int(name[1:])), map(itemgetter(1), self.group)))
+        return self.group.columns[int(name[1:])]
 
     def array(self, items: list[Any]) -> np.ndarray:
         """Canonical elements (the Sequencer and the block checked them) as a kernel array."""
@@ -203,10 +223,10 @@ class _Columns:
         """A side of eq(...) as a matrix, one row of coordinates x_1..x_m per check."""
         kernel = self.kernel
         if side is None:  # the instance's own point
-            _, _, _, challenges, _, num_vars, order = self.group[0]
-            rows = np.array([entry[4] for entry in self.group], dtype=np.int64)[:, None] + np.arange(num_vars)
-            matrix = challenges[rows]
-            return matrix[:, ::-1] if order == "high-first" else matrix
+            group = self.group
+            rows = np.array(group.first_rows, dtype=np.int64)[:, None] + np.arange(group.num_vars)
+            matrix = group.challenges[rows]
+            return matrix[:, ::-1] if group.order == "high-first" else matrix
         if not isinstance(side, Table):
             raise Unsupported("point(NAME) in eq(...)")
         column = self.lists(side.name)

@@ -58,7 +58,7 @@ from stepper.transcript.model import (
 if TYPE_CHECKING:
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
-    from stepper.verify.glue_block import GlueChecks
+    from stepper.verify.glue_block import GlueChecks, Settled
     from stepper.verify.replay import Replay
 
 __all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
@@ -341,6 +341,7 @@ class _Sweeper:
         replay = self.replay
         pieces: list[list[memoryview]] | None = None
         digests = bytearray()  # of the glue's squeezes
+        glued: list[Settled] = []  # the runs with a claim_expr or final_expr
         unkept = glue.size  # the first glue event after a run whose summary is not kept
         bounds = glue.bounds
         try:
@@ -349,7 +350,7 @@ class _Sweeper:
                 first, final = block.next_run()
                 kept = replay.settle(start, final)
                 if start.claim_expr is not None or start.final_expr is not None:
-                    checks.add(start, final, block.challenges, first, i)
+                    glued.append((i, start, final, block.challenges, first))
                 schedule = replay.schedule  # the first settle may start the default schedule
                 if schedule is not None:
                     block.absorb(schedule, first, start.num_vars)
@@ -362,6 +363,8 @@ class _Sweeper:
                     replay.settle_glue(glue.records(i, start.index))
                 elif unkept == glue.size:
                     unkept = bounds[i]
+            if glued:
+                checks.add(glued)
             defined = glue.defined()
             checks.check_names(glue.runs_of_names(), defined, seq.defined)
         except Unsupported as err:

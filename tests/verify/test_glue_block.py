@@ -78,8 +78,8 @@ def gathered(name: str, starts, challenges, finals) -> GlueChecks:  # type: igno
     kernel = block_kernel(field)
     checks = GlueChecks(field, kernel)
     rows = kernel.array(challenges)
-    for run, (start, final) in enumerate(zip(starts, finals)):
-        checks.add(start, final, rows, start.index * start.num_vars, run)
+    checks.add([(run, start, final, rows, start.index * start.num_vars)
+                for run, (start, final) in enumerate(zip(starts, finals))])
     return checks
 
 
@@ -148,7 +148,7 @@ def test_what_only_the_replay_checks_is_refused():
     rows = checks.kernel.array([1])
     for text in ("eq(point(deck.0), w)", "final(deck.0) + 1", "eq(w) * a"):  # eq(a) in a claim: no point yet
         with pytest.raises(Unsupported):
-            checks.add(InstanceStart(1, "deck.1", 1, 1, 0, claim_expr=text), 0, rows, 0, 0)
+            checks.add([(0, InstanceStart(1, "deck.1", 1, 1, 0, claim_expr=text), 0, rows, 0)])
     starts, values, challenges, finals = glued_instances("goldilocks", 3, 2, seed=9)
     values["a1"] = [1, 2]  # a list where an element is wanted
     with pytest.raises(Unsupported):

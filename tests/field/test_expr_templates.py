@@ -1,0 +1,46 @@
+"""Templates of glue expressions read many at once (expr_syntax.templates_of): the same template and
+names, text by text, as expr_syntax.template_of, and each filled template is the tree the character
+parser builds (stepper.field.expr.parse, which reads the grammar without templates)."""
+
+from __future__ import annotations
+
+from hypothesis import given, settings, strategies as st
+
+from stepper.field.expr import parse
+from stepper.field.expr_syntax import fill, template_of, templates_of
+
+SHAPES = ("a{i} + beta{i}*b{i}", "eq(tau) * (a{i}*b{i} - c{i})", "eq(w{i}, u) * x{i}[2] + 3*y{i}^2",
+          "-(c{i} - eq(w{i})) * 7", "eq{i} + point.{i} * final_{i}", "x{i}[0] + 12*y{i}", "a{i}*a{i} - _{i}")
+NAMES = st.sampled_from(["v", "beta", "eqx", "eq.5", "point.x", "final2", "_q", "T"])
+
+
+def each_alone(texts: list[str]) -> list[tuple[object, list[str]] | None]:
+    return [template_of(text) for text in texts]
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from(SHAPES), st.integers(0, 40), NAMES), min_size=1, max_size=30))
+def test_many_texts_give_the_templates_and_names_each_gives_alone(picks):
+    texts = [shape.format(i=f"{name}{i}" if "{i}" in shape else i) for shape, i, name in picks]
+    groups = templates_of(texts)
+    alone = each_alone(texts)
+    assert groups is not None and all(found is not None for found in alone)
+    seen = sorted(i for _, _, positions in groups for i in positions)
+    assert seen == list(range(len(texts)))
+    for template, columns, positions in groups:
+        for row, i in enumerate(positions):
+            names = [column[row] for column in columns]
+            assert (template, names) == alone[i]
+            assert fill(template.root, names) == parse(texts[i]).root  # type: ignore[union-attr]
+
+
+def test_a_text_the_template_path_cannot_read_makes_the_whole_lot_none():
+    assert templates_of(["a + b", "a + + b"]) is None
+    assert templates_of(["a +", "b +"]) is None
+
+
+def test_texts_holding_a_newline_are_read_one_by_one():
+    groups = templates_of(["a0 +\nb0", "a1 + b1"])
+    assert groups is not None
+    assert sorted(i for _, _, positions in groups for i in positions) == [0, 1]
+    assert {tuple(column[0] for column in columns) for _, columns, _ in groups} == {("a0", "b0"), ("a1", "b1")}
