@@ -16,7 +16,7 @@ from stepper.errors import ExpressionError, TranscriptError
 from stepper.field.expr import Expr, parse as parse_expr, parse_cached
 from stepper.field.field import Element
 from stepper.field.poly import EQ_FACTORED
-from stepper.transcript.payload_rules import checked_text, short
+from stepper.transcript.payload_rules import MAX_TEXT, checked_text, short
 from stepper.transcript.model import (
     GLUE_NAME, GLUE_NAME_PATTERN, Event, GlueDraft, InstanceStart, NamedValue, Opening, OpeningDraft, Squeeze,
 )
@@ -86,6 +86,8 @@ class GlueRules(SequenceState):
     def _glue_text(self, payload: Mapping[str, Any], key: str) -> str | None:
         """An instance's ``claim_expr`` or ``final_expr`` as text, unparsed (see ``defer_glue``)."""
         raw = payload.get(key)
+        if raw.__class__ is str and len(raw) <= MAX_TEXT:  # type: ignore[arg-type]
+            return raw  # type: ignore[return-value]
         return None if raw is None else checked_text(raw, key, self._fail)
 
     def check_deferred(self, start: InstanceStart) -> None:

@@ -43,6 +43,8 @@ from stepper.transcript.packed import pack_elements
 from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
 
 if TYPE_CHECKING:
+    import numpy as np
+
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event
 
@@ -58,6 +60,7 @@ _INSTANCE_HEAD = bytes([8]) + b"instance"
 _OPENING_HEAD = bytes([7]) + b"opening"
 _VALUE_HEAD = bytes([5]) + b"value"
 _DRAW_HEAD = bytes([4]) + b"draw"
+_GLUE_CODES = {"value": 0, "squeeze": 1, "opening": 2}
 
 
 def frame(tag: bytes, body: bytes) -> bytes:
@@ -158,19 +161,24 @@ class Sha256Schedule:
         return frame(b"value", _text(record.name) + _u64(int(record.listed)) + _u64(len(items))  # type: ignore[union-attr]
                      + pack_elements(field, items))
 
-    def glue_stream(self, kinds: Sequence[str], names: Sequence[str], tables: Sequence[str], data: Sequence[bytes],
-                    counts: Sequence[int], listed: Sequence[bool]) -> tuple[bytes, list[int], list[int]]:
+    def glue_stream(self, kinds: Sequence[str], names: Sequence[str], tables: Sequence[str] | None,
+                    data: Sequence[bytes], counts: Sequence[int], listed: Sequence[bool]
+                    ) -> tuple[bytes, Sequence[int] | np.ndarray, Sequence[int] | np.ndarray]:
         """The bytes absorbed for glue events in stream order, built in one pass: a ``value`` or
         ``opening`` as :meth:`glue_frame` frames it, a ``squeeze`` as its draw frame (see
         :meth:`squeeze`) then the frame of each of its challenges, with the element sent standing
         in for the one squeezed. Event i has kind ``kinds[i]``, name ``names[i]`` (ASCII: a glue
-        name), table ``tables[i]`` (openings), its ``counts[i]`` elements packed in ``data[i]``
+        name), table ``tables[i]`` (openings; None: each its own name), its ``counts[i]`` elements packed in ``data[i]``
         and ``listed[i]`` (a list value). Returns the bytes, the offset where each event's frames
         end, and the offsets at which a challenge is squeezed (after a draw frame, and between
         two challenges of one squeeze): with :meth:`absorb_pieces` over the pieces between them,
         the schedule's state, when every squeezed element is the one sent."""
         field = self._need_field("value")
         width, head = field.elem_bytes, self._challenge_head
+        if tables is None:  # every opening's table is its name
+            if kinds and not any(listed):
+                return _flat_glue_stream(kinds, names, b"".join(data), width, head)
+            tables = names
         u64 = _u64
         parts: list[bytes] = []
         ends: list[int] = []
@@ -394,3 +402,66 @@ class Sha256Schedule:
 
         self._stepper = (field, prime)
         return prime
+
+
+def _flat_glue_stream(kinds: Sequence[str], names: Sequence[str], elements: bytes, width: int,
+                      challenge_head: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
+    """:meth:`Sha256Schedule.glue_stream` of glue events of one element each, every opening's table
+    its own name, built with numpy: each frame's pieces written at their offsets, for all events
+    of a kind at once (the names copied through one gather of their joined bytes)."""
+    import numpy as np
+
+    u8 = np.uint8
+    kind = np.fromiter(map(_GLUE_CODES.__getitem__, kinds), dtype=np.int8, count=len(kinds))
+    lengths = np.fromiter(map(len, names), dtype=np.int64, count=len(names))
+    is_opening, is_value = kind == 2, kind == 0
+    is_squeeze = ~(is_opening | is_value)
+    size = np.where(is_opening, 32 + 2 * lengths + width,
+                    np.where(is_value, 38 + lengths + width, 37 + lengths + len(challenge_head) + width))
+    ends = np.cumsum(size)
+    offsets = ends - size
+    out = np.empty(int(ends[-1]), dtype=u8)
+    joined = np.frombuffer("\n".join(names).encode(), dtype=u8)
+    name_starts = np.cumsum(lengths + 1) - lengths - 1  # of each name in the joined bytes
+    cells = np.frombuffer(elements, dtype=u8).reshape(len(names), width)
+
+    def put(at: np.ndarray, data: np.ndarray | bytes) -> None:
+        """Rows of equal length written at offsets ``at`` (one row for all when ``data`` is bytes)."""
+        row = np.frombuffer(data, dtype=u8) if isinstance(data, bytes) else data
+        out[at[:, None] + np.arange(row.shape[-1])] = row
+
+    def put_u64(at: np.ndarray, numbers: np.ndarray | int) -> None:
+        put(at, np.broadcast_to(np.asarray(numbers, dtype="<u8"), at.shape).reshape(-1, 1).view(u8))
+
+    def put_names(at: np.ndarray, chosen: np.ndarray) -> None:
+        sizes = lengths[chosen]
+        before = np.cumsum(sizes) - sizes
+        step = np.arange(int(sizes.sum())) - np.repeat(before, sizes)
+        out[np.repeat(at, sizes) + step] = joined[np.repeat(name_starts[chosen], sizes) + step]
+
+    for chosen, head in ((is_opening, _OPENING_HEAD), (is_value, _VALUE_HEAD), (is_squeeze, _DRAW_HEAD)):
+        if not chosen.any():
+            continue
+        at, sizes = offsets[chosen], lengths[chosen]
+        put(at, head)
+        at = at + len(head)
+        if head is _OPENING_HEAD:  # body: u64(n) name u64(n) name element
+            put_u64(at, 16 + 2 * sizes + width)
+            put_u64(at + 8, sizes)
+            put_names(at + 16, chosen)
+            put_u64(at + 16 + sizes, sizes)
+            put_names(at + 24 + sizes, chosen)
+            put(at + 24 + 2 * sizes, cells[chosen])
+            continue
+        put_u64(at, 24 + sizes + (width if head is _VALUE_HEAD else 0))  # body: u64(n) name u64(0) u64(1)
+        put_u64(at + 8, sizes)
+        put_names(at + 16, chosen)
+        put_u64(at + 16 + sizes, 0)
+        put_u64(at + 24 + sizes, 1)
+        if head is _VALUE_HEAD:
+            put(at + 32 + sizes, cells[chosen])
+        else:  # then the challenge frame of the element squeezed
+            put(at + 32 + sizes, challenge_head)
+            put(at + 32 + sizes + len(challenge_head), cells[chosen])
+    cuts = (offsets + 37 + lengths)[is_squeeze]
+    return out.tobytes(), ends, cuts

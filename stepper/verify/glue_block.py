@@ -44,7 +44,7 @@ from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub,
 
 if TYPE_CHECKING:
     from stepper.field.expr_syntax import Node, Template
-    from stepper.field.field import Element, Field
+    from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
 
@@ -142,7 +142,8 @@ class GlueChecks:
                     raise Unsupported("a call word used as a name")
                 column = group.columns[hole]
                 places: list[Any] = list(map(runs.get, column))
-                if None in places:
+                missing = places.count(None)  # names sent before the flush
+                if missing:
                     before = [name for name, place in zip(column, places) if place is None]
                     if not all(map(earlier.__contains__, before)) or any(
                             (earlier[name] is None) == listed for name in before):
@@ -150,21 +151,26 @@ class GlueChecks:
                     places = [-1 if place is None else place for place in places]
                 if any(map(int.__gt__, places, limits)):
                     raise Unsupported("a name sent after the expression may read it")
-                kinds = list(map(defined.get, column))
-                if any((kind is None) == listed for kind, place in zip(kinds, places) if place >= 0):
+                elements = list(map(defined.get, column)).count(None)  # the flush's elements, and the earlier names
+                if elements != (missing if listed else len(column)):
                     raise Unsupported("a name of another kind")
 
-    def check(self, values: Mapping[str, Any]) -> bool:
+    def check(self, values: Mapping[str, Any], cells: tuple[Mapping[str, int], np.ndarray] | None = None) -> bool:
         """Whether every gathered check passes with the values sent (every name an expression reads
-        has come: :meth:`check_names`). Raises :class:`Unsupported` for what only the replay checks."""
+        has come: :meth:`check_names`). ``cells``, when given, holds the flush's elements already
+        as a kernel array, and each one's row there by name (lists excepted): a column of them is
+        then taken from it rather than made from the values. Raises :class:`Unsupported` for what
+        only the replay checks."""
         groups, self.groups = self.groups, []
-        return all(_Columns(self.field, self.kernel, values, group).passes() for group in groups)
+        return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
 
 
 class _Columns:
     """One group of checks: the template evaluated over columns, one entry per check."""
 
-    def __init__(self, field: Field, kernel: Kernel, values: Mapping[str, Any], group: _Group) -> None:
+    def __init__(self, field: Field, kernel: Kernel, values: Mapping[str, Any], group: _Group,
+                 cells: tuple[Mapping[str, int], np.ndarray] | None = None) -> None:
+        self.cells = cells
         self.field = field
         self.kernel = kernel
         self.values = values
@@ -206,6 +212,10 @@ class _Columns:
             if value.__class__ is list:
                 raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
             return self.repeated(self.array([value]))
+        if self.cells is not None:
+            rows: list[Any] = list(map(self.cells[0].get, names))
+            if None not in rows:
+                return self.cells[1][rows]
         column = list(map(values.__getitem__, names))
         if list in set(map(type, column)):
             raise Unsupported("a list where an element is wanted")

@@ -19,7 +19,8 @@ file event by event, which names the problem.
 from __future__ import annotations
 
 import re
-from bisect import bisect_left
+from itertools import accumulate, chain
+from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
@@ -28,6 +29,8 @@ from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, rederive
 
 if TYPE_CHECKING:
+    import numpy as np
+
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.verify.fiatshamir import Sha256Schedule
@@ -44,46 +47,60 @@ class GlueColumns:
     def __init__(self, field: Field, tails: Sequence[Sequence[Mapping[str, Any]]], defined: Mapping[str, Any]) -> None:
         """``tails[i]`` holds the payloads that followed run i, in stream order; ``defined`` the
         glue names sent before the flush (they may not come again)."""
-        payloads = [payload for tail in tails for payload in tail]
+        payloads = list(chain.from_iterable(tails))
         self.field = field
         self.size = len(payloads)
-        self.bounds = [0]  # run i's events are bounds[i] .. bounds[i + 1] - 1
-        for tail in tails:
-            self.bounds.append(self.bounds[-1] + len(tail))
-        self.kinds: list[str] = [payload["type"] for payload in payloads]
-        names = [payload.get("name") for payload in payloads]
-        try:
-            joined = "\n".join(names)  # type: ignore[arg-type]
-        except TypeError:
-            raise GiveUp("a glue name that is not text") from None
+        self.bounds = [0, *accumulate(map(len, tails))]  # run i's events are bounds[i] .. bounds[i + 1] - 1
+        try:  # each payload is a map with a type (the sweep kept it for its type)
+            self.kinds: list[str] = list(map(itemgetter("type"), payloads))
+            names = list(map(itemgetter("name"), payloads))
+            raws: list[Any] = list(map(itemgetter("value"), payloads))
+            joined = "\n".join(names)
+        except (KeyError, TypeError):
+            raise GiveUp("a glue event without a name or value, or a name that is not text") from None
         if payloads and _NAMES.fullmatch(joined) is None:
             raise GiveUp("a glue name outside the pattern")
         if len(set(names)) != len(names) or not defined.keys().isdisjoint(names):
             raise GiveUp("a glue name sent twice")
-        self.names: list[str] = names  # type: ignore[assignment]
-        tables = [payload.get("table", name) if kind == "opening" else "" for payload, kind, name
-                  in zip(payloads, self.kinds, names)]
-        given = [table for table, name, kind in zip(tables, names, self.kinds) if kind == "opening" and table is not name]
+        self.names: list[str] = names
+        self.tables = self._tables(payloads)
+        types = set(map(type, raws))
+        if list not in types:  # one element each (the usual case): no per-event work
+            self.listed = [False] * self.size
+            self.counts = [1] * self.size
+            self.data: list[bytes] = raws
+            self.values = self._decode(raws, raws)
+            return
+        self.listed = [raw.__class__ is list for raw in raws]
+        self.counts = [len(raw) if is_list else 1 for raw, is_list in zip(raws, self.listed)]
+        if self.counts and max(self.counts) > MAX_VALUES:
+            raise GiveUp("a glue list longer than the Sequencer takes")
+        if any(is_list and kind == "opening" for is_list, kind in zip(self.listed, self.kinds)):
+            raise GiveUp("an opening of a list")
+        self.data = [b"".join(raw) if is_list else raw for raw, is_list in zip(raws, self.listed)]
+        cells = [cell for raw, is_list in zip(raws, self.listed) for cell in (raw if is_list else (raw,))]
+        self.values = self._decode(raws, cells)
+
+    def _tables(self, payloads: list[Mapping[str, Any]]) -> list[str]:
+        """Each opening's table (its name unless the payload names one); the names themselves stand
+        for the others, which have none."""
+        if sum(map(len, payloads)) == 3 * len(payloads):  # type, name, value only: no table named apart
+            return self.names
+        tables = [payload.get("table", name) if kind == "opening" else name for payload, kind, name
+                  in zip(payloads, self.kinds, self.names)]
+        given = [table for table, name, kind in zip(tables, self.names, self.kinds)
+                 if kind == "opening" and table is not name]
         try:
             if given and _NAMES.fullmatch("\n".join(given)) is None:
                 raise GiveUp("an opening's table outside the pattern")
         except TypeError:
             raise GiveUp("an opening's table that is not text") from None
-        self.tables = tables
-        raws: list[Any] = [payload.get("value") for payload in payloads]
-        self.listed = [raw.__class__ is list for raw in raws]
-        self.counts: list[int] = [len(raw) if is_list else 1 for raw, is_list in zip(raws, self.listed)]
-        if self.counts and max(self.counts) > MAX_VALUES:
-            raise GiveUp("a glue list longer than the Sequencer takes")
-        if any(is_list and kind == "opening" for is_list, kind in zip(self.listed, self.kinds)):
-            raise GiveUp("an opening of a list")
-        self.data: list[bytes] = [b"".join(raw) if is_list else raw for raw, is_list in zip(raws, self.listed)]
-        self.values = self._decode(raws)
+        return tables
 
-    def _decode(self, raws: list[Any]) -> list[Any]:
-        """The elements sent, as the replay's glue book keeps them: an element, or a list of them."""
+    def _decode(self, raws: list[Any], cells: list[Any]) -> list[Any]:
+        """The elements sent, as the replay's glue book keeps them: an element, or a list of them
+        (``cells``: every element's packed bytes, in order)."""
         width = self.field.elem_bytes
-        cells = [raw for raw, is_list in zip(raws, self.listed) for raw in (raw if is_list else (raw,))]
         if set(map(type, cells)) - {bytes} or set(map(len, cells)) - {width}:
             raise GiveUp("a glue element not packed as the writer packs it")
         elements = decoder_for(self.field)(b"".join(cells))
@@ -101,11 +118,15 @@ class GlueColumns:
     # ----- what the rest of the flush reads -----------------------------------------------
     def runs_of_names(self) -> dict[str, int]:
         """Each name's run (the index of the run it follows in the flush)."""
-        runs = [i for i in range(len(self.bounds) - 1) for _ in range(self.bounds[i + 1] - self.bounds[i])]
+        import numpy as np
+
+        runs = np.repeat(np.arange(len(self.bounds) - 1), np.diff(self.bounds)).tolist()
         return dict(zip(self.names, runs))
 
     def defined(self) -> dict[str, int | None]:
         """The names as the Sequencer records them: a list's length, None for one element."""
+        if not any(self.listed):
+            return dict.fromkeys(self.names)
         return {name: n if is_list else None for name, n, is_list in zip(self.names, self.counts, self.listed)}
 
     def records(self, run: int, instance: int) -> list[NamedValue | Squeeze | Opening]:
@@ -119,6 +140,18 @@ class GlueColumns:
             cls = NamedValue if kind == "value" else Squeeze
             out.append(cls(name, tuple(value) if self.listed[i] else value, self.listed[i], instance))
         return out
+
+    def cells(self, kernel: Kernel) -> tuple[dict[str, int], np.ndarray] | None:
+        """The flush's elements as a kernel array, and each name's row there (None when some value
+        is a list)."""
+        import numpy as np
+
+        from stepper.verify.cells import decode_cells
+
+        if any(self.listed) or not self.size:
+            return None
+        array = decode_cells(kernel, np.frombuffer(b"".join(self.data), dtype=np.uint8), self.field.elem_bytes)
+        return dict(zip(self.names, range(self.size))), array
 
     def squeezes_pass(self, kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray) -> bool:
         """Whether every element squeezed is the one sent, ``digests`` being those
@@ -134,21 +167,18 @@ class GlueColumns:
         return bool(np.array_equal(rederive(kernel, schedule, digests, len(sent) // width, expected.shape),
                                    expected))
 
-    def pieces(self, schedule: Sha256Schedule) -> list[list[memoryview]]:
-        """Per run, the pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes
-        after the run's rounds (empty for a run with no glue)."""
-        stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, self.tables, self.data, self.counts,
-                                                  self.listed)
+    def pieces(self, schedule: Sha256Schedule) -> tuple[list[memoryview], list[int]]:
+        """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after the
+        runs' rows, all in one list, and where each run's begin in it: run i's are
+        ``pieces[starts[i]:starts[i + 1]]`` (none for a run with no glue)."""
+        import numpy as np
+
+        tables = None if self.tables is self.names else self.tables
+        stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts, self.listed)
         view = memoryview(stream)
-        out: list[list[memoryview]] = []
-        bounds = self.bounds
-        for run in range(len(bounds) - 1):
-            first, last = bounds[run], bounds[run + 1]
-            if first == last:
-                out.append([])
-                continue
-            start, stop = ends[first - 1] if first else 0, ends[last - 1]
-            inside = cuts[bisect_left(cuts, start):bisect_left(cuts, stop)]
-            marks = [start, *inside, stop]
-            out.append([view[a:b] for a, b in zip(marks, marks[1:])])
-        return out
+        bounds = np.array(self.bounds, dtype=np.int64)
+        run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[bounds]  # byte offset where each run's glue ends
+        marks = np.union1d(run_ends, np.asarray(cuts, dtype=np.int64)).tolist()  # every piece boundary, sorted
+        pieces = list(map(view.__getitem__, map(slice, marks[:-1], marks[1:])))
+        starts = np.searchsorted(np.array(marks[:-1], dtype=np.int64), run_ends).tolist()
+        return pieces, starts

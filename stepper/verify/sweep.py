@@ -339,7 +339,8 @@ class _Sweeper:
             members.setdefault(run[3], []).append(run)
         blocks = {layout: RunBlock(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
-        pieces: list[list[memoryview]] | None = None
+        pieces: list[memoryview] | None = None
+        piece_starts: list[int] = []
         digests = bytearray()  # of the glue's squeezes
         glued: list[Settled] = []  # the runs with a claim_expr or final_expr
         unkept = glue.size  # the first glue event after a run whose summary is not kept
@@ -356,9 +357,10 @@ class _Sweeper:
                     block.absorb(schedule, first, start.num_vars)
                     if glue.size:
                         if pieces is None:
-                            pieces = glue.pieces(schedule)
-                        if pieces[i]:
-                            schedule.absorb_pieces(pieces[i], digests)
+                            pieces, piece_starts = glue.pieces(schedule)
+                        a, b = piece_starts[i], piece_starts[i + 1]
+                        if a < b:
+                            schedule.absorb_pieces(pieces[a:b], digests)
                 if kept:
                     replay.settle_glue(glue.records(i, start.index))
                 elif unkept == glue.size:
@@ -380,7 +382,7 @@ class _Sweeper:
         if digests and not glue.squeezes_pass(kernel, replay.schedule, digests):
             raise _GiveUp("a squeeze differs from the derived one")
         try:
-            passes = checks.check(replay.glue_values())
+            passes = checks.check(replay.glue_values(), glue.cells(kernel) if glued else None)
         except Unsupported as err:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
         if not passes or replay.failed:

@@ -290,3 +290,40 @@ def test_glue_stream_absorbed_by_pieces_reproduces_the_glue_vectors():
     s.absorb_pieces([stream[a:b] for a, b in zip(marks, marks[1:])], digests)
     assert s.state_digest().hex() == GLUE_DIGESTS["squeeze w"]
     assert [int.from_bytes(digests[i:i + s.wide_bytes], "little") % P for i in (0, 32, 64)] == [BETA, *W]
+
+
+@pytest.mark.parametrize("spec", [("goldilocks", None), ("babybear", 4), ("bn254", None)])
+def test_glue_stream_of_single_elements_gives_the_state_of_the_records_observed_one_by_one(spec):
+    # the glue of many runs framed at once (values, openings and squeezes of one element each, names of
+    # every length) against the schedule observing each record and squeezing, the squeezed elements sent
+    import random
+
+    from stepper.transcript.model import NamedValue, Opening
+
+    name, ext_degree = spec
+    p = NAMED_PRIMES[name]
+    field = get_field(p, (p - 11, 0, 0, 0, 1)) if ext_degree else get_field(p)
+    rng = random.Random(5)
+    one, bulk = Sha256Schedule(), Sha256Schedule()
+    for s in (one, bulk):
+        s.observe(FieldDecl(field))
+        s.observe(InstanceStart(0, "deck-slots-zero", 1, 1, field.zero))
+    kinds, names, data, squeezed = [], [], [], []
+    for i in range(60):
+        kind = rng.choice(["value", "squeeze", "opening"])
+        label = "x" * rng.randrange(1, 9) + f".{i}"
+        if kind == "squeeze":
+            element = one.squeeze(label)
+            squeezed.append(element)
+        else:
+            element = field.embed(rng.randrange(p)) if not ext_degree else tuple(rng.randrange(p) for _ in range(4))
+            one.observe(NamedValue(label, element) if kind == "value" else Opening(label, element, label, 0))
+        kinds.append(kind)
+        names.append(label)
+        data.append(field.encode(element))
+    stream, ends, cuts = bulk.glue_stream(kinds, names, None, data, [1] * 60, [False] * 60)
+    assert ends[-1] == len(stream) and len(cuts) == len(squeezed)
+    marks = [0, *cuts, len(stream)]
+    digests = bytearray()
+    bulk.absorb_pieces([stream[a:b] for a, b in zip(marks, marks[1:])], digests)
+    assert bulk.state_digest() == one.state_digest()

@@ -157,3 +157,19 @@ def test_what_only_the_replay_checks_is_refused():
     values["u2"] = [1, 2, 3]  # eq(w, u2) over points of different lengths
     with pytest.raises(Unsupported):
         gathered("goldilocks", starts, challenges, finals).check(values)
+
+
+@pytest.mark.parametrize("name", sorted(ARITHMETIC))
+def test_elements_taken_from_the_flush_cells_give_the_same_answers(name):
+    # the sweep hands the flush's elements over already decoded (GlueColumns.cells): same verdicts
+    ar = ARITHMETIC[name]
+    field = field_of(name)
+    kernel = block_kernel(field)
+    for wrong in (False, True):
+        starts, values, challenges, finals = glued_instances(name, 12, 3, seed=12)
+        if wrong:
+            values["b7"] = ar.add(values["b7"], ar.const(1))  # type: ignore[arg-type]
+        scalars = [n for n, v in values.items() if not isinstance(v, list)]
+        cells = ({n: i for i, n in enumerate(scalars)}, kernel.array([values[n] for n in scalars]))
+        with_cells = gathered(name, starts, challenges, finals).check(values, cells)
+        assert with_cells == gathered(name, starts, challenges, finals).check(values) == (not wrong)
