@@ -311,14 +311,11 @@ def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list
         if any(found is None for found in singles):
             return None
         return [(found[0], [[name] for name in found[1]], [i]) for i, found in enumerate(singles)]  # type: ignore[index]
+    uniform = _one_shape(texts, joined)
+    if uniform is not None:
+        return uniform
     shapes = _HOLE.sub("\x00", joined).split("\n")
     names = _HOLE.findall(joined)
-    if shapes.count(shapes[0]) == len(shapes):  # one shape: the names fall into columns by position
-        found = template_of(texts[0])
-        holes = shapes[0].count("\x00")
-        if found is None or len(found[1]) != holes:
-            return None
-        return [(found[0], [names[j::holes] for j in range(holes)] if holes else [], list(range(len(texts))))]
     groups: dict[str, tuple[list[int], list[int]]] = {}  # shape -> positions, first name of each text
     at = 0
     for i, shape in enumerate(shapes):
@@ -336,6 +333,36 @@ def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list
             return None
         out.append((found[0], [[names[a + j] for a in starts] for j in range(holes)], positions))
     return out
+
+
+def _one_shape(texts: list[str], joined: str) -> list[tuple[Template, list[list[str]], list[int]]] | None:
+    """:func:`templates_of` when every text has the same text between its words (the usual case:
+    one expression per instance, its names numbered), found by one regex split of the joined
+    texts; None when they do not (or a call word stands where another text has a name)."""
+    parts = _SPLIT.split(joined)
+    seps, words = parts[0::2], parts[1::2]
+    n = len(texts)
+    width, rest = divmod(len(words), n)
+    if rest or not width:
+        return None
+    head, tail = seps[0], seps[-1]
+    if seps[width:-1:width].count(f"{tail}\n{head}") != n - 1:
+        return None
+    for j in range(1, width):
+        column = seps[j::width]
+        if column.count(column[0]) != n:
+            return None
+    holes: list[list[str]] = []
+    for j in range(width):
+        column = words[j::width]
+        if _CALLS.isdisjoint(column):
+            holes.append(column)
+        elif column.count(column[0]) != n:
+            return None
+    found = template_of(texts[0])
+    if found is None or found[1] != [column[0] for column in holes]:
+        return None
+    return [(found[0], holes, list(range(n)))]
 
 
 def fill(node: Node, names: list[str]) -> Node:

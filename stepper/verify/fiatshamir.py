@@ -86,6 +86,7 @@ class Sha256Schedule:
         self.field: Field | None = None
         self._wide = 0
         self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
+        self._squeezes: tuple[bytes, ...] = ()  # the squeeze frames of one challenge, sample by sample, in order
         self._challenge_head = b""
         self._element_packer: Callable[..., bytes] | None = None  # an extension element's k coefficients, packed
         self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
@@ -251,6 +252,7 @@ class Sha256Schedule:
         blocks = -(-self._wide // 32)
         self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
                                      for s in range(field.degree))
+        self._squeezes = tuple(squeeze for frames in self._squeeze_frames for squeeze in frames)
         self._challenge_head = frame(b"challenge", b"")[:-8] + _u64(field.elem_bytes)
 
     def _need_field(self, kind: str) -> Field:
@@ -318,7 +320,7 @@ class Sha256Schedule:
         the first starts with the frame of the challenge squeezed before it, so the state is the
         schedule's only if each of those challenges is the one squeezed (the caller compares)."""
         update, copy = self._state.update, self._state.copy
-        squeezes = [squeeze for frames in self._squeeze_frames for squeeze in frames]
+        squeezes = self._squeezes
         out = digests  # appended in place: ``out += digest`` extends the caller's buffer
         update(pieces[0])
         if len(squeezes) == 1:
@@ -407,61 +409,48 @@ class Sha256Schedule:
 def _flat_glue_stream(kinds: Sequence[str], names: Sequence[str], elements: bytes, width: int,
                       challenge_head: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
     """:meth:`Sha256Schedule.glue_stream` of glue events of one element each, every opening's table
-    its own name, built with numpy: each frame's pieces written at their offsets, for all events
-    of a kind at once (the names copied through one gather of their joined bytes)."""
+    its own name, built with numpy: the events of one kind and one name length have frames of
+    one length, built as the rows of a matrix (a column slice per piece) and scattered to their
+    offsets in one step."""
     import numpy as np
 
     u8 = np.uint8
     kind = np.fromiter(map(_GLUE_CODES.__getitem__, kinds), dtype=np.int8, count=len(kinds))
     lengths = np.fromiter(map(len, names), dtype=np.int64, count=len(names))
-    is_opening, is_value = kind == 2, kind == 0
-    is_squeeze = ~(is_opening | is_value)
-    size = np.where(is_opening, 32 + 2 * lengths + width,
-                    np.where(is_value, 38 + lengths + width, 37 + lengths + len(challenge_head) + width))
-    ends = np.cumsum(size)
-    offsets = ends - size
+    heads = {0: _VALUE_HEAD, 1: _DRAW_HEAD, 2: _OPENING_HEAD}
+    sizes = np.where(kind == 2, 32 + 2 * lengths + width,
+                     np.where(kind == 0, 38 + lengths + width, 37 + lengths + len(challenge_head) + width))
+    ends = np.cumsum(sizes)
+    offsets = ends - sizes
     out = np.empty(int(ends[-1]), dtype=u8)
     joined = np.frombuffer("\n".join(names).encode(), dtype=u8)
     name_starts = np.cumsum(lengths + 1) - lengths - 1  # of each name in the joined bytes
     cells = np.frombuffer(elements, dtype=u8).reshape(len(names), width)
 
-    def put(at: np.ndarray, data: np.ndarray | bytes) -> None:
-        """Rows of equal length written at offsets ``at`` (one row for all when ``data`` is bytes)."""
-        row = np.frombuffer(data, dtype=u8) if isinstance(data, bytes) else data
-        out[at[:, None] + np.arange(row.shape[-1])] = row
+    def u64s(numbers: np.ndarray | int, count: int) -> np.ndarray:
+        return np.broadcast_to(np.asarray(numbers, dtype="<u8"), (count,)).astype("<u8").view(u8).reshape(count, 8)
 
-    def put_u64(at: np.ndarray, numbers: np.ndarray | int) -> None:
-        put(at, np.broadcast_to(np.asarray(numbers, dtype="<u8"), at.shape).reshape(-1, 1).view(u8))
-
-    def put_names(at: np.ndarray, chosen: np.ndarray) -> None:
-        sizes = lengths[chosen]
-        before = np.cumsum(sizes) - sizes
-        step = np.arange(int(sizes.sum())) - np.repeat(before, sizes)
-        out[np.repeat(at, sizes) + step] = joined[np.repeat(name_starts[chosen], sizes) + step]
-
-    for chosen, head in ((is_opening, _OPENING_HEAD), (is_value, _VALUE_HEAD), (is_squeeze, _DRAW_HEAD)):
-        if not chosen.any():
-            continue
-        at, sizes = offsets[chosen], lengths[chosen]
-        put(at, head)
-        at = at + len(head)
-        if head is _OPENING_HEAD:  # body: u64(n) name u64(n) name element
-            put_u64(at, 16 + 2 * sizes + width)
-            put_u64(at + 8, sizes)
-            put_names(at + 16, chosen)
-            put_u64(at + 16 + sizes, sizes)
-            put_names(at + 24 + sizes, chosen)
-            put(at + 24 + 2 * sizes, cells[chosen])
-            continue
-        put_u64(at, 24 + sizes + (width if head is _VALUE_HEAD else 0))  # body: u64(n) name u64(0) u64(1)
-        put_u64(at + 8, sizes)
-        put_names(at + 16, chosen)
-        put_u64(at + 16 + sizes, 0)
-        put_u64(at + 24 + sizes, 1)
-        if head is _VALUE_HEAD:
-            put(at + 32 + sizes, cells[chosen])
-        else:  # then the challenge frame of the element squeezed
-            put(at + 32 + sizes, challenge_head)
-            put(at + 32 + sizes + len(challenge_head), cells[chosen])
-    cuts = (offsets + 37 + lengths)[is_squeeze]
+    shape = kind.astype(np.int64) * 256 + lengths  # events with frames of one layout share a value
+    for value in np.unique(shape).tolist():
+        chosen = np.flatnonzero(shape == value)
+        code, size = divmod(value, 256)
+        count, head = len(chosen), heads[code]
+        rows = np.empty((count, int(sizes[chosen[0]])), dtype=u8)
+        name = joined[name_starts[chosen][:, None] + np.arange(size)]
+        rows[:, :len(head)] = np.frombuffer(head, dtype=u8)
+        at = len(head)
+        if code == 2:  # opening: u64(body) u64(n) name u64(n) name element
+            parts = [u64s(16 + 2 * size + width, count), u64s(size, count), name, u64s(size, count), name, cells[chosen]]
+        elif code == 0:  # value: u64(body) u64(n) name u64(0) u64(1) element
+            parts = [u64s(24 + size + width, count), u64s(size, count), name, u64s(0, count), u64s(1, count),
+                     cells[chosen]]
+        else:  # squeeze: its draw frame, then the challenge frame of the element squeezed
+            parts = [u64s(24 + size, count), u64s(size, count), name, u64s(0, count), u64s(1, count),
+                     np.broadcast_to(np.frombuffer(challenge_head, dtype=u8), (count, len(challenge_head))),
+                     cells[chosen]]
+        for part in parts:
+            rows[:, at:at + part.shape[1]] = part
+            at += part.shape[1]
+        out[(offsets[chosen][:, None] + np.arange(rows.shape[1])).ravel()] = rows.ravel()
+    cuts = (offsets + 37 + lengths)[kind == 1]
     return out.tobytes(), ends, cuts

@@ -211,17 +211,18 @@ class _Sweeper:
         seq, replay, instance_cls = self.seq, self.replay, InstanceStart
         passive = (Note, BucketStats, UnknownEvent)
         quiet = ("instance", "note", "buckets")  # events the Sequencer judges without the glue names
+        glue_types, known_types = _GLUE_TYPES, _KNOWN_TYPES
         seq.defer_glue = True
         for payload in payloads:
             tail = self.glue_tail
             if tail is not None:
                 kind = payload.get("type") if payload.__class__ is dict else None
-                if kind in _GLUE_TYPES:
+                if kind in glue_types:
                     tail.append(payload)
                     seq.count += 1
                     continue
                 if kind not in quiet or (kind == "instance" and ("eq_point" in payload or self.due)):
-                    if kind in _KNOWN_TYPES:
+                    if kind in known_types:
                         self._flush()
             record = seq.feed(payload)
             cls = record.__class__
