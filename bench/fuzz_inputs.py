@@ -328,6 +328,9 @@ def mutate_witness(rng: random.Random, seed: Seed) -> tuple[bytes, str]:
     elif roll < 0.85:
         data, how = mutate_bytes(rng, seed.witness)
         return data, "witness " + how
+    elif roll < 0.9:  # tables long enough for the JSON reader's whole-array path, then bytes changed
+        data, how = mutate_bytes(rng, _long_tables(raw))
+        return data, "long-table witness " + how
     else:
         depth = rng.choice((33, 1000, 100_000))
         return b'{"instances": ' + b"[" * depth + b"]" * depth + b"}", f"nested {depth} deep"
@@ -337,6 +340,16 @@ def mutate_witness(rng: random.Random, seed: Seed) -> tuple[bytes, str]:
         except (OverflowError, TypeError, ValueError):  # a Deep value, or an int msgpack cannot hold
             pass
     return dumps(raw).encode(), how
+
+
+def _long_tables(raw: Any) -> bytes:
+    """The witness with every table repeated past stepper.diagnose.witness_json.MIN_BYTES of text."""
+    for inst in raw.get("instances", []) if isinstance(raw, dict) else []:
+        tables = inst.get("tables") if isinstance(inst, dict) else None
+        for name, table in (tables.items() if isinstance(tables, dict) else []):
+            if isinstance(table, list) and table:
+                tables[name] = table * (1 + 70_000 // len(json.dumps(table)))
+    return json.dumps(raw, separators=(",", ":")).encode()
 
 
 def expression(rng: random.Random, names: list[str], depth: int = 0) -> str:

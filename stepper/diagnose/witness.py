@@ -32,6 +32,7 @@ from typing import Any, Mapping, Sequence, Union
 
 import numpy as np
 
+from stepper.diagnose.witness_json import put_back, split_tables
 from stepper.errors import ExpressionError, WitnessError, Where
 from stepper.field.expr import Expr, parse
 
@@ -127,12 +128,18 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
         raise WitnessError(f"expected a readable witness file, found {err.strerror or err}", where) from None
     stripped = data.lstrip()
     if stripped[:1] in (b"{", b"["):
-        depth = json_depth(data)
+        text, nesting, arrays = split_tables(data)  # large integer arrays read whole by numpy
+        depth = json_depth(nesting)
         if depth > limits.max_depth:
             raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth", f"{depth} levels",
                                 where)
         try:
-            raw = json.loads(data.decode("utf-8"))
+            try:
+                raw = put_back(json.loads(text.decode("utf-8")), arrays)
+            except ValueError:  # JSON or UTF-8 errors: decoded again whole, to name the place in the file itself
+                if not arrays:
+                    raise
+                raw = json.loads(data.decode("utf-8"))
         except UnicodeDecodeError as err:
             raise WitnessError(f"expected UTF-8 JSON, found an invalid byte at byte {err.start}", where) from None
         except json.JSONDecodeError as err:
@@ -318,7 +325,7 @@ def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None
                 if base_dir is None:
                     raise WitnessError(f"expected table {tname!r} as a list of elements, found text", iwhere)
                 parsed[tname] = _load_npy(base_dir, entries, tname, iwhere, limits)
-            elif isinstance(entries, list):
+            elif isinstance(entries, (list, np.ndarray)):  # an array: read from JSON text by witness_json
                 if len(entries) > limits.max_entries:
                     raise limits.refuse(f"table {tname!r} with at most {{limit}} entries", "max_entries",
                                         len(entries), iwhere)
