@@ -298,7 +298,7 @@ def test_a_witness_of_one_hundred_thousand_nested_brackets_exits_2_not_70(tmp_pa
 @pytest.mark.parametrize("order", ["low-first", "high-first"])
 def test_every_engine_and_chunk_prints_the_same_json_for_a_binary_witness(tmp_path, capsys, fault, order):
     proof, folder = tmp_path / "p.sumtr", tmp_path / "w"
-    argv = ["prove", "--kind", "generic", "--field", "babybear^4", "--num-vars", "9", "--combine", "a*b*c",
+    argv = ["prove", "--kind", "generic", "--field", "babybear^4", "--num-vars", "7", "--combine", "a*b*c",
             "--order", order, "-o", str(proof), "--witness-out", str(folder)]
     assert main([*argv, *(["--fault", fault] if fault else [])]) == 0
     capsys.readouterr()
