@@ -8,8 +8,10 @@ distinct field elements only while d < p = 2 (common practice, no source).
 
 from __future__ import annotations
 
+import copy
 import io
 import json
+from pathlib import Path
 
 import pytest
 
@@ -36,11 +38,25 @@ def field(monkeypatch: pytest.MonkeyPatch):
     gf.__dict__.pop("kernel", None)
 
 
-def _events(field, tmp_path) -> list[dict]:
-    out = io.StringIO()
-    proof = prove(ProveSpec("generic", num_vars=NUM_VARS, seed=3, combine="a + b"), field, JsonLinesSink(out))
-    write_witness(str(tmp_path / "w.json"), field, proof)
-    return [json.loads(line) for line in out.getvalue().splitlines()]
+@pytest.fixture(scope="module")
+def proved(tmp_path_factory: pytest.TempPathFactory) -> tuple[list[dict], Path, bool]:
+    """The honest proof's events, its witness file, and whether the prover's products went through
+    galois: made once for the module (2^16 entries), by the kernel ``field`` gives each test."""
+    folder = tmp_path_factory.mktemp("gf2_16")
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(binary, "GALOIS_AFTER", 0)
+        gf = get_field(2, GF2_16)
+        gf.__dict__.pop("kernel", None)
+        out = io.StringIO()
+        proof = prove(ProveSpec("generic", num_vars=NUM_VARS, seed=3, combine="a + b"), gf, JsonLinesSink(out))
+        write_witness(str(folder / "w.json"), gf, proof)
+        through_galois = isinstance(gf.kernel, BinaryFieldKernel) and gf.kernel._galois_field is not None
+        gf.__dict__.pop("kernel", None)
+    return [json.loads(line) for line in out.getvalue().splitlines()], folder / "w.json", through_galois
+
+
+def _events(proved: tuple[list[dict], Path, bool]) -> list[dict]:
+    return copy.deepcopy(proved[0])  # each test may change its own copy
 
 
 def _transcript(tmp_path, name: str, events: list[dict]) -> str:
@@ -51,26 +67,27 @@ def _transcript(tmp_path, name: str, events: list[dict]) -> str:
     return str(out)
 
 
-def test_an_honest_gf_2_16_proof_is_accepted_with_its_witness(field, tmp_path, capsys) -> None:
-    events = _events(field, tmp_path)
+def test_an_honest_gf_2_16_proof_is_accepted_with_its_witness(field, proved, tmp_path, capsys) -> None:
+    events = _events(proved)
     assert events[0]["type"] == "field" and events[0]["modulus"] == "2" and events[0]["extension_degree"] == 16
-    assert isinstance(field.kernel, BinaryFieldKernel) and field.kernel._galois_field is not None
+    assert proved[2]  # the prover's large products went through galois
     path = _transcript(tmp_path, "honest", events)
     capsys.readouterr()
-    assert main(["check", path, "--witness", str(tmp_path / "w.json"), "--json"]) == 0
+    assert main(["check", path, "--witness", str(proved[1]), "--json"]) == 0
+    assert isinstance(field.kernel, BinaryFieldKernel) and field.kernel._galois_field is not None  # and check's
     report = conforming(capsys.readouterr().out, "check")
     assert report["verdict"] == "accept" and report["root_cause"] is None
     assert len(report["instances"][0]["rounds"]) == NUM_VARS
 
 
-def test_a_corrupted_round_of_a_gf_2_16_proof_is_rejected_at_that_round(field, tmp_path, capsys) -> None:
-    events = _events(field, tmp_path)
+def test_a_corrupted_round_of_a_gf_2_16_proof_is_rejected_at_that_round(field, proved, tmp_path, capsys) -> None:
+    events = _events(proved)
     rounds = [e for e in events if e["type"] == "round"]
     g0 = rounds[6]["evals"][0]  # round 7's g(0): 16 bits, constant term first
     rounds[6]["evals"][0] = [1 - g0[0], *g0[1:]]  # flip the constant bit
     path = _transcript(tmp_path, "corrupt", events)
     capsys.readouterr()
-    assert main(["check", path, "--witness", str(tmp_path / "w.json"), "--json"]) == 1
+    assert main(["check", path, "--witness", str(proved[1]), "--json"]) == 1
     report = conforming(capsys.readouterr().out, "check")
     assert report["verdict"] == "reject"
     assert (report["first_failure"]["round"], report["first_failure"]["check"]) == (7, "sum")
