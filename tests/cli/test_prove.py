@@ -138,13 +138,12 @@ def test_plan_refuses_a_sigma_that_is_not_a_permutation(tmp_path, capsys):
     assert "sigma.json" in err and "permutation of 0..3" in err
 
 
-def test_demo_without_the_app_writes_the_examples_and_shows_a_failure_and_an_acceptance(tmp_path):
-    proc = subprocess.run([sys.executable, "-m", "stepper", "demo", "--dir", str(tmp_path / "d"), "--no-view"],
-                          capture_output=True, text=True, timeout=60)
-    assert proc.returncode == 0, proc.stderr
-    assert f"to {tmp_path / 'd'}" in proc.stdout
-    assert "ACCEPTED" in proc.stdout and "REJECTED" in proc.stdout
-    assert "challenge-shift" in proc.stdout  # the root-cause probe explains the prover bug
+def test_demo_without_the_app_writes_the_examples_and_shows_a_failure_and_an_acceptance(tmp_path, capsys):
+    assert main(["demo", "--dir", str(tmp_path / "d"), "--no-view"]) == 0
+    out = capsys.readouterr().out
+    assert f"to {tmp_path / 'd'}" in out
+    assert "ACCEPTED" in out and "REJECTED" in out
+    assert "challenge-shift" in out  # the root-cause probe explains the prover bug
     assert (tmp_path / "d" / "ferries-stale-challenge.witness.json").exists()
 
 
