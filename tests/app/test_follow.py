@@ -21,7 +21,7 @@ async def test_rounds_appear_and_are_checked_while_the_prover_writes(tmp_path):
     go = threading.Event()
 
     def prover() -> None:
-        go.wait(5)
+        go.wait()  # until the app is up and has looked (set in finally too, so never forever)
         for payload in payloads[3:]:
             writer.write_payload(payload)
             time.sleep(0.01)
