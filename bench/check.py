@@ -93,13 +93,42 @@ def _child_env() -> dict[str, str]:
     return env
 
 
+# `python -m stepper` that writes its own peak resident memory (VmHWM, kibibytes) to stderr at exit.
+# A child's ru_maxrss is not used for stepper's peak: Python starts children with vfork, and Linux
+# then counts the parent's high-water mark (this script's, e.g. while it wrote the transcripts) as
+# the child's.
+PEAK_SELF = ("import atexit, os, runpy, sys\n"
+             "def peak():\n"
+             "    with open('/proc/self/status') as status:\n"
+             "        kib = next(line.split()[1] for line in status if line.startswith('VmHWM:'))\n"
+             "    os.write(2, f'peak-kib {kib}\\n'.encode())\n"
+             "atexit.register(peak)\n"
+             "sys.argv = ['stepper', *sys.argv[1:]]\n"
+             "runpy.run_module('stepper', run_name='__main__', alter_sys=True)\n")
+
+
 def _child(argv: list[str]) -> tuple[float, float, float, int]:
-    """Wall seconds, CPU seconds (user + system), peak resident MB and exit code of a child process."""
+    """Wall seconds, CPU seconds (user + system), peak resident MB and exit code of a child process.
+    For ``python -m stepper ...`` the peak is the child's own (VmHWM, through :data:`PEAK_SELF`);
+    for anything else it is the child's ru_maxrss."""
+    own_peak = argv[1:3] == ["-m", "stepper"]
+    if own_peak:
+        argv = [argv[0], "-c", PEAK_SELF, *argv[3:]]
     t0 = time.perf_counter()
-    proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, env=_child_env())
+    proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE if own_peak else None,
+                            env=_child_env())
+    err = proc.stderr.read().decode(errors="replace") if proc.stderr is not None else ""
     _, status, usage = os.wait4(proc.pid, 0)
     wall = time.perf_counter() - t0
-    return wall, usage.ru_utime + usage.ru_stime, usage.ru_maxrss / 1024, os.waitstatus_to_exitcode(status)
+    code = os.waitstatus_to_exitcode(status)
+    rss = usage.ru_maxrss / 1024
+    if own_peak:
+        text, _, peak = err.rpartition("peak-kib ")
+        if text:
+            sys.stderr.write(text)  # whatever the child said besides its peak
+        if peak:
+            rss = int(peak.split()[0]) / 1024
+    return wall, usage.ru_utime + usage.ru_stime, rss, code
 
 
 def run_check(path: Path) -> tuple[float, float, float]:
