@@ -352,6 +352,10 @@ class Sequencer(GlueRules, AnnotationRules):
         if number > cur.num_vars:
             raise self._fail(f"expected at most num_vars = {cur.num_vars} rounds, found round {number}", number)
         raw = next((payload[k] for k in ("evals", "values", "coeffs") if k in payload), None)
+        if raw is None:
+            others = [str(k) for k in payload if k != "type"]
+            raise self._fail(f"expected the round's values under 'evals', found no such key "
+                             f"(keys: {short(others) if others else 'none'})", number)
         values = self._elements(raw, "round values", number)
         self.rounds_done = number
         self.awaiting_challenge = True

@@ -107,6 +107,15 @@ def test_rounds_challenges_and_final_must_alternate_and_stop_at_num_vars():
     assert seq.feed({"type": "final", "value": 3}) == FinalValue(0, 3)
 
 
+def test_a_round_without_its_values_key_names_the_key_and_the_keys_it_has():
+    seq = started()
+    with pytest.raises(TranscriptError) as caught:
+        seq.feed({"type": "round", "evalz": [0, 1, 2]})
+    assert "expected the round's values under 'evals'" in caught.value.message
+    assert "'evalz'" in caught.value.message and "None" not in caught.value.message
+    assert caught.value.where.round == 1
+
+
 def test_more_elements_than_the_cap_are_refused():
     seq = started()
     with pytest.raises(TranscriptError, match=f"at most {MAX_VALUES}"):
