@@ -101,3 +101,14 @@ def test_view_off_a_terminal_stops_the_whole_file_check_it_started(monkeypatch, 
     started[0].future.result(timeout=60)
     with pytest.raises(ChildProcessError):
         os.waitpid(started[0].pid, os.WNOHANG)  # type: ignore[arg-type]  # gone, and reaped
+
+
+def test_view_of_a_missing_file_says_so_in_the_words_check_uses(tmp_path, capsys):
+    from stepper.cli.main import main
+
+    missing = tmp_path / "missing.sumtr"
+    assert main(["check", str(missing)]) == 2
+    checked = capsys.readouterr().err.replace("stepper check:", "")
+    assert main(["view", str(missing)]) == 2
+    viewed = capsys.readouterr().err.replace("stepper view:", "")
+    assert viewed == checked and "could not open the file" in viewed
