@@ -106,7 +106,8 @@ def run(args: argparse.Namespace) -> int:
             f"({' '.join(command[:1])} {shown})", problem.where)
     state = "complete" if sealed else "incomplete"
     dropped = f"; the partial last line (line {splitter.dropped}) was dropped" if splitter.dropped is not None else ""
-    print(f"stepper record: {args.output}: {writer.events} events, {state}{dropped}; "
+    count = f"{writer.events} event{'' if writer.events == 1 else 's'}"
+    print(f"stepper record: {args.output}: {count}, {state}{dropped}; "
           f"{command[0]} {shown}", file=sys.stderr)
     return status
 

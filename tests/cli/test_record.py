@@ -102,6 +102,14 @@ def test_record_returns_the_prover_status_and_keeps_an_incomplete_transcript(tmp
     assert len(t.instances[0].rounds) == 3
 
 
+def test_record_counts_one_event_in_the_singular(tmp_path):
+    out = tmp_path / "one.sumtr"
+    one_event = 'import os; open(os.environ["STEPPER_EVENTS"], "a").write(\'{"type": "field", "name": "babybear"}\\n\')'
+    proc = stepper("record", "-o", str(out), "--", sys.executable, "-c", one_event)
+    assert proc.returncode == 0
+    assert f"{out}: 1 event, complete;" in proc.stderr, proc.stderr
+
+
 def test_prover_killed_with_sigkill_mid_proof_keeps_every_round_before_the_kill(tmp_path, prover):
     out = tmp_path / "killed.sumtr"
     pid_file = tmp_path / "pid"
