@@ -124,9 +124,33 @@ def rewrite_readme(text: str) -> str:
     return text[:start] + readme_block() + text[end + len(README_END):]
 
 
-if __name__ == "__main__":
-    if len(sys.argv) != 2:
-        sys.exit("usage: python3 -m stepper.app.keymap README.md")
-    readme = Path(sys.argv[1])
-    readme.write_text(rewrite_readme(readme.read_text(encoding="utf-8")), encoding="utf-8")
+def main(argv: list[str]) -> int:
+    """``python3 -m stepper.app.keymap README.md``: rewrite the README's key table in place
+    (whole or not at all); a README that cannot be read or holds no markers is one line, exit 2."""
+    from stepper.errors import EXIT_INPUT, EXIT_OK, StepperError
+    from stepper.transcript.store.output import atomic_output
+
+    if len(argv) != 1:
+        print("usage: python3 -m stepper.app.keymap README.md", file=sys.stderr)
+        return EXIT_INPUT
+    readme = Path(argv[0])
+    try:
+        text = rewrite_readme(readme.read_text(encoding="utf-8"))
+        with atomic_output(str(readme), replace=True, what="the README") as out:
+            out.write(text)
+    except (OSError, UnicodeDecodeError) as err:
+        print(f"stepper.app.keymap: {readme}: could not read the README: {getattr(err, 'strerror', None) or err}",
+              file=sys.stderr)
+        return EXIT_INPUT
+    except StepperError as err:  # the write failed; the message names the file
+        print(f"stepper.app.keymap: {err}", file=sys.stderr)
+        return EXIT_INPUT
+    except ValueError as err:  # no markers
+        print(f"stepper.app.keymap: {readme}: {err}", file=sys.stderr)
+        return EXIT_INPUT
     print(f"key map written into {readme}")
+    return EXIT_OK
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))

@@ -14,7 +14,7 @@ from stepper.app.app import StepperApp
 from stepper.app.buckets_screen import BucketsScreen
 from stepper.app.compare_screen import CompareScreen
 from stepper.app.help_screen import HelpScreen
-from stepper.app.keymap import KEYS, SCREENS, footer_hint, markdown_table, panel_rows, readme_block
+from stepper.app.keymap import KEYS, SCREENS, footer_hint, main, markdown_table, panel_rows, readme_block
 from stepper.app.proof_screen import MOUSE, ProofScreen
 
 README = Path(__file__).parents[2] / "README.md"
@@ -24,6 +24,24 @@ SIZE = (120, 40)
 def test_the_readme_holds_the_key_map_as_generated_from_the_table():
     # regenerate with: python3 -m stepper.app.keymap README.md
     assert readme_block() in README.read_text(encoding="utf-8")
+
+
+def test_the_readme_rewriter_writes_the_table_and_refuses_a_bad_readme_in_one_line(tmp_path, capsys):
+    readme = tmp_path / "README.md"
+    readme.write_text(f"# keys\n{readme_block().replace('| `q` |', '| `x` |')}\nafter\n", encoding="utf-8")
+    assert main([str(readme)]) == 0
+    assert readme.read_text(encoding="utf-8") == f"# keys\n{readme_block()}\nafter\n"
+    assert [p.name for p in tmp_path.iterdir()] == ["README.md"]  # no temporary file left
+    capsys.readouterr()
+    for bad in (tmp_path / "missing.md", tmp_path):
+        assert main([str(bad)]) == 2
+        err = capsys.readouterr().err
+        assert err.count("\n") == 1 and str(bad) in err and "Traceback" not in err
+    unmarked = tmp_path / "plain.md"
+    unmarked.write_text("no table here\n", encoding="utf-8")
+    assert main([str(unmarked)]) == 2
+    assert "expected the markers" in capsys.readouterr().err
+    assert unmarked.read_text(encoding="utf-8") == "no table here\n"
 
 
 def test_every_entry_names_known_screens_and_no_key_repeats_on_a_screen():
