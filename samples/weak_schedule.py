@@ -19,6 +19,7 @@ from typing import Any, Mapping, Sequence
 
 from stepper.verify.fiatshamir import Sha256Schedule
 from stepper.field.spec import field_from_spec
+from stepper.transcript.glue_records import NamedValue, Opening
 from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
 
 
@@ -49,9 +50,25 @@ def derive(history: Sequence[Mapping[str, Any]]) -> Any:
             schedule.observe(RoundMsg(index, round_, tuple(_element(field, v) for v in values)))
         elif kind == "challenge":
             schedule.challenge()  # absorbs the challenge, as the prover's schedule did
+        elif kind == "value":  # the glue between instances, absorbed as the built-in schedule does
+            listed, value = _named(field, event["value"])
+            schedule.observe(NamedValue(event["name"], value, listed))
+        elif kind == "opening":
+            schedule.observe(Opening(event["name"], _element(field, event["value"]),
+                                     event.get("table", event["name"]), max(index, 0)))
+        elif kind == "squeeze":
+            listed, value = _named(field, event["value"])
+            schedule.squeeze(event["name"], len(value) if listed else None)
     value = schedule.challenge()
     return list(value) if isinstance(value, tuple) else value
 
 
 def _element(field: Any, value: Any) -> Any:
     return tuple(value) if isinstance(value, list) else field.lift(value)
+
+
+def _named(field: Any, value: Any) -> tuple[bool, Any]:
+    """A value or squeeze: (listed, the element or the tuple of elements); in an extension
+    field one element is itself a list, so a list of lists is a listed value."""
+    listed = isinstance(value, list) and (not field.is_extension or (bool(value) and isinstance(value[0], list)))
+    return listed, tuple(_element(field, v) for v in value) if listed else _element(field, value)
