@@ -193,7 +193,8 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
 
     def new_replay() -> Replay:
         return Replay(challenger=challenger, keep_rounds=detail,
-                      keep_instances=None if every else args.rows, emit_passing=detail)
+                      keep_instances=None if every else max(args.rows, 1),  # --rows 0 still shows a failure
+                      emit_passing=detail)
 
     replay = new_replay()
     notes: list[Note] = []

@@ -83,6 +83,11 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
 
     field = report.field.describe() if report.field is not None else "no field"
     proof = proof_condition((s.index, s.name, counted(s), s.num_vars) for s in report.instances)
+    unseen = report.instance_count - len(report.instances)  # --rows kept fewer (failures are always kept)
+    if unseen > 0 and not proof.startswith("stops early"):
+        short = report.counts.get("incomplete", 0) - sum(s.status == "incomplete" for s in report.instances)
+        proof = (f"stops early: {short} of the {unseen} instance(s) not kept by --rows are incomplete "
+                 "(--rows N shows them)" if short > 0 else "every instance has all its rounds")
     lines = [
         _paint(f"stepper check {path}", "bold", colour),
         f"  field {field}; challenges {report.challenges}",

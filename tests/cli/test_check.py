@@ -324,3 +324,36 @@ def test_chunk_and_progress_flags_out_of_place_are_one_line_and_exit_2(tmp_path,
         code, (out, err) = stop.code, capsys.readouterr()
     assert code == 2 and out == ""
     assert message in err and "Traceback" not in err
+
+
+def _two_instances(second_claim: int, second_challenge: bool) -> list[dict]:
+    """Two one-variable instances over BabyBear (g(0) = 3, g(1) = 4, r = 5, g(5) = 8, checked by
+    hand); the second with the claim given, and its challenge only when asked for."""
+    one = [{"type": "round", "evals": ["3", "4"]}, {"type": "challenge", "value": "5"}, {"type": "final", "value": "8"}]
+    second = [{"type": "instance", "name": "deck-slots-b", "num_vars": 1, "degree": 1, "claim": str(second_claim)},
+              *(one if second_challenge else one[:1])]
+    return [{"type": "field", "name": "babybear"},
+            {"type": "instance", "name": "deck-slots-a", "num_vars": 1, "degree": 1, "claim": "7"}, *one, *second]
+
+
+def test_the_proof_line_tells_an_instance_cut_short_even_when_rows_hides_it(tmp_path, capsys):
+    path = write_jsonl(tmp_path / "cut.jsonl", _two_instances(7, second_challenge=False))
+    expected = "stops early: instance #1 'deck-slots-b' has 0 of 1 rounds"
+    assert check(capsys, str(path))[0] == 3
+    for rows in ("0", "1"):
+        code, out, _ = check(capsys, str(path), "--rows", rows)
+        assert code == 3
+        proof = out.splitlines()[2]
+        assert "stops early" in proof and "--rows N shows them" in proof, proof
+        assert "every instance has all its rounds" not in out and "no instance yet" not in out
+    code, out, _ = check(capsys, str(path), "--rows", "2")
+    assert code == 3 and expected in out.splitlines()[2]
+
+
+def test_rows_0_still_shows_the_failed_instance_and_says_every_instance_is_whole(tmp_path, capsys):
+    path = write_jsonl(tmp_path / "bad.jsonl", _two_instances(8, second_challenge=True))
+    code, out, _ = check(capsys, str(path), "--rows", "0")
+    assert code == 1
+    lines = out.splitlines()
+    assert lines[2].endswith("proof: every instance has all its rounds"), lines[2]
+    assert any(line.split()[:2] == ["1", "deck-slots-b"] and "FAILED sum at round 1" in line for line in lines), out
