@@ -120,8 +120,29 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_INTERNAL
 
 
+# Environment settings the `stepper` command makes for its own process only (see entry); the
+# commands that start a user's program (`record`) hand it the environment without them.
+PROCESS_SETTINGS = {
+    # stepper's numpy work is elementwise and never calls BLAS; OpenBLAS would start one thread
+    # per core at numpy's import (about 60 ms of CPU on two cores, measured) for nothing.
+    "OPENBLAS_NUM_THREADS": "1",
+    # the compiled kernels load numba without its optional SciPy and cffi (stepper.field.kernels.base)
+    "STEPPER_LEAN_NUMBA": "1",
+}
+_set_here: list[str] = []
+
+
 def entry() -> None:
-    # stepper's numpy work is elementwise and never calls BLAS; OpenBLAS would start one thread per
-    # core at numpy's import (about 60 ms of CPU on two cores, measured) for nothing.
-    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+    for name, value in PROCESS_SETTINGS.items():
+        if name not in os.environ:
+            os.environ[name] = value
+            _set_here.append(name)
     sys.exit(main())
+
+
+def user_environment(**extra: str) -> dict[str, str]:
+    """The environment for a user's program started by a command: this process's, without the
+    settings :func:`entry` made for stepper itself, plus ``extra``."""
+    env = {name: value for name, value in os.environ.items() if name not in _set_here}
+    env.update(extra)
+    return env

@@ -73,7 +73,9 @@ def run(args: argparse.Namespace) -> int:
         except OSError as err:
             raise UsageError(f"expected a writable --events path, found {events_path}: {err.strerror}") from None
         splitter = LineSplitter(Where(file=events_path), 64 << 20)
-        env = dict(os.environ, STEPPER_EVENTS=events_path)
+        from stepper.cli.main import user_environment
+
+        env = user_environment(STEPPER_EVENTS=events_path)  # not stepper's own process settings
         try:  # started before OUT is created, so a program that cannot start leaves an existing OUT alone
             child = subprocess.Popen(command, env=env)
         except OSError as err:

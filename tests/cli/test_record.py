@@ -402,3 +402,22 @@ def test_record_and_export_keep_the_glue_and_the_file_is_version_2(tmp_path, cap
     capsys.readouterr()
     assert main(["info", str(out), "--json"]) == 0
     assert json.loads(capsys.readouterr().out)["glue"] == {"value": 1, "opening": 2, "squeeze": 1}
+
+
+def test_the_recorded_program_gets_the_users_environment_not_steppers_own_settings(tmp_path):
+    # `stepper` sets OPENBLAS_NUM_THREADS and STEPPER_LEAN_NUMBA for its own process; a prover it
+    # runs must see the user's environment (its BLAS threads, numba as usual), plus STEPPER_EVENTS.
+    seen = tmp_path / "seen.json"
+    probe = ("import json, os, sys\n"
+             "names = ('OPENBLAS_NUM_THREADS', 'STEPPER_LEAN_NUMBA', 'FERRY_DECK', 'STEPPER_EVENTS')\n"
+             "open(sys.argv[1], 'w').write(json.dumps({n: os.environ.get(n) for n in names}))\n"
+             "open(os.environ['STEPPER_EVENTS'], 'a').write(json.dumps({'type': 'field', 'name': 'babybear'}) + '\\n')\n")
+    env = {k: v for k, v in os.environ.items() if k not in ("OPENBLAS_NUM_THREADS", "STEPPER_LEAN_NUMBA")}
+    env["FERRY_DECK"] = "upper"
+    proc = subprocess.run([sys.executable, "-m", "stepper", "record", "-o", str(tmp_path / "env.sumtr"), "--",
+                           sys.executable, "-c", probe, str(seen)], capture_output=True, text=True, env=env,
+                          timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    got = json.loads(seen.read_text())
+    assert (got["OPENBLAS_NUM_THREADS"], got["STEPPER_LEAN_NUMBA"], got["FERRY_DECK"]) == (None, None, "upper")
+    assert got["STEPPER_EVENTS"]

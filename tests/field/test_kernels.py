@@ -368,9 +368,25 @@ def test_loading_the_compiled_loops_imports_neither_scipy_nor_cffi():
             "product = compiled.small_mul(a, a, np.uint64(7), 1.0 / 7, np.empty_like(a))\n"
             "print(compiled is not None, product.tolist(), 'scipy.linalg' in sys.modules, 'cffi' in sys.modules)\n")
     env = {k: v for k, v in os.environ.items() if k != "STEPPER_KERNELS"}
+    env["STEPPER_LEAN_NUMBA"] = "1"  # as the stepper command sets it for itself
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
     assert out.returncode == 0, out.stderr
     assert out.stdout.split() == ["True", "[4,", "1]", "False", "False"]  # 25 mod 7 = 4, 36 mod 7 = 1
+
+
+def test_a_library_user_without_the_lean_setting_keeps_numbas_usual_imports():
+    pytest.importorskip("numba")
+    import importlib.util
+
+    code = ("import sys\n"
+            "from stepper.field.kernels.base import load_compiled\n"
+            "assert load_compiled() is not None\n"
+            "print('scipy' in sys.modules)\n")
+    env = {k: v for k, v in os.environ.items() if k not in ("STEPPER_KERNELS", "STEPPER_LEAN_NUMBA")}
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
+    assert out.returncode == 0, out.stderr
+    # numba reaches for SciPy on its first call whenever SciPy is installed; nothing holds it back
+    assert out.stdout.split() == [str(importlib.util.find_spec("scipy") is not None)]
 
 
 @pytest.mark.parametrize("label", ["babybear^4", "babybear-dense^4", "babybear^3", "goldilocks^2"])

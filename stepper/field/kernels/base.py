@@ -18,8 +18,11 @@ f2py) and cffi (for calling cffi functions from compiled code). None of our loop
 either, so :func:`load_compiled` holds both back while it imports numba and makes its
 first call, where numba falls back to running without them (measured on the development
 machine, numba 0.68: 0.82 s -> 0.49 s CPU and 163 MB -> 145 MB resident for that start-up).
-The choice is process-wide: compiled code in the same process cannot then use ``np.dot``,
-``np.linalg`` or cffi unless SciPy or cffi was imported before.
+The choice is process-wide (compiled code in the same process cannot then use ``np.dot``,
+``np.linalg`` or cffi unless SciPy or cffi was imported before), so it is made only where
+the environment variable ``STEPPER_LEAN_NUMBA`` is ``1``: the ``stepper`` command sets it
+for its own process (and hands the programs it starts the environment without it); a
+program that imports stepper as a library keeps numba's usual behaviour.
 """
 
 from __future__ import annotations
@@ -59,7 +62,8 @@ def load_compiled() -> ModuleType | None:
             if not _compiled_tried:
                 if os.environ.get("STEPPER_KERNELS", "").lower() != "numpy":
                     try:
-                        with held_back(HELD_BACK):
+                        lean = os.environ.get("STEPPER_LEAN_NUMBA") == "1"
+                        with held_back(HELD_BACK if lean else ()):
                             from stepper.field.kernels import compiled
 
                             compiled.first_call()
