@@ -290,6 +290,17 @@ def _check_numpy(arr: np.ndarray, table: str, where: Where) -> np.ndarray:
 
 
 # ----- the witness map (pure) -------------------------------------------------------------
+def _kind(value: Any) -> str:
+    """What a decoded JSON or msgpack value is, in the words of the file (not Python's type names)."""
+    if value is None:
+        return "none (null, or the key is missing)"
+    for types, words in ((bool, "true or false"), (int, "an integer"), (float, "a number"), (str, "text"),
+                         ((bytes, bytearray), "bytes"), (list, "a list"), (dict, "a map")):
+        if isinstance(value, types):
+            return words
+    return type(value).__name__
+
+
 def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None = None,
                      limits: WitnessLimits | None = None) -> Witness:
     """A :class:`Witness` from the decoded JSON/msgpack map; ``base_dir`` resolves
@@ -297,7 +308,7 @@ def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None
     where = where or Where()
     limits = limits or WitnessLimits()
     if not isinstance(raw, dict) or "instances" not in raw:
-        found = f"a map with keys {', '.join(map(str, list(raw)[:6]))}" if isinstance(raw, dict) else type(raw).__name__
+        found = f"a map with keys {', '.join(map(str, list(raw)[:6]))}" if isinstance(raw, dict) else _kind(raw)
         raise WitnessError(f"expected a map with an \"instances\" list, found {found}", where)
     items = raw["instances"]
     if not isinstance(items, list) or not items:
@@ -308,17 +319,17 @@ def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None
     for i, item in enumerate(items):
         iwhere = where.but(instance=i)
         if not isinstance(item, dict):
-            raise WitnessError(f"expected witness instance {i} to be a map, found {type(item).__name__}", iwhere)
+            raise WitnessError(f"expected witness instance {i} to be a map, found {_kind(item)}", iwhere)
         name = item.get("name", str(i))
         if not isinstance(name, str):
-            raise WitnessError(f"expected a text \"name\", found {type(name).__name__}", iwhere)
+            raise WitnessError(f"expected a text \"name\", found {_kind(name)}", iwhere)
         iwhere = where.but(instance=name)
         tables = item.get("tables")
         if not isinstance(tables, dict) or not tables:
             raise WitnessError("expected \"tables\" to be a non-empty map of NAME -> entries", iwhere)
         combine = item.get("combine")
         if not isinstance(combine, str):
-            raise WitnessError(f"expected \"combine\" as text, found {type(combine).__name__}", iwhere)
+            raise WitnessError(f"expected \"combine\" as text, found {_kind(combine)}", iwhere)
         parsed: dict[str, RawTable] = {}
         for tname, entries in tables.items():
             if isinstance(entries, str):
@@ -332,7 +343,7 @@ def witness_from_map(raw: Any, where: Where | None = None, base_dir: Path | None
                 parsed[tname] = entries
             else:
                 raise WitnessError(
-                    f"expected table {tname!r} as a list of elements or a .npy path, found {type(entries).__name__}",
+                    f"expected table {tname!r} as a list of elements or a .npy path, found {_kind(entries)}",
                     iwhere)
         out.append(WitnessInstance(name, parsed, _parse_combine(combine, iwhere)))
     return Witness(tuple(out), where.file or "")
