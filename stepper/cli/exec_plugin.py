@@ -65,7 +65,10 @@ class ExecPlugin:
         if not argv:
             raise UsageError("expected --challenges-exec CMD to name a command, found an empty string")
         try:
-            self.proc = subprocess.Popen(argv, stdin=subprocess.PIPE, stdout=subprocess.PIPE, bufsize=0)
+            from stepper.cli.main import user_environment
+
+            self.proc = subprocess.Popen(argv, stdin=subprocess.PIPE, stdout=subprocess.PIPE, bufsize=0,
+                                         env=user_environment())  # not stepper's own process settings
         except OSError as err:
             raise UsageError(f"expected --challenges-exec to start {command!r}, but it could not be started: "
                              f"{(err.strerror or str(err)).lower()}") from None
