@@ -81,6 +81,16 @@ def build_parser() -> tuple[_Parser, dict[str, object]]:
     return _build_parser()
 
 
+def _refuse_a_dash(args: argparse.Namespace) -> None:
+    """Only `check` reads standard input (`-`); elsewhere a `-` with no file of that name is a usage
+    error, said as such rather than as a missing file."""
+    from stepper.errors import UsageError
+
+    for key in ("file", "a", "b", "events"):
+        if getattr(args, key, None) == "-" and not os.path.exists("-"):
+            raise UsageError("expected a file name, found '-' (only `stepper check` reads standard input)")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     words = list(sys.argv[1:] if argv is None else argv)
     if words and words[0] in RETIRED:
@@ -97,6 +107,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return EXIT_INPUT
     try:
+        _refuse_a_dash(args)
         return int(modules[args.command].run(args))  # type: ignore[attr-defined]
     except StepperError as err:
         show_traceback_if_asked()

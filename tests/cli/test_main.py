@@ -78,3 +78,15 @@ def test_retired_command_names_are_not_listed_in_the_help(capsys):
         main(["--help"])
     listed = {line.split()[0] for line in capsys.readouterr().out.splitlines() if line.startswith("    ")}
     assert {"writeup", "compare"} <= listed and not {"report", "diff"} & listed
+
+
+@pytest.mark.parametrize("argv", [["info", "-"], ["export", "-"], ["buckets", "-"], ["note", "-", "text"],
+                                  ["writeup", "-", "-o", "out.md"], ["compare", "-", "other.sumtr"],
+                                  ["import", "-", "-o", "out.sumtr"]])
+def test_a_dash_where_only_check_reads_standard_input_is_a_usage_error_not_a_missing_file(argv, tmp_path,
+                                                                                         monkeypatch, capsys):
+    monkeypatch.chdir(tmp_path)
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert err == f"stepper {argv[0]}: expected a file name, found '-' (only `stepper check` reads standard input)\n"
+    assert list(tmp_path.iterdir()) == []  # nothing written
