@@ -100,6 +100,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         words[0] = new
     parser, modules = _build_parser(words[0] if words and words[0] in COMMANDS else None)
     args, unknown = parser.parse_known_args(words)
+    if args.command == "check" and unknown and all(w == "-" or not w.startswith("-") for w in unknown):
+        args.files += unknown  # files after a flag (`check a.sumtr --strict b.sumtr`): argparse stops at the flag
+        unknown = []
     if unknown:  # name the subcommand whose help lists the flags it takes
         where = "stepper" if args.command is None else f"stepper {args.command}"
         parser.exit(EXIT_INPUT, f"{where}: unrecognized arguments: {' '.join(unknown)} (see {where} --help)\n")

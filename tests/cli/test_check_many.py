@@ -228,3 +228,11 @@ def test_strict_passes_a_sound_looking_run(tmp_path, capsys):
 
 def test_force_without_junit_is_a_usage_error(files, capsys):
     assert run(capsys, str(files["honest"]), "--force")[0] == 2
+
+
+def test_files_may_follow_a_flag(files, capsys):
+    code, out, _ = run(capsys, str(files["honest"]), "--strict", str(files["faulty"]), "--color", "never",
+                       str(files["incomplete"]))
+    assert code == 1
+    assert [line.split()[1] for line in out.splitlines()[:3]] == [
+        f"{files[k]}:" for k in ("honest", "faulty", "incomplete")]
