@@ -74,7 +74,9 @@ class RunBlock:
         self.layout = layout
         self.kernel = kernel
         final_len, width = layout.final_len, layout.width
-        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs for part in (head, rest[:-final_len])]),
+        # memoryview slices: the rounds of each run are copied once, by the join
+        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs
+                                       for part in (head, memoryview(rest)[:-final_len])]),
                              dtype=np.uint8).reshape(-1, layout.stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
         if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))

@@ -77,20 +77,26 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
     p = base.p
     if p < 2**32 and digests.shape[1] % 4 == 0 and wide <= digests.shape[1]:
         return _reduce_words(np.ascontiguousarray(digests).view("<u4"), wide, p)
+    if p == GOLDILOCKS and wide == 24 and digests.shape[1] % 8 == 0:  # the schedule's width: whole words
+        return _reduce_goldilocks(base, np.ascontiguousarray(digests).view("<u8"))
     if wide <= 24 and (p < 2**32 or p == GOLDILOCKS):
         head = np.zeros((digests.shape[0], 24), dtype=np.uint8)
         head[:, :wide] = digests[:, :wide]
         if p < 2**32:
             return _reduce_words(head.view("<u4"), wide, p)
-        limbs = head.view("<u8")
-        l0, l1, l2 = limbs[:, 0], limbs[:, 1], limbs[:, 2]
-        # Goldilocks: 2^128 = -2^32 (mod p), so the value is (l1 * 2^64 + l0) - l2 * 2^32, and
-        # l2 * 2^32 = (l2 >> 32) * 2^64 + (l2 mod 2^32) * 2^32: two 128-bit reductions, no multiply.
-        reduce128 = base.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
-        m32, s32 = np.uint64(0xFFFFFFFF), np.uint64(32)
-        return base.sub(reduce128(l0, l1), reduce128((l2 & m32) << s32, l2 >> s32))
+        return _reduce_goldilocks(base, head.view("<u8"))
     values = np.remainder(words_to_ints(np.ascontiguousarray(digests[:, :wide])), p)
     return values if base.dtype is object else values.astype(np.uint64)
+
+
+def _reduce_goldilocks(base: Kernel, limbs: np.ndarray) -> np.ndarray:
+    """Each row's first three little-endian 64-bit words (shape (n, >= 3), uint64) as one
+    integer mod Goldilocks. 2^128 = -2^32 (mod p), so the value is (l1 * 2^64 + l0) - l2 * 2^32,
+    and l2 * 2^32 = (l2 >> 32) * 2^64 + (l2 mod 2^32) * 2^32: two 128-bit reductions, no multiply."""
+    l0, l1, l2 = limbs[:, 0], limbs[:, 1], limbs[:, 2]
+    reduce128 = base.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
+    m32, s32 = np.uint64(0xFFFFFFFF), np.uint64(32)
+    return base.sub(reduce128(l0, l1), reduce128((l2 & m32) << s32, l2 >> s32))
 
 
 def _reduce_words(words: np.ndarray, wide: int, p: int) -> np.ndarray:

@@ -150,7 +150,7 @@ def test_reduce_wide_reads_rows_of_a_width_that_is_not_whole_words(name):
     p = PRIMES[name]
     rows = [row[:30] for row in digest_rows(random.Random(f"{name}-30"), 20)]
     block = np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), 30)
-    for wide in (5, 20, 22):
+    for wide in (5, 20, 22, 24):
         got = reduce_wide(kernel(p), block, wide).tolist()
         assert got == [int.from_bytes(row[:wide], "little") % p for row in rows], wide
 
