@@ -13,7 +13,9 @@ Invariant: :func:`unpack_elements` returns canonical elements or raises
 :func:`pair_run` finds the bulk of a transcript in its bytes: rounds each followed by
 their challenge, packed exactly as the writer packs them (a round's values in one
 ``bin 8``), so the reader's hot loop can decode a whole run of them in C before making
-the records.
+the records. :class:`GlueRun` does the same for the glue events after a run (a ``value``,
+``squeeze`` or ``opening`` of one element, named in a fixstr, no ``table`` key): their
+name and element bytes in one regular-expression pass, without a map per event.
 """
 
 from __future__ import annotations
@@ -26,7 +28,7 @@ from typing import Callable
 from stepper.errors import FieldError, Where
 from stepper.field.field import Element, Field
 
-__all__ = ["pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout"]
+__all__ = ["pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
 
@@ -152,3 +154,43 @@ def pair_run(data: bytes, at: int, width: int, most: int) -> tuple[int, PairLayo
     match = layout.pattern.match(data, at, min(len(data), at + most * stride))
     assert match is not None  # the pattern matches the empty string too
     return (match.end() - at) // stride, layout
+
+
+# A glue event of one element as the writer packs it: a map of three entries, "type" (one of the
+# three kinds), "name" (a fixstr of glue-name characters: the name cannot hold the \xa5 after it)
+# and "value" (one element in a bin 8 of the element's width).
+GLUE_KINDS = {b"value": "value", b"squeeze": "squeeze", b"opening": "opening"}
+_GLUE_HEAD = b"\x83\xa4type"
+
+
+@lru_cache(maxsize=64)
+def _glue_patterns(width: int) -> tuple[re.Pattern[bytes], re.Pattern[bytes]]:
+    """The pattern of a run of glue events of ``width``-byte elements, and that of one (groups: kind,
+    the name's fixstr head, the name, the element's bytes)."""
+    kinds = b"|".join(re.escape(bytes((0xA0 + len(kind),)) + kind) for kind in GLUE_KINDS)
+    one = (re.escape(_GLUE_HEAD) + b"(?:" + kinds + b")" + re.escape(b"\xa4name")
+           + b"[\xa1-\xbf][A-Za-z0-9_.]{1,31}" + re.escape(b"\xa5value" + bytes((_BIN8, width))) + b".{%d}" % width)
+    capture = (re.escape(_GLUE_HEAD) + b"[\xa5\xa7](" + b"|".join(GLUE_KINDS) + b")" + re.escape(b"\xa4name")
+               + b"([\xa1-\xbf])([A-Za-z0-9_.]{1,31})" + re.escape(b"\xa5value" + bytes((_BIN8, width)))
+               + b"(.{%d})" % width)
+    return re.compile(b"(?:" + one + b")*", re.DOTALL), re.compile(capture, re.DOTALL)
+
+
+class GlueRun:
+    """Finds the glue events of one ``width``-byte element packed as the writer packs them (see
+    ``GLUE_KINDS``) that lie whole in a chunk from an offset: call it with the chunk and the offset
+    to get how many bytes they fill and, per event, (kind, fixstr head, name, element bytes), all
+    bytes. Nothing is judged but the layout: the caller checks each head against its name's length,
+    the names against the glue name rules and the elements' values."""
+
+    __slots__ = ("_run", "_one")
+
+    def __init__(self, width: int) -> None:
+        run, one = _glue_patterns(width)
+        self._run, self._one = run.match, one.findall
+
+    def __call__(self, data: bytes, at: int) -> tuple[int, list[tuple[bytes, bytes, bytes, bytes]]]:
+        end = self._run(data, at).end()  # type: ignore[union-attr]  # the pattern matches the empty string too
+        if end == at:
+            return 0, []
+        return end - at, self._one(data, at, end)

@@ -24,7 +24,7 @@ from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
-from stepper.transcript.packed import decoder_for
+from stepper.transcript.packed import GLUE_KINDS, decoder_for
 from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, rederive
 
@@ -41,16 +41,52 @@ _NAME = r"[A-Za-z_][A-Za-z0-9_.]{0,127}"  # stepper.transcript.glue_records.GLUE
 _NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
 
 
+_FIXSTR = bytes((0xA0 + n) & 0xFF for n in range(256))  # a name's length -> its fixstr head
+_KIND_BYTES = {kind: raw for raw, kind in GLUE_KINDS.items()}
+
+
+def _payload(row: tuple[bytes, bytes, bytes, bytes]) -> dict[str, Any]:
+    """A row of :class:`~stepper.transcript.packed.GlueRun` as the payload msgpack unpacks."""
+    kind, head, name, element = row
+    if head[0] != _FIXSTR[len(name)]:
+        raise GiveUp("a glue name whose length is not its head's")
+    return {"type": GLUE_KINDS[kind], "name": name.decode("ascii"), "value": element}
+
+
+def _row(payload: Any) -> tuple[bytes, bytes, bytes, bytes] | None:
+    """A payload as the row :class:`~stepper.transcript.packed.GlueRun` reads when the writer packed
+    it so (a type, an ASCII name of at most 31 characters and one element's bytes), else None."""
+    if payload.__class__ is not dict or len(payload) != 3:
+        return None
+    kind, name, element = payload.get("type"), payload.get("name"), payload.get("value")
+    if kind.__class__ is not str or kind not in _KIND_BYTES or name.__class__ is not str or element.__class__ is not bytes \
+            or not 0 < len(name) < 32 or not name.isascii():
+        return None
+    raw = name.encode("ascii")
+    return _KIND_BYTES[kind], _FIXSTR[len(raw):len(raw) + 1], raw, element
+
+
 class GlueColumns:
     """The glue payloads that follow the runs of one flush, checked and held as columns."""
 
-    def __init__(self, field: Field, tails: Sequence[Sequence[Mapping[str, Any]]], defined: Mapping[str, Any]) -> None:
-        """``tails[i]`` holds the payloads that followed run i, in stream order; ``defined`` the
-        glue names sent before the flush (they may not come again)."""
-        payloads = list(chain.from_iterable(tails))
+    def __init__(self, field: Field, tails: Sequence[Sequence[Any]], defined: Mapping[str, Any]) -> None:
+        """``tails[i]`` holds the events that followed run i, in stream order, each a payload as
+        unpacked or a row of :class:`~stepper.transcript.packed.GlueRun`; ``defined`` the glue names
+        sent before the flush (they may not come again)."""
+        payloads: list[Any] = list(chain.from_iterable(tails))
         self.field = field
         self.size = len(payloads)
         self.bounds = [0, *accumulate(map(len, tails))]  # run i's events are bounds[i] .. bounds[i + 1] - 1
+        shapes = set(map(type, payloads))
+        if tuple in shapes and dict in shapes:  # rows and payloads mixed (the rows stopped at a chunk's end)
+            rows = [item if item.__class__ is tuple else _row(item) for item in payloads]
+            if None in rows:  # a payload shaped otherwise: the rows as payloads
+                payloads = [_payload(item) if item.__class__ is tuple else item for item in payloads]
+            else:
+                payloads, shapes = rows, {tuple}
+        if shapes == {tuple}:  # every event a row of GlueRun: one element each, no table apart
+            self._take_rows(payloads, defined)
+            return
         try:  # each payload is a map with a type (the sweep kept it for its type)
             self.kinds: list[str] = list(map(itemgetter("type"), payloads))
             names = list(map(itemgetter("name"), payloads))
@@ -80,6 +116,23 @@ class GlueColumns:
         self.data = [b"".join(raw) if is_list else raw for raw, is_list in zip(raws, self.listed)]
         cells = [cell for raw, is_list in zip(raws, self.listed) for cell in (raw if is_list else (raw,))]
         self.values = self._decode(raws, cells)
+
+    def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: Mapping[str, Any]) -> None:
+        """The columns of events read as rows of bytes (kind, the name's fixstr head, name, element)."""
+        names = b"\n".join(map(itemgetter(2), rows)).decode("ascii")
+        if b"".join(map(itemgetter(1), rows)) != bytes(map(len, map(itemgetter(2), rows))).translate(_FIXSTR):
+            raise GiveUp("a glue name whose length is not its head's")
+        if rows and _NAMES.fullmatch(names) is None:
+            raise GiveUp("a glue name outside the pattern")
+        self.names = names.split("\n") if rows else []
+        if len(set(self.names)) != len(self.names) or not defined.keys().isdisjoint(self.names):
+            raise GiveUp("a glue name sent twice")
+        self.kinds = list(map(GLUE_KINDS.__getitem__, map(itemgetter(0), rows)))
+        self.tables = self.names
+        self.listed = [False] * self.size
+        self.counts = [1] * self.size
+        self.data = list(map(itemgetter(3), rows))
+        self.values = self._decode(self.data, self.data)
 
     def _tables(self, payloads: list[Mapping[str, Any]]) -> list[str]:
         """Each opening's table (its name unless the payload names one); the names themselves stand

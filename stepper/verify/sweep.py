@@ -44,6 +44,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator
 import msgpack
 
 from stepper.errors import Where
+from stepper.transcript.packed import GlueRun
 from stepper.transcript.store.pending import pending_path
 from stepper.transcript.events import KNOWN_TYPES, Sequencer
 from stepper.transcript.store.reader import (
@@ -134,13 +135,16 @@ class _Sweeper:
         self.layout: Layout | None = None  # of the last run read
         self.layouts: dict[int, Layout] = {}  # by values per round
         self.runs: list[tuple[InstanceStart, bytes, bytes, Layout]] = []  # instance, first bytes, rest, layout
-        self.trailing: list[list[dict[str, Any]]] = []  # the glue payloads after each run, checked with them
-        self.glue_tail: list[dict[str, Any]] | None = None  # where glue payloads now go (None: the Sequencer)
+        self.trailing: list[list[Any]] = []  # the glue after each run (payloads, or rows of GlueRun), checked with them
+        self.glue_tail: list[Any] | None = None  # where glue payloads now go (None: the Sequencer)
         self.glue: GlueChecks | None = None  # set with the field
         self.due = False  # enough runs read: check them before the next instance
         self.rows = 0  # rounds in self.runs
         self.pending_bytes = 0  # bytes of rounds in self.runs
         self.loose_rounds = 0  # rounds fed one by one (instances not taken as runs)
+        self.window: tuple[bytes, int] = (b"", 0)  # the chunk last fed to the unpacker, its unpacker offset
+        self.fed = 0  # bytes fed to the unpacker
+        self.glue_run: GlueRun | None = None  # set with the field
 
     # ----- reading --------------------------------------------------------------------
     def _offset(self) -> int:
@@ -155,6 +159,8 @@ class _Sweeper:
             raise _GiveUp("file too large")
         assert self.digest is not None  # set by run() before anything is read
         self.digest.add(chunk, self._offset() - END_MAX_BYTES)
+        self.window = (chunk, self.fed)
+        self.fed += len(chunk)
         self.unpacker.feed(chunk)
         return True
 
@@ -176,7 +182,9 @@ class _Sweeper:
             raise _GiveUp("not a transcript")
         self.total = len(first)
         self.digest = HeldBackDigest(first)
-        self.unpacker.feed(first[len(MAGIC):])
+        self.window = (first[len(MAGIC):], 0)
+        self.fed = len(first) - len(MAGIC)
+        self.unpacker.feed(self.window[0])
         payloads = self._payloads()
         version = next(payloads)
         if version.__class__ is not int or not 1 <= version <= FORMAT_VERSION:
@@ -262,6 +270,7 @@ class _Sweeper:
         self.field = field
         self.kernel = block_kernel(field)
         self.glue = GlueChecks(field, self.kernel)
+        self.glue_run = GlueRun(field.elem_bytes)
         steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
 
     def _runnable(self, start: InstanceStart) -> bool:
@@ -280,9 +289,11 @@ class _Sweeper:
             raise _GiveUp("no final after the rounds")
         self.seq.account_run(start.num_vars)
         self.runs.append((start, head, rest, layout))
-        tail: list[dict[str, Any]] = []
+        tail: list[Any] = []
         self.trailing.append(tail)
         self.glue_tail = tail if self.seq.glue else None
+        if self.glue_tail is not None:
+            self._take_glue(tail)
         self.rows += start.num_vars
         self.pending_bytes += start.num_vars * layout.stride
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
@@ -290,6 +301,21 @@ class _Sweeper:
                 self._flush()  # a file without glue events: nothing after the run waits to be checked with it
             else:
                 self.due = True
+
+    def _take_glue(self, tail: list[Any]) -> None:
+        """Take the glue events right after a run that are packed as the writer packs them
+        (:class:`~stepper.transcript.packed.GlueRun`) from the chunk's bytes, as rows of bytes
+        (no map per event); whatever follows them is unpacked as usual."""
+        data, data_at = self.window
+        at = self.unpacker.tell() - data_at
+        if at < 0:
+            return
+        assert self.glue_run is not None  # set with the field
+        size, rows = self.glue_run(data, at)
+        if size:
+            self.unpacker.read_bytes(size)
+            tail.extend(rows)
+            self.seq.count += len(rows)
 
     def _new_layout(self, head: bytes) -> tuple[bytes, Layout]:
         """The layout a run's first bytes announce."""
