@@ -179,8 +179,8 @@ def _glue_patterns(width: int) -> tuple[re.Pattern[bytes], re.Pattern[bytes]]:
 class GlueRun:
     """Finds the glue events of one ``width``-byte element packed as the writer packs them (see
     ``GLUE_KINDS``) that lie whole in a chunk from an offset: call it with the chunk and the offset
-    to get how many bytes they fill and, per event, (kind, fixstr head, name, element bytes), all
-    bytes. Nothing is judged but the layout: the caller checks each head against its name's length,
+    to get how many bytes they fill, and :meth:`rows` reads them (any number of such runs joined).
+    Nothing is judged but the layout: the caller checks each head against its name's length,
     the names against the glue name rules and the elements' values."""
 
     __slots__ = ("_run", "_one")
@@ -189,8 +189,11 @@ class GlueRun:
         run, one = _glue_patterns(width)
         self._run, self._one = run.match, one.findall
 
-    def __call__(self, data: bytes, at: int) -> tuple[int, list[tuple[bytes, bytes, bytes, bytes]]]:
-        end = self._run(data, at).end()  # type: ignore[union-attr]  # the pattern matches the empty string too
-        if end == at:
-            return 0, []
-        return end - at, self._one(data, at, end)
+    def __call__(self, data: bytes, at: int) -> int:
+        """How many bytes the glue events from ``at`` fill (0: none there)."""
+        return self._run(data, at).end() - at  # type: ignore[union-attr]  # the pattern matches the empty string too
+
+    def rows(self, data: bytes) -> list[tuple[bytes, bytes, bytes, bytes]]:
+        """Per event of ``data`` (bytes this object measured, any number of runs joined): (kind,
+        the name's fixstr head, name, element bytes)."""
+        return self._one(data)  # type: ignore[no-any-return]

@@ -1,8 +1,9 @@
 """The glue events after runs of rounds, read as columns (no I/O).
 
 The whole-file pass (:mod:`stepper.verify.sweep`) keeps the ``value``, ``squeeze`` and
-``opening`` payloads that follow each instance it takes as a run, as the reader unpacked
-them, without turning each into a record. :class:`GlueColumns` takes all of a flush's at
+``opening`` events that follow each instance it takes as a run without turning each into a
+record: as one blob of bytes where the writer packed them so
+(:class:`~stepper.transcript.packed.GlueRun`), else as the reader unpacked them. :class:`GlueColumns` takes all of a flush's at
 once and checks what the event :class:`~stepper.transcript.events.Sequencer` would check of
 each, by columns: every name a glue name (one regular-expression match over all of them,
 joined), unique in the proof (a set), every element a canonical packed element (one decode of
@@ -24,7 +25,7 @@ from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
-from stepper.transcript.packed import GLUE_KINDS, decoder_for
+from stepper.transcript.packed import GLUE_KINDS, GlueRun, decoder_for
 from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, rederive
 
@@ -73,11 +74,19 @@ class GlueColumns:
         """``tails[i]`` holds the events that followed run i, in stream order, each a payload as
         unpacked or a row of :class:`~stepper.transcript.packed.GlueRun`; ``defined`` the glue names
         sent before the flush (they may not come again)."""
-        payloads: list[Any] = list(chain.from_iterable(tails))
         self.field = field
+        self.from_bytes = 0  # events read from blobs
+        if any(tails) and all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails):
+            self._take_blobs(tails, defined)  # the usual case: one blob after a run, nothing else
+            return
+        glue_run = GlueRun(field.elem_bytes)
+        tails = [[row for item in tail for row in (glue_run.rows(item) if item.__class__ is bytes else (item,))]
+                 for tail in tails]
+        payloads: list[Any] = list(chain.from_iterable(tails))
         self.size = len(payloads)
         self.bounds = [0, *accumulate(map(len, tails))]  # run i's events are bounds[i] .. bounds[i + 1] - 1
         shapes = set(map(type, payloads))
+        self.from_bytes = self.size - sum(shape is dict for shape in map(type, payloads))
         if tuple in shapes and dict in shapes:  # rows and payloads mixed (the rows stopped at a chunk's end)
             rows = [item if item.__class__ is tuple else _row(item) for item in payloads]
             if None in rows:  # a payload shaped otherwise: the rows as payloads
@@ -116,6 +125,23 @@ class GlueColumns:
         self.data = [b"".join(raw) if is_list else raw for raw, is_list in zip(raws, self.listed)]
         cells = [cell for raw, is_list in zip(raws, self.listed) for cell in (raw if is_list else (raw,))]
         self.values = self._decode(raws, cells)
+
+    def _take_blobs(self, tails: Sequence[Sequence[Any]], defined: Mapping[str, Any]) -> None:
+        """The columns of one blob of glue events after each run, read at once; each run's events
+        found by their byte lengths (a row fills 21 bytes, its kind, its name and its element)."""
+        import numpy as np
+
+        blobs = [tail[0] if tail else b"" for tail in tails]
+        rows = GlueRun(self.field.elem_bytes).rows(b"".join(blobs))
+        self.size = self.from_bytes = len(rows)
+        fixed = 21 + self.field.elem_bytes
+        ends = np.cumsum(np.fromiter(map(len, map(itemgetter(0), rows)), dtype=np.int64, count=len(rows))
+                         + np.fromiter(map(len, map(itemgetter(2), rows)), dtype=np.int64, count=len(rows)) + fixed)
+        blob_ends = np.cumsum(np.fromiter(map(len, blobs), dtype=np.int64, count=len(blobs)))
+        if not len(rows) or ends[-1] != blob_ends[-1]:
+            raise GiveUp("glue blobs read otherwise than measured")
+        self.bounds = [0, *np.searchsorted(ends, blob_ends, side="right").tolist()]
+        self._take_rows(rows, defined)
 
     def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: Mapping[str, Any]) -> None:
         """The columns of events read as rows of bytes (kind, the name's fixstr head, name, element)."""

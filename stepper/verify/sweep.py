@@ -9,8 +9,9 @@ follow its ``instance`` event laid out exactly as
 bytes without decoding them, and checks runs by the block: Fiat-Shamir with
 :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`, the sums, challenges
 and finals with :func:`stepper.verify.roundblock.block_passes`. The glue events after
-a run (values, squeezes, openings) are kept as unpacked and checked by columns with it
-(:mod:`stepper.verify.glue_columns`), and so are the run's ``claim_expr`` and
+a run (values, squeezes, openings) are kept as bytes where the writer packed them
+(:class:`~stepper.transcript.packed.GlueRun`), else as unpacked, and checked by columns
+with it (:mod:`stepper.verify.glue_columns`), and so are the run's ``claim_expr`` and
 ``final_expr`` (:mod:`stepper.verify.glue_block`; the Sequencer defers them). Every
 other event goes through the same :class:`~stepper.transcript.events.Sequencer` and
 :meth:`~stepper.verify.replay.Replay.feed` as the reader would take it.
@@ -135,7 +136,7 @@ class _Sweeper:
         self.layout: Layout | None = None  # of the last run read
         self.layouts: dict[int, Layout] = {}  # by values per round
         self.runs: list[tuple[InstanceStart, bytes, bytes, Layout]] = []  # instance, first bytes, rest, layout
-        self.trailing: list[list[Any]] = []  # the glue after each run (payloads, or rows of GlueRun), checked with them
+        self.trailing: list[list[Any]] = []  # the glue after each run (payloads, or a blob of GlueRun's events), checked with them
         self.glue_tail: list[Any] | None = None  # where glue payloads now go (None: the Sequencer)
         self.glue: GlueChecks | None = None  # set with the field
         self.due = False  # enough runs read: check them before the next instance
@@ -304,18 +305,17 @@ class _Sweeper:
 
     def _take_glue(self, tail: list[Any]) -> None:
         """Take the glue events right after a run that are packed as the writer packs them
-        (:class:`~stepper.transcript.packed.GlueRun`) from the chunk's bytes, as rows of bytes
-        (no map per event); whatever follows them is unpacked as usual."""
+        (:class:`~stepper.transcript.packed.GlueRun`) from the chunk's bytes, as one blob (no map
+        per event; the flush reads the blobs of all its runs at once); whatever follows them is
+        unpacked as usual."""
         data, data_at = self.window
         at = self.unpacker.tell() - data_at
         if at < 0:
             return
         assert self.glue_run is not None  # set with the field
-        size, rows = self.glue_run(data, at)
+        size = self.glue_run(data, at)
         if size:
-            self.unpacker.read_bytes(size)
-            tail.extend(rows)
-            self.seq.count += len(rows)
+            tail.append(self.unpacker.read_bytes(size))  # counted as events when the flush reads them
 
     def _new_layout(self, head: bytes) -> tuple[bytes, Layout]:
         """The layout a run's first bytes announce."""
@@ -361,6 +361,7 @@ class _Sweeper:
         assert kernel is not None and checks is not None and field is not None
         self.runs, self.trailing, self.rows, self.pending_bytes, self.due = [], [], 0, 0, False
         glue = GlueColumns(field, trailing, seq.defined)
+        seq.count += glue.from_bytes  # the events read as blobs, not counted as they were taken
         members: dict[Layout, list[tuple[InstanceStart, bytes, bytes, Layout]]] = {}
         for run in runs:
             members.setdefault(run[3], []).append(run)

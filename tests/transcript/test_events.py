@@ -372,23 +372,25 @@ def test_pair_run_counts_whole_pairs_packed_as_the_writer_packs_them_up_to_most(
     assert [row[4] for row in rows] == [int.from_bytes(payload["value"], "little") for payload in pairs[1::2]]
 
 
-def test_glue_run_reads_the_glue_events_packed_as_the_writer_packs_them_as_msgpack_unpacks_them():
+def test_glue_run_measures_the_glue_events_packed_as_the_writer_packs_them_and_reads_them_as_msgpack_does():
     rng = random.Random(741)
     glue = [{"type": kind, "name": name, "value": struct.pack("<Q", rng.randrange(GOLDILOCKS))}
             for kind, name in (("opening", "ramp_a"), ("opening", "ramp.b"), ("value", "tide_0"),
                                ("squeeze", "b" * 31))]
-    data = b"".join(msgpack.packb(payload, use_bin_type=True) for payload in glue)
-    size, rows = GlueRun(8)(data, 0)
-    assert size == len(data)
+    packed = [msgpack.packb(payload, use_bin_type=True) for payload in glue]
+    data = b"".join(packed)
+    assert GlueRun(8)(data, 0) == len(data)
+    rows = GlueRun(8).rows(data + data)  # two runs joined
     assert [{"type": kind.decode(), "name": name.decode(), "value": element} for kind, _, name, element in rows] \
-        == [msgpack.unpackb(msgpack.packb(payload, use_bin_type=True), raw=False) for payload in glue]
-    assert [head[0] - 0xA0 for _, head, _, _ in rows] == [len(payload["name"]) for payload in glue]
-    assert GlueRun(8)(data[:-1], 0) == (size - len(msgpack.packb(glue[-1], use_bin_type=True)), rows[:-1])
-    assert GlueRun(4)(data, 0) == (0, [])  # 8-byte elements are not the 4-byte layout
+        == [msgpack.unpackb(one, raw=False) for one in packed + packed]
+    assert [head[0] - 0xA0 for _, head, _, _ in rows] == [len(payload["name"]) for payload in glue + glue]
+    assert GlueRun(8)(data[:-1], 0) == len(data) - len(packed[-1])  # the cut event is left to the unpacker
+    assert GlueRun(8)(data, len(packed[0])) == len(data) - len(packed[0])
+    assert GlueRun(4)(data, 0) == 0  # 8-byte elements are not the 4-byte layout
     tabled = msgpack.packb({**glue[0], "table": "ramp"}, use_bin_type=True)  # a map of four: left to the unpacker
     long_name = msgpack.packb({**glue[0], "name": "c" * 32}, use_bin_type=True)  # a str 8 name
-    assert GlueRun(8)(tabled + data, 0) == (0, []) and GlueRun(8)(long_name + data, 0) == (0, [])
-    assert GlueRun(8)(data + tabled, 0) == (size, rows)
+    assert GlueRun(8)(tabled + data, 0) == 0 and GlueRun(8)(long_name + data, 0) == 0
+    assert GlueRun(8)(data + tabled, 0) == len(data)
 
 
 @settings(max_examples=60, deadline=None)

@@ -1,0 +1,74 @@
+"""The glue after runs, read as columns (stepper.verify.glue_columns): the same columns whether the
+whole-file pass kept the events as unpacked payloads or as blobs of bytes (GlueRun), and the blobs'
+name heads checked. The independent side is msgpack itself, which unpacks the same bytes."""
+
+from __future__ import annotations
+
+import random
+import struct
+
+import msgpack
+import pytest
+
+from stepper.field.field import get_field
+from stepper.verify.glue_columns import GlueColumns
+from stepper.verify.packed_runs import GiveUp
+
+GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
+FIELD = get_field(GOLDILOCKS)
+
+
+def glue_tails(seed: int, runs: int) -> list[list[dict[str, object]]]:
+    rng = random.Random(seed)
+    kinds = ["opening", "opening", "value", "squeeze"]
+    return [[{"type": rng.choice(kinds), "name": f"pier{i}_{j}", "value": struct.pack("<Q", rng.randrange(GOLDILOCKS))}
+             for j in range(rng.randrange(4))] for i in range(runs)]
+
+
+def packed(payloads: list[dict[str, object]]) -> bytes:
+    return b"".join(msgpack.packb(payload, use_bin_type=True) for payload in payloads)
+
+
+def columns(glue: GlueColumns) -> tuple[object, ...]:
+    return glue.kinds, glue.names, glue.tables, glue.values, glue.bounds, glue.counts, glue.listed, glue.data
+
+
+def unpacked(tails: list[list[dict[str, object]]]) -> list[list[dict[str, object]]]:
+    return [[msgpack.unpackb(msgpack.packb(payload, use_bin_type=True), raw=False) for payload in tail]
+            for tail in tails]
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_blobs_after_runs_give_the_columns_of_the_payloads_msgpack_unpacks(seed):
+    tails = glue_tails(seed, 12)
+    as_payloads = GlueColumns(FIELD, unpacked(tails), {})
+    as_blobs = GlueColumns(FIELD, [[packed(tail)] if tail else [] for tail in tails], {})
+    assert columns(as_blobs) == columns(as_payloads)
+    assert as_blobs.from_bytes == sum(map(len, tails)) and as_payloads.from_bytes == 0
+
+
+def test_a_blob_followed_by_payloads_gives_the_same_columns_tables_included():
+    # the blob stops at the first event packed otherwise (here, one naming its table); the rest is unpacked
+    tails = glue_tails(5, 6)
+    tails[2][:0] = [{"type": "value", "name": "draft", "value": struct.pack("<Q", 4)}]
+    tails[2].append({"type": "opening", "name": "gangway", "value": struct.pack("<Q", 9), "table": "ramp"})
+    mixed = [[packed(tail[:-1]), *unpacked([tail[-1:]])[0]] if tail else [] for tail in tails]
+    glue = GlueColumns(FIELD, mixed, {})
+    assert columns(glue) == columns(GlueColumns(FIELD, unpacked(tails), {}))
+    assert glue.tables[glue.names.index("gangway")] == "ramp" and glue.from_bytes == sum(len(tail) - 1 for tail in tails if tail)
+
+
+def test_a_name_head_that_is_not_the_names_length_gives_up():
+    blob = bytearray(packed([{"type": "value", "name": "tide", "value": struct.pack("<Q", 1)}]))
+    at = blob.index(b"tide") - 1
+    blob[at] = 0xA0 + 3  # msgpack would read the name "tid" and go astray
+    with pytest.raises(GiveUp):
+        GlueColumns(FIELD, [[bytes(blob)]], {})
+    with pytest.raises(GiveUp):
+        GlueColumns(FIELD, [[bytes(blob), {"type": "value", "name": "ebb", "value": struct.pack("<Q", 2)}]], {})
+
+
+def test_a_name_sent_before_the_flush_gives_up_when_it_comes_again_in_a_blob():
+    blob = packed([{"type": "value", "name": "tide", "value": struct.pack("<Q", 1)}])
+    with pytest.raises(GiveUp):
+        GlueColumns(FIELD, [[blob]], {"tide": None})
