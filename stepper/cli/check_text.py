@@ -81,7 +81,7 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
            rows: int, detail: bool = False, file_line: str | None = None) -> list[str]:
     from stepper.transcript.condition import proof_condition
 
-    field = report.field.describe() if report.field is not None else "no field"
+    field = f"field {report.field.describe()}" if report.field is not None else "no field declared"
     proof = proof_condition((s.index, s.name, counted(s), s.num_vars) for s in report.instances)
     unseen = report.instance_count - len(report.instances)  # --rows kept fewer (failures are always kept)
     if unseen > 0 and not proof.startswith("stops early"):
@@ -90,7 +90,7 @@ def render(report: Report, path: str, notes: Sequence[Note], note_count: int, co
                  "(--rows N shows them)" if short > 0 else "every instance has all its rounds")
     lines = [
         _paint(f"stepper check {path}", "bold", colour),
-        f"  field {field}; challenges {report.challenges}",
+        f"  {field}; challenges {report.challenges}",
         f"  file: {file_line or report.completeness}; proof: {proof}",
         "",
         f"  {'#':>4}  {'instance':<28} {'vars':>4} {'deg':>4}  {'form':<16} {'rounds':>7}  result",

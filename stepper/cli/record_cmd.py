@@ -109,8 +109,10 @@ def run(args: argparse.Namespace) -> int:
     state = "complete" if sealed else "incomplete"
     dropped = f"; the partial last line (line {splitter.dropped}) was dropped" if splitter.dropped is not None else ""
     count = f"{writer.events} event{'' if writer.events == 1 else 's'}"
+    silent = ("; the program wrote no event (it should append JSON lines to the file named by "
+              "STEPPER_EVENTS)") if writer.events == 0 else ""
     print(f"stepper record: {args.output}: {count}, {state}{dropped}; "
-          f"{command[0]} {shown}", file=sys.stderr)
+          f"{command[0]} {shown}{silent}", file=sys.stderr)
     return status
 
 

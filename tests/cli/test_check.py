@@ -357,3 +357,11 @@ def test_rows_0_still_shows_the_failed_instance_and_says_every_instance_is_whole
     lines = out.splitlines()
     assert lines[2].endswith("proof: every instance has all its rounds"), lines[2]
     assert any(line.split()[:2] == ["1", "deck-slots-b"] and "FAILED sum at round 1" in line for line in lines), out
+
+
+def test_a_transcript_without_a_field_says_no_field_declared_and_that_nothing_was_checked(tmp_path, capsys):
+    path = write_sumtr(tmp_path / "empty.sumtr", [])  # what `stepper record` seals when the program sends nothing
+    code, out, _ = check(capsys, str(path))
+    assert code == 0
+    assert out.splitlines()[1].startswith("  no field declared; challenges ")
+    assert "field no field" not in out and "nothing was checked" in out

@@ -110,6 +110,14 @@ def test_record_counts_one_event_in_the_singular(tmp_path):
     assert f"{out}: 1 event, complete;" in proc.stderr, proc.stderr
 
 
+def test_record_of_a_program_that_writes_no_event_says_where_events_go(tmp_path):
+    out = tmp_path / "silent.sumtr"
+    proc = stepper("record", "-o", str(out), "--", sys.executable, "-c", "pass")
+    assert proc.returncode == 0
+    assert proc.stderr.count("\n") == 1
+    assert "0 events" in proc.stderr and "wrote no event" in proc.stderr and "STEPPER_EVENTS" in proc.stderr
+
+
 def test_prover_killed_with_sigkill_mid_proof_keeps_every_round_before_the_kill(tmp_path, prover):
     out = tmp_path / "killed.sumtr"
     pid_file = tmp_path / "pid"
