@@ -65,7 +65,7 @@ class RecorderSink:
         raise TypeError(f"no Recorder call for {type(record).__name__}")
 
 
-def main(path: str, fault: str | None = None, *, created: str | None = None) -> None:
+def main(path: str, fault: str | None = None, *, created: str | None = None, replace: bool = False) -> None:
     spec = ProveSpec("ferries", num_vars=6, seed=740, groups=3, fault=parse_fault(fault) if fault else None,
                      label="Brackwater Ferries isle-of-quill-0740 (samples/prove_sailing.py)")
     metadata = {"sailing": "isle-of-quill-0740", "sample": "samples/prove_sailing.py"}
@@ -73,7 +73,7 @@ def main(path: str, fault: str | None = None, *, created: str | None = None) -> 
         metadata["fault"] = fault
     if created is not None:
         metadata["created"] = created
-    with Recorder(path, metadata=metadata) as recorder:
+    with Recorder(path, metadata=metadata, replace=replace) as recorder:  # an existing file only with --force
         proof = prove(spec, parse_field("babybear"), RecorderSink(recorder))
     print(f"{path}: {len(proof.instances)} instances, {proof.total_mults} field multiplications")
 
@@ -83,7 +83,9 @@ if __name__ == "__main__":
         print(__doc__)
         sys.exit(0)
     try:
-        main(sys.argv[1] if len(sys.argv) > 1 else "sailing.sumtr", sys.argv[2] if len(sys.argv) > 2 else None)
+        words = [w for w in sys.argv[1:] if w != "--force"]
+        main(words[0] if words else "sailing.sumtr", words[1] if len(words) > 1 else None,
+             replace="--force" in sys.argv[1:])
     except StepperError as err:  # a bad fault name or output path: one line, exit 2
-        print(f"prove_sailing: {err}", file=sys.stderr)
+        print(f"prove_sailing: {err}".replace("replace=True", "--force"), file=sys.stderr)  # this script's flag
         sys.exit(2)

@@ -25,6 +25,7 @@ from __future__ import annotations
 import hashlib
 import sys
 
+from stepper.errors import StepperError
 from stepper.transcript.recorder import Recorder, tap
 
 P = 2**64 - 2**32 + 1  # Goldilocks
@@ -80,11 +81,11 @@ class DeckProver:
         return eq[0] * flags[0] * (1 - flags[0]) % P
 
 
-def main(path: str) -> None:
+def main(path: str, replace: bool = False) -> None:
     slots = [1, 0, 1, 1, 0, 0, 1, 0]  # car-deck slot occupancy flags, all well formed
     prover = DeckProver(slots, z=[11, 22, 33])
     channel = DeckChannel(b"brackwater-ferries/deck")
-    with Recorder(path, field="goldilocks", metadata={"sailing": "isle-of-quill-0740"}) as rec:
+    with Recorder(path, field="goldilocks", metadata={"sailing": "isle-of-quill-0740"}, replace=replace) as rec:
         rec.instance("deck-slots-zero", NUM_VARS, 3, prover.claim())
         with tap(channel, rec, send="absorb_poly", draw="squeeze") as hooks:
             final = prover.run(channel)  # the prover itself is not changed
@@ -96,4 +97,9 @@ if __name__ == "__main__":
     if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
         print(__doc__)
         sys.exit(0)
-    main(sys.argv[1] if len(sys.argv) > 1 else "deck-slots.sumtr")
+    words = [w for w in sys.argv[1:] if w != "--force"]
+    try:
+        main(words[0] if words else "deck-slots.sumtr", replace="--force" in sys.argv[1:])
+    except StepperError as err:  # an existing output without --force: one line, exit 2
+        print(f"record_channel_adapter: {err}".replace("replace=True", "--force"), file=sys.stderr)  # this script's flag
+        sys.exit(2)

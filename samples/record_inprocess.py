@@ -11,7 +11,7 @@ a permutation). This script proves that sum with a degree-2 sumcheck over
 Goldilocks, binding the low index bit first, draws every challenge from
 stepper's built-in Fiat-Shamir schedule, and records each message as it is sent:
 
-    python samples/record_inprocess.py quill.sumtr
+    python samples/record_inprocess.py quill.sumtr [--force]
     stepper info quill.sumtr
     stepper check quill.sumtr
 
@@ -26,6 +26,7 @@ import numpy as np
 
 from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
 from stepper.field.field import get_field
+from stepper.errors import StepperError
 from stepper.transcript.recorder import Recorder
 
 NUM_VARS = 4  # 16 tickets: small enough to read the transcript by eye
@@ -49,14 +50,14 @@ def round_poly(mult: np.ndarray, ledger_inv: np.ndarray, boarding_inv: np.ndarra
     return evals
 
 
-def prove(path: str) -> None:
+def prove(path: str, replace: bool = False) -> None:
     f = GOLDILOCKS
     rng = np.random.default_rng(740)
     ledger = rng.integers(10_000, 99_999, size=1 << NUM_VARS, dtype=np.uint64)  # ticket numbers sold
     boarding = rng.permutation(ledger)  # scan order at the gate
     schedule = Sha256Schedule()
     meta = {"label": "isle-of-quill-0740 boarding check", "sailing": "isle-of-quill-0740"}
-    with Recorder(path, metadata=meta) as rec:
+    with Recorder(path, metadata=meta, replace=replace) as rec:  # an existing file only with --force
         schedule.observe(rec.field(f))
         schedule.observe(rec.schedule(SCHEDULE_NAME, label="brackwater-ferries"))
         alpha = int(rng.integers(1, 2**62))  # a real prover derives alpha from commitments
@@ -79,4 +80,9 @@ if __name__ == "__main__":
     if sys.argv[1:2] in (["-h"], ["--help"]):  # not an output path
         print(__doc__)
         sys.exit(0)
-    prove(sys.argv[1] if len(sys.argv) > 1 else "isle-of-quill-0740.sumtr")
+    words = [w for w in sys.argv[1:] if w != "--force"]
+    try:
+        prove(words[0] if words else "isle-of-quill-0740.sumtr", replace="--force" in sys.argv[1:])
+    except StepperError as err:  # an existing output without --force: one line, exit 2
+        print(f"record_inprocess: {err}".replace("replace=True", "--force"), file=sys.stderr)  # this script's flag
+        sys.exit(2)

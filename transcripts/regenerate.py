@@ -73,14 +73,16 @@ def regenerate_samples(out: str) -> list[str]:
 
     os.makedirs(out, exist_ok=True)
     sailing = _sample("prove_sailing")
-    sailing.main(os.path.join(out, "sailing-recorder.sumtr"), created=FIXED_CREATED)
-    sailing.main(os.path.join(out, "sailing-recorder-bug.sumtr"), "stale-challenge@3", created=FIXED_CREATED)
+    sailing.main(os.path.join(out, "sailing-recorder.sumtr"), created=FIXED_CREATED, replace=True)
+    sailing.main(os.path.join(out, "sailing-recorder-bug.sumtr"), "stale-challenge@3", created=FIXED_CREATED,
+                 replace=True)
 
     adapter = _sample("record_channel_adapter")
     prover = adapter.DeckProver([1, 0, 1, 1, 0, 0, 1, 0], z=[11, 22, 33])
     channel = adapter.DeckChannel(b"brackwater-ferries/deck")
     meta = {"sailing": "isle-of-quill-0740", "created": FIXED_CREATED}
-    with Recorder(os.path.join(out, "deck-channel-adapter.sumtr"), field="goldilocks", metadata=meta) as rec:
+    with Recorder(os.path.join(out, "deck-channel-adapter.sumtr"), field="goldilocks", metadata=meta,
+                  replace=True) as rec:  # regenerating: the shipped file is rewritten on purpose
         rec.instance("deck-slots-zero", adapter.NUM_VARS, 3, prover.claim())
         with tap(channel, rec, send="absorb_poly", draw="squeeze"):
             final = prover.run(channel)

@@ -77,9 +77,12 @@ class Recorder:
     """Writes a transcript from inside a prover, one validated event per call."""
 
     def __init__(self, path: str | os.PathLike[str], *, field: Field | str | int | None = None,
-                 metadata: Mapping[str, Any] | None = None) -> None:
+                 metadata: Mapping[str, Any] | None = None, replace: bool = False) -> None:
+        """Start recording into ``path``. An existing file there is left as it was and the
+        call raises :class:`~stepper.transcript.store.output.OutputExists` (a
+        :class:`~stepper.errors.UsageError`), unless ``replace`` is true."""
         meta = {"recorded_by": "stepper.recorder", **dict(metadata or {})}
-        self._writer = TranscriptWriter(path, metadata=meta)
+        self._writer = TranscriptWriter(path, metadata=meta, replace=replace, replace_hint="replace=True")
         if field is not None:
             self.field(field)
 

@@ -244,3 +244,16 @@ def test_tap_passes_the_channels_glue_calls_through(tmp_path):
     t = load(path)
     assert [g.name for g in t.glue] == ["tau", "beta"] and t.glue[1].value == 11
     assert t.instances[0].openings[0].table == "fares" and channel.seen == ["tau", "a"]
+
+
+def test_the_recorder_leaves_an_existing_file_as_it_was_unless_asked_to_replace_it(tmp_path):
+    from stepper.errors import UsageError
+
+    path = tmp_path / "quill.sumtr"
+    path.write_bytes(b"a teammate's notes")
+    with pytest.raises(UsageError, match=r"already exists; it was left as it was \(add replace=True"):
+        Recorder(path, field="goldilocks")
+    assert path.read_bytes() == b"a teammate's notes"
+    with Recorder(path, field="goldilocks", replace=True) as rec:
+        rec.instance("boarding-permutation", 0, 1, 0)
+    assert load(path).instances[0].name == "boarding-permutation"

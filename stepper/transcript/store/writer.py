@@ -88,8 +88,10 @@ class TranscriptWriter:
     one unwritten."""
 
     def __init__(self, path: str | os.PathLike[str], *, metadata: Mapping[str, Any] | None = None,
-                 tool_version: str = __version__, atomic: bool = False, replace: bool = True) -> None:
+                 tool_version: str = __version__, atomic: bool = False, replace: bool = True,
+                 replace_hint: str = "--force") -> None:
         self.path = str(path)
+        self._replace_hint = replace_hint  # how the caller asks to replace an existing file
         self.atomic = atomic
         self._replace = replace
         self._temp: str | None = None
@@ -115,7 +117,7 @@ class TranscriptWriter:
             raise
 
     def _open_temp(self) -> BinaryIO:
-        refuse_existing(self.path, self._replace)
+        refuse_existing(self.path, self._replace, self._replace_hint)
         try:
             handle, self._temp = temp_beside(self.path)
         except OSError as err:
@@ -127,7 +129,7 @@ class TranscriptWriter:
         try:
             handle = os.fdopen(os.open(self.path, flags, 0o666), "wb", buffering=0)
         except FileExistsError:
-            refuse_existing(self.path, False)
+            refuse_existing(self.path, False, self._replace_hint)
             raise
         except OSError as err:
             raise oserror(err, self.path, "create the transcript") from None
