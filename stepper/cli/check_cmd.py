@@ -102,6 +102,15 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError("expected --progress only with --witness W (it reports the root cause's recomputation)")
     if args.force and not args.junit:
         raise UsageError("expected --force only with --junit PATH (the one file check writes)")
+    if args.junit:  # before any work: a report that cannot be written is known now, not after the checks
+        import os
+
+        from stepper.transcript.store.output import refuse_existing
+
+        refuse_existing(args.junit, args.force)
+        folder = os.path.dirname(os.path.abspath(args.junit))
+        if not os.path.isdir(folder):
+            raise UsageError(f"expected --junit to name a file in an existing folder, found no folder {folder}")
     if len(args.files) > 1 or args.junit or args.ci_lines:
         from stepper.cli.check_many import check_many
 

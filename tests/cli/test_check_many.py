@@ -151,6 +151,16 @@ def test_junit_never_replaces_a_file_without_force(files, tmp_path, capsys):
     assert not [p for p in tmp_path.iterdir() if p.name.endswith(".partial")]
 
 
+def test_a_junit_report_that_cannot_be_written_is_refused_before_any_file_is_checked(files, tmp_path, capsys):
+    for report in (tmp_path / "no-such-folder" / "out.xml", tmp_path):  # a missing folder; a folder itself
+        code, out, err = run(capsys, str(files["faulty"]), "--junit", str(report))
+        assert code == 2 and out == "" and err.count("\n") == 1  # one line, no file checked or printed
+    report = tmp_path / "kept.xml"
+    report.write_text("keep me")
+    code, out, err = run(capsys, str(files["faulty"]), "--junit", str(report))
+    assert code == 2 and out == "" and "--force" in err and report.read_text() == "keep me"
+
+
 def test_ci_lines_in_the_github_and_compiler_forms(files, capsys):
     _, out, _ = run(capsys, str(files["faulty"]), str(files["incomplete"]), "--ci-lines", "github")
     marks = [line for line in out.splitlines() if line.startswith("::")]
