@@ -220,6 +220,7 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
     events: list[Any] | None = [] if args.witness else None
     if swept is not None:
         completeness, header, digest, kind = swept.completeness, swept.header, swept.digest, "transcript"
+        truncated_at = None  # the sweep gives up on a cut-off last event: the replay below reports it
     else:
         with open_events(path) as stream:
             if events is None:
@@ -231,6 +232,7 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
                     replay.feed(record)
             completeness = stream.completeness
             header, digest, kind = stream.header, stream.digest, stream.kind
+            truncated_at = stream.truncated_at
     report = replay.report(completeness)
     diagnosis = None
     if args.witness:
@@ -253,7 +255,7 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
     from stepper.transcript.condition import file_condition
 
     return Checked(name, report, diagnosis, notes, note_count, unknown, strict,
-                   file_condition(kind, completeness, digest), glue)
+                   file_condition(kind, completeness, digest, truncated_at), glue)
 
 
 def _engine(args: argparse.Namespace) -> Any:

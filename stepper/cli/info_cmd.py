@@ -209,8 +209,4 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
 
 
 def _file_line(info: dict[str, Any]) -> str:
-    line = file_condition(info["kind"], info["completeness"], info["digest"])
-    if info["truncated_at"] is not None:
-        unit = "line" if info["kind"] == "events" else "byte"
-        line += f"; a cut-off last event at {unit} {info['truncated_at']} was dropped"
-    return line
+    return file_condition(info["kind"], info["completeness"], info["digest"], info["truncated_at"])

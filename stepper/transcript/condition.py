@@ -24,14 +24,20 @@ DIGEST_MISMATCH = "digest mismatch"
 ROUND_RULE = "a round counts once its challenge is recorded"
 
 
-def file_condition(kind: str, completeness: str, digest: str) -> str:
+def file_condition(kind: str, completeness: str, digest: str, truncated_at: int | None = None) -> str:
     """``sealed, digest ok`` / ``sealed, digest mismatch`` / ``cut off (no end event, so no digest)``
-    for a transcript; ``event stream, not sealed (no digest)`` (or ``..., cut off mid-line``) for JSON lines."""
+    for a transcript; ``event stream, not sealed (no digest)`` (or ``..., cut off mid-line``) for JSON lines;
+    followed by ``; a cut-off last event at byte N (line N) was dropped`` when the reader dropped one
+    (``truncated_at``: e.g. a note half-appended after the end of a sealed file)."""
     if kind != "transcript":
-        return "event stream, not sealed (no digest)" + ("" if completeness == "complete" else ", cut off mid-line")
-    if completeness != "complete":
-        return "cut off (no end event, so no digest)"
-    return f"sealed, {DIGEST_MISMATCH}" if digest == "mismatch" else "sealed, digest ok"
+        line = "event stream, not sealed (no digest)" + ("" if completeness == "complete" else ", cut off mid-line")
+    elif completeness != "complete":
+        line = "cut off (no end event, so no digest)"
+    else:
+        line = f"sealed, {DIGEST_MISMATCH}" if digest == "mismatch" else "sealed, digest ok"
+    if truncated_at is not None:
+        line += f"; a cut-off last event at {'line' if kind == 'events' else 'byte'} {truncated_at} was dropped"
+    return line
 
 
 def rounds_counted(rounds_sent: int, challenges: int) -> int:

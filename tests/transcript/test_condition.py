@@ -132,3 +132,20 @@ async def test_the_app_says_declared_while_reading_and_re_derived_once_checked(t
         pass
     words = {line.label: line.value for line in summary_lines(model)}
     assert words["challenges"].startswith("re-derived by the built-in schedule")
+
+
+def test_a_note_half_appended_after_a_sealed_file_is_named_alike_by_check_and_info(tmp_path, capsys):
+    import os
+    import shutil
+
+    path = tmp_path / "noted.sumtr"
+    shutil.copy(HONEST, path)
+    assert main(["note", str(path), "gate 2 scanner swapped at noon"]) == 0
+    os.truncate(path, os.path.getsize(path) - 5)  # the note's last bytes never reached the disk
+    capsys.readouterr()
+    assert main(["check", str(path)]) == 0  # the proof is whole: the cut note is not part of it
+    check_lines = capsys.readouterr().out.splitlines()
+    assert main(["info", str(path)]) == 0
+    info_line = next(line for line in capsys.readouterr().out.splitlines() if line.startswith("file: "))
+    assert info_line.startswith("file: sealed, digest ok; a cut-off last event at byte ")
+    assert f"  {info_line}; proof: every instance has all its rounds" in check_lines  # the same words
