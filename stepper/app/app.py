@@ -36,6 +36,27 @@ def compare_available() -> bool:
     return importlib.util.find_spec("stepper.app.compare_screen") is not None
 
 
+TERMINAL_LOOK_SECONDS = 2.0  # how often the app looks whether its terminal is still there
+
+
+def terminal_gone(fd: int = 0) -> bool:
+    """True when ``fd`` is a terminal that has hung up: asking it how many bytes wait fails
+    with an I/O error once the other end of a pseudo-terminal is closed (Linux, macOS). False
+    for a live terminal, for anything else, and where the question cannot be asked."""
+    try:
+        import fcntl
+        import termios
+    except ImportError:  # no termios (Windows): never judged gone
+        return False
+    try:
+        fcntl.ioctl(fd, termios.FIONREAD, b"\0\0\0\0")
+    except OSError as err:
+        import errno
+
+        return err.errno in (errno.EIO, errno.ENXIO)
+    return False
+
+
 class StepperApp(App[int]):
     """Proof view (summary, strip, rounds, detail) plus the bucket, key and question screens."""
 
@@ -96,6 +117,17 @@ class StepperApp(App[int]):
             self.set_interval(self.poll_seconds, self.poll_file, name="follow")
         if self.compare is not None:
             self.open_compare(self.compare)
+        if not self.is_headless:
+            self.set_interval(TERMINAL_LOOK_SECONDS, self.leave_if_terminal_gone, name="terminal")
+
+    def leave_if_terminal_gone(self) -> bool:
+        """Exit when the terminal behind standard input has gone (its pseudo-terminal closed
+        without a hang-up signal reaching this process); Textual's input loop would otherwise
+        keep polling it, a core busy until someone kills the process. True if it had gone."""
+        if not terminal_gone():
+            return False
+        self.exit()
+        return True
 
     def on_unmount(self) -> None:
         if self.whole_file_check is not None:

@@ -28,9 +28,10 @@ LEAVE_ALTERNATE_SCREEN = b"\x1b[?1049l"  # DEC private mode 1049 reset (xterm co
 SHOW_CURSOR = b"\x1b[?25h"  # DEC private mode 25 set (xterm control sequences, common practice)
 
 
-def run_in_terminal(argv: list[str], key: bytes, timeout: float = 60.0) -> tuple[int, bytes]:
+def run_in_terminal(argv: list[str], key: bytes | None, timeout: float = 60.0) -> tuple[int, bytes]:
     """Start ``argv`` on a fresh 80x24 pseudo-terminal, press ``key`` once the key bar is
-    drawn, and return the exit code and everything the process wrote."""
+    drawn (or, for None, close the terminal then), and return the exit code and everything
+    the process wrote."""
     master, slave = pty.openpty()
     fcntl.ioctl(slave, termios.TIOCSWINSZ, struct.pack("HHHH", 24, 80, 0, 0))
     env = {k: v for k, v in os.environ.items() if k not in ("NO_COLOR", "TEXTUAL")}
@@ -49,10 +50,14 @@ def run_in_terminal(argv: list[str], key: bytes, timeout: float = 60.0) -> tuple
                     break
                 seen += chunk
             if not pressed and KEY_BAR in seen:
-                os.write(master, key)
                 pressed = True
+                if key is None:  # the terminal goes away (its window closed, no hang-up signal sent)
+                    os.close(master)
+                    master = -1
+                    break
+                os.write(master, key)
         code = proc.wait(timeout=10)
-        while select.select([master], [], [], 0)[0]:  # what the process wrote while leaving
+        while master >= 0 and select.select([master], [], [], 0)[0]:  # what the process wrote while leaving
             try:
                 chunk = os.read(master, 1 << 16)
             except OSError:
@@ -64,7 +69,8 @@ def run_in_terminal(argv: list[str], key: bytes, timeout: float = 60.0) -> tuple
         if proc.poll() is None:
             proc.kill()
             proc.wait()
-        os.close(master)
+        if master >= 0:
+            os.close(master)
     assert pressed, f"the key bar never appeared within {timeout} s; the process wrote {seen[-400:]!r}"
     return code, seen
 
@@ -112,3 +118,28 @@ def test_view_of_a_missing_file_says_so_in_the_words_check_uses(tmp_path, capsys
     assert main(["view", str(missing)]) == 2
     viewed = capsys.readouterr().err.replace("stepper view:", "")
     assert viewed == checked and "could not open the file" in viewed
+
+
+@pytest.mark.skipif(not sys.platform.startswith(("linux", "darwin")), reason="needs a POSIX pseudo-terminal")
+def test_view_ends_when_its_terminal_goes_away_instead_of_polling_it_forever():
+    started = time.monotonic()
+    code, _ = run_in_terminal([sys.executable, "-m", "stepper", "view", str(HONEST)], None)
+    assert code == 0 and time.monotonic() - started < 60  # proc.wait(10) above raised otherwise
+
+
+def test_a_live_terminal_is_not_gone_and_a_closed_one_is():
+    from stepper.app.app import terminal_gone
+
+    master, slave = pty.openpty()
+    try:
+        assert not terminal_gone(slave)
+        os.close(master)
+        assert terminal_gone(slave)
+    finally:
+        os.close(slave)
+    read_end, write_end = os.pipe()  # not a terminal: never judged gone
+    try:
+        assert not terminal_gone(read_end)
+    finally:
+        os.close(read_end)
+        os.close(write_end)
