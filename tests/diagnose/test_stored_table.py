@@ -88,7 +88,7 @@ def test_reading_every_row_range_leaves_almost_nothing_of_the_mapping_resident(t
     table = StoredTable(BABYBEAR4, mapped, "ledger")
     total = 0
     for start in range(0, len(table), 1 << 16):
-        total += int(table.rows(start, start + (1 << 16))[:, 0].sum(dtype=np.uint64) & 1)
+        total += int(table.rows(start, start + (1 << 16))[:, 0].sum(dtype=np.uint64)) & 1  # int first: numpy 1.x refuses uint64 & int
     after_rows = _resident_kib(path)
     np.asarray(mapped).sum()  # plain slicing keeps every page it touched
     after_plain = _resident_kib(path)
