@@ -68,36 +68,12 @@ def cpu_of_check(argv: list[str]) -> tuple[float, float]:
     return cpu, rss
 
 
-# `python -m stepper` that writes its own peak resident memory (VmHWM, kibibytes) to stderr at exit.
-# The child's ru_maxrss is not used: Python starts children with vfork, and Linux then counts the
-# parent's high-water mark (this script's, e.g. while it wrote a 1 GiB table) as the child's.
-_PEAK_SELF = ("import atexit, os, runpy, sys\n"
-              "def peak():\n"
-              "    with open('/proc/self/status') as status:\n"
-              "        kib = next(line.split()[1] for line in status if line.startswith('VmHWM:'))\n"
-              "    os.write(2, f'peak-kib {kib}\\n'.encode())\n"
-              "atexit.register(peak)\n"
-              "sys.argv = ['stepper', *sys.argv[1:]]\n"
-              "runpy.run_module('stepper', run_name='__main__', alter_sys=True)\n")
-
-
 def times_of_check(argv: list[str]) -> tuple[float, float, float]:
-    """(CPU s, wall s, peak MB) of one fresh `check` process; the peak is the child's own (VmHWM)."""
-    import subprocess
-
-    from check import _child_env
-
-    t0 = time.perf_counter()
-    proc = subprocess.Popen([sys.executable, "-c", _PEAK_SELF, "check", *argv], stdout=subprocess.DEVNULL,
-                            stderr=subprocess.PIPE, env=_child_env())
-    assert proc.stderr is not None
-    err = proc.stderr.read().decode(errors="replace")
-    _, status, usage = os.wait4(proc.pid, 0)
-    wall = time.perf_counter() - t0
-    code = os.waitstatus_to_exitcode(status)
-    assert code == 0, f"check {argv} exited {code}: {err[-300:]}"
-    kib = int(err.rsplit("peak-kib ", 1)[1].split()[0])
-    return usage.ru_utime + usage.ru_stime, wall, kib / 1024
+    """(CPU s, wall s, peak MB) of one fresh `check` process; the peak is the child's own (VmHWM,
+    through check.py's PEAK_SELF: ru_maxrss would count this script's high-water mark under vfork)."""
+    wall, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv])
+    assert code == 0, f"check {argv} exited {code}"
+    return cpu, wall, rss
 
 
 def dask_overhead(transcript: Path, witness: Path, repeat: int) -> str:
