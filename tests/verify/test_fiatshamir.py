@@ -236,17 +236,22 @@ def test_hand_built_glue_bytes_give_the_documented_digests_and_squeezes():
     assert state.copy().hexdigest() == GLUE_DIGESTS["squeeze w"]
 
 
-def test_schedule_object_reproduces_the_glue_vectors():
-    from stepper.transcript.model import NamedValue, Opening, Squeeze
-
-    field = get_field(P)
+def _after_the_two_rounds() -> Sha256Schedule:
+    """The schedule of the worked example after its two rounds, each challenge checked on the way."""
     s = Sha256Schedule()
-    s.observe(FieldDecl(field))
+    s.observe(FieldDecl(get_field(P)))
     s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
     s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
     for k, (values, r) in enumerate(((ROUND1, R1), (ROUND2, R2)), start=1):
         s.observe(RoundMsg(0, k, values))
         assert s.challenge() == r
+    return s
+
+
+def test_schedule_object_reproduces_the_glue_vectors():
+    from stepper.transcript.model import NamedValue, Opening, Squeeze
+
+    s = _after_the_two_rounds()
     s.observe(Opening("f.at.r", F_AT_R, "f", 0))
     s.observe(Opening("h.at.r", H_AT_R, "h", 0))
     s.observe(NamedValue("tau", (3, 5), True, 0))
@@ -272,14 +277,7 @@ def test_one_element_and_a_list_of_one_are_absorbed_apart():
 def test_glue_stream_absorbed_by_pieces_reproduces_the_glue_vectors():
     # the whole-file pass frames a run's glue by columns (stepper.verify.glue_columns): the same bytes as
     # the record-by-record schedule above, the sent squeezes standing in for the derived ones
-    field = get_field(P)
-    s = Sha256Schedule()
-    s.observe(FieldDecl(field))
-    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
-    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
-    for k, (values, r) in enumerate(((ROUND1, R1), (ROUND2, R2)), start=1):
-        s.observe(RoundMsg(0, k, values))
-        assert s.challenge() == r
+    s = _after_the_two_rounds()
     stream, ends, cuts = s.glue_stream(
         ["opening", "opening", "value", "squeeze", "squeeze"], ["f.at.r", "h.at.r", "tau", "beta", "w"],
         ["f", "h", "", "", ""], [el(F_AT_R), el(H_AT_R), el(3) + el(5), el(BETA), el(W[0]) + el(W[1])],
