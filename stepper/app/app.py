@@ -12,12 +12,19 @@ top, when present.
 from __future__ import annotations
 
 import asyncio
+import errno
 import importlib.util
 import time
 from pathlib import Path
 from typing import Any
 
 from textual.app import App
+
+try:  # asked every TERMINAL_LOOK_SECONDS whether the terminal is still there
+    import fcntl
+    import termios
+except ImportError:  # Windows
+    fcntl = termios = None  # type: ignore[assignment]
 
 from stepper.app.proof_model import Position, ProofModel
 from stepper.app.proof_screen import ProofScreen
@@ -43,16 +50,11 @@ def terminal_gone(fd: int = 0) -> bool:
     """True when ``fd`` is a terminal that has hung up: asking it how many bytes wait fails
     with an I/O error once the other end of a pseudo-terminal is closed (Linux, macOS). False
     for a live terminal, for anything else, and where the question cannot be asked."""
-    try:
-        import fcntl
-        import termios
-    except ImportError:  # no termios (Windows): never judged gone
+    if fcntl is None or termios is None:  # no termios (Windows): never judged gone
         return False
     try:
         fcntl.ioctl(fd, termios.FIONREAD, b"\0\0\0\0")
     except OSError as err:
-        import errno
-
         return err.errno in (errno.EIO, errno.ENXIO)
     return False
 
