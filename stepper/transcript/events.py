@@ -31,10 +31,9 @@ Caps keep a hostile input from costing unbounded memory.
 from __future__ import annotations
 
 import struct
-from typing import Any, Callable, Iterable, Iterator, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping
 
 from stepper.errors import FieldError, TranscriptError, Where
-from stepper.field.expr import Expr
 from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
 from stepper.field.spec import field_from_spec
 from stepper.transcript.packed import decoder_for, pair_run
@@ -48,6 +47,9 @@ from stepper.transcript.model import (
 )
 from stepper.transcript.annotations import AnnotationRules
 from stepper.transcript.glue_rules import GlueRules
+
+if TYPE_CHECKING:
+    from stepper.field.expr import Expr
 
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
            "MAX_DEGREE"]

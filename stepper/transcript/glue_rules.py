@@ -10,10 +10,9 @@ comes, or at the end of the stream).
 
 from __future__ import annotations
 
-from typing import Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping
 
 from stepper.errors import ExpressionError, TranscriptError
-from stepper.field.expr import Expr, parse as parse_expr, parse_cached
 from stepper.field.field import Element
 from stepper.field.poly import EQ_FACTORED
 from stepper.transcript.payload_rules import MAX_TEXT, checked_text, short
@@ -21,6 +20,9 @@ from stepper.transcript.model import (
     GLUE_NAME, GLUE_NAME_PATTERN, Event, GlueDraft, InstanceStart, NamedValue, Opening, OpeningDraft, Squeeze,
 )
 from stepper.transcript.sequence_state import SequenceState
+
+if TYPE_CHECKING:
+    from stepper.field.expr import Expr
 
 __all__ = ["GlueRules"]
 
@@ -72,6 +74,8 @@ class GlueRules(SequenceState):
 
     def _checked_expr(self, text: str, key: str, name: str) -> Expr:
         """The parsed ``key`` of the instance ``name``, its names checked against what came before."""
+        from stepper.field.expr import parse as parse_expr, parse_cached  # numpy with it: only for glue
+
         try:
             expr = parse_cached(text)
         except ExpressionError:

@@ -27,13 +27,13 @@ from collections import OrderedDict
 from typing import TYPE_CHECKING, Any, Iterable
 
 from stepper.errors import ExpressionError, TranscriptError, Where
-from stepper.field.expr import Expr, GlueScope, parse_cached
 from stepper.field.poly import lagrange_at, point_from_challenges
 from stepper.transcript.model import NamedValue, Opening, Squeeze
 
 from stepper.verify.verdict import Failure, GlueResult, SqueezeResult
 
 if TYPE_CHECKING:
+    from stepper.field.expr import Expr, GlueScope
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceStart
     from stepper.verify.ledger import InstanceLedger, LiveInstance
@@ -46,6 +46,8 @@ MAX_POINT_ELEMENTS = 1 << 16
 
 def parsed(text: str) -> Expr:
     """The tree of a glue expression (the Sequencer has already parsed it, and named any error)."""
+    from stepper.field.expr import parse_cached  # numpy with it: only for glue
+
     return parse_cached(text)
 
 
@@ -87,6 +89,8 @@ class GlueBook:
             self._stored -= len(point)
 
     def scope(self, own_point: tuple[Element, ...] | None) -> GlueScope:
+        from stepper.field.expr import GlueScope
+
         return GlueScope(self.values, self.points, self.finals, own_point)
 
     def missing(self, expr: Expr) -> str | None:
