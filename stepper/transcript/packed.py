@@ -23,12 +23,16 @@ from __future__ import annotations
 import re
 import struct
 from functools import lru_cache
-from typing import Callable
+from typing import TYPE_CHECKING, Callable
 
 from stepper.errors import FieldError, Where
 from stepper.field.field import Element, Field
 
-__all__ = ["pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS"]
+if TYPE_CHECKING:
+    import numpy as np
+
+__all__ = ["pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS",
+           "GlueColumnsRead", "read_glue_columns"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
 
@@ -197,3 +201,93 @@ class GlueRun:
         """Per event of ``data`` (bytes this object measured, any number of runs joined): (kind,
         the name's fixstr head, name, element bytes)."""
         return self._one(data)  # type: ignore[no-any-return]
+
+
+# the bytes a name may hold, and those it may start with (stepper.transcript.glue_records.GLUE_NAME_PATTERN)
+_NAME_BYTES = frozenset(b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_.")
+_NAME_FIRST = frozenset(b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz_")
+
+
+class GlueColumnsRead:
+    """Glue events of one element packed as the writer packs them (what :class:`GlueRun` measures),
+    read from their joined bytes as columns with numpy, no object per event but each name:
+    ``codes`` (0 value, 1 squeeze, 2 opening), ``names``, ``elements`` (one row of the
+    element's bytes per event) and ``ends`` (the byte offset where each event ends). See
+    :func:`read_glue_columns`."""
+
+    __slots__ = ("codes", "names", "elements", "ends")
+
+    def __init__(self, codes: np.ndarray, names: list[str], elements: np.ndarray, ends: np.ndarray) -> None:
+        self.codes = codes
+        self.names = names
+        self.elements = elements
+        self.ends = ends
+
+
+def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
+    """The events of ``data`` (glue events of ``width``-byte elements joined, each packed as the writer
+    packs them), or None when ``data`` is not exactly such events read as msgpack reads them: each
+    event's length follows from its kind's and its name's fixstr heads, so the events are found
+    where their first bytes (a map of three, "type") stand and every one must end where the next
+    starts, with every fixed byte, name byte and head where that reading puts it. (Element bytes
+    that happen to hold an event's first bytes make the answer None: the caller then reads the
+    events another way.)"""
+    import numpy as np
+
+    u8 = np.frombuffer(data, dtype=np.uint8)
+    size = len(u8)
+    if size == 0:
+        return GlueColumnsRead(np.zeros(0, dtype=np.int8), [], np.zeros((0, width), dtype=np.uint8),
+                               np.zeros(0, dtype=np.int64))
+    head = np.frombuffer(_GLUE_HEAD, dtype=np.uint8)
+    starts = np.flatnonzero(u8[:size - len(head) + 1] == head[0]) if size >= len(head) else np.zeros(0, np.int64)
+    for j in range(1, len(head)):
+        starts = starts[u8[starts + j] == head[j]]
+    if not len(starts) or starts[0] != 0:
+        return None
+    n = len(starts)
+    if int(starts[-1]) + 27 + width > size:  # the shortest event: a kind of 5 letters, a name of one
+        return None
+    kind_head = u8[starts + len(head)]
+    seven = kind_head == 0xA7
+    if not np.all(seven | (kind_head == 0xA5)):
+        return None
+    kind_len = np.where(seven, 7, 5)
+    at = starts + len(head) + 1  # the kind's text
+    first = u8[at]
+    codes = np.where(seven, np.where(first == ord("s"), 1, 2), 0).astype(np.int8)
+    name_key = at + kind_len  # "\xa4name"
+    name_len = u8[name_key + 5].astype(np.int64) - 0xA0
+    if not np.all((name_len >= 1) & (name_len <= 31)):
+        return None
+    name_at = name_key + 6
+    value_key = name_at + name_len  # "\xa5value" and the bin 8 head
+    ends = value_key + 8 + width
+    if int(ends[-1]) != size or not np.array_equal(ends[:-1], starts[1:]):
+        return None
+    kinds_text = {0: b"value", 1: b"squeeze", 2: b"opening"}
+    for code, text in kinds_text.items():
+        chosen = at[codes == code]
+        if len(chosen) and not np.array_equal(u8[chosen[:, None] + np.arange(len(text))],
+                                              np.broadcast_to(np.frombuffer(text, dtype=np.uint8),
+                                                              (len(chosen), len(text)))):
+            return None
+    for place, text in ((name_key, b"\xa4name"), (value_key, b"\xa5value" + bytes((_BIN8, width)))):
+        if not np.array_equal(u8[place[:, None] + np.arange(len(text))],
+                              np.broadcast_to(np.frombuffer(text, dtype=np.uint8), (n, len(text)))):
+            return None
+    # the names and the byte after each (0xa5, checked above) turned into a newline: joined, decoded, split
+    spans = name_len + 1
+    out_at = np.cumsum(spans) - spans
+    picked = u8[np.repeat(name_at - out_at, spans) + np.arange(int(out_at[-1] + spans[-1]))]
+    allowed = np.zeros(256, dtype=bool)
+    allowed[list(_NAME_BYTES)] = True
+    allowed[0xA5] = True
+    starting = np.zeros(256, dtype=bool)
+    starting[list(_NAME_FIRST)] = True
+    if not allowed[picked].all() or not starting[picked[out_at]].all():
+        return None
+    picked[out_at + name_len] = 0x0A
+    names = picked[:-1].tobytes().decode("ascii").split("\n")
+    elements = u8[(ends - width)[:, None] + np.arange(width)]
+    return GlueColumnsRead(codes, names, elements, ends)

@@ -178,7 +178,10 @@ class Sha256Schedule:
         width, head = field.elem_bytes, self._challenge_head
         if tables is None:  # every opening's table is its name
             if kinds and not any(listed):
-                return _flat_glue_stream(kinds, names, b"".join(data), width, head)
+                import numpy as np
+
+                codes = np.fromiter(map(_GLUE_CODES.__getitem__, kinds), dtype=np.int8, count=len(kinds))
+                return self.flat_glue_stream(codes, names, b"".join(data))
             tables = names
         u64 = _u64
         parts: list[bytes] = []
@@ -207,6 +210,14 @@ class Sha256Schedule:
                     at += len(head) + width
             ends.append(at)
         return b"".join(parts), ends, cuts
+
+    def flat_glue_stream(self, codes: np.ndarray, names: Sequence[str], elements: bytes
+                         ) -> tuple[bytes, np.ndarray, np.ndarray]:
+        """:meth:`glue_stream` of glue events of one element each, every opening's table its own
+        name, built with numpy: event i has kind ``codes[i]`` (0 value, 1 squeeze, 2 opening), name
+        ``names[i]`` and its element's packed bytes at ``elements[i * elem_bytes:]``."""
+        field = self._need_field("value")
+        return _flat_glue_stream(codes, names, elements, field.elem_bytes, self._challenge_head)
 
     def absorb_frames(self, frames: bytes) -> None:
         """Absorb frames made by :meth:`glue_frame`, in order."""
@@ -406,7 +417,7 @@ class Sha256Schedule:
         return prime
 
 
-def _flat_glue_stream(kinds: Sequence[str], names: Sequence[str], elements: bytes, width: int,
+def _flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int,
                       challenge_head: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
     """:meth:`Sha256Schedule.glue_stream` of glue events of one element each, every opening's table
     its own name, built with numpy: the events of one kind and one name length have frames of
@@ -415,7 +426,6 @@ def _flat_glue_stream(kinds: Sequence[str], names: Sequence[str], elements: byte
     import numpy as np
 
     u8 = np.uint8
-    kind = np.fromiter(map(_GLUE_CODES.__getitem__, kinds), dtype=np.int8, count=len(kinds))
     lengths = np.fromiter(map(len, names), dtype=np.int64, count=len(names))
     heads = {0: _VALUE_HEAD, 1: _DRAW_HEAD, 2: _OPENING_HEAD}
     sizes = np.where(kind == 2, 32 + 2 * lengths + width,

@@ -25,7 +25,7 @@ from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
-from stepper.transcript.packed import GLUE_KINDS, GlueRun, decoder_for
+from stepper.transcript.packed import GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
 from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, rederive
 
@@ -44,6 +44,8 @@ _NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
 
 _FIXSTR = bytes((0xA0 + n) & 0xFF for n in range(256))  # a name's length -> its fixstr head
 _KIND_BYTES = {kind: raw for raw, kind in GLUE_KINDS.items()}
+_KINDS = ("value", "squeeze", "opening")  # by code (stepper.verify.fiatshamir's frame codes)
+_CODES = {kind: code for code, kind in enumerate(_KINDS)}
 
 
 def _payload(row: tuple[bytes, bytes, bytes, bytes]) -> dict[str, Any]:
@@ -76,8 +78,12 @@ class GlueColumns:
         sent before the flush (they may not come again)."""
         self.field = field
         self.from_bytes = 0  # events read from blobs
+        self.codes: np.ndarray  # each event's kind: 0 value, 1 squeeze, 2 opening
+        self.elements: np.ndarray | None = None  # one row of packed bytes per event, when each holds one element
+        self._kinds: list[str] | None = None
+        self._data: list[bytes] | None = None
         if any(tails) and all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails):
-            self._take_blobs(tails, defined)  # the usual case: one blob after a run, nothing else
+            self._read_blobs(tails, defined)  # the usual case: one blob after a run, nothing else
             return
         glue_run = GlueRun(field.elem_bytes)
         tails = [[row for item in tail for row in (glue_run.rows(item) if item.__class__ is bytes else (item,))]
@@ -97,7 +103,7 @@ class GlueColumns:
             self._take_rows(payloads, defined)
             return
         try:  # each payload is a map with a type (the sweep kept it for its type)
-            self.kinds: list[str] = list(map(itemgetter("type"), payloads))
+            self.kinds = list(map(itemgetter("type"), payloads))
             names = list(map(itemgetter("name"), payloads))
             raws: list[Any] = list(map(itemgetter("value"), payloads))
             joined = "\n".join(names)
@@ -113,7 +119,7 @@ class GlueColumns:
         if list not in types:  # one element each (the usual case): no per-event work
             self.listed = [False] * self.size
             self.counts = [1] * self.size
-            self.data: list[bytes] = raws
+            self.data = raws
             self.values = self._decode(raws, raws)
             return
         self.listed = [raw.__class__ is list for raw in raws]
@@ -126,12 +132,79 @@ class GlueColumns:
         cells = [cell for raw, is_list in zip(raws, self.listed) for cell in (raw if is_list else (raw,))]
         self.values = self._decode(raws, cells)
 
-    def _take_blobs(self, tails: Sequence[Sequence[Any]], defined: Mapping[str, Any]) -> None:
-        """The columns of one blob of glue events after each run, read at once; each run's events
-        found by their byte lengths (a row fills 21 bytes, its kind, its name and its element)."""
+    @property
+    def kinds(self) -> list[str]:
+        """Each event's type, in stream order."""
+        if self._kinds is None:
+            self._kinds = list(map(_KINDS.__getitem__, self.codes.tolist()))
+        return self._kinds
+
+    @kinds.setter
+    def kinds(self, kinds: list[str]) -> None:
+        import numpy as np
+
+        self._kinds = kinds
+        self.codes = np.fromiter(map(_CODES.__getitem__, kinds), dtype=np.int8, count=len(kinds))
+
+    @property
+    def data(self) -> list[bytes]:
+        """Each event's packed elements (one element's bytes, or a list's joined)."""
+        if self._data is None:
+            assert self.elements is not None
+            width = self.elements.shape[1]
+            joined = self.elements.tobytes()
+            self._data = [joined[i:i + width] for i in range(0, len(joined), width)]
+        return self._data
+
+    @data.setter
+    def data(self, data: list[bytes]) -> None:
+        self._data = data
+
+    def element_rows(self) -> np.ndarray:
+        """Each event's element bytes as a row (every event one element: not :attr:`listed`)."""
+        import numpy as np
+
+        if self.elements is None:
+            self.elements = np.frombuffer(b"".join(self.data), dtype=np.uint8).reshape(self.size, self.field.elem_bytes)
+        return self.elements
+
+    def _read_blobs(self, tails: Sequence[Sequence[Any]], defined: Mapping[str, Any]) -> None:
+        """The columns of one blob of glue events after each run, read at once by numpy
+        (:func:`~stepper.transcript.packed.read_glue_columns`), each run's events found where their
+        bytes end; where that reading declines, the rows are read by a regex."""
         import numpy as np
 
         blobs = [tail[0] if tail else b"" for tail in tails]
+        width = self.field.elem_bytes
+        read = read_glue_columns(b"".join(blobs), width)
+        if read is None:
+            self._take_blobs(blobs, defined)
+            return
+        self.size = self.from_bytes = len(read.names)
+        ends = read.ends
+        blob_ends = np.cumsum(np.fromiter(map(len, blobs), dtype=np.int64, count=len(blobs)))
+        self.bounds = [0, *np.searchsorted(ends, blob_ends, side="right").tolist()]
+        if self.bounds[-1] != self.size or not np.isin(blob_ends, np.concatenate(([0], ends))).all():
+            raise GiveUp("glue blobs read otherwise than measured")
+        self.names = read.names
+        if len(set(self.names)) != self.size or not defined.keys().isdisjoint(self.names):
+            raise GiveUp("a glue name sent twice")
+        self.codes = read.codes
+        self.tables = self.names
+        self.listed = [False] * self.size
+        self.counts = [1] * self.size
+        self.elements = read.elements
+        joined = read.elements.tobytes()
+        elements = decoder_for(self.field)(joined)
+        if elements is None:
+            raise GiveUp("a glue element that is not canonical")
+        self.values = list(elements)
+
+    def _take_blobs(self, blobs: list[bytes], defined: Mapping[str, Any]) -> None:
+        """The columns of one blob of glue events after each run, read by a regex; each run's events
+        found by their byte lengths (a row fills 21 bytes, its kind, its name and its element)."""
+        import numpy as np
+
         rows = GlueRun(self.field.elem_bytes).rows(b"".join(blobs))
         self.size = self.from_bytes = len(rows)
         fixed = 21 + self.field.elem_bytes
@@ -212,24 +285,23 @@ class GlueColumns:
         """The records of the events after run ``run`` (instance ``instance``), as the Sequencer builds them."""
         out: list[NamedValue | Squeeze | Opening] = []
         for i in range(self.bounds[run], self.bounds[run + 1]):
-            kind, name, value = self.kinds[i], self.names[i], self.values[i]
-            if kind == "opening":
+            code, name, value = self.codes[i], self.names[i], self.values[i]
+            if code == 2:
                 out.append(Opening(name, value, self.tables[i], instance))
                 continue
-            cls = NamedValue if kind == "value" else Squeeze
+            cls = NamedValue if code == 0 else Squeeze
             out.append(cls(name, tuple(value) if self.listed[i] else value, self.listed[i], instance))
         return out
 
     def cells(self, kernel: Kernel) -> tuple[dict[str, int], np.ndarray] | None:
         """The flush's elements as a kernel array, and each name's row there (None when some value
         is a list)."""
-        import numpy as np
 
         from stepper.verify.cells import decode_cells
 
         if any(self.listed) or not self.size:
             return None
-        array = decode_cells(kernel, np.frombuffer(b"".join(self.data), dtype=np.uint8), self.field.elem_bytes)
+        array = decode_cells(kernel, self.element_rows(), self.field.elem_bytes)
         return dict(zip(self.names, range(self.size))), array
 
     def squeezes_pass(self, kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray) -> bool:
@@ -240,11 +312,14 @@ class GlueColumns:
 
         from stepper.verify.cells import decode_cells
 
-        sent = b"".join([data for kind, data in zip(self.kinds, self.data) if kind == "squeeze"])
         width = self.field.elem_bytes
-        expected = decode_cells(kernel, np.frombuffer(sent, dtype=np.uint8), width)
-        return bool(np.array_equal(rederive(kernel, schedule, digests, len(sent) // width, expected.shape),
-                                   expected))
+        if any(self.listed):
+            sent = b"".join([data for code, data in zip(self.codes.tolist(), self.data) if code == 1])
+            rows = np.frombuffer(sent, dtype=np.uint8).reshape(-1, width)
+        else:
+            rows = self.element_rows()[self.codes == 1]
+        expected = decode_cells(kernel, rows, width)
+        return bool(np.array_equal(rederive(kernel, schedule, digests, len(rows), expected.shape), expected))
 
     def pieces(self, schedule: Sha256Schedule) -> tuple[list[memoryview], list[int]]:
         """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after the
@@ -252,8 +327,14 @@ class GlueColumns:
         ``pieces[starts[i]:starts[i + 1]]`` (none for a run with no glue)."""
         import numpy as np
 
-        tables = None if self.tables is self.names else self.tables
-        stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts, self.listed)
+        ends: Sequence[int] | np.ndarray
+        cuts: Sequence[int] | np.ndarray
+        if self.tables is self.names and self.size and not any(self.listed):
+            stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes())
+        else:
+            tables = None if self.tables is self.names else self.tables
+            stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts,
+                                                      self.listed)
         view = memoryview(stream)
         bounds = np.array(self.bounds, dtype=np.int64)
         run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[bounds]  # byte offset where each run's glue ends

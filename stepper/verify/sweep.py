@@ -69,6 +69,7 @@ BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cac
 LOOSE_ROUNDS = 1 << 12  # rounds outside runs before the sweep leaves the file to the usual replay
 SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
 _GLUE_TYPES = frozenset(("value", "squeeze", "opening"))
+_GLUE_AFTER_CHUNK = 1 << 16  # bytes of the next chunk searched for the rest of a glue run the chunk's end cut
 _KNOWN_TYPES = frozenset(KNOWN_TYPES)
 _ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
 # the first bytes of an end event as the writer packs it (writer.end_payload): a map of 3, "type": "end", "events"
@@ -146,6 +147,7 @@ class _Sweeper:
         self.window: tuple[bytes, int] = (b"", 0)  # the chunk last fed to the unpacker, its unpacker offset
         self.fed = 0  # bytes fed to the unpacker
         self.glue_run: GlueRun | None = None  # set with the field
+        self.glue_event_max = 0  # the most bytes of one event glue_run reads
 
     # ----- reading --------------------------------------------------------------------
     def _offset(self) -> int:
@@ -272,6 +274,7 @@ class _Sweeper:
         self.kernel = block_kernel(field)
         self.glue = GlueChecks(field, self.kernel)
         self.glue_run = GlueRun(field.elem_bytes)
+        self.glue_event_max = 59 + field.elem_bytes  # a kind of 7 letters, a name of 31, the element
         steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
 
     def _runnable(self, start: InstanceStart) -> bool:
@@ -312,10 +315,22 @@ class _Sweeper:
         at = self.unpacker.tell() - data_at
         if at < 0:
             return
-        assert self.glue_run is not None  # set with the field
-        size = self.glue_run(data, at)
-        if size:
-            tail.append(self.unpacker.read_bytes(size))  # counted as events when the flush reads them
+        glue_run = self.glue_run
+        assert glue_run is not None  # set with the field
+        size = glue_run(data, at)
+        if at + size + self.glue_event_max < len(data):  # the events stop before the chunk's end: all taken
+            if size:
+                tail.append(self.unpacker.read_bytes(size))  # counted as events when the flush reads them
+            return
+        # the chunk's end may cut an event: the rest of the chunk and the next one read as one, one blob still
+        taken = self.unpacker.read_bytes(size)
+        rest = data[at + size:]
+        if self._refill():
+            more = glue_run(rest + self.window[0][:_GLUE_AFTER_CHUNK], 0)
+            if more:
+                taken += self.unpacker.read_bytes(more)
+        if taken:
+            tail.append(taken)
 
     def _new_layout(self, head: bytes) -> tuple[bytes, Layout]:
         """The layout a run's first bytes announce."""

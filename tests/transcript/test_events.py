@@ -3,18 +3,19 @@ reader's inline fast path giving exactly what feeding one payload at a time give
 
 from __future__ import annotations
 
+import itertools
 import random
 import struct
 
 import msgpack
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from stepper.errors import TranscriptError
 from stepper.transcript.events import MAX_VALUES, Sequencer, to_payload
 from stepper.field.field import get_field
-from stepper.transcript.packed import GlueRun, pack_elements, pair_run, unpack_elements
+from stepper.transcript.packed import GlueRun, pack_elements, pair_run, read_glue_columns, unpack_elements
 from stepper.transcript.model import (
     BatchDecl,
     BucketStats,
@@ -392,6 +393,42 @@ def test_glue_run_measures_the_glue_events_packed_as_the_writer_packs_them_and_r
     assert GlueRun(8)(tabled + data, 0) == 0 and GlueRun(8)(long_name + data, 0) == 0
     assert GlueRun(8)(data + tabled, 0) == len(data)
 
+
+
+@settings(max_examples=80, deadline=None)
+@given(events=st.lists(st.tuples(st.sampled_from(["value", "squeeze", "opening"]),
+                                 st.from_regex(r"[A-Za-z_][A-Za-z0-9_.]{0,30}", fullmatch=True),
+                                 st.binary(min_size=8, max_size=8)), min_size=1, max_size=30),
+       width=st.sampled_from([4, 8]))
+def test_glue_columns_read_by_numpy_are_what_msgpack_unpacks(events, width):
+    # the independent side is msgpack itself, unpacking the same bytes event by event
+    payloads = [{"type": kind, "name": name, "value": element[:width]} for kind, name, element in events]
+    packed = [msgpack.packb(payload, use_bin_type=True) for payload in payloads]
+    data = b"".join(packed)
+    assert GlueRun(width)(data, 0) == len(data)
+    read = read_glue_columns(data, width)
+    if any(b"\x83\xa4type" in element for _, _, element in events):
+        assume(read is not None)  # an element holding an event's first bytes may make the reading decline
+    assert read is not None
+    unpacked = [msgpack.unpackb(one, raw=False) for one in packed]
+    assert [("value", "squeeze", "opening")[code] for code in read.codes.tolist()] == [u["type"] for u in unpacked]
+    assert read.names == [u["name"] for u in unpacked]
+    assert [bytes(row) for row in read.elements] == [u["value"] for u in unpacked]
+    assert read.ends.tolist() == list(itertools.accumulate(map(len, packed)))
+
+
+def test_glue_columns_read_by_numpy_decline_what_msgpack_would_read_otherwise():
+    one = msgpack.packb({"type": "value", "name": "tide", "value": struct.pack("<Q", 5)}, use_bin_type=True)
+    assert read_glue_columns(one, 8) is not None
+    short_head = bytearray(one)
+    short_head[one.index(b"tide") - 1] = 0xA0 + 3  # msgpack would read the name "tid" and go astray
+    assert read_glue_columns(bytes(short_head), 8) is None
+    assert read_glue_columns(one[:-1], 8) is None  # cut
+    assert read_glue_columns(one + b"\xc0", 8) is None  # something after the events
+    digit_first = msgpack.packb({"type": "value", "name": "9tide", "value": struct.pack("<Q", 5)}, use_bin_type=True)
+    assert read_glue_columns(one + digit_first, 8) is None  # not a glue name
+    bait = msgpack.packb({"type": "opening", "name": "ramp", "value": b"\x83\xa4type\x00\x00"}, use_bin_type=True)
+    assert read_glue_columns(bait + one, 8) is None  # an element holding an event's first bytes: declined
 
 @settings(max_examples=60, deadline=None)
 @given(field=st.sampled_from(["goldilocks", "babybear"]), seed=st.integers(0, 2**32),

@@ -36,6 +36,7 @@ from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule  # noqa: E40
 import stepper.verify.sweep as sweep_module  # noqa: E402
 from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
 from stepper.transcript.store.reader import ReadLimits  # noqa: E402
+from stepper.verify.glue_columns import GlueColumns  # noqa: E402
 from stepper.verify.sweep import sweep  # noqa: E402
 from stepper.transcript.store.writer import MAGIC, end_payload  # noqa: E402
 from stepper.transcript.model import Note  # noqa: E402
@@ -781,6 +782,27 @@ def test_glue_after_the_run_that_ends_a_block_is_checked_with_it(tmp_path, monke
     written = write_transcript(tmp_path / "small-blocks.sumtr", Knobs(instances=9, glue=True, seed=3))
     assert_same_report(written.path, 2)
 
+
+
+@pytest.mark.parametrize("chunk", [97, 1000, 4096])
+def test_glue_cut_by_a_chunks_end_is_read_on_into_the_next_chunk_and_reports_as_the_replay(tmp_path, monkeypatch,
+                                                                                         chunk):
+    # reads of a few bytes cut the glue after runs: the rest is read from the next chunk into the same blob
+    written = write_transcript(tmp_path / "chunks.sumtr", Knobs(instances=30, max_vars=3, glue=True, seed=8))
+    from_bytes: list[int] = []
+    real = GlueColumns.__init__
+
+    def spy(self: GlueColumns, field: object, trailing: list[list[object]], defined: object) -> None:
+        real(self, field, trailing, defined)  # type: ignore[arg-type]
+        from_bytes.append(self.from_bytes)
+
+    monkeypatch.setattr(GlueColumns, "__init__", spy)
+    assert_same_report(written.path, 20, ReadLimits(chunk_bytes=chunk))
+    cut = sum(from_bytes)
+    from_bytes.clear()
+    assert_same_report(written.path, 20)  # one chunk holds the whole file
+    if chunk >= 1000:  # longer than the glue after a run: two chunks hold it whole, every event read as bytes
+        assert cut == sum(from_bytes) > 0
 
 def test_point_and_final_of_an_earlier_instance_are_left_to_the_replay(tmp_path, monkeypatch):
     # point(NAME) and final(NAME) are not checked by columns: the sweep gives up and the replay checks them
