@@ -335,30 +335,48 @@ def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list
     return out
 
 
+# every ASCII character that cannot stand in a name, made a space: a text's words are then its str.split()
+_NAME_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_.")
+_WORD_GAPS = str.maketrans({chr(c): " " for c in range(128) if chr(c) not in _NAME_CHARS})
+_WORD_RUN = re.compile(r"([A-Za-z0-9_.]+)")  # a maximal run of name characters: a name, a number or a mix
+
+
 def _one_shape(texts: list[str], joined: str) -> list[tuple[Template, list[list[str]], list[int]]] | None:
     """:func:`templates_of` when every text has the same text between its words (the usual case:
-    one expression per instance, its names numbered), found by one regex split of the joined
-    texts; None when they do not (or a call word stands where another text has a name)."""
-    parts = _SPLIT.split(joined)
-    seps, words = parts[0::2], parts[1::2]
+    one expression per instance, its names numbered), or None when they do not (or a call word
+    stands where another text has a name). The words of all texts are cut at once without a
+    regex (every character that cannot stand in a name made a space, then ``str.split``); the
+    joined texts, rebuilt from the first text's separators and every text's words, must be the
+    texts themselves, and every word where the first text has a name must start as a name does
+    (so the tokenizer reads every text as it reads the first)."""
+    if not joined.isascii():
+        return None
+    words = joined.translate(_WORD_GAPS).split()
     n = len(texts)
     width, rest = divmod(len(words), n)
     if rest or not width:
         return None
-    head, tail = seps[0], seps[-1]
-    if seps[width:-1:width].count(f"{tail}\n{head}") != n - 1:
+    parts = _WORD_RUN.split(texts[0])
+    seps, first = parts[0::2], parts[1::2]
+    if len(first) != width:
         return None
-    for j in range(1, width):
-        column = seps[j::width]
-        if column.count(column[0]) != n:
-            return None
+    rebuilt: list[str | None] = [None] * (2 * n * width + 1)
+    rebuilt[0] = seps[0]
+    rebuilt[1::2] = words
+    rebuilt[2::2] = [*seps[1:-1], f"{seps[-1]}\n{seps[0]}"] * n
+    rebuilt[-1] = seps[-1]
+    if "".join(rebuilt) != joined:  # type: ignore[arg-type]
+        return None
     holes: list[list[str]] = []
-    for j in range(width):
+    for j, word in enumerate(first):
         column = words[j::width]
-        if _CALLS.isdisjoint(column):
-            holes.append(column)
-        elif column.count(column[0]) != n:
+        if word[0] < "A" or word in _CALLS:  # a number (or a mix the tokenizer cuts) or a call word: a fixed word
+            if column.count(word) != n:
+                return None
+        elif min(column) < "A" or not _CALLS.isdisjoint(column):  # a name here must start as one and be no call word
             return None
+        else:
+            holes.append(column)
     found = template_of(texts[0])
     if found is None or found[1] != [column[0] for column in holes]:
         return None

@@ -33,6 +33,7 @@ finds. A passing check, here as there, is evidence about one run, not a soundnes
 from __future__ import annotations
 
 from dataclasses import dataclass, field as dc_field
+from itertools import repeat
 from typing import TYPE_CHECKING, Any, Mapping
 
 import numpy as np
@@ -134,25 +135,29 @@ class GlueChecks:
         flush, ``earlier``), a final_expr's also after its own run; a name used as an element
         is one, a name used as a list (a point, ``NAME[i]``) is one (``defined``: a list's length
         or None, for the flush's names). Raises :class:`Unsupported` where one does not hold."""
+        lists_here = {name for name, length in defined.items() if length is not None} if any(
+            length is not None for length in defined.values()) else set()  # the flush's list values
         for group in self.groups:
             scalars, lists = group.template.plan[0], group.template.plan[1]
-            limits = group.runs if group.final else [run - 1 for run in group.runs]
+            limits = np.array(group.runs if group.final else [run - 1 for run in group.runs], dtype=np.int64)
             for hole, listed in [*((h, False) for h in scalars), *((h, True) for h in lists)]:
                 if not isinstance(hole, int):
                     raise Unsupported("a call word used as a name")
                 column = group.columns[hole]
-                places: list[Any] = list(map(runs.get, column))
-                missing = places.count(None)  # names sent before the flush
-                if missing:
-                    before = [name for name, place in zip(column, places) if place is None]
-                    if not all(map(earlier.__contains__, before)) or any(
-                            (earlier[name] is None) == listed for name in before):
-                        raise Unsupported("a name not sent before, or of another kind")
-                    places = [-1 if place is None else place for place in places]
-                if any(map(int.__gt__, places, limits)):
+                if column.count(column[0]) == len(column):  # one name for every check (a point, a public value)
+                    column, bound = column[:1], limits.min(keepdims=True)
+                else:
+                    bound = limits
+                places = np.fromiter(map(runs.get, column, repeat(-1)), dtype=np.int64, count=len(column))
+                if (places > bound).any():
                     raise Unsupported("a name sent after the expression may read it")
-                elements = list(map(defined.get, column)).count(None)  # the flush's elements, and the earlier names
-                if elements != (missing if listed else len(column)):
+                before = [column[i] for i in np.flatnonzero(places < 0).tolist()]  # names sent before the flush
+                if not all(map(earlier.__contains__, before)) or any(
+                        (earlier[name] is None) == listed for name in before):
+                    raise Unsupported("a name not sent before, or of another kind")
+                if len(before) < len(column) and (
+                        (listed and not lists_here.issuperset(name for name in column if name in runs))
+                        or (not listed and not lists_here.isdisjoint(column))):
                     raise Unsupported("a name of another kind")
 
     def check(self, values: Mapping[str, Any], cells: tuple[Mapping[str, int], np.ndarray] | None = None) -> bool:

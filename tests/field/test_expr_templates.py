@@ -4,6 +4,7 @@ parser builds (stepper.field.expr.parse, which reads the grammar without templat
 
 from __future__ import annotations
 
+import pytest
 from hypothesis import given, settings, strategies as st
 
 from stepper.field.expr import parse
@@ -33,6 +34,28 @@ def test_many_texts_give_the_templates_and_names_each_gives_alone(picks):
             assert (template, names) == alone[i]
             assert fill(template.root, names) == parse(texts[i]).root  # type: ignore[union-attr]
 
+
+
+@pytest.mark.parametrize("texts", [
+    ["x1 * y", "x2 *  y"],  # spacing differs: two shapes
+    ["x1*b", "x2*9b"],  # a word starting with a digit where the first text has a name
+    ["x1 * b", "eq * b"],  # a call word where the first text has a name
+    ["x1*y.u", "x2*y.\u00e9"],  # a character outside ASCII
+    ["a1 + 2*b1", "a2 + 3*b2"],  # constants differ: two templates
+    ["eq(t) * a1", "eq(t) * eq"],
+    ["2a + b1", "2a + b2"],  # a number and a name run together
+    ["a1+b1", "a2+b2", "a3 +b3"],
+])
+def test_texts_alike_but_for_spacing_constants_or_odd_words_give_what_each_gives_alone(texts):
+    groups = templates_of(texts)
+    alone = each_alone(texts)
+    if groups is None:
+        assert None in alone
+        return
+    assert sorted(i for _, _, positions in groups for i in positions) == list(range(len(texts)))
+    for template, columns, positions in groups:
+        for row, i in enumerate(positions):
+            assert (template, [column[row] for column in columns]) == alone[i]
 
 def test_a_text_the_template_path_cannot_read_makes_the_whole_lot_none():
     assert templates_of(["a + b", "a + + b"]) is None
