@@ -170,6 +170,11 @@ class GlueChecks:
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
 
 
+def _uniform(names: list[str]) -> bool:
+    """Whether every entry is the first (names differing per check usually differ at once)."""
+    return len(names) < 2 or (names[1] == names[0] and names.count(names[0]) == len(names))
+
+
 class _Columns:
     """One group of checks: the template evaluated over columns, one entry per check."""
 
@@ -212,15 +217,22 @@ class _Columns:
         """The column of one element per check."""
         names = self.names(name)
         values = self.values
-        if names.count(names[0]) == self.n:
+        if _uniform(names):
             value = values[names[0]]
             if value.__class__ is list:
                 raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
             return self.repeated(self.array([value]))
         if self.cells is not None:
-            rows: list[Any] = list(map(self.cells[0].get, names))
-            if None not in rows:
-                return self.cells[1][rows]
+            rows = np.fromiter(map(self.cells[0].get, names, repeat(-1)), dtype=np.int64, count=len(names))
+            outside = np.flatnonzero(rows < 0).tolist()  # names sent before the flush
+            if len(outside) <= len(names) // 8:
+                column = self.cells[1][rows]
+                if outside:
+                    before = [values[names[i]] for i in outside]
+                    if list in set(map(type, before)):
+                        raise Unsupported("a list where an element is wanted")
+                    column[outside] = self.array(before)
+                return column
         column = list(map(values.__getitem__, names))
         if list in set(map(type, column)):
             raise Unsupported("a list where an element is wanted")
@@ -229,7 +241,7 @@ class _Columns:
     def lists(self, name: str) -> list[Any]:
         """The list value per check (one list for all when every check names the same one)."""
         names = self.names(name)
-        column = [self.values[names[0]]] if names.count(names[0]) == self.n else [self.values[n] for n in names]
+        column = [self.values[names[0]]] if _uniform(names) else [self.values[n] for n in names]
         if any(v.__class__ is not list for v in column):
             raise Unsupported("an element where a list is wanted")
         return column
@@ -293,6 +305,14 @@ class _Columns:
         if a.shape[1] != b.shape[1]:
             raise Unsupported("points of different lengths in eq(...)")
         one = self.constant(1)
+        if self.words and a.shape[1]:  # one uint64 per element: every coordinate at once, then a tree of products
+            xy = kernel.mul(a, b)
+            terms = kernel.sub(kernel.add(kernel.add(xy, xy), np.ones_like(xy)), kernel.add(a, b))
+            while terms.shape[1] > 1:
+                half = terms.shape[1] // 2
+                paired = kernel.mul(terms[:, :half], terms[:, half:2 * half])
+                terms = np.concatenate((paired, terms[:, 2 * half:]), axis=1) if terms.shape[1] % 2 else paired
+            return np.ascontiguousarray(terms[:, 0])
         acc = one
         for j in range(a.shape[1]):
             x, y = a[:, j], b[:, j]

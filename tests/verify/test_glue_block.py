@@ -173,3 +173,19 @@ def test_elements_taken_from_the_flush_cells_give_the_same_answers(name):
         cells = ({n: i for i, n in enumerate(scalars)}, kernel.array([values[n] for n in scalars]))
         with_cells = gathered(name, starts, challenges, finals).check(values, cells)
         assert with_cells == gathered(name, starts, challenges, finals).check(values) == (not wrong)
+
+
+@pytest.mark.parametrize("name", ["goldilocks", "babybear^4", "bn254"])
+@pytest.mark.parametrize("wrong", [None, "b0", "b9"])
+def test_elements_sent_before_the_flush_are_read_beside_the_flush_cells(name, wrong):
+    # instance 0's names came in an earlier flush: not among the cells, read from the values, same verdicts
+    ar = ARITHMETIC[name]
+    field = field_of(name)
+    kernel = block_kernel(field)
+    starts, values, challenges, finals = glued_instances(name, 20, 3, seed=13)
+    if wrong is not None:
+        values[wrong] = ar.add(values[wrong], ar.const(1))  # type: ignore[arg-type]
+    scalars = [n for n, v in values.items() if not isinstance(v, list) and not n.endswith("0")]
+    cells = ({n: i for i, n in enumerate(scalars)}, kernel.array([values[n] for n in scalars]))
+    with_cells = gathered(name, starts, challenges, finals).check(values, cells)
+    assert with_cells == gathered(name, starts, challenges, finals).check(values) == (wrong is None)
