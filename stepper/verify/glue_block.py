@@ -226,13 +226,13 @@ class _Columns:
             rows = np.fromiter(map(self.cells[0].get, names, repeat(-1)), dtype=np.int64, count=len(names))
             outside = np.flatnonzero(rows < 0).tolist()  # names sent before the flush
             if len(outside) <= len(names) // 8:
-                column = self.cells[1][rows]
+                taken = self.cells[1][rows]
                 if outside:
                     before = [values[names[i]] for i in outside]
                     if list in set(map(type, before)):
                         raise Unsupported("a list where an element is wanted")
-                    column[outside] = self.array(before)
-                return column
+                    taken[outside] = self.array(before)
+                return taken
         column = list(map(values.__getitem__, names))
         if list in set(map(type, column)):
             raise Unsupported("a list where an element is wanted")
