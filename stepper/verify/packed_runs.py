@@ -71,7 +71,8 @@ class RunBlock:
                  kernel: Kernel) -> None:
         import numpy as np
 
-        from stepper.verify.cells import decode_cells
+        from stepper.field.kernels.limbs import LimbKernel
+        from stepper.verify.cells import decode_cells, words_to_ints
 
         self.layout = layout
         self.kernel = kernel
@@ -86,15 +87,20 @@ class RunBlock:
                                    _bytes_row(layout.challenge_prefix, len(rows)))):
             raise GiveUp("events laid out otherwise")
         self.rows = rows
-        evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
-        self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
+        if isinstance(kernel, LimbKernel):  # each g(j)'s limbs contiguous: the block check reads them by j
+            self.evals = kernel.from_bytes_grid(rows[:, round_at:layout.round_len], layout.values)
+        else:
+            evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
+            self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
         self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
-        self.finals = decode_cells(kernel, np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]),
-                                                         dtype=np.uint8), width)
+        final_cells = np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]), dtype=np.uint8)
+        self.finals = decode_cells(kernel, final_cells, width)
         self.claims = kernel.array([start.claim for start, _, _, _ in runs])
         self.starts = np.zeros(len(runs), dtype=np.int64)
         np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
-        self._finals = iter(kernel.to_list(self.finals))
+        # the finals as Python ints straight from their bytes (not back from limbs: n object passes)
+        finals = words_to_ints(final_cells.reshape(-1, width)) if isinstance(kernel, LimbKernel) else self.finals
+        self._finals = iter(finals.tolist() if isinstance(kernel, LimbKernel) else kernel.to_list(finals))
         self._firsts = iter(self.starts.tolist())
         self._view: memoryview | None = None
         self._round_len = self._frame_len = 0

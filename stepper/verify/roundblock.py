@@ -320,9 +320,9 @@ def _limb_passes(kernel: LimbKernel, evals: np.ndarray, challenges: np.ndarray, 
             return False
     elif rederived is not None and not np.array_equal(rederived, challenges):
         return False
-    # (m, n, N) limb-major columns: a view when the rows are the transposed limb-major array from_bytes
-    # makes (numpy copies otherwise); the first differences make contiguous arrays of them
-    columns = np.moveaxis(evals.reshape(rows * m, kernel.n).T.reshape(kernel.n, rows, m), 2, 0)
+    # (m, n, N) limb-major columns, a view: each limb of each g(j) one contiguous run when the block
+    # was decoded by LimbKernel.from_bytes_grid (strided otherwise)
+    columns = evals.transpose(1, 2, 0)
     sums = columns[0] + columns[1 if m > 1 else 0]  # below 2p, limbs below 2^30
     ends = np.append(starts[1:], rows) - 1
     targets = np.empty_like(sums)

@@ -129,6 +129,23 @@ def test_reducing_wide_byte_rows_equals_python_integers_mod_p(name):
 
 
 @pytest.mark.parametrize("name", sorted(PRIMES))
+@pytest.mark.parametrize("values", [1, 2, 4, 7])
+def test_rows_of_several_packed_elements_decode_by_value_position_to_the_integers_they_hold(name, values):
+    p = PRIMES[name]
+    k = kernel(p)
+    width = k.byte_width
+    rng = random.Random(f"{name}-{values}")
+    pool = edge_values(p) + [(1 << (8 * width)) - 1]  # the largest cell: decoded as it is, not reduced
+    rows = [[rng.choice(pool) if rng.random() < 0.3 else rng.randrange(p) for _ in range(values)] for _ in range(33)]
+    cells = np.frombuffer(b"".join(v.to_bytes(width, "little") for row in rows for v in row),
+                          dtype=np.uint8).reshape(len(rows), values * width)
+    grid = k.from_bytes_grid(cells, values)
+    assert grid.shape == (len(rows), values, k.n)
+    assert [k._integers(grid[i]).tolist() for i in range(len(rows))] == rows
+    assert grid.transpose(1, 2, 0)[0, 0].flags.c_contiguous  # each limb of each position one contiguous run
+
+
+@pytest.mark.parametrize("name", sorted(PRIMES))
 def test_below_p_accepts_p_minus_one_and_refuses_p_and_the_largest_cell(name):
     p = PRIMES[name]
     k = kernel(p)

@@ -14,8 +14,9 @@ to lie below a small multiple of p, so the checks here never make a value canoni
   with no reduction in between, while :func:`horner_plan` shows every partial value stays
   below R (a Montgomery product of x < a p and y < b p is below (a b p / R + 1) p).
 * :func:`wide_congruent`: rows of little-endian bytes (the schedule's wide samples) against
-  canonical values: x - v plus a multiple of p, divided by 2^(29 k) by k Montgomery steps,
-  is 0 or p exactly when x = v mod p.
+  canonical values: the sample's limbs above p's n folded onto the low ones by the constants
+  2^(29 k) mod p (one product of a limb by a constant each, no carry in between), minus v plus
+  p, is a small multiple of p exactly when x = v mod p.
 * :func:`multiple_of_p`: the last step of both. An integer D in [0, q p] is a multiple of p
   exactly when D - round(D / p) p is zero, and D / p needs only the top three limbs in
   floating point (their error is far below p / 2); the subtraction itself is exact.
@@ -43,6 +44,7 @@ __all__ = ["horner_plan", "rounds_congruent", "wide_congruent", "multiple_of_p"]
 
 _MASK = (1 << LIMB_BITS) - 1
 _INT64_ROOM = 1 << 61  # signed limbs stay below this (products of limbs are formed in uint64 elsewhere)
+_INT64_LIMB = 1 << 63  # a signed 64-bit limb is below this in size
 
 
 def _normalise(t: np.ndarray) -> np.ndarray:
@@ -55,12 +57,13 @@ def _normalise(t: np.ndarray) -> np.ndarray:
 
 
 def multiple_of_p(kernel: LimbKernel, d: np.ndarray, bound: int) -> np.ndarray:
-    """Per column, whether the integer with signed limbs ``d`` (int64, limb-major (n, N), each
-    limb below 2^40 in size, the value known to lie in [0, bound p]) is a multiple of p.
-    Consumes ``d``."""
+    """Per column, whether the integer with signed limbs ``d`` (int64, limb-major (n, N), the value
+    known to lie in [0, bound p]) is a multiple of p. Each limb below 2^60 in size, and the top three
+    exact in floating point once weighted (below 2^53, or weighing little: a carried top limb);
+    the bound below 2^33, so that the quotient times a limb of p stays below 2^62. Consumes ``d``."""
     n, p = kernel.n, kernel.p
-    if bound >= 1 << 40:
-        raise ValueError(f"expected a quotient bound below 2^40, found {bound}")
+    if bound >= 1 << 33:
+        raise ValueError(f"expected a quotient bound below 2^33, found {bound}")
     weights = np.array([2.0 ** (LIMB_BITS * i) / p for i in range(n - 3, n)])
     quotient = np.rint(weights @ d[n - 3:].astype(np.float64)).astype(np.int64)
     d -= quotient * kernel._p_limbs.astype(np.int64)
@@ -110,11 +113,13 @@ def rounds_congruent(kernel: LimbKernel, columns: np.ndarray, points: np.ndarray
         coefficients.append(layer[0])
     r_mont = kernel._montgomery(points, kernel._r2) if m > 1 else points  # r R mod p, below 2p
     acc = _normalise(_scaled(coefficients[m - 1], weights[m - 1], offsets[m - 1], p_limbs)).view(np.uint64)
+    # a product's limbs left as summed (below 2n 2^58 + 2^35) fit signed 64-bit limbs with the term added
+    carried = (2 * kernel.n << 58) + (1 << 41) >= _INT64_LIMB
     for k in range(m - 2, -1, -1):
         shift = r_mont if k == 0 else kernel._carry(r_mont + kernel._column(-k * (1 << kernel._r_bits) % kernel.p))
         term = _scaled(coefficients[k], weights[k], offsets[k], p_limbs)
-        term += kernel._montgomery(acc, shift).view(np.int64)  # carried, below (a b p / R + 1) p
-        acc = _normalise(term).view(np.uint64)
+        term += kernel._montgomery(acc, shift, carried).view(np.int64)  # below (a b p / R + 1) p
+        acc = _normalise(term).view(np.uint64)  # the one carry pass of the step
     scale = weights[0]  # (m-1)!
     d = acc.view(np.int64) - targets.astype(np.int64) * scale
     d += p_limbs * (scale * target_bound)
@@ -131,17 +136,29 @@ def _scaled(difference: np.ndarray, weight: int, offset: int, p_limbs: np.ndarra
 
 def wide_congruent(kernel: LimbKernel, rows: np.ndarray, values: np.ndarray) -> np.ndarray:
     """Per row, whether the little-endian integer of ``rows`` (uint8, (N, w)) is congruent to the
-    value of the same row of ``values`` (limb rows (N, n), limbs below 2^29) mod p."""
+    value of the same row of ``values`` (limb rows (N, n), limbs below 2^29, canonical) mod p.
+
+    The sample's limbs above the n of p are folded onto the low ones with the constants
+    2^(29 k) mod p (each limb times one constant: no carries between steps), the value
+    subtracted and p added, so the integer checked lies in [0, (2^(29 n) / p + f 2^29 + 1) p] for
+    f folded limbs; :func:`multiple_of_p` decides."""
     count, width = rows.shape
     n, p = kernel.n, kernel.p
-    limbs = -(-8 * width // LIMB_BITS)
-    steps = max(2, limbs - n + 2)  # the value / 2^(29 steps) is below p: the result below 2p
+    limbs = max(n, -(-8 * width // LIMB_BITS))
     words = np.zeros((count, -(-width // 8) + 1), dtype=np.uint64)
     words.view(np.uint8)[:, :width] = rows
-    t = np.zeros((max(limbs, steps + n, n + 1) + 1, count), dtype=np.int64)
-    t[:limbs] = kernel._limbs_of_words(words, limbs).view(np.int64)
-    lift = -(-(1 << kernel._r_bits) // p) * p  # a multiple of p above every value
-    t[:n + 1] += np.array([(lift >> (LIMB_BITS * i)) & _MASK for i in range(n + 1)], dtype=np.int64)[:, None]
-    t[:n] -= values.T.view(np.int64)
-    reduced = kernel._reduce_steps(_normalise(t).view(np.uint64), steps)  # below 2p
-    return np.all(reduced == 0, axis=0) | np.all(reduced == kernel._p_limbs, axis=0)  # type: ignore[no-any-return]
+    sample = kernel._limbs_of_words(words, limbs).view(np.int64)  # (limbs, N), each below 2^29
+    if limbs - n > 8:
+        raise ValueError(f"expected samples of at most {n + 8} limbs, found {limbs}")
+    d = sample[:n]
+    for k in range(n, limbs):  # each product below 2^58: at most 2^3 of them keep a limb below 2^62
+        d += _signed_column(kernel, pow(2, LIMB_BITS * k, p)) * sample[k]
+    d -= values.T.view(np.int64)
+    d += kernel._p_limbs.view(np.int64)
+    bound = -(-(1 << kernel._r_bits) // p) + (limbs - n << LIMB_BITS) + 1
+    return multiple_of_p(kernel, _normalise(d), bound)
+
+
+def _signed_column(kernel: LimbKernel, value: int) -> np.ndarray:
+    """One integer below 2^(29 n) as signed limb-major limbs, shape (n, 1)."""
+    return np.array([[(value >> (LIMB_BITS * i)) & _MASK] for i in range(kernel.n)], dtype=np.int64)

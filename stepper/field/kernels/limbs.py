@@ -87,6 +87,17 @@ class LimbKernel(Kernel):
             words = padded.view("<u8")
         return self._limbs_of_words(words, self.n).T
 
+    def from_bytes_grid(self, cells: np.ndarray, values: int) -> np.ndarray:
+        """Rows of ``values`` packed elements each (uint8, shape (N, values * w)) as limb rows of
+        shape (N, values, n), not reduced: a view of limb-major limbs (n, values, N), in which
+        each limb of each value position is one contiguous run of N (a block of rounds reads its
+        evaluations g(j) by value position, :func:`~stepper.field.kernels.limb_rounds.rounds_congruent`)."""
+        count = cells.shape[0]
+        width = cells.shape[1] // values
+        by_value = np.ascontiguousarray(cells.reshape(count, values, width).transpose(1, 0, 2))
+        limbs = self.from_bytes(by_value.reshape(values * count, width)).T  # (n, values * N), contiguous
+        return limbs.reshape(self.n, values, count).transpose(2, 1, 0)
+
     @staticmethod
     def _limbs_of_words(words: np.ndarray, count: int) -> np.ndarray:
         """The first ``count`` 29-bit limbs of rows of little-endian uint64 words (shape (N, k);
@@ -193,18 +204,23 @@ class LimbKernel(Kernel):
         t[-1] -= top
         return self._minus_p(self._carry(t))
 
-    def _montgomery(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    def _montgomery(self, a: np.ndarray, b: np.ndarray, carried: bool = True) -> np.ndarray:
         """a b / R mod p, below a b / R + p, for limb-major a, b (limbs below 2^29). Operand scanning with the reduction interleaved: step i adds a_i b,
         then m p with m = -t_i / p mod 2^29 (limb i becomes zero) and passes limb i's carry up; a
-        column gets the same products as a product followed by a reduction, in another order."""
+        column gets the same products as a product followed by a reduction, in another order.
+        ``carried=False`` leaves the n limbs as summed (each below 2n 2^58 + 2^35, the top one zero)
+        for a caller that adds to them and carries once (:mod:`~stepper.field.kernels.limb_rounds`)."""
         n, p_limbs, q = self.n, self._p_limbs, self._minus_p_inverse
         count = max(a.shape[1], b.shape[1])
-        t = np.zeros((2 * n + 1, count), dtype=np.uint64)
+        t = np.empty((2 * n + 1, count), dtype=np.uint64)
+        np.multiply(a[0], b, out=t[:n])  # the first step's products: no zeros to add them to
+        t[n:] = 0
         product = np.empty((n, count), dtype=np.uint64)
         m = np.empty(count, dtype=np.uint64)
         for i in range(n):
-            np.multiply(a[i], b, out=product)
-            t[i:i + n] += product
+            if i:
+                np.multiply(a[i], b, out=product)
+                t[i:i + n] += product
             np.bitwise_and(t[i], _MASK, out=m)
             m *= q
             m &= _MASK
@@ -212,7 +228,7 @@ class LimbKernel(Kernel):
             t[i:i + n] += product
             np.right_shift(t[i], _SHIFT, out=m)
             t[i + 1] += m
-        return self._carry(t[n:])[:n]
+        return self._carry(t[n:])[:n] if carried else t[n:2 * n]
 
     def _reduce_steps(self, t: np.ndarray, steps: int) -> np.ndarray:
         """Montgomery reduction by 2^(29 steps), in place on the columns t (limb-major, rows enough for
