@@ -207,6 +207,13 @@ def _mul_columns(kernel: ExtensionKernel, a: list[np.ndarray], b: list[np.ndarra
                     raw.append(term)
                 else:
                     np.add(raw[i + j], term, out=raw[i + j])
+        if _folds_unreduced(kernel):  # reduce X^k .. X^(2k-2), fold them into the raw low powers, reduce once
+            tops = [mod_u64(power, p64, out=power) for power in raw[k:]]
+            for i in range(k):
+                for j, row in enumerate(kernel.reductions):
+                    if row[i]:
+                        raw[i] += tops[j] * np.uint64(row[i])
+            return [mod_u64(power, p64, out=power) for power in raw[:k]]
         powers = [mod_u64(power, p64, out=power) for power in raw]
         out = []
         for i in range(k):
@@ -235,6 +242,15 @@ def _mul_columns(kernel: ExtensionKernel, a: list[np.ndarray], b: list[np.ndarra
             if coefficient:
                 out[i] = base.add(out[i], base.mul(products[k + j], base.array([coefficient])))
     return out
+
+
+def _folds_unreduced(kernel: ExtensionKernel) -> bool:
+    """Whether each low power's raw sum (i + 1 products of entries below p) plus its reduction terms
+    (a reduced high power times a row coefficient) stays below 2^64: then :func:`_mul_columns`
+    reduces k + (k - 1) sums instead of 2k - 1 and again the coefficients that take reduction terms."""
+    bound = (kernel.p - 1) ** 2
+    return all((i + 1) * bound + sum(row[i] for row in kernel.reductions) * (kernel.p - 1) < 2**64
+               for i in range(kernel.k))
 
 
 def _evaluate_wide(p: int, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
