@@ -268,6 +268,9 @@ class Sequencer(GlueRules, AnnotationRules):
         self._decode = decoder_for(self.field)
         self._elem_bytes = self.field.elem_bytes
         self._prime_modulus = 0 if self.field.is_extension else self.field.p
+        code = {4: "I", 8: "Q"}.get(self.field.base_bytes)
+        self._one_extension = (struct.Struct(f"<{self.field.degree}{code}").unpack
+                               if self.field.is_extension and code is not None else None)
         if self._prime_modulus and self._elem_bytes in (4, 8):
             self._runs = {}
             # A value >= p below 256**width shares p's leading 0xff bytes (if p has any: Goldilocks has

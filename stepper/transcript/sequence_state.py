@@ -39,6 +39,7 @@ class SequenceState:
         self._decode: Any = None  # packed-run decoder of the field, set by the field event
         self._elem_bytes = 0
         self._prime_modulus = 0  # p for a prime field, 0 for an extension
+        self._one_extension: Any = None  # struct unpacker of one extension element (4- or 8-byte coefficients)
         self._runs: dict[int, Any] | None = None  # struct unpackers by run size (prime fields of 4/8 bytes)
         self._high_ones: bytes | None = None  # see _on_field
         self._num_vars = 0  # of the current instance (0 before any)
@@ -86,6 +87,10 @@ class SequenceState:
                 value = int.from_bytes(raw, "little")
                 if value < self._prime_modulus:
                     return value
+            elif self._one_extension is not None:  # k coefficients, canonical when the largest is below p
+                coefficients = self._one_extension(raw)
+                if max(coefficients) < self.field.p:
+                    return coefficients  # type: ignore[no-any-return]
             one = self._decode(raw)
             if one is not None:
                 return one[0]  # type: ignore[no-any-return]
