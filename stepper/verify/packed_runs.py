@@ -95,7 +95,7 @@ class RunBlock:
         self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
         final_cells = np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]), dtype=np.uint8)
         self.finals = decode_cells(kernel, final_cells, width)
-        self.claims = kernel.array([start.claim for start, _, _, _ in runs])
+        self.claims = _claims(kernel, [start.claim for start, _, _, _ in runs])
         self.starts = np.zeros(len(runs), dtype=np.int64)
         np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
         # the finals as Python ints straight from their bytes (not back from limbs: n object passes)
@@ -153,6 +153,24 @@ def rederive(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray
 
     squeezed = _squeezed(kernel, schedule, digests, count)
     return reduce_wide(kernel, squeezed, schedule.wide_bytes).reshape(shape)  # type: ignore[union-attr]
+
+
+def _claims(kernel: Kernel, claims: list[Element]) -> np.ndarray:
+    """The claims as a kernel array; over an extension with uint64 coefficients in one numpy call
+    from the coefficient tuples (``kernel.array`` walks them in Python). Not checked canonical here:
+    :func:`~stepper.verify.roundblock.block_passes` checks them."""
+    import numpy as np
+
+    from stepper.field.kernels import ExtensionKernel
+
+    if isinstance(kernel, ExtensionKernel) and kernel.dtype is not object:
+        try:
+            values = np.array(claims, dtype=np.uint64)
+        except (OverflowError, TypeError, ValueError):  # not k integers each, or out of uint64's range
+            return kernel.array(claims)
+        if values.shape == (len(claims), kernel.k):
+            return values
+    return kernel.array(claims)
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:
