@@ -90,19 +90,30 @@ class StepperApp(App[int]):
 
     @classmethod
     def from_file(cls, path: str | Path, *, witness: str | Path | None = None, progressive: bool = False,
-                  strict: bool = False, **options: Any) -> StepperApp:
+                  strict: bool = False, whole_file_check: WholeFileCheck | None = None,
+                  **options: Any) -> StepperApp:
         """An app on ``path``. A file that breaks part-way shows what came before the
         break and says where it broke; ``strict`` raises instead when not even the
         field can be read. ``progressive`` reads only the start now and the rest in
         slices once the app runs (the first screen paints at once); otherwise the
-        whole file is read and checked first. A witness implies a full first read."""
+        whole file is read and checked first. A witness implies a full first read.
+        ``whole_file_check`` is the pass over ``path`` when the caller started it already
+        (:func:`stepper.app.launch.open_app`, before Textual was imported); otherwise a
+        progressive app starts it here. Either way it is stopped if the app cannot be made."""
         source = TranscriptSource(path, witness, follow=bool(options.get("follow", False)))
         if progressive and witness is None:
-            checking = source.start_whole_file_check()  # every round, beside the app's start-up
-            model = source.open_start(strict)
-            app = cls(model, source=source, **options)
+            checking = whole_file_check if whole_file_check is not None else source.start_whole_file_check()
+            try:
+                model = source.open_start(strict)
+                app = cls(model, source=source, **options)
+            except BaseException:
+                if checking is not None:
+                    checking.stop()  # nobody will wait for it
+                raise
             app.whole_file_check = checking
             return app
+        if whole_file_check is not None:
+            whole_file_check.stop()  # a full first read checks every round itself
         model = source.open(strict)
         diagnosis = source.diagnose(model) if witness is not None and model.field is not None else None
         return cls(model, source=source, diagnosis=diagnosis, **options)
@@ -160,6 +171,9 @@ class StepperApp(App[int]):
         if swept is not None and self.model.loading:
             self.model.take_whole_file(swept)
             self.proof_screen.model_changed()
+        # the first screen (and the pass's outcome) is drawn before the slices start: a slice takes
+        # the event loop for some milliseconds, and a dozen of them would hold back the first paint
+        await self.repainted()
         painted = time.monotonic()
         while not self.source.pump(self.model, READ_SLICE):
             if not self.is_running:
@@ -169,6 +183,12 @@ class StepperApp(App[int]):
                 painted = time.monotonic()
             await asyncio.sleep(0)
         self.proof_screen.model_changed()
+
+    async def repainted(self) -> None:
+        """Return once the proof screen has drawn what was pending (at once if it cannot be asked)."""
+        drawn = asyncio.get_running_loop().create_future()
+        if self.proof_screen.call_after_refresh(lambda: drawn.done() or drawn.set_result(None)):
+            await drawn
 
     def poll_file(self) -> int:
         """Feed whatever the file gained since the last look; repaint if anything did."""

@@ -20,9 +20,6 @@ from textual.reactive import reactive
 from textual.screen import Screen
 from textual.widgets import Static
 
-from stepper.app.ask_screen import AskScreen
-from stepper.app.buckets_screen import BucketsScreen
-from stepper.app.export import markdown_report
 from stepper.app.help_screen import HelpScreen, KeyHint
 from stepper.app.keymap import bindings
 from stepper.app.proof_model import Position, ProofModel, mark_of, verdict_status
@@ -30,7 +27,6 @@ from stepper.app.readout import SHORT_CAUTION, Line, diagnosis_lines, round_line
 from stepper.app.round_detail import ReadoutPanel
 from stepper.app.round_table import RoundTable
 from stepper.app.status_strip import StatusStrip
-from stepper.app.value_search import find_value
 from stepper.errors import StepperError
 from stepper.field.display import ELIDE_LEGEND
 from stepper.transcript.model import Note
@@ -254,6 +250,8 @@ class ProofScreen(Screen[None]):
             self.say(f"instance #{instance} {view.name!r} has not sent its final value yet")
 
     def action_ask_round(self) -> None:
+        from stepper.app.ask_screen import AskScreen
+
         self.app.push_screen(AskScreen("Go to round", "N, or #I:N (instance #I as in the strip, round N)"),
                              self._goto_answer)
 
@@ -269,12 +267,16 @@ class ProofScreen(Screen[None]):
         self.go(target)
 
     def action_ask_value(self) -> None:
+        from stepper.app.ask_screen import AskScreen
+
         self.app.push_screen(AskScreen("Seek value", "decimal or 0x hex; digits also match inside values"),
                              self._seek_answer)
 
     def _seek_answer(self, answer: str | None) -> None:
         if not answer:
             return
+        from stepper.app.value_search import find_value
+
         found = find_value(self.model, answer, self.position)
         if found is None:
             self.say(f"{answer!r} appears in no round", "warning")
@@ -283,6 +285,8 @@ class ProofScreen(Screen[None]):
             self.say(f"{answer!r} found in {self.model.place(found)}")
 
     def action_ask_note(self) -> None:
+        from stepper.app.ask_screen import AskScreen
+
         if not self.model.instances:
             self.say("no instance to attach a note to yet: a note belongs to a round of an instance")
             return
@@ -304,6 +308,8 @@ class ProofScreen(Screen[None]):
         self.say(f"note saved on {self.model.place((instance, number))}")
 
     def action_buckets(self) -> None:
+        from stepper.app.buckets_screen import BucketsScreen
+
         self.app.push_screen(BucketsScreen(self.model, self.position[0]))
 
     def action_picture(self) -> None:
@@ -321,6 +327,8 @@ class ProofScreen(Screen[None]):
         self._write_up(self.position)
 
     def _write_up(self, position: Position) -> None:
+        from stepper.app.export import markdown_report
+
         path = self.stepper.export_path("md", position)
         text = markdown_report(self.model, position, self.stepper.diagnosis)
         if self._write_export(path, text, "write-up"):

@@ -84,21 +84,17 @@ class TranscriptSource:
         file still being written, a JSON-lines stream, notes waiting beside it, anything odd:
         the event-by-event read then checks as before). Opens the file on its own and
         touches no model."""
-        if self.follow or self.witness_path is not None:
-            return None
-        from stepper.app.whole_file import check_whole_file
+        from stepper.app.whole_file import applies, check_whole_file
 
-        return check_whole_file(self.path)
+        return check_whole_file(self.path) if applies(follow=self.follow, witness=self.witness_path) else None
 
     def start_whole_file_check(self, *, child: bool | None = None) -> WholeFileCheck | None:
         """Start :meth:`whole_file_check` beside the app's start-up (a child process where
         possible, else a thread: :class:`stepper.app.whole_file.WholeFileCheck`); None when it
         does not apply."""
-        if self.follow or self.witness_path is not None:
-            return None
-        from stepper.app.whole_file import WholeFileCheck
+        from stepper.app.whole_file import start_check
 
-        return WholeFileCheck(self.path, child=child)
+        return start_check(self.path, follow=self.follow, witness=self.witness_path, child=child)
 
     def pump(self, model: ProofModel, limit: int) -> bool:
         """Feed up to ``limit`` more events; True once the file is exhausted (or broke)."""

@@ -12,7 +12,9 @@ child process (on the other core, so it neither waits for the paint nor slows it
 sends back the :class:`WholeFile` pickled through a pipe, a few hundred bytes whatever
 the size of the file; the child's standard output and error go to the null device (a
 stray line would land in the middle of the app's screen) and it leaves with
-``os._exit``. Elsewhere (no ``fork``, another platform, threads already running, a fork
+``os._exit``. The child first freezes what it inherited (``gc.freeze``): its collector then
+never walks the parent's objects, so their pages stay shared instead of being copied
+(about a third of the child's CPU when it was forked after Textual's import). Elsewhere (no ``fork``, another platform, threads already running, a fork
 refused) it runs in a thread of this process. Either way, a pass that declines (a file
 still being written, a failing block, notes waiting beside the file, anything odd) or a
 child that dies gives None, and the event-by-event read checks the file as before and
@@ -22,6 +24,7 @@ dropped quietly.
 
 from __future__ import annotations
 
+import gc
 import os
 import pickle
 import signal
@@ -38,7 +41,8 @@ if TYPE_CHECKING:
     from stepper.field.field import Field
     from stepper.verify.verdict import Report
 
-__all__ = ["WholeFile", "WholeFileCheck", "check_whole_file", "summarise", "child_possible"]
+__all__ = ["WholeFile", "WholeFileCheck", "check_whole_file", "summarise", "child_possible", "applies",
+           "start_check"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -77,6 +81,19 @@ def check_whole_file(path: str | Path) -> WholeFile | None:
     replay = Replay(keep_rounds=False, keep_instances=None, emit_passing=False)
     swept = sweep(path, replay)
     return None if swept is None else summarise(replay.report(swept.completeness))
+
+
+def applies(*, follow: bool, witness: object) -> bool:
+    """Whether the app takes the pass at all: not for a file followed while a prover writes
+    it, nor for a run with a witness (whose diagnosis reads the whole file first)."""
+    return not follow and witness is None
+
+
+def start_check(path: str | Path, *, follow: bool = False, witness: object = None,
+                child: bool | None = None) -> WholeFileCheck | None:
+    """The pass over ``path`` under way, or None where it does not :func:`apply <applies>`.
+    Imports nothing heavy, so a caller can start it before Textual loads."""
+    return WholeFileCheck(path, child=child) if applies(follow=follow, witness=witness) else None
 
 
 def child_possible() -> bool:
@@ -135,6 +152,7 @@ class WholeFileCheck:
         if pid == 0:  # the child: check, send the summary, leave without the parent's clean-up
             code = 1
             try:
+                gc.freeze()  # the parent's objects: never walked here, so their pages are never copied
                 os.close(read_end)
                 quiet = os.open(os.devnull, os.O_WRONLY)  # nothing of the child reaches the app's terminal
                 os.dup2(quiet, 1)

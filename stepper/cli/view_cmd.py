@@ -52,10 +52,10 @@ def run(args: argparse.Namespace) -> int:
 
     import sys
 
-    from stepper.app.app import StepperApp
+    from stepper.app.launch import open_app
 
-    app = StepperApp.from_file(args.file, witness=args.witness, progressive=True, strict=True,
-                               follow=args.follow, export_dir=exports, compare=args.compare)
+    # every round's check starts here, before Textual is imported, and runs beside the start-up
+    app = open_app(args.file, witness=args.witness, follow=args.follow, export_dir=exports, compare=args.compare)
     if not (sys.stdin.isatty() and sys.stdout.isatty()):  # the app would draw into a pipe and wait forever
         if app.whole_file_check is not None:
             app.whole_file_check.stop()  # the check started with the app has nobody to report to

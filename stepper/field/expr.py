@@ -35,8 +35,6 @@ from dataclasses import dataclass, field as dc_field
 from functools import lru_cache
 from typing import TYPE_CHECKING, Mapping, Union
 
-import numpy as np
-
 from stepper.errors import ExpressionError
 from stepper.field.field import power_by_squaring
 from stepper.field.expr_syntax import (
@@ -63,6 +61,8 @@ from stepper.field.expr_syntax import (
 )
 
 if TYPE_CHECKING:
+    import numpy as np
+
     from stepper.field.field import Element, Field
 
 __all__ = ["Expr", "Const", "Table", "Neg", "Add", "Sub", "Mul", "Pow", "Index", "Eq", "PointOf", "FinalOf",
@@ -209,7 +209,7 @@ def _length(env: Mapping[str, np.ndarray], names: tuple[str, ...]) -> int:
 
 
 # A value during vector evaluation: an int constant (not yet broadcast) or an array.
-_Value = Union[int, np.ndarray]
+_Value = Union[int, "np.ndarray"]
 
 
 class _VectorArith:
