@@ -186,8 +186,13 @@ class StepperApp(App[int]):
 
     async def repainted(self) -> None:
         """Return once the proof screen has drawn what was pending (at once if it cannot be asked)."""
-        drawn = asyncio.get_running_loop().create_future()
-        if self.proof_screen.call_after_refresh(lambda: drawn.done() or drawn.set_result(None)):
+        drawn: asyncio.Future[None] = asyncio.get_running_loop().create_future()
+
+        def done() -> None:
+            if not drawn.done():
+                drawn.set_result(None)
+
+        if self.proof_screen.call_after_refresh(done):
             await drawn
 
     def poll_file(self) -> int:

@@ -35,10 +35,10 @@ def open_app(path: str | Path, *, witness: str | Path | None = None, follow: boo
     checking = start_check(path, follow=follow, witness=witness)
     try:
         from stepper.app.app import StepperApp
-
-        return StepperApp.from_file(path, witness=witness, progressive=True, strict=strict, follow=follow,
-                                    export_dir=export_dir, compare=compare, whole_file_check=checking)
-    except BaseException:
+    except BaseException:  # Ctrl-C during the import, or Textual missing: the child goes too
         if checking is not None:
             checking.stop()
         raise
+    # from_file stops the check itself when the app cannot be made
+    return StepperApp.from_file(path, witness=witness, progressive=True, strict=strict, follow=follow,
+                                export_dir=export_dir, compare=compare, whole_file_check=checking)
