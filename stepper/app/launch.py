@@ -18,7 +18,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from stepper.app.whole_file import start_check
+from stepper.app.whole_file import applies, start_check
 
 if TYPE_CHECKING:
     from stepper.app.app import StepperApp
@@ -32,6 +32,10 @@ def open_app(path: str | Path, *, witness: str | Path | None = None, follow: boo
     """The app on ``path`` as `stepper view` opens it (the rest of the file read in slices once
     it runs), the whole-file check started before the app's modules are imported. A file that
     cannot be used raises as :meth:`StepperApp.from_file` does, and the check is stopped."""
+    if applies(follow=follow, witness=witness):
+        # what both sides need (the reader and the replay; no numpy): imported once, before the fork
+        import stepper.transcript.store  # noqa: F401
+        import stepper.verify.replay  # noqa: F401
     checking = start_check(path, follow=follow, witness=witness)
     try:
         from stepper.app.app import StepperApp
