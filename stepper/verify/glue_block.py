@@ -129,12 +129,14 @@ class GlueChecks:
                                   start.num_vars, start.order))
 
     def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
-                    earlier: Mapping[str, int | None]) -> None:
+                    earlier: Mapping[str, int | None], run_of_row: np.ndarray | None = None) -> None:
         """The Sequencer's rules for the names an expression reads, by columns: a claim_expr's names
         were sent before its instance (after an earlier run of the flush, ``runs``, or before the
-        flush, ``earlier``), a final_expr's also after its own run; a name used as an element
-        is one, a name used as a list (a point, ``NAME[i]``) is one (``defined``: a list's length
-        or None, for the flush's names). Raises :class:`Unsupported` where one does not hold."""
+        flush, ``earlier``, which may also hold the flush's names), a final_expr's also after its
+        own run; a name used as an element is one, a name used as a list (a point, ``NAME[i]``) is
+        one (``defined``: a list's length or None, for the flush's names; elements may be left out).
+        With ``run_of_row``, ``runs`` gives each name's row in the flush and ``run_of_row`` each
+        row's run. Raises :class:`Unsupported` where one does not hold."""
         lists_here = {name for name, length in defined.items() if length is not None} if any(
             length is not None for length in defined.values()) else set()  # the flush's list values
         for group in self.groups:
@@ -149,6 +151,8 @@ class GlueChecks:
                 else:
                     bound = limits
                 places = np.fromiter(map(runs.get, column, repeat(-1)), dtype=np.int64, count=len(column))
+                if run_of_row is not None and len(run_of_row):  # rows in the flush -> their runs
+                    places = np.where(places < 0, -1, run_of_row[np.maximum(places, 0)])
                 if (places > bound).any():
                     raise Unsupported("a name sent after the expression may read it")
                 before = [column[i] for i in np.flatnonzero(places < 0).tolist()]  # names sent before the flush

@@ -20,9 +20,9 @@ file event by event, which names the problem.
 from __future__ import annotations
 
 import re
-from itertools import accumulate, chain
+from itertools import accumulate, chain, repeat
 from operator import itemgetter
-from typing import TYPE_CHECKING, Any, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, Mapping, MutableMapping, Sequence
 
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 from stepper.transcript.packed import GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
@@ -72,17 +72,23 @@ def _row(payload: Any) -> tuple[bytes, bytes, bytes, bytes] | None:
 class GlueColumns:
     """The glue payloads that follow the runs of one flush, checked and held as columns."""
 
-    def __init__(self, field: Field, tails: Sequence[Sequence[Any]], defined: Mapping[str, Any]) -> None:
+    def __init__(self, field: Field, tails: Sequence[Sequence[Any]], defined: MutableMapping[str, Any],
+                 blobs_only: bool | None = None) -> None:
         """``tails[i]`` holds the events that followed run i, in stream order, each a payload as
         unpacked or a row of :class:`~stepper.transcript.packed.GlueRun`; ``defined`` the glue names
-        sent before the flush (they may not come again)."""
+        sent before the flush, as the Sequencer records them (a list's length, None for one element):
+        the flush's names are added to it, and none may be there already (a name comes once).
+        ``blobs_only`` says that each tail is empty or one blob (None: look)."""
         self.field = field
         self.from_bytes = 0  # events read from blobs
         self.codes: np.ndarray  # each event's kind: 0 value, 1 squeeze, 2 opening
         self.elements: np.ndarray | None = None  # one row of packed bytes per event, when each holds one element
         self._kinds: list[str] | None = None
         self._data: list[bytes] | None = None
-        if any(tails) and all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails):
+        self._rows: dict[str, int] | None = None
+        if blobs_only is None:
+            blobs_only = all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails)
+        if blobs_only and any(tails):
             self._read_blobs(tails, defined)  # the usual case: one blob after a run, nothing else
             return
         glue_run = GlueRun(field.elem_bytes)
@@ -111,19 +117,19 @@ class GlueColumns:
             raise GiveUp("a glue event without a name or value, or a name that is not text") from None
         if payloads and _NAMES.fullmatch(joined) is None:
             raise GiveUp("a glue name outside the pattern")
-        if len(set(names)) != len(names) or not defined.keys().isdisjoint(names):
-            raise GiveUp("a glue name sent twice")
         self.names: list[str] = names
         self.tables = self._tables(payloads)
         types = set(map(type, raws))
         if list not in types:  # one element each (the usual case): no per-event work
             self.listed = [False] * self.size
             self.counts = [1] * self.size
+            self._define(defined)
             self.data = raws
             self.values = self._decode(raws, raws)
             return
         self.listed = [raw.__class__ is list for raw in raws]
         self.counts = [len(raw) if is_list else 1 for raw, is_list in zip(raws, self.listed)]
+        self._define(defined)
         if self.counts and max(self.counts) > MAX_VALUES:
             raise GiveUp("a glue list longer than the Sequencer takes")
         if any(is_list and kind == "opening" for is_list, kind in zip(self.listed, self.kinds)):
@@ -168,7 +174,7 @@ class GlueColumns:
             self.elements = np.frombuffer(b"".join(self.data), dtype=np.uint8).reshape(self.size, self.field.elem_bytes)
         return self.elements
 
-    def _read_blobs(self, tails: Sequence[Sequence[Any]], defined: Mapping[str, Any]) -> None:
+    def _read_blobs(self, tails: Sequence[Sequence[Any]], defined: MutableMapping[str, Any]) -> None:
         """The columns of one blob of glue events after each run, read at once by numpy
         (:func:`~stepper.transcript.packed.read_glue_columns`), each run's events found where their
         bytes end; where that reading declines, the rows are read by a regex."""
@@ -187,12 +193,11 @@ class GlueColumns:
         if self.bounds[-1] != self.size or not np.isin(blob_ends, np.concatenate(([0], ends))).all():
             raise GiveUp("glue blobs read otherwise than measured")
         self.names = read.names
-        if len(set(self.names)) != self.size or not defined.keys().isdisjoint(self.names):
-            raise GiveUp("a glue name sent twice")
         self.codes = read.codes
         self.tables = self.names
         self.listed = [False] * self.size
         self.counts = [1] * self.size
+        self._define(defined)
         self.elements = read.elements
         joined = read.elements.tobytes()
         elements = decoder_for(self.field)(joined)
@@ -200,7 +205,7 @@ class GlueColumns:
             raise GiveUp("a glue element that is not canonical")
         self.values = list(elements)
 
-    def _take_blobs(self, blobs: list[bytes], defined: Mapping[str, Any]) -> None:
+    def _take_blobs(self, blobs: list[bytes], defined: MutableMapping[str, Any]) -> None:
         """The columns of one blob of glue events after each run, read by a regex; each run's events
         found by their byte lengths (a row fills 21 bytes, its kind, its name and its element)."""
         import numpy as np
@@ -216,7 +221,7 @@ class GlueColumns:
         self.bounds = [0, *np.searchsorted(ends, blob_ends, side="right").tolist()]
         self._take_rows(rows, defined)
 
-    def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: Mapping[str, Any]) -> None:
+    def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: MutableMapping[str, Any]) -> None:
         """The columns of events read as rows of bytes (kind, the name's fixstr head, name, element)."""
         names = b"\n".join(map(itemgetter(2), rows)).decode("ascii")
         if b"".join(map(itemgetter(1), rows)) != bytes(map(len, map(itemgetter(2), rows))).translate(_FIXSTR):
@@ -224,12 +229,11 @@ class GlueColumns:
         if rows and _NAMES.fullmatch(names) is None:
             raise GiveUp("a glue name outside the pattern")
         self.names = names.split("\n") if rows else []
-        if len(set(self.names)) != len(self.names) or not defined.keys().isdisjoint(self.names):
-            raise GiveUp("a glue name sent twice")
         self.kinds = list(map(GLUE_KINDS.__getitem__, map(itemgetter(0), rows)))
         self.tables = self.names
         self.listed = [False] * self.size
         self.counts = [1] * self.size
+        self._define(defined)
         self.data = list(map(itemgetter(3), rows))
         self.values = self._decode(self.data, self.data)
 
@@ -268,18 +272,34 @@ class GlueColumns:
         return out
 
     # ----- what the rest of the flush reads -----------------------------------------------
-    def runs_of_names(self) -> dict[str, int]:
-        """Each name's run (the index of the run it follows in the flush)."""
+    def _define(self, defined: MutableMapping[str, Any]) -> None:
+        """Add the names to ``defined`` as the Sequencer records them; a name already there, or twice
+        in the flush, leaves fewer entries than expected."""
+        before = len(defined)
+        if not any(self.listed):
+            defined.update(zip(self.names, repeat(None)))
+        else:
+            defined.update((name, n if is_list else None) for name, n, is_list in zip(self.names, self.counts, self.listed))
+        if len(defined) != before + len(self.names):
+            raise GiveUp("a glue name sent twice")
+
+    def lists(self) -> dict[str, int]:
+        """The flush's list values by name, with their lengths."""
+        if not any(self.listed):
+            return {}
+        return {name: n for name, n, is_list in zip(self.names, self.counts, self.listed) if is_list}
+
+    def rows(self) -> dict[str, int]:
+        """Each name's row in the flush (its index in stream order)."""
+        if self._rows is None:
+            self._rows = dict(zip(self.names, range(self.size)))
+        return self._rows
+
+    def run_of_row(self) -> np.ndarray:
+        """The run (index in the flush) each row follows."""
         import numpy as np
 
-        runs = np.repeat(np.arange(len(self.bounds) - 1), np.diff(self.bounds)).tolist()
-        return dict(zip(self.names, runs))
-
-    def defined(self) -> dict[str, int | None]:
-        """The names as the Sequencer records them: a list's length, None for one element."""
-        if not any(self.listed):
-            return dict.fromkeys(self.names)
-        return {name: n if is_list else None for name, n, is_list in zip(self.names, self.counts, self.listed)}
+        return np.repeat(np.arange(len(self.bounds) - 1), np.diff(self.bounds))
 
     def records(self, run: int, instance: int) -> list[NamedValue | Squeeze | Opening]:
         """The records of the events after run ``run`` (instance ``instance``), as the Sequencer builds them."""
@@ -302,7 +322,7 @@ class GlueColumns:
         if any(self.listed) or not self.size:
             return None
         array = decode_cells(kernel, self.element_rows(), self.field.elem_bytes)
-        return dict(zip(self.names, range(self.size))), array
+        return self.rows(), array
 
     def squeezes_pass(self, kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray) -> bool:
         """Whether every element squeezed is the one sent, ``digests`` being those

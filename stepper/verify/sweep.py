@@ -148,6 +148,7 @@ class _Sweeper:
         self.fed = 0  # bytes fed to the unpacker
         self.glue_run: GlueRun | None = None  # set with the field
         self.glue_event_max = 0  # the most bytes of one event glue_run reads
+        self.glue_unpacked = False  # some glue event of the runs read so far was unpacked (not in a blob)
 
     # ----- reading --------------------------------------------------------------------
     def _offset(self) -> int:
@@ -230,6 +231,7 @@ class _Sweeper:
                 kind = payload.get("type") if payload.__class__ is dict else None
                 if kind in glue_types:
                     tail.append(payload)
+                    self.glue_unpacked = True
                     seq.count += 1
                     continue
                 if kind not in quiet or (kind == "instance" and ("eq_point" in payload or self.due)):
@@ -375,7 +377,8 @@ class _Sweeper:
         kernel, checks, field, seq = self.kernel, self.glue, self.field, self.seq
         assert kernel is not None and checks is not None and field is not None
         self.runs, self.trailing, self.rows, self.pending_bytes, self.due = [], [], 0, 0, False
-        glue = GlueColumns(field, trailing, seq.defined)
+        glue = GlueColumns(field, trailing, seq.defined, blobs_only=not self.glue_unpacked)
+        self.glue_unpacked = False
         seq.count += glue.from_bytes  # the events read as blobs, not counted as they were taken
         members: dict[Layout, list[tuple[InstanceStart, bytes, bytes, Layout]]] = {}
         for run in runs:
@@ -410,11 +413,9 @@ class _Sweeper:
                     unkept = bounds[i]
             if glued:
                 checks.add(glued)
-            defined = glue.defined()
-            checks.check_names(glue.runs_of_names(), defined, seq.defined)
+                checks.check_names(glue.rows(), glue.lists(), seq.defined, glue.run_of_row())
         except Unsupported as err:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
-        seq.defined.update(defined)
         if unkept < glue.size:
             replay.settle_glue_values(glue.names[unkept:], glue.values[unkept:])
         for block in blocks.values():

@@ -792,8 +792,8 @@ def test_glue_cut_by_a_chunks_end_is_read_on_into_the_next_chunk_and_reports_as_
     from_bytes: list[int] = []
     real = GlueColumns.__init__
 
-    def spy(self: GlueColumns, field: object, trailing: list[list[object]], defined: object) -> None:
-        real(self, field, trailing, defined)  # type: ignore[arg-type]
+    def spy(self: GlueColumns, field: object, trailing: list[list[object]], defined: object, **keys: object) -> None:
+        real(self, field, trailing, defined, **keys)  # type: ignore[arg-type]
         from_bytes.append(self.from_bytes)
 
     monkeypatch.setattr(GlueColumns, "__init__", spy)
