@@ -35,6 +35,7 @@ from __future__ import annotations
 
 import hashlib
 import struct
+from functools import lru_cache
 from operator import itemgetter
 from typing import TYPE_CHECKING, Callable, Sequence
 
@@ -420,47 +421,49 @@ class Sha256Schedule:
 def _flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int,
                       challenge_head: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
     """:meth:`Sha256Schedule.glue_stream` of glue events of one element each, every opening's table
-    its own name, built with numpy: the events of one kind and one name length have frames of
-    one length, built as the rows of a matrix (a column slice per piece) and scattered to their
-    offsets in one step."""
+    its own name, built with numpy: each frame is eight pieces (a head, two or three u64 numbers,
+    the name once or twice, the challenge head of a squeeze, the element; an unused slot is empty)
+    taken from one source buffer (the fixed heads, the u64 bytes of every number a frame holds,
+    the names joined, the elements) by one gather."""
     import numpy as np
 
-    u8 = np.uint8
-    lengths = np.fromiter(map(len, names), dtype=np.int64, count=len(names))
-    heads = {0: _VALUE_HEAD, 1: _DRAW_HEAD, 2: _OPENING_HEAD}
-    sizes = np.where(kind == 2, 32 + 2 * lengths + width,
-                     np.where(kind == 0, 38 + lengths + width, 37 + lengths + len(challenge_head) + width))
-    ends = np.cumsum(sizes)
-    offsets = ends - sizes
-    out = np.empty(int(ends[-1]), dtype=u8)
-    joined = np.frombuffer("\n".join(names).encode(), dtype=u8)
-    name_starts = np.cumsum(lengths + 1) - lengths - 1  # of each name in the joined bytes
-    cells = np.frombuffer(elements, dtype=u8).reshape(len(names), width)
-
-    def u64s(numbers: np.ndarray | int, count: int) -> np.ndarray:
-        return np.broadcast_to(np.asarray(numbers, dtype="<u8"), (count,)).astype("<u8").view(u8).reshape(count, 8)
-
-    shape = kind.astype(np.int64) * 256 + lengths  # events with frames of one layout share a value
-    for value in np.unique(shape).tolist():
-        chosen = np.flatnonzero(shape == value)
-        code, size = divmod(value, 256)
-        count, head = len(chosen), heads[code]
-        rows = np.empty((count, int(sizes[chosen[0]])), dtype=u8)
-        name = joined[name_starts[chosen][:, None] + np.arange(size)]
-        rows[:, :len(head)] = np.frombuffer(head, dtype=u8)
-        at = len(head)
-        if code == 2:  # opening: u64(body) u64(n) name u64(n) name element
-            parts = [u64s(16 + 2 * size + width, count), u64s(size, count), name, u64s(size, count), name, cells[chosen]]
-        elif code == 0:  # value: u64(body) u64(n) name u64(0) u64(1) element
-            parts = [u64s(24 + size + width, count), u64s(size, count), name, u64s(0, count), u64s(1, count),
-                     cells[chosen]]
-        else:  # squeeze: its draw frame, then the challenge frame of the element squeezed
-            parts = [u64s(24 + size, count), u64s(size, count), name, u64s(0, count), u64s(1, count),
-                     np.broadcast_to(np.frombuffer(challenge_head, dtype=u8), (count, len(challenge_head))),
-                     cells[chosen]]
-        for part in parts:
-            rows[:, at:at + part.shape[1]] = part
-            at += part.shape[1]
-        out[(offsets[chosen][:, None] + np.arange(rows.shape[1])).ravel()] = rows.ravel()
-    cuts = (offsets + 37 + lengths)[kind == 1]
+    u8, n = np.uint8, len(names)
+    lengths = np.fromiter(map(len, names), dtype=np.int64, count=n)
+    value, squeeze = kind == 0, kind == 1
+    body = np.where(kind == 2, 16 + 2 * lengths + width, np.where(value, 24 + lengths + width, 24 + lengths))
+    numbers = 1 << max(int(body.max()) if n else 0, 1).bit_length()  # u64 of 0 .. numbers - 1 in the table
+    joined = "\n".join(names).encode()
+    fixed = b"".join((_VALUE_HEAD, _DRAW_HEAD, _OPENING_HEAD, challenge_head))
+    value_head, draw_head, opening_head = 0, len(_VALUE_HEAD), len(_VALUE_HEAD) + len(_DRAW_HEAD)
+    chead = opening_head + len(_OPENING_HEAD)
+    u64_at = len(fixed)  # u64(v) at u64_at + 8 v
+    source = np.concatenate((np.frombuffer(fixed, dtype=u8), _u64_table(numbers), np.frombuffer(joined, dtype=u8),
+                             np.frombuffer(elements, dtype=u8)))
+    name_at = np.cumsum(lengths + 1) - lengths - 1 + u64_at + 8 * numbers  # each name in the source
+    element_at = u64_at + 8 * numbers + len(joined) + np.arange(n, dtype=np.int64) * width
+    zero, one = np.full(n, u64_at), np.full(n, u64_at + 8)
+    eight = np.full(n, 8)
+    # the eight pieces of each frame: (where in the source, how long)
+    src = np.stack((np.where(value, value_head, np.where(squeeze, draw_head, opening_head)), u64_at + 8 * body,
+                    u64_at + 8 * lengths, name_at, np.where(kind == 2, u64_at + 8 * lengths, zero),
+                    np.where(kind == 2, name_at, one), np.where(squeeze, chead, element_at),
+                    element_at), axis=1)
+    size = np.stack((np.where(value, len(_VALUE_HEAD), np.where(squeeze, len(_DRAW_HEAD), len(_OPENING_HEAD))),
+                     eight, eight, lengths, eight, np.where(kind == 2, lengths, 8),
+                     np.where(squeeze, len(challenge_head), width), np.where(squeeze, width, 0)), axis=1)
+    flat_size = size.ravel()
+    ends_of_pieces = np.cumsum(flat_size)
+    total = int(ends_of_pieces[-1]) if n else 0
+    out = source[np.repeat(src.ravel() - (ends_of_pieces - flat_size), flat_size) + np.arange(total)]
+    ends = ends_of_pieces[7::8]
+    offsets = ends - size.sum(axis=1)
+    cuts = (offsets + 37 + lengths)[squeeze]
     return out.tobytes(), ends, cuts
+
+
+@lru_cache(maxsize=8)
+def _u64_table(numbers: int) -> np.ndarray:
+    """The u64 bytes of 0 .. numbers - 1, one after another."""
+    import numpy as np
+
+    return np.arange(numbers, dtype="<u8").view(np.uint8)
