@@ -265,17 +265,17 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     ends = value_key + 8 + width
     if int(ends[-1]) != size or not np.array_equal(ends[:-1], starts[1:]):
         return None
-    kinds_text = {0: b"value", 1: b"squeeze", 2: b"opening"}
-    for code, text in kinds_text.items():
-        chosen = at[codes == code]
-        if len(chosen) and not np.array_equal(u8[chosen[:, None] + np.arange(len(text))],
-                                              np.broadcast_to(np.frombuffer(text, dtype=np.uint8),
-                                                              (len(chosen), len(text)))):
+    for j in range(7):  # the kind's letters: value (5), squeeze or opening (7)
+        letters = np.where(codes == 1, b"squeeze"[j], b"opening"[j])
+        if j < 5:
+            letters = np.where(codes == 0, b"value"[j], letters)
+        chosen = slice(None) if j < 5 else seven
+        if not np.array_equal(u8[at[chosen] + j], letters[chosen]):
             return None
     for place, text in ((name_key, b"\xa4name"), (value_key, b"\xa5value" + bytes((_BIN8, width)))):
-        if not np.array_equal(u8[place[:, None] + np.arange(len(text))],
-                              np.broadcast_to(np.frombuffer(text, dtype=np.uint8), (n, len(text)))):
-            return None
+        for j, byte in enumerate(text):
+            if not (u8[place + j] == byte).all():
+                return None
     # the names and the byte after each (0xa5, checked above) turned into a newline: joined, decoded, split
     spans = name_len + 1
     out_at = np.cumsum(spans) - spans
