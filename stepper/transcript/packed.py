@@ -187,11 +187,12 @@ class GlueRun:
     Nothing is judged but the layout: the caller checks each head against its name's length,
     the names against the glue name rules and the elements' values."""
 
-    __slots__ = ("_run", "_one")
+    __slots__ = ("_run", "_one", "match")
 
     def __init__(self, width: int) -> None:
         run, one = _glue_patterns(width)
         self._run, self._one = run.match, one.findall
+        self.match = run.match  # (data, at) -> the match of the events from ``at`` (never None)
 
     def __call__(self, data: bytes, at: int) -> int:
         """How many bytes the glue events from ``at`` fill (0: none there)."""

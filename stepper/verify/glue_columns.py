@@ -189,9 +189,11 @@ class GlueColumns:
         self.size = self.from_bytes = len(read.names)
         ends = read.ends
         blob_ends = np.cumsum(np.fromiter(map(len, blobs), dtype=np.int64, count=len(blobs)))
-        self.bounds = [0, *np.searchsorted(ends, blob_ends, side="right").tolist()]
-        if self.bounds[-1] != self.size or not np.isin(blob_ends, np.concatenate(([0], ends))).all():
+        counts = np.searchsorted(ends, blob_ends, side="right")  # events ending by each blob's end
+        marks = np.concatenate(([0], ends))[counts]  # where the last of them ends: the blob's end, if a boundary
+        if int(counts[-1]) != self.size or not np.array_equal(marks, blob_ends):
             raise GiveUp("glue blobs read otherwise than measured")
+        self.bounds = [0, *counts.tolist()]
         self.names = read.names
         self.codes = read.codes
         self.tables = self.names

@@ -319,7 +319,7 @@ class _Sweeper:
             return
         glue_run = self.glue_run
         assert glue_run is not None  # set with the field
-        size = glue_run(data, at)
+        size = glue_run.match(data, at).end() - at  # type: ignore[union-attr]  # the pattern matches the empty string too
         if at + size + self.glue_event_max < len(data):  # the events stop before the chunk's end: all taken
             if size:
                 tail.append(self.unpacker.read_bytes(size))  # counted as events when the flush reads them
