@@ -246,7 +246,6 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
         starts = starts[u8[starts + j] == head[j]]
     if not len(starts) or starts[0] != 0:
         return None
-    n = len(starts)
     if int(starts[-1]) + 27 + width > size:  # the shortest event: a kind of 5 letters, a name of one
         return None
     kind_head = u8[starts + len(head)]

@@ -34,7 +34,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field as dc_field
 from itertools import repeat
-from typing import TYPE_CHECKING, Any, Mapping
+from operator import itemgetter
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 import numpy as np
 
@@ -71,6 +72,7 @@ class _Group:
     first_rows: list[int] = dc_field(default_factory=list)
     num_vars: int = 0
     order: str = ""
+    rows: dict[int, np.ndarray] = dc_field(default_factory=dict)  # by hole: each check's name's row in the flush, or -1
 
 
 # an instance settled in bulk: its run in the flush, start, final value, the challenges of its block and
@@ -129,14 +131,18 @@ class GlueChecks:
                                   start.num_vars, start.order))
 
     def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
-                    earlier: Mapping[str, int | None], run_of_row: np.ndarray | None = None) -> None:
+                    earlier: Mapping[str, int | None], run_of_row: np.ndarray | None = None,
+                    names: Sequence[str] | None = None) -> None:
         """The Sequencer's rules for the names an expression reads, by columns: a claim_expr's names
         were sent before its instance (after an earlier run of the flush, ``runs``, or before the
         flush, ``earlier``, which may also hold the flush's names), a final_expr's also after its
         own run; a name used as an element is one, a name used as a list (a point, ``NAME[i]``) is
         one (``defined``: a list's length or None, for the flush's names; elements may be left out).
         With ``run_of_row``, ``runs`` gives each name's row in the flush and ``run_of_row`` each
-        row's run. Raises :class:`Unsupported` where one does not hold."""
+        row's run; with ``names`` too (the flush's names, by row), a column whose names stand at
+        the same place after each check's run as the first's does is matched by place (compared
+        with ``names``, no look-up per name), and the rows found are kept for :meth:`check`.
+        Raises :class:`Unsupported` where one does not hold."""
         lists_here = {name for name, length in defined.items() if length is not None} if any(
             length is not None for length in defined.values()) else set()  # the flush's list values
         for group in self.groups:
@@ -150,9 +156,14 @@ class GlueChecks:
                     column, bound = column[:1], limits.min(keepdims=True)
                 else:
                     bound = limits
-                places = np.fromiter(map(runs.get, column, repeat(-1)), dtype=np.int64, count=len(column))
-                if run_of_row is not None and len(run_of_row):  # rows in the flush -> their runs
-                    places = np.where(places < 0, -1, run_of_row[np.maximum(places, 0)])
+                if names is not None and run_of_row is not None and len(run_of_row) and len(column) == len(group.runs):
+                    rows = _rows_by_place(column, np.array(group.runs, dtype=np.int64), runs, names, run_of_row)
+                    group.rows[hole] = rows
+                    places = np.where(rows < 0, -1, run_of_row[np.maximum(rows, 0)])
+                else:
+                    places = np.fromiter(map(runs.get, column, repeat(-1)), dtype=np.int64, count=len(column))
+                    if run_of_row is not None and len(run_of_row):  # rows in the flush -> their runs
+                        places = np.where(places < 0, -1, run_of_row[np.maximum(places, 0)])
                 if (places > bound).any():
                     raise Unsupported("a name sent after the expression may read it")
                 before = [column[i] for i in np.flatnonzero(places < 0).tolist()]  # names sent before the flush
@@ -172,6 +183,38 @@ class GlueChecks:
         only the replay checks."""
         groups, self.groups = self.groups, []
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
+
+
+def _rows_by_place(column: list[str], runs: np.ndarray, index: Mapping[str, int], names: Sequence[str],
+                   run_of_row: np.ndarray) -> np.ndarray:
+    """Each check's name's row in the flush (-1: sent before it), check k's instance following run
+    ``runs[k]``. Where the first name the flush holds stands at offset o after run r + s, r its
+    check's run, every other check's name is looked for at offset o after its own run + s and
+    compared with ``names`` there; the names found elsewhere (or not at all) are looked up in
+    ``index``."""
+    count = len(column)
+    anchor = next((k for k in (0, 1) if k < count and column[k] in index), None)
+    if anchor is None or not len(run_of_row):
+        return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
+    row = index[column[anchor]]
+    firsts = np.searchsorted(run_of_row, np.arange(int(run_of_row[-1]) + 2))  # each run's first row; then the end
+    shift = int(run_of_row[row]) - int(runs[anchor])
+    offset = row - int(firsts[run_of_row[row]])
+    target = runs + shift
+    inside = (target >= 0) & (target < len(firsts) - 1)
+    clipped = np.clip(target, 0, len(firsts) - 2)
+    predicted = firsts[clipped] + offset
+    inside &= predicted < firsts[clipped + 1]
+    chosen = np.flatnonzero(inside)
+    rows = np.where(inside, predicted, -1)
+    if len(chosen) > 1:
+        if itemgetter(*rows[chosen].tolist())(names) != itemgetter(*chosen.tolist())(column):
+            return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
+    elif len(chosen) == 1 and names[int(rows[chosen[0]])] != column[int(chosen[0])]:
+        return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
+    for k in np.flatnonzero(~inside).tolist():  # a name before the flush, or one the place did not predict
+        rows[k] = index.get(column[k], -1)
+    return rows
 
 
 def _uniform(names: list[str]) -> bool:
@@ -227,7 +270,9 @@ class _Columns:
                 raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
             return self.repeated(self.array([value]))
         if self.cells is not None:
-            rows = np.fromiter(map(self.cells[0].get, names, repeat(-1)), dtype=np.int64, count=len(names))
+            known = self.group.rows.get(int(name[1:])) if name[0] == "#" else None  # found by check_names
+            rows = known if known is not None else np.fromiter(map(self.cells[0].get, names, repeat(-1)),
+                                                               dtype=np.int64, count=len(names))
             outside = np.flatnonzero(rows < 0).tolist()  # names sent before the flush
             if len(outside) <= len(names) // 8:
                 taken = self.cells[1][rows]

@@ -413,7 +413,7 @@ class _Sweeper:
                     unkept = bounds[i]
             if glued:
                 checks.add(glued)
-                checks.check_names(glue.rows(), glue.lists(), seq.defined, glue.run_of_row())
+                checks.check_names(glue.rows(), glue.lists(), seq.defined, glue.run_of_row(), glue.names)
         except Unsupported as err:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
         if unkept < glue.size:

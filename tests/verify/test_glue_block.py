@@ -142,6 +142,50 @@ def test_a_name_sent_too_late_never_sent_or_of_the_wrong_kind_is_refused(problem
         checks.check_names(runs, kinds, earlier)
 
 
+
+def by_rows(runs: dict[str, int], rng: random.Random | None = None):  # type: ignore[no-untyped-def]
+    """The same flush laid out by rows: the names in stream order (by run; shuffled within each run
+    when ``rng`` is given), each name's row, and each row's run."""
+    import numpy as np
+
+    order = sorted(runs, key=lambda n: (runs[n], rng.random() if rng else 0))
+    return {n: i for i, n in enumerate(order)}, order, np.array([runs[n] for n in order], dtype=np.int64)
+
+
+@pytest.mark.parametrize("problem", [None, "late", "missing", "list-as-element", "element-as-list", "shuffled"])
+def test_names_matched_by_their_place_in_the_flush_follow_the_same_rules(problem):
+    # the whole-file pass hands over the flush's names by row: columns are matched by place where the names
+    # stand alike after each run, by look-up elsewhere; the verdicts are those of the look-up by name
+    starts, values, challenges, finals = glued_instances("goldilocks", 9, 2, seed=14)
+    runs, kinds, earlier = sent_in_time(values, 9)
+    if problem == "late":
+        runs["beta5"] = 5
+    elif problem == "missing":
+        del runs["d3"], kinds["d3"]
+    elif problem == "list-as-element":
+        kinds["a4"] = 2
+    elif problem == "element-as-list":
+        kinds["u6"] = None
+    rows, names, run_of_row = by_rows(runs, random.Random(3) if problem == "shuffled" else None)
+    outcomes = []
+    for place in (False, True):
+        checks = gathered("goldilocks", starts, challenges, finals)
+        try:
+            if place:
+                checks.check_names(rows, kinds, earlier, run_of_row, names)
+            else:
+                checks.check_names(runs, kinds, earlier)
+        except Unsupported:
+            outcomes.append("refused")
+            continue
+        scalars = [n for n, v in values.items() if not isinstance(v, list)]
+        cells = ({n: i for i, n in enumerate(scalars)}, checks.kernel.array([values[n] for n in scalars]))
+        if place:  # the rows found by place index the flush's cells
+            cells = (rows, checks.kernel.array([values[n] if n in rows and not isinstance(values[n], list) else 0
+                                                for n in names]))
+        outcomes.append(checks.check(values, cells))
+    assert outcomes[0] == outcomes[1] == ("refused" if problem not in (None, "shuffled") else True)
+
 def test_what_only_the_replay_checks_is_refused():
     field = field_of("goldilocks")
     checks = GlueChecks(field, block_kernel(field))
