@@ -41,7 +41,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "or dask (Dask's local threads or --scheduler)")
     parser.add_argument("--chunk", metavar="N", type=_entries, default=None,
                         help="with --witness: table entries read at once by the chunked engine (N or 2^K, at "
-                             "least 2; default 2^18); memory grows with N, not with the table")
+                             "least 2; default 2^17); memory grows with N, not with the table")
     parser.add_argument("--progress", action="store_true",
                         help="with --witness: report progress on stderr (throughput, time left) even when it "
                              "is not a terminal, one line every few seconds")

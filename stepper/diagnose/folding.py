@@ -53,7 +53,7 @@ if TYPE_CHECKING:
 
 __all__ = ["CHUNK_ENTRIES", "PassPlan", "ChunkedFold"]
 
-CHUNK_ENTRIES = 1 << 18  # entries per table per piece: 8 MiB of a BabyBear^4 table in memory
+CHUNK_ENTRIES = 1 << 17  # entries per table per piece: 4 MiB of a BabyBear^4 table in memory
 
 
 @dataclass(frozen=True, slots=True)
@@ -105,7 +105,8 @@ class ChunkedFold:
             if on_round is not None:
                 on_round(k + levels)
 
-        for item in honest_rounds(field, left, expr, challenges[levels:], order, num_points, on_round=later):
+        for item in honest_rounds(field, left, expr, challenges[levels:], order, num_points, on_round=later,
+                                  overwrite=True):  # the pass's own arrays: folded in place
             yield HonestRound(item.round + levels, item.evals) if isinstance(item, HonestRound) else item
 
     def mle_eval(self, field: Field, table: Any, point: Sequence[Element], *,

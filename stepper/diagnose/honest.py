@@ -30,7 +30,7 @@ if TYPE_CHECKING:
 
 __all__ = ["CHUNK", "honest_round", "round_share", "share_and_fold", "fold", "table_round_sums", "HonestRound", "honest_rounds", "tables_at"]
 
-CHUNK = 1 << 15  # pairs of entries handled per vectorised pass
+CHUNK = 1 << 14  # pairs of entries handled per vectorised pass
 _SUM_ROWS = 256  # entries per row when the coefficients of an (n, k) array are summed
 
 
@@ -260,16 +260,19 @@ def honest_rounds(
     num_points: int,
     *,
     on_round: Callable[[int], None] | None = None,
+    overwrite: bool = False,
 ) -> Iterator[HonestRound | dict[str, Element]]:
     """Yield the honest round polynomials for the recorded ``challenges`` (one
     round more than challenges when a round is left without one, never more
     than the tables have variables), then, when every variable got a challenge,
-    the tables' values at the challenge point (a dict name -> element)."""
+    the tables' values at the challenge point (a dict name -> element). With
+    ``overwrite`` the first fold overwrites ``tables`` (the caller's own arrays)
+    instead of making half-size copies beside them."""
     names = expr.names()
     cur: dict[str, np.ndarray] = {name: tables[name] for name in names}
     n = _check_tables(cur, expr)
     num_vars = n.bit_length() - 1
-    owned = False
+    owned = overwrite
     for k in range(1, num_vars + 1):
         yield HonestRound(k, honest_round(field, cur, expr, num_points, order))
         if on_round is not None:

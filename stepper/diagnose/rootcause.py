@@ -50,6 +50,7 @@ from stepper.diagnose.diagnosis import COMPRESSED_FORMS, SOUNDNESS_CAVEAT, Diagn
 from stepper.diagnose.folding import ChunkedFold
 from stepper.diagnose.honest import HonestRound, honest_rounds
 from stepper.diagnose.stored_table import table_rows, whole_table
+from stepper.field.kernels.base import work_of
 from stepper.field.poly import RoundPoly, lagrange_at, mle_eval, point_from_challenges
 from stepper.transcript.model import Opening
 from stepper.diagnose.glue_evidence import glue_findings
@@ -112,6 +113,13 @@ def diagnose(transcript: Transcript, witness: Witness, report: Report | None = N
 
         report = replay_transcript(transcript)
     fitted = fit_witness(witness, transcript)
+    entries = sum(len(fit.tables) << transcript.instances[i].start.num_vars for i, fit in fitted.items())
+    with work_of(entries):  # numpy alone below the size where loading numba pays for itself
+        return _diagnose(transcript, fitted, report, progress, engine)
+
+
+def _diagnose(transcript: Transcript, fitted: Mapping[int, FittedInstance], report: Report,
+              progress: Progress | None, engine: Engine) -> Diagnosis:
     field = transcript.field
     total = sum(2 << transcript.instances[i].start.num_vars for i in fitted)
     done = 0

@@ -160,6 +160,21 @@ def test_in_place_fold_gives_the_same_values_as_a_copying_fold() -> None:
         assert np.shares_memory(in_place, scratch)
 
 
+def test_honest_rounds_that_may_overwrite_the_tables_give_the_same_rounds_in_their_memory() -> None:
+    field = FIELDS[0]
+    nrng = np.random.default_rng(2)
+    tables = {name: field.vrandom(1 << 6, nrng) for name in ("a", "b")}
+    expr = parse("a*b")
+    challenges = [field.random(random.Random(k)) for k in range(6)]
+    kept = list(honest_rounds(field, tables, expr, challenges, "low-first", 3))
+    scratch = {name: t.copy() for name, t in tables.items()}
+    overwritten = list(honest_rounds(field, scratch, expr, challenges, "low-first", 3, overwrite=True))
+    assert overwritten == kept
+    # every fold went into the given arrays: their first entry is now the table's value at the point
+    assert tuple(int(c) for c in scratch["a"][0]) == kept[-1]["a"]
+    assert tuple(int(c) for c in tables["a"][0]) != kept[-1]["a"]
+
+
 def test_a_fold_never_changes_the_callers_tables_by_default() -> None:
     field = get_field(GOLDILOCKS)
     table = field.vrandom(64, np.random.default_rng(4))

@@ -264,3 +264,24 @@ def test_probes_past_their_table_limit_are_said_to_be_skipped_and_the_root_cause
         {k: v for k, v in within.root_cause_json().items() if k != "probes"}
     assert "64 entries (more than 32" in cause["probes_skipped"]
     assert any(line.startswith("The bug-class probes were not run") for line in past.explain())
+
+
+def test_the_recomputation_declares_every_table_entry_it_reads_as_its_size_of_work(monkeypatch) -> None:
+    # the size decides whether numba is worth loading (stepper.field.kernels.base.work_of)
+    from contextlib import contextmanager
+
+    import stepper.diagnose.rootcause as rootcause_module
+
+    sizes = []
+
+    @contextmanager
+    def recording(entries):
+        sizes.append(entries)
+        yield
+
+    rng = np.random.default_rng(5)
+    tables = {n: GOLDILOCKS.vrandom(32, rng) for n in ("ledger", "scans", "eq")}
+    transcript, witness = prove(GOLDILOCKS, tables, "ledger*scans*eq", degree=3)
+    monkeypatch.setattr(rootcause_module, "work_of", recording)
+    assert diagnose(transcript, witness).root_cause is None
+    assert sizes == [3 * 32]

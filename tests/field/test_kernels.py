@@ -335,6 +335,54 @@ def test_numpy_only_switch_turns_the_compiled_loops_off(monkeypatch):
     assert kernel.to_list(kernel.mul(a, a)) == [2**126 % kernel.p, 25]
 
 
+def _unloaded(monkeypatch):
+    """The kernels' module as if numba had never been asked for in this process."""
+    monkeypatch.delenv("STEPPER_KERNELS", raising=False)
+    monkeypatch.setattr(kernel_base, "_compiled_tried", False)
+    monkeypatch.setattr(kernel_base, "_compiled", None)
+
+
+def test_work_below_the_crossover_runs_on_numpy_without_loading_numba(monkeypatch):
+    _unloaded(monkeypatch)
+    kernel = kernel_for(named("babybear"), compiled_min=0)  # every array would go to numba
+    a = kernel.array([2**30, 7])
+    with kernel_base.work_of(kernel_base.COMPILED_WORK_MIN - 1):
+        product = kernel.mul(a, a)
+        assert kernel_base.load_compiled() is None
+    assert not kernel_base._compiled_tried  # numba was never asked for: nothing was loaded
+    assert kernel.to_list(product) == [2**60 % kernel.p, 49]  # reference: plain Python integers
+
+
+def test_work_at_the_crossover_loads_numba(monkeypatch):
+    pytest.importorskip("numba")
+    _unloaded(monkeypatch)
+    with kernel_base.work_of(kernel_base.COMPILED_WORK_MIN):
+        assert kernel_base.load_compiled() is not None
+
+
+def test_small_work_uses_numba_when_it_is_loaded_already_or_asked_for(monkeypatch):
+    pytest.importorskip("numba")
+    _unloaded(monkeypatch)
+    loaded = kernel_base.load_compiled()
+    assert loaded is not None
+    with kernel_base.work_of(1):  # the loading is paid for: nothing to save by staying on numpy
+        assert kernel_base.load_compiled() is loaded
+    _unloaded(monkeypatch)
+    monkeypatch.setenv("STEPPER_KERNELS", "compiled")  # the benchmark's other side
+    with kernel_base.work_of(1):
+        assert kernel_base.load_compiled() is not None
+
+
+def test_numba_stays_unloaded_only_while_a_small_block_runs(monkeypatch):
+    pytest.importorskip("numba")
+    _unloaded(monkeypatch)
+    with pytest.raises(RuntimeError):
+        with kernel_base.work_of(1):
+            raise RuntimeError("a block that fails still ends")
+    assert kernel_base._numpy_work == 0
+    assert kernel_base.load_compiled() is not None
+
+
 def test_held_back_packages_import_as_missing_inside_the_block_and_normally_after(tmp_path, monkeypatch):
     (tmp_path / "heldprobe").mkdir()
     (tmp_path / "heldprobe" / "__init__.py").write_text("VALUE = 7\n")

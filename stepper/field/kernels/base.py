@@ -9,7 +9,9 @@ never loop in Python over entries.
 Large arrays (``compiled_min`` entries or more) go through the numba loops of
 :mod:`stepper.field.kernels.compiled`, loaded on first need; small arrays stay on
 numpy so that a short CLI run never waits for numba. Setting the environment
-variable ``STEPPER_KERNELS=numpy`` keeps every array on numpy.
+variable ``STEPPER_KERNELS=numpy`` keeps every array on numpy. A block of work that
+declares its size (:func:`work_of`) stays on numpy below :data:`COMPILED_WORK_MIN`
+table entries, where loading numba costs more than it saves.
 
 Loading numba's cached machine code costs a fixed start-up in every process, most of it
 in optional packages numba reaches for on its first call: SciPy (for ``np.dot`` and
@@ -43,13 +45,17 @@ from stepper.errors import FieldError
 if TYPE_CHECKING:
     from stepper.field.shape import Element, FieldShape
 
-__all__ = ["Kernel", "COMPILED_MIN", "HELD_BACK", "load_compiled", "held_back", "steady_heap"]
+__all__ = ["Kernel", "COMPILED_MIN", "COMPILED_WORK_MIN", "HELD_BACK", "load_compiled", "held_back", "steady_heap",
+           "work_of"]
 
 COMPILED_MIN = 1 << 14  # below this numpy wins: numba's first use in a process costs about a second
+# table entries a piece of work (the root cause) must reach before loading numba pays for itself
+COMPILED_WORK_MIN = 1 << 25
 
 _compiled: ModuleType | None = None
 _compiled_tried = False
 _compiled_lock = threading.Lock()
+_numpy_work = 0  # blocks of work_of() running that keep numba unloaded
 
 HELD_BACK = ("scipy", "cffi")  # optional packages of numba that none of our loops needs (module docstring)
 
@@ -57,7 +63,7 @@ HELD_BACK = ("scipy", "cffi")  # optional packages of numba that none of our loo
 def load_compiled() -> ModuleType | None:
     """The numba loops, loaded and run once, or None when numba is missing or switched off."""
     global _compiled, _compiled_tried
-    if not _compiled_tried:
+    if not _compiled_tried and not _numpy_work:
         with _compiled_lock:  # the Dask engine's threads may all ask at once
             if not _compiled_tried:
                 if os.environ.get("STEPPER_KERNELS", "").lower() != "numpy":
@@ -72,6 +78,28 @@ def load_compiled() -> ModuleType | None:
                     _compiled = compiled
                 _compiled_tried = True
     return _compiled
+
+
+@contextmanager
+def work_of(entries: int) -> Iterator[None]:
+    """A block of vector work over about ``entries`` table entries. Below
+    :data:`COMPILED_WORK_MIN` it runs on numpy alone unless numba is loaded already:
+    loading numba (its import, its cached machine code, its first call) costs about half a
+    second of CPU and 100 MB of resident memory, more than its loops save on that much work
+    (``bench/witness.py`` measures both sides; ``STEPPER_KERNELS=compiled`` loads numba for
+    any size, to compare). The values are the same either way. In every
+    block the heap keeps freed memory for reuse (:func:`steady_heap`): without that the numpy
+    temporaries of the pieces spend most of their time in page faults."""
+    global _numpy_work
+    steady_heap(STEADY_KEEP)
+    numpy_only = entries < COMPILED_WORK_MIN and os.environ.get("STEPPER_KERNELS", "").lower() != "compiled"
+    with _compiled_lock:
+        _numpy_work += numpy_only
+    try:
+        yield
+    finally:
+        with _compiled_lock:
+            _numpy_work -= numpy_only
 
 
 class _HeldBack:
@@ -99,10 +127,11 @@ def held_back(packages: Sequence[str]) -> Iterator[None]:
 
 
 _M_TRIM_THRESHOLD, _M_MMAP_THRESHOLD = -1, -3  # mallopt parameters of glibc's malloc.h
+STEADY_KEEP = 64 << 20
 _heap_steadied = False
 
 
-def steady_heap(keep_bytes: int = 64 << 20) -> bool:
+def steady_heap(keep_bytes: int = STEADY_KEEP) -> bool:
     """Ask glibc's malloc to keep up to ``keep_bytes`` of freed memory for reuse (and to
     serve blocks below ``keep_bytes // 16`` from the heap) instead of handing it back to the
     system after each numpy temporary: with its default, dynamic thresholds, kernels on

@@ -51,6 +51,8 @@ class ExtensionKernel(Kernel):
         # numpy products reduced once per coefficient: k raw products, or a reduced coefficient plus
         # k - 1 products by the reduction rows, fit in uint64 (any prime below 2^32 for small k)
         self._numpy_lazy = isinstance(base, SmallPrimeKernel) and self.k * (p - 1) ** 2 + p < 2**64
+        # a binomial whose k raw products fit in uint64: w folded into the second operand first
+        self._numpy_binomial = self._numpy_lazy and self.binomial
 
     # ----- construction and conversion -------------------------------------------
     def array(self, values: Any) -> np.ndarray:
@@ -130,6 +132,8 @@ class ExtensionKernel(Kernel):
         return compiled.small_ext_mul(fa, fb, self._xk_array, base.p64, base.pinv, out)  # type: ignore[no-any-return]
 
     def _mul_numpy(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        if self._numpy_binomial and a.ndim == b.ndim == 2 and (a.shape == b.shape or 1 in (len(a), len(b))):
+            return self._mul_numpy_binomial(a, b)
         if self._numpy_lazy:
             return self._mul_numpy_lazy(a, b)
         k, bk = self.k, self.base
@@ -144,6 +148,39 @@ class ExtensionKernel(Kernel):
                 if coef:
                     prod[i] = bk.add(prod[i], bk.mul(top, bk.scalar_array(coef)[0]))
         return np.stack(prod[:k], axis=1)
+
+    def _mul_numpy_binomial(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """The product modulo X^k - w on coefficient columns: c_t = sum_(i <= t) a_i b_(t-i) +
+        sum_(i > t) a_i (w b_(t+k-i) mod p). With w folded into b's coefficients first, each c_t
+        is k raw products below p^2 (they fit in uint64) and one remainder: k - 1 + k remainders
+        in all (none for w when b is a single row, a scalar), every product on contiguous
+        columns (a transposed copy of each operand; strided columns multiply about 3x slower)."""
+        k, p = self.k, self.base.p64  # type: ignore[attr-defined]
+        a, b = np.asarray(a, dtype=np.uint64), np.asarray(b, dtype=np.uint64)
+        if len(a) == 1 and len(b) != 1:
+            a, b = b, a
+        cols = np.ascontiguousarray(a.T)
+        w = self.xk[0]
+        plain: list[Any]
+        wrapped: list[Any]
+        if len(b) == 1:
+            row = [int(c) for c in b[0]]
+            plain = [np.uint64(c) for c in row]
+            wrapped = [np.uint64(c * w % self.p) for c in row]
+        else:
+            b_cols = np.ascontiguousarray(b.T)
+            plain = list(b_cols)
+            wrapped = [None, *(mod_u64(b_cols[j] * np.uint64(w), p) for j in range(1, k))]
+        acc = np.empty(cols.shape, dtype=np.uint64)
+        term = np.empty(cols.shape[1], dtype=np.uint64)
+        for t in range(k):
+            np.multiply(cols[0], plain[t], out=acc[t])
+            for i in range(1, k):
+                j = t - i
+                np.multiply(cols[i], plain[j] if j >= 0 else wrapped[j + k], out=term)
+                acc[t] += term
+        mod_u64(acc, p, out=acc)
+        return np.ascontiguousarray(acc.T)
 
     def _mul_numpy_lazy(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         """The schoolbook product on uint64 without reducing each product: the raw sums of each
