@@ -107,16 +107,16 @@ PEAK_SELF = ("import atexit, os, runpy, sys\n"
              "runpy.run_module('stepper', run_name='__main__', alter_sys=True)\n")
 
 
-def _child(argv: list[str]) -> tuple[float, float, float, int]:
-    """Wall seconds, CPU seconds (user + system), peak resident MB and exit code of a child process.
-    For ``python -m stepper ...`` the peak is the child's own (VmHWM, through :data:`PEAK_SELF`);
-    for anything else it is the child's ru_maxrss."""
+def _child(argv: list[str], extra_env: dict[str, str] | None = None) -> tuple[float, float, float, int]:
+    """Wall seconds, CPU seconds (user + system), peak resident MB and exit code of a child process
+    (its environment :func:`_child_env` plus ``extra_env``). For ``python -m stepper ...`` the peak is
+    the child's own (VmHWM, through :data:`PEAK_SELF`); for anything else it is the child's ru_maxrss."""
     own_peak = argv[1:3] == ["-m", "stepper"]
     if own_peak:
         argv = [argv[0], "-c", PEAK_SELF, *argv[3:]]
     t0 = time.perf_counter()
     proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE if own_peak else None,
-                            env=_child_env())
+                            env={**_child_env(), **(extra_env or {})})
     err = proc.stderr.read().decode(errors="replace") if proc.stderr is not None else ""
     _, status, usage = os.wait4(proc.pid, 0)
     wall = time.perf_counter() - t0

@@ -12,13 +12,17 @@ once as JSON. Then, side by side in one run (CPU seconds, best of ``--repeat``):
   multiplications (``bench/rootcause.py``'s ``bare_kernels``, CPU seconds in this process; target
   <= 3x), and on the same line its peak resident memory (the child's own ``VmHWM``) against one
   table's raw bytes (target < 1.5x), for the folder and for the JSON witness. The peak includes
-  the interpreter, numpy and the compiled kernels. The bare kernels count round 1 as it is here:
+  the interpreter, numpy and stepper's modules (and numba's, where the command loads it). The bare
+  kernels (numba's loops, loaded in this process) count round 1 as it is here:
   the generic prover's tables over an extension hold extension elements, so round 1 multiplies
   extension elements like every later round (``bench/rootcause.py``'s own tables are base-field
   ones, where round 1 multiplies base elements); the earlier count, round 1 over base elements,
-  is printed beside it. First of all, the fixed floor: the same command on a 2^15 witness (the
-  compiled kernels load from 2^14 entries), minus its plain check, and its peak: the start-up
-  that every size pays, which dominates at 2^20;
+  is printed beside it, and whether each target is met. For the folder, the same command once more
+  on numpy alone and with numba loaded (``STEPPER_KERNELS=numpy`` / ``compiled``), interleaved:
+  ``check`` loads numba only from ``COMPILED_WORK_MIN`` table entries of work, and this line is
+  the measurement behind that choice. First of all, the fixed floor: the same command on a 2^15
+  witness, minus its plain check, and its peak: the start-up that every size pays, beside a
+  Python process that imports numpy alone (a floor no Python command goes below);
 * the Dask engine's local overhead: ``check F --witness W --engine dask`` (Dask's local threaded
   scheduler, blocks of 2^16 entries) minus the plain check, against the same with the default
   (chunked) engine, in CPU and in wall seconds, for the folder witness (skipped when dask is not
@@ -41,6 +45,7 @@ import argparse
 import importlib.util
 import os
 import shutil
+import subprocess
 import sys
 import tempfile
 import time
@@ -68,10 +73,10 @@ def cpu_of_check(argv: list[str]) -> tuple[float, float]:
     return cpu, rss
 
 
-def times_of_check(argv: list[str]) -> tuple[float, float, float]:
+def times_of_check(argv: list[str], extra_env: dict[str, str] | None = None) -> tuple[float, float, float]:
     """(CPU s, wall s, peak MB) of one fresh `check` process; the peak is the child's own (VmHWM,
     through check.py's PEAK_SELF: ru_maxrss would count this script's high-water mark under vfork)."""
-    wall, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv])
+    wall, cpu, rss, code = _child([sys.executable, "-m", "stepper", "check", *argv], extra_env)
     assert code == 0, f"check {argv} exited {code}"
     return cpu, wall, rss
 
@@ -87,6 +92,38 @@ def dask_overhead(transcript: Path, witness: Path, repeat: int) -> str:
     return (f"--engine dask {dc - pc:.2f} s CPU / {dw - pw:.2f} s wall vs chunked {mc - pc:.2f} s / "
             f"{mw - pw:.2f} s (each minus the plain check) = {(dc - pc) / (mc - pc):.2f}x CPU, "
             f"{(dw - pw) / (mw - pw):.2f}x wall (local threads); peak {drss:.0f} MB")
+
+
+def bare_start() -> float:
+    """Peak MB (its own VmHWM) of a Python process that imports numpy and nothing else: a floor below
+    stepper's own."""
+    code = ("import numpy\n"
+            "print(next(line.split()[1] for line in open('/proc/self/status') if line.startswith('VmHWM:')))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    return int(out.stdout) / 1024
+
+
+def verdict(ratio: float, share: float) -> str:
+    """The two targets of a whole-command line, each said met or missed."""
+    return (f"time {'met' if ratio <= 3 else 'MISSED'}, memory {'met' if share < 1.5 else 'MISSED'}")
+
+
+def kernels_side_by_side(transcript: Path, witness: Path, mu: int, repeat: int) -> str:
+    """One line: the same command on numpy alone and with numba loaded, interleaved, best of ``repeat``
+    each (CPU s, peak MB): the measurement behind stepper's crossover (COMPILED_WORK_MIN)."""
+    from stepper.field.kernels.base import COMPILED_WORK_MIN
+
+    argv = [str(transcript), "--witness", str(witness)]
+    sides = {"numpy": {"STEPPER_KERNELS": "numpy"}, "numba": {"STEPPER_KERNELS": "compiled"}}
+    runs: dict[str, list[tuple[float, float, float]]] = {name: [] for name in sides}
+    for _ in range(repeat):
+        for name, env in sides.items():
+            runs[name].append(times_of_check(argv, env))
+    (nc, nr), (cc, cr) = ((min(r[0] for r in runs[n]), min(r[2] for r in runs[n])) for n in sides)
+    default = "numpy" if 3 << mu < COMPILED_WORK_MIN else "numba"
+    return (f"2^{mu} kernels side by side (folder, whole command): numpy alone {nc:.2f} s CPU, {nr:.0f} MB | "
+            f"numba loaded {cc:.2f} s, {cr:.0f} MB = {cc / nc:.2f}x the time; stepper picks {default} here "
+            f"(numba from {COMPILED_WORK_MIN} table entries of work; these tables hold {3 << mu})")
 
 
 def writing(field_name: str, mu: int, repeat: int, tmp: Path) -> tuple[float, float, float, float]:
@@ -194,6 +231,8 @@ def main() -> None:
     parser.add_argument("--json-max-log2n", type=int, default=None, metavar="MU",
                         help="the JSON witness only at sizes up to 2^MU (its text is about 130 bytes an entry)")
     parser.add_argument("--no-dask", action="store_true", help="skip the Dask engine's overhead")
+    parser.add_argument("--no-kernels", action="store_true",
+                        help="skip the folder command on numpy alone beside the same with numba loaded")
     parser.add_argument("--synthetic", action="store_true",
                         help="write the folder and the transcript without the in-memory prover (2^25 and up); "
                              "implies --no-json and skips the writing comparison")
@@ -206,9 +245,11 @@ def main() -> None:
         small_plain = min(cpu_of_check([str(small_t)])[0] for _ in range(args.repeat))
         small_runs = [times_of_check([str(small_t), "--witness", str(small_w)]) for _ in range(args.repeat)]
         floor = min(r[2] for r in small_runs)
+        python_numpy = min(bare_start() for _ in range(args.repeat))
         print(f"2^15 fixed floor: check --witness minus plain check {min(r[0] for r in small_runs) - small_plain:.2f} s "
-              f"CPU, peak {floor:.0f} MB (the start-up every size pays: interpreter, numpy, compiled kernels)",
-              flush=True)
+              f"CPU, peak {floor:.0f} MB (the start-up every size pays: interpreter, numpy, stepper's modules; "
+              f"python3 with numpy alone: {python_numpy:.0f} MB, so no Python command meets the memory target "
+              f"on a table below {python_numpy / 1.5:.0f} MB)", flush=True)
         for mu in args.log2n:
             raw = 3 * (1 << mu) * field.elem_bytes
             if not args.synthetic:
@@ -240,7 +281,9 @@ def main() -> None:
                       f"(target <= 3x; round 1 counted over base elements, as before: {earlier:.2f} s = "
                       f"{(full - plain) / earlier:.1f}x) | peak {rss:.0f} MB = {rss * 2**20 / table_raw:.2f}x one table "
                       f"({table_raw / 2**20:.0f} MiB; target < 1.5x; the same command at 2^15: {floor:.0f} MB) "
-                      f"| {wall:.0f} s wall", flush=True)
+                      f"| {wall:.0f} s wall | {verdict((full - plain) / kernels, rss * 2**20 / table_raw)}", flush=True)
+                if kind == "folder" and not args.no_kernels:
+                    print(kernels_side_by_side(transcript, witness, mu, args.repeat), flush=True)
                 if kind == "folder" and not args.no_dask and importlib.util.find_spec("dask") is not None:
                     print(f"2^{mu} {dask_overhead(transcript, witness, args.repeat)}", flush=True)
                 if witness.is_dir():

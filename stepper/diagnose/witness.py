@@ -24,7 +24,9 @@ transcript instances and checks their tables against the field.
 from __future__ import annotations
 
 import json
+import mmap
 import os
+import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
@@ -32,13 +34,14 @@ from typing import Any, Mapping, Sequence, Union
 
 import numpy as np
 
-from stepper.diagnose.witness_json import put_back, split_tables
+from stepper.diagnose.witness_json import MIN_BYTES, Text, put_back, split_tables
 from stepper.errors import ExpressionError, WitnessError, Where
 from stepper.field.expr import Expr, parse
 
 __all__ = ["Witness", "WitnessInstance", "WitnessLimits", "load_witness", "witness_from_map", "json_depth"]
 
 MAX_INSTANCES = 1 << 16
+_FIRST_BYTE = re.compile(rb"[^ \t\n\r\x0b\x0c]")  # the first byte bytes.lstrip() would keep
 
 
 @dataclass(frozen=True, slots=True)
@@ -123,11 +126,33 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
             "expected a JSON, msgpack or .npz witness, found a single .npy array "
             "(name it from a JSON witness: \"tables\": {\"NAME\": \"file.npy\"})", where)
     try:
-        data = path.read_bytes()
-    except OSError as err:
-        raise WitnessError(f"expected a readable witness file, found {err.strerror or err}", where) from None
-    stripped = data.lstrip()
-    if stripped[:1] in (b"{", b"["):
+        data = _text_of(path, size)
+    except (OSError, ValueError) as err:
+        raise WitnessError(f"expected a readable witness file, found {getattr(err, 'strerror', None) or err}",
+                           where) from None
+    try:
+        return _from_text(data, path, where, limits)
+    finally:
+        if isinstance(data, mmap.mmap):
+            try:
+                data.close()
+            except BufferError:  # an array still reads from it: the mapping goes with that array
+                pass
+
+
+def _text_of(path: Path, size: int) -> Text:
+    """The file's bytes; a large file as a read-only memory mapping instead, whose pages the JSON
+    reader hands back as it goes (:mod:`stepper.diagnose.witness_json`)."""
+    if size < MIN_BYTES:
+        return path.read_bytes()
+    with path.open("rb") as handle:
+        return mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+
+
+def _from_text(data: Text, path: Path, where: Where, limits: WitnessLimits) -> Witness:
+    """A JSON or msgpack witness from its bytes (or their mapping)."""
+    opening = _FIRST_BYTE.search(data)
+    if opening is not None and opening.group() in (b"{", b"["):
         text, nesting, arrays = split_tables(data)  # large integer arrays read whole by numpy
         depth = json_depth(nesting)
         if depth > limits.max_depth:
@@ -139,7 +164,7 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
             except ValueError:  # JSON or UTF-8 errors: decoded again whole, to name the place in the file itself
                 if not arrays:
                     raise
-                raw = json.loads(data.decode("utf-8"))
+                raw = json.loads(bytes(data).decode("utf-8"))
         except UnicodeDecodeError as err:
             raise WitnessError(f"expected UTF-8 JSON, found an invalid byte at byte {err.start}", where) from None
         except json.JSONDecodeError as err:
@@ -148,7 +173,7 @@ def load_witness(path: str | os.PathLike[str], limits: WitnessLimits | None = No
             raise limits.refuse("lists and maps nested at most {limit} deep", "max_depth",
                                 "more levels than Python can decode", where) from None
     else:
-        raw = _unpack_msgpack(data, where, limits)
+        raw = _unpack_msgpack(bytes(data), where, limits)
     return witness_from_map(raw, where, base_dir=path.parent, limits=limits)
 
 

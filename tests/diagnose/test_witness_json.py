@@ -8,14 +8,24 @@ refuses) must be left to it whole.
 from __future__ import annotations
 
 import json
+import mmap
 import random
 
 import numpy as np
 import pytest
 
+from stepper.diagnose import witness_json
 from stepper.diagnose.witness import load_witness
 from stepper.diagnose.witness_json import MIN_BYTES, put_back, split_tables
 from stepper.errors import WitnessError
+
+
+@pytest.fixture(autouse=True, params=[witness_json.BLOCK_BYTES, 4096, 300], ids=["block-1MiB", "block-4KiB", "block-300B"])
+def block_bytes(request, monkeypatch):
+    """Every test once with the usual blocks (one block per test table) and with small ones, so
+    that blocks end at every kind of place: inside a row, after one, in white space."""
+    monkeypatch.setattr(witness_json, "BLOCK_BYTES", request.param)
+    return request.param
 
 P = 2013265921  # BabyBear, 15 * 2^27 + 1 (common practice, no source)
 
@@ -39,7 +49,7 @@ def _decoded(data: bytes) -> object:
 def _same(ours: object, reference: object) -> bool:
     """Equal as values, an array standing for the list of lists json.loads makes."""
     if isinstance(ours, np.ndarray):
-        return ours.dtype == np.uint64 and ours.tolist() == reference
+        return ours.dtype in (np.uint32, np.uint64) and ours.tolist() == reference
     if isinstance(ours, dict):
         return isinstance(reference, dict) and ours.keys() == reference.keys() and all(
             _same(ours[key], reference[key]) for key in ours)
@@ -137,3 +147,25 @@ def test_a_malformed_witness_is_named_at_its_line_in_the_file_itself(tmp_path) -
         json.loads(path.read_text())
     assert reference.value.lineno > 40_000  # past the tables, which the placeholders shorten to a line each
     assert f"line {reference.value.lineno}, byte {reference.value.pos}:" in str(caught.value)
+
+
+def test_arrays_of_32_bit_integers_are_kept_in_32_bits_and_wider_ones_in_64() -> None:
+    narrow = _rows(20_000, 4)
+    narrow[-1][-1] = 2**32 - 1
+    wide = _rows(20_000, 4, seed=5)
+    wide[-1][-1] = 10**19 - 1  # the largest of 19 digits (past 2^63), in the last block
+    decoded, arrays = _decoded(json.dumps(_witness(narrow, wide)).encode())
+    assert [a.dtype for a in arrays] == [np.uint32, np.uint64]
+    assert _same(decoded, _witness(narrow, wide))  # reference: the input itself
+
+
+def test_a_memory_mapped_text_gives_what_its_bytes_give(tmp_path) -> None:
+    path = tmp_path / "w.json"
+    path.write_text(json.dumps(_witness(_rows(20_000, 4), _rows(20_000, 1)), indent=1))
+    with path.open("rb") as handle:
+        mapped = mmap.mmap(handle.fileno(), 0, access=mmap.ACCESS_READ)
+        from_map = split_tables(mapped)
+    from_bytes = split_tables(path.read_bytes())
+    assert from_map[:2] == from_bytes[:2]
+    assert [a.tolist() for a in from_map[2]] == [a.tolist() for a in from_bytes[2]]
+    assert len(from_map[2]) == 2

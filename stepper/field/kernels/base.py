@@ -50,7 +50,7 @@ __all__ = ["Kernel", "COMPILED_MIN", "COMPILED_WORK_MIN", "HELD_BACK", "load_com
 
 COMPILED_MIN = 1 << 14  # below this numpy wins: numba's first use in a process costs about a second
 # table entries a piece of work (the root cause) must reach before loading numba pays for itself
-COMPILED_WORK_MIN = 1 << 25
+COMPILED_WORK_MIN = 1 << 26
 
 _compiled: ModuleType | None = None
 _compiled_tried = False
