@@ -33,8 +33,11 @@ process, interleaved, best of ``--fresh`` runs each, wall and CPU (the child's o
 children included: the app's CPU is its process plus the child that checked). Both
 run once first, unmeasured, with bytecode caching allowed (PYTHONDONTWRITEBYTECODE
 removed for them), so each side starts from cached bytecode as an installed package
-does. The stages of the fastest app run follow ("fresh timeline": wall seconds since
-the process was created, and its own CPU seconds).
+does. Beside them, interleaved, the real command: ``python3 -m stepper view FILE`` in a new
+pseudo-terminal of 140x44, timed until the screen it writes says every round is checked
+("view in a terminal": terminal output included, as a person sees it). The stages of the
+fastest headless app run follow ("fresh timeline": wall seconds since the process was
+created, and its own CPU seconds).
 
 Prints the figures and the large/small ratios, measured in the same run.
 
@@ -197,13 +200,56 @@ def check_seconds(path: Path) -> tuple[float, float]:
     return time.perf_counter() - start, time.process_time() - start_cpu
 
 
+# What the app draws once every round is checked while it still reads the rounds for stepping
+# (the where-bar's progress and the summary's loading line); a fresh `stepper view` in a
+# pseudo-terminal is timed until one of them reaches the terminal.
+CHECKED_ON_SCREEN = (b"all checked", b"every round checked")
+
+
+def in_terminal(path: Path, env: dict[str, str], size: tuple[int, int] = (140, 44),
+                limit: float = 60.0) -> tuple[float, float]:
+    """Wall and CPU seconds (with its child) of ``python3 -m stepper view PATH`` in a new
+    pseudo-terminal of ``size`` until its output says every round is checked; then it is killed
+    (SIGKILL: the measure ends there, its tear-down is not in it)."""
+    import fcntl
+    import pty
+    import select
+    import signal
+    import struct
+    import termios
+
+    cpu, start = children_cpu(), time.perf_counter()
+    pid, terminal = pty.fork()
+    if pid == 0:  # the new process, on the pseudo-terminal
+        os.execvpe(sys.executable, [sys.executable, "-m", "stepper", "view", str(path), "--exports",
+                                    str(path.parent)], env)
+    fcntl.ioctl(terminal, termios.TIOCSWINSZ, struct.pack("HHHH", size[1], size[0], 0, 0))
+    seen, tail = None, b""
+    while seen is None and time.perf_counter() - start < limit:
+        if select.select([terminal], [], [], 0.05)[0]:
+            try:
+                chunk = os.read(terminal, 1 << 16)
+            except OSError:  # the app ended before saying so
+                break
+            tail = tail[-64:] + chunk  # a phrase may straddle two reads
+            if any(phrase in tail for phrase in CHECKED_ON_SCREEN):
+                seen = time.perf_counter() - start
+    os.kill(pid, signal.SIGKILL)
+    os.waitpid(pid, 0)
+    os.close(terminal)
+    if seen is None:
+        raise SystemExit(f"stepper view {path} never said every round was checked within {limit} s")
+    return seen, children_cpu() - cpu
+
+
 def fresh_pair(path: Path, repeat: int) -> tuple[dict[str, float], str]:
-    """Best-of-``repeat`` wall and CPU of the app until every round is checked and shown, and of
-    `stepper check`, each in a new process, the two interleaved; and the stages of the fastest
-    app run."""
+    """Best-of-``repeat`` wall and CPU of the app until every round is checked and shown
+    (headless, and as `stepper view` in a pseudo-terminal), and of `stepper check`, each in a new
+    process, the three interleaved; and the stages of the fastest headless app run."""
     sides = {"app": [sys.executable, str(Path(__file__).with_name("app_fresh.py")), str(path), "--timeline"],
              "check": [sys.executable, "-m", "stepper", "check", str(path)]}
     env = {name: value for name, value in os.environ.items() if name != "PYTHONDONTWRITEBYTECODE"}
+    env.setdefault("TERM", "xterm-256color")
     for command in sides.values():  # unmeasured: bytecode cached, the file in the page cache
         subprocess.run(command, capture_output=True, env=env)
     best: dict[str, float] = {}
@@ -219,8 +265,13 @@ def fresh_pair(path: Path, repeat: int) -> tuple[dict[str, float], str]:
                 timeline = done.stderr
             best[f"{side} wall s"] = min(best.get(f"{side} wall s", wall), wall)
             best[f"{side} cpu s"] = min(best.get(f"{side} cpu s", cpu), cpu)
+        wall, cpu = in_terminal(path, env)
+        best["view in a terminal wall s"] = min(best.get("view in a terminal wall s", wall), wall)
+        best["view in a terminal cpu s"] = min(best.get("view in a terminal cpu s", cpu), cpu)
     best["app / check wall"] = best["app wall s"] / best["check wall s"]
     best["app / check cpu"] = best["app cpu s"] / best["check cpu s"]
+    best["view / check wall"] = best["view in a terminal wall s"] / best["check wall s"]
+    best["view / check cpu"] = best["view in a terminal cpu s"] / best["check cpu s"]
     return best, timeline
 
 
@@ -252,7 +303,7 @@ def main(argv: list[str] | None = None) -> int:
         print(f"\nfresh processes on the large file, best of {args.fresh} each, interleaved "
               "(app: until every round is checked and shown)")
         for key, value in fresh.items():
-            print(f"fresh {key:20}{value:12.2f}")
+            print(f"fresh {key:28}{value:12.2f}")
         print("the fastest app run, stage by stage (wall since the process was created; its own CPU, "
               "the child's not included):")
         for stage in timeline.splitlines():

@@ -156,6 +156,11 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
             "interleaved, best of 5", "python3 bench/app.py", "<= 2x (the issue's baseline)",
             _all(r"^fresh (app wall s|check wall s|app / check wall|app / check cpu)\s+([\d.]+)",
                  lambda ms: "; ".join(f"{m[1]} {m[2]}" for m in ms))),
+        Row("`python3 -m stepper view` in a pseudo-terminal (140x44) until its screen says every round is "
+            "checked vs `python3 -m stepper check`, fresh processes, interleaved, best of 5",
+            "python3 bench/app.py", "<= 2x (the issue's baseline)",
+            _all(r"^fresh (view in a terminal wall s|view / check wall|view / check cpu)\s+([\d.]+)",
+                 lambda ms: "; ".join(f"{m[1]} {m[2]}" for m in ms))),
     ]),
     "follow": ([], ["--instances", "1000"], [
         Row("`view --follow`: one poll after an append, incremental vs full re-read", "python3 bench/follow.py",
