@@ -207,20 +207,21 @@ def _read_block(span: np.ndarray, state: _Reading, opening: bool, closing: bool)
     """The numbers of one block of an array's text, checked against the separators the shape
     calls for; the first block (``opening``) starts with the array's "[" and fixes the shape,
     every other one starts with a number; the last (``closing``) ends with the array's "]"."""
-    low = span <= 32
-    if bool(low.any()):
+    if int(span.min()) <= 32:  # white space or control characters (compact text has none)
+        low = span <= 32
         if not bool(np.isin(span[low], _JSON_SPACE).all()):
             return None
         kept = span[~low]
         if _count_numbers(kept) != _count_numbers(span):  # white space alone between two numbers
             return None
         span = kept
-    del low
+        del low
     digit = (span - np.uint8(48)) < 10  # wraps below "0"
     if digit[-1] or bool(digit[0]) == opening:
         return None
-    starts = np.flatnonzero(digit & ~np.concatenate(([False], digit[:-1])))
-    ends = np.flatnonzero(digit & ~np.concatenate((digit[1:], [False])))
+    # where digits begin and where they stop, alternately (the block ends on a separator)
+    bounds = np.flatnonzero(np.diff(digit, prepend=False))
+    starts, ends = bounds[0::2], bounds[1::2] - 1
     count = len(starts)
     if not count:
         return None
