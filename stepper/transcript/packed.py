@@ -15,7 +15,8 @@ their challenge, packed exactly as the writer packs them (a round's values in on
 ``bin 8``), so the reader's hot loop can decode a whole run of them in C before making
 the records. :class:`GlueRun` does the same for the glue events after a run (a ``value``,
 ``squeeze`` or ``opening`` of one element, named in a fixstr, no ``table`` key): their
-name and element bytes in one regular-expression pass, without a map per event.
+name and element bytes in one regular-expression pass, without a map per event, and
+:class:`InstanceHead` for an ``instance`` event in the writer's plainest form.
 """
 
 from __future__ import annotations
@@ -291,3 +292,42 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     names = picked[:-1].tobytes().decode("ascii").split("\n")
     elements = u8[(ends - width)[:, None] + np.arange(width)]
     return GlueColumnsRead(codes, names, elements, ends)
+
+
+# An instance event as the writer packs one with no optional key: a map of five entries, "type":
+# "instance", "name" (a fixstr), "num_vars" and "degree" (positive fixints: below 128), "claim" (one
+# element in a bin 8 of the element's width); to_payload's key order.
+_INSTANCE_HEAD = b"\x85\xa4type\xa8instance\xa4name"
+
+
+class InstanceHead:
+    """Finds an ``instance`` event of ``width``-byte elements packed as the writer packs one without
+    ``order``, ``form``, a batch or glue keys (see ``_INSTANCE_HEAD``) at an offset of a chunk, in
+    one regular-expression match: call it with the chunk and the offset to get (the event's end,
+    the name's UTF-8 bytes, num_vars, degree, the claim's bytes), or None. Nothing is judged but
+    the layout: the caller gives the same payload to the Sequencer, which checks the values."""
+
+    __slots__ = ("_width", "_patterns")
+
+    def __init__(self, width: int) -> None:
+        self._width = width
+        self._patterns: dict[int, Callable[[bytes, int], re.Match[bytes] | None]] = {}  # by the name's length
+
+    def _pattern(self, length: int) -> Callable[[bytes, int], re.Match[bytes] | None]:
+        pattern = re.compile(re.escape(_INSTANCE_HEAD + bytes((0xA0 + length,))) + b"(.{%d})" % length
+                             + re.escape(b"\xa8num_vars") + b"([\x00-\x7f])" + re.escape(b"\xa6degree")
+                             + b"([\x00-\x7f])" + re.escape(b"\xa5claim" + bytes((_BIN8, self._width)))
+                             + b"(.{%d})" % self._width, re.DOTALL)
+        self._patterns[length] = pattern.match
+        return pattern.match
+
+    def __call__(self, data: bytes, at: int) -> tuple[int, bytes, int, int, bytes] | None:
+        head = at + len(_INSTANCE_HEAD)
+        if head >= len(data) or not 0xA0 <= data[head] < 0xC0:
+            return None
+        length = data[head] - 0xA0
+        match = (self._patterns.get(length) or self._pattern(length))(data, at)
+        if match is None:
+            return None
+        name, num_vars, degree, claim = match.groups()
+        return match.end(), name, num_vars[0], degree[0], claim

@@ -45,7 +45,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator
 import msgpack
 
 from stepper.errors import Where
-from stepper.transcript.packed import GlueRun
+from stepper.transcript.packed import GlueRun, InstanceHead
 from stepper.transcript.store.pending import pending_path
 from stepper.transcript.events import KNOWN_TYPES, Sequencer
 from stepper.transcript.store.reader import (
@@ -147,6 +147,7 @@ class _Sweeper:
         self.window: tuple[bytes, int] = (b"", 0)  # the chunk last fed to the unpacker, its unpacker offset
         self.fed = 0  # bytes fed to the unpacker
         self.glue_run: GlueRun | None = None  # set with the field
+        self.instance_head: InstanceHead | None = None  # set with the field
         self.glue_event_max = 0  # the most bytes of one event glue_run reads
         self.glue_unpacked = False  # some glue event of the runs read so far was unpacked (not in a blob)
 
@@ -276,6 +277,7 @@ class _Sweeper:
         self.kernel = block_kernel(field)
         self.glue = GlueChecks(field, self.kernel)
         self.glue_run = GlueRun(field.elem_bytes)
+        self.instance_head = InstanceHead(field.elem_bytes)
         self.glue_event_max = 59 + field.elem_bytes  # a kind of 7 letters, a name of 31, the element
         steady_heap()  # numpy temporaries of a block: reuse freed memory, no page faults
 
@@ -295,18 +297,66 @@ class _Sweeper:
             raise _GiveUp("no final after the rounds")
         self.seq.account_run(start.num_vars)
         self.runs.append((start, head, rest, layout))
+        self._after_runs(start.num_vars, start.num_vars * layout.stride)
+        if not self.due:
+            self._take_instances()
+
+    def _after_runs(self, rows: int, size: int) -> None:
+        """Book ``rows`` rounds of ``size`` bytes just taken as runs (the last run's glue after it
+        taken too), and check the block once it is full."""
         tail: list[Any] = []
         self.trailing.append(tail)
         self.glue_tail = tail if self.seq.glue else None
         if self.glue_tail is not None:
             self._take_glue(tail)
-        self.rows += start.num_vars
-        self.pending_bytes += start.num_vars * layout.stride
+        self.rows += rows
+        self.pending_bytes += size
         if self.rows >= BLOCK_ROUNDS or self.pending_bytes >= self.limits.chunk_bytes * 8:
             if self.glue_tail is None:
                 self._flush()  # a file without glue events: nothing after the run waits to be checked with it
             else:
                 self.due = True
+
+    def _take_instances(self) -> None:
+        """Take the instances that follow, each an ``instance`` event in the writer's plainest form
+        (:class:`~stepper.transcript.packed.InstanceHead`) right followed by its run in the last run's
+        layout, while they lie whole in the chunk last read and the block has room: found in the
+        chunk's bytes and taken with one ``read_bytes``, no map per instance event. Each event's
+        payload (the one msgpack would have made) still goes through the Sequencer, in order."""
+        layout, find = self.layout, self.instance_head
+        data, data_at = self.window
+        first = at = self.unpacker.tell() - data_at
+        if layout is None or find is None or at < 0:
+            return
+        prefix, final_prefix, stride, final_len = layout.round_prefix, layout.final_prefix, layout.stride, layout.final_len
+        most, rows, size, limit = len(data), self.rows, self.pending_bytes, self.limits.chunk_bytes * 8
+        found: list[tuple[int, bytes, int, int, bytes]] = []  # the end of each instance event, its fields
+        while rows < BLOCK_ROUNDS and size < limit:
+            head = find(data, at)
+            if head is None:
+                break
+            head_end, name, num_vars, degree, claim = head
+            end = head_end + num_vars * stride + final_len
+            if (end > most or num_vars == 0 or layout.values > degree + 1 or not data.startswith(prefix, head_end)
+                    or not data.startswith(final_prefix, end - final_len)):
+                break  # the usual path takes it (and judges it)
+            found.append(head)
+            rows += num_vars
+            size += num_vars * stride
+            at = end
+        if not found:
+            return
+        blob = memoryview(self.unpacker.read_bytes(at - first))
+        seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
+        for j, (head_end, name, num_vars, degree, claim) in enumerate(found):
+            start = seq.feed({"type": "instance", "name": name.decode(), "num_vars": num_vars, "degree": degree,
+                              "claim": claim})
+            seq.account_run(num_vars)
+            at = head_end - first + len(prefix)
+            runs.append((start, prefix, blob[at:at + num_vars * stride + final_len - len(prefix)], layout))  # type: ignore[arg-type]
+            if j < last:
+                trailing.append([])  # no glue: the next instance event follows the run
+        self._after_runs(rows - self.rows, size - self.pending_bytes)
 
     def _take_glue(self, tail: list[Any]) -> None:
         """Take the glue events right after a run that are packed as the writer packs them

@@ -122,6 +122,9 @@ class Knobs:
     glue: bool = False  # every instance: a point value before it, final_expr, openings and a squeeze after
     # it, and claim_expr over the previous instance's glue (not on batched instances)
     appended: int = 0  # notes appended after the end event
+    names: tuple[str, ...] = ()  # when given, instance i is named names[i % len(names)] + its index
+    glue_after_only: bool = False  # with glue: only the openings and squeezes after each run (no point
+    # value before an instance, no claim_expr or final_expr)
     fault: str | None = None
     seed: int = 0
 
@@ -222,10 +225,12 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
         glue_keys: dict[str, str] = {}
         if knobs.glue:
             w = [element(ar, rng) for _ in range(num_vars)]
-            put({"type": "value", "name": f"w{i}", "value": [ar.json(x) for x in w]})
+            if not knobs.glue_after_only:
+                put({"type": "value", "name": f"w{i}", "value": [ar.json(x) for x in w]})
             evaluation = rng.choice(EVALUATIONS)
-            glue_keys["final_expr"] = evaluation[0].format(i=i)
-            if previous is not None and not batched:
+            if not knobs.glue_after_only:
+                glue_keys["final_expr"] = evaluation[0].format(i=i)
+            if previous is not None and not batched and not knobs.glue_after_only:
                 link = rng.choice(LINKS)
                 glue_keys["claim_expr"] = link[0].format(j=previous[0])
                 claim = link[1](ar, *previous[1:])
@@ -237,7 +242,8 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
             for term in terms:
                 claim, power = ar.add(claim, ar.mul(power, term)), ar.mul(power, coefficient)
             put({"type": "batch", "coefficient": ar.json(coefficient), "terms": [ar.json(t) for t in terms]})
-        put({"type": "instance", "name": f"boarding-permutation-{i}", "num_vars": num_vars, "degree": degree,
+        name = f"{knobs.names[i % len(knobs.names)]}{i}" if knobs.names else f"boarding-permutation-{i}"
+        put({"type": "instance", "name": name, "num_vars": num_vars, "degree": degree,
              "claim": ar.json(bump(ar, claim) if faulty == "claim" else claim), "form": form,
              "order": (order := rng.choice(["low-first", "high-first"])), **glue_keys})
         regular = regular and form == "evals" and not batched and final and not ragged
@@ -552,6 +558,32 @@ def test_instances_alternating_two_degrees_are_checked_in_few_blocks(tmp_path, m
     written = write_transcript(tmp_path / "mixed.sumtr", Knobs(instances=100, max_vars=4, degrees=(3, 2), seed=22))
     assert_same_report(written.path, 20)
     assert len(calls) <= 4
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "bn254", "babybear^4"])
+@pytest.mark.parametrize("glue", [False, True])
+@pytest.mark.parametrize("chunk", [300, 1 << 20])
+def test_instances_found_in_the_chunks_bytes_report_as_the_replay(tmp_path, monkeypatch, field, glue, chunk):
+    # names of every kind: short, the longest fixstr, too long for one (str 8), not ASCII, holding the
+    # bytes of the keys after a name; high-first instances (an order key) and blocks of 7 rounds between
+    found = []
+    real = sweep_module.InstanceHead
+
+    class Spy(real):  # type: ignore[misc, valid-type]
+        def __call__(self, data: bytes, at: int):  # type: ignore[no-untyped-def]
+            head = super().__call__(data, at)
+            found.append(head is not None)
+            return head
+
+    monkeypatch.setattr(sweep_module, "InstanceHead", Spy)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 7)
+    names = ("", "x" * 29, "y" * 33, "gangway-\u00e5-", "\xa8num_vars\x05")
+    written = write_transcript(tmp_path / "named.sumtr", Knobs(field=field, instances=40, max_vars=5, names=names,
+                                                               glue=glue, glue_after_only=True, seed=40))
+    assert_same_report(written.path, 20, ReadLimits(chunk_bytes=chunk))
+    assert_same_report(written.path, 3, ReadLimits(chunk_bytes=chunk))
+    assert not all(found)  # the names too long for a fixstr and the high-first instances: the usual path
+    assert any(found) or chunk < 1000  # from the bytes: those that lie whole in a chunk
 
 
 def test_a_file_without_glue_is_checked_block_by_block_not_whole(tmp_path, monkeypatch):

@@ -1,0 +1,66 @@
+"""stepper.transcript.packed.InstanceHead: an instance event found in a chunk's bytes reads back as
+msgpack-python (the reference decoder, an outside implementation of the msgpack specification)
+decodes the same bytes, for every name length a fixstr holds, and anything packed otherwise (a longer
+name, an optional key, counts past a positive fixint, another element width, bytes cut short) is
+left alone (None), so the usual path decodes and judges it.
+"""
+
+from __future__ import annotations
+
+import msgpack
+import pytest
+
+from stepper.field.field import NAMED_PRIMES, get_field
+from stepper.transcript.model import InstanceStart
+from stepper.transcript.packed import InstanceHead
+from stepper.transcript.payloads import to_payload
+
+BN254 = get_field(NAMED_PRIMES["bn254"])
+GOLDILOCKS = get_field(NAMED_PRIMES["goldilocks"])
+
+
+def packed_instance(field, name: str, num_vars: int = 24, degree: int = 3, claim: int = 5, **keys) -> bytes:
+    """The bytes the writer stores for an instance event (to_payload, then msgpack as the writer packs)."""
+    start = InstanceStart(0, name, num_vars, degree, claim, **keys)
+    return msgpack.packb(to_payload(start, field, binary=True, packed=True), use_bin_type=True)
+
+
+@pytest.mark.parametrize("field", [GOLDILOCKS, BN254], ids=["goldilocks", "bn254"])
+@pytest.mark.parametrize("length", [0, 1, 13, 31])
+def test_a_writer_packed_instance_reads_as_msgpack_decodes_it(field, length):
+    name = "ferry-sailing-0123456789abcdefghij"[:length]
+    event = packed_instance(field, name, 17, 4, field.p - 1)
+    data = b"\x01\x02" + event + b"\x82\xa4type"  # other bytes around it: found at its offset, ends where it ends
+    found = InstanceHead(field.elem_bytes)(data, 2)
+    reference = msgpack.unpackb(event, raw=False)
+    assert found is not None
+    end, name_bytes, num_vars, degree, claim = found
+    assert end == 2 + len(event)
+    assert (name_bytes.decode(), num_vars, degree, claim) == (reference["name"], reference["num_vars"],
+                                                             reference["degree"], reference["claim"])
+    assert set(reference) == {"type", "name", "num_vars", "degree", "claim"}
+
+
+def test_non_ascii_names_are_found_as_their_utf8_bytes():
+    event = packed_instance(GOLDILOCKS, "bÃ¥tsmann-Ã¸st")
+    found = InstanceHead(8)(event, 0)
+    assert found is not None and found[1].decode() == msgpack.unpackb(event, raw=False)["name"]
+
+
+@pytest.mark.parametrize("case", ["name of 32 bytes", "order key", "form key", "num_vars 128", "degree 200",
+                                  "other width", "cut short", "another event", "offset inside"])
+def test_instances_packed_otherwise_are_left_to_the_usual_path(case):
+    find = InstanceHead(8)
+    event = {
+        "name of 32 bytes": lambda: packed_instance(GOLDILOCKS, "x" * 32),  # str 8, not a fixstr
+        "order key": lambda: packed_instance(GOLDILOCKS, "ferry", order="high-first"),
+        "form key": lambda: packed_instance(GOLDILOCKS, "ferry", form="coeffs"),
+        "num_vars 128": lambda: msgpack.packb({"type": "instance", "name": "ferry", "num_vars": 128, "degree": 3,
+                                               "claim": bytes(8)}, use_bin_type=True),
+        "degree 200": lambda: packed_instance(GOLDILOCKS, "ferry", degree=200),
+        "other width": lambda: packed_instance(BN254, "ferry"),
+        "cut short": lambda: packed_instance(GOLDILOCKS, "ferry")[:-1],
+        "another event": lambda: msgpack.packb({"type": "note", "text": "ferry"}, use_bin_type=True),
+        "offset inside": lambda: b"\x85" + packed_instance(GOLDILOCKS, "ferry"),
+    }[case]()
+    assert find(event, 0) is None
