@@ -50,6 +50,7 @@ from stepper.transcript.glue_rules import GlueRules
 
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
+    from stepper.field.shape import Element
 
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
            "MAX_DEGREE"]
@@ -330,7 +331,15 @@ class Sequencer(GlueRules, AnnotationRules):
             else:
                 claim_expr, final_expr, eq_point, final_parsed = self._instance_glue(payload, name, num_vars, degree,
                                                                                      form)
-        start: Any = InstanceStartDraft()  # every field checked above: skip the frozen __init__ (see RoundMsgDraft)
+        start = self._open(name, num_vars, degree, claim, order, form, claim_expr, final_expr, eq_point)
+        if final_parsed is not None:
+            self._expect_late(start, final_parsed)
+        return start
+
+    def _open(self, name: str, num_vars: int, degree: int, claim: Element, order: str, form: str,
+              claim_expr: str | None, final_expr: str | None, eq_point: Any) -> InstanceStart:
+        """The record of an instance event whose every field is checked, made the current instance."""
+        start: Any = InstanceStartDraft()  # every field checked: skip the frozen __init__ (see RoundMsgDraft)
         start.index, start.name, start.num_vars, start.degree, start.claim = (
             len(self.names), name, num_vars, degree, claim)
         start.order, start.form, start.batch = order, form, self.pending_batch
@@ -344,9 +353,23 @@ class Sequencer(GlueRules, AnnotationRules):
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
-        if final_parsed is not None:
-            self._expect_late(start, final_parsed)
-        return start
+        return start  # type: ignore[no-any-return]
+
+    def plain_instance(self, name: str, num_vars: int, degree: int, claim: bytes) -> InstanceStart:
+        """``feed`` of the payload {"type": "instance", "name": name, "num_vars": num_vars, "degree":
+        degree, "claim": claim} and no other key (stepper.verify.sweep reads such events from bytes):
+        the same record and state by a short path where every value is plainly in range in a prime
+        field; anything else goes through ``feed``, which judges it."""
+        prime = self._prime_modulus
+        if (prime and self.pending_batch is None and self._late is None and len(name) <= MAX_TEXT
+                and 0 <= num_vars <= MAX_NUM_VARS and 0 <= degree <= MAX_DEGREE and claim.__class__ is bytes
+                and len(claim) == self._elem_bytes):
+            value = int.from_bytes(claim, "little")
+            if value < prime:
+                self.count += 1
+                return self._open(name, num_vars, degree, value, "low-first", "evals", None, None, None)
+        return self.feed({"type": "instance", "name": name, "num_vars": num_vars, "degree": degree,  # type: ignore[return-value]
+                          "claim": claim})
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()

@@ -85,6 +85,9 @@ class Replay:
         self._rounds = RoundDesk(self._source, self._glue, self._ledger, emit_passing=self.emit_passing,
                                  plugin=challenger is not None)
         self._finished = False
+        # what settling an unkept instance still does once no summary is kept and nothing else would
+        # happen on opening its statement: the schedule absorbs the statement (None: the full path)
+        self._quiet_statement: Callable[[InstanceStart], None] | None = None
         if field is not None:
             self._source.set_field(field)
 
@@ -140,6 +143,11 @@ class Replay:
         results, and the caller checks them by the block (:mod:`stepper.verify.glue_block`).
         Returns whether the instance's summary is kept (its glue then goes to :meth:`settle_glue`;
         otherwise :meth:`settle_glue_values` will do)."""
+        quiet = self._quiet_statement
+        if quiet is not None and self._live is None and start.batch is None and self._pending_batch is None:
+            quiet(start)  # all that _open_statement does here: no instance open, no plug-in history
+            self._ledger.passed_unkept(start)
+            return False
         if (self.field is None or self.challenger is not None or self.emit_passing or start.batch is not None
                 or self._pending_batch is not None):
             raise ValueError("expected a summary replay with a field, no plug-in and no pending batch to settle "
@@ -148,6 +156,9 @@ class Replay:
         ledger = self._ledger
         if not ledger.keeps_passing():
             ledger.passed_unkept(start)
+            source = self._source  # summaries are kept no more: later unkept instances take the quiet path
+            if source.history is None and source.stateful is None and (source.decl is not None or source.default is None):
+                self._quiet_statement = source.schedule.observe if source.schedule is not None else _absorb_nothing
             return False
         live = LiveInstance(start, False)
         self._live = live
@@ -322,6 +333,10 @@ class Replay:
         return Report(self.field, ledger.verdict(completeness), ledger.first,  # type: ignore[arg-type]
                       tuple(ledger.summaries), dict(ledger.counts), ledger.soundness(self.field),
                       tuple(self._source.findings), self.challenges, completeness, PASSING_REPLAY_WARNING)
+
+
+def _absorb_nothing(start: InstanceStart) -> None:
+    """The statement of an instance settled with no schedule: nothing absorbs it."""
 
 
 def transcript_events(transcript: Transcript) -> Iterable[Event]:

@@ -349,8 +349,7 @@ class _Sweeper:
         blob = memoryview(self.unpacker.read_bytes(at - first))
         seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
         for j, (head_end, name, num_vars, degree, claim) in enumerate(found):
-            start = seq.feed({"type": "instance", "name": name.decode(), "num_vars": num_vars, "degree": degree,
-                              "claim": claim})
+            start = seq.plain_instance(name.decode(), num_vars, degree, claim)
             seq.account_run(num_vars)
             at = head_end - first + len(prefix)
             runs.append((start, prefix, blob[at:at + num_vars * stride + final_len - len(prefix)], layout))  # type: ignore[arg-type]

@@ -632,3 +632,46 @@ def test_a_note_names_an_instance_far_back_and_the_last_of_a_repeated_name():
     assert seq.feed({"type": "note", "text": "pilot", "instance": "harbour-pilot"}).instance == 40
     with pytest.raises(TranscriptError, match="seen so far"):
         seq.feed({"type": "note", "text": "none", "instance": "sailing-3000"})
+
+
+def _instance_state(seq: Sequencer) -> tuple[object, ...]:
+    cur = seq.current
+    return (seq.count, len(seq.names), cur, seq.names.last(cur.name) if cur else None, seq.rounds_done,
+            seq.awaiting_challenge, seq.final_seen, seq.pending_batch)
+
+
+@pytest.mark.parametrize("case", ["plain", "bn254", "babybear^4", "num_vars past the cap", "degree past the cap",
+                                  "claim equal to p", "claim of another width", "name past the cap", "after a batch",
+                                  "an instance still open"])
+def test_a_plain_instance_gives_the_record_state_and_error_that_feeding_its_payload_gives(case):
+    field, name, num_vars, degree, p = "goldilocks", "sailing-0740", 3, 2, GOLDILOCKS
+    if case == "bn254":
+        field, p = "bn254", BN254_R
+    claim = (p - 1).to_bytes((p.bit_length() + 7) // 8, "little")
+    if case == "babybear^4":
+        field, claim = "babybear", b"".join(v.to_bytes(4, "little") for v in (1, 2, 3, BABYBEAR - 1))
+    num_vars = 65 if case == "num_vars past the cap" else num_vars  # MAX_NUM_VARS = 64
+    degree = (1 << 12) + 1 if case == "degree past the cap" else degree  # MAX_DEGREE = 2^12
+    claim = p.to_bytes(8, "little") if case == "claim equal to p" else claim
+    claim = claim[:-1] if case == "claim of another width" else claim
+    name = "x" * ((1 << 16) + 1) if case == "name past the cap" else name  # MAX_TEXT = 2^16
+    pair = []
+    for _ in range(2):
+        seq = Sequencer()
+        seq.feed({"type": "field", "name": field, **({"extension_degree": 4} if case == "babybear^4" else {})})
+        if case == "after a batch":
+            seq.feed({"type": "batch", "coefficient": 3, "terms": [1, 2]})
+        if case == "an instance still open":
+            seq.feed({"type": "instance", "name": "earlier", "num_vars": 2, "degree": 1, "claim": 0})
+        pair.append(seq)
+    payload = {"type": "instance", "name": name, "num_vars": num_vars, "degree": degree, "claim": claim}
+    outcomes = []
+    for seq, take in zip(pair, (lambda s: s.plain_instance(name, num_vars, degree, claim), lambda s: s.feed(payload))):
+        try:
+            outcomes.append(("record", take(seq)))
+        except TranscriptError as err:
+            outcomes.append(("error", str(err)))
+        outcomes.append(("state", _instance_state(seq)))
+    assert outcomes[:2] == outcomes[2:]
+    assert (outcomes[0][0] == "record") == (case in ("plain", "bn254", "babybear^4", "after a batch",
+                                                     "an instance still open"))
