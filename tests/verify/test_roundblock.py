@@ -32,7 +32,7 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer a
 from plain_sumcheck import Plain, lagrange  # noqa: E402
 from stepper.field.field import get_field  # noqa: E402
 from stepper.verify.roundblock import (  # noqa: E402
-    WideSamples, block_kernel, block_passes, evaluate_at, reduce_wide, supports,
+    WideSamples, _halve, block_kernel, block_passes, evaluate_at, reduce_wide, supports,
 )
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
@@ -112,6 +112,27 @@ def test_evaluate_at_agrees_with_galois_on_random_blocks(data):
     rows = [[data.draw(st.integers(0, p - 1)) for _ in range(m)] for _ in range(n)]
     points = [data.draw(st.integers(0, p - 1)) for _ in range(n)]
     assert evaluate_at(kernel(p), u64(rows), u64(points)).tolist() == galois_values(p, rows, points)
+
+
+P62 = 2**62 - 57  # a prime below 2^62 (from memory; checked with sympy.isprime below)
+
+
+@pytest.mark.parametrize("p", [GOLDILOCKS, P62])
+def test_a_half_by_shifting_equals_the_product_with_the_inverse_of_two(p):
+    # x / 2 = x * 2^-1 mod p, in plain Python integers (common practice, no source)
+    assert sympy.isprime(p)
+    rng = random.Random(p)
+    values = [0, 1, 2, 3, p - 2, p - 1, (p - 1) // 2, (p + 1) // 2] + [rng.randrange(p) for _ in range(200)]
+    assert _halve(u64(values), p).tolist() == [x * pow(2, -1, p) % p for x in values]
+
+
+@pytest.mark.parametrize("degree", [2, 3, 4])
+def test_evaluate_at_over_a_62_bit_prime_equals_galois_lagrange_interpolation(degree):
+    # the Newton form's 1/2 taken by a shift over every prime between 2^32 and 2^64, not only Goldilocks
+    rng = random.Random(degree)
+    rows = [[rng.randrange(P62) for _ in range(degree + 1)] for _ in range(5)] + [[P62 - 1] * (degree + 1)]
+    points = [rng.randrange(P62) for _ in range(5)] + [P62 - 1]
+    assert evaluate_at(kernel(P62), u64(rows), u64(points)).tolist() == galois_values(P62, rows, points)
 
 
 def test_evaluate_at_the_nodes_gives_back_the_evaluations():
