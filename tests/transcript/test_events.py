@@ -314,6 +314,27 @@ def test_stream_refuses_non_canonical_goldilocks_values_like_feed(value):
     assert messages[0] == messages[1] and "element 0" in messages[0]
 
 
+@pytest.mark.parametrize("field_event, width", [
+    ({"type": "field", "name": "babybear", "extension_degree": 4}, "I"),
+    ({"type": "field", "name": "goldilocks", "extension_degree": 2}, "Q"),
+])
+def test_an_extension_claim_packed_as_bytes_is_its_coefficients_and_a_coefficient_of_p_is_refused(field_event, width):
+    # k little-endian coefficients, constant first (transcripts/FORMAT.md); p of each field: see above
+    p, k = (BABYBEAR, 4) if width == "I" else (GOLDILOCKS, 2)
+    coefficients = tuple(range(p - k, p))  # the largest canonical coefficients
+    seq = Sequencer()
+    seq.feed(field_event)
+    start = seq.feed({"type": "instance", "name": "deck-slots", "num_vars": 1, "degree": 1,
+                      "claim": struct.pack(f"<{k}{width}", *coefficients)})
+    assert start.claim == coefficients
+    for bad in range(k):  # each coefficient in turn equal to p
+        seq = Sequencer()
+        seq.feed(field_event)
+        claim = struct.pack(f"<{k}{width}", *(p if i == bad else 0 for i in range(k)))
+        with pytest.raises(TranscriptError, match="claim"):
+            seq.feed({"type": "instance", "name": "deck-slots", "num_vars": 1, "degree": 1, "claim": claim})
+
+
 # ----- packed runs of rounds decoded from the bytes fed (the reader's window) ----------------------------------------
 class CountingUnpacker(msgpack.Unpacker):
     """A msgpack Unpacker that counts the bytes the hot loop takes from it without unpacking."""
