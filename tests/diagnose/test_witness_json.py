@@ -20,7 +20,7 @@ from stepper.diagnose.witness_json import MIN_BYTES, put_back, split_tables
 from stepper.errors import WitnessError
 
 
-@pytest.fixture(autouse=True, params=[witness_json.BLOCK_BYTES, 4096, 300], ids=["block-1MiB", "block-4KiB", "block-300B"])
+@pytest.fixture(autouse=True, params=[witness_json.BLOCK_BYTES, 2048], ids=["block-1MiB", "block-2KiB"])
 def block_bytes(request, monkeypatch):
     """Every test once with the usual blocks (one block per test table) and with small ones, so
     that blocks end at every kind of place: inside a row, after one, in white space."""
