@@ -2,6 +2,7 @@
 
     python3 bench/fuzz.py --minutes 30           # a long run
     python3 bench/fuzz.py --inputs 500 --seed 7  # the short fixed-seed run the test suite makes
+    python3 bench/fuzz.py --inputs 125 --seed 7 --skip 125  # inputs 126 to 250 of that run alone
 
 Inputs (bench/fuzz_inputs.py): transcripts (bytes flipped, cut, slices repeated or removed, one event
 changed with the digest recomputed), JSON-lines event streams, witness files (JSON and msgpack;
@@ -198,7 +199,7 @@ def save_failure(corpus: Path, case: inputs.Case, target: str, problem: str) -> 
     return folder
 
 
-def replay_saved(folder: Path, timeout: float = 20.0) -> str | None:
+def replay_saved(folder: Path, timeout: float = 20.0, plugin_seconds: float = 1.0) -> str | None:
     """Run a corpus case again (in a scratch copy, so outputs never land in the corpus)."""
     case = json.loads((folder / "case.json").read_text())
     roles = {"input.sumtr": "T", "input.jsonl": "T", "seed.sumtr": "S", "witness.json": "W", "plug.py": "P",
@@ -206,16 +207,16 @@ def replay_saved(folder: Path, timeout: float = 20.0) -> str | None:
     files = {roles[p.name]: p.read_bytes() for p in folder.iterdir() if p.name in roles}
     with tempfile.TemporaryDirectory(prefix="stepper-fuzz-replay-") as scratch:
         paths = lay_out(Path(scratch), files, case["kind"])
-        with _plugin_limit():
+        with _plugin_limit(plugin_seconds):
             problem, _, _ = run_target(case["target"], paths, timeout)
     return problem
 
 
 @contextlib.contextmanager
-def _plugin_limit(seconds: str = "1") -> Any:
+def _plugin_limit(seconds: float = 1.0) -> Any:
     """A short time limit for the plug-in (the harness's own limit must be longer to tell the two apart)."""
     before = os.environ.get("STEPPER_CHALLENGES_SECONDS")
-    os.environ["STEPPER_CHALLENGES_SECONDS"] = seconds
+    os.environ["STEPPER_CHALLENGES_SECONDS"] = repr(seconds)
     try:
         yield
     finally:
@@ -227,9 +228,11 @@ def _plugin_limit(seconds: str = "1") -> Any:
 
 # ----- the run ----------------------------------------------------------------------------------------
 def fuzz(seconds: float, seed: int, corpus: Path | None, timeout: float,
-         progress: Callable[[dict[str, Any]], None] | None = None, max_inputs: int | None = None) -> dict[str, Any]:
+         progress: Callable[[dict[str, Any]], None] | None = None, max_inputs: int | None = None,
+         skip: int = 0, plugin_seconds: float = 1.0) -> dict[str, Any]:
     """Inputs for ``seconds`` of wall time or, given ``max_inputs``, exactly that many inputs (the same
-    ones for the same seed, however busy the machine is)."""
+    ones for the same seed, however busy the machine is). ``skip`` first makes and drops that many
+    inputs, so a run of N inputs can be split into parts that together run exactly the same ones."""
     rng = random.Random(seed)
     seeds = inputs.build_seeds()
     stop = {"now": False}
@@ -240,11 +243,11 @@ def fuzz(seconds: float, seed: int, corpus: Path | None, timeout: float,
     failures: list[dict[str, str]] = []
     started = time.monotonic()
     last_progress = started
-    cases = skipped = 0
+    cases = skipped = dropped = 0
     last_skip = ""
     if corpus is not None:
         corpus.mkdir(parents=True, exist_ok=True)
-    with tempfile.TemporaryDirectory(prefix="stepper-fuzz-") as scratch, _plugin_limit():
+    with tempfile.TemporaryDirectory(prefix="stepper-fuzz-") as scratch, _plugin_limit(plugin_seconds):
         while not stop["now"] and (cases < max_inputs if max_inputs is not None
                                    else time.monotonic() - started < seconds):
             try:
@@ -252,6 +255,9 @@ def fuzz(seconds: float, seed: int, corpus: Path | None, timeout: float,
             except (RecursionError, ValueError, TypeError, OverflowError) as err:  # the mutator's own limits
                 skipped += 1
                 last_skip = f"{type(err).__name__}: {str(err)[:100]}"
+                continue
+            if dropped < skip:  # an earlier part's input: made (the generator moves on), not run
+                dropped += 1
                 continue
             cases += 1
             kinds[case.kind] = kinds.get(case.kind, 0) + 1
@@ -273,6 +279,7 @@ def fuzz(seconds: float, seed: int, corpus: Path | None, timeout: float,
                 progress(_summary(cases, counts, kinds, codes, failures, started, seed))
     signal.signal(signal.SIGTERM, previous)
     summary = _summary(cases, counts, kinds, codes, failures, started, seed)
+    summary["first_input"] = skip + 1  # of the seed's sequence (--skip)
     summary["mutations_skipped"] = skipped  # the mutator could not build the input (kept visible, not hidden)
     if last_skip:
         summary["last_skip"] = last_skip
@@ -296,6 +303,10 @@ def main() -> int:
     budget.add_argument("--seconds", type=float, help="how long to run (default 60)")
     budget.add_argument("--inputs", type=int, help="run exactly this many inputs, however long they take")
     parser.add_argument("--seed", type=int, default=1, help="random seed (same seed, same inputs)")
+    parser.add_argument("--skip", type=int, default=0,
+                        help="make and drop the first N inputs (a later part of the same seed's run)")
+    parser.add_argument("--plugin-seconds", type=float, default=1.0,
+                        help="time limit of one plug-in call (must stay well under --timeout)")
     parser.add_argument("--corpus", default=str(DEFAULT_CORPUS), help="where failing inputs are saved")
     parser.add_argument("--no-save", action="store_true", help="do not save failing inputs")
     parser.add_argument("--timeout", type=float, default=10.0, help="seconds one command may take")
@@ -319,8 +330,13 @@ def main() -> int:
 
     if args.inputs is not None and args.inputs < 1:
         parser.error(f"--inputs: expected at least 1 input, found {args.inputs}")
+    if args.skip < 0:
+        parser.error(f"--skip: expected 0 or more inputs, found {args.skip}")
+    if not 0 < args.plugin_seconds < args.timeout:
+        parser.error(f"--plugin-seconds: expected more than 0 and less than --timeout ({args.timeout}), "
+                     f"found {args.plugin_seconds}")
     summary = fuzz(seconds, args.seed, None if args.no_save else Path(args.corpus), args.timeout, write_summary,
-                   args.inputs)
+                   args.inputs, args.skip, args.plugin_seconds)
     write_summary(summary)
     print(json.dumps(summary, indent=1))
     return 1 if summary["failures"] else 0
