@@ -155,6 +155,7 @@ class WholeFileCheck:
             code = 1
             try:
                 gc.freeze()  # the parent's objects: never walked here, so their pages are never copied
+                gc.enable()  # whatever the parent's start-up had turned off: the pass may make cycles
                 os.close(read_end)
                 quiet = os.open(os.devnull, os.O_WRONLY)  # nothing of the child reaches the app's terminal
                 os.dup2(quiet, 1)

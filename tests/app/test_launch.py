@@ -1,7 +1,7 @@
 """Opening the app as `stepper view` does (stepper/app/launch.py).
 
 The whole-file check must be under way before Textual (or numpy) is imported, so it
-overlaps the app's own start; the app's process must draw a prime-field proof without
+overlaps the app's own start; the collector must be on again once the app exists; the app's process must draw a prime-field proof without
 importing numpy; a file that cannot be used must stop the check it started; and the
 first screen must be drawn before the event-by-event read takes the event loop.
 These start a fresh interpreter where what is imported matters: this one has Textual
@@ -45,7 +45,11 @@ whole_file.WholeFileCheck.__init__ = noting
 from stepper.app.launch import open_app
 
 async def run():
+    import gc
+
     app = open_app(sys.argv[1], export_dir=sys.argv[2])
+    seen["collector on"] = gc.isenabled()
+    seen["start-up frozen"] = gc.get_freeze_count() > 0
     async with app.run_test(size=(100, 30)) as pilot:
         while not app.model.all_checked:
             await pilot.pause(0.01)
@@ -73,6 +77,9 @@ def test_the_check_starts_before_textual_and_numpy_and_the_app_draws_without_num
     seen = json.loads(done.stdout.strip().splitlines()[-1])
     assert seen["textual then"] == []  # nothing of Textual yet: the import overlaps the check
     assert seen["numpy then"] is False
+    # the start-up ran without collections; what it made is left out of later ones, and the
+    # collector is on again for the app's life
+    assert seen["collector on"] is True and seen["start-up frozen"] is True
     assert seen["swept"] is True and seen["verdict"] == "accept"  # check's own whole-file pass said so
     assert seen["child"] is (sys.platform.startswith("linux") and hasattr(os, "fork"))
     # the check runs in the child; the app's process replays a prime field in plain integers
