@@ -39,13 +39,11 @@ from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 import numpy as np
 
-from stepper.field.expr_syntax import templates_of
 from stepper.field.field import power_by_squaring
 from stepper.field.kernels import GoldilocksKernel, SmallPrimeKernel, Word64Kernel
-from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
 
 if TYPE_CHECKING:
-    from stepper.field.expr_syntax import Node, Template
+    from stepper.field.expr_syntax import Eq, Node, Template
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
@@ -101,6 +99,8 @@ class GlueChecks:
             if not chosen:
                 continue
             texts = [entry[1].final_expr if final else entry[1].claim_expr for entry in chosen]
+            from stepper.field.expr_syntax import templates_of  # only for glue: a plain sweep builds no syntax classes
+
             found = templates_of(texts)  # type: ignore[arg-type]
             if found is None:
                 raise Unsupported("a text only the character parser reads")
@@ -297,6 +297,8 @@ class _Columns:
 
     def point(self, side: Any) -> np.ndarray:
         """A side of eq(...) as a matrix, one row of coordinates x_1..x_m per check."""
+        from stepper.field.expr_syntax import Table
+
         kernel = self.kernel
         if side is None:  # the instance's own point
             group = self.group
@@ -318,6 +320,8 @@ class _Columns:
 
     # ----- evaluation ---------------------------------------------------------------------
     def eval(self, node: Node) -> np.ndarray:
+        from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
+
         kernel = self.kernel
         if isinstance(node, Table):
             return self.elements(node.name)
