@@ -58,3 +58,29 @@ def test_wide_glue_values_are_shortened_visibly_within_80_columns(tmp_path, caps
     link = json.loads(_check(tmp_path, capsys, "--kind", "gkr-product", "--field", "bn254", "--fault",
                              "stale-coefficient", "--fault-instance", "1")[1])["instances"][1]["link"]
     assert len(str(link["expected"])) >= 70 and "…" not in str(link["expected"])
+
+
+_LOADED = ("import sys\nfrom stepper.cli.main import main\ntry:\n    main(['check', {path!r}])\nexcept SystemExit:\n"
+           "    pass\nprint(*(name in sys.modules for name in ('numpy', 'stepper.field.expr', "
+           "'stepper.field.expr_syntax')))")
+
+
+@pytest.mark.parametrize("sweep", ["on", None])
+def test_checking_a_file_without_glue_expressions_loads_no_expression_module(sweep):
+    # the expression syntax and evaluator (15 frozen dataclasses, and numpy with the evaluator) are
+    # imported only when a transcript has an expression to parse; a file left to the event-by-event
+    # replay (under the sweep's size) then needs no numpy at all
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parents[2] / "transcripts" / "samples" / "boarding-jsonl.sumtr"  # no glue events
+    env = {k: v for k, v in os.environ.items() if k != "STEPPER_SWEEP"}
+    if sweep is not None:
+        env["STEPPER_SWEEP"] = sweep
+    proc = subprocess.run([sys.executable, "-c", _LOADED.format(path=str(path))], capture_output=True, text=True,
+                          env=env, timeout=120)
+    numpy_loaded, expr_loaded, syntax_loaded = proc.stdout.split()[-3:]
+    assert (expr_loaded, syntax_loaded) == ("False", "False"), proc.stderr
+    assert numpy_loaded == ("True" if sweep == "on" else "False")
