@@ -87,9 +87,10 @@ def work_of(entries: int) -> Iterator[None]:
     loading numba (its import, its cached machine code, its first call) costs about half a
     second of CPU and 100 MB of resident memory, more than its loops save on that much work
     (``bench/witness.py`` measures both sides; ``STEPPER_KERNELS=compiled`` loads numba for
-    any size, to compare). The values are the same either way. In every
-    block the heap keeps freed memory for reuse (:func:`steady_heap`): without that the numpy
-    temporaries of the pieces spend most of their time in page faults."""
+    any size, to compare). The values are the same either way. The block also asks the heap
+    to keep freed memory for reuse (:func:`steady_heap`, process-wide and lasting, as the
+    whole-file check asks too): without that the numpy temporaries of the pieces spend most
+    of their time in page faults."""
     global _numpy_work
     steady_heap(STEADY_KEEP)
     numpy_only = entries < COMPILED_WORK_MIN and os.environ.get("STEPPER_KERNELS", "").lower() != "compiled"
