@@ -1,11 +1,13 @@
 """Suite-wide set-up, for ``pytest -n 3`` (README's command) above all.
 
-* Tests marked ``slow`` (a time limit, the fuzz run, processes killed at chosen moments:
-  seconds of wall time each, mostly spent waiting on a child process) are collected first.
-  xdist deals tests out to its workers in consecutive chunks in collection order, so these start
-  at once on the first worker while the second works through short tests, and none of them is
-  left running alone at the end of the run (where they used to fall: tests/transcript/store sorts
-  late). The order within each group is unchanged (the sort is stable).
+* Tests marked ``slow`` (a time limit, the fuzz run's four parts, processes killed at chosen
+  moments: seconds of wall time each, much of it spent waiting on a child process) start first,
+  dealt out among the workers. xdist's first batch gives each worker a run of consecutive tests
+  (a quarter of its share), so the slow tests are placed at the head of each worker's run, in
+  turn: they run side by side with short tests on the other workers, none of them is left running
+  alone at the end of the run (where they used to fall: tests/transcript/store sorts late), and
+  no worker has to work through all of them one after another. On one process they simply come
+  first. The order within each group is otherwise unchanged.
 * Before any worker starts, stepper's own modules are compiled to bytecode once. About seventy
   tests start ``python -m stepper`` (or a prover) in a process of their own, and each such
   process, like each worker, would otherwise compile the modules it imports from source again
@@ -87,7 +89,21 @@ def _rewrite_test_modules_once(config: pytest.Config) -> None:
 
 
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
-    items.sort(key=lambda item: item.get_closest_marker("slow") is None)
+    slow = [item for item in items if item.get_closest_marker("slow") is not None]
+    rest = [item for item in items if item.get_closest_marker("slow") is None]
+    workers = int(getattr(config, "workerinput", {}).get("workercount", 1))
+    if workers < 2:
+        items[:] = slow + rest
+        return
+    first_batch = max(len(items) // workers // 4, 2)  # what xdist's load scheduling sends each worker first
+    ordered: list[pytest.Item] = []
+    for worker in range(workers):
+        mine = slow[worker::workers]
+        ordered += mine
+        take = max(first_batch - len(mine), 0)
+        ordered += rest[:take]
+        rest = rest[take:]
+    items[:] = ordered + rest
 
 
 @pytest.hookimpl(hookwrapper=True)

@@ -38,8 +38,10 @@ def _half_written(path: Path) -> TranscriptWriter:
     return writer
 
 
-def test_a_note_made_while_a_writer_holds_the_file_waits_beside_it_and_is_folded_in_at_the_end(tmp_path, capsys):
+def test_a_note_made_while_a_writer_holds_the_file_waits_beside_it_and_is_folded_in_at_the_end(
+        tmp_path, capsys, monkeypatch):
     # before the lock, the note was appended into the file and the writer's next event overwrote it
+    monkeypatch.setitem(append_note.__kwdefaults__, "wait", 0.1)  # `note` waits 0.1 s for the lock, not 2 s
     path = tmp_path / "quill.sumtr"
     writer = _half_written(path)
     assert main(["note", str(path), "gate 3 rescanned ticket 118"]) == 0
@@ -59,7 +61,7 @@ def test_a_note_made_while_a_writer_holds_the_file_waits_beside_it_and_is_folded
 def test_a_writer_that_closes_unsealed_still_folds_the_waiting_notes(tmp_path):
     path = tmp_path / "quill.sumtr"
     writer = _half_written(path)
-    assert append_note(path, Note("prover crashed soon after", None, None)) == pending_path(path)
+    assert append_note(path, Note("prover crashed soon after", None, None), wait=0.1) == pending_path(path)
     writer.close()
     assert not os.path.exists(pending_path(path))
     assert load(path).all_notes() == [Note("prover crashed soon after", None, None)]  # still about the whole proof
@@ -104,7 +106,7 @@ def test_notes_survive_a_recorder_killed_with_sigkill_and_the_next_note_folds_th
                              stdout=subprocess.PIPE, cwd=ROOT, text=True)
     try:
         assert child.stdout.readline().strip() == "ready"
-        assert append_note(path, Note("first, while recording", None, None)) == pending_path(path)
+        assert append_note(path, Note("first, while recording", None, None), wait=0.1) == pending_path(path)
     finally:
         child.send_signal(signal.SIGKILL)
         child.wait()
