@@ -34,7 +34,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field as dc_field
 from itertools import repeat
-from operator import itemgetter
+from operator import attrgetter, itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 import numpy as np
@@ -93,12 +93,16 @@ class GlueChecks:
         challenges. Texts are read by template all at once (:func:`templates_of`). Raises
         :class:`Unsupported` for an expression this module does not check (``point(NAME)``,
         ``final(NAME)``, a text only the character parser reads, eq(a) in a claim_expr)."""
-        for final in (False, True):
-            chosen = [entry for entry in settled if (entry[1].final_expr if final else entry[1].claim_expr)
-                      is not None]
-            if not chosen:
+        starts = list(map(itemgetter(1), settled))
+        for final, texts_of in ((False, attrgetter("claim_expr")), (True, attrgetter("final_expr"))):
+            every = list(map(texts_of, starts))
+            if every.count(None) == len(every):
                 continue
-            texts = [entry[1].final_expr if final else entry[1].claim_expr for entry in chosen]
+            if None in every:
+                chosen = [entry for entry, text in zip(settled, every) if text is not None]
+                texts = [text for text in every if text is not None]
+            else:
+                chosen, texts = settled, every
             from stepper.field.expr_syntax import templates_of  # only for glue: a plain sweep builds no syntax classes
 
             found = templates_of(texts)  # type: ignore[arg-type]
@@ -110,24 +114,26 @@ class GlueChecks:
                     raise Unsupported("point(NAME), final(NAME) or eq(a) in a claim_expr")
                 picked = chosen if len(positions) == len(chosen) else [chosen[i] for i in positions]
                 if not final:
-                    self.groups.append(_Group(template, False, columns, [entry[1].claim for entry in picked],
-                                              [entry[0] for entry in picked]))
+                    self.groups.append(_Group(template, False, columns,
+                                              list(map(attrgetter("claim"), map(itemgetter(1), picked))),
+                                              list(map(itemgetter(0), picked))))
                     continue
-                keys = [(id(entry[3]), entry[1].num_vars, entry[1].order) for entry in picked]
-                if keys.count(keys[0]) == len(keys):
+                blocks = list(map(id, map(itemgetter(3), picked)))
+                shapes = list(map(attrgetter("num_vars", "order"), map(itemgetter(1), picked)))
+                if blocks.count(blocks[0]) == len(blocks) and shapes.count(shapes[0]) == len(shapes):
                     self._evaluations(template, columns, picked)
                     continue
                 split: dict[tuple[int, int, str], list[int]] = {}
-                for i, key in enumerate(keys):
-                    split.setdefault(key, []).append(i)
+                for i, (block, shape) in enumerate(zip(blocks, shapes)):
+                    split.setdefault((block, *shape), []).append(i)
                 for members in split.values():
                     self._evaluations(template, [[column[i] for i in members] for column in columns],
                                       [picked[i] for i in members])
 
     def _evaluations(self, template: Template, columns: list[list[str]], picked: list[Settled]) -> None:
         start = picked[0][1]
-        self.groups.append(_Group(template, True, columns, [entry[2] for entry in picked],
-                                  [entry[0] for entry in picked], picked[0][3], [entry[4] for entry in picked],
+        self.groups.append(_Group(template, True, columns, list(map(itemgetter(2), picked)),
+                                  list(map(itemgetter(0), picked)), picked[0][3], list(map(itemgetter(4), picked)),
                                   start.num_vars, start.order))
 
     def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
@@ -152,7 +158,7 @@ class GlueChecks:
                 if not isinstance(hole, int):
                     raise Unsupported("a call word used as a name")
                 column = group.columns[hole]
-                if column.count(column[0]) == len(column):  # one name for every check (a point, a public value)
+                if _uniform(column):  # one name for every check (a point, a public value)
                     column, bound = column[:1], limits.min(keepdims=True)
                 else:
                     bound = limits
@@ -172,7 +178,7 @@ class GlueChecks:
                     raise Unsupported("a name not sent before, or of another kind")
                 if len(before) < len(column) and (
                         (listed and not lists_here.issuperset(name for name in column if name in runs))
-                        or (not listed and not lists_here.isdisjoint(column))):
+                        or (not listed and bool(lists_here) and not lists_here.isdisjoint(column))):
                     raise Unsupported("a name of another kind")
 
     def check(self, values: Mapping[str, Any], cells: tuple[Mapping[str, int], np.ndarray] | None = None) -> bool:
