@@ -373,7 +373,7 @@ def _one_shape(texts: list[str], joined: str) -> list[tuple[Template, list[list[
         if word[0] < "A" or word in _CALLS:  # a number (or a mix the tokenizer cuts) or a call word: a fixed word
             if column.count(word) != n:
                 return None
-        elif min(column) < "A" or not _CALLS.isdisjoint(column):  # a name here must start as one and be no call word
+        elif min(column) < "A" or any(call in column for call in _CALLS):  # a name here must start as one, no call word
             return None
         else:
             holes.append(column)

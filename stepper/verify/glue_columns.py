@@ -343,10 +343,9 @@ class GlueColumns:
         expected = decode_cells(kernel, rows, width)
         return bool(np.array_equal(rederive(kernel, schedule, digests, len(rows), expected.shape), expected))
 
-    def pieces(self, schedule: Sha256Schedule) -> tuple[list[memoryview], list[int]]:
-        """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after the
-        runs' rows, all in one list, and where each run's begin in it: run i's are
-        ``pieces[starts[i]:starts[i + 1]]`` (none for a run with no glue)."""
+    def pieces(self, schedule: Sha256Schedule) -> list[list[memoryview]]:
+        """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after
+        each run's rows, run by run (none for a run with no glue)."""
         import numpy as np
 
         ends: Sequence[int] | np.ndarray
@@ -363,4 +362,4 @@ class GlueColumns:
         marks = np.union1d(run_ends, np.asarray(cuts, dtype=np.int64)).tolist()  # every piece boundary, sorted
         pieces = list(map(view.__getitem__, map(slice, marks[:-1], marks[1:])))
         starts = np.searchsorted(np.array(marks[:-1], dtype=np.int64), run_ends).tolist()
-        return pieces, starts
+        return list(map(pieces.__getitem__, map(slice, starts[:-1], starts[1:])))

@@ -434,8 +434,7 @@ class _Sweeper:
             members.setdefault(run[3], []).append(run)
         blocks = {layout: RunBlock(layout, group, kernel) for layout, group in members.items()}
         replay = self.replay
-        pieces: list[memoryview] | None = None
-        piece_starts: list[int] = []
+        pieces: list[list[memoryview]] | None = None  # the glue's, run by run
         digests = bytearray()  # of the glue's squeezes
         glued: list[Settled] = []  # the runs with a claim_expr or final_expr
         unkept = glue.size  # the first glue event after a run whose summary is not kept
@@ -452,10 +451,10 @@ class _Sweeper:
                     block.absorb(schedule, first, start.num_vars)
                     if glue.size:
                         if pieces is None:
-                            pieces, piece_starts = glue.pieces(schedule)
-                        a, b = piece_starts[i], piece_starts[i + 1]
-                        if a < b:
-                            schedule.absorb_pieces(pieces[a:b], digests)
+                            pieces = glue.pieces(schedule)
+                        after = pieces[i]
+                        if after:
+                            schedule.absorb_pieces(after, digests)
                 if kept:
                     replay.settle_glue(glue.records(i, start.index))
                 elif unkept == glue.size:
