@@ -15,7 +15,8 @@ their challenge, packed exactly as the writer packs them (a round's values in on
 ``bin 8``), so the reader's hot loop can decode a whole run of them in C before making
 the records. :class:`GlueRun` does the same for the glue events after a run (a ``value``,
 ``squeeze`` or ``opening`` of one element, named in a fixstr, no ``table`` key): their
-name and element bytes in one regular-expression pass, without a map per event, and
+extent in one regular-expression pass, without a map per event (:func:`read_glue_columns`
+then reads many such runs joined as numpy columns, no object per event but its name), and
 :class:`InstanceHead` for an ``instance`` event in the writer's plainest form.
 """
 

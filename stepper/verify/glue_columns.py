@@ -3,14 +3,17 @@
 The whole-file pass (:mod:`stepper.verify.sweep`) keeps the ``value``, ``squeeze`` and
 ``opening`` events that follow each instance it takes as a run without turning each into a
 record: as one blob of bytes where the writer packed them so
-(:class:`~stepper.transcript.packed.GlueRun`), else as the reader unpacked them. :class:`GlueColumns` takes all of a flush's at
-once and checks what the event :class:`~stepper.transcript.events.Sequencer` would check of
-each, by columns: every name a glue name (one regular-expression match over all of them,
-joined), unique in the proof (a set), every element a canonical packed element (one decode of
-their bytes joined). It then gives what the rest of the pass needs, still by columns: the
-names and values for the replay's glue book, each name's run (for the rules of expressions),
-the Fiat-Shamir pieces of each run (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.glue_stream`),
-and the squeezed elements sent, which the caller compares with those re-derived, by the block.
+(:class:`~stepper.transcript.packed.GlueRun`), else as the reader unpacked them.
+:class:`GlueColumns` takes all of a flush's at once and checks what the event
+:class:`~stepper.transcript.events.Sequencer` would check of each, by columns: the blobs read
+by numpy (:func:`~stepper.transcript.packed.read_glue_columns`: kinds, names and elements
+exactly as msgpack would unpack them, every name a glue name), every name new to the proof
+(added to the Sequencer's table of names, which must grow by as many), every element a
+canonical packed element (one decode of their bytes joined). It then gives what the rest of
+the pass needs, still by columns: the names and values for the replay's glue book, each
+name's row and each row's run (for the rules of expressions), the Fiat-Shamir pieces of each
+run (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.glue_stream`), and the squeezed
+elements sent, which the caller compares with those re-derived, by the block.
 
 Anything else (a payload another producer shaped otherwise, a JSON-style element, a name
 sent twice) raises :class:`~stepper.verify.packed_runs.GiveUp`: the caller then replays the
