@@ -355,21 +355,30 @@ class Sequencer(GlueRules, AnnotationRules):
         self.final_seen = False
         return start  # type: ignore[no-any-return]
 
-    def plain_instance(self, name: str, num_vars: int, degree: int, claim: bytes) -> InstanceStart:
+    def plain_instance(self, name: str, num_vars: int, degree: int, claim: bytes, claim_expr: str | None = None,
+                       final_expr: str | None = None) -> InstanceStart:
         """``feed`` of the payload {"type": "instance", "name": name, "num_vars": num_vars, "degree":
-        degree, "claim": claim} and no other key (stepper.verify.sweep reads such events from bytes):
-        the same record and state by a short path where every value is plainly in range in a prime
-        field; anything else goes through ``feed``, which judges it."""
+        degree, "claim": claim} and no other key but ``claim_expr`` and ``final_expr`` when given
+        (stepper.verify.sweep reads such events from bytes): the same record and state by a short
+        path where every value is plainly in range in a prime field (and the texts are deferred, see
+        ``defer_glue``); anything else goes through ``feed``, which judges it."""
         prime = self._prime_modulus
+        texts = claim_expr is not None or final_expr is not None
         if (prime and self.pending_batch is None and self._late is None and len(name) <= MAX_TEXT
                 and 0 <= num_vars <= MAX_NUM_VARS and 0 <= degree <= MAX_DEGREE and claim.__class__ is bytes
-                and len(claim) == self._elem_bytes):
+                and len(claim) == self._elem_bytes and (not texts or (
+                    self.glue and self.defer_glue and len(claim_expr or "") <= MAX_TEXT
+                    and len(final_expr or "") <= MAX_TEXT))):
             value = int.from_bytes(claim, "little")
             if value < prime:
                 self.count += 1
-                return self._open(name, num_vars, degree, value, "low-first", "evals", None, None, None)
-        return self.feed({"type": "instance", "name": name, "num_vars": num_vars, "degree": degree,  # type: ignore[return-value]
-                          "claim": claim})
+                return self._open(name, num_vars, degree, value, "low-first", "evals", claim_expr, final_expr, None)
+        payload = {"type": "instance", "name": name, "num_vars": num_vars, "degree": degree, "claim": claim}
+        if claim_expr is not None:
+            payload["claim_expr"] = claim_expr
+        if final_expr is not None:
+            payload["final_expr"] = final_expr
+        return self.feed(payload)  # type: ignore[return-value]
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()

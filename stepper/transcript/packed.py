@@ -297,16 +297,20 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
 
 # An instance event as the writer packs one with no optional key: a map of five entries, "type":
 # "instance", "name" (a fixstr), "num_vars" and "degree" (positive fixints: below 128), "claim" (one
-# element in a bin 8 of the element's width); to_payload's key order.
+# element in a bin 8 of the element's width); to_payload's key order. A map of six or seven holds
+# "claim_expr" and/or "final_expr" after them, in that order, each a str.
 _INSTANCE_HEAD = b"\x85\xa4type\xa8instance\xa4name"
+_TEXT_KEYS = (b"\xaaclaim_expr", b"\xaafinal_expr")
 
 
 class InstanceHead:
     """Finds an ``instance`` event of ``width``-byte elements packed as the writer packs one without
-    ``order``, ``form``, a batch or glue keys (see ``_INSTANCE_HEAD``) at an offset of a chunk, in
-    one regular-expression match: call it with the chunk and the offset to get (the event's end,
-    the name's UTF-8 bytes, num_vars, degree, the claim's bytes), or None. Nothing is judged but
-    the layout: the caller gives the same payload to the Sequencer, which checks the values."""
+    ``order``, ``form``, a batch or an eq point (see ``_INSTANCE_HEAD``; ``claim_expr`` and
+    ``final_expr`` may follow) at an offset of a chunk, in one regular-expression match: call it
+    with the chunk and the offset to get (the event's end, the name's UTF-8 bytes, num_vars,
+    degree, the claim's bytes, the claim_expr's and the final_expr's UTF-8 bytes or None), or
+    None. Nothing is judged but the layout: the caller gives the same payload to the Sequencer,
+    which checks the values."""
 
     __slots__ = ("_width", "_patterns")
 
@@ -315,20 +319,57 @@ class InstanceHead:
         self._patterns: dict[int, Callable[[bytes, int], re.Match[bytes] | None]] = {}  # by the name's length
 
     def _pattern(self, length: int) -> Callable[[bytes, int], re.Match[bytes] | None]:
-        pattern = re.compile(re.escape(_INSTANCE_HEAD + bytes((0xA0 + length,))) + b"(.{%d})" % length
+        pattern = re.compile(re.escape(_INSTANCE_HEAD[1:] + bytes((0xA0 + length,))) + b"(.{%d})" % length
                              + re.escape(b"\xa8num_vars") + b"([\x00-\x7f])" + re.escape(b"\xa6degree")
                              + b"([\x00-\x7f])" + re.escape(b"\xa5claim" + bytes((_BIN8, self._width)))
                              + b"(.{%d})" % self._width, re.DOTALL)
         self._patterns[length] = pattern.match
         return pattern.match
 
-    def __call__(self, data: bytes, at: int) -> tuple[int, bytes, int, int, bytes] | None:
+    def __call__(self, data: bytes, at: int
+                 ) -> tuple[int, bytes, int, int, bytes, bytes | None, bytes | None] | None:
         head = at + len(_INSTANCE_HEAD)
-        if head >= len(data) or not 0xA0 <= data[head] < 0xC0:
+        if head >= len(data) or not 0xA0 <= data[head] < 0xC0 or not 0x85 <= data[at] <= 0x87:
             return None
         length = data[head] - 0xA0
-        match = (self._patterns.get(length) or self._pattern(length))(data, at)
+        match = (self._patterns.get(length) or self._pattern(length))(data, at + 1)
         if match is None:
             return None
         name, num_vars, degree, claim = match.groups()
-        return match.end(), name, num_vars[0], degree[0], claim
+        end = match.end()
+        texts: list[bytes | None] = [None, None]
+        extra = data[at] - 0x85
+        for j, key in enumerate(_TEXT_KEYS):
+            if not extra:
+                break
+            if not data.startswith(key, end):
+                if j == 0:
+                    continue  # no claim_expr: the final_expr alone
+                return None
+            end, text = _str_at(data, end + len(key))
+            if text is None:
+                return None
+            texts[j] = text
+            extra -= 1
+        if extra:
+            return None
+        return end, name, num_vars[0], degree[0], claim, texts[0], texts[1]
+
+
+def _str_at(data: bytes, at: int) -> tuple[int, bytes | None]:
+    """The msgpack str at ``at`` (fixstr, str 8 or str 16) whole in ``data``: its end and bytes, or
+    (at, None)."""
+    if at >= len(data):
+        return at, None
+    marker = data[at]
+    if 0xA0 <= marker < 0xC0:
+        start, size = at + 1, marker - 0xA0
+    elif marker == 0xD9 and at + 1 < len(data):
+        start, size = at + 2, data[at + 1]
+    elif marker == 0xDA and at + 2 < len(data):
+        start, size = at + 3, int.from_bytes(data[at + 1:at + 3], "big")
+    else:
+        return at, None
+    if start + size > len(data):
+        return at, None
+    return start + size, data[start:start + size]

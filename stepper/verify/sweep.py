@@ -319,42 +319,58 @@ class _Sweeper:
 
     def _take_instances(self) -> None:
         """Take the instances that follow, each an ``instance`` event in the writer's plainest form
-        (:class:`~stepper.transcript.packed.InstanceHead`) right followed by its run in the last run's
-        layout, while they lie whole in the chunk last read and the block has room: found in the
-        chunk's bytes and taken with one ``read_bytes``, no map per instance event. Each event's
-        payload (the one msgpack would have made) still goes through the Sequencer, in order."""
+        (:class:`~stepper.transcript.packed.InstanceHead`, a ``claim_expr`` and a ``final_expr``
+        allowed) right followed by its run in the last run's layout, and the glue after each run
+        (:class:`~stepper.transcript.packed.GlueRun`), while they lie whole in the chunk last read
+        and the block has room: found in the chunk's bytes and taken with one ``read_bytes``, no
+        map per instance event. Each event's payload (the one msgpack would have made) still goes
+        through the Sequencer, in order. The glue after the last run taken is left to
+        :meth:`_take_glue`, which reads on into the next chunk."""
         layout, find = self.layout, self.instance_head
         data, data_at = self.window
         first = at = self.unpacker.tell() - data_at
         if layout is None or find is None or at < 0:
             return
+        glue = self.glue_run.match if self.glue_run is not None and self.seq.glue else None
         prefix, final_prefix, stride, final_len = layout.round_prefix, layout.final_prefix, layout.stride, layout.final_len
         most, rows, size, limit = len(data), self.rows, self.pending_bytes, self.limits.chunk_bytes * 8
-        found: list[tuple[int, bytes, int, int, bytes]] = []  # the end of each instance event, its fields
+        found: list[tuple[int, bytes, int, int, bytes, bytes | None, bytes | None]] = []  # each event's end, fields
+        glue_ends: list[int] = []  # where the glue after each run taken ends
+        head_at = at
         while rows < BLOCK_ROUNDS and size < limit:
-            head = find(data, at)
+            head = find(data, head_at)
             if head is None:
                 break
-            head_end, name, num_vars, degree, claim = head
+            head_end, _, num_vars, degree, _, claim_expr, final_expr = head
             end = head_end + num_vars * stride + final_len
             if (end > most or num_vars == 0 or layout.values > degree + 1 or not data.startswith(prefix, head_end)
-                    or not data.startswith(final_prefix, end - final_len)):
+                    or not data.startswith(final_prefix, end - final_len)
+                    or ((claim_expr is not None or final_expr is not None) and glue is None)):
                 break  # the usual path takes it (and judges it)
             found.append(head)
             rows += num_vars
             size += num_vars * stride
             at = end
+            head_at = end if glue is None else glue(data, end).end()  # type: ignore[union-attr]
+            glue_ends.append(head_at)
         if not found:
             return
         blob = memoryview(self.unpacker.read_bytes(at - first))
         seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
-        for j, (head_end, name, num_vars, degree, claim) in enumerate(found):
-            start = seq.plain_instance(name.decode(), num_vars, degree, claim)
-            seq.account_run(num_vars)
-            at = head_end - first + len(prefix)
-            runs.append((start, prefix, blob[at:at + num_vars * stride + final_len - len(prefix)], layout))  # type: ignore[arg-type]
-            if j < last:
-                trailing.append([])  # no glue: the next instance event follows the run
+        try:
+            for j, (head_end, name, num_vars, degree, claim, claim_expr, final_expr) in enumerate(found):
+                start = seq.plain_instance(name.decode(), num_vars, degree, claim,
+                                           None if claim_expr is None else claim_expr.decode(),
+                                           None if final_expr is None else final_expr.decode())
+                seq.account_run(num_vars)
+                run_at = head_end - first + len(prefix)
+                run_end = run_at + num_vars * stride + final_len - len(prefix)
+                runs.append((start, prefix, blob[run_at:run_end], layout))  # type: ignore[arg-type]
+                if j < last:  # the glue after this run (none in a file without glue): up to the next instance
+                    glue_end = glue_ends[j] - first
+                    trailing.append([bytes(blob[run_end:glue_end])] if glue_end > run_end else [])
+        except UnicodeDecodeError:
+            raise _GiveUp("a text that is not UTF-8") from None  # the usual path names it
         self._after_runs(rows - self.rows, size - self.pending_bytes)
 
     def _take_glue(self, tail: list[Any]) -> None:

@@ -663,7 +663,8 @@ def _instance_state(seq: Sequencer) -> tuple[object, ...]:
 
 @pytest.mark.parametrize("case", ["plain", "bn254", "babybear^4", "num_vars past the cap", "degree past the cap",
                                   "claim equal to p", "claim of another width", "name past the cap", "after a batch",
-                                  "an instance still open"])
+                                  "an instance still open", "glue texts", "glue texts, version 1",
+                                  "glue texts not deferred", "final_expr past the cap"])
 def test_a_plain_instance_gives_the_record_state_and_error_that_feeding_its_payload_gives(case):
     field, name, num_vars, degree, p = "goldilocks", "sailing-0740", 3, 2, GOLDILOCKS
     if case == "bn254":
@@ -676,18 +677,29 @@ def test_a_plain_instance_gives_the_record_state_and_error_that_feeding_its_payl
     claim = p.to_bytes(8, "little") if case == "claim equal to p" else claim
     claim = claim[:-1] if case == "claim of another width" else claim
     name = "x" * ((1 << 16) + 1) if case == "name past the cap" else name  # MAX_TEXT = 2^16
+    texts = {"claim_expr": "a0 + beta0*b0", "final_expr": "eq(tau) * (a1*b1 - c1)"} if "_expr" in case or \
+        "glue texts" in case else {}
+    if case == "final_expr past the cap":
+        texts["final_expr"] = "x" * ((1 << 16) + 1)
     pair = []
     for _ in range(2):
         seq = Sequencer()
+        seq.glue = case != "glue texts, version 1"
+        seq.defer_glue = case != "glue texts not deferred"
         seq.feed({"type": "field", "name": field, **({"extension_degree": 4} if case == "babybear^4" else {})})
+        if texts and case != "glue texts, version 1":
+            for name_sent in ("a0", "beta0", "b0", "tau"):
+                seq.feed({"type": "value", "name": name_sent, "value": [1] if name_sent == "tau" else 1})
         if case == "after a batch":
             seq.feed({"type": "batch", "coefficient": 3, "terms": [1, 2]})
         if case == "an instance still open":
             seq.feed({"type": "instance", "name": "earlier", "num_vars": 2, "degree": 1, "claim": 0})
         pair.append(seq)
-    payload = {"type": "instance", "name": name, "num_vars": num_vars, "degree": degree, "claim": claim}
+    payload = {"type": "instance", "name": name, "num_vars": num_vars, "degree": degree, "claim": claim, **texts}
     outcomes = []
-    for seq, take in zip(pair, (lambda s: s.plain_instance(name, num_vars, degree, claim), lambda s: s.feed(payload))):
+    for seq, take in zip(pair, (lambda s: s.plain_instance(name, num_vars, degree, claim, texts.get("claim_expr"),
+                                                           texts.get("final_expr")),
+                                lambda s: s.feed(payload))):
         try:
             outcomes.append(("record", take(seq)))
         except TranscriptError as err:
@@ -695,4 +707,5 @@ def test_a_plain_instance_gives_the_record_state_and_error_that_feeding_its_payl
         outcomes.append(("state", _instance_state(seq)))
     assert outcomes[:2] == outcomes[2:]
     assert (outcomes[0][0] == "record") == (case in ("plain", "bn254", "babybear^4", "after a batch",
-                                                     "an instance still open"))
+                                                     "an instance still open", "glue texts",
+                                                     "glue texts, version 1", "glue texts not deferred"))

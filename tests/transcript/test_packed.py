@@ -1,8 +1,9 @@
 """stepper.transcript.packed.InstanceHead: an instance event found in a chunk's bytes reads back as
 msgpack-python (the reference decoder, an outside implementation of the msgpack specification)
-decodes the same bytes, for every name length a fixstr holds, and anything packed otherwise (a longer
-name, an optional key, counts past a positive fixint, another element width, bytes cut short) is
-left alone (None), so the usual path decodes and judges it.
+decodes the same bytes, for every name length a fixstr holds, with or without a claim_expr and a
+final_expr of any str length, and anything packed otherwise (a longer name, another optional key,
+counts past a positive fixint, another element width, bytes cut short) is left alone (None), so the
+usual path decodes and judges it.
 """
 
 from __future__ import annotations
@@ -34,8 +35,8 @@ def test_a_writer_packed_instance_reads_as_msgpack_decodes_it(field, length):
     found = InstanceHead(field.elem_bytes)(data, 2)
     reference = msgpack.unpackb(event, raw=False)
     assert found is not None
-    end, name_bytes, num_vars, degree, claim = found
-    assert end == 2 + len(event)
+    end, name_bytes, num_vars, degree, claim, claim_expr, final_expr = found
+    assert end == 2 + len(event) and claim_expr is None and final_expr is None
     assert (name_bytes.decode(), num_vars, degree, claim) == (reference["name"], reference["num_vars"],
                                                              reference["degree"], reference["claim"])
     assert set(reference) == {"type", "name", "num_vars", "degree", "claim"}
@@ -47,8 +48,26 @@ def test_non_ascii_names_are_found_as_their_utf8_bytes():
     assert found is not None and found[1].decode() == msgpack.unpackb(event, raw=False)["name"]
 
 
+@pytest.mark.parametrize("keys", [{"claim_expr": "a0 + beta0*b0"}, {"final_expr": "eq(tau) * (a1*b1 - c1)"},
+                                  {"claim_expr": "p" * 31, "final_expr": "q" * 32},  # a fixstr and a str 8
+                                  {"claim_expr": "r" * 300, "final_expr": "\u00f8" * 40}])  # a str 16, UTF-8
+def test_an_instance_with_its_glue_texts_reads_as_msgpack_decodes_it(keys):
+    event = packed_instance(GOLDILOCKS, "sailing.7", claim_expr=keys.get("claim_expr"),
+                            final_expr=keys.get("final_expr"))
+    found = InstanceHead(8)(event + b"\x00", 0)
+    reference = msgpack.unpackb(event, raw=False)
+    assert found is not None
+    end, name_bytes, num_vars, degree, claim, claim_expr, final_expr = found
+    assert end == len(event)
+    assert (name_bytes.decode(), num_vars, degree, claim) == (reference["name"], reference["num_vars"],
+                                                             reference["degree"], reference["claim"])
+    assert (None if claim_expr is None else claim_expr.decode()) == reference.get("claim_expr")
+    assert (None if final_expr is None else final_expr.decode()) == reference.get("final_expr")
+
+
 @pytest.mark.parametrize("case", ["name of 32 bytes", "order key", "form key", "num_vars 128", "degree 200",
-                                  "other width", "cut short", "another event", "offset inside"])
+                                  "other width", "cut short", "another event", "offset inside", "eq point",
+                                  "texts swapped", "text cut short", "text not a str"])
 def test_instances_packed_otherwise_are_left_to_the_usual_path(case):
     find = InstanceHead(8)
     event = {
@@ -62,5 +81,12 @@ def test_instances_packed_otherwise_are_left_to_the_usual_path(case):
         "cut short": lambda: packed_instance(GOLDILOCKS, "ferry")[:-1],
         "another event": lambda: msgpack.packb({"type": "note", "text": "ferry"}, use_bin_type=True),
         "offset inside": lambda: b"\x85" + packed_instance(GOLDILOCKS, "ferry"),
+        "eq point": lambda: packed_instance(GOLDILOCKS, "ferry", form="eq-factored", eq_point="tau"),
+        "texts swapped": lambda: msgpack.packb({"type": "instance", "name": "ferry", "num_vars": 2, "degree": 3,
+                                                "claim": bytes(8), "final_expr": "a", "claim_expr": "b"},
+                                               use_bin_type=True),
+        "text cut short": lambda: packed_instance(GOLDILOCKS, "ferry", final_expr="a1 * b1")[:-2],
+        "text not a str": lambda: msgpack.packb({"type": "instance", "name": "ferry", "num_vars": 2, "degree": 3,
+                                                 "claim": bytes(8), "claim_expr": 7}, use_bin_type=True),
     }[case]()
     assert find(event, 0) is None

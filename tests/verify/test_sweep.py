@@ -836,6 +836,75 @@ def test_glue_cut_by_a_chunks_end_is_read_on_into_the_next_chunk_and_reports_as_
     if chunk >= 1000:  # longer than the glue after a run: two chunks hold it whole, every event read as bytes
         assert cut == sum(from_bytes) > 0
 
+
+@pytest.mark.parametrize("fault", [None, "link", "evaluation", "squeeze"])
+def test_glued_instances_taken_from_the_chunk_with_their_texts_and_glue_report_as_the_replay(tmp_path, monkeypatch,
+                                                                                            fault):
+    # instances written by the TranscriptWriter with claim_expr and final_expr, each run followed by its openings
+    # and a squeeze: the sweep takes them straight from the chunk's bytes (Sequencer.plain_instance with the
+    # texts); the report is the replay's, and a broken glue check makes it give up
+    from stepper.field.field import NAMED_PRIMES, get_field
+    from stepper.field.lagrange import evaluate_round
+    from stepper.field.poly import eq_eval
+    from stepper.transcript.events import Sequencer
+    from stepper.transcript.model import (ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening,
+                                          RoundMsg, ScheduleDecl, Squeeze)
+
+    field = get_field(NAMED_PRIMES["goldilocks"])
+    p, rng, schedule, path = field.p, random.Random(31), Sha256Schedule(), tmp_path / "glued-writer.sumtr"
+    with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
+        def emit(record: object, absorbed: bool = True) -> None:
+            if absorbed:
+                schedule.observe(record)  # type: ignore[arg-type]
+            out.write(record)  # type: ignore[arg-type]
+
+        emit(FieldDecl(field))
+        emit(ScheduleDecl(SCHEDULE_NAME, "tests"))
+        tau = tuple(rng.randrange(p) for _ in range(3))
+        emit(NamedValue("tau", tau, True, None))
+        claim = rng.randrange(p)
+        for i in range(40):
+            keys = {"final_expr": f"eq(tau) * (a{i}*b{i} - c{i})", **({"claim_expr": f"a{i - 1} + beta{i - 1}*b{i - 1}"}
+                                                                    if i else {})}
+            emit(InstanceStart(i, f"sailing.{i}", 3, 2, claim, **keys))  # type: ignore[arg-type]
+            point = []
+            for k in range(1, 4):
+                g0 = rng.randrange(p)
+                evals = (g0, (claim - g0) % p, rng.randrange(p))
+                emit(RoundMsg(i, k, evals))
+                r = schedule.challenge()
+                emit(ChallengeMsg(i, k, r), absorbed=False)
+                point.append(r)
+                claim = evaluate_round(field, evals, r)
+            emit(FinalValue(i, claim), absorbed=False)
+            a, b = rng.randrange(p), rng.randrange(p)
+            c = (a * b - claim * pow(eq_eval(field, tau, point), -1, p)) % p  # type: ignore[arg-type]
+            if fault == "evaluation" and i == 17:
+                c = (c + 1) % p
+            for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
+                emit(Opening(name, value, name, i))
+            beta = schedule.squeeze(f"beta{i}")
+            emit(Squeeze(f"beta{i}", (beta + 1) % p if fault == "squeeze" and i == 23 else beta, False, i),
+                 absorbed=False)
+            claim = (a + beta * b) % p  # type: ignore[operator]
+            if fault == "link" and i == 29:
+                claim = (claim + 1) % p
+    taken: list[str] = []
+    real = Sequencer.plain_instance
+
+    def spy(self: Sequencer, name: str, *args: object) -> object:
+        taken.append(name)
+        return real(self, name, *args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(Sequencer, "plain_instance", spy)
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
+    if fault is None:
+        assert_same_report(path, 20)
+        assert len(taken) >= 30  # all but the instances whose glue a chunk's end cut, or that came first
+    else:
+        assert swept_report(path, 20) is None
+        assert event_by_event(path, 20)[0].verdict == "reject"
+
 def test_point_and_final_of_an_earlier_instance_are_left_to_the_replay(tmp_path, monkeypatch):
     # point(NAME) and final(NAME) are not checked by columns: the sweep gives up and the replay checks them
     path = tmp_path / "points.sumtr"
