@@ -94,24 +94,16 @@ class LimbKernel(Kernel):
         evaluations g(j) by value position, :func:`~stepper.field.kernels.limb_rounds.rounds_congruent`)."""
         count = cells.shape[0]
         width = cells.shape[1] // values
-        if width % 8 == 0 and width <= self.byte_width:  # whole words: one copy puts them word-major
-            words = np.ascontiguousarray(cells.reshape(count, values, width // 8, 8).transpose(2, 1, 0, 3))
-            limbs = self._limbs_of_columns(words.view("<u8").reshape(width // 8, values * count), self.n)
-        else:
-            by_value = np.ascontiguousarray(cells.reshape(count, values, width).transpose(1, 0, 2))
-            limbs = self.from_bytes(by_value.reshape(values * count, width)).T  # (n, values * N), contiguous
+        by_value = np.ascontiguousarray(cells.reshape(count, values, width).transpose(1, 0, 2))
+        limbs = self.from_bytes(by_value.reshape(values * count, width)).T  # (n, values * N), contiguous
         return limbs.reshape(self.n, values, count).transpose(2, 1, 0)
 
     @staticmethod
     def _limbs_of_words(words: np.ndarray, count: int) -> np.ndarray:
         """The first ``count`` 29-bit limbs of rows of little-endian uint64 words (shape (N, k);
         bits past the k words are zero), limb-major: shape (count, N)."""
-        return LimbKernel._limbs_of_columns(np.ascontiguousarray(words.T), count)  # (k, N): each word in one run
-
-    @staticmethod
-    def _limbs_of_columns(columns: np.ndarray, count: int) -> np.ndarray:
-        """:meth:`_limbs_of_words` of the words given word-major (shape (k, N), rows contiguous)."""
-        out = np.empty((count, columns.shape[1]), dtype=np.uint64)
+        columns = np.ascontiguousarray(words.T)  # (k, N): each word of every row in one run
+        out = np.empty((count, words.shape[0]), dtype=np.uint64)
         for i in range(count):
             word, shift = divmod(LIMB_BITS * i, 64)
             if word >= len(columns):
