@@ -362,7 +362,13 @@ class GlueColumns:
         view = memoryview(stream)
         bounds = np.array(self.bounds, dtype=np.int64)
         run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[bounds]  # byte offset where each run's glue ends
-        marks = np.union1d(run_ends, np.asarray(cuts, dtype=np.int64)).tolist()  # every piece boundary, sorted
+        cuts = np.asarray(cuts, dtype=np.int64)
+        if len(cuts) == len(run_ends) - 1 and np.array_equal(np.searchsorted(cuts, run_ends), np.arange(len(run_ends))):
+            # the usual case: each run's glue holds one squeeze of one element, so two pieces each
+            take = view.__getitem__
+            return list(map(list, zip(map(take, map(slice, run_ends[:-1].tolist(), cuts.tolist())),
+                                      map(take, map(slice, cuts.tolist(), run_ends[1:].tolist())))))
+        marks = np.union1d(run_ends, cuts).tolist()  # every piece boundary, sorted
         pieces = list(map(view.__getitem__, map(slice, marks[:-1], marks[1:])))
         starts = np.searchsorted(np.array(marks[:-1], dtype=np.int64), run_ends).tolist()
         return list(map(pieces.__getitem__, map(slice, starts[:-1], starts[1:])))
