@@ -106,22 +106,8 @@ def write_transcript(path: Path, name: str, instances: int, rounds: int, seed: i
 
 def hashing_floor(name: str, rounds: int) -> float:
     """CPU seconds of the schedule's hashlib calls alone for ``rounds`` rounds of degree 3."""
-    import hashlib
-
-    field = field_named(name)
-    blocks = -(-((field.p.bit_length() + 128 + 7) // 8) // 32)
-    squeezes = [bytes(33 + i) for i in range(field.degree * blocks)]
-    round_frame, challenge = bytes(22 + (DEGREE + 1) * field.elem_bytes), bytes(18 + field.elem_bytes)
-    state = hashlib.sha256(b"stepper-sha256/1")
-    update, copy = state.update, state.copy
     t0 = time.process_time()
-    for _ in range(rounds):
-        update(round_frame)
-        for squeeze in squeezes:
-            h = copy()
-            h.update(squeeze)
-            h.digest()
-        update(challenge)
+    _floor_calls(*_floor_sizes(name), rounds)
     return time.process_time() - t0
 
 
@@ -130,22 +116,24 @@ def floor_process(name: str, rounds: int) -> float:
     :func:`hashing_floor` for ``rounds`` rounds (its source, run with ``-c``)."""
     import inspect
 
+    squeezes, round_bytes, challenge_bytes = _floor_sizes(name)
     source = "\n".join(("import numpy", inspect.getsource(_floor_calls),
-                        f"_floor_calls({field_named(name).degree * _blocks(name)}, "
-                        f"{22 + (DEGREE + 1) * field_named(name).elem_bytes}, "
-                        f"{18 + field_named(name).elem_bytes}, {rounds})"))
+                        f"_floor_calls({squeezes}, {round_bytes}, {challenge_bytes}, {rounds})"))
     _, cpu, _, code = _child([sys.executable, "-c", source])
     assert code == 0, "the floor process failed"
     return cpu
 
 
-def _blocks(name: str) -> int:
-    """SHA-256 blocks squeezed per base sample of the field ``name``."""
-    return -(-((field_named(name).p.bit_length() + 128 + 7) // 8) // 32)
+def _floor_sizes(name: str) -> tuple[int, int, int]:
+    """Digests squeezed per challenge (SHA-256 blocks per base sample times the degree), and the
+    bytes of a degree-3 round's frame and of a challenge's frame, in the field ``name``."""
+    field = field_named(name)
+    blocks = -(-((field.p.bit_length() + 128 + 7) // 8) // 32)
+    return field.degree * blocks, 22 + (DEGREE + 1) * field.elem_bytes, 18 + field.elem_bytes
 
 
 def _floor_calls(squeezes: int, round_bytes: int, challenge_bytes: int, rounds: int) -> None:
-    """The schedule's hashlib calls per round, on zero bytes of the real lengths (run in a child)."""
+    """The schedule's hashlib calls per round, on zero bytes of the real lengths (also run in a child)."""
     import hashlib
 
     frames = [bytes(33 + i) for i in range(squeezes)]
