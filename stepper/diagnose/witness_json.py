@@ -56,10 +56,10 @@ def split_tables(data: Text) -> tuple[bytes, bytes, list[np.ndarray]]:
     depth guard, the arrays taken out in order); ``data`` itself (as bytes) and no arrays when
     none qualifies."""
     if len(data) < MIN_BYTES:
-        return bytes(data), bytes(data), []
+        return _whole(data)
     quotes, escaped = _quotes(data)
     if escaped or len(quotes) % 2:
-        return bytes(data), bytes(data), []
+        return _whole(data)
     # the stretches outside strings: before the first quote, between a closing and the next opening one, after the last
     starts = np.concatenate(([0], quotes[1::2] + 1))
     stops = np.concatenate((quotes[0::2], [len(data)]))
@@ -78,10 +78,17 @@ def split_tables(data: Text) -> tuple[bytes, bytes, list[np.ndarray]]:
         arrays.append(values)
         done = last
     if not arrays:
-        return bytes(data), bytes(data), []
+        return _whole(data)
     text.append(data[done:])
     depth_text.append(data[done:])
     return b"".join(text), b"".join(depth_text), arrays
+
+
+def _whole(data: Text) -> tuple[bytes, bytes, list[np.ndarray]]:
+    """:func:`split_tables`'s answer when no array qualifies: one copy of ``data`` for both texts
+    (``bytes`` of a memory mapping copies the whole file each time)."""
+    whole = bytes(data)
+    return whole, whole, []
 
 
 def put_back(decoded: Any, arrays: list[np.ndarray]) -> Any:
