@@ -75,7 +75,7 @@ class TranscriptSource:
         except StepperError as err:
             self._fail(model, str(err))
         except OSError as err:
-            self._fail(model, f"{self.path}: cannot read ({err.strerror or err})")
+            self._fail(model, _unreadable(err, self.path))
         return model
 
     def whole_file_check(self) -> WholeFile | None:
@@ -177,7 +177,7 @@ class TranscriptSource:
         try:
             now = os.stat(self.path)
         except OSError as err:
-            self.problem = f"{self.path}: cannot read ({err.strerror or err})"
+            self.problem = _unreadable(err, self.path)
             return 0
         if now.st_size == self._size:
             return 0
@@ -199,7 +199,7 @@ class TranscriptSource:
             model.generation += 1
         except OSError as err:
             self._close()
-            self.problem = f"{self.path}: cannot read ({err.strerror or err})"
+            self.problem = _unreadable(err, self.path)
         return self._fed - before
 
     def _feed_new(self, model: ProofModel, records: Iterator[Event]) -> None:
@@ -257,3 +257,10 @@ def _final(stream: Any) -> bool:
     """No checked event can follow: a transcript whose end event was read. A JSON-lines
     event file has no end marker, so a prover may always append to it."""
     return bool(stream.kind == "transcript" and stream.completeness == "complete")
+
+
+def _unreadable(err: OSError, path: Path) -> str:
+    """The line `stepper check` and `info` give for a file the system will not let us read."""
+    from stepper.transcript.store.writer import oserror  # only on this path: the writer is not needed to view
+
+    return str(oserror(err, str(path), "open the file"))

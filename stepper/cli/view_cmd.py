@@ -42,13 +42,6 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"expected --compare to name a readable file, found {args.compare!r}")
     if args.follow and not Path(args.file).exists():
         raise InputError(f"{args.file}: expected a file to follow, found none (start the prover first)")
-    if not args.follow:
-        try:
-            open(args.file, "rb").close()
-        except OSError as err:  # the same line as check, info and the other readers
-            from stepper.transcript.store.writer import oserror
-
-            raise oserror(err, args.file, "open the file") from None
 
     import sys
 
