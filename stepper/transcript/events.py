@@ -126,11 +126,11 @@ class Sequencer(GlueRules, AnnotationRules):
                         end = at + count * layout.stride
                         view = memoryview(data)[at:end]
                         rows: Any = layout.pair.iter_unpack(view)  # (values..., challenge) per pair
-                        if (high_ones is None or data.find(high_ones, at, end) >= 0) and max(
-                                map(max, layout.pair.iter_unpack(view))) >= prime:  # up to the first non-canonical
-                            rows = list(rows)
-                            count = next(i for i, row in enumerate(rows) if max(row) >= prime)
-                            rows = rows[:count]
+                        if high_ones is None or data.find(high_ones, at, end) >= 0:  # a value may be >= p
+                            rows = list(rows)  # unpacked once, for the range check and the records
+                            if max(map(max, rows)) >= prime:  # up to the first non-canonical
+                                count = next(i for i, row in enumerate(rows) if max(row) >= prime)
+                                rows = rows[:count]
                         payloads.read_bytes(count * layout.stride)  # type: ignore[attr-defined]
                         n = layout.values
                         for row in rows:

@@ -33,7 +33,7 @@ from stepper.field.field import Element, Field
 if TYPE_CHECKING:
     import numpy as np
 
-__all__ = ["pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS",
+__all__ = ["ROUND_HEAD", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS",
            "GlueColumnsRead", "read_glue_columns"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
@@ -114,7 +114,7 @@ def unpack_elements(field: Field, blob: bytes, what: str, where: Where | None = 
 
 # A round event as the writer packs it, up to its values: a map of two entries, "type": "round",
 # then "evals" and the values' bin header (msgpack's shortest forms; the writer's key order).
-_ROUND_HEAD = b"\x82\xa4type\xa5round\xa5evals"
+ROUND_HEAD = b"\x82\xa4type\xa5round\xa5evals"
 _CHALLENGE_HEAD = b"\x82\xa4type\xa9challenge\xa5value"
 _BIN8 = 0xC4
 
@@ -128,7 +128,7 @@ class PairLayout:
 
     def __init__(self, values: int, width: int) -> None:
         size = values * width
-        round_head = _ROUND_HEAD + bytes((_BIN8, size))
+        round_head = ROUND_HEAD + bytes((_BIN8, size))
         challenge_head = _CHALLENGE_HEAD + bytes((_BIN8, width))
         code = "I" if width == 4 else "Q"
         self.values = values
@@ -150,8 +150,8 @@ def pair_run(data: bytes, at: int, width: int, most: int) -> tuple[int, PairLayo
     :class:`PairLayout`; ``width`` 4 or 8) lie whole in ``data`` from offset ``at``, at most
     ``most``, and their layout; None when the bytes at ``at`` do not start a round so packed.
     Nothing is judged but the layout: the values may still be non-canonical."""
-    head = at + len(_ROUND_HEAD)
-    if len(data) < head + 2 or data[head] != _BIN8 or not data.startswith(_ROUND_HEAD, at):
+    head = at + len(ROUND_HEAD)
+    if len(data) < head + 2 or data[head] != _BIN8 or not data.startswith(ROUND_HEAD, at):
         return None
     layout = _pair_layout(data[head + 1], width)
     if layout is None:

@@ -27,7 +27,7 @@ from itertools import accumulate, chain, repeat
 from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, MutableMapping, Sequence
 
-from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
+from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
 from stepper.transcript.packed import GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
 from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, rederive
@@ -41,7 +41,7 @@ if TYPE_CHECKING:
 
 __all__ = ["GlueColumns"]
 
-_NAME = r"[A-Za-z_][A-Za-z0-9_.]{0,127}"  # stepper.transcript.glue_records.GLUE_NAME_PATTERN
+_NAME = GLUE_NAME_PATTERN.pattern
 _NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
 
 

@@ -45,9 +45,9 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator
 import msgpack
 
 from stepper.errors import Where
-from stepper.transcript.packed import GlueRun, InstanceHead
+from stepper.transcript.packed import ROUND_HEAD, GlueRun, InstanceHead
 from stepper.transcript.store.pending import pending_path
-from stepper.transcript.events import KNOWN_TYPES, Sequencer
+from stepper.transcript.events import GLUE_TYPES, KNOWN_TYPES, Sequencer
 from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
@@ -68,10 +68,9 @@ __all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
 BLOCK_ROUNDS = 1 << 14  # rounds checked together: numpy arrays that stay in cache
 LOOSE_ROUNDS = 1 << 12  # rounds outside runs before the sweep leaves the file to the usual replay
 SMALL_FILE_BYTES = 1 << 20  # below this, event by event is about as fast as numpy's import alone
-_GLUE_TYPES = frozenset(("value", "squeeze", "opening"))
+_GLUE_TYPES = frozenset(GLUE_TYPES)
 _GLUE_AFTER_CHUNK = 1 << 16  # bytes of the next chunk searched for the rest of a glue run the chunk's end cut
 _KNOWN_TYPES = frozenset(KNOWN_TYPES)
-_ROUND_KEYS = msgpack.packb({"type": "round", "evals": b""}, use_bin_type=True)[:-2]  # map, type, key "evals"
 # the first bytes of an end event as the writer packs it (writer.end_payload): a map of 3, "type": "end", "events"
 _END_KEYS = b"\x83" + b"".join(msgpack.packb(word) for word in ("type", "end", "events"))
 
@@ -287,7 +286,7 @@ class _Sweeper:
     def _take_run(self, start: InstanceStart) -> None:
         """Read an instance's rounds, challenges and final as bytes (they must follow it directly)."""
         layout = self.layout
-        head = self._take(len(layout.round_prefix) if layout is not None else len(_ROUND_KEYS) + 2)
+        head = self._take(len(layout.round_prefix) if layout is not None else len(ROUND_HEAD) + 2)
         if layout is None or head != layout.round_prefix:
             head, layout = self._new_layout(head)
         if layout.values > start.degree + 1:
@@ -384,7 +383,7 @@ class _Sweeper:
             return
         glue_run = self.glue_run
         assert glue_run is not None  # set with the field
-        size = glue_run.match(data, at).end() - at  # type: ignore[union-attr]  # the pattern matches the empty string too
+        size = glue_run(data, at)
         if at + size + self.glue_event_max < len(data):  # the events stop before the chunk's end: all taken
             if size:
                 tail.append(self.unpacker.read_bytes(size))  # counted as events when the flush reads them
@@ -405,12 +404,12 @@ class _Sweeper:
 
         field = self.field
         assert field is not None
-        if not head.startswith(_ROUND_KEYS):
+        if not head.startswith(ROUND_HEAD):
             raise _GiveUp("another event after the instance")
-        marker, size = head[len(_ROUND_KEYS)], head[len(_ROUND_KEYS) + 1]
+        marker, size = head[len(ROUND_HEAD)], head[len(ROUND_HEAD) + 1]
         if marker == 0xC5:
-            head += self._take(len(_ROUND_KEYS) + 3 - len(head))
-            size = int.from_bytes(head[len(_ROUND_KEYS) + 1:len(_ROUND_KEYS) + 3], "big")
+            head += self._take(len(ROUND_HEAD) + 3 - len(head))
+            size = int.from_bytes(head[len(ROUND_HEAD) + 1:len(ROUND_HEAD) + 3], "big")
         elif marker != 0xC4:
             raise _GiveUp("round values not packed in one blob")
         values = size // field.elem_bytes
