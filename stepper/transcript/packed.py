@@ -33,7 +33,7 @@ from stepper.field.field import Element, Field
 if TYPE_CHECKING:
     import numpy as np
 
-__all__ = ["ROUND_HEAD", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS",
+__all__ = ["ROUND_HEAD", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES",
            "GlueColumnsRead", "read_glue_columns"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
@@ -166,6 +166,7 @@ def pair_run(data: bytes, at: int, width: int, most: int) -> tuple[int, PairLayo
 # three kinds), "name" (a fixstr of glue-name characters: the name cannot hold the \xa5 after it)
 # and "value" (one element in a bin 8 of the element's width).
 GLUE_KINDS = {b"value": "value", b"squeeze": "squeeze", b"opening": "opening"}
+GLUE_CODES = ("value", "squeeze", "opening")  # the glue kinds by code (GlueColumnsRead.codes)
 _GLUE_HEAD = b"\x83\xa4type"
 
 

@@ -40,7 +40,7 @@ from operator import itemgetter
 from typing import TYPE_CHECKING, Callable, Sequence
 
 from stepper.errors import InputError
-from stepper.transcript.packed import pack_elements
+from stepper.transcript.packed import GLUE_CODES, pack_elements
 from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
 
 if TYPE_CHECKING:
@@ -61,7 +61,7 @@ _INSTANCE_HEAD = bytes([8]) + b"instance"
 _OPENING_HEAD = bytes([7]) + b"opening"
 _VALUE_HEAD = bytes([5]) + b"value"
 _DRAW_HEAD = bytes([4]) + b"draw"
-_GLUE_CODES = {"value": 0, "squeeze": 1, "opening": 2}
+_GLUE_CODES = {kind: code for code, kind in enumerate(GLUE_CODES)}
 
 
 def frame(tag: bytes, body: bytes) -> bytes:

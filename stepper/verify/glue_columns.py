@@ -28,7 +28,7 @@ from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, MutableMapping, Sequence
 
 from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
-from stepper.transcript.packed import GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
+from stepper.transcript.packed import GLUE_CODES, GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
 from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, rederive
 
@@ -47,7 +47,7 @@ _NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
 
 _FIXSTR = bytes((0xA0 + n) & 0xFF for n in range(256))  # a name's length -> its fixstr head
 _KIND_BYTES = {kind: raw for raw, kind in GLUE_KINDS.items()}
-_KINDS = ("value", "squeeze", "opening")  # by code (stepper.verify.fiatshamir's frame codes)
+_KINDS = GLUE_CODES  # by code
 _CODES = {kind: code for code, kind in enumerate(_KINDS)}
 
 
@@ -124,9 +124,7 @@ class GlueColumns:
         self.tables = self._tables(payloads)
         types = set(map(type, raws))
         if list not in types:  # one element each (the usual case): no per-event work
-            self.listed = [False] * self.size
-            self.counts = [1] * self.size
-            self._define(defined)
+            self._one_element_each(defined)
             self.data = raws
             self.values = self._decode(raws, raws)
             return
@@ -200,9 +198,7 @@ class GlueColumns:
         self.names = read.names
         self.codes = read.codes
         self.tables = self.names
-        self.listed = [False] * self.size
-        self.counts = [1] * self.size
-        self._define(defined)
+        self._one_element_each(defined)
         self.elements = read.elements
         joined = read.elements.tobytes()
         elements = decoder_for(self.field)(joined)
@@ -226,6 +222,12 @@ class GlueColumns:
         self.bounds = [0, *np.searchsorted(ends, blob_ends, side="right").tolist()]
         self._take_rows(rows, defined)
 
+    def _one_element_each(self, defined: MutableMapping[str, Any]) -> None:
+        """Every event of the flush holds one element (no list): its counts, and its names defined."""
+        self.listed = [False] * self.size
+        self.counts = [1] * self.size
+        self._define(defined)
+
     def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: MutableMapping[str, Any]) -> None:
         """The columns of events read as rows of bytes (kind, the name's fixstr head, name, element)."""
         names = b"\n".join(map(itemgetter(2), rows)).decode("ascii")
@@ -236,9 +238,7 @@ class GlueColumns:
         self.names = names.split("\n") if rows else []
         self.kinds = list(map(GLUE_KINDS.__getitem__, map(itemgetter(0), rows)))
         self.tables = self.names
-        self.listed = [False] * self.size
-        self.counts = [1] * self.size
-        self._define(defined)
+        self._one_element_each(defined)
         self.data = list(map(itemgetter(3), rows))
         self.values = self._decode(self.data, self.data)
 
