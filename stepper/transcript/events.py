@@ -31,7 +31,7 @@ Caps keep a hostile input from costing unbounded memory.
 from __future__ import annotations
 
 import struct
-from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field.poly import EQ_FACTORED, ORDERS, ROUND_FORMS
@@ -379,6 +379,38 @@ class Sequencer(GlueRules, AnnotationRules):
         if final_expr is not None:
             payload["final_expr"] = final_expr
         return self.feed(payload)  # type: ignore[return-value]
+
+    def plain_runs(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes
+                   ) -> tuple[Element, ...] | None:
+        """:meth:`plain_instance` (no ``claim_expr``, no ``final_expr``) then :meth:`account_run` for
+        each of several instances in a row, each an instance event of the writer's plainest form
+        followed by its whole run (stepper.verify.sweep reads them from bytes and checks the runs in
+        bulk): instance i has name ``names[i]``, ``num_vars[i]`` >= 1, ``degrees[i]`` and the claim
+        packed at ``claims[i * elem_bytes:]``. Leaves the same state as those calls, the last instance's
+        record the current one (earlier records are not made: ``plain_record`` makes one on demand), and
+        returns the claims as elements; returns None, having done nothing, unless every value is
+        plainly in range (the claims canonical): the caller then feeds the instances one at a time,
+        and the usual path judges them."""
+        count = len(names)
+        if (not count or self.field is None or self.pending_batch is not None or self._late is not None
+                or len(num_vars) != count or len(degrees) != count or len(claims) != count * self._elem_bytes
+                or min(num_vars) < 1 or max(num_vars) > MAX_NUM_VARS or min(degrees) < 0
+                or max(degrees) > MAX_DEGREE or max(map(len, names)) > MAX_TEXT):
+            return None
+        values = self._decode(claims)  # None when some claim is not canonical
+        if values is None or len(values) != count:
+            return None
+        self.names.add_all(names[:-1])
+        self._open(names[-1], num_vars[-1], degrees[-1], values[-1], "low-first", "evals", None, None, None)
+        self.rounds_done, self.final_seen = num_vars[-1], True
+        self.count += 2 * count + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
+        return values  # type: ignore[no-any-return]
+
+    @staticmethod
+    def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element) -> InstanceStart:
+        """The record :meth:`plain_runs` would have made for the instance at ``index`` (its values
+        already checked there)."""
+        return InstanceStart(index, name, num_vars, degree, claim)
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()

@@ -14,6 +14,8 @@ hashes, confirmed against the stored bytes.
 from __future__ import annotations
 
 from array import array
+from itertools import accumulate, islice
+from typing import Sequence
 
 RECENT = 1024  # at most this many names answered from the dictionary; others by a scan of the hashes
 
@@ -43,6 +45,24 @@ class NameBook:
             recent.clear()  # start a new window: older names are found by the scan
         recent[name] = index  # an assignment: a name's entry, when there is one, is its last position
         return index
+
+    def add_all(self, names: Sequence[str]) -> None:
+        """Record the next instances' names, in order: the same book as :meth:`add` of each, in a few
+        calls over the whole list (the whole-file check takes thousands of instances at once)."""
+        count = len(names)
+        if not count:
+            return
+        index = len(self._ends)
+        encoded = [name.encode("utf-8", "surrogatepass") for name in names]
+        self._ends.extend(islice(accumulate(map(len, encoded), initial=len(self._blob)), 1, None))
+        self._blob += b"".join(encoded)
+        self._hashes.extend(map(hash, names))
+        recent = self._recent
+        if len(recent) + count >= RECENT:
+            recent.clear()  # a new window holding the last names only: older ones are found by the scan
+        window = min(count, RECENT - 1)
+        # assignments in order: a name given twice keeps its last position
+        recent.update(zip(islice(names, count - window, None), range(index + count - window, index + count)))
 
     def name_at(self, index: int) -> str:
         start = self._ends[index - 1] if index else 0

@@ -150,6 +150,47 @@ class Sha256Schedule:
         elif cls is NamedValue or cls is Opening:
             self._state.update(self.glue_frame(record))  # type: ignore[arg-type]
 
+    def instance_frames(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes,
+                        order: str = "low-first", form: str = "evals") -> tuple[bytes, list[int]]:
+        """The frames :meth:`observe` absorbs for instance events without a batch, one after another,
+        built in one pass with numpy, and the offset where each ends: instance i has name ``names[i]``,
+        ``num_vars[i]``, ``degrees[i]``, the round order and form given, and its claim's canonical
+        packed bytes at ``claims[i * elem_bytes:]`` (the caller has checked them canonical)."""
+        import numpy as np
+
+        field = self._need_field("instance")
+        width, count = field.elem_bytes, len(names)
+        if len(claims) != count * width or len(num_vars) != count or len(degrees) != count:
+            raise ValueError(f"expected {count} claims of {width} bytes, num_vars and degrees, one per name")
+        shape = self._shapes.get((order, form))
+        if shape is None:
+            shape = self._shapes[(order, form)] = _text(order) + _text(form)
+        encoded = [name.encode("utf-8") for name in names]
+        lengths = np.fromiter(map(len, encoded), dtype=np.int64, count=count)
+        head = len(_INSTANCE_HEAD) + 16  # the tag, the body's length, the name's length
+        after = 16 + len(shape) + width  # num_vars, degree, order and form, claim
+        sizes = head + lengths + after
+        ends = np.cumsum(sizes)
+        starts = ends - sizes
+        u8 = np.uint8
+        before = np.empty((count, head), dtype=u8)
+        before[:, :len(_INSTANCE_HEAD)] = np.frombuffer(_INSTANCE_HEAD, dtype=u8)
+        before[:, len(_INSTANCE_HEAD):].view("<u8")[:, 0] = lengths + 8 + after  # the body's length
+        before[:, len(_INSTANCE_HEAD):].view("<u8")[:, 1] = lengths
+        rest = np.empty((count, after), dtype=u8)
+        rest[:, :16].view("<u8")[:, 0] = num_vars
+        rest[:, :16].view("<u8")[:, 1] = degrees
+        rest[:, 16:16 + len(shape)] = np.frombuffer(shape, dtype=u8)
+        rest[:, 16 + len(shape):] = np.frombuffer(claims, dtype=u8).reshape(count, width)
+        out = np.empty(int(ends[-1]) if count else 0, dtype=u8)
+        out[starts[:, None] + np.arange(head)] = before
+        named = int(lengths.sum())
+        if named:
+            out[np.repeat(starts + head - (np.cumsum(lengths) - lengths), lengths) + np.arange(named)] = \
+                np.frombuffer(b"".join(encoded), dtype=u8)
+        out[(starts + head + lengths)[:, None] + np.arange(after)] = rest
+        return out.tobytes(), ends.tolist()
+
     def glue_frame(self, record: NamedValue | Opening) -> bytes:
         """The frame a value or an opening is absorbed as (frames absorbed one after another are
         their concatenation absorbed at once)."""

@@ -93,6 +93,12 @@ class InstanceLedger:
         self._rounds_degree += start.num_vars * start.degree
         self.counts["pass"] += 1
 
+    def passed_unkept_many(self, count: int, rounds_degree: int) -> None:
+        """:meth:`passed_unkept` of ``count`` instances whose num_vars times degree sum to ``rounds_degree``."""
+        self._instances_seen += count
+        self._rounds_degree += rounds_degree
+        self.counts["pass"] += count
+
     def fail_first(self, failure: Failure) -> None:
         """Record a failure that belongs to no instance's summary (glue before the first instance)."""
         if self.first is None:

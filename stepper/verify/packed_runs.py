@@ -7,27 +7,33 @@ holds the fixed bytes of one round, challenge and final event for a round size;
 :class:`RunBlock` holds the runs of one layout read before a check: the packed rows, the
 values decoded from them (:func:`stepper.verify.cells.decode_cells`), and the Fiat-Shamir
 digests squeezed over frames built from the same bytes
-(:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`). Whatever does not fit
-raises :class:`GiveUp`: the caller then replays the file event by event.
+(:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`). :class:`PlainRuns` holds
+instances in a row whose events the sweep found in one chunk's bytes, as columns: a run of them
+is settled and hashed in one step (:meth:`RunBlock.absorb_plain`: their statements' frames built
+together, absorbed with their rounds in one pass), with no Python per instance. Whatever does not
+fit raises :class:`GiveUp`: the caller then replays the file event by event.
 """
 
 from __future__ import annotations
 
+from collections import deque
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from functools import lru_cache
+from operator import itemgetter
+from typing import TYPE_CHECKING, Any, Callable, Sequence, Union
 
 import msgpack
 
 if TYPE_CHECKING:
     import numpy as np
 
-    from stepper.field.field import Element
+    from stepper.field.field import Element, Field
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
     from stepper.verify.fiatshamir import Sha256Schedule
     from stepper.verify.roundblock import WideSamples
 
-__all__ = ["GiveUp", "Layout", "layout_of", "RunBlock", "rederive"]
+__all__ = ["GiveUp", "Layout", "layout_of", "PlainRuns", "Run", "RunBlock", "rederive"]
 
 
 class GiveUp(Exception):
@@ -63,24 +69,88 @@ def layout_of(values: int, width: int) -> Layout:
                    round_len + len(challenge_prefix) + width, len(final_prefix) + width)
 
 
+@dataclass(frozen=True, slots=True, eq=False)
+class PlainRuns:
+    """Instances in a row, each an ``instance`` event with no optional key right followed by its run
+    in ``layout``, read as one blob of bytes and held as columns: instance j has the index
+    ``first + j``, ``names[j]``, ``num_vars[j]``, ``degrees[j]`` and the claim ``claims[j]`` (packed
+    at ``packed_claims[j * width:]``); its rows start at ``rows_at[j]`` in ``blob``. The Sequencer
+    has taken them (:meth:`~stepper.transcript.events.Sequencer.plain_runs`) and made the record of
+    the last one, ``last``; :meth:`record` makes the others' on demand."""
+
+    first: int
+    names: Sequence[str]
+    num_vars: Sequence[int]
+    degrees: Sequence[int]
+    claims: Sequence[Element]
+    packed_claims: bytes
+    blob: memoryview
+    rows_at: Sequence[int]
+    layout: Layout
+    last: InstanceStart
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def record(self, j: int) -> InstanceStart:
+        """The record of instance j, as the Sequencer would have made it."""
+        if j == len(self.names) - 1:
+            return self.last
+        from stepper.transcript.events import Sequencer
+
+        return Sequencer.plain_record(self.first + j, self.names[j], self.num_vars[j], self.degrees[j], self.claims[j])
+
+    def rounds_degree(self, j: int) -> int:
+        """Sum of num_vars times degree over instances j, j + 1, ... (the soundness total)."""
+        return sum(map(int.__mul__, self.num_vars[j:], self.degrees[j:]))
+
+    def row_parts(self) -> list[memoryview]:
+        """The rows of every run (its rounds and challenges), a view each."""
+        stride, blob = self.layout.stride, self.blob
+        ends = [at + rounds * stride for at, rounds in zip(self.rows_at, self.num_vars)]
+        return list(map(blob.__getitem__, map(slice, self.rows_at, ends)))
+
+    def final_cells(self) -> list[memoryview]:
+        """The final value of every run, its packed bytes each."""
+        layout, blob = self.layout, self.blob
+        ends = [at + rounds * layout.stride + layout.final_len for at, rounds in zip(self.rows_at, self.num_vars)]
+        return list(map(blob.__getitem__, map(slice, [end - layout.width for end in ends], ends)))
+
+
+# a run: (its instance, its first bytes, the rest of its bytes, its layout) or instances in a row as columns
+Run = Union[tuple["InstanceStart", bytes, bytes, Layout], PlainRuns]
+
+
 class RunBlock:
     """The runs of one layout in a flush, as arrays (rows of packed bytes, decoded values),
     and the Fiat-Shamir digests squeezed for them so far."""
 
-    def __init__(self, layout: Layout, runs: list[tuple[InstanceStart, bytes, bytes, Layout]],
-                 kernel: Kernel) -> None:
+    def __init__(self, layout: Layout, runs: list[Run], kernel: Kernel, field: Field) -> None:
         import numpy as np
 
         from stepper.field.kernels.limbs import LimbKernel
-        from stepper.verify.cells import decode_cells, words_to_ints
+        from stepper.verify.cells import decode_cells
 
         self.layout = layout
         self.kernel = kernel
         final_len, width = layout.final_len, layout.width
-        # memoryview slices: the rounds of each run are copied once, by the join
-        rows = np.frombuffer(b"".join([part for _, head, rest, _ in runs
-                                       for part in (head, memoryview(rest)[:-final_len])]),
-                             dtype=np.uint8).reshape(-1, layout.stride)
+        parts: list[bytes | memoryview] = []  # the rows of each run, copied once, by the join
+        finals: list[bytes | memoryview] = []
+        claims: list[bytes] = []  # packed, checked canonical by block_passes
+        rounds: list[int] = []
+        for run in runs:
+            if run.__class__ is PlainRuns:
+                parts += run.row_parts()  # type: ignore[union-attr]
+                finals += run.final_cells()  # type: ignore[union-attr]
+                claims.append(run.packed_claims)  # type: ignore[union-attr]
+                rounds += run.num_vars  # type: ignore[union-attr]
+                continue
+            start, head, rest, _ = run  # type: ignore[misc]
+            parts += (head, memoryview(rest)[:-final_len])
+            finals.append(rest[-width:])
+            claims.append(field.encode(start.claim))
+            rounds.append(start.num_vars)
+        rows = np.frombuffer(b"".join(parts), dtype=np.uint8).reshape(-1, layout.stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
         if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
                 and np.array_equal(rows[:, layout.round_len:challenge_at],
@@ -93,29 +163,73 @@ class RunBlock:
             evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
             self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
         self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
-        final_cells = np.frombuffer(b"".join([rest[-width:] for _, _, rest, _ in runs]), dtype=np.uint8)
-        self.finals = decode_cells(kernel, final_cells, width)
-        self.claims = _claims(kernel, [start.claim for start, _, _, _ in runs])
-        self.starts = np.zeros(len(runs), dtype=np.int64)
-        np.cumsum([start.num_vars for start, _, _, _ in runs[:-1]], out=self.starts[1:])
-        # the finals as Python ints straight from their bytes (not back from limbs: n object passes)
-        finals = words_to_ints(final_cells.reshape(-1, width)) if isinstance(kernel, LimbKernel) else self.finals
-        self._finals = iter(finals.tolist() if isinstance(kernel, LimbKernel) else kernel.to_list(finals))
-        self._firsts = iter(self.starts.tolist())
+        self._final_cells = np.frombuffer(b"".join(finals), dtype=np.uint8).reshape(-1, width)
+        self.finals = decode_cells(kernel, self._final_cells, width)
+        self.claims = decode_cells(kernel, np.frombuffer(b"".join(claims), dtype=np.uint8), width)
+        self.starts = np.zeros(len(rounds), dtype=np.int64)
+        np.cumsum(rounds[:-1], out=self.starts[1:])
+        self._starts = self.starts.tolist()
+        self._next = 0  # the next run, in stream order
         self._view: memoryview | None = None
         self._round_len = self._frame_len = 0
         self.digests = bytearray()  # 32 bytes per squeezed digest, in the schedule's order
 
     def next_run(self) -> tuple[int, Element]:
         """The first row and the final value of the next run of this block, in stream order."""
-        return next(self._firsts), next(self._finals)
+        j = self._next
+        self._next = j + 1
+        return self._starts[j], self._final(j)
 
-    def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
-        """Run the schedule over the next run of this block (its statement already absorbed)."""
+    def skip(self, count: int) -> int:
+        """Pass over the next ``count`` runs (settled in bulk: their finals are not needed one by one);
+        returns the first row of the first."""
+        j = self._next
+        self._next = j + count
+        return self._starts[j]  # type: ignore[no-any-return]
+
+    def _final(self, j: int) -> Element:
+        from stepper.field.kernels.limbs import LimbKernel
+
+        if isinstance(self.kernel, LimbKernel):  # a Python int straight from its bytes, not back from limbs
+            return int.from_bytes(self._final_cells[j].tobytes(), "little")
+        return self.kernel.to_list(self.finals[j:j + 1])[0]  # type: ignore[no-any-return]
+
+    def _frames_view(self, schedule: Sha256Schedule) -> memoryview:
+        """The schedule's round and challenge frames of every row of the block (built once)."""
         if self._view is None:
             frames, self._round_len = _frames(schedule.row_heads(self.layout.values), self.rows, self.layout)
             self._view, self._frame_len = memoryview(frames.reshape(-1)), frames.shape[1]  # type: ignore[arg-type]
-        schedule.absorb_rows(self._view, first, rounds, self._round_len, self._frame_len, self.digests)
+        return self._view
+
+    def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
+        """Run the schedule over the next run of this block (its statement already absorbed)."""
+        view = self._frames_view(schedule)
+        schedule.absorb_rows(view, first, rounds, self._round_len, self._frame_len, self.digests)
+
+    def absorb_plain(self, schedule: Sha256Schedule, first: int, plain: PlainRuns, j: int) -> None:
+        """Run the schedule over the statements and runs of instances j, j + 1, ... of ``plain``, whose
+        rows are this block's from row ``first`` on: the state of ``observe`` of each statement then
+        :meth:`absorb` of its run, in one pass. The rows are cut into the pieces absorbed between two
+        squeezes (:func:`_pieces`); each statement goes into the piece that holds its instance's first
+        round, after the last challenge of the instance before: those pieces are built together by
+        one gather (:func:`_with_statements`)."""
+        import numpy as np
+
+        view = self._frames_view(schedule)
+        round_len, frame_len = self._round_len, self._frame_len
+        counts = plain.num_vars[j:]
+        rows = sum(counts)
+        width = self.layout.width
+        statements, ends = schedule.instance_frames(plain.names[j:], counts, plain.degrees[j:],
+                                                    plain.packed_claims[j * width:])
+        pieces = _pieces(view[first * frame_len:(first + rows) * frame_len], rows, round_len, frame_len)
+        pieces[0] = b"".join((memoryview(statements)[:ends[0]], pieces[0]))
+        if len(counts) > 1:
+            firsts = np.cumsum(counts[:-1])  # each later instance's first row, from ``first``
+            frames = np.frombuffer(view, dtype=np.uint8).reshape(-1, frame_len)
+            joined = _with_statements(frames, first + firsts, round_len, statements, np.array(ends))
+            deque(map(pieces.__setitem__, firsts.tolist(), joined), maxlen=0)
+        schedule.absorb_pieces(pieces, self.digests)
 
     def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | WideSamples | None:
         """The challenges the schedule squeezed for every round of the block (None: no schedule);
@@ -155,22 +269,61 @@ def rederive(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray
     return reduce_wide(kernel, squeezed, schedule.wide_bytes).reshape(shape)  # type: ignore[union-attr]
 
 
-def _claims(kernel: Kernel, claims: list[Element]) -> np.ndarray:
-    """The claims as a kernel array; over an extension with uint64 coefficients in one numpy call
-    from the coefficient tuples (``kernel.array`` walks them in Python). Not checked canonical here:
-    :func:`~stepper.verify.roundblock.block_passes` checks them."""
+_CUT_ROWS = 256  # rows cut by one cached C call (:func:`_pieces`)
+
+
+@lru_cache(maxsize=8)
+def _row_cut(count: int, stride: int) -> Callable[[memoryview], tuple[memoryview, ...]]:
+    """One C call cutting ``count`` pieces of ``stride`` bytes each from a buffer's start."""
+    return itemgetter(*(slice(k * stride, (k + 1) * stride) for k in range(count)))
+
+
+def _pieces(view: memoryview, rows: int, round_len: int, stride: int) -> list[bytes | memoryview]:
+    """``rows`` rows of frames (each a round's frame of ``round_len`` bytes, then its challenge's,
+    ``stride`` in all) cut into the pieces absorbed between two squeezes: the first round, then each
+    challenge with the next round, then the last challenge. The middle pieces are cut
+    ``_CUT_ROWS`` at a time by one cached C call (its slices made once per size)."""
+    pieces: list[bytes | memoryview] = [view[:round_len]]
+    middle = rows - 1  # challenge k with round k + 1
+    whole, left = divmod(middle, _CUT_ROWS)
+    at = round_len
+    if whole:
+        cut = _row_cut(_CUT_ROWS, stride)
+        span = _CUT_ROWS * stride
+        for _ in range(whole):
+            pieces += cut(view[at:at + span])
+            at += span
+    if left:
+        pieces += _row_cut(left, stride)(view[at:at + left * stride]) if left > 1 else (view[at:at + stride],)
+        at += left * stride
+    pieces.append(view[at:rows * stride])
+    return pieces
+
+
+def _with_statements(frames: np.ndarray, rows: np.ndarray, round_len: int, statements: bytes,
+                     ends: np.ndarray) -> list[memoryview]:
+    """For each row r of ``rows`` (row r - 1 the last of the instance before), the piece absorbed
+    between the squeeze of row r - 1 and that of row r with instance i's statement put before its
+    first round: row r - 1's challenge frame, ``statements[ends[i] .. ends[i + 1])`` (the first
+    ``ends[0]`` bytes are the first instance's, not put here), row r's round frame. Built by one
+    gather per part; returned as views of one buffer."""
     import numpy as np
 
-    from stepper.field.kernels import ExtensionKernel
-
-    if isinstance(kernel, ExtensionKernel) and kernel.dtype is not object:
-        try:
-            values = np.array(claims, dtype=np.uint64)
-        except (OverflowError, TypeError, ValueError):  # not k integers each, or out of uint64's range
-            return kernel.array(claims)
-        if values.shape == (len(claims), kernel.k):
-            return values
-    return kernel.array(claims)
+    stride = frames.shape[1]
+    tail = stride - round_len  # a challenge's frame
+    lengths = np.diff(ends)
+    sizes = stride + lengths
+    offsets = np.cumsum(sizes) - sizes
+    out = np.empty(int(sizes.sum()), dtype=np.uint8)
+    flat = frames.reshape(-1)
+    out[offsets[:, None] + np.arange(tail)] = flat[(rows * stride - tail)[:, None] + np.arange(tail)]
+    out[(offsets + tail + lengths)[:, None] + np.arange(round_len)] = flat[(rows * stride)[:, None]
+                                                                           + np.arange(round_len)]
+    named = int(lengths.sum())
+    shift = np.repeat(offsets + tail - ends[:-1], lengths)  # statement byte b goes to b + shift
+    out[np.arange(ends[0], ends[0] + named) + shift] = np.frombuffer(statements, dtype=np.uint8)[ends[0]:]
+    view = memoryview(out)  # type: ignore[arg-type]
+    return list(map(view.__getitem__, map(slice, offsets.tolist(), (offsets + sizes).tolist())))
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:

@@ -171,6 +171,21 @@ class Replay:
         self._on_final(FinalValue(start.index, final))
         return True
 
+    def settles_quietly(self) -> bool:
+        """Whether :meth:`settle` of a passing instance without a batch now only counts it, its
+        statement absorbed by :attr:`schedule` (when there is one): no instance open, no summary kept,
+        no plug-in history (see :meth:`settle_quietly`)."""
+        return self._quiet_statement is not None and self._live is None and self._pending_batch is None
+
+    def settle_quietly(self, count: int, rounds_degree: int) -> None:
+        """:meth:`settle` of ``count`` passing instances without a batch whose num_vars times degree
+        sum to ``rounds_degree``, while :meth:`settles_quietly`: they are counted, and the caller
+        absorbs their statements into :attr:`schedule` (when there is one) with their rounds
+        (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.instance_frames`)."""
+        if not self.settles_quietly():
+            raise ValueError("expected a summary replay that keeps no more summaries to settle instances quietly")
+        self._ledger.passed_unkept_many(count, rounds_degree)
+
     def settle_glue(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:
         """Account for values, squeezes and openings that follow an instance settled in bulk,
         in stream order: the schedule has absorbed them and every squeeze equals the derived

@@ -52,7 +52,7 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
-from stepper.verify.packed_runs import GiveUp as _GiveUp, Layout, RunBlock, layout_of
+from stepper.verify.packed_runs import GiveUp as _GiveUp, Layout, PlainRuns, Run, RunBlock, layout_of
 from stepper.transcript.model import (
     FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent,
 )
@@ -135,7 +135,7 @@ class _Sweeper:
         self.kernel: Kernel | None = None
         self.layout: Layout | None = None  # of the last run read
         self.layouts: dict[int, Layout] = {}  # by values per round
-        self.runs: list[tuple[InstanceStart, bytes, bytes, Layout]] = []  # instance, first bytes, rest, layout
+        self.runs: list[Run] = []  # (instance, first bytes, rest, layout), or instances in a row as columns
         self.trailing: list[list[Any]] = []  # the glue after each run (payloads, or a blob of GlueRun's events), checked with them
         self.glue_tail: list[Any] | None = None  # where glue payloads now go (None: the Sequencer)
         self.glue: GlueChecks | None = None  # set with the field
@@ -335,6 +335,7 @@ class _Sweeper:
         most, rows, size, limit = len(data), self.rows, self.pending_bytes, self.limits.chunk_bytes * 8
         found: list[tuple[int, bytes, int, int, bytes, bytes | None, bytes | None]] = []  # each event's end, fields
         glue_ends: list[int] = []  # where the glue after each run taken ends
+        plain = True  # no claim_expr or final_expr, no glue between the runs: taken as columns
         head_at = at
         while rows < BLOCK_ROUNDS and size < limit:
             head = find(data, head_at)
@@ -346,6 +347,8 @@ class _Sweeper:
                     or not data.startswith(final_prefix, end - final_len)
                     or ((claim_expr is not None or final_expr is not None) and glue is None)):
                 break  # the usual path takes it (and judges it)
+            if head_at != at or claim_expr is not None or final_expr is not None:
+                plain = False  # glue before this instance (after the last run, the flush takes it), or texts
             found.append(head)
             rows += num_vars
             size += num_vars * stride
@@ -355,8 +358,11 @@ class _Sweeper:
         if not found:
             return
         blob = memoryview(self.unpacker.read_bytes(at - first))
-        seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
         try:
+            if plain and len(found) > 1 and self._take_plain(found, blob, first, layout):
+                self._after_runs(rows - self.rows, size - self.pending_bytes)
+                return
+            seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
             for j, (head_end, name, num_vars, degree, claim, claim_expr, final_expr) in enumerate(found):
                 start = seq.plain_instance(name.decode(), num_vars, degree, claim,
                                            None if claim_expr is None else claim_expr.decode(),
@@ -371,6 +377,25 @@ class _Sweeper:
         except UnicodeDecodeError:
             raise _GiveUp("a text that is not UTF-8") from None  # the usual path names it
         self._after_runs(rows - self.rows, size - self.pending_bytes)
+
+    def _take_plain(self, found: list[tuple[int, bytes, int, int, bytes, bytes | None, bytes | None]],
+                    blob: memoryview, first: int, layout: Layout) -> bool:
+        """Hand instances found with no claim_expr, no final_expr and no glue between their runs to
+        the Sequencer in one step and keep them as columns (:class:`PlainRuns`), or return False
+        (nothing done) when the Sequencer leaves them to be fed one by one."""
+        names = [head[1].decode() for head in found]
+        num_vars = [head[2] for head in found]
+        degrees = [head[3] for head in found]
+        packed_claims = b"".join([head[4] for head in found])
+        index = len(self.seq.names)
+        claims = self.seq.plain_runs(names, num_vars, degrees, packed_claims)
+        if claims is None:
+            return False
+        last = self.seq.current
+        assert last is not None
+        self.runs.append(PlainRuns(index, names, num_vars, degrees, claims, packed_claims, blob,
+                                   [head[0] - first for head in found], layout, last))
+        return True
 
     def _take_glue(self, tail: list[Any]) -> None:
         """Take the glue events right after a run that are packed as the writer packs them
@@ -425,6 +450,30 @@ class _Sweeper:
         self.layout = layout
         return head, layout
 
+    def _settle_plain(self, plain: PlainRuns, block: RunBlock) -> bool:
+        """Settle the instances of ``plain`` into the replay and run the schedule over them, as
+        :meth:`_flush` does one run at a time: one at a time while the replay keeps their summaries,
+        the rest in one step (:meth:`~stepper.verify.replay.Replay.settle_quietly`,
+        :meth:`~stepper.verify.packed_runs.RunBlock.absorb_plain`). Returns whether the last one's
+        summary is kept."""
+        replay, count, j, kept = self.replay, len(plain), 0, False
+        while j < count and not replay.settles_quietly():
+            start = plain.record(j)
+            first, final = block.next_run()
+            kept = replay.settle(start, final)
+            schedule = replay.schedule  # the first settle may start the default schedule
+            if schedule is not None:
+                block.absorb(schedule, first, start.num_vars)
+            j += 1
+        if j == count:
+            return kept
+        replay.settle_quietly(count - j, plain.rounds_degree(j))
+        first = block.skip(count - j)
+        schedule = replay.schedule
+        if schedule is not None:
+            block.absorb_plain(schedule, first, plain, j)
+        return False
+
     # ----- checking a block -----------------------------------------------------------
     def _flush(self) -> None:
         """Check the runs read so far, and the glue after them, and settle them into the replay, or
@@ -444,10 +493,10 @@ class _Sweeper:
         glue = GlueColumns(field, trailing, seq.defined, blobs_only=not self.glue_unpacked)
         self.glue_unpacked = False
         seq.count += glue.from_bytes  # the events read as blobs, not counted as they were taken
-        members: dict[Layout, list[tuple[InstanceStart, bytes, bytes, Layout]]] = {}
+        members: dict[Layout, list[Run]] = {}
         for run in runs:
-            members.setdefault(run[3], []).append(run)
-        blocks = {layout: RunBlock(layout, group, kernel) for layout, group in members.items()}
+            members.setdefault(run.layout if run.__class__ is PlainRuns else run[3], []).append(run)  # type: ignore[union-attr, index]
+        blocks = {layout: RunBlock(layout, group, kernel, field) for layout, group in members.items()}
         replay = self.replay
         pieces: list[list[memoryview]] | None = None  # the glue's, run by run
         digests = bytearray()  # of the glue's squeezes
@@ -455,15 +504,22 @@ class _Sweeper:
         unkept = glue.size  # the first glue event after a run whose summary is not kept
         bounds = glue.bounds
         try:
-            for i, (start, _, _, layout) in enumerate(runs):
-                block = blocks[layout]
-                first, final = block.next_run()
-                kept = replay.settle(start, final)
-                if start.claim_expr is not None or start.final_expr is not None:
-                    glued.append((i, start, final, block.challenges, first))
-                schedule = replay.schedule  # the first settle may start the default schedule
+            for i, run in enumerate(runs):
+                if run.__class__ is PlainRuns:
+                    kept = self._settle_plain(run, blocks[run.layout])  # type: ignore[arg-type, union-attr]
+                    start = run.last  # type: ignore[union-attr]
+                    schedule = replay.schedule
+                else:
+                    start, _, _, layout = run  # type: ignore[misc]
+                    block = blocks[layout]
+                    first, final = block.next_run()
+                    kept = replay.settle(start, final)
+                    if start.claim_expr is not None or start.final_expr is not None:
+                        glued.append((i, start, final, block.challenges, first))
+                    schedule = replay.schedule  # the first settle may start the default schedule
+                    if schedule is not None:
+                        block.absorb(schedule, first, start.num_vars)
                 if schedule is not None:
-                    block.absorb(schedule, first, start.num_vars)
                     if glue.size:
                         if pieces is None:
                             pieces = glue.pieces(schedule)

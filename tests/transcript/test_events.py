@@ -709,3 +709,57 @@ def test_a_plain_instance_gives_the_record_state_and_error_that_feeding_its_payl
     assert (outcomes[0][0] == "record") == (case in ("plain", "bn254", "babybear^4", "after a batch",
                                                      "an instance still open", "glue texts",
                                                      "glue texts, version 1", "glue texts not deferred"))
+
+
+@pytest.mark.parametrize("case", ["goldilocks", "bn254", "babybear^4", "an instance still open", "repeated names",
+                                  "claim equal to p", "no rounds", "num_vars past the cap", "degree past the cap",
+                                  "after a batch", "counts of another length"])
+def test_plain_runs_give_the_state_and_claims_that_feeding_every_event_of_the_instances_gives(case):
+    # Reference: the same instances fed event by event (instance, each round and challenge, final), which
+    # the tests above pin to the event stream's rules; plain_runs must leave the same state or do nothing.
+    field, p, k = {"bn254": ("bn254", BN254_R, 1), "babybear^4": ("babybear", BABYBEAR, 4)}.get(case, ("goldilocks",
+                                                                                                       GOLDILOCKS, 1))
+    width = (p.bit_length() + 7) // 8 if k == 1 else 4
+    rng = random.Random(case)
+    names = ["sailing-0740", "", "quay-\u00e5", "sailing-0740" if case == "repeated names" else "x" * 31]
+    num_vars = [1, 3, 2, 0 if case == "no rounds" else 4]
+    num_vars[2] = 65 if case == "num_vars past the cap" else num_vars[2]  # MAX_NUM_VARS = 64
+    degrees = [1, 2, (1 << 12) + 1 if case == "degree past the cap" else 3, 0]  # MAX_DEGREE = 2^12
+    claims = [[rng.randrange(p) for _ in range(k)] for _ in names]
+    claims[1][-1] = p if case == "claim equal to p" else claims[1][-1]
+    packed = b"".join(v.to_bytes(width, "little") for claim in claims for v in claim)
+
+    def fresh() -> Sequencer:
+        seq = Sequencer()
+        seq.feed({"type": "field", "name": field, **({"extension_degree": 4} if k == 4 else {})})
+        if case == "after a batch":
+            seq.feed({"type": "batch", "coefficient": 3, "terms": [1, 2]})
+        if case == "an instance still open":
+            seq.feed({"type": "instance", "name": "earlier", "num_vars": 2, "degree": 1, "claim": 0})
+        return seq
+
+    bulk, fed = fresh(), fresh()
+    before = _instance_state(bulk)
+    taken = bulk.plain_runs(names, num_vars[:3] if case == "counts of another length" else num_vars, degrees, packed)
+    expected_ok = case in ("goldilocks", "bn254", "babybear^4", "an instance still open", "repeated names")
+    if not expected_ok:
+        assert taken is None and _instance_state(bulk) == before
+        return
+    records = []
+    for name, rounds, degree, claim in zip(names, num_vars, degrees, claims):
+        value = b"".join(v.to_bytes(width, "little") for v in claim)
+        records.append(fed.feed({"type": "instance", "name": name, "num_vars": rounds, "degree": degree,
+                                 "claim": value}))
+        for _ in range(rounds):
+            fed.feed({"type": "round", "evals": value})
+            fed.feed({"type": "challenge", "value": value})
+        fed.feed({"type": "final", "value": value})
+    assert taken == tuple(record.claim for record in records)
+    assert _instance_state(bulk) == _instance_state(fed)
+    assert [bulk.names.name_at(i) for i in range(len(bulk.names))] == [fed.names.name_at(i)
+                                                                        for i in range(len(fed.names))]
+    assert all(bulk.names.last(name) == fed.names.last(name) for name in names)
+    assert [Sequencer.plain_record(r.index, r.name, r.num_vars, r.degree, r.claim) for r in records] == records
+    # what follows is judged alike: a note naming an instance, then the next instance
+    note = {"type": "note", "text": "gangway", "instance": "sailing-0740"}
+    assert bulk.feed(note) == fed.feed(note)

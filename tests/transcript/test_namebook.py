@@ -46,3 +46,20 @@ def test_a_non_string_is_never_in_the_book() -> None:
     book = NameBook()
     book.add("7")
     assert 7 not in book and None not in book
+
+
+def test_names_added_all_at_once_read_back_as_names_added_one_by_one() -> None:
+    # the whole-file check hands thousands of instance names over in one call: the book must answer
+    # exactly as the plain list does, repeats and names pushed out of the recent window included
+    rng = random.Random(19)
+    book, names = NameBook(), []
+    for size in (1, 3, RECENT - 1, 1, 2 * RECENT + 7, 5, RECENT, 0, 40):
+        batch = [rng.choice([f"crossing-{rng.randrange(3 * RECENT)}", "", "quay ✓", "\ud800lone"])
+                 for _ in range(size)]
+        book.add_all(batch)
+        names += batch
+        assert len(book) == len(names)
+    assert [book.name_at(i) for i in range(len(names))] == names
+    for probe in {*names, "nowhere", *(f"crossing-{i}" for i in range(0, 3 * RECENT, 7))}:
+        assert book.last(probe) == _last_in_list(names, probe), probe
+    assert book.add("after") == len(names)

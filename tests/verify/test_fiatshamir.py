@@ -325,3 +325,46 @@ def test_glue_stream_of_single_elements_gives_the_state_of_the_records_observed_
     digests = bytearray()
     bulk.absorb_pieces([stream[a:b] for a, b in zip(marks, marks[1:])], digests)
     assert bulk.state_digest() == one.state_digest()
+
+
+def test_instance_frames_reproduce_the_pinned_instance_vector():
+    s = Sha256Schedule()
+    s.observe(FieldDecl(get_field(P)))
+    s.observe(ScheduleDecl(SCHEDULE_NAME, LABEL))
+    frames, ends = s.instance_frames(["boarding-permutation"], [2], [2], el(38))
+    assert frames == frame(b"instance", text("boarding-permutation") + u64(2) + u64(2) + text("low-first")
+                           + text("evals") + el(38)) and ends == [len(frames)]
+    s.absorb_frames(frames)
+    assert s.state_digest().hex() == DIGESTS["instance"]
+
+
+@pytest.mark.parametrize("spec", [("goldilocks", None), ("babybear", 4), ("bn254", None), ("bls12-381", None)])
+def test_instance_frames_built_together_give_the_state_of_each_statement_observed(spec):
+    # the statements of many instances framed at once (names of every length, empty and not ASCII)
+    # against the schedule observing each record: the state after every instance, through the ends
+    import random
+
+    name, ext_degree = spec
+    p = NAMED_PRIMES[name]
+    field = get_field(p, (p - 11, 0, 0, 0, 1)) if ext_degree else get_field(p)
+    rng = random.Random(6)
+    one, bulk = Sha256Schedule(), Sha256Schedule()
+    for s in (one, bulk):
+        s.observe(FieldDecl(field))
+    starts = [InstanceStart(i, rng.choice(["", "sailing-0740", "quay-\u00e5", "x" * rng.randrange(40)]),
+                            rng.randint(1, 64), rng.randrange(1 << 12),
+                            field.embed(rng.randrange(p)) if not ext_degree else tuple(rng.randrange(p) for _ in range(4)))
+              for i in range(30)]
+    frames, ends = bulk.instance_frames([s.name for s in starts], [s.num_vars for s in starts],
+                                        [s.degree for s in starts], b"".join(field.encode(s.claim) for s in starts))
+    assert ends[-1] == len(frames)
+    base = bulk.state_digest()
+    for start, end in zip(starts, ends):
+        one.observe(start)
+        again = Sha256Schedule()
+        again.observe(FieldDecl(field))
+        assert again.state_digest() == base
+        again.absorb_frames(frames[:end])
+        assert again.state_digest() == one.state_digest()
+    with pytest.raises(ValueError):
+        bulk.instance_frames(["a", "b"], [1, 1], [1, 1], field.encode(field.zero))

@@ -55,3 +55,14 @@ def test_an_instance_left_open_makes_the_verdict_incomplete():
     ledger = InstanceLedger(keep_instances=None)
     _closed(ledger, 0, "incomplete")
     assert ledger.verdict("complete") == "incomplete"
+
+
+def test_passing_instances_settled_together_count_as_settled_one_by_one():
+    one, many = InstanceLedger(keep_instances=0), InstanceLedger(keep_instances=0)
+    starts = [InstanceStart(i, f"sailing-{i}", num_vars=2 + i, degree=3 + i % 2, claim=1) for i in range(4)]
+    for start in starts:
+        one.passed_unkept(start)
+    many.passed_unkept_many(len(starts), sum(s.num_vars * s.degree for s in starts))
+    field = get_field(BABYBEAR)
+    assert one.counts == many.counts == {"pass": 4, "fail": 0, "incomplete": 0}
+    assert one.soundness(field) == many.soundness(field) and one.verdict("complete") == "accept"

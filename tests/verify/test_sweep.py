@@ -125,6 +125,8 @@ class Knobs:
     names: tuple[str, ...] = ()  # when given, instance i is named names[i % len(names)] + its index
     glue_after_only: bool = False  # with glue: only the openings and squeezes after each run (no point
     # value before an instance, no claim_expr or final_expr)
+    glue_every: int = 1  # with glue: only instances i with i % glue_every == 0 carry it
+    low_first: bool = False  # every instance low-first (no order key: runs of plain instances in a row)
     fault: str | None = None
     seed: int = 0
 
@@ -223,7 +225,8 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
         claim = element(ar, rng)
         batched = knobs.batch and rng.random() < 0.3
         glue_keys: dict[str, str] = {}
-        if knobs.glue:
+        glued = knobs.glue and i % knobs.glue_every == 0
+        if glued:
             w = [element(ar, rng) for _ in range(num_vars)]
             if not knobs.glue_after_only:
                 put({"type": "value", "name": f"w{i}", "value": [ar.json(x) for x in w]})
@@ -243,9 +246,10 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
                 claim, power = ar.add(claim, ar.mul(power, term)), ar.mul(power, coefficient)
             put({"type": "batch", "coefficient": ar.json(coefficient), "terms": [ar.json(t) for t in terms]})
         name = f"{knobs.names[i % len(knobs.names)]}{i}" if knobs.names else f"boarding-permutation-{i}"
+        drawn_order = rng.choice(["low-first", "high-first"])  # drawn either way: the same file otherwise
         put({"type": "instance", "name": name, "num_vars": num_vars, "degree": degree,
              "claim": ar.json(bump(ar, claim) if faulty == "claim" else claim), "form": form,
-             "order": (order := rng.choice(["low-first", "high-first"])), **glue_keys})
+             "order": (order := "low-first" if knobs.low_first else drawn_order), **glue_keys})
         regular = regular and form == "evals" and not batched and final and not ragged
         fault_round = rng.randint(1, num_vars)
         challenges: list[Elem] = []
@@ -269,7 +273,7 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
             claim = horner(ar, coeffs, r)
         if final:
             put({"type": "final", "value": ar.json(bump(ar, claim) if faulty == "final" else claim)})
-        if knobs.glue:  # openings that make final_expr hold at the instance's point, then a squeeze
+        if glued:  # openings that make final_expr hold at the instance's point, then a squeeze
             point = challenges if order == "low-first" else challenges[::-1]
             a, b = element(ar, rng), element(ar, rng)
             c = ar.sub(evaluation[1](ar, eq_plain(ar, w, point), w, a, b), claim)
@@ -922,3 +926,90 @@ def test_point_and_final_of_an_earlier_instance_are_left_to_the_replay(tmp_path,
     monkeypatch.setenv("STEPPER_SWEEP", "on")
     assert swept_report(path, 20) is None
     assert event_by_event(path, 20)[0].verdict == "accept"
+
+
+# ----- 4. instances in a row taken as columns ------------------------------------------------
+
+
+def spy_quiet_settling(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """The instances each call of Replay.settle_quietly settled (the columns' path), in order."""
+    settled: list[int] = []
+    real = Replay.settle_quietly
+
+    def spy(self: Replay, count: int, rounds_degree: int) -> None:
+        settled.append(count)
+        real(self, count, rounds_degree)
+
+    monkeypatch.setattr(Replay, "settle_quietly", spy)
+    return settled
+
+
+PLAIN_NAMES = ("", "quay-\u00e5-", "x" * 25, "sailing-")  # of several lengths, empty and not ASCII
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "goldilocks^2", "p97^3", "mersenne31^4", "p64",
+                                   "bn254", "bls12-381"])
+@pytest.mark.parametrize("schedule", ["builtin", "none"])
+def test_plain_instances_in_a_row_are_settled_together_and_report_as_the_replay(tmp_path, monkeypatch, field,
+                                                                                 schedule):
+    # every instance low-first with no optional key: each chunk's instances are taken as columns, the
+    # first summaries kept one by one, the rest settled and hashed together, across blocks and chunks
+    settled = spy_quiet_settling(monkeypatch)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 40)
+    knobs = Knobs(field=field, schedule=schedule, instances=60, max_vars=5, degrees=(3,), low_first=True,
+                  names=PLAIN_NAMES, seed=61)
+    written = write_transcript(tmp_path / "plain.sumtr", knobs)
+    for keep, chunk in ((20, 1 << 20), (1, 1 << 20), (7, 4096), (0, 1 << 20)):
+        settled.clear()
+        assert_same_report(written.path, keep, ReadLimits(chunk_bytes=chunk))
+        # not vacuous: most instances past the kept ones go in columns (small chunks hold few at a time)
+        assert sum(settled) >= ((60 - keep) // 2 if chunk > 4096 else 2) and max(settled) > 1, (keep, chunk, settled)
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "bn254"])
+@pytest.mark.parametrize("after_only", [True, False])
+def test_plain_instances_between_glued_ones_report_as_the_replay(tmp_path, monkeypatch, field, after_only):
+    # glue after every fifth instance (openings and squeezes; with claim_expr and final_expr too when not
+    # after_only): the instances in between are taken as columns, the glue after the last of them checked
+    # with the run it follows, the glued instances one by one
+    settled = spy_quiet_settling(monkeypatch)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 50)
+    knobs = Knobs(field=field, instances=60, max_vars=4, degrees=(2,), low_first=True, names=PLAIN_NAMES, glue=True,
+                  glue_after_only=after_only, glue_every=5, seed=62)
+    written = write_transcript(tmp_path / "between.sumtr", knobs)
+    for keep in (20, 3):
+        settled.clear()
+        assert_same_report(written.path, keep)
+        assert sum(settled) > 0
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "bn254", "bls12-381"])
+@pytest.mark.parametrize("fault", ["eval", "challenge", "final", "claim", "noncanonical"])
+def test_a_fault_among_plain_instances_in_a_row_makes_the_sweep_give_up_and_check_name_it(tmp_path, capsys,
+                                                                                        monkeypatch, field, fault):
+    for seed in range(2):
+        knobs = Knobs(field=field, instances=30, max_vars=4, degrees=(3,), low_first=True, fault=fault, seed=seed)
+        written = write_transcript(tmp_path / f"{fault}.sumtr", knobs)
+        assert swept_report(written.path, 3) is None, (fault, seed)
+        code, _, _, swept = check_both(capsys, monkeypatch, written.path, "--rows", "3")
+        assert swept is None and code != 0
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "bn254"])
+def test_a_claim_past_p_among_plain_instances_is_left_to_the_replay_which_names_it(tmp_path, capsys, monkeypatch,
+                                                                                 field):
+    # one claim in the middle made p itself (its packed bytes; for an extension its first coefficient),
+    # sealed again: the Sequencer takes the instances one by one, the sweep gives up, and check names the
+    # claim as the replay does
+    knobs = Knobs(field=field, instances=30, max_vars=3, degrees=(2,), low_first=True, seed=63)
+    written = write_transcript(tmp_path / "claim.sumtr", knobs)
+    ar = FIELDS[field][0]
+    width = (ar.p.bit_length() + 7) // 8
+    body = bytearray(written.path.read_bytes()[:written.offsets[-1][2]])  # up to the end event
+    _, _, end = [o for o in written.offsets if o[0] == "instance"][15]
+    at = end - width * ar.k  # the claim's packed bytes end the instance event
+    body[at:at + width] = ar.p.to_bytes(width, "little")
+    written.path.write_bytes(bytes(body) + seal(bytes(body), len(written.offsets)))
+    assert swept_report(written.path, 3) is None
+    code, _, err, swept = check_both(capsys, monkeypatch, written.path)
+    assert swept is None and code == 2 and "claim: expected a canonical element below p" in err, err
