@@ -32,6 +32,8 @@ DESCRIPTION = (
 # the kinds of stepper.provers.reference.KINDS (kept here so building the parser imports no numpy)
 KINDS = ("generic", "zerocheck", "zerocheck-eq", "perm-direct", "perm-grouped", "gkr-product", "ferries",
          "ferries-fingerprint")
+# stepper.verify.fiatshamir.BUILTIN_SCHEDULES, the default first (tests/cli pins that the two agree)
+SCHEDULES = ("stepper-sha256/1", "stepper-sha256/2")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -68,6 +70,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--tamper", choices=("double-scan", "phantom-car"),
                         help="ferries, ferries-fingerprint: make the sailing's records dishonest")
     parser.add_argument("--label", default="", help="label stored in the transcript")
+    parser.add_argument("--schedule", choices=SCHEDULES, default=SCHEDULES[0], metavar="NAME",
+                        help=f"the built-in Fiat-Shamir schedule the challenges come from: {', '.join(SCHEDULES)} "
+                             f"(default {SCHEDULES[0]}; {SCHEDULES[1]} hashes once per challenge, the faster "
+                             f"to check in extension fields)")
     parser.add_argument("--json", action="store_true", help="print the run summary as JSON")
 
 
@@ -89,7 +95,7 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError(f"expected --switch-round auto or a round number, found {args.switch_round!r}")
     groups = args.groups if args.groups is not None else 2
     spec = ProveSpec(args.kind, args.num_vars, args.seed, groups, switch, fault, args.order, args.form,
-                     args.combine, args.tamper, args.label)
+                     args.combine, args.tamper, args.label, args.schedule)
     from stepper.transcript.store.output import atomic_output, refuse_existing
 
     for path in (args.output, args.witness_out):  # refused before any work is done

@@ -4,9 +4,10 @@ A :class:`ProofChannel` turns a reference prover's messages into event records
 (:mod:`stepper.transcript.model`) and hands each to a sink: anything with a
 ``write(record)`` method, such as :class:`stepper.transcript.store.TranscriptWriter`, the
 in-memory :class:`ListSink`, or :class:`JsonLinesSink` for the event stream of
-``stepper record``. Challenges come from the built-in Fiat-Shamir schedule
-(:class:`stepper.verify.fiatshamir.Sha256Schedule`), declared by a ``schedule`` event,
-which observes exactly what is sent, so ``stepper check`` re-derives every one.
+``stepper record``. Challenges come from a built-in Fiat-Shamir schedule chosen by name
+(:func:`stepper.verify.fiatshamir.schedule_for`; ``stepper-sha256/1`` unless told otherwise,
+so what the provers write stays as it was), declared by a ``schedule`` event, which observes
+exactly what is sent, so ``stepper check`` re-derives every one.
 
 The faults that live on the wire are applied here, in one place: a negated
 claim, a claim left out of the schedule, a Montgomery-scaled or truncated
@@ -25,7 +26,7 @@ from typing import IO, TYPE_CHECKING, Any, Protocol, Sequence
 import numpy as np
 
 from stepper.errors import UsageError
-from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule, schedule_for
 from stepper.field.poly import RoundPoly
 from stepper.provers.faults import Fault, montgomery_radix
 from stepper.transcript.model import (
@@ -97,18 +98,20 @@ class JsonLinesSink:
 
 
 class ProofChannel:
-    """Sends one proof's records to ``sink`` and draws its challenges."""
+    """Sends one proof's records to ``sink`` and draws its challenges from the built-in schedule
+    ``schedule`` (a name of :data:`~stepper.verify.fiatshamir.BUILTIN_SCHEDULES`)."""
 
-    def __init__(self, field: Field, sink: EventSink, *, label: str = "", fault: Fault | None = None) -> None:
+    def __init__(self, field: Field, sink: EventSink, *, label: str = "", fault: Fault | None = None,
+                 schedule: str = SCHEDULE_NAME) -> None:
         self.field = field
         self.sink = sink
         self.fault = fault
-        self.schedule = Sha256Schedule()
+        self.schedule = schedule_for(schedule)
         self.instance = -1
         self.round = 0
         self.form = "evals"
         self._emit(FieldDecl(field))
-        self._emit(ScheduleDecl(SCHEDULE_NAME, label))
+        self._emit(ScheduleDecl(schedule, label))
 
     def _emit(self, record: Event) -> None:
         self.schedule.observe(record)
@@ -123,7 +126,7 @@ class ProofChannel:
             part = item if isinstance(item, bytes) else self.table_bytes(item)
             digest.update(len(part).to_bytes(8, "little"))
             digest.update(part)
-        side = Sha256Schedule()
+        side = Sha256Schedule()  # stepper-sha256/1 under either main schedule: a stand-in, never re-derived
         side.observe(FieldDecl(self.field))
         side.observe(ScheduleDecl(SCHEDULE_NAME, f"{purpose}:{digest.hexdigest()}"))
         return [side.challenge() for _ in range(count)]

@@ -24,6 +24,7 @@ from stepper.provers.faults import GLUE_FAULT_KINDS, Fault
 from stepper.provers.generic import prove_sum, prove_zero
 from stepper.provers.grouped import prove_permutation_grouped
 from stepper.provers.permcheck import PermStatement, prove_permutation_direct
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, SCHEDULE_NAME
 
 if TYPE_CHECKING:
     from stepper.field.field import Field
@@ -52,12 +53,15 @@ class ProveSpec:
     combine: str | None = None
     tamper: str | None = None
     label: str = ""
+    schedule: str = SCHEDULE_NAME  # the built-in Fiat-Shamir schedule the proof declares
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:
             raise UsageError(f"expected a prover kind among {', '.join(KINDS)}, found {self.kind!r}")
         if not 1 <= self.num_vars <= 24:
             raise UsageError(f"expected --num-vars between 1 and 24, found {self.num_vars}")
+        if self.schedule not in BUILTIN_SCHEDULES:
+            raise UsageError(f"expected a schedule among {', '.join(BUILTIN_SCHEDULES)}, found {self.schedule!r}")
         if not 0 <= self.seed < 1 << 63:
             raise UsageError(f"expected a non-negative --seed below 2^63, found {self.seed}")
         fault = self.fault
@@ -115,7 +119,8 @@ def random_permutation_statement(field: Field, num_vars: int, seed: int) -> Perm
 def prove(spec: ProveSpec, field: Field, sink: EventSink, *, witness: bool = True) -> ProofRun:
     """Run the reference prover ``spec`` names over ``field``, records to ``sink``
     (``witness`` False spares the grouped prover its second-layer witness tables)."""
-    channel = ProofChannel(field, sink, label=spec.label or f"stepper reference prover: {spec.kind}", fault=spec.fault)
+    channel = ProofChannel(field, sink, label=spec.label or f"stepper reference prover: {spec.kind}", fault=spec.fault,
+                           schedule=spec.schedule)
     counter = MulCounter(field)
     mu = spec.num_vars
     if spec.kind in ("generic", "zerocheck", "zerocheck-eq"):

@@ -1,8 +1,8 @@
 """Where the replay's challenges are re-derived from: the built-in schedule, a plug-in, or nowhere.
 
 :class:`ChallengeSource` sees every record the replay sees, in order. With a
-built-in schedule declared (and no plug-in) it absorbs them into
-:class:`stepper.verify.fiatshamir.Sha256Schedule`; with a plug-in it keeps the plain
+built-in schedule declared (and no plug-in) it absorbs them into that schedule's object
+(:func:`stepper.verify.fiatshamir.schedule_for`: ``stepper-sha256/1`` or ``/2``); with a plug-in it keeps the plain
 history the plug-in is called with (:mod:`stepper.verify.binding`) and runs the
 binding probe on the first ``probe_instances`` instances. Memory is constant
 for the built-in schedule; the plug-in history grows with the proof.
@@ -20,7 +20,7 @@ from stepper.verify.binding import (Challenger, History, PluginFailure, call_cha
                                     history_payload, plugin_name, probe_binding)
 from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
-from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule, schedule_for
 from stepper.transcript.model import FieldDecl, ScheduleDecl
 from stepper.verify.stateful import GuardedStateful, is_stateful
 from stepper.verify.verdict import Finding
@@ -234,7 +234,7 @@ class ChallengeSource:
     def _start_builtin(self) -> None:
         if (self.schedule is None and self.challenger is None and self.field is not None
                 and self.decl is not None and self.decl.name in BUILTIN_SCHEDULES):
-            self.schedule = Sha256Schedule()
+            self.schedule = schedule_for(self.decl.name)
             self.schedule.observe(FieldDecl(self.field))
             self.schedule.observe(self.decl)
 

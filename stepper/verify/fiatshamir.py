@@ -1,4 +1,4 @@
-"""The built-in Fiat-Shamir challenge schedule ``stepper-sha256/1``.
+"""The built-in Fiat-Shamir challenge schedules ``stepper-sha256/1`` and ``stepper-sha256/2``.
 
 One object serves both sides: a prover ``observe``s every record it sends and
 asks ``challenge()`` after each round; the verifier replay does the same with
@@ -21,10 +21,20 @@ Rules kept here:
   absorbs a ``draw`` frame (name, whether a list, count) and then draws that many
   challenges in a row). An instance's glue keys are not absorbed: to bind a
   point, send it as a ``value``.
-* A challenge is k independent base samples (k = extension degree); sample s
-  reads L = ceil((bits(p) + 128) / 8) bytes from SHA-256 blocks of
-  ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a little-endian integer
-  and reduces it mod p (wide reduction: bias below 2^-128).
+* ``stepper-sha256/1`` (:class:`Sha256Schedule`): a challenge is k independent base
+  samples (k = extension degree); sample s reads L = ceil((bits(p) + 128) / 8) bytes
+  from SHA-256 blocks of ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a
+  little-endian integer and reduces it mod p (wide reduction: bias below 2^-128).
+* ``stepper-sha256/2`` (:class:`OneDigestSchedule`): the same framing, another domain;
+  a challenge is one sample of L = ceil((bits(p^k) + 128) / 8) bytes read from
+  D0 = SHA-256 of the state (``digest()``: no squeeze frame, no copy) and, past 32
+  bytes, D_j = SHA-256(D0 || u64(j)); it is reduced mod p^k and its base-p digits are
+  the challenge's coefficients. One digest per challenge for every named field and
+  extension but BN254 and BLS12-381 (two).
+
+Only :meth:`Sha256Schedule._draw`, the loop of :meth:`Sha256Schedule.absorb_pieces`, the
+rows of samples its digests make (:meth:`Sha256Schedule.squeezed_rows`) and the fused
+prime-field step differ between the two; everything absorbed is framed by the same code.
 
 ``round_challenge`` / ``round_stepper`` do "observe a round, then challenge()" in
 one step with the frame heads and ``struct`` packers cached: the same bytes, for
@@ -39,7 +49,7 @@ from functools import lru_cache
 from operator import itemgetter
 from typing import TYPE_CHECKING, Callable, Sequence
 
-from stepper.errors import InputError
+from stepper.errors import InputError, UsageError
 from stepper.transcript.packed import GLUE_CODES, pack_elements
 from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
 
@@ -49,11 +59,12 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event
 
-__all__ = ["SCHEDULE_NAME", "BUILTIN_SCHEDULES", "Sha256Schedule", "frame"]
+__all__ = ["SCHEDULE_NAME", "ONE_DIGEST_SCHEDULE_NAME", "BUILTIN_SCHEDULES", "Sha256Schedule", "OneDigestSchedule",
+           "schedule_for", "frame"]
 
 SCHEDULE_NAME = "stepper-sha256/1"
-BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME,)
-_DOMAIN = SCHEDULE_NAME.encode()
+ONE_DIGEST_SCHEDULE_NAME = "stepper-sha256/2"
+BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME, ONE_DIGEST_SCHEDULE_NAME)
 _SECURITY_BITS = 128
 _ROUND_HEAD = bytes([5]) + b"round"
 _PAIR = struct.Struct("<QQ")  # two u64 of a frame body
@@ -81,9 +92,10 @@ class Sha256Schedule:
     """The ``stepper-sha256/1`` schedule: ``observe(record)`` then ``challenge()``."""
 
     name = SCHEDULE_NAME
+    whole_element = False  # a challenge is k base samples, each reduced mod p (not one sample mod p^k)
 
     def __init__(self) -> None:
-        self._state = hashlib.sha256(frame(b"domain", _DOMAIN))
+        self._state = hashlib.sha256(frame(b"domain", self.name.encode()))
         self.field: Field | None = None
         self._wide = 0
         self._squeeze_frames: tuple[tuple[bytes, ...], ...] = ()
@@ -98,7 +110,8 @@ class Sha256Schedule:
 
     @property
     def wide_bytes(self) -> int:
-        """Bytes of squeezed output reduced mod p for one base sample (0 before the field)."""
+        """Bytes of squeezed output reduced for one sample (0 before the field): mod p for one base
+        coefficient here, mod p^k for a whole challenge in :class:`OneDigestSchedule`."""
         return self._wide
 
     def state_digest(self) -> bytes:
@@ -138,8 +151,8 @@ class Sha256Schedule:
         elif cls is FieldDecl:
             self._set_field(record.field)  # type: ignore[union-attr]
         elif cls is ScheduleDecl:
-            if record.name != SCHEDULE_NAME:  # type: ignore[union-attr]
-                raise InputError(f"expected the schedule {SCHEDULE_NAME}, found a declaration of "
+            if record.name != self.name:  # type: ignore[union-attr]
+                raise InputError(f"expected the schedule {self.name}, found a declaration of "
                                  f"{record.name!r}")  # type: ignore[union-attr]
             self._absorb(b"schedule", _text(record.name) + _text(record.label))  # type: ignore[union-attr]
         elif cls is BatchDecl:
@@ -301,21 +314,35 @@ class Sha256Schedule:
         self._round_packers.clear()
         self._element_packer = (struct.Struct(f"<{field.degree}{'I' if w == 4 else 'Q'}").pack
                                 if field.is_extension and w in (4, 8) else None)
+        self._challenge_head = frame(b"challenge", b"")[:-8] + _u64(field.elem_bytes)
+        self._set_sampling(field)
+
+    def _set_sampling(self, field: Field) -> None:
+        """What a challenge is drawn from in ``field``: k samples of ``_wide`` bytes, each read from
+        the blocks of its squeeze frames."""
         self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
         blocks = -(-self._wide // 32)
         self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
                                      for s in range(field.degree))
         self._squeezes = tuple(squeeze for frames in self._squeeze_frames for squeeze in frames)
-        self._challenge_head = frame(b"challenge", b"")[:-8] + _u64(field.elem_bytes)
 
     def _need_field(self, kind: str) -> Field:
         if self.field is None:
-            raise InputError(f"expected the field to be observed before `{kind}` in {SCHEDULE_NAME}")
+            raise InputError(f"expected the field to be observed before `{kind}` in {self.name}")
         return self.field
 
     def challenge(self) -> Element:
         """Squeeze the challenge for the round just observed, and absorb it."""
         field = self._need_field("a challenge")
+        value = self._draw(field)
+        if field.is_extension:
+            self._state.update(self._challenge_head + field.encode(value))
+        else:
+            self._state.update(self._challenge_head + value.to_bytes(field.base_bytes, "little"))  # type: ignore[union-attr]
+        return value
+
+    def _draw(self, field: Field) -> Element:
+        """The challenge the state gives now (not absorbed): k samples, each its own squeeze frames."""
         p, wide, state = field.p, self._wide, self._state
         samples = []
         for frames in self._squeeze_frames:
@@ -325,11 +352,7 @@ class Sha256Schedule:
                 h.update(squeeze)
                 stream += h.digest()
             samples.append(int.from_bytes(stream[:wide], "little") % p)
-        if field.is_extension:
-            state.update(self._challenge_head + field.encode(tuple(samples)))
-            return tuple(samples)
-        state.update(self._challenge_head + samples[0].to_bytes(field.base_bytes, "little"))
-        return samples[0]
+        return tuple(samples) if field.is_extension else samples[0]
 
     def row_heads(self, n: int) -> tuple[bytes, bytes]:
         """The bytes absorbed before the packed values of a round of ``n`` values, and
@@ -421,8 +444,17 @@ class Sha256Schedule:
 
     @property
     def squeezes_per_challenge(self) -> int:
-        """SHA-256 digests squeezed for one challenge: blocks per sample times the extension degree."""
+        """SHA-256 digests :meth:`absorb_pieces` appends for one challenge: blocks per sample times
+        the extension degree."""
         return sum(len(frames) for frames in self._squeeze_frames)
+
+    def squeezed_rows(self, digests: bytes | bytearray, count: int) -> np.ndarray:
+        """The samples of ``count`` challenges whose digests :meth:`absorb_pieces` appended, one row
+        (uint8, its first :attr:`wide_bytes` bytes little-endian) per sample: k rows per challenge
+        here, one per challenge in :class:`OneDigestSchedule`."""
+        import numpy as np
+
+        return np.frombuffer(digests, dtype=np.uint8).reshape(count * self._need_field("a sample").degree, -1)
 
     def round_challenge(self, values: tuple[Element, ...]) -> Element:
         """``observe`` of a round with these values, then ``challenge()``: the same
@@ -435,28 +467,112 @@ class Sha256Schedule:
         field = self._need_field("round")
         if self._stepper is not None and self._stepper[0] is field:
             return self._stepper[1]
-        if field.is_extension or len(self._squeeze_frames[0]) != 1:
+        first_block = self._one_block_digest()
+        if field.is_extension or first_block is None:
             def general(values: tuple[Element, ...]) -> Element:
                 self._state.update(self._round_frame(values))
                 return self.challenge()
 
             self._stepper = (field, general)
             return general
-        update, copy, packers = self._state.update, self._state.copy, self._round_packers
-        squeeze, wide, p, width = self._squeeze_frames[0][0], self._wide, field.p, field.base_bytes
+        update, packers = self._state.update, self._round_packers
+        wide, p, width = self._wide, field.p, field.base_bytes
         challenge_head, from_bytes, round_packer = self._challenge_head, int.from_bytes, self._round_packer
 
         def prime(values: tuple[Element, ...]) -> Element:
             head, pack = packers.get(len(values)) or round_packer(len(values))
             update(head + (pack(*values) if pack is not None else pack_elements(field, values)))
-            h = copy()
-            h.update(squeeze)
-            sample = from_bytes(h.digest()[:wide], "little") % p
+            sample = from_bytes(first_block()[:wide], "little") % p
             update(challenge_head + sample.to_bytes(width, "little"))
             return sample  # type: ignore[no-any-return]
 
         self._stepper = (field, prime)
         return prime
+
+    def _one_block_digest(self) -> Callable[[], bytes] | None:
+        """The digest a challenge of a prime field is read from when one block holds its sample (None
+        otherwise): here the state copied, the squeeze frame absorbed, the copy finalised."""
+        if len(self._squeeze_frames[0]) != 1:
+            return None
+        copy, squeeze = self._state.copy, self._squeeze_frames[0][0]
+
+        def block() -> bytes:
+            h = copy()
+            h.update(squeeze)
+            return h.digest()
+
+        return block
+
+
+class OneDigestSchedule(Sha256Schedule):
+    """The ``stepper-sha256/2`` schedule: the framing of ``stepper-sha256/1``, its own domain, and one
+    sample of L = ceil((bits(p^k) + 128) / 8) bytes per challenge, reduced mod p^k, whose base-p
+    digits are the challenge's coefficients (constant first). The sample is D0 = SHA-256 of the state
+    (hashlib's ``digest()`` leaves the running state as it is), then D_j = SHA-256(D0 || u64(j)) for
+    j = 1 .. B-1, B = ceil(L / 32): one digest per challenge whenever L <= 32."""
+
+    name = ONE_DIGEST_SCHEDULE_NAME
+    whole_element = True
+
+    def _set_sampling(self, field: Field) -> None:
+        self._order = field.p ** field.degree
+        self._wide = (self._order.bit_length() + _SECURITY_BITS + 7) // 8
+        self._tails = tuple(_u64(j) for j in range(1, -(-self._wide // 32)))  # D_j = SHA-256(D0 || u64(j))
+
+    def _draw(self, field: Field) -> Element:
+        d0 = self._state.digest()
+        stream = d0 + b"".join(hashlib.sha256(d0 + tail).digest() for tail in self._tails)
+        value = int.from_bytes(stream[:self._wide], "little") % self._order
+        if not field.is_extension:
+            return value
+        p, digits = field.p, []
+        for _ in range(field.degree):
+            value, digit = divmod(value, p)
+            digits.append(digit)
+        return tuple(digits)
+
+    def absorb_pieces(self, pieces: Sequence[bytes | memoryview], digests: bytearray) -> None:
+        """As :meth:`Sha256Schedule.absorb_pieces`, with D0 alone appended per challenge (32 bytes):
+        per challenge one ``digest()`` of the running state and one ``update``; the later blocks of a
+        sample wider than 32 bytes are hashed from D0 by :meth:`squeezed_rows`."""
+        update, digest = self._state.update, self._state.digest
+        out = digests
+        update(pieces[0])
+        for piece in pieces[1:]:
+            out += digest()
+            update(piece)
+
+    @property
+    def squeezes_per_challenge(self) -> int:
+        """Digests :meth:`absorb_pieces` appends for one challenge: D0 only."""
+        return 1
+
+    def squeezed_rows(self, digests: bytes | bytearray, count: int) -> np.ndarray:
+        """One row per challenge: D0, then D1 .. D(B-1) hashed from it here (one-shot hashes)."""
+        import numpy as np
+
+        first = np.frombuffer(digests, dtype=np.uint8).reshape(count, 32)
+        if not self._tails:
+            return first
+        raw, sha256 = bytes(digests), hashlib.sha256
+        later = [np.frombuffer(b"".join([sha256(raw[at:at + 32] + tail).digest() for at in range(0, len(raw), 32)]),
+                               dtype=np.uint8).reshape(count, 32) for tail in self._tails]
+        return np.hstack((first, *later))
+
+    def _one_block_digest(self) -> Callable[[], bytes] | None:
+        return self._state.digest if not self._tails else None
+
+
+_SCHEDULES: dict[str, type[Sha256Schedule]] = {SCHEDULE_NAME: Sha256Schedule,
+                                               ONE_DIGEST_SCHEDULE_NAME: OneDigestSchedule}
+
+
+def schedule_for(name: str) -> Sha256Schedule:
+    """A fresh built-in schedule of this name; :class:`UsageError` naming the built-in ones otherwise."""
+    kind = _SCHEDULES.get(name)
+    if kind is None:
+        raise UsageError(f"expected a built-in schedule ({', '.join(BUILTIN_SCHEDULES)}), found {name!r}")
+    return kind()
 
 
 def _flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int,

@@ -246,27 +246,29 @@ class RunBlock:
 
 
 def _squeezed(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray, count: int) -> np.ndarray:
-    """The digests :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended for
-    ``count`` challenges, one row per base sample (uint8)."""
-    import numpy as np
-
-    from stepper.field.kernels import ExtensionKernel
-
+    """The samples of ``count`` challenges whose digests
+    :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended, one row per sample
+    (uint8; :meth:`~stepper.verify.fiatshamir.Sha256Schedule.squeezed_rows`)."""
     per = schedule.squeezes_per_challenge if schedule is not None else 0
     if schedule is None or len(digests) != count * per * 32:
         raise GiveUp("challenges re-derived for only part of the block")
-    samples = kernel.k if isinstance(kernel, ExtensionKernel) else 1  # limb rows have two axes too
-    return np.frombuffer(digests, dtype=np.uint8).reshape(count * samples, -1)
+    return schedule.squeezed_rows(digests, count)
 
 
 def rederive(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray, count: int,
              shape: tuple[int, ...]) -> np.ndarray:
     """The ``count`` challenges (an array of ``shape``) whose digests
-    :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended to ``digests``."""
-    from stepper.verify.roundblock import reduce_wide
+    :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` appended to ``digests``: each
+    base sample reduced mod p (``stepper-sha256/1``), or in an extension under ``stepper-sha256/2``
+    each challenge's one sample reduced mod p^k and cut into its base-p digits."""
+    from stepper.field.kernels import ExtensionKernel
+    from stepper.verify.roundblock import reduce_wide, reduce_wide_digits
 
     squeezed = _squeezed(kernel, schedule, digests, count)
-    return reduce_wide(kernel, squeezed, schedule.wide_bytes).reshape(shape)  # type: ignore[union-attr]
+    wide = schedule.wide_bytes  # type: ignore[union-attr]
+    if schedule.whole_element and isinstance(kernel, ExtensionKernel):  # type: ignore[union-attr]
+        return reduce_wide_digits(kernel, squeezed, wide).reshape(shape)
+    return reduce_wide(kernel, squeezed, wide).reshape(shape)
 
 
 _CUT_ROWS = 256  # rows cut by one cached C call (:func:`_pieces`)

@@ -42,7 +42,8 @@ from stepper.field.kernels.limbs import MAX_LIMB_PRIME_BITS, LimbKernel
 from stepper.field.field import Field
 from stepper.verify.cells import below_p, words_to_ints
 
-__all__ = ["block_kernel", "supports", "reduce_wide", "WideSamples", "evaluate_at", "block_passes"]
+__all__ = ["block_kernel", "supports", "reduce_wide", "reduce_wide_digits", "WideSamples", "evaluate_at",
+           "block_passes"]
 
 _NEVER_COMPILED = 1 << 62  # numba's import costs more than a whole block on numpy
 MAX_VALUES = 1 << 12  # evaluations per round checked by the block
@@ -87,6 +88,38 @@ def reduce_wide(kernel: Kernel, digests: np.ndarray, wide: int) -> np.ndarray:
         return _reduce_goldilocks(base, head.view("<u8"))
     values = np.remainder(words_to_ints(np.ascontiguousarray(digests[:, :wide])), p)
     return values if base.dtype is object else values.astype(np.uint64)
+
+
+def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) -> np.ndarray:
+    """Each row's first ``wide`` bytes as a little-endian integer W, reduced mod p^k and cut into its
+    k base-p digits, constant first (shape (n, k)): the extension challenges of ``stepper-sha256/2``.
+    The digits of W mod p^k are the k lowest base-p digits of W, so no reduction mod p^k is made:
+    below 2^32, W's 32-bit words are divided by p k times in numpy, from the top word down (each
+    partial remainder below p, so each step fits 64 bits), the remainders being the digits; Python
+    ints in object arrays otherwise."""
+    base, k = kernel.base, kernel.k
+    p = base.p
+    count = samples.shape[0]
+    if p < 2**32 and base.dtype is not object:
+        words = np.zeros((count, -(-wide // 4)), dtype=np.uint32)
+        words.view(np.uint8)[:, :wide] = samples[:, :wide]
+        rest = words.T.astype(np.uint64)  # one row per word, least significant first; quotients as they come
+        digits = np.empty((count, k), dtype=np.uint64)
+        p64, s32 = np.uint64(p), np.uint64(32)
+        for digit in range(k):
+            remainder = np.zeros(count, dtype=np.uint64)
+            for word in range(len(rest) - 1, -1, -1):
+                partial = (remainder << s32) | rest[word]
+                rest[word], remainder = np.divmod(partial, p64)
+            digits[:, digit] = remainder
+        return digits
+    value = np.remainder(words_to_ints(np.ascontiguousarray(samples[:, :wide])), p ** k)
+    columns = []
+    for _ in range(k):  # object arrays: no divmod ufunc
+        columns.append(value % p)
+        value = value // p
+    out = np.stack(columns, axis=1)
+    return out if base.dtype is object else out.astype(np.uint64)
 
 
 def _reduce_goldilocks(base: Kernel, limbs: np.ndarray) -> np.ndarray:

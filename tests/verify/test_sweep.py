@@ -32,7 +32,7 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer a
 from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
 from stepper.cli.check_text import render  # noqa: E402
 from stepper.cli.main import main  # noqa: E402
-from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule  # noqa: E402
+from stepper.verify.fiatshamir import ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, schedule_for  # noqa: E402
 import stepper.verify.sweep as sweep_module  # noqa: E402
 from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
 from stepper.transcript.store.reader import ReadLimits  # noqa: E402
@@ -72,6 +72,7 @@ FORMS = ("evals", "evals-no-1", "coeffs", "coeffs-no-linear")
 FAULTS = ("eval", "challenge", "final", "claim", "degree", "truncate", "flip", "noncanonical")
 FILE_FAULTS = ("truncate", "flip", "noncanonical")
 GLUE_FAULTS = ("link", "evaluation", "squeeze")  # a claim off its claim_expr, an opening off, a squeeze not derived
+BUILTIN_KNOBS = {"builtin": SCHEDULE_NAME, "builtin2": ONE_DIGEST_SCHEDULE_NAME}  # Knobs.schedule -> the declared name
 
 # final_expr texts (instance i; value w{i} is its point, sent before it) with F, the part without -c{i}:
 # c{i} = F - the reduced claim makes the evaluation hold. Several texts, so the sweep groups by template.
@@ -107,7 +108,7 @@ class Knobs:
     """What a generated transcript may contain (each feature hits some instances when on)."""
 
     field: str = "goldilocks"
-    schedule: str = "builtin"  # or "none", "foreign"
+    schedule: str = "builtin"  # stepper-sha256/1; or "builtin2" (stepper-sha256/2), "none", "foreign"
     instances: int = 6
     max_vars: int = 6
     max_degree: int = 3
@@ -183,7 +184,8 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
     """Write a transcript per ``knobs`` with TranscriptWriter; returns where each event lies."""
     ar, field_event, block_field = FIELDS[knobs.field]
     rng = random.Random(knobs.seed)
-    schedule = Sha256Schedule() if knobs.schedule == "builtin" else None
+    declared = BUILTIN_KNOBS.get(knobs.schedule)
+    schedule = schedule_for(declared) if declared is not None else None
     writer = TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"})
     offsets: list[tuple[str, int, int]] = []
     regular = block_field and knobs.fault not in FILE_FAULTS and knobs.fault != "degree"
@@ -207,8 +209,8 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
             put({"type": "ferry-office-tally", "cars": rng.randrange(90)})  # an unknown event type
 
     put(field_event)
-    if knobs.schedule == "builtin":
-        put({"type": "schedule", "name": SCHEDULE_NAME, "label": "brackwater-ferries"})
+    if declared is not None:
+        put({"type": "schedule", "name": declared, "label": "brackwater-ferries"})
     elif knobs.schedule == "foreign":
         put({"type": "schedule", "name": "ferry-office-transcript/3", "label": "gate"})
     for i in range(knobs.instances):
@@ -400,7 +402,7 @@ RARE = st.sampled_from([False, False, False, True])  # so that many transcripts 
 @given(knobs=st.builds(
     Knobs,
     field=st.sampled_from(sorted(FIELDS)),
-    schedule=st.sampled_from(["builtin", "builtin", "none", "foreign"]),
+    schedule=st.sampled_from(["builtin", "builtin", "builtin2", "none", "foreign"]),
     instances=st.integers(1, 30), max_vars=st.integers(1, 8), max_degree=st.integers(1, 4),
     fewer=st.booleans(), compressed=RARE, batch=RARE, extras=st.booleans(), between_rounds=RARE, no_final=RARE,
     ragged=RARE, appended=st.integers(0, 2), glue=st.booleans(),
@@ -457,7 +459,7 @@ def assert_same_report(path: Path, keep: int, limits: ReadLimits | None = None) 
 
 
 @pytest.mark.parametrize("field", sorted(FIELDS))
-@pytest.mark.parametrize("schedule", ["builtin", "none"])
+@pytest.mark.parametrize("schedule", ["builtin", "builtin2", "none"])
 def test_sweep_takes_a_regular_honest_transcript_and_reports_as_the_replay(tmp_path, field, schedule):
     knobs = Knobs(field=field, schedule=schedule, instances=12, max_vars=8, max_degree=4, extras=True, appended=2,
                   seed=11)
@@ -855,7 +857,7 @@ def test_glued_instances_taken_from_the_chunk_with_their_texts_and_glue_report_a
                                           RoundMsg, ScheduleDecl, Squeeze)
 
     field = get_field(NAMED_PRIMES["goldilocks"])
-    p, rng, schedule, path = field.p, random.Random(31), Sha256Schedule(), tmp_path / "glued-writer.sumtr"
+    p, rng, schedule, path = field.p, random.Random(31), schedule_for(SCHEDULE_NAME), tmp_path / "glued-writer.sumtr"
     with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
         def emit(record: object, absorbed: bool = True) -> None:
             if absorbed:
