@@ -104,15 +104,19 @@ def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) 
         words = np.zeros((count, -(-wide // 4)), dtype=np.uint32)
         words.view(np.uint8)[:, :wide] = samples[:, :wide]
         rest = words.T.astype(np.uint64)  # one row per word, least significant first; quotients as they come
-        digits = np.empty((count, k), dtype=np.uint64)
+        digits = np.empty((k, count), dtype=np.uint64)
         p64, s32 = np.uint64(p), np.uint64(32)
+        partial = np.empty(count, dtype=np.uint64)
         for digit in range(k):
-            remainder = np.zeros(count, dtype=np.uint64)
-            for word in range(len(rest) - 1, -1, -1):
-                partial = (remainder << s32) | rest[word]
-                rest[word], remainder = np.divmod(partial, p64)
-            digits[:, digit] = remainder
-        return digits
+            # after ``digit`` divisions W < 2^(8 wide) / p^digit: the words above that are zero
+            top = min(len(rest), -(-(8 * wide - digit * (p.bit_length() - 1)) // 32))
+            remainder = digits[digit]
+            remainder[:] = 0
+            for word in range(top - 1, -1, -1):
+                np.left_shift(remainder, s32, out=partial)
+                partial |= rest[word]
+                np.divmod(partial, p64, out=(rest[word], remainder))
+        return digits.T
     value = np.remainder(words_to_ints(np.ascontiguousarray(samples[:, :wide])), p ** k)
     columns = []
     for _ in range(k):  # object arrays: no divmod ufunc
