@@ -71,6 +71,7 @@ def test_the_parser_offers_exactly_the_reference_kinds_without_importing_the_pro
     (["--kind", "perm-grouped", "--fault", "stale-challenge@2", "--fault-instance", "1"], "first instance"),
     (["--kind", "zerocheck", "--combine", "eq * a"], "'eq'"),
     (["--seed", "-1"], "non-negative"),
+    (["--schedule", "stepper-sha256/9"], "'stepper-sha256/1', 'stepper-sha256/2'"),
 ])
 def test_bad_flags_are_one_line_and_exit_2(flags, message, tmp_path, capsys):
     # through main() in this process (a process start costs about a second); the test after this
@@ -145,6 +146,38 @@ def test_demo_without_the_app_writes_the_examples_and_shows_a_failure_and_an_acc
     assert "ACCEPTED" in out and "REJECTED" in out
     assert "challenge-shift" in out  # the root-cause probe explains the prover bug
     assert (tmp_path / "d" / "ferries-stale-challenge.witness.json").exists()
+
+
+def test_the_parser_offers_exactly_the_built_in_schedules_the_first_by_default():
+    from stepper.cli import prove_cmd
+    from stepper.provers.reference import ProveSpec
+    from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, SCHEDULE_NAME
+
+    assert prove_cmd.SCHEDULES == BUILTIN_SCHEDULES and ProveSpec("generic").schedule == SCHEDULE_NAME
+
+
+@pytest.mark.parametrize("field", ["babybear^4", "bn254"])
+def test_a_proof_under_the_second_schedule_checks_clean_and_a_tampered_challenge_fails_check_challenge(
+        field, tmp_path, capsys):
+    out = tmp_path / "events.jsonl"
+    assert main(["prove", "--kind", "gkr-product", "--num-vars", "4", "--field", field,
+                 "--schedule", "stepper-sha256/2", "-o", str(out)]) == 0
+    lines = out.read_text().splitlines()
+    assert json.loads(lines[1]) == {"type": "schedule", "name": "stepper-sha256/2",
+                                    "label": "stepper reference prover: gkr-product"}
+    capsys.readouterr()
+    assert main(["check", str(out)]) == 0
+    assert "challenges re-derived by the built-in schedule stepper-sha256/2" in capsys.readouterr().out
+    at = [i for i, line in enumerate(lines) if json.loads(line)["type"] == "challenge"][3]
+    event = json.loads(lines[at])
+    value = event["value"]
+    event["value"] = [str((int(value[0]) + 1) % 7)] + value[1:] if isinstance(value, list) else str(int(value) // 2)
+    lines[at] = json.dumps(event)
+    tampered = tmp_path / "tampered.jsonl"
+    tampered.write_text("\n".join(lines) + "\n")
+    assert main(["check", str(tampered), "--json"]) == 1
+    failure = conforming(capsys.readouterr().out, "check")["first_failure"]
+    assert failure["check"] == "challenge"
 
 
 def test_an_output_ending_in_jsonl_gets_the_event_stream_that_check_reads(tmp_path, capsys):

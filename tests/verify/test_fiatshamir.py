@@ -1,4 +1,5 @@
-"""The built-in schedule stepper-sha256/1 matches its written description byte for byte.
+"""The built-in schedule stepper-sha256/1 matches its written description byte for byte
+(stepper-sha256/2: tests/verify/test_fiatshamir_sha256_2.py).
 
 The bytes below are built by hand from transcripts/FIAT-SHAMIR.md and hashed with
 hashlib directly, so the test checks the document, not the module against itself.
@@ -12,7 +13,7 @@ import hashlib
 import pytest
 
 from stepper.errors import InputError
-from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, SCHEDULE_NAME, Sha256Schedule, schedule_for
 from stepper.field.field import NAMED_PRIMES, get_field
 from stepper.transcript.model import ChallengeMsg, FieldDecl, InstanceStart, Note, RoundMsg, ScheduleDecl
 
@@ -290,8 +291,9 @@ def test_glue_stream_absorbed_by_pieces_reproduces_the_glue_vectors():
     assert [int.from_bytes(digests[i:i + s.wide_bytes], "little") % P for i in (0, 32, 64)] == [BETA, *W]
 
 
+@pytest.mark.parametrize("schedule", BUILTIN_SCHEDULES)
 @pytest.mark.parametrize("spec", [("goldilocks", None), ("babybear", 4), ("bn254", None)])
-def test_glue_stream_of_single_elements_gives_the_state_of_the_records_observed_one_by_one(spec):
+def test_glue_stream_of_single_elements_gives_the_state_of_the_records_observed_one_by_one(spec, schedule):
     # the glue of many runs framed at once (values, openings and squeezes of one element each, names of
     # every length) against the schedule observing each record and squeezing, the squeezed elements sent
     import random
@@ -302,7 +304,7 @@ def test_glue_stream_of_single_elements_gives_the_state_of_the_records_observed_
     p = NAMED_PRIMES[name]
     field = get_field(p, (p - 11, 0, 0, 0, 1)) if ext_degree else get_field(p)
     rng = random.Random(5)
-    one, bulk = Sha256Schedule(), Sha256Schedule()
+    one, bulk = schedule_for(schedule), schedule_for(schedule)
     for s in (one, bulk):
         s.observe(FieldDecl(field))
         s.observe(InstanceStart(0, "deck-slots-zero", 1, 1, field.zero))

@@ -3,6 +3,8 @@
 * ``evaluate_at`` against Lagrange interpolation computed by galois (``galois.lagrange_poly``
   over ``galois.GF(p)``) and by sympy (``sympy.interpolate`` over the rationals, reduced mod p);
 * ``reduce_wide`` against plain Python integers: ``int.from_bytes(row[:wide], "little") % p``;
+* ``reduce_wide_digits`` (stepper-sha256/2's extension challenges) against plain Python integers:
+  the base-p digits of ``int.from_bytes(row[:wide], "little") % p^k``, constant first;
 * ``block_passes`` against an honest prover written here with plain integers (random round
   polynomials with g(0)+g(1) = claim, g(r) carried forward: common practice, no source),
   and every single-element corruption of its blocks;
@@ -32,7 +34,7 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer a
 from plain_sumcheck import Plain, lagrange  # noqa: E402
 from stepper.field.field import get_field  # noqa: E402
 from stepper.verify.roundblock import (  # noqa: E402
-    WideSamples, _halve, block_kernel, block_passes, evaluate_at, reduce_wide, supports,
+    WideSamples, _halve, block_kernel, block_passes, evaluate_at, reduce_wide, reduce_wide_digits, supports,
 )
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
@@ -174,6 +176,29 @@ def test_reduce_wide_reads_rows_of_a_width_that_is_not_whole_words(name):
     for wide in (5, 20, 22, 24):
         got = reduce_wide(kernel(p), block, wide).tolist()
         assert got == [int.from_bytes(row[:wide], "little") % p for row in rows], wide
+
+
+BN254 = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 r, from memory
+
+
+@pytest.mark.parametrize("p, irreducible", [
+    (BABYBEAR, (BABYBEAR - 11, 0, 0, 0, 1)), (KOALABEAR, (KOALABEAR - 3, 0, 0, 0, 1)), (97, (92, 0, 0, 1)),
+    (GOLDILOCKS, (GOLDILOCKS - 7, 0, 1)), (BN254, (BN254 - 5, 0, 1)),  # X^2 - 7 and X^2 - 5 are irreducible
+])
+def test_reduce_wide_digits_are_the_base_p_digits_of_python_integers_mod_p_to_the_k(p, irreducible):
+    from stepper.field.kernels import kernel_for
+
+    field = get_field(p, irreducible)
+    k = field.degree
+    rng = random.Random(p)
+    rows = [bytes(96), b"\xff" * 96] + [rng.randbytes(96) for _ in range(40)]
+    block = np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), 96)
+    schedule_wide = ((p ** k).bit_length() + 128 + 7) // 8  # transcripts/FIAT-SHAMIR.md, stepper-sha256/2
+    for wide in sorted({5, 17, 30, 32, schedule_wide, 96}):
+        got = reduce_wide_digits(kernel_for(field, 1 << 62), block, wide)
+        assert got.shape == (len(rows), k)
+        values = [int.from_bytes(row[:wide], "little") % p ** k for row in rows]
+        assert [[int(c) for c in digits] for digits in got] == [[v // p ** i % p for i in range(k)] for v in values]
 
 
 def test_reduce_wide_ignores_bytes_past_the_wide_prefix():

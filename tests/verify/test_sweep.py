@@ -787,7 +787,7 @@ def test_sweep_takes_glue_after_runs_and_reports_as_the_replay(tmp_path, monkeyp
 
 
 @pytest.mark.parametrize("field", sorted(FIELDS))
-@pytest.mark.parametrize("schedule", ["builtin", "none"])
+@pytest.mark.parametrize("schedule", ["builtin", "builtin2", "none"])
 def test_sweep_takes_glued_honest_transcripts_and_reports_their_glue_as_the_replay(tmp_path, field, schedule):
     # values, openings, squeezes, claim_expr and final_expr in every instance, in every named field: the
     # per-instance openings, link and evaluation results in --json are the replay's, to the byte
@@ -812,6 +812,26 @@ def test_sweep_gives_up_on_every_glue_fault_and_check_names_it_as_the_replay(tmp
     code, out, _, swept = check_both(capsys, monkeypatch, written.path)
     assert swept is None and code == 1
     assert f"check {'squeeze' if fault == 'squeeze' else fault}" in out
+
+
+NAMED_FIELDS = ("babybear", "koalabear", "mersenne31", "goldilocks", "babybear^4", "koalabear^4", "mersenne31^4",
+                "goldilocks^2", "bn254", "bls12-381")
+
+
+@pytest.mark.parametrize("field", NAMED_FIELDS)
+@pytest.mark.parametrize("fault", ["challenge", "squeeze"])
+def test_under_stepper_sha256_2_a_corrupted_challenge_or_squeeze_fails_where_the_replay_says(tmp_path, capsys,
+                                                                                           monkeypatch, field, fault):
+    # one recorded challenge (at a random round of a random instance) or one squeezed value off by one: the sweep
+    # gives up and the event-by-event replay names it, the same output with the sweep on and off
+    for seed in range(2):
+        knobs = Knobs(field=field, schedule="builtin2", instances=8, max_vars=6, glue=fault == "squeeze",
+                      fault=fault, seed=seed)
+        written = write_transcript(tmp_path / f"{fault}-{seed}.sumtr", knobs)
+        assert swept_report(written.path, 20) is None
+        code, out, _, swept = check_both(capsys, monkeypatch, written.path)
+        assert swept is None and code == 1
+        assert f"check {fault}" in out and "the built-in schedule stepper-sha256/2" in out
 
 
 def test_glue_after_the_run_that_ends_a_block_is_checked_with_it(tmp_path, monkeypatch):

@@ -1,0 +1,318 @@
+"""The built-in schedule stepper-sha256/2 matches its written description byte for byte.
+
+Everything expected here comes from a from-scratch implementation written in this file (hashlib and
+plain Python integers; nothing of stepper.verify.fiatshamir is imported by it) following
+transcripts/FIAT-SHAMIR.md, and is also pinned as hex. The framing is /1's (tests/verify/test_fiatshamir.py
+pins it); /2 changes the domain and how a challenge is drawn: D0 = SHA-256 of the state, further
+blocks SHA-256(D0 || u64(j)), the first L bytes little-endian mod p^k, cut into base-p digits.
+Framing, wide reduction and sampling a whole extension element at once are common practice, no
+source; SHA-256 is FIPS 180-4. The digits are checked against galois.GF(p) (galois, the reference
+library), which refuses any integer outside [0, p).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import random
+
+import pytest
+
+from stepper.errors import InputError, UsageError
+from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
+from stepper.transcript.model import FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl, Squeeze
+from stepper.verify.fiatshamir import (BUILTIN_SCHEDULES, ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, OneDigestSchedule,
+                                       Sha256Schedule, schedule_for)
+
+P = NAMED_PRIMES["babybear"]  # 2^31 - 2^27 + 1, common practice, no source
+BN254 = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 r, from memory
+LABEL = "brackwater-ferries/isle-of-quill-0740"
+NAME = "stepper-sha256/2"
+
+# Pinned vectors (also printed in transcripts/FIAT-SHAMIR.md): the /1 worked example under /2.
+DIGESTS = {
+    "creation": "eeda901d402f07c9dcf31d88ba02f99bdc297f5f045e3f8982da791f938adb4c",
+    "field": "cb09416abe0f8b2babf9907d4631dcaf3afe60ed80e3b1baa93a3d3472c946ef",
+    "schedule": "c68358534915b6c381c9427910386f806041d90cddad225213e813ab33ea54f9",
+    "instance": "e191c0b11d9cb631cf08fa31777316901ee67c9c4b07d2163e9d36eed4d019b8",
+    "round 1": "99a3af3d99d70ea54ad4ea93982265f15d7d283eee141012ffb35a38dac2941c",
+    "challenge 1": "f4bcce6761346d278367e32e0db12ae0a02d97c2db8e70a6ac24b0b4406c8a0b",
+    "round 2": "2a639b16c3e62be0f10aea67f8893a61a41cb1bf016220d48b519e95f52ae7da",
+    "challenge 2": "fffbc6ba1bdc7c4baa05380b7db34b00f18f3791cbdc51a7ae2482a3bf2356f0",
+}
+R1, R2 = 1084678571, 663873169
+ROUND1 = (23, 15, P - 33)
+ROUND2 = (979755400, 2686438, 1507157054)
+FINAL = 844573908  # f~(r1, r2) * h~(r1, r2)
+GLUE_DIGESTS = {
+    "opening f.at.r": "da5eedc1927da7fdb0d3aea07ed6e17b231a0b476e9f9d71858692eaf665a0ff",
+    "opening h.at.r": "d5d5261a24e2151917e80e66f60fc8f4bc4f26c33740899c0f497676e498c880",
+    "value tau": "584c8fa09b88ee13781a13a69a6c8004315533d10f63df8855df9856d86cf02f",
+    "squeeze beta": "6833ebb3329a954709c1f3f0e3ae79081ca4ea8847fd9dfd68b5b5b55fd74ea6",
+    "squeeze w": "606b0063a907cf1e975ea60aed7109237949faac1503ae95e7e8a661f582f075",
+}
+F_AT_R, H_AT_R = 1735742448, 333828861
+BETA, W = 590614945, (460797975, 234867883)
+BABYBEAR4_CHALLENGE = (380241737, 1112929487, 1741316206, 1275555924)
+BN254_CHALLENGE = 7751006406144474714824080885081675205021942650290360728266529726930573843507
+
+
+# ----- the independent implementation ----------------------------------------------------------------
+
+def frame(tag: bytes, body: bytes) -> bytes:
+    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
+
+
+def u64(n: int) -> bytes:
+    return n.to_bytes(8, "little")
+
+
+def text(s: str) -> bytes:
+    return u64(len(s.encode())) + s.encode()
+
+
+def el(v: int, width: int = 4) -> bytes:
+    return v.to_bytes(width, "little")
+
+
+def draw(state: "hashlib._Hash", p: int, k: int = 1) -> int | tuple[int, ...]:
+    """The /2 challenge the state gives: one sample of L bytes mod p^k, its base-p digits."""
+    first = state.copy().digest()
+    wide = ((p ** k).bit_length() + 128 + 7) // 8
+    stream = first + b"".join(hashlib.sha256(first + u64(j)).digest() for j in range(1, -(-wide // 32)))
+    value = int.from_bytes(stream[:wide], "little") % p ** k
+    return value if k == 1 else tuple(value // p ** i % p for i in range(k))
+
+
+def honest_round(f: list[int], h: list[int]) -> tuple[int, ...]:
+    """g(0), g(1), g(2) of the sum over the other variables of f~ * h~ (x_1 the low index bit)."""
+    return tuple(sum((f[2 * i] + x * (f[2 * i + 1] - f[2 * i])) * (h[2 * i] + x * (h[2 * i + 1] - h[2 * i]))
+                     for i in range(len(f) // 2)) % P for x in range(3))
+
+
+def fold(table: list[int], r: int) -> list[int]:
+    return [(table[2 * i] + r * (table[2 * i + 1] - table[2 * i])) % P for i in range(len(table) // 2)]
+
+
+def worked_example() -> "hashlib._Hash":
+    """The hand-built state of the worked example after its two rounds, every step checked."""
+    state = hashlib.sha256(frame(b"domain", NAME.encode()))
+    assert state.hexdigest() == DIGESTS["creation"]
+    state.update(frame(b"field", u64(4) + el(P) + u64(1)))
+    assert state.hexdigest() == DIGESTS["field"]
+    state.update(frame(b"schedule", text(NAME) + text(LABEL)))
+    assert state.hexdigest() == DIGESTS["schedule"]
+    state.update(frame(b"instance", text("boarding-permutation") + u64(2) + u64(2) + text("low-first")
+                       + text("evals") + el(38)))
+    assert state.hexdigest() == DIGESTS["instance"]
+    f, h = [3, 1, 4, 1], [5, 9, 2, 6]
+    for k, (values, r) in enumerate([(ROUND1, R1), (ROUND2, R2)], start=1):
+        assert honest_round(f, h) == values
+        state.update(frame(b"round", u64(3) + b"".join(el(v) for v in values)))
+        assert state.hexdigest() == DIGESTS[f"round {k}"]
+        assert draw(state, P) == r
+        state.update(frame(b"challenge", el(r)))
+        assert state.hexdigest() == DIGESTS[f"challenge {k}"]
+        f, h = fold(f, r), fold(h, r)
+    assert (f[0], h[0], f[0] * h[0] % P) == (F_AT_R, H_AT_R, FINAL)
+    return state
+
+
+def one_round_state(p: int, width: int, irreducible: tuple[int, ...], label: str) -> "hashlib._Hash":
+    """Hand-built: field, schedule, instance deck-slots-zero (1 variable, degree 1, claim 0), one round of two zeros."""
+    k = max(len(irreducible) - 1, 1)
+    state = hashlib.sha256(frame(b"domain", NAME.encode()))
+    state.update(frame(b"field", u64(width) + el(p, width) + u64(k) + b"".join(el(c, width) for c in irreducible)))
+    state.update(frame(b"schedule", text(NAME) + text(label)))
+    state.update(frame(b"instance", text("deck-slots-zero") + u64(1) + u64(1) + text("low-first") + text("evals")
+                       + bytes(k * width)))
+    state.update(frame(b"round", u64(2) + bytes(2 * k * width)))
+    return state
+
+
+# ----- the hand-built bytes against the pinned vectors ------------------------------------------------
+
+def test_hand_built_bytes_give_the_documented_digests_and_challenges():
+    worked_example()
+
+
+def test_hand_built_glue_bytes_give_the_documented_digests_and_squeezes():
+    state = worked_example()
+    state.update(frame(b"opening", text("f.at.r") + text("f") + el(F_AT_R)))
+    assert state.hexdigest() == GLUE_DIGESTS["opening f.at.r"]
+    state.update(frame(b"opening", text("h.at.r") + text("h") + el(H_AT_R)))
+    assert state.hexdigest() == GLUE_DIGESTS["opening h.at.r"]
+    state.update(frame(b"value", text("tau") + u64(1) + u64(2) + el(3) + el(5)))
+    assert state.hexdigest() == GLUE_DIGESTS["value tau"]
+    state.update(frame(b"draw", text("beta") + u64(0) + u64(1)))
+    assert draw(state, P) == BETA
+    state.update(frame(b"challenge", el(BETA)))
+    assert state.hexdigest() == GLUE_DIGESTS["squeeze beta"]
+    state.update(frame(b"draw", text("w") + u64(1) + u64(2)))
+    for w in W:
+        assert draw(state, P) == w
+        state.update(frame(b"challenge", el(w)))
+    assert state.hexdigest() == GLUE_DIGESTS["squeeze w"]
+
+
+def test_hand_built_extension_and_two_block_challenges_give_the_documented_values():
+    # BabyBear^4 over X^4 - 11: L = ceil((124 + 128) / 8) = 32, one block; BN254: L = 48, two blocks
+    assert ((P ** 4).bit_length(), (BN254.bit_length() + 128 + 7) // 8) == (124, 48)
+    assert draw(one_round_state(P, 4, (P - 11, 0, 0, 0, 1), "x"), P, 4) == BABYBEAR4_CHALLENGE
+    assert draw(one_round_state(BN254, 32, (), ""), BN254) == BN254_CHALLENGE
+
+
+# ----- the schedule object against them --------------------------------------------------------------
+
+def _worked_schedule() -> Sha256Schedule:
+    s = schedule_for(NAME)
+    assert isinstance(s, OneDigestSchedule) and s.state_digest().hex() == DIGESTS["creation"]
+    s.observe(FieldDecl(get_field(P)))
+    s.observe(ScheduleDecl(NAME, LABEL))
+    s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+    assert s.state_digest().hex() == DIGESTS["instance"]
+    return s
+
+
+def test_schedule_object_reproduces_the_pinned_vectors_by_observe_and_by_the_fused_step():
+    s = _worked_schedule()
+    s.observe(RoundMsg(0, 1, ROUND1))
+    assert s.state_digest().hex() == DIGESTS["round 1"]
+    assert s.challenge() == R1 and s.state_digest().hex() == DIGESTS["challenge 1"]
+    s.observe(RoundMsg(0, 2, ROUND2))
+    assert s.challenge() == R2 and s.state_digest().hex() == DIGESTS["challenge 2"]
+    fused = _worked_schedule()
+    assert fused.round_challenge(ROUND1) == R1 and fused.round_challenge(ROUND2) == R2
+    assert fused.state_digest().hex() == DIGESTS["challenge 2"]
+
+
+def test_schedule_object_reproduces_the_glue_vectors():
+    s = _worked_schedule()
+    for k, values in ((1, ROUND1), (2, ROUND2)):
+        s.observe(RoundMsg(0, k, values))
+        s.challenge()
+    s.observe(Opening("f.at.r", F_AT_R, "f", 0))
+    s.observe(Opening("h.at.r", H_AT_R, "h", 0))
+    s.observe(NamedValue("tau", (3, 5), True, 0))
+    assert s.state_digest().hex() == GLUE_DIGESTS["value tau"]
+    s.observe(Squeeze("beta", 999, False, 0))  # observing a squeeze absorbs nothing: squeeze() does
+    assert s.squeeze("beta") == BETA and s.state_digest().hex() == GLUE_DIGESTS["squeeze beta"]
+    assert s.squeeze("w", 2) == W and s.state_digest().hex() == GLUE_DIGESTS["squeeze w"]
+
+
+def test_schedule_object_reproduces_the_extension_and_two_block_challenges():
+    for field, label, expected in ((get_field(P, (P - 11, 0, 0, 0, 1)), "x", BABYBEAR4_CHALLENGE),
+                                   (get_field(BN254), "", BN254_CHALLENGE)):
+        s = OneDigestSchedule()
+        s.observe(FieldDecl(field))
+        s.observe(ScheduleDecl(NAME, label))
+        s.observe(InstanceStart(0, "deck-slots-zero", 1, 1, field.zero))
+        assert s.round_challenge((field.zero, field.zero)) == expected
+
+
+@pytest.mark.parametrize("name", ["babybear^4", "koalabear^4", "mersenne31^4", "goldilocks^2"])
+def test_an_extension_challenge_is_the_base_p_digits_of_one_sample_and_lies_in_the_field(name):
+    import galois  # the reference library: GF(p) refuses an integer outside [0, p)
+
+    base, _, degree = name.partition("^")
+    p, k = NAMED_PRIMES[base], int(degree)
+    field = get_field(p, DEFAULT_IRREDUCIBLES[(base, k)])
+    gf = galois.GF(p, compile="python-calculate")  # no JIT: seconds saved
+    rng = random.Random(18)
+    s = OneDigestSchedule()
+    s.observe(FieldDecl(field))
+    state = hashlib.sha256(frame(b"domain", NAME.encode()))
+    state.update(frame(b"field", u64(field.base_bytes) + el(p, field.base_bytes) + u64(k)
+                       + b"".join(el(c, field.base_bytes) for c in DEFAULT_IRREDUCIBLES[(base, k)])))
+    assert s.state_digest() == state.digest()
+    wide = ((p ** k).bit_length() + 128 + 7) // 8
+    assert wide == 32  # one digest per challenge for every named extension
+    for _ in range(40):
+        values = tuple(tuple(rng.randrange(p) for _ in range(k)) for _ in range(rng.randint(1, 4)))
+        s.observe(RoundMsg(0, 1, values))
+        state.update(frame(b"round", u64(len(values)) + b"".join(el(c, field.base_bytes) for v in values for c in v)))
+        sample = int.from_bytes(state.copy().digest()[:wide], "little")
+        challenge = s.challenge()
+        assert challenge == draw(state, p, k)
+        assert sum(c * p ** i for i, c in enumerate(challenge)) == sample % p ** k  # base-p digits, constant first
+        assert [int(c) for c in gf(list(challenge))] == list(challenge)
+        state.update(frame(b"challenge", b"".join(el(c, field.base_bytes) for c in challenge)))
+        assert s.state_digest() == state.digest()
+
+
+@pytest.mark.parametrize("spec", [("goldilocks", 1), ("bn254", 1), ("bls12-381", 1), ("babybear", 4),
+                                  ("mersenne31", 4), ("goldilocks", 2)])
+def test_the_fused_step_and_the_sweep_s_digests_give_what_observe_then_challenge_gives(spec):
+    # round_stepper (event-by-event replay, provers), and absorb_pieces + squeezed_rows + rederive (the sweep)
+    import numpy as np
+
+    from stepper.field.kernels import kernel_for
+    from stepper.verify.packed_runs import rederive
+    from stepper.verify.roundblock import block_kernel
+
+    name, k = spec
+    p = NAMED_PRIMES[name]
+    field = get_field(p, DEFAULT_IRREDUCIBLES[(name, k)]) if k > 1 else get_field(p)
+    one, fused, swept = OneDigestSchedule(), OneDigestSchedule(), OneDigestSchedule()
+    for s in (one, fused, swept):
+        s.observe(FieldDecl(field))
+        s.observe(ScheduleDecl(NAME, "isle-of-quill-0740"))
+        s.observe(InstanceStart(0, "deck-slots-zero", 3, 2, field.zero))
+    head, challenge_head = swept.row_heads(3)
+    rng = random.Random(7)
+    pieces, expected = [], []
+    for _ in range(6):
+        values = tuple(field.embed(rng.randrange(p)) if k == 1 else tuple(rng.randrange(p) for _ in range(k))
+                       for _ in range(3))
+        one.observe(RoundMsg(0, 1, values))
+        r = one.challenge()
+        assert fused.round_challenge(values) == r and fused.state_digest() == one.state_digest()
+        expected.append(r)
+        packed = b"".join(field.encode(v) for v in values)
+        pieces.append(head + packed if not pieces else challenge_head + field.encode(expected[-2]) + head + packed)
+    pieces.append(challenge_head + field.encode(expected[-1]))
+    digests = bytearray()
+    swept.absorb_pieces(pieces, digests)
+    assert swept.state_digest() == one.state_digest() and len(digests) == 6 * 32
+    kernel = block_kernel(field) if k == 1 else kernel_for(field, 1 << 62)
+    rows = swept.squeezed_rows(digests, 6)
+    assert rows.shape[0] == 6 and rows.shape[1] >= swept.wide_bytes
+    if p.bit_length() > 64:  # rows of limbs: the sweep compares the unreduced samples by a congruence
+        from stepper.field.kernels.limb_rounds import wide_congruent
+
+        samples = np.ascontiguousarray(rows[:, :swept.wide_bytes])
+        assert [int.from_bytes(bytes(row), "little") % p for row in samples] == expected
+        recorded = kernel.from_bytes(np.frombuffer(b"".join(field.encode(r) for r in expected),
+                                                   dtype=np.uint8).reshape(6, -1))
+        assert wide_congruent(kernel, samples, recorded).all()
+        assert not wide_congruent(kernel, samples, recorded[::-1]).any()
+        return
+    got = rederive(kernel, swept, digests, 6, (6, k) if k > 1 else (6,))
+    assert np.array_equal(got, np.array(expected, dtype=np.uint64))
+
+
+# ----- choosing the schedule ----------------------------------------------------------------------
+
+def test_both_schedules_are_built_in_and_chosen_by_name():
+    assert BUILTIN_SCHEDULES == (SCHEDULE_NAME, ONE_DIGEST_SCHEDULE_NAME) == ("stepper-sha256/1", NAME)
+    assert type(schedule_for(SCHEDULE_NAME)) is Sha256Schedule
+    assert type(schedule_for(NAME)) is OneDigestSchedule
+    with pytest.raises(UsageError, match="stepper-sha256/1, stepper-sha256/2.*'stepper-sha256/3'"):
+        schedule_for("stepper-sha256/3")
+
+
+def test_each_schedule_refuses_a_declaration_of_the_other():
+    for mine, other in ((SCHEDULE_NAME, NAME), (NAME, SCHEDULE_NAME)):
+        s = schedule_for(mine)
+        s.observe(FieldDecl(get_field(P)))
+        with pytest.raises(InputError, match=f"expected the schedule {mine}"):
+            s.observe(ScheduleDecl(other))
+
+
+def test_the_two_schedules_give_different_challenges_for_the_same_records():
+    challenges = []
+    for name in BUILTIN_SCHEDULES:
+        s = schedule_for(name)
+        s.observe(FieldDecl(get_field(P)))
+        s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
+        challenges.append(s.round_challenge(ROUND1))
+    assert challenges[0] != challenges[1]
