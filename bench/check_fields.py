@@ -371,10 +371,10 @@ def main() -> None:
               f"(aim {AIM:.0f}x) {mark} | {row['floor']:.1f}x | {row['process']:.1f}x | "
               f"{row['rss_small']:.0f} -> {row['rss_large']:.0f} |")
     if len(schedules) > 1:
-        print(f"\nA file keeps the schedule it was written with: stepper-sha256/1 files (what `stepper prove` writes "
-              f"by default, and every file from before stepper-sha256/2) stay at their /1 figure, because their "
-              f"challenges can only be re-derived the /1 way (k squeezes per challenge in a degree-k extension, two "
-              f"blocks each above 128 bits). Provers that declare stepper-sha256/2 get the /2 figure.")
+        print("\nA file keeps the schedule it was written with: stepper-sha256/1 files (what `stepper prove` writes "
+              "by default, and every file from before stepper-sha256/2) stay at their /1 figure, because their "
+              "challenges can only be re-derived the /1 way (k squeezes per challenge in a degree-k extension, two "
+              "blocks each above 128 bits). Provers that declare stepper-sha256/2 get the /2 figure.")
     print(f"\n(bench/check_fields.py: {time.perf_counter() - started:.0f} s in all)")
 
 

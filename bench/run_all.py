@@ -58,9 +58,12 @@ def _span(values: list[float], unit: str = "x", digits: int = 1) -> str:
     return f"{low:.{digits}f}{unit}" if low == high else f"{low:.{digits}f}{unit}-{high:.{digits}f}{unit}"
 
 
-def _fields_rows(text: str) -> str | None:
-    rows = re.findall(r"^\| (\S+) \| [\d.]+ \| ([\d.]+)x \|", text, re.MULTILINE)
-    return "; ".join(f"{name} {ratio}x" for name, ratio in rows) if rows else None
+def _fields_rows(schedule: str) -> Callable[[str], str | None]:
+    """check/decode per field for the transcripts of one schedule (bench/check_fields.py's table)."""
+    def pick(text: str) -> str | None:
+        rows = re.findall(rf"^\| (\S+) \| {re.escape(schedule)} \| [\d.]+ \| ([\d.]+)x \|", text, re.MULTILINE)
+        return "; ".join(f"{name} {ratio}x" for name, ratio in rows) if rows else None
+    return pick
 
 
 def _witness_sizes(text: str) -> str | None:
@@ -121,7 +124,11 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
     ]),
     "check_fields": ([], ["--instances", "2000", "--repeat", "1"], [
         Row("`stepper check` vs bare decode for every named field and extension (10^4 x 24, degree 3, CPU, "
-            "fresh processes)", "python3 bench/check_fields.py", "<= 3x (aim 2x)", _fields_rows),
+            "fresh processes), transcripts of the schedule stepper-sha256/1 (every file written before /2, and "
+            "`prove`'s default: they keep this figure)", "python3 bench/check_fields.py", "<= 3x (aim 2x)",
+            _fields_rows("stepper-sha256/1")),
+        Row("the same, transcripts of the schedule stepper-sha256/2 (one SHA-256 digest per challenge; two for BN254 "
+            "and BLS12-381)", "python3 bench/check_fields.py", "<= 3x (aim 2x)", _fields_rows("stepper-sha256/2")),
     ]),
     "rootcause": (["--log2n", "22", "--fields", "babybear^4"], ["--log2n", "18", "--fields", "babybear^4"], [
         Row("root cause in process, BabyBear^4 degree 3, vs bare kernels", "python3 bench/rootcause.py",

@@ -48,8 +48,8 @@ def text(s: str) -> bytes:
     return u64(len(s.encode())) + s.encode()
 
 
-def el(v: int) -> bytes:
-    return v.to_bytes(4, "little")
+def el(v: int, width: int = 4) -> bytes:
+    return v.to_bytes(width, "little")
 
 
 def squeeze(state: "hashlib._Hash", p: int, sample: int = 0) -> int:
@@ -249,17 +249,23 @@ def _after_the_two_rounds() -> Sha256Schedule:
     return s
 
 
-def test_schedule_object_reproduces_the_glue_vectors():
+def assert_glue_vectors(s: Sha256Schedule, openings: tuple[int, int], beta: int, w: tuple[int, int],
+                        digests: dict[str, str]) -> None:
+    """The worked example's glue observed by a schedule after its two rounds: the two openings, tau,
+    then beta and w squeezed; the state digests and the squeezes as pinned."""
     from stepper.transcript.model import NamedValue, Opening, Squeeze
 
-    s = _after_the_two_rounds()
-    s.observe(Opening("f.at.r", F_AT_R, "f", 0))
-    s.observe(Opening("h.at.r", H_AT_R, "h", 0))
+    s.observe(Opening("f.at.r", openings[0], "f", 0))
+    s.observe(Opening("h.at.r", openings[1], "h", 0))
     s.observe(NamedValue("tau", (3, 5), True, 0))
-    assert s.state_digest().hex() == GLUE_DIGESTS["value tau"]
+    assert s.state_digest().hex() == digests["value tau"]
     s.observe(Squeeze("beta", 999, False, 0))  # observing a squeeze absorbs nothing: squeeze() does
-    assert s.squeeze("beta") == BETA and s.state_digest().hex() == GLUE_DIGESTS["squeeze beta"]
-    assert s.squeeze("w", 2) == W and s.state_digest().hex() == GLUE_DIGESTS["squeeze w"]
+    assert s.squeeze("beta") == beta and s.state_digest().hex() == digests["squeeze beta"]
+    assert s.squeeze("w", 2) == w and s.state_digest().hex() == digests["squeeze w"]
+
+
+def test_schedule_object_reproduces_the_glue_vectors():
+    assert_glue_vectors(_after_the_two_rounds(), (F_AT_R, H_AT_R), BETA, W, GLUE_DIGESTS)
 
 
 def test_one_element_and_a_list_of_one_are_absorbed_apart():

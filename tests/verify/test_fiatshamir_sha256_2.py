@@ -1,7 +1,8 @@
 """The built-in schedule stepper-sha256/2 matches its written description byte for byte.
 
-Everything expected here comes from a from-scratch implementation written in this file (hashlib and
-plain Python integers; nothing of stepper.verify.fiatshamir is imported by it) following
+Everything expected here comes from a from-scratch implementation written in this file and the framing
+helpers of tests/verify/test_fiatshamir.py (hashlib and plain Python integers; nothing of
+stepper.verify.fiatshamir is used by it) following
 transcripts/FIAT-SHAMIR.md, and is also pinned as hex. The framing is /1's (tests/verify/test_fiatshamir.py
 pins it); /2 changes the domain and how a challenge is drawn: D0 = SHA-256 of the state, further
 blocks SHA-256(D0 || u64(j)), the first L bytes little-endian mod p^k, cut into base-p digits.
@@ -19,9 +20,10 @@ import pytest
 
 from stepper.errors import InputError, UsageError
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
-from stepper.transcript.model import FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl, Squeeze
+from stepper.transcript.model import FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
 from stepper.verify.fiatshamir import (BUILTIN_SCHEDULES, ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, OneDigestSchedule,
                                        Sha256Schedule, schedule_for)
+from tests.verify.test_fiatshamir import assert_glue_vectors, el, frame, text, u64  # shared with /1's tests
 
 P = NAMED_PRIMES["babybear"]  # 2^31 - 2^27 + 1, common practice, no source
 BN254 = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 r, from memory
@@ -57,22 +59,6 @@ BN254_CHALLENGE = 77510064061444747148240808850816752050219426502903607282665297
 
 
 # ----- the independent implementation ----------------------------------------------------------------
-
-def frame(tag: bytes, body: bytes) -> bytes:
-    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
-
-
-def u64(n: int) -> bytes:
-    return n.to_bytes(8, "little")
-
-
-def text(s: str) -> bytes:
-    return u64(len(s.encode())) + s.encode()
-
-
-def el(v: int, width: int = 4) -> bytes:
-    return v.to_bytes(width, "little")
-
 
 def draw(state: "hashlib._Hash", p: int, k: int = 1) -> int | tuple[int, ...]:
     """The /2 challenge the state gives: one sample of L bytes mod p^k, its base-p digits."""
@@ -190,13 +176,7 @@ def test_schedule_object_reproduces_the_glue_vectors():
     for k, values in ((1, ROUND1), (2, ROUND2)):
         s.observe(RoundMsg(0, k, values))
         s.challenge()
-    s.observe(Opening("f.at.r", F_AT_R, "f", 0))
-    s.observe(Opening("h.at.r", H_AT_R, "h", 0))
-    s.observe(NamedValue("tau", (3, 5), True, 0))
-    assert s.state_digest().hex() == GLUE_DIGESTS["value tau"]
-    s.observe(Squeeze("beta", 999, False, 0))  # observing a squeeze absorbs nothing: squeeze() does
-    assert s.squeeze("beta") == BETA and s.state_digest().hex() == GLUE_DIGESTS["squeeze beta"]
-    assert s.squeeze("w", 2) == W and s.state_digest().hex() == GLUE_DIGESTS["squeeze w"]
+    assert_glue_vectors(s, (F_AT_R, H_AT_R), BETA, W, GLUE_DIGESTS)
 
 
 def test_schedule_object_reproduces_the_extension_and_two_block_challenges():
