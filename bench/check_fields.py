@@ -32,7 +32,8 @@ number of instances). Times are CPU seconds (user + system of the child, from ``
 machine is shared, and CPU time varies far less than wall time.
 
 The transcripts are written here byte for byte as stepper's TranscriptWriter lays them out (checked
-at the start against TranscriptWriter on a small proof), with each round's bytes packed directly
+at the start against TranscriptWriter on a small proof; the tenth is the same proof cut after its
+first instances and sealed), with each round's bytes packed directly
 and its arithmetic in plain integers: g is drawn in coefficient form, c1..c3 at random and c0 so
 that g(0) + g(1) is the claim carried in, and the next claim is g(r) by Horner's rule (common
 practice, no source). Writing the twenty transcripts (and their tenths) takes about a third of the
@@ -212,22 +213,33 @@ def proof_events(name: str, instances: int, rounds: int, schedule: str, seed: in
         yield "final", pack([claim])
 
 
-def write_transcript(path: Path, name: str, instances: int, rounds: int, schedule: str) -> None:
-    """The bench proof's bytes, laid out as TranscriptWriter lays them out, written at once."""
+def write_transcript(path: Path, name: str, instances: int, rounds: int, schedule: str,
+                     first: tuple[Path, int] | None = None) -> None:
+    """The bench proof's bytes, laid out as TranscriptWriter lays them out, written at once; with
+    ``first`` = (path, n), also the proof of its first n instances (the same events up to the n-th
+    final: every challenge depends only on what came before it), sealed on its own."""
     field = field_named(name)
     layout = layout_of(DEGREE + 1, field.elem_bytes)
     prefix = {"round": layout.round_prefix, "challenge": layout.challenge_prefix, "final": layout.final_prefix}
     packer = msgpack.Packer(use_bin_type=True)
-    parts, events = [header_bytes(METADATA)], 0
+    parts, events, finals = [header_bytes(METADATA)], 0, 0
+
+    def seal(target: Path) -> None:
+        body = b"".join(parts)
+        target.write_bytes(body + packer.pack(end_payload(events, hashlib.sha256(body).digest())))
+
     for kind, item in proof_events(name, instances, rounds, schedule):
         events += 1
         if kind == "record":
             parts.append(packer.pack(to_payload(item, field, binary=True, packed=True)))  # type: ignore[arg-type]
-        else:
-            parts.append(prefix[kind])
-            parts.append(item)  # type: ignore[arg-type]
-    body = b"".join(parts)
-    path.write_bytes(body + packer.pack(end_payload(events, hashlib.sha256(body).digest())))
+            continue
+        parts.append(prefix[kind])
+        parts.append(item)  # type: ignore[arg-type]
+        if kind == "final":
+            finals += 1
+            if first is not None and finals == first[1]:
+                seal(first[0])
+    seal(path)
 
 
 def write_with_the_writer(path: Path, name: str, instances: int, rounds: int, schedule: str) -> None:
@@ -244,9 +256,12 @@ def assert_written_as_the_writer_would(tmp: Path, names: list[str], schedules: l
     for name in names:
         for schedule in schedules:
             fast, slow = tmp / "fast.sumtr", tmp / "slow.sumtr"
-            write_transcript(fast, name, 3, 4, schedule)
+            fast_first, slow_first = tmp / "fast-first.sumtr", tmp / "slow-first.sumtr"
+            write_transcript(fast, name, 3, 4, schedule, (fast_first, 2))
             write_with_the_writer(slow, name, 3, 4, schedule)
-            assert fast.read_bytes() == slow.read_bytes(), f"the bench writes {name} otherwise than TranscriptWriter"
+            write_with_the_writer(slow_first, name, 2, 4, schedule)
+            for mine, writers in ((fast, slow), (fast_first, slow_first)):
+                assert mine.read_bytes() == writers.read_bytes(), f"the bench writes {name} otherwise than TranscriptWriter"
 
 
 def hashing_floor(name: str, schedule: str, rounds: int) -> float:
@@ -319,8 +334,7 @@ def measure(names: list[str], schedules: list[str], instances: int, rounds: int,
             tag = schedule.rpartition("/")[2]
             large, small = tmp / f"{name}-{tag}.sumtr", tmp / f"{name}-{tag}-tenth.sumtr"
             t0 = time.perf_counter()
-            write_transcript(large, name, instances, rounds, schedule)
-            write_transcript(small, name, max(1, instances // 10), rounds, schedule)
+            write_transcript(large, name, instances, rounds, schedule, (small, max(1, instances // 10)))
             written = time.perf_counter() - t0
             decodes, checks, floors, processes = [], [], [], []
             for _ in range(repeat):  # interleaved: a slow spell of the machine slows both

@@ -119,9 +119,10 @@ def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) 
         return digits.T
     value = np.remainder(words_to_ints(np.ascontiguousarray(samples[:, :wide])), p ** k)
     columns = []
-    for _ in range(k):  # object arrays: no divmod ufunc
+    for _ in range(k - 1):  # object arrays: no divmod ufunc
         columns.append(value % p)
         value = value // p
+    columns.append(value)  # below p: the top digit
     out = np.stack(columns, axis=1)
     return out if base.dtype is object else out.astype(np.uint64)
 
