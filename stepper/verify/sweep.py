@@ -325,6 +325,9 @@ class _Sweeper:
         map per instance event. Each event's payload (the one msgpack would have made) still goes
         through the Sequencer, in order. The glue after the last run taken is left to
         :meth:`_take_glue`, which reads on into the next chunk."""
+        while self._take_uniform():  # a flush in between (a file without glue) starts the next block
+            if self.due:
+                return  # the block is full: the glue after the last run taken waits to be checked with it
         layout, find = self.layout, self.instance_head
         data, data_at = self.window
         first = at = self.unpacker.tell() - data_at
@@ -359,7 +362,9 @@ class _Sweeper:
             return
         blob = memoryview(self.unpacker.read_bytes(at - first))
         try:
-            if plain and len(found) > 1 and self._take_plain(found, blob, first, layout):
+            if plain and len(found) > 1 and self._take_plain(
+                    [head[1].decode() for head in found], [head[2] for head in found], [head[3] for head in found],
+                    b"".join([head[4] for head in found]), lambda: blob, [head[0] - first for head in found], layout):
                 self._after_runs(rows - self.rows, size - self.pending_bytes)
                 return
             seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
@@ -378,23 +383,77 @@ class _Sweeper:
             raise _GiveUp("a text that is not UTF-8") from None  # the usual path names it
         self._after_runs(rows - self.rows, size - self.pending_bytes)
 
-    def _take_plain(self, found: list[tuple[int, bytes, int, int, bytes, bytes | None, bytes | None]],
-                    blob: memoryview, first: int, layout: Layout) -> bool:
+    def _take_plain(self, names: list[str], num_vars: list[int], degrees: list[int], packed_claims: bytes,
+                    blob: Callable[[], memoryview], rows_at: list[int], layout: Layout) -> bool:
         """Hand instances found with no claim_expr, no final_expr and no glue between their runs to
-        the Sequencer in one step and keep them as columns (:class:`PlainRuns`), or return False
-        (nothing done) when the Sequencer leaves them to be fed one by one."""
-        names = [head[1].decode() for head in found]
-        num_vars = [head[2] for head in found]
-        degrees = [head[3] for head in found]
-        packed_claims = b"".join([head[4] for head in found])
+        the Sequencer in one step and keep them as columns (:class:`PlainRuns`; ``blob`` gives their
+        bytes, read once the Sequencer has taken them), or return False (nothing done) when the
+        Sequencer leaves them to be fed one by one."""
         index = len(self.seq.names)
         claims = self.seq.plain_runs(names, num_vars, degrees, packed_claims)
         if claims is None:
             return False
         last = self.seq.current
         assert last is not None
-        self.runs.append(PlainRuns(index, names, num_vars, degrees, claims, packed_claims, blob,
-                                   [head[0] - first for head in found], layout, last))
+        self.runs.append(PlainRuns(index, names, num_vars, degrees, claims, packed_claims, blob(), rows_at, layout,
+                                   last))
+        return True
+
+    def _take_uniform(self) -> bool:
+        """Take the instances that follow as :meth:`_take_instances` would, when they are laid out
+        alike: each event the bytes of the first but its name (of the same length), degree and
+        claim, each run of the same number of rounds right after it, each next event right after
+        that run's final. All of them are compared with numpy at once (no regular expression per
+        instance), as far as the chunk, the block's room and the layout go; returns whether any
+        were taken (two at least; :meth:`_take_instances` then goes on from there)."""
+        layout, find = self.layout, self.instance_head
+        data, data_at = self.window
+        at = self.unpacker.tell() - data_at
+        if layout is None or find is None or at < 0:
+            return False
+        head = find(data, at)
+        if head is None or head[5] is not None or head[6] is not None or head[2] == 0:
+            return False
+        head_end, name, num_vars, _, _, _, _ = head
+        head_len, stride, final_len, width = head_end - at, layout.stride, layout.final_len, layout.width
+        period = head_len + num_vars * stride + final_len
+        rows_left, size_left = BLOCK_ROUNDS - self.rows, self.limits.chunk_bytes * 8 - self.pending_bytes
+        count = min((len(data) - at) // period, -(-rows_left // num_vars), -(-size_left // (num_vars * stride)))
+        if count < 2:
+            return False
+        import numpy as np
+
+        u8 = np.frombuffer(data, dtype=np.uint8)
+        # the event ends: name, "num_vars", n, "degree", d, "claim", bin 8 of the claim (fixstr keys, fixint counts)
+        degree_at = head_len - width - 2 - len(b"\xa5claim") - 1
+        name_at = degree_at - len(b"\xa6degree") - 1 - len(b"\xa8num_vars") - len(name)
+        fixed = np.concatenate((np.arange(name_at), np.arange(name_at + len(name), degree_at),
+                                np.arange(degree_at + 1, head_len - width),
+                                head_len + np.arange(len(layout.round_prefix)),
+                                period - final_len + np.arange(len(layout.final_prefix))))
+        starts = at + period * np.arange(count)
+        same = (u8[starts[:, None] + fixed] == u8[at + fixed]).all(axis=1)
+        degrees = u8[starts + degree_at]
+        same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
+        count = int(np.argmin(same)) if not same.all() else count
+        if count < 2:
+            return False
+        starts = starts[:count]
+        names_blob = u8[starts[:, None] + (name_at + np.arange(len(name)))].tobytes()
+        try:
+            if names_blob.isascii():
+                text = names_blob.decode()
+                names = [text[i:i + len(name)] for i in range(0, len(text), len(name))] if name else [""] * count
+            else:
+                names = [names_blob[i:i + len(name)].decode() for i in range(0, len(names_blob), len(name))]
+        except UnicodeDecodeError:
+            return False  # the usual path names it
+        claims = u8[starts[:, None] + (head_len - width + np.arange(width))].tobytes()
+        if not self._take_plain(names, [num_vars] * count, degrees[:count].tolist(), claims,
+                                lambda: memoryview(self.unpacker.read_bytes(count * period)),
+                                (starts - at + head_len).tolist(), layout):
+            return False  # nothing read: the usual path takes them
+        self._after_runs(count * num_vars, count * num_vars * stride)
         return True
 
     def _take_glue(self, tail: list[Any]) -> None:

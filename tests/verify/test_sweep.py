@@ -128,6 +128,7 @@ class Knobs:
     # value before an instance, no claim_expr or final_expr)
     glue_every: int = 1  # with glue: only instances i with i % glue_every == 0 carry it
     low_first: bool = False  # every instance low-first (no order key: runs of plain instances in a row)
+    num_vars: int = 0  # when given, every instance has that many variables (else 1 to max_vars)
     fault: str | None = None
     seed: int = 0
 
@@ -217,7 +218,7 @@ def write_transcript(path: Path, knobs: Knobs) -> Written:
         faulty = knobs.fault if i == fault_instance else None
         if knobs.extras and rng.random() < 0.3:
             extra(f"before instance {i}")
-        num_vars = rng.randint(1, knobs.max_vars)
+        num_vars = knobs.num_vars or rng.randint(1, knobs.max_vars)
         degree = knobs.degrees[i % len(knobs.degrees)] if knobs.degrees else rng.randint(1, knobs.max_degree)
         form = rng.choice(FORMS[1:]) if knobs.compressed and rng.random() < 0.4 else "evals"
         e = rng.randint(0 if form in ("evals", "coeffs") else 1, degree) if knobs.fewer else degree
@@ -1009,8 +1010,9 @@ def test_plain_instances_between_glued_ones_report_as_the_replay(tmp_path, monke
 @pytest.mark.parametrize("fault", ["eval", "challenge", "final", "claim", "noncanonical"])
 def test_a_fault_among_plain_instances_in_a_row_makes_the_sweep_give_up_and_check_name_it(tmp_path, capsys,
                                                                                         monkeypatch, field, fault):
-    for seed in range(2):
-        knobs = Knobs(field=field, instances=30, max_vars=4, degrees=(3,), low_first=True, fault=fault, seed=seed)
+    for seed, num_vars in ((0, 0), (1, 0), (0, 3)):  # one round count: found by the comparison at once
+        knobs = Knobs(field=field, instances=30, max_vars=4, num_vars=num_vars, degrees=(3,), low_first=True,
+                      fault=fault, seed=seed)
         written = write_transcript(tmp_path / f"{fault}.sumtr", knobs)
         assert swept_report(written.path, 3) is None, (fault, seed)
         code, _, _, swept = check_both(capsys, monkeypatch, written.path, "--rows", "3")
@@ -1023,7 +1025,7 @@ def test_a_claim_past_p_among_plain_instances_is_left_to_the_replay_which_names_
     # one claim in the middle made p itself (its packed bytes; for an extension its first coefficient),
     # sealed again: the Sequencer takes the instances one by one, the sweep gives up, and check names the
     # claim as the replay does
-    knobs = Knobs(field=field, instances=30, max_vars=3, degrees=(2,), low_first=True, seed=63)
+    knobs = Knobs(field=field, instances=30, num_vars=3, degrees=(2,), low_first=True, seed=63)
     written = write_transcript(tmp_path / "claim.sumtr", knobs)
     ar = FIELDS[field][0]
     width = (ar.p.bit_length() + 7) // 8
@@ -1035,3 +1037,29 @@ def test_a_claim_past_p_among_plain_instances_is_left_to_the_replay_which_names_
     assert swept_report(written.path, 3) is None
     code, _, err, swept = check_both(capsys, monkeypatch, written.path)
     assert swept is None and code == 2 and "claim: expected a canonical element below p" in err, err
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "bn254", "bls12-381"])
+@pytest.mark.parametrize("names", [("sailing-",), ("quay-\u00e5-",), ("",)])
+def test_instances_laid_out_alike_are_compared_at_once_and_report_as_the_replay(tmp_path, monkeypatch, field, names):
+    # names of one length (the index's digits change it twice), one round count, a degree that changes
+    # every seventh instance (another layout: the comparison stops there): runs of instances found by
+    # numpy in one go, across blocks and chunks, each report as the replay's
+    taken: list[int] = []
+    real = sweep_module._Sweeper._take_uniform
+
+    def spy(self: object) -> bool:
+        before = len(self.seq.names)  # type: ignore[attr-defined]
+        took = real(self)  # type: ignore[arg-type]
+        taken.append(len(self.seq.names) - before if took else 0)  # type: ignore[attr-defined]
+        return took
+
+    monkeypatch.setattr(sweep_module._Sweeper, "_take_uniform", spy)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 64)
+    knobs = Knobs(field=field, instances=150, num_vars=3, degrees=(3,) * 6 + (2,), low_first=True, names=names,
+                  seed=64)
+    written = write_transcript(tmp_path / "alike.sumtr", knobs)
+    for keep, chunk in ((20, 1 << 20), (0, 1 << 20), (5, 4096)):
+        taken.clear()
+        assert_same_report(written.path, keep, ReadLimits(chunk_bytes=chunk))
+        assert sum(taken) >= (60 if chunk > 4096 else 10) and max(taken) >= (5 if chunk > 4096 else 2), (keep, chunk, taken)
