@@ -84,3 +84,29 @@ def test_checking_a_file_without_glue_expressions_loads_no_expression_module(swe
     numpy_loaded, expr_loaded, syntax_loaded = proc.stdout.split()[-3:]
     assert (expr_loaded, syntax_loaded) == ("False", "False"), proc.stderr
     assert numpy_loaded == ("True" if sweep == "on" else "False")
+
+
+@pytest.mark.parametrize("enabled", [True, False])
+def test_the_sweep_runs_with_the_cyclic_collector_paused_and_leaves_it_as_it_was(enabled, tmp_path, capsys,
+                                                                                 monkeypatch):
+    import gc
+
+    import stepper.verify.sweep as sweep_module
+
+    seen = []
+    real = sweep_module.sweep
+
+    def watched(*args, **kwargs):
+        seen.append(gc.isenabled())
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(sweep_module, "sweep", watched)
+    was = gc.isenabled()
+    try:
+        (gc.enable if enabled else gc.disable)()
+        code, _ = _check(tmp_path, capsys, "--kind", "gkr-product", json_out=False)  # text: the sweep is asked
+        after = gc.isenabled()
+    finally:
+        (gc.enable if was else gc.disable)()
+    assert code == 0
+    assert seen == [False] and after is enabled
