@@ -337,7 +337,7 @@ def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list
 
 # every ASCII character that cannot stand in a name, made a space: a text's words are then its str.split()
 _NAME_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_.")
-_WORD_GAPS = str.maketrans({chr(c): " " for c in range(128) if chr(c) not in _NAME_CHARS})
+_WORD_GAPS = bytes(c if chr(c) in _NAME_CHARS else 0x20 for c in range(256))  # a bytes.translate table
 _WORD_RUN = re.compile(r"([A-Za-z0-9_.]+)")  # a maximal run of name characters: a name, a number or a mix
 
 
@@ -351,7 +351,7 @@ def _one_shape(texts: list[str], joined: str) -> list[tuple[Template, list[list[
     (so the tokenizer reads every text as it reads the first)."""
     if not joined.isascii():
         return None
-    words = joined.translate(_WORD_GAPS).split()
+    words = joined.encode("ascii").translate(_WORD_GAPS).decode("ascii").split()  # bytes.translate: a table look-up a byte
     n = len(texts)
     width, rest = divmod(len(words), n)
     if rest or not width:

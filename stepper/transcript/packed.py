@@ -228,6 +228,17 @@ class GlueColumnsRead:
         self.ends = ends
 
 
+@lru_cache(maxsize=1)
+def _kind_tables() -> tuple[np.ndarray, np.ndarray]:
+    """The letters of each kind by its code (:data:`GLUE_CODES`), padded to 7, and where the padding is."""
+    import numpy as np
+
+    words = [kind.encode() for kind in GLUE_CODES]
+    letters = np.array([list(word.ljust(7, b"\x00")) for word in words], dtype=np.uint8)
+    spare = np.array([[j >= len(word) for j in range(7)] for word in words])
+    return letters, spare
+
+
 def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     """The events of ``data`` (glue events of ``width``-byte elements joined, each packed as the writer
     packs them), or None when ``data`` is not exactly such events read as msgpack reads them: each
@@ -268,17 +279,14 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     ends = value_key + 8 + width
     if int(ends[-1]) != size or not np.array_equal(ends[:-1], starts[1:]):
         return None
-    for j in range(7):  # the kind's letters: value (5), squeeze or opening (7)
-        letters = np.where(codes == 1, b"squeeze"[j], b"opening"[j])
-        if j < 5:
-            letters = np.where(codes == 0, b"value"[j], letters)
-        chosen = slice(None) if j < 5 else seven
-        if not np.array_equal(u8[at[chosen] + j], letters[chosen]):
-            return None
+    # the kind's letters (value: 5, squeeze or opening: 7; a value's two bytes after them are its name key,
+    # checked below), then the fixed bytes of the name key and the value key: each one gather and one compare
+    letters, spare = _kind_tables()
+    if not ((u8[at[:, None] + np.arange(7)] == letters[codes]) | spare[codes]).all():
+        return None
     for place, text in ((name_key, b"\xa4name"), (value_key, b"\xa5value" + bytes((_BIN8, width)))):
-        for j, byte in enumerate(text):
-            if not (u8[place + j] == byte).all():
-                return None
+        if not (u8[place[:, None] + np.arange(len(text))] == np.frombuffer(text, dtype=np.uint8)).all():
+            return None
     # the names and the byte after each (0xa5, checked above) turned into a newline: joined, decoded, split
     spans = name_len + 1
     out_at = np.cumsum(spans) - spans
@@ -302,6 +310,7 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
 # "claim_expr" and/or "final_expr" after them, in that order, each a str.
 _INSTANCE_HEAD = b"\x85\xa4type\xa8instance\xa4name"
 _TEXT_KEYS = (b"\xaaclaim_expr", b"\xaafinal_expr")
+_CLAIM_KEY, _FINAL_KEY = _TEXT_KEYS
 
 
 class InstanceHead:
@@ -338,8 +347,19 @@ class InstanceHead:
             return None
         name, num_vars, degree, claim = match.groups()
         end = match.end()
-        texts: list[bytes | None] = [None, None]
         extra = data[at] - 0x85
+        if extra == 2:  # the usual glued instance: both texts, each a fixstr, read inline
+            claim_at = end + len(_CLAIM_KEY) + 1
+            if claim_at < len(data) and 0xA0 <= data[claim_at - 1] < 0xC0 and data.startswith(_CLAIM_KEY, end):
+                final_key = claim_at + data[claim_at - 1] - 0xA0
+                final_at = final_key + len(_FINAL_KEY) + 1
+                if final_at <= len(data) and 0xA0 <= data[final_at - 1] < 0xC0 \
+                        and data.startswith(_FINAL_KEY, final_key):
+                    final_end = final_at + data[final_at - 1] - 0xA0
+                    if final_end <= len(data):
+                        return (final_end, name, num_vars[0], degree[0], claim, data[claim_at:final_key],
+                                data[final_at:final_end])
+        texts: list[bytes | None] = [None, None]
         for j, key in enumerate(_TEXT_KEYS):
             if not extra:
                 break

@@ -65,7 +65,7 @@ class _Group:
     final: bool
     columns: list[list[str]]
     expected: list[Any]
-    runs: list[int]
+    runs: np.ndarray
     challenges: Any = None
     first_rows: list[int] = dc_field(default_factory=list)
     num_vars: int = 0
@@ -90,19 +90,29 @@ class GlueChecks:
         """Instances settled in bulk with a claim_expr or final_expr: each claim against its
         claim_expr, each final value against its final_expr at the point whose challenges
         (round order) are rows ``first_row`` .. ``first_row + num_vars - 1`` of its block's
-        challenges. Texts are read by template all at once (:func:`templates_of`). Raises
-        :class:`Unsupported` for an expression this module does not check (``point(NAME)``,
+        challenges. :meth:`add_columns` per block of challenges."""
+        by_block: dict[int, list[Settled]] = {}
+        for entry in settled:
+            by_block.setdefault(id(entry[3]), []).append(entry)
+        for entries in by_block.values():
+            self.add_columns(_runs_of(entries), list(map(itemgetter(1), entries)), list(map(itemgetter(2), entries)),
+                             entries[0][3], list(map(itemgetter(4), entries)))
+
+    def add_columns(self, runs: np.ndarray, starts: list[InstanceStart], finals: list[Any], challenges: Any,
+                    first_rows: list[int]) -> None:
+        """:meth:`add` for instances whose challenges are all in one block (``challenges``), given as
+        columns: instance k follows run ``runs[k]`` of the flush, has start ``starts[k]``, final value
+        ``finals[k]`` and its challenges from row ``first_rows[k]`` of the block on. Instances without
+        either text are passed over. Texts are read by template all at once (:func:`templates_of`).
+        Raises :class:`Unsupported` for an expression this module does not check (``point(NAME)``,
         ``final(NAME)``, a text only the character parser reads, eq(a) in a claim_expr)."""
-        starts = list(map(itemgetter(1), settled))
         for final, texts_of in ((False, attrgetter("claim_expr")), (True, attrgetter("final_expr"))):
             every = list(map(texts_of, starts))
-            if every.count(None) == len(every):
+            missing = every.count(None)
+            if missing == len(every):
                 continue
-            if None in every:
-                chosen = [entry for entry, text in zip(settled, every) if text is not None]
-                texts = [text for text in every if text is not None]
-            else:
-                chosen, texts = settled, every
+            kept = [i for i, text in enumerate(every) if text is not None] if missing else None
+            texts = every if kept is None else [every[i] for i in kept]
             from stepper.field.expr_syntax import templates_of  # only for glue: a plain sweep builds no syntax classes
 
             found = templates_of(texts)  # type: ignore[arg-type]
@@ -112,29 +122,30 @@ class GlueChecks:
                 refs = template.refs
                 if refs.points or refs.finals or (refs.own_point and not final):
                     raise Unsupported("point(NAME), final(NAME) or eq(a) in a claim_expr")
-                picked = chosen if len(positions) == len(chosen) else [chosen[i] for i in positions]
+                chosen = positions if kept is None else [kept[i] for i in positions]
+                whole = len(chosen) == len(starts)
+                picked = starts if whole else [starts[i] for i in chosen]
+                picked_runs = runs if whole else runs[np.array(chosen, dtype=np.int64)]
                 if not final:
-                    self.groups.append(_Group(template, False, columns,
-                                              list(map(attrgetter("claim"), map(itemgetter(1), picked))),
-                                              list(map(itemgetter(0), picked))))
+                    self.groups.append(_Group(template, False, columns, list(map(attrgetter("claim"), picked)),
+                                              picked_runs))
                     continue
-                blocks = list(map(id, map(itemgetter(3), picked)))
-                shapes = list(map(attrgetter("num_vars", "order"), map(itemgetter(1), picked)))
-                if blocks.count(blocks[0]) == len(blocks) and shapes.count(shapes[0]) == len(shapes):
-                    self._evaluations(template, columns, picked)
+                picked_finals = finals if whole else [finals[i] for i in chosen]
+                picked_firsts = first_rows if whole else [first_rows[i] for i in chosen]
+                sizes = list(map(attrgetter("num_vars"), picked))
+                orders = list(map(attrgetter("order"), picked))
+                if sizes.count(sizes[0]) == len(sizes) and orders.count(orders[0]) == len(orders):
+                    self.groups.append(_Group(template, True, columns, picked_finals, picked_runs, challenges,
+                                              picked_firsts, sizes[0], orders[0]))
                     continue
-                split: dict[tuple[int, int, str], list[int]] = {}
-                for i, (block, shape) in enumerate(zip(blocks, shapes)):
-                    split.setdefault((block, *shape), []).append(i)
-                for members in split.values():
-                    self._evaluations(template, [[column[i] for i in members] for column in columns],
-                                      [picked[i] for i in members])
-
-    def _evaluations(self, template: Template, columns: list[list[str]], picked: list[Settled]) -> None:
-        start = picked[0][1]
-        self.groups.append(_Group(template, True, columns, list(map(itemgetter(2), picked)),
-                                  list(map(itemgetter(0), picked)), picked[0][3], list(map(itemgetter(4), picked)),
-                                  start.num_vars, start.order))
+                split: dict[tuple[int, str], list[int]] = {}
+                for i, shape in enumerate(zip(sizes, orders)):
+                    split.setdefault(shape, []).append(i)
+                for (size, order), members in split.items():
+                    self.groups.append(_Group(template, True, [[column[i] for i in members] for column in columns],
+                                              [picked_finals[i] for i in members],
+                                              picked_runs[np.array(members, dtype=np.int64)], challenges,
+                                              [picked_firsts[i] for i in members], size, order))
 
     def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
                     earlier: Mapping[str, int | None], run_of_row: np.ndarray | None = None,
@@ -151,9 +162,16 @@ class GlueChecks:
         Raises :class:`Unsupported` where one does not hold."""
         lists_here = {name for name, length in defined.items() if length is not None} if any(
             length is not None for length in defined.values()) else set()  # the flush's list values
+        by_place = names is not None and run_of_row is not None and len(run_of_row) > 0
+        firsts = step = None
+        if by_place:
+            assert run_of_row is not None
+            firsts = np.searchsorted(run_of_row, np.arange(int(run_of_row[-1]) + 2))  # each run's first row; the end
+            step = _step_of(firsts)
         for group in self.groups:
             scalars, lists = group.template.plan[0], group.template.plan[1]
-            limits = np.array(group.runs if group.final else [run - 1 for run in group.runs], dtype=np.int64)
+            group_runs = np.asarray(group.runs, dtype=np.int64)
+            limits = group_runs if group.final else group_runs - 1
             for hole, listed in [*((h, False) for h in scalars), *((h, True) for h in lists)]:
                 if not isinstance(hole, int):
                     raise Unsupported("a call word used as a name")
@@ -162,8 +180,9 @@ class GlueChecks:
                     column, bound = column[:1], limits.min(keepdims=True)
                 else:
                     bound = limits
-                if names is not None and run_of_row is not None and len(run_of_row) and len(column) == len(group.runs):
-                    rows = _rows_by_place(column, np.array(group.runs, dtype=np.int64), runs, names, run_of_row)
+                if by_place and len(column) == len(group_runs):
+                    assert names is not None and run_of_row is not None and firsts is not None
+                    rows = _rows_by_place(column, group_runs, runs, names, run_of_row, firsts, step)
                     group.rows[hole] = rows
                     places = np.where(rows < 0, -1, run_of_row[np.maximum(rows, 0)])
                 else:
@@ -191,21 +210,43 @@ class GlueChecks:
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
 
 
+def _runs_of(picked: list[Settled]) -> np.ndarray:
+    """The runs of settled instances, in order."""
+    return np.fromiter(map(itemgetter(0), picked), dtype=np.int64, count=len(picked))
+
+
+def _step_of(firsts: np.ndarray) -> int | None:
+    """The number of rows every run holds when each holds as many (``firsts``: each run's first
+    row, then the end), else None."""
+    if len(firsts) < 2:
+        return None
+    step = int(firsts[1])
+    if step <= 0 or int(firsts[0]) != 0 or not np.array_equal(firsts, np.arange(len(firsts), dtype=np.int64) * step):
+        return None
+    return step
+
+
 def _rows_by_place(column: list[str], runs: np.ndarray, index: Mapping[str, int], names: Sequence[str],
-                   run_of_row: np.ndarray) -> np.ndarray:
+                   run_of_row: np.ndarray, firsts: np.ndarray | None = None, step: int | None = None) -> np.ndarray:
     """Each check's name's row in the flush (-1: sent before it), check k's instance following run
     ``runs[k]``. Where the first name the flush holds stands at offset o after run r + s, r its
     check's run, every other check's name is looked for at offset o after its own run + s and
     compared with ``names`` there; the names found elsewhere (or not at all) are looked up in
-    ``index``."""
+    ``index``. ``firsts`` (each run's first row, then the end) and ``step`` (the rows of every run
+    when each holds as many, see :func:`_step_of`) may be given when known: with a ``step`` and
+    checks of consecutive runs, the names at those places are one slice of ``names``."""
     count = len(column)
     anchor = next((k for k in (0, 1) if k < count and column[k] in index), None)
     if anchor is None or not len(run_of_row):
         return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
     row = index[column[anchor]]
-    firsts = np.searchsorted(run_of_row, np.arange(int(run_of_row[-1]) + 2))  # each run's first row; then the end
+    if firsts is None:
+        firsts = np.searchsorted(run_of_row, np.arange(int(run_of_row[-1]) + 2))
     shift = int(run_of_row[row]) - int(runs[anchor])
     offset = row - int(firsts[run_of_row[row]])
+    if step is not None and count and int(runs[-1]) - int(runs[0]) == count - 1 and (
+            count == 1 or bool((np.diff(runs) == 1).all())):
+        return _rows_by_slice(column, int(runs[0]) + shift, len(firsts) - 1, step, offset, index, names)
     target = runs + shift
     inside = (target >= 0) & (target < len(firsts) - 1)
     clipped = np.clip(target, 0, len(firsts) - 2)
@@ -219,6 +260,27 @@ def _rows_by_place(column: list[str], runs: np.ndarray, index: Mapping[str, int]
     elif len(chosen) == 1 and names[int(rows[chosen[0]])] != column[int(chosen[0])]:
         return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
     for k in np.flatnonzero(~inside).tolist():  # a name before the flush, or one the place did not predict
+        rows[k] = index.get(column[k], -1)
+    return rows
+
+
+def _rows_by_slice(column: list[str], target: int, run_count: int, step: int, offset: int,
+                   index: Mapping[str, int], names: Sequence[str]) -> np.ndarray:
+    """:func:`_rows_by_place` when every run of the flush holds ``step`` rows and check k reads the
+    name at ``offset`` after run ``target + k`` (of ``run_count``): the checks whose run is in the
+    flush find their names in one slice of ``names``, compared as a whole; the others are looked up."""
+    count = len(column)
+    low, high = max(0, -target), min(count, run_count - target)
+    rows = np.full(count, -1, dtype=np.int64)
+    if low < high:
+        begin = (target + low) * step + offset
+        end = begin + (high - low) * step
+        if names[begin:end:step] != column[low:high]:  # type: ignore[index]
+            return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
+        rows[low:high] = np.arange(begin, end, step, dtype=np.int64)
+    else:
+        low = high = count
+    for k in (*range(low), *range(high, count)):  # a name before the flush, or one the place did not predict
         rows[k] = index.get(column[k], -1)
     return rows
 

@@ -346,7 +346,7 @@ class GlueColumns:
         expected = decode_cells(kernel, rows, width)
         return bool(np.array_equal(rederive(kernel, schedule, digests, len(rows), expected.shape), expected))
 
-    def pieces(self, schedule: Sha256Schedule) -> list[list[memoryview]]:
+    def pieces(self, schedule: Sha256Schedule) -> Sequence[Sequence[memoryview]]:
         """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after
         each run's rows, run by run (none for a run with no glue)."""
         import numpy as np
@@ -366,8 +366,8 @@ class GlueColumns:
         if len(cuts) == len(run_ends) - 1 and np.array_equal(np.searchsorted(cuts, run_ends), np.arange(len(run_ends))):
             # the usual case: each run's glue holds one squeeze of one element, so two pieces each
             take = view.__getitem__
-            return list(map(list, zip(map(take, map(slice, run_ends[:-1].tolist(), cuts.tolist())),
-                                      map(take, map(slice, cuts.tolist(), run_ends[1:].tolist())))))
+            return list(zip(map(take, map(slice, run_ends[:-1].tolist(), cuts.tolist())),
+                            map(take, map(slice, cuts.tolist(), run_ends[1:].tolist()))))
         marks = np.union1d(run_ends, cuts).tolist()  # every piece boundary, sorted
         pieces = list(map(view.__getitem__, map(slice, marks[:-1], marks[1:])))
         starts = np.searchsorted(np.array(marks[:-1], dtype=np.int64), run_ends).tolist()

@@ -138,8 +138,10 @@ class RunBlock:
         finals: list[bytes | memoryview] = []
         claims: list[bytes] = []  # packed, checked canonical by block_passes
         rounds: list[int] = []
+        self._plain_rows = False  # some runs are instances in a row (settled in bulk)
         for run in runs:
             if run.__class__ is PlainRuns:
+                self._plain_rows = True
                 parts += run.row_parts()  # type: ignore[union-attr]
                 finals += run.final_cells()  # type: ignore[union-attr]
                 claims.append(run.packed_claims)  # type: ignore[union-attr]
@@ -169,6 +171,8 @@ class RunBlock:
         self.starts = np.zeros(len(rounds), dtype=np.int64)
         np.cumsum(rounds[:-1], out=self.starts[1:])
         self._starts = self.starts.tolist()
+        self.first_rows: list[int] = self._starts  # each run's first row, in stream order
+        self._final_values: list[Element] | None = None  # made when runs are taken one by one
         self._next = 0  # the next run, in stream order
         self._view: memoryview | None = None
         self._round_len = self._frame_len = 0
@@ -188,11 +192,29 @@ class RunBlock:
         return self._starts[j]  # type: ignore[no-any-return]
 
     def _final(self, j: int) -> Element:
+        values = self._final_values
+        if values is not None:
+            return values[j]
+        if not self._plain_rows:  # every run taken one by one: all of them made at once
+            return self.final_values()[j]
         from stepper.field.kernels.limbs import LimbKernel
 
         if isinstance(self.kernel, LimbKernel):  # a Python int straight from its bytes, not back from limbs
             return int.from_bytes(self._final_cells[j].tobytes(), "little")
         return self.kernel.to_list(self.finals[j:j + 1])[0]  # type: ignore[no-any-return]
+
+    def final_values(self) -> list[Element]:
+        """Every run's final value, in stream order (made once, for the whole block: one element at a
+        time cost a slice and a conversion each)."""
+        if self._final_values is None:
+            from stepper.field.kernels.limbs import LimbKernel
+            from stepper.verify.cells import words_to_ints
+
+            if isinstance(self.kernel, LimbKernel):  # Python ints straight from their bytes, not back from limbs
+                self._final_values = words_to_ints(self._final_cells).tolist()
+            else:
+                self._final_values = self.kernel.to_list(self.finals)
+        return self._final_values
 
     def _frames_view(self, schedule: Sha256Schedule) -> memoryview:
         """The schedule's round and challenge frames of every row of the block (built once)."""

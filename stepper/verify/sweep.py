@@ -40,7 +40,8 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable, Iterator
+from operator import itemgetter
+from typing import TYPE_CHECKING, Any, Callable, Iterator, Sequence
 
 import msgpack
 
@@ -542,6 +543,8 @@ class _Sweeper:
         self.glue_tail = None
         if not runs:
             return
+        import numpy as np
+
         from stepper.verify.glue_block import Unsupported
         from stepper.verify.glue_columns import GlueColumns
         from stepper.verify.roundblock import block_passes
@@ -553,13 +556,21 @@ class _Sweeper:
         self.glue_unpacked = False
         seq.count += glue.from_bytes  # the events read as blobs, not counted as they were taken
         members: dict[Layout, list[Run]] = {}
+        plain_rows = False  # some runs are instances in a row, held as columns
         for run in runs:
-            members.setdefault(run.layout if run.__class__ is PlainRuns else run[3], []).append(run)  # type: ignore[union-attr, index]
+            if run.__class__ is PlainRuns:
+                plain_rows = True
+                members.setdefault(run.layout, []).append(run)  # type: ignore[union-attr]
+            else:
+                members.setdefault(run[3], []).append(run)  # type: ignore[index]
         blocks = {layout: RunBlock(layout, group, kernel, field) for layout, group in members.items()}
         replay = self.replay
-        pieces: list[list[memoryview]] | None = None  # the glue's, run by run
+        pieces: Sequence[Sequence[memoryview]] | None = None  # the glue's, run by run
         digests = bytearray()  # of the glue's squeezes
-        glued: list[Settled] = []  # the runs with a claim_expr or final_expr
+        # the runs' claim_expr and final_expr: with one block of runs taken one by one, read as columns after
+        # the loop (run i is the block's run i); otherwise gathered run by run
+        by_columns = seq.glue and len(blocks) == 1 and not plain_rows
+        glued: list[Settled] = []  # the runs with a claim_expr or final_expr, when not by columns
         unkept = glue.size  # the first glue event after a run whose summary is not kept
         bounds = glue.bounds
         try:
@@ -573,7 +584,7 @@ class _Sweeper:
                     block = blocks[layout]
                     first, final = block.next_run()
                     kept = replay.settle(start, final)
-                    if start.claim_expr is not None or start.final_expr is not None:
+                    if not by_columns and (start.claim_expr is not None or start.final_expr is not None):
                         glued.append((i, start, final, block.challenges, first))
                     schedule = replay.schedule  # the first settle may start the default schedule
                     if schedule is not None:
@@ -589,8 +600,13 @@ class _Sweeper:
                     replay.settle_glue(glue.records(i, start.index))
                 elif unkept == glue.size:
                     unkept = bounds[i]
-            if glued:
+            if by_columns:
+                block = next(iter(blocks.values()))
+                checks.add_columns(np.arange(len(runs)), list(map(itemgetter(0), runs)), block.final_values(),
+                                   block.challenges, block.first_rows)
+            elif glued:
                 checks.add(glued)
+            if checks.groups:
                 checks.check_names(glue.rows(), glue.lists(), seq.defined, glue.run_of_row(), glue.names)
         except Unsupported as err:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
@@ -604,7 +620,7 @@ class _Sweeper:
         if digests and not glue.squeezes_pass(kernel, replay.schedule, digests):
             raise _GiveUp("a squeeze differs from the derived one")
         try:
-            passes = checks.check(replay.glue_values(), glue.cells(kernel) if glued else None)
+            passes = checks.check(replay.glue_values(), glue.cells(kernel) if checks.groups else None)
         except Unsupported as err:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
         if not passes or replay.failed:

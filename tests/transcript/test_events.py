@@ -450,6 +450,12 @@ def test_glue_columns_read_by_numpy_decline_what_msgpack_would_read_otherwise():
     assert read_glue_columns(one + digit_first, 8) is None  # not a glue name
     bait = msgpack.packb({"type": "opening", "name": "ramp", "value": b"\x83\xa4type\x00\x00"}, use_bin_type=True)
     assert read_glue_columns(bait + one, 8) is None  # an element holding an event's first bytes: declined
+    squeeze = msgpack.packb({"type": "squeeze", "name": "beta", "value": struct.pack("<Q", 5)}, use_bin_type=True)
+    assert read_glue_columns(one + squeeze, 8) is not None
+    for good, bad in ((b"squeeze", b"squeezf"), (b"squeeze", b"opening"[:1] + b"queeze"), (b"\xa4name", b"\xa4nama"),
+                      (b"\xa5value", b"\xa5valuf"), (b"\xc4\x08", b"\xc4\x07")):
+        # another kind, key or element width, of the same length: msgpack would unpack another map
+        assert read_glue_columns(one + squeeze.replace(good, bad, 1), 8) is None, bad
 
 @settings(max_examples=60, deadline=None)
 @given(field=st.sampled_from(["goldilocks", "babybear"]), seed=st.integers(0, 2**32),

@@ -152,12 +152,21 @@ def by_rows(runs: dict[str, int], rng: random.Random | None = None):  # type: ig
     return {n: i for i, n in enumerate(order)}, order, np.array([runs[n] for n in order], dtype=np.int64)
 
 
-@pytest.mark.parametrize("problem", [None, "late", "missing", "list-as-element", "element-as-list", "shuffled"])
-def test_names_matched_by_their_place_in_the_flush_follow_the_same_rules(problem):
+@pytest.mark.parametrize("regular", [False, True])
+@pytest.mark.parametrize("problem", [None, "late", "missing", "list-as-element", "element-as-list", "shuffled",
+                                     "swapped"])
+def test_names_matched_by_their_place_in_the_flush_follow_the_same_rules(problem, regular):
     # the whole-file pass hands over the flush's names by row: columns are matched by place where the names
-    # stand alike after each run, by look-up elsewhere; the verdicts are those of the look-up by name
-    starts, values, challenges, finals = glued_instances("goldilocks", 9, 2, seed=14)
-    runs, kinds, earlier = sent_in_time(values, 9)
+    # stand alike after each run, by look-up elsewhere; the verdicts are those of the look-up by name. With
+    # ``regular`` every run is followed by as many names (the last run also sends the claim values of an
+    # instance after the flush), so the places are one slice of the names
+    starts, values, challenges, finals = glued_instances("goldilocks", 10, 2, seed=14)
+    del starts[-1], finals[-1], challenges[-2:]
+    runs, kinds, earlier = sent_in_time(values, 10 if regular else 9)
+    for n in ("b9", "c9", "d9"):  # instance 9 is not in the flush
+        runs.pop(n, None), kinds.pop(n, None)
+    if problem == "swapped":  # two names of one column trade places: found by look-up, not by place
+        runs["c2"], runs["c5"] = runs["c5"], runs["c2"]
     if problem == "late":
         runs["beta5"] = 5
     elif problem == "missing":
@@ -185,6 +194,8 @@ def test_names_matched_by_their_place_in_the_flush_follow_the_same_rules(problem
                                                 for n in names]))
         outcomes.append(checks.check(values, cells))
     assert outcomes[0] == outcomes[1] == ("refused" if problem not in (None, "shuffled") else True)
+    if regular and problem is None:  # the claim values of instance 9 stand after the last run taken
+        assert runs["a9"] == 8 and len(set(run_of_row.tolist())) == 9 and len(names) == 9 * 6
 
 def test_what_only_the_replay_checks_is_refused():
     field = field_of("goldilocks")
