@@ -236,10 +236,11 @@ def _rows_by_place(column: list[str], runs: np.ndarray, index: Mapping[str, int]
     when each holds as many, see :func:`_step_of`) may be given when known: with a ``step`` and
     checks of consecutive runs, the names at those places are one slice of ``names``."""
     count = len(column)
-    anchor = next((k for k in (0, 1) if k < count and column[k] in index), None)
-    if anchor is None or not len(run_of_row):
+    anchor, row = 0, index.get(column[0], -1) if count and len(run_of_row) else -1
+    if row < 0 and count > 1 and len(run_of_row):
+        anchor, row = 1, index.get(column[1], -1)
+    if row < 0:
         return np.fromiter(map(index.get, column, repeat(-1)), dtype=np.int64, count=count)
-    row = index[column[anchor]]
     if firsts is None:
         firsts = np.searchsorted(run_of_row, np.arange(int(run_of_row[-1]) + 2))
     shift = int(run_of_row[row]) - int(runs[anchor])

@@ -25,7 +25,7 @@ from __future__ import annotations
 import re
 from itertools import accumulate, chain, repeat
 from operator import itemgetter
-from typing import TYPE_CHECKING, Any, Mapping, MutableMapping, Sequence
+from typing import TYPE_CHECKING, Any, Iterator, Mapping, MutableMapping, Sequence
 
 from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
 from stepper.transcript.packed import GLUE_CODES, GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
@@ -39,7 +39,7 @@ if TYPE_CHECKING:
     from stepper.field.kernels import Kernel
     from stepper.verify.fiatshamir import Sha256Schedule
 
-__all__ = ["GlueColumns"]
+__all__ = ["GlueColumns", "NameRows"]
 
 _NAME = GLUE_NAME_PATTERN.pattern
 _NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
@@ -72,6 +72,51 @@ def _row(payload: Any) -> tuple[bytes, bytes, bytes, bytes] | None:
     return _KIND_BYTES[kind], _FIXSTR[len(raw):len(raw) + 1], raw, element
 
 
+class NameRows(Mapping[str, int]):
+    """Each name's row in a flush's names (no name twice: :class:`GlueColumns` gave up on that), looked
+    up by scanning the names while few are asked for, by a dict of them all after that: the rules of
+    expressions usually ask for a few names only (the rest are found by place), and a dict of a
+    flush's thousands of names cost more than a few scans."""
+
+    __slots__ = ("_names", "_index", "_scans")
+    SCANS = 16  # look-ups by scanning before the dict is built
+
+    def __init__(self, names: list[str]) -> None:
+        self._names = names
+        self._index: dict[str, int] | None = None
+        self._scans = 0
+
+    def _row(self, name: object) -> int | None:
+        if self._index is None:
+            if self._scans < self.SCANS:
+                self._scans += 1
+                try:
+                    return self._names.index(name)  # type: ignore[arg-type]
+                except ValueError:
+                    return None
+            self._index = dict(zip(self._names, range(len(self._names))))
+        return self._index.get(name)  # type: ignore[call-overload, no-any-return]
+
+    def __getitem__(self, name: str) -> int:
+        row = self._row(name)
+        if row is None:
+            raise KeyError(name)
+        return row
+
+    def get(self, name: str, default: Any = None) -> Any:  # type: ignore[override]
+        row = self._row(name)
+        return default if row is None else row
+
+    def __contains__(self, name: object) -> bool:
+        return self._row(name) is not None
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._names)
+
+    def __len__(self) -> int:
+        return len(self._names)
+
+
 class GlueColumns:
     """The glue payloads that follow the runs of one flush, checked and held as columns."""
 
@@ -88,7 +133,7 @@ class GlueColumns:
         self.elements: np.ndarray | None = None  # one row of packed bytes per event, when each holds one element
         self._kinds: list[str] | None = None
         self._data: list[bytes] | None = None
-        self._rows: dict[str, int] | None = None
+        self._rows: NameRows | None = None
         if blobs_only is None:
             blobs_only = all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails)
         if blobs_only and any(tails):
@@ -294,10 +339,10 @@ class GlueColumns:
             return {}
         return {name: n for name, n, is_list in zip(self.names, self.counts, self.listed) if is_list}
 
-    def rows(self) -> dict[str, int]:
+    def rows(self) -> NameRows:
         """Each name's row in the flush (its index in stream order)."""
         if self._rows is None:
-            self._rows = dict(zip(self.names, range(self.size)))
+            self._rows = NameRows(self.names)
         return self._rows
 
     def run_of_row(self) -> np.ndarray:
@@ -318,7 +363,7 @@ class GlueColumns:
             out.append(cls(name, tuple(value) if self.listed[i] else value, self.listed[i], instance))
         return out
 
-    def cells(self, kernel: Kernel) -> tuple[dict[str, int], np.ndarray] | None:
+    def cells(self, kernel: Kernel) -> tuple[Mapping[str, int], np.ndarray] | None:
         """The flush's elements as a kernel array, and each name's row there (None when some value
         is a list)."""
 

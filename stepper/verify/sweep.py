@@ -121,6 +121,16 @@ def _sealed(handle: Any, tail: int = 1 << 20) -> bool:
     return found
 
 
+def _decoded(texts: list[bytes | None]) -> list[str | None]:
+    """The UTF-8 texts (None stays None), decoded together when none is None and none holds a newline."""
+    if None in texts:
+        return [None if text is None else text.decode() for text in texts]
+    joined = b"\n".join(texts)  # type: ignore[arg-type]
+    if joined.count(b"\n") != len(texts) - 1:
+        return [text.decode() for text in texts]  # type: ignore[union-attr]
+    return joined.decode().split("\n")  # type: ignore[return-value]
+
+
 class _Sweeper:
     def __init__(self, handle: Any, path: str, replay: Replay, on_note: Callable[[Note], object] | None,
                  limits: ReadLimits) -> None:
@@ -369,10 +379,11 @@ class _Sweeper:
                 self._after_runs(rows - self.rows, size - self.pending_bytes)
                 return
             seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
-            for j, (head_end, name, num_vars, degree, claim, claim_expr, final_expr) in enumerate(found):
-                start = seq.plain_instance(name.decode(), num_vars, degree, claim,
-                                           None if claim_expr is None else claim_expr.decode(),
-                                           None if final_expr is None else final_expr.decode())
+            texts = zip(_decoded([head[1] for head in found]), _decoded([head[5] for head in found]),
+                        _decoded([head[6] for head in found]))
+            for j, ((head_end, _, num_vars, degree, claim, _, _), (name_text, claim_text, final_text)) in enumerate(
+                    zip(found, texts)):
+                start = seq.plain_instance(name_text, num_vars, degree, claim, claim_text, final_text)  # type: ignore[arg-type]
                 seq.account_run(num_vars)
                 run_at = head_end - first + len(prefix)
                 run_end = run_at + num_vars * stride + final_len - len(prefix)
@@ -602,7 +613,7 @@ class _Sweeper:
                     unkept = bounds[i]
             if by_columns:
                 block = next(iter(blocks.values()))
-                checks.add_columns(np.arange(len(runs)), list(map(itemgetter(0), runs)), block.final_values(),
+                checks.add_columns(np.arange(len(runs)), list(map(itemgetter(0), runs)), block.final_values(),  # type: ignore[arg-type]
                                    block.challenges, block.first_rows)
             elif glued:
                 checks.add(glued)

@@ -72,3 +72,21 @@ def test_a_name_sent_before_the_flush_gives_up_when_it_comes_again_in_a_blob():
     blob = packed([{"type": "value", "name": "tide", "value": struct.pack("<Q", 1)}])
     with pytest.raises(GiveUp):
         GlueColumns(FIELD, [[blob]], {"tide": None})
+
+
+def test_name_rows_answer_as_a_dict_of_the_names_rows_before_and_after_it_builds_one():
+    # NameRows scans the names for its first look-ups and builds a dict after: every answer is the dict's
+    from stepper.verify.glue_columns import NameRows
+
+    names = [f"pier{i}" for i in range(40)]
+    rows, index = NameRows(names), dict(zip(names, range(len(names))))
+    asked = ["pier7", "tide", "pier0", "pier39", "", "pier7", *names[::3], "pier", "pier40", *names[::-2]]
+    assert len(asked) > 2 * NameRows.SCANS
+    for name in asked:
+        assert rows.get(name, -1) == index.get(name, -1) and (name in rows) == (name in index)
+        if name in index:
+            assert rows[name] == index[name]
+        else:
+            with pytest.raises(KeyError):
+                rows[name]
+    assert list(rows) == names and len(rows) == len(names) and rows._index == index

@@ -572,7 +572,7 @@ def test_instances_alternating_two_degrees_are_checked_in_few_blocks(tmp_path, m
 @pytest.mark.parametrize("chunk", [300, 1 << 20])
 def test_instances_found_in_the_chunks_bytes_report_as_the_replay(tmp_path, monkeypatch, field, glue, chunk):
     # names of every kind: short, the longest fixstr, too long for one (str 8), not ASCII, holding the
-    # bytes of the keys after a name; high-first instances (an order key) and blocks of 7 rounds between
+    # bytes of the keys after a name, holding a newline; high-first instances (an order key) and blocks of 7 rounds between
     found = []
     real = sweep_module.InstanceHead
 
@@ -584,7 +584,7 @@ def test_instances_found_in_the_chunks_bytes_report_as_the_replay(tmp_path, monk
 
     monkeypatch.setattr(sweep_module, "InstanceHead", Spy)
     monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 7)
-    names = ("", "x" * 29, "y" * 33, "gangway-\u00e5-", "\xa8num_vars\x05")
+    names = ("", "x" * 29, "y" * 33, "gangway-\u00e5-", "\xa8num_vars\x05", "quay\nside")  # a newline: decoded alone
     written = write_transcript(tmp_path / "named.sumtr", Knobs(field=field, instances=40, max_vars=5, names=names,
                                                                glue=glue, glue_after_only=True, seed=40))
     assert_same_report(written.path, 20, ReadLimits(chunk_bytes=chunk))
