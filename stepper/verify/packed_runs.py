@@ -139,6 +139,7 @@ class RunBlock:
         claims: list[bytes] = []  # packed, checked canonical by block_passes
         rounds: list[int] = []
         self._plain_rows = False  # some runs are instances in a row (settled in bulk)
+        prime = not field.is_extension
         for run in runs:
             if run.__class__ is PlainRuns:
                 self._plain_rows = True
@@ -150,7 +151,8 @@ class RunBlock:
             start, head, rest, _ = run  # type: ignore[misc]
             parts += (head, memoryview(rest)[:-final_len])
             finals.append(rest[-width:])
-            claims.append(field.encode(start.claim))
+            claim = start.claim  # an int in a prime field (canonical: the Sequencer checked it): packed directly
+            claims.append(claim.to_bytes(width, "little") if claim.__class__ is int and prime else field.encode(claim))  # type: ignore[union-attr]
             rounds.append(start.num_vars)
         rows = np.frombuffer(b"".join(parts), dtype=np.uint8).reshape(-1, layout.stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
