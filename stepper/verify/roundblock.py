@@ -117,6 +117,8 @@ def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) 
                 partial |= rest[word]
                 np.divmod(partial, p64, out=(rest[word], remainder))
         return digits.T
+    if p == GOLDILOCKS and k == 2 and wide <= 32:
+        return _goldilocks_digits(base, samples, wide)
     value = np.remainder(words_to_ints(np.ascontiguousarray(samples[:, :wide])), p ** k)
     columns = []
     for _ in range(k - 1):  # object arrays: no divmod ufunc
@@ -125,6 +127,35 @@ def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) 
     columns.append(value)  # below p: the top digit
     out = np.stack(columns, axis=1)
     return out if base.dtype is object else out.astype(np.uint64)
+
+
+def _goldilocks_digits(base: Kernel, samples: np.ndarray, wide: int) -> np.ndarray:
+    """:func:`reduce_wide_digits` for p = 2^64 - 2^32 + 1, k = 2 and at most 32 bytes, in uint64/int64
+    columns. c0 = W mod p by Horner's rule over W's 64-bit words (``reduce128``). Q = (W - c0) / p
+    is exact, and it is divided out from the low 32-bit digit up: p = 1 (mod 2^32), so each quotient
+    digit is the low digit of what is left, and q p = q 2^64 - q 2^32 + q changes only the next two
+    digits (signed, carried as they go). c1 = Q mod p (Q < 2^193: seven digits), by Horner again."""
+    count = samples.shape[0]
+    raw = np.zeros((count, 36), dtype=np.uint8)  # a spare 32-bit digit above W for the last subtraction
+    raw[:, :wide] = samples[:, :wide]
+    reduce128 = base.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
+    words = raw[:, :32].view("<u8").T.astype(np.uint64)
+    c0 = reduce128(words[1], reduce128(words[2], words[3]))
+    c0 = reduce128(words[0], c0)
+    rest = raw.view("<u4").T.astype(np.int64)  # nine signed 32-bit digits, least significant first
+    mask = np.int64(0xFFFFFFFF)
+    rest[0] -= (c0 & np.uint64(0xFFFFFFFF)).astype(np.int64)
+    rest[1] -= (c0 >> np.uint64(32)).astype(np.int64)
+    quotient = np.zeros((8, count), dtype=np.uint64)
+    for i in range(7):
+        digit = rest[i] & mask  # what is left below 2^(32 (i + 1)), a multiple of 2^(32 i)
+        rest[i + 1] += (rest[i] - digit) >> 32  # the carry (or borrow), exact
+        rest[i + 1] += digit  # minus digit * p, shifted by 32 i: + digit 2^32 ...
+        rest[i + 2] -= digit  # ... - digit 2^64 (the digit itself cancels)
+        quotient[i] = digit.astype(np.uint64)
+    q = quotient[0::2] | (quotient[1::2] << np.uint64(32))  # Q's four 64-bit words
+    c1 = reduce128(q[1], reduce128(q[2], q[3]))
+    return np.stack((c0, reduce128(q[0], c1)), axis=1)
 
 
 def _reduce_goldilocks(base: Kernel, limbs: np.ndarray) -> np.ndarray:

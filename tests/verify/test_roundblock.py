@@ -191,7 +191,9 @@ def test_reduce_wide_digits_are_the_base_p_digits_of_python_integers_mod_p_to_th
     field = get_field(p, irreducible)
     k = field.degree
     rng = random.Random(p)
-    rows = [bytes(96), b"\xff" * 96] + [rng.randbytes(96) for _ in range(40)]
+    edges = [v.to_bytes(96, "little") for v in (p - 1, p, p ** k - 1, p ** k, p ** k + p - 1, 2 ** 256 - 1,
+                                                   (2 ** 256 - 1) // p * p)]
+    rows = [bytes(96), b"\xff" * 96, *edges] + [rng.randbytes(96) for _ in range(40)]
     block = np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(len(rows), 96)
     schedule_wide = ((p ** k).bit_length() + 128 + 7) // 8  # transcripts/FIAT-SHAMIR.md, stepper-sha256/2
     for wide in sorted({5, 17, 30, 32, schedule_wide, 96}):
