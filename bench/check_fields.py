@@ -36,8 +36,8 @@ at the start against TranscriptWriter on a small proof; the tenth is the same pr
 first instances and sealed), with each round's bytes packed directly
 and its arithmetic in plain integers: g is drawn in coefficient form, c1..c3 at random and c0 so
 that g(0) + g(1) is the claim carried in, and the next claim is g(r) by Horner's rule (common
-practice, no source). Writing the twenty transcripts (and their tenths) takes about a third of the
-default run, which is about five minutes on the shared 2-core machine.
+practice, no source). Writing the twenty transcripts takes about half of the default run, which
+took 369 s on the shared 2-core machine under a load average of 2 to 4 (about 200 s of it writing).
 
     python3 bench/check_fields.py                                   # every field, both schedules
     python3 bench/check_fields.py --fields babybear^4,bn254 --schedule stepper-sha256/2 --instances 2000 --repeat 1

@@ -6,8 +6,8 @@ from their output, and prints the table in Markdown, ready to paste into README.
 total time. A figure a script did not print shows as "not measured" and names the script, so
 a regression or a broken bench shows in one command.
 
-    python3 bench/run_all.py            # 28 minutes on the shared 2-core machine, 18 of them writing the
-                                        # ten check_fields transcripts (a Python prover with the schedule)
+    python3 bench/run_all.py            # about 16 minutes on the shared 2-core machine, about 6 of them in
+                                        # check_fields (ten fields under each of the two built-in schedules)
     python3 bench/run_all.py --quick    # smaller sizes, about 5 minutes (figures are not the README's)
     python3 bench/run_all.py --only check_fields witness
 
