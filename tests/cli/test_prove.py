@@ -168,6 +168,9 @@ def test_a_proof_under_the_second_schedule_checks_clean_and_a_tampered_challenge
     capsys.readouterr()
     assert main(["check", str(out)]) == 0
     assert "challenges re-derived by the built-in schedule stepper-sha256/2" in capsys.readouterr().out
+    imported = tmp_path / "imported.sumtr"  # the event stream's import takes the declaration as it is
+    assert main(["import", str(out), "-o", str(imported)]) == 0 and main(["check", str(imported)]) == 0
+    assert "challenges re-derived by the built-in schedule stepper-sha256/2" in capsys.readouterr().out
     at = [i for i, line in enumerate(lines) if json.loads(line)["type"] == "challenge"][3]
     event = json.loads(lines[at])
     value = event["value"]
