@@ -76,7 +76,9 @@ class PlainRuns:
     ``first + j``, ``names[j]``, ``num_vars[j]``, ``degrees[j]`` and the claim ``claims[j]`` (packed
     at ``packed_claims[j * width:]``); its rows start at ``rows_at[j]`` in ``blob``. The Sequencer
     has taken them (:meth:`~stepper.transcript.events.Sequencer.plain_runs`) and made the record of
-    the last one, ``last``; :meth:`record` makes the others' on demand."""
+    the last one, ``last``; :meth:`record` makes the others' on demand. ``period``, when not 0, is
+    the bytes from one instance's event to the next (every instance laid out alike, one round count):
+    the rows and finals are then cut from ``blob`` by numpy, not one view per instance."""
 
     first: int
     names: Sequence[str]
@@ -88,6 +90,7 @@ class PlainRuns:
     rows_at: Sequence[int]
     layout: Layout
     last: InstanceStart
+    period: int = 0
 
     def __len__(self) -> int:
         return len(self.names)
@@ -104,17 +107,30 @@ class PlainRuns:
         """Sum of num_vars times degree over instances j, j + 1, ... (the soundness total)."""
         return sum(map(int.__mul__, self.num_vars[j:], self.degrees[j:]))
 
-    def row_parts(self) -> list[memoryview]:
-        """The rows of every run (its rounds and challenges), a view each."""
+    def row_parts(self) -> list[Any]:
+        """The rows of every run (its rounds and challenges), in order: a view each, or one array."""
         stride, blob = self.layout.stride, self.blob
+        if self.period:
+            at, size = self.rows_at[0], self.num_vars[0] * stride
+            return [_periodic(blob, self.period)[:, at:at + size].copy()]
         ends = [at + rounds * stride for at, rounds in zip(self.rows_at, self.num_vars)]
         return list(map(blob.__getitem__, map(slice, self.rows_at, ends)))
 
-    def final_cells(self) -> list[memoryview]:
-        """The final value of every run, its packed bytes each."""
+    def final_cells(self) -> list[Any]:
+        """The final value of every run, its packed bytes, in order: one each, or one array."""
         layout, blob = self.layout, self.blob
+        if self.period:
+            end = self.rows_at[0] + self.num_vars[0] * layout.stride + layout.final_len
+            return [_periodic(blob, self.period)[:, end - layout.width:end].copy()]
         ends = [at + rounds * layout.stride + layout.final_len for at, rounds in zip(self.rows_at, self.num_vars)]
         return list(map(blob.__getitem__, map(slice, [end - layout.width for end in ends], ends)))
+
+
+def _periodic(blob: memoryview, period: int) -> np.ndarray:
+    """``blob`` as rows of ``period`` bytes (uint8)."""
+    import numpy as np
+
+    return np.frombuffer(blob, dtype=np.uint8).reshape(-1, period)
 
 
 # a run: (its instance, its first bytes, the rest of its bytes, its layout) or instances in a row as columns
@@ -134,8 +150,8 @@ class RunBlock:
         self.layout = layout
         self.kernel = kernel
         final_len, width = layout.final_len, layout.width
-        parts: list[bytes | memoryview] = []  # the rows of each run, copied once, by the join
-        finals: list[bytes | memoryview] = []
+        parts: list[Any] = []  # the rows of each run (views, or an array of a run of them), copied once, by the join
+        finals: list[Any] = []
         claims: list[bytes] = []  # packed, checked canonical by block_passes
         rounds: list[int] = []
         self._plain_rows = False  # some runs are instances in a row (settled in bulk)

@@ -396,7 +396,7 @@ class _Sweeper:
         self._after_runs(rows - self.rows, size - self.pending_bytes)
 
     def _take_plain(self, names: list[str], num_vars: list[int], degrees: list[int], packed_claims: bytes,
-                    blob: Callable[[], memoryview], rows_at: list[int], layout: Layout) -> bool:
+                    blob: Callable[[], memoryview], rows_at: list[int], layout: Layout, period: int = 0) -> bool:
         """Hand instances found with no claim_expr, no final_expr and no glue between their runs to
         the Sequencer in one step and keep them as columns (:class:`PlainRuns`; ``blob`` gives their
         bytes, read once the Sequencer has taken them), or return False (nothing done) when the
@@ -408,7 +408,7 @@ class _Sweeper:
         last = self.seq.current
         assert last is not None
         self.runs.append(PlainRuns(index, names, num_vars, degrees, claims, packed_claims, blob(), rows_at, layout,
-                                   last))
+                                   last, period))
         return True
 
     def _take_uniform(self) -> bool:
@@ -463,7 +463,7 @@ class _Sweeper:
         claims = u8[starts[:, None] + (head_len - width + np.arange(width))].tobytes()
         if not self._take_plain(names, [num_vars] * count, degrees[:count].tolist(), claims,
                                 lambda: memoryview(self.unpacker.read_bytes(count * period)),
-                                (starts - at + head_len).tolist(), layout):
+                                (starts - at + head_len).tolist(), layout, period):
             return False  # nothing read: the usual path takes them
         self._after_runs(count * num_vars, count * num_vars * stride)
         return True
