@@ -24,10 +24,16 @@ name an expression of the flush reads has come (before the next instance, or at 
 :meth:`GlueChecks.check_names` checks the Sequencer's rules for those names (sent before
 the expression may read them, element or list as used) by columns too.
 
-The answer is yes or no. On no, or on anything this module does not take (``point(NAME)``,
-``final(NAME)``, a text only the character parser reads, a list where an element is
-wanted, points of different lengths), the sweep gives up and the replay names what it
-finds. A passing check, here as there, is evidence about one run, not a soundness proof.
+``point(NAME)`` and ``final(NAME)`` read the instances of the flush, and those of the flush
+right before when no instance was read one by one in between (:meth:`GlueChecks.instances`,
+:meth:`GlueChecks.forget`): the last instance so named before the check's own, which the
+replay must still keep (``MAX_POINT_ELEMENTS``), its challenges gathered from its block.
+
+The answer is yes or no. On no, or on anything this module does not take (``point(NAME)``
+or ``final(NAME)`` of an instance not found so, a text only the character parser reads, a
+list where an element is wanted, points of different lengths), the sweep gives up and the
+replay names what it finds. A passing check, here as there, is evidence about one run, not
+a soundness proof.
 """
 
 from __future__ import annotations
@@ -71,11 +77,35 @@ class _Group:
     num_vars: int = 0
     order: str = ""
     rows: dict[int, np.ndarray] = dc_field(default_factory=dict)  # by hole: each check's name's row in the flush, or -1
+    instances: _Instances | None = None  # for point(NAME) and final(NAME)
+
+
+@dataclass(slots=True)
+class _Instances:
+    """The instances of a flush, each taken as a run, all in one block of challenges, for ``point(NAME)``
+    and ``final(NAME)``: instance j (run j of the flush) is named ``names[j]``, has ``num_vars[j]``
+    rounds, order ``orders[j]``, its challenges from row ``first_rows[j]`` of ``challenges`` and its
+    final value at ``finals[j]`` (a kernel array); ``last`` maps each name to its last position and
+    ``ends[j]`` is the rounds of instances 0 .. j - 1 (the replay keeps the points of recent instances
+    up to ``MAX_POINT_ELEMENTS`` challenge elements). The instances of the flush before, when it came
+    right before (no instance between them read one by one), stand first."""
+
+    names: list[str]
+    num_vars: np.ndarray
+    orders: list[str]
+    first_rows: np.ndarray
+    finals: Any
+    challenges: Any
+    last: dict[str, int]
+    ends: np.ndarray
+    offset: int  # the position of the flush's run 0 (the instances of the flush before come first)
 
 
 # an instance settled in bulk: its run in the flush, start, final value, the challenges of its block and
 # its first row there
 Settled = tuple[int, "InstanceStart", Any, Any, int]
+# a flush's instances, every one a run of one block: their starts, first rows, finals and the block's challenges
+_Given = tuple[list["InstanceStart"], list[int], Any, Any]
 
 
 class GlueChecks:
@@ -85,6 +115,44 @@ class GlueChecks:
         self.field = field
         self.kernel = kernel
         self.groups: list[_Group] = []
+        self._flush_instances: _Given | None = None
+        self._previous: _Given | None = None  # the flush before's, when nothing came between
+        self._table: _Instances | None = None  # made from _flush_instances when an expression needs it
+
+    def forget(self) -> None:
+        """An instance was read one by one (the replay keeps its point): the flush before's instances
+        are no longer the ones right before the next flush's."""
+        self._previous = None
+
+    def instances(self, starts: list[InstanceStart], first_rows: list[int], finals: Any, challenges: Any) -> None:
+        """The flush's instances, every one taken as a run with its challenges in ``challenges`` from row
+        ``first_rows[j]`` and its final value ``finals[j]`` (a kernel array), in stream order: the
+        expressions added next may read ``point(NAME)`` and ``final(NAME)`` of those before them."""
+        self._flush_instances, self._table = (starts, first_rows, finals, challenges), None
+
+    def _instances_of(self, challenges: Any) -> _Instances:
+        """The table of the flush's instances (:meth:`instances`), whose challenges must be ``challenges``;
+        raises :class:`Unsupported` when there is none."""
+        given = self._flush_instances
+        if given is None or given[3] is not challenges:
+            raise Unsupported("point(NAME) or final(NAME) where the instances are not all runs of one block")
+        if self._table is None:
+            previous = self._previous
+            starts, first_rows, finals, _ = given
+            rows = np.array(first_rows, dtype=np.int64)
+            if previous is not None and len(previous[0]):
+                before, before_rows, before_finals, before_challenges = previous
+                starts = [*before, *starts]
+                rows = np.concatenate((np.array(before_rows, dtype=np.int64), rows + len(before_challenges)))
+                finals = np.concatenate((before_finals, finals))
+                challenges = np.concatenate((before_challenges, challenges))
+            offset = len(starts) - len(given[0])
+            sizes = np.fromiter(map(attrgetter("num_vars"), starts), dtype=np.int64, count=len(starts))
+            names = list(map(attrgetter("name"), starts))
+            self._table = _Instances(names, sizes, list(map(attrgetter("order"), starts)), rows, finals, challenges,
+                                     dict(zip(names, range(len(names)))), np.concatenate(([0], np.cumsum(sizes))),
+                                     offset)
+        return self._table
 
     def add(self, settled: list[Settled]) -> None:
         """Instances settled in bulk with a claim_expr or final_expr: each claim against its
@@ -104,8 +172,9 @@ class GlueChecks:
         columns: instance k follows run ``runs[k]`` of the flush, has start ``starts[k]``, final value
         ``finals[k]`` and its challenges from row ``first_rows[k]`` of the block on. Instances without
         either text are passed over. Texts are read by template all at once (:func:`templates_of`).
-        Raises :class:`Unsupported` for an expression this module does not check (``point(NAME)``,
-        ``final(NAME)``, a text only the character parser reads, eq(a) in a claim_expr)."""
+        Raises :class:`Unsupported` for an expression this module does not check (``point(NAME)`` or
+        ``final(NAME)`` without :meth:`instances` of this block, a text only the character parser
+        reads, eq(a) in a claim_expr)."""
         for final, texts_of in ((False, attrgetter("claim_expr")), (True, attrgetter("final_expr"))):
             every = list(map(texts_of, starts))
             missing = every.count(None)
@@ -120,15 +189,16 @@ class GlueChecks:
                 raise Unsupported("a text only the character parser reads")
             for template, columns, positions in found:
                 refs = template.refs
-                if refs.points or refs.finals or (refs.own_point and not final):
-                    raise Unsupported("point(NAME), final(NAME) or eq(a) in a claim_expr")
+                if refs.own_point and not final:
+                    raise Unsupported("eq(a) in a claim_expr")
+                table = self._instances_of(challenges) if refs.points or refs.finals else None
                 chosen = positions if kept is None else [kept[i] for i in positions]
                 whole = len(chosen) == len(starts)
                 picked = starts if whole else [starts[i] for i in chosen]
                 picked_runs = runs if whole else runs[np.array(chosen, dtype=np.int64)]
                 if not final:
                     self.groups.append(_Group(template, False, columns, list(map(attrgetter("claim"), picked)),
-                                              picked_runs))
+                                              picked_runs, instances=table))
                     continue
                 picked_finals = finals if whole else [finals[i] for i in chosen]
                 picked_firsts = first_rows if whole else [first_rows[i] for i in chosen]
@@ -136,7 +206,7 @@ class GlueChecks:
                 orders = list(map(attrgetter("order"), picked))
                 if sizes.count(sizes[0]) == len(sizes) and orders.count(orders[0]) == len(orders):
                     self.groups.append(_Group(template, True, columns, picked_finals, picked_runs, challenges,
-                                              picked_firsts, sizes[0], orders[0]))
+                                              picked_firsts, sizes[0], orders[0], instances=table))
                     continue
                 split: dict[tuple[int, str], list[int]] = {}
                 for i, shape in enumerate(zip(sizes, orders)):
@@ -145,7 +215,7 @@ class GlueChecks:
                     self.groups.append(_Group(template, True, [[column[i] for i in members] for column in columns],
                                               [picked_finals[i] for i in members],
                                               picked_runs[np.array(members, dtype=np.int64)], challenges,
-                                              [picked_firsts[i] for i in members], size, order))
+                                              [picked_firsts[i] for i in members], size, order, instances=table))
 
     def check_names(self, runs: Mapping[str, int], defined: Mapping[str, int | None],
                     earlier: Mapping[str, int | None], run_of_row: np.ndarray | None = None,
@@ -206,7 +276,8 @@ class GlueChecks:
         as a kernel array, and each one's row there by name (lists excepted): a column of them is
         then taken from it rather than made from the values. Raises :class:`Unsupported` for what
         only the replay checks."""
-        groups, self.groups = self.groups, []
+        groups, self.groups, self._table = self.groups, [], None
+        self._previous, self._flush_instances = self._flush_instances, None
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
 
 
@@ -374,8 +445,19 @@ class _Columns:
             rows = np.array(group.first_rows, dtype=np.int64)[:, None] + np.arange(group.num_vars)
             matrix = group.challenges[rows]
             return matrix[:, ::-1] if group.order == "high-first" else matrix
-        if not isinstance(side, Table):
-            raise Unsupported("point(NAME) in eq(...)")
+        if not isinstance(side, Table):  # point(NAME): the challenge points of the instances named
+            positions = self.earlier(side.name)
+            table = self.group.instances
+            assert table is not None  # add_columns refused the template without one
+            sizes = table.num_vars[positions]
+            if len(sizes) and int(sizes.min()) != int(sizes.max()):
+                raise Unsupported("points of different lengths")
+            length = int(sizes[0]) if len(sizes) else 0
+            matrix = table.challenges[table.first_rows[positions][:, None] + np.arange(length)]
+            high = np.array([table.orders[j] == "high-first" for j in positions.tolist()], dtype=bool)
+            if high.any():  # the challenge point in variable order: high-first binds x_mu first
+                matrix[high] = matrix[high][:, ::-1]
+            return matrix
         column = self.lists(side.name)
         length = len(column[0])
         if any(len(v) != length for v in column):
@@ -389,7 +471,7 @@ class _Columns:
 
     # ----- evaluation ---------------------------------------------------------------------
     def eval(self, node: Node) -> np.ndarray:
-        from stepper.field.expr_syntax import Add, Const, Eq, Index, Mul, Neg, Pow, Sub, Table
+        from stepper.field.expr_syntax import Add, Const, Eq, FinalOf, Index, Mul, Neg, Pow, Sub, Table
 
         kernel = self.kernel
         if isinstance(node, Table):
@@ -414,7 +496,31 @@ class _Columns:
             return self.repeated(picked) if len(column) < self.n else picked
         if isinstance(node, Eq):
             return self.eq(node)
+        if isinstance(node, FinalOf):
+            table = self.group.instances
+            assert table is not None  # add_columns refused the template without one
+            return table.finals[self.earlier(node.name)]
         raise Unsupported(f"{type(node).__name__} outside eq(...)")
+
+    def earlier(self, name: str) -> np.ndarray:
+        """The position in the flush of the instance each check's ``point(NAME)`` or ``final(NAME)``
+        reads: the last instance so named before the check's own, which the replay still keeps then
+        (its point and final are kept while the points closed since hold at most
+        ``MAX_POINT_ELEMENTS`` elements, the last closed always). Raises :class:`Unsupported` when
+        that instance is not in the flush (sent earlier, or not at all: the replay judges)."""
+        from stepper.verify.glue import MAX_POINT_ELEMENTS
+
+        table = self.group.instances
+        assert table is not None
+        runs = self.group.runs + table.offset  # each check's own instance in the table
+        names = self.names(name)
+        positions = np.fromiter(map(table.last.get, names, repeat(-1)), dtype=np.int64, count=len(names))
+        if ((positions < 0) | (positions >= runs)).any():
+            raise Unsupported("point(NAME) or final(NAME) of an instance not among the earlier ones of this pass")
+        held = table.ends[runs] - table.ends[positions]  # the points closed since, the instance's own included
+        if ((held > MAX_POINT_ELEMENTS) & (positions != runs - 1)).any():
+            raise Unsupported("point(NAME) or final(NAME) of an instance the replay no longer keeps")
+        return positions
 
     def power(self, base: np.ndarray, e: int) -> np.ndarray:
         """base^e by repeated squaring."""

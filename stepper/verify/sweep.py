@@ -255,6 +255,8 @@ class _Sweeper:
                     self._take_run(record)  # type: ignore[arg-type]
                     continue
                 self._flush()
+                if self.glue is not None:
+                    self.glue.forget()  # the replay keeps this one's point: not the flush before's instances
                 if record.claim_expr is not None or record.final_expr is not None:  # type: ignore[union-attr]
                     if record.eq_point is None:  # type: ignore[union-attr]
                         seq.check_deferred(record)  # type: ignore[arg-type]
@@ -613,8 +615,10 @@ class _Sweeper:
                     unkept = bounds[i]
             if by_columns:
                 block = next(iter(blocks.values()))
-                checks.add_columns(np.arange(len(runs)), list(map(itemgetter(0), runs)), block.final_values(),  # type: ignore[arg-type]
-                                   block.challenges, block.first_rows)
+                starts = list(map(itemgetter(0), runs))  # type: ignore[arg-type]
+                checks.instances(starts, block.first_rows, block.finals, block.challenges)
+                checks.add_columns(np.arange(len(runs)), starts, block.final_values(), block.challenges,
+                                   block.first_rows)
             elif glued:
                 checks.add(glued)
             if checks.groups:

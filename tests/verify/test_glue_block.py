@@ -244,3 +244,35 @@ def test_elements_sent_before_the_flush_are_read_beside_the_flush_cells(name, wr
     cells = ({n: i for i, n in enumerate(scalars)}, kernel.array([values[n] for n in scalars]))
     with_cells = gathered(name, starts, challenges, finals).check(values, cells)
     assert with_cells == gathered(name, starts, challenges, finals).check(values) == (wrong is None)
+
+
+@pytest.mark.parametrize("between", [False, True])
+def test_final_and_point_of_the_flush_before_are_read_unless_an_instance_came_between(between):
+    # flush 1 holds deck.0 and deck.1, flush 2 deck.2, whose final_expr reads final(deck.1) and the point
+    # of deck.0: read from the flush before, unless an instance was read one by one in between (forget),
+    # whose point the replay keeps and the columns do not
+    import numpy as np
+
+    ar, field = ARITHMETIC["goldilocks"], field_of("goldilocks")
+    kernel = block_kernel(field)
+    checks = GlueChecks(field, kernel)
+    rng = random.Random(15)
+    first = [InstanceStart(i, f"deck.{i}", 2, 2, rng.randrange(ar.p)) for i in range(2)]
+    challenges = [rng.randrange(ar.p) for _ in range(4)]
+    finals = [rng.randrange(ar.p) for _ in range(2)]
+    checks.instances(first, [0, 2], kernel.array(finals), kernel.array(challenges))
+    checks.add_columns(np.arange(2), first, finals, kernel.array(challenges), [0, 2])
+    assert checks.check({})
+    if between:
+        checks.forget()
+    own = [rng.randrange(ar.p) for _ in range(2)]
+    final = ar.mul(finals[1], eq_plain(ar, challenges[:2], own))  # eq(point(deck.0)), deck.0 low-first
+    second = [InstanceStart(2, "deck.2", 2, 2, 7, final_expr="final(deck.1) * eq(point(deck.0))")]
+    block = kernel.array(own)
+    checks.instances(second, [0], kernel.array([final]), block)
+    checks.add_columns(np.arange(1), second, [final], block, [0])
+    if between:
+        with pytest.raises(Unsupported):
+            checks.check({})
+    else:
+        assert checks.check({})

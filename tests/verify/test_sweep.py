@@ -932,8 +932,8 @@ def test_glued_instances_taken_from_the_chunk_with_their_texts_and_glue_report_a
         assert swept_report(path, 20) is None
         assert event_by_event(path, 20)[0].verdict == "reject"
 
-def test_point_and_final_of_an_earlier_instance_are_left_to_the_replay(tmp_path, monkeypatch):
-    # point(NAME) and final(NAME) are not checked by columns: the sweep gives up and the replay checks them
+def test_final_of_the_instance_before_in_a_two_instance_proof_is_read_by_columns(tmp_path, monkeypatch):
+    # final(NAME) of an instance of the same pass: the sweep takes the proof, and reports as the replay
     path = tmp_path / "points.sumtr"
     with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
         out.write_payload({"type": "field", "name": "goldilocks"})
@@ -947,8 +947,7 @@ def test_point_and_final_of_an_earlier_instance_are_left_to_the_replay(tmp_path,
         out.write_payload({"type": "challenge", "value": 1})
         out.write_payload({"type": "final", "value": 4})
     monkeypatch.setenv("STEPPER_SWEEP", "on")
-    assert swept_report(path, 20) is None
-    assert event_by_event(path, 20)[0].verdict == "accept"
+    assert_same_report(path, 20)
 
 
 # ----- 4. instances in a row taken as columns ------------------------------------------------
@@ -1063,3 +1062,132 @@ def test_instances_laid_out_alike_are_compared_at_once_and_report_as_the_replay(
         taken.clear()
         assert_same_report(written.path, keep, ReadLimits(chunk_bytes=chunk))
         assert sum(taken) >= (60 if chunk > 4096 else 10) and max(taken) >= (5 if chunk > 4096 else 2), (keep, chunk, taken)
+
+
+def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds: int = 3,
+                  reads: dict[int, int] | None = None) -> None:
+    """A glued proof whose expressions read earlier instances, written by the TranscriptWriter: instance i
+    (every fifth high-first) has final_expr eq(point(sailing.<i-1>)) * (a_i*b_i - c_i) (eq(tau) for the first)
+    and claim_expr final(sailing.<i-1>) * a_<i-1> + beta_<i-1>*b_<i-1>, each run followed by the three
+    openings and the squeeze; the values are computed in plain integers (eq(x, y) = prod of x_j y_j +
+    (1 - x_j)(1 - y_j), common practice, no source). ``fault`` breaks one check at instance 17 (or 23 for
+    the squeeze, 16 for the link): the link, the evaluation, the squeeze; or, in the written bytes
+    (resealed: the writer refuses to write them), an opening's name (c17 sent as d17, which final_expr
+    never names) or instance 17's point(NAME) of a later instance. ``reads`` maps an instance to the
+    earlier one its final_expr's point(NAME) reads instead of the one before it."""
+    from stepper.field.field import NAMED_PRIMES, get_field
+    from stepper.field.lagrange import evaluate_round
+    from stepper.field.poly import eq_eval
+    from stepper.transcript.model import (ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening,
+                                          RoundMsg, ScheduleDecl, Squeeze)
+
+    field = get_field(NAMED_PRIMES["goldilocks"])
+    p, rng, schedule = field.p, random.Random(37), schedule_for(SCHEDULE_NAME)
+    with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
+        def emit(record: object, absorbed: bool = True) -> None:
+            if absorbed:
+                schedule.observe(record)  # type: ignore[arg-type]
+            out.write(record)  # type: ignore[arg-type]
+
+        emit(FieldDecl(field))
+        emit(ScheduleDecl(SCHEDULE_NAME, "tests"))
+        tau = [rng.randrange(p) for _ in range(rounds)]
+        emit(NamedValue("tau", tuple(tau), True, None))
+        claim = rng.randrange(p)
+        points: list[list[int]] = []  # each instance's point, in variable order
+        for i in range(count):
+            read = (reads or {}).get(i, i - 1)
+            keys = {"final_expr": f"eq(point(sailing.{read})) * (a{i}*b{i} - c{i})" if i else "eq(tau) * (a0*b0 - c0)"}
+            before = points[read] if i else tau
+            if i:
+                keys["claim_expr"] = f"final(sailing.{i - 1}) * a{i - 1} + beta{i - 1}*b{i - 1}"
+            order = "high-first" if i % 5 == 4 else "low-first"
+            emit(InstanceStart(i, f"sailing.{i}", rounds, 2, claim, order=order, **keys))  # type: ignore[arg-type]
+            challenges = []
+            for k in range(1, rounds + 1):
+                g0 = rng.randrange(p)
+                evals = (g0, (claim - g0) % p, rng.randrange(p))
+                emit(RoundMsg(i, k, evals))
+                r = schedule.challenge()
+                emit(ChallengeMsg(i, k, r), absorbed=False)
+                challenges.append(r)
+                claim = evaluate_round(field, evals, r)
+            final = claim
+            emit(FinalValue(i, final), absorbed=False)
+            own = challenges if order == "low-first" else challenges[::-1]
+            a, b = rng.randrange(p), rng.randrange(p)
+            c = (a * b - final * pow(eq_eval(field, before, own), -1, p)) % p  # type: ignore[arg-type]
+            if fault == "evaluation" and i == 17:
+                c = (c + 1) % p
+            for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
+                emit(Opening(name, value, name, i))
+            beta = schedule.squeeze(f"beta{i}")
+            emit(Squeeze(f"beta{i}", (beta + 1) % p if fault == "squeeze" and i == 23 else beta, False, i),
+                 absorbed=False)
+            claim = (final * a + beta * b) % p  # type: ignore[operator]
+            if fault == "link" and i == 16:
+                claim = (claim + 1) % p
+            points.append(own)
+    if fault in ("opening-name", "point-later"):
+        old, new = {"opening-name": (b"\xa4name\xa3c17", b"\xa4name\xa3d17"),
+                    "point-later": (b"eq(point(sailing.16)) * (a17", b"eq(point(sailing.18)) * (a17")}[fault]
+        data = path.read_bytes()
+        assert data.count(old) == 1
+        path.write_bytes(resealed(data.replace(old, new)))
+
+
+@pytest.mark.parametrize("block_rounds", [7, 1 << 14])
+def test_point_and_final_of_earlier_instances_are_read_by_columns_and_report_as_the_replay(tmp_path, monkeypatch,
+                                                                                          block_rounds):
+    # every instance's final_expr reads the point of the instance before it, its claim_expr that instance's
+    # final: the sweep takes the whole proof (also where the two are checked in different flushes: blocks
+    # of 7 rounds, three instances each) and its report is the replay's
+    import stepper.verify.glue_block as glue_block
+
+    path = tmp_path / "pointed.sumtr"
+    write_pointed(path)
+    read: list[int] = []
+    real = glue_block._Columns.earlier
+
+    def spy(self: object, name: str) -> object:
+        positions = real(self, name)  # type: ignore[arg-type]
+        read.append(len(positions))
+        return positions
+
+    monkeypatch.setattr(glue_block._Columns, "earlier", spy)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", block_rounds)
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
+    assert_same_report(path, 20)
+    assert_same_report(path, 3)
+    assert sum(read) >= 2 * 39  # point() and final() of every instance after the first, by columns
+
+
+@pytest.mark.parametrize("fault", ["link", "evaluation", "squeeze", "opening-name", "point-later"])
+def test_a_broken_check_beside_point_and_final_makes_the_sweep_give_up_and_check_say_what_the_replay_says(
+        tmp_path, capsys, monkeypatch, fault):
+    path = tmp_path / f"pointed-{fault}.sumtr"
+    write_pointed(path, fault)
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert swept is None
+    if fault in ("opening-name", "point-later"):  # a name the Sequencer refuses: unusable input, named
+        assert code == 2 and ("d17" in err or "c17" in err or "sailing.18" in err)
+    else:
+        assert code == 1 and f"check {fault}" in out
+
+
+@pytest.mark.parametrize("kept", [20, 10 ** 6])
+def test_a_point_the_replay_no_longer_keeps_makes_the_sweep_give_up_as_the_replay_refuses_it(tmp_path, capsys,
+                                                                                           monkeypatch, kept):
+    # the replay keeps the points of recent instances up to MAX_POINT_ELEMENTS challenge elements: instance 30
+    # reads the point of instance 20, ten instances of three rounds back. Kept, both accept; dropped, the
+    # replay refuses the file (exit 2) and the sweep, which reads the same rule, gives up
+    import stepper.verify.glue as glue_module
+
+    path = tmp_path / "far.sumtr"
+    write_pointed(path, reads={30: 20})
+    monkeypatch.setattr(glue_module, "MAX_POINT_ELEMENTS", kept)
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    if kept == 20:
+        assert code == 2 and swept is None and "sailing.20" in err
+    else:
+        assert code == 0 and swept is not None
