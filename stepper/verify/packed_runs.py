@@ -271,6 +271,45 @@ class RunBlock:
             deque(map(pieces.__setitem__, firsts.tolist(), joined), maxlen=0)
         schedule.absorb_pieces(pieces, self.digests)
 
+    def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart],
+                     glue: Sequence[Sequence[bytes | memoryview]], glue_digests: bytearray) -> None:
+        """Run the schedule over instances settled in bulk whose rows are this block's from row ``first``
+        on, each an instance of a prime field, low-first, with an int claim, followed by glue holding one
+        squeeze (``glue[i]``: its two pieces, before and after the squeeze): each statement, its rows,
+        then its glue, as ``observe``, :meth:`absorb` and the glue's ``absorb_pieces`` would one after
+        another, in one ``absorb_pieces`` call. The digests of the rounds' squeezes are appended to
+        :attr:`digests`, those of the glue's to ``glue_digests``."""
+        import numpy as np
+
+        view = self._frames_view(schedule)
+        round_len, frame_len, width = self._round_len, self._frame_len, self.layout.width
+        counts = [start.num_vars for start in starts]
+        rows = sum(counts)
+        claims = b"".join([start.claim.to_bytes(width, "little") for start in starts])  # type: ignore[union-attr]
+        statements, ends = schedule.instance_frames([start.name for start in starts], counts,
+                                                    [start.degree for start in starts], claims)
+        frames = view[first * frame_len:(first + rows) * frame_len]
+        cut = _pieces(frames, rows, round_len, frame_len)  # round 0; (challenge k, round k + 1)...; the last challenge
+        said = memoryview(statements)
+        out: list[bytes | memoryview] = [b"".join((said[:ends[0]], cut[0]))]
+        at, last = 0, len(starts) - 1
+        for i, (n, (before, after)) in enumerate(zip(counts, glue)):
+            out += cut[at + 1:at + n]  # the instance's own (challenge, round) pieces
+            at += n
+            out.append(b"".join((frames[at * frame_len - (frame_len - round_len):at * frame_len], before)))
+            out.append(after if i == last else b"".join((after, said[ends[i]:ends[i + 1]],
+                                                         frames[at * frame_len:at * frame_len + round_len])))
+        squeezed = bytearray()
+        schedule.absorb_pieces(out, squeezed)
+        per = 32 * schedule.squeezes_per_challenge
+        if len(squeezed) != (rows + len(starts)) * per:
+            raise GiveUp("glue squeezes other than one after each run")
+        table = np.frombuffer(squeezed, dtype=np.uint8).reshape(rows + len(starts), per)
+        of_glue = np.zeros(len(table), dtype=bool)
+        of_glue[np.cumsum(np.array(counts, dtype=np.int64) + 1) - 1] = True  # each instance's rounds, then its squeeze
+        self.digests += table[~of_glue].tobytes()
+        glue_digests += table[of_glue].tobytes()
+
     def rederived(self, kernel: Kernel, schedule: Sha256Schedule | None) -> np.ndarray | WideSamples | None:
         """The challenges the schedule squeezed for every round of the block (None: no schedule);
         over rows of limbs the samples they are reduced from, unreduced

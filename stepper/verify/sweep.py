@@ -547,6 +547,26 @@ class _Sweeper:
             block.absorb_plain(schedule, first, plain, j)
         return False
 
+    def _settle_glued(self, block: RunBlock, runs: list[Run], i: int, pieces: Sequence[Sequence[memoryview]] | None,
+                      digests: bytearray) -> bool:
+        """Settle runs i, i + 1, ... of the flush (each an instance taken one by one, low-first, with an int
+        claim, followed by glue of one squeeze) into the replay in one step, while it keeps no summaries
+        (:meth:`~stepper.verify.replay.Replay.settle_quietly`), and run the schedule over their
+        statements, rows and glue in one pass (:meth:`~stepper.verify.packed_runs.RunBlock.absorb_glued`);
+        the glue's digests go to ``digests``. Returns False, having done nothing, when they are not all so."""
+        starts: list[InstanceStart] = [run[0] for run in runs[i:]]  # type: ignore[index]
+        schedule = self.replay.schedule
+        if any(start.order != "low-first" or start.claim.__class__ is not int for start in starts):
+            return False
+        if schedule is not None and (pieces is None or any(len(after) != 2 for after in pieces[i:])):
+            return False
+        self.replay.settle_quietly(len(starts), sum(start.num_vars * start.degree for start in starts))
+        first = block.skip(len(starts))
+        if schedule is not None:
+            assert pieces is not None
+            block.absorb_glued(schedule, first, starts, pieces[i:], digests)
+        return True
+
     # ----- checking a block -----------------------------------------------------------
     def _flush(self) -> None:
         """Check the runs read so far, and the glue after them, and settle them into the replay, or
@@ -588,6 +608,13 @@ class _Sweeper:
         bounds = glue.bounds
         try:
             for i, run in enumerate(runs):
+                if by_columns and glue.size and replay.settles_quietly():
+                    if pieces is None and replay.schedule is not None:
+                        pieces = glue.pieces(replay.schedule)
+                    if self._settle_glued(next(iter(blocks.values())), runs, i, pieces, digests):
+                        if unkept == glue.size:
+                            unkept = bounds[i]
+                        break
                 if run.__class__ is PlainRuns:
                     kept = self._settle_plain(run, blocks[run.layout])  # type: ignore[arg-type, union-attr]
                     start = run.last  # type: ignore[union-attr]

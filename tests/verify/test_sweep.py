@@ -924,10 +924,24 @@ def test_glued_instances_taken_from_the_chunk_with_their_texts_and_glue_report_a
         return real(self, name, *args)  # type: ignore[arg-type]
 
     monkeypatch.setattr(Sequencer, "plain_instance", spy)
+    from stepper.verify.packed_runs import RunBlock
+
+    together: list[int] = []
+    real_glued = RunBlock.absorb_glued
+
+    def glued_spy(self: RunBlock, schedule: object, first: int, starts: list[object], *rest: object) -> None:
+        together.append(len(starts))
+        real_glued(self, schedule, first, starts, *rest)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(RunBlock, "absorb_glued", glued_spy)
     monkeypatch.setenv("STEPPER_SWEEP", "on")
     if fault is None:
         assert_same_report(path, 20)
         assert len(taken) >= 30  # all but the instances whose glue a chunk's end cut, or that came first
+        assert sum(together) >= 15  # those after the 20 kept summaries: statements, rows and glue hashed together
+        together.clear()
+        assert_same_report(path, 3)
+        assert sum(together) >= 30
     else:
         assert swept_report(path, 20) is None
         assert event_by_event(path, 20)[0].verdict == "reject"
