@@ -112,7 +112,7 @@ class PlainRuns:
         stride, blob = self.layout.stride, self.blob
         if self.period:
             at, size = self.rows_at[0], self.num_vars[0] * stride
-            return [_periodic(blob, self.period)[:, at:at + size].copy()]
+            return [_periodic(blob, self.period)[:, at:at + size]]  # copied by RunBlock, once
         ends = [at + rounds * stride for at, rounds in zip(self.rows_at, self.num_vars)]
         return list(map(blob.__getitem__, map(slice, self.rows_at, ends)))
 
@@ -124,6 +124,30 @@ class PlainRuns:
             return [_periodic(blob, self.period)[:, end - layout.width:end].copy()]
         ends = [at + rounds * layout.stride + layout.final_len for at, rounds in zip(self.rows_at, self.num_vars)]
         return list(map(blob.__getitem__, map(slice, [end - layout.width for end in ends], ends)))
+
+
+def _joined(parts: list[Any]) -> np.ndarray:
+    """The bytes of ``parts`` (bytes-like, or two-dimensional uint8 arrays of rows, which need not be
+    contiguous) one after another, copied once into one array."""
+    import numpy as np
+
+    if not any(part.__class__ is np.ndarray for part in parts):
+        return np.frombuffer(b"".join(parts), dtype=np.uint8)
+    out = np.empty(sum(part.size if part.__class__ is np.ndarray else len(part) for part in parts), dtype=np.uint8)
+    at, pending = 0, []
+    for part in [*parts, None]:
+        if part is not None and part.__class__ is not np.ndarray:
+            pending.append(part)  # bytes and views in a row: one join, one copy
+            continue
+        if pending:
+            joined = b"".join(pending)
+            out[at:at + len(joined)] = np.frombuffer(joined, dtype=np.uint8)
+            at += len(joined)
+            pending = []
+        if part is not None:
+            out[at:at + part.size].reshape(part.shape)[...] = part
+            at += part.size
+    return out
 
 
 def _periodic(blob: memoryview, period: int) -> np.ndarray:
@@ -170,7 +194,7 @@ class RunBlock:
             claim = start.claim  # an int in a prime field (canonical: the Sequencer checked it): packed directly
             claims.append(claim.to_bytes(width, "little") if claim.__class__ is int and prime else field.encode(claim))  # type: ignore[union-attr]
             rounds.append(start.num_vars)
-        rows = np.frombuffer(b"".join(parts), dtype=np.uint8).reshape(-1, layout.stride)
+        rows = _joined(parts).reshape(-1, layout.stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
         if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
                 and np.array_equal(rows[:, layout.round_len:challenge_at],
