@@ -273,27 +273,34 @@ class RunBlock:
     def absorb_plain(self, schedule: Sha256Schedule, first: int, plain: PlainRuns, j: int) -> None:
         """Run the schedule over the statements and runs of instances j, j + 1, ... of ``plain``, whose
         rows are this block's from row ``first`` on: the state of ``observe`` of each statement then
-        :meth:`absorb` of its run, in one pass. The rows are cut into the pieces absorbed between two
-        squeezes (:func:`_pieces`); each statement goes into the piece that holds its instance's first
-        round, after the last challenge of the instance before: those pieces are built together by
-        one gather (:func:`_with_statements`)."""
+        :meth:`absorb` of its run. The rows are cut into the pieces absorbed between two squeezes
+        (:func:`_pieces`); each statement goes into the piece that holds its instance's first round,
+        after the last challenge of the instance before: those pieces are built together by one
+        gather (:func:`_with_statements`). Absorbed ``_ABSORB_INSTANCES`` instances per call, so
+        that the pieces alive at once stay few (a block's would be a few MB of views)."""
         import numpy as np
 
         view = self._frames_view(schedule)
         round_len, frame_len = self._round_len, self._frame_len
         counts = plain.num_vars[j:]
-        rows = sum(counts)
         width = self.layout.width
         statements, ends = schedule.instance_frames(plain.names[j:], counts, plain.degrees[j:],
                                                     plain.packed_claims[j * width:])
-        pieces = _pieces(view[first * frame_len:(first + rows) * frame_len], rows, round_len, frame_len)
-        pieces[0] = b"".join((memoryview(statements)[:ends[0]], pieces[0]))
-        if len(counts) > 1:
-            firsts = np.cumsum(counts[:-1])  # each later instance's first row, from ``first``
-            frames = np.frombuffer(view, dtype=np.uint8).reshape(-1, frame_len)
-            joined = _with_statements(frames, first + firsts, round_len, statements, np.array(ends))
-            deque(map(pieces.__setitem__, firsts.tolist(), joined), maxlen=0)
-        schedule.absorb_pieces(pieces, self.digests)
+        starts = np.zeros(len(counts) + 1, dtype=np.int64)  # each instance's first row from ``first``, then the end
+        np.cumsum(counts, out=starts[1:])
+        frames = np.frombuffer(view, dtype=np.uint8).reshape(-1, frame_len)
+        joined = _with_statements(frames, first + starts[1:-1], round_len, statements, np.array(ends)) \
+            if len(counts) > 1 else []  # the piece of instance i's first round, i >= 1: joined[i - 1]
+        places, opening = starts.tolist(), memoryview(statements)
+        for low in range(0, len(counts), _ABSORB_INSTANCES):
+            high = min(low + _ABSORB_INSTANCES, len(counts))
+            top, bottom = places[low], places[high]
+            pieces = _pieces(view[(first + top) * frame_len:(first + bottom) * frame_len], bottom - top, round_len,
+                             frame_len)
+            pieces[0] = b"".join((opening[ends[low - 1] if low else 0:ends[low]], pieces[0]))
+            deque(map(pieces.__setitem__, [place - top for place in places[low + 1:high]], joined[low:high - 1]),
+                  maxlen=0)
+            schedule.absorb_pieces(pieces, self.digests)
 
     def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart],
                      glue: Sequence[Sequence[bytes | memoryview]], glue_digests: bytearray) -> None:
@@ -375,6 +382,7 @@ def rederive(kernel: Kernel, schedule: Sha256Schedule | None, digests: bytearray
 
 
 _CUT_ROWS = 256  # rows cut by one cached C call (:func:`_pieces`)
+_ABSORB_INSTANCES = 64  # instances whose pieces RunBlock.absorb_plain hands to the schedule at once
 
 
 @lru_cache(maxsize=8)

@@ -33,6 +33,7 @@ from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
 from stepper.cli.check_text import render  # noqa: E402
 from stepper.cli.main import main  # noqa: E402
 from stepper.verify.fiatshamir import ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, schedule_for  # noqa: E402
+import stepper.verify.packed_runs as packed_runs  # noqa: E402
 import stepper.verify.sweep as sweep_module  # noqa: E402
 from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
 from stepper.transcript.store.reader import ReadLimits  # noqa: E402
@@ -1069,6 +1070,7 @@ def test_instances_laid_out_alike_are_compared_at_once_and_report_as_the_replay(
 
     monkeypatch.setattr(sweep_module._Sweeper, "_take_uniform", spy)
     monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 64)
+    monkeypatch.setattr(packed_runs, "_ABSORB_INSTANCES", 4)  # a run's statements absorbed a few at a time
     knobs = Knobs(field=field, instances=150, num_vars=3, degrees=(3,) * 6 + (2,), low_first=True, names=names,
                   seed=64)
     written = write_transcript(tmp_path / "alike.sumtr", knobs)
