@@ -20,7 +20,8 @@ import pytest
 import sympy
 
 from stepper.field.field import get_field
-from stepper.field.kernels.limb_rounds import horner_plan, multiple_of_p, rounds_congruent, wide_congruent
+from stepper.field.kernels.limb_rounds import (horner_plan, montgomery_form, multiple_of_p, rounds_congruent,
+                                               wide_congruent)
 from stepper.field.kernels.limbs import LimbKernel
 
 BN254 = 21888242871839275222246405745257275088548364400416034343698204186575808495617  # EIP-197 curve_order
@@ -119,3 +120,19 @@ def test_multiple_of_p_says_yes_for_multiples_up_to_the_bound_and_no_next_to_the
     assert multiple_of_p(k, major(k, multiples).view(np.int64).copy(), bound).tolist() == [True] * len(multiples)
     near = [v + d for v in multiples for d in (-1, 1) if v + d >= 0] + [p // 2, 3 * p + p // 2]
     assert multiple_of_p(k, major(k, near).view(np.int64).copy(), bound).tolist() == [False] * len(near)
+
+
+@pytest.mark.parametrize("p", PRIMES)
+def test_montgomery_form_is_x_times_r_mod_p_below_2p_with_carried_limbs(p):
+    k = kernel(p)
+    r_factor = 1 << (29 * k.n)  # R, the Montgomery radix of the limb rows
+    rng = random.Random(f"mont-{p}")
+    top = r_factor - 1  # every limb 2^29 - 1: the largest sum the fold can make
+    values = [0, 1, p - 1, p, 2 * p - 1, top, top - p] + [rng.randrange(p) for _ in range(40)]
+    values += [rng.randrange(r_factor) for _ in range(40)]  # unreduced inputs, as the kernel may hand over
+    got = montgomery_form(k, major(k, values))
+    assert ((got >> np.uint64(29)) == 0).all()  # every limb carried (below 2^29)
+    as_ints = [sum(int(got[i, c]) << (29 * i) for i in range(k.n)) for c in range(len(values))]
+    # plain Python integers: x R mod p, and the value itself below 2p (the bound the Horner plan assumes)
+    assert [v % p for v in as_ints] == [x * r_factor % p for x in values]
+    assert all(v < 2 * p for v in as_ints)

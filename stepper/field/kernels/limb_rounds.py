@@ -30,6 +30,7 @@ whole check).
 
 from __future__ import annotations
 
+from functools import lru_cache
 from math import factorial
 from typing import TYPE_CHECKING
 
@@ -111,12 +112,14 @@ def rounds_congruent(kernel: LimbKernel, columns: np.ndarray, points: np.ndarray
     for _ in range(1, m):
         layer = [layer[j + 1] - layer[j] for j in range(len(layer) - 1)]
         coefficients.append(layer[0])
-    r_mont = kernel._montgomery(points, kernel._r2) if m > 1 else points  # r R mod p, below 2p
+    r_mont = montgomery_form(kernel, points) if m > 1 else points  # r R mod p, below 2p
     acc = _normalise(_scaled(coefficients[m - 1], weights[m - 1], offsets[m - 1], p_limbs)).view(np.uint64)
-    # a product's limbs left as summed (below 2n 2^58 + 2^35) fit signed 64-bit limbs with the term added
-    carried = (2 * kernel.n << 58) + (1 << 41) >= _INT64_LIMB
+    # the points (r - k) R mod p are r R mod p plus a constant below p, not carried: limbs below 2^30, so a
+    # product's limbs left as summed are below n 2^59 + n 2^58 + 2^35 and fit signed 64-bit limbs with the
+    # term added (its limbs below 2^41) while 3 n 2^58 + 2^41 < 2^63, n <= 10 (BN254 and BLS12-381: 9)
+    carried = (3 * kernel.n << 58) + (1 << 41) >= _INT64_LIMB
     for k in range(m - 2, -1, -1):
-        shift = r_mont if k == 0 else kernel._carry(r_mont + kernel._column(-k * (1 << kernel._r_bits) % kernel.p))
+        shift = r_mont if k == 0 else r_mont + kernel._column(-k * (1 << kernel._r_bits) % kernel.p)
         term = _scaled(coefficients[k], weights[k], offsets[k], p_limbs)
         term += kernel._montgomery(acc, shift, carried).view(np.int64)  # below (a b p / R + 1) p
         acc = _normalise(term).view(np.uint64)  # the one carry pass of the step
@@ -124,6 +127,36 @@ def rounds_congruent(kernel: LimbKernel, columns: np.ndarray, points: np.ndarray
     d = acc.view(np.int64) - targets.astype(np.int64) * scale
     d += p_limbs * (scale * target_bound)
     return multiple_of_p(kernel, d, acc_bound + scale * target_bound)
+
+
+def montgomery_form(kernel: LimbKernel, points: np.ndarray) -> np.ndarray:
+    """x R mod p for limb-major x (limbs below 2^29, any value below 2^(29 n)), below 2p, limbs carried
+    (uint64). Folded rather than multiplied: x R = sum_i x_i 2^(29 (i + n)), and each limb times the
+    constant 2^(29 (i + n)) mod p (n products of a limb by a column, no carries between: each limb of
+    the sum below n 2^58) gives a value below n 2^29 p; its quotient by p is estimated in floating point
+    from every limb (the error far below a half), so subtracting that quotient minus one times p leaves
+    a value in (p / 2 - 1, 3 p / 2 + 1). Half the numpy passes of a Montgomery product by R^2 mod p."""
+    n = kernel.n
+    constants = _fold_constants(kernel)
+    total = np.multiply(constants[0], points[0]).view(np.int64)
+    for i in range(1, n):
+        total += (constants[i] * points[i]).view(np.int64)
+    quotient = np.rint(_quotient_weights(kernel) @ total.astype(np.float64)).astype(np.int64)
+    quotient -= 1
+    total -= quotient * kernel._p_limbs.view(np.int64)
+    return _normalise(total).view(np.uint64)
+
+
+@lru_cache(maxsize=16)
+def _fold_constants(kernel: LimbKernel) -> tuple[np.ndarray, ...]:
+    """Per limb i, the column of 2^(29 (i + n)) mod p (uint64, shape (n, 1))."""
+    return tuple(kernel._column(pow(2, LIMB_BITS * (i + kernel.n), kernel.p)) for i in range(kernel.n))
+
+
+@lru_cache(maxsize=16)
+def _quotient_weights(kernel: LimbKernel) -> np.ndarray:
+    """2^(29 i) / p for every limb i (float64): the weights of a value's estimated quotient by p."""
+    return np.array([2.0 ** (LIMB_BITS * i) / kernel.p for i in range(kernel.n)])
 
 
 def _scaled(difference: np.ndarray, weight: int, offset: int, p_limbs: np.ndarray) -> np.ndarray:
