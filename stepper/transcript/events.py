@@ -409,8 +409,13 @@ class Sequencer(GlueRules, AnnotationRules):
     @staticmethod
     def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element) -> InstanceStart:
         """The record :meth:`plain_runs` would have made for the instance at ``index`` (its values
-        already checked there)."""
-        return InstanceStart(index, name, num_vars, degree, claim)
+        already checked there: made as :meth:`_open` makes one, without the frozen ``__init__``)."""
+        start: Any = InstanceStartDraft()
+        start.index, start.name, start.num_vars, start.degree, start.claim = index, name, num_vars, degree, claim
+        start.order, start.form, start.batch = "low-first", "evals", None
+        start.claim_expr = start.final_expr = start.eq_point = None
+        start.__class__ = InstanceStart
+        return start  # type: ignore[no-any-return]
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()

@@ -996,6 +996,7 @@ def test_plain_instances_in_a_row_are_settled_together_and_report_as_the_replay(
     knobs = Knobs(field=field, schedule=schedule, instances=60, max_vars=5, degrees=(3,), low_first=True,
                   names=PLAIN_NAMES, seed=61)
     written = write_transcript(tmp_path / "plain.sumtr", knobs)
+    assert_same_report(written.path, 1000)  # every summary kept: each instance of the columns settled alone
     for keep, chunk in ((20, 1 << 20), (1, 1 << 20), (7, 4096), (0, 1 << 20)):
         settled.clear()
         assert_same_report(written.path, keep, ReadLimits(chunk_bytes=chunk))
