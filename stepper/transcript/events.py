@@ -406,6 +406,43 @@ class Sequencer(GlueRules, AnnotationRules):
         self.count += 2 * count + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
         return values  # type: ignore[no-any-return]
 
+    def glued_runs(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes,
+                   claim_exprs: Sequence[str | None], final_exprs: Sequence[str | None]) -> list[InstanceStart] | None:
+        """:meth:`plain_instance` with the texts given (deferred, see ``defer_glue``) then
+        :meth:`account_run` for each of several instances in a row, as :meth:`plain_runs` takes
+        them (stepper.verify.sweep reads them and the glue after their runs from bytes): the same
+        records and state, names added together, every record made by the short path. Returns the
+        records, or None, having done nothing, unless every value is plainly in range (the claims
+        canonical, the texts no longer than a text may be): the caller then takes them one at a time."""
+        count = len(names)
+        if (not count or not self.glue or not self.defer_glue or not self._prime_modulus or self.field is None
+                or self.pending_batch is not None or self._late is not None or len(num_vars) != count
+                or len(degrees) != count or len(claims) != count * self._elem_bytes or len(claim_exprs) != count
+                or len(final_exprs) != count or min(num_vars) < 1 or max(num_vars) > MAX_NUM_VARS
+                or min(degrees) < 0 or max(degrees) > MAX_DEGREE or max(map(len, names)) > MAX_TEXT
+                or max(len(text or "") for text in (*claim_exprs, *final_exprs)) > MAX_TEXT):
+            return None
+        values = self._decode(claims)  # None when some claim is not canonical
+        if values is None or len(values) != count:
+            return None
+        first = len(self.names)
+        self.names.add_all(names)
+        starts: list[Any] = []
+        draft, cls, append = InstanceStartDraft, InstanceStart, starts.append
+        for index, name, rounds, degree, claim, claim_expr, final_expr in zip(
+                range(first, first + count), names, num_vars, degrees, values, claim_exprs, final_exprs):
+            start: Any = draft()  # every field checked: skip the frozen __init__ (see RoundMsgDraft)
+            start.index, start.name, start.num_vars, start.degree, start.claim = index, name, rounds, degree, claim
+            start.order, start.form, start.batch = "low-first", "evals", None
+            start.claim_expr, start.final_expr, start.eq_point = claim_expr, final_expr, None
+            start.__class__ = cls
+            append(start)
+        last = starts[-1]
+        self.current, self._num_vars, self._index = last, last.num_vars, last.index
+        self.rounds_done, self.awaiting_challenge, self.final_seen = last.num_vars, False, True
+        self.count += 2 * count + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
+        return starts
+
     @staticmethod
     def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element) -> InstanceStart:
         """The record :meth:`plain_runs` would have made for the instance at ``index`` (its values

@@ -381,12 +381,17 @@ class _Sweeper:
                 self._after_runs(rows - self.rows, size - self.pending_bytes)
                 return
             seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
-            texts = zip(_decoded([head[1] for head in found]), _decoded([head[5] for head in found]),
-                        _decoded([head[6] for head in found]))
-            for j, ((head_end, _, num_vars, degree, claim, _, _), (name_text, claim_text, final_text)) in enumerate(
-                    zip(found, texts)):
-                start = seq.plain_instance(name_text, num_vars, degree, claim, claim_text, final_text)  # type: ignore[arg-type]
-                seq.account_run(num_vars)
+            names, claim_texts, final_texts = (_decoded([head[1] for head in found]),
+                                               _decoded([head[5] for head in found]),
+                                               _decoded([head[6] for head in found]))
+            starts = seq.glued_runs(names, [head[2] for head in found], [head[3] for head in found],  # type: ignore[arg-type]
+                                    b"".join([head[4] for head in found]), claim_texts, final_texts)
+            for j, (head_end, _, num_vars, degree, claim, _, _) in enumerate(found):
+                if starts is not None:
+                    start = starts[j]
+                else:  # one at a time: the Sequencer judges what it did not take together
+                    start = seq.plain_instance(names[j], num_vars, degree, claim, claim_texts[j], final_texts[j])  # type: ignore[arg-type]
+                    seq.account_run(num_vars)
                 run_at = head_end - first + len(prefix)
                 run_end = run_at + num_vars * stride + final_len - len(prefix)
                 runs.append((start, prefix, blob[run_at:run_end], layout))  # type: ignore[arg-type]

@@ -718,6 +718,54 @@ def test_a_plain_instance_gives_the_record_state_and_error_that_feeding_its_payl
 
 
 @pytest.mark.parametrize("case", ["goldilocks", "bn254", "babybear^4", "an instance still open", "repeated names",
+                                  "claim equal to p", "no rounds", "text past the cap", "not deferred", "version 1"])
+def test_glued_runs_give_the_records_and_state_that_taking_each_instance_gives(case):
+    # Reference: plain_instance then account_run for each instance (plain_instance is pinned to feed() above);
+    # glued_runs must make the same records and leave the same state, or do nothing
+    field, p = {"bn254": ("bn254", BN254_R), "babybear^4": ("babybear", BABYBEAR)}.get(case, ("goldilocks", GOLDILOCKS))
+    width = (p.bit_length() + 7) // 8
+    rng = random.Random(case)
+    names = ["sailing.0", "", "quay-\u00e5", "sailing.0" if case == "repeated names" else "x" * 31]
+    num_vars = [1, 3, 0 if case == "no rounds" else 2, 4]
+    degrees = [1, 2, 3, 0]
+    claims = [rng.randrange(p) for _ in names]
+    claims[2] = p if case == "claim equal to p" else claims[2]
+    claim_exprs = [None, "a0 + beta0*b0", "final(sailing.0) * 2", None]
+    final_exprs = ["eq(tau) * c0", None, "q" * (1 << 20) if case == "text past the cap" else "eq(point(quay-)) * c2",
+                   "c3"]
+    packed = b"".join(claim.to_bytes(width, "little") for claim in claims)
+    if case == "babybear^4":  # an extension: four coefficients a claim (taken one at a time)
+        packed = b"".join(claim.to_bytes(width, "little") * 4 for claim in claims)
+
+    def fresh() -> Sequencer:
+        seq = Sequencer()
+        seq.feed({"type": "field", "name": field, **({"extension_degree": 4} if case == "babybear^4" else {})})
+        seq.glue, seq.defer_glue = case != "version 1", case != "not deferred"
+        if case == "an instance still open":
+            seq.feed({"type": "instance", "name": "earlier", "num_vars": 2, "degree": 1, "claim": 0})
+        return seq
+
+    bulk, single = fresh(), fresh()
+    before = _instance_state(bulk)
+    taken = bulk.glued_runs(names, num_vars, degrees, packed, claim_exprs, final_exprs)
+    if case not in ("goldilocks", "bn254", "an instance still open", "repeated names"):
+        assert taken is None and _instance_state(bulk) == before
+        return
+    records = []
+    for name, rounds, degree, claim, claim_expr, final_expr in zip(names, num_vars, degrees, claims, claim_exprs,
+                                                                   final_exprs):
+        records.append(single.plain_instance(name, rounds, degree, claim.to_bytes(width, "little"), claim_expr,
+                                             final_expr))
+        single.account_run(rounds)
+    assert taken == records
+    assert _instance_state(bulk) == _instance_state(single)
+    assert [bulk.names.name_at(i) for i in range(len(bulk.names))] == [single.names.name_at(i)
+                                                                        for i in range(len(single.names))]
+    note = {"type": "note", "text": "gangway", "instance": "sailing.0"}
+    assert bulk.feed(note) == single.feed(note)
+
+
+@pytest.mark.parametrize("case", ["goldilocks", "bn254", "babybear^4", "an instance still open", "repeated names",
                                   "claim equal to p", "no rounds", "num_vars past the cap", "degree past the cap",
                                   "after a batch", "counts of another length"])
 def test_plain_runs_give_the_state_and_claims_that_feeding_every_event_of_the_instances_gives(case):
