@@ -28,9 +28,9 @@ def decode_cells(kernel: Kernel, cells: np.ndarray, width: int) -> np.ndarray:
         k = kernel.k
         return decode_cells(kernel.base, cells, width // k).reshape(-1, k)
     count = cells.size // width
+    if isinstance(kernel, LimbKernel):  # rows of a block, a slice of each: gathered without a copy first
+        return kernel.from_bytes(cells if cells.ndim == 2 and cells.shape[1] == width else cells.reshape(count, width))
     flat = np.ascontiguousarray(cells).reshape(count, width)
-    if isinstance(kernel, LimbKernel):
-        return kernel.from_bytes(flat)
     if kernel.dtype is not object:
         if width == 8:
             return flat.view("<u8").reshape(count).astype(np.uint64)

@@ -143,6 +143,12 @@ def test_rows_of_several_packed_elements_decode_by_value_position_to_the_integer
     assert grid.shape == (len(rows), values, k.n)
     assert [k._integers(grid[i]).tolist() for i in range(len(rows))] == rows
     assert grid.transpose(1, 2, 0)[0, 0].flags.c_contiguous  # each limb of each position one contiguous run
+    # the same cells as a block holds them: a slice at an odd offset of longer rows (unaligned words)
+    framed = np.zeros((len(rows), values * width + 13), dtype=np.uint8)
+    framed[:, 5:5 + values * width] = cells
+    from_frame = k.from_bytes_grid(framed[:, 5:5 + values * width], values)
+    assert [k._integers(from_frame[i]).tolist() for i in range(len(rows))] == rows
+    assert [k._integers(row).tolist()[0] for row in k.from_bytes(framed[:, 5:5 + width])] == [row[0] for row in rows]
 
 
 @pytest.mark.parametrize("name", sorted(PRIMES))

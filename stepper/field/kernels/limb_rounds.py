@@ -36,7 +36,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from stepper.field.kernels.limbs import LIMB_BITS
+from stepper.field.kernels.limbs import LIMB_BITS, word_columns
 
 if TYPE_CHECKING:
     from stepper.field.kernels.limbs import LimbKernel
@@ -175,12 +175,10 @@ def wide_congruent(kernel: LimbKernel, rows: np.ndarray, values: np.ndarray) -> 
     2^(29 k) mod p (each limb times one constant: no carries between steps), the value
     subtracted and p added, so the integer checked lies in [0, (2^(29 n) / p + f 2^29 + 1) p] for
     f folded limbs; :func:`multiple_of_p` decides."""
-    count, width = rows.shape
+    width = rows.shape[1]
     n, p = kernel.n, kernel.p
     limbs = max(n, -(-8 * width // LIMB_BITS))
-    words = np.zeros((count, -(-width // 8) + 1), dtype=np.uint64)
-    words.view(np.uint8)[:, :width] = rows
-    sample = kernel._limbs_of_words(words, limbs).view(np.int64)  # (limbs, N), each below 2^29
+    sample = kernel._limbs_of_columns(word_columns(rows)[:, 0], limbs).view(np.int64)  # (limbs, N), each below 2^29
     if limbs - n > 8:
         raise ValueError(f"expected samples of at most {n + 8} limbs, found {limbs}")
     d = sample[:n]

@@ -37,7 +37,7 @@ from stepper.field.kernels.base import COMPILED_MIN, Kernel
 if TYPE_CHECKING:
     from stepper.field.shape import Element, FieldShape
 
-__all__ = ["LimbKernel", "LIMB_BITS", "MAX_LIMB_PRIME_BITS"]
+__all__ = ["LimbKernel", "LIMB_BITS", "MAX_LIMB_PRIME_BITS", "word_columns"]
 
 LIMB_BITS = 29
 MAX_LIMB_PRIME_BITS = 512
@@ -76,34 +76,35 @@ class LimbKernel(Kernel):
         limb rows, shape (N, n); not reduced, not checked (every bit of a row lands in a limb).
         The rows are a view of limb-major limbs (Fortran order): :meth:`_major` takes them back
         without a copy."""
-        count, width = cells.shape
-        if width > self.byte_width:
-            raise FieldError(f"expected at most {self.byte_width} bytes per element, found {width}")
-        if width % 8 == 0 and cells.flags.c_contiguous:
-            words = cells.view("<u8")
-        else:
-            padded = np.zeros((count, 8 * -(-width // 8)), dtype=np.uint8)
-            padded[:, :width] = cells
-            words = padded.view("<u8")
-        return self._limbs_of_words(words, self.n).T
+        return self.from_bytes_grid(cells, 1)[:, 0]
 
     def from_bytes_grid(self, cells: np.ndarray, values: int) -> np.ndarray:
         """Rows of ``values`` packed elements each (uint8, shape (N, values * w)) as limb rows of
         shape (N, values, n), not reduced: a view of limb-major limbs (n, values, N), in which
         each limb of each value position is one contiguous run of N (a block of rounds reads its
-        evaluations g(j) by value position, :func:`~stepper.field.kernels.limb_rounds.rounds_congruent`)."""
+        evaluations g(j) by value position, :func:`~stepper.field.kernels.limb_rounds.rounds_congruent`).
+        Whole 64-bit words (w a multiple of 8, the bytes of a row contiguous, as in a slice of a
+        block's rows) are gathered word-major straight from the rows by one copy of an unaligned
+        view; other widths are zero-padded to words first."""
         count = cells.shape[0]
         width = cells.shape[1] // values
-        by_value = np.ascontiguousarray(cells.reshape(count, values, width).transpose(1, 0, 2))
-        limbs = self.from_bytes(by_value.reshape(values * count, width)).T  # (n, values * N), contiguous
+        if width > self.byte_width:
+            raise FieldError(f"expected at most {self.byte_width} bytes per element, found {width}")
+        columns = word_columns(cells, values)
+        limbs = self._limbs_of_columns(columns.reshape(len(columns), values * count), self.n)
         return limbs.reshape(self.n, values, count).transpose(2, 1, 0)
 
     @staticmethod
     def _limbs_of_words(words: np.ndarray, count: int) -> np.ndarray:
         """The first ``count`` 29-bit limbs of rows of little-endian uint64 words (shape (N, k);
         bits past the k words are zero), limb-major: shape (count, N)."""
-        columns = np.ascontiguousarray(words.T)  # (k, N): each word of every row in one run
-        out = np.empty((count, words.shape[0]), dtype=np.uint64)
+        return LimbKernel._limbs_of_columns(np.ascontiguousarray(words.T), count)
+
+    @staticmethod
+    def _limbs_of_columns(columns: np.ndarray, count: int) -> np.ndarray:
+        """The first ``count`` 29-bit limbs of integers given word-major (uint64, shape (k, N): word j
+        of every integer in one contiguous run; bits past the k words are zero): shape (count, N)."""
+        out = np.empty((count, columns.shape[1]), dtype=np.uint64)
         for i in range(count):
             word, shift = divmod(LIMB_BITS * i, 64)
             if word >= len(columns):
@@ -367,6 +368,23 @@ class LimbKernel(Kernel):
             shift = r_mont if k == 1 else self._sub_major(r_mont, self._column((k - 1) * (1 << self._r_bits) % p))
             acc = self._add_major(coefficients[k - 1], self._minus_p(self._montgomery(acc, shift)))
         return acc
+
+
+def word_columns(cells: np.ndarray, values: int = 1) -> np.ndarray:
+    """Rows of ``values`` little-endian integers of w bytes each (uint8, shape (N, values * w)) as their
+    64-bit words, word-major: shape (ceil(w / 8), values, N), contiguous (word j of value v of every row
+    in one run). When w is a multiple of 8 and a row's bytes are contiguous (any distance between
+    rows), one copy of an unaligned uint64 view of the rows; otherwise the rows are zero-padded to whole
+    words first."""
+    count = cells.shape[0]
+    width = cells.shape[1] // values
+    words = -(-width // 8)
+    if width % 8 or (count and cells.strides[1] != 1) or width == 0:
+        padded = np.zeros((count, values, 8 * words), dtype=np.uint8)
+        padded[:, :, :width] = cells.reshape(count, values, width)
+        cells = padded.reshape(count, values * 8 * words)
+    view = cells.view("<u8").reshape(count, values, words)
+    return np.ascontiguousarray(view.transpose(2, 1, 0))
 
 
 def _power_weights(m: int) -> list[tuple[int, ...]]:
