@@ -513,6 +513,7 @@ class OneDigestSchedule(Sha256Schedule):
 
     name = ONE_DIGEST_SCHEDULE_NAME
     whole_element = True
+    _tails: tuple[bytes, ...] = ()  # u64(1) .. u64(B - 1), set with the field
 
     def _set_sampling(self, field: Field) -> None:
         self._order = field.p ** field.degree
@@ -532,32 +533,45 @@ class OneDigestSchedule(Sha256Schedule):
         return tuple(digits)
 
     def absorb_pieces(self, pieces: Sequence[bytes | memoryview], digests: bytearray) -> None:
-        """As :meth:`Sha256Schedule.absorb_pieces`, with D0 alone appended per challenge (32 bytes):
-        per challenge one ``digest()`` of the running state and one ``update``; the later blocks of a
-        sample wider than 32 bytes are hashed from D0 by :meth:`squeezed_rows`."""
+        """As :meth:`Sha256Schedule.absorb_pieces`, with each challenge's B blocks appended (32 bytes
+        each): D0, one ``digest()`` of the running state, then D1 .. D(B-1), one-shot hashes of D0 made
+        in the same loop (B = 2 for BN254 and BLS12-381, 1 for every other named field; hashed here
+        rather than from the digests afterwards, which cost a slice of them per block besides)."""
         update, digest = self._state.update, self._state.digest
         out = digests
         update(pieces[0])
+        tails = self._tails
+        if not tails:
+            for piece in pieces[1:]:
+                out += digest()
+                update(piece)
+            return
+        sha256 = hashlib.sha256
+        if len(tails) == 1:
+            tail, = tails
+            for piece in pieces[1:]:
+                first = digest()
+                out += first
+                out += sha256(first + tail).digest()
+                update(piece)
+            return
         for piece in pieces[1:]:
-            out += digest()
+            first = digest()
+            out += first
+            for tail in tails:
+                out += sha256(first + tail).digest()
             update(piece)
 
     @property
     def squeezes_per_challenge(self) -> int:
-        """Digests :meth:`absorb_pieces` appends for one challenge: D0 only."""
-        return 1
+        """32-byte blocks :meth:`absorb_pieces` appends for one challenge: B, those of its sample."""
+        return 1 + len(self._tails)
 
     def squeezed_rows(self, digests: bytes | bytearray, count: int) -> np.ndarray:
-        """One row per challenge: D0, then D1 .. D(B-1) hashed from it here (one-shot hashes)."""
+        """One row per challenge: its B blocks D0 .. D(B-1), as :meth:`absorb_pieces` appended them."""
         import numpy as np
 
-        first = np.frombuffer(digests, dtype=np.uint8).reshape(count, 32)
-        if not self._tails:
-            return first
-        raw, sha256 = bytes(digests), hashlib.sha256
-        later = [np.frombuffer(b"".join([sha256(raw[at:at + 32] + tail).digest() for at in range(0, len(raw), 32)]),
-                               dtype=np.uint8).reshape(count, 32) for tail in self._tails]
-        return np.hstack((first, *later))
+        return np.frombuffer(digests, dtype=np.uint8).reshape(count, 32 * (1 + len(self._tails)))
 
     def _one_block_digest(self) -> Callable[[], bytes] | None:
         return self._state.digest if not self._tails else None

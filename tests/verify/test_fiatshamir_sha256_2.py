@@ -252,7 +252,9 @@ def test_the_fused_step_and_the_sweep_s_digests_give_what_observe_then_challenge
     pieces.append(challenge_head + field.encode(expected[-1]))
     digests = bytearray()
     swept.absorb_pieces(pieces, digests)
-    assert swept.state_digest() == one.state_digest() and len(digests) == 6 * 32
+    blocks = -(-swept.wide_bytes // 32)  # B = ceil(L / 32): D0, then D1 .. D(B-1) from it
+    assert swept.state_digest() == one.state_digest() and len(digests) == 6 * 32 * blocks
+    assert swept.squeezes_per_challenge == blocks == (2 if name in ("bn254", "bls12-381") else 1)
     kernel = block_kernel(field) if k == 1 else kernel_for(field, 1 << 62)
     rows = swept.squeezed_rows(digests, 6)
     assert rows.shape[0] == 6 and rows.shape[1] >= swept.wide_bytes

@@ -1044,6 +1044,27 @@ def test_a_fault_among_plain_instances_in_a_row_makes_the_sweep_give_up_and_chec
         assert swept is None and code != 0
 
 
+@pytest.mark.parametrize("field", ["bn254", "bls12-381"])
+@pytest.mark.parametrize("schedule", ["builtin", "builtin2"])
+def test_limb_fields_under_both_schedules_sweep_honest_runs_and_leave_every_fault_to_the_replay(
+        tmp_path, capsys, monkeypatch, field, schedule):
+    # the rows of 29-bit limbs (Montgomery form by folding, congruences on unreduced values, the 48-byte samples
+    # of stepper-sha256/1 and /2 against the recorded challenges) against the event-by-event replay in plain
+    # Python integers: honest instances in a row report as the replay; one fault of each kind makes the sweep
+    # give up and check print what the replay prints, with the sweep on and off
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 40)
+    honest = write_transcript(tmp_path / "honest.sumtr", Knobs(field=field, schedule=schedule, instances=30,
+                                                               max_vars=5, degrees=(3,), low_first=True, seed=64))
+    assert_same_report(honest.path, 3)
+    for fault in ("eval", "challenge", "final", "claim", "noncanonical"):
+        knobs = Knobs(field=field, schedule=schedule, instances=30, max_vars=5, degrees=(3,), low_first=True,
+                      fault=fault, seed=65)
+        written = write_transcript(tmp_path / f"{fault}.sumtr", knobs)
+        assert swept_report(written.path, 3) is None, fault
+        code, _, _, swept = check_both(capsys, monkeypatch, written.path, "--rows", "3")
+        assert swept is None and code != 0, fault
+
+
 @pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "bn254"])
 def test_a_claim_past_p_among_plain_instances_is_left_to_the_replay_which_names_it(tmp_path, capsys, monkeypatch,
                                                                                  field):
