@@ -33,7 +33,7 @@ from stepper.field.field import Element, Field
 if TYPE_CHECKING:
     import numpy as np
 
-__all__ = ["ROUND_HEAD", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES",
+__all__ = ["ROUND_HEAD", "instance_spans", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES",
            "GlueColumnsRead", "read_glue_columns"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
@@ -375,6 +375,31 @@ class InstanceHead:
         if extra:
             return None
         return end, name, num_vars[0], degree[0], claim, texts[0], texts[1]
+
+
+def instance_spans(found: tuple[int, bytes, int, int, bytes, bytes | None, bytes | None], at: int
+                   ) -> list[tuple[int, int]]:
+    """The byte spans, from ``at``, of what may differ between instance events laid out alike, in an
+    event :class:`InstanceHead` found at ``at``: the name, the degree, the claim, and the texts of its
+    ``claim_expr`` and ``final_expr`` (each without its head; an absent one has no span). Every other
+    byte of the event is a key, a head or num_vars."""
+    end, name, _, _, claim, claim_expr, final_expr = found
+    name_at = len(_INSTANCE_HEAD) + 1
+    degree_at = name_at + len(name) + len(b"\xa8num_vars") + 1 + len(b"\xa6degree")
+    claim_at = degree_at + 1 + len(b"\xa5claim") + 2
+    spans = [(name_at, name_at + len(name)), (degree_at, degree_at + 1), (claim_at, claim_at + len(claim))]
+    texts_end = end - at
+    if final_expr is not None:
+        spans.append((texts_end - len(final_expr), texts_end))
+        texts_end -= len(final_expr) + _str_head(len(final_expr)) + len(_FINAL_KEY)
+    if claim_expr is not None:
+        spans.insert(3, (texts_end - len(claim_expr), texts_end))
+    return spans
+
+
+def _str_head(size: int) -> int:
+    """Bytes of the msgpack head of a str of ``size`` bytes (fixstr, str 8, str 16)."""
+    return 1 if size < 32 else 2 if size < 256 else 3
 
 
 def _str_at(data: bytes, at: int) -> tuple[int, bytes | None]:

@@ -46,7 +46,7 @@ from typing import TYPE_CHECKING, Any, Callable, Iterator, Sequence
 import msgpack
 
 from stepper.errors import Where
-from stepper.transcript.packed import ROUND_HEAD, GlueRun, InstanceHead
+from stepper.transcript.packed import ROUND_HEAD, GlueRun, InstanceHead, instance_spans
 from stepper.transcript.store.pending import pending_path
 from stepper.transcript.events import GLUE_TYPES, KNOWN_TYPES, Sequencer
 from stepper.transcript.store.reader import (
@@ -338,8 +338,8 @@ class _Sweeper:
         map per instance event. Each event's payload (the one msgpack would have made) still goes
         through the Sequencer, in order. The glue after the last run taken is left to
         :meth:`_take_glue`, which reads on into the next chunk."""
-        while self._take_uniform():  # a flush in between (a file without glue) starts the next block
-            if self.due:
+        while self._take_uniform() or self._take_glued_alike():  # a flush in between (a file without glue)
+            if self.due:  # starts the next block
                 return  # the block is full: the glue after the last run taken waits to be checked with it
         layout, find = self.layout, self.instance_head
         data, data_at = self.window
@@ -472,6 +472,99 @@ class _Sweeper:
                                 lambda: memoryview(self.unpacker.read_bytes(count * period)),
                                 (starts - at + head_len).tolist(), layout, period):
             return False  # nothing read: the usual path takes them
+        self._after_runs(count * num_vars, count * num_vars * stride)
+        return True
+
+    def _take_glued_alike(self) -> bool:
+        """:meth:`_take_uniform` for instances with a ``claim_expr`` or a ``final_expr`` and the glue after
+        their runs: each period the bytes of the first but what may differ (:func:`instance_spans`: the
+        name, degree, claim and texts, each of the same length; the round values, challenges and final;
+        the glue's names, of the same lengths, and elements), all compared with numpy at once; each run's
+        glue is the first's in layout (its every byte is read again by the flush), the next event right
+        after it. Returns whether any were taken (two at least, the glue after the last left to
+        :meth:`_take_glue`), or False having read nothing."""
+        layout, find, glue_run = self.layout, self.instance_head, self.glue_run
+        if layout is None or find is None or glue_run is None or not self.seq.glue:
+            return False
+        data, data_at = self.window
+        at = self.unpacker.tell() - data_at
+        if at < 0:
+            return False
+        head = find(data, at)
+        if head is None or (head[5] is None and head[6] is None) or head[2] == 0:
+            return False
+        num_vars, stride, final_len, width = head[2], layout.stride, layout.final_len, layout.width
+        head_len = head[0] - at
+        run_end = head_len + num_vars * stride + final_len  # from ``at``
+        if at + run_end > len(data) or not data.startswith(layout.round_prefix, head[0]) \
+                or not data.startswith(layout.final_prefix, at + run_end - final_len):
+            return False
+        glue_len = glue_run(data, at + run_end)
+        period = run_end + glue_len
+        rows_left, size_left = BLOCK_ROUNDS - self.rows, self.limits.chunk_bytes * 8 - self.pending_bytes
+        count = min((len(data) - at) // period, -(-rows_left // num_vars), -(-size_left // (num_vars * stride)))
+        if count < 2 or not glue_len:
+            return False
+        import numpy as np
+
+        varying = instance_spans(head, at)
+        glue_at = run_end
+        for kind, _, name, _ in glue_run.rows(data[at + run_end:at + period]):  # the glue's names and elements
+            name_at = glue_at + len(b"\x83\xa4type") + 1 + len(kind) + len(b"\xa4name") + 1
+            element_at = name_at + len(name) + len(b"\xa5value") + 2
+            varying += [(name_at, name_at + len(name)), (element_at, element_at + width)]
+            glue_at = element_at + width
+        if glue_at != period:
+            return False
+        keep = np.ones(period, dtype=bool)
+        for begin, end in varying:
+            keep[begin:end] = False
+        values_at = head_len + np.arange(num_vars)[:, None] * stride
+        keep[(values_at + len(layout.round_prefix) + np.arange(layout.round_len - len(layout.round_prefix))).ravel()] = False
+        keep[(values_at + stride - width + np.arange(width)).ravel()] = False  # the challenges
+        keep[run_end - width:run_end] = False  # the final value
+        fixed = np.flatnonzero(keep)
+        u8 = np.frombuffer(data, dtype=np.uint8)
+        starts = at + period * np.arange(count)
+        same = (u8[starts[:, None] + fixed] == u8[at + fixed]).all(axis=1)
+        degree_at = varying[1][0]
+        degrees = u8[starts + degree_at]
+        same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
+        count = int(np.argmin(same)) if not same.all() else count
+        if count < 2:
+            return False
+        starts = starts[:count]
+
+        def texts(span: tuple[int, int] | None) -> list[str | None]:
+            if span is None:
+                return [None] * count
+            size = span[1] - span[0]
+            joined = u8[starts[:, None] + (span[0] + np.arange(size))].tobytes()
+            if joined.isascii():
+                text = joined.decode()
+                return [text[i:i + size] for i in range(0, len(text), size)] if size else [""] * count
+            return [joined[i:i + size].decode() for i in range(0, len(joined), size)]
+
+        spans = iter(varying[3:])
+        try:
+            names = texts(varying[0])
+            claim_texts = texts(next(spans) if head[5] is not None else None)
+            final_texts = texts(next(spans) if head[6] is not None else None)
+        except UnicodeDecodeError:
+            return False  # the usual path names it
+        claim_at = varying[2][0]
+        claims = u8[starts[:, None] + (claim_at + np.arange(width))].tobytes()
+        records = self.seq.glued_runs(names, [num_vars] * count, degrees[:count].tolist(), claims,  # type: ignore[arg-type]
+                                      claim_texts, final_texts)
+        if records is None:
+            return False  # nothing read: the usual path takes them
+        blob = memoryview(self.unpacker.read_bytes((count - 1) * period + run_end))  # the last glue: _take_glue
+        prefix, runs, trailing = layout.round_prefix, self.runs, self.trailing
+        for j, start in enumerate(records):
+            base = j * period
+            runs.append((start, prefix, blob[base + head_len + len(prefix):base + run_end], layout))  # type: ignore[arg-type]
+            if j < count - 1:
+                trailing.append([bytes(blob[base + run_end:base + period])])
         self._after_runs(count * num_vars, count * num_vars * stride)
         return True
 

@@ -90,3 +90,29 @@ def test_instances_packed_otherwise_are_left_to_the_usual_path(case):
                                                  "claim": bytes(8), "claim_expr": 7}, use_bin_type=True),
     }[case]()
     assert find(event, 0) is None
+
+
+@pytest.mark.parametrize("keys", [{}, {"claim_expr": "a0 + beta0*b0"}, {"final_expr": "eq(tau) * (a1*b1 - c1)"},
+                                  {"claim_expr": "p" * 31, "final_expr": "q" * 40},
+                                  {"claim_expr": "r" * 300, "final_expr": "\u00f8" * 40}])
+def test_instance_spans_hold_the_name_degree_claim_and_texts_msgpack_decodes(keys):
+    # what may differ between instances laid out alike: the spans' bytes are exactly the values msgpack
+    # decodes, and every other byte of the event is the same for another name, degree, claim and texts of
+    # the same lengths
+    from stepper.transcript.packed import instance_spans
+
+    def event(name: str, degree: int, claim: int, text: str) -> bytes:
+        texts = {key: value.replace(value[0], text) if value.isascii() else value for key, value in keys.items()}
+        return packed_instance(GOLDILOCKS, name, 17, degree, claim, **texts)
+
+    one, other = event("sailing.3", 4, 7, "z"), event("sailing.9", 2, GOLDILOCKS.p - 1, "y")
+    found = InstanceHead(8)(one, 0)
+    assert found is not None and found[0] == len(one) == len(other)
+    spans = instance_spans(found, 0)
+    reference = msgpack.unpackb(one, raw=False)
+    expected = [reference["name"].encode(), bytes((reference["degree"],)), reference["claim"],
+                *(reference[key].encode() for key in ("claim_expr", "final_expr") if key in reference)]
+    assert [one[a:b] for a, b in spans] == expected
+    differ = {i for a, b in spans for i in range(a, b)}
+    assert all(one[i] == other[i] for i in range(len(one)) if i not in differ)
+    assert any(one[i] != other[i] for i in differ)

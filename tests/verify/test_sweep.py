@@ -1239,3 +1239,36 @@ def test_a_point_the_replay_no_longer_keeps_makes_the_sweep_give_up_as_the_repla
         assert code == 2 and swept is None and "sailing.20" in err
     else:
         assert code == 0 and swept is not None
+
+
+@pytest.mark.parametrize("change", [None, "a glue name", "a glue kind", "a text"])
+def test_glued_instances_laid_out_alike_are_taken_together_and_a_change_among_them_checks_as_the_replay(
+        tmp_path, capsys, monkeypatch, change):
+    # instances 10-39 of the pointed proof are laid out alike (names, texts and glue names of the same lengths):
+    # the sweep compares them at once. A change inside one of them (resealed: the writer refuses it) must
+    # still give check's output of the replay: a renamed squeeze that a later claim_expr names, an opening
+    # sent as a squeeze (a byte the comparison reads), a text naming another opening of the same length
+    path = tmp_path / "alike.sumtr"
+    write_pointed(path)
+    old, new = {None: (b"", b""), "a glue name": (b"\xa6beta25", b"\xa6beta2x"),
+                "a glue kind": (b"\xa7opening\xa4name\xa3c25", b"\xa7squeeze\xa4name\xa3c25"),
+                "a text": (b"eq(point(sailing.24)) * (a25*b25 - c25)", b"eq(point(sailing.24)) * (a25*b25 - a25)")}[change]
+    if change is not None:
+        data = path.read_bytes()
+        assert data.count(old) == 1
+        path.write_bytes(resealed(data.replace(old, new)))
+    alike: list[bool] = []
+    real = sweep_module._Sweeper._take_glued_alike
+
+    def spy(self: object) -> bool:
+        taken = real(self)  # type: ignore[arg-type]
+        alike.append(taken)
+        return taken
+
+    monkeypatch.setattr(sweep_module._Sweeper, "_take_glued_alike", spy)
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert any(alike)
+    if change is None:
+        assert code == 0 and swept is not None
+    else:
+        assert swept is None and code in (1, 2)
