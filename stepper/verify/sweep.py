@@ -59,6 +59,8 @@ from stepper.transcript.model import (
 )
 
 if TYPE_CHECKING:
+    import numpy as np
+
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.verify.glue_block import GlueChecks, Settled
@@ -119,6 +121,21 @@ def _sealed(handle: Any, tail: int = 1 << 20) -> bool:
     found = _END_KEYS in handle.read(tail)
     handle.seek(0)
     return found
+
+
+def _alike(u8: np.ndarray, at: int, period: int, count: int, fixed: np.ndarray, degree_at: int, layout: Layout
+           ) -> tuple[np.ndarray, np.ndarray]:
+    """The starts and degree bytes of the periods from ``at`` that hold the first's bytes at ``fixed``
+    (offsets in a period) and a degree (a positive fixint at ``degree_at``) that allows the layout's
+    round size, up to the first that does not (of ``count``)."""
+    import numpy as np
+
+    starts = at + period * np.arange(count)
+    same = (u8[starts[:, None] + fixed] == u8[at + fixed]).all(axis=1)
+    degrees = u8[starts + degree_at]
+    same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
+    count = int(np.argmin(same)) if not same.all() else count
+    return starts[:count], degrees[:count]
 
 
 def _decoded(texts: list[bytes | None]) -> list[str | None]:
@@ -450,14 +467,10 @@ class _Sweeper:
                                 np.arange(degree_at + 1, head_len - width),
                                 head_len + np.arange(len(layout.round_prefix)),
                                 period - final_len + np.arange(len(layout.final_prefix))))
-        starts = at + period * np.arange(count)
-        same = (u8[starts[:, None] + fixed] == u8[at + fixed]).all(axis=1)
-        degrees = u8[starts + degree_at]
-        same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
-        count = int(np.argmin(same)) if not same.all() else count
+        starts, degrees = _alike(u8, at, period, count, fixed, degree_at, layout)
+        count = len(starts)
         if count < 2:
             return False
-        starts = starts[:count]
         names_blob = u8[starts[:, None] + (name_at + np.arange(len(name)))].tobytes()
         try:
             if names_blob.isascii():
@@ -525,15 +538,10 @@ class _Sweeper:
         keep[run_end - width:run_end] = False  # the final value
         fixed = np.flatnonzero(keep)
         u8 = np.frombuffer(data, dtype=np.uint8)
-        starts = at + period * np.arange(count)
-        same = (u8[starts[:, None] + fixed] == u8[at + fixed]).all(axis=1)
-        degree_at = varying[1][0]
-        degrees = u8[starts + degree_at]
-        same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
-        count = int(np.argmin(same)) if not same.all() else count
+        starts, degrees = _alike(u8, at, period, count, fixed, varying[1][0], layout)
+        count = len(starts)
         if count < 2:
             return False
-        starts = starts[:count]
 
         def texts(span: tuple[int, int] | None) -> list[str | None]:
             if span is None:

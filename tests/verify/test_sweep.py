@@ -871,52 +871,10 @@ def test_glued_instances_taken_from_the_chunk_with_their_texts_and_glue_report_a
     # instances written by the TranscriptWriter with claim_expr and final_expr, each run followed by its openings
     # and a squeeze: the sweep takes them straight from the chunk's bytes (Sequencer.plain_instance with the
     # texts); the report is the replay's, and a broken glue check makes it give up
-    from stepper.field.field import NAMED_PRIMES, get_field
-    from stepper.field.lagrange import evaluate_round
-    from stepper.field.poly import eq_eval
     from stepper.transcript.events import Sequencer
-    from stepper.transcript.model import (ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening,
-                                          RoundMsg, ScheduleDecl, Squeeze)
 
-    field = get_field(NAMED_PRIMES["goldilocks"])
-    p, rng, schedule, path = field.p, random.Random(31), schedule_for(SCHEDULE_NAME), tmp_path / "glued-writer.sumtr"
-    with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
-        def emit(record: object, absorbed: bool = True) -> None:
-            if absorbed:
-                schedule.observe(record)  # type: ignore[arg-type]
-            out.write(record)  # type: ignore[arg-type]
-
-        emit(FieldDecl(field))
-        emit(ScheduleDecl(SCHEDULE_NAME, "tests"))
-        tau = tuple(rng.randrange(p) for _ in range(3))
-        emit(NamedValue("tau", tau, True, None))
-        claim = rng.randrange(p)
-        for i in range(40):
-            keys = {"final_expr": f"eq(tau) * (a{i}*b{i} - c{i})", **({"claim_expr": f"a{i - 1} + beta{i - 1}*b{i - 1}"}
-                                                                    if i else {})}
-            emit(InstanceStart(i, f"sailing.{i}", 3, 2, claim, **keys))  # type: ignore[arg-type]
-            point = []
-            for k in range(1, 4):
-                g0 = rng.randrange(p)
-                evals = (g0, (claim - g0) % p, rng.randrange(p))
-                emit(RoundMsg(i, k, evals))
-                r = schedule.challenge()
-                emit(ChallengeMsg(i, k, r), absorbed=False)
-                point.append(r)
-                claim = evaluate_round(field, evals, r)
-            emit(FinalValue(i, claim), absorbed=False)
-            a, b = rng.randrange(p), rng.randrange(p)
-            c = (a * b - claim * pow(eq_eval(field, tau, point), -1, p)) % p  # type: ignore[arg-type]
-            if fault == "evaluation" and i == 17:
-                c = (c + 1) % p
-            for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
-                emit(Opening(name, value, name, i))
-            beta = schedule.squeeze(f"beta{i}")
-            emit(Squeeze(f"beta{i}", (beta + 1) % p if fault == "squeeze" and i == 23 else beta, False, i),
-                 absorbed=False)
-            claim = (a + beta * b) % p  # type: ignore[operator]
-            if fault == "link" and i == 29:
-                claim = (claim + 1) % p
+    path = tmp_path / "glued-writer.sumtr"
+    write_pointed(path, fault, pointed=False, seed=31)
     taken: list[str] = []
     real = Sequencer.plain_instance
 
@@ -1113,7 +1071,7 @@ def test_instances_laid_out_alike_are_compared_at_once_and_report_as_the_replay(
 
 
 def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds: int = 3,
-                  reads: dict[int, int] | None = None) -> None:
+                  reads: dict[int, int] | None = None, pointed: bool = True, seed: int = 37) -> None:
     """A glued proof whose expressions read earlier instances, written by the TranscriptWriter: instance i
     (every fifth high-first) has final_expr eq(point(sailing.<i-1>)) * (a_i*b_i - c_i) (eq(tau) for the first)
     and claim_expr final(sailing.<i-1>) * a_<i-1> + beta_<i-1>*b_<i-1>, each run followed by the three
@@ -1122,7 +1080,9 @@ def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds:
     the squeeze, 16 for the link): the link, the evaluation, the squeeze; or, in the written bytes
     (resealed: the writer refuses to write them), an opening's name (c17 sent as d17, which final_expr
     never names) or instance 17's point(NAME) of a later instance. ``reads`` maps an instance to the
-    earlier one its final_expr's point(NAME) reads instead of the one before it."""
+    earlier one its final_expr's point(NAME) reads instead of the one before it. Without ``pointed`` every
+    final_expr is eq(tau) * (a_i*b_i - c_i), every claim_expr a_<i-1> + beta_<i-1>*b_<i-1>, every instance
+    low-first, and the link breaks at instance 29."""
     from stepper.field.field import NAMED_PRIMES, get_field
     from stepper.field.lagrange import evaluate_round
     from stepper.field.poly import eq_eval
@@ -1130,7 +1090,7 @@ def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds:
                                           RoundMsg, ScheduleDecl, Squeeze)
 
     field = get_field(NAMED_PRIMES["goldilocks"])
-    p, rng, schedule = field.p, random.Random(37), schedule_for(SCHEDULE_NAME)
+    p, rng, schedule = field.p, random.Random(seed), schedule_for(SCHEDULE_NAME)
     with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
         def emit(record: object, absorbed: bool = True) -> None:
             if absorbed:
@@ -1145,11 +1105,13 @@ def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds:
         points: list[list[int]] = []  # each instance's point, in variable order
         for i in range(count):
             read = (reads or {}).get(i, i - 1)
-            keys = {"final_expr": f"eq(point(sailing.{read})) * (a{i}*b{i} - c{i})" if i else "eq(tau) * (a0*b0 - c0)"}
-            before = points[read] if i else tau
+            keys = {"final_expr": f"eq(point(sailing.{read})) * (a{i}*b{i} - c{i})" if i and pointed
+                    else f"eq(tau) * (a{i}*b{i} - c{i})"}
+            before = points[read] if i and pointed else tau
             if i:
-                keys["claim_expr"] = f"final(sailing.{i - 1}) * a{i - 1} + beta{i - 1}*b{i - 1}"
-            order = "high-first" if i % 5 == 4 else "low-first"
+                keys["claim_expr"] = (f"final(sailing.{i - 1}) * a{i - 1} + beta{i - 1}*b{i - 1}" if pointed
+                                      else f"a{i - 1} + beta{i - 1}*b{i - 1}")
+            order = "high-first" if i % 5 == 4 and pointed else "low-first"
             emit(InstanceStart(i, f"sailing.{i}", rounds, 2, claim, order=order, **keys))  # type: ignore[arg-type]
             challenges = []
             for k in range(1, rounds + 1):
@@ -1172,8 +1134,8 @@ def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds:
             beta = schedule.squeeze(f"beta{i}")
             emit(Squeeze(f"beta{i}", (beta + 1) % p if fault == "squeeze" and i == 23 else beta, False, i),
                  absorbed=False)
-            claim = (final * a + beta * b) % p  # type: ignore[operator]
-            if fault == "link" and i == 16:
+            claim = ((final * a if pointed else a) + beta * b) % p  # type: ignore[operator]
+            if fault == "link" and i == (16 if pointed else 29):
                 claim = (claim + 1) % p
             points.append(own)
     if fault in ("opening-name", "point-later"):
