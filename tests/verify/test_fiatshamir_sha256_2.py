@@ -298,3 +298,39 @@ def test_the_two_schedules_give_different_challenges_for_the_same_records():
         s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
         challenges.append(s.round_challenge(ROUND1))
     assert challenges[0] != challenges[1]
+
+
+# 2^100 - 15 (sympy.prevprime(2**100)) over X^3 + X + 5 (irreducible by galois Poly.is_irreducible): bits(p^3) = 300,
+# L = 54, B = 2; BN254 over X^2 - 5 (5 a non-residue mod r, from memory; stepper's constructor checks it): bits 508,
+# L = 80, B = 3; F_97 over X^3 - 5 (5 not a cube mod 97): L = 19, B = 1, one byte per coefficient
+CUSTOM = (((2**100 - 15), (5, 1, 0, 1), 2), (BN254, (BN254 - 5, 0, 1), 3), (97, (92, 0, 0, 1), 1))
+
+
+@pytest.mark.parametrize("p, irreducible, blocks", CUSTOM)
+def test_custom_moduli_and_irreducibles_draw_whole_elements_as_written_over_b_blocks(p, irreducible, blocks):
+    # the schedule object, by observe + challenge and by the fused step, against the hand-built state and draw()
+    k = len(irreducible) - 1
+    field = get_field(p, irreducible)
+    wide = ((p ** k).bit_length() + 128 + 7) // 8
+    assert -(-wide // 32) == blocks
+    rng = random.Random(p % 1000)
+    for label in ("x", LABEL):
+        expected_state = one_round_state(p, field.base_bytes, irreducible, label)
+        one, fused = OneDigestSchedule(), OneDigestSchedule()
+        for s in (one, fused):
+            s.observe(FieldDecl(field))
+            s.observe(ScheduleDecl(NAME, label))
+            s.observe(InstanceStart(0, "deck-slots-zero", 1, 1, field.zero))
+        one.observe(RoundMsg(0, 1, (field.zero, field.zero)))
+        assert one.state_digest() == expected_state.digest() and one.wide_bytes == wide
+        expected = draw(expected_state, p, k)
+        assert one.challenge() == expected == fused.round_challenge((field.zero, field.zero))
+        assert one.squeezes_per_challenge == blocks
+        for _ in range(5):  # later challenges: each drawn from the state after the previous one is absorbed
+            expected_state.update(frame(b"challenge", b"".join(el(c, field.base_bytes) for c in expected)))
+            values = tuple(tuple(rng.randrange(p) for _ in range(k)) for _ in range(2))
+            expected_state.update(frame(b"round", u64(2) + b"".join(el(c, field.base_bytes) for v in values
+                                                                    for c in v)))
+            expected = draw(expected_state, p, k)
+            one.observe(RoundMsg(0, 1, values))
+            assert one.challenge() == expected == fused.round_challenge(values)

@@ -48,6 +48,9 @@ GOLDILOCKS = 2**64 - 2**32 + 1  # common practice, no source
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
 KOALABEAR = 2**31 - 2**24 + 1  # common practice, no source
 MERSENNE31 = 2**31 - 1  # common practice, no source; its quartic u^4 - 4u^2 + 5 is not a binomial (from memory)
+# 2^100 - 15, the largest prime below 2^100 (sympy.prevprime(2**100)); X^3 + X + 5 irreducible over it (galois
+# Poly.is_irreducible): both computed once with those libraries, and stepper's field constructor checks the cubic
+P100 = 2**100 - 15
 BLS12_381 = 0x73EDA753299D7D483339D80809A1D80553BDA402FFFE5BFEFFFFFFFF00000001  # IETF pairing-friendly-curves draft, 4.2.1
 
 # name -> (arithmetic, field event, whether the sweep checks its rounds by the block)
@@ -68,6 +71,8 @@ FIELDS = {
     "bn254": (Plain(BN254), {"type": "field", "name": "bn254"}, True),
     "bn254^2": (Plain(BN254, 2, 5), Plain(BN254, 2, 5).spec(), True),  # 5^((p-1)/2) = -1 mod p: X^2 - 5 irreducible
     "bls12-381": (Plain(BLS12_381), {"type": "field", "name": "bls12-381"}, True),
+    # a 100-bit prime over a cubic that is not a binomial: under stepper-sha256/2 bits(p^3) = 300, two blocks
+    "p100^3": (Plain(P100, 3, q=(5, 1, 0, 1)), Plain(P100, 3, q=(5, 1, 0, 1)).spec(), True),
 }
 FORMS = ("evals", "evals-no-1", "coeffs", "coeffs-no-linear")
 FAULTS = ("eval", "challenge", "final", "claim", "degree", "truncate", "flip", "noncanonical")
@@ -820,7 +825,7 @@ NAMED_FIELDS = ("babybear", "koalabear", "mersenne31", "goldilocks", "babybear^4
                 "goldilocks^2", "bn254", "bls12-381")
 
 
-@pytest.mark.parametrize("field", NAMED_FIELDS)
+@pytest.mark.parametrize("field", NAMED_FIELDS + ("p64", "p97^3", "bn254^2", "p100^3"))  # custom moduli and cubics
 @pytest.mark.parametrize("fault", ["challenge", "squeeze"])
 def test_under_stepper_sha256_2_a_corrupted_challenge_or_squeeze_fails_where_the_replay_says(tmp_path, capsys,
                                                                                            monkeypatch, field, fault):
