@@ -36,6 +36,10 @@ Only :meth:`Sha256Schedule._draw`, the loop of :meth:`Sha256Schedule.absorb_piec
 rows of samples its digests make (:meth:`Sha256Schedule.squeezed_rows`) and the fused
 prime-field step differ between the two; everything absorbed is framed by the same code.
 
+The frames of many records at once (instance events and glue read from bytes by the whole-file
+check) are built by :mod:`stepper.verify.frames`, the same bytes :meth:`Sha256Schedule.observe`
+absorbs one record at a time.
+
 ``round_challenge`` / ``round_stepper`` do "observe a round, then challenge()" in
 one step with the frame heads and ``struct`` packers cached: the same bytes, for
 the replay's and provers' hot loops.
@@ -45,13 +49,13 @@ from __future__ import annotations
 
 import hashlib
 import struct
-from functools import lru_cache
 from operator import itemgetter
 from typing import TYPE_CHECKING, Callable, Sequence
 
 from stepper.errors import InputError, UsageError
 from stepper.transcript.packed import GLUE_CODES, pack_elements
 from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
+from stepper.verify.frames import INSTANCE_HEAD, OPENING_HEAD, flat_glue_stream, frame, glue_stream, instance_frames, text, u64
 
 if TYPE_CHECKING:
     import numpy as np
@@ -68,24 +72,7 @@ BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME, ONE_DIGEST_SCHEDULE_NAME)
 _SECURITY_BITS = 128
 _ROUND_HEAD = bytes([5]) + b"round"
 _PAIR = struct.Struct("<QQ")  # two u64 of a frame body
-_INSTANCE_HEAD = bytes([8]) + b"instance"
-_OPENING_HEAD = bytes([7]) + b"opening"
-_VALUE_HEAD = bytes([5]) + b"value"
-_DRAW_HEAD = bytes([4]) + b"draw"
 _GLUE_CODES = {kind: code for code, kind in enumerate(GLUE_CODES)}
-
-
-def frame(tag: bytes, body: bytes) -> bytes:
-    """One absorbed item: tag length (1 byte), tag, body length (8 bytes LE), body."""
-    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
-
-
-_u64 = struct.Struct("<Q").pack  # an integer of a frame body: 8 bytes little-endian
-
-
-def _text(s: str) -> bytes:
-    raw = s.encode("utf-8")
-    return _u64(len(raw)) + raw
 
 
 class Sha256Schedule:
@@ -104,7 +91,7 @@ class Sha256Schedule:
         self._element_packer: Callable[..., bytes] | None = None  # an extension element's k coefficients, packed
         self._stepper: tuple[Field, Callable[[tuple[Element, ...]], Element]] | None = None
         self._round_packers: dict[int, tuple[bytes, Callable[..., bytes] | None]] = {}
-        self._shapes: dict[tuple[str, str], bytes] = {}  # _text(order) + _text(form), by (order, form)
+        self._shapes: dict[tuple[str, str], bytes] = {}  # text(order) + text(form), by (order, form)
         # itemgetters cutting a run of rows into its absorbed pieces, by (rounds, round frame, row length)
         self._row_cuts: dict[tuple[int, int, int], Callable[[memoryview], tuple[memoryview, ...]]] = {}
 
@@ -144,20 +131,20 @@ class Sha256Schedule:
             shape = self._shapes.get((record.order, record.form))  # type: ignore[union-attr]
             if shape is None:
                 shape = self._shapes[(record.order, record.form)] = (  # type: ignore[union-attr]
-                    _text(record.order) + _text(record.form))  # type: ignore[union-attr]
+                    text(record.order) + text(record.form))  # type: ignore[union-attr]
             counts = _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
             body = len(name).to_bytes(8, "little") + name + counts + shape + self._el(record.claim)  # type: ignore[union-attr]
-            self._state.update(_INSTANCE_HEAD + len(body).to_bytes(8, "little") + body)  # frame("instance", body)
+            self._state.update(INSTANCE_HEAD + len(body).to_bytes(8, "little") + body)  # frame("instance", body)
         elif cls is FieldDecl:
             self._set_field(record.field)  # type: ignore[union-attr]
         elif cls is ScheduleDecl:
             if record.name != self.name:  # type: ignore[union-attr]
                 raise InputError(f"expected the schedule {self.name}, found a declaration of "
                                  f"{record.name!r}")  # type: ignore[union-attr]
-            self._absorb(b"schedule", _text(record.name) + _text(record.label))  # type: ignore[union-attr]
+            self._absorb(b"schedule", text(record.name) + text(record.label))  # type: ignore[union-attr]
         elif cls is BatchDecl:
             field = self._need_field("batch")
-            body = (self._el(record.coefficient) + _u64(len(record.terms))  # type: ignore[union-attr]
+            body = (self._el(record.coefficient) + u64(len(record.terms))  # type: ignore[union-attr]
                     + pack_elements(field, record.terms))  # type: ignore[union-attr]
             self._absorb(b"batch", body)
         elif cls is NamedValue or cls is Opening:
@@ -169,40 +156,11 @@ class Sha256Schedule:
         built in one pass with numpy, and the offset where each ends: instance i has name ``names[i]``,
         ``num_vars[i]``, ``degrees[i]``, the round order and form given, and its claim's canonical
         packed bytes at ``claims[i * elem_bytes:]`` (the caller has checked them canonical)."""
-        import numpy as np
-
-        field = self._need_field("instance")
-        width, count = field.elem_bytes, len(names)
-        if len(claims) != count * width or len(num_vars) != count or len(degrees) != count:
-            raise ValueError(f"expected {count} claims of {width} bytes, num_vars and degrees, one per name")
+        width = self._need_field("instance").elem_bytes
         shape = self._shapes.get((order, form))
         if shape is None:
-            shape = self._shapes[(order, form)] = _text(order) + _text(form)
-        encoded = [name.encode("utf-8") for name in names]
-        lengths = np.fromiter(map(len, encoded), dtype=np.int64, count=count)
-        head = len(_INSTANCE_HEAD) + 16  # the tag, the body's length, the name's length
-        after = 16 + len(shape) + width  # num_vars, degree, order and form, claim
-        sizes = head + lengths + after
-        ends = np.cumsum(sizes)
-        starts = ends - sizes
-        u8 = np.uint8
-        before = np.empty((count, head), dtype=u8)
-        before[:, :len(_INSTANCE_HEAD)] = np.frombuffer(_INSTANCE_HEAD, dtype=u8)
-        before[:, len(_INSTANCE_HEAD):].view("<u8")[:, 0] = lengths + 8 + after  # the body's length
-        before[:, len(_INSTANCE_HEAD):].view("<u8")[:, 1] = lengths
-        rest = np.empty((count, after), dtype=u8)
-        rest[:, :16].view("<u8")[:, 0] = num_vars
-        rest[:, :16].view("<u8")[:, 1] = degrees
-        rest[:, 16:16 + len(shape)] = np.frombuffer(shape, dtype=u8)
-        rest[:, 16 + len(shape):] = np.frombuffer(claims, dtype=u8).reshape(count, width)
-        out = np.empty(int(ends[-1]) if count else 0, dtype=u8)
-        out[starts[:, None] + np.arange(head)] = before
-        named = int(lengths.sum())
-        if named:
-            out[np.repeat(starts + head - (np.cumsum(lengths) - lengths), lengths) + np.arange(named)] = \
-                np.frombuffer(b"".join(encoded), dtype=u8)
-        out[(starts + head + lengths)[:, None] + np.arange(after)] = rest
-        return out.tobytes(), ends.tolist()
+            shape = self._shapes[(order, form)] = text(order) + text(form)
+        return instance_frames(width, shape, names, num_vars, degrees, claims)
 
     def glue_frame(self, record: NamedValue | Opening) -> bytes:
         """The frame a value or an opening is absorbed as (frames absorbed one after another are
@@ -210,11 +168,11 @@ class Sha256Schedule:
         if record.__class__ is Opening:
             self._need_field("opening")
             name, table = record.name.encode("utf-8"), record.table.encode("utf-8")  # type: ignore[union-attr]
-            body = b"".join((_u64(len(name)), name, _u64(len(table)), table, self._el(record.value)))
-            return b"".join((_OPENING_HEAD, _u64(len(body)), body))
+            body = b"".join((u64(len(name)), name, u64(len(table)), table, self._el(record.value)))
+            return b"".join((OPENING_HEAD, u64(len(body)), body))
         field = self._need_field("value")
         items = record.items()  # type: ignore[union-attr]
-        return frame(b"value", _text(record.name) + _u64(int(record.listed)) + _u64(len(items))  # type: ignore[union-attr]
+        return frame(b"value", text(record.name) + u64(int(record.listed)) + u64(len(items))  # type: ignore[union-attr]
                      + pack_elements(field, items))
 
     def glue_stream(self, kinds: Sequence[str], names: Sequence[str], tables: Sequence[str] | None,
@@ -238,33 +196,7 @@ class Sha256Schedule:
                 codes = np.fromiter(map(_GLUE_CODES.__getitem__, kinds), dtype=np.int8, count=len(kinds))
                 return self.flat_glue_stream(codes, names, b"".join(data))
             tables = names
-        u64 = _u64
-        parts: list[bytes] = []
-        ends: list[int] = []
-        cuts: list[int] = []
-        put = parts.extend
-        at = 0
-        for kind, name, table, packed, n, is_list in zip(kinds, names, tables, data, counts, listed):
-            raw = name.encode()
-            size = len(raw)
-            if kind == "opening":
-                label = table.encode()
-                body = 16 + size + len(label) + width
-                put((_OPENING_HEAD, u64(body), u64(size), raw, u64(len(label)), label, packed))
-                at += 16 + body
-            elif kind == "value":
-                body = 24 + size + n * width
-                put((_VALUE_HEAD, u64(body), u64(size), raw, u64(is_list), u64(n), packed))
-                at += 14 + body
-            else:
-                put((_DRAW_HEAD, u64(24 + size), u64(size), raw, u64(is_list), u64(n)))
-                at += 37 + size
-                for j in range(n):
-                    cuts.append(at)
-                    put((head, packed[j * width:(j + 1) * width]))
-                    at += len(head) + width
-            ends.append(at)
-        return b"".join(parts), ends, cuts
+        return glue_stream(width, head, kinds, names, tables, data, counts, listed)
 
     def flat_glue_stream(self, codes: np.ndarray, names: Sequence[str], elements: bytes
                          ) -> tuple[bytes, np.ndarray, np.ndarray]:
@@ -272,7 +204,7 @@ class Sha256Schedule:
         name, built with numpy: event i has kind ``codes[i]`` (0 value, 1 squeeze, 2 opening), name
         ``names[i]`` and its element's packed bytes at ``elements[i * elem_bytes:]``."""
         field = self._need_field("value")
-        return _flat_glue_stream(codes, names, elements, field.elem_bytes, self._challenge_head)
+        return flat_glue_stream(codes, names, elements, field.elem_bytes, self._challenge_head)
 
     def absorb_frames(self, frames: bytes) -> None:
         """Absorb frames made by :meth:`glue_frame`, in order."""
@@ -284,7 +216,7 @@ class Sha256Schedule:
         challenges as :meth:`challenge` does (each absorbed)."""
         self._need_field("a squeeze")
         n = 1 if count is None else count
-        self._absorb(b"draw", _text(name) + _u64(int(count is not None)) + _u64(n))
+        self._absorb(b"draw", text(name) + u64(int(count is not None)) + u64(n))
         values = tuple(self.challenge() for _ in range(n))
         return values[0] if count is None else values
 
@@ -297,7 +229,7 @@ class Sha256Schedule:
         """The frame head for n values and a ``struct`` packer (None: use :func:`pack_elements`)."""
         field = self.field
         assert field is not None
-        head = _ROUND_HEAD + _u64(8 + n * field.elem_bytes) + _u64(n)
+        head = _ROUND_HEAD + u64(8 + n * field.elem_bytes) + u64(n)
         pack = None
         if not field.is_extension and field.base_bytes in (4, 8):
             pack = struct.Struct(f"<{n}{'I' if field.base_bytes == 4 else 'Q'}").pack
@@ -308,13 +240,13 @@ class Sha256Schedule:
     def _set_field(self, field: Field) -> None:
         w = field.base_bytes
         q = field.irreducible if field.is_extension else ()
-        body = _u64(w) + field.p.to_bytes(w, "little") + _u64(field.degree) + b"".join(c.to_bytes(w, "little") for c in q)
+        body = u64(w) + field.p.to_bytes(w, "little") + u64(field.degree) + b"".join(c.to_bytes(w, "little") for c in q)
         self._absorb(b"field", body)
         self.field = field
         self._round_packers.clear()
         self._element_packer = (struct.Struct(f"<{field.degree}{'I' if w == 4 else 'Q'}").pack
                                 if field.is_extension and w in (4, 8) else None)
-        self._challenge_head = frame(b"challenge", b"")[:-8] + _u64(field.elem_bytes)
+        self._challenge_head = frame(b"challenge", b"")[:-8] + u64(field.elem_bytes)
         self._set_sampling(field)
 
     def _set_sampling(self, field: Field) -> None:
@@ -322,7 +254,7 @@ class Sha256Schedule:
         the blocks of its squeeze frames."""
         self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
         blocks = -(-self._wide // 32)
-        self._squeeze_frames = tuple(tuple(frame(b"squeeze", _u64(s) + _u64(j)) for j in range(blocks))
+        self._squeeze_frames = tuple(tuple(frame(b"squeeze", u64(s) + u64(j)) for j in range(blocks))
                                      for s in range(field.degree))
         self._squeezes = tuple(squeeze for frames in self._squeeze_frames for squeeze in frames)
 
@@ -369,11 +301,12 @@ class Sha256Schedule:
         challenge is the one squeezed. ``rows`` holds rows of ``stride`` bytes; row ``first + i``
         is round i's frame (``round_len`` bytes) followed by its challenge's frame (heads from
         :meth:`row_heads`). The digests squeezed for each round are appended to ``digests``
-        (32 bytes each): :attr:`squeezes_per_challenge` of them, sample by sample and block by
-        block within a sample (the wide reduction of a sample's blocks is that challenge
-        coefficient); the caller compares them with the rows' challenges, and the state is that
-        of the schedule only if all are equal. Any field: k samples for a degree-k extension,
-        several blocks per sample for primes of more than 128 bits.
+        (32 bytes each): :attr:`squeezes_per_challenge` of them, as :meth:`absorb_pieces` appends
+        them (``stepper-sha256/1``: sample by sample and block by block within a sample, the wide
+        reduction of a sample's blocks that challenge coefficient; ``stepper-sha256/2``: the B
+        blocks of the challenge's one sample); the caller compares them with the rows' challenges
+        (:meth:`squeezed_rows` lays them out), and the state is that of the schedule only if all
+        are equal. Any field and extension.
 
         The loop is the floor of re-deriving with hashlib from Python: per squeeze a copy of the
         state, an update and a digest. Each digest is appended to one growing byte buffer and
@@ -518,7 +451,7 @@ class OneDigestSchedule(Sha256Schedule):
     def _set_sampling(self, field: Field) -> None:
         self._order = field.p ** field.degree
         self._wide = (self._order.bit_length() + _SECURITY_BITS + 7) // 8
-        self._tails = tuple(_u64(j) for j in range(1, -(-self._wide // 32)))  # D_j = SHA-256(D0 || u64(j))
+        self._tails = tuple(u64(j) for j in range(1, -(-self._wide // 32)))  # D_j = SHA-256(D0 || u64(j))
 
     def _draw(self, field: Field) -> Element:
         d0 = self._state.digest()
@@ -587,59 +520,3 @@ def schedule_for(name: str) -> Sha256Schedule:
     if kind is None:
         raise UsageError(f"expected a built-in schedule ({', '.join(BUILTIN_SCHEDULES)}), found {name!r}")
     return kind()
-
-
-def _flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int,
-                      challenge_head: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
-    """:meth:`Sha256Schedule.glue_stream` of glue events of one element each, every opening's table
-    its own name, built with numpy: each frame is eight pieces (a head, two or three u64 numbers,
-    the name once or twice, the challenge head of a squeeze, the element; an unused slot is empty)
-    taken from one source buffer (the fixed heads, the u64 bytes of every number a frame holds,
-    the names joined, the elements) by one gather."""
-    import numpy as np
-
-    u8, n = np.uint8, len(names)
-    lengths = np.fromiter(map(len, names), dtype=np.int64, count=n)
-    value, squeeze = kind == 0, kind == 1
-    body = np.where(kind == 2, 16 + 2 * lengths + width, np.where(value, 24 + lengths + width, 24 + lengths))
-    numbers = 1 << max(int(body.max()) if n else 0, 1).bit_length()  # u64 of 0 .. numbers - 1 in the table
-    joined = "\n".join(names).encode()
-    fixed = b"".join((_VALUE_HEAD, _DRAW_HEAD, _OPENING_HEAD, challenge_head))
-    value_head, draw_head, opening_head = 0, len(_VALUE_HEAD), len(_VALUE_HEAD) + len(_DRAW_HEAD)
-    chead = opening_head + len(_OPENING_HEAD)
-    u64_at = len(fixed)  # u64(v) at u64_at + 8 v
-    source = np.concatenate((np.frombuffer(fixed, dtype=u8), _u64_table(numbers), np.frombuffer(joined, dtype=u8),
-                             np.frombuffer(elements, dtype=u8)))
-    name_at = np.cumsum(lengths + 1) - lengths - 1 + u64_at + 8 * numbers  # each name in the source
-    element_at = u64_at + 8 * numbers + len(joined) + np.arange(n, dtype=np.int64) * width
-    zero, one = np.full(n, u64_at), np.full(n, u64_at + 8)
-    eight = np.full(n, 8)
-    # the eight pieces of each frame: (where in the source, how long)
-    src = np.stack((np.where(value, value_head, np.where(squeeze, draw_head, opening_head)), u64_at + 8 * body,
-                    u64_at + 8 * lengths, name_at, np.where(kind == 2, u64_at + 8 * lengths, zero),
-                    np.where(kind == 2, name_at, one), np.where(squeeze, chead, element_at),
-                    element_at), axis=1)
-    size = np.stack((np.where(value, len(_VALUE_HEAD), np.where(squeeze, len(_DRAW_HEAD), len(_OPENING_HEAD))),
-                     eight, eight, lengths, eight, np.where(kind == 2, lengths, 8),
-                     np.where(squeeze, len(challenge_head), width), np.where(squeeze, width, 0)), axis=1)
-    flat_size = size.ravel()
-    ends_of_pieces = np.cumsum(flat_size)
-    total = int(ends_of_pieces[-1]) if n else 0
-    # each output byte's place in the source: 32-bit where it fits, summed in place (the 64-bit sum of two temporaries of the
-    # stream's length took 2-3x as long: python3 bench/glue.py's flushes of 8192 events, 5.4-6.3 ms -> 1.7-2.6 ms)
-    small = np.int32 if max(total, len(source)) < 1 << 31 else np.int64
-    index = np.repeat((src.ravel() - (ends_of_pieces - flat_size)).astype(small), flat_size)
-    index += np.arange(total, dtype=small)
-    out = source.take(index)
-    ends = ends_of_pieces[7::8]
-    offsets = ends - size.sum(axis=1)
-    cuts = (offsets + 37 + lengths)[squeeze]
-    return out.tobytes(), ends, cuts
-
-
-@lru_cache(maxsize=8)
-def _u64_table(numbers: int) -> np.ndarray:
-    """The u64 bytes of 0 .. numbers - 1, one after another."""
-    import numpy as np
-
-    return np.arange(numbers, dtype="<u8").view(np.uint8)

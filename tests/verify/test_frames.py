@@ -1,0 +1,62 @@
+"""stepper.verify.frames builds, for many records at once, the frames the built-in schedules absorb.
+
+Expected bytes are written out by hand from transcripts/FIAT-SHAMIR.md ("State and framing", "What is
+absorbed, in order"): frame = u8(len(tag)) || tag || u64le(len(body)) || body. The framing is ours
+(length-prefixed, domain-separated messages are common practice, no source).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from stepper.verify.frames import flat_glue_stream, frame, glue_stream, instance_frames, text, u64
+
+SHAPE = text("low-first") + text("evals")
+
+
+def by_hand(tag: bytes, body: bytes) -> bytes:
+    return bytes([len(tag)]) + tag + len(body).to_bytes(8, "little") + body
+
+
+def test_a_frame_is_the_tag_and_the_body_each_after_its_length():
+    assert frame(b"draw", b"xy") == b"\x04draw" + b"\x02" + bytes(7) + b"xy"
+    assert u64(258) == b"\x02\x01" + bytes(6)
+    assert text("é") == b"\x02" + bytes(7) + b"\xc3\xa9"  # UTF-8 bytes, counted as bytes
+
+
+def test_instance_frames_are_each_statement_framed_in_turn_with_where_each_ends():
+    names, claims = ["boarding-permutation", "", "deck-ü"], (38).to_bytes(4, "little") + bytes(4) + b"\x01\x02\x03\x04"
+    frames, ends = instance_frames(4, SHAPE, names, [2, 1, 7], [2, 0, 3], claims)
+    expected = [by_hand(b"instance", u64(len(name.encode())) + name.encode() + u64(v) + u64(d) + SHAPE
+                        + claims[4 * i:4 * i + 4])
+                for i, (name, v, d) in enumerate(zip(names, [2, 1, 7], [2, 0, 3]))]
+    assert frames == b"".join(expected)
+    assert ends == [sum(map(len, expected[:i + 1])) for i in range(3)]
+    with pytest.raises(ValueError, match="expected 3 claims of 4 bytes"):
+        instance_frames(4, SHAPE, names, [2, 1, 7], [2, 0, 3], claims[:-1])
+
+
+def test_the_glue_stream_frames_values_openings_and_draws_and_marks_each_squeeze():
+    head = by_hand(b"challenge", bytes(4))[:-4]  # a challenge frame's bytes before its element
+    one, two = (5).to_bytes(4, "little"), (6).to_bytes(4, "little")
+    stream, ends, cuts = glue_stream(4, head, ["value", "opening", "squeeze"], ["tau", "f.at.r", "w"],
+                                     ["tau", "f", "w"], [one + two, one, one + two], [2, 1, 2], [True, False, True])
+    value = by_hand(b"value", text("tau") + u64(1) + u64(2) + one + two)
+    opening = by_hand(b"opening", text("f.at.r") + text("f") + one)
+    draw = by_hand(b"draw", text("w") + u64(1) + u64(2))
+    assert stream == value + opening + draw + head + one + head + two
+    at = len(value + opening + draw)
+    assert ends == [len(value), len(value + opening), len(stream)]
+    assert cuts == [at, at + len(head) + 4]  # a challenge is squeezed before each challenge frame
+
+
+def test_the_flat_glue_stream_is_the_glue_stream_of_one_element_each():
+    import numpy as np
+
+    head = by_hand(b"challenge", bytes(8))[:-8]
+    kinds, names = ["value", "squeeze", "opening", "opening", "squeeze"], ["a", "beta.0", "c_1", "a", "zz"]
+    data = [(7 * i + 1).to_bytes(8, "little") for i in range(5)]
+    expected = glue_stream(8, head, kinds, names, names, data, [1] * 5, [False] * 5)
+    codes = np.array([{"value": 0, "squeeze": 1, "opening": 2}[kind] for kind in kinds], dtype=np.int8)
+    stream, ends, cuts = flat_glue_stream(codes, names, b"".join(data), 8, head)
+    assert (stream, list(ends), list(cuts)) == (expected[0], list(expected[1]), list(expected[2]))
