@@ -72,8 +72,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--label", default="", help="label stored in the transcript")
     parser.add_argument("--schedule", choices=SCHEDULES, default=SCHEDULES[0], metavar="NAME",
                         help=f"the built-in Fiat-Shamir schedule the challenges come from: {', '.join(SCHEDULES)} "
-                             f"(default {SCHEDULES[0]}; {SCHEDULES[1]} hashes once per challenge, the faster "
-                             f"to check in extension fields)")
+                             f"(default {SCHEDULES[0]}; {SCHEDULES[1]} takes one digest of the state per challenge, "
+                             f"the faster to check in extension fields)")
     parser.add_argument("--json", action="store_true", help="print the run summary as JSON")
 
 
