@@ -699,7 +699,7 @@ def resealed(data: bytes) -> bytes:
 
 
 @pytest.mark.parametrize("field", ["goldilocks", "bn254", "bls12-381", "babybear^4"])  # each block kernel's kind
-@pytest.mark.parametrize("schedule", ["builtin", "none"])
+@pytest.mark.parametrize("schedule", ["builtin", "builtin2", "none"])
 def test_hostile_mutations_never_crash_and_check_the_same_either_way(tmp_path, capsys, monkeypatch, field, schedule):
     written = write_transcript(tmp_path / "seed.sumtr", Knobs(field=field, schedule=schedule, instances=10,
                                                             max_vars=5, max_degree=3, seed=9))
