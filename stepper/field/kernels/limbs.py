@@ -222,8 +222,7 @@ class LimbKernel(Kernel):
             if i:
                 np.multiply(a[i], b, out=product)
                 t[i:i + n] += product
-            np.bitwise_and(t[i], _MASK, out=m)
-            m *= q
+            np.multiply(t[i], q, out=m)  # mod 2^64: its low 29 bits are those of (t_i mod 2^29) q
             m &= _MASK
             np.multiply(m, p_limbs, out=product)
             t[i:i + n] += product
