@@ -18,7 +18,10 @@ Then, interleaved in ``--repeat`` rounds (best of each), in this process, CPU se
   whole-file sweep (said beside the figures; a file that it gives up on is replayed
   event by event), so this ratio is what a user sees (target <= 1.5x);
 * replay: ``open_events`` + ``Replay.feed_all`` on each file: the same replay path
-  for both, so this ratio is the cost of the glue checks themselves.
+  for both, so this ratio is the cost of the glue checks themselves;
+* fresh: ``python3 -m stepper check FILE`` in a fresh process per file, the child's CPU
+  seconds from ``wait4`` (the helpers of bench/check.py): what a user's command costs,
+  interpreter start-up and imports included (the same on both sides), with the same target.
 
     python3 bench/glue.py                          # about a minute
     python3 bench/glue.py --instances 2000 --repeat 1
@@ -45,6 +48,8 @@ from stepper.transcript.model import (  # noqa: E402
 )
 from stepper.transcript.store import TranscriptWriter, open_events  # noqa: E402
 from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule  # noqa: E402
+
+from check import _child  # noqa: E402  (bench/ is the script's folder, first on sys.path; bench/check.py's helpers)
 
 DEGREE = 3
 
@@ -133,6 +138,13 @@ def time_replay(path: Path) -> float:
     return cpu() - start
 
 
+def time_fresh(path: Path) -> float:
+    """CPU seconds (user + system) of ``python3 -m stepper check FILE`` in a fresh process."""
+    _, seconds, _, code = _child([sys.executable, "-m", "stepper", "check", str(path)])
+    assert code == 0, f"check {path.name} in a fresh process exited {code}"
+    return seconds
+
+
 def write_pair(folder: Path, instances: int, rounds: int) -> tuple[Path, Path]:
     """The plain and the glued transcript of the same rounds, written into ``folder``."""
     plain, glued = folder / "plain.sumtr", folder / "glue.sumtr"
@@ -160,7 +172,9 @@ def main() -> int:
                 best[f"check {label}"] = min(best.get(f"check {label}", seconds), seconds)
                 seconds = time_replay(path)
                 best[f"replay {label}"] = min(best.get(f"replay {label}", seconds), seconds)
-        for key in ("check plain", "check glue", "replay plain", "replay glue"):
+                seconds = time_fresh(path)
+                best[f"fresh {label}"] = min(best.get(f"fresh {label}", seconds), seconds)
+        for key in ("check plain", "check glue", "replay plain", "replay glue", "fresh plain", "fresh glue"):
             print(f"  {key:<13} {best[key]:7.3f} s CPU (best of {args.repeat})")
         paths = {label: "the whole-file sweep" if takes_sweep(path) else "the event-by-event replay"
                  for label, path in (("plain", plain), ("glue", glued))}
@@ -168,6 +182,8 @@ def main() -> int:
               f"takes {paths['plain']}, the glue file {paths['glue']})")
         print(f"replay glue/plain: {best['replay glue'] / best['replay plain']:.2f}x  (the same replay path: the "
               f"cost of the glue checks themselves)")
+        print(f"fresh  glue/plain: {best['fresh glue'] / best['fresh plain']:.2f}x  (target <= 1.5x; "
+              f"`python3 -m stepper check FILE` in fresh processes, the child's CPU, start-up included)")
     return 0
 
 

@@ -186,6 +186,8 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
             "vs the same proof without glue (CPU, in process)", "python3 bench/glue.py", "<= 1.5x",
             _first(r"^check\s+glue/plain: ([\d.]+)x[\s\S]*?^replay glue/plain: ([\d.]+)x",
                    lambda m: f"{m[1]}x (replay path alone {m[2]}x)")),
+        Row("the same, `python3 -m stepper check FILE` in fresh processes (CPU of the child, start-up included)",
+            "python3 bench/glue.py", "<= 1.5x", _first(r"^fresh\s+glue/plain: ([\d.]+)x", lambda m: f"{m[1]}x")),
     ]),
 }
 
