@@ -68,7 +68,8 @@ from stepper.transcript.model import FieldDecl, InstanceStart, ScheduleDecl  # n
 from stepper.transcript.payloads import to_payload  # noqa: E402
 from stepper.transcript.store import TranscriptWriter  # noqa: E402
 from stepper.transcript.store.writer import end_payload, header_bytes  # noqa: E402
-from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, schedule_for  # noqa: E402
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES  # noqa: E402
+from stepper.verify.schedules import schedule_for  # noqa: E402
 from stepper.verify.packed_runs import layout_of  # noqa: E402
 
 DEGREE = 3

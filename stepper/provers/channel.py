@@ -5,7 +5,7 @@ A :class:`ProofChannel` turns a reference prover's messages into event records
 ``write(record)`` method, such as :class:`stepper.transcript.store.TranscriptWriter`, the
 in-memory :class:`ListSink`, or :class:`JsonLinesSink` for the event stream of
 ``stepper record``. Challenges come from a built-in Fiat-Shamir schedule chosen by name
-(:func:`stepper.verify.fiatshamir.schedule_for`; ``stepper-sha256/1`` unless told otherwise,
+(:func:`stepper.verify.schedules.schedule_for`; ``stepper-sha256/1`` unless told otherwise,
 so what the provers write stays as it was), declared by a ``schedule`` event, which observes
 exactly what is sent, so ``stepper check`` re-derives every one.
 
@@ -26,7 +26,8 @@ from typing import IO, TYPE_CHECKING, Any, Protocol, Sequence
 import numpy as np
 
 from stepper.errors import UsageError
-from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule, schedule_for
+from stepper.verify.fiatshamir import SCHEDULE_NAME, Sha256Schedule
+from stepper.verify.schedules import schedule_for
 from stepper.field.poly import RoundPoly
 from stepper.provers.faults import Fault, montgomery_radix
 from stepper.transcript.model import (

@@ -2,7 +2,7 @@
 
 :class:`ChallengeSource` sees every record the replay sees, in order. With a
 built-in schedule declared (and no plug-in) it absorbs them into that schedule's object
-(:func:`stepper.verify.fiatshamir.schedule_for`: ``stepper-sha256/1`` or ``/2``); with a plug-in it keeps the plain
+(:func:`stepper.verify.schedules.schedule_for`: ``stepper-sha256/1`` or ``/2``); with a plug-in it keeps the plain
 history the plug-in is called with (:mod:`stepper.verify.binding`) and runs the
 binding probe on the first ``probe_instances`` instances. Memory is constant
 for the built-in schedule; the plug-in history grows with the proof.
@@ -20,7 +20,8 @@ from stepper.verify.binding import (Challenger, History, PluginFailure, call_cha
                                     history_payload, plugin_name, probe_binding)
 from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
-from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule, schedule_for
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
+from stepper.verify.schedules import schedule_for
 from stepper.transcript.model import FieldDecl, ScheduleDecl
 from stepper.verify.stateful import GuardedStateful, is_stateful
 from stepper.verify.verdict import Finding

@@ -25,7 +25,7 @@ Rules kept here:
   samples (k = extension degree); sample s reads L = ceil((bits(p) + 128) / 8) bytes
   from SHA-256 blocks of ``state || frame("squeeze", s, j)``, j = 0, 1, ..., as a
   little-endian integer and reduces it mod p (wide reduction: bias below 2^-128).
-* ``stepper-sha256/2`` (:class:`OneDigestSchedule`): the same framing, another domain;
+* ``stepper-sha256/2`` (:class:`~stepper.verify.one_digest.OneDigestSchedule`, its own module): the same framing, another domain;
   a challenge is one sample of L = ceil((bits(p^k) + 128) / 8) bytes read from
   D0 = SHA-256 of the state (``digest()``: no squeeze frame, no copy) and, past 32
   bytes, D_j = SHA-256(D0 || u64(j)); it is reduced mod p^k and its base-p digits are
@@ -52,7 +52,7 @@ import struct
 from operator import itemgetter
 from typing import TYPE_CHECKING, Callable, Sequence
 
-from stepper.errors import InputError, UsageError
+from stepper.errors import InputError
 from stepper.transcript.packed import GLUE_CODES, pack_elements
 from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
 from stepper.verify.frames import INSTANCE_HEAD, OPENING_HEAD, flat_glue_stream, frame, glue_stream, instance_frames, text, u64
@@ -63,13 +63,13 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event
 
-__all__ = ["SCHEDULE_NAME", "ONE_DIGEST_SCHEDULE_NAME", "BUILTIN_SCHEDULES", "Sha256Schedule", "OneDigestSchedule",
-           "schedule_for", "frame"]
+__all__ = ["SCHEDULE_NAME", "ONE_DIGEST_SCHEDULE_NAME", "BUILTIN_SCHEDULES", "SECURITY_BITS", "Sha256Schedule",
+           "frame"]
 
 SCHEDULE_NAME = "stepper-sha256/1"
 ONE_DIGEST_SCHEDULE_NAME = "stepper-sha256/2"
 BUILTIN_SCHEDULES: tuple[str, ...] = (SCHEDULE_NAME, ONE_DIGEST_SCHEDULE_NAME)
-_SECURITY_BITS = 128
+SECURITY_BITS = 128  # the wide reduction: a sample is read with this many bits more than the field needs
 _ROUND_HEAD = bytes([5]) + b"round"
 _PAIR = struct.Struct("<QQ")  # two u64 of a frame body
 _GLUE_CODES = {kind: code for code, kind in enumerate(GLUE_CODES)}
@@ -98,7 +98,7 @@ class Sha256Schedule:
     @property
     def wide_bytes(self) -> int:
         """Bytes of squeezed output reduced for one sample (0 before the field): mod p for one base
-        coefficient here, mod p^k for a whole challenge in :class:`OneDigestSchedule`."""
+        coefficient here, mod p^k for a whole challenge in :class:`~stepper.verify.one_digest.OneDigestSchedule`."""
         return self._wide
 
     def state_digest(self) -> bytes:
@@ -252,7 +252,7 @@ class Sha256Schedule:
     def _set_sampling(self, field: Field) -> None:
         """What a challenge is drawn from in ``field``: k samples of ``_wide`` bytes, each read from
         the blocks of its squeeze frames."""
-        self._wide = (field.p.bit_length() + _SECURITY_BITS + 7) // 8
+        self._wide = (field.p.bit_length() + SECURITY_BITS + 7) // 8
         blocks = -(-self._wide // 32)
         self._squeeze_frames = tuple(tuple(frame(b"squeeze", u64(s) + u64(j)) for j in range(blocks))
                                      for s in range(field.degree))
@@ -384,7 +384,7 @@ class Sha256Schedule:
     def squeezed_rows(self, digests: bytes | bytearray, count: int) -> np.ndarray:
         """The samples of ``count`` challenges whose digests :meth:`absorb_pieces` appended, one row
         (uint8, its first :attr:`wide_bytes` bytes little-endian) per sample: k rows per challenge
-        here, one per challenge in :class:`OneDigestSchedule`."""
+        here, one per challenge in :class:`~stepper.verify.one_digest.OneDigestSchedule`."""
         import numpy as np
 
         return np.frombuffer(digests, dtype=np.uint8).reshape(count * self._need_field("a sample").degree, -1)
@@ -435,88 +435,3 @@ class Sha256Schedule:
             return h.digest()
 
         return block
-
-
-class OneDigestSchedule(Sha256Schedule):
-    """The ``stepper-sha256/2`` schedule: the framing of ``stepper-sha256/1``, its own domain, and one
-    sample of L = ceil((bits(p^k) + 128) / 8) bytes per challenge, reduced mod p^k, whose base-p
-    digits are the challenge's coefficients (constant first). The sample is D0 = SHA-256 of the state
-    (hashlib's ``digest()`` leaves the running state as it is), then D_j = SHA-256(D0 || u64(j)) for
-    j = 1 .. B-1, B = ceil(L / 32): one digest per challenge whenever L <= 32."""
-
-    name = ONE_DIGEST_SCHEDULE_NAME
-    whole_element = True
-    _tails: tuple[bytes, ...] = ()  # u64(1) .. u64(B - 1), set with the field
-
-    def _set_sampling(self, field: Field) -> None:
-        self._order = field.p ** field.degree
-        self._wide = (self._order.bit_length() + _SECURITY_BITS + 7) // 8
-        self._tails = tuple(u64(j) for j in range(1, -(-self._wide // 32)))  # D_j = SHA-256(D0 || u64(j))
-
-    def _draw(self, field: Field) -> Element:
-        d0 = self._state.digest()
-        stream = d0 + b"".join(hashlib.sha256(d0 + tail).digest() for tail in self._tails)
-        value = int.from_bytes(stream[:self._wide], "little") % self._order
-        if not field.is_extension:
-            return value
-        p, digits = field.p, []
-        for _ in range(field.degree):
-            value, digit = divmod(value, p)
-            digits.append(digit)
-        return tuple(digits)
-
-    def absorb_pieces(self, pieces: Sequence[bytes | memoryview], digests: bytearray) -> None:
-        """As :meth:`Sha256Schedule.absorb_pieces`, with each challenge's B blocks appended (32 bytes
-        each): D0, one ``digest()`` of the running state, then D1 .. D(B-1), one-shot hashes of D0 made
-        in the same loop (B = 2 for BN254 and BLS12-381, 1 for every other named field; hashed here
-        rather than from the digests afterwards, which cost a slice of them per block besides)."""
-        update, digest = self._state.update, self._state.digest
-        out = digests
-        update(pieces[0])
-        tails = self._tails
-        if not tails:
-            for piece in pieces[1:]:
-                out += digest()
-                update(piece)
-            return
-        sha256 = hashlib.sha256
-        if len(tails) == 1:
-            tail, = tails
-            for piece in pieces[1:]:
-                first = digest()
-                out += first
-                out += sha256(first + tail).digest()
-                update(piece)
-            return
-        for piece in pieces[1:]:
-            first = digest()
-            out += first
-            for tail in tails:
-                out += sha256(first + tail).digest()
-            update(piece)
-
-    @property
-    def squeezes_per_challenge(self) -> int:
-        """32-byte blocks :meth:`absorb_pieces` appends for one challenge: B, those of its sample."""
-        return 1 + len(self._tails)
-
-    def squeezed_rows(self, digests: bytes | bytearray, count: int) -> np.ndarray:
-        """One row per challenge: its B blocks D0 .. D(B-1), as :meth:`absorb_pieces` appended them."""
-        import numpy as np
-
-        return np.frombuffer(digests, dtype=np.uint8).reshape(count, 32 * (1 + len(self._tails)))
-
-    def _one_block_digest(self) -> Callable[[], bytes] | None:
-        return self._state.digest if not self._tails else None
-
-
-_SCHEDULES: dict[str, type[Sha256Schedule]] = {SCHEDULE_NAME: Sha256Schedule,
-                                               ONE_DIGEST_SCHEDULE_NAME: OneDigestSchedule}
-
-
-def schedule_for(name: str) -> Sha256Schedule:
-    """A fresh built-in schedule of this name; :class:`UsageError` naming the built-in ones otherwise."""
-    kind = _SCHEDULES.get(name)
-    if kind is None:
-        raise UsageError(f"expected a built-in schedule ({', '.join(BUILTIN_SCHEDULES)}), found {name!r}")
-    return kind()

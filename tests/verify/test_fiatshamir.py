@@ -13,7 +13,8 @@ import hashlib
 import pytest
 
 from stepper.errors import InputError
-from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, SCHEDULE_NAME, Sha256Schedule, schedule_for
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, SCHEDULE_NAME, Sha256Schedule
+from stepper.verify.schedules import schedule_for
 from stepper.field.field import NAMED_PRIMES, get_field
 from stepper.transcript.model import ChallengeMsg, FieldDecl, InstanceStart, Note, RoundMsg, ScheduleDecl
 

@@ -2,7 +2,7 @@
 
 Everything expected here comes from a from-scratch implementation written in this file and the framing
 helpers of tests/verify/test_fiatshamir.py (hashlib and plain Python integers; nothing of
-stepper.verify.fiatshamir is used by it) following
+stepper.verify is used by it) following
 transcripts/FIAT-SHAMIR.md, and is also pinned as hex. The framing is /1's (tests/verify/test_fiatshamir.py
 pins it); /2 changes the domain and how a challenge is drawn: D0 = SHA-256 of the state, further
 blocks SHA-256(D0 || u64(j)), the first L bytes little-endian mod p^k, cut into base-p digits.
@@ -21,8 +21,9 @@ import pytest
 from stepper.errors import InputError, UsageError
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
 from stepper.transcript.model import FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
-from stepper.verify.fiatshamir import (BUILTIN_SCHEDULES, ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, OneDigestSchedule,
-                                       Sha256Schedule, schedule_for)
+from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, Sha256Schedule
+from stepper.verify.one_digest import OneDigestSchedule
+from stepper.verify.schedules import schedule_for
 from tests.verify.test_fiatshamir import assert_glue_vectors, el, frame, text, u64  # shared with /1's tests
 
 P = NAMED_PRIMES["babybear"]  # 2^31 - 2^27 + 1, common practice, no source

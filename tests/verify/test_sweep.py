@@ -32,7 +32,8 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer a
 from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
 from stepper.cli.check_text import render  # noqa: E402
 from stepper.cli.main import main  # noqa: E402
-from stepper.verify.fiatshamir import ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, schedule_for  # noqa: E402
+from stepper.verify.fiatshamir import ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME  # noqa: E402
+from stepper.verify.schedules import schedule_for  # noqa: E402
 import stepper.verify.packed_runs as packed_runs  # noqa: E402
 import stepper.verify.sweep as sweep_module  # noqa: E402
 from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
