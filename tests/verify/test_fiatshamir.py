@@ -1,5 +1,5 @@
 """The built-in schedule stepper-sha256/1 matches its written description byte for byte
-(stepper-sha256/2: tests/verify/test_fiatshamir_sha256_2.py).
+(stepper-sha256/2: tests/verify/test_one_digest.py).
 
 The bytes below are built by hand from transcripts/FIAT-SHAMIR.md and hashed with
 hashlib directly, so the test checks the document, not the module against itself.

@@ -18,10 +18,9 @@ import random
 
 import pytest
 
-from stepper.errors import InputError, UsageError
 from stepper.field.field import DEFAULT_IRREDUCIBLES, NAMED_PRIMES, get_field
 from stepper.transcript.model import FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
-from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME, Sha256Schedule
+from stepper.verify.fiatshamir import Sha256Schedule
 from stepper.verify.one_digest import OneDigestSchedule
 from stepper.verify.schedules import schedule_for
 from tests.verify.test_fiatshamir import assert_glue_vectors, el, frame, text, u64  # shared with /1's tests
@@ -271,34 +270,6 @@ def test_the_fused_step_and_the_sweep_s_digests_give_what_observe_then_challenge
         return
     got = rederive(kernel, swept, digests, 6, (6, k) if k > 1 else (6,))
     assert np.array_equal(got, np.array(expected, dtype=np.uint64))
-
-
-# ----- choosing the schedule ----------------------------------------------------------------------
-
-def test_both_schedules_are_built_in_and_chosen_by_name():
-    assert BUILTIN_SCHEDULES == (SCHEDULE_NAME, ONE_DIGEST_SCHEDULE_NAME) == ("stepper-sha256/1", NAME)
-    assert type(schedule_for(SCHEDULE_NAME)) is Sha256Schedule
-    assert type(schedule_for(NAME)) is OneDigestSchedule
-    with pytest.raises(UsageError, match="stepper-sha256/1, stepper-sha256/2.*'stepper-sha256/3'"):
-        schedule_for("stepper-sha256/3")
-
-
-def test_each_schedule_refuses_a_declaration_of_the_other():
-    for mine, other in ((SCHEDULE_NAME, NAME), (NAME, SCHEDULE_NAME)):
-        s = schedule_for(mine)
-        s.observe(FieldDecl(get_field(P)))
-        with pytest.raises(InputError, match=f"expected the schedule {mine}"):
-            s.observe(ScheduleDecl(other))
-
-
-def test_the_two_schedules_give_different_challenges_for_the_same_records():
-    challenges = []
-    for name in BUILTIN_SCHEDULES:
-        s = schedule_for(name)
-        s.observe(FieldDecl(get_field(P)))
-        s.observe(InstanceStart(0, "boarding-permutation", 2, 2, 38))
-        challenges.append(s.round_challenge(ROUND1))
-    assert challenges[0] != challenges[1]
 
 
 # 2^100 - 15 (sympy.prevprime(2**100)) over X^3 + X + 5 (irreducible by galois Poly.is_irreducible): bits(p^3) = 300,
