@@ -381,6 +381,11 @@ def main() -> None:
     args = parse_args()
     started = time.perf_counter()
     names = [n for n in args.fields.split(",") if n]
+    unknown = [n for n in names if n not in FIELDS]
+    if unknown:
+        print(f"check_fields.py: expected --fields among {', '.join(FIELDS)}, found {', '.join(unknown)}",
+              file=sys.stderr)
+        raise SystemExit(2)
     schedules = list(BUILTIN_SCHEDULES) if args.schedule == "both" else [args.schedule]
     print(f"{args.instances} instances x {args.rounds} rounds, degree {DEGREE}; CPU seconds, fresh processes, "
           f"best of {args.repeat} interleaved")
