@@ -130,9 +130,12 @@ def _alike(u8: np.ndarray, at: int, period: int, count: int, fixed: np.ndarray, 
     round size, up to the first that does not (of ``count``)."""
     import numpy as np
 
+    periods = u8[at:at + period * count].reshape(count, period)  # one view: no gather of every fixed byte
+    compared = np.zeros(period, dtype=bool)
+    compared[fixed] = True
+    same = ~((periods != periods[0]) & compared).any(axis=1)
     starts = at + period * np.arange(count)
-    same = (u8[starts[:, None] + fixed] == u8[at + fixed]).all(axis=1)
-    degrees = u8[starts + degree_at]
+    degrees = periods[:, degree_at]
     same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
     count = int(np.argmin(same)) if not same.all() else count
     return starts[:count], degrees[:count]
