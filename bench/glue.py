@@ -12,7 +12,7 @@ stepper-sha256/1, with the same round sizes:
   after the first declares ``claim_expr`` ``a + beta*b`` over the previous instance's
   openings (the claim is built that way). Every glue check passes.
 
-Then, interleaved in ``--repeat`` rounds (best of each), in this process, CPU seconds:
+Then, interleaved in ``--repeat`` rounds (best of each), CPU seconds (the first two in this process):
 
 * check: ``stepper check FILE`` (text output to /dev/null) on each file: both take the
   whole-file sweep (said beside the figures; a file that it gives up on is replayed
