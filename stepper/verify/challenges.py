@@ -137,7 +137,7 @@ class ChallengeSource:
         if self.schedule is not None:
             return f"re-derived by the built-in schedule {self.schedule.name}"
         if self.decl is not None:
-            return f"not re-derived: schedule {self.decl.name!r} is not built in (use --challenges)"
+            return f"not re-derived: schedule {self.decl.name!r} {_not_built_in(self.decl.name)} (use --challenges)"
         return "not re-derived: the transcript declares no schedule"
 
     def deriver(self) -> str:
@@ -170,8 +170,8 @@ class ChallengeSource:
         elif self.challenger is None:
             self.findings.append(Finding(
                 "challenges-unchecked", "info",
-                f"the transcript declares the schedule {decl.name!r}, which is not built in: challenges were not "
-                f"re-derived (give --challenges MODULE:FUNCTION to check them)"))
+                f"the transcript declares the schedule {decl.name!r}, which {_not_built_in(decl.name)}: "
+                f"challenges were not re-derived (give --challenges MODULE:FUNCTION to check them)"))
 
     def before_statement(self) -> None:
         """A batch or instance is next: the default schedule applies if none was declared."""
@@ -250,3 +250,12 @@ class ChallengeSource:
             self.stateful.absorb(payload, Where())
         elif self.history is not None:
             self.history.append(payload)
+
+
+def _not_built_in(name: str) -> str:
+    """Words for a declared schedule that is not built in; for a name in stepper's own namespace
+    they say this version does not know it (a file from a newer stepper is checked here without
+    its challenges, and says so)."""
+    if not name.startswith("stepper-"):
+        return "is not built in"
+    return f"is not built into this stepper (it knows {', '.join(BUILTIN_SCHEDULES)}; a newer one may)"

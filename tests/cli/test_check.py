@@ -150,6 +150,17 @@ def test_foreign_schedule_is_reported_as_not_re_derived(tmp_path, capsys):
     assert [f["kind"] for f in data["findings"]] == ["challenges-unchecked"]
 
 
+def test_unknown_schedule_of_stepper_own_namespace_names_the_ones_this_version_knows(tmp_path, capsys):
+    payloads = honest()
+    payloads.insert(1, {"type": "schedule", "name": "stepper-sha256/9", "label": "gate"})
+    code, out, _ = check(capsys, str(write_jsonl(tmp_path / "run.jsonl", payloads)), "--json")
+    data = conforming(out, "check")
+    assert code == 0 and data["challenges"].startswith("not re-derived")
+    assert "knows stepper-sha256/1, stepper-sha256/2; a newer one may" in data["challenges"]
+    (finding,) = data["findings"]
+    assert finding["kind"] == "challenges-unchecked" and "a newer one may" in finding["message"]
+
+
 def test_missing_file_and_bad_flags_exit_2(tmp_path, capsys):
     assert check(capsys, str(tmp_path / "absent.sumtr"))[0] == 2
     path = write_jsonl(tmp_path / "run.jsonl", honest())
