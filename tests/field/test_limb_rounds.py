@@ -136,3 +136,24 @@ def test_montgomery_form_is_x_times_r_mod_p_below_2p_with_carried_limbs(p):
     # plain Python integers: x R mod p, and the value itself below 2p (the bound the Horner plan assumes)
     assert [v % p for v in as_ints] == [x * r_factor % p for x in values]
     assert all(v < 2 * p for v in as_ints)
+
+
+@pytest.mark.parametrize("p", PRIMES + [int(sympy.nextprime(2**288)), int(sympy.prevprime(2**290))])
+def test_montgomery_form_stays_in_range_where_the_folded_sum_is_a_multiple_of_p_or_next_to_one(p):
+    # The fold sums to x R mod p plus some multiple of p, so x = 0 mod p lands exactly on a multiple of p
+    # and x = +-R^-1 mod p one above or below one: the values where rounding the floating-point quotient
+    # decides between two results (the extra primes, sympy.nextprime / prevprime, are the first with
+    # n = 11 limbs and the last with n = 10, where the product carries change). Plain Python integers.
+    k = kernel(p)
+    r_factor = 1 << (29 * k.n)
+    r_inverse = pow(r_factor, -1, p)
+    largest = (r_factor - 1) // p  # the most multiples of p below 2^(29 n)
+    values = []
+    for multiple in (0, 1, 2, largest // 2, largest - 1, largest):
+        values += [multiple * p, multiple * p + r_inverse, multiple * p + p - r_inverse]
+    values = [v for v in values if v < r_factor]
+    got = montgomery_form(k, major(k, values))
+    as_ints = [sum(int(got[i, c]) << (29 * i) for i in range(k.n)) for c in range(len(values))]
+    assert [v % p for v in as_ints] == [x * r_factor % p for x in values]
+    assert all(p // 2 - 1 < v < 3 * p // 2 + 1 for v in as_ints)  # the range the docstring argues
+    assert [v for v, x in zip(as_ints, values) if x % p == 0] == [p] * sum(x % p == 0 for x in values)

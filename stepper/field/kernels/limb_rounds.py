@@ -116,7 +116,8 @@ def rounds_congruent(kernel: LimbKernel, columns: np.ndarray, points: np.ndarray
     acc = _normalise(_scaled(coefficients[m - 1], weights[m - 1], offsets[m - 1], p_limbs)).view(np.uint64)
     # the points (r - k) R mod p are r R mod p plus a constant below p, not carried: limbs below 2^30, so a
     # product's limbs left as summed are below n 2^59 + n 2^58 + 2^35 and fit signed 64-bit limbs with the
-    # term added (its limbs below 2^41) while 3 n 2^58 + 2^41 < 2^63, n <= 10 (BN254 and BLS12-381: 9)
+    # term added (its limbs below 2^41) while 3 n 2^58 + 2^41 < 2^63, n <= 10 (BN254: n = 9; BLS12-381's
+    # n = 14 and every prime above 288 bits carry each product)
     carried = (3 * kernel.n << 58) + (1 << 41) >= _INT64_LIMB
     for k in range(m - 2, -1, -1):
         shift = r_mont if k == 0 else r_mont + kernel._column(-k * (1 << kernel._r_bits) % kernel.p)
@@ -134,8 +135,15 @@ def montgomery_form(kernel: LimbKernel, points: np.ndarray) -> np.ndarray:
     (uint64). Folded rather than multiplied: x R = sum_i x_i 2^(29 (i + n)), and each limb times the
     constant 2^(29 (i + n)) mod p (n products of a limb by a column, no carries between: each limb of
     the sum below n 2^58) gives a value below n 2^29 p; its quotient by p is estimated in floating point
-    from every limb (the error far below a half), so subtracting that quotient minus one times p leaves
-    a value in (p / 2 - 1, 3 p / 2 + 1). Half the numpy passes of a Montgomery product by R^2 mod p."""
+    from every limb, so subtracting that quotient minus one times p leaves a value in (p / 2 - 1, 3 p / 2 + 1).
+    Half the numpy passes of a Montgomery product by R^2 mod p.
+
+    The bound: the sum T = x R mod p + k p is below n 2^29 p <= 2^34 p (n <= 18 at 512 bits), its limbs
+    below n 2^58 < 2^63. Every term of the estimate is non-negative and carries at most three roundings
+    (the limb to float64, the weight, the product) plus one per addition, so the estimate is within
+    (n + 3) 2^-53 T / p < 21 2^-53 2^34 < 2^-14 of T / p. Rounding it lands within 1/2 + 2^-14 of T / p,
+    so T - (that - 1) p lies in ((1/2 - 2^-14) p, (3/2 + 2^-14) p): positive and below 2p whatever
+    the input, with half a unit to spare for the estimate's error."""
     n = kernel.n
     constants = _fold_constants(kernel)
     total = np.multiply(constants[0], points[0]).view(np.int64)
