@@ -339,12 +339,8 @@ class Sequencer(GlueRules, AnnotationRules):
     def _open(self, name: str, num_vars: int, degree: int, claim: Element, order: str, form: str,
               claim_expr: str | None, final_expr: str | None, eq_point: Any) -> InstanceStart:
         """The record of an instance event whose every field is checked, made the current instance."""
-        start: Any = InstanceStartDraft()  # every field checked: skip the frozen __init__ (see RoundMsgDraft)
-        start.index, start.name, start.num_vars, start.degree, start.claim = (
-            len(self.names), name, num_vars, degree, claim)
-        start.order, start.form, start.batch = order, form, self.pending_batch
-        start.claim_expr, start.final_expr, start.eq_point = claim_expr, final_expr, eq_point
-        start.__class__ = InstanceStart
+        start = _checked_start(len(self.names), name, num_vars, degree, claim, order, form, self.pending_batch,
+                              claim_expr, final_expr, eq_point)
         self.pending_batch = None
         self.current = start
         self.names.add(name)
@@ -353,7 +349,7 @@ class Sequencer(GlueRules, AnnotationRules):
         self.rounds_done = 0
         self.awaiting_challenge = False
         self.final_seen = False
-        return start  # type: ignore[no-any-return]
+        return start
 
     def plain_instance(self, name: str, num_vars: int, degree: int, claim: bytes, claim_expr: str | None = None,
                        final_expr: str | None = None) -> InstanceStart:
@@ -427,16 +423,10 @@ class Sequencer(GlueRules, AnnotationRules):
             return None
         first = len(self.names)
         self.names.add_all(names)
-        starts: list[Any] = []
-        draft, cls, append = InstanceStartDraft, InstanceStart, starts.append
-        for index, name, rounds, degree, claim, claim_expr, final_expr in zip(
-                range(first, first + count), names, num_vars, degrees, values, claim_exprs, final_exprs):
-            start: Any = draft()  # every field checked: skip the frozen __init__ (see RoundMsgDraft)
-            start.index, start.name, start.num_vars, start.degree, start.claim = index, name, rounds, degree, claim
-            start.order, start.form, start.batch = "low-first", "evals", None
-            start.claim_expr, start.final_expr, start.eq_point = claim_expr, final_expr, None
-            start.__class__ = cls
-            append(start)
+        starts = [_checked_start(index, name, rounds, degree, claim, "low-first", "evals", None, claim_expr,
+                                final_expr, None)
+                  for index, name, rounds, degree, claim, claim_expr, final_expr in zip(
+                      range(first, first + count), names, num_vars, degrees, values, claim_exprs, final_exprs)]
         last = starts[-1]
         self.current, self._num_vars, self._index = last, last.num_vars, last.index
         self.rounds_done, self.awaiting_challenge, self.final_seen = last.num_vars, False, True
@@ -447,12 +437,7 @@ class Sequencer(GlueRules, AnnotationRules):
     def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element) -> InstanceStart:
         """The record :meth:`plain_runs` would have made for the instance at ``index`` (its values
         already checked there: made as :meth:`_open` makes one, without the frozen ``__init__``)."""
-        start: Any = InstanceStartDraft()
-        start.index, start.name, start.num_vars, start.degree, start.claim = index, name, num_vars, degree, claim
-        start.order, start.form, start.batch = "low-first", "evals", None
-        start.claim_expr = start.final_expr = start.eq_point = None
-        start.__class__ = InstanceStart
-        return start  # type: ignore[no-any-return]
+        return _checked_start(index, name, num_vars, degree, claim, "low-first", "evals", None, None, None, None)
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()
@@ -498,6 +483,18 @@ class Sequencer(GlueRules, AnnotationRules):
 
 _HANDLERS: dict[str, Callable[[Sequencer, Mapping[str, Any]], Event]] = {
     kind: getattr(Sequencer, "_on_" + kind) for kind in KNOWN_TYPES}  # each known type's handler
+
+
+def _checked_start(index: int, name: str, num_vars: int, degree: int, claim: Element, order: str, form: str,
+                  batch: Any, claim_expr: str | None, final_expr: str | None, eq_point: Any) -> InstanceStart:
+    """The record of an instance whose every field the caller has checked: made as a draft whose class
+    then becomes the frozen record's, skipping the frozen ``__init__`` (see RoundMsgDraft)."""
+    start: Any = InstanceStartDraft()
+    start.index, start.name, start.num_vars, start.degree, start.claim = index, name, num_vars, degree, claim
+    start.order, start.form, start.batch = order, form, batch
+    start.claim_expr, start.final_expr, start.eq_point = claim_expr, final_expr, eq_point
+    start.__class__ = InstanceStart
+    return start  # type: ignore[no-any-return]
 
 
 def plain_copy(value: Any, where: Where | None = None) -> Any:
