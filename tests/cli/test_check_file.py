@@ -110,3 +110,29 @@ def test_the_sweep_runs_with_the_cyclic_collector_paused_and_leaves_it_as_it_was
         (gc.enable if was else gc.disable)()
     assert code == 0
     assert seen == [False] and after is enabled
+
+
+@pytest.mark.parametrize("stop", [KeyboardInterrupt, MemoryError])
+def test_the_collector_is_running_again_when_the_sweep_stops_with_an_interrupt_or_an_error(stop, tmp_path, capsys,
+                                                                                          monkeypatch):
+    # Ctrl-C or an error raised inside the sweep (gc paused there) leaves the collector as it was: on
+    import gc
+
+    import stepper.verify.sweep as sweep_module
+
+    def interrupted(*args, **kwargs):
+        assert not gc.isenabled()
+        raise stop
+
+    monkeypatch.setattr(sweep_module, "sweep", interrupted)
+    was = gc.isenabled()
+    gc.enable()
+    try:
+        try:
+            _check(tmp_path, capsys, "--kind", "gkr-product", json_out=False)
+        except BaseException as err:  # noqa: BLE001 - whatever main lets through: only the collector matters here
+            assert isinstance(err, (stop, SystemExit))
+        after = gc.isenabled()
+    finally:
+        (gc.enable if was else gc.disable)()
+    assert after
