@@ -80,6 +80,23 @@ def test_honest_targets_match_whether_reduced_or_not_and_off_by_one_fail(p, m):
     assert check(p, rows, points, [(v - 1) % p + p for v in values], 2) == [False] * len(rows)
 
 
+@pytest.mark.parametrize("p", PRIMES + [int(sympy.nextprime(2**86)), int(sympy.nextprime(2**288))])
+def test_every_round_size_with_a_lazy_plan_matches_plain_integers(p):
+    # up to 13 values (12! times a difference: limbs past 2^53 reach multiple_of_p, whose estimate stays
+    # within its half unit because each limb's weighted part is bounded by the quotient bound); the two
+    # extra primes (sympy.nextprime) have the most room above p, so the longest lazy plans
+    sizes = [m for m in range(1, 16) if horner_plan(kernel(p), m) is not None]
+    assert sizes == list(range(1, max(sizes) + 1))
+    for m in sizes:
+        rng = random.Random(f"{p}-{m}-all")
+        rows = [[rng.randrange(p) for _ in range(m)] for _ in range(10)] + [[p - 1] * m, [0] * m]
+        points = [rng.randrange(p) for _ in range(10)] + [p - 1, p - 2]
+        values = [lagrange_at(p, row, x) for row, x in zip(rows, points)]
+        assert check(p, rows, points, [v + p for v in values], 2) == [True] * len(rows)
+        assert check(p, rows, points, [(v + 1) % p for v in values], 2) == [False] * len(rows)
+        assert check(p, rows, points, [(v - 1) % p + p for v in values], 2) == [False] * len(rows)
+
+
 @pytest.mark.parametrize("p", [BN254, BLS12_381_R])
 def test_degree_three_agrees_with_galois_lagrange_interpolation(p):
     gf = galois.GF(p, primitive_element=2, verify=False, compile="python-calculate")

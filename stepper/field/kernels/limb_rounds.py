@@ -59,9 +59,13 @@ def _normalise(t: np.ndarray) -> np.ndarray:
 
 def multiple_of_p(kernel: LimbKernel, d: np.ndarray, bound: int) -> np.ndarray:
     """Per column, whether the integer with signed limbs ``d`` (int64, limb-major (n, N), the value
-    known to lie in [0, bound p]) is a multiple of p. Each limb below 2^60 in size, and the top three
-    exact in floating point once weighted (below 2^53, or weighing little: a carried top limb);
-    the bound below 2^33, so that the quotient times a limb of p stays below 2^62. Consumes ``d``."""
+    known to lie in [0, bound p]) is a multiple of p. Each limb below 2^60 in size, and each limb's
+    part of D / p (|d_j| 2^(29 j) / p) a few times the bound at most, as the callers' sums of a
+    bounded multiple of p and a bounded subtraction give: the estimate from the top three limbs in
+    floating point is then within 2^-12 of D / p (relative error 2^-53 per step on parts below
+    2^36; the limbs left out weigh below 2^-17), well inside the half unit rounding allows, even where
+    a limb is past 2^53 (12! times a difference in rounds of 13 values). The bound below 2^33, so
+    that the quotient times a limb of p stays below 2^62. Consumes ``d``."""
     n, p = kernel.n, kernel.p
     if bound >= 1 << 33:
         raise ValueError(f"expected a quotient bound below 2^33, found {bound}")
