@@ -385,3 +385,31 @@ async def test_a_write_up_asked_for_while_the_rounds_are_read_is_saved_when_the_
     (written,) = tmp_path.glob("*.md")
     text = written.read_text()
     assert "not replayed" not in text and "pass" in text
+
+
+
+async def test_a_tampered_challenge_under_the_second_schedule_is_the_first_failure_the_app_jumps_to(
+        tmp_path, capsys):
+    import json
+
+    from stepper.cli.main import main
+
+    events = tmp_path / "events.jsonl"
+    assert main(["prove", "--kind", "gkr-product", "--num-vars", "3", "--field", "babybear^4",
+                 "--schedule", "stepper-sha256/2", "-o", str(events)]) == 0
+    lines = events.read_text().splitlines()
+    at = [i for i, line in enumerate(lines) if json.loads(line)["type"] == "challenge"][2]
+    event = json.loads(lines[at])
+    event["value"] = [str((int(event["value"][0]) + 1) % 7)] + event["value"][1:]
+    lines[at] = json.dumps(event)
+    tampered = tmp_path / "tampered.jsonl"
+    tampered.write_text("\n".join(lines) + "\n")
+    capsys.readouterr()
+    assert main(["check", str(tampered), "--json"]) == 1
+    failure = json.loads(capsys.readouterr().out)["first_failure"]
+    assert failure["check"] == "challenge"
+    app = app_for(tampered, tmp_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("f")
+        assert app.proof_screen.position == (failure["instance"], failure["round"])
+        assert "✕ fail (challenge)" in detail_text(app)
