@@ -141,21 +141,24 @@ def test_unusable_input_is_one_line_and_exit_2(tmp_path, capsys, content):
     assert err.startswith("stepper check: ") and err.count("\n") == 1
 
 
-def test_foreign_schedule_is_reported_as_not_re_derived(tmp_path, capsys):
+def checked_with_schedule(tmp_path, capsys, name: str) -> dict:
+    """The --json report of the honest proof declaring the schedule ``name``; the check passes and
+    says its challenges were not re-derived."""
     payloads = honest()
-    payloads.insert(1, {"type": "schedule", "name": "ferry-office-transcript/3", "label": "gate"})
+    payloads.insert(1, {"type": "schedule", "name": name, "label": "gate"})
     code, out, _ = check(capsys, str(write_jsonl(tmp_path / "run.jsonl", payloads)), "--json")
     data = conforming(out, "check")
     assert code == 0 and data["challenges"].startswith("not re-derived")
+    return data
+
+
+def test_foreign_schedule_is_reported_as_not_re_derived(tmp_path, capsys):
+    data = checked_with_schedule(tmp_path, capsys, "ferry-office-transcript/3")
     assert [f["kind"] for f in data["findings"]] == ["challenges-unchecked"]
 
 
 def test_unknown_schedule_of_stepper_own_namespace_names_the_ones_this_version_knows(tmp_path, capsys):
-    payloads = honest()
-    payloads.insert(1, {"type": "schedule", "name": "stepper-sha256/9", "label": "gate"})
-    code, out, _ = check(capsys, str(write_jsonl(tmp_path / "run.jsonl", payloads)), "--json")
-    data = conforming(out, "check")
-    assert code == 0 and data["challenges"].startswith("not re-derived")
+    data = checked_with_schedule(tmp_path, capsys, "stepper-sha256/9")
     assert "knows stepper-sha256/1, stepper-sha256/2; a newer one may" in data["challenges"]
     (finding,) = data["findings"]
     assert finding["kind"] == "challenges-unchecked" and "a newer one may" in finding["message"]
