@@ -95,12 +95,6 @@ class LimbKernel(Kernel):
         return limbs.reshape(self.n, values, count).transpose(2, 1, 0)
 
     @staticmethod
-    def _limbs_of_words(words: np.ndarray, count: int) -> np.ndarray:
-        """The first ``count`` 29-bit limbs of rows of little-endian uint64 words (shape (N, k);
-        bits past the k words are zero), limb-major: shape (count, N)."""
-        return LimbKernel._limbs_of_columns(np.ascontiguousarray(words.T), count)
-
-    @staticmethod
     def _limbs_of_columns(columns: np.ndarray, count: int) -> np.ndarray:
         """The first ``count`` 29-bit limbs of integers given word-major (uint64, shape (k, N): word j
         of every integer in one contiguous run; bits past the k words are zero): shape (count, N)."""
@@ -284,10 +278,8 @@ class LimbKernel(Kernel):
         limbs = -(-8 * width // LIMB_BITS)
         n = self.n
         steps = max(1, limbs - n + 2)
-        words = np.zeros((count, -(-width // 8) + 1), dtype=np.uint64)
-        words.view(np.uint8)[:, :width] = rows
         t = np.zeros((max(limbs, steps + n) + 1, count), dtype=np.uint64)
-        t[:limbs] = self._limbs_of_words(words, limbs)
+        t[:limbs] = self._limbs_of_columns(word_columns(rows)[:, 0], limbs)
         reduced = self._reduce_steps(t, steps)  # x / 2^(29k) mod p, below 2p
         back = self._column(pow(2, LIMB_BITS * steps + self._r_bits, self.p))
         return self._rows(self._minus_p(self._montgomery(self._minus_p(reduced), back)))
