@@ -128,10 +128,7 @@ class Sha256Schedule:
         elif cls is InstanceStart:
             self._need_field("instance")
             name = record.name.encode("utf-8")  # type: ignore[union-attr]
-            shape = self._shapes.get((record.order, record.form))  # type: ignore[union-attr]
-            if shape is None:
-                shape = self._shapes[(record.order, record.form)] = (  # type: ignore[union-attr]
-                    text(record.order) + text(record.form))  # type: ignore[union-attr]
+            shape = self._shape(record.order, record.form)  # type: ignore[union-attr]
             counts = _PAIR.pack(record.num_vars, record.degree)  # type: ignore[union-attr]
             body = len(name).to_bytes(8, "little") + name + counts + shape + self._el(record.claim)  # type: ignore[union-attr]
             self._state.update(INSTANCE_HEAD + len(body).to_bytes(8, "little") + body)  # frame("instance", body)
@@ -157,10 +154,14 @@ class Sha256Schedule:
         ``num_vars[i]``, ``degrees[i]``, the round order and form given, and its claim's canonical
         packed bytes at ``claims[i * elem_bytes:]`` (the caller has checked them canonical)."""
         width = self._need_field("instance").elem_bytes
+        return instance_frames(width, self._shape(order, form), names, num_vars, degrees, claims)
+
+    def _shape(self, order: str, form: str) -> bytes:
+        """text(order) + text(form) of an instance frame, made once per pair."""
         shape = self._shapes.get((order, form))
         if shape is None:
             shape = self._shapes[(order, form)] = text(order) + text(form)
-        return instance_frames(width, shape, names, num_vars, degrees, claims)
+        return shape
 
     def glue_frame(self, record: NamedValue | Opening) -> bytes:
         """The frame a value or an opening is absorbed as (frames absorbed one after another are
