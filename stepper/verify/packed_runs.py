@@ -212,8 +212,7 @@ class RunBlock:
         self.claims = decode_cells(kernel, np.frombuffer(b"".join(claims), dtype=np.uint8), width)
         self.starts = np.zeros(len(rounds), dtype=np.int64)
         np.cumsum(rounds[:-1], out=self.starts[1:])
-        self._starts = self.starts.tolist()
-        self.first_rows: list[int] = self._starts  # each run's first row, in stream order
+        self.first_rows: list[int] = self.starts.tolist()  # each run's first row, in stream order
         self._final_values: list[Element] | None = None  # made when runs are taken one by one
         self._next = 0  # the next run, in stream order
         self._view: memoryview | None = None
@@ -224,14 +223,14 @@ class RunBlock:
         """The first row and the final value of the next run of this block, in stream order."""
         j = self._next
         self._next = j + 1
-        return self._starts[j], self._final(j)
+        return self.first_rows[j], self._final(j)
 
     def skip(self, count: int) -> int:
         """Pass over the next ``count`` runs (settled in bulk: their finals are not needed one by one);
         returns the first row of the first."""
         j = self._next
         self._next = j + count
-        return self._starts[j]  # type: ignore[no-any-return]
+        return self.first_rows[j]
 
     def _final(self, j: int) -> Element:
         values = self._final_values
