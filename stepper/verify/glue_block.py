@@ -83,14 +83,13 @@ class _Group:
 @dataclass(slots=True)
 class _Instances:
     """The instances of a flush, each taken as a run, all in one block of challenges, for ``point(NAME)``
-    and ``final(NAME)``: instance j (run j of the flush) is named ``names[j]``, has ``num_vars[j]``
-    rounds, order ``orders[j]``, its challenges from row ``first_rows[j]`` of ``challenges`` and its
-    final value at ``finals[j]`` (a kernel array); ``last`` maps each name to its last position and
+    and ``final(NAME)``: instance j (run j of the flush) has ``num_vars[j]`` rounds, order
+    ``orders[j]``, its challenges from row ``first_rows[j]`` of ``challenges`` and its final value
+    at ``finals[j]`` (a kernel array); ``last`` maps each instance's name to its last position and
     ``ends[j]`` is the rounds of instances 0 .. j - 1 (the replay keeps the points of recent instances
     up to ``MAX_POINT_ELEMENTS`` challenge elements). The instances of the flush before, when it came
     right before (no instance between them read one by one), stand first."""
 
-    names: list[str]
     num_vars: np.ndarray
     orders: list[str]
     first_rows: np.ndarray
@@ -149,7 +148,7 @@ class GlueChecks:
             offset = len(starts) - len(given[0])
             sizes = np.fromiter(map(attrgetter("num_vars"), starts), dtype=np.int64, count=len(starts))
             names = list(map(attrgetter("name"), starts))
-            self._table = _Instances(names, sizes, list(map(attrgetter("order"), starts)), rows, finals, challenges,
+            self._table = _Instances(sizes, list(map(attrgetter("order"), starts)), rows, finals, challenges,
                                      dict(zip(names, range(len(names)))), np.concatenate(([0], np.cumsum(sizes))),
                                      offset)
         return self._table
