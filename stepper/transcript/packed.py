@@ -190,16 +190,16 @@ class GlueRun:
     Nothing is judged but the layout: the caller checks each head against its name's length,
     the names against the glue name rules and the elements' values."""
 
-    __slots__ = ("_run", "_one", "match")
+    __slots__ = ("_one", "match")
 
     def __init__(self, width: int) -> None:
         run, one = _glue_patterns(width)
-        self._run, self._one = run.match, one.findall
+        self._one = one.findall
         self.match = run.match  # (data, at) -> the match of the events from ``at`` (never None)
 
     def __call__(self, data: bytes, at: int) -> int:
         """How many bytes the glue events from ``at`` fill (0: none there)."""
-        return self._run(data, at).end() - at  # type: ignore[union-attr]  # the pattern matches the empty string too
+        return self.match(data, at).end() - at  # type: ignore[union-attr]  # the pattern matches the empty string too
 
     def rows(self, data: bytes) -> list[tuple[bytes, bytes, bytes, bytes]]:
         """Per event of ``data`` (bytes this object measured, any number of runs joined): (kind,

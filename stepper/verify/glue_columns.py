@@ -47,8 +47,7 @@ _NAMES = re.compile(rf"{_NAME}(?:\n{_NAME})*")  # names joined by newlines
 
 _FIXSTR = bytes((0xA0 + n) & 0xFF for n in range(256))  # a name's length -> its fixstr head
 _KIND_BYTES = {kind: raw for raw, kind in GLUE_KINDS.items()}
-_KINDS = GLUE_CODES  # by code
-_CODES = {kind: code for code, kind in enumerate(_KINDS)}
+_CODES = {kind: code for code, kind in enumerate(GLUE_CODES)}
 
 
 def _payload(row: tuple[bytes, bytes, bytes, bytes]) -> dict[str, Any]:
@@ -188,7 +187,7 @@ class GlueColumns:
     def kinds(self) -> list[str]:
         """Each event's type, in stream order."""
         if self._kinds is None:
-            self._kinds = list(map(_KINDS.__getitem__, self.codes.tolist()))
+            self._kinds = list(map(GLUE_CODES.__getitem__, self.codes.tolist()))
         return self._kinds
 
     @kinds.setter
