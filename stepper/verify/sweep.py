@@ -474,13 +474,8 @@ class _Sweeper:
         count = len(starts)
         if count < 2:
             return False
-        names_blob = u8[starts[:, None] + (name_at + np.arange(len(name)))].tobytes()
         try:
-            if names_blob.isascii():
-                text = names_blob.decode()
-                names = [text[i:i + len(name)] for i in range(0, len(text), len(name))] if name else [""] * count
-            else:
-                names = [names_blob[i:i + len(name)].decode() for i in range(0, len(names_blob), len(name))]
+            names = _fixed_texts(u8, starts, name_at, len(name))
         except UnicodeDecodeError:
             return False  # the usual path names it
         claims = u8[starts[:, None] + (head_len - width + np.arange(width))].tobytes()
@@ -547,14 +542,7 @@ class _Sweeper:
             return False
 
         def texts(span: tuple[int, int] | None) -> list[str | None]:
-            if span is None:
-                return [None] * count
-            size = span[1] - span[0]
-            joined = u8[starts[:, None] + (span[0] + np.arange(size))].tobytes()
-            if joined.isascii():
-                text = joined.decode()
-                return [text[i:i + size] for i in range(0, len(text), size)] if size else [""] * count
-            return [joined[i:i + size].decode() for i in range(0, len(joined), size)]
+            return [None] * count if span is None else _fixed_texts(u8, starts, span[0], span[1] - span[0])  # type: ignore[return-value]
 
         spans = iter(varying[3:])
         try:
@@ -776,3 +764,17 @@ class _Sweeper:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
         if not passes or replay.failed:
             raise _GiveUp("a glue check fails in this block")
+
+
+def _fixed_texts(u8: np.ndarray, starts: np.ndarray, begin: int, size: int) -> list[str]:
+    """The UTF-8 texts of ``size`` bytes at ``begin`` from each of ``starts`` in ``u8`` (instances laid
+    out alike), decoded at once when they are all ASCII; UnicodeDecodeError when one is not UTF-8."""
+    import numpy as np
+
+    joined = u8[starts[:, None] + (begin + np.arange(size))].tobytes()
+    if not size:
+        return [""] * len(starts)
+    if joined.isascii():
+        text = joined.decode()
+        return [text[i:i + size] for i in range(0, len(text), size)]
+    return [joined[i:i + size].decode() for i in range(0, len(joined), size)]
