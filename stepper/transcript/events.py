@@ -387,19 +387,13 @@ class Sequencer(GlueRules, AnnotationRules):
         returns the claims as elements; returns None, having done nothing, unless every value is
         plainly in range (the claims canonical): the caller then feeds the instances one at a time,
         and the usual path judges them."""
-        count = len(names)
-        if (not count or self.field is None or self.pending_batch is not None or self._late is not None
-                or len(num_vars) != count or len(degrees) != count or len(claims) != count * self._elem_bytes
-                or min(num_vars) < 1 or max(num_vars) > MAX_NUM_VARS or min(degrees) < 0
-                or max(degrees) > MAX_DEGREE or max(map(len, names)) > MAX_TEXT):
-            return None
-        values = self._decode(claims)  # None when some claim is not canonical
-        if values is None or len(values) != count:
+        values = self._bulk_claims(names, num_vars, degrees, claims)
+        if values is None:
             return None
         self.names.add_all(names[:-1])
         self._open(names[-1], num_vars[-1], degrees[-1], values[-1], "low-first", "evals", None, None, None)
         self.rounds_done, self.final_seen = num_vars[-1], True
-        self.count += 2 * count + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
+        self.count += 2 * len(names) + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
         return values  # type: ignore[no-any-return]
 
     def glued_runs(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes,
@@ -411,15 +405,12 @@ class Sequencer(GlueRules, AnnotationRules):
         records, or None, having done nothing, unless every value is plainly in range (the claims
         canonical, the texts no longer than a text may be): the caller then takes them one at a time."""
         count = len(names)
-        if (not count or not self.glue or not self.defer_glue or not self._prime_modulus or self.field is None
-                or self.pending_batch is not None or self._late is not None or len(num_vars) != count
-                or len(degrees) != count or len(claims) != count * self._elem_bytes or len(claim_exprs) != count
-                or len(final_exprs) != count or min(num_vars) < 1 or max(num_vars) > MAX_NUM_VARS
-                or min(degrees) < 0 or max(degrees) > MAX_DEGREE or max(map(len, names)) > MAX_TEXT
+        if (not count or not self.glue or not self.defer_glue or not self._prime_modulus
+                or len(claim_exprs) != count or len(final_exprs) != count
                 or max(len(text or "") for text in (*claim_exprs, *final_exprs)) > MAX_TEXT):
             return None
-        values = self._decode(claims)  # None when some claim is not canonical
-        if values is None or len(values) != count:
+        values = self._bulk_claims(names, num_vars, degrees, claims)
+        if values is None:
             return None
         first = len(self.names)
         self.names.add_all(names)
@@ -432,6 +423,20 @@ class Sequencer(GlueRules, AnnotationRules):
         self.rounds_done, self.awaiting_challenge, self.final_seen = last.num_vars, False, True
         self.count += 2 * count + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
         return starts
+
+    def _bulk_claims(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes
+                     ) -> tuple[Element, ...] | None:
+        """The claims of instances taken in a row (:meth:`plain_runs`, :meth:`glued_runs`) as elements,
+        or None unless one may take them so: a field set, no batch or late event pending, one
+        num_vars, degree and canonical claim per name, each value plainly within its limits."""
+        count = len(names)
+        if (not count or self.field is None or self.pending_batch is not None or self._late is not None
+                or len(num_vars) != count or len(degrees) != count or len(claims) != count * self._elem_bytes
+                or min(num_vars) < 1 or max(num_vars) > MAX_NUM_VARS or min(degrees) < 0
+                or max(degrees) > MAX_DEGREE or max(map(len, names)) > MAX_TEXT):
+            return None
+        values = self._decode(claims)  # None when some claim is not canonical
+        return values if values is not None and len(values) == count else None  # type: ignore[no-any-return]
 
     @staticmethod
     def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element) -> InstanceStart:
