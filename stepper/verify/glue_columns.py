@@ -133,6 +133,7 @@ class GlueColumns:
         self._kinds: list[str] | None = None
         self._data: list[bytes] | None = None
         self._rows: NameRows | None = None
+        self._stream: tuple[memoryview, np.ndarray, np.ndarray] | None = None
         if blobs_only is None:
             blobs_only = all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails)
         if blobs_only and any(tails):
@@ -390,29 +391,45 @@ class GlueColumns:
         expected = decode_cells(kernel, rows, width)
         return bool(np.array_equal(rederive(kernel, schedule, digests, len(rows), expected.shape), expected))
 
-    def pieces(self, schedule: Sha256Schedule) -> Sequence[Sequence[memoryview]]:
-        """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after
-        each run's rows, run by run (none for a run with no glue)."""
+    def stream(self, schedule: Sha256Schedule) -> tuple[memoryview, np.ndarray, np.ndarray]:
+        """The bytes :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after the
+        runs' rows, all runs' one after another (built once), the offset where each run's glue starts
+        then the end (``len(bounds)`` offsets), and the offsets at which a challenge is squeezed."""
         import numpy as np
 
-        ends: Sequence[int] | np.ndarray
-        cuts: Sequence[int] | np.ndarray
-        if self.tables is self.names and self.size and not any(self.listed):
-            stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes())
-        else:
-            tables = None if self.tables is self.names else self.tables
-            stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts,
-                                                      self.listed)
-        view = memoryview(stream)
-        bounds = np.array(self.bounds, dtype=np.int64)
-        run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[bounds]  # byte offset where each run's glue ends
-        cuts = np.asarray(cuts, dtype=np.int64)
-        if len(cuts) == len(run_ends) - 1 and np.array_equal(np.searchsorted(cuts, run_ends), np.arange(len(run_ends))):
-            # the usual case: each run's glue holds one squeeze of one element, so two pieces each
-            take = view.__getitem__
-            return list(zip(map(take, map(slice, run_ends[:-1].tolist(), cuts.tolist())),
-                            map(take, map(slice, cuts.tolist(), run_ends[1:].tolist()))))
-        marks = np.union1d(run_ends, cuts).tolist()  # every piece boundary, sorted
-        pieces = list(map(view.__getitem__, map(slice, marks[:-1], marks[1:])))
-        starts = np.searchsorted(np.array(marks[:-1], dtype=np.int64), run_ends).tolist()
-        return list(map(pieces.__getitem__, map(slice, starts[:-1], starts[1:])))
+        if self._stream is None:
+            ends: Sequence[int] | np.ndarray
+            cuts: Sequence[int] | np.ndarray
+            if self.tables is self.names and self.size and not any(self.listed):
+                stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes())
+            else:
+                tables = None if self.tables is self.names else self.tables
+                stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts,
+                                                          self.listed)
+            bounds = np.array(self.bounds, dtype=np.int64)
+            run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[bounds]
+            self._stream = (memoryview(stream), run_ends, np.asarray(cuts, dtype=np.int64))
+        return self._stream
+
+    def run_pieces(self, schedule: Sha256Schedule, run: int) -> list[memoryview]:
+        """The pieces :meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_pieces` takes after run
+        ``run``'s rows (none for a run with no glue): its glue cut where a challenge is squeezed."""
+        import numpy as np
+
+        view, run_ends, cuts = self.stream(schedule)
+        begin, end = int(run_ends[run]), int(run_ends[run + 1])
+        inside = cuts[np.searchsorted(cuts, begin, side="right"):np.searchsorted(cuts, end, side="left")]
+        marks = [begin, *inside.tolist(), end] if end > begin else []
+        return list(map(view.__getitem__, map(slice, marks[:-1], marks[1:])))
+
+    def one_squeeze_each(self, schedule: Sha256Schedule, first: int) -> np.ndarray | None:
+        """Where the one challenge of each run's glue from run ``first`` on is squeezed (a squeeze of one
+        element after each run), or None when some run's glue squeezes none or more than one."""
+        import numpy as np
+
+        _, run_ends, cuts = self.stream(schedule)
+        ends = run_ends[first:]
+        low = np.searchsorted(cuts, ends[:-1], side="right")
+        if not np.array_equal(np.searchsorted(cuts, ends[1:], side="left") - low, np.ones(len(low), dtype=np.int64)):
+            return None
+        return cuts[low]  # type: ignore[no-any-return]

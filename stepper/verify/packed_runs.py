@@ -301,14 +301,14 @@ class RunBlock:
                   maxlen=0)
             schedule.absorb_pieces(pieces, self.digests)
 
-    def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart],
-                     glue: Sequence[Sequence[bytes | memoryview]], glue_digests: bytearray) -> None:
+    def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart], glue: memoryview,
+                     run_ends: np.ndarray, cuts: np.ndarray, glue_digests: bytearray) -> None:
         """Run the schedule over instances settled in bulk whose rows are this block's from row ``first``
         on, each an instance of a prime field, low-first, with an int claim, followed by glue holding one
-        squeeze (``glue[i]``: its two pieces, before and after the squeeze): each statement, its rows,
-        then its glue, as ``observe``, :meth:`absorb` and the glue's ``absorb_pieces`` would one after
-        another, in one ``absorb_pieces`` call. The digests of the rounds' squeezes are appended to
-        :attr:`digests`, those of the glue's to ``glue_digests``."""
+        squeeze: instance i's glue is ``glue[run_ends[i]:run_ends[i + 1]]``, its challenge squeezed at
+        ``cuts[i]``. Each statement, its rows, then its glue, as ``observe``, :meth:`absorb` and the glue's
+        ``absorb_pieces`` would one after another, in one ``absorb_pieces`` call. The digests of the
+        rounds' squeezes are appended to :attr:`digests`, those of the glue's to ``glue_digests``."""
         import numpy as np
 
         view = self._frames_view(schedule)
@@ -320,15 +320,13 @@ class RunBlock:
                                                     [start.degree for start in starts], claims)
         frames = view[first * frame_len:(first + rows) * frame_len]
         cut = _pieces(frames, rows, round_len, frame_len)  # round 0; (challenge k, round k + 1)...; the last challenge
-        said = memoryview(statements)
-        out: list[bytes | memoryview] = [b"".join((said[:ends[0]], cut[0]))]
-        at, last = 0, len(starts) - 1
-        for i, (n, (before, after)) in enumerate(zip(counts, glue)):
-            out += cut[at + 1:at + n]  # the instance's own (challenge, round) pieces
-            at += n
-            out.append(b"".join((frames[at * frame_len - (frame_len - round_len):at * frame_len], before)))
-            out.append(after if i == last else b"".join((after, said[ends[i]:ends[i + 1]],
-                                                         frames[at * frame_len:at * frame_len + round_len])))
+        if counts.count(counts[0]) == len(counts):
+            out = _interleaved(cut, counts[0], np.frombuffer(frames, dtype=np.uint8), round_len, frame_len,  # type: ignore[arg-type]
+                               np.frombuffer(statements, dtype=np.uint8), np.array(ends, dtype=np.int64),
+                               np.frombuffer(glue, dtype=np.uint8), run_ends, cuts)  # type: ignore[arg-type]
+        else:
+            out = _one_by_one(cut, counts, frames, round_len, frame_len, memoryview(statements), ends, glue,
+                              run_ends.tolist(), cuts.tolist())
         squeezed = bytearray()
         schedule.absorb_pieces(out, squeezed)
         per = 32 * schedule.squeezes_per_challenge
@@ -393,12 +391,18 @@ def _row_cut(count: int, stride: int) -> Callable[[memoryview], tuple[memoryview
 def _pieces(view: memoryview, rows: int, round_len: int, stride: int) -> list[bytes | memoryview]:
     """``rows`` rows of frames (each a round's frame of ``round_len`` bytes, then its challenge's,
     ``stride`` in all) cut into the pieces absorbed between two squeezes: the first round, then each
-    challenge with the next round, then the last challenge. The middle pieces are cut
-    ``_CUT_ROWS`` at a time by one cached C call (its slices made once per size)."""
-    pieces: list[bytes | memoryview] = [view[:round_len]]
+    challenge with the next round, then the last challenge (:func:`_cut_rows`)."""
     middle = rows - 1  # challenge k with round k + 1
-    whole, left = divmod(middle, _CUT_ROWS)
-    at = round_len
+    return [view[:round_len], *_cut_rows(view[round_len:round_len + middle * stride], middle, stride),
+            view[round_len + middle * stride:rows * stride]]
+
+
+def _cut_rows(view: memoryview, count: int, stride: int) -> list[memoryview]:
+    """The first ``count`` pieces of ``stride`` bytes of ``view``, cut ``_CUT_ROWS`` at a time by one
+    cached C call (its slices made once per size)."""
+    pieces: list[memoryview] = []
+    whole, left = divmod(count, _CUT_ROWS)
+    at = 0
     if whole:
         cut = _row_cut(_CUT_ROWS, stride)
         span = _CUT_ROWS * stride
@@ -407,9 +411,93 @@ def _pieces(view: memoryview, rows: int, round_len: int, stride: int) -> list[by
             at += span
     if left:
         pieces += _row_cut(left, stride)(view[at:at + left * stride]) if left > 1 else (view[at:at + stride],)
-        at += left * stride
-    pieces.append(view[at:rows * stride])
     return pieces
+
+
+def _one_by_one(cut: list[bytes | memoryview], counts: list[int], frames: memoryview, round_len: int, frame_len: int,
+                said: memoryview, ends: list[int], glue: memoryview, run_ends: list[int], cuts: list[int]
+                ) -> list[bytes | memoryview]:
+    """The pieces :meth:`RunBlock.absorb_glued` absorbs, put together instance by instance (instances of
+    different round counts): ``cut`` the rows' pieces (:func:`_pieces`), ``said[ends[i - 1]:ends[i]]``
+    instance i's statement, ``glue[run_ends[i]:run_ends[i + 1]]`` its glue squeezed at ``cuts[i]``."""
+    out: list[bytes | memoryview] = [b"".join((said[:ends[0]], cut[0]))]
+    at, last = 0, len(counts) - 1
+    for i, n in enumerate(counts):
+        out += cut[at + 1:at + n]  # the instance's own (challenge, round) pieces
+        at += n
+        out.append(b"".join((frames[at * frame_len - (frame_len - round_len):at * frame_len],
+                             glue[run_ends[i]:cuts[i]])))
+        after = glue[cuts[i]:run_ends[i + 1]]
+        out.append(after if i == last else b"".join((after, said[ends[i]:ends[i + 1]],
+                                                     frames[at * frame_len:at * frame_len + round_len])))
+    return out
+
+
+def _interleaved(cut: list[bytes | memoryview], n: int, frames: np.ndarray, round_len: int, frame_len: int,
+                 statements: np.ndarray, ends: np.ndarray, glue: np.ndarray, run_ends: np.ndarray, cuts: np.ndarray
+                 ) -> list[bytes | memoryview]:
+    """:func:`_one_by_one` for instances of ``n`` rounds each, with no Python per instance: cut where
+    a statement's length or the glue's cut changes (names of another length) into spans laid out
+    alike (:func:`_alike_span`), whose pieces are joined where two spans meet."""
+    import numpy as np
+
+    said_at = np.concatenate(([0], ends[:-1]))
+    shapes = np.stack((ends - said_at, cuts - run_ends[:-1], run_ends[1:] - cuts))
+    changes = np.flatnonzero((shapes[:, 1:] != shapes[:, :-1]).any(axis=0)) + 1
+    bounds = [0, *changes.tolist(), len(cuts)]
+    out: list[bytes | memoryview] = []
+    for low, high in zip(bounds[:-1], bounds[1:]):
+        span = _alike_span(cut, n, low, high, frames, round_len, frame_len, statements, int(said_at[low]),
+                           int(shapes[0, low]), glue, int(run_ends[low]), int(cuts[low]), int(run_ends[low + 1]))
+        if out:
+            span[0] = b"".join((out.pop(), span[0]))
+        out += span
+    return out
+
+
+def _alike_span(cut: list[bytes | memoryview], n: int, low: int, high: int, frames: np.ndarray, round_len: int,
+                frame_len: int, statements: np.ndarray, said_at: int, said: int, glue: np.ndarray, glue_at: int,
+                cut_at: int, glue_end: int) -> list[bytes | memoryview]:
+    """The pieces of instances ``low`` .. ``high - 1``, whose statements are all ``said`` bytes long (the
+    first from ``said_at``) and whose glue is all cut alike (the first's ``glue[glue_at:glue_end]``,
+    squeezed at ``cut_at``): from the first's statement and first round to the last's glue after its
+    squeeze. The pieces that join two sources (the last challenge of an instance and its glue up to
+    the squeeze; the rest of its glue, the next statement and the next first round) are built as the
+    rows of one array each, and every piece put in its place by slice assignments, one per piece of
+    an instance."""
+    import numpy as np
+
+    count = high - low
+    before, after = cut_at - glue_at, glue_end - cut_at
+    glue_step = glue_end - glue_at
+    tail, step = frame_len - round_len, n * frame_len  # a challenge's frame; an instance's rows
+    rows_at = low * step
+    # before each squeeze of the glue: the instance's last challenge, its glue up to the squeeze
+    closing = np.empty((count, tail + before), dtype=np.uint8)
+    closing[:, :tail] = _strided(frames, rows_at + step - tail, step, count, tail)
+    closing[:, tail:] = _strided(glue, glue_at, glue_step, count, before)
+    # after it (all but the first): the rest of the glue before, the statement, the first round
+    opening = np.empty((count - 1, after + said + round_len), dtype=np.uint8)
+    opening[:, :after] = _strided(glue, cut_at, glue_step, count - 1, after)
+    opening[:, after:after + said] = _strided(statements, said_at + said, said, count - 1, said)
+    opening[:, after + said:] = _strided(frames, rows_at + step, step, count - 1, round_len)
+    out: list[bytes | memoryview] = [b""] * (count * (n + 1) + 1)
+    out[0::n + 1] = [statements[said_at:said_at + said].tobytes() + frames[rows_at:rows_at + round_len].tobytes(),
+                     *_cut_rows(memoryview(opening.reshape(-1)), count - 1, opening.shape[1]),  # type: ignore[arg-type]
+                     glue[cut_at + (count - 1) * glue_step:glue_end + (count - 1) * glue_step].tobytes()]
+    for k in range(n - 1):  # challenge k + 1 with round k + 2: cut[1 + r] for row r = instance * n + k
+        out[1 + k::n + 1] = cut[1 + low * n + k:1 + high * n:n]
+    out[n::n + 1] = _cut_rows(memoryview(closing.reshape(-1)), count, closing.shape[1])  # type: ignore[arg-type]
+    return out
+
+
+def _strided(source: np.ndarray, start: int, step: int, count: int, size: int) -> np.ndarray:
+    """The ``count`` rows of ``size`` bytes of ``source`` from ``start``, ``step`` bytes apart (a view)."""
+    from numpy.lib.stride_tricks import as_strided
+
+    if count and start + (count - 1) * step + size > len(source):
+        raise GiveUp("rows past the end of their source")
+    return as_strided(source[start:], shape=(count, size), strides=(step, 1), writeable=False)
 
 
 def _with_statements(frames: np.ndarray, rows: np.ndarray, round_len: int, statements: bytes,

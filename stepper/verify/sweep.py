@@ -41,7 +41,7 @@ from __future__ import annotations
 import os
 from dataclasses import dataclass
 from operator import itemgetter
-from typing import TYPE_CHECKING, Any, Callable, Iterator, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Iterator
 
 import msgpack
 
@@ -64,6 +64,7 @@ if TYPE_CHECKING:
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
     from stepper.verify.glue_block import GlueChecks, Settled
+    from stepper.verify.glue_columns import GlueColumns
     from stepper.verify.replay import Replay
 
 __all__ = ["Swept", "sweep", "BLOCK_ROUNDS", "SMALL_FILE_BYTES"]
@@ -644,8 +645,7 @@ class _Sweeper:
             block.absorb_plain(schedule, first, plain, j)
         return False
 
-    def _settle_glued(self, block: RunBlock, runs: list[Run], i: int, pieces: Sequence[Sequence[memoryview]] | None,
-                      digests: bytearray) -> bool:
+    def _settle_glued(self, block: RunBlock, runs: list[Run], i: int, glue: GlueColumns, digests: bytearray) -> bool:
         """Settle runs i, i + 1, ... of the flush (each an instance taken one by one, low-first, with an int
         claim, followed by glue of one squeeze) into the replay in one step, while it keeps no summaries
         (:meth:`~stepper.verify.replay.Replay.settle_quietly`), and run the schedule over their
@@ -655,13 +655,17 @@ class _Sweeper:
         schedule = self.replay.schedule
         if any(start.order != "low-first" or start.claim.__class__ is not int for start in starts):
             return False
-        if schedule is not None and (pieces is None or any(len(after) != 2 for after in pieces[i:])):
-            return False
+        cuts = None
+        if schedule is not None:
+            cuts = glue.one_squeeze_each(schedule, i)
+            if cuts is None:
+                return False
         self.replay.settle_quietly(len(starts), sum(start.num_vars * start.degree for start in starts))
         first = block.skip(len(starts))
         if schedule is not None:
-            assert pieces is not None
-            block.absorb_glued(schedule, first, starts, pieces[i:], digests)
+            assert cuts is not None
+            view, run_ends, _ = glue.stream(schedule)
+            block.absorb_glued(schedule, first, starts, view, run_ends[i:], cuts, digests)
         return True
 
     # ----- checking a block -----------------------------------------------------------
@@ -695,7 +699,6 @@ class _Sweeper:
                 members.setdefault(run[3], []).append(run)  # type: ignore[index]
         blocks = {layout: RunBlock(layout, group, kernel, field) for layout, group in members.items()}
         replay = self.replay
-        pieces: Sequence[Sequence[memoryview]] | None = None  # the glue's, run by run
         digests = bytearray()  # of the glue's squeezes
         # the runs' claim_expr and final_expr: with one block of runs taken one by one, read as columns after
         # the loop (run i is the block's run i); otherwise gathered run by run
@@ -706,9 +709,7 @@ class _Sweeper:
         try:
             for i, run in enumerate(runs):
                 if by_columns and glue.size and replay.settles_quietly():
-                    if pieces is None and replay.schedule is not None:
-                        pieces = glue.pieces(replay.schedule)
-                    if self._settle_glued(next(iter(blocks.values())), runs, i, pieces, digests):
+                    if self._settle_glued(next(iter(blocks.values())), runs, i, glue, digests):
                         if unkept == glue.size:
                             unkept = bounds[i]
                         break
@@ -726,13 +727,10 @@ class _Sweeper:
                     schedule = replay.schedule  # the first settle may start the default schedule
                     if schedule is not None:
                         block.absorb(schedule, first, start.num_vars)
-                if schedule is not None:
-                    if glue.size:
-                        if pieces is None:
-                            pieces = glue.pieces(schedule)
-                        after = pieces[i]
-                        if after:
-                            schedule.absorb_pieces(after, digests)
+                if schedule is not None and glue.size:
+                    after = glue.run_pieces(schedule, i)
+                    if after:
+                        schedule.absorb_pieces(after, digests)
                 if kept:
                     replay.settle_glue(glue.records(i, start.index))
                 elif unkept == glue.size:

@@ -1,0 +1,108 @@
+"""Runs of rounds hashed by the block (stepper.verify.packed_runs): the pieces that instances settled in
+bulk hand the schedule, built by columns, are the pieces built instance by instance, cut at the same
+places. The independent side is plain Python slicing and joining of the same parts (what absorbing the
+records one at a time absorbs, between two squeezes)."""
+
+from __future__ import annotations
+
+import random
+from dataclasses import dataclass
+from itertools import accumulate
+
+import numpy as np
+import pytest
+
+from stepper.verify.packed_runs import _interleaved, _one_by_one, _pieces
+
+
+@dataclass(frozen=True)
+class Parts:
+    """Frames of rows (a round's frame of ``round_len`` bytes, then its challenge's), statements ending
+    at ``ends`` and glue (run i's from ``run_ends[i]`` to ``run_ends[i + 1]``, squeezed at ``cuts[i]``)."""
+
+    frames: bytes
+    statements: bytes
+    ends: list[int]
+    glue: bytes
+    run_ends: list[int]
+    cuts: list[int]
+    round_len: int = 11
+    frame_len: int = 17
+
+
+def parts(rng: random.Random, rows: int, said_lengths: list[int], glue_cuts: list[tuple[int, int]]) -> Parts:
+    """Random frames of ``rows`` rows, statements of the lengths given and glue of (before the squeeze,
+    after it) lengths per instance."""
+    run_ends = [0, *accumulate(before + after for before, after in glue_cuts)]
+    return Parts(rng.randbytes(rows * Parts.frame_len), rng.randbytes(sum(said_lengths)), list(accumulate(said_lengths)),
+                 rng.randbytes(run_ends[-1]), run_ends,
+                 [run_ends[i] + before for i, (before, _) in enumerate(glue_cuts)])
+
+
+def by_hand(p: Parts, counts: list[int]) -> list[bytes]:
+    """The pieces between squeezes, instance by instance, with plain slicing: statement 0 and round 1; then
+    per round boundary challenge k and round k + 1; at the end of an instance its last challenge and its
+    glue up to the squeeze; then the rest of its glue, the next statement and the next first round."""
+    stream, marks, row, said_at = b"", [], 0, 0
+    for i, n in enumerate(counts):
+        stream += p.statements[said_at:p.ends[i]]
+        said_at = p.ends[i]
+        for k in range(n):
+            at = (row + k) * p.frame_len
+            stream += p.frames[at:at + p.round_len]
+            marks.append(len(stream))  # a squeeze after each round
+            stream += p.frames[at + p.round_len:at + p.frame_len]
+        row += n
+        stream += p.glue[p.run_ends[i]:p.cuts[i]]
+        marks.append(len(stream))  # the glue's squeeze
+        stream += p.glue[p.cuts[i]:p.run_ends[i + 1]]
+    bounds = [0, *marks, len(stream)]
+    return [stream[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
+
+
+def built(p: Parts, counts: list[int], by_columns: bool) -> list[bytes]:
+    frames = memoryview(p.frames)
+    cut = _pieces(frames, sum(counts), p.round_len, p.frame_len)
+    if by_columns:
+        out = _interleaved(cut, counts[0], np.frombuffer(p.frames, dtype=np.uint8), p.round_len, p.frame_len,
+                           np.frombuffer(p.statements, dtype=np.uint8), np.array(p.ends, dtype=np.int64),
+                           np.frombuffer(p.glue, dtype=np.uint8), np.array(p.run_ends, dtype=np.int64),
+                           np.array(p.cuts, dtype=np.int64))
+    else:
+        out = _one_by_one(cut, counts, frames, p.round_len, p.frame_len, memoryview(p.statements), p.ends,
+                          memoryview(p.glue), p.run_ends, p.cuts)
+    return [bytes(piece) for piece in out]
+
+
+@pytest.mark.parametrize("n", [1, 2, 5])
+@pytest.mark.parametrize("shape", ["alike", "names grow", "every one its own"])
+def test_pieces_built_by_columns_are_those_built_instance_by_instance(n: int, shape: str) -> None:
+    # instances of n rounds; statements and glue of one length ("alike"), of a length that grows twice, as
+    # names do from sailing.9 to sailing.10 and sailing.100 ("names grow"), or of a length each
+    rng = random.Random(n * 7 + len(shape))
+    count = 40
+    if shape == "alike":
+        said, glue = [23] * count, [(31, 9)] * count
+    elif shape == "names grow":
+        said = [23] * 10 + [24] * 25 + [25] * 5
+        glue = [(31, 9)] * 12 + [(34, 10)] * 20 + [(37, 11)] * 8
+    else:
+        said = [rng.randrange(20, 30) for _ in range(count)]
+        glue = [(rng.randrange(25, 40), rng.randrange(8, 12)) for _ in range(count)]
+    p = parts(rng, count * n, said, glue)
+    expected = by_hand(p, [n] * count)
+    assert len(expected) == count * (n + 1) + 1  # n squeezes of rounds and one of glue per instance
+    assert built(p, [n] * count, by_columns=True) == expected
+    assert built(p, [n] * count, by_columns=False) == expected
+
+
+def test_pieces_of_instances_of_different_round_counts_are_built_one_by_one() -> None:
+    rng = random.Random(5)
+    counts = [rng.randrange(1, 6) for _ in range(30)]
+    p = parts(rng, sum(counts), [22] * 30, [(30, 9)] * 30)
+    assert built(p, counts, by_columns=False) == by_hand(p, counts)
+
+
+def test_a_single_instance_is_its_own_span() -> None:
+    p = parts(random.Random(2), 3, [23], [(31, 9)])
+    assert built(p, [3], by_columns=True) == by_hand(p, [3])
