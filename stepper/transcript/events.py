@@ -31,6 +31,7 @@ Caps keep a hostile input from costing unbounded memory.
 from __future__ import annotations
 
 import struct
+from itertools import chain
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 from stepper.errors import FieldError, TranscriptError, Where
@@ -407,7 +408,7 @@ class Sequencer(GlueRules, AnnotationRules):
         count = len(names)
         if (not count or not self.glue or not self.defer_glue or not self._prime_modulus
                 or len(claim_exprs) != count or len(final_exprs) != count
-                or max(len(text or "") for text in (*claim_exprs, *final_exprs)) > MAX_TEXT):
+                or max(map(len, filter(None, chain(claim_exprs, final_exprs))), default=0) > MAX_TEXT):
             return None
         values = self._bulk_claims(names, num_vars, degrees, claims)
         if values is None:

@@ -53,9 +53,14 @@ class NameBook:
         if not count:
             return
         index = len(self._ends)
-        encoded = [name.encode("utf-8", "surrogatepass") for name in names]
-        self._ends.extend(islice(accumulate(map(len, encoded), initial=len(self._blob)), 1, None))
-        self._blob += b"".join(encoded)
+        joined = "".join(names)
+        if joined.isascii():  # a character a byte: the names' lengths are their bytes', encoded together
+            self._ends.extend(islice(accumulate(map(len, names), initial=len(self._blob)), 1, None))
+            self._blob += joined.encode("ascii")
+        else:
+            encoded = [name.encode("utf-8", "surrogatepass") for name in names]
+            self._ends.extend(islice(accumulate(map(len, encoded), initial=len(self._blob)), 1, None))
+            self._blob += b"".join(encoded)
         self._hashes.extend(map(hash, names))
         recent = self._recent
         if len(recent) + count >= RECENT:

@@ -19,7 +19,8 @@ from __future__ import annotations
 from collections import deque
 from dataclasses import dataclass
 from functools import lru_cache
-from operator import itemgetter
+from itertools import chain, repeat
+from operator import attrgetter, getitem, itemgetter
 from typing import TYPE_CHECKING, Any, Callable, Sequence, Union
 
 import msgpack
@@ -180,6 +181,16 @@ class RunBlock:
         rounds: list[int] = []
         self._plain_rows = False  # some runs are instances in a row (settled in bulk)
         prime = not field.is_extension
+        if prime and PlainRuns not in set(map(type, runs)):  # runs taken one by one: their columns cut at once
+            starts = list(map(itemgetter(0), runs))
+            claim_values = list(map(attrgetter("claim"), starts))  # ints, canonical (the Sequencer checked them)
+            if set(map(type, claim_values)) == {int}:
+                rests = list(map(memoryview, map(itemgetter(2), runs)))
+                parts += chain.from_iterable(zip(map(itemgetter(1), runs), map(getitem, rests, repeat(slice(None, -final_len)))))
+                finals += map(getitem, rests, repeat(slice(-width, None)))
+                claims.append(b"".join(map(int.to_bytes, claim_values, repeat(width), repeat("little"))))
+                rounds += map(attrgetter("num_vars"), starts)
+                runs = []
         for run in runs:
             if run.__class__ is PlainRuns:
                 self._plain_rows = True
@@ -313,11 +324,11 @@ class RunBlock:
 
         view = self._frames_view(schedule)
         round_len, frame_len, width = self._round_len, self._frame_len, self.layout.width
-        counts = [start.num_vars for start in starts]
+        counts = list(map(attrgetter("num_vars"), starts))
         rows = sum(counts)
-        claims = b"".join([start.claim.to_bytes(width, "little") for start in starts])  # type: ignore[union-attr]
-        statements, ends = schedule.instance_frames([start.name for start in starts], counts,
-                                                    [start.degree for start in starts], claims)
+        claims = b"".join(map(int.to_bytes, map(attrgetter("claim"), starts), repeat(width), repeat("little")))
+        statements, ends = schedule.instance_frames(list(map(attrgetter("name"), starts)), counts,
+                                                    list(map(attrgetter("degree"), starts)), claims)
         frames = view[first * frame_len:(first + rows) * frame_len]
         cut = _pieces(frames, rows, round_len, frame_len)  # round 0; (challenge k, round k + 1)...; the last challenge
         if counts.count(counts[0]) == len(counts):

@@ -40,7 +40,8 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass
-from operator import itemgetter
+from itertools import repeat
+from operator import attrgetter, itemgetter, mul
 from typing import TYPE_CHECKING, Any, Callable, Iterator
 
 import msgpack
@@ -559,12 +560,12 @@ class _Sweeper:
         if records is None:
             return False  # nothing read: the usual path takes them
         blob = memoryview(self.unpacker.read_bytes((count - 1) * period + run_end))  # the last glue: _take_glue
-        prefix, runs, trailing = layout.round_prefix, self.runs, self.trailing
-        for j, start in enumerate(records):
-            base = j * period
-            runs.append((start, prefix, blob[base + head_len + len(prefix):base + run_end], layout))  # type: ignore[arg-type]
-            if j < count - 1:
-                trailing.append([bytes(blob[base + run_end:base + period])])
+        prefix, bases = layout.round_prefix, np.arange(count, dtype=np.int64) * period
+        rows_at, ends = (bases + head_len + len(prefix)).tolist(), (bases + run_end).tolist()
+        cut = blob.__getitem__
+        self.runs += zip(records, repeat(prefix), map(cut, map(slice, rows_at, ends)), repeat(layout))
+        # the glue after each run but the last, a blob each
+        self.trailing += map(list, zip(map(bytes, map(cut, map(slice, ends[:-1], (bases[1:]).tolist())))))
         self._after_runs(count * num_vars, count * num_vars * stride)
         return True
 
@@ -651,16 +652,17 @@ class _Sweeper:
         (:meth:`~stepper.verify.replay.Replay.settle_quietly`), and run the schedule over their
         statements, rows and glue in one pass (:meth:`~stepper.verify.packed_runs.RunBlock.absorb_glued`);
         the glue's digests go to ``digests``. Returns False, having done nothing, when they are not all so."""
-        starts: list[InstanceStart] = [run[0] for run in runs[i:]]  # type: ignore[index]
+        starts: list[InstanceStart] = list(map(itemgetter(0), runs[i:]))  # type: ignore[arg-type]
         schedule = self.replay.schedule
-        if any(start.order != "low-first" or start.claim.__class__ is not int for start in starts):
+        if set(map(attrgetter("order"), starts)) != {"low-first"} or set(map(type, map(attrgetter("claim"), starts))) != {int}:
             return False
         cuts = None
         if schedule is not None:
             cuts = glue.one_squeeze_each(schedule, i)
             if cuts is None:
                 return False
-        self.replay.settle_quietly(len(starts), sum(start.num_vars * start.degree for start in starts))
+        self.replay.settle_quietly(len(starts), sum(map(mul, map(attrgetter("num_vars"), starts),
+                                                        map(attrgetter("degree"), starts))))
         first = block.skip(len(starts))
         if schedule is not None:
             assert cuts is not None
@@ -690,13 +692,16 @@ class _Sweeper:
         self.glue_unpacked = False
         seq.count += glue.from_bytes  # the events read as blobs, not counted as they were taken
         members: dict[Layout, list[Run]] = {}
-        plain_rows = False  # some runs are instances in a row, held as columns
-        for run in runs:
-            if run.__class__ is PlainRuns:
-                plain_rows = True
-                members.setdefault(run.layout, []).append(run)  # type: ignore[union-attr]
-            else:
-                members.setdefault(run[3], []).append(run)  # type: ignore[index]
+        plain_rows = PlainRuns in set(map(type, runs))  # some runs are instances in a row, held as columns
+        layouts = set() if plain_rows else set(map(itemgetter(3), runs))  # type: ignore[arg-type]
+        if len(layouts) == 1:  # the usual case: runs taken one by one, all of one round size
+            members[layouts.pop()] = runs
+        else:
+            for run in runs:
+                if run.__class__ is PlainRuns:
+                    members.setdefault(run.layout, []).append(run)  # type: ignore[union-attr]
+                else:
+                    members.setdefault(run[3], []).append(run)  # type: ignore[index]
         blocks = {layout: RunBlock(layout, group, kernel, field) for layout, group in members.items()}
         replay = self.replay
         digests = bytearray()  # of the glue's squeezes
