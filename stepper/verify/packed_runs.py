@@ -21,7 +21,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from itertools import chain, repeat
 from operator import attrgetter, getitem, itemgetter
-from typing import TYPE_CHECKING, Any, Callable, Sequence, Union
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Sequence, Union
 
 import msgpack
 
@@ -127,6 +127,12 @@ class PlainRuns:
         return list(map(blob.__getitem__, map(slice, [end - layout.width for end in ends], ends)))
 
 
+def packed_ints(values: Iterable[int], width: int) -> bytes:
+    """Canonical ints of a prime field packed as the writer packs them (``width`` bytes little-endian each),
+    one after another."""
+    return b"".join(map(int.to_bytes, values, repeat(width), repeat("little")))  # type: ignore[arg-type]
+
+
 def _joined(parts: list[Any]) -> np.ndarray:
     """The bytes of ``parts`` (bytes-like, or two-dimensional uint8 arrays of rows, which need not be
     contiguous) one after another, copied once into one array."""
@@ -182,13 +188,15 @@ class RunBlock:
         self._plain_rows = False  # some runs are instances in a row (settled in bulk)
         prime = not field.is_extension
         if prime and PlainRuns not in set(map(type, runs)):  # runs taken one by one: their columns cut at once
-            starts = list(map(itemgetter(0), runs))
+            taken: list[Any] = runs
+            starts = list(map(itemgetter(0), taken))
             claim_values = list(map(attrgetter("claim"), starts))  # ints, canonical (the Sequencer checked them)
             if set(map(type, claim_values)) == {int}:
-                rests = list(map(memoryview, map(itemgetter(2), runs)))
-                parts += chain.from_iterable(zip(map(itemgetter(1), runs), map(getitem, rests, repeat(slice(None, -final_len)))))
+                rests: list[memoryview] = list(map(memoryview, map(itemgetter(2), taken)))  # type: ignore[arg-type]
+                parts += chain.from_iterable(zip(map(itemgetter(1), taken),
+                                                 map(getitem, rests, repeat(slice(None, -final_len)))))
                 finals += map(getitem, rests, repeat(slice(-width, None)))
-                claims.append(b"".join(map(int.to_bytes, claim_values, repeat(width), repeat("little"))))
+                claims.append(packed_ints(claim_values, width))
                 rounds += map(attrgetter("num_vars"), starts)
                 runs = []
         for run in runs:
@@ -326,7 +334,7 @@ class RunBlock:
         round_len, frame_len, width = self._round_len, self._frame_len, self.layout.width
         counts = list(map(attrgetter("num_vars"), starts))
         rows = sum(counts)
-        claims = b"".join(map(int.to_bytes, map(attrgetter("claim"), starts), repeat(width), repeat("little")))
+        claims = packed_ints(map(attrgetter("claim"), starts), width)
         statements, ends = schedule.instance_frames(list(map(attrgetter("name"), starts)), counts,
                                                     list(map(attrgetter("degree"), starts)), claims)
         frames = view[first * frame_len:(first + rows) * frame_len]

@@ -562,8 +562,8 @@ class _Sweeper:
         blob = memoryview(self.unpacker.read_bytes((count - 1) * period + run_end))  # the last glue: _take_glue
         prefix, bases = layout.round_prefix, np.arange(count, dtype=np.int64) * period
         rows_at, ends = (bases + head_len + len(prefix)).tolist(), (bases + run_end).tolist()
-        cut = blob.__getitem__
-        self.runs += zip(records, repeat(prefix), map(cut, map(slice, rows_at, ends)), repeat(layout))
+        cut: Callable[[slice], memoryview] = blob.__getitem__
+        self.runs += zip(records, repeat(prefix), map(cut, map(slice, rows_at, ends)), repeat(layout))  # type: ignore[arg-type]
         # the glue after each run but the last, a blob each
         self.trailing += map(list, zip(map(bytes, map(cut, map(slice, ends[:-1], (bases[1:]).tolist())))))
         self._after_runs(count * num_vars, count * num_vars * stride)
