@@ -14,7 +14,7 @@ a regression or a broken bench shows in one command.
 Sizes (full run): fields at 2^20; binary_fields at 2^18; store at 10^6 rounds; check and check_fields at 10^4 instances
 x 24 rounds; memory at 10^4 and 10^5 instances x 2 rounds; rootcause at 2^22; witness at 2^20 and 2^22 (JSON at 2^20); app at 4,000 x 25; follow at 4,000 x 25;
 permcheck to mu = 24 (grouped only past mu = 20: the direct prover's count is its formula there); glue at
-10^4 instances x 8 rounds.
+10^4 instances x 8 rounds; startup: each command on the shipped small transcripts, best of 9.
 """
 
 from __future__ import annotations
@@ -188,6 +188,14 @@ SCRIPTS: dict[str, tuple[list[str], list[str], list[Row]]] = {
                    lambda m: f"{m[1]}x (replay path alone {m[2]}x)")),
         Row("the same, `python3 -m stepper check FILE` in fresh processes (CPU of the child, start-up included)",
             "python3 bench/glue.py", "<= 1.5x", _first(r"^fresh\s+glue/plain: ([\d.]+)x", lambda m: f"{m[1]}x")),
+    ]),
+    "startup": ([], ["--repeat", "3"], [
+        Row("start-up, fresh processes (CPU, best of 9 interleaved): `stepper --help` vs `python3 -c \"import "
+            "msgpack\"`; `stepper check` of a small transcript without and with glue expressions vs `python3 -c "
+            "\"import numpy\"`", "python3 bench/startup.py", "--help <= 2x; small check <= 1x",
+            _all(r"^stepper (--help|check \(small, (?:no )?glue\))\s+([\d.]+)\s+[\d.]+\s+([\d.]+)x\s+([\d.]+)x",
+                 lambda ms: "; ".join(f"{m[1]} {m[2]} s = " + (f"{m[3]}x msgpack" if m[1] == "--help" else
+                                                               f"{m[4]}x numpy") for m in ms))),
     ]),
 }
 

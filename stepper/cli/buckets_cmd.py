@@ -10,7 +10,6 @@ prover's bucketing is wrong; 2 for unusable input.
 from __future__ import annotations
 
 import argparse
-import json
 
 HELP = "show how a bucketing prover's buckets filled, round by round and group by group"
 DESCRIPTION = (
@@ -33,6 +32,8 @@ def run(args: argparse.Namespace) -> int:
     rows = occupancy(load(args.file))
     problems = sum(len(r.problems) for r in rows)
     if args.json:
+        import json
+
         print(json.dumps({"file": args.file, **occupancy_json(rows)}, indent=2))
         return 1 if problems else 0
     if not rows:

@@ -11,9 +11,7 @@ object of the check contract or a compact table. Exit codes: 0 accept, 1 reject,
 from __future__ import annotations
 
 import argparse
-import json
 
-from stepper.cli.check_file import check_file, colour_wanted
 from stepper.errors import UsageError
 
 HELP = "replay the verifier: which instance, which round, which check, and why"
@@ -115,8 +113,12 @@ def run(args: argparse.Namespace) -> int:
         from stepper.cli.check_many import check_many
 
         return check_many(args)
+    from stepper.cli.check_file import check_file, colour_wanted
+
     checked = check_file(args.files[0], args, keep_all=False)
     if args.json:
+        import json
+
         out = checked.to_json()
         if args.strict:
             out["strict"] = list(checked.strict)

@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any, Callable, TypeVar
 from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, StepperError, UsageError
 
 if TYPE_CHECKING:
-    from stepper.transcript.model import Note
+    from stepper.transcript.records import Note
     from stepper.verify.verdict import Report
 
 __all__ = ["Checked", "FileResult", "check_file", "load_challenger", "make_challenger", "strict_reasons", "exit_code",
@@ -203,7 +203,7 @@ def _paused_collector(work: Callable[..., _T], *args: Any, **kwargs: Any) -> _T:
 
 
 def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, challenger: Any) -> Checked:
-    from stepper.transcript.model import Note, UnknownEvent, fold_events
+    from stepper.transcript.records import Note, UnknownEvent
     from stepper.transcript.store import open_events
     from stepper.verify.replay import Replay
 
@@ -258,6 +258,7 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
         from stepper.cli.progress import terminal_progress
         from stepper.diagnose.rootcause import diagnose
         from stepper.diagnose.witness import load_witness
+        from stepper.transcript.model import fold_events
 
         transcript = fold_events(events or [], header, completeness, digest)  # type: ignore[arg-type]
         witness = load_witness(args.witness)

@@ -9,7 +9,6 @@ Exit 0 when identical, 1 when they differ, 2 when an input cannot be used.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from typing import TYPE_CHECKING
 
@@ -38,6 +37,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    import json
+
     from stepper.compare.diff import JSON_SCHEMA, compare
     from stepper.errors import UsageError
     from stepper.transcript.store import load

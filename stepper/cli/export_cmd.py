@@ -13,7 +13,6 @@ unusable FILE never costs an existing OUT its contents.
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import sys
 from itertools import chain
@@ -48,6 +47,8 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _export(path: str, out: IO[str]) -> int:
+    import json
+
     from stepper.transcript.events import to_payload
     from stepper.transcript.store import open_events
     from stepper.transcript.model import FieldDecl, InstanceStart

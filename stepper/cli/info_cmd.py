@@ -11,10 +11,8 @@ when it is corrupt (digest mismatch) or unreadable.
 from __future__ import annotations
 
 import argparse
-import json
 from dataclasses import dataclass, field as dc_field
 from typing import Any
-from stepper.transcript.condition import ROUND_RULE, file_condition, proof_condition, rounds_counted
 
 HELP = "describe a transcript: field, instances and rounds present, completeness, digest, metadata, notes"
 DESCRIPTION = (
@@ -73,6 +71,8 @@ def run(args: argparse.Namespace) -> int:
             _take(summary, record)
     info = _as_json(args.file, stream, summary)
     if args.json:
+        import json
+
         print(json.dumps(info, indent=2, default=str))
     else:
         print("\n".join(_as_text(info, summary, args.rows)))
@@ -121,6 +121,8 @@ def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
 
 
 def _info(path: str, stream: Any, summary: _Summary, fld: Any) -> dict[str, Any]:
+    from stepper.transcript.condition import file_condition, proof_condition, rounds_counted
+
     return {
         "file": path,
         "kind": stream.kind,
@@ -154,6 +156,8 @@ def _info(path: str, stream: Any, summary: _Summary, fld: Any) -> dict[str, Any]
 
 
 def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
+    from stepper.transcript.condition import ROUND_RULE
+
     lines: list[str] = []
     if info["kind"] == "transcript":
         lines.append(f"{info['file']}: stepper transcript, format {info['format_version']}, "
@@ -209,4 +213,6 @@ def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
 
 
 def _file_line(info: dict[str, Any]) -> str:
+    from stepper.transcript.condition import file_condition
+
     return file_condition(info["kind"], info["completeness"], info["digest"], info["truncated_at"])

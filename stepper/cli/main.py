@@ -11,6 +11,7 @@ error's exit code; nothing here prints a traceback for bad input.
 from __future__ import annotations
 
 import argparse
+import gc
 import importlib
 import os
 import sys
@@ -54,9 +55,11 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_INPUT, f"{self.prog}: {message} (see {self.prog} --help)\n")
 
 
-def _build_parser(only: str | None = None) -> tuple[_Parser, dict[str, object]]:
+def _build_parser(only: str | None = None, *, arguments: bool = True) -> tuple[_Parser, dict[str, object]]:
     """The parser with every subcommand, or with ``only`` that one (the command being run:
-    importing and describing the other twelve would cost every run some 15 ms)."""
+    importing and describing the other fourteen would cost every run some 15 ms). Without
+    ``arguments`` the subcommands are listed with their summaries but take no arguments: enough
+    for ``stepper --help``, ``--version`` and an unknown command, which never enter a subcommand."""
     parser = _Parser(
         prog="stepper",
         description="Step through sumcheck transcripts: replay the verifier, find the failing "
@@ -72,7 +75,8 @@ def _build_parser(only: str | None = None) -> tuple[_Parser, dict[str, object]]:
         module = importlib.import_module(f"stepper.cli.{module_name}")
         modules[name] = module
         sub = subs.add_parser(name, help=module.HELP, description=getattr(module, "DESCRIPTION", module.HELP))
-        module.add_arguments(sub)
+        if arguments:
+            module.add_arguments(sub)
     return parser, modules
 
 
@@ -98,7 +102,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"stepper: `stepper {words[0]}` is now `stepper {new}`; the old name goes in the next release",
               file=sys.stderr)
         words[0] = new
-    parser, modules = _build_parser(words[0] if words and words[0] in COMMANDS else None)
+    # argparse enters a subcommand only at a word that names it: with no such word (`stepper --help`,
+    # `stepper`, an unknown command) no subcommand's arguments are needed, and adding them (with the
+    # imports some of them make for their choices) would be most of `stepper --help`'s own time
+    named = [word for word in words if word in COMMANDS]
+    parser, modules = _build_parser(words[0] if words and words[0] in COMMANDS else None, arguments=bool(named))
     args, unknown = parser.parse_known_args(words)
     if args.command == "check" and unknown and all(w == "-" or not w.startswith("-") for w in unknown):
         args.files += unknown  # files after a flag (`check a.sumtr --strict b.sumtr`): argparse stops at the flag
@@ -151,7 +159,16 @@ def entry() -> None:
         if name not in os.environ:
             os.environ[name] = value
             _set_here.append(name)
-    sys.exit(main())
+    code = main()
+    # The process ends now, and everything still alive (stepper's and numpy's modules, classes
+    # and functions, the report) goes with it. The interpreter's shutdown would first run the
+    # cyclic collector over all of it and take apart the cycles it finds, work the exit does for
+    # free: about 0.01 s of CPU after a small check, 0.03-0.04 s after the whole-file pass of a
+    # large one (numpy loaded), measured side by side. Frozen objects are left out of it;
+    # reference counting, atexit handlers and weakref finalizers (the --challenges-exec child)
+    # work as before, and every output is closed by the command itself before this.
+    gc.freeze()
+    sys.exit(code)
 
 
 def user_environment(**extra: str) -> dict[str, str]:

@@ -9,7 +9,6 @@ or ``--json``.
 from __future__ import annotations
 
 import argparse
-import json
 from typing import Any
 
 HELP = "predict multiplications and soundness for each group count and switch-over round; recommend one"
@@ -35,6 +34,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    import json
+
     import numpy as np
 
     from stepper.errors import UsageError
@@ -118,6 +119,8 @@ def _int_list(text: str) -> list[int]:
 
 
 def _load_sigma(path: str) -> Any:
+    import json
+
     import numpy as np
 
     from stepper.errors import InputError, Where

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import argparse
 import contextlib
-import json
 import os
 from typing import Any, Iterator
 
@@ -114,6 +113,8 @@ def run(args: argparse.Namespace) -> int:
             write_witness(args.witness_out, field, proof, replace=args.force)
     summary = summarise(spec, args.field, proof)
     if args.json:
+        import json
+
         print(json.dumps({"output": args.output, "witness": args.witness_out, **summary}, indent=2))
     else:
         print(f"wrote {args.output}: {args.kind}, mu = {spec.num_vars}, {args.field}"
@@ -205,6 +206,8 @@ def write_witness(path: str, field: Any, proof: Any, *, replace: bool = False) -
         write_witness_folder(path, field, ((w.name, dict(w.tables), w.combine, w.order) for w in proof.witness),
                              replace=replace)
         return
+    import json
+
     from stepper.provers.engine import witness_payload
     from stepper.transcript.store.output import atomic_output
 

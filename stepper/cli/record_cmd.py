@@ -14,14 +14,13 @@ from __future__ import annotations
 
 import argparse
 import os
-import signal
-import subprocess
 import sys
-import tempfile
-import time
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from stepper.errors import TranscriptError, UsageError, Where
+
+if TYPE_CHECKING:
+    import subprocess
 
 HELP = "run a prover with STEPPER_EVENTS set and record its JSON-lines events into a transcript"
 DESCRIPTION = (
@@ -48,6 +47,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    import subprocess
+    import tempfile
+
     from stepper.transcript.jsonl import LineSplitter
     from stepper.transcript.store import TranscriptWriter
 
@@ -128,6 +130,8 @@ class _Follower:
         self.written = 0  # counted here: the writer also counts an event its packing then refused
 
     def follow(self, child: subprocess.Popen[bytes]) -> int:
+        import time
+
         with open(self.path, "rb") as source:
             while True:
                 running = child.poll() is None
@@ -173,6 +177,9 @@ class _Follower:
 
 
 def _stop(child: subprocess.Popen[bytes]) -> None:
+    import signal
+    import subprocess
+
     try:
         child.wait(timeout=2)
     except subprocess.TimeoutExpired:
@@ -181,6 +188,8 @@ def _stop(child: subprocess.Popen[bytes]) -> None:
 
 
 def _status_text(returncode: int) -> str:
+    import signal
+
     if returncode < 0:
         try:
             name = signal.Signals(-returncode).name

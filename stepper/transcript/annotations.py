@@ -3,11 +3,14 @@ stand anywhere after ``field``."""
 
 from __future__ import annotations
 
-from typing import Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping
 
 from stepper.transcript.payload_rules import MAX_NUM_VARS, MAX_SIZES, checked_count, checked_text, plain, short
-from stepper.transcript.model import BucketStats, Event, Note
+from stepper.transcript.records import BucketStats, Note
 from stepper.transcript.sequence_state import SequenceState
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Event
 
 __all__ = ["AnnotationRules"]
 

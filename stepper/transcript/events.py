@@ -42,9 +42,9 @@ from stepper.transcript.payload_rules import (
     MAX_DEGREE, MAX_NUM_VARS, MAX_SIZES, MAX_TEXT, MAX_VALUES, checked_count, checked_text, plain, short,
 )
 from stepper.transcript.payloads import to_payload
-from stepper.transcript.model import (
-    BatchDecl, ChallengeMsg, ChallengeMsgDraft, Event, FieldDecl, FinalValue, InstanceStart, InstanceStartDraft,
-    RoundMsg, RoundMsgDraft, ScheduleDecl, UnknownEvent,
+from stepper.transcript.records import (
+    BatchDecl, ChallengeMsg, ChallengeMsgDraft, FieldDecl, FinalValue, InstanceStart, InstanceStartDraft, RoundMsg,
+    RoundMsgDraft, ScheduleDecl, UnknownEvent,
 )
 from stepper.transcript.annotations import AnnotationRules
 from stepper.transcript.glue_rules import GlueRules
@@ -52,6 +52,7 @@ from stepper.transcript.glue_rules import GlueRules
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
     from stepper.field.shape import Element
+    from stepper.transcript.model import Event
 
 __all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
            "MAX_DEGREE"]

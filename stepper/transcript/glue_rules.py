@@ -16,13 +16,15 @@ from stepper.errors import ExpressionError, TranscriptError
 from stepper.field.field import Element
 from stepper.field.poly import EQ_FACTORED
 from stepper.transcript.payload_rules import MAX_TEXT, checked_text, short
-from stepper.transcript.model import (
-    GLUE_NAME, GLUE_NAME_PATTERN, Event, GlueDraft, InstanceStart, NamedValue, Opening, OpeningDraft, Squeeze,
+from stepper.transcript.records import InstanceStart
+from stepper.transcript.glue_records import (
+    GLUE_NAME, GLUE_NAME_PATTERN, GlueDraft, NamedValue, Opening, OpeningDraft, Squeeze,
 )
 from stepper.transcript.sequence_state import SequenceState
 
 if TYPE_CHECKING:
     from stepper.field.expr import Expr
+    from stepper.transcript.model import Event
 
 __all__ = ["GlueRules"]
 

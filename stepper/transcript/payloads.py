@@ -10,26 +10,18 @@ back; the tests pin that for every event kind and every form.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from stepper.field.field import Element, Field
 from stepper.transcript.packed import pack_elements
-from stepper.transcript.model import (
-    BatchDecl,
-    BucketStats,
-    ChallengeMsg,
-    Event,
-    FieldDecl,
-    FinalValue,
-    InstanceStart,
-    NamedValue,
-    Note,
-    Opening,
-    Squeeze,
-    RoundMsg,
-    ScheduleDecl,
+from stepper.transcript.records import (
+    BatchDecl, BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note, RoundMsg, ScheduleDecl,
     UnknownEvent,
 )
+from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Event
 
 __all__ = ["to_payload"]
 

@@ -18,7 +18,7 @@ from stepper.field.field import Element, Field
 from stepper.transcript.namebook import NameBook
 from stepper.transcript.packed import unpack_elements
 from stepper.transcript.payload_rules import MAX_VALUES, short
-from stepper.transcript.model import BatchDecl, InstanceStart, UnknownEvent
+from stepper.transcript.records import BatchDecl, InstanceStart, UnknownEvent
 
 __all__ = ["SequenceState"]
 

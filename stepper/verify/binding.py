@@ -28,10 +28,10 @@ from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
 from stepper.field.poly import FORMS, ORDERS
 from stepper.field.poly import ROUND_FORMS
-from stepper.transcript.model import (
-    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
-    Squeeze, UnknownEvent,
+from stepper.transcript.records import (
+    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, UnknownEvent,
 )
+from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 from stepper.verify.verdict import Finding
 
 if TYPE_CHECKING:

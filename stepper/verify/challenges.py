@@ -11,7 +11,6 @@ for the built-in schedule; the plug-in history grows with the proof.
 from __future__ import annotations
 
 import os
-import signal
 import threading
 import time
 from typing import TYPE_CHECKING, Any, Callable
@@ -22,7 +21,7 @@ from stepper.errors import InputError, Where
 from stepper.field.elements import clip_text
 from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
 from stepper.verify.schedules import schedule_for
-from stepper.transcript.model import FieldDecl, ScheduleDecl
+from stepper.transcript.records import FieldDecl, ScheduleDecl
 from stepper.verify.stateful import GuardedStateful, is_stateful
 from stepper.verify.verdict import Finding
 
@@ -52,6 +51,8 @@ class GuardedPlugin:
         self.seconds = seconds if seconds is not None else _seconds_from_environment()
 
     def __call__(self, history: Any) -> Any:
+        import signal  # only a plug-in's calls need it
+
         timed = (self.seconds > 0 and hasattr(signal, "setitimer")
                  and threading.current_thread() is threading.main_thread())
         if not timed:

@@ -54,7 +54,8 @@ from typing import TYPE_CHECKING, Callable, Sequence
 
 from stepper.errors import InputError
 from stepper.transcript.packed import GLUE_CODES, pack_elements
-from stepper.transcript.model import BatchDecl, FieldDecl, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl
+from stepper.transcript.records import BatchDecl, FieldDecl, InstanceStart, RoundMsg, ScheduleDecl
+from stepper.transcript.glue_records import NamedValue, Opening
 from stepper.verify.frames import INSTANCE_HEAD, OPENING_HEAD, flat_glue_stream, frame, glue_stream, instance_frames, text, u64
 
 if TYPE_CHECKING:

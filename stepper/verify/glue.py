@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING, Any, Iterable
 
 from stepper.errors import ExpressionError, TranscriptError, Where
 from stepper.field.poly import lagrange_at, point_from_challenges
-from stepper.transcript.model import NamedValue, Opening, Squeeze
+from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 
 from stepper.verify.verdict import Failure, GlueResult, SqueezeResult
 

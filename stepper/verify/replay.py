@@ -37,10 +37,10 @@ from stepper.verify.binding import Challenger
 from stepper.verify.challenges import ChallengeSource
 from stepper.errors import InputError, Where
 from stepper.verify.ledger import InstanceLedger, LiveInstance, combine_batch
-from stepper.transcript.model import (
-    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening, RoundMsg, ScheduleDecl,
-    Squeeze, Transcript, UnknownEvent,
+from stepper.transcript.records import (
+    BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, UnknownEvent,
 )
+from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 from stepper.verify.glue import GlueDesk, passing_evaluation, passing_link
 from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
@@ -51,7 +51,7 @@ from stepper.verify.streaming import InlineSetup, feed_stream, inline_setup
 if TYPE_CHECKING:
     from stepper.verify.fiatshamir import Sha256Schedule
     from stepper.field.field import Element, Field
-    from stepper.transcript.model import Event
+    from stepper.transcript.model import Event, Transcript
 
 __all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "FinalResult", "BatchResult",
            "Report", "Failure", "Finding"]

@@ -7,15 +7,18 @@ applied once per round, union bound). A proof of several instances is bounded by
 the sum. These are statements about the *protocol as replayed*, assuming
 uniformly random challenges: they say nothing about the Fiat-Shamir transform,
 about how claims are chained, or about whether the summed polynomial is the
-right one. The numbers are exact fractions; ``bits`` is -log2 of the bound.
+right one. The numbers are exact fractions; ``bits`` is -log2 of the bound (worked out from the
+integers, so the text output imports no :mod:`fractions`: only ``bound`` makes a Fraction).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from fractions import Fraction
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from fractions import Fraction
 
 __all__ = ["InstanceBound", "SoundnessSummary", "instance_bound", "bits_of", "WEAK_BITS"]
 
@@ -27,6 +30,21 @@ def bits_of(bound: Fraction) -> float | None:
     if bound <= 0:
         return None
     return round(math.log2(bound.denominator) - math.log2(bound.numerator), 1)
+
+
+def _bits(numerator: int, denominator: int) -> float | None:
+    """:func:`bits_of` of numerator / denominator (denominator > 0), from the reduced integers as
+    Fraction would hold them: the same float, without making the Fraction."""
+    if numerator <= 0:
+        return None
+    common = math.gcd(numerator, denominator)
+    return round(math.log2(denominator // common) - math.log2(numerator // common), 1)
+
+
+def _fraction(numerator: int, denominator: int) -> Fraction:
+    from fractions import Fraction  # with decimal and numbers: only the JSON and the library ask for it
+
+    return Fraction(numerator, denominator)
 
 
 @dataclass(frozen=True, slots=True)
@@ -41,11 +59,11 @@ class InstanceBound:
 
     @property
     def bound(self) -> Fraction:
-        return Fraction(self.num_vars * self.degree, self.field_order)
+        return _fraction(self.num_vars * self.degree, self.field_order)
 
     @property
     def bits(self) -> float | None:
-        return bits_of(self.bound)
+        return _bits(self.num_vars * self.degree, self.field_order)
 
     def describe(self) -> str:
         bits = self.bits
@@ -69,12 +87,14 @@ class SoundnessSummary:
     @property
     def bound(self) -> Fraction:
         if self.field_order <= 0:
-            return Fraction(0)
-        return Fraction(self.total_rounds_degree, self.field_order)
+            return _fraction(0, 1)
+        return _fraction(self.total_rounds_degree, self.field_order)
 
     @property
     def bits(self) -> float | None:
-        return bits_of(self.bound)
+        if self.field_order <= 0:
+            return None
+        return _bits(self.total_rounds_degree, self.field_order)
 
     @property
     def weak(self) -> bool:

@@ -14,7 +14,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any, Callable, Iterable
 
 from stepper.field.lagrange import round_evaluator
-from stepper.transcript.model import ChallengeMsg, RoundMsg
+from stepper.transcript.records import ChallengeMsg, RoundMsg
 
 if TYPE_CHECKING:
     from stepper.field.field import Field

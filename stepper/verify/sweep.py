@@ -55,7 +55,7 @@ from stepper.transcript.store.reader import (
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
 from stepper.verify.packed_runs import GiveUp as _GiveUp, Layout, PlainRuns, Run, RunBlock, layout_of
-from stepper.transcript.model import (
+from stepper.transcript.records import (
     FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent,
 )
 

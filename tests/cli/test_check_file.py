@@ -86,6 +86,41 @@ def test_checking_a_file_without_glue_expressions_loads_no_expression_module(swe
     assert numpy_loaded == ("True" if sweep == "on" else "False")
 
 
+_NEWLY_LOADED = ("import sys\nbefore = set(sys.modules)\nfrom stepper.cli.main import main\n"
+                 "code = main(['check', {path!r}])\nwatched = {watched!r}\n"
+                 "print(code, sorted(name for name in set(sys.modules) - before\n"
+                 "                   if name in watched or name.startswith(tuple(w + '.' for w in watched))))")
+# what a check that passes never needs: the folded transcript (model), the JSON-lines reader, the
+# diagnosis and everything past verify, the terminal libraries, galois and numba, and the standard
+# modules only some outputs use (json for --json, fractions for the exact bound in --json, signal for
+# a plug-in's time limit, subprocess for --challenges-exec)
+_NEVER_ON_A_PASSING_CHECK = (
+    "stepper.transcript.model", "stepper.transcript.jsonl", "stepper.transcript.recorder", "stepper.cli.check_many",
+    "stepper.cli.exec_plugin", "stepper.diagnose", "stepper.provers", "stepper.compare", "stepper.share",
+    "stepper.app", "galois", "numba", "textual", "rich", "json", "fractions", "signal", "subprocess",
+)
+
+
+@pytest.mark.parametrize("sweep", ["on", None])
+@pytest.mark.parametrize("sample", ["samples/boarding-jsonl.sumtr", "ferries/ferries-honest.sumtr"])
+def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_library(sweep, sample):
+    # the start-up of every check pays for each module it imports (bench/startup.py): these are
+    # imported by the code that needs them, when it needs them; an edit that imports one of them at
+    # the top of a module on the check path shows here (ferries-honest has glue expressions)
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parents[2] / "transcripts" / sample
+    env = {k: v for k, v in os.environ.items() if k != "STEPPER_SWEEP"}
+    if sweep is not None:
+        env["STEPPER_SWEEP"] = sweep
+    code = _NEWLY_LOADED.format(path=str(path), watched=_NEVER_ON_A_PASSING_CHECK)
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
+    assert proc.stdout.strip().splitlines()[-1] == "0 []", proc.stdout + proc.stderr  # accepted, nothing loaded
+
+
 @pytest.mark.parametrize("enabled", [True, False])
 def test_the_sweep_runs_with_the_cyclic_collector_paused_and_leaves_it_as_it_was(enabled, tmp_path, capsys,
                                                                                  monkeypatch):

@@ -21,6 +21,42 @@ def test_help_lists_every_subcommand(capsys):
         assert name in out
 
 
+def test_help_builds_no_subcommand_arguments_and_imports_no_command_work():
+    # `stepper --help` lists the subcommands with their summaries only: no subcommand's arguments are
+    # added (prove's fault table is read for its --fault help), and no command module imports at its
+    # top what only its run needs (json, subprocess, the check's file handling, the transcript store)
+    code = ("import sys\nbefore = set(sys.modules)\nfrom stepper.cli.main import main\ntry:\n    main(['--help'])\n"
+            "except SystemExit:\n    pass\nprint(sorted(name for name in set(sys.modules) - before if name in "
+            "('stepper.provers.faults', 'json', 'subprocess', 'signal', 'stepper.cli.check_file', "
+            "'stepper.transcript.store', 'stepper.transcript.condition', 'numpy')))")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert proc.stdout.strip().splitlines()[-1] == "[]", proc.stderr
+
+
+def test_help_after_a_command_name_still_lists_that_commands_arguments(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(["info", "--help"])
+    assert stop.value.code == 0
+    assert "--rows N" in capsys.readouterr().out
+
+
+def test_the_entry_point_freezes_what_is_alive_before_the_process_exits(monkeypatch):
+    # the shutdown's collector passes over stepper's and numpy's modules are work the exit does anyway
+    import gc
+
+    import stepper.cli.main as cli_main
+
+    calls = []
+    monkeypatch.setattr(cli_main, "main", lambda: calls.append("main") or 3)
+    monkeypatch.setattr(gc, "freeze", lambda: calls.append("freeze"))
+    monkeypatch.setattr(cli_main, "_set_here", [])
+    for name in cli_main.PROCESS_SETTINGS:
+        monkeypatch.setenv(name, "1")  # restored afterwards; entry() changes nothing already set
+    with pytest.raises(SystemExit) as stop:
+        cli_main.entry()
+    assert stop.value.code == 3 and calls == ["main", "freeze"]
+
+
 def test_unknown_subcommand_is_one_line_and_exit_2():
     proc = subprocess.run([sys.executable, "-m", "stepper", "frobnicate"], capture_output=True, text=True)
     assert proc.returncode == 2

@@ -48,6 +48,15 @@ def test_proof_bound_is_the_sum_over_instances():
     assert report.to_json()["soundness"]["bound"] == f"11/{BABYBEAR}"
 
 
+def test_bits_worked_out_from_the_integers_equal_those_of_the_reduced_fraction():
+    # the text output takes bits without making a Fraction; they must be the Fraction's to the digit,
+    # reducible pairs included (60/2013265921 does not reduce, 6/9 and 12/2^64 do)
+    for numerator, denominator in ((9, BABYBEAR), (60, BABYBEAR), (6, 9), (12, 1 << 64), (1, 1), (7, 7 ** 40)):
+        expected = bits_of(Fraction(numerator, denominator))
+        assert SoundnessSummary(denominator, numerator, 1, ()).bits == expected
+        assert InstanceBound(0, "deck-slots-zero", numerator, 1, denominator).bits == expected
+
+
 def test_zero_rounds_have_no_guessing_error():
     assert bits_of(Fraction(0)) is None
     assert InstanceBound(0, "deck-slots-zero", 0, 3, 97).bits is None

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import contextlib
 import os
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import msgpack
 
@@ -25,7 +25,10 @@ from stepper.transcript.events import MAX_TEXT
 from stepper.transcript.store.reader import EventStream, ReadLimits
 from stepper.transcript.store.pending import add_pending, lock_within, take_pending, unlock
 from stepper.transcript.store.writer import MAGIC, TranscriptWriter, header_bytes, oserror
-from stepper.transcript.model import InstanceStart, Note, Transcript, fold_events
+from stepper.transcript.records import InstanceStart, Note
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Transcript
 
 __all__ = [
     "MAGIC",
@@ -51,6 +54,8 @@ def open_events(path: str | os.PathLike[str], *, best_effort: bool = False,
 def load(path: str | os.PathLike[str], *, best_effort: bool = False,
          limits: ReadLimits | None = None) -> Transcript:
     """The whole :class:`Transcript` of a file (see :func:`open_events`)."""
+    from stepper.transcript.model import fold_events  # the fold: not needed to read events one by one
+
     with open_events(path, best_effort=best_effort, limits=limits) as stream:
         events = list(stream)
         try:

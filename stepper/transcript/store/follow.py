@@ -23,14 +23,16 @@ Invariants:
 from __future__ import annotations
 
 import os
-from typing import Iterator
+from typing import TYPE_CHECKING, Iterator
 
 import msgpack
 
 from stepper.errors import InternalError, TranscriptError
 from stepper.transcript.jsonl import LineSplitter
 from stepper.transcript.store.reader import EventStream, ReadLimits
-from stepper.transcript.model import Event
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Event
 
 __all__ = ["FollowedStream"]
 

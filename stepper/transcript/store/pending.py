@@ -17,7 +17,6 @@ On systems without ``fcntl`` locks are not available and these guarantees do not
 from __future__ import annotations
 
 import contextlib
-import json
 import os
 import time
 from typing import IO, Any, Iterator
@@ -81,6 +80,8 @@ def read_pending(path: str | os.PathLike[str]) -> list[dict[str, Any]]:
     if len(data) > MAX_PENDING_BYTES:
         raise TranscriptError(f"expected a pending-notes file of at most {MAX_PENDING_BYTES} bytes, found more",
                               Where(file=side))
+    import json  # only when a pending-notes file exists
+
     notes: list[dict[str, Any]] = []
     for number, line in enumerate(data.split(b"\n")[:-1], start=1):  # the part after the last newline is unfinished
         try:
@@ -123,6 +124,8 @@ def _locked_pending(path: str | os.PathLike[str]) -> Iterator[IO[bytes]]:
 
 def add_pending(path: str | os.PathLike[str], payload: dict[str, Any]) -> str:
     """Append one note payload to the pending-notes file of ``path`` (flushed to disk); its name."""
+    import json
+
     line = json.dumps(payload, ensure_ascii=False).encode("utf-8") + b"\n"
     try:
         with _locked_pending(path) as handle:

@@ -31,19 +31,21 @@ from __future__ import annotations
 import itertools
 import os
 from types import TracebackType
-from typing import Any, BinaryIO, Iterator
+from typing import TYPE_CHECKING, Any, BinaryIO, Iterator
 
 import msgpack
 
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import MAX_TEXT, Sequencer, plain_copy
 from stepper.transcript.condition import DIGEST_MISMATCH
-from stepper.transcript.jsonl import LineSplitter
 from stepper.transcript.store.pending import read_pending
 from stepper.transcript.store.digest import HeldBackDigest
 from stepper.transcript.store.limits import ReadLimits, make_unpacker, past_cap, unpacked
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC, oserror
-from stepper.transcript.model import FORMAT_VERSION, GLUE_VERSION, Completeness, DigestStatus, Event, Header, Note
+from stepper.transcript.records import FORMAT_VERSION, GLUE_VERSION, Header, Note
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Completeness, DigestStatus, Event
 
 __all__ = ["ReadLimits", "EventStream", "HeldBackDigest", "make_unpacker", "read_header", "appended_note",
            "unpacked"]
@@ -313,6 +315,8 @@ class EventStream:
 
     # ----- JSON-lines event files ------------------------------------------------
     def _jsonl(self, first: bytes) -> Iterator[Event]:
+        from stepper.transcript.jsonl import LineSplitter  # only JSON-lines files need it
+
         splitter = LineSplitter(self.where, self.limits.max_event_bytes)
         chunk = first
         total = 0

@@ -27,18 +27,20 @@ import datetime as _dt
 import hashlib
 import os
 from types import TracebackType
-from typing import Any, BinaryIO, Mapping
+from typing import TYPE_CHECKING, Any, BinaryIO, Mapping
 
 import msgpack
 
 from stepper import __version__
 from stepper.errors import TranscriptError, Where
 from stepper.transcript.events import Sequencer, to_payload
-from stepper.transcript.model import (
-    GLUE_VERSION, PLAIN_VERSION, Event, Header, InstanceStart, NamedValue, Note, Opening, Squeeze,
-)
+from stepper.transcript.records import GLUE_VERSION, PLAIN_VERSION, Header, InstanceStart, Note
+from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 from stepper.transcript.store.output import OutputExists, publish, refuse_existing, temp_beside, write_failed
 from stepper.transcript.store.pending import take_pending, try_lock
+
+if TYPE_CHECKING:
+    from stepper.transcript.model import Event
 
 __all__ = ["MAGIC", "END_MAX_BYTES", "TranscriptWriter", "header_bytes", "end_payload", "oserror",
            "whole_proof_note"]
