@@ -28,7 +28,7 @@ from stepper.transcript.model import NamedValue, Opening, Squeeze
 
 if TYPE_CHECKING:
     from stepper.transcript.model import Glue
-    from stepper.verify.verdict import SqueezeResult
+    from stepper.verify.results import SqueezeResult
 
 __all__ = ["GlueTrail", "SqueezeCheck", "GLUE_KINDS", "glue_kind", "names_in"]
 

@@ -30,15 +30,16 @@ from stepper.errors import ExpressionError, TranscriptError, Where
 from stepper.field.poly import lagrange_at, point_from_challenges
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 
-from stepper.verify.verdict import Failure, GlueResult, SqueezeResult
+from stepper.verify.verdict import Failure
 
 if TYPE_CHECKING:
+    from stepper.verify.results import GlueResult, SqueezeResult
     from stepper.field.expr import Expr, GlueScope
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceStart
     from stepper.verify.ledger import InstanceLedger, LiveInstance
 
-__all__ = ["GlueBook", "GlueDesk", "EqFactor", "GlueResult", "parsed", "link_result", "evaluation_result",
+__all__ = ["GlueBook", "GlueDesk", "EqFactor", "parsed", "link_result", "evaluation_result",
            "passing_link", "passing_evaluation", "MAX_POINT_ELEMENTS"]
 
 MAX_POINT_ELEMENTS = 1 << 16
@@ -171,6 +172,8 @@ def passing_link(field: Field, start: InstanceStart) -> GlueResult:
 
 
 def _link(field: Field, start: InstanceStart, text: str, expected: Element, found: Element) -> GlueResult:
+    from stepper.verify.results import GlueResult  # with the glue's first check: a file without glue makes none
+
     ok = expected == found
     explanation = (f"the claim of instance '{start.name}' equals claim_expr {text}" if ok else
                    f"the claim of instance '{start.name}' is {field.fmt(found)}, but claim_expr {text} gives "
@@ -198,6 +201,8 @@ def passing_evaluation(field: Field, start: InstanceStart, reduced: Element) -> 
 
 
 def _evaluation(field: Field, start: InstanceStart, text: str, expected: Element, found: Element) -> GlueResult:
+    from stepper.verify.results import GlueResult
+
     ok = expected == found
     explanation = (f"after round {start.num_vars} the reduced claim equals final_expr {text}" if ok else
                    f"after round {start.num_vars} the reduced claim is {field.fmt(found)}, but final_expr {text} "
@@ -252,6 +257,8 @@ class GlueDesk:
 
     def _check_squeeze(self, field: Field, record: Squeeze, derived: Any, deriver: str, live: LiveInstance | None,
                        ledger: InstanceLedger) -> SqueezeResult:
+        from stepper.verify.results import SqueezeResult
+
         where = (live.start.index, live.seen) if live is not None else (None, 0)
         if derived is None:
             return SqueezeResult(where[0], record.name, where[1], record.value, None, "unchecked")

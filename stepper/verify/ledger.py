@@ -21,7 +21,8 @@ from stepper.verify.verdict import Failure, InstanceSummary
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import BatchDecl, InstanceStart, RoundMsg
-    from stepper.verify.verdict import BatchResult, FinalResult, RoundResult
+    from stepper.verify.results import BatchResult, RoundResult
+    from stepper.verify.verdict import FinalResult
 
 __all__ = ["LiveInstance", "InstanceLedger", "combine_batch"]
 

@@ -42,18 +42,19 @@ from stepper.transcript.records import (
 )
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 from stepper.verify.glue import GlueDesk, passing_evaluation, passing_link
-from stepper.verify.verdict import BatchResult, Failure, FinalResult, Finding, Report, Result, RoundResult
+from stepper.verify.verdict import Failure, FinalResult, Finding, Report
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify.text import batch_text, final_text
 from stepper.verify.round_checks import NOT_REDERIVED, RoundDesk
 from stepper.verify.streaming import InlineSetup, feed_stream, inline_setup
 
 if TYPE_CHECKING:
+    from stepper.verify.verdict import Result
     from stepper.verify.fiatshamir import Sha256Schedule
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event, Transcript
 
-__all__ = ["Replay", "replay_transcript", "transcript_events", "RoundResult", "FinalResult", "BatchResult",
+__all__ = ["Replay", "replay_transcript", "transcript_events", "FinalResult",
            "Report", "Failure", "Finding"]
 
 
@@ -250,6 +251,8 @@ class Replay:
         self._live = live
         self._ledger.opened(start)
         if batch is not None:
+            from stepper.verify.results import BatchResult  # batched claims only
+
             combined = combine_batch(field, batch)
             ok = combined == field.lift(start.claim)
             result = BatchResult(start.index, start.name, batch.coefficient, batch.terms, batch.sources, combined,

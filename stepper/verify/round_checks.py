@@ -24,9 +24,11 @@ from stepper.errors import InputError, Where
 from stepper.field.lagrange import evaluate_round
 from stepper.field.poly import RoundPoly
 from stepper.verify.text import round_text
-from stepper.verify.verdict import Failure, Result, RoundResult
+from stepper.verify.verdict import Failure
 
 if TYPE_CHECKING:
+    from stepper.verify.results import RoundResult
+    from stepper.verify.verdict import Result
     from stepper.field.field import Element, Field
     from stepper.transcript.model import ChallengeMsg, RoundMsg
     from stepper.verify.challenges import ChallengeSource
@@ -145,6 +147,8 @@ class RoundDesk:
                 recovered: str | None, recovered_value: Element | None, check: str | None, expected: object,
                 found: object, challenge: Element | None, rederived: Element | None, claim_out: Element | None,
                 after: bool) -> RoundResult:
+        from stepper.verify.results import RoundResult  # a failed round, or every round with detail kept
+
         start, k = live.start, msg.round
         g0 = evals[0]
         g1 = evals[1] if len(evals) > 1 else evals[0]

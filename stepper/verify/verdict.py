@@ -1,5 +1,7 @@
-"""What a verifier replay returns: per-round, final and batch results, the
-proof-level :class:`Report`, and its JSON form (transcripts/EVENTS.md, check contract).
+"""What a verifier replay returns: the final result of each instance, the proof-level
+:class:`Report`, and its JSON form (transcripts/EVENTS.md, check contract). The results of
+single rounds, batched claims, glue checks and squeezes are in :mod:`stepper.verify.results`,
+which a check that passes without keeping detail never loads.
 
 Every record is frozen and holds canonical field elements; JSON turns each
 element into a decimal string (``"42"``; an extension element as its
@@ -15,17 +17,14 @@ from typing import TYPE_CHECKING, Any, Literal, Union
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Opening
+    from stepper.verify.results import BatchResult, GlueResult, RoundResult, SqueezeResult, Status, Value
     from stepper.verify.soundness import SoundnessSummary
 
+    Result = Union[RoundResult, "FinalResult", BatchResult, SqueezeResult]  # what Replay.feed returns
+
 __all__ = [
-    "Status",
     "Verdict",
-    "RoundResult",
     "FinalResult",
-    "BatchResult",
-    "GlueResult",
-    "SqueezeResult",
-    "Result",
     "Failure",
     "Finding",
     "InstanceSummary",
@@ -33,48 +32,12 @@ __all__ = [
     "PASSING_REPLAY_WARNING",
 ]
 
-Status = Literal["pass", "fail", "pending"]
 Verdict = Literal["accept", "reject", "incomplete"]
-Value = Union[int, tuple[int, ...], None]
 
 PASSING_REPLAY_WARNING = (
     "A passing replay is evidence about this one run only: it proves nothing about "
     "the soundness of the protocol's design, its Fiat-Shamir transform, or other inputs."
 )
-
-
-@dataclass(frozen=True, slots=True)
-class RoundResult:
-    """One replayed round. ``claim_in`` is c_(k-1) as carried by the replay;
-    ``evals`` are g(0..e) decoded from ``values`` (as sent); ``recovered`` names the
-    value a compressed form left out (``g(1)`` or ``c1``). ``expected``/``found``
-    describe the failed ``check`` (for ``degree``: evaluation counts).
-    ``after_failure`` marks rounds evaluated relative to a claim carried past an
-    earlier failure of the same instance."""
-
-    instance: int
-    instance_name: str
-    round: int
-    form: str
-    claim_in: Element
-    values: tuple[Element, ...]
-    evals: tuple[Element, ...]
-    recovered: str | None
-    recovered_value: Element | None
-    g0: Element
-    g1: Element
-    sum01: Element
-    degree_seen: int
-    degree_bound: int
-    challenge: Element | None
-    rederived: Element | None
-    claim_out: Element | None
-    status: Status
-    check: str | None = None
-    expected: Value = None
-    found: Value = None
-    explanation: str = ""
-    after_failure: bool = False
 
 
 @dataclass(frozen=True, slots=True)
@@ -91,57 +54,6 @@ class FinalResult:
     expected: Value = None
     found: Value = None
     explanation: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class BatchResult:
-    """The batch check of one instance: claim == sum_i coefficient^i * terms[i]."""
-
-    instance: int
-    instance_name: str
-    coefficient: Element
-    terms: tuple[Element, ...]
-    sources: tuple[str, ...]
-    combined: Element
-    claim: Element
-    status: Status
-    check: str | None = None
-    explanation: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class GlueResult:
-    """A ``link`` or ``evaluation`` check: ``expected`` is the expression's value,
-    ``found`` the claim (link) or the reduced claim after the last round (evaluation);
-    ``expr`` the expression's text."""
-
-    instance: int
-    instance_name: str
-    round: int
-    check: str
-    expr: str
-    expected: Element
-    found: Element
-    status: str
-    explanation: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class SqueezeResult:
-    """A ``squeeze`` as sent (``found``: an element, or a tuple for a list) and as the challenge
-    source re-derives it (``expected``, the same shape; None when nothing re-derives it, status
-    ``unchecked``). ``instance`` is the instance it follows (None before the first) and ``round``
-    the rounds that instance had when it arrived."""
-
-    instance: int | None
-    name: str
-    round: int
-    found: Any
-    expected: Any
-    status: str  # pass, fail or unchecked
-
-
-Result = Union[RoundResult, FinalResult, BatchResult, SqueezeResult]
 
 
 @dataclass(frozen=True, slots=True)

@@ -102,11 +102,14 @@ _NEVER_ON_A_PASSING_CHECK = (
 
 
 @pytest.mark.parametrize("sweep", ["on", None])
-@pytest.mark.parametrize("sample", ["samples/boarding-jsonl.sumtr", "ferries/ferries-honest.sumtr"])
-def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_library(sweep, sample):
+@pytest.mark.parametrize("sample, also", [
+    ("samples/boarding-jsonl.sumtr", ("stepper.verify.results",)),  # no glue: no round, glue or squeeze result
+    ("ferries/ferries-honest.sumtr", ()),  # glue expressions: its link and evaluation results are kept
+])
+def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_library(sweep, sample, also):
     # the start-up of every check pays for each module it imports (bench/startup.py): these are
     # imported by the code that needs them, when it needs them; an edit that imports one of them at
-    # the top of a module on the check path shows here (ferries-honest has glue expressions)
+    # the top of a module on the check path shows here
     import os
     import subprocess
     import sys
@@ -116,7 +119,7 @@ def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_
     env = {k: v for k, v in os.environ.items() if k != "STEPPER_SWEEP"}
     if sweep is not None:
         env["STEPPER_SWEEP"] = sweep
-    code = _NEWLY_LOADED.format(path=str(path), watched=_NEVER_ON_A_PASSING_CHECK)
+    code = _NEWLY_LOADED.format(path=str(path), watched=_NEVER_ON_A_PASSING_CHECK + also)
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
     assert proc.stdout.strip().splitlines()[-1] == "0 []", proc.stdout + proc.stderr  # accepted, nothing loaded
 

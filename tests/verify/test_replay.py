@@ -21,7 +21,8 @@ from plain_sumcheck import (
 from stepper.transcript.events import Sequencer
 from tests.verify.scheduled_proofs import scheduled_worked_example
 from stepper.verify.fiatshamir import SCHEDULE_NAME
-from stepper.verify.replay import Replay, RoundResult, replay_transcript
+from stepper.verify.replay import Replay, replay_transcript
+from stepper.verify.results import RoundResult
 from stepper.transcript.model import fold_events
 
 CHALLENGES = (5, 7, 11)  # outside the nodes 0..3, so no evaluation hides a change

@@ -14,7 +14,7 @@ from stepper.verify.challenges import ChallengeSource
 from stepper.verify.glue import GlueDesk
 from stepper.verify.ledger import InstanceLedger, LiveInstance
 from stepper.verify.round_checks import RoundDesk
-from stepper.verify.verdict import RoundResult
+from stepper.verify.results import RoundResult
 
 FIELD = get_field(BABYBEAR)
 PLAIN = Plain(BABYBEAR)
