@@ -284,7 +284,15 @@ class RunBlock:
         return self._view
 
     def absorb(self, schedule: Sha256Schedule, first: int, rounds: int) -> None:
-        """Run the schedule over the next run of this block (its statement already absorbed)."""
+        """Run the schedule over the next run of this block (its statement already absorbed). In a block
+        holding instances in a row, whose frames :meth:`absorb_plain` mostly builds itself, only this
+        run's frames are built."""
+        if self._view is None and self._plain_rows:
+            frames, round_len = _frames(schedule.row_heads(self.layout.values), self.rows[first:first + rounds],
+                                        self.layout)
+            schedule.absorb_rows(memoryview(frames.reshape(-1)), 0, rounds, round_len,  # type: ignore[arg-type]
+                                 frames.shape[1], self.digests)
+            return
         view = self._frames_view(schedule)
         schedule.absorb_rows(view, first, rounds, self._round_len, self._frame_len, self.digests)
 
@@ -298,12 +306,15 @@ class RunBlock:
         that the pieces alive at once stay few (a block's would be a few MB of views)."""
         import numpy as np
 
-        view = self._frames_view(schedule)
-        round_len, frame_len = self._round_len, self._frame_len
         counts = plain.num_vars[j:]
         width = self.layout.width
         statements, ends = schedule.instance_frames(plain.names[j:], counts, plain.degrees[j:],
                                                     plain.packed_claims[j * width:])
+        if plain.period and len(counts) > 1 and ends[-1] == ends[0] * len(counts):  # statements of one length
+            self._absorb_alike(schedule, first, counts[0], statements, ends[0])
+            return
+        view = self._frames_view(schedule)
+        round_len, frame_len = self._round_len, self._frame_len
         starts = np.zeros(len(counts) + 1, dtype=np.int64)  # each instance's first row from ``first``, then the end
         np.cumsum(counts, out=starts[1:])
         frames = np.frombuffer(view, dtype=np.uint8).reshape(-1, frame_len)
@@ -319,6 +330,30 @@ class RunBlock:
             deque(map(pieces.__setitem__, [place - top for place in places[low + 1:high]], joined[low:high - 1]),
                   maxlen=0)
             schedule.absorb_pieces(pieces, self.digests)
+
+    def _absorb_alike(self, schedule: Sha256Schedule, first: int, rounds: int, statements: bytes, said: int) -> None:
+        """:meth:`absorb_plain` for instances of one round count whose statements' frames have one length
+        ``said``: the bytes absorbed for them, each statement then its rows' frames, are laid out in one
+        buffer by three assignments (:func:`_fill_frames`), so the pieces between two squeezes lie at the
+        same offsets in every instance and one cached C call cuts ``_ABSORB_INSTANCES`` instances' pieces
+        (:func:`_alike_cut`): no gather per instance, no frames of the block built first."""
+        import numpy as np
+
+        round_head, challenge_head = schedule.row_heads(self.layout.values)
+        count = len(statements) // said
+        round_len = len(round_head) + self.layout.values * self.layout.width
+        frame_len = round_len + len(challenge_head) + self.layout.width
+        period = said + rounds * frame_len
+        stream = np.empty((count, period), dtype=np.uint8)
+        stream[:, :said] = np.frombuffer(statements, dtype=np.uint8).reshape(count, said)
+        rows = self.rows[first:first + count * rounds].reshape(count, rounds, -1)
+        _fill_frames((round_head, challenge_head), rows, self.layout,
+                     stream[:, said:].reshape(count, rounds, frame_len))
+        view = memoryview(stream.reshape(-1))  # type: ignore[arg-type]
+        for low in range(0, count, _ABSORB_INSTANCES):
+            group = min(_ABSORB_INSTANCES, count - low)
+            cut = _alike_cut(group, said, rounds, round_len, frame_len)
+            schedule.absorb_pieces(cut(view[low * period:(low + group) * period]), self.digests)
 
     def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart], glue: memoryview,
                      run_ends: np.ndarray, cuts: np.ndarray, glue_digests: bytearray) -> None:
@@ -556,11 +591,34 @@ def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: Layout) -> tup
     bytes (one row each), and the length of the round frame."""
     import numpy as np
 
+    round_len = len(heads[0]) + layout.values * layout.width
+    frames = np.empty((len(rows), round_len + len(heads[1]) + layout.width), dtype=np.uint8)
+    _fill_frames(heads, rows, layout, frames)
+    return frames, round_len
+
+
+def _fill_frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: Layout, out: np.ndarray) -> None:
+    """Write into ``out`` (last axis a round's frame then its challenge's) the frames of ``rows`` (the
+    same leading axes, last axis a round and challenge event's packed bytes)."""
+    import numpy as np
+
     round_head, challenge_head = heads
     round_len = len(round_head) + layout.values * layout.width
-    frames = np.empty((len(rows), round_len + len(challenge_head) + layout.width), dtype=np.uint8)
-    frames[:, :len(round_head)] = np.frombuffer(round_head, dtype=np.uint8)
-    frames[:, len(round_head):round_len] = rows[:, len(layout.round_prefix):layout.round_len]
-    frames[:, round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
-    frames[:, round_len + len(challenge_head):] = rows[:, layout.stride - layout.width:]
-    return frames, round_len
+    out[..., :len(round_head)] = np.frombuffer(round_head, dtype=np.uint8)
+    out[..., len(round_head):round_len] = rows[..., len(layout.round_prefix):layout.round_len]
+    out[..., round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
+    out[..., round_len + len(challenge_head):] = rows[..., layout.stride - layout.width:]
+
+
+@lru_cache(maxsize=8)
+def _alike_cut(count: int, said: int, rounds: int, round_len: int, frame_len: int
+               ) -> Callable[[memoryview], tuple[memoryview, ...]]:
+    """One C call cutting the bytes absorbed for ``count`` instances laid out alike (each a statement
+    frame of ``said`` bytes, then ``rounds`` rows of frames: a round's of ``round_len`` bytes, then its
+    challenge's, ``frame_len`` in all) into the pieces absorbed between two squeezes: the first
+    statement with its first round, each challenge with what follows it up to the next round's end (the
+    next statement too, after an instance's last challenge), then the last challenge."""
+    period = said + rounds * frame_len
+    squeezes = [i * period + said + round_len + k * frame_len for i in range(count) for k in range(rounds)]
+    bounds = [0, *squeezes, count * period]
+    return itemgetter(*(slice(low, high) for low, high in zip(bounds, bounds[1:])))

@@ -96,14 +96,16 @@ def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) 
     The digits of W mod p^k are the k lowest base-p digits of W, so no reduction mod p^k is made:
     below 2^32, W's 32-bit words are divided by p k times in numpy, from the top word down (each
     partial remainder below p, so each step fits 64 bits), the remainders being the digits; Python
-    ints in object arrays otherwise."""
+    ints in object arrays otherwise. Each step divides by the scalar p with ``floor_divide`` (numpy
+    divides by a scalar with a multiply and shifts) and takes the remainder as partial - q p: about
+    twice as fast as ``np.divmod``, which divides entry by entry in hardware."""
     base, k = kernel.base, kernel.k
     p = base.p
     count = samples.shape[0]
     if p < 2**32 and base.dtype is not object:
         words = np.zeros((count, -(-wide // 4)), dtype=np.uint32)
         words.view(np.uint8)[:, :wide] = samples[:, :wide]
-        rest = words.T.astype(np.uint64)  # one row per word, least significant first; quotients as they come
+        rest = words.T.astype(np.uint64, order="C")  # one row per word (contiguous: a strided row divides slowly)
         digits = np.empty((k, count), dtype=np.uint64)
         p64, s32 = np.uint64(p), np.uint64(32)
         partial = np.empty(count, dtype=np.uint64)
@@ -115,7 +117,9 @@ def reduce_wide_digits(kernel: ExtensionKernel, samples: np.ndarray, wide: int) 
             for word in range(top - 1, -1, -1):
                 np.left_shift(remainder, s32, out=partial)
                 partial |= rest[word]
-                np.divmod(partial, p64, out=(rest[word], remainder))
+                quotient = np.floor_divide(partial, p64, out=rest[word])
+                np.multiply(quotient, p64, out=remainder)
+                np.subtract(partial, remainder, out=remainder)
         return digits.T
     if p == GOLDILOCKS and k == 2 and wide <= 32:
         return _goldilocks_digits(base, samples, wide)
@@ -139,10 +143,10 @@ def _goldilocks_digits(base: Kernel, samples: np.ndarray, wide: int) -> np.ndarr
     raw = np.zeros((count, 36), dtype=np.uint8)  # a spare 32-bit digit above W for the last subtraction
     raw[:, :wide] = samples[:, :wide]
     reduce128 = base.reduce128  # type: ignore[attr-defined]  # a GoldilocksKernel here
-    words = raw[:, :32].view("<u8").T.astype(np.uint64)
+    words = raw[:, :32].view("<u8").T.astype(np.uint64, order="C")
     c0 = reduce128(words[1], reduce128(words[2], words[3]))
     c0 = reduce128(words[0], c0)
-    rest = raw.view("<u4").T.astype(np.int64)  # nine signed 32-bit digits, least significant first
+    rest = raw.view("<u4").T.astype(np.int64, order="C")  # nine signed 32-bit digits, least significant first
     mask = np.int64(0xFFFFFFFF)
     rest[0] -= (c0 & np.uint64(0xFFFFFFFF)).astype(np.int64)
     rest[1] -= (c0 >> np.uint64(32)).astype(np.int64)

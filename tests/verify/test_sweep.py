@@ -1008,6 +1008,41 @@ def test_a_fault_among_plain_instances_in_a_row_makes_the_sweep_give_up_and_chec
         assert swept is None and code != 0
 
 
+@pytest.mark.parametrize("field", ["goldilocks", "babybear^4", "koalabear^4", "mersenne31^4", "goldilocks^2", "p97^3",
+                                   "bn254"])
+@pytest.mark.parametrize("schedule", ["builtin", "builtin2"])
+def test_instances_laid_out_alike_are_hashed_from_one_buffer_and_a_changed_challenge_is_left_to_the_replay(
+        tmp_path, capsys, monkeypatch, field, schedule):
+    # one round count and names of one length: the statements' and rows' frames absorbed from one buffer cut
+    # at the same offsets in every instance (a few instances per call, the last call shorter), the report the
+    # replay's; a challenge changed anywhere among them makes the re-derived one differ, the sweep give up
+    alike: list[int] = []
+    real = packed_runs.RunBlock._absorb_alike
+
+    def spy(self: packed_runs.RunBlock, schedule_: object, first: int, rounds: int, statements: bytes,
+            said: int) -> None:
+        alike.append(len(statements) // said)
+        real(self, schedule_, first, rounds, statements, said)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(packed_runs.RunBlock, "_absorb_alike", spy)
+    monkeypatch.setattr(packed_runs, "_ABSORB_INSTANCES", 3)
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 64)
+    knobs = Knobs(field=field, schedule=schedule, instances=50, num_vars=4, degrees=(3,), low_first=True,
+                  names=("sailing-",), seed=71)  # instances 10 to 49: names of one length
+    written = write_transcript(tmp_path / "alike.sumtr", knobs)
+    for keep in (0, 5):
+        alike.clear()
+        assert_same_report(written.path, keep)
+        assert sum(alike) >= 30 and max(alike) > 3, alike  # not vacuous: most instances, several calls each
+    for seed in (3, 5):  # the fault at instances 15 and 39
+        knobs = Knobs(field=field, schedule=schedule, instances=50, num_vars=4, degrees=(3,), low_first=True,
+                      names=("sailing-",), fault="challenge", seed=seed)
+        broken = write_transcript(tmp_path / f"broken-{seed}.sumtr", knobs)
+        assert swept_report(broken.path, 3) is None
+        code, out, _, swept = check_both(capsys, monkeypatch, broken.path, "--rows", "3")
+        assert swept is None and code == 1 and "challenge" in out, out
+
+
 @pytest.mark.parametrize("field", ["bn254", "bls12-381"])
 @pytest.mark.parametrize("schedule", ["builtin", "builtin2"])
 def test_limb_fields_under_both_schedules_sweep_honest_runs_and_leave_every_fault_to_the_replay(
