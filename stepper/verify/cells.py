@@ -18,7 +18,7 @@ import numpy as np
 from stepper.field.kernels import ExtensionKernel, Kernel
 from stepper.field.kernels.limbs import LimbKernel
 
-__all__ = ["decode_cells", "below_p", "words_to_ints"]
+__all__ = ["decode_cells", "decode_grid", "below_p", "words_to_ints"]
 
 
 def decode_cells(kernel: Kernel, cells: np.ndarray, width: int) -> np.ndarray:
@@ -40,6 +40,29 @@ def decode_cells(kernel: Kernel, cells: np.ndarray, width: int) -> np.ndarray:
         padded[:, :width] = flat
         return padded.view("<u8").reshape(count).astype(np.uint64)
     return words_to_ints(flat)
+
+
+def decode_grid(kernel: Kernel, cells: np.ndarray, values: int, width: int) -> np.ndarray:
+    """The round values packed in ``cells`` (uint8, one row of ``values`` elements of ``width`` bytes per
+    round), shape (n, values), or (n, values, k) for an extension, as :func:`decode_cells` would give
+    them reshaped. For uint64 entries of 4- or 8-byte cells the result is a view of one C-contiguous
+    array of shape (values, n), or (values, k, n): each g(j) (each coefficient of each g(j)) one
+    contiguous column, made by one widening pass straight from the rows (the Newton form of
+    :func:`stepper.verify.roundblock.evaluate_at` works on those columns; a copy into rows and a
+    transposed copy after it cost about five times as much)."""
+    k = kernel.k if isinstance(kernel, ExtensionKernel) else 1
+    base = kernel.base if isinstance(kernel, ExtensionKernel) else kernel
+    cell = width // k
+    count = len(cells)
+    if base.dtype is object or isinstance(base, LimbKernel) or cell not in (4, 8) or cells.ndim != 2 \
+            or cells.shape[1] != values * width or cells.strides[1] != 1:
+        decoded = decode_cells(kernel, cells, width)
+        return decoded.reshape(count, values, *decoded.shape[1:])
+    words = cells.view("<u4" if cell == 4 else "<u8")  # (n, values k): the last axis is contiguous
+    grid = words.T.astype(np.uint64, order="C")
+    if k == 1:
+        return grid.T
+    return grid.reshape(values, k, count).transpose(2, 0, 1)
 
 
 _FROM_BYTES = np.frompyfunc(int.from_bytes, 2, 1)

@@ -176,7 +176,7 @@ class RunBlock:
         import numpy as np
 
         from stepper.field.kernels.limbs import LimbKernel
-        from stepper.verify.cells import decode_cells
+        from stepper.verify.cells import decode_cells, decode_grid
 
         self.layout = layout
         self.kernel = kernel
@@ -215,16 +215,13 @@ class RunBlock:
             rounds.append(start.num_vars)
         rows = _joined(parts).reshape(-1, layout.stride)
         round_at, challenge_at = len(layout.round_prefix), layout.round_len + len(layout.challenge_prefix)
-        if not (np.array_equal(rows[:, :round_at], _bytes_row(layout.round_prefix, len(rows)))
-                and np.array_equal(rows[:, layout.round_len:challenge_at],
-                                   _bytes_row(layout.challenge_prefix, len(rows)))):
+        if not _prefixes_hold(rows, layout):
             raise GiveUp("events laid out otherwise")
         self.rows = rows
         if isinstance(kernel, LimbKernel):  # each g(j)'s limbs contiguous: the block check reads them by j
             self.evals = kernel.from_bytes_grid(rows[:, round_at:layout.round_len], layout.values)
-        else:
-            evals = decode_cells(kernel, rows[:, round_at:layout.round_len], width)
-            self.evals = evals.reshape(len(rows), layout.values, *evals.shape[1:])
+        else:  # value-major columns (a view): evaluate_at's Newton form reads them without a copy
+            self.evals = decode_grid(kernel, rows[:, round_at:layout.round_len], layout.values, width)
         self.challenges = decode_cells(kernel, rows[:, challenge_at:], width)
         self._final_cells = np.frombuffer(b"".join(finals), dtype=np.uint8).reshape(-1, width)
         self.finals = decode_cells(kernel, self._final_cells, width)
@@ -343,17 +340,20 @@ class RunBlock:
         count = len(statements) // said
         round_len = len(round_head) + self.layout.values * self.layout.width
         frame_len = round_len + len(challenge_head) + self.layout.width
-        period = said + rounds * frame_len
-        stream = np.empty((count, period), dtype=np.uint8)
-        stream[:, :said] = np.frombuffer(statements, dtype=np.uint8).reshape(count, said)
+        period, most = said + rounds * frame_len, _ABSORB_INSTANCES
+        stream = np.empty((-(-count // most) * most, period), dtype=np.uint8)  # whole groups: one cut for all
+        stream[:count, :said] = np.frombuffer(statements, dtype=np.uint8).reshape(count, said)
         rows = self.rows[first:first + count * rounds].reshape(count, rounds, -1)
         _fill_frames((round_head, challenge_head), rows, self.layout,
-                     stream[:, said:].reshape(count, rounds, frame_len))
+                     stream[:count, said:].reshape(count, rounds, frame_len))
         view = memoryview(stream.reshape(-1))  # type: ignore[arg-type]
-        for low in range(0, count, _ABSORB_INSTANCES):
-            group = min(_ABSORB_INSTANCES, count - low)
-            cut = _alike_cut(group, said, rounds, round_len, frame_len)
-            schedule.absorb_pieces(cut(view[low * period:(low + group) * period]), self.digests)
+        cut = _alike_cut(most, said, rounds, round_len, frame_len)
+        for low in range(0, count, most):
+            pieces = cut(view[low * period:(low + most) * period])
+            group = count - low
+            if group < most:  # the last group: its pieces, the last one cut after its challenge's frame
+                pieces = (*pieces[:group * rounds], pieces[group * rounds][:frame_len - round_len])
+            schedule.absorb_pieces(pieces, self.digests)
 
     def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart], glue: memoryview,
                      run_ends: np.ndarray, cuts: np.ndarray, glue_digests: bytearray) -> None:
@@ -578,6 +578,30 @@ def _with_statements(frames: np.ndarray, rows: np.ndarray, round_len: int, state
     out[np.arange(ends[0], ends[0] + named) + shift] = np.frombuffer(statements, dtype=np.uint8)[ends[0]:]
     view = memoryview(out)  # type: ignore[arg-type]
     return list(map(view.__getitem__, map(slice, offsets.tolist(), (offsets + sizes).tolist())))
+
+
+def _prefixes_hold(rows: np.ndarray, layout: Layout) -> bool:
+    """Whether every row (uint8, shape (n, stride)) starts with the layout's round prefix and holds its
+    challenge prefix after the round's values. Rows of a whole number of 32-bit words (every layout:
+    the two prefixes fill 44 bytes, the values whole words) are compared a word at a time under a
+    mask, a few words of each row (a strided column of words costs about as much as one of bytes);
+    others byte by byte."""
+    import numpy as np
+
+    spans = ((0, layout.round_prefix), (layout.round_len, layout.challenge_prefix))
+    size = 8 if layout.stride % 8 == 0 else 4 if layout.stride % 4 == 0 else 1
+    if size == 1 or not rows.flags.c_contiguous:
+        return all(np.array_equal(rows[:, at:at + len(fixed)], _bytes_row(fixed, len(rows))) for at, fixed in spans)
+    kind = f"<u{size}"
+    words = rows.view(kind)
+    for at, fixed in spans:
+        low, high = at // size, -(-(at + len(fixed)) // size)
+        template, mask = np.zeros((2, (high - low) * size), dtype=np.uint8)
+        template[at - low * size:at - low * size + len(fixed)] = np.frombuffer(fixed, dtype=np.uint8)
+        mask[at - low * size:at - low * size + len(fixed)] = 0xFF
+        if not ((words[:, low:high] & mask.view(kind)) == template.view(kind)).all():
+            return False
+    return True
 
 
 def _bytes_row(data: bytes, count: int) -> np.ndarray:

@@ -242,29 +242,72 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
 
 
 def _evaluate_columns(kernel: ExtensionKernel, evals: np.ndarray, points: np.ndarray) -> np.ndarray:
-    """:func:`evaluate_at` over an extension with uint64 coefficients, by columns: the block is
-    turned once into one contiguous array per coefficient of each g(j) (a strided column costs
-    numpy about twice a contiguous one), and the same Newton form runs on lists of k columns;
-    the products go through :func:`_mul_columns`."""
-    base, m, p = kernel.base, evals.shape[1], kernel.p
-    columns = np.ascontiguousarray(evals.transpose(1, 2, 0))  # (m, k, n)
-    r = list(np.ascontiguousarray(points.T))
-    layer = [list(columns[j]) for j in range(m)]
+    """:func:`evaluate_at` over an extension with uint64 coefficients, by columns: the block is held
+    as one contiguous row per g(j) with its k coefficient columns one after another (a view when
+    :func:`stepper.verify.cells.decode_grid` decoded it), so Newton's differences and the 1/d! are
+    one pass per row over every coefficient at once (they are the same linear map of the degree on
+    each coefficient). Horner's rule then multiplies by r - j: through :func:`_horner_lazy` when k
+    raw products fit in 64 bits, else :func:`_mul_columns` on lists of k columns."""
+    base, m, p, k = kernel.base, evals.shape[1], kernel.p, kernel.k
+    count = len(evals)
+    rows = np.ascontiguousarray(evals.transpose(1, 2, 0)).reshape(m, k * count)  # row j: g(j)'s k columns
+    layer = list(rows)
     deltas = [layer[0]]
     for _ in range(1, m):
-        layer = [[base.sub(x, y) for x, y in zip(layer[i + 1], layer[i])] for i in range(len(layer) - 1)]
+        layer = [base.sub(layer[i + 1], layer[i]) for i in range(len(layer) - 1)]
         deltas.append(layer[0])
     for d in range(2, m):  # the 1/d! of Newton's form: constants of the degree
         if d == 2 and isinstance(base, WideKernel):  # a half by a shift: a product costs ~30 numpy passes here
-            deltas[d] = [_halve(column, p) for column in deltas[d]]
+            deltas[d] = _halve(deltas[d], p)
             continue
-        inverse = base.array([pow(factorial(d), -1, p)])
-        deltas[d] = [base.mul(column, inverse) for column in deltas[d]]
-    acc = deltas[m - 1]
+        deltas[d] = base.mul(deltas[d], base.array([pow(factorial(d), -1, p)]))
+    coefficients = [row.reshape(k, count) for row in deltas]  # each (k, n): one column per coefficient
+    r = np.ascontiguousarray(points.T)
+    if _horner_fits(kernel):
+        return _horner_lazy(kernel, coefficients, r).T
+    acc = list(coefficients[m - 1])
+    r_columns = list(r)
     for d in range(m - 1, 0, -1):
-        shifted = r if d == 1 else [base.sub(r[0], base.array([d - 1])), *r[1:]]
-        acc = [base.add(x, y) for x, y in zip(deltas[d - 1], _mul_columns(kernel, acc, shifted))]
+        shifted = r_columns if d == 1 else [base.sub(r_columns[0], base.array([d - 1])), *r_columns[1:]]
+        acc = [base.add(x, y) for x, y in zip(coefficients[d - 1], _mul_columns(kernel, acc, shifted))]
     return np.stack(acc, axis=1)
+
+
+def _horner_fits(kernel: ExtensionKernel) -> bool:
+    """Whether :func:`_horner_lazy` applies: a prime below 2^32 whose k raw products plus one entry
+    below p fit in 64 bits (BabyBear^4, KoalaBear^4, Mersenne31^4)."""
+    return isinstance(kernel.base, SmallPrimeKernel) and kernel.k * (kernel.p - 1) ** 2 + kernel.p < 2**64
+
+
+def _horner_lazy(kernel: ExtensionKernel, coefficients: list[np.ndarray], r: np.ndarray) -> np.ndarray:
+    """Horner's rule c_(m-1), c_(m-2) + acc (r - (m-2)), ..., c_0 + acc r over an extension, each
+    argument (k, n) coefficient columns, the result too. Multiplying by r is the k x k matrix whose
+    column i is X^i r mod q (built once per block: X r is r shifted up, its top coefficient times
+    X^k mod q folded in); by r - j it is that matrix minus j on its diagonal (X^i stays below X^k).
+    Each step is one sum of k raw products per coefficient (``einsum``: no product array), plus the
+    coefficient c, and one remainder: below 2^64 by :func:`_horner_fits`."""
+    base, k = kernel.base, kernel.k
+    p64 = np.uint64(kernel.p)
+    count = r.shape[1]
+    matrix = np.empty((k, k, count), dtype=np.uint64)  # matrix[t, i]: coefficient t of X^i r mod q
+    matrix[:, 0] = r
+    for i in range(1, k):
+        top = matrix[k - 1, i - 1]
+        matrix[1:, i] = matrix[:-1, i - 1]
+        matrix[0, i] = 0
+        for t, constant in enumerate(kernel.xk):  # X^k = sum of xk[t] X^t (mod q)
+            if constant:
+                matrix[t, i] = base.add(matrix[t, i], mod_u64(top * np.uint64(constant), p64))
+    diagonal = matrix.reshape(k * k, count)[::k + 1]  # matrix[t, t], a view
+    r_diagonal = diagonal.copy()
+    m = len(coefficients)
+    acc = coefficients[m - 1]
+    for d in range(m - 1, 0, -1):
+        diagonal[...] = r_diagonal if d == 1 else base.sub(r_diagonal, base.array([d - 1]))
+        raw = np.einsum("in,tin->tn", acc, matrix)
+        raw += coefficients[d - 1]
+        acc = mod_u64(raw, p64, out=raw)
+    return acc
 
 
 def _halve(column: np.ndarray, p: int) -> np.ndarray:

@@ -1,7 +1,9 @@
 """Runs of rounds hashed by the block (stepper.verify.packed_runs): the pieces that instances settled in
 bulk hand the schedule, built by columns, are the pieces built instance by instance, cut at the same
 places. The independent side is plain Python slicing and joining of the same parts (what absorbing the
-records one at a time absorbs, between two squeezes)."""
+records one at a time absorbs, between two squeezes). The fixed bytes of a block's rows are checked
+against msgpack's own packing of a round and a challenge event of each size (``msgpack.packb`` of the
+payload the writer writes, transcripts/FORMAT.md); a row is one round event and its challenge event."""
 
 from __future__ import annotations
 
@@ -9,10 +11,11 @@ import random
 from dataclasses import dataclass
 from itertools import accumulate
 
+import msgpack
 import numpy as np
 import pytest
 
-from stepper.verify.packed_runs import _interleaved, _one_by_one, _pieces
+from stepper.verify.packed_runs import _alike_cut, _interleaved, _one_by_one, _pieces, _prefixes_hold, layout_of
 
 
 @dataclass(frozen=True)
@@ -106,3 +109,55 @@ def test_pieces_of_instances_of_different_round_counts_are_built_one_by_one() ->
 def test_a_single_instance_is_its_own_span() -> None:
     p = parts(random.Random(2), 3, [23], [(31, 9)])
     assert built(p, [3], by_columns=True) == by_hand(p, [3])
+
+
+def packed_rows(values: int, width: int, count: int, rng: random.Random) -> np.ndarray:
+    """``count`` rows of a round of ``values`` random elements of ``width`` bytes and its challenge, each
+    event packed by msgpack itself."""
+    rows = []
+    for _ in range(count):
+        round_event = msgpack.packb({"type": "round", "evals": rng.randbytes(values * width)}, use_bin_type=True)
+        challenge = msgpack.packb({"type": "challenge", "value": rng.randbytes(width)}, use_bin_type=True)
+        rows.append(round_event + challenge)
+    return np.frombuffer(b"".join(rows), dtype=np.uint8).reshape(count, -1)
+
+
+@pytest.mark.parametrize("width", [1, 4, 8, 16, 32, 48])  # F_97, 31-bit primes, Goldilocks, extensions, BN254, ...
+@pytest.mark.parametrize("values", [1, 2, 3, 4, 5])
+def test_prefixes_hold_for_msgpacks_own_rows_and_fail_for_any_prefix_byte_changed(values, width):
+    # strides of 8-byte words, of 4-byte words and odd ones (width 1): each compared its own way
+    rng = random.Random(values * 100 + width)
+    layout = layout_of(values, width)
+    rows = packed_rows(values, width, 40, rng)
+    assert rows.shape[1] == layout.stride
+    assert _prefixes_hold(rows, layout)
+    round_end = layout.round_len
+    fixed = [*range(len(layout.round_prefix)), *range(round_end, round_end + len(layout.challenge_prefix))]
+    free = [*range(len(layout.round_prefix), round_end), *range(round_end + len(layout.challenge_prefix),
+                                                                 layout.stride)]
+    for at in fixed:
+        changed = rows.copy()
+        changed[rng.randrange(len(rows)), at] ^= 1 << rng.randrange(8)
+        assert not _prefixes_hold(changed, layout), at
+    for at in free:  # the values and the challenge are not the prefixes' business
+        changed = rows.copy()
+        changed[rng.randrange(len(rows)), at] ^= 0xFF
+        assert _prefixes_hold(changed, layout), at
+
+
+@pytest.mark.parametrize("count, rounds, said", [(1, 1, 5), (1, 4, 0), (3, 1, 9), (5, 3, 7), (64, 24, 40)])
+def test_instances_laid_out_alike_are_cut_where_plain_slicing_cuts_them(count, rounds, said):
+    # each instance a statement of ``said`` bytes then its rows' frames, in one buffer cut by one cached
+    # call; by hand: a squeeze after every round's frame, the pieces what lies between two squeezes
+    rng = random.Random(count * 1000 + rounds)
+    round_len, frame_len = 11, 17
+    stream, marks = b"", []
+    for _ in range(count):
+        stream += rng.randbytes(said)
+        for _ in range(rounds):
+            stream += rng.randbytes(round_len)
+            marks.append(len(stream))
+            stream += rng.randbytes(frame_len - round_len)
+    bounds = [0, *marks, len(stream)]
+    got = _alike_cut(count, said, rounds, round_len, frame_len)(memoryview(stream))
+    assert [bytes(piece) for piece in got] == [stream[a:b] for a, b in zip(bounds, bounds[1:])]

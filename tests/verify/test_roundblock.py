@@ -386,6 +386,8 @@ EXTENSIONS = {  # constant term first, monic (stepper.field.field.DEFAULT_IRREDU
     "goldilocks^2": (GOLDILOCKS, (GOLDILOCKS - 7, 0, 1)),
     "p97^3": (97, (92, 0, 0, 1)),  # X^3 - 5: 5 is not a cube mod 97 (5^32 = 35 mod 97)
     "p7^2+": (7, (3, 1, 1)),  # X^2 + X + 3 over F_7: no root mod 7 (checked below)
+    # five raw products of BabyBear entries pass 2^64: Horner's products reduced power by power
+    "babybear^5": (BABYBEAR, (BABYBEAR - 2, 0, 0, 0, 0, 1)),  # X^5 - 2, irreducible per galois (checked below)
 }
 
 
@@ -433,6 +435,21 @@ def test_evaluate_at_over_extensions_equals_galois_lagrange_interpolation(name, 
     for row, x, value in zip(rows, points, got):
         poly = galois.lagrange_poly(nodes, ext([to_galois(p, c) for c in row]))
         assert value == from_galois(p, k, int(poly(ext(to_galois(p, x)))))
+
+
+@pytest.mark.parametrize("name", sorted(EXTENSIONS))
+def test_evaluate_at_reads_value_major_columns_as_it_reads_rows(name):
+    # the sweep's blocks arrive as views of (m, k, n) columns (stepper.verify.cells.decode_grid); the
+    # result must not depend on the layout (the rows' result is checked against galois above)
+    p, q = EXTENSIONS[name]
+    k, m = len(q) - 1, 4
+    kernel = block_kernel(get_field(p, q))
+    rng = np.random.default_rng(len(name))
+    rows = rng.integers(0, p, size=(300, m, k), dtype=np.uint64)
+    points = rng.integers(0, p, size=(300, k), dtype=np.uint64)
+    columns = np.ascontiguousarray(rows.transpose(1, 2, 0)).transpose(2, 0, 1)
+    assert not columns.flags.c_contiguous
+    assert np.array_equal(evaluate_at(kernel, columns, points), evaluate_at(kernel, rows, points))
 
 
 @pytest.mark.parametrize("p", [BN254, BLS12_381, 2**64 - 59])
