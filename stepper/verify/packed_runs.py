@@ -582,32 +582,12 @@ def _with_statements(frames: np.ndarray, rows: np.ndarray, round_len: int, state
 
 def _prefixes_hold(rows: np.ndarray, layout: Layout) -> bool:
     """Whether every row (uint8, shape (n, stride)) starts with the layout's round prefix and holds its
-    challenge prefix after the round's values. Rows of a whole number of 32-bit words (every layout:
-    the two prefixes fill 44 bytes, the values whole words) are compared a word at a time under a
-    mask, a few words of each row (a strided column of words costs about as much as one of bytes);
-    others byte by byte."""
+    challenge prefix after the round's values (compared byte by byte: masked 32-bit words measured
+    slower, a strided column of words costing about what one of bytes does)."""
     import numpy as np
 
-    spans = ((0, layout.round_prefix), (layout.round_len, layout.challenge_prefix))
-    size = 8 if layout.stride % 8 == 0 else 4 if layout.stride % 4 == 0 else 1
-    if size == 1 or not rows.flags.c_contiguous:
-        return all(np.array_equal(rows[:, at:at + len(fixed)], _bytes_row(fixed, len(rows))) for at, fixed in spans)
-    kind = f"<u{size}"
-    words = rows.view(kind)
-    for at, fixed in spans:
-        low, high = at // size, -(-(at + len(fixed)) // size)
-        template, mask = np.zeros((2, (high - low) * size), dtype=np.uint8)
-        template[at - low * size:at - low * size + len(fixed)] = np.frombuffer(fixed, dtype=np.uint8)
-        mask[at - low * size:at - low * size + len(fixed)] = 0xFF
-        if not ((words[:, low:high] & mask.view(kind)) == template.view(kind)).all():
-            return False
-    return True
-
-
-def _bytes_row(data: bytes, count: int) -> np.ndarray:
-    import numpy as np
-
-    return np.broadcast_to(np.frombuffer(data, dtype=np.uint8), (count, len(data)))
+    return all(bool((rows[:, at:at + len(fixed)] == np.frombuffer(fixed, dtype=np.uint8)).all())
+               for at, fixed in ((0, layout.round_prefix), (layout.round_len, layout.challenge_prefix)))
 
 
 def _frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: Layout) -> tuple[np.ndarray, int]:

@@ -125,7 +125,6 @@ def packed_rows(values: int, width: int, count: int, rng: random.Random) -> np.n
 @pytest.mark.parametrize("width", [1, 4, 8, 16, 32, 48])  # F_97, 31-bit primes, Goldilocks, extensions, BN254, ...
 @pytest.mark.parametrize("values", [1, 2, 3, 4, 5])
 def test_prefixes_hold_for_msgpacks_own_rows_and_fail_for_any_prefix_byte_changed(values, width):
-    # strides of 8-byte words, of 4-byte words and odd ones (width 1): each compared its own way
     rng = random.Random(values * 100 + width)
     layout = layout_of(values, width)
     rows = packed_rows(values, width, 40, rng)
