@@ -31,7 +31,7 @@ Caps keep a hostile input from costing unbounded memory.
 from __future__ import annotations
 
 import struct
-from itertools import chain
+from itertools import chain, repeat
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 from stepper.errors import FieldError, TranscriptError, Where
@@ -400,12 +400,26 @@ class Sequencer(GlueRules, AnnotationRules):
 
     def glued_runs(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes,
                    claim_exprs: Sequence[str | None], final_exprs: Sequence[str | None]) -> list[InstanceStart] | None:
+        """:meth:`glued_columns`, returning every instance's record (made by the short path), or None."""
+        values = self.glued_columns(names, num_vars, degrees, claims, claim_exprs, final_exprs)
+        if values is None:
+            return None
+        count = len(names)
+        first = len(self.names) - count
+        starts = list(map(_checked_start, range(first, first + count - 1), names, num_vars, degrees, values,
+                          repeat("low-first"), repeat("evals"), repeat(None), claim_exprs, final_exprs, repeat(None)))
+        starts.append(self.current)  # type: ignore[arg-type]
+        return starts
+
+    def glued_columns(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes,
+                      claim_exprs: Sequence[str | None], final_exprs: Sequence[str | None]) -> tuple[Element, ...] | None:
         """:meth:`plain_instance` with the texts given (deferred, see ``defer_glue``) then
         :meth:`account_run` for each of several instances in a row, as :meth:`plain_runs` takes
         them (stepper.verify.sweep reads them and the glue after their runs from bytes): the same
-        records and state, names added together, every record made by the short path. Returns the
-        records, or None, having done nothing, unless every value is plainly in range (the claims
-        canonical, the texts no longer than a text may be): the caller then takes them one at a time."""
+        state, names added together, the last instance's record the current one (earlier records are
+        not made: ``plain_record`` makes one on demand). Returns the claims as elements, or None,
+        having done nothing, unless every value is plainly in range (the claims canonical, the texts
+        no longer than a text may be): the caller then takes them one at a time."""
         count = len(names)
         if (not count or not self.glue or not self.defer_glue or not self._prime_modulus
                 or len(claim_exprs) != count or len(final_exprs) != count
@@ -414,17 +428,12 @@ class Sequencer(GlueRules, AnnotationRules):
         values = self._bulk_claims(names, num_vars, degrees, claims)
         if values is None:
             return None
-        first = len(self.names)
-        self.names.add_all(names)
-        starts = [_checked_start(index, name, rounds, degree, claim, "low-first", "evals", None, claim_expr,
-                                final_expr, None)
-                  for index, name, rounds, degree, claim, claim_expr, final_expr in zip(
-                      range(first, first + count), names, num_vars, degrees, values, claim_exprs, final_exprs)]
-        last = starts[-1]
-        self.current, self._num_vars, self._index = last, last.num_vars, last.index
-        self.rounds_done, self.awaiting_challenge, self.final_seen = last.num_vars, False, True
+        self.names.add_all(names[:-1])
+        self._open(names[-1], num_vars[-1], degrees[-1], values[-1], "low-first", "evals", claim_exprs[-1],
+                   final_exprs[-1], None)
+        self.rounds_done, self.final_seen = num_vars[-1], True
         self.count += 2 * count + 2 * sum(num_vars)  # per instance its event, 2 per round, its final
-        return starts
+        return values  # type: ignore[no-any-return]
 
     def _bulk_claims(self, names: Sequence[str], num_vars: Sequence[int], degrees: Sequence[int], claims: bytes
                      ) -> tuple[Element, ...] | None:
@@ -441,10 +450,13 @@ class Sequencer(GlueRules, AnnotationRules):
         return values if values is not None and len(values) == count else None  # type: ignore[no-any-return]
 
     @staticmethod
-    def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element) -> InstanceStart:
-        """The record :meth:`plain_runs` would have made for the instance at ``index`` (its values
-        already checked there: made as :meth:`_open` makes one, without the frozen ``__init__``)."""
-        return _checked_start(index, name, num_vars, degree, claim, "low-first", "evals", None, None, None, None)
+    def plain_record(index: int, name: str, num_vars: int, degree: int, claim: Element, claim_expr: str | None = None,
+                     final_expr: str | None = None) -> InstanceStart:
+        """The record :meth:`plain_runs` (or, with texts, :meth:`glued_columns`) would have made for the
+        instance at ``index`` (its values already checked there: made as :meth:`_open` makes one, without
+        the frozen ``__init__``)."""
+        return _checked_start(index, name, num_vars, degree, claim, "low-first", "evals", None, claim_expr, final_expr,
+                              None)
 
     def _on_round(self, payload: Mapping[str, Any]) -> Event:
         self._close_instance()

@@ -23,13 +23,14 @@ RECENT = 1024  # at most this many names answered from the dictionary; others by
 class NameBook:
     """Instance names by position (0, 1, ...), with the last position of each name."""
 
-    __slots__ = ("_blob", "_ends", "_hashes", "_recent")
+    __slots__ = ("_blob", "_ends", "_hashes", "_recent", "_pending")
 
     def __init__(self) -> None:
         self._blob = bytearray()
         self._ends = array("q")  # end offset in _blob of each name
         self._hashes = array("q")  # hash() of each name (a 64-bit int on every platform Python runs on here)
         self._recent: dict[str, int] = {}  # name -> its last position, for up to RECENT recent names
+        self._pending: list[tuple[list[str], int]] = []  # names added in bulk, not yet in _recent: (names, first position)
 
     def __len__(self) -> int:
         return len(self._ends)
@@ -40,7 +41,7 @@ class NameBook:
         self._blob += name.encode("utf-8", "surrogatepass")
         self._ends.append(len(self._blob))
         self._hashes.append(hash(name))
-        recent = self._recent
+        recent = self._recent_names()
         if len(recent) >= RECENT:
             recent.clear()  # start a new window: older names are found by the scan
         recent[name] = index  # an assignment: a name's entry, when there is one, is its last position
@@ -62,12 +63,23 @@ class NameBook:
             self._ends.extend(islice(accumulate(map(len, encoded), initial=len(self._blob)), 1, None))
             self._blob += b"".join(encoded)
         self._hashes.extend(map(hash, names))
-        recent = self._recent
-        if len(recent) + count >= RECENT:
-            recent.clear()  # a new window holding the last names only: older ones are found by the scan
+        waiting = sum(len(chunk) for chunk, _ in self._pending)
+        if len(self._recent) + waiting + count >= RECENT:
+            self._recent.clear()  # a new window holding the last names only: older ones are found by the scan
+            self._pending.clear()
         window = min(count, RECENT - 1)
-        # assignments in order: a name given twice keeps its last position
-        recent.update(zip(islice(names, count - window, None), range(index + count - window, index + count)))
+        # put in the window when a name is asked for (most bulk names never are), in order
+        self._pending.append((list(islice(names, count - window, None)), index + count - window))
+
+    def _recent_names(self) -> dict[str, int]:
+        """The window of recent names, those added in bulk put in first (assignments in order: a name
+        given twice keeps its last position)."""
+        recent = self._recent
+        if self._pending:
+            for chunk, first in self._pending:
+                recent.update(zip(chunk, range(first, first + len(chunk))))
+            self._pending.clear()
+        return recent
 
     def name_at(self, index: int) -> str:
         start = self._ends[index - 1] if index else 0
@@ -75,7 +87,7 @@ class NameBook:
 
     def last(self, name: str) -> int | None:
         """The last position holding ``name``, or None if no instance was so named."""
-        found = self._recent.get(name)
+        found = self._recent_names().get(name)
         if found is not None:
             return found
         if not self._ends:

@@ -39,7 +39,7 @@ a soundness proof.
 from __future__ import annotations
 
 from dataclasses import dataclass, field as dc_field
-from itertools import repeat
+from itertools import chain, repeat
 from operator import attrgetter, itemgetter
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
@@ -54,7 +54,7 @@ if TYPE_CHECKING:
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
 
-__all__ = ["GlueChecks", "Unsupported"]
+__all__ = ["GlueChecks", "StartColumns", "Unsupported"]
 
 
 class Unsupported(Exception):
@@ -100,11 +100,53 @@ class _Instances:
     offset: int  # the position of the flush's run 0 (the instances of the flush before come first)
 
 
+@dataclass(frozen=True, slots=True)
+class StartColumns:
+    """The fields of instance records the checks here read, as columns (entry k of each list is
+    instance k's): made from records (:meth:`of`), or straight from the columns the sweep read
+    instances into, with no record per instance."""
+
+    name: Sequence[str]
+    num_vars: Sequence[int]
+    degree: Sequence[int]
+    order: Sequence[str]
+    claim: Sequence[Any]
+    claim_expr: Sequence[str | None]
+    final_expr: Sequence[str | None]
+
+    @staticmethod
+    def of(starts: Sequence[InstanceStart]) -> StartColumns:
+        return StartColumns(*(list(map(attrgetter(field), starts)) for field in _START_FIELDS))
+
+    def __len__(self) -> int:
+        return len(self.name)
+
+    def take(self, chosen: Sequence[int]) -> StartColumns:
+        """The instances at ``chosen``, in that order."""
+        return StartColumns(*([column[i] for i in chosen] for column in self._columns()))
+
+    def __add__(self, other: StartColumns) -> StartColumns:
+        return StartColumns(*([*mine, *theirs] for mine, theirs in zip(self._columns(), other._columns())))
+
+    def _columns(self) -> tuple[Sequence[Any], ...]:
+        return self.name, self.num_vars, self.degree, self.order, self.claim, self.claim_expr, self.final_expr
+
+    def since(self, first: int) -> StartColumns:
+        """The instances from ``first`` on."""
+        return StartColumns(*(column[first:] for column in self._columns()))
+
+    @staticmethod
+    def joined(parts: Sequence[StartColumns]) -> StartColumns:
+        """The instances of ``parts``, one part after another."""
+        return StartColumns(*(list(chain.from_iterable(columns)) for columns in zip(*(part._columns() for part in parts))))
+
+
+_START_FIELDS = ("name", "num_vars", "degree", "order", "claim", "claim_expr", "final_expr")
 # an instance settled in bulk: its run in the flush, start, final value, the challenges of its block and
 # its first row there
 Settled = tuple[int, "InstanceStart", Any, Any, int]
 # a flush's instances, every one a run of one block: their starts, first rows, finals and the block's challenges
-_Given = tuple[list["InstanceStart"], list[int], Any, Any]
+_Given = tuple[StartColumns, list[int], Any, Any]
 
 
 class GlueChecks:
@@ -123,7 +165,7 @@ class GlueChecks:
         are no longer the ones right before the next flush's."""
         self._previous = None
 
-    def instances(self, starts: list[InstanceStart], first_rows: list[int], finals: Any, challenges: Any) -> None:
+    def instances(self, starts: StartColumns, first_rows: list[int], finals: Any, challenges: Any) -> None:
         """The flush's instances, every one taken as a run with its challenges in ``challenges`` from row
         ``first_rows[j]`` and its final value ``finals[j]`` (a kernel array), in stream order: the
         expressions added next may read ``point(NAME)`` and ``final(NAME)`` of those before them."""
@@ -141,14 +183,14 @@ class GlueChecks:
             rows = np.array(first_rows, dtype=np.int64)
             if previous is not None and len(previous[0]):
                 before, before_rows, before_finals, before_challenges = previous
-                starts = [*before, *starts]
+                starts = before + starts
                 rows = np.concatenate((np.array(before_rows, dtype=np.int64), rows + len(before_challenges)))
                 finals = np.concatenate((before_finals, finals))
                 challenges = np.concatenate((before_challenges, challenges))
             offset = len(starts) - len(given[0])
-            sizes = np.fromiter(map(attrgetter("num_vars"), starts), dtype=np.int64, count=len(starts))
-            names = list(map(attrgetter("name"), starts))
-            self._table = _Instances(sizes, list(map(attrgetter("order"), starts)), rows, finals, challenges,
+            sizes = np.array(starts.num_vars, dtype=np.int64)
+            names = starts.name
+            self._table = _Instances(sizes, list(starts.order), rows, finals, challenges,
                                      dict(zip(names, range(len(names)))), np.concatenate(([0], np.cumsum(sizes))),
                                      offset)
         return self._table
@@ -162,10 +204,11 @@ class GlueChecks:
         for entry in settled:
             by_block.setdefault(id(entry[3]), []).append(entry)
         for entries in by_block.values():
-            self.add_columns(_runs_of(entries), list(map(itemgetter(1), entries)), list(map(itemgetter(2), entries)),
+            self.add_columns(_runs_of(entries), StartColumns.of(list(map(itemgetter(1), entries))),
+                             list(map(itemgetter(2), entries)),
                              entries[0][3], list(map(itemgetter(4), entries)))
 
-    def add_columns(self, runs: np.ndarray, starts: list[InstanceStart], finals: list[Any], challenges: Any,
+    def add_columns(self, runs: np.ndarray, starts: StartColumns, finals: list[Any], challenges: Any,
                     first_rows: list[int]) -> None:
         """:meth:`add` for instances whose challenges are all in one block (``challenges``), given as
         columns: instance k follows run ``runs[k]`` of the flush, has start ``starts[k]``, final value
@@ -174,8 +217,7 @@ class GlueChecks:
         Raises :class:`Unsupported` for an expression this module does not check (``point(NAME)`` or
         ``final(NAME)`` without :meth:`instances` of this block, a text only the character parser
         reads, eq(a) in a claim_expr)."""
-        for final, texts_of in ((False, attrgetter("claim_expr")), (True, attrgetter("final_expr"))):
-            every = list(map(texts_of, starts))
+        for final, every in ((False, list(starts.claim_expr)), (True, list(starts.final_expr))):
             missing = every.count(None)
             if missing == len(every):
                 continue
@@ -193,16 +235,15 @@ class GlueChecks:
                 table = self._instances_of(challenges) if refs.points or refs.finals else None
                 chosen = positions if kept is None else [kept[i] for i in positions]
                 whole = len(chosen) == len(starts)
-                picked = starts if whole else [starts[i] for i in chosen]
+                picked = starts if whole else starts.take(chosen)
                 picked_runs = runs if whole else runs[np.array(chosen, dtype=np.int64)]
                 if not final:
-                    self.groups.append(_Group(template, False, columns, list(map(attrgetter("claim"), picked)),
+                    self.groups.append(_Group(template, False, columns, list(picked.claim),
                                               picked_runs, instances=table))
                     continue
                 picked_finals = finals if whole else [finals[i] for i in chosen]
                 picked_firsts = first_rows if whole else [first_rows[i] for i in chosen]
-                sizes = list(map(attrgetter("num_vars"), picked))
-                orders = list(map(attrgetter("order"), picked))
+                sizes, orders = list(picked.num_vars), list(picked.order)
                 if sizes.count(sizes[0]) == len(sizes) and orders.count(orders[0]) == len(orders):
                     self.groups.append(_Group(template, True, columns, picked_finals, picked_runs, challenges,
                                               picked_firsts, sizes[0], orders[0], instances=table))

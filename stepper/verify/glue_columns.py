@@ -30,7 +30,7 @@ from typing import TYPE_CHECKING, Any, Iterator, Mapping, MutableMapping, Sequen
 from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
 from stepper.transcript.packed import GLUE_CODES, GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
 from stepper.transcript.payload_rules import MAX_VALUES
-from stepper.verify.packed_runs import GiveUp, rederive
+from stepper.verify.packed_runs import GiveUp, GluedRuns, rederive
 
 if TYPE_CHECKING:
     import numpy as np
@@ -69,6 +69,37 @@ def _row(payload: Any) -> tuple[bytes, bytes, bytes, bytes] | None:
         return None
     raw = name.encode("ascii")
     return _KIND_BYTES[kind], _FIXSTR[len(raw):len(raw) + 1], raw, element
+
+
+def _joined_blobs(tails: Sequence[Any]) -> tuple[bytes, np.ndarray]:
+    """The blobs of glue after each run, one after another, and each run's blob's length: a tail is
+    empty or one blob, or instances laid out alike (:class:`~stepper.verify.packed_runs.GluedRuns`),
+    standing for the blobs after each of its runs but the last."""
+    import numpy as np
+
+    parts: list[bytes] = []
+    sizes: list[np.ndarray] = []
+    loose: list[bytes] = []  # blobs of runs taken one by one, in a row
+    for tail in [*tails, None]:
+        if tail is not None and tail.__class__ is not GluedRuns:
+            loose.append(tail[0] if tail else b"")
+            continue
+        if loose:
+            parts += loose
+            sizes.append(np.fromiter(map(len, loose), dtype=np.int64, count=len(loose)))
+            loose = []
+        if tail is not None:
+            parts.append(tail.glue_blob())
+            sizes.append(np.full(len(tail) - 1, tail.period - tail.run_end, dtype=np.int64))
+    return b"".join(parts), np.concatenate(sizes) if sizes else np.zeros(0, dtype=np.int64)
+
+
+def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
+    """``joined`` cut into pieces of ``sizes``."""
+    import numpy as np
+
+    ends = np.cumsum(sizes).tolist()
+    return list(map(joined.__getitem__, map(slice, [0, *ends[:-1]], ends)))
 
 
 class NameRows(Mapping[str, int]):
@@ -226,15 +257,15 @@ class GlueColumns:
         bytes end; where that reading declines, the rows are read by a regex."""
         import numpy as np
 
-        blobs = [tail[0] if tail else b"" for tail in tails]
+        joined, sizes = _joined_blobs(tails)
         width = self.field.elem_bytes
-        read = read_glue_columns(b"".join(blobs), width)
+        read = read_glue_columns(joined, width)
         if read is None:
-            self._take_blobs(blobs, defined)
+            self._take_blobs(_cut(joined, sizes), defined)
             return
         self.size = self.from_bytes = len(read.names)
         ends = read.ends
-        blob_ends = np.cumsum(np.fromiter(map(len, blobs), dtype=np.int64, count=len(blobs)))
+        blob_ends = np.cumsum(sizes)
         counts = np.searchsorted(ends, blob_ends, side="right")  # events ending by each blob's end
         marks = np.concatenate(([0], ends))[counts]  # where the last of them ends: the blob's end, if a boundary
         if int(counts[-1]) != self.size or not np.array_equal(marks, blob_ends):

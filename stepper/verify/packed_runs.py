@@ -34,7 +34,7 @@ if TYPE_CHECKING:
     from stepper.verify.fiatshamir import Sha256Schedule
     from stepper.verify.roundblock import WideSamples
 
-__all__ = ["GiveUp", "Layout", "layout_of", "PlainRuns", "Run", "RunBlock", "rederive"]
+__all__ = ["GiveUp", "GluedRuns", "Layout", "layout_of", "PlainRuns", "Run", "RunBlock", "rederive", "packed_ints"]
 
 
 class GiveUp(Exception):
@@ -71,7 +71,24 @@ def layout_of(values: int, width: int) -> Layout:
 
 
 @dataclass(frozen=True, slots=True, eq=False)
-class PlainRuns:
+class _InstanceColumns:
+    """Instances in a row read from one blob of bytes, held as columns (see :class:`PlainRuns` and
+    :class:`GluedRuns`)."""
+
+    first: int
+    names: Sequence[str]
+    num_vars: Sequence[int]
+    degrees: Sequence[int]
+    claims: Sequence[Element]
+    packed_claims: bytes
+    blob: memoryview
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class PlainRuns(_InstanceColumns):
     """Instances in a row, each an ``instance`` event with no optional key right followed by its run
     in ``layout``, read as one blob of bytes and held as columns: instance j has the index
     ``first + j``, ``names[j]``, ``num_vars[j]``, ``degrees[j]`` and the claim ``claims[j]`` (packed
@@ -81,20 +98,10 @@ class PlainRuns:
     the bytes from one instance's event to the next (every instance laid out alike, one round count):
     the rows and finals are then cut from ``blob`` by numpy, not one view per instance."""
 
-    first: int
-    names: Sequence[str]
-    num_vars: Sequence[int]
-    degrees: Sequence[int]
-    claims: Sequence[Element]
-    packed_claims: bytes
-    blob: memoryview
     rows_at: Sequence[int]
     layout: Layout
     last: InstanceStart
     period: int = 0
-
-    def __len__(self) -> int:
-        return len(self.names)
 
     def record(self, j: int) -> InstanceStart:
         """The record of instance j, as the Sequencer would have made it."""
@@ -125,6 +132,63 @@ class PlainRuns:
             return [_periodic(blob, self.period)[:, end - layout.width:end].copy()]
         ends = [at + rounds * layout.stride + layout.final_len for at, rounds in zip(self.rows_at, self.num_vars)]
         return list(map(blob.__getitem__, map(slice, [end - layout.width for end in ends], ends)))
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class GluedRuns(_InstanceColumns):
+    """Instances in a row laid out alike (stepper.verify.sweep compared their bytes at once), each an
+    ``instance`` event with a ``claim_expr`` or ``final_expr`` right followed by its run in ``layout``
+    and its glue, held as columns: instance j has the index ``first + j``, ``names[j]``,
+    ``num_vars[j]``, ``degrees[j]``, the claim ``claims[j]`` (packed at ``packed_claims[j * width:]``)
+    and the texts ``claim_texts[j]``, ``final_texts[j]``; its event starts at ``j * period`` in
+    ``blob``, its rows ``head_len`` bytes after that and its run ends ``run_end`` bytes after it, where
+    its glue starts (the glue after the last instance is not in ``blob``: it is read as after any run).
+    The Sequencer has taken them (:meth:`~stepper.transcript.events.Sequencer.glued_columns`) and made
+    the record of the last one, ``last``; :meth:`record` makes the others' on demand."""
+
+    claim_texts: Sequence[str | None]
+    final_texts: Sequence[str | None]
+    period: int
+    head_len: int
+    run_end: int
+    layout: Layout
+    last: InstanceStart
+
+    def record(self, j: int) -> InstanceStart:
+        """The record of instance j, as the Sequencer would have made it."""
+        if j == len(self.names) - 1:
+            return self.last
+        from stepper.transcript.events import Sequencer
+
+        return Sequencer.plain_record(self.first + j, self.names[j], self.num_vars[j], self.degrees[j], self.claims[j],
+                                      self.claim_texts[j], self.final_texts[j])
+
+    def _rows(self, at: int, size: int, count: int | None = None) -> np.ndarray:
+        """``size`` bytes at ``at`` in each instance's period (of the first ``count``), as rows (a view)."""
+        from numpy.lib.stride_tricks import as_strided
+
+        import numpy as np
+
+        count = len(self.names) if count is None else count
+        u8 = np.frombuffer(self.blob, dtype=np.uint8)
+        if count and at + (count - 1) * self.period + size > len(u8):
+            raise GiveUp("a glued run past its bytes")
+        return as_strided(u8[at:], shape=(count, size), strides=(self.period, 1), writeable=False)
+
+    def row_parts(self) -> list[Any]:
+        """The rows of every run (its rounds and challenges), in order: one array."""
+        return [self._rows(self.head_len, self.num_vars[0] * self.layout.stride)]
+
+    def final_cells(self) -> list[Any]:
+        """The final value of every run, its packed bytes, in order: one array."""
+        return [self._rows(self.run_end - self.layout.width, self.layout.width).copy()]
+
+    def glue_blob(self) -> bytes:
+        """The glue after every run but the last, one after another."""
+        return self._rows(self.run_end, self.period - self.run_end, len(self.names) - 1).tobytes()
+
+
+_COLUMNS = (PlainRuns, GluedRuns)  # runs of several instances held as columns
 
 
 def packed_ints(values: Iterable[int], width: int) -> bytes:
@@ -165,7 +229,7 @@ def _periodic(blob: memoryview, period: int) -> np.ndarray:
 
 
 # a run: (its instance, its first bytes, the rest of its bytes, its layout) or instances in a row as columns
-Run = Union[tuple["InstanceStart", bytes, bytes, Layout], PlainRuns]
+Run = Union[tuple["InstanceStart", bytes, bytes, Layout], PlainRuns, "GluedRuns"]
 
 
 class RunBlock:
@@ -187,7 +251,7 @@ class RunBlock:
         rounds: list[int] = []
         self._plain_rows = False  # some runs are instances in a row (settled in bulk)
         prime = not field.is_extension
-        if prime and PlainRuns not in set(map(type, runs)):  # runs taken one by one: their columns cut at once
+        if prime and set(map(type, runs)).isdisjoint(_COLUMNS):  # runs taken one by one: their columns cut at once
             taken: list[Any] = runs
             starts = list(map(itemgetter(0), taken))
             claim_values = list(map(attrgetter("claim"), starts))  # ints, canonical (the Sequencer checked them)
@@ -200,7 +264,7 @@ class RunBlock:
                 rounds += map(attrgetter("num_vars"), starts)
                 runs = []
         for run in runs:
-            if run.__class__ is PlainRuns:
+            if run.__class__ in _COLUMNS:
                 self._plain_rows = True
                 parts += run.row_parts()  # type: ignore[union-attr]
                 finals += run.final_cells()  # type: ignore[union-attr]
@@ -355,23 +419,23 @@ class RunBlock:
                 pieces = (*pieces[:group * rounds], pieces[group * rounds][:frame_len - round_len])
             schedule.absorb_pieces(pieces, self.digests)
 
-    def absorb_glued(self, schedule: Sha256Schedule, first: int, starts: Sequence[InstanceStart], glue: memoryview,
-                     run_ends: np.ndarray, cuts: np.ndarray, glue_digests: bytearray) -> None:
+    def absorb_glued(self, schedule: Sha256Schedule, first: int, names: Sequence[str], counts: Sequence[int],
+                     degrees: Sequence[int], claims: bytes, glue: memoryview, run_ends: np.ndarray, cuts: np.ndarray,
+                     glue_digests: bytearray) -> None:
         """Run the schedule over instances settled in bulk whose rows are this block's from row ``first``
-        on, each an instance of a prime field, low-first, with an int claim, followed by glue holding one
-        squeeze: instance i's glue is ``glue[run_ends[i]:run_ends[i + 1]]``, its challenge squeezed at
+        on, each an instance of a prime field, low-first, with its claim packed in ``claims``, followed by
+        glue holding one squeeze: instance i, named ``names[i]``, of ``counts[i]`` rounds of degree
+        ``degrees[i]``, has its glue at ``glue[run_ends[i]:run_ends[i + 1]]``, its challenge squeezed at
         ``cuts[i]``. Each statement, its rows, then its glue, as ``observe``, :meth:`absorb` and the glue's
         ``absorb_pieces`` would one after another, in one ``absorb_pieces`` call. The digests of the
         rounds' squeezes are appended to :attr:`digests`, those of the glue's to ``glue_digests``."""
         import numpy as np
 
         view = self._frames_view(schedule)
-        round_len, frame_len, width = self._round_len, self._frame_len, self.layout.width
-        counts = list(map(attrgetter("num_vars"), starts))
+        round_len, frame_len = self._round_len, self._frame_len
+        counts = list(counts)
         rows = sum(counts)
-        claims = packed_ints(map(attrgetter("claim"), starts), width)
-        statements, ends = schedule.instance_frames(list(map(attrgetter("name"), starts)), counts,
-                                                    list(map(attrgetter("degree"), starts)), claims)
+        statements, ends = schedule.instance_frames(names, counts, degrees, claims)
         frames = view[first * frame_len:(first + rows) * frame_len]
         cut = _pieces(frames, rows, round_len, frame_len)  # round 0; (challenge k, round k + 1)...; the last challenge
         if counts.count(counts[0]) == len(counts):
@@ -384,9 +448,9 @@ class RunBlock:
         squeezed = bytearray()
         schedule.absorb_pieces(out, squeezed)
         per = 32 * schedule.squeezes_per_challenge
-        if len(squeezed) != (rows + len(starts)) * per:
+        if len(squeezed) != (rows + len(counts)) * per:
             raise GiveUp("glue squeezes other than one after each run")
-        table = np.frombuffer(squeezed, dtype=np.uint8).reshape(rows + len(starts), per)
+        table = np.frombuffer(squeezed, dtype=np.uint8).reshape(rows + len(counts), per)
         of_glue = np.zeros(len(table), dtype=bool)
         of_glue[np.cumsum(np.array(counts, dtype=np.int64) + 1) - 1] = True  # each instance's rounds, then its squeeze
         self.digests += table[~of_glue].tobytes()

@@ -40,8 +40,9 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass
-from itertools import repeat
-from operator import attrgetter, itemgetter, mul
+from bisect import bisect_right
+from itertools import accumulate
+from operator import itemgetter, mul
 from typing import TYPE_CHECKING, Any, Callable, Iterator
 
 import msgpack
@@ -54,7 +55,9 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
-from stepper.verify.packed_runs import GiveUp as _GiveUp, Layout, PlainRuns, Run, RunBlock, layout_of
+from stepper.verify.packed_runs import (
+    GiveUp as _GiveUp, GluedRuns, Layout, PlainRuns, Run, RunBlock, layout_of, packed_ints,
+)
 from stepper.transcript.records import (
     FORMAT_VERSION, GLUE_VERSION, BucketStats, Header, InstanceStart, Note, RoundMsg, UnknownEvent,
 )
@@ -64,7 +67,7 @@ if TYPE_CHECKING:
 
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
-    from stepper.verify.glue_block import GlueChecks, Settled
+    from stepper.verify.glue_block import GlueChecks, Settled, StartColumns
     from stepper.verify.glue_columns import GlueColumns
     from stepper.verify.replay import Replay
 
@@ -169,7 +172,9 @@ class _Sweeper:
         self.layout: Layout | None = None  # of the last run read
         self.layouts: dict[int, Layout] = {}  # by values per round
         self.runs: list[Run] = []  # (instance, first bytes, rest, layout), or instances in a row as columns
-        self.trailing: list[list[Any]] = []  # the glue after each run (payloads, or a blob of GlueRun's events), checked with them
+        # the glue after each run (payloads, or a blob of GlueRun's events; instances laid out alike stand for the
+        # glue after each of their runs but the last), checked with them
+        self.trailing: list[Any] = []
         self.glue_tail: list[Any] | None = None  # where glue payloads now go (None: the Sequencer)
         self.glue: GlueChecks | None = None  # set with the field
         self.due = False  # enough runs read: check them before the next instance
@@ -555,17 +560,17 @@ class _Sweeper:
             return False  # the usual path names it
         claim_at = varying[2][0]
         claims = u8[starts[:, None] + (claim_at + np.arange(width))].tobytes()
-        records = self.seq.glued_runs(names, [num_vars] * count, degrees[:count].tolist(), claims,  # type: ignore[arg-type]
-                                      claim_texts, final_texts)
-        if records is None:
+        index = len(self.seq.names)
+        counts, degree_list = [num_vars] * count, degrees[:count].tolist()
+        values = self.seq.glued_columns(names, counts, degree_list, claims, claim_texts, final_texts)  # type: ignore[arg-type]
+        if values is None:
             return False  # nothing read: the usual path takes them
         blob = memoryview(self.unpacker.read_bytes((count - 1) * period + run_end))  # the last glue: _take_glue
-        prefix, bases = layout.round_prefix, np.arange(count, dtype=np.int64) * period
-        rows_at, ends = (bases + head_len + len(prefix)).tolist(), (bases + run_end).tolist()
-        cut: Callable[[slice], memoryview] = blob.__getitem__
-        self.runs += zip(records, repeat(prefix), map(cut, map(slice, rows_at, ends)), repeat(layout))  # type: ignore[arg-type]
-        # the glue after each run but the last, a blob each
-        self.trailing += map(list, zip(map(bytes, map(cut, map(slice, ends[:-1], (bases[1:]).tolist())))))
+        glued = GluedRuns(index, names, counts, degree_list, values, claims, blob, claim_texts=claim_texts,  # type: ignore[arg-type]
+                          final_texts=final_texts, period=period, head_len=head_len, run_end=run_end, layout=layout,
+                          last=self.seq.current)  # type: ignore[arg-type]
+        self.runs.append(glued)
+        self.trailing.append(glued)  # stands for the glue after each of its runs but the last
         self._after_runs(count * num_vars, count * num_vars * stride)
         return True
 
@@ -646,29 +651,54 @@ class _Sweeper:
             block.absorb_plain(schedule, first, plain, j)
         return False
 
-    def _settle_glued(self, block: RunBlock, runs: list[Run], i: int, glue: GlueColumns, digests: bytearray) -> bool:
-        """Settle runs i, i + 1, ... of the flush (each an instance taken one by one, low-first, with an int
-        claim, followed by glue of one squeeze) into the replay in one step, while it keeps no summaries
+    def _settle_glued(self, block: RunBlock, starts: StartColumns, i: int, glue: GlueColumns, digests: bytearray
+                      ) -> bool:
+        """Settle the instances ``starts`` (the flush's from instance i on, each taken one by one or among
+        instances laid out alike, low-first, with an int claim, followed by glue of one squeeze) into the
+        replay in one step, while it keeps no summaries
         (:meth:`~stepper.verify.replay.Replay.settle_quietly`), and run the schedule over their
         statements, rows and glue in one pass (:meth:`~stepper.verify.packed_runs.RunBlock.absorb_glued`);
         the glue's digests go to ``digests``. Returns False, having done nothing, when they are not all so."""
-        starts: list[InstanceStart] = list(map(itemgetter(0), runs[i:]))  # type: ignore[arg-type]
         schedule = self.replay.schedule
-        if set(map(attrgetter("order"), starts)) != {"low-first"} or set(map(type, map(attrgetter("claim"), starts))) != {int}:
+        if set(starts.order) != {"low-first"} or set(map(type, starts.claim)) != {int}:
             return False
         cuts = None
         if schedule is not None:
             cuts = glue.one_squeeze_each(schedule, i)
             if cuts is None:
                 return False
-        self.replay.settle_quietly(len(starts), sum(map(mul, map(attrgetter("num_vars"), starts),
-                                                        map(attrgetter("degree"), starts))))
+        self.replay.settle_quietly(len(starts), sum(map(mul, starts.num_vars, starts.degree)))
         first = block.skip(len(starts))
         if schedule is not None:
-            assert cuts is not None
+            assert cuts is not None and self.field is not None
             view, run_ends, _ = glue.stream(schedule)
-            block.absorb_glued(schedule, first, starts, view, run_ends[i:], cuts, digests)
+            block.absorb_glued(schedule, first, starts.name, starts.num_vars, starts.degree,
+                               packed_ints(starts.claim, self.field.elem_bytes), view, run_ends[i:], cuts, digests)
         return True
+
+    def _settle_run(self, block: RunBlock, start: InstanceStart, glue: GlueColumns, i: int, digests: bytearray
+                    ) -> tuple[int, Any, bool]:
+        """Settle the flush's run i (``start``'s, the next of ``block``) into the replay, run the schedule
+        over it and the glue after it; returns its first row, its final value and whether the replay keeps
+        its summary."""
+        first, final = block.next_run()
+        kept = self.replay.settle(start, final)
+        schedule = self.replay.schedule  # the first settle may start the default schedule
+        if schedule is not None:
+            block.absorb(schedule, first, start.num_vars)
+        self._glue_after(glue, i, start, kept, digests)
+        return first, final, kept
+
+    def _glue_after(self, glue: GlueColumns, i: int, start: InstanceStart, kept: bool, digests: bytearray) -> None:
+        """The schedule over the glue after the flush's run i, and its records into the replay when it
+        keeps that instance's summary."""
+        schedule = self.replay.schedule
+        if schedule is not None and glue.size:
+            after = glue.run_pieces(schedule, i)
+            if after:
+                schedule.absorb_pieces(after, digests)
+        if kept:
+            self.replay.settle_glue(glue.records(i, start.index))
 
     # ----- checking a block -----------------------------------------------------------
     def _flush(self) -> None:
@@ -688,66 +718,64 @@ class _Sweeper:
         kernel, checks, field, seq = self.kernel, self.glue, self.field, self.seq
         assert kernel is not None and checks is not None and field is not None
         self.runs, self.trailing, self.rows, self.pending_bytes, self.due = [], [], 0, 0, False
+        kinds = set(map(type, runs))
+        plain_rows = PlainRuns in kinds  # some runs are instances in a row, held as columns
+        layouts = {_layout(run) for run in runs} if len(runs) < 8 or len(kinds) > 1 else (
+            {runs[0].layout} if plain_rows or GluedRuns in kinds else set(map(itemgetter(3), runs)))  # type: ignore[union-attr, arg-type]
+        # the runs' claim_expr and final_expr: with one block of runs taken one by one or laid out alike, read
+        # as columns after the loop (instance i is the block's run i); otherwise gathered run by run
+        by_columns = seq.glue and len(layouts) == 1 and not plain_rows
+        if GluedRuns in kinds and (not by_columns or self.glue_unpacked):
+            runs, trailing = _one_by_one(runs, trailing)  # glue read otherwise: every instance a run of its own
+            kinds.discard(GluedRuns)
+            kinds.add(tuple)
         glue = GlueColumns(field, trailing, seq.defined, blobs_only=not self.glue_unpacked)
         self.glue_unpacked = False
         seq.count += glue.from_bytes  # the events read as blobs, not counted as they were taken
         members: dict[Layout, list[Run]] = {}
-        plain_rows = PlainRuns in set(map(type, runs))  # some runs are instances in a row, held as columns
-        layouts = set() if plain_rows else set(map(itemgetter(3), runs))  # type: ignore[arg-type]
-        if len(layouts) == 1:  # the usual case: runs taken one by one, all of one round size
+        if len(layouts) == 1:  # the usual case: runs taken one by one or laid out alike, all of one round size
             members[layouts.pop()] = runs
         else:
             for run in runs:
-                if run.__class__ is PlainRuns:
-                    members.setdefault(run.layout, []).append(run)  # type: ignore[union-attr]
-                else:
-                    members.setdefault(run[3], []).append(run)  # type: ignore[index]
+                members.setdefault(_layout(run), []).append(run)
         blocks = {layout: RunBlock(layout, group, kernel, field) for layout, group in members.items()}
         replay = self.replay
         digests = bytearray()  # of the glue's squeezes
-        # the runs' claim_expr and final_expr: with one block of runs taken one by one, read as columns after
-        # the loop (run i is the block's run i); otherwise gathered run by run
-        by_columns = seq.glue and len(blocks) == 1 and not plain_rows
         glued: list[Settled] = []  # the runs with a claim_expr or final_expr, when not by columns
         unkept = glue.size  # the first glue event after a run whose summary is not kept
         bounds = glue.bounds
         try:
-            for i, run in enumerate(runs):
-                if by_columns and glue.size and replay.settles_quietly():
-                    if self._settle_glued(next(iter(blocks.values())), runs, i, glue, digests):
+            if by_columns:
+                block = next(iter(blocks.values()))
+                listing = _Listing(runs)
+                starts = listing.columns()
+                for i in range(len(starts)):
+                    if glue.size and replay.settles_quietly() and self._settle_glued(
+                            block, starts.since(i), i, glue, digests):
                         if unkept == glue.size:
                             unkept = bounds[i]
                         break
-                if run.__class__ is PlainRuns:
-                    kept = self._settle_plain(run, blocks[run.layout])  # type: ignore[arg-type, union-attr]
-                    start = run.last  # type: ignore[union-attr]
-                    schedule = replay.schedule
-                else:
-                    start, _, _, layout = run  # type: ignore[misc]
-                    block = blocks[layout]
-                    first, final = block.next_run()
-                    kept = replay.settle(start, final)
-                    if not by_columns and (start.claim_expr is not None or start.final_expr is not None):
-                        glued.append((i, start, final, block.challenges, first))
-                    schedule = replay.schedule  # the first settle may start the default schedule
-                    if schedule is not None:
-                        block.absorb(schedule, first, start.num_vars)
-                if schedule is not None and glue.size:
-                    after = glue.run_pieces(schedule, i)
-                    if after:
-                        schedule.absorb_pieces(after, digests)
-                if kept:
-                    replay.settle_glue(glue.records(i, start.index))
-                elif unkept == glue.size:
-                    unkept = bounds[i]
-            if by_columns:
-                block = next(iter(blocks.values()))
-                starts = list(map(itemgetter(0), runs))  # type: ignore[arg-type]
+                    _, _, kept = self._settle_run(block, listing.record(i), glue, i, digests)
+                    if not kept and unkept == glue.size:
+                        unkept = bounds[i]
                 checks.instances(starts, block.first_rows, block.finals, block.challenges)
-                checks.add_columns(np.arange(len(runs)), starts, block.final_values(), block.challenges,
+                checks.add_columns(np.arange(len(starts)), starts, block.final_values(), block.challenges,
                                    block.first_rows)
-            elif glued:
-                checks.add(glued)
+            else:
+                for i, run in enumerate(runs):
+                    if run.__class__ is PlainRuns:
+                        kept = self._settle_plain(run, blocks[run.layout])  # type: ignore[arg-type, union-attr]
+                        self._glue_after(glue, i, run.last, kept, digests)  # type: ignore[union-attr]
+                    else:
+                        start, _, _, layout = run  # type: ignore[misc]
+                        block = blocks[layout]
+                        first, final, kept = self._settle_run(block, start, glue, i, digests)
+                        if start.claim_expr is not None or start.final_expr is not None:
+                            glued.append((i, start, final, block.challenges, first))
+                    if not kept and unkept == glue.size:
+                        unkept = bounds[i]
+                if glued:
+                    checks.add(glued)
             if checks.groups:
                 checks.check_names(glue.rows(), glue.lists(), seq.defined, glue.run_of_row(), glue.names)
         except Unsupported as err:
@@ -774,10 +802,75 @@ def _fixed_texts(u8: np.ndarray, starts: np.ndarray, begin: int, size: int) -> l
     out alike), decoded at once when they are all ASCII; UnicodeDecodeError when one is not UTF-8."""
     import numpy as np
 
-    joined = u8[starts[:, None] + (begin + np.arange(size))].tobytes()
     if not size:
         return [""] * len(starts)
-    if joined.isascii():
-        text = joined.decode()
-        return [text[i:i + size] for i in range(0, len(text), size)]
-    return [joined[i:i + size].decode() for i in range(0, len(joined), size)]
+    rows = np.empty((len(starts), size + 1), dtype=np.uint8)
+    rows[:, :size] = u8[starts[:, None] + (begin + np.arange(size))]
+    rows[:, size] = 0x0A  # a newline after each: one split cuts them
+    joined = rows.tobytes()
+    if joined.isascii() and joined.count(b"\n") == len(starts):
+        return joined.decode().split("\n")[:-1]
+    return [joined[i:i + size].decode() for i in range(0, len(joined), size + 1)]
+
+
+def _layout(run: Run) -> Layout:
+    return run[3] if run.__class__ is tuple else run.layout  # type: ignore[index, union-attr, no-any-return]
+
+
+def _one_by_one(runs: list[Run], trailing: list[Any]) -> tuple[list[Run], list[Any]]:
+    """``runs`` and ``trailing`` with the instances laid out alike (:class:`GluedRuns`) as runs of their
+    own, each with its glue: for a flush whose glue or blocks the columns do not cover."""
+    out: list[Run] = []
+    tails: list[Any] = []
+    for run in runs:
+        if not isinstance(run, GluedRuns):
+            out.append(run)
+            continue
+        prefix, blob, period = run.layout.round_prefix, run.blob, run.period
+        at = run.head_len + len(prefix)
+        out += [(run.record(j), prefix, blob[j * period + at:j * period + run.run_end], run.layout)  # type: ignore[misc]
+                for j in range(len(run))]
+    for tail in trailing:
+        if tail.__class__ is GluedRuns:
+            period, end = tail.period, tail.run_end
+            tails += [[bytes(tail.blob[j * period + end:(j + 1) * period])] for j in range(len(tail) - 1)]
+        else:
+            tails.append(tail)
+    return out, tails
+
+
+class _Listing:
+    """The instances of a flush whose runs are of one block: runs taken one by one and instances laid out
+    alike (:class:`GluedRuns`), by their place among the flush's instances."""
+
+    def __init__(self, runs: list[Run]) -> None:
+        self.runs = runs
+        self.firsts = list(accumulate((len(run) if run.__class__ is GluedRuns else 1 for run in runs),  # type: ignore[arg-type]
+                                      initial=0))
+
+    def record(self, i: int) -> InstanceStart:
+        entry = bisect_right(self.firsts, i) - 1
+        run = self.runs[entry]
+        if run.__class__ is GluedRuns:
+            return run.record(i - self.firsts[entry])  # type: ignore[union-attr]
+        return run[0]  # type: ignore[index, return-value]
+
+    def columns(self) -> StartColumns:
+        """Every instance's fields as columns: records read where runs were taken one by one, the columns
+        of instances laid out alike as they are."""
+        from stepper.verify.glue_block import StartColumns
+
+        parts: list[StartColumns] = []
+        loose: list[InstanceStart] = []
+        for run in self.runs:
+            if run.__class__ is not GluedRuns:
+                loose.append(run[0])  # type: ignore[index, arg-type]
+                continue
+            if loose:
+                parts.append(StartColumns.of(loose))
+                loose = []
+            parts.append(StartColumns(run.names, run.num_vars, run.degrees, ["low-first"] * len(run),  # type: ignore[union-attr, arg-type]
+                                      run.claims, run.claim_texts, run.final_texts))  # type: ignore[union-attr]
+        if loose:
+            parts.append(StartColumns.of(loose))
+        return parts[0] if len(parts) == 1 else StartColumns.joined(parts)

@@ -63,3 +63,24 @@ def test_names_added_all_at_once_read_back_as_names_added_one_by_one() -> None:
     for probe in {*names, "nowhere", *(f"crossing-{i}" for i in range(0, 3 * RECENT, 7))}:
         assert book.last(probe) == _last_in_list(names, probe), probe
     assert book.add("after") == len(names)
+
+
+def test_bulk_and_single_names_interleaved_with_questions_answer_as_the_list() -> None:
+    # names added in bulk join the recent window only when a question comes (most are never asked for):
+    # questions between bulk adds, single adds after bulk ones and windows that fill up between two
+    # questions must all answer as the plain list does
+    rng = random.Random(23)
+    book, names = NameBook(), []
+    for step in range(60):
+        if rng.random() < 0.5:
+            batch = [f"berth-{rng.randrange(RECENT)}" for _ in range(rng.choice((1, 7, RECENT // 3, RECENT + 3)))]
+            book.add_all(batch)
+            names += batch
+        else:
+            name = f"berth-{rng.randrange(RECENT)}"
+            assert book.add(name) == len(names)
+            names.append(name)
+        if step % 3 == 0:
+            for probe in (names[-1], names[rng.randrange(len(names))], f"berth-{rng.randrange(RECENT)}", "nowhere"):
+                assert book.last(probe) == _last_in_list(names, probe), probe
+    assert len(book) == len(names)

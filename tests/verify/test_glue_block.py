@@ -21,7 +21,7 @@ from plain_sumcheck import BN254, Elem, Plain  # noqa: E402
 from stepper.field.field import get_field  # noqa: E402
 from stepper.field.spec import field_from_spec  # noqa: E402
 from stepper.transcript.model import InstanceStart  # noqa: E402
-from stepper.verify.glue_block import GlueChecks, Unsupported  # noqa: E402
+from stepper.verify.glue_block import GlueChecks, StartColumns, Unsupported  # noqa: E402
 from stepper.verify.roundblock import block_kernel  # noqa: E402
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
@@ -257,7 +257,7 @@ def test_final_and_point_of_the_flush_before_are_read_unless_an_instance_came_be
     kernel = block_kernel(field)
     checks = GlueChecks(field, kernel)
     rng = random.Random(15)
-    first = [InstanceStart(i, f"deck.{i}", 2, 2, rng.randrange(ar.p)) for i in range(2)]
+    first = StartColumns.of([InstanceStart(i, f"deck.{i}", 2, 2, rng.randrange(ar.p)) for i in range(2)])
     challenges = [rng.randrange(ar.p) for _ in range(4)]
     finals = [rng.randrange(ar.p) for _ in range(2)]
     checks.instances(first, [0, 2], kernel.array(finals), kernel.array(challenges))
@@ -267,7 +267,7 @@ def test_final_and_point_of_the_flush_before_are_read_unless_an_instance_came_be
         checks.forget()
     own = [rng.randrange(ar.p) for _ in range(2)]
     final = ar.mul(finals[1], eq_plain(ar, challenges[:2], own))  # eq(point(deck.0)), deck.0 low-first
-    second = [InstanceStart(2, "deck.2", 2, 2, 7, final_expr="final(deck.1) * eq(point(deck.0))")]
+    second = StartColumns.of([InstanceStart(2, "deck.2", 2, 2, 7, final_expr="final(deck.1) * eq(point(deck.0))")])
     block = kernel.array(own)
     checks.instances(second, [0], kernel.array([final]), block)
     checks.add_columns(np.arange(1), second, [final], block, [0])
@@ -276,3 +276,24 @@ def test_final_and_point_of_the_flush_before_are_read_unless_an_instance_came_be
             checks.check({})
     else:
         assert checks.check({})
+
+
+def test_start_columns_hold_each_field_the_checks_read_as_the_records_hold_it():
+    # columns made from records, taken, cut and joined give each record's own fields, in order
+    starts = [InstanceStart(i, f"deck.{i}", 1 + i % 3, 2 + i % 2, 100 + i, order="high-first" if i == 3 else "low-first",
+                            claim_expr=None if i == 0 else f"a{i - 1}", final_expr=f"eq(tau) * c{i}") for i in range(6)]
+    fields = ("name", "num_vars", "degree", "order", "claim", "claim_expr", "final_expr")
+
+    def rows(columns: StartColumns) -> list[tuple[object, ...]]:
+        return list(zip(*(getattr(columns, field) for field in fields)))
+
+    def expected(records: list[InstanceStart]) -> list[tuple[object, ...]]:
+        return [tuple(getattr(record, field) for field in fields) for record in records]
+
+    whole = StartColumns.of(starts)
+    assert len(whole) == 6 and rows(whole) == expected(starts)
+    assert rows(whole.take([4, 1])) == expected([starts[4], starts[1]])
+    assert rows(whole.since(2)) == expected(starts[2:])
+    assert rows(StartColumns.of(starts[:2]) + StartColumns.of(starts[2:])) == expected(starts)
+    assert rows(StartColumns.joined([StartColumns.of(starts[:1]), StartColumns.of(starts[1:4]),
+                                     StartColumns.of(starts[4:])])) == expected(starts)

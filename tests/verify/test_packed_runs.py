@@ -160,3 +160,34 @@ def test_instances_laid_out_alike_are_cut_where_plain_slicing_cuts_them(count, r
     bounds = [0, *marks, len(stream)]
     got = _alike_cut(count, said, rounds, round_len, frame_len)(memoryview(stream))
     assert [bytes(piece) for piece in got] == [stream[a:b] for a, b in zip(bounds, bounds[1:])]
+
+
+def test_glued_runs_cut_each_instance_s_rows_final_and_glue_where_its_period_holds_them() -> None:
+    # instances laid out alike, held as columns: rows, finals and the glue after each but the last are cut
+    # from the periods by numpy; the reference is plain slicing of each period; the records made on demand
+    # are those the Sequencer makes for the same fields
+    from stepper.transcript.events import Sequencer
+    from stepper.transcript.model import InstanceStart
+    from stepper.verify.packed_runs import GluedRuns
+
+    layout = layout_of(4, 8)
+    rng = random.Random(11)
+    count, n, head_len = 5, 3, 40
+    run_end = head_len + n * layout.stride + layout.final_len
+    period = run_end + 57  # the glue after a run
+    blob = rng.randbytes((count - 1) * period + run_end)  # the last instance's glue is read as after any run
+    claims = [rng.randrange(1 << 60) for _ in range(count)]
+    last = InstanceStart(9 + count - 1, "sailing.4", n, 3, claims[-1], final_expr="eq(tau) * c4")
+    glued = GluedRuns(9, [f"sailing.{j}" for j in range(count)], [n] * count, [3] * count, claims,
+                      b"".join(claim.to_bytes(8, "little") for claim in claims), memoryview(blob),
+                      claim_texts=[None] + [f"a{j - 1}" for j in range(1, count)],
+                      final_texts=[f"eq(tau) * c{j}" for j in range(count)], period=period, head_len=head_len,
+                      run_end=run_end, layout=layout, last=last)
+    assert bytes(glued.row_parts()[0].tobytes()) == b"".join(
+        blob[j * period + head_len:j * period + head_len + n * layout.stride] for j in range(count))
+    assert glued.final_cells()[0].tobytes() == b"".join(
+        blob[j * period + run_end - 8:j * period + run_end] for j in range(count))
+    assert glued.glue_blob() == b"".join(blob[j * period + run_end:(j + 1) * period] for j in range(count - 1))
+    assert glued.record(count - 1) is last
+    assert glued.record(2) == Sequencer.plain_record(11, "sailing.2", n, 3, claims[2], "a1", "eq(tau) * c2")
+    assert glued.record(0).claim_expr is None and glued.record(0).index == 9

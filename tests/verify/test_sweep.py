@@ -889,23 +889,23 @@ def test_glued_instances_taken_from_the_chunk_with_their_texts_and_glue_report_a
         return real(self, name, *args)  # type: ignore[arg-type]
 
     monkeypatch.setattr(Sequencer, "plain_instance", spy)
-    real_runs = Sequencer.glued_runs
+    real_runs = Sequencer.glued_columns  # glued_runs, which makes every record, takes them through it too
 
     def runs_spy(self: Sequencer, names: list[str], *args: object) -> object:
-        records = real_runs(self, names, *args)  # type: ignore[arg-type]
-        if records is not None:
+        claims = real_runs(self, names, *args)  # type: ignore[arg-type]
+        if claims is not None:
             taken.extend(names)
-        return records
+        return claims
 
-    monkeypatch.setattr(Sequencer, "glued_runs", runs_spy)
+    monkeypatch.setattr(Sequencer, "glued_columns", runs_spy)
     from stepper.verify.packed_runs import RunBlock
 
     together: list[int] = []
     real_glued = RunBlock.absorb_glued
 
-    def glued_spy(self: RunBlock, schedule: object, first: int, starts: list[object], *rest: object) -> None:
-        together.append(len(starts))
-        real_glued(self, schedule, first, starts, *rest)  # type: ignore[arg-type]
+    def glued_spy(self: RunBlock, schedule: object, first: int, names: list[str], *rest: object) -> None:
+        together.append(len(names))
+        real_glued(self, schedule, first, names, *rest)  # type: ignore[arg-type]
 
     monkeypatch.setattr(RunBlock, "absorb_glued", glued_spy)
     monkeypatch.setenv("STEPPER_SWEEP", "on")
