@@ -51,7 +51,7 @@ def _export(path: str, out: IO[str]) -> int:
 
     from stepper.transcript.events import to_payload
     from stepper.transcript.store import open_events
-    from stepper.transcript.model import FieldDecl, InstanceStart
+    from stepper.transcript.records import FieldDecl, InstanceStart
     from stepper.transcript.store.writer import whole_proof_note
 
     with open_events(path) as stream:

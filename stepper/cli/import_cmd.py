@@ -36,7 +36,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from stepper.transcript.jsonl import oversized_integer, refuse_reserved
     from stepper.transcript.store import TranscriptWriter, open_events
-    from stepper.transcript.model import UnknownEvent
+    from stepper.transcript.records import UnknownEvent
 
     if os.path.exists(args.output) and os.path.samefile(args.events, args.output):
         raise UsageError("expected EVENTS and -o OUT to be different files, found the same file twice")

@@ -82,8 +82,9 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _take(summary: _Summary, record: Any) -> None:
-    from stepper.transcript.model import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue,
-                                          Note, Opening, RoundMsg, ScheduleDecl, Squeeze, UnknownEvent)
+    from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
+    from stepper.transcript.records import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
+                                            RoundMsg, ScheduleDecl, UnknownEvent)
 
     kind = type(record)
     if kind is RoundMsg:

@@ -11,6 +11,7 @@ endian, ``base_bytes`` per base coefficient, constant term first.
 
 from __future__ import annotations
 
+import functools
 import operator
 import re
 from typing import TYPE_CHECKING
@@ -24,7 +25,13 @@ if TYPE_CHECKING:
 
 __all__ = ["Element", "ElementCodec", "format_poly", "clip_text"]
 
-_NUMBER_TEXT = re.compile(r"(?P<sign>-)?(?:0[xX](?P<hex>[0-9a-fA-F]+)|(?P<dec>[0-9]+))", re.ASCII)
+_NUMBER_TEXT = r"(?P<sign>-)?(?:0[xX](?P<hex>[0-9a-fA-F]+)|(?P<dec>[0-9]+))"
+
+
+@functools.cache
+def _number_text() -> re.Pattern[str]:
+    """:data:`_NUMBER_TEXT` compiled, on the first element given as text (a binary transcript has none)."""
+    return re.compile(_NUMBER_TEXT, re.ASCII)
 
 
 class ElementCodec:
@@ -95,7 +102,7 @@ class ElementCodec:
         """Decimal or 0x-hex digits, ASCII only, surrounding whitespace allowed; a
         leading minus sign is recognised only to say that negatives are not canonical."""
         text = value.strip()
-        match = _NUMBER_TEXT.fullmatch(text)
+        match = _number_text().fullmatch(text)
         if match is None:
             raise FieldError(
                 f"expected a decimal or 0x-hex element of {self._short()}, found {clip_text(repr(value))}", where

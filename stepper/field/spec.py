@@ -21,7 +21,8 @@ __all__ = ["read_field_spec", "field_from_spec", "MAX_EXTENSION_BITS"]
 # p^k above 2^4096 would make the irreducibility check of a hostile declaration slow
 MAX_EXTENSION_BITS = 4096
 MAX_INTEGER_TEXT = 1100  # characters: a 1024-bit modulus needs at most 309 decimal digits
-_INTEGER_TEXT = re.compile(r"0[xX](?P<hex>[0-9a-fA-F]+)|(?P<dec>[0-9]+)", re.ASCII)
+# a modulus given as text; compiled on first use (re caches it): most files name their field
+_INTEGER_TEXT = r"0[xX](?P<hex>[0-9a-fA-F]+)|(?P<dec>[0-9]+)"
 
 
 def read_field_spec(spec: dict[str, Any], where: Where | None = None) -> Field:
@@ -80,7 +81,7 @@ def _as_int(value: object, what: str, where: Where | None) -> int:
     if isinstance(value, int):
         return value
     if isinstance(value, str):
-        match = _INTEGER_TEXT.fullmatch(value.strip())
+        match = re.fullmatch(_INTEGER_TEXT, value.strip(), re.ASCII)
         if match is not None and len(value.strip()) <= MAX_INTEGER_TEXT:
             hex_digits = match.group("hex")
             return int(hex_digits, 16) if hex_digits is not None else int(match.group("dec"), 10)

@@ -53,14 +53,14 @@ def unpacked(unpacker: msgpack.Unpacker, refill: Callable[[], bool]) -> Iterator
             return
 
 
-_PAST_CAP = re.compile(r"(\d+) exceeds max_(bin|str|array|map|ext)_len\((\d+)\)")
+_PAST_CAP = r"(\d+) exceeds max_(bin|str|array|map|ext)_len\((\d+)\)"  # compiled by re on the first refusal
 _CAP_UNITS = {"bin": "bytes of binary data", "str": "bytes of text", "array": "entries in a list",
               "map": "entries in a map", "ext": "bytes of extension data"}
 
 
 def past_cap(err: Exception) -> str | None:
     """msgpack's refusal of an object past a ReadLimits cap, in words (None for other errors)."""
-    match = _PAST_CAP.search(str(err))
+    match = re.search(_PAST_CAP, str(err))
     if match is None:
         return None
     found, kind, cap = match.groups()
