@@ -339,6 +339,7 @@ def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list
 _NAME_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_.")
 _WORD_GAPS = bytes(c if chr(c) in _NAME_CHARS else 0x20 for c in range(256))  # a bytes.translate table
 _WORD_RUN = re.compile(r"([A-Za-z0-9_.]+)")  # a maximal run of name characters: a name, a number or a mix
+_NOT_A_NAME_START = re.compile(r"\n[0-9.]")  # in words joined after newlines: a word that starts as no name does
 
 
 def _one_shape(texts: list[str], joined: str) -> list[tuple[Template, list[list[str]], list[int]]] | None:
@@ -373,7 +374,8 @@ def _one_shape(texts: list[str], joined: str) -> list[tuple[Template, list[list[
         if word[0] < "A" or word in _CALLS:  # a number (or a mix the tokenizer cuts) or a call word: a fixed word
             if column.count(word) != n:
                 return None
-        elif min(column) < "A" or any(call in column for call in _CALLS):  # a name here must start as one, no call word
+        elif _NOT_A_NAME_START.search("\n" + "\n".join(column)) or not _CALLS.isdisjoint(column):  # a name here
+            # must start as one (a letter or '_', not a digit or '.'), no call word
             return None
         else:
             holes.append(column)

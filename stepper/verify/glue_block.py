@@ -70,7 +70,7 @@ class _Group:
     template: Template
     final: bool
     columns: list[list[str]]
-    expected: list[Any]
+    expected: list[Any] | np.ndarray  # a list of elements, or a kernel array of them
     runs: np.ndarray
     challenges: Any = None
     first_rows: list[int] = dc_field(default_factory=list)
@@ -208,7 +208,7 @@ class GlueChecks:
                              list(map(itemgetter(2), entries)),
                              entries[0][3], list(map(itemgetter(4), entries)))
 
-    def add_columns(self, runs: np.ndarray, starts: StartColumns, finals: list[Any], challenges: Any,
+    def add_columns(self, runs: np.ndarray, starts: StartColumns, finals: list[Any] | np.ndarray, challenges: Any,
                     first_rows: list[int]) -> None:
         """:meth:`add` for instances whose challenges are all in one block (``challenges``), given as
         columns: instance k follows run ``runs[k]`` of the flush, has start ``starts[k]``, final value
@@ -241,7 +241,7 @@ class GlueChecks:
                     self.groups.append(_Group(template, False, columns, list(picked.claim),
                                               picked_runs, instances=table))
                     continue
-                picked_finals = finals if whole else [finals[i] for i in chosen]
+                picked_finals = finals if whole else _taken(finals, chosen)
                 picked_firsts = first_rows if whole else [first_rows[i] for i in chosen]
                 sizes, orders = list(picked.num_vars), list(picked.order)
                 if sizes.count(sizes[0]) == len(sizes) and orders.count(orders[0]) == len(orders):
@@ -253,7 +253,7 @@ class GlueChecks:
                     split.setdefault(shape, []).append(i)
                 for (size, order), members in split.items():
                     self.groups.append(_Group(template, True, [[column[i] for i in members] for column in columns],
-                                              [picked_finals[i] for i in members],
+                                              _taken(picked_finals, members),
                                               picked_runs[np.array(members, dtype=np.int64)], challenges,
                                               [picked_firsts[i] for i in members], size, order, instances=table))
 
@@ -319,6 +319,13 @@ class GlueChecks:
         groups, self.groups, self._table = self.groups, [], None
         self._previous, self._flush_instances = self._flush_instances, None
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
+
+
+def _taken(values: list[Any] | np.ndarray, chosen: list[int]) -> list[Any] | np.ndarray:
+    """The entries of ``values`` (a list, or a kernel array with one row per entry) at ``chosen``."""
+    if values.__class__ is np.ndarray:
+        return values[np.array(chosen, dtype=np.int64)]  # type: ignore[index, no-any-return]
+    return [values[i] for i in chosen]
 
 
 def _runs_of(picked: list[Settled]) -> np.ndarray:
@@ -427,8 +434,11 @@ class _Columns:
             return [name] * self.n
         return self.group.columns[int(name[1:])]
 
-    def array(self, items: list[Any]) -> np.ndarray:
-        """Canonical elements (the Sequencer and the block checked them) as a kernel array."""
+    def array(self, items: list[Any] | np.ndarray) -> np.ndarray:
+        """Canonical elements (the Sequencer and the block checked them) as a kernel array (given as one,
+        kept)."""
+        if isinstance(items, np.ndarray):
+            return items
         if self.words:
             return np.array(items, dtype=np.uint64)
         return self.kernel.array(items)

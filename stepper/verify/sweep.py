@@ -759,7 +759,7 @@ class _Sweeper:
                     if not kept and unkept == glue.size:
                         unkept = bounds[i]
                 checks.instances(starts, block.first_rows, block.finals, block.challenges)
-                checks.add_columns(np.arange(len(starts)), starts, block.final_values(), block.challenges,
+                checks.add_columns(np.arange(len(starts)), starts, block.finals, block.challenges,
                                    block.first_rows)
             else:
                 for i, run in enumerate(runs):
