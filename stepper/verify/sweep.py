@@ -364,29 +364,44 @@ class _Sweeper:
         and the block has room: found in the chunk's bytes and taken with one ``read_bytes``, no
         map per instance event. Each event's payload (the one msgpack would have made) still goes
         through the Sequencer, in order. The glue after the last run taken is left to
-        :meth:`_take_glue`, which reads on into the next chunk."""
-        while self._take_uniform() or self._take_glued_alike():  # a flush in between (a file without glue)
-            if self.due:  # starts the next block
-                return  # the block is full: the glue after the last run taken waits to be checked with it
+        :meth:`_take_glue`, which reads on into the next chunk. Instances laid out alike are taken
+        together (:meth:`_take_uniform`, :meth:`_take_glued_alike`); where they are not (a name one
+        character longer from here on shifts every byte after it), a few are taken one by one
+        (:meth:`_take_found`), twice as many each time the comparison fails again right after."""
+        most = 1
+        while True:
+            alike = False
+            while self._take_uniform() or self._take_glued_alike():  # a flush in between (a file without glue)
+                if self.due:  # starts the next block
+                    return  # the block is full: the glue after the last run taken waits to be checked with it
+                alike = True
+            most = 1 if alike else most
+            if not self._take_found(most) or self.due:
+                return
+            most *= 2
+
+    def _take_found(self, most: int) -> bool:
+        """Take up to ``most`` instances that follow, found one by one in the chunk's bytes (see
+        :meth:`_take_instances`); returns whether any were taken."""
         layout, find = self.layout, self.instance_head
         data, data_at = self.window
         first = at = self.unpacker.tell() - data_at
         if layout is None or find is None or at < 0:
-            return
+            return False
         glue = self.glue_run.match if self.glue_run is not None and self.seq.glue else None
         prefix, final_prefix, stride, final_len = layout.round_prefix, layout.final_prefix, layout.stride, layout.final_len
-        most, rows, size, limit = len(data), self.rows, self.pending_bytes, self.limits.chunk_bytes * 8
+        ends, rows, size, limit = len(data), self.rows, self.pending_bytes, self.limits.chunk_bytes * 8
         found: list[tuple[int, bytes, int, int, bytes, bytes | None, bytes | None]] = []  # each event's end, fields
         glue_ends: list[int] = []  # where the glue after each run taken ends
         plain = True  # no claim_expr or final_expr, no glue between the runs: taken as columns
         head_at = at
-        while rows < BLOCK_ROUNDS and size < limit:
+        while rows < BLOCK_ROUNDS and size < limit and len(found) < most:
             head = find(data, head_at)
             if head is None:
                 break
             head_end, _, num_vars, degree, _, claim_expr, final_expr = head
             end = head_end + num_vars * stride + final_len
-            if (end > most or num_vars == 0 or layout.values > degree + 1 or not data.startswith(prefix, head_end)
+            if (end > ends or num_vars == 0 or layout.values > degree + 1 or not data.startswith(prefix, head_end)
                     or not data.startswith(final_prefix, end - final_len)
                     or ((claim_expr is not None or final_expr is not None) and glue is None)):
                 break  # the usual path takes it (and judges it)
@@ -399,14 +414,14 @@ class _Sweeper:
             head_at = end if glue is None else glue(data, end).end()  # type: ignore[union-attr]
             glue_ends.append(head_at)
         if not found:
-            return
+            return False
         blob = memoryview(self.unpacker.read_bytes(at - first))
         try:
             if plain and len(found) > 1 and self._take_plain(
                     [head[1].decode() for head in found], [head[2] for head in found], [head[3] for head in found],
                     b"".join([head[4] for head in found]), lambda: blob, [head[0] - first for head in found], layout):
                 self._after_runs(rows - self.rows, size - self.pending_bytes)
-                return
+                return True
             seq, runs, trailing, last = self.seq, self.runs, self.trailing, len(found) - 1
             names, claim_texts, final_texts = (_decoded([head[1] for head in found]),
                                                _decoded([head[5] for head in found]),
@@ -428,6 +443,7 @@ class _Sweeper:
         except UnicodeDecodeError:
             raise _GiveUp("a text that is not UTF-8") from None  # the usual path names it
         self._after_runs(rows - self.rows, size - self.pending_bytes)
+        return True
 
     def _take_plain(self, names: list[str], num_vars: list[int], degrees: list[int], packed_claims: bytes,
                     blob: Callable[[], memoryview], rows_at: list[int], layout: Layout, period: int = 0) -> bool:

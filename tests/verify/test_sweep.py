@@ -1297,3 +1297,24 @@ def test_any_byte_changed_in_a_glued_instance_laid_out_like_its_neighbours_check
         path = tmp_path / "flipped.sumtr"
         path.write_bytes(bytes(raw) + seal(bytes(raw), events))
         check_both(capsys, monkeypatch, path)
+
+
+def test_where_names_grow_a_digit_one_instance_is_taken_alone_and_the_rest_together(tmp_path, monkeypatch):
+    # sailing.9 -> sailing.10 and a9 -> a10 shift every byte after them: the instance where the lengths
+    # change is not laid out like its neighbours, so it is taken one by one, and the comparison starts
+    # again right after it (not every instance to the chunk's end one by one); the report is the replay's
+    path = tmp_path / "growing.sumtr"
+    write_pointed(path, pointed=False, count=120, seed=41)
+    alone: list[int] = []
+    real = sweep_module._Sweeper._take_found
+
+    def spy(self: object, most: int) -> bool:
+        before = len(self.seq.names)  # type: ignore[attr-defined]
+        taken = real(self, most)  # type: ignore[arg-type]
+        alone.append(len(self.seq.names) - before)  # type: ignore[attr-defined]
+        return taken
+
+    monkeypatch.setattr(sweep_module._Sweeper, "_take_found", spy)
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
+    assert_same_report(path, 3)
+    assert 0 < sum(alone) <= 6  # around instances 10 and 100 (and the first ones), not the 110 after them
