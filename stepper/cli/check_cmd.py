@@ -12,8 +12,6 @@ from __future__ import annotations
 
 import argparse
 
-from stepper.errors import UsageError
-
 HELP = "replay the verifier: which instance, which round, which check, and why"
 DESCRIPTION = (
     "Replay every sumcheck instance of FILE (a stepper transcript or a JSON-lines event file) as an "
@@ -84,6 +82,8 @@ _entries.__name__ = "entry count (N or 2^K, at least 2)"
 
 
 def run(args: argparse.Namespace) -> int:
+    from stepper.errors import UsageError
+
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
     if args.files.count("-") > 1:

@@ -7,8 +7,6 @@ from __future__ import annotations
 import argparse
 import sys
 
-from stepper.errors import InputError
-
 HELP = "print a shell completion script (bash, zsh or fish) for stepper's commands and options"
 DESCRIPTION = (
     "Print a completion script generated from stepper's own argument parser. bash: "
@@ -26,6 +24,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from stepper.cli.main import build_parser
+    from stepper.errors import InputError
 
     try:
         import shtab

@@ -15,8 +15,6 @@ import os
 import sys
 from itertools import chain
 
-from stepper.errors import TranscriptError, UsageError, Where
-
 HELP = "convert a JSON-lines event file into a transcript (validated, sealed with a digest)"
 DESCRIPTION = (
     "Read EVENTS (one JSON event per line, as a prover writes for `stepper record`, or the output of "
@@ -34,6 +32,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from stepper.errors import TranscriptError, UsageError, Where
     from stepper.transcript.jsonl import oversized_integer, refuse_reserved
     from stepper.transcript.store import TranscriptWriter, open_events
     from stepper.transcript.records import UnknownEvent

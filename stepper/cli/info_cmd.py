@@ -11,8 +11,10 @@ when it is corrupt (digest mismatch) or unreadable.
 from __future__ import annotations
 
 import argparse
-from dataclasses import dataclass, field as dc_field
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from stepper.cli.info_summary import Summary
 
 HELP = "describe a transcript: field, instances and rounds present, completeness, digest, metadata, notes"
 DESCRIPTION = (
@@ -27,31 +29,6 @@ REVEALS = ("public values only: claims, round polynomials, challenges, final val
 CAVEAT = "a passing `stepper check` on this file is evidence about this one run, not a soundness proof"
 
 
-@dataclass
-class _InstanceSummary:
-    name: str
-    num_vars: int
-    degree: int
-    order: str
-    form: str
-    batched: bool
-    rounds: int = 0
-    challenges: int = 0
-    final: bool = False
-    buckets: int = 0
-
-
-@dataclass
-class _Summary:
-    instances: list[_InstanceSummary] = dc_field(default_factory=list)
-    notes: list[Any] = dc_field(default_factory=list)
-    note_count: int = 0
-    unknown: dict[str, int] = dc_field(default_factory=dict)
-    glue: dict[str, int] = dc_field(default_factory=dict)  # value, squeeze, opening events by type
-    field: Any = None
-    schedule: Any = None
-
-
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="transcript (or JSON-lines event file)")
     parser.add_argument("--json", action="store_true", help="print one JSON object")
@@ -60,15 +37,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from stepper.cli.info_summary import Summary, take
     from stepper.errors import UsageError
     from stepper.transcript.store import open_events
 
     if args.rows < 0:
         raise UsageError(f"expected --rows a non-negative integer, found {args.rows}")
-    summary = _Summary()
+    summary = Summary()
     with open_events(args.file, best_effort=True) as stream:
         for record in stream:
-            _take(summary, record)
+            take(summary, record)
     info = _as_json(args.file, stream, summary)
     if args.json:
         import json
@@ -81,39 +59,7 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _take(summary: _Summary, record: Any) -> None:
-    from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
-    from stepper.transcript.records import (BucketStats, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, Note,
-                                            RoundMsg, ScheduleDecl, UnknownEvent)
-
-    kind = type(record)
-    if kind is RoundMsg:
-        summary.instances[record.instance].rounds += 1
-    elif kind is ChallengeMsg:
-        summary.instances[record.instance].challenges += 1
-    elif kind is InstanceStart:
-        summary.instances.append(_InstanceSummary(record.name, record.num_vars, record.degree, record.order,
-                                                  record.form, record.batch is not None))
-    elif kind is FinalValue:
-        summary.instances[record.instance].final = True
-    elif kind is BucketStats:
-        summary.instances[record.instance].buckets += 1
-    elif kind is Note:
-        summary.note_count += 1
-        if len(summary.notes) < 50:
-            summary.notes.append(record)
-    elif kind is FieldDecl:
-        summary.field = record.field
-    elif kind is ScheduleDecl:
-        summary.schedule = record
-    elif kind is UnknownEvent:
-        summary.unknown[record.kind] = summary.unknown.get(record.kind, 0) + 1
-    elif kind is NamedValue or kind is Squeeze or kind is Opening:
-        name = {NamedValue: "value", Squeeze: "squeeze", Opening: "opening"}[kind]
-        summary.glue[name] = summary.glue.get(name, 0) + 1
-
-
-def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
+def _as_json(path: str, stream: Any, summary: Summary) -> dict[str, Any]:
     fld = summary.field
     out = _info(path, stream, summary, fld)
     if summary.glue:  # only where there is glue: other files keep their JSON byte for byte
@@ -121,7 +67,7 @@ def _as_json(path: str, stream: Any, summary: _Summary) -> dict[str, Any]:
     return out
 
 
-def _info(path: str, stream: Any, summary: _Summary, fld: Any) -> dict[str, Any]:
+def _info(path: str, stream: Any, summary: Summary, fld: Any) -> dict[str, Any]:
     from stepper.transcript.condition import file_condition, proof_condition, rounds_counted
 
     return {
@@ -156,7 +102,7 @@ def _info(path: str, stream: Any, summary: _Summary, fld: Any) -> dict[str, Any]
     }
 
 
-def _as_text(info: dict[str, Any], summary: _Summary, rows: int) -> list[str]:
+def _as_text(info: dict[str, Any], summary: Summary, rows: int) -> list[str]:
     from stepper.transcript.condition import ROUND_RULE
 
     lines: list[str] = []

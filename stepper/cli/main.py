@@ -19,7 +19,6 @@ from typing import NoReturn, Sequence
 
 from stepper import __version__
 from stepper.cli.debug import show_traceback_if_asked
-from stepper.errors import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, StepperError
 
 __all__ = ["main", "COMMANDS", "RETIRED"]
 
@@ -52,6 +51,8 @@ class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors and exit code 2."""
 
     def error(self, message: str) -> NoReturn:
+        from stepper.errors import EXIT_INPUT
+
         self.exit(EXIT_INPUT, f"{self.prog}: {message} (see {self.prog} --help)\n")
 
 
@@ -108,6 +109,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     named = [word for word in words if word in COMMANDS]
     parser, modules = _build_parser(words[0] if words and words[0] in COMMANDS else None, arguments=bool(named))
     args, unknown = parser.parse_known_args(words)
+    # imported once the parse is over: `stepper --help` and `--version` end inside it, and need neither
+    # the error tree nor the dataclasses (and inspect) it is made of
+    from stepper.errors import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, StepperError
+
     if args.command == "check" and unknown and all(w == "-" or not w.startswith("-") for w in unknown):
         args.files += unknown  # files after a flag (`check a.sumtr --strict b.sumtr`): argparse stops at the flag
         unknown = []

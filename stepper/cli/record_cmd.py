@@ -17,10 +17,10 @@ import os
 import sys
 from typing import TYPE_CHECKING, Any
 
-from stepper.errors import TranscriptError, UsageError, Where
-
 if TYPE_CHECKING:
     import subprocess
+
+    from stepper.errors import TranscriptError
 
 HELP = "run a prover with STEPPER_EVENTS set and record its JSON-lines events into a transcript"
 DESCRIPTION = (
@@ -50,6 +50,7 @@ def run(args: argparse.Namespace) -> int:
     import subprocess
     import tempfile
 
+    from stepper.errors import TranscriptError, UsageError, Where
     from stepper.transcript.jsonl import LineSplitter
     from stepper.transcript.store import TranscriptWriter
 
@@ -155,6 +156,7 @@ class _Follower:
         return got
 
     def _take(self, lines: Any) -> None:
+        from stepper.errors import TranscriptError, Where
         from stepper.transcript.jsonl import oversized_integer, refuse_reserved
 
         try:

@@ -10,8 +10,6 @@ import argparse
 import sys
 from importlib import resources
 
-from stepper.errors import UsageError
-
 HELP = "print a JSON Schema of stepper's inputs and outputs (event, check, check-files, diff, info)"
 DESCRIPTION = (
     "Print the JSON Schema (draft 2020-12) of one event line (event), of `check --json` for one file "
@@ -34,12 +32,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def schema_text(name: str) -> str:
     """The schema NAME as shipped (JSON text)."""
+    from stepper.errors import UsageError
+
     if name not in SCHEMAS:
         raise UsageError(f"expected a schema name among {', '.join(SCHEMAS)}, found {name!r}")
     return (resources.files("stepper") / "schemas" / f"{name}.schema.json").read_text(encoding="utf-8")
 
 
 def run(args: argparse.Namespace) -> int:
+    from stepper.errors import UsageError
+
     if args.list:
         for name, what in SCHEMAS.items():
             print(f"{name:<6} {what}")

@@ -47,7 +47,7 @@ MAX_POINT_ELEMENTS = 1 << 16
 
 def parsed(text: str) -> Expr:
     """The tree of a glue expression (the Sequencer has already parsed it, and named any error)."""
-    from stepper.field.expr import parse_cached  # numpy with it: only for glue
+    from stepper.field.expr import parse_cached  # only for glue
 
     return parse_cached(text)
 

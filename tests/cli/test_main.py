@@ -24,11 +24,13 @@ def test_help_lists_every_subcommand(capsys):
 def test_help_builds_no_subcommand_arguments_and_imports_no_command_work():
     # `stepper --help` lists the subcommands with their summaries only: no subcommand's arguments are
     # added (prove's fault table is read for its --fault help), and no command module imports at its
-    # top what only its run needs (json, subprocess, the check's file handling, the transcript store)
+    # top what only its run needs (json, subprocess, the check's file handling, the transcript store,
+    # the error tree and the dataclasses module with inspect, which it is made of)
     code = ("import sys\nbefore = set(sys.modules)\nfrom stepper.cli.main import main\ntry:\n    main(['--help'])\n"
             "except SystemExit:\n    pass\nprint(sorted(name for name in set(sys.modules) - before if name in "
             "('stepper.provers.faults', 'json', 'subprocess', 'signal', 'stepper.cli.check_file', "
-            "'stepper.transcript.store', 'stepper.transcript.condition', 'numpy')))")
+            "'stepper.transcript.store', 'stepper.transcript.condition', 'numpy', 'stepper.errors', 'dataclasses', "
+            "'inspect')))")
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert proc.stdout.strip().splitlines()[-1] == "[]", proc.stderr
 
