@@ -10,8 +10,11 @@ digests squeezed over frames built from the same bytes
 (:meth:`~stepper.verify.fiatshamir.Sha256Schedule.absorb_rows`). :class:`PlainRuns` holds
 instances in a row whose events the sweep found in one chunk's bytes, as columns: a run of them
 is settled and hashed in one step (:meth:`RunBlock.absorb_plain`: their statements' frames built
-together, absorbed with their rounds in one pass), with no Python per instance. Whatever does not
-fit raises :class:`GiveUp`: the caller then replays the file event by event.
+together, absorbed with their rounds in one pass), with no Python per instance. :class:`GluedRuns`
+holds instances with a ``claim_expr`` or ``final_expr`` laid out alike, their glue after them, the
+same way: :meth:`RunBlock.absorb_glued` hashes their statements, rows and glue in one call, the
+pieces around each squeeze put in place by slice assignments. Whatever does not fit raises
+:class:`GiveUp`: the caller then replays the file event by event.
 """
 
 from __future__ import annotations
