@@ -52,10 +52,15 @@ def instance_frames(width: int, shape: bytes, names: Sequence[str], num_vars: Se
     count = len(names)
     if len(claims) != count * width or len(num_vars) != count or len(degrees) != count:
         raise ValueError(f"expected {count} claims of {width} bytes, num_vars and degrees, one per name")
-    encoded = [name.encode("utf-8") for name in names]
-    lengths = np.fromiter(map(len, encoded), dtype=np.int64, count=count)
     head = len(INSTANCE_HEAD) + 16  # the tag, the body's length, the name's length
     after = 16 + len(shape) + width  # num_vars, degree, order and form, claim
+    joined = "\n".join(names).encode("utf-8")
+    size = (len(joined) + 1) // count - 1 if count else 0
+    if count and len(joined) == count * (size + 1) - 1 and joined.count(b"\n") == count - 1 \
+            and joined[size::size + 1].count(b"\n") == count - 1:  # names of one length in bytes
+        return _alike_frames(width, shape, joined, size, num_vars, degrees, claims)
+    encoded = [name.encode("utf-8") for name in names]
+    lengths = np.fromiter(map(len, encoded), dtype=np.int64, count=count)
     sizes = head + lengths + after
     ends = np.cumsum(sizes)
     starts = ends - sizes
@@ -77,6 +82,30 @@ def instance_frames(width: int, shape: bytes, names: Sequence[str], num_vars: Se
             np.frombuffer(b"".join(encoded), dtype=u8)
     out[(starts + head + lengths)[:, None] + np.arange(after)] = rest
     return out.tobytes(), ends.tolist()
+
+
+def _alike_frames(width: int, shape: bytes, joined: bytes, size: int, num_vars: Sequence[int],
+                  degrees: Sequence[int], claims: bytes) -> tuple[bytes, list[int]]:
+    """:func:`instance_frames` of names of ``size`` bytes each, joined by newlines in ``joined``: every
+    frame of one length, built as the rows of one array by slice assignments (no gather)."""
+    import numpy as np
+
+    count = (len(joined) + 1) // (size + 1)
+    u8 = np.uint8
+    head = len(INSTANCE_HEAD) + 16
+    after = 16 + len(shape) + width
+    said = head + size + after
+    out = np.empty((count, said), dtype=u8)
+    out[:, :len(INSTANCE_HEAD)] = np.frombuffer(INSTANCE_HEAD, dtype=u8)
+    out[:, len(INSTANCE_HEAD):head] = np.frombuffer(u64(size + 8 + after) + u64(size), dtype=u8)
+    if size:
+        out[:, head:head + size] = np.frombuffer(joined + b"\n", dtype=u8).reshape(count, size + 1)[:, :size]
+    rest = out[:, head + size:]
+    rest[:, :8] = np.asarray(num_vars, dtype="<u8").reshape(count, 1).view(u8)
+    rest[:, 8:16] = np.asarray(degrees, dtype="<u8").reshape(count, 1).view(u8)
+    rest[:, 16:16 + len(shape)] = np.frombuffer(shape, dtype=u8)
+    rest[:, 16 + len(shape):] = np.frombuffer(claims, dtype=u8).reshape(count, width)
+    return out.tobytes(), list(range(said, said * count + 1, said))
 
 
 def glue_stream(width: int, challenge_head: bytes, kinds: Sequence[str], names: Sequence[str], tables: Sequence[str],

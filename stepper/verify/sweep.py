@@ -135,10 +135,14 @@ def _alike(u8: np.ndarray, at: int, period: int, count: int, fixed: np.ndarray, 
     round size, up to the first that does not (of ``count``)."""
     import numpy as np
 
-    periods = u8[at:at + period * count].reshape(count, period)  # one view: no gather of every fixed byte
-    compared = np.zeros(period, dtype=bool)
-    compared[fixed] = True
-    same = ~((periods != periods[0]) & compared).any(axis=1)
+    periods = u8[at:at + period * count].reshape(count, period)  # one view
+    if 2 * len(fixed) <= period:  # a plain instance's head and prefixes: gathered (40x faster at 24 rounds)
+        columns = periods[:, fixed]
+        same = (columns == columns[0]).all(axis=1)
+    else:  # most of each period (glue after the runs): compared under a mask, no gather of every byte
+        compared = np.zeros(period, dtype=bool)
+        compared[fixed] = True
+        same = ~((periods != periods[0]) & compared).any(axis=1)
     starts = at + period * np.arange(count)
     degrees = periods[:, degree_at]
     same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)

@@ -36,6 +36,21 @@ def test_instance_frames_are_each_statement_framed_in_turn_with_where_each_ends(
         instance_frames(4, SHAPE, names, [2, 1, 7], [2, 0, 3], claims[:-1])
 
 
+@pytest.mark.parametrize("names", [["sailing-07", "sailing-08", "sailing-09"], ["", "", ""], ["ü-1", "ab-2", "ä-3"],
+                                   ["quay"], ["ab", "a\nb"[:2], "cd"], ["ab", "a\n", "cd"], ["ab", "abc", "de"]])
+def test_instance_frames_of_names_of_one_length_are_the_same_bytes(names):
+    # names of one length in bytes take the row-by-row build (non-ASCII counted in bytes; a newline inside a
+    # name, or another length, the general one): the bytes are the same either way
+    count = len(names)
+    claims = b"".join((7 * i + 1).to_bytes(8, "little") for i in range(count))
+    num_vars, degrees = [3 + i for i in range(count)], [2] * count
+    frames, ends = instance_frames(8, SHAPE, names, num_vars, degrees, claims)
+    expected = [by_hand(b"instance", u64(len(name.encode())) + name.encode() + u64(v) + u64(d) + SHAPE
+                        + claims[8 * i:8 * i + 8]) for i, (name, v, d) in enumerate(zip(names, num_vars, degrees))]
+    assert frames == b"".join(expected)
+    assert ends == [sum(map(len, expected[:i + 1])) for i in range(count)]
+
+
 def test_the_glue_stream_frames_values_openings_and_draws_and_marks_each_squeeze():
     head = by_hand(b"challenge", bytes(4))[:-4]  # a challenge frame's bytes before its element
     one, two = (5).to_bytes(4, "little"), (6).to_bytes(4, "little")

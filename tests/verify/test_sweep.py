@@ -24,6 +24,7 @@ from dataclasses import dataclass, field as dataclass_field
 from pathlib import Path
 
 import msgpack
+import numpy as np
 import pytest
 from hypothesis import HealthCheck, event, given, settings, strategies as st
 
@@ -1041,6 +1042,34 @@ def test_instances_laid_out_alike_are_hashed_from_one_buffer_and_a_changed_chall
         assert swept_report(broken.path, 3) is None
         code, out, _, swept = check_both(capsys, monkeypatch, broken.path, "--rows", "3")
         assert swept is None and code == 1 and "challenge" in out, out
+
+
+@pytest.mark.parametrize("fixed_count", [6, 40, 150])  # few fixed bytes (gathered) or most of a period (masked)
+def test_periods_alike_stop_at_the_first_fixed_byte_that_differs_and_ignore_the_others(fixed_count):
+    from stepper.verify.packed_runs import layout_of
+
+    rng = random.Random(fixed_count)
+    period, count, degree_at = 160, 12, 3
+    layout = layout_of(4, 4)  # four values a round: a degree of 3 or more allows it
+    fixed = np.array(sorted(rng.sample([i for i in range(period) if i != degree_at], fixed_count)))
+    free = [i for i in range(period) if i not in set(fixed.tolist()) and i != degree_at]
+    one = bytearray(rng.randbytes(period))
+    one[degree_at] = 3
+    for changed_at, where in ((5, int(fixed[len(fixed) // 2])), (None, free[0]), (None, free[-1])):
+        periods = [bytearray(one) for _ in range(count)]
+        for row in periods[1:]:  # every free byte may differ from one period to the next
+            for i in free:
+                row[i] = rng.randrange(256)
+        target = periods[changed_at if changed_at is not None else 7]
+        target[where] ^= 0x10
+        u8 = np.frombuffer(bytes(9) + b"".join(periods), dtype=np.uint8)
+        starts, degrees = sweep_module._alike(u8, 9, period, count, fixed, degree_at, layout)
+        expected = changed_at if changed_at is not None else count
+        assert starts.tolist() == [9 + period * j for j in range(expected)] and degrees.tolist() == [3] * expected
+    periods = [bytearray(one) for _ in range(count)]
+    periods[4][degree_at] = 2  # a degree below the round's size stops the run there too
+    u8 = np.frombuffer(b"".join(periods), dtype=np.uint8)
+    assert len(sweep_module._alike(u8, 0, period, count, fixed, degree_at, layout)[0]) == 4
 
 
 @pytest.mark.parametrize("field", ["bn254", "bls12-381"])
