@@ -37,7 +37,7 @@ from math import comb, factorial
 import numpy as np
 
 from stepper.field.kernels import GOLDILOCKS, ExtensionKernel, Kernel, kernel_for
-from stepper.field.kernels.prime import SmallPrimeKernel, WideKernel, mod_u64
+from stepper.field.kernels.prime import GoldilocksKernel, SmallPrimeKernel, WideKernel, mod_u64
 from stepper.field.kernels.limbs import MAX_LIMB_PRIME_BITS, LimbKernel
 from stepper.field.field import Field
 from stepper.verify.cells import below_p, words_to_ints
@@ -232,8 +232,7 @@ def evaluate_at(kernel: Kernel, evals: np.ndarray, points: np.ndarray) -> np.nda
     for _ in range(1, m):
         layer = [kernel.sub(layer[i + 1], layer[i]) for i in range(len(layer) - 1)]
         deltas.append(layer[0])
-    coefficients = [deltas[k] if k < 2 else _halve(deltas[k], p) if k == 2 and isinstance(kernel, WideKernel)
-                    else _times_constant(kernel, deltas[k], pow(factorial(k), -1, p)) for k in range(m)]
+    coefficients = [deltas[k] if k < 2 else _over_factorial(kernel, deltas[k], k) for k in range(m)]
     acc = coefficients[m - 1]
     for k in range(m - 1, 0, -1):
         shifted = _minus_constant(kernel, points, k - 1) if k > 1 else points
@@ -248,7 +247,7 @@ def _evaluate_columns(kernel: ExtensionKernel, evals: np.ndarray, points: np.nda
     one pass per row over every coefficient at once (they are the same linear map of the degree on
     each coefficient). Horner's rule then multiplies by r - j: through :func:`_horner_lazy` when k
     raw products fit in 64 bits, else :func:`_mul_columns` on lists of k columns."""
-    base, m, p, k = kernel.base, evals.shape[1], kernel.p, kernel.k
+    base, m, k = kernel.base, evals.shape[1], kernel.k
     count = len(evals)
     rows = np.ascontiguousarray(evals.transpose(1, 2, 0)).reshape(m, k * count)  # row j: g(j)'s k columns
     layer = list(rows)
@@ -257,10 +256,7 @@ def _evaluate_columns(kernel: ExtensionKernel, evals: np.ndarray, points: np.nda
         layer = [base.sub(layer[i + 1], layer[i]) for i in range(len(layer) - 1)]
         deltas.append(layer[0])
     for d in range(2, m):  # the 1/d! of Newton's form: constants of the degree
-        if d == 2 and isinstance(base, WideKernel):  # a half by a shift: a product costs ~30 numpy passes here
-            deltas[d] = _halve(deltas[d], p)
-            continue
-        deltas[d] = base.mul(deltas[d], base.array([pow(factorial(d), -1, p)]))
+        deltas[d] = _over_factorial(base, deltas[d], d)
     coefficients = [row.reshape(k, count) for row in deltas]  # each (k, n): one column per coefficient
     r = np.ascontiguousarray(points.T)
     if _horner_fits(kernel):
@@ -308,6 +304,33 @@ def _horner_lazy(kernel: ExtensionKernel, coefficients: list[np.ndarray], r: np.
         raw += coefficients[d - 1]
         acc = mod_u64(raw, p64, out=raw)
     return acc
+
+
+def _over_factorial(kernel: Kernel, column: np.ndarray, d: int) -> np.ndarray:
+    """column / d! (entries of a prime kernel, or of an extension's base: every coefficient). Over a
+    prime above 2^32, where a product costs about 25 numpy passes, by exact division: a half by a
+    shift (:func:`_halve`), and up to 7! by :func:`_divided`; otherwise times the inverse of d!."""
+    p = kernel.p
+    if isinstance(kernel, WideKernel):
+        if d == 2:
+            return _halve(column, p)
+        if d <= 7:
+            return _divided(column, factorial(d), p)
+    return _times_constant(kernel, column, pow(factorial(d), -1, p))
+
+
+def _divided(column: np.ndarray, n: int, p: int) -> np.ndarray:
+    """x / n mod p for canonical uint64 entries x and a small n (coprime to p, n < 2^16): x = n q + s,
+    and x + k p is a multiple of n for k = -s p^-1 mod n, so x / n = q + (s + k p) / n, the second
+    term one of n constants (a look-up by s). q <= (p - 1) / n and each constant is below
+    ((n - 1) (p + 1)) / n, so the sum is at most p: one conditional subtraction makes it canonical."""
+    k_of = (-pow(p, -1, n)) % n  # k = s * k_of mod n
+    table = np.array([(s + (s * k_of % n) * p) // n for s in range(n)], dtype=np.uint64)
+    n64 = np.uint64(n)
+    quotient = np.floor_divide(column, n64)
+    rest = column - quotient * n64
+    quotient += table.take(rest.astype(np.intp))
+    return np.minimum(quotient, quotient - np.uint64(p))
 
 
 def _halve(column: np.ndarray, p: int) -> np.ndarray:
@@ -365,8 +388,22 @@ def _mul_columns(kernel: ExtensionKernel, a: list[np.ndarray], b: list[np.ndarra
     for j, row in enumerate(kernel.reductions):
         for i, coefficient in enumerate(row):
             if coefficient:
-                out[i] = base.add(out[i], base.mul(products[k + j], base.array([coefficient])))
+                out[i] = base.add(out[i], _times_small(base, products[k + j], coefficient))
     return out
+
+
+def _times_small(base: Kernel, column: np.ndarray, c: int) -> np.ndarray:
+    """column * c for a base-field constant c: over Goldilocks with c < 2^32 (X^2 = 7 in the quadratic
+    extension) as x0 c + x1 c 2^32 for x = x1 2^32 + x0, two 64-bit products and one 128-bit
+    reduction instead of a full product's four; otherwise the kernel's product."""
+    if not isinstance(base, GoldilocksKernel) or c >= 2**32:
+        return base.mul(column, base.array([c]))
+    c64, m32, s32 = np.uint64(c), np.uint64(0xFFFFFFFF), np.uint64(32)
+    low = (column & m32) * c64
+    high = (column >> s32) * c64
+    lo = low + (high << s32)
+    hi = (high >> s32) + (lo < low)
+    return base.reduce128(lo, hi)  # type: ignore[no-any-return]
 
 
 def _folds_unreduced(kernel: ExtensionKernel) -> bool:

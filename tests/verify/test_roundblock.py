@@ -34,7 +34,8 @@ sys.path.insert(0, str(Path(__file__).parents[1]))  # the shared plain-integer a
 from plain_sumcheck import Plain, lagrange  # noqa: E402
 from stepper.field.field import get_field  # noqa: E402
 from stepper.verify.roundblock import (  # noqa: E402
-    WideSamples, _halve, block_kernel, block_passes, evaluate_at, reduce_wide, reduce_wide_digits, supports,
+    WideSamples, _divided, _halve, _times_small, block_kernel, block_passes, evaluate_at, reduce_wide,
+    reduce_wide_digits, supports,
 )
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
@@ -126,6 +127,23 @@ def test_a_half_by_shifting_equals_the_product_with_the_inverse_of_two(p):
     rng = random.Random(p)
     values = [0, 1, 2, 3, p - 2, p - 1, (p - 1) // 2, (p + 1) // 2] + [rng.randrange(p) for _ in range(200)]
     assert _halve(u64(values), p).tolist() == [x * pow(2, -1, p) % p for x in values]
+
+
+@pytest.mark.parametrize("p", [GOLDILOCKS, P62, 2**64 - 59])  # 2^64 - 59: the largest prime below 2^64 (from memory)
+@pytest.mark.parametrize("n", [3, 6, 24, 120, 720, 5040])  # 3 and the factorials 3! .. 7!
+def test_exact_division_by_a_small_integer_equals_the_product_with_its_inverse(p, n):
+    # x / n = x * n^-1 mod p, in plain Python integers; the edges: 0, p - 1 and each residue mod n near p
+    assert sympy.isprime(p)
+    rng = random.Random(p + n)
+    values = [0, 1, n - 1, n, p - 1, *range(p - 2 * n, p - 1)] + [rng.randrange(p) for _ in range(300)]
+    assert _divided(u64(values), n, p).tolist() == [x * pow(n, -1, p) % p for x in values]
+
+
+@pytest.mark.parametrize("c", [1, 7, 2**31, 2**32 - 1, 2**32, GOLDILOCKS - 1])  # below 2^32 or not
+def test_a_goldilocks_column_times_a_small_constant_equals_python_integers(c):
+    rng = random.Random(c)
+    values = [0, 1, 2**32 - 1, 2**32, 2**63, GOLDILOCKS - 1] + [rng.randrange(GOLDILOCKS) for _ in range(300)]
+    assert _times_small(kernel(GOLDILOCKS), u64(values), c).tolist() == [x * c % GOLDILOCKS for x in values]
 
 
 @pytest.mark.parametrize("degree", [2, 3, 4])
