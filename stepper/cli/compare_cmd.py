@@ -37,13 +37,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    import json
-
     from stepper.compare.diff import JSON_SCHEMA, compare
     from stepper.errors import UsageError
     from stepper.transcript.store import load
 
     if args.schema:
+        import json
+
         json.dump(JSON_SCHEMA, sys.stdout, indent=2)
         sys.stdout.write("\n")
         return 0
@@ -52,6 +52,8 @@ def run(args: argparse.Namespace) -> int:
     a, b = load(args.a), load(args.b)
     comparison = compare(a, b)
     if args.json:
+        import json
+
         json.dump(comparison.to_json(args.a, args.b), sys.stdout, indent=2)
         sys.stdout.write("\n")
     else:

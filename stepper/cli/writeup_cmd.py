@@ -38,7 +38,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from stepper.errors import UsageError
     from stepper.share.report import build, to_markdown
-    from stepper.share.report_html import to_html
     from stepper.transcript.store import load
     from stepper.verify.replay import replay_transcript
 
@@ -58,7 +57,12 @@ def run(args: argparse.Namespace) -> int:
 
         diagnosis = diagnose(transcript, load_witness(args.witness), report)
     doc = build(transcript, report, diagnosis, source=args.file)
-    text = to_markdown(doc) if kind == "md" else to_html(doc)
+    if kind == "md":
+        text = to_markdown(doc)
+    else:
+        from stepper.share.report_html import to_html  # with the html module's entity tables: HTML only
+
+        text = to_html(doc)
     if args.output == "-":
         sys.stdout.write(text)
         return 0
