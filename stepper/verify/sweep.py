@@ -740,8 +740,7 @@ class _Sweeper:
         self.runs, self.trailing, self.rows, self.pending_bytes, self.due = [], [], 0, 0, False
         kinds = set(map(type, runs))
         plain_rows = PlainRuns in kinds  # some runs are instances in a row, held as columns
-        layouts = {_layout(run) for run in runs} if len(runs) < 8 or len(kinds) > 1 else (
-            {runs[0].layout} if plain_rows or GluedRuns in kinds else set(map(itemgetter(3), runs)))  # type: ignore[union-attr, arg-type]
+        layouts = set(map(itemgetter(3), runs)) if kinds == {tuple} else set(map(_layout, runs))  # type: ignore[arg-type]
         # the runs' claim_expr and final_expr: with one block of runs taken one by one or laid out alike, read
         # as columns after the loop (instance i is the block's run i); otherwise gathered run by run
         by_columns = seq.glue and len(layouts) == 1 and not plain_rows
