@@ -169,8 +169,7 @@ def entry() -> None:
     # and functions, the report) goes with it. The interpreter's shutdown would first run the
     # cyclic collector over all of it and take apart the cycles it finds, work the exit does for
     # free: about 0.01 s of CPU after a check, small or large (numpy loaded), measured side by
-    # side in fresh processes (0.04 s after a large one, on the sweep of an earlier version). Frozen
-    # objects are left out of it;
+    # side in fresh processes. Frozen objects are left out of it;
     # reference counting, atexit handlers and weakref finalizers (the --challenges-exec child)
     # work as before, and every output is closed by the command itself before this.
     gc.freeze()
