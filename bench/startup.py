@@ -77,7 +77,9 @@ def child_env(tree: Path | None) -> dict[str, str]:
 
 
 def cpu_of(argv: list[str], env: dict[str, str], cwd: Path) -> tuple[float, int]:
-    """CPU seconds (user + system) and exit code of one fresh process."""
+    """CPU seconds (user + system) and exit code of one fresh process, run in ``cwd`` (a folder
+    with no stepper in it: `python -m` puts the working folder first on the module path, before
+    ``PYTHONPATH``)."""
     proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env, cwd=cwd)
     _, status, usage = os.wait4(proc.pid, 0)
     return usage.ru_utime + usage.ru_stime, os.waitstatus_to_exitcode(status)
@@ -113,7 +115,7 @@ def main() -> int:
         scratch = Path(folder)
         events = scratch / "events.jsonl"
         subprocess.run([sys.executable, "-m", "stepper", "export", str(PLAIN), "-o", str(events)],
-                       env=child_env(ROOT), check=True, stdout=subprocess.DEVNULL)
+                       env=child_env(ROOT), check=True, stdout=subprocess.DEVNULL, cwd=scratch)
         rows: list[tuple[str, Command, Path | None]] = [(c.label, c, None) for c in FLOORS]
         for command in commands(events):
             rows.append((command.label, command, ROOT))
