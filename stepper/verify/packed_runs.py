@@ -24,7 +24,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from itertools import chain, repeat
 from operator import attrgetter, getitem, itemgetter
-from typing import TYPE_CHECKING, Any, Callable, Iterable, Sequence, Union
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Sequence, Union
 
 import msgpack
 
@@ -434,22 +434,23 @@ class RunBlock:
         rounds' squeezes are appended to :attr:`digests`, those of the glue's to ``glue_digests``."""
         import numpy as np
 
-        view = self._frames_view(schedule)
-        round_len, frame_len = self._round_len, self._frame_len
         counts = list(counts)
         rows = sum(counts)
         statements, ends = schedule.instance_frames(names, counts, degrees, claims)
-        frames = view[first * frame_len:(first + rows) * frame_len]
-        cut = _pieces(frames, rows, round_len, frame_len)  # round 0; (challenge k, round k + 1)...; the last challenge
-        if counts.count(counts[0]) == len(counts):
-            out = _interleaved(cut, counts[0], np.frombuffer(frames, dtype=np.uint8), round_len, frame_len,  # type: ignore[arg-type]
-                               np.frombuffer(statements, dtype=np.uint8), np.array(ends, dtype=np.int64),
-                               np.frombuffer(glue, dtype=np.uint8), run_ends, cuts)  # type: ignore[arg-type]
-        else:
-            out = _one_by_one(cut, counts, frames, round_len, frame_len, memoryview(statements), ends, glue,
-                              run_ends.tolist(), cuts.tolist())
         squeezed = bytearray()
-        schedule.absorb_pieces(out, squeezed)
+        if counts.count(counts[0]) == len(counts):  # the usual case: instance by instance alike, one buffer a span
+            for pieces in _glued_groups(self.rows[first:first + rows], self.layout,
+                                        schedule.row_heads(self.layout.values), counts[0],
+                                        np.frombuffer(statements, dtype=np.uint8), np.array(ends, dtype=np.int64),
+                                        np.frombuffer(glue, dtype=np.uint8), run_ends, cuts):
+                schedule.absorb_pieces(pieces, squeezed)
+        else:
+            view = self._frames_view(schedule)
+            round_len, frame_len = self._round_len, self._frame_len
+            frames = view[first * frame_len:(first + rows) * frame_len]
+            cut = _pieces(frames, rows, round_len, frame_len)  # round 0; (challenge k, round k + 1)...; the last one
+            schedule.absorb_pieces(_one_by_one(cut, counts, frames, round_len, frame_len, memoryview(statements), ends,
+                                               glue, run_ends.tolist(), cuts.tolist()), squeezed)
         per = 32 * schedule.squeezes_per_challenge
         if len(squeezed) != (rows + len(counts)) * per:
             raise GiveUp("glue squeezes other than one after each run")
@@ -554,62 +555,59 @@ def _one_by_one(cut: list[bytes | memoryview], counts: list[int], frames: memory
     return out
 
 
-def _interleaved(cut: list[bytes | memoryview], n: int, frames: np.ndarray, round_len: int, frame_len: int,
-                 statements: np.ndarray, ends: np.ndarray, glue: np.ndarray, run_ends: np.ndarray, cuts: np.ndarray
-                 ) -> list[bytes | memoryview]:
-    """:func:`_one_by_one` for instances of ``n`` rounds each, with no Python per instance: cut where
-    a statement's length or the glue's cut changes (names of another length) into spans laid out
-    alike (:func:`_alike_span`), whose pieces are joined where two spans meet."""
+def _glued_groups(rows: np.ndarray, layout: Layout, heads: tuple[bytes, bytes], n: int, statements: np.ndarray,
+                  ends: np.ndarray, glue: np.ndarray, run_ends: np.ndarray, cuts: np.ndarray
+                  ) -> Iterator[Sequence[bytes | memoryview]]:
+    """:func:`_one_by_one` for instances of ``n`` rounds each (``rows``: their packed round and challenge
+    events, ``n`` a instance; ``heads`` the schedule's round and challenge frame heads), with no Python per
+    instance, in groups that one ``absorb_pieces`` call each takes in turn (no squeeze between two
+    groups). The instances are cut where a statement's length or the glue's cut changes (names of
+    another length) into spans laid out alike; each span's absorbed bytes, instance by instance its
+    statement, its rows' frames and its glue, are laid out in one buffer by a few assignments, so the
+    squeezes fall at the same offsets in every instance, and one cached C call cuts the pieces of
+    ``_ABSORB_INSTANCES`` instances (:func:`_glued_cut`)."""
     import numpy as np
 
     said_at = np.concatenate(([0], ends[:-1]))
     shapes = np.stack((ends - said_at, cuts - run_ends[:-1], run_ends[1:] - cuts))
     changes = np.flatnonzero((shapes[:, 1:] != shapes[:, :-1]).any(axis=0)) + 1
     bounds = [0, *changes.tolist(), len(cuts)]
-    out: list[bytes | memoryview] = []
+    round_head, challenge_head = heads
+    round_len = len(round_head) + layout.values * layout.width
+    frame_len = round_len + len(challenge_head) + layout.width
+    most = _ABSORB_INSTANCES
     for low, high in zip(bounds[:-1], bounds[1:]):
-        span = _alike_span(cut, n, low, high, frames, round_len, frame_len, statements, int(said_at[low]),
-                           int(shapes[0, low]), glue, int(run_ends[low]), int(cuts[low]), int(run_ends[low + 1]))
-        if out:
-            span[0] = b"".join((out.pop(), span[0]))
-        out += span
-    return out
+        count = high - low
+        said, before, after = (int(size) for size in shapes[:, low])
+        glue_len = before + after
+        period = said + n * frame_len + glue_len
+        stream = np.empty((-(-count // most) * most, period), dtype=np.uint8)  # whole groups: one cut for all
+        stream[:count, :said] = _strided(statements, int(said_at[low]), said, count, said)
+        _fill_frames(heads, rows[low * n:high * n].reshape(count, n, -1), layout,
+                     stream[:count, said:said + n * frame_len].reshape(count, n, frame_len))
+        stream[:count, said + n * frame_len:] = _strided(glue, int(run_ends[low]), glue_len, count, glue_len)
+        view = memoryview(stream.reshape(-1))  # type: ignore[arg-type]
+        cut = _glued_cut(most, said, n, round_len, frame_len, before, after)
+        for start in range(0, count, most):
+            pieces = cut(view[start * period:(start + most) * period])
+            group = count - start
+            if group < most:  # the last group: its pieces, the last one cut where its glue ends
+                pieces = (*pieces[:group * (n + 1)], pieces[group * (n + 1)][:after])
+            yield pieces
 
 
-def _alike_span(cut: list[bytes | memoryview], n: int, low: int, high: int, frames: np.ndarray, round_len: int,
-                frame_len: int, statements: np.ndarray, said_at: int, said: int, glue: np.ndarray, glue_at: int,
-                cut_at: int, glue_end: int) -> list[bytes | memoryview]:
-    """The pieces of instances ``low`` .. ``high - 1``, whose statements are all ``said`` bytes long (the
-    first from ``said_at``) and whose glue is all cut alike (the first's ``glue[glue_at:glue_end]``,
-    squeezed at ``cut_at``): from the first's statement and first round to the last's glue after its
-    squeeze. The pieces that join two sources (the last challenge of an instance and its glue up to
-    the squeeze; the rest of its glue, the next statement and the next first round) are built as the
-    rows of one array each, and every piece put in its place by slice assignments, one per piece of
-    an instance."""
-    import numpy as np
-
-    count = high - low
-    before, after = cut_at - glue_at, glue_end - cut_at
-    glue_step = glue_end - glue_at
-    tail, step = frame_len - round_len, n * frame_len  # a challenge's frame; an instance's rows
-    rows_at = low * step
-    # before each squeeze of the glue: the instance's last challenge, its glue up to the squeeze
-    closing = np.empty((count, tail + before), dtype=np.uint8)
-    closing[:, :tail] = _strided(frames, rows_at + step - tail, step, count, tail)
-    closing[:, tail:] = _strided(glue, glue_at, glue_step, count, before)
-    # after it (all but the first): the rest of the glue before, the statement, the first round
-    opening = np.empty((count - 1, after + said + round_len), dtype=np.uint8)
-    opening[:, :after] = _strided(glue, cut_at, glue_step, count - 1, after)
-    opening[:, after:after + said] = _strided(statements, said_at + said, said, count - 1, said)
-    opening[:, after + said:] = _strided(frames, rows_at + step, step, count - 1, round_len)
-    out: list[bytes | memoryview] = [b""] * (count * (n + 1) + 1)
-    out[0::n + 1] = [statements[said_at:said_at + said].tobytes() + frames[rows_at:rows_at + round_len].tobytes(),
-                     *_cut_rows(memoryview(opening.reshape(-1)), count - 1, opening.shape[1]),  # type: ignore[arg-type]
-                     glue[cut_at + (count - 1) * glue_step:glue_end + (count - 1) * glue_step].tobytes()]
-    for k in range(n - 1):  # challenge k + 1 with round k + 2: cut[1 + r] for row r = instance * n + k
-        out[1 + k::n + 1] = cut[1 + low * n + k:1 + high * n:n]
-    out[n::n + 1] = _cut_rows(memoryview(closing.reshape(-1)), count, closing.shape[1])  # type: ignore[arg-type]
-    return out
+@lru_cache(maxsize=8)
+def _glued_cut(count: int, said: int, rounds: int, round_len: int, frame_len: int, before: int, after: int
+               ) -> Callable[[memoryview], tuple[memoryview, ...]]:
+    """One C call cutting the bytes absorbed for ``count`` glued instances laid out alike (each a statement
+    frame of ``said`` bytes, ``rounds`` rows of frames, a round's of ``round_len`` bytes then its
+    challenge's, ``frame_len`` in all, then its glue, squeezed ``before`` bytes in and ``after`` bytes from
+    its end) into the pieces absorbed between two squeezes."""
+    period = said + rounds * frame_len + before + after
+    squeezes = [i * period + said + at for i in range(count)
+                for at in (*(round_len + k * frame_len for k in range(rounds)), rounds * frame_len + before)]
+    bounds = [0, *squeezes, count * period]
+    return itemgetter(*(slice(low, high) for low, high in zip(bounds, bounds[1:])))
 
 
 def _strided(source: np.ndarray, start: int, step: int, count: int, size: int) -> np.ndarray:

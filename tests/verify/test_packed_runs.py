@@ -15,46 +15,70 @@ import msgpack
 import numpy as np
 import pytest
 
-from stepper.verify.packed_runs import _alike_cut, _interleaved, _one_by_one, _pieces, _prefixes_hold, layout_of
+from stepper.verify.packed_runs import (
+    Layout, _alike_cut, _glued_groups, _one_by_one, _pieces, _prefixes_hold, layout_of,
+)
+
+
+HEADS = (b"\x05round-head", b"\x09challenge-head")  # any bytes: the schedule's frame heads go before the values
 
 
 @dataclass(frozen=True)
 class Parts:
-    """Frames of rows (a round's frame of ``round_len`` bytes, then its challenge's), statements ending
-    at ``ends`` and glue (run i's from ``run_ends[i]`` to ``run_ends[i + 1]``, squeezed at ``cuts[i]``)."""
+    """Rows of packed round and challenge events (``layout``), statements ending at ``ends`` and glue
+    (run i's from ``run_ends[i]`` to ``run_ends[i + 1]``, squeezed at ``cuts[i]``)."""
 
-    frames: bytes
+    rows: np.ndarray
     statements: bytes
     ends: list[int]
     glue: bytes
     run_ends: list[int]
     cuts: list[int]
-    round_len: int = 11
-    frame_len: int = 17
+    layout: Layout
+
+    def frames(self) -> bytes:
+        """Each row's round frame then its challenge frame, by plain slicing: a head, then the values or
+        the challenge as packed."""
+        layout, packed = self.layout, self.rows.tobytes()
+        out = b""
+        for at in range(0, len(packed), layout.stride):
+            row = packed[at:at + layout.stride]
+            out += HEADS[0] + row[len(layout.round_prefix):layout.round_len] + HEADS[1]
+            out += row[layout.stride - layout.width:]
+        return out
+
+    @property
+    def round_len(self) -> int:
+        return len(HEADS[0]) + self.layout.values * self.layout.width
+
+    @property
+    def frame_len(self) -> int:
+        return self.round_len + len(HEADS[1]) + self.layout.width
 
 
 def parts(rng: random.Random, rows: int, said_lengths: list[int], glue_cuts: list[tuple[int, int]]) -> Parts:
-    """Random frames of ``rows`` rows, statements of the lengths given and glue of (before the squeeze,
-    after it) lengths per instance."""
+    """Random rows of ``rows`` rounds (msgpack's own packing), statements of the lengths given and glue of
+    (before the squeeze, after it) lengths per instance."""
     run_ends = [0, *accumulate(before + after for before, after in glue_cuts)]
-    return Parts(rng.randbytes(rows * Parts.frame_len), rng.randbytes(sum(said_lengths)), list(accumulate(said_lengths)),
+    return Parts(packed_rows(3, 8, rows, rng), rng.randbytes(sum(said_lengths)), list(accumulate(said_lengths)),
                  rng.randbytes(run_ends[-1]), run_ends,
-                 [run_ends[i] + before for i, (before, _) in enumerate(glue_cuts)])
+                 [run_ends[i] + before for i, (before, _) in enumerate(glue_cuts)], layout_of(3, 8))
 
 
 def by_hand(p: Parts, counts: list[int]) -> list[bytes]:
     """The pieces between squeezes, instance by instance, with plain slicing: statement 0 and round 1; then
     per round boundary challenge k and round k + 1; at the end of an instance its last challenge and its
     glue up to the squeeze; then the rest of its glue, the next statement and the next first round."""
+    frames = p.frames()
     stream, marks, row, said_at = b"", [], 0, 0
     for i, n in enumerate(counts):
         stream += p.statements[said_at:p.ends[i]]
         said_at = p.ends[i]
         for k in range(n):
             at = (row + k) * p.frame_len
-            stream += p.frames[at:at + p.round_len]
+            stream += frames[at:at + p.round_len]
             marks.append(len(stream))  # a squeeze after each round
-            stream += p.frames[at + p.round_len:at + p.frame_len]
+            stream += frames[at + p.round_len:at + p.frame_len]
         row += n
         stream += p.glue[p.run_ends[i]:p.cuts[i]]
         marks.append(len(stream))  # the glue's squeeze
@@ -64,27 +88,33 @@ def by_hand(p: Parts, counts: list[int]) -> list[bytes]:
 
 
 def built(p: Parts, counts: list[int], by_columns: bool) -> list[bytes]:
-    frames = memoryview(p.frames)
+    if by_columns:  # groups absorbed one after another: no squeeze between a group's last piece and the next's first
+        out: list[bytes] = []
+        for group in _glued_groups(p.rows, p.layout, HEADS, counts[0],
+                                   np.frombuffer(p.statements, dtype=np.uint8), np.array(p.ends, dtype=np.int64),
+                                   np.frombuffer(p.glue, dtype=np.uint8), np.array(p.run_ends, dtype=np.int64),
+                                   np.array(p.cuts, dtype=np.int64)):
+            pieces = [bytes(piece) for piece in group]
+            if out:
+                pieces[0] = out.pop() + pieces[0]
+            out += pieces
+        return out
+    frames = memoryview(p.frames())
     cut = _pieces(frames, sum(counts), p.round_len, p.frame_len)
-    if by_columns:
-        out = _interleaved(cut, counts[0], np.frombuffer(p.frames, dtype=np.uint8), p.round_len, p.frame_len,
-                           np.frombuffer(p.statements, dtype=np.uint8), np.array(p.ends, dtype=np.int64),
-                           np.frombuffer(p.glue, dtype=np.uint8), np.array(p.run_ends, dtype=np.int64),
-                           np.array(p.cuts, dtype=np.int64))
-    else:
-        out = _one_by_one(cut, counts, frames, p.round_len, p.frame_len, memoryview(p.statements), p.ends,
+    out_one = _one_by_one(cut, counts, frames, p.round_len, p.frame_len, memoryview(p.statements), p.ends,
                           memoryview(p.glue), p.run_ends, p.cuts)
-    return [bytes(piece) for piece in out]
+    return [bytes(piece) for piece in out_one]
 
 
 @pytest.mark.parametrize("n", [1, 2, 5])
-@pytest.mark.parametrize("shape", ["alike", "names grow", "every one its own"])
+@pytest.mark.parametrize("shape", ["alike", "names grow", "every one its own", "more than a group"])
 def test_pieces_built_by_columns_are_those_built_instance_by_instance(n: int, shape: str) -> None:
-    # instances of n rounds; statements and glue of one length ("alike"), of a length that grows twice, as
-    # names do from sailing.9 to sailing.10 and sailing.100 ("names grow"), or of a length each
+    # instances of n rounds; statements and glue of one length ("alike"; past one group of instances cut
+    # together, "more than a group"), of a length that grows twice, as names do from sailing.9 to sailing.10
+    # and sailing.100 ("names grow"), or of a length each
     rng = random.Random(n * 7 + len(shape))
-    count = 40
-    if shape == "alike":
+    count = 150 if shape == "more than a group" else 40
+    if shape in ("alike", "more than a group"):
         said, glue = [23] * count, [(31, 9)] * count
     elif shape == "names grow":
         said = [23] * 10 + [24] * 25 + [25] * 5
