@@ -185,6 +185,21 @@ def _check_stdin(args: argparse.Namespace, keep_all: bool, challenger: Any) -> C
             raise
 
 
+SWEEP_FROM_BYTES = 1 << 20  # stepper.verify.sweep.SMALL_FILE_BYTES (tests/cli/test_check_file.py pins the two equal)
+
+
+def _sweep_may_take(path: str) -> bool:
+    """Whether the whole-file pass could take the file: it declines one under SMALL_FILE_BYTES
+    unless ``STEPPER_SWEEP`` says otherwise. Asked here first, so that checking a small file does
+    not import the pass and its packed runs (about 4 ms of CPU) only to hear it decline."""
+    if os.environ.get("STEPPER_SWEEP"):
+        return True  # on or off: the sweep reads it itself
+    try:
+        return os.stat(path).st_size >= SWEEP_FROM_BYTES
+    except OSError:
+        return True  # the sweep declines, and the reader then names what is wrong
+
+
 def _paused_collector(work: Callable[..., _T], *args: Any, **kwargs: Any) -> _T:
     """``work(*args, **kwargs)`` with Python's cyclic garbage collector paused (as it was after).
     The sweep makes many short-lived objects and no reference cycles: each collection the
@@ -230,7 +245,8 @@ def _check_path(path: str, name: str, args: argparse.Namespace, keep_all: bool, 
             unknown[record.kind] = unknown.get(record.kind, 0) + 1
 
     swept = None
-    if not detail and challenger is None and not args.strict:  # --strict counts unknown events one by one
+    # --strict counts unknown events one by one
+    if not detail and challenger is None and not args.strict and _sweep_may_take(path):
         from stepper.verify.sweep import SMALL_FILE_BYTES, sweep
 
         swept = _paused_collector(sweep, path, replay, keep_note, min_bytes=SMALL_FILE_BYTES)

@@ -119,10 +119,27 @@ def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_
     env = {k: v for k, v in os.environ.items() if k != "STEPPER_SWEEP"}
     if sweep is not None:
         env["STEPPER_SWEEP"] = sweep
-    event_by_event = ("numpy",) if sweep is None else ()  # a small file, glue or not, is checked without numpy
+    # a small file, glue or not, is checked without numpy, and without importing the sweep only to hear it decline
+    event_by_event = ("numpy", "stepper.verify.sweep", "stepper.verify.packed_runs") if sweep is None else ()
     code = _NEWLY_LOADED.format(path=str(path), watched=_NEVER_ON_A_PASSING_CHECK + also + event_by_event)
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
     assert proc.stdout.strip().splitlines()[-1] == "0 []", proc.stdout + proc.stderr  # accepted, nothing loaded
+
+
+def test_check_asks_the_sweep_from_the_size_the_sweep_itself_declines_below(tmp_path, monkeypatch):
+    from stepper.cli.check_file import SWEEP_FROM_BYTES, _sweep_may_take
+    from stepper.verify.sweep import SMALL_FILE_BYTES
+
+    assert SWEEP_FROM_BYTES == SMALL_FILE_BYTES
+    small, large = tmp_path / "small.sumtr", tmp_path / "large.sumtr"
+    small.write_bytes(bytes(SMALL_FILE_BYTES - 1))
+    large.write_bytes(bytes(SMALL_FILE_BYTES))
+    monkeypatch.delenv("STEPPER_SWEEP", raising=False)
+    assert (_sweep_may_take(str(small)), _sweep_may_take(str(large))) == (False, True)
+    assert _sweep_may_take(str(tmp_path / "missing.sumtr"))  # the sweep declines and the reader names it
+    for setting in ("on", "off"):  # either way the sweep reads the setting itself
+        monkeypatch.setenv("STEPPER_SWEEP", setting)
+        assert _sweep_may_take(str(small))
 
 
 @pytest.mark.parametrize("enabled", [True, False])
@@ -140,6 +157,7 @@ def test_the_sweep_runs_with_the_cyclic_collector_paused_and_leaves_it_as_it_was
         return real(*args, **kwargs)
 
     monkeypatch.setattr(sweep_module, "sweep", watched)
+    monkeypatch.setenv("STEPPER_SWEEP", "on")  # a small file: check asks the sweep only when told to
     was = gc.isenabled()
     try:
         (gc.enable if enabled else gc.disable)()
@@ -164,6 +182,7 @@ def test_the_collector_is_running_again_when_the_sweep_stops_with_an_interrupt_o
         raise stop
 
     monkeypatch.setattr(sweep_module, "sweep", interrupted)
+    monkeypatch.setenv("STEPPER_SWEEP", "on")
     was = gc.isenabled()
     gc.enable()
     try:
