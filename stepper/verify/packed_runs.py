@@ -374,7 +374,7 @@ class RunBlock:
         width = self.layout.width
         statements, ends = schedule.instance_frames(plain.names[j:], counts, plain.degrees[j:],
                                                     plain.packed_claims[j * width:])
-        if plain.period and len(counts) > 1 and ends[-1] == ends[0] * len(counts):  # statements of one length
+        if plain.period and len(counts) > 1 and _one_length(ends):
             self._absorb_alike(schedule, first, counts[0], statements, ends[0])
             return
         view = self._frames_view(schedule)
@@ -508,6 +508,14 @@ _ABSORB_INSTANCES = 64  # instances whose pieces RunBlock.absorb_plain hands to 
 def _row_cut(count: int, stride: int) -> Callable[[memoryview], tuple[memoryview, ...]]:
     """One C call cutting ``count`` pieces of ``stride`` bytes each from a buffer's start."""
     return itemgetter(*(slice(k * stride, (k + 1) * stride) for k in range(count)))
+
+
+def _one_length(ends: Sequence[int]) -> bool:
+    """Whether the statements that end at ``ends`` (cumulative byte offsets) all have the length
+    of the first: every end is a multiple of it in order, not just the last (lengths 10, 9, 11
+    sum like three of 10)."""
+    step = ends[0]
+    return step > 0 and list(ends) == list(range(step, step * len(ends) + 1, step))
 
 
 def _pieces(view: memoryview, rows: int, round_len: int, stride: int) -> list[bytes | memoryview]:

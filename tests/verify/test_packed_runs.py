@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 from stepper.verify.packed_runs import (
-    Layout, _alike_cut, _glued_groups, _one_by_one, _pieces, _prefixes_hold, layout_of,
+    Layout, _alike_cut, _glued_groups, _one_by_one, _one_length, _pieces, _prefixes_hold, layout_of,
 )
 
 
@@ -221,3 +221,13 @@ def test_glued_runs_cut_each_instance_s_rows_final_and_glue_where_its_period_hol
     assert glued.record(count - 1) is last
     assert glued.record(2) == Sequencer.plain_record(11, "sailing.2", n, 3, claims[2], "a1", "eq(tau) * c2")
     assert glued.record(0).claim_expr is None and glued.record(0).index == 9
+
+
+def test_statements_are_one_length_only_when_every_end_steps_by_the_first() -> None:
+    # The cut at fixed offsets is right only if every statement has the first one's length; a sum
+    # that matches (10 + 9 + 11 = 3 x 10) must not pass for it.
+    assert _one_length([10, 20, 30])
+    assert _one_length([7])
+    assert not _one_length([10, 19, 30])
+    assert not _one_length([10, 20, 31])
+    assert not _one_length([0, 0])
