@@ -168,15 +168,10 @@ class GluedRuns(_InstanceColumns):
 
     def _rows(self, at: int, size: int, count: int | None = None) -> np.ndarray:
         """``size`` bytes at ``at`` in each instance's period (of the first ``count``), as rows (a view)."""
-        from numpy.lib.stride_tricks import as_strided
-
         import numpy as np
 
         count = len(self.names) if count is None else count
-        u8 = np.frombuffer(self.blob, dtype=np.uint8)
-        if count and at + (count - 1) * self.period + size > len(u8):
-            raise GiveUp("a glued run past its bytes")
-        return as_strided(u8[at:], shape=(count, size), strides=(self.period, 1), writeable=False)
+        return _strided(np.frombuffer(self.blob, dtype=np.uint8), at, self.period, count, size)
 
     def row_parts(self) -> list[Any]:
         """The rows of every run (its rounds and challenges), in order: one array."""

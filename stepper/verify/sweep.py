@@ -745,7 +745,7 @@ class _Sweeper:
         # as columns after the loop (instance i is the block's run i); otherwise gathered run by run
         by_columns = seq.glue and len(layouts) == 1 and not plain_rows
         if GluedRuns in kinds and (not by_columns or self.glue_unpacked):
-            runs, trailing = _one_by_one(runs, trailing)  # glue read otherwise: every instance a run of its own
+            runs, trailing = _each_a_run_of_its_own(runs, trailing)  # glue read otherwise
             kinds.discard(GluedRuns)
             kinds.add(tuple)
         glue = GlueColumns(field, trailing, seq.defined, blobs_only=not self.glue_unpacked)
@@ -836,7 +836,7 @@ def _layout(run: Run) -> Layout:
     return run[3] if run.__class__ is tuple else run.layout  # type: ignore[index, union-attr, no-any-return]
 
 
-def _one_by_one(runs: list[Run], trailing: list[Any]) -> tuple[list[Run], list[Any]]:
+def _each_a_run_of_its_own(runs: list[Run], trailing: list[Any]) -> tuple[list[Run], list[Any]]:
     """``runs`` and ``trailing`` with the instances laid out alike (:class:`GluedRuns`) as runs of their
     own, each with its glue: for a flush whose glue or blocks the columns do not cover."""
     out: list[Run] = []
