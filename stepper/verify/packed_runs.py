@@ -395,26 +395,13 @@ class RunBlock:
         ``said``: the bytes absorbed for them, each statement then its rows' frames, are laid out in one
         buffer by three assignments (:func:`_fill_frames`), so the pieces between two squeezes lie at the
         same offsets in every instance and one cached C call cuts ``_ABSORB_INSTANCES`` instances' pieces
-        (:func:`_alike_cut`): no gather per instance, no frames of the block built first."""
+        (:func:`_span_pieces`): no gather per instance, no frames of the block built first."""
         import numpy as np
 
-        round_head, challenge_head = schedule.row_heads(self.layout.values)
         count = len(statements) // said
-        round_len = len(round_head) + self.layout.values * self.layout.width
-        frame_len = round_len + len(challenge_head) + self.layout.width
-        period, most = said + rounds * frame_len, _ABSORB_INSTANCES
-        stream = np.empty((-(-count // most) * most, period), dtype=np.uint8)  # whole groups: one cut for all
-        stream[:count, :said] = np.frombuffer(statements, dtype=np.uint8).reshape(count, said)
-        rows = self.rows[first:first + count * rounds].reshape(count, rounds, -1)
-        _fill_frames((round_head, challenge_head), rows, self.layout,
-                     stream[:count, said:].reshape(count, rounds, frame_len))
-        view = memoryview(stream.reshape(-1))  # type: ignore[arg-type]
-        cut = _alike_cut(most, said, rounds, round_len, frame_len)
-        for low in range(0, count, most):
-            pieces = cut(view[low * period:(low + most) * period])
-            group = count - low
-            if group < most:  # the last group: its pieces, the last one cut after its challenge's frame
-                pieces = (*pieces[:group * rounds], pieces[group * rounds][:frame_len - round_len])
+        for pieces in _span_pieces(schedule.row_heads(self.layout.values), self.layout,
+                                   self.rows[first:first + count * rounds].reshape(count, rounds, -1),
+                                   np.frombuffer(statements, dtype=np.uint8).reshape(count, said)):
             schedule.absorb_pieces(pieces, self.digests)
 
     def absorb_glued(self, schedule: Sha256Schedule, first: int, names: Sequence[str], counts: Sequence[int],
@@ -568,47 +555,70 @@ def _glued_groups(rows: np.ndarray, layout: Layout, heads: tuple[bytes, bytes], 
     another length) into spans laid out alike; each span's absorbed bytes, instance by instance its
     statement, its rows' frames and its glue, are laid out in one buffer by a few assignments, so the
     squeezes fall at the same offsets in every instance, and one cached C call cuts the pieces of
-    ``_ABSORB_INSTANCES`` instances (:func:`_glued_cut`)."""
+    ``_ABSORB_INSTANCES`` instances (:func:`_span_pieces`)."""
     import numpy as np
 
     said_at = np.concatenate(([0], ends[:-1]))
     shapes = np.stack((ends - said_at, cuts - run_ends[:-1], run_ends[1:] - cuts))
     changes = np.flatnonzero((shapes[:, 1:] != shapes[:, :-1]).any(axis=0)) + 1
     bounds = [0, *changes.tolist(), len(cuts)]
-    round_head, challenge_head = heads
-    round_len = len(round_head) + layout.values * layout.width
-    frame_len = round_len + len(challenge_head) + layout.width
-    most = _ABSORB_INSTANCES
     for low, high in zip(bounds[:-1], bounds[1:]):
         count = high - low
         said, before, after = (int(size) for size in shapes[:, low])
-        glue_len = before + after
-        period = said + n * frame_len + glue_len
-        stream = np.empty((-(-count // most) * most, period), dtype=np.uint8)  # whole groups: one cut for all
-        stream[:count, :said] = _strided(statements, int(said_at[low]), said, count, said)
-        _fill_frames(heads, rows[low * n:high * n].reshape(count, n, -1), layout,
-                     stream[:count, said:said + n * frame_len].reshape(count, n, frame_len))
-        stream[:count, said + n * frame_len:] = _strided(glue, int(run_ends[low]), glue_len, count, glue_len)
-        view = memoryview(stream.reshape(-1))  # type: ignore[arg-type]
-        cut = _glued_cut(most, said, n, round_len, frame_len, before, after)
-        for start in range(0, count, most):
-            pieces = cut(view[start * period:(start + most) * period])
-            group = count - start
-            if group < most:  # the last group: its pieces, the last one cut where its glue ends
-                pieces = (*pieces[:group * (n + 1)], pieces[group * (n + 1)][:after])
-            yield pieces
+        yield from _span_pieces(heads, layout, rows[low * n:high * n].reshape(count, n, -1),
+                                _strided(statements, int(said_at[low]), said, count, said),
+                                (_strided(glue, int(run_ends[low]), before + after, count, before + after), before))
 
 
-@lru_cache(maxsize=8)
-def _glued_cut(count: int, said: int, rounds: int, round_len: int, frame_len: int, before: int, after: int
-               ) -> Callable[[memoryview], tuple[memoryview, ...]]:
-    """One C call cutting the bytes absorbed for ``count`` glued instances laid out alike (each a statement
-    frame of ``said`` bytes, ``rounds`` rows of frames, a round's of ``round_len`` bytes then its
-    challenge's, ``frame_len`` in all, then its glue, squeezed ``before`` bytes in and ``after`` bytes from
-    its end) into the pieces absorbed between two squeezes."""
+def _span_pieces(heads: tuple[bytes, bytes], layout: Layout, rows: np.ndarray, statements: np.ndarray,
+                 glue: tuple[np.ndarray, int] | None = None) -> Iterator[Sequence[bytes | memoryview]]:
+    """The pieces absorbed between two squeezes for instances laid out alike, in groups of
+    ``_ABSORB_INSTANCES`` that one ``absorb_pieces`` call each takes in turn: ``rows`` (count, n, stride)
+    their packed round and challenge events, ``statements`` (count, said) their statement frames,
+    ``glue`` (if any) their glue (count, its length) and where in it the squeeze falls. Each instance's
+    bytes, its statement, its rows' frames (``heads``: the schedule's round and challenge frame heads),
+    then its glue, are laid out in one buffer by a few assignments, so the squeezes fall at the same
+    offsets in every instance, and one cached C call (:func:`_span_cut`) cuts a group's pieces."""
+    import numpy as np
+
+    count, n = rows.shape[:2]
+    said = statements.shape[1]
+    round_len = len(heads[0]) + layout.values * layout.width
+    frame_len = round_len + len(heads[1]) + layout.width
+    glue_len, before = (glue[0].shape[1], glue[1]) if glue is not None else (0, 0)
+    period, most = said + n * frame_len + glue_len, _ABSORB_INSTANCES
+    stream = np.empty((-(-count // most) * most, period), dtype=np.uint8)  # whole groups: one cut for all
+    stream[:count, :said] = statements
+    _fill_frames(heads, rows, layout, stream[:count, said:said + n * frame_len].reshape(count, n, frame_len))
+    if glue is not None:
+        stream[:count, said + n * frame_len:] = glue[0]
+    view = memoryview(stream.reshape(-1))  # type: ignore[arg-type]
+    cut = _span_cut(most, said, n, round_len, frame_len, None if glue is None else (before, glue_len - before))
+    per, last = (n, frame_len - round_len) if glue is None else (n + 1, glue_len - before)
+    for low in range(0, count, most):
+        pieces = cut(view[low * period:(low + most) * period])
+        group = count - low
+        if group < most:  # the last group: its last piece cut after its challenge's frame, or where its glue ends
+            pieces = (*pieces[:group * per], pieces[group * per][:last])
+        yield pieces
+
+
+@lru_cache(maxsize=16)
+def _span_cut(count: int, said: int, rounds: int, round_len: int, frame_len: int,
+              glue: tuple[int, int] | None = None) -> Callable[[memoryview], tuple[memoryview, ...]]:
+    """One C call cutting the bytes absorbed for ``count`` instances laid out alike (each a statement
+    frame of ``said`` bytes, then ``rounds`` rows of frames: a round's of ``round_len`` bytes, then its
+    challenge's, ``frame_len`` in all; then, with ``glue`` = (before, after), its glue, squeezed
+    ``before`` bytes in and ``after`` bytes from its end) into the pieces absorbed between two squeezes:
+    the first statement with its first round, each challenge with what follows it up to the next
+    squeeze (the next statement too, after an instance's last challenge or its glue's squeeze), then
+    what follows the last squeeze."""
+    before, after = glue if glue is not None else (0, 0)
     period = said + rounds * frame_len + before + after
-    squeezes = [i * period + said + at for i in range(count)
-                for at in (*(round_len + k * frame_len for k in range(rounds)), rounds * frame_len + before)]
+    marks = [round_len + k * frame_len for k in range(rounds)]
+    if glue is not None:
+        marks.append(rounds * frame_len + before)
+    squeezes = [i * period + said + at for i in range(count) for at in marks]
     bounds = [0, *squeezes, count * period]
     return itemgetter(*(slice(low, high) for low, high in zip(bounds, bounds[1:])))
 
@@ -680,17 +690,3 @@ def _fill_frames(heads: tuple[bytes, bytes], rows: np.ndarray, layout: Layout, o
     out[..., len(round_head):round_len] = rows[..., len(layout.round_prefix):layout.round_len]
     out[..., round_len:round_len + len(challenge_head)] = np.frombuffer(challenge_head, dtype=np.uint8)
     out[..., round_len + len(challenge_head):] = rows[..., layout.stride - layout.width:]
-
-
-@lru_cache(maxsize=8)
-def _alike_cut(count: int, said: int, rounds: int, round_len: int, frame_len: int
-               ) -> Callable[[memoryview], tuple[memoryview, ...]]:
-    """One C call cutting the bytes absorbed for ``count`` instances laid out alike (each a statement
-    frame of ``said`` bytes, then ``rounds`` rows of frames: a round's of ``round_len`` bytes, then its
-    challenge's, ``frame_len`` in all) into the pieces absorbed between two squeezes: the first
-    statement with its first round, each challenge with what follows it up to the next round's end (the
-    next statement too, after an instance's last challenge), then the last challenge."""
-    period = said + rounds * frame_len
-    squeezes = [i * period + said + round_len + k * frame_len for i in range(count) for k in range(rounds)]
-    bounds = [0, *squeezes, count * period]
-    return itemgetter(*(slice(low, high) for low, high in zip(bounds, bounds[1:])))

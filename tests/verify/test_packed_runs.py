@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 from stepper.verify.packed_runs import (
-    Layout, _alike_cut, _glued_groups, _one_by_one, _one_length, _pieces, _prefixes_hold, layout_of,
+    Layout, _glued_groups, _one_by_one, _one_length, _pieces, _prefixes_hold, _span_cut, layout_of,
 )
 
 
@@ -188,7 +188,7 @@ def test_instances_laid_out_alike_are_cut_where_plain_slicing_cuts_them(count, r
             marks.append(len(stream))
             stream += rng.randbytes(frame_len - round_len)
     bounds = [0, *marks, len(stream)]
-    got = _alike_cut(count, said, rounds, round_len, frame_len)(memoryview(stream))
+    got = _span_cut(count, said, rounds, round_len, frame_len)(memoryview(stream))
     assert [bytes(piece) for piece in got] == [stream[a:b] for a, b in zip(bounds, bounds[1:])]
 
 
