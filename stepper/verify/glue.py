@@ -24,7 +24,7 @@ Expressions are parsed once per distinct text (:func:`parsed`).
 from __future__ import annotations
 
 from collections import OrderedDict
-from typing import TYPE_CHECKING, Any, Iterable
+from typing import TYPE_CHECKING, Any, Iterable, Iterator, Mapping, Sequence
 
 from stepper.errors import ExpressionError, TranscriptError, Where
 from stepper.field.poly import lagrange_at, point_from_challenges
@@ -53,26 +53,73 @@ def parsed(text: str) -> Expr:
 
 
 class GlueBook:
-    """Named glue values, and the points and finals of recent instances."""
+    """Named glue values, and the points and finals of recent instances.
 
-    __slots__ = ("values", "points", "finals", "_stored")
+    Values settled in bulk (:meth:`add_columns`: the whole-file pass's thousands after each block)
+    wait as the columns they came in and join the dictionary only when something reads it
+    (:attr:`values`): a passing check usually never does. :meth:`lookup` answers a few names
+    without that (names are unique in a proof, so the order they join in does not matter)."""
+
+    __slots__ = ("_values", "points", "finals", "_stored", "_waiting", "_scans")
+    SCANS = 16  # names looked up in the waiting columns before they all join the dictionary
 
     def __init__(self) -> None:
-        self.values: dict[str, Any] = {}  # name -> element, or list of elements
+        self._values: dict[str, Any] = {}  # name -> element, or list of elements
         self.points: OrderedDict[str, tuple[Element, ...]] = OrderedDict()
         self.finals: dict[str, Element] = {}
         self._stored = 0
+        self._waiting: list[tuple[Sequence[str], Sequence[Any]]] = []  # columns not yet in _values, oldest first
+        self._scans = 0
+
+    @property
+    def values(self) -> dict[str, Any]:
+        """Every value received so far, by name."""
+        if self._waiting:
+            for names, values in self._waiting:
+                self._values.update(zip(names, values))
+            self._waiting.clear()
+            self._scans = 0
+        return self._values
 
     def add(self, record: NamedValue | Squeeze | Opening) -> None:
         if isinstance(record, Opening):
-            self.values[record.name] = record.value
+            self._values[record.name] = record.value
         else:
-            self.values[record.name] = list(record.value) if record.listed else record.value
+            self._values[record.name] = list(record.value) if record.listed else record.value
 
     def add_all(self, records: Iterable[NamedValue | Squeeze | Opening]) -> None:
         """:meth:`add` for each record, in order."""
-        self.values.update({record.name: list(record.value) if not isinstance(record, Opening) and record.listed
-                            else record.value for record in records})
+        self._values.update({record.name: list(record.value) if not isinstance(record, Opening) and record.listed
+                             else record.value for record in records})
+
+    def add_columns(self, names: Sequence[str], values: Sequence[Any]) -> None:
+        """:meth:`add` for values given as columns (an element, or a list of elements, each), kept as they
+        are until read (the columns must not change afterwards)."""
+        if names:
+            self._waiting.append((names, values))
+
+    def lookup(self) -> Mapping[str, Any]:
+        """The values by name for a few look-ups: the waiting columns are scanned for the first
+        :attr:`SCANS` names not in the dictionary, and join it after that."""
+        return _Lookup(self)
+
+    def _scan(self, name: str) -> tuple[bool, Any]:
+        """Whether ``name`` was received and its value, the waiting columns scanned while few were."""
+        found = self._values.get(name, _ABSENT)
+        if found is not _ABSENT:
+            return True, found
+        if not self._waiting:
+            return False, None
+        if self._scans >= self.SCANS:
+            found = self.values.get(name, _ABSENT)
+            return found is not _ABSENT, found
+        self._scans += 1
+        for names, values in reversed(self._waiting):
+            try:
+                return True, values[names.index(name)]
+            except ValueError:
+                continue
+        return False, None
 
     def close_instance(self, start: InstanceStart, challenges: list[Element] | None, final: Element | None) -> None:
         """Remember a complete instance's point (variable order) and final value."""
@@ -110,6 +157,34 @@ class GlueBook:
             raise TranscriptError(f"expected eq_point {ref!r} to name an earlier list value or squeeze, found "
                                   f"{'none' if value is None else 'one element'}", where)
         return tuple(value)
+
+
+_ABSENT = object()
+
+
+class _Lookup(Mapping[str, Any]):
+    """:meth:`GlueBook.lookup`: a name's value, found without filling the book's dictionary while few
+    are asked for; iterating or sizing it reads the whole book."""
+
+    __slots__ = ("_book",)
+
+    def __init__(self, book: GlueBook) -> None:
+        self._book = book
+
+    def __getitem__(self, name: str) -> Any:
+        found, value = self._book._scan(name)
+        if not found:
+            raise KeyError(name)
+        return value
+
+    def __contains__(self, name: object) -> bool:
+        return isinstance(name, str) and self._book._scan(name)[0]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._book.values)
+
+    def __len__(self) -> int:
+        return len(self._book.values)
 
 
 class EqFactor:

@@ -31,7 +31,7 @@ goes through ``feed``, so the report is exactly the same.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any, Callable, Iterable
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping, Sequence
 
 from stepper.verify.binding import Challenger
 from stepper.verify.challenges import ChallengeSource
@@ -200,16 +200,17 @@ class Replay:
         for record in records:
             take(field, record, None, "", live, ledger)
 
-    def settle_glue_values(self, names: Iterable[str], values: Iterable[Any]) -> None:
+    def settle_glue_values(self, names: Sequence[str], values: Sequence[Any]) -> None:
         """:meth:`settle_glue` for glue after instances whose summaries are not kept, given as the
         names and the values the glue book keeps (an element, or a list of elements)."""
         if self._live is not None:
             raise ValueError("expected no open instance to settle glue values in bulk")
-        self._glue.book.values.update(zip(names, values))
+        self._glue.book.add_columns(names, values)
 
-    def glue_values(self) -> dict[str, Any]:
-        """The values, squeezes and openings received so far, by name (what glue expressions read)."""
-        return self._glue.book.values
+    def glue_values(self) -> Mapping[str, Any]:
+        """The values, squeezes and openings received so far, by name (what glue expressions read),
+        for a few look-ups (:meth:`~stepper.verify.glue.GlueBook.lookup`)."""
+        return self._glue.book.lookup()
 
     @property
     def failed(self) -> bool:

@@ -382,3 +382,20 @@ def test_an_opened_table_outside_the_combine_is_checked_too(tmp_path, capsys):
     assert report["verdict"] == "accept" and code == 1
     cause = report["root_cause"]
     assert (cause["check"], cause["name"], cause["expected"]) == ("opening", "b.again", str(mle(zc.b, zc.r)))
+
+
+# ----- the glue book: values settled in bulk wait as columns -------------------------------------------------------
+def test_the_glue_book_answers_values_settled_as_columns_before_and_after_they_join_its_dictionary():
+    from stepper.verify.glue import GlueBook
+
+    book = GlueBook()
+    book.add_columns(["a0", "b0"], [5, [1, 2]])
+    book.add_columns(["a1", "b1"], [7, 9])
+    lookup = book.lookup()
+    assert lookup["b0"] == [1, 2] and lookup["a1"] == 7 and "a0" in lookup and "c0" not in lookup
+    with pytest.raises(KeyError):
+        lookup["c0"]
+    for _ in range(GlueBook.SCANS + 1):  # past the scans the waiting columns join the dictionary
+        assert lookup.get("nowhere") is None
+    assert lookup["a0"] == 5 and len(lookup) == 4
+    assert book.values == {"a0": 5, "b0": [1, 2], "a1": 7, "b1": 9}
