@@ -114,11 +114,13 @@ class GlueBook:
             found = self.values.get(name, _ABSENT)
             return found is not _ABSENT, found
         self._scans += 1
-        for names, values in reversed(self._waiting):
-            try:
-                return True, values[names.index(name)]
-            except ValueError:
-                continue
+        for names, values in reversed(self._waiting):  # the newest first, each from its end (what the next
+            start = max(0, len(names) - _TAIL)  # block's first expressions read was sent last)
+            for begin in (start, 0) if start else (0,):
+                try:
+                    return True, values[names.index(name, begin, len(names) if begin else start or len(names))]
+                except ValueError:
+                    continue
         return False, None
 
     def close_instance(self, start: InstanceStart, challenges: list[Element] | None, final: Element | None) -> None:
@@ -160,6 +162,7 @@ class GlueBook:
 
 
 _ABSENT = object()
+_TAIL = 64  # names at the end of waiting columns scanned first
 
 
 class _Lookup(Mapping[str, Any]):
