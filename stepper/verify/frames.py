@@ -142,13 +142,19 @@ def glue_stream(width: int, challenge_head: bytes, kinds: Sequence[str], names: 
 
 
 def flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int,
-                     challenge_head: bytes) -> tuple[bytes, np.ndarray, np.ndarray]:
+                     challenge_head: bytes, period: int = 0) -> tuple[bytes, np.ndarray, np.ndarray]:
     """:func:`glue_stream` of glue events of one element each (``kind`` 0 value, 1 squeeze, 2
     opening), every opening's table its own name, built with numpy: each frame is eight pieces (a head, two or three u64 numbers,
     the name once or twice, the challenge head of a squeeze, the element; an unused slot is empty)
     taken from one source buffer (the fixed heads, the u64 bytes of every number a frame holds,
-    the names joined, the elements) by one gather."""
+    the names joined, the elements) by one gather. With ``period``, the events may come as groups
+    of that many alike (:func:`_periodic_glue_stream`)."""
     import numpy as np
+
+    if period:
+        periodic = _periodic_glue_stream(kind, names, elements, width, challenge_head, period)
+        if periodic is not None:
+            return periodic
 
     u8, n = np.uint8, len(names)
     lengths = np.fromiter(map(len, names), dtype=np.int64, count=n)
@@ -187,6 +193,55 @@ def flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, wi
     offsets = ends - size.sum(axis=1)
     cuts = (offsets + 37 + lengths)[squeeze]
     return out.tobytes(), ends, cuts
+
+
+def _periodic_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int, challenge_head: bytes,
+                          period: int) -> tuple[bytes, np.ndarray, np.ndarray] | None:
+    """:func:`flat_glue_stream` of events that come in groups of ``period`` (the glue after each run of a
+    block, every run followed by as many), when every group has the first's kinds and name lengths: every
+    group's frames are then the first's with other names and elements at the same offsets, so they are the
+    rows of one array, the first group's frames copied down and the names and elements put in by slice
+    assignments (no gather of every byte). None when the events are not so (or the names not ASCII)."""
+    import numpy as np
+
+    count = len(names)
+    if count < 2 * period or count % period:
+        return None
+    groups = count // period
+    lengths = np.fromiter(map(len, names), dtype=np.int64, count=count)
+    shapes = (lengths * 4 + kind).reshape(groups, period)
+    changes = np.flatnonzero((shapes[1:] != shapes[:-1]).any(axis=1)) + 1
+    if len(changes):  # names one character longer from some group on: each stretch of groups alike apart
+        if len(changes) > 64:
+            return None
+        parts = []
+        for low, high in zip([0, *changes.tolist()], [*changes.tolist(), groups]):
+            cut = slice(low * period, high * period)
+            parts.append(flat_glue_stream(kind[cut], names[cut], elements[cut.start * width:cut.stop * width], width,
+                                          challenge_head, period if high - low > 1 else 0))
+        sizes = np.cumsum([0, *(len(part[0]) for part in parts)])
+        return (b"".join(part[0] for part in parts), np.concatenate([part[1] + at for part, at in zip(parts, sizes)]),
+                np.concatenate([part[2] + at for part, at in zip(parts, sizes)]))
+    joined = ("\n".join(names) + "\n").encode()
+    if len(joined) != int(lengths.sum()) + count:
+        return None  # a name that is not ASCII: its characters are not its bytes
+    first, ends, cuts = flat_glue_stream(kind[:period], names[:period], elements[:period * width], width, challenge_head)
+    size = len(first)
+    rows = np.empty((groups, size), dtype=np.uint8)
+    rows[:] = np.frombuffer(first, dtype=np.uint8)
+    named = np.frombuffer(joined, dtype=np.uint8).reshape(groups, -1)
+    values = np.frombuffer(elements, dtype=np.uint8).reshape(groups, period * width)
+    heads = (len(VALUE_HEAD), len(DRAW_HEAD), len(OPENING_HEAD))
+    frame_at, name_at = 0, 0
+    for j, (code, length, end) in enumerate(zip(kind[:period].tolist(), lengths[:period].tolist(), ends.tolist())):
+        at = frame_at + heads[code] + 16  # the name, after the head, the body's length and the name's
+        rows[:, at:at + length] = named[:, name_at:name_at + length]
+        if code == 2:  # an opening names its table, its own name, again
+            rows[:, at + length + 8:at + 2 * length + 8] = named[:, name_at:name_at + length]
+        rows[:, end - width:end] = values[:, j * width:(j + 1) * width]  # every frame ends with the element
+        frame_at, name_at = end, name_at + length + 1
+    offsets = np.arange(groups, dtype=np.int64)[:, None] * size
+    return rows.tobytes(), (offsets + ends).ravel(), (offsets + cuts).ravel()
 
 
 @lru_cache(maxsize=8)

@@ -432,7 +432,10 @@ class GlueColumns:
             ends: Sequence[int] | np.ndarray
             cuts: Sequence[int] | np.ndarray
             if self.tables is self.names and self.size and not any(self.listed):
-                stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes())
+                runs = set(map(int.__sub__, self.bounds[1:], self.bounds[:-1]))  # events after each run
+                period = runs.pop() if len(runs) == 1 else 0
+                stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes(),
+                                                               period)
             else:
                 tables = None if self.tables is self.names else self.tables
                 stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts,

@@ -75,3 +75,30 @@ def test_the_flat_glue_stream_is_the_glue_stream_of_one_element_each():
     codes = np.array([{"value": 0, "squeeze": 1, "opening": 2}[kind] for kind in kinds], dtype=np.int8)
     stream, ends, cuts = flat_glue_stream(codes, names, b"".join(data), 8, head)
     assert (stream, list(ends), list(cuts)) == (expected[0], list(expected[1]), list(expected[2]))
+
+
+@pytest.mark.parametrize("broken", [None, "a longer name in one group", "another kind in one group",
+                                    "longer names from the third group on", "a longer name in the last group"])
+def test_the_flat_glue_stream_of_groups_alike_is_the_glue_stream_of_every_event(broken):
+    """Events in groups of one shape (the glue after each run of a block) are framed from the first group's
+    frames, each stretch of groups of one shape apart, a group alone the general way: the bytes, ends and
+    cuts are the one-by-one glue_stream's either way."""
+    import numpy as np
+
+    head = by_hand(b"challenge", bytes(8))[:-8]
+    shape = ["opening", "opening", "value", "squeeze"]
+    kinds = shape * 6
+    names = [name for i in range(10, 16) for name in (f"a{i}", f"b{i}", f"pub.{i}", f"beta{i}")]
+    if broken == "a longer name in one group":
+        names[9] = "b120"
+    elif broken == "another kind in one group":
+        kinds[14] = "value"
+    elif broken == "longer names from the third group on":
+        names[8:] = [name + "0" for name in names[8:]]
+    elif broken == "a longer name in the last group":
+        names[-1] = "beta.15"
+    data = [(7 * i + 1).to_bytes(8, "little") for i in range(len(names))]
+    expected = glue_stream(8, head, kinds, names, names, data, [1] * len(names), [False] * len(names))
+    codes = np.array([{"value": 0, "squeeze": 1, "opening": 2}[kind] for kind in kinds], dtype=np.int8)
+    stream, ends, cuts = flat_glue_stream(codes, names, b"".join(data), 8, head, period=4)
+    assert (stream, list(ends), list(cuts)) == (expected[0], list(expected[1]), list(expected[2]))
