@@ -33,7 +33,7 @@ from stepper.field.field import Element, Field
 if TYPE_CHECKING:
     import numpy as np
 
-__all__ = ["ROUND_HEAD", "instance_spans", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES",
+__all__ = ["ROUND_HEAD", "instance_spans", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES", "read_glue_periods",
            "GlueColumnsRead", "read_glue_columns"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
@@ -302,6 +302,49 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     names = picked[:-1].tobytes().decode("ascii").split("\n")
     elements = u8[(ends - width)[:, None] + np.arange(width)]
     return GlueColumnsRead(codes, names, elements, ends)
+
+
+def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | None:
+    """:func:`read_glue_columns` of ``data`` made of blobs of ``size`` bytes alike (the glue after each of
+    many runs, every run followed by events of the same kinds and name lengths): the first blob read by
+    :func:`read_glue_columns`, every other one found to hold the first's bytes but where its names and
+    elements stand (all compared at once), its names holding only what a name may hold. Then every blob
+    reads as the first one does, event for event, with its own names and elements. None when ``data`` is
+    not so (the caller reads it otherwise)."""
+    import numpy as np
+
+    count = len(data) // size if size else 0
+    if count < 2 or count * size != len(data):
+        return None
+    first = read_glue_columns(data[:size], width)
+    if first is None or not first.names:
+        return None
+    lengths = list(map(len, first.names))
+    element_at = (first.ends - width).tolist()
+    name_at = [at - 8 - length for at, length in zip(element_at, lengths)]  # before "\xa5value" and the bin 8 head
+    varying = np.zeros(size, dtype=bool)
+    for at, length, element in zip(name_at, lengths, element_at):
+        varying[at:at + length] = True
+        varying[element:element + width] = True
+    blobs = np.frombuffer(data, dtype=np.uint8).reshape(count, size)
+    if not ((blobs == blobs[0]) | varying).all():
+        return None
+    name_columns = np.concatenate([np.arange(at, at + length) for at, length in zip(name_at, lengths)])
+    picked = blobs[:, name_columns]
+    allowed = np.zeros(256, dtype=bool)
+    allowed[list(_NAME_BYTES)] = True
+    starting = np.zeros(256, dtype=bool)
+    starting[list(_NAME_FIRST)] = True
+    heads = np.cumsum([0, *lengths[:-1]])
+    if not allowed[picked].all() or not starting[picked[:, heads]].all():
+        return None
+    rows = np.full((count, len(name_columns) + len(lengths)), 0x0A, dtype=np.uint8)  # each name, then a newline
+    rows[:, np.arange(len(name_columns)) + np.repeat(np.arange(len(lengths)), lengths)] = picked
+    names = rows.tobytes().decode("ascii").split("\n")[:-1]
+    element_columns = (np.array(element_at)[:, None] + np.arange(width)).ravel()
+    elements = blobs[:, element_columns].reshape(count * len(lengths), width)
+    ends = (np.arange(count, dtype=np.int64)[:, None] * size + first.ends).ravel()
+    return GlueColumnsRead(np.tile(first.codes, count), names, elements, ends)
 
 
 # An instance event as the writer packs one with no optional key: a map of five entries, "type":

@@ -28,7 +28,9 @@ from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Iterator, Mapping, MutableMapping, Sequence
 
 from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
-from stepper.transcript.packed import GLUE_CODES, GLUE_KINDS, GlueRun, decoder_for, read_glue_columns
+from stepper.transcript.packed import (
+    GLUE_CODES, GLUE_KINDS, GlueColumnsRead, GlueRun, decoder_for, read_glue_columns, read_glue_periods,
+)
 from stepper.transcript.payload_rules import MAX_VALUES
 from stepper.verify.packed_runs import GiveUp, GluedRuns, rederive
 
@@ -92,6 +94,39 @@ def _joined_blobs(tails: Sequence[Any]) -> tuple[bytes, np.ndarray]:
             parts.append(tail.glue_blob())
             sizes.append(np.full(len(tail) - 1, tail.period - tail.run_end, dtype=np.int64))
     return b"".join(parts), np.concatenate(sizes) if sizes else np.zeros(0, dtype=np.int64)
+
+
+def _read_by_stretch(joined: bytes, sizes: np.ndarray, width: int) -> GlueColumnsRead | None:
+    """:func:`~stepper.transcript.packed.read_glue_columns` of the blobs after each run joined, stretch by
+    stretch of runs whose blobs have one length: such a stretch is read as blobs alike
+    (:func:`~stepper.transcript.packed.read_glue_periods`) where it is one, else as any glue."""
+    import numpy as np
+
+    changes = np.flatnonzero(sizes[1:] != sizes[:-1]) + 1
+    if len(changes) > 64:
+        return read_glue_columns(joined, width)
+    bounds = [0, *changes.tolist(), len(sizes)]
+    offsets = np.concatenate(([0], np.cumsum(sizes)))
+    parts: list[tuple[int, GlueColumnsRead]] = []
+    for low, high in zip(bounds[:-1], bounds[1:]):
+        begin, end = int(offsets[low]), int(offsets[high])
+        if begin == end:
+            continue
+        piece = joined[begin:end]
+        read = read_glue_periods(piece, width, int(sizes[low])) if high - low > 1 else None
+        if read is None:
+            read = read_glue_columns(piece, width)
+            if read is None:
+                return None
+        parts.append((begin, read))
+    if len(parts) == 1 and parts[0][0] == 0:
+        return parts[0][1]
+    if not parts:
+        return read_glue_columns(b"", width)
+    return GlueColumnsRead(np.concatenate([read.codes for _, read in parts]),
+                           [name for _, read in parts for name in read.names],
+                           np.concatenate([read.elements for _, read in parts]),
+                           np.concatenate([read.ends + begin for begin, read in parts]))
 
 
 def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
@@ -259,7 +294,7 @@ class GlueColumns:
 
         joined, sizes = _joined_blobs(tails)
         width = self.field.elem_bytes
-        read = read_glue_columns(joined, width)
+        read = _read_by_stretch(joined, sizes, width)
         if read is None:
             self._take_blobs(_cut(joined, sizes), defined)
             return

@@ -3,6 +3,7 @@ reader's inline fast path giving exactly what feeding one payload at a time give
 
 from __future__ import annotations
 
+import io
 import itertools
 import random
 import struct
@@ -15,7 +16,9 @@ from hypothesis import strategies as st
 from stepper.errors import TranscriptError
 from stepper.transcript.events import MAX_VALUES, Sequencer, to_payload
 from stepper.field.field import get_field
-from stepper.transcript.packed import GlueRun, pack_elements, pair_run, read_glue_columns, unpack_elements
+from stepper.transcript.packed import (
+    GlueRun, pack_elements, pair_run, read_glue_columns, read_glue_periods, unpack_elements,
+)
 from stepper.transcript.model import (
     BatchDecl,
     BucketStats,
@@ -456,6 +459,46 @@ def test_glue_columns_read_by_numpy_decline_what_msgpack_would_read_otherwise():
                       (b"\xa5value", b"\xa5valuf"), (b"\xc4\x08", b"\xc4\x07")):
         # another kind, key or element width, of the same length: msgpack would unpack another map
         assert read_glue_columns(one + squeeze.replace(good, bad, 1), 8) is None, bad
+
+
+def _glue_after(i: int, name: str = "") -> bytes:
+    """The glue after run i as the writer packs it: three openings and a squeeze, numbered by the run."""
+    return b"".join(msgpack.packb({"type": kind, "name": name or f"{prefix}{i}", "value": struct.pack("<Q", 7 * i + k)},
+                                  use_bin_type=True)
+                    for k, (kind, prefix) in enumerate((("opening", "a"), ("opening", "b"), ("value", "c"),
+                                                        ("squeeze", "beta"))))
+
+
+@pytest.mark.parametrize("change", [None, "a name of other bytes in the last blob", "a name with a character no "
+                                    "name holds in one blob", "a name starting with a digit in one blob",
+                                    "another kind in one blob", "a name of another length in one blob"])
+def test_glue_blobs_alike_read_at_once_are_what_msgpack_unpacks_or_declined(change):
+    # the independent side is msgpack itself, unpacking the same bytes event by event
+    blobs = [_glue_after(i) for i in range(1000, 1006)]
+    if change == "a name of other bytes in the last blob":
+        blobs[-1] = blobs[-1].replace(b"beta1005", b"gamma_05")
+    elif change == "a name with a character no name holds in one blob":
+        blobs[3] = blobs[3].replace(b"b1003", b"b1-03")
+    elif change == "a name starting with a digit in one blob":
+        blobs[2] = blobs[2].replace(b"c1002", b"9c002")
+    elif change == "another kind in one blob":
+        blobs[4] = blobs[4].replace(b"\xa5value\xa4name", b"\xa5tiles\xa4name", 1)
+    elif change == "a name of another length in one blob":
+        blobs[1] = blobs[1].replace(b"\xa5a1001", b"\xa4a101").replace(b"\xa5b1001", b"\xa6b10011")  # same bytes in all
+    data = b"".join(blobs)
+    assert len(data) == 6 * len(blobs[0])
+    read = read_glue_periods(data, 8, len(blobs[0]))
+    if change in (None, "a name of other bytes in the last blob"):
+        assert read is not None
+        unpacked = list(msgpack.Unpacker(io.BytesIO(data), raw=False))
+        assert [("value", "squeeze", "opening")[code] for code in read.codes.tolist()] == [u["type"] for u in unpacked]
+        assert read.names == [u["name"] for u in unpacked]
+        assert [bytes(row) for row in read.elements] == [u["value"] for u in unpacked]
+        assert read.ends.tolist() == read_glue_columns(data, 8).ends.tolist()
+    else:
+        assert read is None
+    assert read_glue_periods(data[:-1], 8, len(blobs[0])) is None  # not whole blobs
+    assert read_glue_periods(blobs[0], 8, len(blobs[0])) is None  # one blob: nothing to read at once
 
 @settings(max_examples=60, deadline=None)
 @given(field=st.sampled_from(["goldilocks", "babybear"]), seed=st.integers(0, 2**32),
