@@ -1,0 +1,278 @@
+"""stepper.verify.sweep at the edges of what it takes: every input below is a transcript built to break one
+assumption the whole-file pass makes about the bytes it reads at fixed offsets (the writer's msgpack forms, the
+canonical range of each coefficient, the 64-instance groups it hashes from one buffer, a file cut where a run
+or its glue ends). `stepper check` must print, byte for byte, what the event-by-event replay prints, and the
+pass must never report on a file the replay refuses or rejects.
+
+The transcripts come from the independent plain-integer prover of tests/verify/test_sweep.py (Knobs and
+write_transcript) or its glued proof (write_pointed), then are changed here and sealed again (a SHA-256 over
+the changed bytes, transcripts/FORMAT.md), so the digest never explains a refusal. Moduli and irreducibles are
+those of tests/verify/test_sweep.py (each named with its source there). The canonical range 0 <= v < p of every
+base coefficient is the event stream's contract (transcripts/EVENTS.md); msgpack's forms are the MessagePack
+specification's (github.com/msgpack/msgpack/blob/master/spec.md): a bin of n bytes may be written as bin 8,
+bin 16 or bin 32, an unsigned integer below 128 as a positive fixint or uint 8, a string below 32 bytes as a
+fixstr or str 8, a map of fewer than 16 entries as a fixmap or map 16, and a map's entries in any order.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable
+
+import msgpack
+import pytest
+
+from tests.verify.test_sweep import (
+    FIELDS, Knobs, check_both, event_spans, resealed, swept_report, write_pointed, write_transcript,
+)
+from stepper.transcript.store.writer import MAGIC
+
+GLUE = ("value", "squeeze", "opening")
+
+
+def instance_events(data: bytes) -> list[list[tuple[str, int, int]]]:
+    """Per instance, (type, start, end) of its event and every event after it up to the next instance."""
+    groups: list[list[tuple[str, int, int]]] = []
+    for kind, start, end in event_spans(data):
+        if kind == "instance":
+            groups.append([])
+        if groups and kind != "end":
+            groups[-1].append((kind, start, end))
+    return groups
+
+
+def replaced(data: bytes, start: int, end: int, new: bytes) -> bytes:
+    """The transcript with the event at ``start:end`` replaced by ``new``, sealed again."""
+    return resealed(data[:start] + new + data[end:])
+
+
+# ----- 1. a coefficient at or past p, anywhere -------------------------------------------
+
+
+def past_p(cell: bytes, coefficient: int, base_bytes: int, p: int) -> bytes:
+    """``cell`` (one packed element) with base coefficient ``coefficient`` moved to v + p, its residue
+    unchanged, or to p when v + p does not fit the coefficient's bytes."""
+    at = coefficient * base_bytes
+    value = int.from_bytes(cell[at:at + base_bytes], "little")
+    moved = value + p if value + p < 256 ** base_bytes else p
+    return cell[:at] + moved.to_bytes(base_bytes, "little") + cell[at + base_bytes:]
+
+
+NONCANONICAL_FIELDS = ("goldilocks", "babybear", "p64", "bn254", "bls12-381", "babybear^4", "goldilocks^2",
+                       "mersenne31^4", "p97^3", "p100^3")
+CELLS = ("round", "challenge", "final", "claim", "value", "opening", "squeeze")
+
+
+@pytest.mark.parametrize("field", NONCANONICAL_FIELDS)
+@pytest.mark.parametrize("cell", CELLS)
+def test_a_coefficient_at_or_past_p_inside_a_run_of_alike_instances_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, field, cell):
+    # instance 6 of 12 laid out alike (one round count, names of one length): its first base coefficient
+    # (the constant term of an extension element, which a test of the last coefficient would miss) moved by p.
+    # The residue is unchanged, so every congruence the block checks still holds: only a range check refuses it
+    ar = FIELDS[field][0]
+    glued = cell in GLUE
+    knobs = Knobs(field=field, schedule="builtin", instances=12, num_vars=3, degrees=(2,), low_first=True,
+                  names=("sailing-",), glue=glued, glue_after_only=cell != "value", seed=17)
+    data = write_transcript(tmp_path / "honest.sumtr", knobs).path.read_bytes()
+    base_bytes = (ar.p.bit_length() + 7) // 8
+    wanted = "instance" if cell == "claim" else cell
+    kind, start, end = next(event for event in instance_events(data)[6] if event[0] == wanted)
+    payload = msgpack.unpackb(data[start:end], raw=False)
+    key = {"round": "evals", "instance": "claim"}.get(kind, "value")
+    width = base_bytes * ar.k
+    at = width if kind == "round" else 0  # g(1) of the round; the element itself elsewhere
+    if isinstance(payload[key], list):  # a point sent as a value: its first coordinate
+        payload[key][0] = past_p(payload[key][0], 0, base_bytes, ar.p)
+    else:
+        payload[key] = payload[key][:at] + past_p(payload[key][at:at + width], 0, base_bytes, ar.p) \
+            + payload[key][at + width:]
+    new = msgpack.packb(payload, use_bin_type=True)
+    assert len(new) == end - start  # the same layout: only the coefficient's bytes differ
+    path = tmp_path / "past-p.sumtr"
+    path.write_bytes(replaced(data, start, end, new))
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert code == 2 and swept is None and out == "", (code, out, err)
+
+
+# ----- 2. the same proof in other valid msgpack forms ------------------------------------
+
+
+def packed_map(payload: dict[str, Any], key: str | None = None, value: bytes = b"", head: bytes | None = None,
+               order: list[str] | None = None) -> bytes:
+    """``payload`` packed as msgpack's shortest forms would pack it but for ``key``, whose value is the
+    bytes ``value``, the map's head (``head``) and its keys' order (``order``)."""
+    keys = order or list(payload)
+    out = head if head is not None else msgpack.packb(dict.fromkeys(keys))[:1]
+    for name in keys:
+        out += msgpack.packb(name) + (value if name == key else msgpack.packb(payload[name], use_bin_type=True))
+    return out
+
+
+def bin16(blob: bytes) -> bytes:
+    return b"\xc5" + len(blob).to_bytes(2, "big") + blob
+
+
+def bin32(blob: bytes) -> bytes:
+    return b"\xc6" + len(blob).to_bytes(4, "big") + blob
+
+
+def str8(text: str) -> bytes:
+    raw = text.encode()
+    return b"\xd9" + bytes([len(raw)]) + raw
+
+
+def decimal(field: str, blob: bytes) -> Any:
+    """A packed element as the event stream's decimal text (a list of texts in an extension)."""
+    ar = FIELDS[field][0]
+    base_bytes = len(blob) // ar.k
+    texts = [str(int.from_bytes(blob[i:i + base_bytes], "little")) for i in range(0, len(blob), base_bytes)]
+    return texts[0] if ar.k == 1 else texts
+
+
+# (the event changed, how) -> the changed event's bytes from its payload, in field ``field``
+Repack = Callable[[dict[str, Any], str], bytes]
+FORMS: dict[str, tuple[str, Repack]] = {
+    "round values in a bin 16": ("round", lambda pl, f: packed_map(pl, "evals", bin16(pl["evals"]))),
+    "round values as a list of cells": ("round", lambda pl, f: packed_map(pl, "evals", msgpack.packb(
+        [pl["evals"][i:i + len(pl["evals"]) // 3] for i in range(0, len(pl["evals"]), len(pl["evals"]) // 3)],
+        use_bin_type=True))),
+    "round keys in the other order": ("round", lambda pl, f: packed_map(pl, order=["evals", "type"])),
+    "a challenge in a bin 32": ("challenge", lambda pl, f: packed_map(pl, "value", bin32(pl["value"]))),
+    "a challenge as decimal text": ("challenge", lambda pl, f: packed_map(pl, "value", msgpack.packb(
+        decimal(f, pl["value"])))),
+    "a final in a bin 16": ("final", lambda pl, f: packed_map(pl, "value", bin16(pl["value"]))),
+    "a final as decimal text": ("final", lambda pl, f: packed_map(pl, "value", msgpack.packb(decimal(f, pl["value"])))),
+    "a claim in a bin 16": ("instance", lambda pl, f: packed_map(pl, "claim", bin16(pl["claim"]))),
+    "num_vars as a uint 8": ("instance", lambda pl, f: packed_map(pl, "num_vars", b"\xcc" + bytes([pl["num_vars"]]))),
+    "degree as an int 8": ("instance", lambda pl, f: packed_map(pl, "degree", b"\xd0" + bytes([pl["degree"]]))),
+    "a name as a str 8": ("instance", lambda pl, f: packed_map(pl, "name", str8(pl["name"]))),
+    "an instance as a map 16": ("instance", lambda pl, f: packed_map(pl, head=b"\xde" + len(pl).to_bytes(2, "big"))),
+    "instance keys in another order": ("instance", lambda pl, f: packed_map(
+        pl, order=["type", "name", "degree", "num_vars", *list(pl)[4:]])),
+    "a glue name as a str 8": ("opening", lambda pl, f: packed_map(pl, "name", str8(pl["name"]))),
+    "a glue element in a bin 16": ("squeeze", lambda pl, f: packed_map(pl, "value", bin16(pl["value"]))),
+    "a glue event as a map 16": ("value", lambda pl, f: packed_map(pl, head=b"\xde" + len(pl).to_bytes(2, "big"))),
+}
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "bn254", "babybear^4"])
+@pytest.mark.parametrize("form", sorted(FORMS))
+def test_an_event_of_an_alike_run_packed_in_another_valid_msgpack_form_checks_as_the_replay(
+        tmp_path, capsys, monkeypatch, field, form):
+    # the sweep reads the runs of instances laid out alike at fixed offsets, as the writer packs them; one event
+    # of instance 6 of 12 packed another valid way (the same payload once unpacked, or the same elements as
+    # decimal text or a list of cells: the same proof, since the schedule absorbs values, not bytes) must check
+    # as the replay checks it, passing; and with a challenge of instance 7 wrong too, failing where it says
+    kind, repack = FORMS[form]
+    glued = kind in GLUE
+    knobs = Knobs(field=field, schedule="builtin", instances=12, num_vars=3, degrees=(2,), low_first=True,
+                  names=("sailing-",), glue=glued, glue_after_only=kind != "value", seed=23)
+    data = write_transcript(tmp_path / "honest.sumtr", knobs).path.read_bytes()
+    events = instance_events(data)[6]
+    _, start, end = next(event for event in events if event[0] == kind)
+    payload = msgpack.unpackb(data[start:end], raw=False)
+    new = repack(payload, field)
+    assert new != data[start:end]
+    if "text" not in form and "list" not in form:  # those two send the same elements in the stream's other forms
+        assert msgpack.unpackb(new, raw=False) == payload
+    path = tmp_path / "repacked.sumtr"
+    path.write_bytes(replaced(data, start, end, new))
+    code, out, err, _ = check_both(capsys, monkeypatch, path)
+    assert code == 0, (out, err)
+    # a challenge of instance 7 one off as well: rejected at that instance, with the report the replay makes
+    ar = FIELDS[field][0]
+    changed = path.read_bytes()
+    _, c_start, c_end = next(event for event in instance_events(changed)[7] if event[0] == "challenge")
+    challenge = msgpack.unpackb(changed[c_start:c_end], raw=False)
+    base_bytes = (ar.p.bit_length() + 7) // 8
+    value = int.from_bytes(challenge["value"][:base_bytes], "little")
+    challenge["value"] = ((value + 1) % ar.p).to_bytes(base_bytes, "little") + challenge["value"][base_bytes:]
+    path.write_bytes(replaced(changed, c_start, c_end, msgpack.packb(challenge, use_bin_type=True)))
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert code == 1 and swept is None and "challenge" in out, (out, err)
+
+
+# ----- 3. the 64-instance groups hashed from one buffer ----------------------------------
+
+# 9 | 10 and 99 | 100: names grow a digit (q9, q10; q99, q100), so a span of instances laid out alike ends; 73 | 74:
+# the first group of 64 alike instances ends (they start at 10); 129: the last instance, in the shorter last group
+EDGES = (9, 10, 73, 74, 99, 100, 129)
+
+
+@pytest.fixture(scope="module")
+def alike_runs(tmp_path_factory: pytest.TempPathFactory) -> bytes:
+    """130 plain instances laid out alike under stepper-sha256/1 (names of one length from instance 10 on: the
+    instances 0-9 are taken one by one, the rest in groups of 64 and a shorter last one)."""
+    knobs = Knobs(field="goldilocks", schedule="builtin", instances=130, num_vars=2, degrees=(2,), low_first=True,
+                  names=("q",), seed=29)
+    return write_transcript(tmp_path_factory.mktemp("alike") / "alike.sumtr", knobs).path.read_bytes()
+
+
+@pytest.mark.parametrize("instance", EDGES)
+@pytest.mark.parametrize("kind", ["challenge", "final"])
+def test_a_wrong_value_on_either_side_of_a_64_instance_group_is_named_as_the_replay_names_it(
+        tmp_path, capsys, monkeypatch, alike_runs, instance, kind):
+    p = FIELDS["goldilocks"][0].p
+    path = tmp_path / "alike.sumtr"
+    path.write_bytes(alike_runs)
+    assert swept_report(path, 3) is not None  # not vacuous: the honest file is taken whole
+    events = instance_events(alike_runs)[instance]
+    _, start, end = [event for event in events if event[0] == kind][-1]
+    payload = msgpack.unpackb(alike_runs[start:end], raw=False)
+    payload["value"] = ((int.from_bytes(payload["value"], "little") + 1) % p).to_bytes(8, "little")
+    path.write_bytes(replaced(alike_runs, start, end, msgpack.packb(payload, use_bin_type=True)))
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 1 and swept is None and f"instance #{instance} " in out and kind in out, (out, err)
+
+
+@pytest.fixture(scope="module")
+def glued_alike(tmp_path_factory: pytest.TempPathFactory) -> bytes:
+    """write_pointed's glued proof of 130 instances without point(NAME): instances 10-99 and 100-129 laid out
+    alike (names sailing.10 ... sailing.99, then one digit longer), each run followed by its openings and one
+    squeeze."""
+    path = tmp_path_factory.mktemp("glued") / "glued.sumtr"
+    write_pointed(path, count=130, pointed=False, seed=43)
+    return path.read_bytes()
+
+
+@pytest.mark.parametrize("instance", EDGES)
+@pytest.mark.parametrize("kind", ["squeeze", "opening"])
+def test_a_wrong_squeeze_or_opening_at_a_group_or_name_length_edge_of_glued_instances_checks_as_the_replay(
+        tmp_path, capsys, monkeypatch, glued_alike, instance, kind):
+    # the same edges (EDGES): names sailing.9 | sailing.10 and sailing.99 | sailing.100; the glue after the last
+    # instance is read after the groups
+    p = FIELDS["goldilocks"][0].p
+    path = tmp_path / "glued.sumtr"
+    path.write_bytes(glued_alike)
+    assert swept_report(path, 3) is not None
+    events = instance_events(glued_alike)[instance]
+    _, start, end = [event for event in events if event[0] == kind][-1]
+    payload = msgpack.unpackb(glued_alike[start:end], raw=False)
+    payload["value"] = ((int.from_bytes(payload["value"], "little") + 1) % p).to_bytes(8, "little")
+    path.write_bytes(replaced(glued_alike, start, end, msgpack.packb(payload, use_bin_type=True)))
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 1 and swept is None and f"instance #{instance} " in out, (out, err)
+    assert ("squeeze" if kind == "squeeze" else "evaluation") in out, out
+
+
+# ----- 4. a file cut where a run or its glue ends ----------------------------------------
+
+
+@pytest.mark.parametrize("cut", ["before an instance", "after a final", "after the glue", "inside a glue event",
+                                 "inside a run"])
+def test_a_transcript_cut_at_a_run_or_glue_boundary_is_left_to_the_replay(tmp_path, capsys, monkeypatch, cut):
+    # no end event: the sweep declines before reading, whatever the cut lines up with, and check reports the
+    # replay's incomplete (or cut-off) proof
+    knobs = Knobs(field="bn254", schedule="builtin2", instances=12, num_vars=3, degrees=(2,), low_first=True,
+                  names=("sailing-",), glue=True, glue_after_only=True, seed=31)
+    data = write_transcript(tmp_path / "whole.sumtr", knobs).path.read_bytes()
+    events = instance_events(data)[6]
+    final = next(event for event in events if event[0] == "final")
+    glue = [event for event in events if event[0] in GLUE]
+    at = {"before an instance": events[0][1], "after a final": final[2], "after the glue": glue[-1][2],
+          "inside a glue event": glue[0][1] + 7, "inside a run": final[1] - 3}[cut]
+    assert len(MAGIC) < at < len(data)
+    path = tmp_path / "cut.sumtr"
+    path.write_bytes(data[:at])
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert swept is None and code in (2, 3), (code, out, err)
