@@ -276,3 +276,53 @@ def test_a_transcript_cut_at_a_run_or_glue_boundary_is_left_to_the_replay(tmp_pa
     path.write_bytes(data[:at])
     code, out, err, swept = check_both(capsys, monkeypatch, path)
     assert swept is None and code in (2, 3), (code, out, err)
+
+
+@pytest.mark.parametrize("field", ["goldilocks", "babybear", "bn254", "bls12-381", "babybear^4", "goldilocks^2",
+                                   "p100^3"])
+def test_under_stepper_sha256_2_a_challenge_one_multiple_of_p_past_the_derived_one_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, field):
+    # stepper-sha256/2 draws a whole element from one digest; over BN254 and BLS12-381 the sweep compares the
+    # recorded challenge with the unreduced sample by a congruence, which v + p (the same residue) satisfies:
+    # only the range check refuses it, as the replay's reader does (exit 2)
+    ar = FIELDS[field][0]
+    knobs = Knobs(field=field, schedule="builtin2", instances=12, num_vars=3, degrees=(2,), low_first=True,
+                  names=("sailing-",), seed=19)
+    data = write_transcript(tmp_path / "honest.sumtr", knobs).path.read_bytes()
+    base_bytes = (ar.p.bit_length() + 7) // 8
+    _, start, end = [event for event in instance_events(data)[6] if event[0] == "challenge"][1]
+    payload = msgpack.unpackb(data[start:end], raw=False)
+    payload["value"] = past_p(payload["value"], 0, base_bytes, ar.p)
+    path = tmp_path / "past-p.sumtr"
+    path.write_bytes(replaced(data, start, end, msgpack.packb(payload, use_bin_type=True)))
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert code == 2 and swept is None and out == "", (code, out, err)
+
+
+# ----- 5. an event cut by the end of a chunk ---------------------------------------------
+
+
+@pytest.mark.parametrize("where", [0, 1, "middle", -1])
+@pytest.mark.parametrize("kind", ["challenge", "final", "instance"])
+def test_a_wrong_value_in_an_event_cut_by_a_chunks_end_is_left_to_the_replay(tmp_path, alike_runs, where, kind):
+    # the sweep reads a chunk at a time and finds runs of alike instances in the chunk's bytes: with the chunk
+    # ending at the first byte of an event of instance 40, one byte into it, in its middle or before its last
+    # byte, the honest file is still taken whole with the replay's report, and a value of that event one off
+    # (a challenge, a final, a claim) makes the sweep give up
+    from stepper.transcript.store.reader import ReadLimits
+
+    p = FIELDS["goldilocks"][0].p
+    events = instance_events(alike_runs)[40]
+    _, start, end = [event for event in events if event[0] == kind][-1]
+    boundary = {0: start, 1: start + 1, "middle": (start + end) // 2, -1: end - 1}[where]
+    limits = ReadLimits(chunk_bytes=boundary)  # every read that long: the first chunk ends at the boundary
+    honest = tmp_path / "honest.sumtr"
+    honest.write_bytes(alike_runs)
+    got, expected = swept_report(honest, 3, limits), swept_report(honest, 3)
+    assert got is not None and expected is not None and got[0].to_json() == expected[0].to_json()
+    payload = msgpack.unpackb(alike_runs[start:end], raw=False)
+    key = "claim" if kind == "instance" else "value"
+    payload[key] = ((int.from_bytes(payload[key], "little") + 1) % p).to_bytes(8, "little")
+    broken = tmp_path / "broken.sumtr"
+    broken.write_bytes(replaced(alike_runs, start, end, msgpack.packb(payload, use_bin_type=True)))
+    assert swept_report(broken, 3, limits) is None
