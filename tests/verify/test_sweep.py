@@ -37,6 +37,9 @@ from stepper.verify.fiatshamir import ONE_DIGEST_SCHEDULE_NAME, SCHEDULE_NAME  #
 from stepper.verify.schedules import schedule_for  # noqa: E402
 import stepper.verify.packed_runs as packed_runs  # noqa: E402
 import stepper.verify.sweep as sweep_module  # noqa: E402
+import stepper.verify.fiatshamir as fiatshamir_module  # noqa: E402
+import stepper.verify.frames as frames_module  # noqa: E402
+import stepper.verify.glue_columns as glue_columns_module  # noqa: E402
 from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
 from stepper.transcript.store.reader import ReadLimits  # noqa: E402
 from stepper.verify.glue_columns import GlueColumns  # noqa: E402
@@ -1141,13 +1144,14 @@ def test_instances_laid_out_alike_are_compared_at_once_and_report_as_the_replay(
 
 
 def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds: int = 3,
-                  reads: dict[int, int] | None = None, pointed: bool = True, seed: int = 37) -> None:
+                  reads: dict[int, int] | None = None, pointed: bool = True, seed: int = 37,
+                  squeeze_at: int = 23) -> None:
     """A glued proof whose expressions read earlier instances, written by the TranscriptWriter: instance i
     (every fifth high-first) has final_expr eq(point(sailing.<i-1>)) * (a_i*b_i - c_i) (eq(tau) for the first)
     and claim_expr final(sailing.<i-1>) * a_<i-1> + beta_<i-1>*b_<i-1>, each run followed by the three
     openings and the squeeze; the values are computed in plain integers (eq(x, y) = prod of x_j y_j +
     (1 - x_j)(1 - y_j), common practice, no source). ``fault`` breaks one check at instance 17 (or 23 for
-    the squeeze, 16 for the link): the link, the evaluation, the squeeze; or, in the written bytes
+    the squeeze, or ``squeeze_at``; 16 for the link): the link, the evaluation, the squeeze; or, in the written bytes
     (resealed: the writer refuses to write them), an opening's name (c17 sent as d17, which final_expr
     never names) or instance 17's point(NAME) of a later instance. ``reads`` maps an instance to the
     earlier one its final_expr's point(NAME) reads instead of the one before it. Without ``pointed`` every
@@ -1202,7 +1206,7 @@ def write_pointed(path: Path, fault: str | None = None, count: int = 40, rounds:
             for name, value in ((f"a{i}", a), (f"b{i}", b), (f"c{i}", c)):
                 emit(Opening(name, value, name, i))
             beta = schedule.squeeze(f"beta{i}")
-            emit(Squeeze(f"beta{i}", (beta + 1) % p if fault == "squeeze" and i == 23 else beta, False, i),
+            emit(Squeeze(f"beta{i}", (beta + 1) % p if fault == "squeeze" and i == squeeze_at else beta, False, i),
                  absorbed=False)
             claim = ((final * a if pointed else a) + beta * b) % p  # type: ignore[operator]
             if fault == "link" and i == (16 if pointed else 29):
@@ -1347,3 +1351,62 @@ def test_where_names_grow_a_digit_one_instance_is_taken_alone_and_the_rest_toget
     monkeypatch.setenv("STEPPER_SWEEP", "on")
     assert_same_report(path, 3)
     assert 0 < sum(alone) <= 6  # around instances 10 and 100 (and the first ones), not the 110 after them
+
+
+@pytest.mark.parametrize("change", ["a duplicate name in the last instance only",
+                                    "a name no name may be in the middle of a stretch alike",
+                                    "a name no name may be that nothing reads, in the last instance",
+                                    "a squeeze renamed in the middle of a stretch alike (read later by its old name)",
+                                    "a squeeze wrong in one instance in the middle", "a squeeze wrong in the last instance",
+                                    "an opening's element past p in one instance"])
+def test_one_instance_breaking_the_glue_of_a_stretch_read_at_once_checks_as_the_replay(tmp_path, capsys, monkeypatch,
+                                                                                      change):
+    # 120 glued instances whose glue is read stretch by stretch of blobs alike (read_glue_periods) and framed as
+    # rows of one array (flat_glue_stream with a period): one instance's glue changed (resealed where the writer
+    # would refuse it) must make the sweep give up and check say what the replay says: a name sent twice (exit 2),
+    # a name outside the pattern (exit 2), a name a later claim_expr reads that never came (exit 2), a squeeze
+    # that is not the one derived (exit 1), an element that is not canonical (exit 2)
+    path = tmp_path / "stretch.sumtr"
+    squeeze_at = {"a squeeze wrong in one instance in the middle": 64, "a squeeze wrong in the last instance": 119}
+    write_pointed(path, "squeeze" if change in squeeze_at else None, count=120, pointed=False, seed=43,
+                  squeeze_at=squeeze_at.get(change, 23))
+    old, new = {"a duplicate name in the last instance only": (b"\xa4name\xa4c119", b"\xa4name\xa4c118"),
+                "a name no name may be in the middle of a stretch alike": (b"\xa4name\xa3b64", b"\xa4name\xa3b+4"),
+                "a name no name may be that nothing reads, in the last instance": (b"\xa4name\xa4b119",
+                                                                                  b"\xa4name\xa49b19"),
+                "a squeeze renamed in the middle of a stretch alike (read later by its old name)":
+                    (b"\xa4name\xa6beta64", b"\xa4name\xa6gamm64"),
+                "an opening's element past p in one instance": (b"\xa4name\xa3a77\xa5value\xc4\x08", b""),
+                }.get(change, (b"", b""))
+    if old:
+        data = path.read_bytes()
+        assert data.count(old) == 1
+        if change == "an opening's element past p in one instance":
+            at = data.index(old) + len(old)
+            data = data[:at] + b"\xff" * 8 + data[at + 8:]
+        else:
+            data = data.replace(old, new)
+        path.write_bytes(resealed(data))
+    periods: list[int] = []
+    real = frames_module.flat_glue_stream
+
+    def spy(*args: object) -> object:
+        periods.append(args[-1] if len(args) > 5 else 0)  # type: ignore[arg-type]
+        return real(*args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(frames_module, "flat_glue_stream", spy)
+    monkeypatch.setattr(fiatshamir_module, "flat_glue_stream", spy)
+    read: list[object] = []
+    real_read = glue_columns_module.read_glue_periods
+
+    def read_spy(*args: object) -> object:
+        read.append(real_read(*args))  # type: ignore[arg-type]
+        return read[-1]
+
+    monkeypatch.setattr(glue_columns_module, "read_glue_periods", read_spy)
+    code, _, err, swept = check_both(capsys, monkeypatch, path)
+    assert swept is None and any(stretch is not None for stretch in read)  # some stretch read at once
+    if change in squeeze_at:
+        assert code == 1 and any(periods)  # framed as rows before the squeezes were compared
+    else:
+        assert code == 2 and err
