@@ -326,3 +326,35 @@ def test_a_wrong_value_in_an_event_cut_by_a_chunks_end_is_left_to_the_replay(tmp
     broken = tmp_path / "broken.sumtr"
     broken.write_bytes(replaced(alike_runs, start, end, msgpack.packb(payload, use_bin_type=True)))
     assert swept_report(broken, 3, limits) is None
+
+
+# ----- 6. glue read as stretches of blobs alike ------------------------------------------
+
+
+def renamed(name: str, change: str) -> str:
+    """A name of the same length as the opening ``name`` (c<i>, so the blob keeps its layout) that the replay
+    refuses: a<i>, the opening sent just before it, or one that starts with a digit."""
+    return ("a" if change == "a name sent before" else "9") + name[1:]
+
+
+@pytest.mark.parametrize("instance", [10, 11, 98, 99, 100, 129])  # each stretch's first, second and last blob
+@pytest.mark.parametrize("change", ["an element past p", "a name sent before", "a name that starts with a digit"])
+def test_a_glue_event_changed_in_place_in_a_stretch_of_blobs_alike_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, glued_alike, instance, change):
+    # the glue after runs 10-99 (names a10 ... beta99) and 100-129 has one length per stretch: the flush reads
+    # the first blob of a stretch as any glue and finds every other one to hold its bytes but for names and
+    # elements. An opening of one blob changed without changing that layout (its element moved by p, its name
+    # one already sent, or one no name may be) must be refused as the replay refuses it
+    p = FIELDS["goldilocks"][0].p
+    _, start, end = [event for event in instance_events(glued_alike)[instance] if event[0] == "opening"][-1]
+    payload = msgpack.unpackb(glued_alike[start:end], raw=False)
+    if change == "an element past p":
+        payload["value"] = past_p(payload["value"], 0, 8, p)
+    else:
+        payload["name"] = renamed(payload["name"], change)
+    new = msgpack.packb(payload, use_bin_type=True)
+    assert len(new) == end - start
+    path = tmp_path / "changed.sumtr"
+    path.write_bytes(replaced(glued_alike, start, end, new))
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 2 and swept is None, (code, out, err)
