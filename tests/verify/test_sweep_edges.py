@@ -21,8 +21,9 @@ from typing import Any, Callable
 import msgpack
 import pytest
 
+import tests.verify.test_sweep as helpers
 from tests.verify.test_sweep import (
-    FIELDS, Knobs, check_both, event_spans, resealed, swept_report, write_pointed, write_transcript,
+    FIELDS, Knobs, Plain, check_both, event_spans, resealed, swept_report, write_pointed, write_transcript,
 )
 from stepper.transcript.store.writer import MAGIC
 
@@ -358,3 +359,37 @@ def test_a_glue_event_changed_in_place_in_a_stretch_of_blobs_alike_is_refused_as
     path.write_bytes(replaced(glued_alike, start, end, new))
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     assert code == 2 and swept is None, (code, out, err)
+
+
+# ----- 7. primes of every limb count -----------------------------------------------------
+
+# the largest primes below 2^65, 2^200, 2^384 and 2^512 (sympy.prevprime, computed once; the test below checks
+# each with sympy.isprime): 3, 7, 14 and 18 limbs of 29 bits in the block check, from the fewest a prime above
+# 2^64 takes to the most the limb kernel takes
+WIDE_PRIMES = {65: 2**65 - 49, 200: 2**200 - 75, 384: 2**384 - 317, 512: 2**512 - 569}
+
+
+def test_the_wide_test_primes_are_the_largest_below_their_power_of_two():
+    sympy = pytest.importorskip("sympy")
+    for bits, p in WIDE_PRIMES.items():
+        assert sympy.isprime(p) and sympy.prevprime(2**bits) == p
+
+
+@pytest.mark.parametrize("bits", sorted(WIDE_PRIMES))
+@pytest.mark.parametrize("fault", [None, "eval", "challenge", "final", "claim", "noncanonical"])
+def test_a_declared_prime_of_every_limb_count_sweeps_honest_runs_and_leaves_every_fault_to_the_replay(
+        tmp_path, capsys, monkeypatch, bits, fault):
+    # the block check of a prime of 65 to 512 bits runs on rows of 29-bit limbs whose bounds depend on their
+    # count (the quotient estimate from the top three limbs, products carried or not past ten limbs): a prime
+    # declared by its modulus at each end and between, under both schedules, checks as the replay checks it
+    p = WIDE_PRIMES[bits]
+    name = f"p{bits}"
+    monkeypatch.setitem(helpers.FIELDS, name, (Plain(p), {"type": "field", "modulus": str(p)}, True))
+    knobs = Knobs(field=name, schedule="builtin2" if bits % 2 else "builtin", instances=8, max_vars=3,
+                  max_degree=3, low_first=True, fault=fault, seed=bits)
+    written = write_transcript(tmp_path / f"{name}.sumtr", knobs)
+    code, out, err, swept = check_both(capsys, monkeypatch, written.path, "--rows", "3")
+    if fault is None:
+        assert code == 0 and swept is not None
+    else:
+        assert code == (2 if fault == "noncanonical" else 1) and swept is None, (code, out, err)
