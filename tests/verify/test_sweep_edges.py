@@ -393,3 +393,31 @@ def test_a_declared_prime_of_every_limb_count_sweeps_honest_runs_and_leaves_ever
         assert code == 0 and swept is not None
     else:
         assert code == (2 if fault == "noncanonical" else 1) and swept is None, (code, out, err)
+
+
+@pytest.mark.parametrize("block_rounds", [20, 200])  # blocks of 10 or 100 instances: names grow a digit at 10, 100
+@pytest.mark.parametrize("instance", [None, 9, 10, 99, 100])
+def test_names_that_grow_a_digit_where_a_block_ends_check_as_the_replay(tmp_path, capsys, monkeypatch, alike_runs,
+                                                                       block_rounds, instance):
+    # q9 | q10 and q99 | q100 fall on the boundary of blocks of 20 or 200 rounds (2 rounds an instance): the
+    # span of instances laid out alike ends where the block does. Honest, the file is taken whole with the
+    # replay's report; a challenge one off at either side of a boundary is left to the replay, which names it
+    import stepper.verify.sweep as sweep_module
+
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", block_rounds)
+    p = FIELDS["goldilocks"][0].p
+    data = alike_runs
+    if instance is not None:
+        _, start, end = [event for event in instance_events(data)[instance] if event[0] == "challenge"][0]
+        payload = msgpack.unpackb(data[start:end], raw=False)
+        payload["value"] = ((int.from_bytes(payload["value"], "little") + 1) % p).to_bytes(8, "little")
+        data = replaced(data, start, end, msgpack.packb(payload, use_bin_type=True))
+    path = tmp_path / "blocks.sumtr"
+    path.write_bytes(data)
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    if instance is None:
+        assert code == 0 and swept is not None
+        got, expected = swept_report(path, 3), helpers.event_by_event(path, 3)
+        assert got is not None and got[0].to_json() == expected[0].to_json()
+    else:
+        assert code == 1 and swept is None and f"instance #{instance} " in out, (out, err)
