@@ -269,7 +269,10 @@ def template_of(text: str) -> tuple[Template, list[str]] | None:
     Texts that differ only in their names (``a7 + beta7*b7``, ``a8 + beta8*b8``: glue
     names are unique in a proof) share one template, found by the text with its names
     cut out (one regex split, the names' pattern being the tokenizer's); the first such
-    text builds it from one regex pass over its tokens."""
+    text builds it from one regex pass over its tokens. A text longer than ``MAX_EXPR_LENGTH``
+    has none: the character parser refuses it."""
+    if len(text) > MAX_EXPR_LENGTH:
+        return None
     parts = _SPLIT.split(text)
     words = parts[1::2]
     key = (*parts[0::2], *[w if w in _CALLS else "" for w in words])
@@ -304,8 +307,11 @@ def templates_of(texts: list[str]) -> list[tuple[Template, list[list[str]], list
     group's texts; None when some text has no template. The texts are joined by newlines and
     read by two regex passes (the names cut out, and the names in order); texts with the same
     text between their names share a template, found once (a text holding a newline or a NUL
-    is read alone)."""
+    is read alone). None too when some text is longer than ``MAX_EXPR_LENGTH``, which the
+    character parser refuses (only the first text of a shape goes through :func:`template_of`)."""
     joined = "\n".join(texts)
+    if len(joined) > MAX_EXPR_LENGTH and max(map(len, texts)) > MAX_EXPR_LENGTH:
+        return None
     if "\x00" in joined or joined.count("\n") != len(texts) - 1:
         singles = [template_of(text) for text in texts]
         if any(found is None for found in singles):

@@ -7,8 +7,9 @@ from __future__ import annotations
 import pytest
 from hypothesis import given, settings, strategies as st
 
+from stepper.errors import ExpressionError
 from stepper.field.expr import parse
-from stepper.field.expr_syntax import fill, template_of, templates_of
+from stepper.field.expr_syntax import MAX_EXPR_LENGTH, fill, template_of, templates_of
 
 SHAPES = ("a{i} + beta{i}*b{i}", "eq(tau) * (a{i}*b{i} - c{i})", "eq(w{i}, u) * x{i}[2] + 3*y{i}^2",
           "-(c{i} - eq(w{i})) * 7", "eq{i} + point.{i} * final_{i}", "x{i}[0] + 12*y{i}", "a{i}*a{i} - _{i}")
@@ -67,3 +68,20 @@ def test_texts_holding_a_newline_are_read_one_by_one():
     assert groups is not None
     assert sorted(i for _, _, positions in groups for i in positions) == [0, 1]
     assert {tuple(column[0] for column in columns) for _, columns, _ in groups} == {("a0", "b0"), ("a1", "b1")}
+
+
+def test_a_text_longer_than_the_character_parser_takes_has_no_template_alone_or_among_others():
+    # the parser refuses a text past MAX_EXPR_LENGTH characters; the template path must not read it either,
+    # alone or among texts of its shape, where only the first goes through template_of (the others have
+    # their names compared: longer names make a longer text of the same shape)
+    pad = " " * (MAX_EXPR_LENGTH - len("a1 + beta1*b1"))
+    first, longer = "a1 + beta1*b1" + pad, "a12 + beta12*b12" + pad
+    assert len(first) == MAX_EXPR_LENGTH < len(longer)
+    found = template_of(first)
+    assert found is not None and fill(found[0].root, found[1]) == parse(first).root
+    assert templates_of([first, "a3 + beta3*b3" + pad]) is not None
+    with pytest.raises(ExpressionError, match=f"at most {MAX_EXPR_LENGTH} characters"):
+        parse(longer)
+    assert template_of(longer) is None
+    assert templates_of([longer]) is None
+    assert templates_of([first, longer]) is None

@@ -422,3 +422,37 @@ def test_names_that_grow_a_digit_where_a_block_ends_check_as_the_replay(tmp_path
         assert got is not None and got[0].to_json() == expected[0].to_json()
     else:
         assert code == 1 and swept is None and f"instance #{instance} " in out, (out, err)
+
+
+# ----- 8. glue texts at the parser's length limit ----------------------------------------
+
+
+@pytest.fixture(scope="module")
+def glued_forty(tmp_path_factory: pytest.TempPathFactory) -> bytes:
+    """write_pointed's glued proof of 40 instances without point(NAME) (claim_expr and final_expr each)."""
+    path = tmp_path_factory.mktemp("forty") / "glued.sumtr"
+    write_pointed(path, count=40, pointed=False)
+    return path.read_bytes()
+
+
+@pytest.mark.parametrize("key", ["claim_expr", "final_expr"])
+@pytest.mark.parametrize("instance", [25, 39])  # among instances laid out alike; the last
+@pytest.mark.parametrize("length", [4096, 4097])  # stepper.field.expr_syntax.MAX_EXPR_LENGTH, and one past it
+def test_a_glue_text_past_the_parsers_length_limit_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, glued_forty, key, instance, length):
+    # the replay parses each claim_expr and final_expr and refuses one longer than 4096 characters (exit 2);
+    # the sweep defers the texts and reads them by template, which must refuse the same ones. Spaces pad the
+    # text: the same expression, and the schedule absorbs no text, so only the length changes. (Found here:
+    # the template path had no length limit, and the sweep accepted a proof the replay refuses.)
+    from stepper.field.expr_syntax import MAX_EXPR_LENGTH
+
+    _, start, end = instance_events(glued_forty)[instance][0]
+    payload = msgpack.unpackb(glued_forty[start:end], raw=False)
+    payload[key] = payload[key].ljust(length)
+    path = tmp_path / "padded.sumtr"
+    path.write_bytes(replaced(glued_forty, start, end, msgpack.packb(payload, use_bin_type=True)))
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    if length <= MAX_EXPR_LENGTH:
+        assert code == 0 and swept is not None, (out, err)
+    else:
+        assert code == 2 and swept is None and f"at most {MAX_EXPR_LENGTH} characters" in err, (out, err)
