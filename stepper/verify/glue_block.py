@@ -54,7 +54,7 @@ if TYPE_CHECKING:
     from stepper.field.kernels import Kernel
     from stepper.transcript.model import InstanceStart
 
-__all__ = ["GlueChecks", "StartColumns", "Unsupported"]
+__all__ = ["GlueChecks", "StartColumns", "TextShape", "Unsupported", "shapes_of"]
 
 
 class Unsupported(Exception):
@@ -69,7 +69,7 @@ class _Group:
 
     template: Template
     final: bool
-    columns: list[list[str]]
+    columns: list[Sequence[str]]
     expected: list[Any] | np.ndarray  # a list of elements, or a kernel array of them
     runs: np.ndarray
     challenges: Any = None
@@ -113,6 +113,9 @@ class StartColumns:
     claim: Sequence[Any]
     claim_expr: Sequence[str | None]
     final_expr: Sequence[str | None]
+    # the claim_exprs' and the final_exprs' templates as shapes_of groups them (positions among these
+    # instances, those without the text left out), where known already; None: read from the texts
+    shapes: tuple[list[TextShape] | None, list[TextShape] | None] = dc_field(default=(None, None), kw_only=True)
 
     @staticmethod
     def of(starts: Sequence[InstanceStart]) -> StartColumns:
@@ -137,11 +140,66 @@ class StartColumns:
 
     @staticmethod
     def joined(parts: Sequence[StartColumns]) -> StartColumns:
-        """The instances of ``parts``, one part after another."""
-        return StartColumns(*(list(chain.from_iterable(columns)) for columns in zip(*(part._columns() for part in parts))))
+        """The instances of ``parts``, one part after another (their texts' templates joined when some part
+        knows its own)."""
+        shapes: tuple[list[TextShape] | None, list[TextShape] | None] = (None, None)
+        if any(shape is not None for part in parts for shape in part.shapes):
+            shapes = (_joined_shapes([(part.shapes[0], part.claim_expr) for part in parts]),
+                      _joined_shapes([(part.shapes[1], part.final_expr) for part in parts]))
+        return StartColumns(*(list(chain.from_iterable(columns)) for columns in zip(*(part._columns() for part in parts))),
+                            shapes=shapes)
+
+    def text_shapes(self, final: bool) -> list[TextShape] | None:
+        """The templates of the final_exprs (or the claim_exprs), as :func:`shapes_of` finds them."""
+        known = self.shapes[final]
+        return known if known is not None else shapes_of(self.final_expr if final else self.claim_expr)
 
 
 _START_FIELDS = ("name", "num_vars", "degree", "order", "claim", "claim_expr", "final_expr")
+# texts sharing a template: the template, the names filling each hole (a column, one entry per text) and the
+# texts' positions
+TextShape = tuple["Template", list[Sequence[str]], Sequence[int]]
+
+
+def shapes_of(texts: Sequence[str | None]) -> list[TextShape] | None:
+    """The texts (None: no text there, left out) grouped by template (:func:`templates_of`), with their
+    positions in ``texts``; None when some text has no template."""
+    kept = [i for i, text in enumerate(texts) if text is not None]
+    if not kept:
+        return []
+    from stepper.field.expr_syntax import templates_of  # only for glue: a plain sweep builds no syntax classes
+
+    whole = len(kept) == len(texts)
+    found = templates_of(list(texts) if whole else [texts[i] for i in kept])  # type: ignore[arg-type, misc]
+    if found is None:
+        return None
+    if whole:
+        return found  # type: ignore[return-value]
+    return [(template, columns, [kept[i] for i in positions]) for template, columns, positions in found]  # type: ignore[misc]
+
+
+def _joined_shapes(parts: list[tuple[list[TextShape] | None, Sequence[str | None]]]) -> list[TextShape] | None:
+    """The shapes of texts given in parts, one part after another (a part's shapes, or its texts to
+    read them from): the texts of one template, whichever part, in one group, its columns joined
+    without making their names strings (:func:`~stepper.verify.glue_texts.joined_columns`)."""
+    from stepper.verify.glue_texts import joined_columns
+
+    groups: dict[int, tuple[Template, list[list[Sequence[str]]], list[Sequence[int]]]] = {}
+    offset = 0
+    for known, texts in parts:
+        shapes = known if known is not None else shapes_of(texts)
+        if shapes is None:
+            return None
+        for template, columns, positions in shapes:
+            moved = range(positions.start + offset, positions.stop + offset) if isinstance(positions, range) \
+                and positions.step == 1 else [offset + i for i in positions]
+            group = groups.setdefault(id(template), (template, [[] for _ in columns], []))
+            for pieces, column in zip(group[1], columns):
+                pieces.append(column)
+            group[2].append(moved)
+        offset += len(texts)
+    return [(template, [joined_columns(pieces) for pieces in columns], list(chain.from_iterable(positions)))
+            for template, columns, positions in groups.values()]
 # an instance settled in bulk: its run in the flush, start, final value, the challenges of its block and
 # its first row there
 Settled = tuple[int, "InstanceStart", Any, Any, int]
@@ -213,27 +271,19 @@ class GlueChecks:
         """:meth:`add` for instances whose challenges are all in one block (``challenges``), given as
         columns: instance k follows run ``runs[k]`` of the flush, has start ``starts[k]``, final value
         ``finals[k]`` and its challenges from row ``first_rows[k]`` of the block on. Instances without
-        either text are passed over. Texts are read by template all at once (:func:`templates_of`).
+        either text are passed over. Texts are read by template all at once (:meth:`StartColumns.text_shapes`).
         Raises :class:`Unsupported` for an expression this module does not check (``point(NAME)`` or
         ``final(NAME)`` without :meth:`instances` of this block, a text only the character parser
         reads, eq(a) in a claim_expr)."""
-        for final, every in ((False, list(starts.claim_expr)), (True, list(starts.final_expr))):
-            missing = every.count(None)
-            if missing == len(every):
-                continue
-            kept = [i for i, text in enumerate(every) if text is not None] if missing else None
-            texts = every if kept is None else [every[i] for i in kept]
-            from stepper.field.expr_syntax import templates_of  # only for glue: a plain sweep builds no syntax classes
-
-            found = templates_of(texts)  # type: ignore[arg-type]
+        for final in (False, True):
+            found = starts.text_shapes(final)
             if found is None:
                 raise Unsupported("a text only the character parser reads")
-            for template, columns, positions in found:
+            for template, columns, chosen in found:
                 refs = template.refs
                 if refs.own_point and not final:
                     raise Unsupported("eq(a) in a claim_expr")
                 table = self._instances_of(challenges) if refs.points or refs.finals else None
-                chosen = positions if kept is None else [kept[i] for i in positions]
                 whole = len(chosen) == len(starts)
                 picked = starts if whole else starts.take(chosen)
                 picked_runs = runs if whole else runs[np.array(chosen, dtype=np.int64)]
@@ -269,7 +319,11 @@ class GlueChecks:
         row's run; with ``names`` too (the flush's names, by row), a column whose names stand at
         the same place after each check's run as the first's does is matched by place (compared
         with ``names``, no look-up per name), and the rows found are kept for :meth:`check`.
+        Columns of names placed among the glue by the sweep (:class:`~stepper.verify.glue_texts.PlacedNames`)
+        find their rows from their places (:func:`~stepper.verify.glue_texts.placed_rows`).
         Raises :class:`Unsupported` where one does not hold."""
+        from stepper.verify.glue_texts import placed_rows
+
         lists_here = {name for name, length in defined.items() if length is not None} if any(
             length is not None for length in defined.values()) else set()  # the flush's list values
         by_place = names is not None and run_of_row is not None and len(run_of_row) > 0
@@ -292,7 +346,10 @@ class GlueChecks:
                     bound = limits
                 if by_place and len(column) == len(group_runs):
                     assert names is not None and run_of_row is not None and firsts is not None
-                    rows = _rows_by_place(column, group_runs, runs, names, run_of_row, firsts, step)
+                    rows = placed_rows(column, group_runs, firsts, names, lambda part, part_runs: _rows_by_place(
+                        part, part_runs, runs, names, run_of_row, firsts, step))  # type: ignore[arg-type]
+                    if rows is None:
+                        rows = _rows_by_place(column, group_runs, runs, names, run_of_row, firsts, step)
                     group.rows[hole] = rows
                     places = np.where(rows < 0, -1, run_of_row[np.maximum(rows, 0)])
                 else:
@@ -321,7 +378,7 @@ class GlueChecks:
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
 
 
-def _taken(values: list[Any] | np.ndarray, chosen: list[int]) -> list[Any] | np.ndarray:
+def _taken(values: list[Any] | np.ndarray, chosen: Sequence[int]) -> list[Any] | np.ndarray:
     """The entries of ``values`` (a list, or a kernel array with one row per entry) at ``chosen``."""
     if values.__class__ is np.ndarray:
         return values[np.array(chosen, dtype=np.int64)]  # type: ignore[index, no-any-return]
@@ -344,7 +401,7 @@ def _step_of(firsts: np.ndarray) -> int | None:
     return step
 
 
-def _rows_by_place(column: list[str], runs: np.ndarray, index: Mapping[str, int], names: Sequence[str],
+def _rows_by_place(column: Sequence[str], runs: np.ndarray, index: Mapping[str, int], names: Sequence[str],
                    run_of_row: np.ndarray, firsts: np.ndarray | None = None, step: int | None = None) -> np.ndarray:
     """Each check's name's row in the flush (-1: sent before it), check k's instance following run
     ``runs[k]``. Where the first name the flush holds stands at offset o after run r + s, r its
@@ -383,7 +440,7 @@ def _rows_by_place(column: list[str], runs: np.ndarray, index: Mapping[str, int]
     return rows
 
 
-def _rows_by_slice(column: list[str], target: int, run_count: int, step: int, offset: int,
+def _rows_by_slice(column: Sequence[str], target: int, run_count: int, step: int, offset: int,
                    index: Mapping[str, int], names: Sequence[str]) -> np.ndarray:
     """:func:`_rows_by_place` when every run of the flush holds ``step`` rows and check k reads the
     name at ``offset`` after run ``target + k`` (of ``run_count``): the checks whose run is in the
@@ -404,7 +461,7 @@ def _rows_by_slice(column: list[str], target: int, run_count: int, step: int, of
     return rows
 
 
-def _uniform(names: list[str]) -> bool:
+def _uniform(names: Sequence[str]) -> bool:
     """Whether every entry is the first (names differing per check usually differ at once)."""
     return len(names) < 2 or (names[1] == names[0] and names.count(names[0]) == len(names))
 
@@ -428,7 +485,7 @@ class _Columns:
         return bool(np.array_equal(expected, self.array(self.group.expected)))
 
     # ----- columns ------------------------------------------------------------------------
-    def names(self, name: str) -> list[str]:
+    def names(self, name: str) -> Sequence[str]:
         """The name a template's name stands for, per check (a hole ``#i``, or a word kept as is)."""
         if name[0] != "#":
             return [name] * self.n

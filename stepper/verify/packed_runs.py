@@ -156,6 +156,7 @@ class GluedRuns(_InstanceColumns):
     run_end: int
     layout: Layout
     last: InstanceStart
+    shapes: tuple[Any, Any] = (None, None)  # of the claim_exprs and final_exprs: see glue_block.StartColumns
 
     def record(self, j: int) -> InstanceStart:
         """The record of instance j, as the Sequencer would have made it."""

@@ -55,6 +55,7 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
+from stepper.verify.glue_texts import holes_of
 from stepper.verify.packed_runs import (
     GiveUp as _GiveUp, GluedRuns, Layout, PlainRuns, Run, RunBlock, layout_of, packed_ints,
 )
@@ -67,7 +68,8 @@ if TYPE_CHECKING:
 
     from stepper.field.field import Field
     from stepper.field.kernels import Kernel
-    from stepper.verify.glue_block import GlueChecks, Settled, StartColumns
+    from stepper.field.expr_syntax import Template
+    from stepper.verify.glue_block import GlueChecks, Settled, StartColumns, TextShape
     from stepper.verify.glue_columns import GlueColumns
     from stepper.verify.replay import Replay
 
@@ -546,11 +548,18 @@ class _Sweeper:
         import numpy as np
 
         varying = instance_spans(head, at)
+        text_spans = varying[3:]  # claim_expr's, final_expr's (those present)
+        # a text whose words are names, numbers and call words: only its names may differ (the rest compared)
+        holes = [holes_of(data[at + begin:at + end]) for begin, end in text_spans]
+        varying[3:] = [(begin + low, begin + high) for (begin, end), found in zip(text_spans, holes)
+                       for low, high in (found[1] if found is not None else [(0, end - begin)])]
         glue_at = run_end
+        glue_names: list[tuple[int, int]] = []
         for kind, _, name, _ in glue_run.rows(data[at + run_end:at + period]):  # the glue's names and elements
             name_at = glue_at + len(b"\x83\xa4type") + 1 + len(kind) + len(b"\xa4name") + 1
             element_at = name_at + len(name) + len(b"\xa5value") + 2
             varying += [(name_at, name_at + len(name)), (element_at, element_at + width)]
+            glue_names.append((name_at, name_at + len(name)))
             glue_at = element_at + width
         if glue_at != period:
             return False
@@ -571,13 +580,17 @@ class _Sweeper:
         def texts(span: tuple[int, int] | None) -> list[str | None]:
             return [None] * count if span is None else _fixed_texts(u8, starts, span[0], span[1] - span[0])  # type: ignore[return-value]
 
-        spans = iter(varying[3:])
+        spans = iter(text_spans)
         try:
             names = texts(varying[0])
             claim_texts = texts(next(spans) if head[5] is not None else None)
             final_texts = texts(next(spans) if head[6] is not None else None)
         except UnicodeDecodeError:
             return False  # the usual path names it
+        periods = u8[at:at + period * count].reshape(count, period)
+        found = iter(zip(text_spans, holes))
+        shapes = tuple(_text_shapes(periods, *next(found), glue_names) if present is not None else []
+                       for present in head[5:7])
         claim_at = varying[2][0]
         claims = u8[starts[:, None] + (claim_at + np.arange(width))].tobytes()
         index = len(self.seq.names)
@@ -588,7 +601,7 @@ class _Sweeper:
         blob = memoryview(self.unpacker.read_bytes((count - 1) * period + run_end))  # the last glue: _take_glue
         glued = GluedRuns(index, names, counts, degree_list, values, claims, blob, claim_texts=claim_texts,  # type: ignore[arg-type]
                           final_texts=final_texts, period=period, head_len=head_len, run_end=run_end, layout=layout,
-                          last=self.seq.current)  # type: ignore[arg-type]
+                          last=self.seq.current, shapes=shapes)  # type: ignore[arg-type]
         self.runs.append(glued)
         self.trailing.append(glued)  # stands for the glue after each of its runs but the last
         self._after_runs(count * num_vars, count * num_vars * stride)
@@ -832,6 +845,22 @@ def _fixed_texts(u8: np.ndarray, starts: np.ndarray, begin: int, size: int) -> l
     return [joined[i:i + size].decode() for i in range(0, len(joined), size + 1)]
 
 
+def _text_shapes(periods: np.ndarray, span: tuple[int, int], holes: tuple[Template, list[tuple[int, int]]] | None,
+                 glue_names: list[tuple[int, int]]) -> list[TextShape] | None:
+    """The template of the texts at ``span`` of ``periods`` (instances laid out alike, every byte of the
+    texts but the names in its ``holes`` compared with the first's), each hole's names placed among the
+    glue names (:func:`~stepper.verify.glue_texts.placed_names`) and every text's position, as
+    :func:`~stepper.verify.glue_block.shapes_of` gives them; None when they were not compared so, or
+    some name does not read or stand so (the flush then reads the texts)."""
+    if holes is None:
+        return None
+    from stepper.verify.glue_texts import placed_names
+
+    template, spans = holes
+    columns = placed_names(periods, [(span[0] + low, span[0] + high) for low, high in spans], glue_names)
+    return None if columns is None else [(template, columns, range(len(periods)))]  # type: ignore[list-item]
+
+
 def _layout(run: Run) -> Layout:
     return run[3] if run.__class__ is tuple else run.layout  # type: ignore[index, union-attr, no-any-return]
 
@@ -889,7 +918,7 @@ class _Listing:
                 parts.append(StartColumns.of(loose))
                 loose = []
             parts.append(StartColumns(run.names, run.num_vars, run.degrees, ["low-first"] * len(run),  # type: ignore[union-attr, arg-type]
-                                      run.claims, run.claim_texts, run.final_texts))  # type: ignore[union-attr]
+                                      run.claims, run.claim_texts, run.final_texts, shapes=run.shapes))  # type: ignore[union-attr]
         if loose:
             parts.append(StartColumns.of(loose))
         return parts[0] if len(parts) == 1 else StartColumns.joined(parts)
