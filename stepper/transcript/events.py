@@ -31,7 +31,7 @@ Caps keep a hostile input from costing unbounded memory.
 from __future__ import annotations
 
 import struct
-from itertools import chain, repeat
+from itertools import repeat
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 from stepper.errors import FieldError, TranscriptError, Where
@@ -423,7 +423,7 @@ class Sequencer(GlueRules, AnnotationRules):
         count = len(names)
         if (not count or not self.glue or not self.defer_glue or not self._prime_modulus
                 or len(claim_exprs) != count or len(final_exprs) != count
-                or max(map(len, filter(None, chain(claim_exprs, final_exprs))), default=0) > MAX_TEXT):
+                or max(_longest(claim_exprs), _longest(final_exprs)) > MAX_TEXT):
             return None
         values = self._bulk_claims(names, num_vars, degrees, claims)
         if values is None:
@@ -502,6 +502,13 @@ class Sequencer(GlueRules, AnnotationRules):
 
 _HANDLERS: dict[str, Callable[[Sequencer, Mapping[str, Any]], Event]] = {
     kind: getattr(Sequencer, "_on_" + kind) for kind in KNOWN_TYPES}  # each known type's handler
+
+
+def _longest(texts: Sequence[str | None]) -> int:
+    """The characters of the longest of ``texts`` (None: no text); a column that knows it says so
+    (``longest``: texts the whole-file pass keeps as bytes until read)."""
+    longest = getattr(texts, "longest", None)
+    return int(longest) if longest is not None else max(map(len, filter(None, texts)), default=0)
 
 
 def _checked_start(index: int, name: str, num_vars: int, degree: int, claim: Element, order: str, form: str,

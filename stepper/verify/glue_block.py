@@ -129,7 +129,7 @@ class StartColumns:
         return StartColumns(*([column[i] for i in chosen] for column in self._columns()))
 
     def __add__(self, other: StartColumns) -> StartColumns:
-        return StartColumns(*([*mine, *theirs] for mine, theirs in zip(self._columns(), other._columns())))
+        return StartColumns.joined([self, other])
 
     def _columns(self) -> tuple[Sequence[Any], ...]:
         return self.name, self.num_vars, self.degree, self.order, self.claim, self.claim_expr, self.final_expr
@@ -143,11 +143,17 @@ class StartColumns:
         """The instances of ``parts``, one part after another (their texts' templates joined when some part
         knows its own)."""
         shapes: tuple[list[TextShape] | None, list[TextShape] | None] = (None, None)
+        if len(parts) == 1:
+            return parts[0]
         if any(shape is not None for part in parts for shape in part.shapes):
             shapes = (_joined_shapes([(part.shapes[0], part.claim_expr) for part in parts]),
                       _joined_shapes([(part.shapes[1], part.final_expr) for part in parts]))
-        return StartColumns(*(list(chain.from_iterable(columns)) for columns in zip(*(part._columns() for part in parts))),
-                            shapes=shapes)
+        from stepper.verify.glue_texts import joined_texts
+
+        name, num_vars, degree, order, claim = (list(chain.from_iterable(column))
+                                                for column in zip(*(part._columns()[:5] for part in parts)))
+        return StartColumns(name, num_vars, degree, order, claim, joined_texts([part.claim_expr for part in parts]),
+                            joined_texts([part.final_expr for part in parts]), shapes=shapes)
 
     def text_shapes(self, final: bool) -> list[TextShape] | None:
         """The templates of the final_exprs (or the claim_exprs), as :func:`shapes_of` finds them."""

@@ -35,7 +35,8 @@ if TYPE_CHECKING:
 
     from stepper.field.expr_syntax import Template
 
-__all__ = ["holes_of", "placed_names", "PlacedNames", "Chained", "joined_columns", "placed_rows"]
+__all__ = ["holes_of", "placed_names", "PlacedNames", "Chained", "joined_columns", "placed_rows", "FixedTexts",
+           "TextColumn", "joined_texts"]
 
 _WORDS = re.compile(rb"[A-Za-z0-9_.]+")  # maximal runs of the characters a name may hold
 _NAME_CHARS = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_."
@@ -320,3 +321,100 @@ def _guessed(place: tuple[str, int], part: Sequence[str], runs: np.ndarray, firs
     if found is not None and [names[row] for row in found.tolist()] == list(part):
         return found
     return otherwise(part, runs)
+
+
+class FixedTexts(Sequence[str]):
+    """Texts of one length, one per instance, kept as rows of ASCII bytes (the sweep compared them with
+    the first text but for their names, all of name characters) and made strings only where read."""
+
+    __slots__ = ("rows",)
+
+    def __init__(self, rows: np.ndarray) -> None:
+        self.rows = rows
+
+    @property
+    def longest(self) -> int:
+        """The characters of the longest text (all are this long)."""
+        return int(self.rows.shape[1]) if len(self.rows) else 0
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    @overload
+    def __getitem__(self, index: int) -> str: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> FixedTexts: ...
+
+    def __getitem__(self, index: int | slice) -> str | FixedTexts:
+        if isinstance(index, slice):
+            return FixedTexts(self.rows[index])
+        return self.rows[index].tobytes().decode("ascii")
+
+    def __iter__(self) -> Iterator[str]:
+        import numpy as np
+
+        count, width = self.rows.shape
+        joined = np.full((count, width + 1), 0x0A, dtype=np.uint8)
+        joined[:, :width] = self.rows
+        return iter(joined.tobytes().decode("ascii").split("\n")[:-1])
+
+
+class TextColumn(Sequence["str | None"]):
+    """Columns of texts (or None) one after another, lists or :class:`FixedTexts`, read without joining
+    them; a slice of it is one too."""
+
+    __slots__ = ("parts", "starts")
+
+    def __init__(self, parts: list[Sequence[str | None]]) -> None:
+        self.parts = parts
+        self.starts = [0]
+        for part in parts:
+            self.starts.append(self.starts[-1] + len(part))
+
+    @property
+    def longest(self) -> int:
+        """The characters of the longest text."""
+        return max((_longest(part) for part in self.parts), default=0)
+
+    def __len__(self) -> int:
+        return self.starts[-1]
+
+    @overload
+    def __getitem__(self, index: int) -> str | None: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> Sequence[str | None]: ...
+
+    def __getitem__(self, index: int | slice) -> str | None | Sequence[str | None]:
+        if isinstance(index, slice):
+            begin, end, step = index.indices(len(self))
+            if step != 1:
+                return list(self)[index]
+            parts = [part[max(begin - low, 0):max(end - low, 0)] for part, low in zip(self.parts, self.starts)]
+            return TextColumn([part for part in parts if len(part)])
+        if index < 0:
+            index += len(self)
+        if not 0 <= index < len(self):
+            raise IndexError(index)
+        part = bisect_right(self.starts, index) - 1
+        return self.parts[part][index - self.starts[part]]
+
+    def __iter__(self) -> Iterator[str | None]:
+        return chain.from_iterable(self.parts)
+
+
+def _longest(texts: Sequence[str | None]) -> int:
+    longest = getattr(texts, "longest", None)
+    return int(longest) if longest is not None else max(map(len, filter(None, texts)), default=0)
+
+
+def joined_texts(columns: list[Sequence[str | None]]) -> Sequence[str | None]:
+    """Columns of texts one after another: a list when all are lists, else a :class:`TextColumn` (no text
+    made a string)."""
+    if all(column.__class__ is list for column in columns):
+        return list(chain.from_iterable(columns))
+    parts: list[Sequence[str | None]] = []
+    for column in columns:
+        parts += column.parts if isinstance(column, TextColumn) else [column]
+    return TextColumn(parts)

@@ -55,7 +55,7 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
-from stepper.verify.glue_texts import holes_of
+from stepper.verify.glue_texts import FixedTexts, holes_of
 from stepper.verify.packed_runs import (
     GiveUp as _GiveUp, GluedRuns, Layout, PlainRuns, Run, RunBlock, layout_of, packed_ints,
 )
@@ -580,17 +580,19 @@ class _Sweeper:
         def texts(span: tuple[int, int] | None) -> list[str | None]:
             return [None] * count if span is None else _fixed_texts(u8, starts, span[0], span[1] - span[0])  # type: ignore[return-value]
 
-        spans = iter(text_spans)
-        try:
-            names = texts(varying[0])
-            claim_texts = texts(next(spans) if head[5] is not None else None)
-            final_texts = texts(next(spans) if head[6] is not None else None)
-        except UnicodeDecodeError:
-            return False  # the usual path names it
         periods = u8[at:at + period * count].reshape(count, period)
         found = iter(zip(text_spans, holes))
         shapes = tuple(_text_shapes(periods, *next(found), glue_names) if present is not None else []
                        for present in head[5:7])
+        spans = iter(text_spans)
+        try:
+            names = texts(varying[0])
+            # the texts read by template stay bytes (ASCII: compared with the first's, names of name characters)
+            claim_texts, final_texts = (
+                texts(next(spans) if present is not None else None) if shape is None or not shape
+                else FixedTexts(periods[:, slice(*next(spans))].copy()) for present, shape in zip(head[5:7], shapes))
+        except UnicodeDecodeError:
+            return False  # the usual path names it
         claim_at = varying[2][0]
         claims = u8[starts[:, None] + (claim_at + np.arange(width))].tobytes()
         index = len(self.seq.names)

@@ -12,7 +12,8 @@ import pytest
 
 from stepper.field.expr_syntax import template_of
 from stepper.verify.glue_texts import (
-    BEFORE, OWN, SAME, Chained, PlacedNames, holes_of, joined_columns, placed_names, placed_rows,
+    BEFORE, OWN, SAME, Chained, FixedTexts, PlacedNames, TextColumn, holes_of, joined_columns, joined_texts, placed_names,
+    placed_rows,
 )
 
 
@@ -113,3 +114,18 @@ def test_columns_joined_stay_lists_when_every_part_is_one():
     assert chained[1:3] == ["x", "y"] and chained.count("y") == 1
     with pytest.raises(IndexError):
         chained[4]
+
+
+def test_texts_kept_as_bytes_read_as_the_strings_they_hold_and_slice_without_being_read():
+    texts = ["a1 + b1", "a2 + b2", "a3 + b3"]
+    fixed = FixedTexts(np.frombuffer("".join(texts).encode(), dtype=np.uint8).reshape(3, -1))
+    assert list(fixed) == texts and fixed[1] == "a2 + b2" and fixed.longest == 7
+    assert isinstance(fixed[1:], FixedTexts) and list(fixed[1:]) == texts[1:]
+    column = joined_texts([[None, "x*y"], fixed, [None]])
+    assert isinstance(column, TextColumn) and len(column) == 6 and column.longest == 7
+    assert list(column) == [None, "x*y", *texts, None] and column[2] == "a1 + b1" and column[-1] is None
+    tail = column[3:]
+    assert isinstance(tail, TextColumn) and list(tail) == ["a2 + b2", "a3 + b3", None]
+    assert column[::2] == [None, "a1 + b1", "a3 + b3"]
+    assert list(joined_texts([column, ["z"]])) == [*column, "z"]
+    assert joined_texts([["a"], [None]]) == ["a", None]
