@@ -120,8 +120,9 @@ def rounds_congruent(kernel: LimbKernel, columns: np.ndarray, points: np.ndarray
     acc = _normalise(_scaled(coefficients[m - 1], weights[m - 1], offsets[m - 1], p_limbs)).view(np.uint64)
     # the points (r - k) R mod p are r R mod p plus a constant below p, not carried: limbs below 2^30, so a
     # product's limbs left as summed are below n 2^59 + n 2^58 + 2^35 and fit signed 64-bit limbs with the
-    # term added (its limbs below 2^41) while 3 n 2^58 + 2^41 < 2^63, n <= 10 (BN254: n = 9; BLS12-381's
-    # n = 14 and every prime above 288 bits carry each product)
+    # term added (its limbs below 2^41) while 3 n 2^58 + 2^41 < 2^63, n <= 10 (BN254 and the BLS12-381 scalar
+    # field, stepper's bls12-381: n = 9; every prime above 288 bits, BLS12-381's 381-bit base field among
+    # them, carries each product)
     carried = (3 * kernel.n << 58) + (1 << 41) >= _INT64_LIMB
     for k in range(m - 2, -1, -1):
         shift = r_mont if k == 0 else r_mont + kernel._column(-k * (1 << kernel._r_bits) % kernel.p)
