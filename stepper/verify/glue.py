@@ -138,6 +138,13 @@ class GlueBook:
             self.finals.pop(old, None)
             self._stored -= len(point)
 
+    def forget_points(self) -> None:
+        """Forget every point and final kept (instances were settled in bulk: see
+        :meth:`stepper.verify.replay.Replay.forget_points`)."""
+        self.points.clear()
+        self.finals.clear()
+        self._stored = 0
+
     def scope(self, own_point: tuple[Element, ...] | None) -> GlueScope:
         from stepper.field.expr import GlueScope
 

@@ -200,6 +200,14 @@ class Replay:
         for record in records:
             take(field, record, None, "", live, ledger)
 
+    def forget_points(self) -> None:
+        """After instances settled in bulk (:meth:`settle`, :meth:`settle_quietly`): forget the points and
+        finals of earlier instances that ``point(NAME)`` and ``final(NAME)`` read. The settled instances
+        keep none of their own, so the replay can no longer tell which earlier ones the event-by-event path
+        would still hold (it keeps ``MAX_POINT_ELEMENTS`` challenge elements of the last instances): an
+        expression read later that names one then fails to evaluate, and the whole-file pass gives up."""
+        self._glue.book.forget_points()
+
     def settle_glue_values(self, names: Sequence[str], values: Sequence[Any]) -> None:
         """:meth:`settle_glue` for glue after instances whose summaries are not kept, given as the
         names and the values the glue book keeps (an element, or a list of elements)."""

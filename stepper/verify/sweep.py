@@ -829,6 +829,7 @@ class _Sweeper:
             raise _GiveUp(f"glue this pass does not check by the block: {err}") from None
         if not passes or replay.failed:
             raise _GiveUp("a glue check fails in this block")
+        replay.forget_points()  # the settled instances keep no point: which earlier ones remain is unknown here
 
 
 def _fixed_texts(u8: np.ndarray, starts: np.ndarray, begin: int, size: int) -> list[str]:

@@ -16,6 +16,8 @@ fixstr or str 8, a map of fewer than 16 entries as a fixmap or map 16, and a map
 
 from __future__ import annotations
 
+import random
+from pathlib import Path
 from typing import Any, Callable
 
 import msgpack
@@ -23,8 +25,10 @@ import pytest
 
 import tests.verify.test_sweep as helpers
 from tests.verify.test_sweep import (
-    FIELDS, Knobs, Plain, check_both, event_spans, resealed, swept_report, write_pointed, write_transcript,
+    FIELDS, Knobs, Plain, check_both, element, event_spans, horner, resealed, round_poly, seal, sent_values,
+    swept_report, write_pointed, write_transcript,
 )
+from stepper.transcript.store import TranscriptWriter
 from stepper.transcript.store.writer import MAGIC
 
 GLUE = ("value", "squeeze", "opening")
@@ -456,3 +460,58 @@ def test_a_glue_text_past_the_parsers_length_limit_is_refused_as_the_replay_refu
         assert code == 0 and swept is not None, (out, err)
     else:
         assert code == 2 and swept is None and f"at most {MAX_EXPR_LENGTH} characters" in err, (out, err)
+
+
+# ----- 9. point(NAME) and final(NAME) of an instance read one by one, across runs -----------
+
+
+def write_loose_around_runs(path: Path, runs: int, text: str) -> None:
+    """A proof of the independent prover (no schedule, Goldilocks): instance x.0 in the coeffs form (read
+    event by event by both paths), then ``runs`` instances m.<i> of 3 rounds in the evals form (the sweep
+    settles them in bulk), then l.0 in the coeffs form whose claim_expr is ``text`` (final(x.0)) and whose
+    claim is x.0's final value, so its link holds wherever x.0's final is still known."""
+    ar, field_event, _ = FIELDS["goldilocks"]
+    rng = random.Random(runs)
+    writer = TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"})
+    writer.write_payload(field_event)
+
+    def instance(name: str, num_vars: int, claim: Any, form: str, **keys: str) -> Any:
+        writer.write_payload({"type": "instance", "name": name, "num_vars": num_vars, "degree": 1,
+                              "claim": claim, **({} if form == "evals" else {"form": form}), **keys})
+        for _ in range(num_vars):
+            coeffs = round_poly(ar, rng, claim, 1)
+            writer.write_payload({"type": "round", "evals": sent_values(ar, form, coeffs)})
+            r = element(ar, rng)
+            writer.write_payload({"type": "challenge", "value": r})
+            claim = horner(ar, coeffs, r)
+        writer.write_payload({"type": "final", "value": claim})
+        return claim
+
+    final = instance("x.0", 1, element(ar, rng), "coeffs")
+    for i in range(runs):
+        instance(f"m.{i}", 3, element(ar, rng), "evals")
+    instance("l.0", 1, final, "coeffs", claim_expr=text)
+    writer.close()
+    body = path.read_bytes()
+    path.write_bytes(body + seal(body, writer.events))
+
+
+@pytest.mark.parametrize("runs", [5, 20])  # 15 or 60 challenge elements closed after x.0: below or past the limit
+def test_a_final_of_an_instance_read_one_by_one_that_runs_in_between_push_out_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, runs):
+    # the replay keeps the points and finals of the last instances closed, MAX_POINT_ELEMENTS challenge elements
+    # of them (65536; 30 here, so that a small file passes it): past that, final(x.0) cannot be evaluated (exit
+    # 2). The instances the sweep settles in bulk keep no point, so its replay used to keep x.0's final whatever
+    # came between and accepted the proof (found with a 4.5 MB file: 1100 runs of 60 rounds between x.0 and l.0,
+    # exit 0 by default, exit 2 with STEPPER_SWEEP=off). Now it forgets them after each block of runs, and gives
+    # up on an expression that reads one
+    import stepper.verify.glue as glue_module
+
+    monkeypatch.setattr(glue_module, "MAX_POINT_ELEMENTS", 30)
+    path = tmp_path / "across.sumtr"
+    write_loose_around_runs(path, runs, "final(x.0)")
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    if runs * 3 <= 30:
+        assert code == 0, (out, err)
+    else:
+        assert code == 2 and swept is None and "x.0" in err, (code, out, err)
