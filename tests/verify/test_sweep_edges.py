@@ -440,7 +440,7 @@ def glued_forty(tmp_path_factory: pytest.TempPathFactory) -> bytes:
 
 
 @pytest.mark.parametrize("key", ["claim_expr", "final_expr"])
-@pytest.mark.parametrize("instance", [25, 39])  # among instances laid out alike; the last
+@pytest.mark.parametrize("instance", [25, 39, None])  # among instances laid out alike; the last; every instance
 @pytest.mark.parametrize("length", [4096, 4097])  # stepper.field.expr_syntax.MAX_EXPR_LENGTH, and one past it
 def test_a_glue_text_past_the_parsers_length_limit_is_refused_as_the_replay_refuses_it(
         tmp_path, capsys, monkeypatch, glued_forty, key, instance, length):
@@ -450,11 +450,15 @@ def test_a_glue_text_past_the_parsers_length_limit_is_refused_as_the_replay_refu
     # the template path had no length limit, and the sweep accepted a proof the replay refuses.)
     from stepper.field.expr_syntax import MAX_EXPR_LENGTH
 
-    _, start, end = instance_events(glued_forty)[instance][0]
-    payload = msgpack.unpackb(glued_forty[start:end], raw=False)
-    payload[key] = payload[key].ljust(length)
+    data = glued_forty
+    for group in instance_events(glued_forty)[::-1] if instance is None else [instance_events(data)[instance]]:
+        _, start, end = group[0]  # from the last: the offsets before it stay put
+        payload = msgpack.unpackb(data[start:end], raw=False)
+        if key in payload:  # every instance but the first has both texts (still laid out alike when all are padded)
+            payload[key] = payload[key].ljust(length)
+            data = data[:start] + msgpack.packb(payload, use_bin_type=True) + data[end:]
     path = tmp_path / "padded.sumtr"
-    path.write_bytes(replaced(glued_forty, start, end, msgpack.packb(payload, use_bin_type=True)))
+    path.write_bytes(resealed(data))
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     if length <= MAX_EXPR_LENGTH:
         assert code == 0 and swept is not None, (out, err)
