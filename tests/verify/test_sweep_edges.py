@@ -50,6 +50,16 @@ def replaced(data: bytes, start: int, end: int, new: bytes) -> bytes:
     return resealed(data[:start] + new + data[end:])
 
 
+def one_off(data: bytes, instance: int, kind: str, which: int = -1, key: str = "value") -> bytes:
+    """A Goldilocks transcript with the element ``key`` of an event of ``kind`` among those of ``instance``
+    (``which``: the last by default) one more, mod p (canonical, so only a check can refuse it), sealed again."""
+    p = FIELDS["goldilocks"][0].p
+    _, start, end = [event for event in instance_events(data)[instance] if event[0] == kind][which]
+    payload = msgpack.unpackb(data[start:end], raw=False)
+    payload[key] = ((int.from_bytes(payload[key], "little") + 1) % p).to_bytes(8, "little")
+    return replaced(data, start, end, msgpack.packb(payload, use_bin_type=True))
+
+
 # ----- 1. a coefficient at or past p, anywhere -------------------------------------------
 
 
@@ -217,15 +227,10 @@ def alike_runs(tmp_path_factory: pytest.TempPathFactory) -> bytes:
 @pytest.mark.parametrize("kind", ["challenge", "final"])
 def test_a_wrong_value_on_either_side_of_a_64_instance_group_is_named_as_the_replay_names_it(
         tmp_path, capsys, monkeypatch, alike_runs, instance, kind):
-    p = FIELDS["goldilocks"][0].p
     path = tmp_path / "alike.sumtr"
     path.write_bytes(alike_runs)
     assert swept_report(path, 3) is not None  # not vacuous: the honest file is taken whole
-    events = instance_events(alike_runs)[instance]
-    _, start, end = [event for event in events if event[0] == kind][-1]
-    payload = msgpack.unpackb(alike_runs[start:end], raw=False)
-    payload["value"] = ((int.from_bytes(payload["value"], "little") + 1) % p).to_bytes(8, "little")
-    path.write_bytes(replaced(alike_runs, start, end, msgpack.packb(payload, use_bin_type=True)))
+    path.write_bytes(one_off(alike_runs, instance, kind))
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     assert code == 1 and swept is None and f"instance #{instance} " in out and kind in out, (out, err)
 
@@ -246,15 +251,10 @@ def test_a_wrong_squeeze_or_opening_at_a_group_or_name_length_edge_of_glued_inst
         tmp_path, capsys, monkeypatch, glued_alike, instance, kind):
     # the same edges (EDGES): names sailing.9 | sailing.10 and sailing.99 | sailing.100; the glue after the last
     # instance is read after the groups
-    p = FIELDS["goldilocks"][0].p
     path = tmp_path / "glued.sumtr"
     path.write_bytes(glued_alike)
     assert swept_report(path, 3) is not None
-    events = instance_events(glued_alike)[instance]
-    _, start, end = [event for event in events if event[0] == kind][-1]
-    payload = msgpack.unpackb(glued_alike[start:end], raw=False)
-    payload["value"] = ((int.from_bytes(payload["value"], "little") + 1) % p).to_bytes(8, "little")
-    path.write_bytes(replaced(glued_alike, start, end, msgpack.packb(payload, use_bin_type=True)))
+    path.write_bytes(one_off(glued_alike, instance, kind))
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     assert code == 1 and swept is None and f"instance #{instance} " in out, (out, err)
     assert ("squeeze" if kind == "squeeze" else "evaluation") in out, out
@@ -316,20 +316,15 @@ def test_a_wrong_value_in_an_event_cut_by_a_chunks_end_is_left_to_the_replay(tmp
     # (a challenge, a final, a claim) makes the sweep give up
     from stepper.transcript.store.reader import ReadLimits
 
-    p = FIELDS["goldilocks"][0].p
-    events = instance_events(alike_runs)[40]
-    _, start, end = [event for event in events if event[0] == kind][-1]
+    _, start, end = [event for event in instance_events(alike_runs)[40] if event[0] == kind][-1]
     boundary = {0: start, 1: start + 1, "middle": (start + end) // 2, -1: end - 1}[where]
     limits = ReadLimits(chunk_bytes=boundary)  # every read that long: the first chunk ends at the boundary
     honest = tmp_path / "honest.sumtr"
     honest.write_bytes(alike_runs)
     got, expected = swept_report(honest, 3, limits), swept_report(honest, 3)
     assert got is not None and expected is not None and got[0].to_json() == expected[0].to_json()
-    payload = msgpack.unpackb(alike_runs[start:end], raw=False)
-    key = "claim" if kind == "instance" else "value"
-    payload[key] = ((int.from_bytes(payload[key], "little") + 1) % p).to_bytes(8, "little")
     broken = tmp_path / "broken.sumtr"
-    broken.write_bytes(replaced(alike_runs, start, end, msgpack.packb(payload, use_bin_type=True)))
+    broken.write_bytes(one_off(alike_runs, 40, kind, key="claim" if kind == "instance" else "value"))
     assert swept_report(broken, 3, limits) is None
 
 
@@ -410,15 +405,8 @@ def test_names_that_grow_a_digit_where_a_block_ends_check_as_the_replay(tmp_path
     import stepper.verify.sweep as sweep_module
 
     monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", block_rounds)
-    p = FIELDS["goldilocks"][0].p
-    data = alike_runs
-    if instance is not None:
-        _, start, end = [event for event in instance_events(data)[instance] if event[0] == "challenge"][0]
-        payload = msgpack.unpackb(data[start:end], raw=False)
-        payload["value"] = ((int.from_bytes(payload["value"], "little") + 1) % p).to_bytes(8, "little")
-        data = replaced(data, start, end, msgpack.packb(payload, use_bin_type=True))
     path = tmp_path / "blocks.sumtr"
-    path.write_bytes(data)
+    path.write_bytes(alike_runs if instance is None else one_off(alike_runs, instance, "challenge", which=0))
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     if instance is None:
         assert code == 0 and swept is not None
