@@ -144,7 +144,9 @@ def _alike(u8: np.ndarray, at: int, period: int, count: int, fixed: np.ndarray, 
     else:  # most of each period (glue after the runs): compared under a mask, no gather of every byte
         compared = np.zeros(period, dtype=bool)
         compared[fixed] = True
-        same = ~((periods != periods[0]) & compared).any(axis=1)
+        differ = np.not_equal(periods, periods[0])
+        differ &= compared  # in place: the expression's temporaries took 5x as long (0.5 -> 0.1 ms at 600 x 1 KB)
+        same = ~differ.any(axis=1)
     starts = at + period * np.arange(count)
     degrees = periods[:, degree_at]
     same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)
