@@ -39,6 +39,7 @@ files of any size (tests).
 from __future__ import annotations
 
 import os
+import stat
 from dataclasses import dataclass
 from bisect import bisect_right
 from itertools import accumulate
@@ -101,12 +102,16 @@ def sweep(path: str | os.PathLike[str], replay: Replay, on_note: Callable[[Note]
     detail, no plug-in), or None when the sweep gives up (``replay`` is then spent: make
     a new one). ``on_note`` sees every note, in stream order. Files smaller than
     ``min_bytes`` are declined (``stepper check`` passes ``SMALL_FILE_BYTES``) unless
-    ``STEPPER_SWEEP=on``; ``STEPPER_SWEEP=off`` declines every file."""
+    ``STEPPER_SWEEP=on``; ``STEPPER_SWEEP=off`` declines every file. Anything but a regular file
+    (a named pipe, a device) is declined too: what the sweep read there would be gone for the replay."""
     setting = os.environ.get("STEPPER_SWEEP", "").lower()
     if setting in ("0", "off", "no", "false"):
         return None
     try:
-        if setting not in ("1", "on", "yes", "true") and os.stat(path).st_size < min_bytes:
+        status = os.stat(path)
+        if not stat.S_ISREG(status.st_mode):
+            return None  # a pipe or a device can be read once: the replay must be the one that reads it
+        if setting not in ("1", "on", "yes", "true") and status.st_size < min_bytes:
             return None
         if os.path.exists(pending_path(path)):
             return None  # notes wait beside the file (a recording holds it): the reader shows them in order

@@ -194,3 +194,34 @@ def test_the_collector_is_running_again_when_the_sweep_stops_with_an_interrupt_o
     finally:
         (gc.enable if was else gc.disable)()
     assert after
+
+
+@pytest.mark.parametrize("sweep", ["on", None])
+def test_a_transcript_arriving_through_a_named_pipe_is_read_once_and_checked_whole(sweep, tmp_path):
+    # a pipe gives its bytes to the first reader only: the whole-file pass (which STEPPER_SWEEP=on asks
+    # for any size) must leave it to the event-by-event reader, or that reader waits for bytes already gone
+    import os
+    import subprocess
+    import sys
+    import threading
+    from pathlib import Path
+
+    source = Path(__file__).resolve().parents[2] / "transcripts" / "ferries" / "ferries-honest.sumtr"
+    pipe = tmp_path / "arriving.sumtr"
+    os.mkfifo(pipe)
+
+    def feed() -> None:
+        with open(pipe, "wb") as out:  # blocks until check opens the pipe to read
+            out.write(source.read_bytes())
+
+    threading.Thread(target=feed, daemon=True).start()
+    env = {k: v for k, v in os.environ.items() if k != "STEPPER_SWEEP"}
+    if sweep is not None:
+        env["STEPPER_SWEEP"] = sweep
+    try:
+        proc = subprocess.run([sys.executable, "-m", "stepper", "check", str(pipe)], capture_output=True, text=True,
+                              env=env, timeout=60)
+    except subprocess.TimeoutExpired:
+        pytest.fail("check waited for bytes the pipe had already given away")
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    assert "ACCEPTED" in proc.stdout
