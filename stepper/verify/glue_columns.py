@@ -139,26 +139,33 @@ def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
 
 class NameRows(Mapping[str, int]):
     """Each name's row in a flush's names (no name twice: :class:`GlueColumns` gave up on that), looked
-    up by scanning the names while few are asked for, by a dict of them all after that: the rules of
-    expressions usually ask for a few names only (the rest are found by place), and a dict of a
-    flush's thousands of names cost more than a few scans."""
+    up by comparing the name's hash with an array of the names' hashes (the strings keep theirs from
+    the Sequencer's table of names, which hashed them) while few are asked for, by a dict of them all
+    after that: the rules of expressions usually ask for a few names only (the rest are found by place),
+    and a dict of a flush's thousands of names cost more than a few searches; a search for a name not
+    there, the usual question about a name sent before the flush, is one comparison of the array."""
 
-    __slots__ = ("_names", "_index", "_scans")
-    SCANS = 16  # look-ups by scanning before the dict is built
+    __slots__ = ("_names", "_index", "_hashes", "_searches")
+    SEARCHES = 256  # look-ups by hash before the dict is built
 
     def __init__(self, names: list[str]) -> None:
         self._names = names
         self._index: dict[str, int] | None = None
-        self._scans = 0
+        self._hashes: Any = None
+        self._searches = 0
 
     def _row(self, name: object) -> int | None:
         if self._index is None:
-            if self._scans < self.SCANS:
-                self._scans += 1
-                try:
-                    return self._names.index(name)  # type: ignore[arg-type]
-                except ValueError:
-                    return None
+            if self._searches < self.SEARCHES and name.__class__ is str:
+                self._searches += 1
+                import numpy as np
+
+                if self._hashes is None:
+                    self._hashes = np.fromiter(map(hash, self._names), dtype=np.int64, count=len(self._names))
+                for row in np.flatnonzero(self._hashes == hash(name)).tolist():
+                    if self._names[row] == name:
+                        return row  # type: ignore[no-any-return]
+                return None
             self._index = dict(zip(self._names, range(len(self._names))))
         return self._index.get(name)  # type: ignore[call-overload, no-any-return]
 

@@ -74,14 +74,16 @@ def test_a_name_sent_before_the_flush_gives_up_when_it_comes_again_in_a_blob():
         GlueColumns(FIELD, [[blob]], {"tide": None})
 
 
-def test_name_rows_answer_as_a_dict_of_the_names_rows_before_and_after_it_builds_one():
-    # NameRows scans the names for its first look-ups and builds a dict after: every answer is the dict's
+def test_name_rows_answer_as_a_dict_of_the_names_rows_before_and_after_it_builds_one(monkeypatch):
+    # NameRows searches the names' hashes for its first look-ups and builds a dict after: every answer is the
+    # dict's (a hash shared by two names, forced here, is told apart by the names themselves)
     from stepper.verify.glue_columns import NameRows
 
+    monkeypatch.setattr(NameRows, "SEARCHES", 16)
     names = [f"pier{i}" for i in range(40)]
     rows, index = NameRows(names), dict(zip(names, range(len(names))))
     asked = ["pier7", "tide", "pier0", "pier39", "", "pier7", *names[::3], "pier", "pier40", *names[::-2]]
-    assert len(asked) > 2 * NameRows.SCANS
+    assert len(asked) > 2 * NameRows.SEARCHES
     for name in asked:
         assert rows.get(name, -1) == index.get(name, -1) and (name in rows) == (name in index)
         if name in index:
@@ -90,3 +92,7 @@ def test_name_rows_answer_as_a_dict_of_the_names_rows_before_and_after_it_builds
             with pytest.raises(KeyError):
                 rows[name]
     assert list(rows) == names and len(rows) == len(names) and rows._index == index
+    shared = NameRows(names)
+    shared.get("pier1")
+    shared._hashes[:12] = hash("pier9")  # the first twelve names' hashes made the same: told apart by the names
+    assert shared.get("pier9") == 9 and "pier12" in shared and shared.get("tide") is None
