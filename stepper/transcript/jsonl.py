@@ -39,7 +39,7 @@ def refuse_reserved(kind: object, where: Where) -> None:
     """Refuse an event of a reserved type: the end event (with the digest) is
     written only by the transcript writer when it seals the file; copied from a
     stream it would make the file read as corrupt."""
-    if kind in RESERVED_TYPES:
+    if isinstance(kind, str) and kind in RESERVED_TYPES:  # any other `type` is the Sequencer's to refuse
         raise TranscriptError(f"expected an event-stream type, found `{kind}`, which only the transcript writer "
                               "writes when it seals the file", where)
 

@@ -379,3 +379,12 @@ def test_a_transcript_without_a_field_says_no_field_declared_and_that_nothing_wa
     assert code == 0
     assert out.splitlines()[1].startswith("  no field declared; challenges ")
     assert "field no field" not in out and "nothing was checked" in out
+
+
+def test_an_end_event_in_an_event_file_is_exit_2_as_in_import(tmp_path, capsys):
+    # the same lines `stepper import` refuses (exit 2) are refused when checked straight
+    events = honest()
+    path = write_jsonl(tmp_path / "run.jsonl", [*events[:3], {"type": "end", "events": 2}, *events[3:]])
+    code, out, err = check(capsys, str(path), "--json")
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and "found `end`" in err and "line 4" in err

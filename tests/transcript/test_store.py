@@ -453,3 +453,25 @@ def test_a_file_without_glue_keeps_version_1_and_the_first_glue_event_turns_it_i
     t = load(glue_path)
     assert t.header.format_version == 2 and t.digest == "verified"
     assert t.instances[0].openings[0].value == 8
+
+
+def test_an_end_event_in_a_json_lines_file_is_refused_as_import_refuses_it(tmp_path):
+    # `end` is reserved for the transcript writer (transcripts/EVENTS.md); `import` and
+    # `record` refuse it, and reading the same lines straight (check, view) used to keep
+    # it as an unknown event, so a stream with `end` between a round and its challenge passed
+    path = tmp_path / "events.jsonl"
+    lines = [
+        {"type": "field", "name": "babybear"},
+        {"type": "instance", "name": "deck", "num_vars": 1, "degree": 1, "claim": 7},
+        {"type": "round", "evals": [3, 4]},
+        {"type": "end"},
+        {"type": "challenge", "value": 5},
+    ]
+    path.write_text("\n".join(json.dumps(line) for line in lines) + "\n")
+    with pytest.raises(TranscriptError) as caught:
+        load(path)
+    assert "line 4" in str(caught.value) and "found `end`" in str(caught.value)
+    path.write_text(json.dumps(lines[0]) + "\n" + json.dumps({"type": {"end": 1}}) + "\n")  # a type that is no string
+    with pytest.raises(TranscriptError) as caught:
+        load(path)
+    assert "line 2" in str(caught.value) and "string `type`" in str(caught.value)

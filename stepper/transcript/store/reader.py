@@ -341,6 +341,10 @@ class EventStream:
         if line == 1 and isinstance(payload, dict) and payload.get("type") == "header":
             self.header = read_header(payload, payload.get("format_version", FORMAT_VERSION), where)
             return
+        if isinstance(payload, dict):
+            from stepper.transcript.jsonl import refuse_reserved  # loaded already by whoever split the lines
+
+            refuse_reserved(payload.get("type"), where)  # `end` is the writer's: import and record refuse it too
         yield self._seq.feed(payload, where)
 
 
