@@ -40,6 +40,7 @@ import stepper.verify.sweep as sweep_module  # noqa: E402
 import stepper.verify.fiatshamir as fiatshamir_module  # noqa: E402
 import stepper.verify.frames as frames_module  # noqa: E402
 import stepper.verify.glue_columns as glue_columns_module  # noqa: E402
+import stepper.verify.glue_texts as glue_texts_module  # noqa: E402
 from stepper.transcript.store import TranscriptWriter, append_note, open_events  # noqa: E402
 from stepper.transcript.store.reader import ReadLimits  # noqa: E402
 from stepper.verify.glue_columns import GlueColumns  # noqa: E402
@@ -1410,3 +1411,39 @@ def test_one_instance_breaking_the_glue_of_a_stretch_read_at_once_checks_as_the_
         assert code == 1 and any(periods)  # framed as rows before the squeezes were compared
     else:
         assert code == 2 and err
+
+
+@pytest.mark.parametrize("change", [None, "a name of its own run swapped for the one before's",
+                                    "an operator changed between the names", "a claim naming its own run's opening",
+                                    "a digit first in a name of the last text"])
+def test_texts_read_by_template_from_their_bytes_check_as_the_replay_when_one_breaks_the_pattern(
+        tmp_path, capsys, monkeypatch, change):
+    # 120 glued instances whose claim_expr and final_expr are read by template from their bytes (glue_texts):
+    # one text changed in the middle of a stretch (resealed: the writer would not know) reads otherwise than
+    # its neighbours; check must say what the replay says (the sweep gives up or reads that text apart)
+    path = tmp_path / "texts.sumtr"
+    write_pointed(path, count=120, pointed=False, seed=47)
+    old, new = {None: (b"", b""),
+                "a name of its own run swapped for the one before's": (b"(a64*b64 - c64)", b"(a64*b64 - c63)"),
+                "an operator changed between the names": (b"(a64*b64 - c64)", b"(a64*b64 + c64)"),
+                "a claim naming its own run's opening": (b"a63 + beta63*b63", b"a64 + beta63*b63"),
+                "a digit first in a name of the last text": (b"(a119*b119 - c119)", b"(a119*b119 - 9119)"),
+                }[change]
+    if change is not None:
+        data = path.read_bytes()
+        assert data.count(old) == 1
+        path.write_bytes(resealed(data.replace(old, new)))
+    placed: list[object] = []
+    real = glue_texts_module.placed_names
+
+    def spy(*args: object) -> object:
+        placed.append(real(*args))  # type: ignore[arg-type]
+        return placed[-1]
+
+    monkeypatch.setattr(glue_texts_module, "placed_names", spy)
+    code, _, _, swept = check_both(capsys, monkeypatch, path)
+    assert any(found is not None for found in placed)  # the stretches around the change read by template
+    if change is None:
+        assert code == 0 and swept is not None
+    else:
+        assert swept is None and code in (1, 2)
