@@ -97,6 +97,7 @@ class Checked:
         if self.diagnosis is not None:
             out["root_cause"] = self.diagnosis.root_cause_json()
             out["witness_findings"] = self.diagnosis.findings_json()
+            out["openings_unchecked"] = [o.to_json() for o in self.diagnosis.openings_unchecked]
         if self.glue_findings:
             out["glue_findings"] = [f.to_json() for f in self.glue_findings]
         return out

@@ -18,7 +18,7 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.verify.verdict import Failure
 
-__all__ = ["RootCause", "Diagnosis", "COMPRESSED_FORMS", "SOUNDNESS_CAVEAT"]
+__all__ = ["RootCause", "Diagnosis", "UncheckedOpening", "COMPRESSED_FORMS", "SOUNDNESS_CAVEAT"]
 
 COMPRESSED_FORMS = ("evals-no-1", "coeffs-no-linear")
 SOUNDNESS_CAVEAT = (
@@ -47,6 +47,21 @@ class RootCause:
 
 
 @dataclass(frozen=True, slots=True)
+class UncheckedOpening:
+    """An opening the witness could not be compared with: it has no table ``table`` with the
+    opened instance's 2^num_vars entries."""
+
+    instance: int
+    instance_name: str
+    name: str
+    table: str
+
+    def to_json(self) -> dict[str, Any]:
+        return {"instance": self.instance, "instance_name": self.instance_name, "name": self.name,
+                "table": self.table}
+
+
+@dataclass(frozen=True, slots=True)
 class Diagnosis:
     """The outcome of :func:`diagnose`: the root cause (None when the witness agrees
     with everything checked), the probe findings, where the verifier noticed, and
@@ -61,6 +76,7 @@ class Diagnosis:
     rounds_checked: int
     by_position: tuple[tuple[str, str], ...] = ()  # (witness name, transcript name) matched by position
     probes_skipped: str = ""  # why the bug-class probes did not run (tables too big to read whole), or ""
+    openings_unchecked: tuple[UncheckedOpening, ...] = ()  # openings of compared instances without a table
 
     def root_cause_json(self) -> dict[str, Any] | None:
         """The transcripts/EVENTS.md ``root_cause`` object, plus where the verifier noticed."""
@@ -123,6 +139,12 @@ class Diagnosis:
         for wname, tname in self.by_position:
             lines.append(f"Witness instance '{wname}' names no transcript instance; it was matched by position "
                          f"to '{tname}': make sure that is the instance you meant.")
+        if self.openings_unchecked:
+            shown = ", ".join(f"'{o.name}' (table '{o.table}') of instance '{o.instance_name}'"
+                              for o in self.openings_unchecked[:5])
+            more = f" and {len(self.openings_unchecked) - 5} more" if len(self.openings_unchecked) > 5 else ""
+            lines.append(f"Opening(s) {shown}{more} not compared: the witness has no table of that name with "
+                         "the instance's 2^num_vars entries.")
         if self.unchecked:
             names = ", ".join(f"'{n}'" for n in self.unchecked[:5])
             more = f" and {len(self.unchecked) - 5} more" if len(self.unchecked) > 5 else ""

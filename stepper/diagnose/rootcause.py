@@ -46,7 +46,7 @@ from dataclasses import replace
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Protocol
 
 from stepper.errors import InputError
-from stepper.diagnose.diagnosis import COMPRESSED_FORMS, SOUNDNESS_CAVEAT, Diagnosis, RootCause
+from stepper.diagnose.diagnosis import COMPRESSED_FORMS, SOUNDNESS_CAVEAT, Diagnosis, RootCause, UncheckedOpening
 from stepper.diagnose.folding import ChunkedFold
 from stepper.diagnose.honest import HonestRound, honest_rounds
 from stepper.diagnose.stored_table import table_rows, whole_table
@@ -172,8 +172,22 @@ def _diagnose(transcript: Transcript, fitted: Mapping[int, FittedInstance], repo
     unchecked = tuple(i.name for j, i in enumerate(transcript.instances) if j not in fitted)
     by_position = tuple((fit.witness_name, fit.name) for fit in fitted.values()
                         if fit.witness_name and fit.witness_name != fit.name)
+    last = index if cause is not None else len(transcript.instances) - 1  # the loop stopped at the cause
     return Diagnosis(field, cause, findings, report.first_failure, tuple(checked), unchecked, rounds_checked,
-                     by_position, skipped)
+                     by_position, skipped, _openings_without_table(transcript, fitted, shared, last))
+
+
+def _openings_without_table(transcript: Transcript, fitted: Mapping[int, FittedInstance], shared: Mapping[str, Any],
+                            last: int) -> tuple[UncheckedOpening, ...]:
+    """The openings of instances 0..``last`` (those compared) whose table the witness lacks:
+    not compared, which the report says rather than let agreement read as covering them."""
+    out: list[UncheckedOpening] = []
+    for index, inst in enumerate(transcript.instances[: last + 1]):
+        fit = fitted.get(index)
+        own = fit.tables if fit is not None else {}
+        out.extend(UncheckedOpening(index, inst.start.name, o.name, o.table) for o in inst.openings
+                   if _table_for(o, own, shared, inst) is None)
+    return tuple(out)
 
 
 def _too_big_for_probes(tables: Iterable[Any]) -> str:

@@ -388,3 +388,27 @@ def test_an_end_event_in_an_event_file_is_exit_2_as_in_import(tmp_path, capsys):
     code, out, err = check(capsys, str(path), "--json")
     assert code == 2 and out == ""
     assert err.count("\n") == 1 and "found `end`" in err and "line 4" in err
+
+
+def test_an_opening_the_witness_has_no_table_for_is_said_to_be_unchecked(tmp_path, capsys):
+    # one variable over BabyBear, table t = [3, 4] summed (claim 7); challenge 5 gives
+    # t~(5) = 3 + 5*(4 - 3) = 8 (hand-derived), the honest opening of t. The opening `spare`
+    # names a table the witness lacks: it cannot be compared, and a report that said
+    # "the witness agrees with everything" without naming it would read as if it had been
+    events = [{"type": "field", "name": "babybear"},
+              {"type": "instance", "name": "deck", "num_vars": 1, "degree": 1, "claim": 7},
+              {"type": "round", "evals": [3, 4]}, {"type": "challenge", "value": 5},
+              {"type": "final", "value": 8},
+              {"type": "opening", "name": "t", "value": 8},
+              {"type": "opening", "name": "spare", "table": "crates", "value": 1}]
+    path = write_jsonl(tmp_path / "run.jsonl", events)
+    witness = tmp_path / "witness.json"
+    witness.write_text(json.dumps({"instances": [{"name": "deck", "tables": {"t": [3, 4]}, "combine": "t"}]}))
+    code, out, _ = check(capsys, str(path), "--witness", str(witness), "--json")
+    report = json.loads(out)
+    assert code == 0 and report["root_cause"] is None
+    assert report["openings_unchecked"] == [{"instance": 0, "instance_name": "deck", "name": "spare",
+                                             "table": "crates"}]
+    assert conforming(report, "check")
+    code, out, _ = check(capsys, str(path), "--witness", str(witness))
+    assert code == 0 and "'spare' (table 'crates') of instance 'deck'" in out and "not compared" in out
