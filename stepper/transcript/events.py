@@ -307,6 +307,15 @@ class Sequencer(GlueRules, AnnotationRules):
         return self.pending_batch
 
     def _on_instance(self, payload: Mapping[str, Any]) -> Event:
+        if self._late is not None:  # the previous instance's final_expr names: its own errors say so
+            self._settle_late()
+        try:
+            return self._start_instance(payload)
+        except TranscriptError as err:  # about the instance this event starts, not the one before it
+            name = payload.get("name")
+            raise err.at(instance=name if name.__class__ is str else None) from None
+
+    def _start_instance(self, payload: Mapping[str, Any]) -> InstanceStart:
         name = payload.get("name", self)  # the default name is formatted only when there is no name
         name = f"instance {len(self.names)}" if name is self else checked_text(name, "instance name", self._fail)
         num_vars, degree = payload.get("num_vars"), payload.get("degree")
@@ -322,8 +331,6 @@ class Sequencer(GlueRules, AnnotationRules):
         if form not in ROUND_FORMS or (form == EQ_FACTORED and not self.glue):
             forms = ROUND_FORMS if self.glue else ROUND_FORMS[:-1]
             raise self._fail(f"expected `form` among {', '.join(forms)}, found {short(form)}")
-        if self._late is not None:
-            self._settle_late()
         claim_expr = final_expr = eq_point = None
         final_parsed: Expr | None = None
         if self.glue and ("claim_expr" in payload or "final_expr" in payload or "eq_point" in payload

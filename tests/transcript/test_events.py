@@ -3,6 +3,7 @@ reader's inline fast path giving exactly what feeding one payload at a time give
 
 from __future__ import annotations
 
+import copy
 import io
 import itertools
 import random
@@ -860,3 +861,32 @@ def test_plain_runs_give_the_state_and_claims_that_feeding_every_event_of_the_in
     # what follows is judged alike: a note naming an instance, then the next instance
     note = {"type": "note", "text": "gangway", "instance": "sailing-0740"}
     assert bulk.feed(note) == fed.feed(note)
+
+
+def test_an_error_in_an_instance_event_names_that_instance_not_the_one_before():
+    # the location used to carry the previous instance (the current one while the event is read):
+    # "instance 'deck': instance 'manifest': claim_expr names 'gamma' ..." named two instances
+    seq = Sequencer()
+    for payload in ({"type": "field", "name": "babybear"},
+                    {"type": "instance", "name": "deck", "num_vars": 1, "degree": 1, "claim": 7,
+                     "final_expr": "t"},
+                    {"type": "round", "evals": [3, 4]}, {"type": "challenge", "value": 5},
+                    {"type": "opening", "name": "t", "value": 8}):
+        seq.feed(payload)
+    for bad, words in (({"claim_expr": "t + gamma"}, "claim_expr names 'gamma'"),
+                       ({"order": "middle-first"}, "`order` among"),
+                       ({"claim": "-1"}, "canonical")):
+        trial = copy.deepcopy(seq)
+        with pytest.raises(TranscriptError, match=words) as caught:
+            trial.feed({"type": "instance", "name": "manifest", "num_vars": 1, "degree": 1, "claim": 8, **bad})
+        assert caught.value.where.instance == "manifest" and "'deck'" not in str(caught.value)
+    # the previous instance's own final_expr, settled when the next one starts, still names it
+    late = Sequencer()
+    for payload in ({"type": "field", "name": "babybear"},
+                    {"type": "instance", "name": "deck", "num_vars": 1, "degree": 1, "claim": 7,
+                     "final_expr": "crates"},
+                    {"type": "round", "evals": [3, 4]}, {"type": "challenge", "value": 5}):
+        late.feed(payload)
+    with pytest.raises(TranscriptError, match="final_expr names 'crates'") as caught:
+        late.feed({"type": "instance", "name": "manifest", "num_vars": 1, "degree": 1, "claim": 8})
+    assert caught.value.where.instance == "deck"
