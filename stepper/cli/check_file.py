@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, TypeVar
 
-from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, StepperError, UsageError
+from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, StepperError, TranscriptError, UsageError
 
 if TYPE_CHECKING:
     from stepper.transcript.records import Note
@@ -163,7 +163,12 @@ def check_file(name: str, args: argparse.Namespace, keep_all: bool, challenger: 
     try:
         if name == "-":
             return _check_stdin(args, keep_all, challenger)
-        return _check_path(name, name, args, keep_all, challenger)
+        try:
+            return _check_path(name, name, args, keep_all, challenger)
+        except TranscriptError as err:  # found while replaying (an expression that cannot be evaluated): say where
+            if err.where.file is None:
+                raise err.at(file=name) from None
+            raise
     finally:
         close = getattr(getattr(challenger, "plugin", None), "close", None)
         if own and callable(close):
@@ -181,7 +186,7 @@ def _check_stdin(args: argparse.Namespace, keep_all: bool, challenger: Any) -> C
         try:
             return _check_path(path, "-", args, keep_all, challenger)
         except StepperError as err:
-            if err.where.file == path:
+            if err.where.file == path or (err.where.file is None and isinstance(err, TranscriptError)):
                 raise err.at(file="<stdin>") from None
             raise
 

@@ -412,3 +412,15 @@ def test_an_opening_the_witness_has_no_table_for_is_said_to_be_unchecked(tmp_pat
     assert conforming(report, "check")
     code, out, _ = check(capsys, str(path), "--witness", str(witness))
     assert code == 0 and "'spare' (table 'crates') of instance 'deck'" in out and "not compared" in out
+
+
+def test_an_expression_that_cannot_be_evaluated_names_the_file_with_the_instance(tmp_path, capsys):
+    # t[1] of a one-element list is found only when the replay evaluates the claim_expr;
+    # that line named the instance and the key but not the file
+    events = [{"type": "field", "name": "babybear"}, {"type": "value", "name": "t", "value": [1]},
+              {"type": "instance", "name": "deck", "num_vars": 1, "degree": 1, "claim": 1, "claim_expr": "t[1]"},
+              {"type": "round", "evals": [0, 1]}, {"type": "challenge", "value": 5}]
+    path = write_jsonl(tmp_path / "run.jsonl", events)
+    code, out, err = check(capsys, str(path), "--json")
+    assert code == 2 and out == "" and err.count("\n") == 1
+    assert str(path) in err and "'deck'" in err and "claim_expr" in err and "'t[1]'" in err
