@@ -36,13 +36,28 @@ if TYPE_CHECKING:
     from stepper.field.expr_syntax import Template
 
 __all__ = ["holes_of", "placed_names", "PlacedNames", "Chained", "joined_columns", "placed_rows", "FixedTexts",
-           "TextColumn", "joined_texts"]
+           "TextColumn", "joined_texts", "row_strings"]
 
 _WORDS = re.compile(rb"[A-Za-z0-9_.]+")  # maximal runs of the characters a name may hold
 _NAME_CHARS = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_."
 _FIRST_CHARS = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz_"
 _CALL_WORDS = (b"eq", b"point", b"final")
 SAME, OWN, BEFORE = "same", "own", "before"  # where a hole's names stand (PlacedNames.place)
+
+
+def row_strings(rows: np.ndarray) -> list[str]:
+    """Each row of ``rows`` (one text's bytes per row, all of one length) as a string: one decode and
+    one split at the newlines put after the rows when every byte is ASCII and no text holds a newline
+    itself (the parser reads one as a space), else row by row. UnicodeDecodeError when a row is not UTF-8."""
+    import numpy as np
+
+    count, width = rows.shape
+    joined = np.full((count, width + 1), 0x0A, dtype=np.uint8)
+    joined[:, :width] = rows
+    raw = joined.tobytes()
+    if raw.isascii() and raw.count(b"\n") == count:
+        return raw.decode("ascii").split("\n")[:-1]
+    return [raw[at:at + width].decode() for at in range(0, len(raw), width + 1)]
 
 
 @lru_cache(maxsize=None)
@@ -101,12 +116,7 @@ class PlacedNames(Sequence[str]):
 
     def _all(self) -> list[str]:
         if self._names is None:
-            count, width = self.rows.shape
-            import numpy as np
-
-            joined = np.full((count, width + 1), 0x0A, dtype=np.uint8)
-            joined[:, :width] = self.rows
-            self._names = joined.tobytes().decode("ascii").split("\n")[:-1]
+            self._names = row_strings(self.rows)
         return self._names
 
     @overload
@@ -352,12 +362,7 @@ class FixedTexts(Sequence[str]):
         return self.rows[index].tobytes().decode("ascii")
 
     def __iter__(self) -> Iterator[str]:
-        import numpy as np
-
-        count, width = self.rows.shape
-        joined = np.full((count, width + 1), 0x0A, dtype=np.uint8)
-        joined[:, :width] = self.rows
-        return iter(joined.tobytes().decode("ascii").split("\n")[:-1])
+        return iter(row_strings(self.rows))
 
 
 class TextColumn(Sequence["str | None"]):

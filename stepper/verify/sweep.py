@@ -56,7 +56,7 @@ from stepper.transcript.store.reader import (
     HeldBackDigest, ReadLimits, appended_note, make_unpacker, read_header, unpacked,
 )
 from stepper.transcript.store.writer import END_MAX_BYTES, MAGIC
-from stepper.verify.glue_texts import FixedTexts, holes_of
+from stepper.verify.glue_texts import FixedTexts, holes_of, row_strings
 from stepper.verify.packed_runs import (
     GiveUp as _GiveUp, GluedRuns, Layout, PlainRuns, Run, RunBlock, layout_of, packed_ints,
 )
@@ -841,18 +841,11 @@ class _Sweeper:
 
 def _fixed_texts(u8: np.ndarray, starts: np.ndarray, begin: int, size: int) -> list[str]:
     """The UTF-8 texts of ``size`` bytes at ``begin`` from each of ``starts`` in ``u8`` (instances laid
-    out alike), decoded at once when they are all ASCII; UnicodeDecodeError when one is not UTF-8."""
+    out alike), decoded at once when they are all ASCII (:func:`~stepper.verify.glue_texts.row_strings`);
+    UnicodeDecodeError when one is not UTF-8."""
     import numpy as np
 
-    if not size:
-        return [""] * len(starts)
-    rows = np.empty((len(starts), size + 1), dtype=np.uint8)
-    rows[:, :size] = u8[starts[:, None] + (begin + np.arange(size))]
-    rows[:, size] = 0x0A  # a newline after each: one split cuts them
-    joined = rows.tobytes()
-    if joined.isascii() and joined.count(b"\n") == len(starts):
-        return joined.decode().split("\n")[:-1]
-    return [joined[i:i + size].decode() for i in range(0, len(joined), size + 1)]
+    return row_strings(u8[starts[:, None] + (begin + np.arange(size))])
 
 
 def _text_shapes(periods: np.ndarray, span: tuple[int, int], holes: tuple[Template, list[tuple[int, int]]] | None,

@@ -129,3 +129,11 @@ def test_texts_kept_as_bytes_read_as_the_strings_they_hold_and_slice_without_bei
     assert column[::2] == [None, "a1 + b1", "a3 + b3"]
     assert list(joined_texts([column, ["z"]])) == [*column, "z"]
     assert joined_texts([["a"], [None]]) == ["a", None]
+
+
+def test_texts_kept_as_bytes_that_hold_a_line_break_read_one_string_per_text():
+    # the parser takes a newline, a tab or a carriage return as a space (stepper.field.expr_syntax's grammar):
+    # a text laid out over two lines is still one text, so reading the rows gives one string per instance
+    texts = ["a1*b1\n- c1", "a2*b2\n- c2"]
+    fixed = FixedTexts(np.frombuffer("".join(texts).encode(), dtype=np.uint8).reshape(2, -1))
+    assert list(fixed) == texts and len(list(joined_texts([fixed, ["z"]]))) == 3
