@@ -28,7 +28,7 @@ import re
 from bisect import bisect_right
 from functools import lru_cache
 from itertools import chain
-from typing import TYPE_CHECKING, Callable, Iterator, Sequence, overload
+from typing import TYPE_CHECKING, Callable, Iterator, Sequence, TypeVar, overload
 
 if TYPE_CHECKING:
     import numpy as np
@@ -143,13 +143,16 @@ class PlacedNames(Sequence[str]):
         return self._all().count(value)  # type: ignore[arg-type]
 
 
-class Chained(Sequence[str]):
-    """Columns of names one after another, each a list or a :class:`PlacedNames` (``parts``, each with
-    the position of its first entry: ``starts``), read without joining them."""
+_Entry = TypeVar("_Entry")
+
+
+class _Parts(Sequence[_Entry]):
+    """Columns one after another (``parts``, each with the position of its first entry: ``starts``),
+    read without joining them: what :class:`Chained` and :class:`TextColumn` share."""
 
     __slots__ = ("parts", "starts")
 
-    def __init__(self, parts: list[Sequence[str]]) -> None:
+    def __init__(self, parts: list[Sequence[_Entry]]) -> None:
         self.parts = parts
         self.starts = [0]
         for part in parts:
@@ -157,6 +160,25 @@ class Chained(Sequence[str]):
 
     def __len__(self) -> int:
         return self.starts[-1]
+
+    def _entry(self, index: int) -> _Entry:
+        """Entry ``index`` (negative from the end), read from its part alone."""
+        if index < 0:
+            index += len(self)
+        if not 0 <= index < len(self):
+            raise IndexError(index)
+        part = bisect_right(self.starts, index) - 1
+        return self.parts[part][index - self.starts[part]]
+
+    def __iter__(self) -> Iterator[_Entry]:
+        return chain.from_iterable(self.parts)
+
+
+class Chained(_Parts[str]):
+    """Columns of names one after another, each a list or a :class:`PlacedNames`, read without joining
+    them."""
+
+    __slots__ = ()
 
     @overload
     def __getitem__(self, index: int) -> str: ...
@@ -167,15 +189,7 @@ class Chained(Sequence[str]):
     def __getitem__(self, index: int | slice) -> str | list[str]:
         if isinstance(index, slice):
             return list(self)[index]
-        if index < 0:
-            index += len(self)
-        if not 0 <= index < len(self):
-            raise IndexError(index)
-        part = bisect_right(self.starts, index) - 1
-        return self.parts[part][index - self.starts[part]]
-
-    def __iter__(self) -> Iterator[str]:
-        return chain.from_iterable(self.parts)
+        return self._entry(index)
 
     def count(self, value: object) -> int:
         return sum(part.count(value) for part in self.parts)
@@ -365,25 +379,16 @@ class FixedTexts(Sequence[str]):
         return iter(row_strings(self.rows))
 
 
-class TextColumn(Sequence["str | None"]):
+class TextColumn(_Parts["str | None"]):
     """Columns of texts (or None) one after another, lists or :class:`FixedTexts`, read without joining
     them; a slice of it is one too."""
 
-    __slots__ = ("parts", "starts")
-
-    def __init__(self, parts: list[Sequence[str | None]]) -> None:
-        self.parts = parts
-        self.starts = [0]
-        for part in parts:
-            self.starts.append(self.starts[-1] + len(part))
+    __slots__ = ()
 
     @property
     def longest(self) -> int:
         """The characters of the longest text."""
         return max((_longest(part) for part in self.parts), default=0)
-
-    def __len__(self) -> int:
-        return self.starts[-1]
 
     @overload
     def __getitem__(self, index: int) -> str | None: ...
@@ -398,15 +403,7 @@ class TextColumn(Sequence["str | None"]):
                 return list(self)[index]
             parts = [part[max(begin - low, 0):max(end - low, 0)] for part, low in zip(self.parts, self.starts)]
             return TextColumn([part for part in parts if len(part)])
-        if index < 0:
-            index += len(self)
-        if not 0 <= index < len(self):
-            raise IndexError(index)
-        part = bisect_right(self.starts, index) - 1
-        return self.parts[part][index - self.starts[part]]
-
-    def __iter__(self) -> Iterator[str | None]:
-        return chain.from_iterable(self.parts)
+        return self._entry(index)
 
 
 def _longest(texts: Sequence[str | None]) -> int:
