@@ -33,7 +33,7 @@ from stepper.field.field import Element, Field
 if TYPE_CHECKING:
     import numpy as np
 
-__all__ = ["ROUND_HEAD", "instance_spans", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES", "read_glue_periods",
+__all__ = ["ROUND_HEAD", "instance_spans", "pack_elements", "unpack_elements", "decoder_for", "pair_run", "PairLayout", "GlueRun", "GLUE_KINDS", "GLUE_CODES", "read_glue_periods", "name_byte_tables",
            "GlueColumnsRead", "read_glue_columns"]
 
 Decoder = Callable[[bytes], "tuple[Element, ...] | None"]
@@ -212,6 +212,19 @@ _NAME_BYTES = frozenset(b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz01
 _NAME_FIRST = frozenset(b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz_")
 
 
+@lru_cache(maxsize=1)
+def name_byte_tables() -> tuple[np.ndarray, np.ndarray]:
+    """Which bytes a name may hold, and which it may start with, as look-up tables over byte values
+    (read-only)."""
+    import numpy as np
+
+    allowed, starting = np.zeros(256, dtype=bool), np.zeros(256, dtype=bool)
+    allowed[list(_NAME_BYTES)] = True
+    starting[list(_NAME_FIRST)] = True
+    allowed.flags.writeable = starting.flags.writeable = False
+    return allowed, starting
+
+
 class GlueColumnsRead:
     """Glue events of one element packed as the writer packs them (what :class:`GlueRun` measures),
     read from their joined bytes as columns with numpy, no object per event but each name:
@@ -291,11 +304,9 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     spans = name_len + 1
     out_at = np.cumsum(spans) - spans
     picked = u8[np.repeat(name_at - out_at, spans) + np.arange(int(out_at[-1] + spans[-1]))]
-    allowed = np.zeros(256, dtype=bool)
-    allowed[list(_NAME_BYTES)] = True
+    allowed, starting = name_byte_tables()
+    allowed = allowed.copy()
     allowed[0xA5] = True
-    starting = np.zeros(256, dtype=bool)
-    starting[list(_NAME_FIRST)] = True
     if not allowed[picked].all() or not starting[picked[out_at]].all():
         return None
     picked[out_at + name_len] = 0x0A
@@ -333,10 +344,7 @@ def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | N
         return None
     name_columns = np.concatenate([np.arange(at, at + length) for at, length in zip(name_at, lengths)])
     picked = blobs[:, name_columns]
-    allowed = np.zeros(256, dtype=bool)
-    allowed[list(_NAME_BYTES)] = True
-    starting = np.zeros(256, dtype=bool)
-    starting[list(_NAME_FIRST)] = True
+    allowed, starting = name_byte_tables()
     heads = np.cumsum([0, *lengths[:-1]])
     if not allowed[picked].all() or not starting[picked[:, heads]].all():
         return None

@@ -26,9 +26,10 @@ from __future__ import annotations
 
 import re
 from bisect import bisect_right
-from functools import lru_cache
 from itertools import chain
 from typing import TYPE_CHECKING, Callable, Iterator, Sequence, TypeVar, overload
+
+from stepper.transcript.packed import name_byte_tables
 
 if TYPE_CHECKING:
     import numpy as np
@@ -39,7 +40,6 @@ __all__ = ["holes_of", "placed_names", "PlacedNames", "Chained", "joined_columns
            "TextColumn", "joined_texts", "row_strings"]
 
 _WORDS = re.compile(rb"[A-Za-z0-9_.]+")  # maximal runs of the characters a name may hold
-_NAME_CHARS = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_."
 _FIRST_CHARS = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz_"
 _CALL_WORDS = (b"eq", b"point", b"final")
 SAME, OWN, BEFORE = "same", "own", "before"  # where a hole's names stand (PlacedNames.place)
@@ -58,17 +58,6 @@ def row_strings(rows: np.ndarray) -> list[str]:
     if raw.isascii() and raw.count(b"\n") == count:
         return raw.decode("ascii").split("\n")[:-1]
     return [raw[at:at + width].decode() for at in range(0, len(raw), width + 1)]
-
-
-@lru_cache(maxsize=None)
-def _tables() -> tuple[np.ndarray, np.ndarray]:
-    """Which bytes a name may hold, and which it may start with, as look-up tables."""
-    import numpy as np
-
-    name_ok, first_ok = np.zeros(256, dtype=bool), np.zeros(256, dtype=bool)
-    name_ok[list(_NAME_CHARS)] = True
-    first_ok[list(_FIRST_CHARS)] = True
-    return name_ok, first_ok
 
 
 def holes_of(text: bytes) -> tuple[Template, list[tuple[int, int]]] | None:
@@ -252,7 +241,7 @@ def placed_names(periods: np.ndarray, holes: list[tuple[int, int]], glue_names: 
         else:
             out[1:] = periods[:-1, low:high]
             out[0] = picked[0, at:at + end - begin]
-    name_ok, first_ok = _tables()
+    name_ok, first_ok = name_byte_tables()
     if not np.array_equal(picked, expected) or not name_ok[picked].all() or not first_ok[picked[:, starts]].all():
         return None
     out_columns: list[PlacedNames] = []
