@@ -25,7 +25,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterator
 
 from stepper.app.proof_model import ProofModel
-from stepper.errors import InputError, StepperError
+from stepper.errors import InputError, StepperError, TranscriptError
 from stepper.transcript.model import Event, Header, Note
 
 if TYPE_CHECKING:
@@ -120,7 +120,7 @@ class TranscriptSource:
                 model.feed(record)
                 self._fed += 1
         except StepperError as err:
-            self._fail(model, str(err))
+            self._fail(model, str(_in_file(err, self.path)))
             return True
         return False
 
@@ -195,7 +195,7 @@ class TranscriptSource:
             self.problem = None
         except StepperError as err:
             self._close()
-            self.problem = str(err)
+            self.problem = str(_in_file(err, self.path))
             model.generation += 1
         except OSError as err:
             self._close()
@@ -257,6 +257,11 @@ def _final(stream: Any) -> bool:
     """No checked event can follow: a transcript whose end event was read. A JSON-lines
     event file has no end marker, so a prover may always append to it."""
     return bool(stream.kind == "transcript" and stream.completeness == "complete")
+
+
+def _in_file(err: StepperError, path: Path) -> StepperError:
+    """A replay's refusal (an expression that cannot be evaluated) located in the file, as `check` says it."""
+    return err.at(file=str(path)) if err.where.file is None and isinstance(err, TranscriptError) else err
 
 
 def _unreadable(err: OSError, path: Path) -> str:
