@@ -28,6 +28,7 @@ from tests.verify.test_sweep import (
     FIELDS, Knobs, Plain, check_both, element, event_spans, horner, resealed, round_poly, seal, sent_values,
     swept_report, write_pointed, write_transcript,
 )
+import stepper.verify.glue_texts as glue_texts
 from stepper.transcript.store import TranscriptWriter
 from stepper.transcript.store.writer import MAGIC
 
@@ -507,3 +508,50 @@ def test_a_final_of_an_instance_read_one_by_one_that_runs_in_between_push_out_is
         assert code == 0, (out, err)
     else:
         assert code == 2 and swept is None and "x.0" in err, (code, out, err)
+
+
+# ----- 10. every text of a stretch changed alike ------------------------------------------
+
+# write_pointed's texts without point(NAME): instance i's final_expr eq(tau) * (a<i>*b<i> - c<i>), its claim_expr
+# a<i-1> + beta<i-1>*b<i-1>; each change below rewrites one of them from instance 51 on, alike in every instance
+# (given i), so the stretches after it still read by template from their bytes, with a template of their own
+ALIKE_CHANGES: dict[str, tuple[str, Callable[[int], str], int]] = {
+    "the evaluation off: an opening in place of another": ("final_expr", lambda i: f"eq(tau) * (a{i}*b{i} - a{i})", 1),
+    "the evaluation off: the point of the instance before": (
+        "final_expr", lambda i: f"eq(point(sailing.{i - 1})) * (a{i}*b{i} - c{i})", 1),
+    "the same value written longer": ("final_expr", lambda i: f"eq(tau) * (a{i}*b{i}^1 - tau[0]*0 - c{i})", 0),
+    "a claim naming an opening sent after its instance": ("claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*b{i}", 2),
+    "a final_expr naming a later run's opening": ("final_expr", lambda i: f"eq(tau) * (a{i}*b{i} - c{i + 1})", 2),
+    "an element where a point is wanted": ("final_expr", lambda i: f"eq(a{i}) * (a{i}*b{i} - c{i})", 2),
+    "final(NAME) of an opening": ("claim_expr", lambda i: f"final(a{i - 1}) + beta{i - 1}*b{i - 1}", 2),
+    "an index into an element": ("claim_expr", lambda i: f"a{i - 1} + beta{i - 1}[0]*b{i - 1}", 2),
+}
+
+
+@pytest.mark.parametrize("change", list(ALIKE_CHANGES))
+def test_texts_changed_alike_in_every_instance_from_the_middle_on_check_as_the_replay(tmp_path, capsys, monkeypatch,
+                                                                                    change):
+    # the independent side is the event-by-event replay (check_both): its exit code is the one expected here
+    # (1: a glue check fails; 2: an expression the rules refuse; 0: the same values), and the sweep's output
+    # must be its output byte for byte
+    key, text, expected = ALIKE_CHANGES[change]
+    path = tmp_path / "texts.sumtr"
+    write_pointed(path, count=120, pointed=False, seed=47)
+    data = path.read_bytes()
+    for group in instance_events(data)[:50:-1]:  # from the last: the offsets before it stay put
+        _, start, end = group[0]
+        payload = msgpack.unpackb(data[start:end], raw=False)
+        payload[key] = text(int(payload["name"].removeprefix("sailing.")))
+        data = data[:start] + msgpack.packb(payload, use_bin_type=True) + data[end:]
+    path.write_bytes(resealed(data))
+    placed: list[object] = []
+    real = glue_texts.placed_names
+
+    def spy(*args: Any) -> Any:
+        placed.append(real(*args))
+        return placed[-1]
+
+    monkeypatch.setattr(glue_texts, "placed_names", spy)
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert code == expected and (swept is not None) == (expected == 0), (code, out, err)
+    assert any(found is not None for found in placed)  # some stretch read by template from its bytes
