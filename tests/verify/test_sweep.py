@@ -22,6 +22,7 @@ import random
 import sys
 from dataclasses import dataclass, field as dataclass_field
 from pathlib import Path
+from typing import Any
 
 import msgpack
 import numpy as np
@@ -343,6 +344,20 @@ def test_seal_gives_a_complete_verified_transcript(tmp_path):
 
 
 # ----- running both ways ------------------------------------------------------------------
+
+
+def returns_of(monkeypatch: pytest.MonkeyPatch, owner: object, name: str) -> list[Any]:
+    """What ``owner.name`` (a module's function or a class's method) returns at each call while the test
+    runs; the function itself still does its work."""
+    seen: list[Any] = []
+    real = getattr(owner, name)
+
+    def spy(*args: Any) -> Any:
+        seen.append(real(*args))
+        return seen[-1]
+
+    monkeypatch.setattr(owner, name, spy)
+    return seen
 
 
 class SweepSpy:
@@ -1295,15 +1310,7 @@ def test_glued_instances_laid_out_alike_are_taken_together_and_a_change_among_th
         data = path.read_bytes()
         assert data.count(old) == 1
         path.write_bytes(resealed(data.replace(old, new)))
-    alike: list[bool] = []
-    real = sweep_module._Sweeper._take_glued_alike
-
-    def spy(self: object) -> bool:
-        taken = real(self)  # type: ignore[arg-type]
-        alike.append(taken)
-        return taken
-
-    monkeypatch.setattr(sweep_module._Sweeper, "_take_glued_alike", spy)
+    alike = returns_of(monkeypatch, sweep_module._Sweeper, "_take_glued_alike")
     code, out, err, swept = check_both(capsys, monkeypatch, path)
     assert any(alike)
     if change is None:
@@ -1397,14 +1404,7 @@ def test_one_instance_breaking_the_glue_of_a_stretch_read_at_once_checks_as_the_
 
     monkeypatch.setattr(frames_module, "flat_glue_stream", spy)
     monkeypatch.setattr(fiatshamir_module, "flat_glue_stream", spy)
-    read: list[object] = []
-    real_read = glue_columns_module.read_glue_periods
-
-    def read_spy(*args: object) -> object:
-        read.append(real_read(*args))  # type: ignore[arg-type]
-        return read[-1]
-
-    monkeypatch.setattr(glue_columns_module, "read_glue_periods", read_spy)
+    read = returns_of(monkeypatch, glue_columns_module, "read_glue_periods")
     code, _, err, swept = check_both(capsys, monkeypatch, path)
     assert swept is None and any(stretch is not None for stretch in read)  # some stretch read at once
     if change in squeeze_at:
@@ -1433,14 +1433,7 @@ def test_texts_read_by_template_from_their_bytes_check_as_the_replay_when_one_br
         data = path.read_bytes()
         assert data.count(old) == 1
         path.write_bytes(resealed(data.replace(old, new)))
-    placed: list[object] = []
-    real = glue_texts_module.placed_names
-
-    def spy(*args: object) -> object:
-        placed.append(real(*args))  # type: ignore[arg-type]
-        return placed[-1]
-
-    monkeypatch.setattr(glue_texts_module, "placed_names", spy)
+    placed = returns_of(monkeypatch, glue_texts_module, "placed_names")
     code, _, _, swept = check_both(capsys, monkeypatch, path)
     assert any(found is not None for found in placed)  # the stretches around the change read by template
     if change is None:

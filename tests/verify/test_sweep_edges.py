@@ -25,7 +25,7 @@ import pytest
 
 import tests.verify.test_sweep as helpers
 from tests.verify.test_sweep import (
-    FIELDS, Knobs, Plain, check_both, element, event_spans, horner, resealed, round_poly, seal, sent_values,
+    FIELDS, Knobs, Plain, check_both, element, event_spans, horner, resealed, returns_of, round_poly, seal, sent_values,
     swept_report, write_pointed, write_transcript,
 )
 import stepper.verify.glue_texts as glue_texts
@@ -544,14 +544,7 @@ def test_texts_changed_alike_in_every_instance_from_the_middle_on_check_as_the_r
         payload[key] = text(int(payload["name"].removeprefix("sailing.")))
         data = data[:start] + msgpack.packb(payload, use_bin_type=True) + data[end:]
     path.write_bytes(resealed(data))
-    placed: list[object] = []
-    real = glue_texts.placed_names
-
-    def spy(*args: Any) -> Any:
-        placed.append(real(*args))
-        return placed[-1]
-
-    monkeypatch.setattr(glue_texts, "placed_names", spy)
+    placed = returns_of(monkeypatch, glue_texts, "placed_names")
     code, out, err, swept = check_both(capsys, monkeypatch, path)
     assert code == expected and (swept is not None) == (expected == 0), (code, out, err)
     assert any(found is not None for found in placed)  # some stretch read by template from its bytes
