@@ -338,7 +338,7 @@ class Sequencer(GlueRules, AnnotationRules):
             if self.defer_glue and form != EQ_FACTORED and "eq_point" not in payload:
                 claim_expr, final_expr = self._glue_text(payload, "claim_expr"), self._glue_text(payload, "final_expr")
             else:
-                claim_expr, final_expr, eq_point, final_parsed = self._instance_glue(payload, name, num_vars, degree,
+                claim_expr, final_expr, eq_point, final_parsed = self._instance_glue(payload, num_vars, degree,
                                                                                      form)
         start = self._open(name, num_vars, degree, claim, order, form, claim_expr, final_expr, eq_point)
         if final_parsed is not None:

@@ -33,7 +33,7 @@ class GlueRules(SequenceState):
     """The Sequencer's rules for the glue between sumchecks."""
 
     # ----- the glue -----------------------------------------------------------------
-    def _instance_glue(self, payload: Mapping[str, Any], name: str, num_vars: int, degree: int,
+    def _instance_glue(self, payload: Mapping[str, Any], num_vars: int, degree: int,
                        form: str) -> tuple[str | None, str | None, tuple[Element, ...] | str | None, Expr | None]:
         """The checked ``claim_expr``, ``final_expr`` and ``eq_point`` of an instance event, and the
         parsed final_expr."""
@@ -45,48 +45,47 @@ class GlueRules(SequenceState):
                 exprs.append(None)
                 continue
             text = checked_text(raw, key, self._fail)
-            parsed = self._checked_expr(text, key, name)
+            parsed = self._checked_expr(text, key)
             exprs.append(text)
         eq_raw = payload.get("eq_point")
         eq_point: tuple[Element, ...] | str | None = None
         if form == EQ_FACTORED:
             if degree < 1:
-                raise self._fail(f"expected degree >= 1 for the eq-factored instance {name!r}, found {degree}")
+                raise self._fail(f"expected degree >= 1 for an eq-factored instance, found {degree}")
             if eq_raw is None:
-                raise self._fail(f"expected `eq_point` with form eq-factored in instance {name!r}, found none")
+                raise self._fail("expected `eq_point` with form eq-factored, found none")
             if isinstance(eq_raw, str):
                 if eq_raw not in self.defined:
-                    raise self._fail(f"instance {name!r}: eq_point names {short(eq_raw)}, which no earlier value or "
+                    raise self._fail(f"eq_point names {short(eq_raw)}, which no earlier value or "
                                      "squeeze defines")
                 length = self.defined[eq_raw]
                 if length is None:
-                    raise self._fail(f"instance {name!r}: eq_point names {eq_raw!r}, one element; expected a list "
+                    raise self._fail(f"eq_point names {eq_raw!r}, one element; expected a list "
                                      f"of num_vars = {num_vars}")
                 eq_point = eq_raw
             else:
                 eq_point = self._elements(eq_raw, "eq_point")
                 length = len(eq_point)
             if length != num_vars:
-                raise self._fail(f"instance {name!r}: expected eq_point of num_vars = {num_vars} elements, "
+                raise self._fail(f"expected eq_point of num_vars = {num_vars} elements, "
                                  f"found {length}")
         elif eq_raw is not None:
-            raise self._fail(f"expected `eq_point` only with form eq-factored, found it with form {form!r} in "
-                             f"instance {name!r}")
+            raise self._fail(f"expected `eq_point` only with form eq-factored, found it with form {form!r}")
         return exprs[0], exprs[1], eq_point, parsed if exprs[1] is not None else None
 
-    def _checked_expr(self, text: str, key: str, name: str) -> Expr:
-        """The parsed ``key`` of the instance ``name``, its names checked against what came before."""
+    def _checked_expr(self, text: str, key: str) -> Expr:
+        """The parsed ``key`` of the instance being read, its names checked against what came before."""
         from stepper.field.expr import parse as parse_expr, parse_cached  # numpy with it: only for glue
 
         try:
             expr = parse_cached(text)
         except ExpressionError:
-            try:  # again, for a message naming the key and the instance
-                parse_expr(text, f"{key} of instance {name!r}")
+            try:  # again, for a message naming the key (the error's location names the instance)
+                parse_expr(text, key)
             except ExpressionError as err:
                 raise self._fail(err.message) from None
             raise
-        self._check_refs(expr, key, name)
+        self._check_refs(expr, key)
         return expr
 
     def _glue_text(self, payload: Mapping[str, Any], key: str) -> str | None:
@@ -102,7 +101,7 @@ class GlueRules(SequenceState):
         parsed = None
         for key, text in (("claim_expr", start.claim_expr), ("final_expr", start.final_expr)):
             if text is not None:
-                parsed = self._checked_expr(text, key, start.name)
+                parsed = self._checked_expr(text, key)
         if start.final_expr is not None and parsed is not None:
             self._expect_late(start, parsed)
 
@@ -112,27 +111,27 @@ class GlueRules(SequenceState):
         late = tuple(n for n in final_expr.references().values if n not in defined)
         self._late = (start, late) if late else None
 
-    def _check_refs(self, expr: Expr, key: str, name: str) -> None:
+    def _check_refs(self, expr: Expr, key: str) -> None:
         refs = expr.references()
         earlier = self.names
         for inst in (*refs.points, *refs.finals):
             if inst not in earlier:
-                raise self._fail(f"instance {name!r}: {key} names the instance {inst!r}, which is not an earlier "
+                raise self._fail(f"{key} names the instance {inst!r}, which is not an earlier "
                                  "instance")
         if key == "claim_expr":
             if refs.own_point:
-                raise self._fail(f"instance {name!r}: claim_expr uses eq(a) with the instance's own point, which is "
+                raise self._fail("claim_expr uses eq(a) with the instance's own point, which is "
                                  "not known before its rounds; write eq(a, b)")
             for value in refs.values:
                 if value not in self.defined:
-                    raise self._fail(f"instance {name!r}: claim_expr names {value!r}, which no earlier value, "
+                    raise self._fail(f"claim_expr names {value!r}, which no earlier value, "
                                      "squeeze or opening defines")
         for value in refs.lists:
             if self.defined.get(value, 0) is None:
-                raise self._fail(f"instance {name!r}: {key} uses {value!r} as a list, found one element")
+                raise self._fail(f"{key} uses {value!r} as a list, found one element")
         for value in refs.scalars:
             if self.defined.get(value) is not None:
-                raise self._fail(f"instance {name!r}: {key} uses {value!r} as one element, found a list of "
+                raise self._fail(f"{key} uses {value!r} as one element, found a list of "
                                  f"{self.defined[value]}")
 
     def _settle_late(self) -> None:
@@ -143,7 +142,7 @@ class GlueRules(SequenceState):
         missing = [n for n in late if n not in self.defined]
         if missing:
             raise TranscriptError(
-                f"instance {start.name!r}: final_expr names {missing[0]!r}, which nothing before the next instance "
+                f"final_expr names {missing[0]!r}, which nothing before the next instance "
                 "defines", self.source.but(event=self.count, instance=start.name))
 
     def _glue_name(self, payload: Mapping[str, Any], kind: str) -> str:
@@ -193,7 +192,7 @@ class GlueRules(SequenceState):
             cur = self._need_instance("opening")
         name = self._glue_name(payload, "opening")
         if self.rounds_done != cur.num_vars:
-            raise self._fail(f"expected an opening after all {cur.num_vars} rounds of instance {cur.name!r} "
+            raise self._fail(f"expected an opening after all {cur.num_vars} rounds of its instance "
                              f"(its challenge point), found it after {self.rounds_done}")
         table = payload.get("table", name)
         if table is not name and (table.__class__ is not str or GLUE_NAME_PATTERN.fullmatch(table) is None):

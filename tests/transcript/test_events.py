@@ -612,7 +612,7 @@ def test_an_extension_value_of_k_scalars_is_one_element_and_a_list_of_lists_is_a
     ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "claim_expr": "final(h)"}],
      "instance 'i': claim_expr names the instance 'h'"),
     ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "claim_expr": "2 +* 3"}],
-     "column 4 of the claim_expr of instance 'i'"),
+     "column 4 of the claim_expr$"),
     ([{"type": "instance", "name": "i", "num_vars": 1, "degree": 1, "claim": 0, "final_expr": "a"},
       {"type": "round", "evals": [0, 0]}, {"type": "challenge", "value": 1},
       {"type": "instance", "name": "j", "num_vars": 1, "degree": 1, "claim": 0}],
@@ -635,6 +635,7 @@ def test_glue_that_breaks_the_rules_is_refused_with_one_line_naming_it(payloads,
         for payload in payloads:
             seq.feed(payload)
     assert "\n" not in str(info.value)
+    assert str(info.value).count("instance 'i'") <= 1  # the location names the instance; the message does not again
 
 
 def test_final_expr_may_wait_for_openings_after_its_rounds_and_an_eq_point_may_name_a_squeeze():
@@ -880,6 +881,7 @@ def test_an_error_in_an_instance_event_names_that_instance_not_the_one_before():
         with pytest.raises(TranscriptError, match=words) as caught:
             trial.feed({"type": "instance", "name": "manifest", "num_vars": 1, "degree": 1, "claim": 8, **bad})
         assert caught.value.where.instance == "manifest" and "'deck'" not in str(caught.value)
+        assert str(caught.value).count("'manifest'") == 1  # named once, by the location, not again by the message
     # the previous instance's own final_expr, settled when the next one starts, still names it
     late = Sequencer()
     for payload in ({"type": "field", "name": "babybear"},
@@ -889,4 +891,4 @@ def test_an_error_in_an_instance_event_names_that_instance_not_the_one_before():
         late.feed(payload)
     with pytest.raises(TranscriptError, match="final_expr names 'crates'") as caught:
         late.feed({"type": "instance", "name": "manifest", "num_vars": 1, "degree": 1, "claim": 8})
-    assert caught.value.where.instance == "deck"
+    assert caught.value.where.instance == "deck" and str(caught.value).count("'deck'") == 1
