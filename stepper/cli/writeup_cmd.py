@@ -36,7 +36,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stepper.errors import UsageError
+    from stepper.errors import TranscriptError, UsageError
     from stepper.share.report import build, to_markdown
     from stepper.transcript.store import load
     from stepper.verify.replay import replay_transcript
@@ -49,7 +49,10 @@ def run(args: argparse.Namespace) -> int:
 
         refuse_existing(args.output, args.force)  # before the work, and again when the file is put in place
     transcript = load(args.file)
-    report = replay_transcript(transcript)
+    try:
+        report = replay_transcript(transcript)
+    except TranscriptError as err:  # found while replaying (an expression that cannot be evaluated): say where
+        raise (err.at(file=args.file) if err.where.file is None else err) from None
     diagnosis = None
     if args.witness:
         from stepper.diagnose.rootcause import diagnose

@@ -96,3 +96,18 @@ def test_the_written_report_gets_ordinary_file_permissions_not_the_private_mode_
     finally:
         os.umask(umask)
     assert out.stat().st_mode & 0o777 == 0o644
+
+
+def test_an_expression_that_cannot_be_evaluated_is_exit_2_naming_the_file_and_writes_nothing(tmp_path, capsys):
+    # t[1] of a one-element list is found only when the replay evaluates the claim_expr: the one line
+    # names the file as well as the instance and the key (as stepper check does)
+    events = [{"type": "field", "name": "babybear"}, {"type": "value", "name": "t", "value": [1]},
+              {"type": "instance", "name": "deck", "num_vars": 1, "degree": 1, "claim": 1, "claim_expr": "t[1]"},
+              {"type": "round", "evals": [0, 1]}, {"type": "challenge", "value": 5}]
+    run = tmp_path / "run.jsonl"
+    run.write_text("".join(json.dumps(event) + "\n" for event in events), encoding="utf-8")
+    out = tmp_path / "report.md"
+    assert main(["writeup", str(run), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and str(run) in err and "'deck'" in err and "claim_expr" in err
+    assert not out.exists()
