@@ -39,8 +39,8 @@ a soundness proof.
 from __future__ import annotations
 
 from dataclasses import dataclass, field as dc_field
-from itertools import chain, repeat
-from operator import attrgetter, itemgetter
+from itertools import chain, islice, repeat
+from operator import attrgetter, itemgetter, lt
 from typing import TYPE_CHECKING, Any, Mapping, Sequence
 
 import numpy as np
@@ -125,7 +125,11 @@ class StartColumns:
         return len(self.name)
 
     def take(self, chosen: Sequence[int]) -> StartColumns:
-        """The instances at ``chosen``, in that order."""
+        """The instances at ``chosen``, in that order. Positions in a row (every instance but the first,
+        whose claim has no claim_expr) are one slice of each column: a column of texts kept as bytes is
+        not read text by text."""
+        if len(chosen) and chosen[-1] - chosen[0] == len(chosen) - 1 and all(map(lt, chosen, islice(chosen, 1, None))):
+            return StartColumns(*(column[chosen[0]:chosen[-1] + 1] for column in self._columns()))
         return StartColumns(*([column[i] for i in chosen] for column in self._columns()))
 
     def __add__(self, other: StartColumns) -> StartColumns:

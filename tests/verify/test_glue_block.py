@@ -22,6 +22,7 @@ from stepper.field.field import get_field  # noqa: E402
 from stepper.field.spec import field_from_spec  # noqa: E402
 from stepper.transcript.model import InstanceStart  # noqa: E402
 from stepper.verify.glue_block import GlueChecks, StartColumns, Unsupported  # noqa: E402
+from stepper.verify.glue_texts import FixedTexts, TextColumn  # noqa: E402
 from stepper.verify.roundblock import block_kernel  # noqa: E402
 
 BABYBEAR = 2**31 - 2**27 + 1  # common practice, no source
@@ -293,7 +294,23 @@ def test_start_columns_hold_each_field_the_checks_read_as_the_records_hold_it():
     whole = StartColumns.of(starts)
     assert len(whole) == 6 and rows(whole) == expected(starts)
     assert rows(whole.take([4, 1])) == expected([starts[4], starts[1]])
+    for chosen in ([1, 2, 3, 4, 5], [2, 3], [0], [1, 3, 2], [2, 2, 3], [3, 4, 4]):  # in a row or not, repeats
+        assert rows(whole.take(chosen)) == expected([starts[i] for i in chosen]), chosen
     assert rows(whole.since(2)) == expected(starts[2:])
     assert rows(StartColumns.of(starts[:2]) + StartColumns.of(starts[2:])) == expected(starts)
     assert rows(StartColumns.joined([StartColumns.of(starts[:1]), StartColumns.of(starts[1:4]),
                                      StartColumns.of(starts[4:])])) == expected(starts)
+
+
+def test_positions_in_a_row_are_taken_as_slices_so_texts_kept_as_bytes_stay_bytes():
+    # the first block's claim_exprs (every instance but the first has one) are taken with no text read
+    import numpy as np
+
+    texts = [f"a{i} + beta{i}*b{i}" for i in range(10, 16)]
+    column = TextColumn([FixedTexts(np.frombuffer("".join(texts).encode(), dtype=np.uint8).reshape(6, -1))])
+    starts = StartColumns([f"deck.{i}" for i in range(6)], [2] * 6, [3] * 6, ["low-first"] * 6, list(range(6)),
+                          column, [None] * 6)
+    taken = starts.take([1, 2, 3, 4])
+    assert isinstance(taken.claim_expr, TextColumn) and list(taken.claim_expr) == texts[1:5]
+    assert list(taken.name) == ["deck.1", "deck.2", "deck.3", "deck.4"] and list(taken.claim) == [1, 2, 3, 4]
+    assert list(starts.take([4, 2]).claim_expr) == [texts[4], texts[2]]
