@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING, Iterator
 import msgpack
 
 from stepper.errors import InternalError, TranscriptError
-from stepper.transcript.jsonl import LineSplitter
+from stepper.transcript.jsonl import LineSplitter, refuse_reserved
 from stepper.transcript.store.reader import EventStream, ReadLimits
 
 if TYPE_CHECKING:
@@ -117,7 +117,7 @@ class FollowedStream(EventStream):
             else:
                 self._open_line = self._open_line or bool(chunk.strip())
             for item in splitter.feed(chunk):
-                yield from self._json_event(item.line, item.payload)
+                yield from self._json_event(item.line, item.payload, refuse_reserved)
             chunk = self._read()
         self.completeness = "incomplete" if self._open_line else "complete"
         self._dry = True

@@ -31,7 +31,7 @@ from __future__ import annotations
 import itertools
 import os
 from types import TracebackType
-from typing import TYPE_CHECKING, Any, BinaryIO, Iterator
+from typing import TYPE_CHECKING, Any, BinaryIO, Callable, Iterator
 
 import msgpack
 
@@ -315,7 +315,7 @@ class EventStream:
 
     # ----- JSON-lines event files ------------------------------------------------
     def _jsonl(self, first: bytes) -> Iterator[Event]:
-        from stepper.transcript.jsonl import LineSplitter  # only JSON-lines files need it
+        from stepper.transcript.jsonl import LineSplitter, refuse_reserved  # only JSON-lines files need them
 
         splitter = LineSplitter(self.where, self.limits.max_event_bytes)
         chunk = first
@@ -326,24 +326,23 @@ class EventStream:
                 raise TranscriptError(f"expected a file of at most {self.limits.max_total_bytes} bytes, found more",
                                       self.where)
             for item in splitter.feed(chunk):
-                yield from self._json_event(item.line, item.payload)
+                yield from self._json_event(item.line, item.payload, refuse_reserved)
             chunk = self._read()
         for item in splitter.finish():
-            yield from self._json_event(item.line, item.payload)
+            yield from self._json_event(item.line, item.payload, refuse_reserved)
         if splitter.dropped is not None:
             self.truncated_at = splitter.dropped
             self.completeness = "incomplete"
         else:
             self.completeness = "complete"
 
-    def _json_event(self, line: int, payload: Any) -> Iterator[Event]:
+    def _json_event(self, line: int, payload: Any, refuse_reserved: Callable[[object, Where], None]
+                    ) -> Iterator[Event]:
         where = self.where.but(line=line)
         if line == 1 and isinstance(payload, dict) and payload.get("type") == "header":
             self.header = read_header(payload, payload.get("format_version", FORMAT_VERSION), where)
             return
         if isinstance(payload, dict):
-            from stepper.transcript.jsonl import refuse_reserved  # loaded already by whoever split the lines
-
             refuse_reserved(payload.get("type"), where)  # `end` is the writer's: import and record refuse it too
         yield self._seq.feed(payload, where)
 
