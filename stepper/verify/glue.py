@@ -115,10 +115,10 @@ class GlueBook:
             return found is not _ABSENT, found
         self._scans += 1
         for names, values in reversed(self._waiting):  # the newest first, each from its end (what the next
-            start = max(0, len(names) - _TAIL)  # block's first expressions read was sent last)
-            for begin in (start, 0) if start else (0,):
+            tail = max(0, len(names) - _TAIL)  # block's first expressions read was sent last)
+            for begin, end in ((tail, len(names)), (0, tail)):
                 try:
-                    return True, values[names.index(name, begin, len(names) if begin else start or len(names))]
+                    return True, values[names.index(name, begin, end)]
                 except ValueError:
                     continue
         return False, None
