@@ -366,6 +366,16 @@ def measure(names: list[str], schedules: list[str], instances: int, rounds: int,
     return rows
 
 
+def chosen_fields(spec: str, script: str) -> list[str]:
+    """The field names of a comma-separated ``--fields`` value; exit 2 with one line naming any unknown."""
+    names = [n for n in spec.split(",") if n]
+    unknown = [n for n in names if n not in FIELDS]
+    if unknown:
+        print(f"{script}: expected --fields among {', '.join(FIELDS)}, found {', '.join(unknown)}", file=sys.stderr)
+        raise SystemExit(2)
+    return names
+
+
 def parse_args() -> argparse.Namespace:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--fields", default=",".join(FIELDS), help="comma-separated names (default: all)")
@@ -380,12 +390,7 @@ def parse_args() -> argparse.Namespace:
 def main() -> None:
     args = parse_args()
     started = time.perf_counter()
-    names = [n for n in args.fields.split(",") if n]
-    unknown = [n for n in names if n not in FIELDS]
-    if unknown:
-        print(f"check_fields.py: expected --fields among {', '.join(FIELDS)}, found {', '.join(unknown)}",
-              file=sys.stderr)
-        raise SystemExit(2)
+    names = chosen_fields(args.fields, "check_fields.py")
     schedules = list(BUILTIN_SCHEDULES) if args.schedule == "both" else [args.schedule]
     print(f"{args.instances} instances x {args.rounds} rounds, degree {DEGREE}; CPU seconds, fresh processes, "
           f"best of {args.repeat} interleaved")

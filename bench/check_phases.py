@@ -39,7 +39,7 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from check import _child, _child_env, decode_process  # noqa: E402  (same measuring helpers as bench/check.py)
-from check_fields import FIELDS, hashing_floor, write_transcript  # noqa: E402
+from check_fields import chosen_fields, hashing_floor, write_transcript  # noqa: E402
 
 from stepper.verify.fiatshamir import BUILTIN_SCHEDULES  # noqa: E402
 
@@ -126,12 +126,7 @@ def parse_args() -> argparse.Namespace:
 def main() -> None:
     args = parse_args()
     started = time.perf_counter()
-    names = [n for n in args.fields.split(",") if n]
-    unknown = [n for n in names if n not in FIELDS]
-    if unknown:
-        print(f"check_phases.py: expected --fields among {', '.join(FIELDS)}, found {', '.join(unknown)}",
-              file=sys.stderr)
-        raise SystemExit(2)
+    names = chosen_fields(args.fields, "check_phases.py")
     print(f"{args.instances} instances x {args.rounds} rounds, degree 3; CPU seconds of fresh processes, best and "
           f"median of {args.repeat} interleaved; a phase is the difference of two rows (so the noise of both)")
     with tempfile.TemporaryDirectory() as tmp:

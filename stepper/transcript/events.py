@@ -54,8 +54,8 @@ if TYPE_CHECKING:
     from stepper.field.shape import Element
     from stepper.transcript.model import Event
 
-__all__ = ["Sequencer", "to_payload", "plain_copy", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT", "MAX_NUM_VARS",
-           "MAX_DEGREE"]
+__all__ = ["Sequencer", "to_payload", "plain_copy", "longest_text", "MAX_VALUES", "MAX_SIZES", "MAX_TEXT",
+           "MAX_NUM_VARS", "MAX_DEGREE"]
 
 KNOWN_TYPES = ("field", "schedule", "batch", "instance", "round", "challenge", "final", "buckets", "note",
                "value", "squeeze", "opening")
@@ -430,7 +430,7 @@ class Sequencer(GlueRules, AnnotationRules):
         count = len(names)
         if (not count or not self.glue or not self.defer_glue or not self._prime_modulus
                 or len(claim_exprs) != count or len(final_exprs) != count
-                or max(_longest(claim_exprs), _longest(final_exprs)) > MAX_TEXT):
+                or max(longest_text(claim_exprs), longest_text(final_exprs)) > MAX_TEXT):
             return None
         values = self._bulk_claims(names, num_vars, degrees, claims)
         if values is None:
@@ -511,7 +511,7 @@ _HANDLERS: dict[str, Callable[[Sequencer, Mapping[str, Any]], Event]] = {
     kind: getattr(Sequencer, "_on_" + kind) for kind in KNOWN_TYPES}  # each known type's handler
 
 
-def _longest(texts: Sequence[str | None]) -> int:
+def longest_text(texts: Sequence[str | None]) -> int:
     """The characters of the longest of ``texts`` (None: no text); a column that knows it says so
     (``longest``: texts the whole-file pass keeps as bytes until read)."""
     longest = getattr(texts, "longest", None)

@@ -29,6 +29,7 @@ from bisect import bisect_right
 from itertools import chain
 from typing import TYPE_CHECKING, Callable, Iterator, Sequence, TypeVar, overload
 
+from stepper.transcript.events import longest_text
 from stepper.transcript.packed import name_byte_tables
 
 if TYPE_CHECKING:
@@ -187,12 +188,18 @@ class Chained(_Parts[str]):
 def joined_columns(columns: list[Sequence[str]]) -> Sequence[str]:
     """Columns of names one after another: a list when all are lists, else :class:`Chained` (no part
     made strings)."""
+    return _joined(columns, Chained)
+
+
+def _joined(columns: list[Sequence[_Entry]], chained: type[_Parts[_Entry]]) -> Sequence[_Entry]:
+    """Columns one after another: a list when all are lists, else ``chained`` of their parts (a column
+    already of that class gives its own parts), none of them read."""
     if all(column.__class__ is list for column in columns):
         return list(chain.from_iterable(columns))
-    parts: list[Sequence[str]] = []
+    parts: list[Sequence[_Entry]] = []
     for column in columns:
-        parts += column.parts if isinstance(column, Chained) else [column]
-    return Chained(parts)
+        parts += column.parts if isinstance(column, chained) else [column]
+    return chained(parts)
 
 
 def placed_names(periods: np.ndarray, holes: list[tuple[int, int]], glue_names: list[tuple[int, int]]
@@ -280,7 +287,7 @@ def placed_rows(column: Sequence[str], runs: np.ndarray, firsts: np.ndarray, nam
         if found is not None:
             if skip:
                 found = np.concatenate((np.full(1, -1, dtype=np.int64), found))
-            for begin, part in zip(_starts(parts), parts):
+            for begin, part in zip(column.starts if isinstance(column, Chained) else [0], parts):
                 if isinstance(part, PlacedNames) and part.place[0] != SAME:
                     checked = 1 if common[0] == BEFORE else 0  # a part's first name, sent before its stretch
                 else:
@@ -304,15 +311,6 @@ def placed_rows(column: Sequence[str], runs: np.ndarray, firsts: np.ndarray, nam
         rows[at:at + len(part)] = found
         at += len(part)
     return rows
-
-
-def _starts(parts: list[Sequence[str]]) -> list[int]:
-    """The position of each part's first entry."""
-    out, at = [], 0
-    for part in parts:
-        out.append(at)
-        at += len(part)
-    return out
 
 
 def _at_place(place: tuple[str, int], runs: np.ndarray, firsts: np.ndarray) -> np.ndarray | None:
@@ -377,7 +375,7 @@ class TextColumn(_Parts["str | None"]):
     @property
     def longest(self) -> int:
         """The characters of the longest text."""
-        return max((_longest(part) for part in self.parts), default=0)
+        return max((longest_text(part) for part in self.parts), default=0)
 
     @overload
     def __getitem__(self, index: int) -> str | None: ...
@@ -395,17 +393,7 @@ class TextColumn(_Parts["str | None"]):
         return self._entry(index)
 
 
-def _longest(texts: Sequence[str | None]) -> int:
-    longest = getattr(texts, "longest", None)
-    return int(longest) if longest is not None else max(map(len, filter(None, texts)), default=0)
-
-
 def joined_texts(columns: list[Sequence[str | None]]) -> Sequence[str | None]:
     """Columns of texts one after another: a list when all are lists, else a :class:`TextColumn` (no text
     made a string)."""
-    if all(column.__class__ is list for column in columns):
-        return list(chain.from_iterable(columns))
-    parts: list[Sequence[str | None]] = []
-    for column in columns:
-        parts += column.parts if isinstance(column, TextColumn) else [column]
-    return TextColumn(parts)
+    return _joined(columns, TextColumn)

@@ -924,4 +924,4 @@ class _Listing:
                                       run.claims, run.claim_texts, run.final_texts, shapes=run.shapes))  # type: ignore[union-attr]
         if loose:
             parts.append(StartColumns.of(loose))
-        return parts[0] if len(parts) == 1 else StartColumns.joined(parts)
+        return StartColumns.joined(parts)  # one part: itself
