@@ -4,11 +4,11 @@ A :class:`GlueTrail` is fed the ``value``, ``squeeze`` and ``opening`` records
 the model reads, in stream order, and keeps them by the instance they follow
 (``head`` before the first instance), together with the replay's glue verdicts:
 
-* ``link`` and ``evaluation`` are the replay's own :class:`~stepper.verify.results.GlueResult`
+* ``link`` and ``evaluation`` are the replay's own :class:`~stepper.verify.glue_results.GlueResult`
   records, taken from its report (:meth:`GlueTrail.settle`); nothing here evaluates
   an expression or compares a claim.
 * A squeeze's re-derived value and status are the replay's own
-  :class:`~stepper.verify.results.SqueezeResult`, one per squeeze in stream order, as the
+  :class:`~stepper.verify.glue_results.SqueezeResult`, one per squeeze in stream order, as the
   replay's ``feed`` returns them (:meth:`GlueTrail.took`); nothing here re-derives a
   squeeze.
 
@@ -28,7 +28,7 @@ from stepper.transcript.model import NamedValue, Opening, Squeeze
 
 if TYPE_CHECKING:
     from stepper.transcript.model import Glue
-    from stepper.verify.results import SqueezeResult
+    from stepper.verify.glue_results import SqueezeResult
 
 __all__ = ["GlueTrail", "SqueezeCheck", "GLUE_KINDS", "glue_kind", "names_in"]
 

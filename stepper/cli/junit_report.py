@@ -15,7 +15,8 @@ from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
     from stepper.cli.check_file import FileResult
-    from stepper.verify.verdict import Failure, Report
+    from stepper.verify.results import Failure
+    from stepper.verify.verdict import Report
 
 __all__ = ["junit_xml"]
 

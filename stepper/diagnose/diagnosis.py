@@ -16,7 +16,7 @@ from stepper.diagnose.probes import ProbeFinding
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
-    from stepper.verify.verdict import Failure
+    from stepper.verify.results import Failure
 
 __all__ = ["RootCause", "Diagnosis", "UncheckedOpening", "COMPRESSED_FORMS", "SOUNDNESS_CAVEAT"]
 

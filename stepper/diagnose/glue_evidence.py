@@ -36,7 +36,7 @@ if TYPE_CHECKING:
     from stepper.diagnose.probe_evidence import ProbeFinding
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceRecord, Transcript
-    from stepper.verify.verdict import Failure
+    from stepper.verify.results import Failure
 
 __all__ = ["glue_findings", "glue_before", "running_claims", "instance_point"]
 

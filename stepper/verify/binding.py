@@ -32,11 +32,11 @@ from stepper.transcript.records import (
     BatchDecl, ChallengeMsg, FieldDecl, FinalValue, InstanceStart, RoundMsg, ScheduleDecl, UnknownEvent,
 )
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
-from stepper.verify.verdict import Finding
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event
+    from stepper.verify.findings import Finding
 
 __all__ = ["Challenger", "History", "history_payload", "call_challenger", "parse_answer", "probe_binding",
            "glue_positions"]
@@ -253,6 +253,8 @@ def probe_binding(
 
 
 def _finding(kind: str, unbound: list[str], instance: int, name: str, round_: int) -> Finding:
+    from stepper.verify.findings import Finding  # an unbound message found: a passing check makes none
+
     listed = ", ".join(unbound)
     if kind == "instance" and "claim" in unbound:
         others = ", ".join(u for u in unbound if u != "claim")

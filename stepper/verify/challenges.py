@@ -23,10 +23,10 @@ from stepper.verify.fiatshamir import BUILTIN_SCHEDULES, Sha256Schedule
 from stepper.verify.schedules import schedule_for
 from stepper.transcript.records import FieldDecl, ScheduleDecl
 from stepper.verify.stateful import GuardedStateful, is_stateful
-from stepper.verify.verdict import Finding
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
+    from stepper.verify.findings import Finding
     from stepper.transcript.model import Event, InstanceStart, Squeeze
 
 __all__ = ["ChallengeSource", "GuardedPlugin", "guard_stateful", "PLUGIN_SECONDS_ENV", "DEFAULT_PLUGIN_SECONDS"]
@@ -169,6 +169,8 @@ class ChallengeSource:
         if self.challenger is None and decl.name in BUILTIN_SCHEDULES:
             self._start_builtin()
         elif self.challenger is None:
+            from stepper.verify.findings import Finding  # a schedule stepper does not know
+
             self.findings.append(Finding(
                 "challenges-unchecked", "info",
                 f"the transcript declares the schedule {decl.name!r}, which {_not_built_in(decl.name)}: "
@@ -199,6 +201,8 @@ class ChallengeSource:
         if self.stateful is not None and self.field is not None:
             return self.stateful.derive_squeeze(record.name, length, self.field, where or Where())
         if self.challenger is not None and not any(f.kind == "squeezes-unchecked" for f in self.findings):
+            from stepper.verify.findings import Finding  # a plug-in that derives round challenges only
+
             self.findings.append(Finding(
                 "squeezes-unchecked", "info",
                 f"the squeeze '{record.name}' (and any later one) was not re-derived: a function plug-in "

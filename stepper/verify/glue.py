@@ -30,10 +30,9 @@ from stepper.errors import ExpressionError, TranscriptError, Where
 from stepper.field.poly import lagrange_at, point_from_challenges
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 
-from stepper.verify.verdict import Failure
-
 if TYPE_CHECKING:
-    from stepper.verify.results import GlueResult, SqueezeResult
+    from stepper.verify.glue_results import GlueResult, SqueezeResult
+    from stepper.verify.results import Failure
     from stepper.field.expr import Expr, GlueScope
     from stepper.field.field import Element, Field
     from stepper.transcript.model import InstanceStart
@@ -257,7 +256,7 @@ def passing_link(field: Field, start: InstanceStart) -> GlueResult:
 
 
 def _link(field: Field, start: InstanceStart, text: str, expected: Element, found: Element) -> GlueResult:
-    from stepper.verify.results import GlueResult  # with the glue's first check: a file without glue makes none
+    from stepper.verify.glue_results import GlueResult  # with the glue's first check: a file without glue makes none
 
     ok = expected == found
     explanation = (f"the claim of instance '{start.name}' equals claim_expr {text}" if ok else
@@ -286,7 +285,7 @@ def passing_evaluation(field: Field, start: InstanceStart, reduced: Element) -> 
 
 
 def _evaluation(field: Field, start: InstanceStart, text: str, expected: Element, found: Element) -> GlueResult:
-    from stepper.verify.results import GlueResult
+    from stepper.verify.glue_results import GlueResult
 
     ok = expected == found
     explanation = (f"after round {start.num_vars} the reduced claim equals final_expr {text}" if ok else
@@ -309,10 +308,13 @@ class GlueDesk:
     def open_instance(self, field: Field, live: LiveInstance, ledger: InstanceLedger) -> None:
         """A new instance: held failures, its eq factor, its ``link`` check."""
         start = live.start
-        for held in self.held:
-            ledger.fail(live, Failure(start.index, start.name, 0, held.check, held.expected, held.found,
-                                      held.explanation))
-        self.held.clear()
+        if self.held:  # squeezes before the first instance failed
+            from stepper.verify.results import Failure
+
+            for held in self.held:
+                ledger.fail(live, Failure(start.index, start.name, 0, held.check, held.expected, held.found,
+                                          held.explanation))
+            self.held.clear()
         if start.eq_point is not None:
             live.eqf = EqFactor(field, self.book.point_value(start.eq_point, Where(instance=start.name)),
                                 start.order)
@@ -320,6 +322,8 @@ class GlueDesk:
             link = link_result(field, self.book, start)
             live.link = link
             if link.status == "fail":
+                from stepper.verify.results import Failure  # a failing check only
+
                 ledger.fail(live, Failure(start.index, start.name, 0, "link", link.expected,  # type: ignore[arg-type]
                                           link.found, link.explanation))  # type: ignore[arg-type]
         if start.num_vars == 0 and start.final_expr is not None:  # no rounds: the claim is the reduced claim
@@ -342,7 +346,7 @@ class GlueDesk:
 
     def _check_squeeze(self, field: Field, record: Squeeze, derived: Any, deriver: str, live: LiveInstance | None,
                        ledger: InstanceLedger) -> SqueezeResult:
-        from stepper.verify.results import SqueezeResult
+        from stepper.verify.glue_results import SqueezeResult
 
         where = (live.start.index, live.seen) if live is not None else (None, 0)
         if derived is None:
@@ -353,6 +357,8 @@ class GlueDesk:
                 part = f" (element {i})" if record.listed else ""
                 text = (f"the squeeze '{record.name}'{part} is {field.fmt(s)}, but {deriver} derives "
                         f"{field.fmt(d)}: the prover drew it from a different transcript state")
+                from stepper.verify.results import Failure  # a failing check only
+
                 if live is not None:
                     start = live.start
                     ledger.fail(live, Failure(start.index, start.name, live.seen, "squeeze", d, s, text))
@@ -372,6 +378,8 @@ class GlueDesk:
         result = evaluation_result(field, self.book, start, live.challenges, live.claim)
         live.evaluation = result
         if result.status == "fail":
+            from stepper.verify.results import Failure  # a failing check only
+
             ledger.fail(live, Failure(start.index, start.name, start.num_vars, "evaluation",
                                       result.expected, result.found, result.explanation))  # type: ignore[arg-type]
 

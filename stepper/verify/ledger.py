@@ -16,12 +16,12 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any
 
 from stepper.verify.soundness import InstanceBound, SoundnessSummary
-from stepper.verify.verdict import Failure, InstanceSummary
+from stepper.verify.verdict import InstanceSummary
 
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import BatchDecl, InstanceStart, RoundMsg
-    from stepper.verify.results import BatchResult, RoundResult
+    from stepper.verify.results import BatchResult, Failure, RoundResult
     from stepper.verify.verdict import FinalResult
 
 __all__ = ["LiveInstance", "InstanceLedger", "combine_batch"]

@@ -42,7 +42,7 @@ from stepper.transcript.records import (
 )
 from stepper.transcript.glue_records import NamedValue, Opening, Squeeze
 from stepper.verify.glue import GlueDesk, passing_evaluation, passing_link
-from stepper.verify.verdict import Failure, FinalResult, Finding, Report
+from stepper.verify.verdict import FinalResult, Report
 from stepper.verify.verdict import PASSING_REPLAY_WARNING as PASSING_REPLAY_WARNING
 from stepper.verify.text import batch_text, final_text
 from stepper.verify.round_checks import NOT_REDERIVED, RoundDesk
@@ -54,8 +54,7 @@ if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Event, Transcript
 
-__all__ = ["Replay", "replay_transcript", "transcript_events", "FinalResult",
-           "Report", "Failure", "Finding"]
+__all__ = ["Replay", "replay_transcript", "transcript_events", "FinalResult", "Report"]
 
 
 class Replay:
@@ -260,7 +259,7 @@ class Replay:
         self._live = live
         self._ledger.opened(start)
         if batch is not None:
-            from stepper.verify.results import BatchResult  # batched claims only
+            from stepper.verify.results import BatchResult, Failure  # batched claims only
 
             combined = combine_batch(field, batch)
             ok = combined == field.lift(start.claim)
@@ -328,6 +327,8 @@ class Replay:
                              final_text(field, start, reduced, msg.value, ok))
         live.final = result
         if not ok:
+            from stepper.verify.results import Failure  # a failing check only
+
             self._ledger.fail(live, Failure(start.index, start.name, start.num_vars, "final", msg.value, reduced,
                                             result.explanation))
         self._source.log(msg)

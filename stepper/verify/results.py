@@ -1,7 +1,7 @@
-"""The replay's results of single events: a round (:class:`RoundResult`), a batched claim
-(:class:`BatchResult`), a ``link`` or ``evaluation`` check (:class:`GlueResult`) and a squeeze
-(:class:`SqueezeResult`). The final value's result and the proof's report are in
-:mod:`stepper.verify.verdict`.
+"""The replay's results of single events, a round (:class:`RoundResult`) and a batched claim
+(:class:`BatchResult`), and the first failed check of a proof (:class:`Failure`). The results
+of ``link`` and ``evaluation`` checks and of squeezes are in :mod:`stepper.verify.glue_results`,
+the final value's result and the proof's report in :mod:`stepper.verify.verdict`.
 
 A check that passes and keeps no round detail (human ``stepper check``) makes none of these,
 and a frozen dataclass costs about half a millisecond of CPU to create at import (its methods
@@ -12,12 +12,12 @@ Every record is frozen and holds canonical field elements.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Literal, Union
+from typing import TYPE_CHECKING, Literal, Union
 
 if TYPE_CHECKING:
     from stepper.field.field import Element
 
-__all__ = ["Status", "Value", "RoundResult", "BatchResult", "GlueResult", "SqueezeResult"]
+__all__ = ["Status", "Value", "RoundResult", "BatchResult", "Failure"]
 
 Status = Literal["pass", "fail", "pending"]
 Value = Union[int, tuple[int, ...], None]  # an element, or a count (checks whose values are counts)
@@ -74,32 +74,13 @@ class BatchResult:
 
 
 @dataclass(frozen=True, slots=True)
-class GlueResult:
-    """A ``link`` or ``evaluation`` check: ``expected`` is the expression's value,
-    ``found`` the claim (link) or the reduced claim after the last round (evaluation);
-    ``expr`` the expression's text."""
+class Failure:
+    """The first failed check of the proof (``round`` 0 for claim-level checks such as ``batch``)."""
 
     instance: int
     instance_name: str
     round: int
     check: str
-    expr: str
-    expected: Element
-    found: Element
-    status: str
-    explanation: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class SqueezeResult:
-    """A ``squeeze`` as sent (``found``: an element, or a tuple for a list) and as the challenge
-    source re-derives it (``expected``, the same shape; None when nothing re-derives it, status
-    ``unchecked``). ``instance`` is the instance it follows (None before the first) and ``round``
-    the rounds that instance had when it arrived."""
-
-    instance: int | None
-    name: str
-    round: int
-    found: Any
-    expected: Any
-    status: str  # pass, fail or unchecked
+    expected: Value
+    found: Value
+    explanation: str

@@ -24,7 +24,6 @@ from stepper.errors import InputError, Where
 from stepper.field.lagrange import evaluate_round
 from stepper.field.poly import RoundPoly
 from stepper.verify.text import round_text
-from stepper.verify.verdict import Failure
 
 if TYPE_CHECKING:
     from stepper.verify.results import RoundResult
@@ -132,6 +131,8 @@ class RoundDesk:
         result = self._result(field, live, round_msg, evals, recovered, recovered_value, check, expected, found,
                               challenge, rederived, claim_out, after)  # type: ignore[arg-type]
         if check is not None:
+            from stepper.verify.results import Failure  # imported with RoundResult by _result
+
             failure = Failure(start.index, start.name, k, check, expected, found,  # type: ignore[arg-type]
                               result.explanation)
             self._ledger.fail(live, failure)

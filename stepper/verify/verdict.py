@@ -1,7 +1,9 @@
 """What a verifier replay returns: the final result of each instance, the proof-level
-:class:`Report`, and its JSON form (transcripts/EVENTS.md, check contract). The results of
-single rounds, batched claims, glue checks and squeezes are in :mod:`stepper.verify.results`,
-which a check that passes without keeping detail never loads.
+:class:`Report`, and its JSON form (transcripts/EVENTS.md, check contract). What a passing
+check without kept detail never makes lives elsewhere, so that such a check never loads it:
+the results of single rounds and batched claims and the first failure in
+:mod:`stepper.verify.results`, the results of glue checks and squeezes in
+:mod:`stepper.verify.glue_results`, findings in :mod:`stepper.verify.findings`.
 
 Every record is frozen and holds canonical field elements; JSON turns each
 element into a decimal string (``"42"``; an extension element as its
@@ -17,7 +19,9 @@ from typing import TYPE_CHECKING, Any, Literal, Union
 if TYPE_CHECKING:
     from stepper.field.field import Element, Field
     from stepper.transcript.model import Opening
-    from stepper.verify.results import BatchResult, GlueResult, RoundResult, SqueezeResult, Status, Value
+    from stepper.verify.findings import Finding
+    from stepper.verify.glue_results import GlueResult, SqueezeResult
+    from stepper.verify.results import BatchResult, Failure, RoundResult, Status, Value
     from stepper.verify.soundness import SoundnessSummary
 
     Result = Union[RoundResult, "FinalResult", BatchResult, SqueezeResult]  # what Replay.feed returns
@@ -25,8 +29,6 @@ if TYPE_CHECKING:
 __all__ = [
     "Verdict",
     "FinalResult",
-    "Failure",
-    "Finding",
     "InstanceSummary",
     "Report",
     "PASSING_REPLAY_WARNING",
@@ -54,35 +56,6 @@ class FinalResult:
     expected: Value = None
     found: Value = None
     explanation: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class Failure:
-    """The first failed check of the proof (``round`` 0 for claim-level checks such as ``batch``)."""
-
-    instance: int
-    instance_name: str
-    round: int
-    check: str
-    expected: Value
-    found: Value
-    explanation: str
-
-
-@dataclass(frozen=True, slots=True)
-class Finding:
-    """Something a person should know that is not a failed check (e.g. a weak
-    Fiat-Shamir binding). ``severity`` is ``high``, ``medium`` or ``info``."""
-
-    kind: str
-    severity: str
-    message: str
-    instance: int | None = None
-    round: int | None = None
-
-    def to_json(self) -> dict[str, Any]:
-        return {"kind": self.kind, "severity": self.severity, "message": self.message,
-                "instance": self.instance, "round": self.round}
 
 
 @dataclass(frozen=True, slots=True)

@@ -141,7 +141,7 @@ def test_every_squeeze_shown_is_the_replays_own_result_in_stream_order():
     """The model re-derives nothing: each squeeze's value and status are the replay's."""
     from stepper.transcript.model import Squeeze
     from stepper.verify.replay import Replay
-    from stepper.verify.results import SqueezeResult
+    from stepper.verify.glue_results import SqueezeResult
 
     model = opened(SHIPPED / "ferries-fingerprint.sumtr")
     records = [r for r in model.records if type(r).__name__ != "Note"]

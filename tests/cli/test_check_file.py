@@ -103,8 +103,11 @@ _NEVER_ON_A_PASSING_CHECK = (
 
 @pytest.mark.parametrize("sweep", ["on", None])
 @pytest.mark.parametrize("sample, also", [
-    ("samples/boarding-jsonl.sumtr", ("stepper.verify.results",)),  # no glue: no round, glue or squeeze result
-    ("ferries/ferries-honest.sumtr", ()),  # glue expressions: its link and evaluation results are kept
+    # no glue: no round, batch, glue or squeeze result, no failure, no finding
+    ("samples/boarding-jsonl.sumtr", ("stepper.verify.results", "stepper.verify.glue_results",
+                                      "stepper.verify.findings")),
+    # a batch and glue expressions: its batch, link and evaluation results are kept; still no finding
+    ("ferries/ferries-honest.sumtr", ("stepper.verify.findings",)),
 ])
 def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_library(sweep, sample, also):
     # the start-up of every check pays for each module it imports (bench/startup.py): these are

@@ -278,7 +278,7 @@ def _squeeze_results(events: list[dict], **replay_options: object) -> list:
     """The squeeze results the replay's ``feed`` returns for a stream of events, in order."""
     from stepper.transcript.events import Sequencer
     from stepper.verify.replay import Replay
-    from stepper.verify.results import SqueezeResult
+    from stepper.verify.glue_results import SqueezeResult
 
     seq, replay = Sequencer(), Replay(**replay_options)  # type: ignore[arg-type]
     out = []

@@ -5,7 +5,7 @@ from __future__ import annotations
 from stepper.field.field import NAMED_PRIMES, get_field
 from stepper.verify.ledger import InstanceLedger, LiveInstance, combine_batch
 from stepper.transcript.model import BatchDecl, InstanceStart
-from stepper.verify.verdict import Failure
+from stepper.verify.results import Failure
 
 BABYBEAR = NAMED_PRIMES["babybear"]
 
