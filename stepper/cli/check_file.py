@@ -13,7 +13,6 @@ import importlib.util
 import os
 import sys
 from dataclasses import dataclass
-from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, TypeVar
 
 from stepper.errors import EXIT_INCOMPLETE, EXIT_OK, EXIT_REJECT, StepperError, TranscriptError, UsageError
@@ -22,7 +21,7 @@ if TYPE_CHECKING:
     from stepper.transcript.records import Note
     from stepper.verify.verdict import Report
 
-__all__ = ["Checked", "FileResult", "check_file", "load_challenger", "make_challenger", "strict_reasons", "exit_code",
+__all__ = ["Checked", "check_file", "load_challenger", "make_challenger", "strict_reasons", "exit_code",
            "colour_wanted"]
 
 _T = TypeVar("_T")
@@ -35,6 +34,8 @@ def load_challenger(spec: str) -> Callable[..., Any]:
         raise UsageError(f"expected --challenges MODULE:FUNCTION, found {spec!r}")
     try:
         if module_part.endswith(".py") or os.sep in module_part or "/" in module_part:
+            from pathlib import Path  # a plug-in file: a check without one has no use for pathlib
+
             path = Path(module_part)
             if not path.is_file():
                 raise UsageError(f"expected a Python file for --challenges, found no file {module_part!r}")
@@ -101,37 +102,6 @@ class Checked:
         if self.glue_findings:
             out["glue_findings"] = [f.to_json() for f in self.glue_findings]
         return out
-
-
-@dataclass(frozen=True, slots=True)
-class FileResult:
-    """One file's outcome: its exit code, and either what the check found or why it could not run."""
-
-    name: str
-    code: int
-    checked: Checked | None
-    error: str | None
-
-    def detail(self) -> str:
-        """What the file's line says after its name."""
-        if self.checked is None:
-            return self.error or ""
-        if self.checked.strict and self.checked.report.first_failure is None:
-            return "strict: " + "; ".join(self.checked.strict)
-        report = self.checked.report
-        failure = report.first_failure
-        if failure is not None:
-            where = "its claim" if failure.round == 0 else f"round {failure.round}"
-            values = ""
-            if failure.expected is not None or failure.found is not None:
-                from stepper.verify.verdict import COUNT_CHECKS
-
-                fmt = str if failure.check in COUNT_CHECKS else report.fmt
-                values = f": expected {fmt(failure.expected)}, found {fmt(failure.found)}"
-            return f"instance #{failure.instance} '{failure.instance_name}', {where}, check {failure.check}{values}"
-        if report.verdict == "incomplete":
-            return "the transcript stops early; every round present passed"
-        return f"{report.instance_count} instance(s), every check passed; challenges {report.challenges}"
 
 
 def make_challenger(args: argparse.Namespace) -> Any:

@@ -17,7 +17,6 @@ lives in :mod:`stepper.field.spec`.
 
 from __future__ import annotations
 
-import random
 from functools import cached_property
 from typing import TYPE_CHECKING, Any, Callable, TypeVar
 
@@ -26,6 +25,8 @@ from stepper.errors import FieldError
 from stepper.field.admit import is_irreducible, is_prime
 
 if TYPE_CHECKING:
+    import random
+
     import numpy as np
 
     from stepper.field.kernels import Kernel

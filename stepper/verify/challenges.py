@@ -11,7 +11,6 @@ for the built-in schedule; the plug-in history grows with the proof.
 from __future__ import annotations
 
 import os
-import threading
 import time
 from typing import TYPE_CHECKING, Any, Callable
 
@@ -51,7 +50,8 @@ class GuardedPlugin:
         self.seconds = seconds if seconds is not None else _seconds_from_environment()
 
     def __call__(self, history: Any) -> Any:
-        import signal  # only a plug-in's calls need it
+        import signal  # only a plug-in's calls need these two
+        import threading
 
         timed = (self.seconds > 0 and hasattr(signal, "setitimer")
                  and threading.current_thread() is threading.main_thread())
