@@ -11,14 +11,14 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from dataclasses import dataclass
 from typing import Any
 
-from stepper.cli.check_file import Checked, check_file, colour_wanted
+from stepper.cli.check_file import check_file, colour_wanted
+from stepper.cli.file_result import FileResult
 from stepper.cli.debug import show_traceback_if_asked
 from stepper.errors import EXIT_INCOMPLETE, EXIT_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_REJECT, StepperError
 
-__all__ = ["FileResult", "check_many", "most_severe", "SEVERITY"]
+__all__ = ["check_many", "most_severe", "SEVERITY"]
 
 # exit code -> rank; the run exits with the highest-ranked code among its files
 SEVERITY = {EXIT_OK: 0, EXIT_INCOMPLETE: 1, EXIT_REJECT: 2, EXIT_INPUT: 3, EXIT_INTERNAL: 4}
@@ -26,37 +26,6 @@ _WORD = {EXIT_OK: ("accepted", "green"), EXIT_REJECT: ("REJECTED", "red"), EXIT_
          EXIT_INPUT: ("UNUSABLE", "red"), EXIT_INTERNAL: ("BUG", "red")}
 _PAINT = {"green": "32", "red": "31", "yellow": "33", "dim": "2"}
 CAUTION = "A passing replay is evidence about one run, not a soundness proof of the protocol."
-
-
-@dataclass(frozen=True, slots=True)
-class FileResult:
-    """One file's outcome: its exit code, and either what the check found or why it could not run."""
-
-    name: str
-    code: int
-    checked: Checked | None
-    error: str | None
-
-    def detail(self) -> str:
-        """What the file's line says after its name."""
-        if self.checked is None:
-            return self.error or ""
-        if self.checked.strict and self.checked.report.first_failure is None:
-            return "strict: " + "; ".join(self.checked.strict)
-        report = self.checked.report
-        failure = report.first_failure
-        if failure is not None:
-            where = "its claim" if failure.round == 0 else f"round {failure.round}"
-            values = ""
-            if failure.expected is not None or failure.found is not None:
-                from stepper.verify.verdict import COUNT_CHECKS
-
-                fmt = str if failure.check in COUNT_CHECKS else report.fmt
-                values = f": expected {fmt(failure.expected)}, found {fmt(failure.found)}"
-            return f"instance #{failure.instance} '{failure.instance_name}', {where}, check {failure.check}{values}"
-        if report.verdict == "incomplete":
-            return "the transcript stops early; every round present passed"
-        return f"{report.instance_count} instance(s), every check passed; challenges {report.challenges}"
 
 
 def most_severe(codes: list[int]) -> int:

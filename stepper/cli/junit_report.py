@@ -14,7 +14,7 @@ import xml.etree.ElementTree as ET
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from stepper.cli.check_many import FileResult
+    from stepper.cli.file_result import FileResult
     from stepper.verify.results import Failure
     from stepper.verify.verdict import Report
 
