@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import contextlib
 import os
-import tempfile
 from typing import IO, Any, Iterator
 
 from stepper.errors import InputError, UsageError, Where
@@ -45,6 +44,8 @@ def write_failed(err: OSError, path: str, what: str = "the output") -> InputErro
 
 def temp_beside(path: str, binary: bool = True) -> tuple[IO[Any], str]:
     """A new temporary file in ``path``'s folder, open for writing, and its name."""
+    import tempfile  # a file is written here: a command that only reads (check) never loads it
+
     folder = os.path.dirname(os.path.abspath(path))
     handle, temp = tempfile.mkstemp(prefix=f".{os.path.basename(path)}.", suffix=".partial", dir=folder)
     try:
