@@ -129,6 +129,28 @@ def test_a_passing_check_loads_neither_the_fold_nor_the_diagnosis_nor_any_heavy_
     assert proc.stdout.strip().splitlines()[-1] == "0 []", proc.stdout + proc.stderr  # accepted, nothing loaded
 
 
+def test_a_passing_check_in_an_interpreter_without_site_loads_no_standard_module_only_other_paths_use():
+    # `site` may import pathlib, tempfile, random or threading before stepper starts (an editable
+    # install's finder imports pathlib), which would hide stepper's own imports of them: started with
+    # -S, the interpreter has only what stepper imports. pathlib serves a --challenges file, tempfile
+    # (and random, which it imports) a file being written, threading a plug-in's time limit
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    watched = ("pathlib", "tempfile", "random", "threading")
+    code = ("import sys\nfrom stepper.cli.main import main\n"
+            "code = main(['check', sys.argv[1]])\n"
+            f"print(code, [name for name in {watched!r} if name in sys.modules])")
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join([str(root), *(p for p in sys.path if p)])}
+    for sample in ("samples/boarding-jsonl.sumtr", "ferries/ferries-honest.sumtr"):  # without glue, with glue
+        proc = subprocess.run([sys.executable, "-S", "-c", code, str(root / "transcripts" / sample)],
+                              capture_output=True, text=True, env=env, timeout=120)
+        assert proc.stdout.strip().splitlines()[-1] == "0 []", proc.stdout + proc.stderr
+
+
 def test_check_asks_the_sweep_from_the_size_the_sweep_itself_declines_below(tmp_path, monkeypatch):
     from stepper.cli.check_file import SWEEP_FROM_BYTES, _sweep_may_take
     from stepper.verify.sweep import SMALL_FILE_BYTES
