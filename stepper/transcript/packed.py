@@ -230,15 +230,19 @@ class GlueColumnsRead:
     read from their joined bytes as columns with numpy, no object per event but each name:
     ``codes`` (0 value, 1 squeeze, 2 opening), ``names``, ``elements`` (one row of the
     element's bytes per event) and ``ends`` (the byte offset where each event ends). See
-    :func:`read_glue_columns`."""
+    :func:`read_glue_columns`. ``periods`` lists the stretches read as blobs alike
+    (:func:`read_glue_periods`): (the index of its first name, its names' bytes as rows, a row per
+    blob, and the lengths of a blob's names)."""
 
-    __slots__ = ("codes", "names", "elements", "ends")
+    __slots__ = ("codes", "names", "elements", "ends", "periods")
 
-    def __init__(self, codes: np.ndarray, names: list[str], elements: np.ndarray, ends: np.ndarray) -> None:
+    def __init__(self, codes: np.ndarray, names: list[str], elements: np.ndarray, ends: np.ndarray,
+                 periods: list[tuple[int, np.ndarray, list[int]]] | None = None) -> None:
         self.codes = codes
         self.names = names
         self.elements = elements
         self.ends = ends
+        self.periods = periods or []
 
 
 @lru_cache(maxsize=1)
@@ -354,7 +358,7 @@ def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | N
     element_columns = (np.array(element_at)[:, None] + np.arange(width)).ravel()
     elements = blobs[:, element_columns].reshape(count * len(lengths), width)
     ends = (np.arange(count, dtype=np.int64)[:, None] * size + first.ends).ravel()
-    return GlueColumnsRead(np.tile(first.codes, count), names, elements, ends)
+    return GlueColumnsRead(np.tile(first.codes, count), names, elements, ends, [(0, picked, lengths)])
 
 
 # An instance event as the writer packs one with no optional key: a map of five entries, "type":

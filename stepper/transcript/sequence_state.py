@@ -11,7 +11,7 @@ and notes in :mod:`stepper.transcript.annotations`.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from stepper.errors import FieldError, TranscriptError, Where
 from stepper.field.field import Element, Field
@@ -19,6 +19,9 @@ from stepper.transcript.namebook import NameBook
 from stepper.transcript.packed import unpack_elements
 from stepper.transcript.payload_rules import MAX_VALUES, short
 from stepper.transcript.records import BatchDecl, InstanceStart, UnknownEvent
+
+if TYPE_CHECKING:
+    from stepper.transcript.glue_names import GlueNames
 
 __all__ = ["SequenceState"]
 
@@ -46,7 +49,8 @@ class SequenceState:
         self._index = -1
         self.stopped_at: UnknownEvent | None = None  # see stream()
         self.glue = True  # whether value/squeeze/opening are known (False for format version 1 files)
-        self.defined: dict[str, int | None] = {}  # glue name -> list length (None for one element)
+        # glue name -> list length (None for one element); the whole-file check puts a GlueNames here
+        self.defined: dict[str, int | None] | GlueNames = {}
         self._late: tuple[InstanceStart, tuple[str, ...]] | None = None  # final_expr names still to come
         # When set, an instance's claim_expr and final_expr (without an eq point) are taken as text, unparsed:
         # the caller (stepper.verify.sweep) checks them by columns, or calls check_deferred.

@@ -27,6 +27,7 @@ from itertools import accumulate, chain, repeat
 from operator import itemgetter
 from typing import TYPE_CHECKING, Any, Iterator, Mapping, MutableMapping, Sequence
 
+from stepper.transcript.glue_names import Counted, GlueNames, counted_columns, digit_runs
 from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
 from stepper.transcript.packed import (
     GLUE_CODES, GLUE_KINDS, GlueColumnsRead, GlueRun, decoder_for, read_glue_columns, read_glue_periods,
@@ -123,10 +124,13 @@ def _read_by_stretch(joined: bytes, sizes: np.ndarray, width: int) -> GlueColumn
         return parts[0][1]
     if not parts:
         return read_glue_columns(b"", width)
+    firsts = accumulate((len(read.names) for _, read in parts), initial=0)
     return GlueColumnsRead(np.concatenate([read.codes for _, read in parts]),
                            [name for _, read in parts for name in read.names],
                            np.concatenate([read.elements for _, read in parts]),
-                           np.concatenate([read.ends + begin for begin, read in parts]))
+                           np.concatenate([read.ends + begin for begin, read in parts]),
+                           [(first + at, rows, lengths) for (_, read), first in zip(parts, firsts)
+                            for at, rows, lengths in read.periods])
 
 
 def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
@@ -138,35 +142,54 @@ def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
 
 
 class NameRows(Mapping[str, int]):
-    """Each name's row in a flush's names (no name twice: :class:`GlueColumns` gave up on that), looked
-    up by comparing the name's hash with an array of the names' hashes (the strings keep theirs from
-    the Sequencer's table of names, which hashed them) while few are asked for, by a dict of them all
-    after that: the rules of expressions usually ask for a few names only (the rest are found by place),
-    and a dict of a flush's thousands of names cost more than a few searches; a search for a name not
-    there, the usual question about a name sent before the flush, is one comparison of the array."""
+    """Each name's row in a flush's names (no name twice: :class:`GlueColumns` gave up on that). A name
+    of a column read as a template (``counted``: the first row of its stretch, the names after each
+    run there, its place among them, and the :class:`~stepper.transcript.glue_names.Counted`) is found
+    by parsing its counter; the others by comparing the name's hash with an array of theirs while few
+    are asked for, by a dict of them after that: the rules of expressions usually ask for a few names
+    only (the rest are found by place), and a dict of a flush's thousands of names cost more than a
+    few searches; a search for a name not there, the usual question about a name sent before the
+    flush, is one comparison of the array."""
 
-    __slots__ = ("_names", "_index", "_hashes", "_searches")
+    __slots__ = ("_names", "_index", "_hashes", "_searches", "_counted", "_others")
     SEARCHES = 256  # look-ups by hash before the dict is built
 
-    def __init__(self, names: list[str]) -> None:
+    def __init__(self, names: list[str], counted: Sequence[tuple[int, int, int, Counted]] = ()) -> None:
         self._names = names
         self._index: dict[str, int] | None = None
         self._hashes: Any = None
         self._searches = 0
+        self._counted: dict[tuple[str, str, int], list[tuple[int, int, int, Counted]]] = {}
+        for entry in counted:
+            self._counted.setdefault(entry[3].key, []).append(entry)
+        self._others: list[int] | None = None  # the rows no template holds (all when none does)
+        if counted:
+            covered = sorted({(first, first + len(template) * per) for first, per, _, template in counted})
+            bounds = [0, *(end for begin_end in covered for end in begin_end), len(names)]
+            self._others = [row for low, high in zip(bounds[::2], bounds[1::2]) for row in range(low, high)]
 
     def _row(self, name: object) -> int | None:
+        if self._counted and name.__class__ is str:
+            for key, value in digit_runs(name):  # type: ignore[arg-type]
+                for first, per, place, template in self._counted.get(key, ()):
+                    row = first + (value - template.low) * per + place
+                    if template.low <= value < template.high and self._names[row] == name:
+                        return row
+        others = self._others
         if self._index is None:
             if self._searches < self.SEARCHES and name.__class__ is str:
                 self._searches += 1
                 import numpy as np
 
                 if self._hashes is None:
-                    self._hashes = np.fromiter(map(hash, self._names), dtype=np.int64, count=len(self._names))
-                for row in np.flatnonzero(self._hashes == hash(name)).tolist():
+                    listed = self._names if others is None else [self._names[row] for row in others]
+                    self._hashes = np.fromiter(map(hash, listed), dtype=np.int64, count=len(listed))
+                for found in np.flatnonzero(self._hashes == hash(name)).tolist():
+                    row = found if others is None else others[found]
                     if self._names[row] == name:
                         return row  # type: ignore[no-any-return]
                 return None
-            self._index = dict(zip(self._names, range(len(self._names))))
+            self._index = {self._names[row]: row for row in (range(len(self._names)) if others is None else others)}
         return self._index.get(name)  # type: ignore[call-overload, no-any-return]
 
     def __getitem__(self, name: str) -> int:
@@ -192,7 +215,7 @@ class NameRows(Mapping[str, int]):
 class GlueColumns:
     """The glue payloads that follow the runs of one flush, checked and held as columns."""
 
-    def __init__(self, field: Field, tails: Sequence[Sequence[Any]], defined: MutableMapping[str, Any],
+    def __init__(self, field: Field, tails: Sequence[Sequence[Any]], defined: MutableMapping[str, Any] | GlueNames,
                  blobs_only: bool | None = None) -> None:
         """``tails[i]`` holds the events that followed run i, in stream order, each a payload as
         unpacked or a row of :class:`~stepper.transcript.packed.GlueRun`; ``defined`` the glue names
@@ -207,6 +230,8 @@ class GlueColumns:
         self._data: list[bytes] | None = None
         self._rows: NameRows | None = None
         self._stream: tuple[memoryview, np.ndarray, np.ndarray] | None = None
+        self._periods: list[tuple[int, np.ndarray, list[int]]] = []  # stretches read as blobs alike
+        self._counted: list[tuple[int, int, int, Counted]] = []  # columns of names read as templates
         if blobs_only is None:
             blobs_only = all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails)
         if blobs_only and any(tails):
@@ -293,7 +318,7 @@ class GlueColumns:
             self.elements = np.frombuffer(b"".join(self.data), dtype=np.uint8).reshape(self.size, self.field.elem_bytes)
         return self.elements
 
-    def _read_blobs(self, tails: Sequence[Sequence[Any]], defined: MutableMapping[str, Any]) -> None:
+    def _read_blobs(self, tails: Sequence[Sequence[Any]], defined: MutableMapping[str, Any] | GlueNames) -> None:
         """The columns of one blob of glue events after each run, read at once by numpy
         (:func:`~stepper.transcript.packed.read_glue_columns`), each run's events found where their
         bytes end; where that reading declines, the rows are read by a regex."""
@@ -316,6 +341,7 @@ class GlueColumns:
         self.names = read.names
         self.codes = read.codes
         self.tables = self.names
+        self._periods = read.periods
         self._one_element_each(defined)
         self.elements = read.elements
         joined = read.elements.tobytes()
@@ -324,7 +350,7 @@ class GlueColumns:
             raise GiveUp("a glue element that is not canonical")
         self.values = list(elements)
 
-    def _take_blobs(self, blobs: list[bytes], defined: MutableMapping[str, Any]) -> None:
+    def _take_blobs(self, blobs: list[bytes], defined: MutableMapping[str, Any] | GlueNames) -> None:
         """The columns of one blob of glue events after each run, read by a regex; each run's events
         found by their byte lengths (a row fills 21 bytes, its kind, its name and its element)."""
         import numpy as np
@@ -340,13 +366,13 @@ class GlueColumns:
         self.bounds = [0, *np.searchsorted(ends, blob_ends, side="right").tolist()]
         self._take_rows(rows, defined)
 
-    def _one_element_each(self, defined: MutableMapping[str, Any]) -> None:
+    def _one_element_each(self, defined: MutableMapping[str, Any] | GlueNames) -> None:
         """Every event of the flush holds one element (no list): its counts, and its names defined."""
         self.listed = [False] * self.size
         self.counts = [1] * self.size
         self._define(defined)
 
-    def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: MutableMapping[str, Any]) -> None:
+    def _take_rows(self, rows: list[tuple[bytes, bytes, bytes, bytes]], defined: MutableMapping[str, Any] | GlueNames) -> None:
         """The columns of events read as rows of bytes (kind, the name's fixstr head, name, element)."""
         names = b"\n".join(map(itemgetter(2), rows)).decode("ascii")
         if b"".join(map(itemgetter(1), rows)) != bytes(map(len, map(itemgetter(2), rows))).translate(_FIXSTR):
@@ -395,9 +421,19 @@ class GlueColumns:
         return out
 
     # ----- what the rest of the flush reads -----------------------------------------------
-    def _define(self, defined: MutableMapping[str, Any]) -> None:
+    def _define(self, defined: MutableMapping[str, Any] | GlueNames) -> None:
         """Add the names to ``defined`` as the Sequencer records them; a name already there, or twice
-        in the flush, leaves fewer entries than expected."""
+        in the flush, leaves fewer entries than expected. A :class:`~stepper.transcript.glue_names.GlueNames`
+        takes the columns of stretches read alike as templates where they are (:meth:`_define_counted`)."""
+        if isinstance(defined, GlueNames):
+            if any(self.listed):
+                added = defined.add_names(self.names, (n if is_list else None for n, is_list
+                                                       in zip(self.counts, self.listed)))
+            else:
+                added = self._define_counted(defined)
+            if not added:
+                raise GiveUp("a glue name sent twice")
+            return
         before = len(defined)
         if not any(self.listed):
             defined.update(zip(self.names, repeat(None)))
@@ -405,6 +441,26 @@ class GlueColumns:
             defined.update((name, n if is_list else None) for name, n, is_list in zip(self.names, self.counts, self.listed))
         if len(defined) != before + len(self.names):
             raise GiveUp("a glue name sent twice")
+
+    def _define_counted(self, defined: GlueNames) -> bool:
+        """Add the names (one element each) to ``defined``: each column of a stretch read alike whose
+        names count (:func:`~stepper.transcript.glue_names.counted_columns`) as a template, kept for
+        :meth:`rows`, the other names one by one; False when one was there already."""
+        covered: list[tuple[int, int]] = []
+        for first, rows, lengths in self._periods:
+            templates = counted_columns(rows, lengths)
+            if templates is None:
+                continue
+            for place, template in enumerate(templates):
+                if not defined.add_counted(template):
+                    return False
+                self._counted.append((first, len(lengths), place, template))
+            covered.append((first, first + len(rows) * len(lengths)))
+        names = self.names
+        if not covered:
+            return defined.add_names(names)
+        bounds = [0, *(end for begin_end in covered for end in begin_end), len(names)]
+        return defined.add_names([name for low, high in zip(bounds[::2], bounds[1::2]) for name in names[low:high]])
 
     def lists(self) -> dict[str, int]:
         """The flush's list values by name, with their lengths."""
@@ -415,7 +471,7 @@ class GlueColumns:
     def rows(self) -> NameRows:
         """Each name's row in the flush (its index in stream order)."""
         if self._rows is None:
-            self._rows = NameRows(self.names)
+            self._rows = NameRows(self.names, self._counted)
         return self._rows
 
     def run_of_row(self) -> np.ndarray:

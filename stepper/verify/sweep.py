@@ -176,7 +176,10 @@ class _Sweeper:
         self.limits = limits
         self.replay = replay
         self.on_note = on_note
+        from stepper.transcript.glue_names import GlueNames
+
         self.seq = Sequencer(Where(file=path))
+        self.seq.defined = GlueNames()  # columns of counted names kept as templates (glue_columns)
         self.unpacker = make_unpacker(limits)
         self.digest: HeldBackDigest | None = None
         self.total = 0

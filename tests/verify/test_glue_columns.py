@@ -96,3 +96,23 @@ def test_name_rows_answer_as_a_dict_of_the_names_rows_before_and_after_it_builds
     shared.get("pier1")
     shared._hashes[:12] = hash("pier9")  # the first twelve names' hashes made the same: told apart by the names
     assert shared.get("pier9") == 9 and "pier12" in shared and shared.get("tide") is None
+
+
+@pytest.mark.parametrize("searches", [0, 16])
+def test_name_rows_of_names_held_as_templates_answer_as_a_dict_of_the_names_rows(monkeypatch, searches):
+    # two stretches read as templates (rows 4-27: six runs of a<i>, b<i>, berth<i>, beta<i>; rows 31-36: three runs
+    # of q<i>.x, r<i>) among names read one by one; counters past a template's range, other widths and near
+    # misses must not find a row: every answer is a dict's of the list
+    from stepper.transcript.glue_names import Counted
+    from stepper.verify.glue_columns import NameRows
+
+    monkeypatch.setattr(NameRows, "SEARCHES", searches)
+    first = [name for i in range(10, 16) for name in (f"a{i}", f"b{i}", f"berth{i}", f"beta{i}")]
+    second = [name for i in range(7, 10) for name in (f"q{i}.x", f"r{i}")]
+    names = ["tau", "a9", "b9", "berth9", *first, "a16", "x1", "a010", *second, "q10.x", "r10"]
+    counted = [(4, 4, place, Counted(prefix, "", 2, 10, 16)) for place, prefix in enumerate(("a", "b", "berth", "beta"))]
+    counted += [(31, 2, 0, Counted("q", ".x", 1, 7, 10)), (31, 2, 1, Counted("r", "", 1, 7, 10))]
+    rows, index = NameRows(names, counted), dict(zip(names, range(len(names))))
+    for name in [*names, "a17", "a1", "a0010", "q6.x", "q11.x", "r6", "beta16", "tide", "", "a10x"]:
+        assert rows.get(name, -1) == index.get(name, -1) and (name in rows) == (name in index), name
+    assert list(rows) == names and len(rows) == len(names)

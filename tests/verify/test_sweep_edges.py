@@ -548,3 +548,176 @@ def test_texts_changed_alike_in_every_instance_from_the_middle_on_check_as_the_r
     code, out, err, swept = check_both(capsys, monkeypatch, path)
     assert code == expected and (swept is not None) == (expected == 0), (code, out, err)
     assert any(found is not None for found in placed)  # some stretch read by template from its bytes
+
+
+# ----- 8. glue names held as templates ----------------------------------------------------
+
+Names = Callable[[int], tuple[str, str, str, str]]  # instance i -> the names of its openings a, b, c and its squeeze
+
+
+def counter_names(i: int) -> tuple[str, str, str, str]:
+    return f"a{i}", f"b{i}", f"c{i}", f"beta{i}"
+
+
+def write_named(path: Path, names: Names = counter_names, count: int = 130, before: tuple[str, ...] = (),
+                after: tuple[str, ...] = (), after_lists: tuple[str, ...] = (), seed: int = 53,
+                sent_as: dict[str, str] | None = None) -> None:
+    """write_pointed's proof without point(NAME) (final_expr eq(tau) * (A*B - C), claim_expr A' + BETA'*B' of
+    the instance before) with the names ``names(i)``, single values named ``before`` sent before the first
+    instance, and values named ``after`` (one element each) and ``after_lists`` (lists of two) after the last
+    instance's glue; every check holds. With ``sent_as`` (name -> another name of the same length) the proof
+    has no schedule (challenges and squeezes drawn at random) and those names are then renamed in the bytes
+    (renamed_events: the writer refuses a name sent twice); every value is drawn once per name as finally
+    sent, so a name sent twice carries the same value both times and only its second sending is wrong. eq(x, y)
+    = prod of x_j y_j + (1 - x_j)(1 - y_j) in plain integers (common practice, no source)."""
+    from stepper.field.field import NAMED_PRIMES, get_field
+    from stepper.field.lagrange import evaluate_round
+    from stepper.field.poly import eq_eval
+    from stepper.transcript.model import (ChallengeMsg, FieldDecl, FinalValue, InstanceStart, NamedValue, Opening,
+                                          RoundMsg, ScheduleDecl, Squeeze)
+    from stepper.verify.fiatshamir import SCHEDULE_NAME
+    from stepper.verify.schedules import schedule_for
+
+    field = get_field(NAMED_PRIMES["goldilocks"])
+    p, rng = field.p, random.Random(seed)
+    schedule = schedule_for(SCHEDULE_NAME) if sent_as is None else None
+    values: dict[str, int] = {}
+
+    def value_of(name: str) -> int:
+        return values.setdefault((sent_as or {}).get(name, name), rng.randrange(p))
+
+    with TranscriptWriter(path, metadata={"label": "isle-of-quill-0740"}) as out:
+        def emit(record: object, absorbed: bool = True) -> None:
+            if absorbed and schedule is not None:
+                schedule.observe(record)  # type: ignore[arg-type]
+            out.write(record)  # type: ignore[arg-type]
+
+        emit(FieldDecl(field))
+        if schedule is not None:
+            emit(ScheduleDecl(SCHEDULE_NAME, "tests"))
+        tau = [rng.randrange(p) for _ in range(3)]
+        emit(NamedValue("tau", tuple(tau), True, None))
+        for name in before:
+            emit(NamedValue(name, value_of(name), False, None))
+        claim = rng.randrange(p)
+        for i in range(count):
+            a_name, b_name, c_name, beta_name = names(i)
+            keys = {"final_expr": f"eq(tau) * ({a_name}*{b_name} - {c_name})"}
+            if i:
+                previous = names(i - 1)
+                keys["claim_expr"] = f"{previous[0]} + {previous[3]}*{previous[1]}"
+            emit(InstanceStart(i, f"sailing.{i}", 3, 2, claim, **keys))  # type: ignore[arg-type]
+            challenges = []
+            for k in range(1, 4):
+                g0 = rng.randrange(p)
+                evals = (g0, (claim - g0) % p, rng.randrange(p))
+                emit(RoundMsg(i, k, evals))
+                r = schedule.challenge() if schedule is not None else rng.randrange(p)
+                emit(ChallengeMsg(i, k, r), absorbed=False)
+                challenges.append(r)
+                claim = evaluate_round(field, evals, r)
+            emit(FinalValue(i, claim), absorbed=False)
+            a, b = value_of(a_name), value_of(b_name)
+            c = values[c_name] = (a * b - claim * pow(eq_eval(field, tau, challenges), -1, p)) % p  # type: ignore[arg-type]
+            for name, value in ((a_name, a), (b_name, b), (c_name, c)):
+                emit(Opening(name, value, name, i))
+            beta = schedule.squeeze(beta_name) if schedule is not None else value_of(beta_name)
+            emit(Squeeze(beta_name, beta, False, i), absorbed=False)
+            claim = (a + beta * b) % p  # type: ignore[operator]
+        for name in after:
+            emit(NamedValue(name, value_of(name), False, count - 1))
+        for name in after_lists:
+            emit(NamedValue(name, (rng.randrange(p), rng.randrange(p)), True, count - 1))
+    if sent_as:
+        path.write_bytes(renamed_events(path.read_bytes(), sent_as))
+
+
+def renamed_events(data: bytes, sent_as: dict[str, str]) -> bytes:
+    """The transcript with each glue event named a key of ``sent_as`` named its value (of the same length)
+    instead, and each expression naming it naming the value, sealed again."""
+    import re
+
+    def renamed(text: str) -> str:
+        return re.sub(r"[A-Za-z_][A-Za-z0-9_.]*", lambda found: sent_as.get(found.group(), found.group()), text)
+
+    for kind, start, end in event_spans(data)[::-1]:  # from the last: the offsets before it stay put
+        payload = msgpack.unpackb(data[start:end], raw=False)
+        if kind == "instance":
+            changed = {key: renamed(payload[key]) for key in ("claim_expr", "final_expr") if key in payload}
+        elif kind in GLUE:
+            changed = {"name": sent_as.get(payload["name"], payload["name"])}
+        else:
+            continue
+        new = msgpack.packb({**payload, **changed}, use_bin_type=True)
+        assert len(new) == end - start
+        data = data[:start] + new + data[end:]
+    return resealed(data)
+
+
+def padded_names(i: int) -> tuple[str, str, str, str]:
+    # two fields of one name length that never meet: v<i>_077 and w050_<i> (w, not v)
+    return f"v{i:03d}_077", f"w050_{i:03d}", f"c{i:03d}", f"beta{i:03d}"
+
+
+def fields_that_meet(i: int) -> tuple[str, str, str, str]:
+    # v<i>_077 at i = 50 is v050_<i> at i = 77 (x050_077, then sent as v050_077): one name, two templates of one
+    # length
+    return f"v{i:03d}_077", "x050_077" if i == 77 else f"v050_{i:03d}", f"c{i:03d}", f"beta{i:03d}"
+
+
+def counter_repeats(i: int) -> tuple[str, str, str, str]:
+    return ("q40" if i == 40 else f"a{i}"), f"b{i}", f"c{i}", f"beta{i}"  # q40 then sent as a39
+
+
+def counter_restarts(i: int) -> tuple[str, str, str, str]:
+    # from instance 100 on (instance names one digit longer: a stretch of its own), z<i - 70>, then sent as
+    # a<i - 70>: a30 ... a59 again, counting by one
+    return f"a{i}" if i < 100 else f"z{i - 70}", f"b{i}", f"c{i}", f"beta{i}"
+
+
+HONEST_NAMES = {"counters": counter_names, "zero-padded counters in two fields": padded_names}
+
+
+@pytest.mark.parametrize("block_rounds", [1 << 14, 30])
+@pytest.mark.parametrize("scheme", list(HONEST_NAMES))
+def test_names_that_count_are_held_as_templates_and_the_proof_reports_as_the_replay(tmp_path, monkeypatch, scheme,
+                                                                                     block_rounds):
+    # blocks of 30 rounds: ten instances a flush, so templates of later flushes meet those of earlier ones
+    from stepper.transcript.glue_names import GlueNames
+
+    monkeypatch.setattr(helpers.sweep_module, "BLOCK_ROUNDS", block_rounds)
+    path = tmp_path / "named.sumtr"
+    # near misses held apart: another width (c0099), past a range (b9999, w050_999), a prefix of its own (a10x)
+    write_named(path, HONEST_NAMES[scheme], before=("b9999", "c0099"), after=("a10x", "w050_999"))
+    added = returns_of(monkeypatch, GlueNames, "add_counted")
+    helpers.assert_same_report(path, 3)
+    assert added and all(added)  # not vacuous: columns of names were held as templates, every one accepted
+
+
+# (what write_named writes, each name then sent as another of the same length: its sent_as)
+NAME_FAULTS: dict[str, tuple[dict[str, Any], dict[str, str]]] = {
+    "a counter that repeats within a stretch": ({"names": counter_repeats}, {"q40": "a39"}),
+    "a counter that starts again in a later stretch": ({"names": counter_restarts},
+                                                       {f"z{i}": f"a{i}" for i in range(30, 60)}),
+    "two fields of one length that meet": ({"names": fields_that_meet}, {"x050_077": "v050_077"}),
+    "a value sent before the instances with a template's name": ({"before": ("q45",)}, {"q45": "b45"}),
+    "a value sent before with a name a padded template holds": ({"names": padded_names, "before": ("q050_066",)},
+                                                                {"q050_066": "w050_066"}),
+    "a value after the instances with a template's name": ({"after": ("q70",)}, {"q70": "c70"}),
+    "a list after the instances with a template's name": ({"after_lists": ("qeta101",)}, {"qeta101": "beta101"}),
+}
+
+
+@pytest.mark.parametrize("block_rounds", [1 << 14, 30])
+@pytest.mark.parametrize("fault", list(NAME_FAULTS))
+def test_a_glue_name_sent_twice_among_names_held_as_templates_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, fault, block_rounds):
+    # the event-by-event replay (check_both's other side) refuses the second sending with exit 2; the sweep must
+    # give up rather than take a proof whose names repeat, wherever the two sendings stand (one stretch, two
+    # stretches or flushes, before or after every template, one by one through the Sequencer)
+    monkeypatch.setattr(helpers.sweep_module, "BLOCK_ROUNDS", block_rounds)
+    path = tmp_path / "twice.sumtr"
+    written, sent_as = NAME_FAULTS[fault]
+    write_named(path, **written, sent_as=sent_as)
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 2 and swept is None and "unique" in err, (code, out, err)
