@@ -15,8 +15,15 @@ a transcript: what bench/check.py's bare decode pays before its first byte) and
 reads a byte). ``--against TREE`` runs the same commands from another checkout of stepper (its
 ``PYTHONPATH``), interleaved with this one, and prints this/other per row: an A/B of a change.
 
+``--no-site`` starts every child with ``python3 -S`` and the parent's package folders on
+``PYTHONPATH``: no ``.pth`` file runs, so what the interpreter holds is what the command imported. An
+editable install's ``.pth`` finder imports ``pathlib`` (and other start-up hooks may import
+``tempfile``, ``random``, ``typing`` ...) before stepper starts, which hides stepper's own imports of
+them; ``-S`` measures what a plain install's start-up costs.
+
     python3 bench/startup.py                        # best of 9, about 20 s
     python3 bench/startup.py --against ../main      # this tree vs another checkout, interleaved
+    python3 bench/startup.py --against ../main --no-site
 """
 
 from __future__ import annotations
@@ -66,13 +73,17 @@ def commands(events: Path) -> tuple[Command, ...]:
     )
 
 
-def child_env(tree: Path | None) -> dict[str, str]:
+def child_env(tree: Path | None, no_site: bool = False) -> dict[str, str]:
     """A child's environment: the `stepper` entry's OPENBLAS setting, bytecode caching on, and
-    ``PYTHONPATH`` naming ``tree`` (the checkout whose stepper runs)."""
+    ``PYTHONPATH`` naming ``tree`` (the checkout whose stepper runs); with ``no_site`` (children
+    started with ``-S``) also this interpreter's package folders, where msgpack and numpy are."""
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1")
     env.pop("PYTHONDONTWRITEBYTECODE", None)
-    if tree is not None:
-        env["PYTHONPATH"] = str(tree)
+    folders = [str(tree)] if tree is not None else []
+    if no_site:
+        folders += [entry for entry in sys.path if entry.endswith(("site-packages", "dist-packages"))]
+    if folders:
+        env["PYTHONPATH"] = os.pathsep.join(folders)
     return env
 
 
@@ -85,16 +96,18 @@ def cpu_of(argv: list[str], env: dict[str, str], cwd: Path) -> tuple[float, int]
     return usage.ru_utime + usage.ru_stime, os.waitstatus_to_exitcode(status)
 
 
-def measure(rows: list[tuple[str, Command, Path | None]], repeat: int, scratch: Path) -> dict[str, list[float]]:
+def measure(rows: list[tuple[str, Command, Path | None]], repeat: int, scratch: Path,
+            no_site: bool = False) -> dict[str, list[float]]:
     """Each row's CPU seconds over ``repeat`` interleaved rounds, after one unmeasured warm-up round
-    (which also writes the bytecode caches)."""
+    (which also writes the bytecode caches); with ``no_site`` every child runs ``python3 -S``."""
     times: dict[str, list[float]] = {key: [] for key, _, _ in rows}
     runs = 0
     for round_no in range(repeat + 1):
         for key, command, tree in rows:
             runs += 1
-            argv = [sys.executable, *(part.replace("{out}", str(scratch / f"out-{runs}")) for part in command.argv)]
-            cpu, code = cpu_of(argv, child_env(tree), scratch)
+            argv = [sys.executable, *(["-S"] if no_site else []),
+                    *(part.replace("{out}", str(scratch / f"out-{runs}")) for part in command.argv)]
+            cpu, code = cpu_of(argv, child_env(tree, no_site), scratch)
             if code not in command.codes:
                 raise SystemExit(f"startup: `{' '.join(argv[1:])}` ({key}) exited {code}, expected "
                                  f"{' or '.join(map(str, command.codes))}")
@@ -108,6 +121,9 @@ def main() -> int:
     parser.add_argument("--repeat", type=int, default=9, help="interleaved rounds (default 9)")
     parser.add_argument("--against", type=Path, metavar="TREE",
                         help="another checkout of stepper: run its commands beside these and print this/other")
+    parser.add_argument("--no-site", action="store_true",
+                        help="start every child with python3 -S (no .pth file runs; the package folders on "
+                             "PYTHONPATH): a plain install's start-up")
     args = parser.parse_args()
     if args.against is not None and not (args.against / "stepper" / "__init__.py").is_file():
         parser.error(f"expected --against to name a checkout of stepper, found no stepper/ in {args.against}")
@@ -121,10 +137,11 @@ def main() -> int:
             rows.append((command.label, command, ROOT))
             if args.against is not None:
                 rows.append((f"other: {command.label}", command, args.against))
-        times = measure(rows, args.repeat, scratch)
+        times = measure(rows, args.repeat, scratch, args.no_site)
     best = {key: min(values) for key, values in times.items()}
     msgpack_floor, numpy_floor = best[FLOORS[1].label], best[FLOORS[2].label]
     print(f"fresh-process CPU seconds, best and median of {args.repeat} interleaved rounds"
+          + ("; children run python3 -S" if args.no_site else "")
           + (f"; other = {args.against}" if args.against is not None else ""))
     head = f"{'command':38} {'best':>7} {'median':>7} {'/msgpack':>9} {'/numpy':>7}"
     if args.against is not None:
