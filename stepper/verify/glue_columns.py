@@ -226,6 +226,8 @@ class GlueColumns:
         self.from_bytes = 0  # events read from blobs
         self.codes: np.ndarray  # each event's kind: 0 value, 1 squeeze, 2 opening
         self.elements: np.ndarray | None = None  # one row of packed bytes per event, when each holds one element
+        self.listed: list[bool]  # whether each event's value is a list
+        self.has_lists = False  # whether any is
         self._kinds: list[str] | None = None
         self._data: list[bytes] | None = None
         self._rows: NameRows | None = None
@@ -272,6 +274,7 @@ class GlueColumns:
             self.values = self._decode(raws, raws)
             return
         self.listed = [raw.__class__ is list for raw in raws]
+        self.has_lists = any(self.listed)
         self.counts = [len(raw) if is_list else 1 for raw, is_list in zip(raws, self.listed)]
         self._define(defined)
         if self.counts and max(self.counts) > MAX_VALUES:
@@ -369,6 +372,7 @@ class GlueColumns:
     def _one_element_each(self, defined: MutableMapping[str, Any] | GlueNames) -> None:
         """Every event of the flush holds one element (no list): its counts, and its names defined."""
         self.listed = [False] * self.size
+        self.has_lists = False
         self.counts = [1] * self.size
         self._define(defined)
 
@@ -411,7 +415,7 @@ class GlueColumns:
         elements = decoder_for(self.field)(b"".join(cells))
         if elements is None:
             raise GiveUp("a glue element that is not canonical")
-        if not any(self.listed):
+        if not self.has_lists:
             return list(elements)
         out: list[Any] = []
         at = 0
@@ -426,7 +430,7 @@ class GlueColumns:
         in the flush, leaves fewer entries than expected. A :class:`~stepper.transcript.glue_names.GlueNames`
         takes the columns of stretches read alike as templates where they are (:meth:`_define_counted`)."""
         if isinstance(defined, GlueNames):
-            if any(self.listed):
+            if self.has_lists:
                 added = defined.add_names(self.names, (n if is_list else None for n, is_list
                                                        in zip(self.counts, self.listed)))
             else:
@@ -435,7 +439,7 @@ class GlueColumns:
                 raise GiveUp("a glue name sent twice")
             return
         before = len(defined)
-        if not any(self.listed):
+        if not self.has_lists:
             defined.update(zip(self.names, repeat(None)))
         else:
             defined.update((name, n if is_list else None) for name, n, is_list in zip(self.names, self.counts, self.listed))
@@ -464,7 +468,7 @@ class GlueColumns:
 
     def lists(self) -> dict[str, int]:
         """The flush's list values by name, with their lengths."""
-        if not any(self.listed):
+        if not self.has_lists:
             return {}
         return {name: n for name, n, is_list in zip(self.names, self.counts, self.listed) if is_list}
 
@@ -498,7 +502,7 @@ class GlueColumns:
 
         from stepper.verify.cells import decode_cells
 
-        if any(self.listed) or not self.size:
+        if self.has_lists or not self.size:
             return None
         array = decode_cells(kernel, self.element_rows(), self.field.elem_bytes)
         return self.rows(), array
@@ -512,7 +516,7 @@ class GlueColumns:
         from stepper.verify.cells import decode_cells
 
         width = self.field.elem_bytes
-        if any(self.listed):
+        if self.has_lists:
             sent = b"".join([data for code, data in zip(self.codes.tolist(), self.data) if code == 1])
             rows = np.frombuffer(sent, dtype=np.uint8).reshape(-1, width)
         else:
@@ -529,7 +533,7 @@ class GlueColumns:
         if self._stream is None:
             ends: Sequence[int] | np.ndarray
             cuts: Sequence[int] | np.ndarray
-            if self.tables is self.names and self.size and not any(self.listed):
+            if self.tables is self.names and self.size and not self.has_lists:
                 runs = set(map(int.__sub__, self.bounds[1:], self.bounds[:-1]))  # events after each run
                 period = runs.pop() if len(runs) == 1 else 0
                 stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes(),

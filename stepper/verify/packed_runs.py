@@ -438,6 +438,11 @@ class RunBlock:
         if len(squeezed) != (rows + len(counts)) * per:
             raise GiveUp("glue squeezes other than one after each run")
         table = np.frombuffer(squeezed, dtype=np.uint8).reshape(rows + len(counts), per)
+        if counts.count(counts[0]) == len(counts):  # each instance's n rounds, then its squeeze: rows of n + 1
+            by_instance = table.reshape(len(counts), counts[0] + 1, per)
+            self.digests += by_instance[:, :-1].tobytes()
+            glue_digests += by_instance[:, -1].tobytes()
+            return
         of_glue = np.zeros(len(table), dtype=bool)
         of_glue[np.cumsum(np.array(counts, dtype=np.int64) + 1) - 1] = True  # each instance's rounds, then its squeeze
         self.digests += table[~of_glue].tobytes()
