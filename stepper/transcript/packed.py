@@ -230,18 +230,20 @@ class GlueColumnsRead:
     read from their joined bytes as columns with numpy, no object per event but each name:
     ``codes`` (0 value, 1 squeeze, 2 opening), ``names``, ``elements`` (one row of the
     element's bytes per event) and ``ends`` (the byte offset where each event ends). See
-    :func:`read_glue_columns`. ``periods`` lists the stretches read as blobs alike
-    (:func:`read_glue_periods`): (the index of its first name, its names' bytes as rows, a row per
-    blob, and the lengths of a blob's names)."""
+    :func:`read_glue_columns`. ``spelled`` holds the names' lengths and their bytes, each name followed
+    by a newline; ``periods`` the stretches read as blobs alike (:func:`read_glue_periods`): (the index
+    of its first name, its names' bytes as rows, a row per blob, and the lengths of a blob's names)."""
 
-    __slots__ = ("codes", "names", "elements", "ends", "periods")
+    __slots__ = ("codes", "names", "elements", "ends", "spelled", "periods")
 
     def __init__(self, codes: np.ndarray, names: list[str], elements: np.ndarray, ends: np.ndarray,
-                 periods: list[tuple[int, np.ndarray, list[int]]] | None = None) -> None:
+                 spelled: tuple[np.ndarray, bytes], periods: list[tuple[int, np.ndarray, list[int]]] | None = None
+                 ) -> None:
         self.codes = codes
         self.names = names
         self.elements = elements
         self.ends = ends
+        self.spelled = spelled
         self.periods = periods or []
 
 
@@ -270,7 +272,7 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     size = len(u8)
     if size == 0:
         return GlueColumnsRead(np.zeros(0, dtype=np.int8), [], np.zeros((0, width), dtype=np.uint8),
-                               np.zeros(0, dtype=np.int64))
+                               np.zeros(0, dtype=np.int64), (np.zeros(0, dtype=np.int64), b""))
     head = np.frombuffer(_GLUE_HEAD, dtype=np.uint8)
     starts = np.flatnonzero(u8[:size - len(head) + 1] == head[0]) if size >= len(head) else np.zeros(0, np.int64)
     for j in range(1, len(head)):
@@ -314,9 +316,10 @@ def read_glue_columns(data: bytes, width: int) -> GlueColumnsRead | None:
     if not allowed[picked].all() or not starting[picked[out_at]].all():
         return None
     picked[out_at + name_len] = 0x0A
-    names = picked[:-1].tobytes().decode("ascii").split("\n")
+    joined = picked.tobytes()
+    names = joined[:-1].decode("ascii").split("\n")
     elements = u8[(ends - width)[:, None] + np.arange(width)]
-    return GlueColumnsRead(codes, names, elements, ends)
+    return GlueColumnsRead(codes, names, elements, ends, (name_len, joined))
 
 
 def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | None:
@@ -354,11 +357,13 @@ def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | N
         return None
     rows = np.full((count, len(name_columns) + len(lengths)), 0x0A, dtype=np.uint8)  # each name, then a newline
     rows[:, np.arange(len(name_columns)) + np.repeat(np.arange(len(lengths)), lengths)] = picked
-    names = rows.tobytes().decode("ascii").split("\n")[:-1]
+    joined = rows.tobytes()
+    names = joined.decode("ascii").split("\n")[:-1]
     element_columns = (np.array(element_at)[:, None] + np.arange(width)).ravel()
     elements = blobs[:, element_columns].reshape(count * len(lengths), width)
     ends = (np.arange(count, dtype=np.int64)[:, None] * size + first.ends).ravel()
-    return GlueColumnsRead(np.tile(first.codes, count), names, elements, ends, [(0, picked, lengths)])
+    return GlueColumnsRead(np.tile(first.codes, count), names, elements, ends,
+                           (np.tile(np.array(lengths, dtype=np.int64), count), joined), [(0, picked, lengths)])
 
 
 # An instance event as the writer packs one with no optional key: a map of five entries, "type":

@@ -200,14 +200,15 @@ class Sha256Schedule:
             tables = names
         return glue_stream(width, head, kinds, names, tables, data, counts, listed)
 
-    def flat_glue_stream(self, codes: np.ndarray, names: Sequence[str], elements: bytes, period: int = 0
-                         ) -> tuple[bytes, np.ndarray, np.ndarray]:
+    def flat_glue_stream(self, codes: np.ndarray, names: Sequence[str], elements: bytes, period: int = 0,
+                         spelled: tuple[np.ndarray, bytes] | None = None) -> tuple[bytes, np.ndarray, np.ndarray]:
         """:meth:`glue_stream` of glue events of one element each, every opening's table its own
         name, built with numpy: event i has kind ``codes[i]`` (0 value, 1 squeeze, 2 opening), name
         ``names[i]`` and its element's packed bytes at ``elements[i * elem_bytes:]``; ``period``, when
-        not 0, the events after each run (see :func:`~stepper.verify.frames.flat_glue_stream`)."""
+        not 0, the events after each run, and ``spelled`` the names' lengths and bytes when known (see
+        :func:`~stepper.verify.frames.flat_glue_stream`)."""
         field = self._need_field("value")
-        return flat_glue_stream(codes, names, elements, field.elem_bytes, self._challenge_head, period)
+        return flat_glue_stream(codes, names, elements, field.elem_bytes, self._challenge_head, period, spelled)
 
     def absorb_frames(self, frames: bytes) -> None:
         """Absorb frames made by :meth:`glue_frame`, in order."""

@@ -142,26 +142,27 @@ def glue_stream(width: int, challenge_head: bytes, kinds: Sequence[str], names: 
 
 
 def flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int,
-                     challenge_head: bytes, period: int = 0) -> tuple[bytes, np.ndarray, np.ndarray]:
+                     challenge_head: bytes, period: int = 0, spelled: tuple[np.ndarray, bytes] | None = None
+                     ) -> tuple[bytes, np.ndarray, np.ndarray]:
     """:func:`glue_stream` of glue events of one element each (``kind`` 0 value, 1 squeeze, 2
     opening), every opening's table its own name, built with numpy: each frame is eight pieces (a head, two or three u64 numbers,
     the name once or twice, the challenge head of a squeeze, the element; an unused slot is empty)
     taken from one source buffer (the fixed heads, the u64 bytes of every number a frame holds,
     the names joined, the elements) by one gather. With ``period``, the events may come as groups
-    of that many alike (:func:`_periodic_glue_stream`)."""
+    of that many alike (:func:`_periodic_glue_stream`). ``spelled``, when the caller has them, holds the
+    names' lengths and their ASCII bytes, each name followed by a newline (as :func:`_spelled` makes them)."""
     import numpy as np
 
     if period:
-        periodic = _periodic_glue_stream(kind, names, elements, width, challenge_head, period)
+        periodic = _periodic_glue_stream(kind, names, elements, width, challenge_head, period, spelled)
         if periodic is not None:
             return periodic
 
     u8, n = np.uint8, len(names)
-    lengths = np.fromiter(map(len, names), dtype=np.int64, count=n)
+    lengths, joined = spelled if spelled is not None else _spelled(names)
     value, squeeze = kind == 0, kind == 1
     body = np.where(kind == 2, 16 + 2 * lengths + width, np.where(value, 24 + lengths + width, 24 + lengths))
     numbers = 1 << max(int(body.max()) if n else 0, 1).bit_length()  # u64 of 0 .. numbers - 1 in the table
-    joined = "\n".join(names).encode()
     fixed = b"".join((VALUE_HEAD, DRAW_HEAD, OPENING_HEAD, challenge_head))
     value_head, draw_head, opening_head = 0, len(VALUE_HEAD), len(VALUE_HEAD) + len(DRAW_HEAD)
     chead = opening_head + len(OPENING_HEAD)
@@ -195,8 +196,17 @@ def flat_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, wi
     return out.tobytes(), ends, cuts
 
 
+def _spelled(names: Sequence[str]) -> tuple[np.ndarray, bytes]:
+    """The names' lengths and their UTF-8 bytes, each name followed by a newline."""
+    import numpy as np
+
+    return (np.fromiter(map(len, names), dtype=np.int64, count=len(names)),
+            "".join([name + "\n" for name in names]).encode())
+
+
 def _periodic_glue_stream(kind: np.ndarray, names: Sequence[str], elements: bytes, width: int, challenge_head: bytes,
-                          period: int) -> tuple[bytes, np.ndarray, np.ndarray] | None:
+                          period: int, spelled: tuple[np.ndarray, bytes] | None = None
+                          ) -> tuple[bytes, np.ndarray, np.ndarray] | None:
     """:func:`flat_glue_stream` of events that come in groups of ``period`` (the glue after each run of a
     block, every run followed by as many), when every group has the first's kinds and name lengths: every
     group's frames are then the first's with other names and elements at the same offsets, so they are the
@@ -208,24 +218,28 @@ def _periodic_glue_stream(kind: np.ndarray, names: Sequence[str], elements: byte
     if count < 2 * period or count % period:
         return None
     groups = count // period
-    lengths = np.fromiter(map(len, names), dtype=np.int64, count=count)
+    lengths, joined = spelled if spelled is not None else _spelled(names)
+    if len(joined) != int(lengths.sum()) + count:
+        return None  # a name that is not ASCII: its characters are not its bytes
     shapes = (lengths * 4 + kind).reshape(groups, period)
     changes = np.flatnonzero((shapes[1:] != shapes[:-1]).any(axis=1)) + 1
     if len(changes):  # names one character longer from some group on: each stretch of groups alike apart
         if len(changes) > 64:
             return None
         parts = []
+        name_ends = np.cumsum(lengths + 1)
         for low, high in zip([0, *changes.tolist()], [*changes.tolist(), groups]):
             cut = slice(low * period, high * period)
+            begin = int(name_ends[cut.start - 1]) if cut.start else 0
             parts.append(flat_glue_stream(kind[cut], names[cut], elements[cut.start * width:cut.stop * width], width,
-                                          challenge_head, period if high - low > 1 else 0))
+                                          challenge_head, period if high - low > 1 else 0,
+                                          (lengths[cut], joined[begin:int(name_ends[cut.stop - 1])])))
         sizes = np.cumsum([0, *(len(part[0]) for part in parts)])
         return (b"".join(part[0] for part in parts), np.concatenate([part[1] + at for part, at in zip(parts, sizes)]),
                 np.concatenate([part[2] + at for part, at in zip(parts, sizes)]))
-    joined = ("\n".join(names) + "\n").encode()
-    if len(joined) != int(lengths.sum()) + count:
-        return None  # a name that is not ASCII: its characters are not its bytes
-    first, ends, cuts = flat_glue_stream(kind[:period], names[:period], elements[:period * width], width, challenge_head)
+    first_end = int(lengths[:period].sum()) + period
+    first, ends, cuts = flat_glue_stream(kind[:period], names[:period], elements[:period * width], width, challenge_head,
+                                         0, (lengths[:period], joined[:first_end]))
     size = len(first)
     rows = np.empty((groups, size), dtype=np.uint8)
     rows[:] = np.frombuffer(first, dtype=np.uint8)

@@ -129,6 +129,8 @@ def _read_by_stretch(joined: bytes, sizes: np.ndarray, width: int) -> GlueColumn
                            [name for _, read in parts for name in read.names],
                            np.concatenate([read.elements for _, read in parts]),
                            np.concatenate([read.ends + begin for begin, read in parts]),
+                           (np.concatenate([read.spelled[0] for _, read in parts]),
+                            b"".join([read.spelled[1] for _, read in parts])),
                            [(first + at, rows, lengths) for (_, read), first in zip(parts, firsts)
                             for at, rows, lengths in read.periods])
 
@@ -233,6 +235,7 @@ class GlueColumns:
         self._rows: NameRows | None = None
         self._stream: tuple[memoryview, np.ndarray, np.ndarray] | None = None
         self._periods: list[tuple[int, np.ndarray, list[int]]] = []  # stretches read as blobs alike
+        self._spelled: tuple[np.ndarray, bytes] | None = None  # the names' lengths and bytes, when read so
         self._counted: list[tuple[int, int, int, Counted]] = []  # columns of names read as templates
         if blobs_only is None:
             blobs_only = all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails)
@@ -345,6 +348,7 @@ class GlueColumns:
         self.codes = read.codes
         self.tables = self.names
         self._periods = read.periods
+        self._spelled = read.spelled
         self._one_element_each(defined)
         self.elements = read.elements
         joined = read.elements.tobytes()
@@ -537,7 +541,7 @@ class GlueColumns:
                 runs = set(map(int.__sub__, self.bounds[1:], self.bounds[:-1]))  # events after each run
                 period = runs.pop() if len(runs) == 1 else 0
                 stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes(),
-                                                               period)
+                                                               period, self._spelled)
             else:
                 tables = None if self.tables is self.names else self.tables
                 stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts,

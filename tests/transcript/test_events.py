@@ -440,6 +440,8 @@ def test_glue_columns_read_by_numpy_are_what_msgpack_unpacks(events, width):
     assert read.names == [u["name"] for u in unpacked]
     assert [bytes(row) for row in read.elements] == [u["value"] for u in unpacked]
     assert read.ends.tolist() == list(itertools.accumulate(map(len, packed)))
+    assert read.spelled[0].tolist() == [len(u["name"]) for u in unpacked]
+    assert read.spelled[1] == "".join(u["name"] + "\n" for u in unpacked).encode()
 
 
 def test_glue_columns_read_by_numpy_decline_what_msgpack_would_read_otherwise():
@@ -496,6 +498,10 @@ def test_glue_blobs_alike_read_at_once_are_what_msgpack_unpacks_or_declined(chan
         assert read.names == [u["name"] for u in unpacked]
         assert [bytes(row) for row in read.elements] == [u["value"] for u in unpacked]
         assert read.ends.tolist() == read_glue_columns(data, 8).ends.tolist()
+        assert read.spelled[0].tolist() == [len(u["name"]) for u in unpacked]
+        assert read.spelled[1] == "".join(u["name"] + "\n" for u in unpacked).encode()
+        assert [name for _, rows, lengths in read.periods for name in rows.tobytes().decode()] == list(
+            "".join(read.names))  # the names' rows, for templates
     else:
         assert read is None
     assert read_glue_periods(data[:-1], 8, len(blobs[0])) is None  # not whole blobs

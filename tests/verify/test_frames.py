@@ -102,3 +102,7 @@ def test_the_flat_glue_stream_of_groups_alike_is_the_glue_stream_of_every_event(
     codes = np.array([{"value": 0, "squeeze": 1, "opening": 2}[kind] for kind in kinds], dtype=np.int8)
     stream, ends, cuts = flat_glue_stream(codes, names, b"".join(data), 8, head, period=4)
     assert (stream, list(ends), list(cuts)) == (expected[0], list(expected[1]), list(expected[2]))
+    # the same with the names' lengths and bytes given (as the glue read from blobs hands them on)
+    spelled = (np.array([len(name) for name in names]), "".join(name + "\n" for name in names).encode())
+    given = flat_glue_stream(codes, names, b"".join(data), 8, head, 4, spelled)
+    assert (given[0], list(given[1]), list(given[2])) == (expected[0], list(expected[1]), list(expected[2]))

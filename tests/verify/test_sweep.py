@@ -1399,7 +1399,7 @@ def test_one_instance_breaking_the_glue_of_a_stretch_read_at_once_checks_as_the_
     real = frames_module.flat_glue_stream
 
     def spy(*args: object) -> object:
-        periods.append(args[-1] if len(args) > 5 else 0)  # type: ignore[arg-type]
+        periods.append(args[5] if len(args) > 5 else 0)  # type: ignore[arg-type]
         return real(*args)  # type: ignore[arg-type]
 
     monkeypatch.setattr(frames_module, "flat_glue_stream", spy)
