@@ -25,7 +25,7 @@ from __future__ import annotations
 import re
 from itertools import accumulate, chain, repeat
 from operator import itemgetter
-from typing import TYPE_CHECKING, Any, Iterator, Mapping, MutableMapping, Sequence
+from typing import TYPE_CHECKING, Any, Iterator, Mapping, MutableMapping, Sequence, overload
 
 from stepper.transcript.glue_names import Counted, GlueNames, counted_columns, digit_runs
 from stepper.transcript.glue_records import GLUE_NAME_PATTERN, NamedValue, Opening, Squeeze
@@ -143,6 +143,53 @@ def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
     return list(map(joined.__getitem__, map(slice, [0, *ends[:-1]], ends)))
 
 
+class WordColumn(Sequence[int]):
+    """Elements of a prime field below 2^64 as one numpy array of uint64, read back as ints one at a time
+    (a slice is a column too): the values of a flush's glue, of which a passing check reads a few."""
+
+    __slots__ = ("_words",)
+
+    def __init__(self, words: np.ndarray) -> None:
+        self._words = words
+
+    @overload
+    def __getitem__(self, at: int) -> int: ...
+
+    @overload
+    def __getitem__(self, at: slice) -> WordColumn: ...
+
+    def __getitem__(self, at: int | slice) -> int | WordColumn:
+        if isinstance(at, slice):
+            return WordColumn(self._words[at])
+        return int(self._words[at])
+
+    def __len__(self) -> int:
+        return len(self._words)
+
+    def __iter__(self) -> Iterator[int]:
+        return iter(self._words.tolist())
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, Sequence) and list(self) == list(other)
+
+    __hash__ = None  # type: ignore[assignment]
+
+
+def _word_column(field: Field, elements: np.ndarray) -> WordColumn | None:
+    """The elements (rows of packed bytes) as a :class:`WordColumn` when the field is a prime one below
+    2^64 packed in 4 or 8 bytes; GiveUp when one is not canonical; None for other fields."""
+    import numpy as np
+
+    width = field.elem_bytes
+    if field.is_extension or field.p >= 1 << 64 or width not in (4, 8) or elements.ndim != 2 \
+            or elements.shape[1] != width:
+        return None
+    words = np.ascontiguousarray(elements).view("<u8" if width == 8 else "<u4").reshape(-1).astype(np.uint64)
+    if len(words) and int(words.max()) >= field.p:
+        raise GiveUp("a glue element that is not canonical")
+    return WordColumn(words)
+
+
 class NameRows(Mapping[str, int]):
     """Each name's row in a flush's names (no name twice: :class:`GlueColumns` gave up on that). A name
     of a column read as a template (``counted``: the first row of its stretch, the names after each
@@ -229,6 +276,7 @@ class GlueColumns:
         self.codes: np.ndarray  # each event's kind: 0 value, 1 squeeze, 2 opening
         self.elements: np.ndarray | None = None  # one row of packed bytes per event, when each holds one element
         self.listed: list[bool]  # whether each event's value is a list
+        self.values: Sequence[Any]  # each event's element, or list of elements
         self.has_lists = False  # whether any is
         self._kinds: list[str] | None = None
         self._data: list[bytes] | None = None
@@ -351,8 +399,11 @@ class GlueColumns:
         self._spelled = read.spelled
         self._one_element_each(defined)
         self.elements = read.elements
-        joined = read.elements.tobytes()
-        elements = decoder_for(self.field)(joined)
+        words = _word_column(self.field, read.elements)
+        if words is not None:
+            self.values = words
+            return
+        elements = decoder_for(self.field)(read.elements.tobytes())
         if elements is None:
             raise GiveUp("a glue element that is not canonical")
         self.values = list(elements)

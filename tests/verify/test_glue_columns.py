@@ -116,3 +116,26 @@ def test_name_rows_of_names_held_as_templates_answer_as_a_dict_of_the_names_rows
     for name in [*names, "a17", "a1", "a0010", "q6.x", "q11.x", "r6", "beta16", "tide", "", "a10x"]:
         assert rows.get(name, -1) == index.get(name, -1) and (name in rows) == (name in index), name
     assert list(rows) == names and len(rows) == len(names)
+
+
+@pytest.mark.parametrize("field_name", ["goldilocks", "babybear"])
+def test_values_of_blobs_in_a_field_below_2_64_read_back_as_the_ints_msgpack_unpacks(field_name):
+    # the elements stay one uint64 array (WordColumn); every read gives a Python int, a slice a column, and an
+    # element at p (not canonical, transcripts/EVENTS.md) gives up as the payloads' decoding does
+    from stepper.field.field import NAMED_PRIMES, get_field
+    from stepper.verify.glue_columns import WordColumn
+
+    field = get_field(NAMED_PRIMES[field_name])
+    width = field.elem_bytes
+    rng = random.Random(11)
+    tails = [[{"type": "value", "name": f"dock{i}_{j}", "value": rng.randrange(field.p).to_bytes(width, "little")}
+              for j in range(3)] for i in range(5)]
+    glue = GlueColumns(field, [[packed(tail)] for tail in tails], {})
+    expected = [int.from_bytes(payload["value"], "little") for tail in tails for payload in tail]  # type: ignore[arg-type]
+    assert isinstance(glue.values, WordColumn)
+    assert [glue.values[i] for i in range(len(expected))] == expected == list(glue.values)
+    assert all(type(value) is int for value in [*glue.values, glue.values[4]])
+    assert list(glue.values[5:9]) == expected[5:9] and len(glue.values[5:]) == len(expected) - 5
+    tails[3][1]["value"] = field.p.to_bytes(width, "little")
+    with pytest.raises(GiveUp):
+        GlueColumns(field, [[packed(tail)] for tail in tails], {})
