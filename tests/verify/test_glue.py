@@ -399,3 +399,18 @@ def test_the_glue_book_answers_values_settled_as_columns_before_and_after_they_j
         assert lookup.get("nowhere") is None
     assert lookup["a0"] == 5 and len(lookup) == 4
     assert book.values == {"a0": 5, "b0": [1, 2], "a1": 7, "b1": 9}
+
+
+def test_the_glue_book_finds_names_at_the_end_and_in_the_middle_of_older_and_newer_columns():
+    # the ends of all columns are looked at before the rest of any: a name anywhere is found, with its own value
+    from stepper.verify.glue import GlueBook
+
+    book = GlueBook()
+    older = [f"a{i}" for i in range(300)]
+    newer = [f"b{i}" for i in range(300)]
+    book.add_columns(older, list(range(300)))
+    book.add_columns(newer, list(range(1000, 1300)))
+    lookup = book.lookup()
+    for name, value in (("a299", 299), ("a250", 250), ("a3", 3), ("b299", 1299), ("b0", 1000), ("a236", 236)):
+        assert lookup[name] == value and name in lookup
+    assert "a300" not in lookup and "b-1" not in lookup
