@@ -284,6 +284,7 @@ class GlueColumns:
         self._stream: tuple[memoryview, np.ndarray, np.ndarray] | None = None
         self._periods: list[tuple[int, np.ndarray, list[int]]] = []  # stretches read as blobs alike
         self._spelled: tuple[np.ndarray, bytes] | None = None  # the names' lengths and bytes, when read so
+        self._bounds: np.ndarray | None = None  # bounds as an array
         self._counted: list[tuple[int, int, int, Counted]] = []  # columns of names read as templates
         if blobs_only is None:
             blobs_only = all(not tail or (len(tail) == 1 and tail[0].__class__ is bytes) for tail in tails)
@@ -391,7 +392,8 @@ class GlueColumns:
         marks = np.concatenate(([0], ends))[counts]  # where the last of them ends: the blob's end, if a boundary
         if int(counts[-1]) != self.size or not np.array_equal(marks, blob_ends):
             raise GiveUp("glue blobs read otherwise than measured")
-        self.bounds = [0, *counts.tolist()]
+        self._bounds = np.concatenate(([0], counts))
+        self.bounds = self._bounds.tolist()
         self.names = read.names
         self.codes = read.codes
         self.tables = self.names
@@ -537,7 +539,21 @@ class GlueColumns:
         """The run (index in the flush) each row follows."""
         import numpy as np
 
-        return np.repeat(np.arange(len(self.bounds) - 1), np.diff(self.bounds))
+        return np.repeat(np.arange(len(self.bounds) - 1), self._steps())
+
+    def _bound_array(self) -> np.ndarray:
+        """:attr:`bounds` as an array (made once)."""
+        import numpy as np
+
+        if self._bounds is None:
+            self._bounds = np.array(self.bounds, dtype=np.int64)
+        return self._bounds
+
+    def _steps(self) -> np.ndarray:
+        """The events after each run."""
+        import numpy as np
+
+        return np.diff(self._bound_array())
 
     def records(self, run: int, instance: int) -> list[NamedValue | Squeeze | Opening]:
         """The records of the events after run ``run`` (instance ``instance``), as the Sequencer builds them."""
@@ -589,16 +605,15 @@ class GlueColumns:
             ends: Sequence[int] | np.ndarray
             cuts: Sequence[int] | np.ndarray
             if self.tables is self.names and self.size and not self.has_lists:
-                runs = set(map(int.__sub__, self.bounds[1:], self.bounds[:-1]))  # events after each run
-                period = runs.pop() if len(runs) == 1 else 0
+                steps = self._steps()  # events after each run
+                period = int(steps[0]) if len(steps) and bool((steps == steps[0]).all()) else 0
                 stream, ends, cuts = schedule.flat_glue_stream(self.codes, self.names, self.element_rows().tobytes(),
                                                                period, self._spelled)
             else:
                 tables = None if self.tables is self.names else self.tables
                 stream, ends, cuts = schedule.glue_stream(self.kinds, self.names, tables, self.data, self.counts,
                                                           self.listed)
-            bounds = np.array(self.bounds, dtype=np.int64)
-            run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[bounds]
+            run_ends = np.concatenate(([0], np.asarray(ends, dtype=np.int64)))[self._bound_array()]
             self._stream = (memoryview(stream), run_ends, np.asarray(cuts, dtype=np.int64))
         return self._stream
 
