@@ -645,19 +645,13 @@ class _Columns:
 
     def eq(self, node: Eq) -> np.ndarray:
         """prod_j (a_j b_j + (1 - a_j)(1 - b_j)) = prod_j (1 - a_j - b_j + 2 a_j b_j), per check."""
+        if self.words:
+            return self._eq_words(self.coordinates(node.left), self.coordinates(node.right))
         kernel = self.kernel
         a, b = self.point(node.left), self.point(node.right)
         if a.shape[1] != b.shape[1]:
             raise Unsupported("points of different lengths in eq(...)")
         one = self.constant(1)
-        if self.words and a.shape[1]:  # one uint64 per element: every coordinate at once, then a tree of products
-            xy = kernel.mul(a, b)
-            terms = kernel.sub(kernel.add(kernel.add(xy, xy), np.ones_like(xy)), kernel.add(a, b))
-            while terms.shape[1] > 1:
-                half = terms.shape[1] // 2
-                paired = kernel.mul(terms[:, :half], terms[:, half:2 * half])
-                terms = np.concatenate((paired, terms[:, 2 * half:]), axis=1) if terms.shape[1] % 2 else paired
-            return np.ascontiguousarray(terms[:, 0])
         acc = one
         for j in range(a.shape[1]):
             x, y = a[:, j], b[:, j]
@@ -665,3 +659,44 @@ class _Columns:
             term = kernel.sub(kernel.add(one, kernel.add(xy, xy)), kernel.add(x, y))
             acc = kernel.mul(acc, term)
         return acc
+
+    def coordinates(self, side: Any) -> np.ndarray:
+        """A side of eq(...) for a kernel of one uint64 per element, coordinate-major: row j holds
+        x_(j+1) of every check, or of all checks at once (one column) when they all name one list."""
+        from stepper.field.expr_syntax import Table
+
+        if side is None:  # the instance's own point: its challenges in variable order
+            group = self.group
+            steps = np.arange(group.num_vars, dtype=np.int64)
+            if group.order == "high-first":
+                steps = steps[::-1]
+            firsts = np.fromiter(group.first_rows, dtype=np.int64, count=len(group.first_rows))
+            return group.challenges[steps[:, None] + firsts]  # type: ignore[no-any-return]
+        if isinstance(side, Table):
+            column = self.lists(side.name)
+            if len(column) == 1:
+                return self.array(column[0]).reshape(-1, 1)
+        return np.ascontiguousarray(self.point(side).T)
+
+    def _eq_words(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """:meth:`eq` of two points given by :meth:`coordinates`: the factors of every coordinate at once,
+        then their product down the coordinates by halves (rows of contiguous memory)."""
+        if len(a) != len(b):
+            raise Unsupported("points of different lengths in eq(...)")
+        if not len(a):
+            return self.constant(1)
+        kernel = self.kernel
+        if a.shape[1] > b.shape[1]:
+            a, b = b, a
+        one = np.ones_like(a)
+        if a.shape[1] == 1:  # one point a for every check: each factor (1 - a_j) + (2 a_j - 1) b_j is linear in b_j
+            factors = kernel.add(kernel.mul(b, kernel.sub(kernel.add(a, a), one)), kernel.sub(one, a))
+        else:
+            ab = kernel.mul(a, b)
+            factors = kernel.sub(kernel.add(kernel.add(ab, ab), one), kernel.add(a, b))
+        while len(factors) > 1:
+            half = len(factors) // 2
+            paired = kernel.mul(factors[:half], factors[half:2 * half])
+            factors = np.concatenate((paired, factors[2 * half:])) if len(factors) % 2 else paired
+        product = factors[0]
+        return self.repeated(product) if len(product) < self.n else product

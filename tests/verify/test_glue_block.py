@@ -119,6 +119,42 @@ def test_one_wrong_value_among_many_fails_the_whole_group(name, where):
     assert not gathered(name, starts, challenges, finals).check(values)
 
 
+EQ_CLAIM = "eq(w, v) * e{i} + 2*eq(w, u{i}) + 3*eq(u{i}, w) + eq(u{i}, s{i}) - eq(w, w)"
+EQ_FINAL = "eq(w) * e{i} + 2*eq(u{i})"
+
+
+@pytest.mark.parametrize("name", sorted(ARITHMETIC))
+@pytest.mark.parametrize("num_vars", [1, 2, 3, 5])
+@pytest.mark.parametrize("wrong", [None, "claim", "final"])
+def test_eq_of_every_kind_of_point_is_the_product_over_its_coordinates(name, num_vars, wrong):
+    # eq's sides: one list for every check (w, v), a list per check (u{i}, s{i}), the instance's own point,
+    # in either order, both sides shared; points of odd and even lengths (the product is taken by halves)
+    ar, rng = ARITHMETIC[name], random.Random(num_vars)
+    point = [element(ar, rng) for _ in range(num_vars)]
+    w, v = point, [element(ar, rng) for _ in range(num_vars)]
+    values: dict[str, object] = {"w": w, "v": v}
+    starts, challenges, finals = [], [], []
+    for i in range(24):
+        u, s = ([element(ar, rng) for _ in range(num_vars)] for _ in range(2))
+        e = element(ar, rng)
+        values.update({f"u{i}": u, f"s{i}": s, f"e{i}": e})
+        order = rng.choice(["low-first", "high-first"])
+        rounds = [element(ar, rng) for _ in range(num_vars)]
+        own = rounds if order == "low-first" else rounds[::-1]
+        claim = ar.sub(ar.add(ar.add(ar.add(ar.mul(eq_plain(ar, w, v), e), ar.mul(ar.const(2), eq_plain(ar, w, u))),
+                                     ar.mul(ar.const(3), eq_plain(ar, u, w))), eq_plain(ar, u, s)), eq_plain(ar, w, w))
+        final = ar.add(ar.mul(eq_plain(ar, w, own), e), ar.mul(ar.const(2), eq_plain(ar, u, own)))
+        if wrong == "claim" and i == 11:
+            claim = ar.add(claim, ar.const(1))
+        if wrong == "final" and i == 23:
+            final = ar.sub(final, ar.const(1))
+        starts.append(InstanceStart(i, f"deck.{i}", num_vars, 2, claim, order=order,
+                                    claim_expr=EQ_CLAIM.format(i=i), final_expr=EQ_FINAL.format(i=i)))
+        challenges.extend(rounds)
+        finals.append(final)
+    assert gathered(name, starts, challenges, finals).check(values) == (wrong is None)
+
+
 def test_names_sent_in_time_and_of_the_right_kind_pass_the_sequencer_rules():
     starts, values, challenges, finals = glued_instances("goldilocks", 4, 2, seed=10)
     checks = gathered("goldilocks", starts, challenges, finals)
