@@ -26,7 +26,7 @@ from __future__ import annotations
 
 import re
 from bisect import bisect_right
-from itertools import chain
+from itertools import accumulate, chain
 from typing import TYPE_CHECKING, Callable, Iterator, Sequence, TypeVar, overload
 
 from stepper.transcript.events import longest_text
@@ -43,6 +43,7 @@ __all__ = ["holes_of", "placed_names", "PlacedNames", "Chained", "joined_columns
 _WORDS = re.compile(rb"[A-Za-z0-9_.]+")  # maximal runs of the characters a name may hold
 _FIRST_CHARS = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz_"
 _CALL_WORDS = (b"eq", b"point", b"final")
+_CALL_WORD_SIZES = frozenset(map(len, _CALL_WORDS))
 SAME, OWN, BEFORE = "same", "own", "before"  # where a hole's names stand (PlacedNames.place)
 
 
@@ -236,7 +237,7 @@ def placed_names(periods: np.ndarray, holes: list[tuple[int, int]], glue_names: 
     columns = np.concatenate([np.arange(begin, end) for begin, end in holes])
     picked = periods[:, columns]  # every hole's bytes, instance by instance
     expected = np.empty_like(picked)
-    starts = np.cumsum([0, *(end - begin for begin, end in holes[:-1])]).tolist()
+    starts = list(accumulate((end - begin for begin, end in holes[:-1]), initial=0))
     for (begin, end), at, (kind, e) in zip(holes, starts, places):
         out = expected[:, at:at + end - begin]
         if kind == SAME:
@@ -255,14 +256,23 @@ def placed_names(periods: np.ndarray, holes: list[tuple[int, int]], glue_names: 
     for (begin, end), at, place in zip(holes, starts, places):
         rows = picked[:, at:at + end - begin]
         size = end - begin
-        if size in (2, 5):  # a call word where the first text has a name would read otherwise
-            heads = set(rows[:, 0].tolist()) if place[0] != SAME else {int(rows[0, 0])}
-            for word in _CALL_WORDS:
-                if len(word) == size and word[0] in heads \
-                        and (rows == np.frombuffer(word, dtype=np.uint8)).all(axis=1).any():
-                    return None
+        if _holds_call_word(rows[:1] if place[0] == SAME else rows):  # read otherwise than the first text's name
+            return None
         out_columns.append(PlacedNames(rows, place))
     return out_columns
+
+
+def _holds_call_word(rows: np.ndarray) -> bool:
+    """Whether some row (a name's bytes) is a call word."""
+    if rows.shape[1] not in _CALL_WORD_SIZES:
+        return False
+    import numpy as np
+
+    for word in _CALL_WORDS:
+        if len(word) == rows.shape[1] and bool((rows[:, 0] == word[0]).any()) \
+                and bool((rows == np.frombuffer(word, dtype=np.uint8)).all(axis=1).any()):
+            return True
+    return False
 
 
 def placed_rows(column: Sequence[str], runs: np.ndarray, firsts: np.ndarray, names: Sequence[str],
