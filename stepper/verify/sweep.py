@@ -208,8 +208,8 @@ class _Sweeper:
     def _offset(self) -> int:
         return len(MAGIC) + self.unpacker.tell()
 
-    def _refill(self) -> bool:
-        chunk = self.handle.read(self.limits.chunk_bytes)
+    def _refill(self, size: int = 0) -> bool:
+        chunk = self.handle.read(size or self.limits.chunk_bytes)
         if not chunk:
             return False
         self.total += len(chunk)
@@ -525,14 +525,16 @@ class _Sweeper:
         self._after_runs(count * num_vars, count * num_vars * stride)
         return True
 
-    def _take_glued_alike(self) -> bool:
+    def _take_glued_alike(self, widen: bool = True) -> bool:
         """:meth:`_take_uniform` for instances with a ``claim_expr`` or a ``final_expr`` and the glue after
         their runs: each period the bytes of the first but what may differ (:func:`instance_spans`: the
         name, degree, claim and texts, each of the same length; the round values, challenges and final;
         the glue's names, of the same lengths, and elements), all compared with numpy at once; each run's
         glue is the first's in layout (its every byte is read again by the flush), the next event right
-        after it. Returns whether any were taken (two at least, the glue after the last left to
-        :meth:`_take_glue`), or False having read nothing."""
+        after it. Where the chunk's end, not the block's room, would stop them, the next chunk is read
+        first (``widen``, :meth:`_widen`), so that a block's instances are taken in few calls (each costs
+        as much again in numpy calls and columns joined). Returns whether any were taken (two at least,
+        the glue after the last left to :meth:`_take_glue`), or False having read nothing."""
         layout, find, glue_run = self.layout, self.instance_head, self.glue_run
         if layout is None or find is None or glue_run is None or not self.seq.glue:
             return False
@@ -552,8 +554,13 @@ class _Sweeper:
         glue_len = glue_run(data, at + run_end)
         period = run_end + glue_len
         rows_left, size_left = BLOCK_ROUNDS - self.rows, self.limits.chunk_bytes * 8 - self.pending_bytes
-        count = min((len(data) - at) // period, -(-rows_left // num_vars), -(-size_left // (num_vars * stride)))
-        if count < 2 or not glue_len:
+        room = min(-(-rows_left // num_vars), -(-size_left // (num_vars * stride)))
+        if not glue_len:
+            return False
+        if widen and (len(data) - at) // period < room and self._widen(room * period - (len(data) - at)):
+            return self._take_glued_alike(widen=False)
+        count = min((len(data) - at) // period, room)
+        if count < 2:
             return False
         import numpy as np
 
@@ -617,6 +624,18 @@ class _Sweeper:
         self.runs.append(glued)
         self.trailing.append(glued)  # stands for the glue after each of its runs but the last
         self._after_runs(count * num_vars, count * num_vars * stride)
+        return True
+
+    def _widen(self, more: int) -> bool:
+        """Read the next ``more`` bytes (a chunk at least; at most eight, or what the unpacker may hold beyond
+        one) and make the window the unread rest of the last chunk followed by them (the unpacker holds just
+        those bytes); False, the window unchanged, at the file's end."""
+        data, data_at = self.window
+        at = self.unpacker.tell() - data_at
+        chunk = self.limits.chunk_bytes
+        if at < 0 or not self._refill(max(chunk, min(more, 8 * chunk, self.limits.max_event_bytes))):
+            return False
+        self.window = (data[at:] + self.window[0], data_at + at)
         return True
 
     def _take_glue(self, tail: list[Any]) -> None:

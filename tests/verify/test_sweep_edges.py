@@ -721,3 +721,65 @@ def test_a_glue_name_sent_twice_among_names_held_as_templates_is_refused_as_the_
     write_named(path, **written, sent_as=sent_as)
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     assert code == 2 and swept is None and "unique" in err, (code, out, err)
+
+
+# ----- 9. instances laid out alike read on across chunks ----------------------------------
+
+WIDENED_FAULTS = {
+    None: None,
+    "an opening one off in the middle": ("opening", 57),
+    "a squeeze one off in the middle": ("squeeze", 91),
+    "an opening one off in the last instance": ("opening", 129),
+}
+
+
+def stretches_taken(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """The number of instances of each stretch laid out alike the Sequencer takes together while the test runs."""
+    from stepper.transcript.events import Sequencer
+
+    counts: list[int] = [0]
+    real = Sequencer.glued_columns
+
+    def spy(self: Sequencer, names: Any, *args: Any) -> Any:
+        counts.append(len(names))
+        return real(self, names, *args)
+
+    monkeypatch.setattr(Sequencer, "glued_columns", spy)
+    return counts
+
+
+@pytest.mark.parametrize("chunk", [700, 4096])
+@pytest.mark.parametrize("fault", list(WIDENED_FAULTS))
+def test_glued_instances_read_on_across_small_chunks_check_as_the_replay(tmp_path, capsys, monkeypatch, chunk, fault):
+    # where a chunk's end would cut a stretch of glued instances laid out alike, the sweep reads the next bytes
+    # first and takes the stretch whole (_widen); with chunks of a few periods that happens at every stretch, so
+    # any fault falls inside a window read on: the output is the replay's, byte for byte (exit 1 and given up on
+    # for a fault, exit 0 and taken for the honest proof)
+    from stepper.transcript.store.reader import ReadLimits
+
+    monkeypatch.setattr(helpers.sweep_module, "ReadLimits", lambda: ReadLimits(chunk_bytes=chunk))
+    path = tmp_path / "widened.sumtr"
+    write_named(path)
+    if WIDENED_FAULTS[fault] is not None:
+        kind, instance = WIDENED_FAULTS[fault]  # type: ignore[misc]
+        path.write_bytes(one_off(path.read_bytes(), instance, kind))
+    taken = stretches_taken(monkeypatch)
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    # not vacuous: some stretch was read on into the next chunk and taken at once, longer than a chunk holds
+    assert max(taken) * (len(path.read_bytes()) // 130) > chunk, taken
+    assert (code, swept is None) == ((0, False) if fault is None else (1, True)), (code, out, err)
+    if fault is not None:
+        assert f"instance #{WIDENED_FAULTS[fault][1]} " in out, out  # type: ignore[index]
+
+
+@pytest.mark.parametrize("fault", list(NAME_FAULTS)[:3])
+def test_a_glue_name_sent_twice_in_a_window_read_on_is_refused_as_the_replay_refuses_it(tmp_path, capsys, monkeypatch,
+                                                                                       fault):
+    from stepper.transcript.store.reader import ReadLimits
+
+    monkeypatch.setattr(helpers.sweep_module, "ReadLimits", lambda: ReadLimits(chunk_bytes=4096))
+    path = tmp_path / "twice.sumtr"
+    written, sent_as = NAME_FAULTS[fault]
+    write_named(path, **written, sent_as=sent_as)
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 2 and swept is None and "unique" in err, (code, out, err)
