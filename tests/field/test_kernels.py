@@ -479,3 +479,23 @@ def test_mod_u64_is_the_python_remainder_for_any_uint64_and_modulus(values, modu
     assert mod_u64(x, np.uint64(modulus)).tolist() == expected
     mod_u64(x, np.uint64(modulus), out=x)  # in place, as the kernels use it
     assert x.tolist() == expected
+
+
+def test_goldilocks_products_worked_in_place_leave_their_operands_and_broadcast_as_numpy_does():
+    # reference: plain Python integers; p = 2^64 - 2^32 + 1 (common practice, no source). The values
+    # around 2^32, 2^63 and p - 1 make every carry of the 32-bit halves and of the reduction happen
+    kernel = GoldilocksKernel(named("goldilocks"))
+    p = kernel.p
+    edges = [0, 1, 2, 2**32 - 1, 2**32, 2**32 + 1, 2**63 - 1, 2**63, p - 2**32, p - 2, p - 1]
+    rng = np.random.default_rng(64)
+    xs = np.array([x for x in edges for _ in edges] + rng.integers(0, p, 300, dtype=np.uint64).tolist(), dtype=np.uint64)
+    ys = np.array([y for _ in edges for y in edges] + rng.integers(0, p, 300, dtype=np.uint64).tolist(), dtype=np.uint64)
+    kept = xs.copy(), ys.copy()
+    assert kernel.mul(xs, ys).tolist() == [int(x) * int(y) % p for x, y in zip(xs.tolist(), ys.tolist())]
+    assert np.array_equal(xs, kept[0]) and np.array_equal(ys, kept[1])
+    matrix, column = xs[:88].reshape(8, 11), ys[:8].reshape(8, 1)  # a column against every row's entries
+    want = [[int(x) * int(column[i, 0]) % p for x in row] for i, row in enumerate(matrix.tolist())]
+    assert kernel.mul(matrix, column).tolist() == want and kernel.mul(column, matrix).tolist() == want
+    assert kernel.mul(xs[:5], np.uint64(p - 1)).tolist() == [int(x) * (p - 1) % p for x in xs[:5].tolist()]
+    single = kernel.mul(np.uint64(p - 1), np.uint64(2**63))
+    assert single.shape == () and int(single) == (p - 1) * 2**63 % p

@@ -206,18 +206,42 @@ class GoldilocksKernel(WideKernel):
             fa, fb, shape = _pair(a, b)
             return compiled.gl_mul(fa, fb, np.empty_like(fa)).reshape(shape)  # type: ignore[no-any-return]
         a, b = np.asarray(a, dtype=np.uint64), np.asarray(b, dtype=np.uint64)
+        if not a.ndim and not b.ndim:  # two scalars: the products below are worked in place, in arrays
+            return self.mul(a.reshape(1), b.reshape(1))[0]  # type: ignore[no-any-return]
         m32 = np.uint64(0xFFFFFFFF)
         s32 = np.uint64(32)
         a0, a1 = a & m32, a >> s32
         b0, b1 = b & m32, b >> s32
-        lo = a0 * b0
-        mid1 = a0 * b1
-        mid = mid1 + a1 * b0
-        mid_carry = (mid < mid1).astype(np.uint64)  # worth 2^96
-        lo_new = lo + (mid << s32)
-        carry = (lo_new < lo).astype(np.uint64)
-        hi = a1 * b1 + (mid >> s32) + (mid_carry << s32) + carry
-        return self.reduce128(lo_new, hi)
+        # a b = hi 2^64 + mid 2^32 + lo over 32-bit halves; each product below has the operands' broadcast shape
+        lo, mid, cross, hi = a0 * b0, a0 * b1, a1 * b0, a1 * b1
+        mid += cross
+        np.less(mid, cross, out=cross)  # the middle sum's carry, worth 2^96 = 2^32 * 2^64
+        cross <<= s32
+        hi += cross
+        np.right_shift(mid, s32, out=cross)
+        hi += cross
+        mid <<= s32
+        lo += mid
+        np.less(lo, mid, out=mid)  # the low word's carry
+        hi += mid
+        return self._reduced(lo, hi)
+
+    def _reduced(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        """:meth:`reduce128` worked in place in ``lo`` and ``hi`` (both overwritten: the product's own words)."""
+        m32 = np.uint64(0xFFFFFFFF)
+        hh = hi >> np.uint64(32)
+        hi &= m32
+        borrow = lo < hh
+        lo -= hh
+        np.multiply(borrow, m32, out=hh)  # borrow: subtract 2^64 = add p - 2^64 = -(2^32 - 1)
+        lo -= hh
+        hi *= m32  # hl * (2^32 - 1) < 2^64
+        lo += hi
+        np.less(lo, hi, out=hh)  # carry: add 2^64 = 2^32 - 1
+        hh *= m32
+        lo += hh
+        np.subtract(lo, self.p64, out=hh)
+        return np.minimum(lo, hh, out=lo)  # below p, lo - p wraps above lo
 
     def reduce128(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
         """(hi * 2^64 + lo) mod p with hi = hh * 2^32 + hl: lo - hh + hl * (2^32 - 1)."""
