@@ -422,6 +422,8 @@ def _rows_by_place(column: Sequence[str], runs: np.ndarray, index: Mapping[str, 
     checks of consecutive runs, the names at those places are one slice of ``names``."""
     count = len(column)
     anchor, row = 0, index.get(column[0], -1) if count and len(run_of_row) else -1
+    if count == 1 and len(run_of_row):  # the one name looked up already
+        return np.full(1, row, dtype=np.int64)
     if row < 0 and count > 1 and len(run_of_row):
         anchor, row = 1, index.get(column[1], -1)
     if row < 0:

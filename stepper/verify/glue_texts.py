@@ -179,7 +179,16 @@ class Chained(_Parts[str]):
 
     def __getitem__(self, index: int | slice) -> str | list[str]:
         if isinstance(index, slice):
-            return list(self)[index]
+            begin, end, step = index.indices(len(self))
+            if step != 1:
+                return list(self)[index]
+            names: list[str] = []  # read from the parts the slice covers only
+            for part, low in zip(self.parts, self.starts):
+                if low >= end:
+                    break
+                if low + len(part) > begin:
+                    names += part[max(begin - low, 0):end - low]
+            return names
         return self._entry(index)
 
     def count(self, value: object) -> int:

@@ -116,6 +116,20 @@ def test_columns_joined_stay_lists_when_every_part_is_one():
         chained[4]
 
 
+def test_a_slice_of_chained_columns_is_the_joined_lists_slice_and_reads_only_the_parts_it_covers():
+    first = PlacedNames(np.frombuffer(b"a10a11a12a13", dtype=np.uint8).reshape(4, 3), (OWN, 0))
+    last = PlacedNames(np.frombuffer(b"b20b21b22", dtype=np.uint8).reshape(3, 3), (BEFORE, 1))
+    chained = joined_columns([["tau"], first, [], ["x", "y"], last])
+    joined = ["tau", "a10", "a11", "a12", "a13", "x", "y", "b20", "b21", "b22"]
+    assert isinstance(chained, Chained) and chained[:1] == ["tau"]
+    assert first._names is None and last._names is None  # the first entry read alone: no part after it
+    assert list(chained) == joined
+    for begin in range(-11, 12):
+        for end in (None, *range(-11, 12)):
+            for step in (None, 1, 2, -1):
+                assert chained[begin:end:step] == joined[begin:end:step], (begin, end, step)
+
+
 def test_texts_kept_as_bytes_read_as_the_strings_they_hold_and_slice_without_being_read():
     texts = ["a1 + b1", "a2 + b2", "a3 + b3"]
     fixed = FixedTexts(np.frombuffer("".join(texts).encode(), dtype=np.uint8).reshape(3, -1))
