@@ -234,17 +234,24 @@ class GlueColumnsRead:
     by a newline; ``periods`` the stretches read as blobs alike (:func:`read_glue_periods`): (the index
     of its first name, its names' bytes as rows, a row per blob, and the lengths of a blob's names)."""
 
-    __slots__ = ("codes", "names", "elements", "ends", "spelled", "periods")
+    __slots__ = ("codes", "_names", "elements", "ends", "spelled", "periods")
 
-    def __init__(self, codes: np.ndarray, names: list[str], elements: np.ndarray, ends: np.ndarray,
+    def __init__(self, codes: np.ndarray, names: list[str] | None, elements: np.ndarray, ends: np.ndarray,
                  spelled: tuple[np.ndarray, bytes], periods: list[tuple[int, np.ndarray, list[int]]] | None = None
                  ) -> None:
         self.codes = codes
-        self.names = names
+        self._names = names  # None: made from ``spelled`` when asked for
         self.elements = elements
         self.ends = ends
         self.spelled = spelled
         self.periods = periods or []
+
+    @property
+    def names(self) -> list[str]:
+        """The names, as strings (made once, when first asked for)."""
+        if self._names is None:
+            self._names = self.spelled[1].decode("ascii").split("\n")[:-1]
+        return self._names
 
 
 @lru_cache(maxsize=1)
@@ -357,12 +364,11 @@ def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | N
         return None
     rows = np.full((count, len(name_columns) + len(lengths)), 0x0A, dtype=np.uint8)  # each name, then a newline
     rows[:, np.arange(len(name_columns)) + np.repeat(np.arange(len(lengths)), lengths)] = picked
-    joined = rows.tobytes()
-    names = joined.decode("ascii").split("\n")[:-1]
+    joined = rows.tobytes()  # the names as strings only when asked for (GlueColumnsRead.names)
     element_columns = (np.array(element_at)[:, None] + np.arange(width)).ravel()
     elements = blobs[:, element_columns].reshape(count * len(lengths), width)
     ends = (np.arange(count, dtype=np.int64)[:, None] * size + first.ends).ravel()
-    return GlueColumnsRead(np.tile(first.codes, count), names, elements, ends,
+    return GlueColumnsRead(np.tile(first.codes, count), None, elements, ends,
                            (np.tile(np.array(lengths, dtype=np.int64), count), joined), [(0, picked, lengths)])
 
 

@@ -124,9 +124,8 @@ def _read_by_stretch(joined: bytes, sizes: np.ndarray, width: int) -> GlueColumn
         return parts[0][1]
     if not parts:
         return read_glue_columns(b"", width)
-    firsts = accumulate((len(read.names) for _, read in parts), initial=0)
-    return GlueColumnsRead(np.concatenate([read.codes for _, read in parts]),
-                           [name for _, read in parts for name in read.names],
+    firsts = accumulate((len(read.codes) for _, read in parts), initial=0)
+    return GlueColumnsRead(np.concatenate([read.codes for _, read in parts]), None,
                            np.concatenate([read.elements for _, read in parts]),
                            np.concatenate([read.ends + begin for begin, read in parts]),
                            (np.concatenate([read.spelled[0] for _, read in parts]),
@@ -141,6 +140,80 @@ def _cut(joined: bytes, sizes: np.ndarray) -> list[bytes]:
 
     ends = np.cumsum(sizes).tolist()
     return list(map(joined.__getitem__, map(slice, [0, *ends[:-1]], ends)))
+
+
+class NameColumn(Sequence[str]):
+    """Glue names as the bytes they were read from (``joined``: each name, then a newline; ``lengths`` each
+    name's), made strings one at a time when read, or all at once when iterated: a passing check reads a few
+    of a flush's names (their rows come by place), so most never become strings. A slice is a column of the
+    same bytes (a step other than one gives a list); ``index`` and ``in`` search the bytes."""
+
+    __slots__ = ("_joined", "_starts", "_lengths")
+
+    def __init__(self, lengths: np.ndarray, joined: bytes, starts: np.ndarray | None = None) -> None:
+        import numpy as np
+
+        self._joined = joined
+        self._lengths = lengths
+        self._starts = np.cumsum(lengths + 1) - (lengths + 1) if starts is None else starts
+
+    def __len__(self) -> int:
+        return len(self._lengths)
+
+    @overload
+    def __getitem__(self, at: int) -> str: ...
+
+    @overload
+    def __getitem__(self, at: slice) -> Sequence[str]: ...
+
+    def __getitem__(self, at: int | slice) -> str | Sequence[str]:
+        if isinstance(at, slice):
+            begin, end, step = at.indices(len(self))
+            if step != 1:
+                return [self[i] for i in range(begin, end, step)]
+            return NameColumn(self._lengths[begin:end], self._joined, self._starts[begin:max(begin, end)])
+        if at < 0:
+            at += len(self)
+        if not 0 <= at < len(self):
+            raise IndexError("name index out of range")
+        start = int(self._starts[at])
+        return self._joined[start:start + int(self._lengths[at])].decode("ascii")
+
+    def __iter__(self) -> Iterator[str]:
+        if not len(self):
+            return iter(())
+        begin, end = int(self._starts[0]), int(self._starts[-1]) + int(self._lengths[-1])
+        return iter(self._joined[begin:end].decode("ascii").split("\n"))
+
+    def index(self, name: object, start: int = 0, stop: int | None = None) -> int:
+        """The first row from ``start`` (up to ``stop``) holding ``name``; ValueError when none does."""
+        import numpy as np
+
+        count = len(self)
+        stop = count if stop is None else min(stop, count)
+        if name.__class__ is not str or "\n" in name or not name.isascii() or not 0 <= start < stop:  # type: ignore[operator, attr-defined]
+            raise ValueError(f"{name!r} is not in the column")
+        encoded = name.encode("ascii")  # type: ignore[attr-defined]
+        first = int(self._starts[start])
+        if self._joined.startswith(encoded + b"\n", first):
+            return start
+        end = int(self._starts[stop - 1]) + int(self._lengths[stop - 1]) + 1
+        found = self._joined.find(b"\n" + encoded + b"\n", first, end)
+        if found < 0:
+            raise ValueError(f"{name!r} is not in the column")
+        return start + int(np.searchsorted(self._starts[start:stop], found + 1))
+
+    def __contains__(self, name: object) -> bool:
+        try:
+            self.index(name)
+        except ValueError:
+            return False
+        return True
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, Sequence) and list(self) == list(other)
+
+    __hash__ = None  # type: ignore[assignment]
 
 
 class WordColumn(Sequence[int]):
@@ -203,7 +276,7 @@ class NameRows(Mapping[str, int]):
     __slots__ = ("_names", "_index", "_hashes", "_searches", "_counted", "_others")
     SEARCHES = 256  # look-ups by hash before the dict is built
 
-    def __init__(self, names: list[str], counted: Sequence[tuple[int, int, int, Counted]] = ()) -> None:
+    def __init__(self, names: Sequence[str], counted: Sequence[tuple[int, int, int, Counted]] = ()) -> None:
         self._names = names
         self._index: dict[str, int] | None = None
         self._hashes: Any = None
@@ -277,6 +350,8 @@ class GlueColumns:
         self.elements: np.ndarray | None = None  # one row of packed bytes per event, when each holds one element
         self.listed: list[bool]  # whether each event's value is a list
         self.values: Sequence[Any]  # each event's element, or list of elements
+        self.names: Sequence[str]  # each event's name
+        self.tables: Sequence[str]  # each event's table (an opening's; the name itself for the others)
         self.has_lists = False  # whether any is
         self._kinds: list[str] | None = None
         self._data: list[bytes] | None = None
@@ -317,7 +392,7 @@ class GlueColumns:
             raise GiveUp("a glue event without a name or value, or a name that is not text") from None
         if payloads and _NAMES.fullmatch(joined) is None:
             raise GiveUp("a glue name outside the pattern")
-        self.names: list[str] = names
+        self.names = names
         self.tables = self._tables(payloads)
         types = set(map(type, raws))
         if list not in types:  # one element each (the usual case): no per-event work
@@ -385,7 +460,7 @@ class GlueColumns:
         if read is None:
             self._take_blobs(_cut(joined, sizes), defined)
             return
-        self.size = self.from_bytes = len(read.names)
+        self.size = self.from_bytes = len(read.codes)
         ends = read.ends
         blob_ends = np.cumsum(sizes)
         counts = np.searchsorted(ends, blob_ends, side="right")  # events ending by each blob's end
@@ -394,7 +469,7 @@ class GlueColumns:
             raise GiveUp("glue blobs read otherwise than measured")
         self._bounds = np.concatenate(([0], counts))
         self.bounds = self._bounds.tolist()
-        self.names = read.names
+        self.names = NameColumn(*read.spelled)
         self.codes = read.codes
         self.tables = self.names
         self._periods = read.periods
@@ -447,7 +522,7 @@ class GlueColumns:
         self.data = list(map(itemgetter(3), rows))
         self.values = self._decode(self.data, self.data)
 
-    def _tables(self, payloads: list[Mapping[str, Any]]) -> list[str]:
+    def _tables(self, payloads: list[Mapping[str, Any]]) -> Sequence[str]:
         """Each opening's table (its name unless the payload names one); the names themselves stand
         for the others, which have none."""
         if sum(map(len, payloads)) == 3 * len(payloads):  # type, name, value only: no table named apart

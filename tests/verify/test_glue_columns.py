@@ -9,6 +9,7 @@ import struct
 
 import msgpack
 import pytest
+from hypothesis import given, settings, strategies as st
 
 from stepper.field.field import get_field
 from stepper.verify.glue_columns import GlueColumns
@@ -139,3 +140,40 @@ def test_values_of_blobs_in_a_field_below_2_64_read_back_as_the_ints_msgpack_unp
     tails[3][1]["value"] = field.p.to_bytes(width, "little")
     with pytest.raises(GiveUp):
         GlueColumns(field, [[packed(tail)] for tail in tails], {})
+
+
+NAME_TEXT = st.from_regex(r"[A-Za-z_][A-Za-z0-9_.]{0,6}", fullmatch=True)
+
+
+@settings(max_examples=200, deadline=None)
+@given(names=st.lists(st.sampled_from(["a1", "a10", "a", "b1", "a1.x", "_1", "beta10"]) | NAME_TEXT, max_size=12),
+       probes=st.lists(st.sampled_from(["a1", "a10", "a", "1", "", "a1\nb1", "é", "b1"]) | NAME_TEXT, max_size=6),
+       cut=st.tuples(st.integers(-14, 14), st.integers(-14, 14), st.sampled_from([None, 1, 2, -1])))
+def test_a_name_column_answers_as_the_list_of_its_names(names, probes, cut):
+    # the reference is the plain list of strings the column stands for (names may repeat here: a column does
+    # not judge them; index gives the first)
+    import numpy as np
+
+    from stepper.verify.glue_columns import NameColumn
+
+    column = NameColumn(np.array([len(name) for name in names], dtype=np.int64),
+                        "".join(name + "\n" for name in names).encode())
+    sliced, expected = column[slice(*cut)], names[slice(*cut)]
+    for got, want in ((column, names), (sliced, expected)):
+        assert len(got) == len(want) and list(got) == want and got == want
+        assert [got[i] for i in range(-len(want), len(want))] == [want[i] for i in range(-len(want), len(want))]
+        for probe in [*probes, *want[:3]]:
+            assert (probe in got) == (probe in want)
+            for start, stop in ((0, None), (1, None), (1, len(want) - 1), (2, 3)):
+                try:
+                    index = want.index(probe, start, len(want) if stop is None else stop)
+                except ValueError:
+                    index = None
+                bounds = (start,) if stop is None else (start, stop)
+                if index is None:
+                    with pytest.raises(ValueError):
+                        got.index(probe, *bounds)
+                else:
+                    assert got.index(probe, *bounds) == index
+    with pytest.raises(IndexError):
+        column[len(names)]
