@@ -128,7 +128,7 @@ class StartColumns:
         """The instances at ``chosen``, in that order. Positions in a row (every instance but the first,
         whose claim has no claim_expr) are one slice of each column: a column of texts kept as bytes is
         not read text by text."""
-        if len(chosen) and chosen[-1] - chosen[0] == len(chosen) - 1 and all(map(lt, chosen, islice(chosen, 1, None))):
+        if _in_a_row(chosen):
             return StartColumns(*(column[chosen[0]:chosen[-1] + 1] for column in self._columns()))
         return StartColumns(*([column[i] for i in chosen] for column in self._columns()))
 
@@ -201,15 +201,32 @@ def _joined_shapes(parts: list[tuple[list[TextShape] | None, Sequence[str | None
         if shapes is None:
             return None
         for template, columns, positions in shapes:
-            moved = range(positions.start + offset, positions.stop + offset) if isinstance(positions, range) \
-                and positions.step == 1 else [offset + i for i in positions]
+            moved = range(positions[0] + offset, positions[-1] + offset + 1) if _in_a_row(positions) \
+                else [offset + i for i in positions]
             group = groups.setdefault(id(template), (template, [[] for _ in columns], []))
             for pieces, column in zip(group[1], columns):
                 pieces.append(column)
             group[2].append(moved)
         offset += len(texts)
-    return [(template, [joined_columns(pieces) for pieces in columns], list(chain.from_iterable(positions)))
+    return [(template, [joined_columns(pieces) for pieces in columns], _joined_positions(positions))
             for template, columns, positions in groups.values()]
+
+
+def _in_a_row(positions: Sequence[int]) -> bool:
+    """Whether ``positions`` (not empty) count up by one."""
+    if positions.__class__ is range:
+        return len(positions) > 0 and positions.step == 1  # type: ignore[attr-defined]
+    return len(positions) > 0 and positions[-1] - positions[0] == len(positions) - 1 and all(
+        map(lt, positions, islice(positions, 1, None)))
+
+
+def _joined_positions(parts: list[Sequence[int]]) -> Sequence[int]:
+    """Positions given in parts, one part after another: one range when every part is a range following
+    on the one before, else a list."""
+    if all(part.__class__ is range for part in parts) and all(
+            before.stop == after.start for before, after in zip(parts, islice(parts, 1, None))):  # type: ignore[attr-defined]
+        return range(parts[0].start, parts[-1].stop) if parts else []  # type: ignore[attr-defined]
+    return list(chain.from_iterable(parts))
 # an instance settled in bulk: its run in the flush, start, final value, the challenges of its block and
 # its first row there
 Settled = tuple[int, "InstanceStart", Any, Any, int]
@@ -296,13 +313,13 @@ class GlueChecks:
                 table = self._instances_of(challenges) if refs.points or refs.finals else None
                 whole = len(chosen) == len(starts)
                 picked = starts if whole else starts.take(chosen)
-                picked_runs = runs if whole else runs[np.array(chosen, dtype=np.int64)]
+                picked_runs = runs if whole else _taken(runs, chosen)
                 if not final:
                     self.groups.append(_Group(template, False, columns, list(picked.claim),
                                               picked_runs, instances=table))
                     continue
                 picked_finals = finals if whole else _taken(finals, chosen)
-                picked_firsts = first_rows if whole else [first_rows[i] for i in chosen]
+                picked_firsts = first_rows if whole else _taken(first_rows, chosen)
                 sizes, orders = list(picked.num_vars), list(picked.order)
                 if sizes.count(sizes[0]) == len(sizes) and orders.count(orders[0]) == len(orders):
                     self.groups.append(_Group(template, True, columns, picked_finals, picked_runs, challenges,
@@ -388,8 +405,11 @@ class GlueChecks:
         return all(_Columns(self.field, self.kernel, values, group, cells).passes() for group in groups)
 
 
-def _taken(values: list[Any] | np.ndarray, chosen: Sequence[int]) -> list[Any] | np.ndarray:
-    """The entries of ``values`` (a list, or a kernel array with one row per entry) at ``chosen``."""
+def _taken(values: Any, chosen: Sequence[int]) -> Any:
+    """The entries of ``values`` (a list, or a kernel array with one row per entry) at ``chosen``: a slice
+    when they are in a row."""
+    if _in_a_row(chosen):
+        return values[chosen[0]:chosen[-1] + 1]
     if values.__class__ is np.ndarray:
         return values[np.array(chosen, dtype=np.int64)]  # type: ignore[index, no-any-return]
     return [values[i] for i in chosen]

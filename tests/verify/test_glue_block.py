@@ -350,3 +350,30 @@ def test_positions_in_a_row_are_taken_as_slices_so_texts_kept_as_bytes_stay_byte
     assert isinstance(taken.claim_expr, TextColumn) and list(taken.claim_expr) == texts[1:5]
     assert list(taken.name) == ["deck.1", "deck.2", "deck.3", "deck.4"] and list(taken.claim) == [1, 2, 3, 4]
     assert list(starts.take([4, 2]).claim_expr) == [texts[4], texts[2]]
+
+
+def test_texts_joined_from_parts_group_as_the_whole_column_does_and_positions_in_a_row_stay_a_range():
+    # the sweep joins a flush's instances from parts (one read alone, then stretches whose texts' templates are
+    # known): each template's positions and names are those shapes_of finds over all the texts at once
+    from stepper.verify.glue_block import shapes_of
+
+    def starts_of(texts: list[str | None], known: bool) -> StartColumns:
+        count = len(texts)
+        return StartColumns([f"deck.{i}" for i in range(count)], [2] * count, [2] * count, ["low-first"] * count,
+                            list(range(count)), texts, [None] * count,
+                            shapes=(shapes_of(texts) if known else None, None))
+
+    alike = [f"a{i} + beta{i}*b{i}" for i in range(40)]
+    other = [f"c{i} * c{i}" for i in range(40)]
+    for texts, cuts in ((alike, (1, 9, 30)), ([None, *alike[1:]], (1, 2)), (alike[:5] + other[:3] + alike[5:], (4, 6)),
+                        ([None, *other[:4], None, *alike], (5, 6, 20))):
+        parts = [texts[low:high] for low, high in zip((0, *cuts), (*cuts, len(texts)))]
+        joined = StartColumns.joined([starts_of(part, known=i % 2 == 1) for i, part in enumerate(parts)])
+        found = joined.text_shapes(False)
+        want = shapes_of(texts)
+        assert found is not None and want is not None
+        assert [(id(t), [list(c) for c in columns], list(positions)) for t, columns, positions in found] == \
+            [(id(t), [list(c) for c in columns], list(positions)) for t, columns, positions in want]
+        for _, _, positions in found:
+            in_a_row = list(positions) == list(range(positions[0], positions[-1] + 1))
+            assert isinstance(positions, range) == in_a_row, (texts, positions)
