@@ -378,14 +378,18 @@ class GlueChecks:
                     if rows is None:
                         rows = _rows_by_place(column, group_runs, runs, names, run_of_row, firsts, step)
                     group.rows[hole] = rows
-                    places = np.where(rows < 0, -1, run_of_row[np.maximum(rows, 0)])
+                    outside = np.flatnonzero(rows < 0)  # names sent before the flush
+                    places = run_of_row[rows]  # each name's run (the rows of -1 read the last run: set below)
+                    if len(outside):
+                        places[outside] = -1
                 else:
                     places = np.fromiter(map(runs.get, column, repeat(-1)), dtype=np.int64, count=len(column))
                     if run_of_row is not None and len(run_of_row):  # rows in the flush -> their runs
                         places = np.where(places < 0, -1, run_of_row[np.maximum(places, 0)])
+                    outside = np.flatnonzero(places < 0)
                 if (places > bound).any():
                     raise Unsupported("a name sent after the expression may read it")
-                before = [column[i] for i in np.flatnonzero(places < 0).tolist()]  # names sent before the flush
+                before = [column[i] for i in outside.tolist()]
                 if not all(map(earlier.__contains__, before)) or any(
                         (earlier[name] is None) == listed for name in before):
                     raise Unsupported("a name not sent before, or of another kind")
