@@ -154,7 +154,7 @@ class StartColumns:
                       _joined_shapes([(part.shapes[1], part.final_expr) for part in parts]))
         from stepper.verify.glue_texts import joined_texts
 
-        name, num_vars, degree, order, claim = (list(chain.from_iterable(column))
+        name, num_vars, degree, order, claim = (_concatenated(column)
                                                 for column in zip(*(part._columns()[:5] for part in parts)))
         return StartColumns(name, num_vars, degree, order, claim, joined_texts([part.claim_expr for part in parts]),
                             joined_texts([part.final_expr for part in parts]), shapes=shapes)
@@ -210,6 +210,14 @@ def _joined_shapes(parts: list[tuple[list[TextShape] | None, Sequence[str | None
         offset += len(texts)
     return [(template, [joined_columns(pieces) for pieces in columns], _joined_positions(positions))
             for template, columns, positions in groups.values()]
+
+
+def _concatenated(columns: Sequence[Sequence[Any]]) -> list[Any]:
+    """The entries of ``columns``, one column after another, in a list (each list extended in at once)."""
+    entries: list[Any] = []
+    for column in columns:
+        entries += column
+    return entries
 
 
 def _in_a_row(positions: Sequence[int]) -> bool:
