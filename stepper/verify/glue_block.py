@@ -77,6 +77,7 @@ class _Group:
     num_vars: int = 0
     order: str = ""
     rows: dict[int, np.ndarray] = dc_field(default_factory=dict)  # by hole: each check's name's row in the flush, or -1
+    uniform: dict[int, bool] = dc_field(default_factory=dict)  # by hole: whether every check names the same
     instances: _Instances | None = None  # for point(NAME) and final(NAME)
 
 
@@ -375,7 +376,8 @@ class GlueChecks:
                 if not isinstance(hole, int):
                     raise Unsupported("a call word used as a name")
                 column = group.columns[hole]
-                if _uniform(column):  # one name for every check (a point, a public value)
+                group.uniform[hole] = uniform = _uniform(column)
+                if uniform:  # one name for every check (a point, a public value)
                     column, bound = column[:1], limits.min(keepdims=True)
                 else:
                     bound = limits
@@ -535,6 +537,11 @@ class _Columns:
             return [name] * self.n
         return self.group.columns[int(name[1:])]
 
+    def uniform(self, name: str, names: Sequence[str]) -> bool:
+        """Whether every check names the same (``names``: :meth:`names` of ``name``), as check_names found."""
+        known = self.group.uniform.get(int(name[1:])) if name[0] == "#" else True
+        return _uniform(names) if known is None else known
+
     def array(self, items: list[Any] | np.ndarray) -> np.ndarray:
         """Canonical elements (the Sequencer and the block checked them) as a kernel array (given as one,
         kept)."""
@@ -555,7 +562,7 @@ class _Columns:
         """The column of one element per check."""
         names = self.names(name)
         values = self.values
-        if _uniform(names):
+        if self.uniform(name, names):
             value = values[names[0]]
             if value.__class__ is list:
                 raise Unsupported(f"{names[0]!r} is a list where an element is wanted")
@@ -581,7 +588,7 @@ class _Columns:
     def lists(self, name: str) -> list[Any]:
         """The list value per check (one list for all when every check names the same one)."""
         names = self.names(name)
-        column = [self.values[names[0]]] if _uniform(names) else [self.values[n] for n in names]
+        column = [self.values[names[0]]] if self.uniform(name, names) else [self.values[n] for n in names]
         if any(v.__class__ is not list for v in column):
             raise Unsupported("an element where a list is wanted")
         return column
