@@ -525,6 +525,10 @@ ALIKE_CHANGES: dict[str, tuple[str, Callable[[int], str], int]] = {
     "an element where a point is wanted": ("final_expr", lambda i: f"eq(a{i}) * (a{i}*b{i} - c{i})", 2),
     "final(NAME) of an opening": ("claim_expr", lambda i: f"final(a{i - 1}) + beta{i - 1}*b{i - 1}", 2),
     "an index into an element": ("claim_expr", lambda i: f"a{i - 1} + beta{i - 1}[0]*b{i - 1}", 2),
+    "the evaluation off: eq of the shared point with itself": ("final_expr", lambda i: f"eq(tau, tau) * (a{i}*b{i} - c{i})",
+                                                               1),
+    "the same value: eq of a point per instance against the shared one, times 0, added": (
+        "final_expr", lambda i: f"eq(point(sailing.{i - 1}), tau) * 0 + eq(tau) * (a{i}*b{i} - c{i})", 0),
 }
 
 
