@@ -384,7 +384,7 @@ class GlueChecks:
                 if by_place and len(column) == len(group_runs):
                     assert names is not None and run_of_row is not None and firsts is not None
                     rows = placed_rows(column, group_runs, firsts, names, lambda part, part_runs: _rows_by_place(
-                        part, part_runs, runs, names, run_of_row, firsts, step))  # type: ignore[arg-type]
+                        part, part_runs, runs, names, run_of_row, firsts, step), step)  # type: ignore[arg-type]
                     if rows is None:
                         rows = _rows_by_place(column, group_runs, runs, names, run_of_row, firsts, step)
                     group.rows[hole] = rows

@@ -285,14 +285,16 @@ def _holds_call_word(rows: np.ndarray) -> bool:
 
 
 def placed_rows(column: Sequence[str], runs: np.ndarray, firsts: np.ndarray, names: Sequence[str],
-                otherwise: Callable[[Sequence[str], np.ndarray], np.ndarray]) -> np.ndarray | None:
+                otherwise: Callable[[Sequence[str], np.ndarray], np.ndarray], step: int | None = None
+                ) -> np.ndarray | None:
     """Each check's name's row among the glue of a block (-1: not there, looked up by name), check k's
     instance being the block's run ``runs[k]``, ``firsts`` each run's first glue row, then the end, and
     ``names`` the block's glue names by row: for the parts of ``column`` that are :class:`PlacedNames`
     placed after their instance's run or the run before, the e-th glue row after that run; for the
     other parts (and row 0 of a part placed before) the row that place gives where the name there is
     theirs, else what ``otherwise`` finds (given the names and their runs). None when no part is so
-    placed, or a run holds fewer glue events than its place says."""
+    placed, or a run holds fewer glue events than its place says. ``step``, when every run holds that
+    many glue rows (``firsts`` counts up by it from 0), gives the rows of the usual case by arithmetic."""
     import numpy as np
 
     parts = column.parts if isinstance(column, Chained) else [column]
@@ -302,7 +304,7 @@ def placed_rows(column: Sequence[str], runs: np.ndarray, firsts: np.ndarray, nam
     common = places[0]
     if places.count(common) == len(places) and len(runs):  # the usual case: every placed part placed alike
         skip = int(common[0] == BEFORE and int(runs[0]) == 0)  # the block's first run has no run before it
-        found = _at_place(common, runs[skip:], firsts)
+        found = _at_place(common, runs[skip:], firsts, step)
         if found is not None:
             if skip:
                 found = np.concatenate((np.full(1, -1, dtype=np.int64), found))
@@ -332,13 +334,16 @@ def placed_rows(column: Sequence[str], runs: np.ndarray, firsts: np.ndarray, nam
     return rows
 
 
-def _at_place(place: tuple[str, int], runs: np.ndarray, firsts: np.ndarray) -> np.ndarray | None:
+def _at_place(place: tuple[str, int], runs: np.ndarray, firsts: np.ndarray, step: int | None = None
+              ) -> np.ndarray | None:
     """The rows ``place`` gives for checks of ``runs`` (the e-th glue row after the run, or the run before),
-    or None when some run has no such row."""
+    or None when some run has no such row (``step``: see :func:`placed_rows`)."""
     kind, e = place
     after = runs - 1 if kind == BEFORE else runs
     if len(after) and (int(after.min()) < 0 or int(after.max()) >= len(firsts) - 1):
         return None
+    if step is not None:  # run r's rows are r * step .. r * step + step - 1
+        return after * step + e if e < step or not len(after) else None
     found = firsts[after] + e
     return None if (found >= firsts[after + 1]).any() else found  # type: ignore[no-any-return]
 

@@ -106,6 +106,30 @@ def test_rows_follow_from_places_and_other_parts_are_checked_against_the_names_o
     assert placed_rows(["a20", "a21"], np.array([0, 1]), firsts, names, otherwise) is None  # nothing placed
 
 
+@pytest.mark.parametrize("kind", [OWN, BEFORE])
+@pytest.mark.parametrize("e", [0, 2, 3, 4])
+def test_rows_of_runs_holding_one_count_of_glue_each_follow_from_that_count_as_from_each_runs_first_row(kind, e):
+    # every run holds 4 glue events: the e-th after run r is row 4 r + e (the step), as firsts give it; past the
+    # count (e = 4) no run holds it and neither way finds a row
+    names = [f"{letter}{run}" for run in range(6) for letter in "abcd"]
+    firsts = np.arange(0, 25, 4)
+
+    def otherwise(part, runs):  # type: ignore[no-untyped-def]
+        return np.array([names.index(name) if name in names else -1 for name in part], dtype=np.int64)
+
+    for runs in (np.arange(1, 6), np.array([1, 3, 4]), np.arange(6), np.arange(0)):
+        sent = runs - 1 if kind == BEFORE else runs
+        letter = "abcd"[min(e, 3)]
+        rows = np.frombuffer("".join(f"{letter}{r}" if r >= 0 else f"{letter}9" for r in sent).encode(),
+                            dtype=np.uint8).reshape(len(runs), 2)
+        column = PlacedNames(rows, (kind, e))
+        by_step = placed_rows(column, runs, firsts, names, otherwise, 4)
+        by_firsts = placed_rows(column, runs, firsts, names, otherwise)
+        assert (by_step is None) == (by_firsts is None) == (e == 4 and len(runs) > 0), (runs, e)
+        if by_step is not None:
+            assert by_step.tolist() == by_firsts.tolist()  # type: ignore[union-attr]
+
+
 def test_columns_joined_stay_lists_when_every_part_is_one():
     assert joined_columns([["a"], ["b", "c"]]) == ["a", "b", "c"]
     placed = PlacedNames(np.frombuffer(b"xy", dtype=np.uint8).reshape(2, 1), (OWN, 0))
