@@ -787,3 +787,54 @@ def test_a_glue_name_sent_twice_in_a_window_read_on_is_refused_as_the_replay_ref
     write_named(path, **written, sent_as=sent_as)
     code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
     assert code == 2 and swept is None and "unique" in err, (code, out, err)
+
+
+# ----- 10. expressions across flushes: the names of the flush before, the rows by count ------------------
+
+FLUSH_CHANGES: dict[str, tuple[str, Callable[[int], str], int, Callable[[int], bool]]] = {
+    "none": ("claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*b{i - 1}", 0, lambda i: False),
+    "the evaluation off at each flush's first instance": (
+        "final_expr", lambda i: f"eq(tau) * (a{i}*b{i} - a{i})", 1, lambda i: i % 20 == 0),
+    "the evaluation off at each flush's last instance": (
+        "final_expr", lambda i: f"eq(tau) * (a{i}*b{i} - a{i})", 1, lambda i: i % 20 == 19),
+    "a claim reading the point as an element at a flush's first instance": (
+        "claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*tau", 2, lambda i: i == 60),
+    "a claim reading an opening sent after it at a flush's first instance": (
+        "claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*b{i}", 2, lambda i: i == 60),
+    "claims reading an opening of the flush before": (
+        "claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*b{i - 1} + a{i - 25}*0", 0, lambda i: i >= 25),
+    "claims reading an opening of the flush before, off": (
+        "claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*b{i - 1} + a{i - 25}", 1, lambda i: i >= 45),
+    "claims reading a point of the flush before as an element": (
+        "claim_expr", lambda i: f"a{i - 1} + beta{i - 1}*b{i - 1} + tau*0", 2, lambda i: i >= 45),
+}
+
+
+@pytest.mark.parametrize("change", list(FLUSH_CHANGES))
+def test_expressions_reading_across_flushes_of_twenty_instances_check_as_the_replay(tmp_path, capsys, monkeypatch,
+                                                                                  change):
+    # blocks of 60 rounds: a flush holds 20 instances of 3 rounds, so a claim_expr at each flush's first instance reads
+    # names the flush before sent (looked up beside the flush's own), and every run holds four glue events (rows by
+    # their count); the independent side is the event-by-event replay (check_both), whose exit code is the one
+    # expected here and whose output the sweep's must be byte for byte
+    import stepper.verify.glue_block as glue_block
+    import stepper.verify.sweep as sweep_module
+
+    key, text, expected, where = FLUSH_CHANGES[change]
+    path = tmp_path / "flushes.sumtr"
+    write_pointed(path, count=120, pointed=False, seed=53)
+    data = path.read_bytes()
+    for group in instance_events(data)[:0:-1]:  # from the last: the offsets before it stay put
+        _, start, end = group[0]
+        payload = msgpack.unpackb(data[start:end], raw=False)
+        i = int(payload["name"].removeprefix("sailing."))
+        if where(i):
+            payload[key] = text(i)
+            data = data[:start] + msgpack.packb(payload, use_bin_type=True) + data[end:]
+    path.write_bytes(resealed(data))
+    monkeypatch.setattr(sweep_module, "BLOCK_ROUNDS", 60)
+    flushes = returns_of(monkeypatch, glue_block.GlueChecks, "check")
+    code, out, err, swept = check_both(capsys, monkeypatch, path)
+    assert code == expected and (swept is not None) == (expected == 0), (code, out, err)
+    if expected == 0:
+        assert len(flushes) >= 5 and all(flushes)  # checked by the block, flush by flush
