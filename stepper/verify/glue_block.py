@@ -17,7 +17,7 @@ The instances of a flush are grouped by template (and, for an evaluation, by the
 length of the point and the block that holds its challenges); each hole of the
 template becomes a column of the values it names, instance by instance, and the
 template is evaluated once per group with the block kernel: a numpy pass per node,
-a few per coordinate of an ``eq``. Values are read from the replay's glue book; names
+a few for an ``eq`` (every coordinate's factor at once, then their product by halves). Values are read from the replay's glue book; names
 are unique in a proof and never change once sent, so reading them at the end of a
 flush gives what the replay reads when it checks. The sweep flushes only where every
 name an expression of the flush reads has come (before the next instance, or at the end);
