@@ -151,7 +151,9 @@ def _alike(u8: np.ndarray, at: int, period: int, count: int, fixed: np.ndarray, 
         compared[fixed] = True
         differ = np.not_equal(periods, periods[0])
         differ &= compared  # in place: the expression's temporaries took 5x as long (0.5 -> 0.1 ms at 600 x 1 KB)
-        same = ~differ.any(axis=1)
+        flat = differ.reshape(-1)  # a view: row after row
+        first = int(flat.argmax())  # the first True (booleans: a scan that stops there), 0 when none
+        same = np.arange(count) < (first // period if flat[first] else count)  # a period alike up to the first that differs
     starts = at + period * np.arange(count)
     degrees = periods[:, degree_at]
     same &= (degrees < 0x80) & (degrees.astype(np.int64) + 1 >= layout.values)

@@ -362,6 +362,24 @@ def test_a_glue_event_changed_in_place_in_a_stretch_of_blobs_alike_is_refused_as
     assert code == 2 and swept is None, (code, out, err)
 
 
+@pytest.mark.parametrize("instance", [11, 12, 55, 98, 99, 101, 129])  # after a span's first, inside, its last ones
+@pytest.mark.parametrize("key", [b"\xa8num_vars", b"\xa6degree"])
+def test_a_key_of_one_glued_instance_respelled_in_place_is_refused_as_the_replay_refuses_it(
+        tmp_path, capsys, monkeypatch, glued_alike, instance, key):
+    # instances laid out alike are found by comparing every byte of a period that must be the first's (keys,
+    # prefixes, the glue's layout) with the first's at once, up to the first period that differs: a key of one
+    # instance's event spelled otherwise (its last letter changed: the same length, so every offset holds) stops
+    # the span there, and the replay refuses the event; the sweep must not take it as one of the span
+    _, start, end = instance_events(glued_alike)[instance][0]
+    event = glued_alike[start:end]
+    assert event.count(key) == 1
+    new = event.replace(key, key[:-1] + bytes((key[-1] + 1,)))
+    path = tmp_path / "respelled.sumtr"
+    path.write_bytes(replaced(glued_alike, start, end, new))
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 2 and swept is None, (code, out, err)
+
+
 # ----- 7. primes of every limb count -----------------------------------------------------
 
 # the largest primes below 2^65, 2^200, 2^384 and 2^512 (sympy.prevprime, computed once; the test below checks
