@@ -365,8 +365,10 @@ def read_glue_periods(data: bytes, width: int, size: int) -> GlueColumnsRead | N
     rows = np.full((count, len(name_columns) + len(lengths)), 0x0A, dtype=np.uint8)  # each name, then a newline
     rows[:, np.arange(len(name_columns)) + np.repeat(np.arange(len(lengths)), lengths)] = picked
     joined = rows.tobytes()  # the names as strings only when asked for (GlueColumnsRead.names)
-    element_columns = (np.array(element_at)[:, None] + np.arange(width)).ravel()
-    elements = blobs[:, element_columns].reshape(count * len(lengths), width)
+    laid = np.empty((count, len(lengths), width), dtype=np.uint8)  # a slice per event: half a gather's time
+    for e, at in enumerate(element_at):
+        laid[:, e] = blobs[:, at:at + width]
+    elements = laid.reshape(count * len(lengths), width)
     ends = (np.arange(count, dtype=np.int64)[:, None] * size + first.ends).ravel()
     return GlueColumnsRead(np.tile(first.codes, count), None, elements, ends,
                            (np.tile(np.array(lengths, dtype=np.int64), count), joined), [(0, picked, lengths)])

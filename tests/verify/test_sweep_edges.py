@@ -380,6 +380,19 @@ def test_a_key_of_one_glued_instance_respelled_in_place_is_refused_as_the_replay
     assert code == 2 and swept is None, (code, out, err)
 
 
+@pytest.mark.parametrize("instance", [11, 55, 99, 128])
+@pytest.mark.parametrize("kind, which", [("opening", 0), ("opening", 1), ("opening", 2), ("squeeze", 0)])
+def test_each_glue_element_one_off_inside_a_stretch_of_blobs_alike_fails_where_the_replay_fails(
+        tmp_path, capsys, monkeypatch, glued_alike, instance, kind, which):
+    # every glue event of a stretch's blob after the first is read at its own offset in the blob (the element
+    # of each event taken by place): one element one off, whichever event holds it, fails that instance as the
+    # replay fails it (an opening: its evaluation; the squeeze: the challenge it should be)
+    path = tmp_path / "glued.sumtr"
+    path.write_bytes(one_off(glued_alike, instance, kind, which))
+    code, out, err, swept = check_both(capsys, monkeypatch, path, "--rows", "3")
+    assert code == 1 and swept is None and f"instance #{instance} " in out, (out, err)
+
+
 # ----- 7. primes of every limb count -----------------------------------------------------
 
 # the largest primes below 2^65, 2^200, 2^384 and 2^512 (sympy.prevprime, computed once; the test below checks
