@@ -608,7 +608,7 @@ class _Sweeper:
             names = texts(varying[0])
             # the texts read by template stay bytes (ASCII: compared with the first's, names of name characters)
             claim_texts, final_texts = (
-                texts(next(spans) if present is not None else None) if shape is None or not shape
+                texts(next(spans) if present is not None else None) if not shape
                 else FixedTexts(periods[:, slice(*next(spans))].copy()) for present, shape in zip(head[5:7], shapes))
         except UnicodeDecodeError:
             return False  # the usual path names it

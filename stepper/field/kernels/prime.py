@@ -227,7 +227,9 @@ class GoldilocksKernel(WideKernel):
         return self._reduced(lo, hi)
 
     def _reduced(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-        """:meth:`reduce128` worked in place in ``lo`` and ``hi`` (both overwritten: the product's own words)."""
+        """(hi * 2^64 + lo) mod p with hi = hh * 2^32 + hl: lo - hh + hl * (2^32 - 1), worked in place in
+        ``lo`` and ``hi`` (both overwritten; of one shape: :meth:`mul`'s own words, or
+        :meth:`reduce128`'s copies). Branch-free: np.where costs about 5x more here."""
         m32 = np.uint64(0xFFFFFFFF)
         hh = hi >> np.uint64(32)
         hi &= m32
@@ -244,15 +246,12 @@ class GoldilocksKernel(WideKernel):
         return np.minimum(lo, hh, out=lo)  # below p, lo - p wraps above lo
 
     def reduce128(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-        """(hi * 2^64 + lo) mod p with hi = hh * 2^32 + hl: lo - hh + hl * (2^32 - 1)."""
-        m32 = np.uint64(0xFFFFFFFF)
-        hh = hi >> np.uint64(32)
-        hl = hi & m32
-        t = lo - hh
-        t = t - (lo < hh) * m32  # borrow: subtract 2^64 = add p - 2^64 = -(2^32 - 1)
-        r = t + hl * m32  # hl * m32 < 2^64
-        r = r + (r < t) * m32  # carry: add 2^64 = 2^32 - 1
-        return np.minimum(r, r - self.p64)  # branch-free: np.where costs about 5x more here
+        """(hi * 2^64 + lo) mod p with hi = hh * 2^32 + hl: lo - hh + hl * (2^32 - 1); the inputs are left
+        as they are (:meth:`_reduced` works on copies of them)."""
+        lo, hi = np.broadcast_arrays(np.asarray(lo, dtype=np.uint64), np.asarray(hi, dtype=np.uint64))
+        if not lo.ndim:  # two scalars: worked in arrays of one, as mul does
+            return self._reduced(lo.reshape(1).copy(), hi.reshape(1).copy())[0]  # type: ignore[no-any-return]
+        return self._reduced(lo.copy(), hi.copy())
 
 
 class Word64Kernel(WideKernel):
