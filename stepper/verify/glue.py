@@ -116,14 +116,13 @@ class GlueBook:
         # the end of every column first, the newest first (what a block's first expressions read was sent last,
         # often in the column before the block's own), then the rest of each
         columns = [(names, values, max(0, len(names) - _TAIL)) for names, values in reversed(self._waiting)]
-        for names, values, tail in columns:
-            if name in names[tail:]:
-                return True, values[names.index(name, tail)]
-        for names, values, tail in columns:
-            try:
-                return True, values[names.index(name, 0, tail)]
-            except ValueError:
-                continue
+        for part in ("tail", "rest"):
+            for names, values, tail in columns:
+                begin, end = (tail, len(names)) if part == "tail" else (0, tail)
+                try:
+                    return True, values[names.index(name, begin, end)]
+                except ValueError:
+                    continue
         return False, None
 
     def close_instance(self, start: InstanceStart, challenges: list[Element] | None, final: Element | None) -> None:
